@@ -1,0 +1,157 @@
+/**
+ * What every conduction mechanism declares. A mechanism is a linearization (x and y transforms
+ * under which its forward model is a straight line), the inputs it needs, its forward model (the
+ * simulator calls it), and the extraction of physical parameters from slope and intercept with
+ * propagated standard errors and plausibility notes.
+ */
+import type { LineFit } from './line-fit.js';
+
+/** Physical inputs, SI units. Every field optional until a mechanism needs it. */
+export interface Inputs {
+  /** Film thickness d, m. */
+  thickness?: number;
+  /** Device area, m². */
+  area?: number;
+  /** Temperature, K. */
+  temperature?: number;
+  /** Tunnelling effective-mass ratio m* / m₀. */
+  massRatio?: number;
+  /** Relative permittivity ε_r (static, for space-charge-limited current). */
+  permittivity?: number;
+  /** Optical refractive index n (dynamic permittivity ≈ n²). */
+  refractiveIndex?: number;
+  /** Flat-band (offset) voltage subtracted from the bias before computing the field, V. */
+  flatBand?: number;
+  /** Richardson constant A*, A·m⁻²·K⁻². */
+  richardson?: number;
+}
+export type InputName = keyof Inputs;
+
+/** Inputs with the defaults a fit applied; `assumed` lists the ones that were not given. */
+export interface ResolvedInputs extends Inputs {
+  temperature: number;
+  massRatio: number;
+  flatBand: number;
+  richardson: number;
+  assumed: InputName[];
+}
+
+export type AxisKind = 'linear' | 'log';
+
+export interface AxisSpec {
+  /** Quantity plotted, in the trade's notation, e.g. "J/E²". */
+  readonly label: string;
+  /** Unit of that quantity (depends on whether an area was given). */
+  readonly unit: string;
+  /** 'log': the quantity is shown on a log axis and fitted as its natural logarithm. */
+  readonly kind: AxisKind;
+}
+
+export interface ParameterValue {
+  readonly value: number;
+  readonly stdErr: number;
+  readonly unit: string;
+}
+
+export interface Extraction {
+  readonly parameters: Record<string, ParameterValue>;
+  /** Plausibility notes and caveats, in words a user can act on. */
+  readonly warnings: string[];
+  /** False when a check says the mechanism cannot describe these data (e.g. wrong slope sign). */
+  readonly plausible: boolean;
+  /** Positive findings worth reporting in a ranking (e.g. "ε_r close to n²"). */
+  readonly notes: string[];
+}
+
+/** Points in the fit's coordinates, sorted by x; `v` holds the bias each came from. */
+export interface FitPoints {
+  readonly x: Float64Array;
+  readonly y: Float64Array;
+  readonly w: Float64Array | undefined;
+  /** Bias as the mechanism saw it (|V − V_FB|, raw V, or T). */
+  readonly v: Float64Array;
+  /** The x column as recorded (for windows stated in the data's own x). */
+  readonly raw: Float64Array;
+  /** The y column as recorded. */
+  readonly current: Float64Array;
+}
+
+export interface ExtractionInput {
+  readonly line: LineFit;
+  /** The points inside the window (the ones the line was fitted to). */
+  readonly used: FitPoints;
+  /** Every transformable point, inside the window or not (for regime analysis). */
+  readonly all: FitPoints;
+  readonly inputs: ResolvedInputs;
+}
+
+/**
+ * How the bias column enters: 'magnitude' uses |V − V_FB| for one polarity (the other polarity is
+ * excluded and counted); 'raw' uses the column as it is; 'temperature' reads it as T in kelvin.
+ */
+export type BiasMode = 'magnitude' | 'raw' | 'temperature';
+
+export interface Mechanism {
+  readonly id: string;
+  readonly title: string;
+  /** Whether y is fitted as a logarithm of the current (density) or as the current itself. */
+  readonly yKind: AxisKind;
+  readonly bias: BiasMode;
+  /** Inputs without which the mechanism cannot be fitted at all. */
+  readonly requires: readonly InputName[];
+  /** Inputs that add parameters or checks when present. */
+  readonly uses: readonly InputName[];
+  /** Whether J = I/area is used when an area is known. */
+  readonly usesArea: boolean;
+  /** Whether the mechanism takes part in the automatic ranking of I–V data. */
+  readonly ranked: boolean;
+  axes(inputs: ResolvedInputs): { x: AxisSpec; y: AxisSpec };
+  /** x coordinate from the bias (after the bias mode is applied). */
+  x(bias: number, inputs: ResolvedInputs): number;
+  /**
+   * For log mechanisms: y = ln(J) − lnOffset(bias), e.g. ln(E²) for Fowler–Nordheim. For linear
+   * mechanisms y = J and this is absent.
+   */
+  lnOffset?(bias: number, inputs: ResolvedInputs): number;
+  extract(input: ExtractionInput): Extraction;
+  /**
+   * Forward model: current density (A/m², or A when no area applies) at the bias, from the
+   * mechanism's physical parameters. The simulator and the synthetic-data tests call this.
+   */
+  forward(bias: number, params: Record<string, number>, inputs: ResolvedInputs): number;
+}
+
+/** Helper for a parameter entry. */
+export function param(value: number, stdErr: number, unit: string): ParameterValue {
+  return { value, stdErr, unit };
+}
+
+/** Unit of the y quantity J: a density when an area is given, a current otherwise. */
+export function currentUnit(inputs: Inputs, usesArea = true): string {
+  return usesArea && inputs.area !== undefined ? 'A/m^2' : 'A';
+}
+
+/** Field in the film from the bias magnitude, V/m. */
+export function field(bias: number, inputs: Inputs): number {
+  return bias / (inputs.thickness as number);
+}
+
+/** Range check that adds a warning and returns whether the value is inside. */
+export function inRange(
+  warnings: string[],
+  what: string,
+  value: number,
+  lo: number,
+  hi: number,
+  unit: string,
+): boolean {
+  if (value >= lo && value <= hi && Number.isFinite(value)) return true;
+  warnings.push(`${what} = ${fmt(value)} ${unit} is outside the plausible range ${fmt(lo)}–${fmt(hi)} ${unit}`);
+  return false;
+}
+
+/** Four significant digits, for messages. */
+export function fmt(v: number): string {
+  if (!Number.isFinite(v)) return String(v);
+  return Number(v.toPrecision(4)).toString();
+}

@@ -1,0 +1,53 @@
+/**
+ * `fowler-nordheim`: tunnelling through a triangular barrier (Lenzlinger & Snow 1969; constants in
+ * Forbes' form, Appl. Phys. Lett. 89, 113122, 2006):
+ *   J = a/(m_r·φ)·E²·exp(−b·√m_r·φ^{3/2}/E),  a = q³/(8πh), b = (8π/3)√(2m₀)/(qh).
+ * ln(J/E²) against 1/E is straight with slope −b√m_r φ^{3/2}, so φ = (−slope/(b√m_r))^{2/3}.
+ * The intercept in principle gives m_r·φ but depends on the effective area; it is not used.
+ */
+import { FN_A_A_EV_PER_V2, FN_B_EV32_V_PER_M } from '../constants.js';
+import { currentUnit, field, fmt, inRange, param, type Extraction, type Mechanism } from '../mechanism.js';
+
+/** Fowler–Nordheim current density, A/m², at field E (V/m), barrier φ (eV), mass ratio m_r. */
+export function fowlerNordheim(e: number, barrierHeight: number, massRatio: number): number {
+  return (
+    (FN_A_A_EV_PER_V2 / (massRatio * barrierHeight)) * e * e *
+    Math.exp((-FN_B_EV32_V_PER_M * Math.sqrt(massRatio) * barrierHeight ** 1.5) / e)
+  );
+}
+
+/** Barrier (eV) from an FN or trap-assisted-tunnelling slope (V/m) and mass ratio, with its error. */
+export function barrierFromTunnellingSlope(slope: number, slopeStdErr: number, massRatio: number) {
+  const phi = Math.pow(-slope / (FN_B_EV32_V_PER_M * Math.sqrt(massRatio)), 2 / 3);
+  return { value: phi, stdErr: (2 / 3) * phi * Math.abs(slopeStdErr / slope) };
+}
+
+export const fowlerNordheimMechanism: Mechanism = {
+  id: 'fowler-nordheim',
+  title: 'Fowler–Nordheim tunnelling, ln(J/E²) against 1/E',
+  yKind: 'log',
+  bias: 'magnitude',
+  requires: ['thickness'],
+  uses: ['massRatio', 'area', 'flatBand'],
+  usesArea: true,
+  ranked: true,
+  axes: (inp) => ({
+    x: { label: '1/E', unit: 'm/V', kind: 'linear' },
+    y: { label: 'J/E²', unit: `${currentUnit(inp)}/(V/m)^2`, kind: 'log' },
+  }),
+  x: (v, inp) => 1 / field(v, inp),
+  lnOffset: (v, inp) => 2 * Math.log(field(v, inp)),
+  extract: ({ line, inputs }): Extraction => {
+    const warnings: string[] = [];
+    const notes: string[] = [];
+    if (!(line.slope < 0)) {
+      warnings.push('ln(J/E²) does not fall with 1/E (slope ≥ 0): not Fowler–Nordheim tunnelling');
+      return { parameters: {}, warnings, plausible: false, notes };
+    }
+    const b = barrierFromTunnellingSlope(line.slope, line.slopeStdErr, inputs.massRatio);
+    const plausible = inRange(warnings, 'barrier height', b.value, 0.3, 6, 'eV');
+    notes.push(`barrier ${fmt(b.value)} eV for m* / m0 = ${fmt(inputs.massRatio)}`);
+    return { parameters: { barrierHeight: param(b.value, b.stdErr, 'eV') }, warnings, plausible, notes };
+  },
+  forward: (v, p, inp) => fowlerNordheim(field(v, inp), p.barrierHeight, inp.massRatio),
+};

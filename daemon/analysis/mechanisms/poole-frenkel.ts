@@ -1,0 +1,79 @@
+/**
+ * `poole-frenkel`: field-assisted emission from traps (Frenkel 1938; Chiu, Adv. Mater. Sci. Eng.
+ * 2014, 578168):  J = C·E·exp(−q(φ_T − √(qE/(π ε₀ ε_r)))/(kT)).
+ * ln(J/E) against √E has slope (q/kT)·√(q/(π ε₀ ε_r)), so ε_r = q³/(π ε₀ (kT)² slope²): the dynamic
+ * (optical) permittivity, which should be near n². The lowering is twice the Schottky one, so the
+ * same data read as Schottky give an ε_r four times smaller.
+ */
+import { BOLTZMANN_J_PER_K, ELEMENTARY_CHARGE_C as Q, VACUUM_PERMITTIVITY_F_PER_M as EPS0 } from '../constants.js';
+import { currentUnit, field, fmt, inRange, param, type Extraction, type Mechanism } from '../mechanism.js';
+
+/** Coefficient of √E in the exponent for a lowering √(qE/(γ π ε₀ ε_r)): γ = 1 PF, γ = 4 Schottky. */
+export function rootFieldSlope(permittivity: number, temperature: number, gamma: 1 | 4): number {
+  return (Q / (BOLTZMANN_J_PER_K * temperature)) * Math.sqrt(Q / (gamma * Math.PI * EPS0 * permittivity));
+}
+
+/** Inverse of rootFieldSlope: ε_r from a √E slope, with its standard error (δε/ε = 2δm/m). */
+export function permittivityFromRootFieldSlope(slope: number, slopeStdErr: number, temperature: number, gamma: 1 | 4) {
+  const kt = BOLTZMANN_J_PER_K * temperature;
+  const eps = (Q * Q * Q) / (gamma * Math.PI * EPS0 * kt * kt * slope * slope);
+  return { value: eps, stdErr: 2 * eps * Math.abs(slopeStdErr / slope) };
+}
+
+/**
+ * Compares a dynamic permittivity with n². Returns the ratio and adds notes or warnings; `other`
+ * names the mechanism whose ε_r would be 4× (PF read as Schottky) or ¼× (Schottky read as PF).
+ */
+export function checkAgainstIndex(
+  eps: number,
+  n: number | undefined,
+  warnings: string[],
+  notes: string[],
+  other: { name: string; factor: number },
+): boolean {
+  if (n === undefined) return true;
+  const ratio = eps / (n * n);
+  if (ratio > 0.5 && ratio < 2) {
+    notes.push(`ε_r = ${fmt(eps)} is close to n² = ${fmt(n * n)} (ratio ${fmt(ratio)})`);
+    return true;
+  }
+  const alt = ratio * other.factor;
+  const hint = alt > 0.5 && alt < 2 ? `; read as ${other.name} it would be ${fmt(eps * other.factor)}, close to n²` : '';
+  warnings.push(`ε_r = ${fmt(eps)} is far from n² = ${fmt(n * n)} (ratio ${fmt(ratio)})${hint}`);
+  return false;
+}
+
+export function pooleFrenkel(e: number, prefactor: number, trapDepth: number, permittivity: number, temperature: number): number {
+  const kt = (BOLTZMANN_J_PER_K * temperature) / Q; // eV
+  return prefactor * e * Math.exp((-trapDepth) / kt + rootFieldSlope(permittivity, temperature, 1) * Math.sqrt(e));
+}
+
+export const pooleFrenkelMechanism: Mechanism = {
+  id: 'poole-frenkel',
+  title: 'Poole–Frenkel emission, ln(J/E) against √E',
+  yKind: 'log',
+  bias: 'magnitude',
+  requires: ['thickness'],
+  uses: ['temperature', 'refractiveIndex', 'area', 'flatBand'],
+  usesArea: true,
+  ranked: true,
+  axes: (inp) => ({
+    x: { label: '√E', unit: '(V/m)^0.5', kind: 'linear' },
+    y: { label: 'J/E', unit: `${currentUnit(inp)}/(V/m)`, kind: 'log' },
+  }),
+  x: (v, inp) => Math.sqrt(field(v, inp)),
+  lnOffset: (v, inp) => Math.log(field(v, inp)),
+  extract: ({ line, inputs }): Extraction => {
+    const warnings: string[] = [];
+    const notes: string[] = [];
+    if (!(line.slope > 0)) {
+      warnings.push('ln(J/E) does not rise with √E (slope ≤ 0): not Poole–Frenkel emission');
+      return { parameters: {}, warnings, plausible: false, notes };
+    }
+    const eps = permittivityFromRootFieldSlope(line.slope, line.slopeStdErr, inputs.temperature, 1);
+    let plausible = inRange(warnings, 'dynamic permittivity', eps.value, 1, 30, '');
+    plausible = checkAgainstIndex(eps.value, inputs.refractiveIndex, warnings, notes, { name: 'Schottky emission', factor: 0.25 }) && plausible;
+    return { parameters: { relativePermittivity: param(eps.value, eps.stdErr, '1') }, warnings, plausible, notes };
+  },
+  forward: (v, p, inp) => pooleFrenkel(field(v, inp), p.prefactor, p.trapDepth, p.relativePermittivity, inp.temperature),
+};

@@ -1,0 +1,64 @@
+#!/usr/bin/env node
+// Makes a fresh clone runnable with nothing done before: installs the npm dependencies when they
+// are missing or older than the lockfile, compiles the TypeScript, and (with --system) installs the
+// Debian packages the integration and browser tests need (socat, chromium) when they are absent.
+// Uses only Node built-ins, because it runs before any dependency exists.
+import { spawnSync } from 'node:child_process';
+import { existsSync, statSync } from 'node:fs';
+import { dirname, join } from 'node:path';
+import { fileURLToPath } from 'node:url';
+
+const root = join(dirname(fileURLToPath(import.meta.url)), '..', '..');
+const wantSystem = process.argv.includes('--system');
+
+function run(cmd, args, opts = {}) {
+  const r = spawnSync(cmd, args, { cwd: root, stdio: 'inherit', ...opts });
+  if (r.error) throw r.error;
+  if (r.status !== 0) {
+    console.error(`plumbline setup: '${cmd} ${args.join(' ')}' failed (exit ${r.status})`);
+    process.exit(r.status ?? 1);
+  }
+}
+
+function mtime(p) {
+  try { return statSync(p).mtimeMs; } catch { return -1; }
+}
+
+function onPath(name) {
+  const r = spawnSync('sh', ['-c', `command -v ${name}`], { stdio: 'ignore' });
+  return r.status === 0;
+}
+
+// 1. npm dependencies
+const stamp = join(root, 'node_modules', '.package-lock.json');
+if (!existsSync(stamp) || mtime(join(root, 'package-lock.json')) > mtime(stamp)) {
+  console.error('plumbline setup: installing npm dependencies (npm ci) ...');
+  run('npm', ['ci', '--no-audit', '--no-fund']);
+}
+
+// 2. Debian packages the tests need
+if (wantSystem) {
+  const needed = [
+    ['socat', 'socat'],
+    ['chromium', 'chromium'],
+  ].filter(([bin]) => !onPath(bin)).map(([, pkg]) => pkg);
+  if (needed.length > 0) {
+    const isRoot = typeof process.getuid === 'function' && process.getuid() === 0;
+    const sudo = isRoot ? [] : onPath('sudo') ? ['sudo', '-n'] : null;
+    if (sudo === null || !onPath('apt-get')) {
+      console.error(`plumbline setup: the tests need ${needed.join(', ')}; install them with your ` +
+        `package manager (Debian: apt-get install ${needed.join(' ')}) and run the tests again.`);
+      process.exit(1);
+    }
+    console.error(`plumbline setup: installing Debian packages: ${needed.join(' ')} ...`);
+    const env = { ...process.env, DEBIAN_FRONTEND: 'noninteractive' };
+    const pre = sudo.length ? sudo : [];
+    const cmd = pre.length ? pre[0] : 'apt-get';
+    const lead = pre.length ? [...pre.slice(1), 'apt-get'] : [];
+    run(cmd, [...lead, 'update', '-qq'], { env });
+    run(cmd, [...lead, 'install', '-y', '-qq', '--no-install-recommends', ...needed], { env });
+  }
+}
+
+// 3. compile (incremental, so a second run costs little)
+run(process.execPath, [join(root, 'node_modules', 'typescript', 'bin', 'tsc'), '-p', 'tsconfig.json']);

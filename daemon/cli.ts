@@ -1,0 +1,121 @@
+#!/usr/bin/env node
+/**
+ * The `plumbline` command. Wiring only: each subcommand parses its options, calls the analysis or
+ * daemon modules, and prints either a readable table or exactly one JSON object.
+ * Exit codes: 0 done; 1 the analysis could not be done on these data; 2 bad input or usage.
+ */
+import { Command, CommanderError } from 'commander';
+import { analyze } from './analysis/analyze.js';
+import { AnalysisError } from './analysis/errors.js';
+import { MODEL_IDS } from './analysis/mechanisms/index.js';
+import { rankMechanisms } from './analysis/ranking.js';
+import { CsvError } from '../protocols/csv-table.js';
+import { runDemo } from './demo.js';
+import { formatFit, formatRanking } from './cli/format.js';
+import {
+  type AnalysisOptions,
+  loadData,
+  readAccuracy,
+  readCompliance,
+  readInputs,
+  readWindow,
+  withAnalysisOptions,
+} from './cli/inputs.js';
+import { QuantityError } from './quantity.js';
+
+const program = new Command();
+program
+  .name('plumbline')
+  .description('Live and offline analysis of current–voltage sweeps from source-measure units.')
+  .version('0.1.0')
+  .showHelpAfterError()
+  .exitOverride();
+
+function print(json: boolean | undefined, obj: unknown, text: () => string): void {
+  process.stdout.write(json ? `${JSON.stringify(obj)}\n` : `${text()}\n`);
+}
+
+interface FitOptions extends AnalysisOptions {
+  model: string;
+  xExpr?: string;
+  yExpr?: string;
+  yAxis?: string;
+}
+
+withAnalysisOptions(
+  program
+    .command('fit')
+    .description('fit one conduction mechanism to an I-V CSV and extract its physical parameters')
+    .argument('<file>', 'CSV with a header row; x = first column (V, or K for arrhenius), y = second (A)')
+    .requiredOption('--model <id>', `mechanism: ${MODEL_IDS.join(', ')}`)
+    .option('--x-expr <expr>', 'custom model: x as a mathjs expression over the columns (by header or c1, c2 …)')
+    .option('--y-expr <expr>', 'custom model: y as a mathjs expression over the columns')
+    .option('--y-axis <kind>', 'custom model: log (fit ln y) or linear', 'linear'),
+).action((file: string, o: FitOptions) => {
+  const { data } = loadData(file, o);
+  if (o.yAxis !== 'log' && o.yAxis !== 'linear') throw new QuantityError('--y-axis', `--y-axis '${o.yAxis}': expected log or linear`);
+  const report = analyze(data, {
+    model: o.model,
+    inputs: readInputs(o),
+    window: readWindow(o, o.model === 'arrhenius'),
+    accuracy: readAccuracy(o),
+    complianceLimit: readCompliance(o),
+    custom: o.model === 'custom' && o.xExpr !== undefined && o.yExpr !== undefined
+      ? { x: o.xExpr, y: o.yExpr, yAxis: o.yAxis }
+      : undefined,
+  });
+  print(o.json, report, () => formatFit(report));
+});
+
+withAnalysisOptions(
+  program
+    .command('rank')
+    .description('fit every applicable mechanism to the same points and rank them')
+    .argument('<file>', 'CSV with a header row; x = bias (V), y = current (A)'),
+).action((file: string, o: AnalysisOptions) => {
+  const { data } = loadData(file, o);
+  const ranking = rankMechanisms(data, {
+    inputs: readInputs(o),
+    window: readWindow(o),
+    accuracy: readAccuracy(o),
+    complianceLimit: readCompliance(o),
+  });
+  print(o.json, ranking, () => formatRanking(ranking));
+});
+
+program
+  .command('demo')
+  .description('fit demo on an invented thin-oxide device (stands in until the simulated instrument runs)')
+  .action(() => runDemo());
+
+// A reader that stops early (`| head`) is not an error.
+process.stdout.on('error', (e: NodeJS.ErrnoException) => {
+  if (e.code === 'EPIPE') process.exit(0);
+  throw e;
+});
+
+export async function main(argv: string[]): Promise<number> {
+  try {
+    await program.parseAsync(argv);
+    return 0;
+  } catch (e) {
+    if (e instanceof CommanderError) {
+      return e.exitCode === 0 ? 0 : 2;
+    }
+    const cmd = argv[2] ?? '';
+    if (e instanceof CsvError || e instanceof QuantityError) {
+      process.stderr.write(`plumbline ${cmd}: ${e.message}\n`);
+      return 2;
+    }
+    if (e instanceof AnalysisError) {
+      process.stderr.write(`plumbline ${cmd}: ${e.message}${e.field ? ` [${e.field}]` : ''}\n`);
+      return e.code === 'UNKNOWN_MODEL' || e.code === 'MISSING_INPUT' || e.code === 'BAD_EXPRESSION' ? 2 : 1;
+    }
+    process.stderr.write(`plumbline ${cmd}: unexpected error: ${(e as Error).stack ?? String(e)}\n`);
+    return 1;
+  }
+}
+
+main(process.argv).then((code) => {
+  process.exitCode = code;
+});

@@ -1,0 +1,55 @@
+/** Readable (non-JSON) renderings of analysis results for the terminal. */
+import type { FitReport } from '../analysis/analyze.js';
+import { describeReasons } from '../analysis/analyze.js';
+import type { Ranking } from '../analysis/ranking.js';
+
+export function num(v: number, digits = 5): string {
+  if (!Number.isFinite(v)) return String(v);
+  if (v === 0) return '0';
+  const a = Math.abs(v);
+  return a >= 1e-3 && a < 1e5 ? Number(v.toPrecision(digits)).toString() : v.toExponential(digits - 1);
+}
+
+function pad(s: string, n: number): string {
+  return s.length >= n ? s : s + ' '.repeat(n - s.length);
+}
+
+export function formatFit(r: FitReport): string {
+  const out: string[] = [];
+  out.push(`${r.title}  [model ${r.model}]`);
+  out.push(`axes:       x = ${r.axes.x.label} (${r.axes.x.unit || '-'}, ${r.axes.x.kind}), y = ${r.axes.y.label} (${r.axes.y.unit || '-'}, ${r.axes.y.kind}${r.axes.y.kind === 'log' ? ', fitted as ln' : ''})`);
+  out.push(`points:     ${r.points.used} used, ${r.points.excluded} excluded (${describeReasons(r.points.reasons)})`);
+  out.push(`window:     ${num(r.window.from)} to ${num(r.window.to)} in the x column (${r.window.mode})`);
+  const L = r.line;
+  out.push(`line:       slope ${num(L.slope, 7)} ± ${num(L.slopeStdErr, 3)}, intercept ${num(L.intercept, 7)} ± ${num(L.interceptStdErr, 3)}`);
+  out.push(`            R² ${L.r2.toFixed(6)}, residual SD ${num(L.residualStdDev, 4)}${L.chi2Reduced !== null ? `, χ²/dof ${num(L.chi2Reduced, 4)}` : ''}`);
+  const params = Object.entries(r.parameters);
+  if (params.length) {
+    out.push('parameters:');
+    const w = Math.max(...params.map(([k]) => k.length));
+    for (const [k, p] of params) out.push(`  ${pad(k, w)}  ${num(p.value, 6)} ± ${num(p.stdErr, 2)} ${p.unit}`);
+  }
+  const inputs = Object.entries(r.inputs);
+  if (inputs.length) out.push(`inputs:     ${inputs.map(([k, v]) => `${k} ${num(v.value)}${v.assumed ? ' (assumed)' : ''}`).join(', ')} (SI)`);
+  if (r.regimes.length > 1) {
+    out.push('regimes:');
+    for (const g of r.regimes) out.push(`  ${num(g.from)} to ${num(g.to)}: slope ${num(g.slope)} (${g.n} points)`);
+  }
+  for (const n of r.notes) out.push(`note:       ${n}`);
+  for (const w of r.warnings) out.push(`warning:    ${w}`);
+  return out.join('\n');
+}
+
+export function formatRanking(r: Ranking): string {
+  const out: string[] = [];
+  out.push(`points: ${r.points.used} used, ${r.points.excluded} excluded (${describeReasons(r.points.reasons)})`);
+  out.push(`${pad('#', 3)}${pad('model', 26)}${pad('score', 8)}${pad('ΔAICc', 9)}${pad('plausible', 10)}parameters`);
+  r.ranking.forEach((e, k) => {
+    const params = Object.entries(e.parameters).map(([n, p]) => `${n} ${num(p.value, 4)} ± ${num(p.stdErr, 2)} ${p.unit}`).join('; ');
+    out.push(`${pad(String(k + 1), 3)}${pad(e.model, 26)}${pad(e.score.toFixed(3), 8)}${pad(e.deltaAicc.toFixed(1), 9)}${pad(e.plausible ? 'yes' : 'no', 10)}${params}`);
+    for (const why of e.reasons) out.push(`     - ${why}`);
+  });
+  for (const s of r.skipped) out.push(`skipped ${s.model}: ${s.reason}`);
+  for (const w of r.warnings) out.push(`warning: ${w}`);
+  return out.join('\n');
+}

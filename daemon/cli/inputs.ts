@@ -1,0 +1,122 @@
+/**
+ * Command-line options shared by the analysis commands (fit, rank, later refit): physical inputs
+ * with units, window, accuracy model, compliance limit, and the CSV columns to read.
+ */
+import { readFileSync } from 'node:fs';
+import type { Command } from 'commander';
+import type { AccuracySpec } from '../analysis/accuracy.js';
+import type { IVData, WindowRequest } from '../analysis/analyze.js';
+import type { Inputs } from '../analysis/mechanism.js';
+import { columnIdentifiers } from '../analysis/mechanisms/custom.js';
+import { columnIndex, CsvError, parseCsvTable, type CsvTable } from '../../protocols/csv-table.js';
+import { parseQuantity, QuantityError } from '../quantity.js';
+
+export interface AnalysisOptions {
+  x?: string;
+  y?: string;
+  from?: string;
+  to?: string;
+  auto?: boolean;
+  thickness?: string;
+  area?: string;
+  temperature?: string;
+  massRatio?: string;
+  permittivity?: string;
+  refractiveIndex?: string;
+  flatBand?: string;
+  richardson?: string;
+  accuracy?: string;
+  compliance?: string;
+  json?: boolean;
+}
+
+/** Adds the shared options to a command. */
+export function withAnalysisOptions(cmd: Command): Command {
+  return cmd
+    .option('--x <col>', 'x column, by header name or 1-based position (default: the first column)')
+    .option('--y <col>', 'y column (default: the second column)')
+    .option('--from <x>', 'fit window start, in the x column\'s own values')
+    .option('--to <x>', 'fit window end, in the x column\'s own values')
+    .option('--auto', 'choose the fit window automatically (widest straight run)')
+    .option('--thickness <q>', 'film thickness, e.g. "8 nm" (bare number: metres)')
+    .option('--area <q>', 'device area, e.g. "1e-4 cm^2" (bare number: m^2)')
+    .option('--temperature <q>', 'temperature, e.g. "300 K" or "25 degC" (default 300 K)')
+    .option('--mass-ratio <r>', 'tunnelling effective-mass ratio m*/m0 (default 0.5)')
+    .option('--permittivity <r>', 'relative permittivity (static), for SCLC mobility')
+    .option('--refractive-index <r>', 'refractive index n; the dynamic permittivity is checked against n^2')
+    .option('--flat-band <q>', 'flat-band / offset voltage subtracted from the bias, e.g. "-0.9 V"')
+    .option('--richardson <q>', 'Richardson constant, e.g. "120 A/(cm^2 K^2)" (default: free-electron value)')
+    .option('--accuracy <spec>', 'instrument accuracy "GAIN,OFFSET", e.g. "0.1%,1e-12 A": weights the fit')
+    .option('--compliance <q>', 'current compliance limit; readings at >= 99 % of it are excluded, e.g. "1 mA"')
+    .option('--json', 'print exactly one JSON object');
+}
+
+export function readInputs(o: AnalysisOptions): Inputs {
+  const q = (v: string | undefined, kind: Parameters<typeof parseQuantity>[1], name: string) =>
+    v === undefined ? undefined : parseQuantity(v, kind, name);
+  return {
+    thickness: q(o.thickness, 'length', '--thickness'),
+    area: q(o.area, 'area', '--area'),
+    temperature: q(o.temperature, 'temperature', '--temperature'),
+    massRatio: q(o.massRatio, 'number', '--mass-ratio'),
+    permittivity: q(o.permittivity, 'number', '--permittivity'),
+    refractiveIndex: q(o.refractiveIndex, 'number', '--refractive-index'),
+    flatBand: q(o.flatBand, 'voltage', '--flat-band'),
+    richardson: q(o.richardson, 'richardson', '--richardson'),
+  };
+}
+
+export function readWindow(o: AnalysisOptions, xIsTemperature = false): WindowRequest | undefined {
+  if (o.auto && (o.from !== undefined || o.to !== undefined)) {
+    throw new QuantityError('--auto', '--auto chooses the window itself: give either --auto or --from/--to, not both');
+  }
+  if (o.auto) return 'auto';
+  if (o.from === undefined && o.to === undefined) return undefined;
+  const kind = xIsTemperature ? 'temperature' : 'voltage';
+  return {
+    from: o.from === undefined ? undefined : parseQuantity(o.from, kind, '--from'),
+    to: o.to === undefined ? undefined : parseQuantity(o.to, kind, '--to'),
+  };
+}
+
+export function readAccuracy(o: AnalysisOptions): AccuracySpec | undefined {
+  if (o.accuracy === undefined) return undefined;
+  const parts = o.accuracy.split(',');
+  if (parts.length !== 2) throw new QuantityError('--accuracy', `--accuracy '${o.accuracy}': expected "GAIN,OFFSET", e.g. "0.1%,1e-12 A"`);
+  const g = parts[0].trim();
+  const gain = g.endsWith('%') ? parseQuantity(g.slice(0, -1), 'number', '--accuracy gain') / 100 : parseQuantity(g, 'number', '--accuracy gain');
+  const offset = parseQuantity(parts[1], 'current', '--accuracy offset');
+  if (!(gain >= 0) || !(offset >= 0) || gain + offset === 0) {
+    throw new QuantityError('--accuracy', `--accuracy '${o.accuracy}': gain and offset must be non-negative and not both zero`);
+  }
+  return { gain, offset };
+}
+
+export function readCompliance(o: AnalysisOptions): number | undefined {
+  return o.compliance === undefined ? undefined : parseQuantity(o.compliance, 'current', '--compliance');
+}
+
+/** Loads the CSV and picks x, y and an optional compliance column. */
+export function loadData(file: string, o: AnalysisOptions): { table: CsvTable; data: IVData } {
+  let text: string;
+  try {
+    text = readFileSync(file, 'utf8');
+  } catch (e) {
+    throw new CsvError(file, undefined, undefined, `cannot read the file (${(e as NodeJS.ErrnoException).code ?? (e as Error).message})`);
+  }
+  const table = parseCsvTable(text, file);
+  const xi = o.x !== undefined ? columnIndex(table, o.x, '--x') : 0;
+  const yi = o.y !== undefined ? columnIndex(table, o.y, '--y') : 1;
+  const ci = table.headers.findIndex((h) => /^compliance$/i.test(h));
+  const columns: Record<string, Float64Array> = {};
+  columnIdentifiers(table.headers).forEach((ids, k) => ids.forEach((id) => (columns[id] = table.columns[k])));
+  return {
+    table,
+    data: {
+      x: table.columns[xi],
+      y: table.columns[yi],
+      compliance: ci >= 0 && ci !== xi && ci !== yi ? table.columns[ci] : undefined,
+      columns,
+    },
+  };
+}

@@ -1,0 +1,46 @@
+/**
+ * Quantities typed by people ("8 nm", "1e-4 cm^2", "300 K", "25 degC") read through mathjs units
+ * and returned as SI numbers. A bare number is taken as SI. The error names the setting.
+ */
+import { unit, type Unit } from 'mathjs';
+
+export type QuantityKind = 'length' | 'area' | 'temperature' | 'voltage' | 'current' | 'irradiance' | 'richardson' | 'number';
+
+const REFERENCE: Record<Exclude<QuantityKind, 'number'>, { si: string; example: string }> = {
+  length: { si: 'm', example: '8 nm' },
+  area: { si: 'm^2', example: '1e-4 cm^2' },
+  temperature: { si: 'K', example: '300 K' },
+  voltage: { si: 'V', example: '0.5 V' },
+  current: { si: 'A', example: '1 mA' },
+  irradiance: { si: 'W/m^2', example: '1000 W/m^2' },
+  richardson: { si: 'A/(m^2 K^2)', example: '120 A/(cm^2 K^2)' },
+};
+
+export class QuantityError extends Error {
+  readonly code = 'BAD_QUANTITY';
+  constructor(readonly setting: string, message: string) {
+    super(message);
+    this.name = 'QuantityError';
+  }
+}
+
+const BARE = /^[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?$/;
+
+export function parseQuantity(text: string, kind: QuantityKind, setting: string): number {
+  const t = text.trim();
+  if (BARE.test(t)) return Number(t);
+  if (kind === 'number') throw new QuantityError(setting, `${setting} '${text}': expected a plain number`);
+  const ref = REFERENCE[kind];
+  let u: Unit;
+  try {
+    u = unit(t);
+  } catch (e) {
+    throw new QuantityError(setting, `${setting} '${text}': not a quantity mathjs understands (${(e as Error).message}); e.g. "${ref.example}"`);
+  }
+  if (!u.equalBase(unit(`1 ${ref.si}`))) {
+    throw new QuantityError(setting, `${setting} '${text}': expected a ${kind} (e.g. "${ref.example}")`);
+  }
+  const v = u.toNumber(ref.si);
+  if (!Number.isFinite(v)) throw new QuantityError(setting, `${setting} '${text}': not a finite value`);
+  return v;
+}
