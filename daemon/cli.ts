@@ -14,6 +14,7 @@ import { runDemo } from './demo.js';
 import { formatFit, formatRanking } from './cli/format.js';
 import {
   type AnalysisOptions,
+  enableExpressions,
   loadData,
   readAccuracy,
   readCompliance,
@@ -53,6 +54,7 @@ withAnalysisOptions(
     .option('--y-axis <kind>', 'custom model: log (fit ln y) or linear', 'linear'),
 ).action((file: string, o: FitOptions) => {
   const { data } = loadData(file, o);
+  if (o.model === 'custom') enableExpressions();
   if (o.yAxis !== 'log' && o.yAxis !== 'linear') throw new QuantityError('--y-axis', `--y-axis '${o.yAxis}': expected log or linear`);
   const report = analyze(data, {
     model: o.model,

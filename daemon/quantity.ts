@@ -2,7 +2,14 @@
  * Quantities typed by people ("8 nm", "1e-4 cm^2", "300 K", "25 degC") read through mathjs units
  * and returned as SI numbers. A bare number is taken as SI. The error names the setting.
  */
-import { unit, type Unit } from 'mathjs';
+import { createRequire } from 'node:module';
+import type { Unit } from 'mathjs';
+
+// mathjs takes most of a second to load; only quantities written with units need it.
+const lazyRequire = createRequire(import.meta.url);
+function unit(text: string): Unit {
+  return (lazyRequire('mathjs') as typeof import('mathjs')).unit(text);
+}
 
 export type QuantityKind = 'length' | 'area' | 'temperature' | 'voltage' | 'current' | 'irradiance' | 'richardson' | 'number';
 

@@ -108,13 +108,14 @@ function checkLengths(x: Numbers, y: Numbers, w?: Numbers): void {
 export function fitLine(x: Numbers, y: Numbers, options: LineFitOptions = {}): LineFit {
   const w = options.weights;
   checkLengths(x, y, w);
+  if (w === undefined) return fitLineUnweighted(x, y);
   // Pass 1: weighted means (running form, as GSL does, to avoid a large intermediate sum).
   let sumW = 0;
   let meanX = 0;
   let meanY = 0;
   let n = 0;
   for (let i = 0; i < x.length; i++) {
-    const wi = w ? w[i] : 1;
+    const wi = w[i];
     if (!(wi > 0)) continue;
     const xi = x[i];
     const yi = y[i];
@@ -131,7 +132,7 @@ export function fitLine(x: Numbers, y: Numbers, options: LineFitOptions = {}): L
   let sxy = 0;
   let syy = 0;
   for (let i = 0; i < x.length; i++) {
-    const wi = w ? w[i] : 1;
+    const wi = w[i];
     if (!(wi > 0)) continue;
     const dx = x[i] - meanX;
     const dy = y[i] - meanY;
@@ -143,23 +144,64 @@ export function fitLine(x: Numbers, y: Numbers, options: LineFitOptions = {}): L
   const slope = sxx > 0 ? sxy / sxx : 0;
   let sse = 0;
   for (let i = 0; i < x.length; i++) {
-    const wi = w ? w[i] : 1;
+    const wi = w[i];
     if (!(wi > 0)) continue;
     const r = y[i] - meanY - slope * (x[i] - meanX);
     sse += wi * r * r;
   }
   return lineFromMoments({
-    n,
-    sumW,
-    meanX,
-    meanY,
-    sxx,
-    sxy,
-    syy,
-    sse,
-    weighted: w !== undefined,
-    absoluteWeights: options.absoluteWeights ?? false,
+    n, sumW, meanX, meanY, sxx, sxy, syy, sse, weighted: true, absoluteWeights: options.absoluteWeights ?? false,
   });
+}
+
+/**
+ * Unweighted fast path: plain sums for the means, then a corrected two-pass (the mean is refined by
+ * the mean of the deviations, Chan, Golub & LeVeque 1983), then the explicit residual pass.
+ */
+function fitLineUnweighted(x: Numbers, y: Numbers): LineFit {
+  const n = x.length;
+  let sx = 0;
+  let sy = 0;
+  for (let i = 0; i < n; i++) {
+    sx += x[i];
+    sy += y[i];
+  }
+  if (!Number.isFinite(sx) || !Number.isFinite(sy)) {
+    for (let i = 0; i < n; i++) {
+      if (!Number.isFinite(x[i]) || !Number.isFinite(y[i])) {
+        throw new AnalysisError('BAD_INPUT', `point ${i} is not finite (x=${x[i]}, y=${y[i]})`);
+      }
+    }
+  }
+  let meanX = sx / n;
+  let meanY = sy / n;
+  let cx = 0;
+  let cy = 0;
+  let sxx = 0;
+  let sxy = 0;
+  let syy = 0;
+  for (let i = 0; i < n; i++) {
+    const dx = x[i] - meanX;
+    const dy = y[i] - meanY;
+    cx += dx;
+    cy += dy;
+    sxx += dx * dx;
+    sxy += dx * dy;
+    syy += dy * dy;
+  }
+  // Correction terms for the rounding in the first-pass means.
+  sxx -= (cx * cx) / n;
+  sxy -= (cx * cy) / n;
+  syy -= (cy * cy) / n;
+  meanX += cx / n;
+  meanY += cy / n;
+  const slope = sxx > 0 ? sxy / sxx : 0;
+  let sse = 0;
+  for (let i = 0; i < n; i++) {
+    const r = y[i] - meanY - slope * (x[i] - meanX);
+    sse += r * r;
+  }
+  return lineFromMoments({ n, sumW: n, meanX, meanY, sxx, sxy, syy, sse, weighted: false, absoluteWeights: false });
 }
 
 /** Result of a fit through the origin, y = slope·x. R² is the uncentred one, 1 − SSE/Σwy². */

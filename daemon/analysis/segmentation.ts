@@ -4,7 +4,8 @@
  * Optimal partitioning by dynamic programming (Jackson et al., IEEE Signal Process. Lett. 12, 105,
  * 2005): minimise Σ SSE_k/σ² + β per extra segment over all partitions into runs of at least
  * `minPoints`. β defaults to 3·ln n (a BIC charge for the slope, intercept and breakpoint each new
- * segment adds); σ is the model-free noise estimate unless given. O(n²) with prefix-sum fits.
+ * segment adds); σ is the model-free noise estimate unless given. Prefix-sum fits make each
+ * candidate run O(1); long curves search a grid of candidate breakpoints, then refine each exactly.
  */
 import { AnalysisError } from './errors.js';
 import type { Numbers } from './line-fit.js';
@@ -60,43 +61,78 @@ export function segmentLine(x: Numbers, y: Numbers, options: SegmentOptions = {}
   const beta = options.penalty ?? 3 * Math.log(n);
   const maxSeg = Math.max(1, options.maxSegments ?? 6);
 
-  // best[k][j]: cost of the first j points split into k+1 segments; bounded k keeps it O(K n²).
+  // Long curves: breakpoints are first sought on a grid of candidate positions (stride s), then
+  // each is refined exactly within ±s. Keeps the cost near O(K·(n/s)²) instead of O(K·n²).
+  const stride = Math.max(1, Math.ceil(n / 150));
+  const cand: number[] = [];
+  for (let p = 0; p < n; p += stride) cand.push(p);
+  cand.push(n);
+  const m = cand.length;
   const INF = Number.POSITIVE_INFINITY;
   const best: Float64Array[] = [];
   const from: Int32Array[] = [];
   for (let k = 0; k < maxSeg; k++) {
-    best.push(new Float64Array(n + 1).fill(INF));
-    from.push(new Int32Array(n + 1).fill(-1));
+    best.push(new Float64Array(m).fill(INF));
+    from.push(new Int32Array(m).fill(-1));
   }
-  for (let j = minPoints; j <= n; j++) best[0][j] = lines.fit(0, j - 1).sse * inv;
+  const cost = (a: number, b: number) => (b - a >= minPoints ? lines.fit(a, b - 1).sse * inv : INF);
+  for (let j = 1; j < m; j++) best[0][j] = cost(0, cand[j]);
   for (let k = 1; k < maxSeg; k++) {
     const prev = best[k - 1];
-    const cur = best[k];
-    const arg = from[k];
-    for (let j = (k + 1) * minPoints; j <= n; j++) {
+    for (let j = 1; j < m; j++) {
       let b = INF;
       let a = -1;
-      for (let i = k * minPoints; i <= j - minPoints; i++) {
+      for (let i = 1; i < j; i++) {
         if (prev[i] === INF) continue;
-        const c = prev[i] + lines.fit(i, j - 1).sse * inv;
+        const c = prev[i] + cost(cand[i], cand[j]);
         if (c < b) {
           b = c;
           a = i;
         }
       }
-      cur[j] = b + beta;
-      arg[j] = a;
+      best[k][j] = b + beta;
+      from[k][j] = a;
     }
   }
   let bestK = 0;
-  for (let k = 1; k < maxSeg; k++) if (best[k][n] < best[bestK][n]) bestK = k;
-
+  for (let k = 1; k < maxSeg; k++) if (best[k][m - 1] < best[bestK][m - 1]) bestK = k;
   const bounds: number[] = [n];
-  for (let k = bestK, j = n; k > 0; k--) {
+  for (let k = bestK, j = m - 1; k > 0; k--) {
     j = from[k][j];
-    bounds.unshift(j);
+    bounds.unshift(cand[j]);
   }
   bounds.unshift(0);
+  if (stride > 1) {
+    // Refine each breakpoint exactly within ±stride, then drop any breakpoint whose removal costs
+    // less than its penalty (a grid can force an extra short segment); repeat until stable.
+    for (let pass = 0; pass < 4; pass++) {
+      for (let s = 1; s + 1 < bounds.length; s++) {
+        const a = bounds[s - 1];
+        const c = bounds[s + 1];
+        let bestB = bounds[s];
+        let bestC = cost(a, bestB) + cost(bestB, c);
+        for (let b = Math.max(a + minPoints, bounds[s] - stride); b <= Math.min(c - minPoints, bounds[s] + stride); b++) {
+          const t = cost(a, b) + cost(b, c);
+          if (t < bestC) {
+            bestC = t;
+            bestB = b;
+          }
+        }
+        bounds[s] = bestB;
+      }
+      let removed = false;
+      for (let s = 1; s + 1 < bounds.length; s++) {
+        const a = bounds[s - 1];
+        const c = bounds[s + 1];
+        if (cost(a, c) - cost(a, bounds[s]) - cost(bounds[s], c) < beta) {
+          bounds.splice(s, 1);
+          removed = true;
+          s--;
+        }
+      }
+      if (!removed) break;
+    }
+  }
   const segments: Segment[] = [];
   for (let s = 0; s + 1 < bounds.length; s++) {
     const start = bounds[s];

@@ -3,11 +3,12 @@
  * with units, window, accuracy model, compliance limit, and the CSV columns to read.
  */
 import { readFileSync } from 'node:fs';
+import { createRequire } from 'node:module';
 import type { Command } from 'commander';
 import type { AccuracySpec } from '../analysis/accuracy.js';
 import type { IVData, WindowRequest } from '../analysis/analyze.js';
 import type { Inputs } from '../analysis/mechanism.js';
-import { columnIdentifiers } from '../analysis/mechanisms/custom.js';
+import { columnIdentifiers, setExpressionEngine } from '../analysis/mechanisms/custom.js';
 import { columnIndex, CsvError, parseCsvTable, type CsvTable } from '../../protocols/csv-table.js';
 import { parseQuantity, QuantityError } from '../quantity.js';
 
@@ -119,4 +120,9 @@ export function loadData(file: string, o: AnalysisOptions): { table: CsvTable; d
       columns,
     },
   };
+}
+
+/** Loads mathjs (slow to import) only for the custom model. */
+export function enableExpressions(): void {
+  setExpressionEngine(createRequire(import.meta.url)('mathjs') as typeof import('mathjs'));
 }

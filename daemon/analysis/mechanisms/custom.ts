@@ -3,7 +3,17 @@
  * (by header name, or c1, c2 … by position), and the y axis is declared 'log' (fitted as ln y) or
  * 'linear'. Only the line is reported: a custom transform has no physics attached.
  */
-import { compile, type EvalFunction } from 'mathjs';
+import type { EvalFunction, MathJsInstance } from 'mathjs';
+
+/** mathjs is loaded by the caller (see setExpressionEngine) so that analysis/ stays free of Node APIs. */
+let engine: Pick<MathJsInstance, 'compile'> | undefined;
+export function setExpressionEngine(e: Pick<MathJsInstance, 'compile'>): void {
+  engine = e;
+}
+function compile(expr: string): EvalFunction {
+  if (!engine) throw new AnalysisError('BAD_EXPRESSION', 'no expression engine: call setExpressionEngine(mathjs) first', 'x-expr');
+  return engine.compile(expr);
+}
 import { AnalysisError } from '../errors.js';
 import type { AxisKind, Mechanism } from '../mechanism.js';
 

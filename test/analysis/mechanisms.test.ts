@@ -1,0 +1,168 @@
+/**
+ * Each mechanism: its forward model against published check values, then synthetic data from the
+ * forward model with known parameters and 1–2 % noise, fitted back. Check values are the ones in the
+ * project's physics reference, computed from CODATA 2018 with the formulas of the sources named.
+ */
+import { describe, expect, it } from 'vitest';
+import { analyze, resolveInputs } from '../../daemon/analysis/analyze.js';
+import { BOLTZMANN_EV_PER_K, VACUUM_PERMITTIVITY_F_PER_M } from '../../daemon/analysis/constants.js';
+import { fowlerNordheim } from '../../daemon/analysis/mechanisms/fowler-nordheim.js';
+import { getMechanism } from '../../daemon/analysis/mechanisms/index.js';
+import { pooleFrenkel, rootFieldSlope } from '../../daemon/analysis/mechanisms/poole-frenkel.js';
+import { schottkyEmission } from '../../daemon/analysis/mechanisms/schottky.js';
+import { mottGurney } from '../../daemon/analysis/mechanisms/sclc.js';
+import { hopping } from '../../daemon/analysis/mechanisms/hopping.js';
+import { trapAssistedTunnelling } from '../../daemon/analysis/mechanisms/trap-assisted-tunneling.js';
+import { shockley } from '../../daemon/analysis/mechanisms/diode.js';
+import { approxEqual } from '../helpers/reference.js';
+import { sweep, withNoise } from '../helpers/synthetic.js';
+
+describe('forward models against published check values', () => {
+  // Lenzlinger & Snow (1969) form with Forbes' constants; φ = 3.2 eV, m_r = 0.42:
+  // J(10 MV/cm) = 1.13e-3 A/cm², J(8 MV/cm) = 1.29e-6 A/cm² (physics reference §1, computed).
+  it('Fowler–Nordheim current density at 10 and 8 MV/cm', () => {
+    expect(approxEqual(fowlerNordheim(1e9, 3.2, 0.42) * 1e-4, 1.13e-3, 5e-3)).toBe(true);
+    expect(approxEqual(fowlerNordheim(8e8, 3.2, 0.42) * 1e-4, 1.29e-6, 5e-3)).toBe(true);
+  });
+  // Chiu 2014 / Sze: SiO2 with ε_r = n² = 1.46² at 300 K: PF slope 2.011e-3 (m/V)^½, Schottky half that.
+  it('Poole–Frenkel and Schottky √E slopes for SiO2 at 300 K', () => {
+    expect(approxEqual(rootFieldSlope(1.46 ** 2, 300, 1), 2.011e-3, 1e-3)).toBe(true);
+    expect(approxEqual(rootFieldSlope(1.46 ** 2, 300, 4), 1.005e-3, 1e-3)).toBe(true);
+    expect(approxEqual(rootFieldSlope(4.0, 300, 1), 1.468e-3, 1e-3)).toBe(true);
+  });
+  // Mott & Gurney (1940): ε_r = 3, μ = 1e-4 cm²/Vs, d = 100 nm, V = 1 V → 298.8 A/m².
+  it('Mott–Gurney current density', () => {
+    expect(approxEqual(mottGurney(1, 1e-8, 3, 100e-9), 298.8, 1e-3)).toBe(true);
+  });
+  // Arrhenius: E_a = 0.5 eV gives a slope of −5802.26 K in ln(rate) against 1/T.
+  it('Arrhenius slope for 0.5 eV', () => {
+    const t = sweep(250, 400, 16);
+    const rate = t.map((T) => 3e7 * Math.exp(-0.5 / (BOLTZMANN_EV_PER_K * T)));
+    const r = analyze({ x: t, y: rate }, { model: 'arrhenius' });
+    expect(approxEqual(r.line.slope, -5802.26, 1e-6)).toBe(true);
+    expect(approxEqual(r.parameters.activationEnergy.value, 0.5, 1e-9)).toBe(true);
+  });
+});
+
+describe('synthetic recovery: forward model → noisy data → fit → known parameters', () => {
+  const d = 10e-9;
+  const area = 1e-8;
+
+  it('fowler-nordheim: φ = 3.2 eV, m_r = 0.42, 1 % noise → φ within 3σ and 0.5 %', () => {
+    const v = sweep(7, 11, 41);
+    const i = withNoise(v.map((x) => fowlerNordheim(x / d, 3.2, 0.42) * area), 0.01, 11);
+    const r = analyze({ x: v, y: i }, { model: 'fowler-nordheim', inputs: { thickness: d, area, massRatio: 0.42 } });
+    const p = r.parameters.barrierHeight;
+    expect(Math.abs(p.value - 3.2)).toBeLessThan(3 * p.stdErr + 1e-9);
+    expect(approxEqual(p.value, 3.2, 5e-3)).toBe(true);
+    expect(r.plausible).toBe(true);
+    expect(p.unit).toBe('eV');
+  });
+
+  it('poole-frenkel: ε_r = 4 (Si3N4, n = 2) recovered; plausibility note against n²', () => {
+    const v = sweep(2, 10, 41);
+    const i = withNoise(v.map((x) => pooleFrenkel(x / d, 1e-2, 1.3, 4, 300) * area), 0.01, 12);
+    const r = analyze({ x: v, y: i }, { model: 'poole-frenkel', inputs: { thickness: d, area, temperature: 300, refractiveIndex: 2 } });
+    const p = r.parameters.relativePermittivity;
+    expect(Math.abs(p.value - 4)).toBeLessThan(3 * p.stdErr);
+    expect(r.plausible).toBe(true);
+    expect(r.notes.join(' ')).toMatch(/close to n²/);
+  });
+
+  it('schottky: ε_r = 2.13 and φ_B = 1.0 eV from slope and intercept', () => {
+    const v = sweep(1, 8, 36);
+    const i = withNoise(v.map((x) => schottkyEmission(x / d, 1.0, 2.13, 350, 1.2e6) * area), 0.01, 13);
+    const r = analyze({ x: v, y: i }, { model: 'schottky', inputs: { thickness: d, area, temperature: 350, richardson: 1.2e6, refractiveIndex: 1.46 } });
+    const eps = r.parameters.relativePermittivity;
+    const phi = r.parameters.barrierHeight;
+    expect(Math.abs(eps.value - 2.13)).toBeLessThan(3 * eps.stdErr);
+    expect(Math.abs(phi.value - 1.0)).toBeLessThan(3 * phi.stdErr + 1e-6);
+    expect(r.plausible).toBe(true);
+  });
+
+  it('hopping: a = 1.5 nm', () => {
+    const v = sweep(2, 10, 41);
+    const i = withNoise(v.map((x) => hopping(x / d, 1e-3, 1.5e-9, 300) * area), 0.01, 14);
+    const r = analyze({ x: v, y: i }, { model: 'hopping', inputs: { thickness: d, area, temperature: 300 } });
+    const p = r.parameters.hoppingDistance;
+    expect(Math.abs(p.value - 1.5e-9)).toBeLessThan(3 * p.stdErr);
+    expect(p.unit).toBe('m');
+  });
+
+  it('trap-assisted-tunneling: φ_t = 1.2 eV', () => {
+    const v = sweep(3, 9, 31);
+    const i = withNoise(v.map((x) => trapAssistedTunnelling(x / d, 1e2, 1.2, 0.5) * area), 0.01, 15);
+    const r = analyze({ x: v, y: i }, { model: 'trap-assisted-tunneling', inputs: { thickness: d, area, massRatio: 0.5 } });
+    const p = r.parameters.trapEnergy;
+    expect(Math.abs(p.value - 1.2)).toBeLessThan(3 * p.stdErr);
+  });
+
+  it('diode: n = 1.3, I0 = 1e-12 A above 3kT/q', () => {
+    const v = sweep(0.15, 0.5, 36);
+    const i = withNoise(v.map((x) => shockley(x, 1e-12, 1.3, 300)), 0.01, 16);
+    const r = analyze({ x: v, y: i }, { model: 'diode', inputs: { temperature: 300 } });
+    expect(Math.abs(r.parameters.idealityFactor.value - 1.3)).toBeLessThan(3 * r.parameters.idealityFactor.stdErr);
+    expect(Math.abs(Math.log(r.parameters.saturationCurrent.value / 1e-12))).toBeLessThan(3 * r.parameters.saturationCurrent.stdErr / 1e-12 + 0.05);
+  });
+
+  it('sclc: μ = 1e-8 m²/Vs with ε_r = 3; exponent 2; ohmic→SCLC transition at 8σd²/(9ε₀ε_r μ)', () => {
+    const dd = 100e-9;
+    const sigma = 1e-6; // S/m
+    const v = Float64Array.from({ length: 60 }, (_, k) => 10 ** (-2 + (3 * k) / 59));
+    const j = v.map((x) => mottGurney(x, 1e-8, 3, dd) + (sigma * x) / dd);
+    const i = withNoise(j.map((x) => x * area), 0.005, 17);
+    const vtr = (8 * sigma * dd * dd) / (9 * VACUUM_PERMITTIVITY_F_PER_M * 3 * 1e-8);
+    const r = analyze({ x: v, y: i }, { model: 'sclc', inputs: { thickness: dd, area, permittivity: 3 }, window: { from: 3, to: 10 } });
+    expect(Math.abs(r.parameters.exponent.value - 2)).toBeLessThan(0.1);
+    expect(approxEqual(r.parameters.mobility.value, 1e-8, 0.15)).toBe(true);
+    // The crossing of the two asymptotes is where both terms are equal (analytical above).
+    const t = r.parameters.transitionVoltage;
+    expect(t).toBeDefined();
+    expect(approxEqual(t.value, vtr, 0.35)).toBe(true);
+  });
+
+  it('ohmic: R = 1 MΩ, conductivity = d/(R·A)', () => {
+    const v = sweep(-1, 1, 21);
+    const i = withNoise(v.map((x) => x / 1e6), 0.005, 18);
+    const r = analyze({ x: v, y: i }, { model: 'ohmic', inputs: { thickness: d, area } });
+    expect(approxEqual(r.parameters.resistance.value, 1e6, 0.01)).toBe(true);
+    expect(approxEqual(r.parameters.conductivity.value, d / (1e6 * area), 0.01)).toBe(true);
+    // One polarity only: the negative half is excluded and counted, the zero point too.
+    expect(r.points.reasons['opposite polarity']).toBe(10);
+    expect(r.points.reasons['zero bias']).toBe(1);
+  });
+});
+
+describe('Poole–Frenkel versus Schottky, told apart by n² (Chiu 2014: the lowering differs by 2)', () => {
+  it('PF data read as Schottky give ε_r four times too small and fail the n² check', () => {
+    const d = 20e-9;
+    const v = sweep(4, 16, 41);
+    const i = withNoise(v.map((x) => pooleFrenkel(x / d, 1e-2, 1.0, 2.13, 300) * 1e-8), 0.005, 21);
+    const inputs = { thickness: d, area: 1e-8, temperature: 300, refractiveIndex: 1.46 };
+    const pf = analyze({ x: v, y: i }, { model: 'poole-frenkel', inputs });
+    const sc = analyze({ x: v, y: i }, { model: 'schottky', inputs });
+    expect(pf.plausible).toBe(true);
+    expect(sc.plausible).toBe(false);
+    expect(sc.warnings.join(' ')).toMatch(/far from n²/);
+  });
+});
+
+describe('points that cannot enter a transform are counted by reason', () => {
+  it('zero and negative currents under a log, compliance flags, and a compliance limit', () => {
+    const v = [0, 0.1, 0.2, 0.3, 0.4, 0.5, 0.6, 0.7];
+    const i = [0, 0, -1e-12, 1e-10, 1e-9, 1e-8, 1e-7, 1e-3];
+    const comp = [0, 0, 0, 0, 0, 0, 1, 0];
+    const r = analyze({ x: v, y: i, compliance: comp }, { model: 'diode', complianceLimit: 1e-3 });
+    expect(r.points.used).toBe(3);
+    expect(r.points.reasons).toEqual({
+      'zero bias': 1,
+      'non-positive value under a log': 1,
+      'current flows against the bias': 1,
+      'at compliance': 2,
+    });
+    expect(r.points.excluded).toBe(5);
+  });
+  it('missing required input names the setting', () => {
+    expect(() => resolveInputs(getMechanism('fowler-nordheim'), {})).toThrowError(/thickness/);
+  });
+});

@@ -1,0 +1,7 @@
+/** `npm run bench`: prints each benchmark's figures. Not a test: nothing here passes or fails. */
+import { cpus } from 'node:os';
+import { benchAnalysis } from './analysis.js';
+
+process.stdout.write(`plumbline benchmarks — Node ${process.version}, ${cpus()[0]?.model ?? 'unknown CPU'}, single thread\n\n`);
+process.stdout.write('analysis core\n');
+benchAnalysis();

@@ -1,0 +1,105 @@
+import { describe, expect, it } from 'vitest';
+import { fowlerNordheim } from '../../daemon/analysis/mechanisms/fowler-nordheim.js';
+import { runCli, tempFile } from '../helpers/cli.js';
+import { HAVE_STRD, loadStrd, lre } from '../helpers/reference.js';
+
+function norrisCsv(): string {
+  const d = loadStrd('Norris');
+  return `V,I\n${d.xText.map((x, k) => `${x},${d.yText[k]}`).join('\n')}\n`;
+}
+
+describe.skipIf(!HAVE_STRD)('plumbline fit on NIST Norris (StRD certified values)', () => {
+  it('--model linear --json prints one object with the certified slope to 12 digits', () => {
+    const file = tempFile('norris.csv', norrisCsv());
+    const r = runCli(['fit', file, '--model', 'linear', '--json']);
+    expect(r.code).toBe(0);
+    const out = JSON.parse(r.stdout);
+    expect(Object.keys(out)).toEqual(expect.arrayContaining(['model', 'points', 'window', 'line', 'parameters', 'warnings']));
+    expect(Object.keys(out.line)).toEqual(expect.arrayContaining(['slope', 'slopeStdErr', 'intercept', 'interceptStdErr', 'r2', 'residualStdDev']));
+    expect(lre(out.line.slope, 1.00211681802045)).toBeGreaterThanOrEqual(12);
+    expect(lre(out.line.intercept, -0.262323073774029)).toBeGreaterThanOrEqual(12);
+    expect(out.points).toEqual({ used: 36, excluded: 0, reasons: {} });
+  });
+  it('custom model with mathjs expressions gives the same line', () => {
+    const file = tempFile('norris.csv', norrisCsv());
+    const r = runCli(['fit', file, '--model', 'custom', '--x-expr', 'c1', '--y-expr', 'I', '--json']);
+    expect(r.code).toBe(0);
+    expect(lre(JSON.parse(r.stdout).line.slope, 1.00211681802045)).toBeGreaterThanOrEqual(12);
+  });
+  it('rank --json has the documented shape', () => {
+    const file = tempFile('norris.csv', norrisCsv());
+    const r = runCli(['rank', file, '--json']);
+    expect(r.code).toBe(0);
+    const out = JSON.parse(r.stdout);
+    expect(out.ranking.length).toBeGreaterThan(0);
+    expect(Object.keys(out.ranking[0])).toEqual(expect.arrayContaining(['model', 'score', 'plausible', 'parameters', 'reasons']));
+  });
+});
+
+describe('plumbline fit with physics and units', () => {
+  const d = 10e-9;
+  const v = Array.from({ length: 31 }, (_, k) => 7 + (4 * k) / 30);
+  const csv = `bias_V,current_A\n${v.map((x) => `${x},${fowlerNordheim(x / d, 3.2, 0.42) * 1e-8}`).join('\n')}\n`;
+  it('units in quantities: "10 nm" and "1e-4 cm^2" give the same result as bare SI numbers', () => {
+    const file = tempFile('fn.csv', csv);
+    const a = JSON.parse(runCli(['fit', file, '--model', 'fowler-nordheim', '--thickness', '10 nm', '--area', '1e-4 cm^2', '--mass-ratio', '0.42', '--json']).stdout);
+    const b = JSON.parse(runCli(['fit', file, '--model', 'fowler-nordheim', '--thickness', '1e-8', '--area', '1e-8', '--mass-ratio', '0.42', '--json']).stdout);
+    // Noise-free Fowler–Nordheim data (Forbes constants) give the barrier back exactly.
+    expect(a.parameters.barrierHeight.value).toBeCloseTo(3.2, 9);
+    expect(a.parameters.barrierHeight.unit).toBe('eV');
+    expect(b.parameters.barrierHeight.value).toBeCloseTo(a.parameters.barrierHeight.value, 12);
+  });
+  it('a readable table without --json', () => {
+    const file = tempFile('fn.csv', csv);
+    const r = runCli(['fit', file, '--model', 'fowler-nordheim', '--thickness', '10 nm', '--mass-ratio', '0.42']);
+    expect(r.code).toBe(0);
+    expect(r.stdout).toMatch(/barrierHeight\s+3\.2\d* ± .* eV/);
+  });
+  it('a missing input names the setting', () => {
+    const file = tempFile('fn.csv', csv);
+    const r = runCli(['fit', file, '--model', 'fowler-nordheim']);
+    expect(r.code).toBe(2);
+    expect(r.stderr).toMatch(/--thickness/);
+  });
+  it('a quantity of the wrong kind names the option and the expected kind', () => {
+    const file = tempFile('fn.csv', csv);
+    const r = runCli(['fit', file, '--model', 'fowler-nordheim', '--thickness', '3 kg']);
+    expect(r.code).toBe(2);
+    expect(r.stderr).toMatch(/--thickness '3 kg': expected a length/);
+  });
+  it('an unknown model lists the known ones', () => {
+    const file = tempFile('fn.csv', csv);
+    const r = runCli(['fit', file, '--model', 'magic']);
+    expect(r.code).toBe(2);
+    expect(r.stderr).toMatch(/unknown model 'magic'.*fowler-nordheim/);
+  });
+});
+
+describe('malformed CSV: non-zero exit, the message names file, line and column', () => {
+  it('a field that is not a number', () => {
+    const file = tempFile('bad.csv', 'V,I\n0.1,1e-9\n0.2,abc\n');
+    const r = runCli(['fit', file, '--model', 'linear', '--json']);
+    expect(r.code).toBe(2);
+    expect(r.stdout).toBe('');
+    expect(r.stderr).toContain(`${file}, line 3, column 'I': 'abc' is not a number`);
+  });
+  it('a row with too few fields', () => {
+    const file = tempFile('short.csv', '# comment line\nV,I\n0.1,1e-9\n0.2\n');
+    const r = runCli(['fit', file, '--model', 'linear']);
+    expect(r.code).toBe(2);
+    expect(r.stderr).toContain('line 4: expected 2 fields (V, I), found 1');
+  });
+  it('a missing file and an unknown column', () => {
+    expect(runCli(['fit', '/nonexistent/x.csv', '--model', 'linear']).stderr).toMatch(/x\.csv: cannot read the file \(ENOENT\)/);
+    const file = tempFile('ok.csv', 'V,I\n1,1\n2,2\n3,3.1\n');
+    const r = runCli(['fit', file, '--model', 'linear', '--y', 'current']);
+    expect(r.code).toBe(2);
+    expect(r.stderr).toMatch(/column 'current': --y: no such column \(columns: V, I\)/);
+  });
+  it('data with no header row', () => {
+    const file = tempFile('nohdr.csv', '0.1,1e-9\n0.2,2e-9\n');
+    const r = runCli(['fit', file, '--model', 'linear']);
+    expect(r.code).toBe(2);
+    expect(r.stderr).toMatch(/line 1.*header row/);
+  });
+});
