@@ -23,6 +23,9 @@ import {
   withAnalysisOptions,
 } from './cli/inputs.js';
 import { QuantityError } from './quantity.js';
+import { registerSim } from './cli/sim.js';
+import { ScenarioError } from './simulator/scenarios.js';
+import { UsageError } from './cli/usage.js';
 
 const program = new Command();
 program
@@ -96,6 +99,8 @@ process.stdout.on('error', (e: NodeJS.ErrnoException) => {
   throw e;
 });
 
+registerSim(program);
+
 export async function main(argv: string[]): Promise<number> {
   try {
     await program.parseAsync(argv);
@@ -105,7 +110,7 @@ export async function main(argv: string[]): Promise<number> {
       return e.exitCode === 0 ? 0 : 2;
     }
     const cmd = argv[2] ?? '';
-    if (e instanceof CsvError || e instanceof QuantityError) {
+    if (e instanceof CsvError || e instanceof QuantityError || e instanceof ScenarioError || e instanceof UsageError) {
       process.stderr.write(`plumbline ${cmd}: ${e.message}\n`);
       return 2;
     }

@@ -1,0 +1,277 @@
+/**
+ * The simulated source-measure unit: a SCPI parser for the default dialect's subset, instrument
+ * state (output, source level, compliance, integration time, range), measurement realism (noise as
+ * ± % of reading + offset of the range, compliance clamp with the tripped flag, integration time as
+ * the point period), an error queue, and fault injection for tests.
+ *
+ * It reads command lines and writes response lines through `send`; the transports (in-process, pty,
+ * TCP) only carry bytes.
+ */
+import { formatScpiNumber, parseScpiNumber } from '../../protocols/scpi-numbers.js';
+import { seededNormal } from '../demo.js';
+import { SimulatedDevice, type DeviceSpec } from './device.js';
+import { matches, pattern, type HeaderPattern } from './scpi-headers.js';
+
+export interface InstrumentSpec {
+  /** Fraction of reading, e.g. 0.001. */
+  readonly gain: number;
+  /** Offset as a fraction of the current range, e.g. 1e-4. */
+  readonly rangeOffset: number;
+  /** Smallest current range, A (autorange goes up in decades). */
+  readonly minRange: number;
+  /** Power-line frequency, Hz (sets the integration time per NPLC). */
+  readonly lineFrequency: number;
+  /** Maximum |V| the simulated hardware accepts. */
+  readonly maxVoltage: number;
+}
+
+export interface Faults {
+  /** Emit garbage bytes before every n-th reply. */
+  readonly garbageEvery?: number;
+  /** Drop the terminator of every n-th reply. */
+  readonly dropTerminatorEvery?: number;
+  /** Delay every reply by this many ms. */
+  readonly slowReplyMs?: number;
+  /** Close the connection after this many READ? replies. */
+  readonly disconnectAfterReadings?: number;
+}
+
+export interface SimOptions {
+  readonly device: DeviceSpec;
+  readonly instrument?: Partial<InstrumentSpec>;
+  readonly seed?: number;
+  readonly faults?: Faults;
+  /** Really wait the integration time before answering READ? (default true). */
+  readonly realTime?: boolean;
+  readonly idn?: string;
+}
+
+const DEFAULT_INSTRUMENT: InstrumentSpec = { gain: 5e-4, rangeOffset: 2e-4, minRange: 1e-9, lineFrequency: 50, maxVoltage: 210 };
+
+type Handler = (arg: string | undefined, query: boolean) => string | undefined | Promise<string | undefined>;
+
+class ScpiError extends Error {
+  constructor(readonly code: number, text: string) {
+    super(text);
+  }
+}
+
+export class SimulatedSmu {
+  readonly device: SimulatedDevice;
+  readonly spec: InstrumentSpec;
+  private readonly normal: () => number;
+  private readonly faults: Faults;
+  private readonly realTime: boolean;
+  private readonly idn: string;
+  private readonly commands: { pat: HeaderPattern; fn: Handler }[] = [];
+  private readonly errors: { code: number; text: string }[] = [];
+  private replies = 0;
+  private readingsServed = 0;
+  output = false;
+  level = 0;
+  compliance = 1e-3;
+  nplc = 1;
+  autoRange = true;
+  range = 1e-3;
+  tripped = false;
+  /** Every voltage actually applied to the device (for tests that check the wire). */
+  readonly applied: number[] = [];
+  onDisconnect: (() => void) | undefined;
+
+  constructor(options: SimOptions) {
+    this.device = new SimulatedDevice(options.device);
+    this.spec = { ...DEFAULT_INSTRUMENT, ...options.instrument };
+    this.normal = seededNormal(options.seed ?? 1);
+    this.faults = options.faults ?? {};
+    this.realTime = options.realTime ?? true;
+    this.idn = options.idn ?? 'plumbline,simulated SMU,0,0.1';
+    this.define();
+  }
+
+  private on(spec: string, fn: Handler): void {
+    this.commands.push({ pat: pattern(spec), fn });
+  }
+
+  private num(arg: string | undefined): number {
+    if (arg === undefined) throw new ScpiError(-109, 'Missing parameter');
+    const n = parseScpiNumber(arg);
+    if (n.flag !== 'ok') throw new ScpiError(-104, 'Data type error');
+    return n.value;
+  }
+
+  private bool(arg: string | undefined): boolean {
+    const a = (arg ?? '').trim().toUpperCase();
+    if (a === 'ON' || a === '1') return true;
+    if (a === 'OFF' || a === '0') return false;
+    throw new ScpiError(-224, 'Illegal parameter value');
+  }
+
+  private define(): void {
+    this.on('*IDN', (_a, q) => (q ? this.idn : undefined));
+    this.on('*RST', () => {
+      this.output = false;
+      this.level = 0;
+      this.compliance = 1e-3;
+      this.nplc = 1;
+      this.tripped = false;
+      return undefined;
+    });
+    this.on('*CLS', () => {
+      this.errors.length = 0;
+      return undefined;
+    });
+    this.on('*OPC', (_a, q) => (q ? '1' : undefined));
+    this.on('*ESR', (_a, q) => (q ? '0' : undefined));
+    this.on('*STB', (_a, q) => (q ? String(this.errors.length ? 4 : 0) : undefined));
+    this.on(':SYSTem:ERRor[:NEXT]', (_a, q) => {
+      if (!q) throw new ScpiError(-113, 'Undefined header');
+      const e = this.errors.shift();
+      return e ? `${e.code},"${e.text}"` : '0,"No error"';
+    });
+    this.on(':SYSTem:VERSion', () => '1999.0');
+    this.on('[:SOURce]:FUNCtion[:MODE]', (a, q) => {
+      if (q) return 'VOLT';
+      if (!/^VOLT(AGE)?$/i.test((a ?? '').trim())) throw new ScpiError(-224, 'Illegal parameter value');
+      return undefined;
+    });
+    this.on('[:SOURce]:VOLTage[:LEVel][:IMMediate][:AMPLitude]', (a, q) => {
+      if (q) return formatScpiNumber(this.level);
+      const v = this.num(a);
+      if (Math.abs(v) > this.spec.maxVoltage) throw new ScpiError(-222, 'Data out of range');
+      this.level = v;
+      return undefined;
+    });
+    this.on(':SENSe:CURRent[:DC]:PROTection[:LEVel]', (a, q) => {
+      if (q) return formatScpiNumber(this.compliance);
+      const c = this.num(a);
+      if (!(c > 0) || c > 1) throw new ScpiError(-222, 'Data out of range');
+      this.compliance = c;
+      return undefined;
+    });
+    this.on(':SENSe:CURRent[:DC]:PROTection:TRIPped', (_a, q) => (q ? (this.tripped ? '1' : '0') : undefined));
+    this.on(':SENSe:CURRent[:DC]:NPLCycles', (a, q) => {
+      if (q) return formatScpiNumber(this.nplc);
+      const n = this.num(a);
+      if (!(n >= 0.001 && n <= 100)) throw new ScpiError(-222, 'Data out of range');
+      this.nplc = n;
+      return undefined;
+    });
+    this.on(':SENSe:CURRent[:DC]:RANGe[:UPPer]', (a, q) => {
+      if (q) return formatScpiNumber(this.range);
+      this.range = this.num(a);
+      this.autoRange = false;
+      return undefined;
+    });
+    this.on(':SENSe:CURRent[:DC]:RANGe:AUTO', (a, q) => {
+      if (q) return this.autoRange ? '1' : '0';
+      this.autoRange = this.bool(a);
+      return undefined;
+    });
+    this.on(':OUTPut[:STATe]', (a, q) => {
+      if (q) return this.output ? '1' : '0';
+      this.output = this.bool(a);
+      if (!this.output) this.tripped = false;
+      return undefined;
+    });
+    this.on(':ABORt', () => undefined);
+    const read: Handler = (_a, q) => (q ? this.measure() : undefined);
+    this.on(':READ', read);
+    this.on(':MEASure[:CURRent][:DC]', read);
+  }
+
+  /** One source-measure point: the reply is "<voltage>,<current>" in NR3. */
+  private async measure(): Promise<string> {
+    if (!this.output) throw new ScpiError(-221, 'Settings conflict; output is off');
+    const period = (this.nplc / this.spec.lineFrequency) * 1000;
+    if (this.realTime && period >= 1) await new Promise((r) => setTimeout(r, period));
+    let v = this.level;
+    this.applied.push(v);
+    let i = this.device.current(v);
+    this.tripped = Math.abs(i) >= this.compliance;
+    if (this.tripped) {
+      // At compliance the source can no longer hold V: find the bias where |I| equals the limit.
+      let lo = 0;
+      let hi = v;
+      for (let k = 0; k < 60; k++) {
+        const mid = 0.5 * (lo + hi);
+        if (Math.abs(this.device.current(mid)) >= this.compliance) hi = mid;
+        else lo = mid;
+      }
+      v = lo;
+      i = Math.sign(this.level || 1) * this.compliance;
+    }
+    this.device.stress(this.level);
+    let range = this.range;
+    if (this.autoRange) {
+      range = this.spec.minRange;
+      while (range < Math.abs(i) && range < 1) range *= 10;
+    }
+    const sigma = this.spec.gain * Math.abs(i) + this.spec.rangeOffset * range;
+    const iMeas = this.tripped ? i : i + sigma * this.normal();
+    const vMeas = v + (1e-5 * Math.abs(v) + 1e-5) * this.normal();
+    this.readingsServed++;
+    return `${formatScpiNumber(vMeas)},${formatScpiNumber(iMeas)}`;
+  }
+
+  private pushError(code: number, text: string): void {
+    if (this.errors.length >= 10) {
+      this.errors[9] = { code: -350, text: 'Queue overflow' };
+      return;
+    }
+    this.errors.push({ code, text });
+  }
+
+  /**
+   * Handles one program message (one line, possibly several ';'-separated units) and returns the
+   * response line, or undefined when nothing is queried. Errors go to the queue, as on hardware.
+   */
+  async handleLine(line: string): Promise<string | undefined> {
+    const out: string[] = [];
+    let path: string[] = [];
+    for (const rawUnit of line.split(';')) {
+      const unit = rawUnit.trim();
+      if (!unit) continue;
+      const m = /^([^\s]+)(?:\s+(.*))?$/.exec(unit);
+      if (!m) continue;
+      let header = m[1];
+      const arg = m[2];
+      const query = header.endsWith('?');
+      if (query) header = header.slice(0, -1);
+      let tokens: string[];
+      if (header.startsWith('*')) tokens = [header];
+      else if (header.startsWith(':')) tokens = header.slice(1).split(':');
+      else tokens = [...path, ...header.split(':')];
+      if (!header.startsWith('*')) path = tokens.slice(0, -1);
+      const found = this.commands.find((c) => matches(c.pat, tokens));
+      if (!found) {
+        this.pushError(-113, 'Undefined header');
+        continue;
+      }
+      try {
+        const r = await found.fn(arg, query);
+        if (query && r !== undefined) out.push(r);
+        else if (query) this.pushError(-113, 'Undefined header');
+      } catch (e) {
+        if (e instanceof ScpiError) this.pushError(e.code, e.message);
+        else throw e;
+      }
+    }
+    if (out.length === 0) return undefined;
+    this.replies++;
+    return out.join(';');
+  }
+
+  /** Applies fault injection to a reply on its way out; returns the bytes to send. */
+  frame(reply: string, isReading: boolean): { bytes: string; disconnect: boolean } {
+    let bytes = reply + '\n';
+    const f = this.faults;
+    if (f.dropTerminatorEvery && this.replies % f.dropTerminatorEvery === 0) bytes = reply;
+    if (f.garbageEvery && this.replies % f.garbageEvery === 0) bytes = '\u0007#@!\u00ff' + bytes;
+    const disconnect = isReading && f.disconnectAfterReadings !== undefined && this.readingsServed >= f.disconnectAfterReadings;
+    return { bytes, disconnect };
+  }
+
+  get slowReplyMs(): number {
+    return this.faults.slowReplyMs ?? 0;
+  }
+}

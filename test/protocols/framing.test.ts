@@ -1,0 +1,112 @@
+import fc from 'fast-check';
+import { describe, expect, it } from 'vitest';
+import { LineFramer } from '../../protocols/line-framer.js';
+import { parseReading, RejectCounter } from '../../protocols/reading-parser.js';
+import { formatScpiNumber, parseScpiNumber } from '../../protocols/scpi-numbers.js';
+
+async function frame(chunks: string[], maxLine = 4096): Promise<{ lines: string[]; overlong: number }> {
+  const f = new LineFramer({ maxLine });
+  const lines: string[] = [];
+  f.on('data', (l: string) => lines.push(l));
+  for (const c of chunks) f.write(c);
+  f.end();
+  await new Promise((r) => f.on('end', r));
+  return { lines, overlong: f.overlong };
+}
+
+describe('SCPI numbers (IEEE 488.2 NR1/NR2/NR3; SCPI 1999 vol. 1 special values)', () => {
+  it('parses the three numeric forms', () => {
+    expect(parseScpiNumber('-12')).toEqual({ value: -12, flag: 'ok' });
+    expect(parseScpiNumber('0.0125')).toEqual({ value: 0.0125, flag: 'ok' });
+    expect(parseScpiNumber(' +1.25E-02 ')).toEqual({ value: 0.0125, flag: 'ok' });
+  });
+  it('9.91E37 is not-a-number and ±9.9E37 is overflow, never a value', () => {
+    expect(parseScpiNumber('9.91E37').flag).toBe('nan');
+    expect(parseScpiNumber('+9.9E37')).toEqual({ value: Infinity, flag: 'overflow' });
+    expect(parseScpiNumber('-9.9E37')).toEqual({ value: -Infinity, flag: 'overflow' });
+  });
+  it('rejects locale text, units and empty fields', () => {
+    for (const bad of ['', '1,5', '1.0V', 'NaN', 'Infinity', '0x10', '--1']) expect(parseScpiNumber(bad).flag).toBe('malformed');
+  });
+  it('formats NR3 and refuses non-finite values', () => {
+    expect(formatScpiNumber(0.5)).toBe('5.000000000E-1');
+    expect(() => formatScpiNumber(Number.NaN)).toThrowError(RangeError);
+  });
+});
+
+describe('line framing', () => {
+  it('reassembles lines split across chunks and strips CR', async () => {
+    const { lines } = await frame(['1.0E+00,2', '.0E-09\r\n3', '.0E+00,4.0E-09\n']);
+    expect(lines).toEqual(['1.0E+00,2.0E-09', '3.0E+00,4.0E-09']);
+  });
+  it('discards an overlong line up to its terminator and counts it', async () => {
+    const { lines, overlong } = await frame(['x'.repeat(50), 'y'.repeat(50), '\nok\n'], 64);
+    expect(lines).toEqual(['ok']);
+    expect(overlong).toBe(1);
+  });
+  it('rejects a bad maxLine with a TypeError naming the option', () => {
+    expect(() => new LineFramer({ maxLine: 0 })).toThrowError(/maxLine/);
+  });
+});
+
+describe('property-based fuzzing of the reading parser and framer (fast-check)', () => {
+  it('parseReading never throws on arbitrary text, and every rejection carries a reason', () => {
+    const counter = new RejectCounter();
+    fc.assert(
+      fc.property(fc.string({ maxLength: 200 }), (s) => {
+        const r = parseReading(s, ['voltage', 'current']);
+        if (!r.ok) {
+          expect(typeof r.reason).toBe('string');
+          counter.add(r.reason);
+        } else {
+          expect(Number.isNaN(r.reading.v)).toBe(false);
+        }
+      }),
+      { numRuns: 2000 },
+    );
+    const sum = Object.values(counter.counts).reduce((a, b) => a + (b ?? 0), 0);
+    expect(sum).toBe(counter.total);
+  });
+
+  it('random bytes, huge lines and arbitrary chunk splits: framing equals splitting the whole text', async () => {
+    await fc.assert(
+      fc.asyncProperty(
+        fc.array(fc.oneof(fc.string({ maxLength: 40 }), fc.constant('\n'), fc.constant('\r\n'), fc.string({ minLength: 100, maxLength: 300 })), { maxLength: 30 }),
+        fc.array(fc.integer({ min: 1, max: 50 }), { minLength: 1, maxLength: 10 }),
+        async (pieces, cuts) => {
+          const text = pieces.join('');
+          const chunks: string[] = [];
+          let pos = 0;
+          let k = 0;
+          while (pos < text.length) {
+            const n = cuts[k++ % cuts.length];
+            chunks.push(text.slice(pos, pos + n));
+            pos += n;
+          }
+          const max = 120;
+          const got = await frame(chunks, max);
+          const parts = text.split('\n');
+          const expected = parts.filter((p, idx) => (idx < parts.length - 1 || p.length > 0) && p.length <= max).map((p) => (p.endsWith('\r') ? p.slice(0, -1) : p));
+          const expectedOverlong = parts.filter((p) => p.length > max).length;
+          expect(got.lines).toEqual(expected);
+          expect(got.overlong).toBe(expectedOverlong);
+          for (const line of got.lines) parseReading(line, ['voltage', 'current']);
+        },
+      ),
+      { numRuns: 500 },
+    );
+  });
+
+  it('valid readings survive: formatted pairs parse back exactly', () => {
+    fc.assert(
+      fc.property(fc.double({ min: -200, max: 200, noNaN: true }), fc.double({ min: -1, max: 1, noNaN: true }), (v, i) => {
+        const r = parseReading(`${formatScpiNumber(v)},${formatScpiNumber(i)}`, ['voltage', 'current']);
+        expect(r.ok).toBe(true);
+        if (r.ok) {
+          expect(r.reading.v).toBeCloseTo(v, 8);
+          expect(r.reading.i).toBeCloseTo(i, 8);
+        }
+      }),
+    );
+  });
+});
