@@ -4,12 +4,12 @@
  * field that is wrong.
  */
 import { readFileSync } from 'node:fs';
-import { dirname, join } from 'node:path';
-import { fileURLToPath } from 'node:url';
+import { join } from 'node:path';
 import { z } from 'zod';
+import { projectRoot } from './project-root.js';
 import { formatScpiNumber } from './scpi-numbers.js';
 
-export const DIALECT_DIR = join(dirname(fileURLToPath(import.meta.url)), '..', '..', 'config', 'dialects');
+export const DIALECT_DIR = join(projectRoot(), 'config', 'dialects');
 
 const template = z.string().min(1);
 export const dialectSchema = z.object({

@@ -82,6 +82,11 @@ export function duplexPair(): [Duplex, Duplex] {
         writable.end();
         cb();
       },
+      destroy(err, cb) {
+        // Like a socket: when one side goes away, the other sees the end of the stream.
+        writable.end();
+        cb(err);
+      },
     });
   const a = make(bToA, aToB);
   const b = make(aToB, bToA);

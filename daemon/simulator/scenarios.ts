@@ -4,11 +4,11 @@
  * typo names the file and the field.
  */
 import { readdirSync, readFileSync } from 'node:fs';
-import { basename, dirname, join } from 'node:path';
-import { fileURLToPath } from 'node:url';
+import { basename, join } from 'node:path';
 import { z } from 'zod';
+import { projectRoot } from '../../protocols/project-root.js';
 
-export const SCENARIO_DIR = join(dirname(fileURLToPath(import.meta.url)), '..', '..', '..', 'config', 'scenarios');
+export const SCENARIO_DIR = join(projectRoot(), 'config', 'scenarios');
 
 const numberRecord = z.record(z.string(), z.number());
 export const scenarioSchema = z.object({
