@@ -7,9 +7,14 @@
 import { resolveInputs } from '../analysis/analyze.js';
 import type { Inputs } from '../analysis/mechanism.js';
 import { getMechanism } from '../analysis/mechanisms/index.js';
+import { singleDiodeCurrent } from '../analysis/single-diode.js';
 
 export interface DeviceSpec {
-  /** Mechanism id whose forward model gives the current. */
+  /**
+   * Mechanism id whose forward model gives the current, or 'single-diode' for a cell or diode with
+   * R_s and R_sh (params photocurrent, saturationCurrent, idealityFactor, seriesResistance,
+   * shuntResistance; the device then draws current into its + terminal as an SMU records it).
+   */
   readonly mechanism: string;
   /** Its physical parameters, as the forward model names them. */
   readonly params: Record<string, number>;
@@ -33,7 +38,7 @@ export class SimulatedDevice {
   broken = false;
 
   constructor(readonly spec: DeviceSpec) {
-    this.mech = getMechanism(spec.mechanism);
+    this.mech = getMechanism(spec.mechanism === 'single-diode' ? 'diode' : spec.mechanism);
     this.inputs = resolveInputs(this.mech, spec.inputs);
     this.params = { ...spec.params };
   }
@@ -41,6 +46,18 @@ export class SimulatedDevice {
   /** Current (A) at bias v (V), without instrument effects. Pure: does not advance degradation. */
   current(v: number): number {
     if (this.broken) return v / (this.spec.brokenResistance ?? 100);
+    if (this.spec.mechanism === 'single-diode') {
+      // SMU (load) convention: current into the device is positive, the negative of the generator current.
+      const p = this.params;
+      return -singleDiodeCurrent(v, {
+        photocurrent: p.photocurrent ?? 0,
+        saturationCurrent: p.saturationCurrent,
+        idealityFactor: p.idealityFactor,
+        seriesResistance: p.seriesResistance ?? 0,
+        shuntResistance: p.shuntResistance ?? Infinity,
+        temperature: this.inputs.temperature,
+      });
+    }
     const area = this.mech.usesArea && this.inputs.area !== undefined ? this.inputs.area : 1;
     let i: number;
     if (this.spec.polarity === 'raw') {

@@ -192,3 +192,21 @@ describe('simulated SMU over real transports', () => {
     expect(await ask(':SYST:ERR?')).toBe('0,"No error"');
   });
 });
+
+describe('illuminated solar cell scenario (single-diode model, implicit equation)', () => {
+  it('short-circuit current equals the photocurrent less the shunt loss; the current solves the implicit equation', async () => {
+    const { driver } = inProcess('solar-cell');
+    await driver.configure({ compliance: 0.5 });
+    await driver.outputOn();
+    await driver.setVoltage(0);
+    const isc = -(((await driver.measure()).reading?.i) ?? 0);
+    // At V = 0 with tiny R_s: I ≈ I_ph (0.14 A) within the instrument accuracy.
+    expect(Math.abs(isc - 0.14) / 0.14).toBeLessThan(0.01);
+    await driver.setVoltage(0.5);
+    const i = -(((await driver.measure()).reading?.i) ?? 0);
+    // Residual of the single-diode equation (physics reference §7) at the measured point.
+    const vt = 0.025692579; // kT/q at 298.15 K (CODATA 2018)
+    const f = 0.14 - 2e-10 * Math.expm1((0.5 + i * 0.05) / (1.3 * vt)) - (0.5 + i * 0.05) / 200 - i;
+    expect(Math.abs(f)).toBeLessThan(0.002);
+  });
+});
