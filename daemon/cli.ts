@@ -90,8 +90,9 @@ withAnalysisOptions(
 
 program
   .command('demo')
-  .description('fit demo on an invented thin-oxide device (stands in until the simulated instrument runs)')
-  .action(() => runDemo());
+  .description('one sweep of an invented device on the built-in simulated instrument, ranked and fitted')
+  .option('--scenario <name>', 'device scenario (plumbline sim --list)', 'oxide-fn')
+  .action((o: { scenario: string }) => runDemo(o.scenario));
 
 // A reader that stops early (`| head`) is not an error.
 process.stdout.on('error', (e: NodeJS.ErrnoException) => {

@@ -1,13 +1,14 @@
-/**
- * The fit demo: an invented device (our own scenario, "wafer PL-07, site C3": a 7 nm thermal oxide
- * on silicon, 100 µm × 100 µm gate) swept from 0 to 9 V, its current computed by the Fowler–Nordheim
- * forward model plus a leakage floor and seeded instrument noise. Ranks the mechanisms and fits
- * Fowler–Nordheim with an automatic window.
- */
+/** The `plumbline demo` command (what `npm start` runs until the station daemon lands). */
 import { analyze } from './analysis/analyze.js';
-import { fowlerNordheim } from './analysis/mechanisms/fowler-nordheim.js';
 import { rankMechanisms } from './analysis/ranking.js';
 import { formatFit, formatRanking } from './cli/format.js';
+import { loadDialect } from '../protocols/dialect.js';
+import { ScpiSession } from '../protocols/scpi-session.js';
+import { duplexPair } from '../protocols/transport.js';
+import { SmuDriver } from './instrument/smu-driver.js';
+import { SimulatedSmu } from './simulator/instrument.js';
+import { findScenario } from './simulator/scenarios.js';
+import { attachInstrument } from './simulator/serve.js';
 
 /** Small seeded generator (mulberry32) and a Box–Muller normal deviate. */
 export function seededNormal(seed: number): () => number {
@@ -22,25 +23,48 @@ export function seededNormal(seed: number): () => number {
   return () => Math.sqrt(-2 * Math.log(1 - uniform())) * Math.cos(2 * Math.PI * uniform());
 }
 
-export function demoSweep(): { v: Float64Array; i: Float64Array; inputs: { thickness: number; area: number; massRatio: number } } {
-  const inputs = { thickness: 7e-9, area: 1e-8, massRatio: 0.42 };
-  const normal = seededNormal(7);
-  const v = new Float64Array(91);
-  const i = new Float64Array(91);
-  for (let k = 0; k < v.length; k++) {
-    v[k] = k * 0.1;
-    const j = v[k] > 0 ? fowlerNordheim(v[k] / inputs.thickness, 3.1, inputs.massRatio) : 0;
-    const ideal = j * inputs.area + 2e-14 * v[k];
-    i[k] = ideal * (1 + 0.01 * normal()) + 5e-15 * normal();
+/**
+ * The demo: one sweep of an invented device on the built-in simulated instrument, through the same
+ * dialect, SCPI session and driver a real instrument uses, then the ranking and the fit.
+ */
+export async function runDemo(scenarioName = 'oxide-fn'): Promise<void> {
+  const scenario = findScenario(scenarioName);
+  const smu = new SimulatedSmu({ device: scenario.device, seed: 7, realTime: false });
+  const [client, instrument] = duplexPair();
+  attachInstrument(smu, instrument);
+  const session = new ScpiSession(client);
+  const driver = new SmuDriver(session, loadDialect('scpi-default'));
+  const out = (t: string) => process.stdout.write(t);
+  out(`plumbline demo — simulated instrument: ${await driver.identify()}\n`);
+  out(`device: ${scenario.name} — ${scenario.description}\n`);
+  const { start, stop, points, compliance } = scenario.sweep;
+  out(`sweep ${start} V to ${stop} V in ${points} points, compliance ${compliance} A\n`);
+  out('CAUTION: on a real station the output can be at a hazardous voltage; follow your lab\'s safety rules.\n\n');
+  const v: number[] = [];
+  const i: number[] = [];
+  const comp: number[] = [];
+  try {
+    await driver.configure({ compliance });
+    await driver.outputOn();
+    for (let k = 0; k < points; k++) {
+      await driver.setVoltage(start + ((stop - start) * k) / (points - 1));
+      const m = await driver.measure();
+      if (!m.reading) continue;
+      v.push(m.reading.v);
+      i.push(m.reading.i);
+      comp.push(m.compliance ? 1 : 0);
+      if (k % 15 === 0 || k === points - 1) out(`  point ${String(k + 1).padStart(3)}/${points}  V = ${m.reading.v.toFixed(3)} V  I = ${m.reading.i.toExponential(3)} A${m.compliance ? '  (compliance)' : ''}\n`);
+    }
+  } finally {
+    await driver.outputOff();
+    session.close();
   }
-  return { v, i, inputs };
-}
-
-export function runDemo(): void {
-  const { v, i, inputs } = demoSweep();
-  process.stdout.write('plumbline fit demo — invented device: wafer PL-07 site C3, 7 nm oxide, 1e-8 m^2 gate\n');
-  process.stdout.write('(the simulated instrument and live page replace this demo as they land)\n\n');
-  process.stdout.write('Ranking of the mechanisms between 5 V and 9 V:\n');
-  process.stdout.write(`${formatRanking(rankMechanisms({ x: v, y: i }, { inputs, window: { from: 5, to: 9 } }))}\n\n`);
-  process.stdout.write(`${formatFit(analyze({ x: v, y: i }, { model: 'fowler-nordheim', inputs, window: 'auto' }))}\n`);
+  out('output off.\n\n');
+  const data = { x: v, y: i, compliance: comp };
+  const { model, from, to } = scenario.analysis;
+  const inputs = scenario.device.inputs;
+  out(`Ranking of the mechanisms between ${from} V and ${to} V:\n`);
+  out(`${formatRanking(rankMechanisms(data, { inputs, window: { from, to } }))}\n\n`);
+  out(`${formatFit(analyze(data, { model, inputs, window: { from, to } }))}\n\n`);
+  out('Next: plumbline fit FILE --model ID ... on your own CSV, or plumbline sim --tcp 5025 to drive this simulator from any SCPI controller.\n');
 }

@@ -1,7 +1,11 @@
 /** `npm run bench`: prints each benchmark's figures. Not a test: nothing here passes or fails. */
 import { cpus } from 'node:os';
 import { benchAnalysis } from './analysis.js';
+import { benchProtocols } from './protocols.js';
 
 process.stdout.write(`plumbline benchmarks — Node ${process.version}, ${cpus()[0]?.model ?? 'unknown CPU'}, single thread\n\n`);
 process.stdout.write('analysis core\n');
 benchAnalysis();
+process.stdout.write('\nprotocols and simulated instrument\n');
+await benchProtocols();
+process.exit(0);
