@@ -67,7 +67,7 @@ describe('simulated SMU, in-process', () => {
     expect(sc.device.mechanism).toBe('fowler-nordheim');
   });
 
-  it('a diode answers the Shockley forward model, including reverse bias', async () => {
+  it('a diode answers the Shockley forward model, including reverse bias (R_s negligible here)', async () => {
     const { driver } = inProcess('si-diode');
     await driver.configure({ compliance: 1e-2 });
     await driver.outputOn();
@@ -116,6 +116,22 @@ describe('simulated SMU, in-process', () => {
     expect(bad).toBeGreaterThan(0);
     expect(driver.rejects.total).toBe(bad);
     expect(session.isClosed).toBe(false);
+  });
+
+  it('fault injection: a lost terminator merges two replies; the session times out instead of misreading', async () => {
+    const { session } = inProcess('oxide-fn', { dropTerminatorEvery: 1 }, 150);
+    await expect(session.query('*IDN?')).rejects.toBeInstanceOf(ScpiTimeoutError);
+  });
+
+  it('every scenario file loads and its device answers a finite current at mid-sweep', async () => {
+    const { listScenarios } = await import('../../daemon/simulator/scenarios.js');
+    const all = listScenarios();
+    expect(all.length).toBeGreaterThanOrEqual(10);
+    for (const sc of all) {
+      const smu = new SimulatedSmu({ device: sc.device, realTime: false });
+      const mid = 0.75 * sc.sweep.stop;
+      expect(Number.isFinite(smu.device.current(mid))).toBe(true);
+    }
   });
 
   it('fault injection: a slow reply times out; a disconnect rejects the pending query', async () => {
