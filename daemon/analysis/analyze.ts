@@ -251,8 +251,13 @@ export function preparePoints(
     raws.push(rawX);
     cur.push(rawY);
   }
-  const order = xs.map((_, k) => k).sort((a, b) => xs[a] - xs[b]);
-  const take = (src: number[]) => Float64Array.from(order, (k) => src[k]);
+  const order = Array.from(xs.keys()).sort((a, b) => xs[a] - xs[b]);
+  // Plain loops: Float64Array.from with a mapping function is several times slower in V8.
+  const take = (src: number[]) => {
+    const out = new Float64Array(order.length);
+    for (let k = 0; k < order.length; k++) out[k] = src[order[k]];
+    return out;
+  };
   return {
     all: {
       x: take(xs),
@@ -269,7 +274,11 @@ export function preparePoints(
 function slice(p: FitPoints, keep: (k: number) => boolean): FitPoints {
   const idx: number[] = [];
   for (let k = 0; k < p.x.length; k++) if (keep(k)) idx.push(k);
-  const pick = (a: Float64Array) => Float64Array.from(idx, (k) => a[k]);
+  const pick = (a: Float64Array) => {
+    const out = new Float64Array(idx.length);
+    for (let k = 0; k < idx.length; k++) out[k] = a[idx[k]];
+    return out;
+  };
   return { x: pick(p.x), y: pick(p.y), w: p.w ? pick(p.w) : undefined, v: pick(p.v), raw: pick(p.raw), current: pick(p.current) };
 }
 

@@ -63,7 +63,7 @@ export function segmentLine(x: Numbers, y: Numbers, options: SegmentOptions = {}
 
   // Long curves: breakpoints are first sought on a grid of candidate positions (stride s), then
   // each is refined exactly within ±s. Keeps the cost near O(K·(n/s)²) instead of O(K·n²).
-  const stride = Math.max(1, Math.ceil(n / 150));
+  const stride = Math.max(1, Math.ceil(n / 100));
   const cand: number[] = [];
   for (let p = 0; p < n; p += stride) cand.push(p);
   cand.push(n);
