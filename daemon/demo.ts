@@ -10,19 +10,6 @@ import { SimulatedSmu } from './simulator/instrument.js';
 import { findScenario } from './simulator/scenarios.js';
 import { attachInstrument } from './simulator/serve.js';
 
-/** Small seeded generator (mulberry32) and a Box–Muller normal deviate. */
-export function seededNormal(seed: number): () => number {
-  let s = seed >>> 0;
-  const uniform = () => {
-    s = (s + 0x6d2b79f5) >>> 0;
-    let t = s;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-  return () => Math.sqrt(-2 * Math.log(1 - uniform())) * Math.cos(2 * Math.PI * uniform());
-}
-
 /**
  * The demo: one sweep of an invented device on the built-in simulated instrument, through the same
  * dialect, SCPI session and driver a real instrument uses, then the ranking and the fit.

@@ -8,7 +8,7 @@
  * TCP) only carry bytes.
  */
 import { formatScpiNumber, parseScpiNumber } from '../../protocols/scpi-numbers.js';
-import { seededNormal } from '../demo.js';
+import { seededNormal } from '../analysis/random.js';
 import { SimulatedDevice, type DeviceSpec } from './device.js';
 import { matches, pattern, type HeaderPattern } from './scpi-headers.js';
 

@@ -7,7 +7,7 @@ import { rankMechanisms } from '../../daemon/analysis/ranking.js';
 import { segmentLine } from '../../daemon/analysis/segmentation.js';
 import { autoWindow } from '../../daemon/analysis/window.js';
 import { estimateNoise } from '../../daemon/analysis/noise.js';
-import { seededNormal } from '../../daemon/demo.js';
+import { seededNormal } from '../../daemon/analysis/random.js';
 import { sweep, withNoise } from '../helpers/synthetic.js';
 
 describe('noise estimate', () => {

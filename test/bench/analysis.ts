@@ -5,7 +5,7 @@ import { autoWindow } from '../../daemon/analysis/window.js';
 import { segmentLine } from '../../daemon/analysis/segmentation.js';
 import { rankMechanisms } from '../../daemon/analysis/ranking.js';
 import { fowlerNordheim } from '../../daemon/analysis/mechanisms/fowler-nordheim.js';
-import { seededNormal } from '../../daemon/demo.js';
+import { seededNormal } from '../../daemon/analysis/random.js';
 import { medianMs, report } from './timing.js';
 
 export function benchAnalysis(): void {

@@ -3,7 +3,7 @@
  * tests generate data with known parameters and check the fits return them. (The parameter values
  * are textbook-typical; the data are generated, not measured.)
  */
-import { seededNormal } from '../../daemon/demo.js';
+import { seededNormal } from '../../daemon/analysis/random.js';
 
 export function sweep(from: number, to: number, n: number): Float64Array {
   return Float64Array.from({ length: n }, (_, k) => from + ((to - from) * k) / (n - 1));
