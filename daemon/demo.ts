@@ -52,6 +52,10 @@ export async function runDemo(scenarioName = 'oxide-fn'): Promise<void> {
   const inputs = scenario.device.inputs;
   out(`Ranking of the mechanisms between ${from} V and ${to} V:\n`);
   out(`${formatRanking(rankMechanisms(data, { inputs, window: { from, to } }))}\n\n`);
-  out(`${formatFit(analyze(data, { model, inputs, window: { from, to } }))}\n\n`);
+  try {
+    out(`${formatFit(analyze(data, { model, inputs, window: { from, to } }))}\n\n`);
+  } catch (e) {
+    out(`The ${model} fit could not be made on this sweep: ${(e as Error).message}\n\n`);
+  }
   out('Next: plumbline fit FILE --model ID ... on your own CSV, or plumbline sim --tcp 5025 to drive this simulator from any SCPI controller.\n');
 }
