@@ -24,6 +24,13 @@ import {
 } from './cli/inputs.js';
 import { QuantityError } from './quantity.js';
 import { registerSim } from './cli/sim.js';
+import { registerStation } from './cli/station.js';
+import { ConfigError } from './run/config.js';
+import { GuardError } from './run/guard.js';
+import { PlanError } from './run/plan.js';
+import { StationError } from './run/station.js';
+import { JournalError } from './journal/journal.js';
+import { ServerConfigError } from './server/app.js';
 import { ScenarioError } from './simulator/scenarios.js';
 import { UsageError } from './cli/usage.js';
 
@@ -101,6 +108,7 @@ process.stdout.on('error', (e: NodeJS.ErrnoException) => {
 });
 
 registerSim(program);
+registerStation(program);
 
 export async function main(argv: string[]): Promise<number> {
   try {
@@ -111,7 +119,11 @@ export async function main(argv: string[]): Promise<number> {
       return e.exitCode === 0 ? 0 : 2;
     }
     const cmd = argv[2] ?? '';
-    if (e instanceof CsvError || e instanceof QuantityError || e instanceof ScenarioError || e instanceof UsageError) {
+    if (
+      e instanceof CsvError || e instanceof QuantityError || e instanceof ScenarioError || e instanceof UsageError ||
+      e instanceof ConfigError || e instanceof PlanError || e instanceof GuardError || e instanceof JournalError ||
+      e instanceof StationError || e instanceof ServerConfigError
+    ) {
       process.stderr.write(`plumbline ${cmd}: ${e.message}\n`);
       return 2;
     }
@@ -125,5 +137,6 @@ export async function main(argv: string[]): Promise<number> {
 }
 
 main(process.argv).then((code) => {
-  process.exitCode = code;
+  // A command may have set its own exit code (run: by outcome); an error code wins over it.
+  if (code !== 0 || process.exitCode === undefined) process.exitCode = code;
 });

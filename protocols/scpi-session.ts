@@ -49,7 +49,7 @@ export class ScpiSession {
   readonly timeoutMs: number;
   /** Replies that arrived with no query waiting (a desync). */
   strayLines = 0;
-  /** Every command sent, for tests and the journal. */
+  /** The commands sent, most recent last (the last 10,000 to 20,000; older ones are dropped). */
   readonly sent: string[] = [];
 
   constructor(readonly stream: Duplex, options: SessionOptions = {}) {
@@ -87,6 +87,7 @@ export class ScpiSession {
   private writeRaw(msg: string): Promise<void> {
     if (this.closed) return Promise.reject(new ScpiDisconnectError('the instrument connection is closed'));
     this.sent.push(msg);
+    if (this.sent.length > 20000) this.sent.splice(0, 10000);
     return new Promise((resolve, reject) => {
       this.stream.write(msg + this.terminator, 'latin1', (err) => (err ? reject(new ScpiDisconnectError(err.message)) : resolve()));
     });

@@ -140,6 +140,59 @@ interface Prepared {
 }
 
 /**
+ * One reading into the mechanism's coordinates (x, y, and the bias as the mechanism sees it), written
+ * into `out`; returns the exclusion reason instead when the point cannot enter. `sign` is the
+ * polarity the 'magnitude' mechanisms accept (+1 or −1); `area` divides the current (1 for none).
+ * The live chain calls this per point; preparePoints calls it for whole datasets.
+ */
+export function transformPoint(
+  mech: Mechanism,
+  inputs: ResolvedInputs,
+  rawX: number,
+  rawY: number,
+  sign: number,
+  area: number,
+  out: { x: number; y: number; bias: number },
+): string | undefined {
+  let j = rawY;
+  let bias = rawX;
+  if (mech.bias === 'magnitude') {
+    const b = (rawX - inputs.flatBand) * sign;
+    if (b === 0) return REASONS.zeroBias;
+    if (b < 0) return REASONS.oppositePolarity;
+    if (rawY * sign < 0) return REASONS.againstBias;
+    bias = b;
+    j = Math.abs(rawY);
+  } else if (mech.bias === 'temperature' && !(rawX > 0)) {
+    return REASONS.nonPositiveTemperature;
+  }
+  j /= area;
+  const x = mech.x(bias, inputs);
+  let y: number;
+  if (mech.yKind === 'log') {
+    const mag = mech.bias === 'raw' ? Math.abs(j) : j;
+    if (!(mag > 0)) return REASONS.nonPositiveLog;
+    y = Math.log(mag) - (mech.lnOffset ? mech.lnOffset(bias, inputs) : 0);
+  } else y = j;
+  if (!Number.isFinite(x) || !Number.isFinite(y)) return REASONS.notFinite;
+  out.x = x;
+  out.y = y;
+  out.bias = bias;
+  return undefined;
+}
+
+/**
+ * The current a fitted line predicts at a bias (inverse of transformPoint), in A: for log mechanisms
+ * area·exp(a + b·x + lnOffset), for linear ones area·(a + b·x). Magnitude for 'magnitude' mechanisms.
+ */
+export function predictCurrent(mech: Mechanism, inputs: ResolvedInputs, slope: number, intercept: number, bias: number, area: number): number {
+  const x = mech.x(bias, inputs);
+  const y = intercept + slope * x;
+  if (mech.yKind === 'log') return area * Math.exp(y + (mech.lnOffset ? mech.lnOffset(bias, inputs) : 0));
+  return area * y;
+}
+
+/**
  * Maps every reading into the mechanism's coordinates. Points that cannot enter are counted under
  * a reason; the survivors come back sorted by x.
  */
@@ -175,6 +228,7 @@ export function preparePoints(
   const cols = data.columns ?? {};
   const area = mech.usesArea && inputs.area !== undefined ? inputs.area : 1;
   const limit = options.complianceLimit;
+  const out = { x: 0, y: 0, bias: 0 };
 
   for (let i = 0; i < n; i++) {
     const rawX = data.x[i];
@@ -208,41 +262,14 @@ export function preparePoints(
         y = Math.log(cy);
       } else y = cy;
     } else {
-      let j = rawY;
-      if (mech.bias === 'magnitude') {
-        const b = (rawX - inputs.flatBand) * sign;
-        if (b === 0) {
-          count(REASONS.zeroBias);
-          continue;
-        }
-        if (b < 0) {
-          count(REASONS.oppositePolarity);
-          continue;
-        }
-        if (rawY * sign < 0) {
-          count(REASONS.againstBias);
-          continue;
-        }
-        bias = b;
-        j = Math.abs(rawY);
-      } else if (mech.bias === 'temperature' && !(rawX > 0)) {
-        count(REASONS.nonPositiveTemperature);
+      const reason = transformPoint(mech, inputs, rawX, rawY, sign, area, out);
+      if (reason !== undefined) {
+        count(reason);
         continue;
       }
-      j /= area;
-      x = mech.x(bias, inputs);
-      if (mech.yKind === 'log') {
-        const mag = mech.bias === 'raw' ? Math.abs(j) : j;
-        if (!(mag > 0)) {
-          count(REASONS.nonPositiveLog);
-          continue;
-        }
-        y = Math.log(mag) - (mech.lnOffset ? mech.lnOffset(bias, inputs) : 0);
-      } else y = j;
-      if (!Number.isFinite(x) || !Number.isFinite(y)) {
-        count(REASONS.notFinite);
-        continue;
-      }
+      x = out.x;
+      y = out.y;
+      bias = out.bias;
     }
     xs.push(x);
     ys.push(y);

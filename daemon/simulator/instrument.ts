@@ -60,7 +60,7 @@ export class SimulatedSmu {
   readonly device: SimulatedDevice;
   readonly spec: InstrumentSpec;
   private readonly normal: () => number;
-  private readonly faults: Faults;
+  private faults: Faults;
   private readonly realTime: boolean;
   private readonly idn: string;
   private readonly commands: { pat: HeaderPattern; fn: Handler }[] = [];
@@ -76,6 +76,8 @@ export class SimulatedSmu {
   tripped = false;
   /** Every voltage actually applied to the device (for tests that check the wire). */
   readonly applied: number[] = [];
+  /** Every command line received, in order (bounded: the oldest half is dropped past 200,000). */
+  readonly log: string[] = [];
   onDisconnect: (() => void) | undefined;
 
   constructor(options: SimOptions) {
@@ -86,6 +88,11 @@ export class SimulatedSmu {
     this.realTime = options.realTime ?? true;
     this.idn = options.idn ?? 'plumbline,simulated SMU,0,0.1';
     this.define();
+  }
+
+  /** Removes injected faults (a "repaired" instrument for reconnect tests). */
+  clearFaults(): void {
+    this.faults = {};
   }
 
   private on(spec: string, fn: Handler): void {
@@ -186,6 +193,7 @@ export class SimulatedSmu {
     if (this.realTime && period >= 1) await new Promise((r) => setTimeout(r, period));
     let v = this.level;
     this.applied.push(v);
+    if (this.applied.length > 200000) this.applied.splice(0, 100000);
     let i = this.device.current(v);
     this.tripped = Math.abs(i) >= this.compliance;
     if (this.tripped) {
@@ -226,6 +234,8 @@ export class SimulatedSmu {
    * response line, or undefined when nothing is queried. Errors go to the queue, as on hardware.
    */
   async handleLine(line: string): Promise<string | undefined> {
+    this.log.push(line);
+    if (this.log.length > 200000) this.log.splice(0, 100000);
     const out: string[] = [];
     let path: string[] = [];
     for (const rawUnit of line.split(';')) {

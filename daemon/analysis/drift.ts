@@ -1,0 +1,125 @@
+/**
+ * Control charts for one fitted parameter across sweeps (NIST/SEMATECH e-Handbook of Statistical
+ * Methods §6.3.2.4 EWMA and §6.3.2.3 tabular CUSUM).
+ *
+ * Phase I: the first `baseline` sweeps give the centre μ0 and σ. σ is the moving-range estimate
+ * MR̄/1.128 (common practice for individual values), never smaller than the mean fit standard
+ * error of the baseline values nor than `minRelativeSigma`·|μ0| — so a baseline of nearly equal
+ * values does not make the chart fire on noise.
+ * Phase II: every later value updates the statistic and is compared with the limits.
+ */
+
+export interface DriftSettings {
+  readonly method: 'ewma' | 'cusum';
+  /** Number of sweeps in the Phase-I baseline (≥ 2). */
+  readonly baseline: number;
+  /** EWMA weight λ (0 < λ ≤ 1); 0.2–0.3 usual. */
+  readonly lambda: number;
+  /** EWMA limit width L in σ_z; 3 usual. */
+  readonly L: number;
+  /** EWMA warning width in σ_z (a caution before the limit). */
+  readonly warnL: number;
+  /** CUSUM reference value k and decision interval h, in σ (0.5 and 4 or 5 usual). */
+  readonly k: number;
+  readonly h: number;
+  /** Floor on σ as a fraction of |μ0|. */
+  readonly minRelativeSigma: number;
+}
+
+export const DEFAULT_DRIFT: DriftSettings = {
+  method: 'ewma',
+  baseline: 3,
+  lambda: 0.2,
+  L: 3,
+  warnL: 2,
+  k: 0.5,
+  h: 4,
+  minRelativeSigma: 1e-3,
+};
+
+export interface DriftPoint {
+  readonly phase: 'baseline' | 'monitor';
+  readonly statistic: number | null;
+  readonly center: number | null;
+  readonly lower: number | null;
+  readonly upper: number | null;
+  readonly sigma: number | null;
+  readonly state: 'baseline' | 'in-control' | 'warning' | 'out-of-control' | 'no-value';
+}
+
+/** EWMA statistic z_t = λx_t + (1−λ)z_{t−1}, z_0 = μ0 (NIST/SEMATECH §6.3.2.4). */
+export function ewmaStep(z: number, x: number, lambda: number): number {
+  return lambda * x + (1 - lambda) * z;
+}
+
+/** σ of z after t updates: σ√(λ/(2−λ)·[1−(1−λ)^{2t}]). */
+export function ewmaSigma(sigma: number, lambda: number, t: number): number {
+  return sigma * Math.sqrt((lambda / (2 - lambda)) * (1 - Math.pow(1 - lambda, 2 * t)));
+}
+
+/** Moving-range estimate of σ for individual values: mean |x_i − x_{i−1}| / 1.128 (d2 for n = 2). */
+export function movingRangeSigma(values: readonly number[]): number {
+  if (values.length < 2) return 0;
+  let s = 0;
+  for (let i = 1; i < values.length; i++) s += Math.abs(values[i] - values[i - 1]);
+  return s / (values.length - 1) / 1.128;
+}
+
+export class DriftChart {
+  private readonly base: { value: number; stdErr: number }[] = [];
+  private mu = Number.NaN;
+  private sigma = Number.NaN;
+  private z = Number.NaN;
+  private t = 0;
+  private cPlus = 0;
+  private cMinus = 0;
+
+  constructor(readonly settings: DriftSettings = DEFAULT_DRIFT) {
+    if (!(settings.baseline >= 2)) throw new RangeError('drift baseline needs at least 2 sweeps');
+    if (!(settings.lambda > 0 && settings.lambda <= 1)) throw new RangeError('EWMA lambda must be in (0, 1]');
+  }
+
+  get centre(): number {
+    return this.mu;
+  }
+
+  /** Adds one sweep's value (undefined when that sweep had no fit). */
+  add(value: number | undefined, stdErr = 0): DriftPoint {
+    const s = this.settings;
+    if (value === undefined || !Number.isFinite(value)) {
+      return { phase: this.base.length < s.baseline ? 'baseline' : 'monitor', statistic: null, center: this.finite(this.mu), lower: null, upper: null, sigma: this.finite(this.sigma), state: 'no-value' };
+    }
+    if (this.base.length < s.baseline) {
+      this.base.push({ value, stdErr: Number.isFinite(stdErr) ? stdErr : 0 });
+      if (this.base.length === s.baseline) this.closeBaseline();
+      return { phase: 'baseline', statistic: value, center: this.finite(this.mu), lower: null, upper: null, sigma: this.finite(this.sigma), state: 'baseline' };
+    }
+    this.t++;
+    if (s.method === 'ewma') {
+      this.z = ewmaStep(this.z, value, s.lambda);
+      const sz = ewmaSigma(this.sigma, s.lambda, this.t);
+      const dev = Math.abs(this.z - this.mu);
+      const state = dev > s.L * sz ? 'out-of-control' : dev > s.warnL * sz ? 'warning' : 'in-control';
+      return { phase: 'monitor', statistic: this.z, center: this.mu, lower: this.mu - s.L * sz, upper: this.mu + s.L * sz, sigma: this.sigma, state };
+    }
+    const K = s.k * this.sigma;
+    const H = s.h * this.sigma;
+    this.cPlus = Math.max(0, value - this.mu - K + this.cPlus);
+    this.cMinus = Math.max(0, this.mu - K - value + this.cMinus);
+    const c = Math.max(this.cPlus, this.cMinus);
+    const state = c > H ? 'out-of-control' : c > H / 2 ? 'warning' : 'in-control';
+    return { phase: 'monitor', statistic: this.cPlus >= this.cMinus ? this.cPlus : -this.cMinus, center: 0, lower: -H, upper: H, sigma: this.sigma, state };
+  }
+
+  private closeBaseline(): void {
+    const vals = this.base.map((b) => b.value);
+    this.mu = vals.reduce((a, b) => a + b, 0) / vals.length;
+    const meanSe = this.base.reduce((a, b) => a + b.stdErr, 0) / this.base.length;
+    this.sigma = Math.max(movingRangeSigma(vals), meanSe, this.settings.minRelativeSigma * Math.abs(this.mu), Number.MIN_VALUE);
+    this.z = this.mu;
+  }
+
+  private finite(x: number): number | null {
+    return Number.isFinite(x) ? x : null;
+  }
+}

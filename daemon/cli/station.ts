@@ -1,0 +1,249 @@
+/**
+ * `plumbline serve | run | export | annotate | recover`: the station daemon and its journal from the
+ * command line. `run` and `serve` turn the output off on SIGINT, SIGTERM and uncaught exceptions
+ * before the process ends.
+ */
+import { readFileSync } from 'node:fs';
+import { resolve } from 'node:path';
+import type { Command } from 'commander';
+import type { WireEvent } from '../../protocols/wire.js';
+import { exportSession } from '../journal/export.js';
+import { liveLockHolder } from '../journal/journal.js';
+import { recoverAll, recoverSession } from '../journal/reader.js';
+import { DEFAULT_CONFIG_FILE, dataDir, loadConfig, type StationConfig } from '../run/config.js';
+import { EXIT_CODE } from '../run/runner.js';
+import { annotateFolder, Station } from '../run/station.js';
+import { startServer } from '../server/app.js';
+import { UsageError } from './usage.js';
+
+interface StationOptions {
+  config?: string;
+  scenario?: string;
+  data?: string;
+  fast?: boolean;
+}
+
+function stationConfig(o: StationOptions): StationConfig {
+  const config = loadConfig(o.config ?? DEFAULT_CONFIG_FILE);
+  if (o.scenario !== undefined) {
+    const prev = config.instrument.kind === 'simulator' ? config.instrument : undefined;
+    config.instrument = { kind: 'simulator', scenario: o.scenario, realTime: prev?.realTime ?? true, seed: prev?.seed ?? 7 };
+    // A scenario brings its own plan and analysis unless the config fixes them.
+    if (o.config === undefined) {
+      delete config.plan;
+      delete config.analysis;
+    }
+  }
+  if (o.fast) {
+    if (config.instrument.kind !== 'simulator') throw new UsageError('--fast applies to the simulated instrument only');
+    config.instrument = { ...config.instrument, realTime: false };
+  }
+  return config;
+}
+
+function readJson(file: string, what: string): unknown {
+  let text: string;
+  try {
+    text = readFileSync(file, 'utf8');
+  } catch (e) {
+    throw new UsageError(`${what} ${file}: cannot read: ${(e as Error).message}`);
+  }
+  try {
+    return JSON.parse(text);
+  } catch (e) {
+    throw new UsageError(`${what} ${file}: not valid JSON: ${(e as Error).message}`);
+  }
+}
+
+/** Output off on the way out, whatever the way out is. */
+function guardProcess(station: Station, onExit: () => Promise<void> | void): void {
+  let exiting = false;
+  const leave = async (why: string, code: number) => {
+    if (exiting) return;
+    exiting = true;
+    process.stderr.write(`\nplumbline: ${why}; turning the output off\n`);
+    try {
+      await station.emergencyStop(why);
+      await onExit();
+    } finally {
+      process.exit(code);
+    }
+  };
+  process.on('SIGINT', () => void leave('interrupted (SIGINT)', 130));
+  process.on('SIGTERM', () => void leave('terminated (SIGTERM)', 143));
+  process.on('uncaughtException', (e) => void leave(`uncaught exception: ${e.stack ?? e.message}`, 1));
+  process.on('unhandledRejection', (e) => void leave(`unhandled rejection: ${(e as Error)?.stack ?? String(e)}`, 1));
+}
+
+function describe(e: WireEvent): string | undefined {
+  switch (e.type) {
+    case 'caution':
+      return `CAUTION [${e.kind}] ${e.message}`;
+    case 'decision':
+      return `decision: ${e.action} — ${e.reason}`;
+    case 'fit': {
+      if (!e.final) return undefined;
+      if (!e.fit) return `sweep ${e.sweep}: no fit (${e.error})`;
+      const p = Object.entries(e.fit.parameters).slice(0, 3).map(([k, v]) => `${k} = ${v.value.toPrecision(4)} ± ${v.stdErr.toPrecision(2)} ${v.unit}`);
+      return `sweep ${e.sweep}: ${e.fit.model} fit on ${e.fit.line.n} points, ${p.join(', ')}`;
+    }
+    case 'drift':
+      return e.state === 'baseline' || e.state === 'no-value' ? undefined : `         drift of ${e.parameter}: ${e.state} (${e.method} ${e.statistic?.toPrecision(5)}, limits ${e.lower?.toPrecision(5)} … ${e.upper?.toPrecision(5)})`;
+    case 'output':
+      return `output ${e.on ? 'ON' : 'off'}${e.confirmed ? '' : ' (NOT confirmed: the command did not reach the instrument — check the front panel)'} — ${e.reason}`;
+    case 'recovery':
+      return `journal: ${e.message}`;
+    default:
+      return undefined;
+  }
+}
+
+export function registerStation(program: Command): void {
+  program
+    .command('run')
+    .description('run a sweep plan headless: progress on the terminal, a session folder under --data, exit code by outcome')
+    .option('--config <file>', 'station config (default config/station.json: the built-in simulated instrument)')
+    .option('--plan <file>', 'sweep plan JSON (default: the config\'s plan, or the scenario\'s)')
+    .option('--sweeps <n>', 'number of sweeps (overrides the plan\'s repeat)')
+    .option('--scenario <name>', 'use the built-in simulated instrument with this scenario (plumbline sim --list)')
+    .option('--model <id>', 'live-fit model (default: the config\'s or the scenario\'s)')
+    .option('--data <dir>', 'folder under which the run creates its session folder (default: the config\'s, plumbline-data)')
+    .option('--fast', 'simulated instrument: answer at once instead of waiting the integration time')
+    .option('--json', 'print one JSON object at the end instead of the progress text')
+    .addHelpText('after', '\nExit codes: 0 completed or stopped, 2 bad input, 3 aborted by the user, 4 aborted by drift, 5 aborted by breakdown, 6 instrument fault, 7 refused by the safety guard.')
+    .action(async (o: StationOptions & { plan?: string; sweeps?: string; model?: string; json?: boolean }) => {
+      const config = stationConfig(o);
+      const data = dataDir(config, o.data);
+      const station = new Station(config, data);
+      for (const r of station.recovered) process.stderr.write(`journal ${r.dir}: ${r.message}\n`);
+      let plan: unknown = o.plan !== undefined ? readJson(o.plan, 'plan') : undefined;
+      if (o.sweeps !== undefined) {
+        const n = Number(o.sweeps);
+        if (!Number.isInteger(n) || n < 1) throw new UsageError(`--sweeps '${o.sweeps}': expected a whole number ≥ 1`);
+        plan = plan === undefined ? { ...station.defaultPlan(n) } : { ...(plan as object), repeat: n };
+      }
+      const analysis = o.model !== undefined ? { ...station.analysisSettings, model: o.model, ...(o.model !== station.analysisSettings.model ? { window: 'auto' } : {}) } : undefined;
+      guardProcess(station, () => undefined);
+      const tty = process.stdout.isTTY && !o.json;
+      let progressShown = false;
+      station.events$.subscribe({
+        next: (e) => {
+          if (o.json) return;
+          if (e.type === 'progress') {
+            const eta = e.eta === null ? '' : `, about ${Math.ceil(e.eta)} s left`;
+            if (tty) {
+              process.stdout.write(`\r  sweep ${e.sweep}/${e.sweeps || '?'}  point ${e.point}/${e.points || '?'}${eta}   `);
+              progressShown = true;
+            }
+            return;
+          }
+          const line = describe(e);
+          if (line) {
+            if (progressShown) process.stdout.write('\r\x1b[K');
+            progressShown = false;
+            process.stdout.write(`${line}\n`);
+          }
+        },
+        error: () => undefined,
+      });
+      const h = await station.startRun({ plan, analysis });
+      if (!o.json) {
+        process.stdout.write(`session ${h.session}\n  folder ${h.dir}\n  plan: ${(await import('../run/plan.js')).describePlan(h.plan)}\n`);
+        process.stdout.write('CAUTION: on a real station the output can reach hazardous voltages. Follow your lab\'s safety rules; these software limits do not replace the instrument\'s interlock.\n');
+      }
+      const result = await h.done;
+      if (o.json) process.stdout.write(`${JSON.stringify({ session: h.session, dir: h.dir, ...result })}\n`);
+      else process.stdout.write(`${progressShown ? '\n' : ''}run ended: ${result.outcome} — ${result.reason} (${result.sweeps} sweep(s) finished)\nexport it: plumbline export ${h.dir}\n`);
+      process.exitCode = EXIT_CODE[result.outcome];
+    });
+
+  program
+    .command('serve')
+    .description('the station daemon with its page and API (default: the built-in simulated instrument)')
+    .option('--config <file>', 'station config (default config/station.json)')
+    .option('--port <n>', 'HTTP port (default: the config\'s, 8470; 0 = any free port)')
+    .option('--host <addr>', 'address to listen on (default 127.0.0.1; anything else needs server.token in the config)')
+    .option('--scenario <name>', 'use the built-in simulated instrument with this scenario')
+    .option('--data <dir>', 'folder for session folders (default: the config\'s, plumbline-data)')
+    .option('--fast', 'simulated instrument: answer at once instead of waiting the integration time')
+    .option('--no-autostart', 'do not start the default plan at once even if the config says so')
+    .action(async (o: StationOptions & { port?: string; host?: string; autostart: boolean }) => {
+      const config = stationConfig(o);
+      const data = dataDir(config, o.data);
+      const port = o.port !== undefined ? Number(o.port) : config.server.port;
+      if (!Number.isInteger(port) || port < 0 || port > 65535) throw new UsageError(`--port '${o.port}': expected a port number`);
+      const station = new Station(config, data);
+      for (const r of station.recovered) process.stderr.write(`journal ${r.dir}: ${r.message}\n`);
+      const srv = await startServer(station, { host: o.host ?? config.server.host, port, token: config.server.token });
+      guardProcess(station, () => srv.close());
+      station.events$.subscribe({
+        next: (e) => {
+          if (e.type === 'session') process.stdout.write(`session ${e.id} started\n`);
+          else if (e.type === 'run-end') process.stdout.write(`run ended: ${e.outcome} — ${e.reason}\n`);
+          else if (e.type === 'caution') process.stdout.write(`CAUTION [${e.kind}] ${e.message}\n`);
+        },
+        error: () => undefined,
+      });
+      process.stdout.write(`plumbline daemon: ${config.name}\n  page  ${srv.url}\n  data  ${data}\n  instrument: ${config.instrument.kind}${station.scenario ? ` (scenario ${station.scenario.name})` : ''}\n`);
+      process.stdout.write('CAUTION: on a real station the output can reach hazardous voltages. Follow your lab\'s safety rules.\n');
+      if (config.autostart && o.autostart) {
+        const h = await station.startRun({});
+        process.stdout.write(`demo run started: ${h.session}\n`);
+        h.done.catch(() => undefined);
+      }
+      await new Promise(() => undefined);
+    });
+
+  program
+    .command('export')
+    .description('write points.csv, sweeps.csv and session.json from a session folder')
+    .argument('<session-dir>', 'a session folder (under the data folder)')
+    .option('--out <dir>', 'output folder (default SESSION_DIR/export)')
+    .option('--json', 'print one JSON object')
+    .action((dir: string, o: { out?: string; json?: boolean }) => {
+      const r = exportSession(resolve(dir), o.out !== undefined ? resolve(o.out) : undefined);
+      if (o.json) process.stdout.write(`${JSON.stringify(r)}\n`);
+      else {
+        process.stdout.write(`${r.readings} readings in ${r.sweeps} sweep(s) exported to ${r.outDir}\n`);
+        for (const b of r.badLines) process.stdout.write(`  skipped journal line ${b.line}: ${b.problem}\n`);
+      }
+    });
+
+  program
+    .command('annotate')
+    .description('add a note (free text and tags) to a session, or to one of its sweeps')
+    .argument('<session-dir>', 'a session folder')
+    .requiredOption('--text <text>', 'the note')
+    .option('--tag <tag...>', 'tags (repeatable)')
+    .option('--sweep <n>', 'the sweep the note is about (default: the whole session)')
+    .action((dir: string, o: { text: string; tag?: string[]; sweep?: string }) => {
+      const holder = liveLockHolder(resolve(dir));
+      if (holder !== undefined) throw new UsageError(`${dir} is being written by the running daemon (pid ${holder}); annotate through its API: POST /api/annotations`);
+      let sweep: number | undefined;
+      if (o.sweep !== undefined) {
+        sweep = Number(o.sweep);
+        if (!Number.isInteger(sweep) || sweep < 1) throw new UsageError(`--sweep '${o.sweep}': expected a sweep number ≥ 1`);
+      }
+      if (o.text.trim() === '') throw new UsageError('--text is empty');
+      const e = annotateFolder(resolve(dir), { type: 'annotation', text: o.text, tags: o.tag ?? [], ...(sweep !== undefined ? { sweep } : {}), source: 'cli' });
+      process.stdout.write(`annotation ${e.seq} added to ${dir}\n`);
+    });
+
+  program
+    .command('recover')
+    .description('close sessions a crashed daemon left open (what run and serve do at start)')
+    .argument('<dir>', 'a data folder, or one session folder')
+    .option('--json', 'print one JSON object')
+    .action((dir: string, o: { json?: boolean }) => {
+      const abs = resolve(dir);
+      let reports;
+      try {
+        reports = [recoverSession(abs)];
+      } catch {
+        reports = recoverAll(abs);
+      }
+      if (o.json) process.stdout.write(`${JSON.stringify({ reports })}\n`);
+      else if (reports.length === 0) process.stdout.write('nothing to recover\n');
+      else for (const r of reports) process.stdout.write(`${r.dir}: ${r.message}\n`);
+    });
+}

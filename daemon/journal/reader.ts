@@ -1,0 +1,178 @@
+/**
+ * Reads a session journal line by line in bounded memory (64 KiB chunks), tolerating damage: a line
+ * that is not valid JSON, or not a known shape, is reported with its line number and skipped.
+ * Recovery after a crash closes what the dead process left open.
+ */
+import { closeSync, existsSync, openSync, readdirSync, readSync, rmSync, statSync, writeSync } from 'node:fs';
+import { join } from 'node:path';
+import type { ReadingEvent, WireEvent } from '../../protocols/wire.js';
+import { JOURNAL_FILE, JournalError, JournalWriter, LOCK_FILE, liveLockHolder } from './journal.js';
+
+export interface BadLine {
+  readonly line: number;
+  readonly text: string;
+  readonly problem: string;
+}
+
+export interface ScanResult {
+  readonly lines: number;
+  readonly bad: BadLine[];
+  /** The file does not end with a newline (the last line was torn by a crash). */
+  readonly tornTail: boolean;
+  readonly lastSeq: number;
+  readonly lastT: number;
+}
+
+function parseLine(text: string): WireEvent | string {
+  let o: unknown;
+  try {
+    o = JSON.parse(text);
+  } catch {
+    return 'not valid JSON (torn or damaged line)';
+  }
+  if (typeof o !== 'object' || o === null) return 'not a JSON object';
+  const r = (o as { r?: unknown }).r;
+  if (Array.isArray(r)) {
+    if (r.length !== 7) return `reading line with ${r.length} fields, expected 7`;
+    const [seq, sweep, k, t, v, i, flags] = r as number[];
+    if (typeof seq !== 'number' || typeof sweep !== 'number') return 'reading line without seq and sweep numbers';
+    return { type: 'reading', seq, sweep, k, t, v: v ?? Number.NaN, i: i ?? Number.NaN, flags } satisfies ReadingEvent;
+  }
+  const type = (o as { type?: unknown }).type;
+  if (typeof type !== 'string') return 'event without a type';
+  return o as WireEvent;
+}
+
+/** Calls `onEvent` for every good line, in file order. */
+export function scanJournal(dir: string, onEvent: (e: WireEvent, line: number) => void): ScanResult {
+  const file = join(dir, JOURNAL_FILE);
+  if (!existsSync(file)) throw new JournalError(`${dir}: no ${JOURNAL_FILE} here; is this a session folder?`);
+  const fd = openSync(file, 'r');
+  const chunk = Buffer.alloc(1 << 16);
+  let carry = '';
+  let lineNo = 0;
+  const bad: BadLine[] = [];
+  let lastSeq = 0;
+  let lastT = 0;
+  let lastByte = -1;
+  const take = (text: string) => {
+    lineNo++;
+    if (text.length === 0) return;
+    const e = parseLine(text);
+    if (typeof e === 'string') {
+      bad.push({ line: lineNo, text: text.slice(0, 200), problem: e });
+      return;
+    }
+    if (typeof e.seq === 'number' && e.seq > lastSeq) lastSeq = e.seq;
+    if (typeof e.t === 'number' && e.t > lastT) lastT = e.t;
+    onEvent(e, lineNo);
+  };
+  try {
+    let n: number;
+    let pos = 0;
+    const decoder = new TextDecoder();
+    while ((n = readSync(fd, chunk, 0, chunk.length, pos)) > 0) {
+      pos += n;
+      lastByte = chunk[n - 1];
+      const text = carry + decoder.decode(chunk.subarray(0, n), { stream: true });
+      const parts = text.split('\n');
+      carry = parts.pop() ?? '';
+      for (const p of parts) take(p);
+    }
+    carry += decoder.decode();
+  } finally {
+    closeSync(fd);
+  }
+  const tornTail = lastByte !== -1 && lastByte !== 0x0a;
+  if (carry.length > 0) take(carry);
+  return { lines: lineNo, bad, tornTail, lastSeq, lastT };
+}
+
+export interface SessionSummary {
+  readonly id: string;
+  readonly dir: string;
+  readonly started: string | null;
+  readonly sweeps: number;
+  readonly readings: number;
+  readonly outcome: string | null;
+  readonly live: boolean;
+}
+
+/** The session folders under a data directory, newest first. */
+export function listSessions(dataDir: string): string[] {
+  if (!existsSync(dataDir)) return [];
+  return readdirSync(dataDir)
+    .filter((d) => existsSync(join(dataDir, d, JOURNAL_FILE)) && statSync(join(dataDir, d)).isDirectory())
+    .sort()
+    .reverse();
+}
+
+export interface RecoveryReport {
+  readonly dir: string;
+  readonly recovered: boolean;
+  readonly tornLines: number;
+  readonly badLines: BadLine[];
+  readonly closedSweep: number | null;
+  readonly addedRunEnd: boolean;
+  readonly message: string;
+}
+
+/**
+ * Closes a session a dead process left open: terminates a torn last line (so the next append starts
+ * on a fresh line; the torn text stays in the file and readers skip it), marks an unfinished sweep
+ * incomplete and ends the run as 'interrupted'. A session a live process still writes is left alone;
+ * a finished session is reported unchanged.
+ */
+export function recoverSession(dir: string): RecoveryReport {
+  const holder = liveLockHolder(dir);
+  if (holder !== undefined) {
+    return { dir, recovered: false, tornLines: 0, badLines: [], closedSweep: null, addedRunEnd: false, message: `in use by process ${holder}; left alone` };
+  }
+  let openSweep: number | null = null;
+  let ended = false;
+  let pointsInOpen = 0;
+  let readings = 0;
+  let maxSweep = 0;
+  const scan = scanJournal(dir, (e) => {
+    if (e.type === 'sweep-start') {
+      openSweep = e.sweep;
+      pointsInOpen = 0;
+    } else if (e.type === 'sweep-end') openSweep = null;
+    else if (e.type === 'reading') {
+      readings++;
+      maxSweep = Math.max(maxSweep, e.sweep);
+      if (openSweep !== null && e.sweep === openSweep) pointsInOpen++;
+    } else if (e.type === 'run-end') ended = true;
+  });
+  const tornLines = scan.bad.length;
+  if (ended && !scan.tornTail) {
+    rmSync(join(dir, LOCK_FILE), { force: true });
+    return { dir, recovered: false, tornLines, badLines: scan.bad, closedSweep: null, addedRunEnd: false, message: 'session was closed properly; nothing to recover' };
+  }
+  if (scan.tornTail) {
+    const fd = openSync(join(dir, JOURNAL_FILE), 'a');
+    writeSync(fd, '\n');
+    closeSync(fd);
+  }
+  const w = JournalWriter.append(dir, scan.lastSeq, scan.lastT);
+  const closedSweep: number | null = openSweep;
+  const parts = [`${readings} readings kept`];
+  if (scan.tornTail) parts.push('the torn last line was skipped');
+  if (tornLines > (scan.tornTail ? 1 : 0)) parts.push(`${tornLines} damaged line(s) skipped`);
+  if (closedSweep !== null) parts.push(`sweep ${closedSweep} marked incomplete after ${pointsInOpen} points`);
+  if (!ended) parts.push('run marked interrupted');
+  const message = `recovered: ${parts.join('; ')}`;
+  w.event({ type: 'recovery', tornLines, closedSweep, addedRunEnd: !ended, message });
+  if (closedSweep !== null) {
+    w.event({ type: 'sweep-end', sweep: closedSweep, points: pointsInOpen, complete: false, note: 'the daemon stopped mid-sweep (recovered on the next start)' });
+  }
+  if (!ended) w.event({ type: 'run-end', outcome: 'interrupted', reason: 'the daemon stopped without closing the session (crash, kill or power loss)', sweeps: maxSweep });
+  w.close();
+  rmSync(join(dir, LOCK_FILE), { force: true });
+  return { dir, recovered: true, tornLines, badLines: scan.bad, closedSweep, addedRunEnd: !ended, message };
+}
+
+/** Recovers every unfinished session under a data directory (the start-up pass). */
+export function recoverAll(dataDir: string): RecoveryReport[] {
+  return listSessions(dataDir).map((id) => recoverSession(join(dataDir, id))).filter((r) => r.recovered);
+}

@@ -1,0 +1,300 @@
+/**
+ * The live chain for one session: reading → flagged point (journaled) → live fit of the sweep so far
+ * (a LineAccumulator updated per point, the full analysis at most every FIT_INTERVAL_MS and at the
+ * sweep's end) → breakdown watch → drift chart across sweeps → decisions.
+ *
+ * Every event goes to the journal first and then to `events$` (an rxjs Subject the websocket hub and
+ * the CLI progress line subscribe to). The recording path is plain synchronous code — no operator
+ * that could drop or reorder readings sits between the instrument and the journal.
+ */
+import { Subject } from 'rxjs';
+import { analyze, predictCurrent, resolveInputs, transformPoint, type FitReport } from '../analysis/analyze.js';
+import { BreakdownWatch } from '../analysis/breakdown.js';
+import { DriftChart } from '../analysis/drift.js';
+import { LineAccumulator } from '../analysis/line-accumulator.js';
+import type { Mechanism, ResolvedInputs } from '../analysis/mechanism.js';
+import { getMechanism } from '../analysis/mechanisms/index.js';
+import { FLAG, type FitSummary, type NewEvent, type RunOutcome, type WireEvent } from '../../protocols/wire.js';
+import type { JournalWriter } from '../journal/journal.js';
+import type { AnalysisSettings, BreakdownConfig, DriftConfig } from './settings.js';
+
+export const FIT_INTERVAL_MS = 250;
+const PROGRESS_INTERVAL_MS = 250;
+
+export interface Decision {
+  readonly action: 'warn' | 'stop-after-sweep' | 'abort';
+  readonly outcome: RunOutcome;
+  readonly reason: string;
+}
+
+export interface ChainOptions {
+  readonly journal: JournalWriter;
+  readonly analysis: AnalysisSettings;
+  readonly drift: DriftConfig;
+  readonly breakdown: BreakdownConfig;
+  /** Compliance limit of the run, A (for the breakdown watch and the ≥ 0.99·limit rule). */
+  readonly complianceLimit?: number;
+  readonly hazardVoltage: number;
+  /** Planned sweeps and points per sweep, for progress (0 when unknown: passive sources). */
+  readonly sweeps?: number;
+  readonly pointsPerSweep?: number;
+}
+
+export function summarizeFit(r: FitReport): FitSummary {
+  return {
+    model: r.model,
+    title: r.title,
+    window: r.window,
+    line: { slope: r.line.slope, slopeStdErr: r.line.slopeStdErr, intercept: r.line.intercept, interceptStdErr: r.line.interceptStdErr, r2: r.line.r2, residualStdDev: r.line.residualStdDev, n: r.line.n },
+    axes: {
+      x: { label: r.axes.x.label, unit: r.axes.x.unit, kind: r.axes.x.kind },
+      y: { label: r.axes.y.label, unit: r.axes.y.unit, kind: r.axes.y.kind },
+    },
+    parameters: r.parameters,
+    plausible: r.plausible,
+    warnings: r.warnings,
+    points: r.points,
+    regimes: r.regimes,
+  };
+}
+
+export class LiveChain {
+  readonly events$ = new Subject<WireEvent>();
+  private analysis: AnalysisSettings;
+  private mech: Mechanism;
+  private inputs: ResolvedInputs;
+  private area = 1;
+  private drift: DriftChart | undefined;
+  private readonly breakdown: BreakdownWatch | undefined;
+  // Current sweep.
+  private sweep = 0;
+  private k = 0;
+  private v: number[] = [];
+  private i: number[] = [];
+  private c: number[] = [];
+  private readonly acc = new LineAccumulator();
+  private accMinBias = Infinity;
+  private sign = 0;
+  private complianceSeen = false;
+  private hazardSeen = false;
+  private lastFitAt = 0;
+  private lastProgressAt = 0;
+  private readonly t0 = performance.now();
+  private readonly tp = { x: 0, y: 0, bias: 0 };
+  private lastFinal: { sweep: number; v: number[]; i: number[]; c: number[] } | undefined;
+  private stopRequested: Decision | undefined;
+  sweepsDone = 0;
+  readings = 0;
+
+  constructor(readonly options: ChainOptions) {
+    this.analysis = options.analysis;
+    this.mech = getMechanism(options.analysis.model);
+    this.inputs = resolveInputs(this.mech, options.analysis.inputs);
+    this.area = this.mech.usesArea && this.inputs.area !== undefined ? this.inputs.area : 1;
+    if (options.drift.enabled) this.drift = new DriftChart(options.drift);
+    if (options.breakdown.enabled) this.breakdown = new BreakdownWatch(options.breakdown, options.complianceLimit ?? Infinity);
+  }
+
+  get settings(): AnalysisSettings {
+    return this.analysis;
+  }
+
+  /** Journal, then broadcast. */
+  emit(e: NewEvent): WireEvent {
+    const full = this.options.journal.event(e);
+    this.events$.next(full);
+    return full;
+  }
+
+  startSweep(n: number, planned: number, label: string): void {
+    this.sweep = n;
+    this.k = 0;
+    this.v = [];
+    this.i = [];
+    this.c = [];
+    this.acc.reset();
+    this.accMinBias = Infinity;
+    this.sign = 0;
+    this.complianceSeen = false;
+    this.breakdown?.reset();
+    this.lastFitAt = performance.now();
+    this.emit({ type: 'sweep-start', sweep: n, planned, label });
+  }
+
+  /** One reading. Returns an abort decision when the point shows breakdown. */
+  reading(v: number, i: number, compliance: boolean, overflow: boolean, programmed?: number): Decision | undefined {
+    const flags = (compliance ? FLAG.compliance : 0) | (overflow ? FLAG.overflow : 0);
+    const ev = this.options.journal.reading(this.sweep, this.k, v, i, flags);
+    this.events$.next(ev);
+    this.k++;
+    this.readings++;
+    this.v.push(v);
+    this.i.push(i);
+    this.c.push(flags);
+    let decision: Decision | undefined;
+
+    if (!this.hazardSeen && Math.abs(v) > this.options.hazardVoltage) {
+      this.hazardSeen = true;
+      this.emit({ type: 'caution', kind: 'hazard-voltage', sweep: this.sweep, numbers: { voltage: v, hazardVoltage: this.options.hazardVoltage }, message: `The output is above ${this.options.hazardVoltage} V. Follow your lab's high-voltage rules: interlocked fixture, hands off the probes and the device while the output is on.` });
+    }
+    if (compliance && !this.complianceSeen) {
+      this.complianceSeen = true;
+      const at = programmed !== undefined && Math.abs(programmed - v) > 1e-3 * Math.max(1, Math.abs(programmed)) ? `${programmed.toPrecision(4)} V programmed (${v.toPrecision(4)} V measured)` : `${v.toPrecision(4)} V`;
+      this.emit({ type: 'caution', kind: 'compliance', sweep: this.sweep, numbers: { voltage: v, current: i, ...(programmed !== undefined ? { programmed } : {}) }, message: `Compliance reached at ${at}: the instrument no longer holds the programmed bias. Points at compliance are kept in the journal and left out of every fit.` });
+    }
+
+    this.accumulate(v, i, flags);
+
+    if (this.breakdown) {
+      const bias = this.mech.bias === 'magnitude' && this.sign !== 0 ? (v - this.inputs.flatBand) * this.sign : v;
+      let predicted: number | undefined;
+      if (this.acc.n >= 5 && bias >= this.accMinBias) {
+        try {
+          const f = this.acc.fit();
+          predicted = Math.abs(predictCurrent(this.mech, this.inputs, f.slope, f.intercept, bias, this.area));
+        } catch {
+          predicted = undefined;
+        }
+      }
+      const verdict = this.breakdown.add(v, i, compliance, predicted);
+      if (verdict) {
+        if (verdict.state === 'confirmed') {
+          this.emit({ type: 'caution', kind: 'breakdown-confirmed', sweep: this.sweep, numbers: verdict.numbers, message: `Breakdown: ${verdict.reason}. The output is being turned off. Treat the device as broken; follow your lab's rules before touching the fixture.` });
+          decision = { action: 'abort', outcome: 'aborted-breakdown', reason: `breakdown confirmed in sweep ${this.sweep}: ${verdict.reason}` };
+          this.emit({ type: 'decision', action: 'abort', reason: decision.reason, sweep: this.sweep, numbers: verdict.numbers });
+        } else {
+          this.emit({ type: 'caution', kind: 'breakdown-suspected', sweep: this.sweep, numbers: verdict.numbers, message: `Possible breakdown: ${verdict.reason}.` });
+        }
+      }
+    }
+
+    const now = performance.now();
+    if (now - this.lastFitAt >= FIT_INTERVAL_MS && this.v.length >= 3) {
+      this.lastFitAt = now;
+      this.publishFit(false);
+    }
+    if (now - this.lastProgressAt >= PROGRESS_INTERVAL_MS) {
+      this.lastProgressAt = now;
+      this.publishProgress(now);
+    }
+    return decision;
+  }
+
+  /** Incremental line of the sweep so far (window points only when the window is manual). */
+  private accumulate(v: number, i: number, flags: number): void {
+    if (flags !== 0) return;
+    if (this.sign === 0 && v !== 0) this.sign = v > 0 ? 1 : -1;
+    const w = this.analysis.window;
+    const inWindow = typeof w !== 'object' || (v >= Math.min(w.from ?? -Infinity, w.to ?? Infinity) && v <= Math.max(w.from ?? -Infinity, w.to ?? Infinity));
+    if (inWindow && this.sign !== 0 && transformPoint(this.mech, this.inputs, v, i, this.sign, this.area, this.tp) === undefined) {
+      this.acc.add(this.tp.x, this.tp.y);
+      if (this.tp.bias < this.accMinBias) this.accMinBias = this.tp.bias;
+    }
+  }
+
+  rejected(raw: string, reason: string): void {
+    this.emit({ type: 'rejected', raw: raw.slice(0, 200), reason });
+  }
+
+  private publishProgress(now: number): void {
+    const sweeps = this.options.sweeps ?? 0;
+    const per = this.options.pointsPerSweep ?? 0;
+    const done = (this.sweep - 1) * per + this.k;
+    const total = sweeps * per;
+    const elapsed = (now - this.t0) / 1000;
+    const eta = total > 0 && done > 0 ? (elapsed / done) * (total - done) : null;
+    this.emit({ type: 'progress', sweep: this.sweep, sweeps, point: this.k, points: per, eta });
+  }
+
+  private fitNow(v: number[], i: number[], c: number[]): { fit: FitSummary | null; error?: string; report?: FitReport } {
+    try {
+      const report = analyze({ x: v, y: i, compliance: c.map((f) => f & FLAG.compliance) }, {
+        model: this.analysis.model,
+        inputs: this.analysis.inputs,
+        window: this.analysis.window,
+        complianceLimit: this.options.complianceLimit,
+      });
+      return { fit: summarizeFit(report), report };
+    } catch (e) {
+      return { fit: null, error: (e as Error).message };
+    }
+  }
+
+  private publishFit(final: boolean): { fit: FitSummary | null } {
+    const r = this.fitNow(this.v, this.i, this.c);
+    this.emit({ type: 'fit', sweep: this.sweep, final, fit: r.fit, ...(r.error ? { error: r.error } : {}) });
+    return r;
+  }
+
+  /**
+   * Ends the sweep: final fit, drift chart, decisions. Returns a decision when the run must stop
+   * (after this sweep) or abort.
+   */
+  endSweep(complete: boolean, note?: string): Decision | undefined {
+    this.emit({ type: 'sweep-end', sweep: this.sweep, points: this.k, complete, ...(note ? { note } : {}) });
+    const { fit } = this.publishFit(true);
+    this.lastFinal = { sweep: this.sweep, v: this.v, i: this.i, c: this.c };
+    this.sweepsDone++;
+    this.publishProgress(performance.now());
+    const decision = complete ? this.chartDrift(fit) : undefined;
+    return decision ?? this.stopRequested;
+  }
+
+  private chartDrift(fit: FitSummary | null): Decision | undefined {
+    if (!this.drift) return undefined;
+    const cfg = this.options.drift;
+    const name = cfg.parameter ?? (fit ? Object.keys(fit.parameters)[0] : undefined);
+    if (name === undefined) return undefined;
+    const p = fit?.parameters[name];
+    const point = this.drift.add(p?.value, p?.stdErr);
+    this.emit({ type: 'drift', sweep: this.sweep, parameter: name, value: p?.value ?? null, method: cfg.method, ...point });
+    const numbers: Record<string, number> = {};
+    for (const [k, x] of Object.entries({ value: p?.value, statistic: point.statistic, center: point.center, lower: point.lower, upper: point.upper, sigma: point.sigma })) {
+      if (typeof x === 'number') numbers[k] = x;
+    }
+    const unit = p?.unit ? ` ${p.unit}` : '';
+    const stat = point.statistic === null ? '' : cfg.method === 'ewma'
+      ? `EWMA ${point.statistic.toPrecision(5)}${unit} outside [${point.lower?.toPrecision(5)}, ${point.upper?.toPrecision(5)}]${unit}`
+      : `CUSUM ${point.statistic.toPrecision(3)}${unit} beyond ±${point.upper?.toPrecision(3)}${unit}`;
+    if (point.state === 'out-of-control') {
+      const reason = `${name} drifted in sweep ${this.sweep}: ${stat} (baseline centre ${point.center?.toPrecision(5)}${unit}, σ ${point.sigma?.toPrecision(3)}${unit})`;
+      this.emit({ type: 'caution', kind: 'drift-limit', sweep: this.sweep, numbers, message: `Drift: ${reason}.` });
+      this.emit({ type: 'decision', action: cfg.action, reason, sweep: this.sweep, numbers });
+      if (cfg.action !== 'warn') return { action: cfg.action, outcome: 'aborted-drift', reason };
+    } else if (point.state === 'warning') {
+      this.emit({ type: 'caution', kind: 'drift-warning', sweep: this.sweep, numbers, message: `${name} is moving away from its baseline in sweep ${this.sweep} (beyond the warning line).` });
+    }
+    return undefined;
+  }
+
+  /** Asks the run to stop after the current sweep. */
+  requestStop(reason: string): void {
+    this.stopRequested = { action: 'stop-after-sweep', outcome: 'stopped', reason };
+    this.emit({ type: 'decision', action: 'stop-after-sweep', reason });
+  }
+
+  /** New analysis settings: journaled, applied to the next points, and the last finished sweep is re-fitted. */
+  setAnalysis(a: AnalysisSettings, source: string): void {
+    const mech = getMechanism(a.model);
+    const inputs = resolveInputs(mech, a.inputs);
+    this.analysis = a;
+    this.mech = mech;
+    this.inputs = inputs;
+    this.area = mech.usesArea && inputs.area !== undefined ? inputs.area : 1;
+    this.acc.reset();
+    this.accMinBias = Infinity;
+    for (let k = 0; k < this.v.length; k++) this.accumulate(this.v[k], this.i[k], this.c[k]);
+    this.emit({ type: 'settings', analysis: a, source });
+    const last = this.lastFinal;
+    if (last) {
+      const r = this.fitNow(last.v, last.i, last.c);
+      this.emit({ type: 'fit', sweep: last.sweep, final: true, fit: r.fit, ...(r.error ? { error: r.error } : {}) });
+    }
+  }
+
+  end(outcome: RunOutcome, reason: string): void {
+    this.emit({ type: 'run-end', outcome, reason, sweeps: this.sweepsDone });
+    this.options.journal.close();
+    this.events$.complete();
+  }
+}

@@ -1,0 +1,114 @@
+/**
+ * The station config (config/station.json by default): which instrument, the hard limits, the
+ * default plan and analysis, the drift and breakdown watches, the server and the data folder.
+ * Validated with zod; an error names the file and the field.
+ */
+import { readFileSync } from 'node:fs';
+import { isAbsolute, join, resolve } from 'node:path';
+import { z } from 'zod';
+import { projectRoot } from '../../protocols/project-root.js';
+import { analysisSchema, breakdownSchema, driftSchema, zodMessage } from '../pipeline/settings.js';
+import { limitsSchema } from './guard.js';
+import { planSchema } from './plan.js';
+
+export const DEFAULT_CONFIG_FILE = join(projectRoot(), 'config', 'station.json');
+export const DEFAULT_PORT = 8470;
+
+const faultsSchema = z.object({
+  garbageEvery: z.number().int().positive().optional(),
+  dropTerminatorEvery: z.number().int().positive().optional(),
+  slowReplyMs: z.number().min(0).optional(),
+  disconnectAfterReadings: z.number().int().positive().optional(),
+}).strict();
+
+export const instrumentSchema = z.discriminatedUnion('kind', [
+  z.object({
+    kind: z.literal('simulator'),
+    scenario: z.string().default('oxide-fn'),
+    /** Wait the integration time per reading as a real instrument does. */
+    realTime: z.boolean().default(true),
+    seed: z.number().int().default(7),
+    faults: faultsSchema.optional(),
+  }).strict(),
+  z.object({
+    kind: z.literal('tcp'),
+    host: z.string().min(1),
+    port: z.number().int().min(1).max(65535).default(5025),
+  }).strict(),
+  z.object({
+    kind: z.literal('serial'),
+    path: z.string().min(1),
+    baudRate: z.number().int().positive().default(9600),
+    dataBits: z.union([z.literal(7), z.literal(8)]).default(8),
+    parity: z.enum(['none', 'even', 'odd']).default('none'),
+    stopBits: z.union([z.literal(1), z.literal(2)]).default(1),
+    rtscts: z.boolean().default(false),
+    terminator: z.enum(['\n', '\r\n']).default('\n'),
+  }).strict(),
+]);
+
+export type InstrumentConfig = z.infer<typeof instrumentSchema>;
+
+export const stationSchema = z.object({
+  name: z.string().default('station'),
+  instrument: instrumentSchema,
+  dialect: z.string().default('scpi-default'),
+  /** Reply timeout for each query, ms. */
+  timeoutMs: z.number().int().positive().default(5000),
+  limits: limitsSchema,
+  /** Default plan (a simulator scenario supplies one when absent). */
+  plan: planSchema.optional(),
+  /** Default analysis (a simulator scenario supplies one when absent). */
+  analysis: analysisSchema.optional(),
+  drift: driftSchema.default(driftSchema.parse({})),
+  breakdown: breakdownSchema.default(breakdownSchema.parse({})),
+  server: z.object({
+    host: z.string().default('127.0.0.1'),
+    port: z.number().int().min(0).max(65535).default(DEFAULT_PORT),
+    /** Required for control requests when set; required to bind beyond loopback. */
+    token: z.string().min(16).optional(),
+  }).strict().default({ host: '127.0.0.1', port: DEFAULT_PORT }),
+  /** Folder under which each run creates its session folder. */
+  data: z.string().default('plumbline-data'),
+  /** `serve` starts the default plan as soon as it is up (the demo). */
+  autostart: z.boolean().default(false),
+}).strict();
+
+export type StationConfig = z.infer<typeof stationSchema>;
+
+export class ConfigError extends Error {
+  readonly code = 'BAD_CONFIG';
+}
+
+export function parseConfig(raw: unknown, where: string): StationConfig {
+  const r = stationSchema.safeParse(raw);
+  if (!r.success) throw new ConfigError(zodMessage(r.error, where));
+  return r.data;
+}
+
+export function loadConfig(file = DEFAULT_CONFIG_FILE): StationConfig {
+  let text: string;
+  try {
+    text = readFileSync(file, 'utf8');
+  } catch (e) {
+    throw new ConfigError(`${file}: cannot read: ${(e as Error).message}`);
+  }
+  let raw: unknown;
+  try {
+    raw = JSON.parse(text);
+  } catch (e) {
+    throw new ConfigError(`${file}: not valid JSON: ${(e as Error).message}`);
+  }
+  return parseConfig(raw, file);
+}
+
+/** The data folder as an absolute path (relative ones are taken from the working directory). */
+export function dataDir(config: StationConfig, override?: string): string {
+  const d = override ?? config.data;
+  return isAbsolute(d) ? d : resolve(process.cwd(), d);
+}
+
+/** Whether a host name or address is loopback only. */
+export function isLoopback(host: string): boolean {
+  return host === 'localhost' || host === '::1' || /^127\.\d+\.\d+\.\d+$/.test(host);
+}

@@ -1,0 +1,261 @@
+/**
+ * The station: one instrument, its hard limits, the data folder and at most one run at a time.
+ * The REST API, the page, `plumbline run` and signal handlers all act through this object; the
+ * instrument is reached only through the run's GuardedSource.
+ */
+import { join } from 'node:path';
+import type { Duplex } from 'node:stream';
+import { Subject } from 'rxjs';
+import { loadDialect } from '../../protocols/dialect.js';
+import { ScpiSession } from '../../protocols/scpi-session.js';
+import { openSerial, openTcp, duplexPair } from '../../protocols/transport.js';
+import type { Snapshot, WireEvent } from '../../protocols/wire.js';
+import { SmuDriver } from '../instrument/smu-driver.js';
+import { JournalWriter } from '../journal/journal.js';
+import { listSessions, recoverAll, scanJournal, type RecoveryReport } from '../journal/reader.js';
+import { LiveChain } from '../pipeline/chain.js';
+import { analysisSchema, type AnalysisSettings, zodMessage } from '../pipeline/settings.js';
+import { SimulatedSmu } from '../simulator/instrument.js';
+import { findScenario, type Scenario } from '../simulator/scenarios.js';
+import { attachInstrument } from '../simulator/serve.js';
+import type { StationConfig } from './config.js';
+import { checkPlan, GuardedSource } from './guard.js';
+import { describePlan, parsePlan, sweepValues, type Plan } from './plan.js';
+import { RunController, type RunResult } from './runner.js';
+
+export class StationError extends Error {
+  constructor(message: string, readonly status = 409) {
+    super(message);
+  }
+}
+
+/** Most events a snapshot carries (readings of the oldest sweeps are dropped first). */
+const SNAPSHOT_CAP = 200_000;
+
+export interface RunHandle {
+  readonly session: string;
+  readonly dir: string;
+  readonly plan: Plan;
+  readonly done: Promise<RunResult>;
+}
+
+export class Station {
+  /** Every event of every run, after the journal has it. */
+  readonly events$ = new Subject<WireEvent>();
+  readonly scenario: Scenario | undefined;
+  private sim: SimulatedSmu | undefined;
+  private controller: RunController | undefined;
+  private chain: LiveChain | undefined;
+  private current: { session: string; dir: string } | undefined;
+  private recent: WireEvent[] = [];
+  private lastSeq = 0;
+  private analysis: AnalysisSettings;
+  readonly recovered: RecoveryReport[];
+
+  constructor(readonly config: StationConfig, readonly dataDir: string) {
+    if (config.instrument.kind === 'simulator') {
+      this.scenario = findScenario(config.instrument.scenario);
+    }
+    this.analysis = config.analysis ?? this.scenarioAnalysis();
+    this.recovered = recoverAll(dataDir);
+  }
+
+  private scenarioAnalysis(): AnalysisSettings {
+    const s = this.scenario;
+    if (!s) return analysisSchema.parse({ model: 'ohmic' });
+    return analysisSchema.parse({
+      model: s.analysis.model,
+      window: s.analysis.from !== undefined || s.analysis.to !== undefined ? { from: s.analysis.from, to: s.analysis.to } : 'auto',
+      inputs: s.device.inputs,
+    });
+  }
+
+  /** The plan used when a run is started without one. */
+  defaultPlan(repeat?: number): Plan {
+    const base = this.config.plan ?? (this.scenario
+      ? { kind: 'linear', start: this.scenario.sweep.start, stop: this.scenario.sweep.stop, points: this.scenario.sweep.points, compliance: this.scenario.sweep.compliance, repeat: 10 }
+      : undefined);
+    if (!base) throw new StationError('no plan given and the station config has no default plan', 400);
+    return parsePlan({ ...base, ...(repeat !== undefined ? { repeat } : {}) }, 'default plan');
+  }
+
+  get running(): boolean {
+    return this.controller !== undefined;
+  }
+
+  get analysisSettings(): AnalysisSettings {
+    return this.analysis;
+  }
+
+  get simulator(): SimulatedSmu | undefined {
+    return this.sim;
+  }
+
+  get currentSession(): string | undefined {
+    return this.current?.session;
+  }
+
+  private async connect(): Promise<{ driver: SmuDriver; session: ScpiSession; detail: string }> {
+    const ic = this.config.instrument;
+    let stream: Duplex;
+    let detail: string;
+    if (ic.kind === 'simulator') {
+      const scenario = this.scenario as Scenario;
+      this.sim ??= new SimulatedSmu({ device: scenario.device, seed: ic.seed, realTime: ic.realTime, faults: ic.faults });
+      const [client, inst] = duplexPair();
+      attachInstrument(this.sim, inst);
+      stream = client;
+      detail = `built-in simulated instrument, scenario ${scenario.name}: ${scenario.description}`;
+    } else if (ic.kind === 'tcp') {
+      stream = await openTcp(ic.host, ic.port, this.config.timeoutMs);
+      detail = `TCP ${ic.host}:${ic.port}`;
+    } else {
+      stream = await openSerial({ path: ic.path, baudRate: ic.baudRate, dataBits: ic.dataBits, parity: ic.parity, stopBits: ic.stopBits, rtscts: ic.rtscts });
+      detail = `serial ${ic.path} at ${ic.baudRate} baud`;
+    }
+    const session = new ScpiSession(stream, { timeoutMs: this.config.timeoutMs, terminator: ic.kind === 'serial' ? ic.terminator : '\n' });
+    return { driver: new SmuDriver(session, loadDialect(this.config.dialect)), session, detail };
+  }
+
+  /** Validates and starts a run; resolves once the session folder exists and the run is under way. */
+  async startRun(options: { plan?: unknown; analysis?: unknown; label?: string } = {}): Promise<RunHandle> {
+    if (this.controller) throw new StationError(`a run is in progress (session ${this.current?.session}); stop or abort it first`);
+    const plan = options.plan === undefined ? this.defaultPlan() : parsePlan(options.plan, 'plan');
+    checkPlan(this.config.limits, plan);
+    if (options.analysis !== undefined) this.analysis = this.parseAnalysis(options.analysis);
+    const { driver, session, detail } = await this.connect();
+    let idn: string;
+    try {
+      idn = await driver.identify();
+    } catch (e) {
+      session.close();
+      throw new StationError(`the instrument did not answer *IDN? (${(e as Error).message}); check the connection`, 502);
+    }
+    const label = options.label ?? this.scenario?.name ?? 'run';
+    const { writer, id } = JournalWriter.create(this.dataDir, label);
+    const dir = join(this.dataDir, id);
+    const chain = new LiveChain({
+      journal: writer,
+      analysis: this.analysis,
+      drift: this.config.drift,
+      breakdown: this.config.breakdown,
+      complianceLimit: plan.compliance,
+      hazardVoltage: this.config.limits.hazardVoltage,
+      sweeps: plan.repeat,
+      pointsPerSweep: sweepValues(plan).length,
+    });
+    this.recent = [];
+    chain.events$.subscribe({
+      next: (e) => this.publish(e),
+      error: () => undefined,
+    });
+    chain.emit({
+      type: 'session',
+      id,
+      startedAt: new Date().toISOString(),
+      source: { kind: this.config.instrument.kind, detail, control: true },
+      instrument: idn,
+      plan: { ...plan, description: describePlan(plan) },
+      analysis: this.analysis,
+      drift: this.config.drift,
+      limits: this.config.limits,
+    });
+    const source = new GuardedSource(driver, this.config.limits);
+    const controller = new RunController(source, chain, plan);
+    this.controller = controller;
+    this.chain = chain;
+    this.current = { session: id, dir };
+    const done = controller.execute().finally(() => {
+      session.close();
+      this.controller = undefined;
+      this.chain = undefined;
+    });
+    return { session: id, dir, plan, done };
+  }
+
+  private publish(e: WireEvent): void {
+    this.lastSeq = e.seq;
+    this.recent.push(e);
+    if (this.recent.length > SNAPSHOT_CAP) {
+      // Drop the oldest readings (other events are few and all kept).
+      let drop = this.recent.length - SNAPSHOT_CAP / 2;
+      this.recent = this.recent.filter((x) => !(x.type === 'reading' && drop-- > 0));
+    }
+    this.events$.next(e);
+  }
+
+  parseAnalysis(raw: unknown): AnalysisSettings {
+    const r = analysisSchema.safeParse(raw);
+    if (!r.success) throw new StationError(zodMessage(r.error, 'analysis'), 400);
+    return r.data;
+  }
+
+  setAnalysis(raw: unknown, source: string): AnalysisSettings {
+    const a = this.parseAnalysis(raw);
+    if (this.chain) {
+      try {
+        this.chain.setAnalysis(a, source);
+      } catch (e) {
+        throw new StationError(`analysis: ${(e as Error).message}`, 400);
+      }
+    }
+    this.analysis = a;
+    return a;
+  }
+
+  stop(reason = 'stop requested'): void {
+    if (!this.controller) throw new StationError('no run in progress');
+    this.controller.stop(reason);
+  }
+
+  abort(reason = 'abort requested'): void {
+    if (!this.controller) throw new StationError('no run in progress');
+    this.controller.abort(reason);
+  }
+
+  /** Output off now from any state (signal handlers, fatal errors). Resolves when the run has ended. */
+  async emergencyStop(reason: string): Promise<void> {
+    const c = this.controller;
+    if (!c) return;
+    c.abort(reason, 'aborted-user');
+    await Promise.race([new Promise((r) => setTimeout(r, 2000)), this.waitIdle()]);
+  }
+
+  private waitIdle(): Promise<void> {
+    return new Promise((resolve) => {
+      const poll = () => (this.controller ? setTimeout(poll, 10) : resolve());
+      poll();
+    });
+  }
+
+  /** Annotates the running session, or any session folder by id. */
+  annotate(a: { text: string; tags?: string[]; sweep?: number; session?: string }, source: string): WireEvent {
+    const target = a.session ?? this.current?.session ?? listSessions(this.dataDir)[0];
+    if (!target) throw new StationError('no session to annotate yet', 404);
+    const ev = { type: 'annotation' as const, text: a.text, tags: a.tags ?? [], ...(a.sweep !== undefined ? { sweep: a.sweep } : {}), source };
+    if (this.chain && this.current?.session === target) return this.chain.emit(ev);
+    if (!listSessions(this.dataDir).includes(target)) throw new StationError(`no session '${target}' under ${this.dataDir}`, 404);
+    return annotateFolder(join(this.dataDir, target), ev);
+  }
+
+  snapshot(): Snapshot {
+    return {
+      station: { control: true, hazardVoltage: this.config.limits.hazardVoltage, limits: this.config.limits },
+      running: this.running,
+      session: this.current?.session ?? null,
+      lastSeq: this.lastSeq,
+      events: this.recent,
+    };
+  }
+}
+
+/** Appends an annotation to a session folder (after its run, or from another process). */
+export function annotateFolder(dir: string, ev: { type: 'annotation'; text: string; tags: string[]; sweep?: number; source: string }): WireEvent {
+  const scan = scanJournal(dir, () => undefined);
+  const w = JournalWriter.append(dir, scan.lastSeq, scan.lastT);
+  try {
+    return w.event(ev);
+  } finally {
+    w.close();
+  }
+}

@@ -1,0 +1,270 @@
+/**
+ * The HTTP side of the daemon: the built page (static files), the REST API and the websocket
+ * upgrade, behind three rules:
+ *  - it listens on 127.0.0.1 unless told otherwise, and binding beyond loopback needs a control token;
+ *  - control requests (anything but GET/HEAD) need the token when one is set, and are refused from
+ *    a foreign Origin (another web site in the same browser);
+ *  - websocket upgrades from a foreign Origin, or without the token when one is set, are refused;
+ *  - the Host header must name this server (a DNS-rebinding page cannot reach the API).
+ * Every request body is validated with zod; a bad one gets 400 naming the field.
+ */
+import { timingSafeEqual } from 'node:crypto';
+import { existsSync } from 'node:fs';
+import { createServer, type IncomingMessage, type Server } from 'node:http';
+import type { AddressInfo } from 'node:net';
+import { join } from 'node:path';
+import express, { type NextFunction, type Request, type Response } from 'express';
+import { z } from 'zod';
+import { projectRoot } from '../../protocols/project-root.js';
+import { exportSession } from '../journal/export.js';
+import { listSessions, scanJournal } from '../journal/reader.js';
+import { zodMessage } from '../pipeline/settings.js';
+import { isLoopback } from '../run/config.js';
+import { GuardError } from '../run/guard.js';
+import { PlanError } from '../run/plan.js';
+import { StationError, type Station } from '../run/station.js';
+import { Hub } from './hub.js';
+
+export const WEB_DIR = join(projectRoot(), 'dist', 'web');
+
+export interface ServerOptions {
+  readonly host: string;
+  readonly port: number;
+  readonly token?: string;
+  /** Folder with the built page (default dist/web). */
+  readonly webDir?: string;
+}
+
+export class ServerConfigError extends Error {
+  readonly code = 'BAD_CONFIG';
+}
+
+const annotationBody = z.object({
+  text: z.string().min(1).max(10000),
+  tags: z.array(z.string().min(1).max(64)).max(32).optional(),
+  sweep: z.number().int().positive().optional(),
+  session: z.string().regex(/^[A-Za-z0-9-]+$/).optional(),
+}).strict();
+const runBody = z.object({ plan: z.unknown().optional(), analysis: z.unknown().optional(), label: z.string().max(40).optional() }).strict();
+const reasonBody = z.object({ reason: z.string().max(500).optional() }).strict();
+
+function tokenMatches(given: string | undefined, token: string): boolean {
+  if (given === undefined) return false;
+  const a = Buffer.from(given);
+  const b = Buffer.from(token);
+  return a.length === b.length && timingSafeEqual(a, b);
+}
+
+/** Whether the Origin header (if any) is this server itself. */
+function sameOrigin(req: IncomingMessage): boolean {
+  const origin = req.headers.origin;
+  if (origin === undefined) return true; // not a browser page (curl, scripts, the CLI)
+  try {
+    return new URL(origin).host === req.headers.host;
+  } catch {
+    return false;
+  }
+}
+
+function hostAllowed(req: IncomingMessage, host: string, port: number): boolean {
+  const h = req.headers.host;
+  if (!h) return false;
+  if (!isLoopback(host) && host !== '0.0.0.0' && host !== '::') return true;
+  const name = h.replace(/:\d+$/, '').replace(/^\[|\]$/g, '');
+  if (isLoopback(host)) return isLoopback(name) && (h.endsWith(`:${port}`) || !/:\d+$/.test(h));
+  return true;
+}
+
+function bearer(req: IncomingMessage): string | undefined {
+  const a = req.headers.authorization;
+  if (a?.startsWith('Bearer ')) return a.slice(7);
+  const x = req.headers['x-plumbline-token'];
+  return typeof x === 'string' ? x : undefined;
+}
+
+export interface RunningServer {
+  readonly server: Server;
+  readonly hub: Hub;
+  readonly url: string;
+  readonly port: number;
+  close(): Promise<void>;
+}
+
+export async function startServer(station: Station, options: ServerOptions): Promise<RunningServer> {
+  const { host, token } = options;
+  if (!isLoopback(host) && token === undefined) {
+    throw new ServerConfigError(`server.host '${host}' is beyond loopback: set server.token (16+ characters) in the station config, or listen on 127.0.0.1`);
+  }
+  const app = express();
+  app.disable('x-powered-by');
+  let boundPort = options.port;
+  const hub = new Hub(() => station.snapshot());
+  const sub = station.events$.subscribe({ next: (e) => hub.publish(e), error: () => undefined });
+
+  app.use((req, res, next) => {
+    if (!hostAllowed(req, host, boundPort)) {
+      res.status(403).json({ error: `Host '${req.headers.host}' is not this server` });
+      return;
+    }
+    next();
+  });
+  // Control: token and same origin.
+  app.use((req, res, next) => {
+    if (req.method === 'GET' || req.method === 'HEAD') return next();
+    if (!sameOrigin(req)) {
+      res.status(403).json({ error: `control request from a foreign origin '${req.headers.origin}' refused` });
+      return;
+    }
+    if (token !== undefined && !tokenMatches(bearer(req), token)) {
+      res.status(401).json({ error: 'control request without the station token refused (send Authorization: Bearer <token>)' });
+      return;
+    }
+    next();
+  });
+  app.use(express.json({ limit: '64kb', strict: true }));
+
+  const body = <T>(schema: z.ZodType<T>, req: Request): T => {
+    const r = schema.safeParse(req.body ?? {});
+    if (!r.success) throw new StationError(zodMessage(r.error, 'request body'), 400);
+    return r.data;
+  };
+  const sessionDir = (id: string) => {
+    if (!/^[A-Za-z0-9-]+$/.test(id) || !listSessions(station.dataDir).includes(id)) throw new StationError(`no session '${id}'`, 404);
+    return join(station.dataDir, id);
+  };
+
+  app.get('/api/status', (_req, res) => {
+    res.json({
+      running: station.running,
+      session: station.currentSession ?? null,
+      analysis: station.analysisSettings,
+      limits: station.config.limits,
+      instrument: station.config.instrument.kind,
+      scenario: station.scenario?.name ?? null,
+      control: true,
+      recovered: station.recovered.map((r) => ({ dir: r.dir, message: r.message })),
+      hub: hub.stats,
+    });
+  });
+  app.get('/api/sessions', (_req, res) => {
+    res.json({ sessions: listSessions(station.dataDir) });
+  });
+  app.get('/api/sessions/:id', (req, res) => {
+    const dir = sessionDir(req.params.id);
+    const events: unknown[] = [];
+    let readings = 0;
+    const scan = scanJournal(dir, (e) => {
+      if (e.type === 'reading') readings++;
+      else events.push(e);
+    });
+    res.json({ id: req.params.id, readings, events, damagedLines: scan.bad });
+  });
+  app.get('/api/sessions/:id/readings', (req, res) => {
+    const dir = sessionDir(req.params.id);
+    const sweep = req.query.sweep === undefined ? undefined : Number(req.query.sweep);
+    if (sweep !== undefined && !Number.isInteger(sweep)) throw new StationError(`query 'sweep': expected an integer, got '${String(req.query.sweep)}'`, 400);
+    const rows: number[][] = [];
+    scanJournal(dir, (e) => {
+      if (e.type === 'reading' && (sweep === undefined || e.sweep === sweep) && rows.length < 2_000_000) rows.push([e.seq, e.sweep, e.k, e.t, e.v, e.i, e.flags]);
+    });
+    res.json({ fields: ['seq', 'sweep', 'k', 't', 'v', 'i', 'flags'], rows });
+  });
+  app.post('/api/sessions/:id/export', (req, res) => {
+    const r = exportSession(sessionDir(req.params.id));
+    res.json({ files: r.files, readings: r.readings, sweeps: r.sweeps });
+  });
+  app.post('/api/run', async (req, res) => {
+    const b = body(runBody, req);
+    const h = await station.startRun({ plan: b.plan, analysis: b.analysis, label: b.label });
+    h.done.catch(() => undefined);
+    res.status(201).json({ session: h.session, plan: h.plan });
+  });
+  app.post('/api/run/stop', (req, res) => {
+    const b = body(reasonBody, req);
+    station.stop(b.reason ?? 'stop requested from the API');
+    res.json({ ok: true });
+  });
+  app.post('/api/run/abort', (req, res) => {
+    const b = body(reasonBody, req);
+    station.abort(b.reason ?? 'abort requested from the API');
+    res.json({ ok: true });
+  });
+  app.get('/api/analysis', (_req, res) => {
+    res.json(station.analysisSettings);
+  });
+  app.put('/api/analysis', (req, res) => {
+    res.json(station.setAnalysis(req.body, 'api'));
+  });
+  app.post('/api/annotations', (req, res) => {
+    const b = body(annotationBody, req);
+    res.status(201).json(station.annotate(b, 'api'));
+  });
+  app.use('/api', (req, res) => {
+    res.status(404).json({ error: `no API route ${req.method} ${req.originalUrl}` });
+  });
+
+  const webDir = options.webDir ?? WEB_DIR;
+  if (existsSync(webDir)) app.use(express.static(webDir));
+  else {
+    app.get('/', (_req, res) => {
+      res.type('text/plain').send(`plumbline daemon: the page is not built (${webDir} missing); run npm run build. The API is at /api/status.`);
+    });
+  }
+
+  app.use((err: unknown, _req: Request, res: Response, _next: NextFunction) => {
+    const e = err as { status?: number; type?: string; message?: string };
+    if (e.type === 'entity.parse.failed') {
+      res.status(400).json({ error: `request body is not valid JSON: ${e.message}` });
+      return;
+    }
+    if (e.type === 'entity.too.large') {
+      res.status(413).json({ error: 'request body too large (64 kB at most)' });
+      return;
+    }
+    if (err instanceof StationError) {
+      res.status(err.status).json({ error: err.message });
+      return;
+    }
+    if (err instanceof PlanError || err instanceof GuardError) {
+      res.status(400).json({ error: err.message, ...(err instanceof GuardError ? { setting: err.setting } : {}) });
+      return;
+    }
+    res.status(500).json({ error: `internal error: ${e.message ?? String(err)}` });
+  });
+
+  const server = createServer(app);
+  server.on('upgrade', (req, socket, head) => {
+    const refuse = (code: number, text: string) => {
+      socket.write(`HTTP/1.1 ${code} ${text}\r\nConnection: close\r\nContent-Length: 0\r\n\r\n`);
+      socket.destroy();
+    };
+    const url = new URL(req.url ?? '/', 'http://x');
+    if (url.pathname !== '/ws') return refuse(404, 'Not Found');
+    if (!hostAllowed(req, host, boundPort)) return refuse(403, 'Forbidden');
+    if (!sameOrigin(req)) return refuse(403, 'Forbidden');
+    if (token !== undefined && !tokenMatches(url.searchParams.get('token') ?? undefined, token)) return refuse(401, 'Unauthorized');
+    hub.upgrade(req, socket, head);
+  });
+  await new Promise<void>((resolve, reject) => {
+    server.once('error', reject);
+    server.listen(options.port, host, () => {
+      server.off('error', reject);
+      resolve();
+    });
+  });
+  boundPort = (server.address() as AddressInfo).port;
+  const shownHost = host.includes(':') ? `[${host}]` : host;
+  return {
+    server,
+    hub,
+    port: boundPort,
+    url: `http://${shownHost}:${boundPort}/`,
+    close: () =>
+      new Promise<void>((resolve) => {
+        sub.unsubscribe();
+        hub.close();
+        server.closeAllConnections();
+        server.close(() => resolve());
+      }),
+  };
+}

@@ -1,0 +1,153 @@
+/**
+ * The websocket hub: every client gets a snapshot on connect, then batches of events with their
+ * sequence numbers. Events are collected for BATCH_MS and serialised once per batch for all
+ * clients, so acquisition pays O(1) per event however many pages watch.
+ *
+ * A slow or stalled client never slows acquisition: when its socket's bufferedAmount passes
+ * HIGH_WATER the client stops receiving (its events are skipped, not queued); once it drains below
+ * LOW_WATER it gets a `gap` message naming the skipped range and a fresh snapshot. A client that
+ * stays stalled past STALL_MS is terminated. A ping/pong heartbeat drops half-open connections.
+ */
+import type { IncomingMessage } from 'node:http';
+import type { Duplex } from 'node:stream';
+import { WebSocket, WebSocketServer } from 'ws';
+import type { ServerMessage, Snapshot, WireEvent } from '../../protocols/wire.js';
+
+const BATCH_MS = 30;
+const HIGH_WATER = 4 << 20;
+const LOW_WATER = 256 << 10;
+const STALL_MS = 60_000;
+const HEARTBEAT_MS = 15_000;
+
+interface Client {
+  readonly ws: WebSocket;
+  lagging: boolean;
+  gapFrom: number;
+  gapTo: number;
+  laggingSince: number;
+  alive: boolean;
+}
+
+export interface HubStats {
+  clients: number;
+  lagging: number;
+  batches: number;
+  events: number;
+  gaps: number;
+  dropped: number;
+}
+
+export class Hub {
+  readonly wss = new WebSocketServer({ noServer: true, maxPayload: 64 * 1024, perMessageDeflate: false });
+  private readonly clients = new Set<Client>();
+  private pending: WireEvent[] = [];
+  private timer: NodeJS.Timeout | undefined;
+  private readonly heartbeat: NodeJS.Timeout;
+  readonly stats: HubStats = { clients: 0, lagging: 0, batches: 0, events: 0, gaps: 0, dropped: 0 };
+
+  constructor(private readonly snapshot: () => Snapshot, private readonly onMessage?: (msg: unknown, ws: WebSocket) => void) {
+    this.heartbeat = setInterval(() => {
+      for (const c of this.clients) {
+        if (!c.alive) {
+          c.ws.terminate();
+          continue;
+        }
+        c.alive = false;
+        c.ws.ping();
+      }
+    }, HEARTBEAT_MS);
+    this.heartbeat.unref();
+  }
+
+  /** Completes an HTTP upgrade the server has already authorised. */
+  upgrade(req: IncomingMessage, socket: Duplex, head: Buffer): void {
+    this.wss.handleUpgrade(req, socket, head, (ws) => this.add(ws));
+  }
+
+  private add(ws: WebSocket): void {
+    const c: Client = { ws, lagging: false, gapFrom: 0, gapTo: 0, laggingSince: 0, alive: true };
+    this.clients.add(c);
+    this.stats.clients = this.clients.size;
+    ws.on('error', () => ws.terminate());
+    ws.on('pong', () => (c.alive = true));
+    ws.on('close', () => {
+      this.clients.delete(c);
+      this.stats.clients = this.clients.size;
+    });
+    ws.on('message', (data) => {
+      if (!this.onMessage) return;
+      try {
+        this.onMessage(JSON.parse(String(data)), ws);
+      } catch {
+        /* the page only sends JSON; anything else is ignored */
+      }
+    });
+    this.sendSnapshot(c);
+  }
+
+  private sendSnapshot(c: Client): void {
+    const msg: ServerMessage = { kind: 'snapshot', snapshot: this.snapshot() };
+    c.ws.send(JSON.stringify(msg));
+  }
+
+  /** Queues an event for the next batch (O(1)). */
+  publish(e: WireEvent): void {
+    this.pending.push(e);
+    this.timer ??= setTimeout(() => this.flush(), BATCH_MS);
+  }
+
+  flush(): void {
+    this.timer = undefined;
+    if (this.pending.length === 0) return;
+    const events = this.pending;
+    this.pending = [];
+    this.stats.batches++;
+    this.stats.events += events.length;
+    if (this.clients.size === 0) return;
+    const first = events[0].seq;
+    const last = events[events.length - 1].seq;
+    let text: string | undefined;
+    const now = Date.now();
+    let lagging = 0;
+    for (const c of this.clients) {
+      if (c.ws.readyState !== WebSocket.OPEN) continue;
+      if (c.lagging) {
+        if (c.ws.bufferedAmount < LOW_WATER) {
+          c.lagging = false;
+          c.gapTo = first - 1;
+          const gap: ServerMessage = { kind: 'gap', from: c.gapFrom, to: c.gapTo };
+          c.ws.send(JSON.stringify(gap));
+          this.stats.gaps++;
+          this.sendSnapshot(c);
+          continue;
+        }
+        if (now - c.laggingSince > STALL_MS) {
+          c.ws.terminate();
+          continue;
+        }
+        this.stats.dropped += events.length;
+        lagging++;
+        continue;
+      }
+      if (c.ws.bufferedAmount > HIGH_WATER) {
+        c.lagging = true;
+        c.gapFrom = first;
+        c.laggingSince = now;
+        this.stats.dropped += events.length;
+        lagging++;
+        continue;
+      }
+      text ??= JSON.stringify({ kind: 'events', events } satisfies ServerMessage);
+      c.ws.send(text);
+    }
+    this.stats.lagging = lagging;
+    void last;
+  }
+
+  close(): void {
+    clearInterval(this.heartbeat);
+    if (this.timer) clearTimeout(this.timer);
+    for (const c of this.clients) c.ws.terminate();
+    this.wss.close();
+  }
+}

@@ -1,0 +1,159 @@
+/**
+ * The one contract between the daemon, its journal and the page. Every event the live chain emits
+ * has a type from this file, is written to the session journal first and then broadcast over the
+ * websocket. Field units are stated beside each field (SI; eV for energies; t in ms since the
+ * session started).
+ *
+ * Journal lines (journal.jsonl, JSON Lines) are either one of the events below, or — for the
+ * bulk of the data — a compact reading line `{"r":[seq,sweep,k,t,v,i,flags]}` (see READING_FIELDS).
+ */
+
+/** Reading flag bits. */
+export const FLAG = {
+  compliance: 1,
+  overflow: 2,
+} as const;
+
+/** Field order inside a compact reading line. */
+export const READING_FIELDS = ['seq', 'sweep', 'k', 't', 'v', 'i', 'flags'] as const;
+
+export interface ReadingEvent {
+  readonly type: 'reading';
+  readonly seq: number;
+  /** Sweep number, 1-based. */
+  readonly sweep: number;
+  /** Point index within the sweep, 0-based. */
+  readonly k: number;
+  /** ms since the session started. */
+  readonly t: number;
+  /** Measured bias, V. */
+  readonly v: number;
+  /** Measured current, A (current into the device positive, as the SMU reports it). */
+  readonly i: number;
+  /** FLAG bits. */
+  readonly flags: number;
+}
+
+export interface ParameterFigure {
+  readonly value: number;
+  readonly stdErr: number;
+  readonly unit: string;
+}
+
+/** What a fit publishes (a trimmed FitReport from daemon/analysis). */
+export interface FitSummary {
+  readonly model: string;
+  readonly title: string;
+  readonly window: { from: number; to: number; mode: string };
+  readonly line: { slope: number; slopeStdErr: number; intercept: number; interceptStdErr: number; r2: number; residualStdDev: number; n: number };
+  readonly axes: { x: { label: string; unit: string; kind: string }; y: { label: string; unit: string; kind: string } };
+  readonly parameters: Record<string, ParameterFigure>;
+  readonly plausible: boolean;
+  readonly warnings: readonly string[];
+  readonly points: { used: number; excluded: number; reasons: Record<string, number> };
+  readonly regimes: readonly { from: number; to: number; slope: number; intercept: number; n: number }[];
+}
+
+export type RunOutcome =
+  | 'completed'
+  | 'stopped'
+  | 'aborted-user'
+  | 'aborted-drift'
+  | 'aborted-breakdown'
+  | 'instrument-fault'
+  | 'guard-refused'
+  | 'interrupted';
+
+export type CautionKind =
+  | 'output-on'
+  | 'hazard-voltage'
+  | 'compliance'
+  | 'breakdown-suspected'
+  | 'breakdown-confirmed'
+  | 'drift-warning'
+  | 'drift-limit'
+  | 'instrument-fault'
+  | 'passive-source';
+
+interface Stamped {
+  readonly seq: number;
+  readonly t: number;
+}
+
+export type WireEvent =
+  | ReadingEvent
+  | (Stamped & {
+      readonly type: 'session';
+      readonly id: string;
+      /** ISO 8601 time at t = 0. */
+      readonly startedAt: string;
+      readonly source: { kind: string; detail: string; control: boolean };
+      readonly instrument: string;
+      readonly plan: unknown;
+      readonly analysis: unknown;
+      readonly drift: unknown;
+      readonly limits: unknown;
+    })
+  | (Stamped & { readonly type: 'sweep-start'; readonly sweep: number; readonly planned: number; readonly label: string })
+  | (Stamped & { readonly type: 'sweep-end'; readonly sweep: number; readonly points: number; readonly complete: boolean; readonly note?: string })
+  | (Stamped & { readonly type: 'fit'; readonly sweep: number; readonly final: boolean; readonly fit: FitSummary | null; readonly error?: string })
+  | (Stamped & {
+      readonly type: 'drift';
+      readonly sweep: number;
+      readonly parameter: string;
+      readonly value: number | null;
+      readonly method: 'ewma' | 'cusum';
+      readonly phase: 'baseline' | 'monitor';
+      /** EWMA z, or the larger CUSUM sum (in the parameter's units). */
+      readonly statistic: number | null;
+      readonly center: number | null;
+      readonly lower: number | null;
+      readonly upper: number | null;
+      readonly sigma: number | null;
+      readonly state: 'baseline' | 'in-control' | 'warning' | 'out-of-control' | 'no-value';
+    })
+  | (Stamped & { readonly type: 'caution'; readonly kind: CautionKind; readonly message: string; readonly sweep?: number; readonly numbers?: Record<string, number> })
+  | (Stamped & {
+      readonly type: 'decision';
+      readonly action: 'warn' | 'stop-after-sweep' | 'abort';
+      readonly reason: string;
+      readonly sweep?: number;
+      readonly numbers?: Record<string, number>;
+    })
+  | (Stamped & { readonly type: 'annotation'; readonly text: string; readonly tags: readonly string[]; readonly sweep?: number; readonly source: string })
+  | (Stamped & { readonly type: 'settings'; readonly analysis: unknown; readonly source: string })
+  | (Stamped & {
+      readonly type: 'progress';
+      readonly sweep: number;
+      readonly sweeps: number;
+      readonly point: number;
+      readonly points: number;
+      /** Seconds left, estimated from the pace so far; null before there is a pace. */
+      readonly eta: number | null;
+    })
+  | (Stamped & { readonly type: 'output'; readonly on: boolean; readonly confirmed: boolean; readonly reason: string })
+  | (Stamped & { readonly type: 'rejected'; readonly raw: string; readonly reason: string })
+  | (Stamped & { readonly type: 'run-end'; readonly outcome: RunOutcome; readonly reason: string; readonly sweeps: number })
+  | (Stamped & { readonly type: 'recovery'; readonly tornLines: number; readonly closedSweep: number | null; readonly addedRunEnd: boolean; readonly message: string });
+
+export type EventType = WireEvent['type'];
+
+/** An event before the journal gives it a sequence number and time. */
+export type NewEvent = WireEvent extends infer E ? (E extends WireEvent ? Omit<E, 'seq' | 't'> : never) : never;
+
+/** Messages on the websocket, daemon → page. */
+export type ServerMessage =
+  | { readonly kind: 'snapshot'; readonly snapshot: Snapshot }
+  | { readonly kind: 'events'; readonly events: readonly WireEvent[] }
+  /** Events from..to (inclusive) were not delivered to this client; a snapshot follows. */
+  | { readonly kind: 'gap'; readonly from: number; readonly to: number };
+
+export interface Snapshot {
+  readonly station: { readonly control: boolean; readonly hazardVoltage: number; readonly limits: unknown };
+  readonly running: boolean;
+  readonly session: string | null;
+  /** Sequence number of the last event included; the next live event has lastSeq + 1. */
+  readonly lastSeq: number;
+  /** The current session's recent events (readings of the last sweeps, every other event). */
+  readonly events: readonly WireEvent[];
+}
