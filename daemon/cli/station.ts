@@ -154,7 +154,9 @@ export function registerStation(program: Command): void {
       const result = await h.done;
       if (o.json) process.stdout.write(`${JSON.stringify({ session: h.session, dir: h.dir, ...result })}\n`);
       else process.stdout.write(`${progressShown ? '\n' : ''}run ended: ${result.outcome} — ${result.reason} (${result.sweeps} sweep(s) finished)\nexport it: plumbline export ${h.dir}\n`);
-      process.exitCode = EXIT_CODE[result.outcome];
+      // Exit explicitly: the journal is closed and the output is off; a serial port's native poller
+      // can otherwise keep the event loop alive after close (seen with socat ptys).
+      process.exit(EXIT_CODE[result.outcome]);
     });
 
   program

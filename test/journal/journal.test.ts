@@ -1,0 +1,111 @@
+/**
+ * The journal on a real file system: round trip at full precision, a torn last line, an unfinished
+ * sweep, damaged lines in the middle, annotations after the run, and the export files read back
+ * with a plain CSV split (what a spreadsheet sees).
+ */
+import { appendFileSync, mkdtempSync, readFileSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { describe, expect, it } from 'vitest';
+import { exportSession, POINTS_HEADER } from '../../daemon/journal/export.js';
+import { JOURNAL_FILE, JournalWriter } from '../../daemon/journal/journal.js';
+import { recoverSession, scanJournal } from '../../daemon/journal/reader.js';
+import { annotateFolder } from '../../daemon/run/station.js';
+import { FLAG, type WireEvent } from '../../protocols/wire.js';
+
+function tmp(): string {
+  return mkdtempSync(join(tmpdir(), 'plumbline-journal-'));
+}
+
+function writeSession(data: string, sweeps: number, points: number, close = true) {
+  const { writer, id } = JournalWriter.create(data, 'unit');
+  writer.event({ type: 'session', id, startedAt: new Date().toISOString(), source: { kind: 'test', detail: '', control: false }, instrument: 'x', plan: {}, analysis: {}, drift: {}, limits: {} });
+  const sent: { v: number; i: number }[] = [];
+  for (let s = 1; s <= sweeps; s++) {
+    writer.event({ type: 'sweep-start', sweep: s, planned: points, label: '' });
+    for (let k = 0; k < points; k++) {
+      // Values with all 17 significant digits, to see that none is lost.
+      const v = 0.1 * k + 1 / 3;
+      const i = Math.PI * 1e-12 * Math.exp(k / 7) * (k % 5 === 0 ? -1 : 1);
+      sent.push({ v, i });
+      writer.reading(s, k, v, i, k === points - 1 ? FLAG.compliance : 0);
+    }
+    if (s < sweeps || close) writer.event({ type: 'sweep-end', sweep: s, points, complete: true });
+  }
+  if (close) {
+    writer.event({ type: 'run-end', outcome: 'completed', reason: 'done', sweeps });
+    writer.close();
+  } else writer.flush();
+  return { dir: join(data, id), sent, writer };
+}
+
+describe('journal', () => {
+  it('keeps every reading at full precision, in order, with consecutive sequence numbers', () => {
+    const { dir, sent } = writeSession(tmp(), 3, 50);
+    const got: WireEvent[] = [];
+    const scan = scanJournal(dir, (e) => got.push(e));
+    const readings = got.filter((e) => e.type === 'reading');
+    expect(readings.map((r) => ({ v: r.v, i: r.i }))).toEqual(sent);
+    expect(got.map((e) => e.seq)).toEqual(got.map((_, k) => k + 1));
+    expect(scan.bad).toEqual([]);
+    expect(scan.tornTail).toBe(false);
+  });
+
+  it('recovery after a crash: torn last line reported and skipped, open sweep marked incomplete, run interrupted', () => {
+    const { dir, writer } = writeSession(tmp(), 2, 20, false);
+    void writer; // the "crashed" writer is never closed
+    appendFileSync(join(dir, JOURNAL_FILE), '{"r":[999,2,20,12.5,1.9');
+    const r = recoverSession(join(dir));
+    expect(r.recovered).toBe(true);
+    expect(r.tornLines).toBe(1);
+    expect(r.closedSweep).toBe(2);
+    expect(r.message).toMatch(/torn last line/);
+    const after: WireEvent[] = [];
+    const scan = scanJournal(dir, (e) => after.push(e));
+    expect(scan.bad).toHaveLength(1);
+    expect(scan.bad[0].problem).toMatch(/torn/);
+    const tail = after.slice(-3).map((e) => e.type);
+    expect(tail).toEqual(['recovery', 'sweep-end', 'run-end']);
+    const end = after.at(-1);
+    expect(end?.type === 'run-end' && end.outcome).toBe('interrupted');
+    const sweepEnd = after.at(-2);
+    expect(sweepEnd?.type === 'sweep-end' && sweepEnd.complete).toBe(false);
+    expect(sweepEnd?.type === 'sweep-end' && sweepEnd.points).toBe(20);
+    // Recovering again changes nothing.
+    expect(recoverSession(dir).recovered).toBe(false);
+  });
+
+  it('a damaged line in the middle is reported with its number and the rest is read', () => {
+    const { dir } = writeSession(tmp(), 1, 10);
+    const lines = readFileSync(join(dir, JOURNAL_FILE), 'utf8').split('\n');
+    lines.splice(5, 0, '{"r":[1,2,3]}', 'garbage');
+    writeFileSync(join(dir, JOURNAL_FILE), lines.join('\n'));
+    let n = 0;
+    const scan = scanJournal(dir, (e) => e.type === 'reading' && n++);
+    expect(n).toBe(10);
+    expect(scan.bad.map((b) => b.line)).toEqual([6, 7]);
+    expect(scan.bad[0].problem).toMatch(/3 fields/);
+  });
+
+  it('export writes points.csv, sweeps.csv and session.json that a plain CSV reader understands', () => {
+    const { dir, sent } = writeSession(tmp(), 2, 12);
+    annotateFolder(dir, { type: 'annotation', text: 'probe re-landed, "pad 3"', tags: ['setup'], sweep: 2, source: 'test' });
+    const out = join(tmp(), 'x');
+    const r = exportSession(dir, out);
+    expect(r.readings).toBe(24);
+    const pts = readFileSync(join(out, 'points.csv'), 'utf8').trim().split('\n');
+    expect(pts[0].split(',')).toEqual(POINTS_HEADER);
+    expect(pts).toHaveLength(25);
+    const row = pts[5].split(',');
+    expect(Number(row[5])).toBe(sent[4].v);
+    expect(Number(row[6])).toBe(sent[4].i);
+    expect(pts[12].split(',')[7]).toBe('1'); // last point of sweep 1 at compliance
+    const sw = readFileSync(join(out, 'sweeps.csv'), 'utf8').trim().split('\n');
+    expect(sw).toHaveLength(3);
+    expect(sw[2]).toContain('"probe re-landed, ""pad 3"""');
+    const meta = JSON.parse(readFileSync(join(out, 'session.json'), 'utf8'));
+    expect(meta.readings).toBe(24);
+    expect(meta.annotations[0].tags).toEqual(['setup']);
+    expect(meta.timeline.at(-1).type).toBe('run-end');
+  });
+});
