@@ -10,7 +10,6 @@ import { AnalysisError } from './analysis/errors.js';
 import { MODEL_IDS } from './analysis/mechanisms/index.js';
 import { rankMechanisms } from './analysis/ranking.js';
 import { CsvError } from '../protocols/csv-table.js';
-import { runDemo } from './demo.js';
 import { formatFit, formatRanking } from './cli/format.js';
 import {
   type AnalysisOptions,
@@ -25,14 +24,8 @@ import {
 import { QuantityError } from './quantity.js';
 import { registerSim } from './cli/sim.js';
 import { registerStation } from './cli/station.js';
-import { ConfigError } from './run/config.js';
-import { GuardError } from './run/guard.js';
-import { PlanError } from './run/plan.js';
-import { StationError } from './run/station.js';
-import { JournalError } from './journal/journal.js';
-import { ServerConfigError } from './server/app.js';
-import { ScenarioError } from './simulator/scenarios.js';
-import { UsageError } from './cli/usage.js';
+
+import { isInputError, UsageError } from './cli/usage.js';
 
 const program = new Command();
 program
@@ -99,7 +92,7 @@ program
   .command('demo')
   .description('one sweep of an invented device on the built-in simulated instrument, ranked and fitted')
   .option('--scenario <name>', 'device scenario (plumbline sim --list)', 'oxide-fn')
-  .action((o: { scenario: string }) => runDemo(o.scenario));
+  .action(async (o: { scenario: string }) => (await import('./demo.js')).runDemo(o.scenario));
 
 // A reader that stops early (`| head`) is not an error.
 process.stdout.on('error', (e: NodeJS.ErrnoException) => {
@@ -120,9 +113,8 @@ export async function main(argv: string[]): Promise<number> {
     }
     const cmd = argv[2] ?? '';
     if (
-      e instanceof CsvError || e instanceof QuantityError || e instanceof ScenarioError || e instanceof UsageError ||
-      e instanceof ConfigError || e instanceof PlanError || e instanceof GuardError || e instanceof JournalError ||
-      e instanceof StationError || e instanceof ServerConfigError
+      e instanceof CsvError || e instanceof QuantityError || e instanceof UsageError ||
+      isInputError(e)
     ) {
       process.stderr.write(`plumbline ${cmd}: ${e.message}\n`);
       return 2;

@@ -1,9 +1,6 @@
 /** `plumbline sim`: list scenarios, or serve the simulated instrument over TCP or a pty pair. */
 import { UsageError } from './usage.js';
 import type { Command } from 'commander';
-import { SimulatedSmu } from '../simulator/instrument.js';
-import { findScenario, listScenarios } from '../simulator/scenarios.js';
-import { servePty, serveTcp } from '../simulator/serve.js';
 
 interface SimOptions {
   list?: boolean;
@@ -25,6 +22,9 @@ export function registerSim(program: Command): void {
     .option('--scenario <name>', 'device scenario (see --list)', 'oxide-fn')
     .option('--seed <n>', 'noise seed (same seed, same readings)', '1')
     .action(async (o: SimOptions) => {
+      const { SimulatedSmu } = await import('../simulator/instrument.js');
+      const { findScenario, listScenarios } = await import('../simulator/scenarios.js');
+      const { servePty, serveTcp } = await import('../simulator/serve.js');
       if (o.list) {
         for (const s of listScenarios()) process.stdout.write(`${s.name.padEnd(20)} ${s.description}\n`);
         return;

@@ -7,14 +7,22 @@ import { readFileSync } from 'node:fs';
 import { resolve } from 'node:path';
 import type { Command } from 'commander';
 import type { WireEvent } from '../../protocols/wire.js';
-import { exportSession } from '../journal/export.js';
-import { liveLockHolder } from '../journal/journal.js';
-import { recoverAll, recoverSession } from '../journal/reader.js';
-import { DEFAULT_CONFIG_FILE, dataDir, loadConfig, type StationConfig } from '../run/config.js';
-import { EXIT_CODE } from '../run/runner.js';
-import { annotateFolder, Station } from '../run/station.js';
-import { startServer } from '../server/app.js';
+import type { StationConfig } from '../run/config.js';
+import type { Station } from '../run/station.js';
 import { UsageError } from './usage.js';
+
+// The daemon's modules (express, ws, serialport, rxjs) load only when a station command runs, so
+// `plumbline fit` and friends keep their short start-up.
+const daemonModules = async () => ({
+  ...(await import('../run/config.js')),
+  ...(await import('../run/station.js')),
+  ...(await import('../run/runner.js')),
+  ...(await import('../server/app.js')),
+  ...(await import('../journal/export.js')),
+  ...(await import('../journal/journal.js')),
+  ...(await import('../journal/reader.js')),
+  ...(await import('../run/plan.js')),
+});
 
 interface StationOptions {
   config?: string;
@@ -23,7 +31,8 @@ interface StationOptions {
   fast?: boolean;
 }
 
-function stationConfig(o: StationOptions): StationConfig {
+async function stationConfig(o: StationOptions): Promise<StationConfig> {
+  const { loadConfig, DEFAULT_CONFIG_FILE } = await daemonModules();
   const config = loadConfig(o.config ?? DEFAULT_CONFIG_FILE);
   if (o.scenario !== undefined) {
     const prev = config.instrument.kind === 'simulator' ? config.instrument : undefined;
@@ -112,7 +121,8 @@ export function registerStation(program: Command): void {
     .option('--json', 'print one JSON object at the end instead of the progress text')
     .addHelpText('after', '\nExit codes: 0 completed or stopped, 2 bad input, 3 aborted by the user, 4 aborted by drift, 5 aborted by breakdown, 6 instrument fault, 7 refused by the safety guard.')
     .action(async (o: StationOptions & { plan?: string; sweeps?: string; model?: string; json?: boolean }) => {
-      const config = stationConfig(o);
+      const config = await stationConfig(o);
+      const { dataDir, Station, EXIT_CODE, describePlan, startServer } = await daemonModules();
       const data = dataDir(config, o.data);
       const station = new Station(config, data);
       for (const r of station.recovered) process.stderr.write(`journal ${r.dir}: ${r.message}\n`);
@@ -148,7 +158,7 @@ export function registerStation(program: Command): void {
       });
       const h = await station.startRun({ plan, analysis });
       if (!o.json) {
-        process.stdout.write(`session ${h.session}\n  folder ${h.dir}\n  plan: ${(await import('../run/plan.js')).describePlan(h.plan)}\n`);
+        process.stdout.write(`session ${h.session}\n  folder ${h.dir}\n  plan: ${describePlan(h.plan)}\n`);
         process.stdout.write('CAUTION: on a real station the output can reach hazardous voltages. Follow your lab\'s safety rules; these software limits do not replace the instrument\'s interlock.\n');
       }
       const result = await h.done;
@@ -170,7 +180,8 @@ export function registerStation(program: Command): void {
     .option('--fast', 'simulated instrument: answer at once instead of waiting the integration time')
     .option('--no-autostart', 'do not start the default plan at once even if the config says so')
     .action(async (o: StationOptions & { port?: string; host?: string; autostart: boolean }) => {
-      const config = stationConfig(o);
+      const config = await stationConfig(o);
+      const { dataDir, Station, EXIT_CODE, describePlan, startServer } = await daemonModules();
       const data = dataDir(config, o.data);
       const port = o.port !== undefined ? Number(o.port) : config.server.port;
       if (!Number.isInteger(port) || port < 0 || port > 65535) throw new UsageError(`--port '${o.port}': expected a port number`);
@@ -202,7 +213,8 @@ export function registerStation(program: Command): void {
     .argument('<session-dir>', 'a session folder (under the data folder)')
     .option('--out <dir>', 'output folder (default SESSION_DIR/export)')
     .option('--json', 'print one JSON object')
-    .action((dir: string, o: { out?: string; json?: boolean }) => {
+    .action(async (dir: string, o: { out?: string; json?: boolean }) => {
+      const { exportSession } = await daemonModules();
       const r = exportSession(resolve(dir), o.out !== undefined ? resolve(o.out) : undefined);
       if (o.json) process.stdout.write(`${JSON.stringify(r)}\n`);
       else {
@@ -218,7 +230,8 @@ export function registerStation(program: Command): void {
     .requiredOption('--text <text>', 'the note')
     .option('--tag <tag...>', 'tags (repeatable)')
     .option('--sweep <n>', 'the sweep the note is about (default: the whole session)')
-    .action((dir: string, o: { text: string; tag?: string[]; sweep?: string }) => {
+    .action(async (dir: string, o: { text: string; tag?: string[]; sweep?: string }) => {
+      const { liveLockHolder, annotateFolder } = await daemonModules();
       const holder = liveLockHolder(resolve(dir));
       if (holder !== undefined) throw new UsageError(`${dir} is being written by the running daemon (pid ${holder}); annotate through its API: POST /api/annotations`);
       let sweep: number | undefined;
@@ -236,7 +249,8 @@ export function registerStation(program: Command): void {
     .description('close sessions a crashed daemon left open (what run and serve do at start)')
     .argument('<dir>', 'a data folder, or one session folder')
     .option('--json', 'print one JSON object')
-    .action((dir: string, o: { json?: boolean }) => {
+    .action(async (dir: string, o: { json?: boolean }) => {
+      const { recoverSession, recoverAll } = await daemonModules();
       const abs = resolve(dir);
       let reports;
       try {

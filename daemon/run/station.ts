@@ -26,6 +26,7 @@ import { RunController, type RunResult } from './runner.js';
 export class StationError extends Error {
   constructor(message: string, readonly status = 409) {
     super(message);
+    this.name = 'StationError';
   }
 }
 

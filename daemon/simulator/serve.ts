@@ -19,6 +19,9 @@ export function attachInstrument(smu: SimulatedSmu, stream: Duplex): void {
   stream.pipe(framer);
   framer.on('data', (line: string) => {
     chain = chain.then(async () => {
+      // Yield to the event loop once per command, as a real link does: a controller on an in-process
+      // pair would otherwise run on microtasks alone and starve its own timers and sockets.
+      await new Promise((r) => setImmediate(r));
       const reply = await smu.handleLine(line);
       if (reply === undefined || stream.destroyed) return;
       if (smu.slowReplyMs > 0) await new Promise((r) => setTimeout(r, smu.slowReplyMs));
