@@ -43,6 +43,8 @@ describe('simulated SMU, in-process', () => {
   it('accepts long and short forms, optional nodes and compound messages (SCPI 1999 vol. 1)', async () => {
     const { session, smu } = inProcess();
     await session.write('SOURce:VOLTage:LEVel:IMMediate:AMPLitude 2.5;:SENS:CURR:PROT 1e-4');
+    // *OPC? waits until the commands before it have been executed (IEEE 488.2).
+    expect(await session.query('*OPC?')).toBe('1');
     expect(smu.level).toBe(2.5);
     expect(smu.compliance).toBe(1e-4);
     expect(await session.query(':sour:volt?;:outp?')).toBe('2.500000000E+0;0');
