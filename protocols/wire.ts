@@ -141,10 +141,30 @@ export type EventType = WireEvent['type'];
 /** An event before the journal gives it a sequence number and time. */
 export type NewEvent = WireEvent extends infer E ? (E extends WireEvent ? Omit<E, 'seq' | 't'> : never) : never;
 
+/**
+ * A reading packed as an array in READING_FIELDS order: [seq, sweep, k, t, v, i, flags]. The
+ * websocket and the snapshot carry readings this way (a third of the bytes of the object form).
+ */
+export type PackedReading = readonly [number, number, number, number, number, number, number];
+
+export function packReading(r: ReadingEvent): PackedReading {
+  return [r.seq, r.sweep, r.k, r.t, r.v, r.i, r.flags];
+}
+
+export function unpackReading(p: PackedReading): ReadingEvent {
+  return { type: 'reading', seq: p[0], sweep: p[1], k: p[2], t: p[3], v: p[4], i: p[5], flags: p[6] };
+}
+
 /** Messages on the websocket, daemon → page. */
 export type ServerMessage =
   | { readonly kind: 'snapshot'; readonly snapshot: Snapshot }
-  | { readonly kind: 'events'; readonly events: readonly WireEvent[] }
+  /**
+   * Everything since the previous batch: the events other than readings, and the readings packed.
+   * When a batch holds more readings than a page can use, they are thinned evenly (every sweep's
+   * first and last kept) and `thinned` says how many there were; the journal always has them all
+   * (GET /api/sessions/:id/readings).
+   */
+  | { readonly kind: 'events'; readonly events: readonly WireEvent[]; readonly readings: readonly PackedReading[]; readonly thinned?: { readonly readings: number; readonly sent: number } }
   /** Events from..to (inclusive) were not delivered to this client; a snapshot follows. */
   | { readonly kind: 'gap'; readonly from: number; readonly to: number };
 
@@ -152,8 +172,13 @@ export interface Snapshot {
   readonly station: { readonly control: boolean; readonly hazardVoltage: number; readonly limits: unknown };
   readonly running: boolean;
   readonly session: string | null;
-  /** Sequence number of the last event included; the next live event has lastSeq + 1. */
+  /**
+   * Sequence number of the last event included; live events with seq ≤ lastSeq are already in the
+   * snapshot and are skipped by the page.
+   */
   readonly lastSeq: number;
-  /** The current session's recent events (readings of the last sweeps, every other event). */
+  /** The current session's events other than readings (all of them, up to a cap). */
   readonly events: readonly WireEvent[];
+  /** The current session's most recent readings (up to a cap), packed, in sequence order. */
+  readonly readings: readonly PackedReading[];
 }

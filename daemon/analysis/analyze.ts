@@ -34,6 +34,8 @@ export interface FitRequest {
   /** Readings with |I| ≥ 0.99·limit are treated as at compliance (common practice). */
   readonly complianceLimit?: number;
   readonly custom?: CustomSpec;
+  /** Search the whole curve for regimes (default true; the live chain's interim fits skip it). */
+  readonly regimes?: boolean;
 }
 
 export interface Regime {
@@ -364,7 +366,7 @@ export function analyze(data: IVData, request: FitRequest): FitReport {
   if (used.x.length < 3) {
     throw new AnalysisError('TOO_FEW_POINTS', `the fit window holds ${used.x.length} usable points; a line needs at least 3`, 'window');
   }
-  return analyzePrepared(mech, inputs, all, used, { reasons, mode });
+  return analyzePrepared(mech, inputs, all, used, { reasons, mode, regimes: request.regimes });
 }
 
 /**

@@ -44,7 +44,7 @@ export class BreakdownWatch {
    * One point: |I| in A, whether the instrument reported compliance, and the live fit's predicted
    * |I| at this bias (undefined when there is no fit or it would be an extrapolation).
    */
-  add(v: number, i: number, compliance: boolean, predicted?: number): BreakdownVerdict | undefined {
+  add(v: number, i: number, compliance: boolean, predicted?: number | (() => number | undefined)): BreakdownVerdict | undefined {
     const a = Math.abs(i);
     const s = this.settings;
     let verdict: BreakdownVerdict | undefined;
@@ -66,7 +66,8 @@ export class BreakdownWatch {
       for (let k = Math.max(0, this.recent.length - s.withinSteps); k < this.recent.length; k++) minPrev = Math.min(minPrev, this.recent[k]);
       const jump = minPrev > 0 && Number.isFinite(minPrev) ? Math.log10(a / Math.max(minPrev, s.floor / 10)) : 0;
       if (jump >= s.jumpDecades) {
-        const vsFit = predicted !== undefined && predicted > 0 ? Math.log10(a / predicted) : undefined;
+        const pred = typeof predicted === 'function' ? predicted() : predicted;
+        const vsFit = pred !== undefined && pred > 0 ? Math.log10(a / pred) : undefined;
         const confirmed = compliance || (vsFit !== undefined && vsFit >= s.jumpDecades);
         const numbers: Record<string, number> = { bias: v, current: a, jumpDecades: jump, steps: s.withinSteps };
         if (vsFit !== undefined) numbers.decadesAboveFit = vsFit;

@@ -69,6 +69,20 @@ export class PrefixLines {
     }
   }
 
+  /** Residual sum of squares of the fit of points start..end inclusive, without allocating. */
+  sse(start: number, end: number): number {
+    const a = start;
+    const b = end + 1;
+    const n = b - a;
+    const su = this.sx[b] - this.sx[a];
+    const sv = this.sy[b] - this.sy[a];
+    const cuu = Math.max(0, this.sxx[b] - this.sxx[a] - (su * su) / n);
+    const cuv = this.sxy[b] - this.sxy[a] - (su * sv) / n;
+    const cvv = Math.max(0, this.syy[b] - this.syy[a] - (sv * sv) / n);
+    const sseUV = cuu > 0 ? Math.max(0, cvv - (cuv * cuv) / cuu) : cvv;
+    return sseUV * this.ky * this.ky;
+  }
+
   /** Fit of points start..end inclusive (end − start ≥ 1). */
   fit(start: number, end: number): RunFit {
     const a = start;

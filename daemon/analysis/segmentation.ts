@@ -75,8 +75,11 @@ export function segmentLine(x: Numbers, y: Numbers, options: SegmentOptions = {}
     best.push(new Float64Array(m).fill(INF));
     from.push(new Int32Array(m).fill(-1));
   }
-  const cost = (a: number, b: number) => (b - a >= minPoints ? lines.fit(a, b - 1).sse * inv : INF);
-  for (let j = 1; j < m; j++) best[0][j] = cost(0, cand[j]);
+  const cost = (a: number, b: number) => (b - a >= minPoints ? lines.sse(a, b - 1) * inv : INF);
+  // The cost of a run between two candidates is the same at every segment count: compute it once.
+  const runCost = new Float64Array(m * m);
+  for (let i = 0; i < m; i++) for (let j = i + 1; j < m; j++) runCost[i * m + j] = cost(cand[i], cand[j]);
+  for (let j = 1; j < m; j++) best[0][j] = runCost[j];
   for (let k = 1; k < maxSeg; k++) {
     const prev = best[k - 1];
     for (let j = 1; j < m; j++) {
@@ -84,7 +87,7 @@ export function segmentLine(x: Numbers, y: Numbers, options: SegmentOptions = {}
       let a = -1;
       for (let i = 1; i < j; i++) {
         if (prev[i] === INF) continue;
-        const c = prev[i] + cost(cand[i], cand[j]);
+        const c = prev[i] + runCost[i * m + j];
         if (c < b) {
           b = c;
           a = i;

@@ -152,6 +152,7 @@ export function exportSession(sessionDir: string, outDir = join(sessionDir, 'exp
   meta.timeline = timeline;
   meta.damagedLines = scan.bad;
   meta.tornTail = scan.tornTail;
+  meta.tornReadingBytes = scan.tornReadingBytes;
   writeFileSync(join(outDir, 'session.json'), `${JSON.stringify(meta, null, 2)}\n`);
   return { outDir, files: ['points.csv', 'sweeps.csv', 'session.json'].map((f) => join(outDir, f)), readings, sweeps: rows.length, badLines: scan.bad };
 }

@@ -1,19 +1,28 @@
 /**
- * The session journal: one folder per session holding `journal.jsonl`, append-only JSON Lines.
- * Each line is an event from protocols/wire.ts or a compact reading line
- * `{"r":[seq,sweep,k,t,v,i,flags]}`. Numbers are written with JavaScript's shortest round-trip
- * form, so no digit is lost.
+ * The session journal: one folder per session, two append-only files.
+ *  - `journal.jsonl`: JSON Lines, one event from protocols/wire.ts per line (session, sweep
+ *    boundaries, fits, drift, cautions, decisions, annotations, settings, output, run end).
+ *  - `readings.f64`: the readings, one 56-byte record each: seven little-endian IEEE-754 doubles
+ *    seq, sweep, k, t (ms since session start), v (V), i (A), flags. Binary keeps every bit and costs
+ *    no number formatting, so the chain keeps up with fast sources; `plumbline export` turns it into
+ *    points.csv. Events and readings share one sequence; readers merge the two files by seq.
  *
- * Crash safety: lines are buffered and written with one write(2) every FLUSH_MS (100 ms) and
- * whenever the buffer passes 1 MiB; the file is fdatasync'ed at most every SYNC_MS (250 ms) after a
- * write. A killed process therefore loses at most the last ~100 ms of lines (the kernel keeps what
- * was written), a power cut at most ~350 ms. `session.lock` holds the writer's pid while it runs.
+ * Crash safety: both files are buffered and written (readings first) with one write(2) each every
+ * FLUSH_MS (100 ms) and whenever a buffer fills; fdatasync follows at most every SYNC_MS (250 ms).
+ * A killed process loses at most the last ~100 ms (the kernel keeps what was written), a power cut
+ * at most ~350 ms. `session.lock` holds the writer's pid while it runs.
  */
 import { closeSync, existsSync, fdatasync, mkdirSync, openSync, readFileSync, rmSync, writeFileSync, writeSync } from 'node:fs';
+import { endianness } from 'node:os';
 import { join } from 'node:path';
 import type { NewEvent, ReadingEvent, WireEvent } from '../../protocols/wire.js';
 
 export const JOURNAL_FILE = 'journal.jsonl';
+export const READINGS_FILE = 'readings.f64';
+/** Doubles per reading record, and bytes. */
+export const RECORD_FIELDS = 7;
+export const RECORD_BYTES = RECORD_FIELDS * 8;
+const RECORDS_PER_BUFFER = 16384;
 export const LOCK_FILE = 'session.lock';
 const FLUSH_MS = 100;
 const SYNC_MS = 250;
@@ -23,9 +32,8 @@ export class JournalError extends Error {
   readonly code = 'JOURNAL';
 }
 
-function num(x: number): string {
-  return Number.isFinite(x) ? String(x) : 'null';
-}
+// Records are written from a Float64Array, i.e. in the machine's byte order; the format is little-endian.
+if (endianness() !== 'LE') throw new Error('plumbline journal: big-endian machines are not supported (readings.f64 is little-endian)');
 
 /** A session id from the time and a label: 20261202-031500-oxide-fn (a suffix keeps it unique). */
 export function newSessionId(dataDir: string, label: string, now = new Date()): string {
@@ -39,10 +47,14 @@ export function newSessionId(dataDir: string, label: string, now = new Date()): 
 
 export class JournalWriter {
   private readonly fd: number;
+  private readonly rfd: number;
+  private readonly rec = new Float64Array(RECORDS_PER_BUFFER * RECORD_FIELDS);
+  private recPos = 0;
   private buf: string[] = [];
   private bufBytes = 0;
   private timer: NodeJS.Timeout | undefined;
   private syncing = false;
+  private syncScheduled = false;
   private lastSync = 0;
   private dirty = false;
   private lastFlush = performance.now();
@@ -54,6 +66,7 @@ export class JournalWriter {
 
   private constructor(readonly dir: string, startSeq: number, t0: number, private readonly lock: boolean) {
     this.fd = openSync(join(dir, JOURNAL_FILE), 'a');
+    this.rfd = openSync(join(dir, READINGS_FILE), 'a');
     this.seq = startSeq;
     this.t0 = t0;
     if (lock) writeFileSync(join(dir, LOCK_FILE), `${process.pid}\n`);
@@ -92,11 +105,24 @@ export class JournalWriter {
     return full;
   }
 
-  /** Journals one reading in the compact form. */
+  /** Journals one reading (binary record). */
   reading(sweep: number, k: number, v: number, i: number, flags: number): ReadingEvent {
+    if (this.closed) throw new JournalError(`${this.dir}: journal already closed`);
     const seq = ++this.seq;
-    const t = this.now();
-    this.push(`{"r":[${seq},${sweep},${k},${t},${num(v)},${num(i)},${flags}]}\n`);
+    const now = performance.now();
+    const t = Math.round((now - this.t0) * 1000) / 1000;
+    const r = this.rec;
+    let p = this.recPos;
+    r[p++] = seq;
+    r[p++] = sweep;
+    r[p++] = k;
+    r[p++] = t;
+    r[p++] = v;
+    r[p++] = i;
+    r[p++] = flags;
+    this.recPos = p;
+    if (p === r.length || now - this.lastFlush >= FLUSH_MS) this.flush();
+    else if (!this.timer) this.timer = setTimeout(() => this.flush(), FLUSH_MS);
     return { type: 'reading', seq, sweep, k, t, v, i, flags };
   }
 
@@ -117,7 +143,19 @@ export class JournalWriter {
       this.timer = undefined;
     }
     this.lastFlush = performance.now();
-    if (this.buf.length === 0 || this.closed) return;
+    if (this.closed) return;
+    if (this.recPos > 0) {
+      const bytes = new Uint8Array(this.rec.buffer, 0, this.recPos * 8);
+      let off = 0;
+      while (off < bytes.length) off += writeSync(this.rfd, bytes, off);
+      this.written += bytes.length;
+      this.recPos = 0;
+      this.dirty = true;
+    }
+    if (this.buf.length === 0) {
+      this.maybeSync();
+      return;
+    }
     const data = this.buf.join('');
     this.buf = [];
     this.bufBytes = 0;
@@ -130,18 +168,24 @@ export class JournalWriter {
   }
 
   private maybeSync(): void {
-    if (this.syncing || !this.dirty || this.closed) return;
+    if (this.syncing || this.syncScheduled || !this.dirty || this.closed) return;
     const wait = SYNC_MS - (performance.now() - this.lastSync);
     if (wait > 0) {
-      setTimeout(() => this.maybeSync(), wait).unref();
+      this.syncScheduled = true;
+      setTimeout(() => {
+        this.syncScheduled = false;
+        this.maybeSync();
+      }, wait).unref();
       return;
     }
     this.syncing = true;
     this.dirty = false;
     this.lastSync = performance.now();
-    fdatasync(this.fd, () => {
-      this.syncing = false;
-      if (this.dirty) this.maybeSync();
+    fdatasync(this.rfd, () => {
+      fdatasync(this.fd, () => {
+        this.syncing = false;
+        if (this.dirty) this.maybeSync();
+      });
     });
   }
 
@@ -151,6 +195,7 @@ export class JournalWriter {
     this.flush();
     this.closed = true;
     try {
+      closeSync(this.rfd);
       closeSync(this.fd);
     } catch {
       /* a pending fdatasync may hold it; the data is written */

@@ -3,10 +3,10 @@
  * that is not valid JSON, or not a known shape, is reported with its line number and skipped.
  * Recovery after a crash closes what the dead process left open.
  */
-import { closeSync, existsSync, openSync, readdirSync, readSync, rmSync, statSync, writeSync } from 'node:fs';
+import { closeSync, existsSync, ftruncateSync, openSync, readdirSync, readSync, rmSync, statSync, writeSync } from 'node:fs';
 import { join } from 'node:path';
 import type { ReadingEvent, WireEvent } from '../../protocols/wire.js';
-import { JOURNAL_FILE, JournalError, JournalWriter, LOCK_FILE, liveLockHolder } from './journal.js';
+import { JOURNAL_FILE, JournalError, JournalWriter, LOCK_FILE, liveLockHolder, READINGS_FILE, RECORD_BYTES, RECORD_FIELDS } from './journal.js';
 
 export interface BadLine {
   readonly line: number;
@@ -17,8 +17,11 @@ export interface BadLine {
 export interface ScanResult {
   readonly lines: number;
   readonly bad: BadLine[];
-  /** The file does not end with a newline (the last line was torn by a crash). */
+  /** journal.jsonl does not end with a newline (the last line was torn by a crash). */
   readonly tornTail: boolean;
+  /** Bytes of an incomplete last record in readings.f64 (torn by a crash), skipped. */
+  readonly tornReadingBytes: number;
+  readonly readings: number;
   readonly lastSeq: number;
   readonly lastT: number;
 }
@@ -31,22 +34,56 @@ function parseLine(text: string): WireEvent | string {
     return 'not valid JSON (torn or damaged line)';
   }
   if (typeof o !== 'object' || o === null) return 'not a JSON object';
-  const r = (o as { r?: unknown }).r;
-  if (Array.isArray(r)) {
-    if (r.length !== 7) return `reading line with ${r.length} fields, expected 7`;
-    const [seq, sweep, k, t, v, i, flags] = r as number[];
-    if (typeof seq !== 'number' || typeof sweep !== 'number') return 'reading line without seq and sweep numbers';
-    return { type: 'reading', seq, sweep, k, t, v: v ?? Number.NaN, i: i ?? Number.NaN, flags } satisfies ReadingEvent;
-  }
   const type = (o as { type?: unknown }).type;
   if (typeof type !== 'string') return 'event without a type';
   return o as WireEvent;
 }
 
-/** Calls `onEvent` for every good line, in file order. */
+/** Iterates readings.f64 in 64 KiB chunks (whole records), calling `on` with each reading. */
+function scanReadings(dir: string, on: (r: ReadingEvent) => void): { count: number; tornBytes: number } {
+  const file = join(dir, READINGS_FILE);
+  if (!existsSync(file)) return { count: 0, tornBytes: 0 };
+  const size = statSync(file).size;
+  const whole = size - (size % RECORD_BYTES);
+  const fd = openSync(file, 'r');
+  const per = 1170; // records per chunk (~64 KiB)
+  const buf = Buffer.alloc(per * RECORD_BYTES);
+  const f = new Float64Array(buf.buffer, buf.byteOffset, per * RECORD_FIELDS);
+  let pos = 0;
+  let count = 0;
+  try {
+    while (pos < whole) {
+      const want = Math.min(buf.length, whole - pos);
+      let got = 0;
+      while (got < want) {
+        const n = readSync(fd, buf, got, want - got, pos + got);
+        if (n <= 0) break;
+        got += n;
+      }
+      const records = Math.floor(got / RECORD_BYTES);
+      for (let r = 0; r < records; r++) {
+        const b = r * RECORD_FIELDS;
+        on({ type: 'reading', seq: f[b], sweep: f[b + 1], k: f[b + 2], t: f[b + 3], v: f[b + 4], i: f[b + 5], flags: f[b + 6] });
+      }
+      count += records;
+      pos += records * RECORD_BYTES;
+      if (records === 0) break;
+    }
+  } finally {
+    closeSync(fd);
+  }
+  return { count, tornBytes: size - whole };
+}
+
+/**
+ * Calls `onEvent` for every good event and reading, merged in sequence order (journal.jsonl holds
+ * the events, readings.f64 the readings). `line` is the event's line in journal.jsonl (0 for readings).
+ */
 export function scanJournal(dir: string, onEvent: (e: WireEvent, line: number) => void): ScanResult {
   const file = join(dir, JOURNAL_FILE);
   if (!existsSync(file)) throw new JournalError(`${dir}: no ${JOURNAL_FILE} here; is this a session folder?`);
+  // Events are few (a handful per sweep); they are read first and interleaved with the readings.
+  const events: { e: WireEvent; line: number }[] = [];
   const fd = openSync(file, 'r');
   const chunk = Buffer.alloc(1 << 16);
   let carry = '';
@@ -63,9 +100,7 @@ export function scanJournal(dir: string, onEvent: (e: WireEvent, line: number) =
       bad.push({ line: lineNo, text: text.slice(0, 200), problem: e });
       return;
     }
-    if (typeof e.seq === 'number' && e.seq > lastSeq) lastSeq = e.seq;
-    if (typeof e.t === 'number' && e.t > lastT) lastT = e.t;
-    onEvent(e, lineNo);
+    events.push({ e, line: lineNo });
   };
   try {
     let n: number;
@@ -85,7 +120,29 @@ export function scanJournal(dir: string, onEvent: (e: WireEvent, line: number) =
   }
   const tornTail = lastByte !== -1 && lastByte !== 0x0a;
   if (carry.length > 0) take(carry);
-  return { lines: lineNo, bad, tornTail, lastSeq, lastT };
+  let next = 0;
+  const emit = (x: { e: WireEvent; line: number }) => {
+    if (typeof x.e.seq === 'number' && x.e.seq > lastSeq) lastSeq = x.e.seq;
+    if (typeof x.e.t === 'number' && x.e.t > lastT) lastT = x.e.t;
+    onEvent(x.e, x.line);
+  };
+  const r = scanReadings(dir, (reading) => {
+    while (next < events.length && events[next].e.seq < reading.seq) emit(events[next++]);
+    emit({ e: reading, line: 0 });
+  });
+  while (next < events.length) emit(events[next++]);
+  return { lines: lineNo, bad, tornTail, tornReadingBytes: r.tornBytes, readings: r.count, lastSeq, lastT };
+}
+
+/** Cuts an incomplete last record off readings.f64 (recovery only; everything whole is kept). */
+function truncateTornReadings(dir: string, tornBytes: number): void {
+  const file = join(dir, READINGS_FILE);
+  const fd = openSync(file, 'r+');
+  try {
+    ftruncateSync(fd, statSync(file).size - tornBytes);
+  } finally {
+    closeSync(fd);
+  }
 }
 
 export interface SessionSummary {
@@ -145,7 +202,7 @@ export function recoverSession(dir: string): RecoveryReport {
     } else if (e.type === 'run-end') ended = true;
   });
   const tornLines = scan.bad.length;
-  if (ended && !scan.tornTail) {
+  if (ended && !scan.tornTail && scan.tornReadingBytes === 0) {
     rmSync(join(dir, LOCK_FILE), { force: true });
     return { dir, recovered: false, tornLines, badLines: scan.bad, closedSweep: null, addedRunEnd: false, message: 'session was closed properly; nothing to recover' };
   }
@@ -154,10 +211,12 @@ export function recoverSession(dir: string): RecoveryReport {
     writeSync(fd, '\n');
     closeSync(fd);
   }
+  if (scan.tornReadingBytes > 0) truncateTornReadings(dir, scan.tornReadingBytes);
   const w = JournalWriter.append(dir, scan.lastSeq, scan.lastT);
   const closedSweep: number | null = openSweep;
   const parts = [`${readings} readings kept`];
   if (scan.tornTail) parts.push('the torn last line was skipped');
+  if (scan.tornReadingBytes > 0) parts.push(`an incomplete last reading record (${scan.tornReadingBytes} of ${RECORD_BYTES} bytes) was dropped`);
   if (tornLines > (scan.tornTail ? 1 : 0)) parts.push(`${tornLines} damaged line(s) skipped`);
   if (closedSweep !== null) parts.push(`sweep ${closedSweep} marked incomplete after ${pointsInOpen} points`);
   if (!ended) parts.push('run marked interrupted');

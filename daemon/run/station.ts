@@ -14,6 +14,7 @@ import { SmuDriver } from '../instrument/smu-driver.js';
 import { JournalWriter } from '../journal/journal.js';
 import { listSessions, recoverAll, scanJournal, type RecoveryReport } from '../journal/reader.js';
 import { LiveChain } from '../pipeline/chain.js';
+import { RecentEvents } from '../pipeline/recent.js';
 import { analysisSchema, type AnalysisSettings, zodMessage } from '../pipeline/settings.js';
 import { SimulatedSmu } from '../simulator/instrument.js';
 import { findScenario, type Scenario } from '../simulator/scenarios.js';
@@ -30,8 +31,6 @@ export class StationError extends Error {
   }
 }
 
-/** Most events a snapshot carries (readings of the oldest sweeps are dropped first). */
-const SNAPSHOT_CAP = 200_000;
 
 export interface RunHandle {
   readonly session: string;
@@ -48,8 +47,7 @@ export class Station {
   private controller: RunController | undefined;
   private chain: LiveChain | undefined;
   private current: { session: string; dir: string } | undefined;
-  private recent: WireEvent[] = [];
-  private lastSeq = 0;
+  private readonly recent = new RecentEvents();
   private analysis: AnalysisSettings;
   readonly recovered: RecoveryReport[];
 
@@ -145,7 +143,7 @@ export class Station {
       sweeps: plan.repeat,
       pointsPerSweep: sweepValues(plan).length,
     });
-    this.recent = [];
+    this.recent.clear();
     chain.events$.subscribe({
       next: (e) => this.publish(e),
       error: () => undefined,
@@ -175,13 +173,7 @@ export class Station {
   }
 
   private publish(e: WireEvent): void {
-    this.lastSeq = e.seq;
-    this.recent.push(e);
-    if (this.recent.length > SNAPSHOT_CAP) {
-      // Drop the oldest readings (other events are few and all kept).
-      let drop = this.recent.length - SNAPSHOT_CAP / 2;
-      this.recent = this.recent.filter((x) => !(x.type === 'reading' && drop-- > 0));
-    }
+    this.recent.add(e);
     this.events$.next(e);
   }
 
@@ -244,8 +236,9 @@ export class Station {
       station: { control: true, hazardVoltage: this.config.limits.hazardVoltage, limits: this.config.limits },
       running: this.running,
       session: this.current?.session ?? null,
-      lastSeq: this.lastSeq,
-      events: this.recent,
+      lastSeq: this.recent.lastSeq,
+      events: this.recent.nonReadings(),
+      readings: this.recent.readings(),
     };
   }
 }

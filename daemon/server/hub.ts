@@ -11,13 +11,15 @@
 import type { IncomingMessage } from 'node:http';
 import type { Duplex } from 'node:stream';
 import { WebSocket, WebSocketServer } from 'ws';
-import type { ServerMessage, Snapshot, WireEvent } from '../../protocols/wire.js';
+import { packReading, type PackedReading, type ServerMessage, type Snapshot, type WireEvent } from '../../protocols/wire.js';
 
 const BATCH_MS = 30;
 const HIGH_WATER = 4 << 20;
 const LOW_WATER = 256 << 10;
 const STALL_MS = 60_000;
 const HEARTBEAT_MS = 15_000;
+/** Readings per batch above which a batch is thinned (≈ 65,000 readings/s at one batch per 30 ms). */
+export const MAX_READINGS_PER_BATCH = 2000;
 
 interface Client {
   readonly ws: WebSocket;
@@ -137,7 +139,7 @@ export class Hub {
         lagging++;
         continue;
       }
-      text ??= JSON.stringify({ kind: 'events', events } satisfies ServerMessage);
+      text ??= encodeBatch(events);
       c.ws.send(text);
     }
     this.stats.lagging = lagging;
@@ -150,4 +152,30 @@ export class Hub {
     for (const c of this.clients) c.ws.terminate();
     this.wss.close();
   }
+}
+
+/** One batch as a websocket message: other events as they are, readings packed (and thinned). */
+export function encodeBatch(batch: readonly WireEvent[]): string {
+  const events: WireEvent[] = [];
+  let count = 0;
+  for (const e of batch) if (e.type === 'reading') count++;
+  const stride = count > MAX_READINGS_PER_BATCH ? Math.ceil(count / MAX_READINGS_PER_BATCH) : 1;
+  const readings: PackedReading[] = [];
+  let n = 0;
+  let prevSweep = -1;
+  let last: WireEvent | undefined;
+  for (const e of batch) {
+    if (e.type !== 'reading') {
+      events.push(e);
+      continue;
+    }
+    // Keep every stride-th reading and the first of each sweep.
+    if (stride === 1 || n % stride === 0 || e.sweep !== prevSweep) readings.push(packReading(e));
+    else last = e;
+    prevSweep = e.sweep;
+    n++;
+  }
+  if (stride > 1 && last && readings[readings.length - 1][0] !== last.seq) readings.push(packReading(last as Extract<WireEvent, { type: 'reading' }>));
+  const msg: ServerMessage = stride > 1 ? { kind: 'events', events, readings, thinned: { readings: count, sent: readings.length } } : { kind: 'events', events, readings };
+  return JSON.stringify(msg);
 }

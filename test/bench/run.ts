@@ -2,10 +2,13 @@
 import { cpus } from 'node:os';
 import { benchAnalysis } from './analysis.js';
 import { benchProtocols } from './protocols.js';
+import { benchDaemon } from './daemon.js';
 
 process.stdout.write(`plumbline benchmarks — Node ${process.version}, ${cpus()[0]?.model ?? 'unknown CPU'}, single thread\n\n`);
 process.stdout.write('analysis core\n');
 benchAnalysis();
 process.stdout.write('\nprotocols and simulated instrument\n');
 await benchProtocols();
+process.stdout.write('\ndaemon: live chain, journal, abort, websocket\n');
+await benchDaemon();
 process.exit(0);

@@ -4,7 +4,7 @@ import { mkdtempSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { WebSocket } from 'ws';
-import type { ServerMessage, WireEvent } from '../../protocols/wire.js';
+import { unpackReading, type ServerMessage, type WireEvent } from '../../protocols/wire.js';
 import { CLI } from './cli.js';
 
 export function tempDir(prefix = 'plumbline-daemon-'): string {
@@ -90,7 +90,11 @@ export class Viewer {
     this.ws.on('message', (data) => {
       const m = JSON.parse(String(data)) as ServerMessage;
       this.messages.push(m);
-      const evs = m.kind === 'snapshot' ? m.snapshot.events : m.kind === 'events' ? m.events : [];
+      const evs: WireEvent[] =
+        m.kind === 'snapshot' ? [...m.snapshot.events, ...m.snapshot.readings.map(unpackReading)]
+        : m.kind === 'events' ? [...m.events, ...m.readings.map(unpackReading)]
+        : [];
+      evs.sort((a, b) => a.seq - b.seq);
       for (const e of evs) {
         if (e.type === 'session') this.lastSeq = 0;
         if (e.seq <= this.lastSeq) continue;

@@ -3,12 +3,12 @@
  * sweep, damaged lines in the middle, annotations after the run, and the export files read back
  * with a plain CSV split (what a spreadsheet sees).
  */
-import { appendFileSync, mkdtempSync, readFileSync, writeFileSync } from 'node:fs';
+import { appendFileSync, mkdtempSync, readFileSync, statSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
 import { exportSession, POINTS_HEADER } from '../../daemon/journal/export.js';
-import { JOURNAL_FILE, JournalWriter } from '../../daemon/journal/journal.js';
+import { JOURNAL_FILE, JournalWriter, READINGS_FILE } from '../../daemon/journal/journal.js';
 import { recoverSession, scanJournal } from '../../daemon/journal/reader.js';
 import { annotateFolder } from '../../daemon/run/station.js';
 import { FLAG, type WireEvent } from '../../protocols/wire.js';
@@ -54,12 +54,15 @@ describe('journal', () => {
   it('recovery after a crash: torn last line reported and skipped, open sweep marked incomplete, run interrupted', () => {
     const { dir, writer } = writeSession(tmp(), 2, 20, false);
     void writer; // the "crashed" writer is never closed
-    appendFileSync(join(dir, JOURNAL_FILE), '{"r":[999,2,20,12.5,1.9');
+    appendFileSync(join(dir, JOURNAL_FILE), '{"seq":999,"t":12.5,"type":"capt');
+    appendFileSync(join(dir, READINGS_FILE), Buffer.alloc(20, 7)); // 20 of a record's 56 bytes
     const r = recoverSession(join(dir));
     expect(r.recovered).toBe(true);
     expect(r.tornLines).toBe(1);
     expect(r.closedSweep).toBe(2);
     expect(r.message).toMatch(/torn last line/);
+    expect(r.message).toMatch(/incomplete last reading record \(20 of 56 bytes\)/);
+    expect(statSync(join(dir, READINGS_FILE)).size).toBe(40 * 56);
     const after: WireEvent[] = [];
     const scan = scanJournal(dir, (e) => after.push(e));
     expect(scan.bad).toHaveLength(1);
@@ -78,13 +81,13 @@ describe('journal', () => {
   it('a damaged line in the middle is reported with its number and the rest is read', () => {
     const { dir } = writeSession(tmp(), 1, 10);
     const lines = readFileSync(join(dir, JOURNAL_FILE), 'utf8').split('\n');
-    lines.splice(5, 0, '{"r":[1,2,3]}', 'garbage');
+    lines.splice(2, 0, '{"seq":3}', 'garbage');
     writeFileSync(join(dir, JOURNAL_FILE), lines.join('\n'));
     let n = 0;
     const scan = scanJournal(dir, (e) => e.type === 'reading' && n++);
     expect(n).toBe(10);
-    expect(scan.bad.map((b) => b.line)).toEqual([6, 7]);
-    expect(scan.bad[0].problem).toMatch(/3 fields/);
+    expect(scan.bad.map((b) => b.line)).toEqual([3, 4]);
+    expect(scan.bad[0].problem).toMatch(/without a type/);
   });
 
   it('export writes points.csv, sweeps.csv and session.json that a plain CSV reader understands', () => {
