@@ -123,6 +123,12 @@ export type WireEvent =
   | (Stamped & { readonly type: 'annotation'; readonly text: string; readonly tags: readonly string[]; readonly sweep?: number; readonly source: string })
   | (Stamped & { readonly type: 'settings'; readonly analysis: unknown; readonly source: string })
   | (Stamped & {
+      readonly type: 'ranking';
+      readonly sweep: number;
+      readonly ranking: readonly { model: string; title: string; score: number; deltaAicc: number; plausible: boolean; reasons: readonly string[] }[];
+      readonly warnings: readonly string[];
+    })
+  | (Stamped & {
       readonly type: 'progress';
       readonly sweep: number;
       readonly sweeps: number;
@@ -166,7 +172,27 @@ export type ServerMessage =
    */
   | { readonly kind: 'events'; readonly events: readonly WireEvent[]; readonly readings: readonly PackedReading[]; readonly thinned?: { readonly readings: number; readonly sent: number } }
   /** Events from..to (inclusive) were not delivered to this client; a snapshot follows. */
-  | { readonly kind: 'gap'; readonly from: number; readonly to: number };
+  | { readonly kind: 'gap'; readonly from: number; readonly to: number }
+  /**
+   * The linearized view of one sweep for the chosen model (display data derived from journaled
+   * readings, so it is not journaled itself): sent with every fit, latest per sweep per batch.
+   */
+  | { readonly kind: 'view'; readonly session: string | null; readonly sweep: number; readonly final: boolean; readonly view: PlotViewData };
+
+/** Mirrors daemon/analysis/plot.ts PlotView (display values; the page only draws them). */
+export interface PlotViewData {
+  readonly model: string;
+  readonly axes: { x: { label: string; unit: string; kind: string }; y: { label: string; unit: string; kind: string } };
+  readonly x: readonly number[];
+  readonly y: readonly number[];
+  readonly bias: readonly number[];
+  readonly inWindow: readonly number[];
+  readonly residual: readonly (number | null)[];
+  readonly line: { x: [number, number]; y: [number, number] } | null;
+  readonly window: { x: [number, number]; bias: [number, number] } | null;
+  readonly regimes: readonly { x: [number, number]; y: [number, number] }[];
+  readonly error?: string;
+}
 
 export interface Snapshot {
   readonly station: { readonly control: boolean; readonly hazardVoltage: number; readonly limits: unknown };
@@ -181,4 +207,6 @@ export interface Snapshot {
   readonly events: readonly WireEvent[];
   /** The current session's most recent readings (up to a cap), packed, in sequence order. */
   readonly readings: readonly PackedReading[];
+  /** Latest linearized views (the last few sweeps). */
+  readonly views: readonly { sweep: number; final: boolean; view: PlotViewData }[];
 }

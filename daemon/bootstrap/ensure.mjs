@@ -62,3 +62,5 @@ if (wantSystem) {
 
 // 3. compile (incremental, so a second run costs little)
 run(process.execPath, [join(root, 'node_modules', 'typescript', 'bin', 'tsc'), '-p', 'tsconfig.json']);
+// 4. the page (web/ → dist/web)
+run(process.execPath, [join(root, 'web', 'build.mjs')]);

@@ -14,6 +14,8 @@ import { DriftChart } from '../analysis/drift.js';
 import { LineAccumulator } from '../analysis/line-accumulator.js';
 import type { Mechanism, ResolvedInputs } from '../analysis/mechanism.js';
 import { getMechanism } from '../analysis/mechanisms/index.js';
+import { plotView, type PlotView } from '../analysis/plot.js';
+import { rankMechanisms } from '../analysis/ranking.js';
 import { FLAG, type FitSummary, type NewEvent, type RunOutcome, type WireEvent } from '../../protocols/wire.js';
 import type { JournalWriter } from '../journal/journal.js';
 import type { AnalysisSettings, BreakdownConfig, DriftConfig } from './settings.js';
@@ -58,8 +60,15 @@ export function summarizeFit(r: FitReport): FitSummary {
   };
 }
 
+/** Ranking runs at a sweep's end at most this often, and on sweeps up to this many points. */
+const RANKING_INTERVAL_MS = 1000;
+const RANKING_MAX_POINTS = 5000;
+
 export class LiveChain {
   readonly events$ = new Subject<WireEvent>();
+  /** Linearized views for pages (display data, derived from journaled readings; not journaled). */
+  readonly views$ = new Subject<{ sweep: number; final: boolean; view: PlotView }>();
+  private lastRankingAt = -Infinity;
   private analysis: AnalysisSettings;
   private mech: Mechanism;
   private inputs: ResolvedInputs;
@@ -229,7 +238,44 @@ export class LiveChain {
     // Interim fits skip the regime search (the final fit of the sweep has it).
     const r = this.fitNow(this.v, this.i, this.c, final);
     this.emit({ type: 'fit', sweep: this.sweep, final, fit: r.fit, ...(r.error ? { error: r.error } : {}) });
+    this.publishView(this.sweep, final, this.v, this.i, this.c);
     return r;
+  }
+
+  private publishView(sweep: number, final: boolean, v: number[], i: number[], c: number[]): void {
+    if (!this.views$.observed) return;
+    try {
+      const view = plotView({ x: v, y: i, compliance: c.map((f) => f & FLAG.compliance) }, {
+        model: this.analysis.model,
+        inputs: this.analysis.inputs,
+        window: this.analysis.window,
+        complianceLimit: this.options.complianceLimit,
+      });
+      this.views$.next({ sweep, final, view });
+    } catch {
+      /* a view the data cannot give is simply not drawn; the fit event carries the reason */
+    }
+  }
+
+  private publishRanking(): void {
+    const now = performance.now();
+    if (this.v.length > RANKING_MAX_POINTS || now - this.lastRankingAt < RANKING_INTERVAL_MS) return;
+    this.lastRankingAt = now;
+    try {
+      const r = rankMechanisms({ x: this.v, y: this.i, compliance: this.c.map((f) => f & FLAG.compliance) }, {
+        inputs: this.analysis.inputs,
+        window: this.analysis.window,
+        complianceLimit: this.options.complianceLimit,
+      });
+      this.emit({
+        type: 'ranking',
+        sweep: this.sweep,
+        ranking: r.ranking.map((e) => ({ model: e.model, title: e.title, score: e.score, deltaAicc: e.deltaAicc, plausible: e.plausible, reasons: e.reasons })),
+        warnings: r.warnings,
+      });
+    } catch {
+      /* too few points for any mechanism: no ranking for this sweep */
+    }
   }
 
   /**
@@ -239,6 +285,7 @@ export class LiveChain {
   endSweep(complete: boolean, note?: string): Decision | undefined {
     this.emit({ type: 'sweep-end', sweep: this.sweep, points: this.k, complete, ...(note ? { note } : {}) });
     const { fit } = this.publishFit(true);
+    if (complete) this.publishRanking();
     this.lastFinal = { sweep: this.sweep, v: this.v, i: this.i, c: this.c };
     this.sweepsDone++;
     this.publishProgress(performance.now());
@@ -295,6 +342,7 @@ export class LiveChain {
     if (last) {
       const r = this.fitNow(last.v, last.i, last.c);
       this.emit({ type: 'fit', sweep: last.sweep, final: true, fit: r.fit, ...(r.error ? { error: r.error } : {}) });
+      this.publishView(last.sweep, true, last.v, last.i, last.c);
     }
   }
 
@@ -302,5 +350,6 @@ export class LiveChain {
     this.emit({ type: 'run-end', outcome, reason, sweeps: this.sweepsDone });
     this.options.journal.close();
     this.events$.complete();
+    this.views$.complete();
   }
 }

@@ -9,10 +9,11 @@ import { Subject } from 'rxjs';
 import { loadDialect } from '../../protocols/dialect.js';
 import { ScpiSession } from '../../protocols/scpi-session.js';
 import { openSerial, openTcp, duplexPair } from '../../protocols/transport.js';
-import type { Snapshot, WireEvent } from '../../protocols/wire.js';
+import type { RunOutcome, Snapshot, WireEvent } from '../../protocols/wire.js';
 import { SmuDriver } from '../instrument/smu-driver.js';
 import { JournalWriter } from '../journal/journal.js';
 import { listSessions, recoverAll, scanJournal, type RecoveryReport } from '../journal/reader.js';
+import type { PlotView } from '../analysis/plot.js';
 import { LiveChain } from '../pipeline/chain.js';
 import { RecentEvents } from '../pipeline/recent.js';
 import { analysisSchema, type AnalysisSettings, zodMessage } from '../pipeline/settings.js';
@@ -42,6 +43,9 @@ export interface RunHandle {
 export class Station {
   /** Every event of every run, after the journal has it. */
   readonly events$ = new Subject<WireEvent>();
+  /** Linearized views for pages (not journaled: derived from the readings). */
+  readonly views$ = new Subject<{ session: string; sweep: number; final: boolean; view: PlotView }>();
+  private views = new Map<number, { sweep: number; final: boolean; view: PlotView }>();
   readonly scenario: Scenario | undefined;
   private sim: SimulatedSmu | undefined;
   private controller: RunController | undefined;
@@ -79,7 +83,78 @@ export class Station {
   }
 
   get running(): boolean {
-    return this.controller !== undefined;
+    return this.controller !== undefined || this.passive;
+  }
+
+  private passive = false;
+
+  /**
+   * A session fed by a passive source (a file or stream another program writes; issue 7's watch
+   * mode, and the page benchmark): the same chain, journal and page, with no control of the
+   * instrument. The caller feeds `chain.startSweep / reading / endSweep` and ends with `close`.
+   */
+  openPassive(label: string, detail: string, options: { sweeps?: number; pointsPerSweep?: number; complianceLimit?: number } = {}): { chain: LiveChain; session: string; dir: string; close(outcome: RunOutcome, reason: string): void } {
+    if (this.running) throw new StationError(`a run is in progress (session ${this.current?.session})`);
+    const { chain, id, dir } = this.newSession(label, {
+      complianceLimit: options.complianceLimit,
+      sweeps: options.sweeps ?? 0,
+      pointsPerSweep: options.pointsPerSweep ?? 0,
+    });
+    chain.emit({
+      type: 'session',
+      id,
+      startedAt: new Date().toISOString(),
+      source: { kind: 'passive', detail, control: false },
+      instrument: 'unknown (passive source)',
+      plan: null,
+      analysis: this.analysis,
+      drift: this.config.drift,
+      limits: this.config.limits,
+    });
+    chain.emit({ type: 'caution', kind: 'passive-source', message: `Readings come from ${detail}. plumbline does not control this instrument: it cannot turn the output off or abort the sweep; use the instrument's own controls.` });
+    this.passive = true;
+    return {
+      chain,
+      session: id,
+      dir,
+      close: (outcome, reason) => {
+        chain.end(outcome, reason);
+        this.passive = false;
+        this.chain = undefined;
+      },
+    };
+  }
+
+  private newSession(label: string, o: { complianceLimit?: number; sweeps: number; pointsPerSweep: number }): { chain: LiveChain; id: string; dir: string } {
+    const { writer, id } = JournalWriter.create(this.dataDir, label);
+    const dir = join(this.dataDir, id);
+    const chain = new LiveChain({
+      journal: writer,
+      analysis: this.analysis,
+      drift: this.config.drift,
+      breakdown: this.config.breakdown,
+      complianceLimit: o.complianceLimit,
+      hazardVoltage: this.config.limits.hazardVoltage,
+      sweeps: o.sweeps,
+      pointsPerSweep: o.pointsPerSweep,
+    });
+    this.recent.clear();
+    this.views = new Map();
+    chain.events$.subscribe({
+      next: (e) => this.publish(e),
+      error: () => undefined,
+    });
+    chain.views$.subscribe({
+      next: (v) => {
+        this.views.set(v.sweep, v);
+        for (const k of this.views.keys()) if (k < v.sweep - 2) this.views.delete(k);
+        this.views$.next({ session: id, ...v });
+      },
+      error: () => undefined,
+    });
+    this.chain = chain;
+    this.current = { session: id, dir };
+    return { chain, id, dir };
   }
 
   get analysisSettings(): AnalysisSettings {
@@ -118,7 +193,7 @@ export class Station {
 
   /** Validates and starts a run; resolves once the session folder exists and the run is under way. */
   async startRun(options: { plan?: unknown; analysis?: unknown; label?: string } = {}): Promise<RunHandle> {
-    if (this.controller) throw new StationError(`a run is in progress (session ${this.current?.session}); stop or abort it first`);
+    if (this.running) throw new StationError(`a run is in progress (session ${this.current?.session}); stop or abort it first`);
     const plan = options.plan === undefined ? this.defaultPlan() : parsePlan(options.plan, 'plan');
     checkPlan(this.config.limits, plan);
     if (options.analysis !== undefined) this.analysis = this.parseAnalysis(options.analysis);
@@ -131,23 +206,7 @@ export class Station {
       throw new StationError(`the instrument did not answer *IDN? (${(e as Error).message}); check the connection`, 502);
     }
     const label = options.label ?? this.scenario?.name ?? 'run';
-    const { writer, id } = JournalWriter.create(this.dataDir, label);
-    const dir = join(this.dataDir, id);
-    const chain = new LiveChain({
-      journal: writer,
-      analysis: this.analysis,
-      drift: this.config.drift,
-      breakdown: this.config.breakdown,
-      complianceLimit: plan.compliance,
-      hazardVoltage: this.config.limits.hazardVoltage,
-      sweeps: plan.repeat,
-      pointsPerSweep: sweepValues(plan).length,
-    });
-    this.recent.clear();
-    chain.events$.subscribe({
-      next: (e) => this.publish(e),
-      error: () => undefined,
-    });
+    const { chain, id, dir } = this.newSession(label, { complianceLimit: plan.compliance, sweeps: plan.repeat, pointsPerSweep: sweepValues(plan).length });
     chain.emit({
       type: 'session',
       id,
@@ -162,8 +221,6 @@ export class Station {
     const source = new GuardedSource(driver, this.config.limits);
     const controller = new RunController(source, chain, plan);
     this.controller = controller;
-    this.chain = chain;
-    this.current = { session: id, dir };
     const done = controller.execute().finally(() => {
       session.close();
       this.controller = undefined;
@@ -197,11 +254,13 @@ export class Station {
   }
 
   stop(reason = 'stop requested'): void {
+    if (this.passive) throw new StationError('this session watches a passive source: plumbline cannot stop the instrument; use its own controls');
     if (!this.controller) throw new StationError('no run in progress');
     this.controller.stop(reason);
   }
 
   abort(reason = 'abort requested'): void {
+    if (this.passive) throw new StationError('this session watches a passive source: plumbline cannot turn that instrument\'s output off; use its own controls');
     if (!this.controller) throw new StationError('no run in progress');
     this.controller.abort(reason);
   }
@@ -233,12 +292,13 @@ export class Station {
 
   snapshot(): Snapshot {
     return {
-      station: { control: true, hazardVoltage: this.config.limits.hazardVoltage, limits: this.config.limits },
+      station: { control: !this.passive, hazardVoltage: this.config.limits.hazardVoltage, limits: this.config.limits },
       running: this.running,
       session: this.current?.session ?? null,
       lastSeq: this.recent.lastSeq,
       events: this.recent.nonReadings(),
       readings: this.recent.readings(),
+      views: [...this.views.values()],
     };
   }
 }

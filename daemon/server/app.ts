@@ -16,6 +16,8 @@ import { join } from 'node:path';
 import express, { type NextFunction, type Request, type Response } from 'express';
 import { z } from 'zod';
 import { projectRoot } from '../../protocols/project-root.js';
+import { MECHANISMS } from '../analysis/mechanisms/index.js';
+import { plotView } from '../analysis/plot.js';
 import { exportSession } from '../journal/export.js';
 import { listSessions, scanJournal } from '../journal/reader.js';
 import { zodMessage } from '../pipeline/settings.js';
@@ -100,6 +102,7 @@ export async function startServer(station: Station, options: ServerOptions): Pro
   let boundPort = options.port;
   const hub = new Hub(() => station.snapshot());
   const sub = station.events$.subscribe({ next: (e) => hub.publish(e), error: () => undefined });
+  const viewSub = station.views$.subscribe({ next: (v) => hub.publishView(v.session, v.sweep, v.final, v.view), error: () => undefined });
 
   app.use((req, res, next) => {
     if (!hostAllowed(req, host, boundPort)) {
@@ -144,6 +147,7 @@ export async function startServer(station: Station, options: ServerOptions): Pro
       control: true,
       recovered: station.recovered.map((r) => ({ dir: r.dir, message: r.message })),
       hub: hub.stats,
+      models: MECHANISMS.map((m) => ({ id: m.id, title: m.title, requires: m.requires })),
     });
   });
   app.get('/api/sessions', (_req, res) => {
@@ -168,6 +172,28 @@ export async function startServer(station: Station, options: ServerOptions): Pro
       if (e.type === 'reading' && (sweep === undefined || e.sweep === sweep) && rows.length < 2_000_000) rows.push([e.seq, e.sweep, e.k, e.t, e.v, e.i, e.flags]);
     });
     res.json({ fields: ['seq', 'sweep', 'k', 't', 'v', 'i', 'flags'], rows });
+  });
+  app.get('/api/sessions/:id/sweeps/:sweep/view', (req, res) => {
+    const dir = sessionDir(req.params.id);
+    const sweep = Number(req.params.sweep);
+    if (!Number.isInteger(sweep) || sweep < 1) throw new StationError(`sweep '${req.params.sweep}': expected a sweep number`, 400);
+    const v: number[] = [];
+    const i: number[] = [];
+    const c: number[] = [];
+    let analysis: unknown;
+    let compliance: number | undefined;
+    scanJournal(dir, (e) => {
+      if (e.type === 'reading' && e.sweep === sweep) {
+        v.push(e.v);
+        i.push(e.i);
+        c.push(e.flags & 1);
+      } else if (e.type === 'session') {
+        analysis = e.analysis;
+        compliance = (e.plan as { compliance?: number } | undefined)?.compliance;
+      } else if (e.type === 'settings') analysis = e.analysis;
+    });
+    const a = station.parseAnalysis(req.query.model !== undefined ? { ...(analysis as object), model: String(req.query.model), window: 'auto' } : analysis);
+    res.json({ sweep, view: plotView({ x: v, y: i, compliance: c }, { model: a.model, inputs: a.inputs, window: a.window, complianceLimit: compliance }) });
   });
   app.post('/api/sessions/:id/export', (req, res) => {
     const r = exportSession(sessionDir(req.params.id));
@@ -262,6 +288,7 @@ export async function startServer(station: Station, options: ServerOptions): Pro
     close: () =>
       new Promise<void>((resolve) => {
         sub.unsubscribe();
+        viewSub.unsubscribe();
         hub.close();
         server.closeAllConnections();
         server.close(() => resolve());

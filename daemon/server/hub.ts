@@ -43,6 +43,7 @@ export class Hub {
   readonly wss = new WebSocketServer({ noServer: true, maxPayload: 64 * 1024, perMessageDeflate: false });
   private readonly clients = new Set<Client>();
   private pending: WireEvent[] = [];
+  private pendingViews = new Map<number, string>();
   private timer: NodeJS.Timeout | undefined;
   private readonly heartbeat: NodeJS.Timeout;
   readonly stats: HubStats = { clients: 0, lagging: 0, batches: 0, events: 0, gaps: 0, dropped: 0 };
@@ -92,6 +93,12 @@ export class Hub {
     c.ws.send(JSON.stringify(msg));
   }
 
+  /** Queues a sweep's linearized view; only the latest per sweep goes out with the next batch. */
+  publishView(session: string | null, sweep: number, final: boolean, view: unknown): void {
+    this.pendingViews.set(sweep, JSON.stringify({ kind: 'view', session, sweep, final, view }));
+    this.timer ??= setTimeout(() => this.flush(), BATCH_MS);
+  }
+
   /** Queues an event for the next batch (O(1)). */
   publish(e: WireEvent): void {
     this.pending.push(e);
@@ -100,6 +107,17 @@ export class Hub {
 
   flush(): void {
     this.timer = undefined;
+    this.flushEvents();
+    if (this.pendingViews.size === 0) return;
+    const views = [...this.pendingViews.values()];
+    this.pendingViews.clear();
+    for (const c of this.clients) {
+      if (c.ws.readyState !== WebSocket.OPEN || c.lagging) continue;
+      for (const v of views) c.ws.send(v);
+    }
+  }
+
+  private flushEvents(): void {
     if (this.pending.length === 0) return;
     const events = this.pending;
     this.pending = [];

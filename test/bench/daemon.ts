@@ -110,7 +110,7 @@ async function viewers(): Promise<{ rate: number; lagging: number; dropped: numb
   const dir = mkdtempSync(join(tmpdir(), 'plumbline-bench-'));
   const chain = makeChain(dir, 1000);
   const recent = new RecentEvents();
-  const hub = new Hub(() => ({ station: { control: true, hazardVoltage: 30, limits: {} }, running: true, session: 'bench', lastSeq: recent.lastSeq, events: recent.nonReadings(), readings: recent.readings() }));
+  const hub = new Hub(() => ({ station: { control: true, hazardVoltage: 30, limits: {} }, running: true, session: 'bench', lastSeq: recent.lastSeq, events: recent.nonReadings(), readings: recent.readings(), views: [] }));
   chain.events$.subscribe((e) => {
     recent.add(e);
     hub.publish(e);
