@@ -103,7 +103,7 @@ export class Station {
     chain.emit({
       type: 'session',
       id,
-      startedAt: new Date().toISOString(),
+      startedAt: new Date(Date.now() - (performance.now() - chain.options.journal.t0)).toISOString(),
       source: { kind: 'passive', detail, control: false },
       instrument: 'unknown (passive source)',
       plan: null,
@@ -210,7 +210,7 @@ export class Station {
     chain.emit({
       type: 'session',
       id,
-      startedAt: new Date().toISOString(),
+      startedAt: new Date(Date.now() - (performance.now() - chain.options.journal.t0)).toISOString(),
       source: { kind: this.config.instrument.kind, detail, control: true },
       instrument: idn,
       plan: { ...plan, description: describePlan(plan) },

@@ -3,6 +3,7 @@ import { cpus } from 'node:os';
 import { benchAnalysis } from './analysis.js';
 import { benchProtocols } from './protocols.js';
 import { benchDaemon } from './daemon.js';
+import { benchPage } from './page.js';
 
 process.stdout.write(`plumbline benchmarks — Node ${process.version}, ${cpus()[0]?.model ?? 'unknown CPU'}, single thread\n\n`);
 process.stdout.write('analysis core\n');
@@ -11,4 +12,6 @@ process.stdout.write('\nprotocols and simulated instrument\n');
 await benchProtocols();
 process.stdout.write('\ndaemon: live chain, journal, abort, websocket\n');
 await benchDaemon();
+process.stdout.write('\nlive page (headless Chromium)\n');
+await benchPage();
 process.exit(0);

@@ -76,6 +76,7 @@ function setConn(state: 'live' | 'connecting' | 'resync'): void {
 
 // ---- rendering -------------------------------------------------------------------------------
 let frame = 0;
+const latency: number[] = [];
 function schedule(): void {
   if (!frame) frame = requestAnimationFrame(render);
 }
@@ -102,6 +103,11 @@ function render(): void {
   ($('abort') as HTMLButtonElement).disabled = s.readOnly;
   renderCautions(s);
   raw.update(s.sweeps, ($('raw-log') as HTMLInputElement).checked);
+  // Point-to-pixel latency of the newest reading (the benchmark reads these; same machine clock).
+  if (s.sessionEvent && s.readingCount > 0) {
+    latency.push(Date.now() - (Date.parse(s.sessionEvent.startedAt) + s.lastReadingT));
+    if (latency.length > 10_000) latency.splice(0, 5_000);
+  }
   const view = s.views.get(last) ?? s.views.get(last - 1);
   lin.update(view);
   const fitNow = s.liveFit?.fit ?? null;
@@ -405,8 +411,10 @@ function backToLive(): void {
 }
 $('back-live').addEventListener('click', backToLive);
 
-// For the end-to-end tests: what the page holds and draws.
+// For the end-to-end tests and the benchmark: what the page holds and draws.
 (window as unknown as { __plumbline: unknown }).__plumbline = {
+  latency,
+  Store,
   get store() {
     return viewStore;
   },

@@ -35,6 +35,8 @@ export class Store {
   resyncing = false;
   /** Readings received, for tests and the status line. */
   readingCount = 0;
+  /** t (ms since the session started) of the newest reading, for the latency benchmark. */
+  lastReadingT = 0;
   dirty = true;
 
   reset(session: string | null): void {
@@ -110,6 +112,7 @@ export class Store {
     s.i.push(r[5]);
     s.flags.push(r[6]);
     this.readingCount++;
+    this.lastReadingT = r[3];
   }
 
   applyEvent(e: WireEvent): void {
