@@ -10,7 +10,8 @@ import { AnalysisError } from './analysis/errors.js';
 import { MODEL_IDS } from './analysis/mechanisms/index.js';
 import { rankMechanisms } from './analysis/ranking.js';
 import { CsvError } from '../protocols/csv-table.js';
-import { formatFit, formatRanking } from './cli/format.js';
+import { formatDiode, formatFit, formatRanking, formatSolar } from './cli/format.js';
+import { cheung, fitDiode, solarFigures, type Convention } from './analysis/diode-fit.js';
 import {
   type AnalysisOptions,
   enableExpressions,
@@ -44,6 +45,16 @@ interface FitOptions extends AnalysisOptions {
   xExpr?: string;
   yExpr?: string;
   yAxis?: string;
+  illuminated?: boolean;
+  convention: string;
+  objective: string;
+}
+
+const DIODE_MODELS = ['single-diode', 'double-diode', 'cheung'];
+
+function readConvention(o: { convention: string }): Convention {
+  if (o.convention !== 'load' && o.convention !== 'generator') throw new QuantityError('--convention', `--convention '${o.convention}': expected load (current into the device positive, as an SMU records it) or generator`);
+  return o.convention;
 }
 
 withAnalysisOptions(
@@ -51,12 +62,31 @@ withAnalysisOptions(
     .command('fit')
     .description('fit one conduction mechanism to an I-V CSV and extract its physical parameters')
     .argument('<file>', 'CSV with a header row; x = first column (V, or K for arrhenius), y = second (A)')
-    .requiredOption('--model <id>', `mechanism: ${MODEL_IDS.join(', ')}`)
+    .requiredOption('--model <id>', `mechanism: ${MODEL_IDS.join(', ')}; or a diode model: ${DIODE_MODELS.join(', ')}`)
+    .option('--illuminated', 'diode models: fit a photocurrent (an illuminated solar cell)')
+    .option('--convention <c>', 'diode models: how the file signs the current: load (into the device positive, as an SMU records it) or generator', 'load')
+    .option('--objective <o>', 'diode models: current (true-current residuals, default) or implicit (the model equation\'s residual, as much of the literature fits)', 'current')
     .option('--x-expr <expr>', 'custom model: x as a mathjs expression over the columns (by header or c1, c2 …)')
     .option('--y-expr <expr>', 'custom model: y as a mathjs expression over the columns')
     .option('--y-axis <kind>', 'custom model: log (fit ln y) or linear', 'linear'),
 ).action((file: string, o: FitOptions) => {
   const { data } = loadData(file, o);
+  if (DIODE_MODELS.includes(o.model)) {
+    if (o.objective !== 'current' && o.objective !== 'implicit') throw new QuantityError('--objective', `--objective '${o.objective}': expected current or implicit`);
+    const inputs = readInputs(o);
+    const req = {
+      temperature: inputs.temperature,
+      illuminated: o.illuminated ?? false,
+      convention: readConvention(o),
+      complianceLimit: readCompliance(o),
+      area: inputs.area,
+      richardson: inputs.richardson,
+      objective: o.objective as 'current' | 'implicit',
+    };
+    const report = o.model === 'cheung' ? cheung(data, req) : fitDiode(data, o.model as 'single-diode' | 'double-diode', req);
+    print(o.json, report, () => formatDiode(report));
+    return;
+  }
   if (o.model === 'custom') enableExpressions();
   if (o.yAxis !== 'log' && o.yAxis !== 'linear') throw new QuantityError('--y-axis', `--y-axis '${o.yAxis}': expected log or linear`);
   const report = analyze(data, {
@@ -86,6 +116,34 @@ withAnalysisOptions(
     complianceLimit: readCompliance(o),
   });
   print(o.json, ranking, () => formatRanking(ranking));
+});
+
+withAnalysisOptions(
+  program
+    .command('solar')
+    .description('solar-cell figures of merit from an illuminated I-V curve: isc, voc, pmax, vmp, imp, fill factor, efficiency')
+    .argument('<file>', 'CSV with a header row; x = voltage (V), y = current (A)')
+    .option('--irradiance <q>', 'irradiance for the efficiency, e.g. "1000 W/m^2" (default: 1000 W/m², the standard test condition)')
+    .option('--convention <c>', 'how the file signs the current: load (into the device positive, as an SMU records it) or generator', 'load'),
+).action(async (file: string, o: AnalysisOptions & { irradiance?: string; convention: string }) => {
+  const { data } = loadData(file, o);
+  const inputs = readInputs(o);
+  let irradiance: number | undefined;
+  if (o.irradiance !== undefined) {
+    const { parseQuantity } = await import('./quantity.js');
+    irradiance = parseQuantity(o.irradiance, 'irradiance', '--irradiance');
+  }
+  const report = solarFigures(data, { convention: readConvention(o), complianceLimit: readCompliance(o), area: inputs.area, irradiance });
+  const flat = {
+    ...Object.fromEntries(Object.entries(report.figures).map(([k, v]) => [k, v === null ? null : v.value])),
+    units: { isc: 'A', voc: 'V', pmax: 'W', vmp: 'V', imp: 'A', fillFactor: '', efficiency: '' },
+    irradiance: report.irradiance,
+    area: report.area,
+    points: report.points,
+    convention: report.convention,
+    warnings: report.warnings,
+  };
+  print(o.json, flat, () => formatSolar(report));
 });
 
 program

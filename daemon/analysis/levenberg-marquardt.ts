@@ -125,6 +125,7 @@ export function levenbergMarquardt(problem: LmProblem, options: LmOptions = {}):
   const delta = new Float64Array(m);
   const pNew = new Float64Array(m);
   const rhs = new Float64Array(m);
+  const held = new Uint8Array(m);
 
   const sumsq = (v: Float64Array) => {
     let s = 0;
@@ -166,17 +167,23 @@ export function levenbergMarquardt(problem: LmProblem, options: LmOptions = {}):
     iter++;
     // Gradient test (scaled).
     let gmax = 0;
-    for (let j = 0; j < m; j++) gmax = Math.max(gmax, Math.abs(g[j]) / Math.sqrt(d[j]));
+    for (let j = 0; j < m; j++) {
+      const outward = (p[j] <= lo[j] && g[j] > 0) || (p[j] >= hi[j] && g[j] < 0);
+      if (!outward) gmax = Math.max(gmax, Math.abs(g[j]) / Math.sqrt(d[j]));
+    }
     if (sse === 0 || gmax <= gtol * Math.sqrt(sse)) {
       converged = true;
       reason = 'gradient vanished';
       break;
     }
+    // Active bounds: a parameter on a bound whose descent direction (−g) points outward is held
+    // (δⱼ = 0), so the projected step is the step the model predicted.
+    for (let j = 0; j < m; j++) held[j] = (p[j] <= lo[j] && g[j] > 0) || (p[j] >= hi[j] && g[j] < 0) ? 1 : 0;
     // Solve (A + λ D) δ = −g on the scaled system (columns scaled by 1/√d).
     for (let j = 0; j < m; j++) {
-      for (let k = 0; k < m; k++) L[j * m + k] = A[j * m + k] / Math.sqrt(d[j] * d[k]);
-      L[j * m + j] += lambda;
-      rhs[j] = -g[j] / Math.sqrt(d[j]);
+      for (let k = 0; k < m; k++) L[j * m + k] = held[j] || held[k] ? (j === k ? 1 : 0) : A[j * m + k] / Math.sqrt(d[j] * d[k]);
+      if (!held[j]) L[j * m + j] += lambda;
+      rhs[j] = held[j] ? 0 : -g[j] / Math.sqrt(d[j]);
     }
     if (!cholesky(L, m)) {
       lambda *= nu;
@@ -198,7 +205,7 @@ export function levenbergMarquardt(problem: LmProblem, options: LmOptions = {}):
     const sseNew = sumsq(rNew);
     // Predicted reduction: δᵀ(λDδ − g) (for the unprojected step; fine as a gain scale).
     let pred = 0;
-    for (let j = 0; j < m; j++) pred += delta[j] * (lambda * d[j] * delta[j] - g[j]);
+    for (let j = 0; j < m; j++) if (!held[j]) pred += delta[j] * (lambda * d[j] * delta[j] - g[j]);
     const rho = Number.isFinite(sseNew) && pred > 0 ? (sse - sseNew) / pred : -1;
     if (rho > 0) {
       let small = true;

@@ -2,6 +2,7 @@
 import type { FitReport } from '../analysis/analyze.js';
 import { describeReasons } from '../analysis/analyze.js';
 import type { Ranking } from '../analysis/ranking.js';
+import type { DiodeReport, SolarReport } from '../analysis/diode-fit.js';
 
 export function num(v: number, digits = 5): string {
   if (!Number.isFinite(v)) return String(v);
@@ -51,5 +52,34 @@ export function formatRanking(r: Ranking): string {
   });
   for (const s of r.skipped) out.push(`skipped ${s.model}: ${s.reason}`);
   for (const w of r.warnings) out.push(`warning: ${w}`);
+  return out.join('\n');
+}
+
+export function formatDiode(r: DiodeReport): string {
+  const out: string[] = [];
+  out.push(`${r.title}  [model ${r.model}]`);
+  out.push(`points:     ${r.points.used} used, ${r.points.excluded} excluded (${describeReasons(r.points.reasons)}); current read as ${r.convention} convention${r.illuminated ? ', illuminated' : ''}`);
+  out.push(`temperature ${num(r.temperature.value)} K${r.temperature.assumed ? ' (assumed)' : ''}`);
+  const params = Object.entries(r.parameters);
+  out.push('parameters:');
+  const w = Math.max(...params.map(([k]) => k.length));
+  for (const [k, p] of params) out.push(`  ${pad(k, w)}  ${num(p.value, 6)} ± ${num(p.stdErr, 2)} ${p.unit}`);
+  if (r.rmse !== null) out.push(`rmse:       ${num(r.rmse, 5)} A (true current)${r.rmseImplicit !== undefined ? `; implicit-residual RMSE ${num(r.rmseImplicit, 5)} A` : ''}${r.objective === 'implicit' ? ' — fitted on the implicit residual' : ''}`);
+  for (const n of r.notes) out.push(`note:       ${n}`);
+  for (const x of r.warnings) out.push(`warning:    ${x}`);
+  return out.join('\n');
+}
+
+export function formatSolar(r: SolarReport): string {
+  const f = r.figures;
+  const out: string[] = [];
+  out.push(`solar figures of merit (${r.points.used} points, current read as ${r.convention} convention; G = ${r.irradiance} W/m²)`);
+  out.push(`  isc         ${num(f.isc.value, 6)} A`);
+  out.push(`  voc         ${num(f.voc.value, 6)} V`);
+  out.push(`  pmax        ${num(f.pmax.value, 6)} W   at vmp ${num(f.vmp.value, 5)} V, imp ${num(f.imp.value, 5)} A`);
+  out.push(`  fillFactor  ${num(f.fillFactor.value, 5)}`);
+  out.push(`  efficiency  ${f.efficiency ? `${num(f.efficiency.value * 100, 4)} % (area ${num(r.area as number)} m²)` : 'needs --area'}`);
+  for (const x of r.warnings) out.push(`warning:    ${x}`);
+  out.push('note:       STC is 1000 W/m², 25 °C cell, AM1.5G spectrum (IEC 60904-3; measurement per IEC 60904-1): state yours if they differ.');
   return out.join('\n');
 }

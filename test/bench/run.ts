@@ -1,6 +1,7 @@
 /** `npm run bench`: prints each benchmark's figures. Not a test: nothing here passes or fails. */
 import { cpus } from 'node:os';
 import { benchAnalysis } from './analysis.js';
+import { benchDiode } from './diode.js';
 import { benchProtocols } from './protocols.js';
 import { benchDaemon } from './daemon.js';
 import { benchPage } from './page.js';
@@ -8,6 +9,7 @@ import { benchPage } from './page.js';
 process.stdout.write(`plumbline benchmarks — Node ${process.version}, ${cpus()[0]?.model ?? 'unknown CPU'}, single thread\n\n`);
 process.stdout.write('analysis core\n');
 benchAnalysis();
+benchDiode();
 process.stdout.write('\nprotocols and simulated instrument\n');
 await benchProtocols();
 process.stdout.write('\ndaemon: live chain, journal, abort, websocket\n');

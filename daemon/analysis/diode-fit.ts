@@ -1,0 +1,408 @@
+/**
+ * Diode and solar-cell analysis of one I–V curve: points in the chosen sign convention, compliance
+ * and non-finite readings excluded, starting values from the curve itself (short-circuit current,
+ * shunt slope, open-circuit voltage, semilog slope, Cheung–Cheung series resistance), then the
+ * single-diode fit and — seeded from it — the double-diode fit; Cheung–Cheung on its own; solar
+ * figures of merit. All currents in A, voltages in V, resistances in Ω, temperatures in K.
+ */
+import { REASONS, describeReasons, type IVData } from './analyze.js';
+import { RICHARDSON_FREE_A_PER_M2_K2, thermalVoltage } from './constants.js';
+import { fitDiodeModel, diodeCurrent, type DiodeModel, type DiodeStart, type FittedParameter } from './diode-models.js';
+import { AnalysisError } from './errors.js';
+import { fitLine } from './line-fit.js';
+
+export type Convention = 'load' | 'generator';
+
+export interface DiodeRequest {
+  readonly temperature?: number;
+  readonly illuminated?: boolean;
+  /** How the file's current is signed: 'load' (SMU: current into the device positive, default) or 'generator'. */
+  readonly convention?: Convention;
+  readonly complianceLimit?: number;
+  /** Device area, m² (Cheung barrier height, solar efficiency). */
+  readonly area?: number;
+  /** Effective Richardson constant A**, A m⁻² K⁻² (Cheung barrier height). */
+  readonly richardson?: number;
+  /** Fit objective (see DiodeFitOptions): 'current' (default) or 'implicit'. */
+  readonly objective?: 'current' | 'implicit';
+}
+
+export interface DiodeReport {
+  readonly model: string;
+  readonly title: string;
+  readonly parameters: Record<string, FittedParameter>;
+  /** True-current RMSE, A (model current at each measured V against the measured current). */
+  readonly rmse: number | null;
+  /** Implicit-residual RMSE at the same parameters, A (the figure much of the literature quotes). */
+  readonly rmseImplicit?: number;
+  readonly objective?: 'current' | 'implicit';
+  readonly rmseDefinition: string;
+  readonly points: { used: number; excluded: number; reasons: Record<string, number> };
+  readonly temperature: { value: number; assumed: boolean };
+  readonly convention: Convention;
+  readonly illuminated: boolean;
+  readonly warnings: string[];
+  readonly notes: string[];
+}
+
+interface Points {
+  v: number[];
+  /** Current in the generator convention. */
+  i: number[];
+  reasons: Record<string, number>;
+}
+
+function points(data: IVData, req: DiodeRequest): Points {
+  const reasons: Record<string, number> = {};
+  const count = (r: string) => (reasons[r] = (reasons[r] ?? 0) + 1);
+  const sign = (req.convention ?? 'load') === 'load' ? -1 : 1;
+  const idx: number[] = [];
+  for (let k = 0; k < data.x.length; k++) {
+    const v = data.x[k];
+    const i = data.y[k];
+    if (!Number.isFinite(v) || !Number.isFinite(i)) {
+      count(REASONS.notFinite);
+      continue;
+    }
+    if ((data.compliance && data.compliance[k]) || (req.complianceLimit !== undefined && Math.abs(i) >= 0.99 * req.complianceLimit)) {
+      count(REASONS.compliance);
+      continue;
+    }
+    idx.push(k);
+  }
+  idx.sort((a, b) => data.x[a] - data.x[b]);
+  return { v: idx.map((k) => data.x[k]), i: idx.map((k) => sign * data.y[k]), reasons };
+}
+
+/** Linear interpolation of y at x = x0 over (xs, ys) sorted by x; undefined outside the range. */
+function interpolateAt(xs: number[], ys: number[], x0: number): number | undefined {
+  for (let k = 0; k + 1 < xs.length; k++) {
+    if ((xs[k] - x0) * (xs[k + 1] - x0) <= 0 && xs[k + 1] !== xs[k]) return ys[k] + ((ys[k + 1] - ys[k]) * (x0 - xs[k])) / (xs[k + 1] - xs[k]);
+  }
+  return undefined;
+}
+
+/** First voltage where the current (generator convention) crosses zero going up in V. */
+function crossing(v: number[], i: number[]): number | undefined {
+  for (let k = 0; k + 1 < v.length; k++) {
+    if (i[k] > 0 && i[k + 1] <= 0) return v[k] + ((v[k + 1] - v[k]) * i[k]) / (i[k] - i[k + 1]);
+  }
+  return undefined;
+}
+
+/** Starting values for an illuminated cell (generator convention). */
+function illuminatedStart(p: Points, vt: number): DiodeStart {
+  const { v, i } = p;
+  const isc = interpolateAt(v, i, 0) ?? Math.max(...i);
+  const voc = crossing(v, i) ?? v[v.length - 1];
+  // Shunt: slope of the flat part (V below half of V_oc).
+  const flat = v.map((x, k) => k).filter((k) => v[k] < 0.5 * voc);
+  let rsh = 1e4 * (voc / Math.max(isc, 1e-30));
+  if (flat.length >= 3) {
+    const f = fitLine(flat.map((k) => v[k]), flat.map((k) => i[k]));
+    if (f.slope < 0) rsh = -1 / f.slope;
+  }
+  // Series: the slope at V_oc is −1/(R_s + n·V_t/I_sc) approximately.
+  let rs = 1e-3;
+  for (let k = 0; k + 1 < v.length; k++) {
+    if (i[k] > 0 && i[k + 1] <= 0) {
+      const dvdi = -(v[k + 1] - v[k]) / (i[k + 1] - i[k]);
+      rs = Math.max(1e-4 * dvdi, dvdi - 1.5 * vt / Math.max(isc, 1e-30));
+    }
+  }
+  // Ideality and saturation current from the semilog of the diode current near V_oc.
+  const xs: number[] = [];
+  const ys: number[] = [];
+  for (let k = 0; k < v.length; k++) {
+    const id = isc - i[k] - (v[k] + i[k] * rs) / rsh;
+    if (v[k] > 0.6 * voc && v[k] < voc * 1.02 && id > 0) {
+      xs.push(v[k] + i[k] * rs);
+      ys.push(Math.log(id));
+    }
+  }
+  let n = 1.5;
+  let i0 = isc / Math.exp(voc / (n * vt));
+  if (xs.length >= 3) {
+    const f = fitLine(xs, ys);
+    if (f.slope > 0) {
+      n = Math.min(5, Math.max(0.8, 1 / (f.slope * vt)));
+      i0 = Math.exp(f.intercept);
+    }
+  }
+  return { photocurrent: isc, diodes: [{ i0, n }], seriesResistance: rs, shuntResistance: rsh };
+}
+
+/** Starting values for a dark curve (generator convention: forward current negative). */
+function darkStart(p: Points, vt: number): DiodeStart {
+  const fwd = p.v.map((_, k) => k).filter((k) => p.v[k] > 3 * vt && p.i[k] < 0);
+  if (fwd.length < 3) throw new AnalysisError('TOO_FEW_POINTS', 'a dark diode fit needs forward-bias points (V > 3kT/q with forward current); is the sign convention right? (--convention)');
+  // Semilog slope over the lower part of the forward current (before R_s bends it).
+  const lnI = fwd.map((k) => Math.log(-p.i[k]));
+  const lo = Math.min(...lnI);
+  const hi = Math.max(...lnI);
+  const sel = fwd.filter((_, j) => lnI[j] <= lo + 0.6 * (hi - lo));
+  const use = sel.length >= 3 ? sel : fwd;
+  const f = fitLine(use.map((k) => p.v[k]), use.map((k) => Math.log(-p.i[k])));
+  const n = f.slope > 0 ? Math.min(5, Math.max(0.8, 1 / (f.slope * vt))) : 1.5;
+  const i0 = Math.exp(f.intercept);
+  // Series resistance: voltage in excess of the ideal diode at the highest currents.
+  let rs = 1e-3;
+  const top = fwd[fwd.length - 1];
+  const itop = -p.i[top];
+  const excess = p.v[top] - n * vt * Math.log(itop / i0 + 1);
+  if (excess > 0) rs = excess / itop;
+  // Shunt: slope near zero bias, or in reverse.
+  const low = p.v.map((_, k) => k).filter((k) => Math.abs(p.v[k]) < 2 * vt || p.v[k] < 0);
+  let rsh = 1e12;
+  if (low.length >= 2) {
+    const g = fitLine(low.map((k) => p.v[k]), low.map((k) => -p.i[k]));
+    if (g.slope > 0) rsh = Math.max(1 / g.slope, 1);
+  }
+  return { photocurrent: 0, diodes: [{ i0, n }], seriesResistance: Math.max(rs, 1e-6), shuntResistance: rsh };
+}
+
+const TITLES: Record<DiodeModel, string> = {
+  'single-diode': 'single-diode model (I_ph, I₀, n, R_s, R_sh), Lambert-W explicit',
+  'double-diode': 'double-diode model (I_ph, I₀₁, n₁, I₀₂, n₂, R_s, R_sh)',
+};
+
+export function fitDiode(data: IVData, model: DiodeModel, req: DiodeRequest = {}): DiodeReport {
+  const temperature = req.temperature ?? 300;
+  const illuminated = req.illuminated ?? false;
+  const vt = thermalVoltage(temperature);
+  const p = points(data, req);
+  const excluded = Object.values(p.reasons).reduce((a, b) => a + b, 0);
+  if (p.v.length < 6) throw new AnalysisError('TOO_FEW_POINTS', `${p.v.length} usable points; excluded: ${describeReasons(p.reasons)}`);
+  const start = illuminated ? illuminatedStart(p, vt) : darkStart(p, vt);
+  // Dark curves span decades: fit relative residuals so the low-current points count; illuminated
+  // curves are fitted on absolute current (the RMSE users compare).
+  const maxI = Math.max(...p.i.map(Math.abs));
+  const w = illuminated ? p.i.map(() => 1) : p.i.map((x) => 1 / (Math.abs(x) + Math.max(1e-15, 1e-9 * maxI)));
+  const objective = req.objective ?? 'current';
+  const sdm = fitDiodeModel(p.v, p.i, w, { model: 'single-diode', temperature, illuminated, objective }, [start]);
+  let fit = sdm;
+  if (model === 'double-diode') {
+    const s = sdm.circuit;
+    const d = s.diodes[0];
+    const base = { photocurrent: s.photocurrent, seriesResistance: s.seriesResistance, shuntResistance: s.shuntResistance };
+    // Several starts (common practice for this ill-conditioned model): splits of the single-diode
+    // current, and diffusion + recombination diodes (n ≈ 1 and 2). The first start is run to
+    // convergence; the others only when it ends on a bound or no better than one diode.
+    const starts: DiodeStart[] = [
+      { ...base, diodes: [{ i0: d.i0 * 0.5, n: d.n }, { i0: d.i0 * 0.5, n: Math.min(d.n * 1.5, 4) }] },
+      { ...base, diodes: [{ i0: d.i0 * 0.9, n: d.n }, { i0: d.i0 * 0.1, n: 2 }] },
+      { ...base, diodes: [{ i0: d.i0 * Math.exp(-Math.max(0, d.n - 1) * 10), n: 1 }, { i0: d.i0, n: 2 }] },
+      { ...base, diodes: [{ i0: d.i0, n: d.n }, { i0: d.i0 * 1e-6, n: 2 }] },
+    ];
+    // Ideality factors bounded to [1, 2] (diffusion and recombination; common practice for this
+    // ill-conditioned model) unless the one-diode n already lies outside.
+    const idealityBounds: [number, number] = [Math.min(1, d.n), Math.max(2, d.n)];
+    const opts = { model: 'double-diode' as const, temperature, illuminated, objective, idealityBounds };
+    const score = (f: typeof sdm) => (objective === 'implicit' ? f.rmseImplicit : f.rmse);
+    let bestFit: typeof sdm | undefined;
+    for (const st of starts) {
+      let f: typeof sdm;
+      try {
+        f = fitDiodeModel(p.v, p.i, w, opts, [st]);
+      } catch (e) {
+        if (e instanceof AnalysisError) continue;
+        throw e;
+      }
+      if (!bestFit || score(f) < score(bestFit)) bestFit = f;
+      const good = bestFit.converged && bestFit.atBound.length === 0 && score(bestFit) < score(sdm) * (1 - 1e-6);
+      if (good) break;
+    }
+    if (!bestFit) throw new AnalysisError('BAD_INPUT', 'the double-diode model could not be fitted from any start');
+    fit = bestFit;
+  }
+  const warnings: string[] = [];
+  if (req.temperature === undefined) warnings.push('temperature not given: 300 K assumed; the ideality factors are valid only with the temperature used (only n·T is measured)');
+  if (!fit.converged) warnings.push('the fit did not converge to the tolerances; treat the parameters with care');
+  for (const b of fit.atBound) warnings.push(`${b} ended on its bound: the data do not determine it`);
+  for (const [k, v] of Object.entries(fit.parameters)) {
+    if (!Number.isFinite(v.stdErr)) warnings.push(`${k}: no standard error (the parameters are not independently determined)`);
+    else if (v.stdErr > Math.abs(v.value)) warnings.push(`${k}: standard error larger than the value`);
+  }
+  const notes = [`ideality factors at T = ${temperature} K (kT/q = ${(vt * 1000).toFixed(4)} mV)`];
+  return {
+    model,
+    title: TITLES[model],
+    parameters: fit.parameters,
+    rmse: fit.rmse,
+    rmseImplicit: fit.rmseImplicit,
+    objective,
+    rmseDefinition: 'rmse: true-current RMSE √(mean (I_model(V) − I_measured)²) over the used points, A; rmseImplicit: √(mean f(V, I_measured)²) of the model equation at the same parameters, A',
+    points: { used: p.v.length, excluded, reasons: p.reasons },
+    temperature: { value: temperature, assumed: req.temperature === undefined },
+    convention: req.convention ?? 'load',
+    illuminated,
+    warnings,
+    notes,
+  };
+}
+
+/**
+ * Cheung–Cheung series resistance (Cheung & Cheung 1986; ../shared/physics.md §6): in the bend-over
+ * region V = I·R_s + n(kT/q)·ln(I/(A·A**·T²)) + n·φ_B, so
+ *   dV/d(ln I) = I·R_s + n·kT/q       (slope R_s, intercept n·kT/q),
+ *   H(I) = V − n(kT/q)·ln(I/(A·A**·T²)) = I·R_s + n·φ_B   (slope R_s, intercept n·φ_B).
+ * The derivative is the slope of a local straight line through five neighbours (smoothing).
+ */
+export function cheung(data: IVData, req: DiodeRequest = {}): DiodeReport {
+  const temperature = req.temperature ?? 300;
+  const vt = thermalVoltage(temperature);
+  const p = points(data, req);
+  // Forward points, current as a positive number, sorted by V.
+  const idx = p.v.map((_, k) => k).filter((k) => p.v[k] > 3 * vt && -p.i[k] > 0);
+  const v = idx.map((k) => p.v[k]);
+  const cur = idx.map((k) => -p.i[k]);
+  const excluded = Object.values(p.reasons).reduce((a, b) => a + b, 0) + (p.v.length - idx.length);
+  if (v.length < 8) throw new AnalysisError('TOO_FEW_POINTS', `Cheung–Cheung needs at least 8 forward-bias points above 3kT/q; ${v.length} usable (is the sign convention right? --convention)`);
+  // Bend-over region: the upper half of the forward current range (in decades).
+  const ln = cur.map(Math.log);
+  const lnMin = Math.min(...ln);
+  const lnMax = Math.max(...ln);
+  const xs: number[] = [];
+  const d1: number[] = [];
+  const vs: number[] = [];
+  const half = 2;
+  for (let k = half; k < v.length - half; k++) {
+    if (ln[k] < lnMin + 0.5 * (lnMax - lnMin)) continue;
+    const f = fitLine(ln.slice(k - half, k + half + 1), v.slice(k - half, k + half + 1));
+    xs.push(cur[k]);
+    d1.push(f.slope);
+    vs.push(v[k]);
+  }
+  if (xs.length < 3) throw new AnalysisError('TOO_FEW_POINTS', 'too few points in the bend-over region for the Cheung–Cheung functions');
+  const f1 = fitLine(xs, d1);
+  const n = f1.intercept / vt;
+  const nSe = f1.interceptStdErr / vt;
+  const parameters: Record<string, FittedParameter> = {
+    seriesResistance: { value: f1.slope, stdErr: f1.slopeStdErr, unit: 'Ω' },
+    idealityFactor: { value: n, stdErr: nSe, unit: '' },
+  };
+  const warnings: string[] = [];
+  const notes: string[] = [`function 1 (dV/d ln I against I) on ${xs.length} points from ${Math.min(...xs).toExponential(2)} to ${Math.max(...xs).toExponential(2)} A`];
+  if (req.temperature === undefined) warnings.push('temperature not given: 300 K assumed; n is valid only with the temperature used');
+  if (req.area !== undefined) {
+    const aStar = req.richardson ?? RICHARDSON_FREE_A_PER_M2_K2;
+    const h = xs.map((x, k) => vs[k] - n * vt * Math.log(x / (req.area as number * aStar * temperature * temperature)));
+    const f2 = fitLine(xs, h);
+    const phi = f2.intercept / n;
+    const phiSe = Math.abs(phi) * Math.hypot(f2.interceptStdErr / f2.intercept, nSe / n);
+    parameters.barrierHeight = { value: phi, stdErr: phiSe, unit: 'eV' };
+    parameters.seriesResistanceH = { value: f2.slope, stdErr: f2.slopeStdErr, unit: 'Ω' };
+    notes.push(`function 2 (H(I) against I) gives R_s = ${f2.slope.toPrecision(4)} Ω as a consistency check; A** = ${aStar} A m⁻² K⁻²${req.richardson === undefined ? ' (free-electron value assumed)' : ''}`);
+    if (Math.abs(f2.slope - f1.slope) > 0.2 * Math.abs(f1.slope)) warnings.push('the two Cheung functions disagree on R_s by more than 20 %: the bend-over region may hold another effect');
+  } else warnings.push('barrier height needs the device area (--area) and A** (--richardson)');
+  if (f1.slope <= 0) warnings.push('negative series resistance: the curve shows no series-resistance bend in the region used');
+  return {
+    model: 'cheung',
+    title: 'Cheung–Cheung functions (dV/d ln I and H(I) against I)',
+    parameters,
+    rmse: null,
+    rmseDefinition: 'not applicable (straight-line fits; see the parameters\' standard errors)',
+    points: { used: xs.length, excluded: Math.max(0, excluded + (v.length - xs.length)), reasons: p.reasons },
+    temperature: { value: temperature, assumed: req.temperature === undefined },
+    convention: req.convention ?? 'load',
+    illuminated: false,
+    warnings,
+    notes,
+  };
+}
+
+export interface SolarFigures {
+  /** Short-circuit current, A (generator convention). */
+  readonly isc: FittedParameter;
+  readonly voc: FittedParameter;
+  readonly pmax: FittedParameter;
+  readonly vmp: FittedParameter;
+  readonly imp: FittedParameter;
+  readonly fillFactor: FittedParameter;
+  readonly efficiency: FittedParameter | null;
+}
+
+export interface SolarReport {
+  readonly figures: SolarFigures;
+  readonly irradiance: number;
+  readonly area: number | null;
+  readonly points: { used: number; excluded: number; reasons: Record<string, number> };
+  readonly convention: Convention;
+  readonly warnings: string[];
+}
+
+/**
+ * Solar figures of merit from the measured curve: I_sc and V_oc by linear interpolation, P_max at
+ * the vertex of the parabola through the three points around the largest measured V·I, FF, and
+ * η = P_max/(G·A) (G default 1000 W/m², the standard test condition of IEC 60904-3 / IEC 60904-1).
+ * Uncertainties are not propagated here (stdErr 0): they come from the fitted model instead.
+ */
+export function solarFigures(data: IVData, req: DiodeRequest & { irradiance?: number } = {}): SolarReport {
+  const p = points(data, req);
+  const { v, i } = p;
+  const warnings: string[] = [];
+  if (v.length < 3) throw new AnalysisError('TOO_FEW_POINTS', `${v.length} usable points`);
+  const isc = interpolateAt(v, i, 0);
+  const voc = crossing(v, i);
+  if (isc === undefined) throw new AnalysisError('BAD_INPUT', 'the curve does not span V = 0: no short-circuit current');
+  if (voc === undefined) throw new AnalysisError('BAD_INPUT', `the current never crosses zero: no open-circuit voltage (is the cell illuminated, and the convention right? the file was read as ${req.convention ?? 'load'} convention)`);
+  if (isc <= 0) warnings.push('the short-circuit current is not positive in the generator convention: check --convention');
+  let kBest = -1;
+  let pBest = -Infinity;
+  for (let k = 0; k < v.length; k++) {
+    const pw = v[k] * i[k];
+    if (v[k] >= 0 && i[k] >= 0 && pw > pBest) {
+      pBest = pw;
+      kBest = k;
+    }
+  }
+  if (kBest < 0) throw new AnalysisError('BAD_INPUT', 'no point delivers power (V ≥ 0 and I ≥ 0 in the generator convention)');
+  let vmp = v[kBest];
+  let pmax = pBest;
+  if (kBest > 0 && kBest < v.length - 1) {
+    // Vertex of the parabola through the three points around the maximum of P(V).
+    const [x0, x1, x2] = [v[kBest - 1], v[kBest], v[kBest + 1]];
+    const [y0, y1, y2] = [x0 * i[kBest - 1], pBest, x2 * i[kBest + 1]];
+    const den = (x0 - x1) * (x0 - x2) * (x1 - x2);
+    const a = (x2 * (y1 - y0) + x1 * (y0 - y2) + x0 * (y2 - y1)) / den;
+    const b = (x2 * x2 * (y0 - y1) + x1 * x1 * (y2 - y0) + x0 * x0 * (y1 - y2)) / den;
+    const c = (x1 * x2 * (x1 - x2) * y0 + x2 * x0 * (x2 - x0) * y1 + x0 * x1 * (x0 - x1) * y2) / den;
+    if (a < 0) {
+      const xv = -b / (2 * a);
+      if (xv > x0 && xv < x2) {
+        vmp = xv;
+        pmax = c - (b * b) / (4 * a);
+      }
+    }
+  }
+  const imp = pmax / vmp;
+  const g = req.irradiance ?? 1000;
+  const f = (value: number, unit: string): FittedParameter => ({ value, stdErr: 0, unit });
+  return {
+    figures: {
+      isc: f(isc, 'A'),
+      voc: f(voc, 'V'),
+      pmax: f(pmax, 'W'),
+      vmp: f(vmp, 'V'),
+      imp: f(imp, 'A'),
+      fillFactor: f(pmax / (isc * voc), ''),
+      efficiency: req.area !== undefined ? f(pmax / (g * req.area), '') : null,
+    },
+    irradiance: g,
+    area: req.area ?? null,
+    points: { used: v.length, excluded: Object.values(p.reasons).reduce((a, b) => a + b, 0), reasons: p.reasons },
+    convention: req.convention ?? 'load',
+    warnings: req.area === undefined ? [...warnings, 'efficiency needs the cell area (--area)'] : warnings,
+  };
+}
+
+/** Model current (generator convention) of a fitted report at each v, for plots and checks. */
+export function modelCurve(report: DiodeReport, v: number[]): number[] {
+  const P = report.parameters;
+  const vt = thermalVoltage(report.temperature.value);
+  const diodes = report.model === 'single-diode'
+    ? [{ i0: P.saturationCurrent.value, n: P.idealityFactor.value }]
+    : [{ i0: P.saturationCurrent1.value, n: P.idealityFactor1.value }, { i0: P.saturationCurrent2.value, n: P.idealityFactor2.value }];
+  const c = { photocurrent: P.photocurrent?.value ?? 0, diodes, seriesResistance: P.seriesResistance.value, shuntResistance: P.shuntResistance.value, vt };
+  return v.map((x) => diodeCurrent(x, c));
+}

@@ -1,0 +1,365 @@
+/**
+ * Single- and double-diode models of diodes and solar cells with series and shunt resistance, in
+ * the generator convention (current delivered positive; ../shared/physics.md §7):
+ *   I = I_ph − Σₖ I₀ₖ·(exp((V + I·R_s)/(nₖ·V_t)) − 1) − (V + I·R_s)/R_sh.
+ * The single-diode current is explicit through the Lambert W function (Jain & Kapoor 2004), in the
+ * log form that does not overflow; the double-diode current is solved by damped Newton. Fits are
+ * Levenberg–Marquardt on the true current (model current at the measured V minus the measured
+ * current), with the Jacobian from implicit differentiation of the model equation:
+ *   ∂I/∂p = −(∂f/∂p)/(∂f/∂I).
+ * Only n·T is identifiable from one curve: the ideality factors belong to the temperature given.
+ */
+import { thermalVoltage } from './constants.js';
+import { AnalysisError } from './errors.js';
+import { lambertWExp } from './lambert-w.js';
+import { levenbergMarquardt } from './levenberg-marquardt.js';
+
+export interface DiodeCircuit {
+  readonly photocurrent: number;
+  /** One or two diodes: saturation current (A) and ideality factor. */
+  readonly diodes: readonly { readonly i0: number; readonly n: number }[];
+  readonly seriesResistance: number;
+  readonly shuntResistance: number;
+  /** Thermal voltage kT/q at the cell temperature, V. */
+  readonly vt: number;
+}
+
+const EXP_CAP = 700;
+
+/** Single-diode current at v, explicit via Lambert W (generator convention). */
+export function singleDiodeExplicit(v: number, c: DiodeCircuit): number {
+  const { i0, n } = c.diodes[0];
+  const iph = c.photocurrent;
+  const rs = c.seriesResistance;
+  const rsh = c.shuntResistance;
+  const nvt = n * c.vt;
+  if (rs <= 0) {
+    return iph - i0 * (Math.exp(Math.min(v / nvt, EXP_CAP)) - 1) - v / rsh;
+  }
+  const lnTheta = Math.log((rs * rsh * i0) / (nvt * (rs + rsh))) + (rsh * (rs * iph + rs * i0 + v)) / (nvt * (rs + rsh));
+  return (rsh * (iph + i0) - v) / (rs + rsh) - (nvt / rs) * lambertWExp(lnTheta);
+}
+
+/** f(I) of the model equation and ∂f/∂I at current i, written to `out` (no allocation); ex gets each diode's exponential. */
+function residualAt(v: number, i: number, c: DiodeCircuit, ex: Float64Array, out: { f: number; df: number }): void {
+  const rs = c.seriesResistance;
+  const u = v + i * rs;
+  let f = c.photocurrent - u / c.shuntResistance - i;
+  let df = -rs / c.shuntResistance - 1;
+  const ds = c.diodes;
+  for (let k = 0; k < ds.length; k++) {
+    const d = ds[k];
+    const a = u / (d.n * c.vt);
+    const e = Math.exp(a < EXP_CAP ? a : EXP_CAP);
+    ex[k] = e;
+    f -= d.i0 * (e - 1);
+    df -= (d.i0 * e * rs) / (d.n * c.vt);
+  }
+  out.f = f;
+  out.df = df;
+}
+
+const scratchEx = new Float64Array(4);
+const scratchF = { f: 0, df: 0 };
+
+/** Model current at v by damped Newton from `guess` (any number of diodes). */
+export function diodeCurrentNewton(v: number, c: DiodeCircuit, guess = c.photocurrent): number {
+  let i = guess;
+  let nMin = Infinity;
+  for (const d of c.diodes) nMin = Math.min(nMin, d.n);
+  const limit = 2 * nMin * c.vt;
+  const rs = c.seriesResistance;
+  for (let k = 0; k < 100; k++) {
+    residualAt(v, i, c, scratchEx, scratchF);
+    let step = scratchF.f / scratchF.df;
+    // Keep each step within a couple of n·V_t of junction voltage: the exponential's knee.
+    if (rs > 0 && Math.abs(step * rs) > limit) step = (Math.sign(step) * limit) / rs;
+    i -= step;
+    if (Math.abs(step) <= 1e-16 + 1e-12 * Math.abs(i)) break;
+  }
+  return i;
+}
+
+/** Model current at v: explicit for one diode, Newton for two. */
+export function diodeCurrent(v: number, c: DiodeCircuit, guess?: number): number {
+  if (c.diodes.length === 1) {
+    const i = singleDiodeExplicit(v, c);
+    if (Number.isFinite(i)) return i;
+  }
+  return diodeCurrentNewton(v, c, guess ?? c.photocurrent);
+}
+
+// ---- fitting --------------------------------------------------------------------------------
+
+export type DiodeModel = 'single-diode' | 'double-diode';
+
+export interface DiodeFitOptions {
+  readonly model: DiodeModel;
+  /** Cell or junction temperature, K (the ideality factors are tied to it). */
+  readonly temperature: number;
+  /** Fit a photocurrent (illuminated curve); otherwise I_ph = 0 (dark curve). */
+  readonly illuminated: boolean;
+  /**
+   * 'current' (default): minimise the true-current residuals I_model(V) − I_measured.
+   * 'implicit': minimise the model equation's residual f(V, I_measured) — the objective much of the
+   * solar-cell literature uses; offered to reproduce published fits.
+   */
+  readonly objective?: 'current' | 'implicit';
+  /** Bounds on the ideality factors (default [0.3, 10]; [1, 2] is common for two-diode fits). */
+  readonly idealityBounds?: readonly [number, number];
+}
+
+export interface FittedParameter {
+  readonly value: number;
+  readonly stdErr: number;
+  readonly unit: string;
+}
+
+export interface DiodeFit {
+  readonly parameters: Record<string, FittedParameter>;
+  /** √(mean (I_model(V) − I_measured)²), A: the true-current RMSE. */
+  readonly rmse: number;
+  /** √(mean f(V, I_measured)²), A: the implicit-residual RMSE at the same parameters. */
+  readonly rmseImplicit: number;
+  readonly iterations: number;
+  readonly converged: boolean;
+  readonly atBound: string[];
+  readonly circuit: DiodeCircuit;
+}
+
+interface Layout {
+  names: string[];
+  units: string[];
+  /** Which entries are fitted as logarithms (positivity). */
+  log: boolean[];
+}
+
+function layout(model: DiodeModel, illuminated: boolean): Layout {
+  const names: string[] = [];
+  const units: string[] = [];
+  const log: boolean[] = [];
+  const add = (n: string, u: string, l: boolean) => {
+    names.push(n);
+    units.push(u);
+    log.push(l);
+  };
+  if (illuminated) add('photocurrent', 'A', false);
+  if (model === 'single-diode') {
+    add('saturationCurrent', 'A', true);
+    add('idealityFactor', '', false);
+  } else {
+    add('saturationCurrent1', 'A', true);
+    add('idealityFactor1', '', false);
+    add('saturationCurrent2', 'A', true);
+    add('idealityFactor2', '', false);
+  }
+  add('seriesResistance', 'Ω', true);
+  add('shuntResistance', 'Ω', true);
+  return { names, units, log };
+}
+
+/**
+ * Parameter vector → circuit. A diode's saturation current is carried as a = ln I₀ + V_ref/(n·V_t),
+ * the log of its current at a reference bias: I₀ and n are strongly correlated (ln I₀ moves by
+ * −V/(nV_t) when n moves), and this pair is nearly independent, so LM converges in far fewer steps.
+ */
+function circuitFrom(q: ArrayLike<number>, lay: Layout, vt: number, illuminated: boolean, vrefs: readonly number[]): DiodeCircuit {
+  const val = (k: number) => (lay.log[k] ? Math.exp(q[k]) : q[k]);
+  let k = 0;
+  const iph = illuminated ? val(k++) : 0;
+  const diodes: { i0: number; n: number }[] = [];
+  const nd = lay.names.length - (illuminated ? 1 : 0) - 2;
+  for (let d = 0; d < nd / 2; d++) {
+    const a = q[k++];
+    const n = q[k++];
+    diodes.push({ i0: Math.exp(a - vrefs[d] / (n * vt)), n });
+  }
+  const rs = val(k++);
+  const rsh = val(k++);
+  return { photocurrent: iph, diodes, seriesResistance: rs, shuntResistance: rsh, vt };
+}
+
+export interface DiodeStart {
+  readonly photocurrent: number;
+  readonly diodes: readonly { i0: number; n: number }[];
+  readonly seriesResistance: number;
+  readonly shuntResistance: number;
+}
+
+/**
+ * Fits the model to points (v, i) in the generator convention, with weights w (residual scale:
+ * 1 for absolute current residuals, 1/|I| for relative ones), from one or more starting points;
+ * the best (smallest weighted SSE) wins.
+ */
+export function fitDiodeModel(
+  v: ArrayLike<number>,
+  i: ArrayLike<number>,
+  w: ArrayLike<number>,
+  options: DiodeFitOptions,
+  starts: readonly DiodeStart[],
+): DiodeFit {
+  const n = v.length;
+  const lay = layout(options.model, options.illuminated);
+  const m = lay.names.length;
+  if (n < m + 1) throw new AnalysisError('TOO_FEW_POINTS', `${n} usable points cannot determine the ${m} parameters of the ${options.model} model`);
+  const vt = thermalVoltage(options.temperature);
+  let vmax = 0;
+  for (let k = 0; k < n; k++) vmax = Math.max(vmax, v[k]);
+  // Reference biases: high for the first diode, lower for the second (recombination) one.
+  const vrefs = [0.9 * vmax, 0.9 * vmax];
+  const lastI = Float64Array.from(i);
+  const ex = new Float64Array(2);
+  const fd = { f: 0, df: 0 };
+  const modelI = new Float64Array(n);
+  // The Jacobian is always asked for at the point whose residuals were just computed: remember it.
+  const lastQ = new Float64Array(m).fill(Number.NaN);
+  let lastC: DiodeCircuit | undefined;
+  const evaluate = (q: ArrayLike<number>) => {
+    let same = lastC !== undefined;
+    for (let k = 0; k < m && same; k++) if (q[k] !== lastQ[k]) same = false;
+    if (same) return lastC as DiodeCircuit;
+    const c = circuitFrom(q, lay, vt, options.illuminated, vrefs);
+    for (let k = 0; k < m; k++) lastQ[k] = q[k];
+    lastC = c;
+    for (let k = 0; k < n; k++) {
+      const x = diodeCurrent(v[k], c, lastI[k]);
+      modelI[k] = x;
+      if (Number.isFinite(x)) lastI[k] = x;
+    }
+    return c;
+  };
+  const nBounds = options.idealityBounds ?? [0.3, 10];
+  const implicit = options.objective === 'implicit';
+  const lower: number[] = [];
+  const upper: number[] = [];
+  lay.names.forEach((name, k) => {
+    if (name.startsWith('idealityFactor')) {
+      lower.push(nBounds[0]);
+      upper.push(nBounds[1]);
+    } else if (name === 'photocurrent') {
+      lower.push(-Infinity);
+      upper.push(Infinity);
+    } else if (name.startsWith('saturation')) {
+      lower.push(-Infinity);
+      upper.push(Infinity);
+    } else if (lay.log[k]) {
+      lower.push(Math.log(name === 'seriesResistance' ? 1e-9 : 1e-6));
+      upper.push(Math.log(1e18));
+    }
+  });
+  let best: ReturnType<typeof levenbergMarquardt> | undefined;
+  // Several starts: a short run from each, then the best one is run to convergence.
+  const short = starts.length > 1 ? 60 : 300;
+  const tolerances = { xtol: 1e-8, ftol: 1e-11 };
+  const runFrom = (p0: number[], maxIterations: number): ReturnType<typeof levenbergMarquardt> | undefined => {
+    lastI.set(Array.from(i));
+    lastC = undefined;
+    try {
+      return levenbergMarquardt({
+        n,
+        p0,
+        lower,
+        upper,
+        typical: p0.map((x, k) => (lay.log[k] ? 1 : Math.max(Math.abs(x), 1e-3))),
+        residuals: (q, out) => {
+          if (implicit) {
+            const c = circuitFrom(q, lay, vt, options.illuminated, vrefs);
+            for (let k = 0; k < n; k++) {
+              residualAt(v[k], i[k], c, ex, fd);
+              out[k] = fd.f * w[k];
+            }
+            return;
+          }
+          evaluate(q);
+          for (let k = 0; k < n; k++) out[k] = (modelI[k] - i[k]) * w[k];
+        },
+        jacobian: (q, J, out) => {
+          const c = implicit ? circuitFrom(q, lay, vt, options.illuminated, vrefs) : evaluate(q);
+          void out;
+          const nd = c.diodes.length;
+          const rsh = c.shuntResistance;
+          for (let k = 0; k < n; k++) {
+            const ik = implicit ? i[k] : modelI[k];
+            // True current: ∂I/∂p = −(∂f/∂p)/(∂f/∂I). Implicit residual: ∂f/∂p itself.
+            residualAt(v[k], ik, c, ex, fd);
+            const df = implicit ? -1 : fd.df;
+            const u = v[k] + ik * c.seriesResistance;
+            const row = k * m;
+            // J = −(∂f/∂p)/(∂f/∂I)·(scale for log parameters)·weight, written column by column.
+            const sc = -w[k] / df;
+            let col = row;
+            if (options.illuminated) J[col++] = sc;
+            let dRs = -ik / rsh;
+            for (let d = 0; d < nd; d++) {
+              const dd = c.diodes[d];
+              const e = ex[d];
+              const dA = -(e - 1) * dd.i0; // ∂f/∂a = ∂f/∂I₀ · I₀
+              J[col++] = sc * dA;
+              // ∂f/∂n at fixed a: the explicit n dependence plus I₀'s through a.
+              J[col++] = sc * ((dd.i0 * e * u) / (dd.n * dd.n * vt) + (dA * vrefs[d]) / (dd.n * dd.n * vt));
+              dRs -= (dd.i0 * e * ik) / (dd.n * vt);
+            }
+            J[col++] = sc * dRs * c.seriesResistance;
+            J[col] = (sc * u) / rsh; // ∂f/∂R_sh · R_sh = u/R_sh
+          }
+        },
+      }, { maxIterations, ...tolerances });
+    } catch (e) {
+      if (e instanceof AnalysisError) return undefined;
+      throw e;
+    }
+  };
+  for (const s of starts) {
+    const p0: number[] = [];
+    if (options.illuminated) p0.push(s.photocurrent);
+    s.diodes.forEach((d, j) => {
+      const nn = Math.min(nBounds[1], Math.max(nBounds[0], d.n));
+      p0.push(Math.log(Math.max(d.i0, 1e-300)) + vrefs[j] / (nn * vt), nn);
+    });
+    p0.push(Math.log(Math.max(s.seriesResistance, 1e-8)), Math.log(Math.max(s.shuntResistance, 1e-5)));
+    const r = runFrom(p0, short);
+    if (r && (!best || r.sse < best.sse)) best = r;
+  }
+  if (!best) throw new AnalysisError('BAD_INPUT', `the ${options.model} model could not be evaluated at any starting point`);
+  if (!best.converged) {
+    lastC = undefined;
+    const more = runFrom(best.p, 300);
+    if (more && more.sse <= best.sse) best = { ...more, iterations: more.iterations + best.iterations };
+  }
+  lastC = undefined;
+  const c = evaluate(best.p);
+  let ss = 0;
+  let sf = 0;
+  for (let k = 0; k < n; k++) {
+    ss += (modelI[k] - i[k]) ** 2;
+    residualAt(v[k], i[k], c, ex, fd);
+    sf += fd.f ** 2;
+  }
+  const parameters: Record<string, FittedParameter> = {};
+  const cov = (a: number, b: number) => best.covariance[a * m + b];
+  lay.names.forEach((name, k) => {
+    if (name.startsWith('saturation')) {
+      // ln I₀ = a − V_ref/(n·V_t): propagate through (a, n) with their covariance.
+      const nn = best.p[k + 1];
+      const vref = vrefs[name === 'saturationCurrent2' ? 1 : 0];
+      const g = vref / (nn * nn * vt);
+      const value = Math.exp(best.p[k] - vref / (nn * vt));
+      const varLn = cov(k, k) + g * g * cov(k + 1, k + 1) + 2 * g * cov(k, k + 1);
+      parameters[name] = { value, stdErr: value * Math.sqrt(Math.max(varLn, 0)), unit: lay.units[k] };
+      return;
+    }
+    const value = lay.log[k] ? Math.exp(best.p[k]) : best.p[k];
+    // Standard error of a log parameter: δp = p·δ(ln p).
+    const se = lay.log[k] ? value * best.stdErr[k] : best.stdErr[k];
+    parameters[name] = { value, stdErr: se, unit: lay.units[k] };
+  });
+  return {
+    parameters,
+    rmse: Math.sqrt(ss / n),
+    rmseImplicit: Math.sqrt(sf / n),
+    iterations: best.iterations,
+    converged: best.converged,
+    atBound: best.atBound.map((k) => lay.names[k]),
+    circuit: c,
+  };
+}
