@@ -63,6 +63,8 @@ export function startDaemon(args: string[]): Promise<DaemonProcess> {
 
 export async function api(url: string, method: string, path: string, body?: unknown, headers: Record<string, string> = {}): Promise<{ status: number; json: any }> {
   const r = await fetch(url + path, {
+    // A request that hangs fails the test with its path instead of stalling it.
+    signal: AbortSignal.timeout(15_000),
     method,
     headers: { ...(body !== undefined ? { 'content-type': 'application/json' } : {}), ...headers },
     body: body !== undefined ? JSON.stringify(body) : undefined,

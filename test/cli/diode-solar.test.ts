@@ -1,0 +1,88 @@
+/**
+ * `plumbline fit --model single-diode|double-diode|cheung` and `plumbline solar` as a user runs them
+ * (the built command), on the R.T.C. France cell of Easwarakhanthan et al., Int. J. Solar Energy 4,
+ * 1–12 (1986) — recorded here as an SMU records it (current into the device positive) — and on the
+ * synthetic Cheung–Cheung diode of ../shared/physics.md §6. Expected values: see
+ * test/analysis/diode.test.ts (published fits, from memory; hand interpolation of the data).
+ */
+import { describe, expect, it } from 'vitest';
+import { thermalVoltage } from '../../daemon/analysis/constants.js';
+import { runCli, tempFile } from '../helpers/cli.js';
+
+const V = [-0.2057, -0.1291, -0.0588, 0.0057, 0.0646, 0.1185, 0.1678, 0.2132, 0.2545, 0.2924, 0.3269, 0.3585, 0.3873, 0.4137, 0.4373, 0.459, 0.4784, 0.496, 0.5119, 0.5265, 0.5398, 0.5521, 0.5633, 0.5736, 0.5833, 0.59];
+const I = [0.764, 0.762, 0.7605, 0.7605, 0.76, 0.759, 0.757, 0.757, 0.7555, 0.754, 0.7505, 0.7465, 0.7385, 0.728, 0.7065, 0.6755, 0.632, 0.573, 0.499, 0.413, 0.3165, 0.212, 0.1035, -0.01, -0.123, -0.21];
+// As an SMU records an illuminated cell: current into the device positive (load convention).
+const smuCsv = tempFile('rtc.csv', `V,I\n${V.map((v, k) => `${v},${-I[k]}`).join('\n')}\n`);
+const genCsv = tempFile('rtc-gen.csv', `V,I\n${V.map((v, k) => `${v},${I[k]}`).join('\n')}\n`);
+
+describe('plumbline fit with the diode models', () => {
+  it('single-diode on an illuminated SMU-convention file: parameter keys, units, rmse', () => {
+    const r = runCli(['fit', smuCsv, '--model', 'single-diode', '--illuminated', '--temperature', '33 degC', '--json']);
+    expect(r.code, r.stderr).toBe(0);
+    const j = JSON.parse(r.stdout);
+    expect(Object.keys(j.parameters)).toEqual(['photocurrent', 'saturationCurrent', 'idealityFactor', 'seriesResistance', 'shuntResistance']);
+    expect(j.parameters.seriesResistance.unit).toBe('Ω');
+    expect(j.rmse).toBeCloseTo(7.7301e-4, 8);
+    expect(j.temperature.value).toBeCloseTo(306.15, 10);
+  });
+
+  it('the same cell read with --convention generator from a generator-convention file gives the same fit', () => {
+    const a = JSON.parse(runCli(['fit', smuCsv, '--model', 'single-diode', '--illuminated', '--temperature', '306.15 K', '--json']).stdout);
+    const b = JSON.parse(runCli(['fit', genCsv, '--model', 'single-diode', '--illuminated', '--temperature', '306.15 K', '--convention', 'generator', '--json']).stdout);
+    expect(b.rmse).toBeCloseTo(a.rmse, 12);
+    expect(b.parameters.idealityFactor.value).toBeCloseTo(a.parameters.idealityFactor.value, 8);
+  });
+
+  it('double-diode with --objective implicit reproduces the published implicit-residual RMSE', () => {
+    const r = runCli(['fit', smuCsv, '--model', 'double-diode', '--illuminated', '--temperature', '33 degC', '--objective', 'implicit', '--json']);
+    expect(r.code, r.stderr).toBe(0);
+    const j = JSON.parse(r.stdout);
+    expect(Object.keys(j.parameters)).toEqual(['photocurrent', 'saturationCurrent1', 'idealityFactor1', 'saturationCurrent2', 'idealityFactor2', 'seriesResistance', 'shuntResistance']);
+    expect(j.rmseImplicit).toBeCloseTo(9.8248e-4, 7);
+  });
+
+  it('cheung: series resistance, ideality factor and barrier height', () => {
+    const T = 300;
+    const vt = thermalVoltage(T);
+    const i0 = 1e-7 * 112e4 * T * T * Math.exp(-0.7 / vt);
+    const rows: string[] = [];
+    for (let k = 0; k <= 60; k++) {
+      const cur = 1e-4 * 10 ** (k / 30);
+      rows.push(`${cur * 10 + 1.1 * vt * Math.log(cur / i0 + 1)},${cur}`);
+    }
+    const f = tempFile('schottky.csv', `V,I\n${rows.join('\n')}\n`);
+    const r = runCli(['fit', f, '--model', 'cheung', '--temperature', '300 K', '--area', '1e-3 cm^2', '--richardson', '112 A/(cm^2 K^2)', '--json']);
+    expect(r.code, r.stderr).toBe(0);
+    const j = JSON.parse(r.stdout);
+    expect(j.parameters.seriesResistance.value).toBeCloseTo(10, 1);
+    expect(j.parameters.idealityFactor.value).toBeCloseTo(1.1, 2);
+    expect(j.parameters.barrierHeight.value).toBeCloseTo(0.7, 3);
+    expect(j.parameters.barrierHeight.unit).toBe('eV');
+  });
+
+});
+
+describe('plumbline solar', () => {
+  it('figures of merit with --area and the default 1000 W/m²', () => {
+    const r = runCli(['solar', smuCsv, '--area', '25.52 cm^2', '--json']);
+    expect(r.code, r.stderr).toBe(0);
+    const j = JSON.parse(r.stdout);
+    for (const k of ['isc', 'voc', 'pmax', 'vmp', 'imp', 'fillFactor', 'efficiency']) expect(typeof j[k]).toBe('number');
+    expect(j.isc).toBeCloseTo(0.7605, 10);
+    expect(j.voc).toBeCloseTo(0.5633 + (0.0103 * 0.1035) / 0.1135, 10);
+    expect(j.efficiency).toBeCloseTo(j.pmax / (1000 * 25.52e-4), 12);
+    expect(j.irradiance).toBe(1000);
+  });
+
+  it('a generator-convention file read as the SMU convention: the error says what to check', () => {
+    const r = runCli(['solar', genCsv]);
+    expect(r.code).toBe(1);
+    expect(r.stderr).toMatch(/convention/);
+  });
+
+  it('a bad irradiance names the option', () => {
+    const r = runCli(['solar', smuCsv, '--irradiance', '3 V']);
+    expect(r.code).toBe(2);
+    expect(r.stderr).toMatch(/--irradiance/);
+  });
+});
