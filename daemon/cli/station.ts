@@ -208,6 +208,63 @@ export function registerStation(program: Command): void {
     });
 
   program
+    .command('watch')
+    .description('follow a CSV another program is writing (or stdin: -), segment sweeps, and run the live chain, journal and page on it — no control of the instrument')
+    .argument('<file>', 'the CSV being written, or - for standard input')
+    .option('--voltage <col>', 'voltage column, by header name or 1-based position (default: the first)')
+    .option('--current <col>', 'current column (default: the second)')
+    .option('--compliance-column <col>', 'column flagging readings at compliance (non-zero)')
+    .option('--model <id>', 'live-fit model (default: the config\'s)')
+    .option('--config <file>', 'station config (analysis, drift, server, data settings)')
+    .option('--data <dir>', 'folder for the session folder (default: the config\'s, plumbline-data)')
+    .option('--port <n>', 'serve the page on this port (default: the config\'s; 0 = any free port)')
+    .option('--no-page', 'do not serve the page')
+    .action(async (file: string, o: { voltage?: string; current?: string; complianceColumn?: string; model?: string; config?: string; data?: string; port?: string; page: boolean }) => {
+      const config = await stationConfig({ config: o.config });
+      const { dataDir, Station, startServer } = await daemonModules();
+      const { feedPassive } = await import('../pipeline/passive.js');
+      const { fileLines, streamLines } = await import('../../protocols/line-source.js');
+      const { existsSync } = await import('node:fs');
+      if (file !== '-' && !existsSync(file)) throw new UsageError(`${file}: no such file (watch follows a file that exists; create it first, even empty)`);
+      const station = new Station(config, dataDir(config, o.data));
+      for (const r of station.recovered) process.stderr.write(`journal ${r.dir}: ${r.message}\n`);
+      // Another program's data: the fit window is found automatically unless the config fixes one.
+      station.setAnalysis({ ...station.analysisSettings, ...(o.model !== undefined ? { model: o.model } : {}), window: config.analysis?.window ?? 'auto' }, 'cli');
+      let srv: Awaited<ReturnType<typeof startServer>> | undefined;
+      if (o.page) {
+        const port = o.port !== undefined ? Number(o.port) : config.server.port;
+        if (!Number.isInteger(port) || port < 0 || port > 65535) throw new UsageError(`--port '${o.port}': expected a port number`);
+        srv = await startServer(station, { host: config.server.host, port, token: config.server.token });
+      }
+      const where = file === '-' ? 'standard input' : file;
+      const source = file === '-' ? streamLines(process.stdin) : await fileLines(file);
+      const passive = station.openPassive('watch', where);
+      const feed = feedPassive(source, passive.chain, { voltage: o.voltage, current: o.current, compliance: o.complianceColumn }, where);
+      process.stdout.write(`watching ${where} → session ${passive.session}\n  folder ${passive.dir}\n${srv ? `  page  ${srv.url}\n` : ''}plumbline does not control this instrument; Ctrl-C stops watching.\n`);
+      station.events$.subscribe({
+        next: (e) => {
+          if (e.type === 'caution' && e.kind !== 'passive-source') process.stdout.write(`CAUTION [${e.kind}] ${e.message}\n`);
+          else if (e.type === 'rejected') process.stderr.write(`skipped: ${e.reason}\n`);
+        },
+        error: () => undefined,
+      });
+      let closed = false;
+      const close = async (why: string) => {
+        if (closed) return;
+        closed = true;
+        feed.stop();
+        passive.close('completed', why);
+        await srv?.close();
+        process.stdout.write(`stopped: ${why}; ${feed.stats.readings} readings in ${feed.stats.sweeps} sweep(s), ${feed.stats.rejected} row(s) skipped\n`);
+        process.exit(0);
+      };
+      process.on('SIGINT', () => void close('interrupted (SIGINT)'));
+      process.on('SIGTERM', () => void close('terminated (SIGTERM)'));
+      await feed.done;
+      await close('the source ended');
+    });
+
+  program
     .command('export')
     .description('write points.csv, sweeps.csv and session.json from a session folder')
     .argument('<session-dir>', 'a session folder (under the data folder)')

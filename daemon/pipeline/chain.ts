@@ -40,6 +40,8 @@ export interface ChainOptions {
   /** Planned sweeps and points per sweep, for progress (0 when unknown: passive sources). */
   readonly sweeps?: number;
   readonly pointsPerSweep?: number;
+  /** False for passive sources: plumbline cannot act on the instrument (cautions say so). */
+  readonly control?: boolean;
 }
 
 export function summarizeFit(r: FitReport): FitSummary {
@@ -169,7 +171,10 @@ export class LiveChain {
       const verdict = this.breakdown.add(v, i, compliance, predict);
       if (verdict) {
         if (verdict.state === 'confirmed') {
-          this.emit({ type: 'caution', kind: 'breakdown-confirmed', sweep: this.sweep, numbers: verdict.numbers, message: `Breakdown: ${verdict.reason}. The output is being turned off. Treat the device as broken; follow your lab's rules before touching the fixture.` });
+          const action = this.options.control === false
+            ? 'plumbline does not control this instrument: turn its output off with its own controls now'
+            : 'The output is being turned off';
+          this.emit({ type: 'caution', kind: 'breakdown-confirmed', sweep: this.sweep, numbers: verdict.numbers, message: `Breakdown: ${verdict.reason}. ${action}. Treat the device as broken; follow your lab's rules before touching the fixture.` });
           decision = { action: 'abort', outcome: 'aborted-breakdown', reason: `breakdown confirmed in sweep ${this.sweep}: ${verdict.reason}` };
           this.emit({ type: 'decision', action: 'abort', reason: decision.reason, sweep: this.sweep, numbers: verdict.numbers });
         } else {

@@ -99,6 +99,7 @@ export class Station {
       complianceLimit: options.complianceLimit,
       sweeps: options.sweeps ?? 0,
       pointsPerSweep: options.pointsPerSweep ?? 0,
+      control: false,
     });
     chain.emit({
       type: 'session',
@@ -125,7 +126,7 @@ export class Station {
     };
   }
 
-  private newSession(label: string, o: { complianceLimit?: number; sweeps: number; pointsPerSweep: number }): { chain: LiveChain; id: string; dir: string } {
+  private newSession(label: string, o: { complianceLimit?: number; sweeps: number; pointsPerSweep: number; control?: boolean }): { chain: LiveChain; id: string; dir: string } {
     const { writer, id } = JournalWriter.create(this.dataDir, label);
     const dir = join(this.dataDir, id);
     const chain = new LiveChain({
@@ -137,6 +138,7 @@ export class Station {
       hazardVoltage: this.config.limits.hazardVoltage,
       sweeps: o.sweeps,
       pointsPerSweep: o.pointsPerSweep,
+      control: o.control ?? true,
     });
     this.recent.clear();
     this.views = new Map();

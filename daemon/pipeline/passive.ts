@@ -1,0 +1,127 @@
+/**
+ * Passive sources into the live chain: lines another program writes (a growing CSV, stdin, a
+ * serial or TCP stream) → readings (CsvRowMapper; malformed rows journaled as rejected with their
+ * line number and skipped) → sweeps found from direction reversals of the bias → the same chain,
+ * journal and page as a live run, with no control of the instrument.
+ */
+import { fromEvent, merge, map, takeUntil, type Subscription } from 'rxjs';
+import type { ColumnMapping } from '../../protocols/csv-rows.js';
+import { CsvRowMapper } from '../../protocols/csv-rows.js';
+import type { LineSource } from '../../protocols/line-source.js';
+import type { LiveChain } from './chain.js';
+
+/**
+ * Splits a stream of bias values into sweeps at direction reversals: a step whose sign is opposite
+ * to the sweep's direction so far (steps smaller than `tolerance` V are ignored) starts a new sweep.
+ * A staircase that jumps back to its start, and each leg of an out-and-back sweep, become sweeps.
+ */
+export class ReversalSegmenter {
+  private last: number | undefined;
+  private dir = 0;
+
+  constructor(readonly tolerance = 1e-9) {}
+
+  /** Returns true when v starts a new sweep (the first value always does). */
+  next(v: number): boolean {
+    const prev = this.last;
+    this.last = v;
+    if (prev === undefined) return true;
+    const d = v - prev;
+    if (Math.abs(d) <= this.tolerance) return false;
+    const s = Math.sign(d);
+    if (this.dir === 0) {
+      this.dir = s;
+      return false;
+    }
+    if (s !== this.dir) {
+      this.dir = 0;
+      return true;
+    }
+    return false;
+  }
+
+  reset(): void {
+    this.last = undefined;
+    this.dir = 0;
+  }
+}
+
+export interface PassiveStats {
+  lines: number;
+  readings: number;
+  rejected: number;
+  sweeps: number;
+}
+
+/** Feeds a line source into the chain until the source ends or `stop()` is called. */
+export function feedPassive(source: LineSource, chain: LiveChain, mapping: ColumnMapping, where: string): { stats: PassiveStats; done: Promise<void>; stop(): void } {
+  const mapper = new CsvRowMapper(mapping);
+  const seg = new ReversalSegmenter();
+  const stats: PassiveStats = { lines: 0, readings: 0, rejected: 0, sweeps: 0 };
+  let open = false;
+  const endSweep = (note?: string) => {
+    if (open) chain.endSweep(true, note);
+    open = false;
+  };
+  let resolveDone: () => void = () => undefined;
+  const done = new Promise<void>((r) => (resolveDone = r));
+  const end$ = fromEvent(source, 'end');
+  const lines$ = fromEvent(source, 'line', (line: string, n: number) => ({ line, n }));
+  const notices$ = fromEvent(source, 'notice', (text: string) => ({ notice: text }));
+  let sub: Subscription | undefined;
+  const finish = () => {
+    endSweep();
+    sub?.unsubscribe();
+    resolveDone();
+  };
+  sub = merge(lines$, notices$)
+    .pipe(
+      map((x) => x as { line?: string; n?: number; notice?: string }),
+      takeUntil(end$),
+    )
+    .subscribe({
+      next: (x) => {
+        if (x.notice !== undefined) {
+          // Truncation or rotation: the file starts again (with its header); the sweep in progress ends.
+          endSweep(x.notice);
+          mapper.reset();
+          seg.reset();
+          chain.emit({ type: 'caution', kind: 'passive-source', message: x.notice });
+          return;
+        }
+        stats.lines++;
+        let r;
+        try {
+          r = mapper.map(x.line as string);
+        } catch (e) {
+          chain.rejected(x.line as string, `${where} line ${x.n}: ${(e as Error).message}`);
+          stats.rejected++;
+          return;
+        }
+        if (r.kind === 'rejected') {
+          chain.rejected(x.line as string, `${where} line ${x.n}: ${r.reason}`);
+          stats.rejected++;
+          return;
+        }
+        if (r.kind !== 'reading') return;
+        if (seg.next(r.reading.v)) {
+          endSweep();
+          stats.sweeps++;
+          chain.startSweep(stats.sweeps, 0, `sweep ${stats.sweeps} (from ${where})`);
+          open = true;
+        }
+        chain.reading(r.reading.v, r.reading.i, r.compliance, r.reading.overflow);
+        stats.readings++;
+      },
+      error: () => finish(),
+      complete: () => finish(),
+    });
+  return {
+    stats,
+    done,
+    stop: () => {
+      void source.stop();
+      finish();
+    },
+  };
+}
