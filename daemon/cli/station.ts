@@ -265,6 +265,80 @@ export function registerStation(program: Command): void {
     });
 
   program
+    .command('report')
+    .description('one self-contained HTML file for a session: settings, notes, plots with fits, parameter trends with drift limits, cautions, results')
+    .argument('<session-dir>', 'a session folder')
+    .option('--out <file>', 'output file (default SESSION_DIR/report.html)')
+    .action(async (dir: string, o: { out?: string }) => {
+      const { writeReport } = await import('../journal/report.js');
+      const r = writeReport(resolve(dir), o.out !== undefined ? resolve(o.out) : undefined);
+      process.stdout.write(`report of ${r.sweeps} sweep(s) written to ${r.file}\n`);
+    });
+
+  program
+    .command('refit')
+    .description('analyse every sweep of a session again with another model, window or inputs (the journal is not changed; results go to a new file)')
+    .argument('<session-dir>', 'a session folder')
+    .option('--model <id>', 'model (default: the session\'s)')
+    .option('--from <V>', 'fit window start, V')
+    .option('--to <V>', 'fit window end, V')
+    .option('--auto', 'choose the fit window automatically')
+    .option('--thickness <q>', 'film thickness, e.g. "8 nm"')
+    .option('--area <q>', 'device area, e.g. "1e-4 cm^2"')
+    .option('--temperature <q>', 'temperature, e.g. "300 K"')
+    .option('--mass-ratio <r>', 'tunnelling effective-mass ratio m*/m0')
+    .option('--permittivity <r>', 'relative permittivity (static)')
+    .option('--refractive-index <r>', 'refractive index')
+    .option('--flat-band <q>', 'flat-band voltage, e.g. "-0.9 V"')
+    .option('--richardson <q>', 'Richardson constant, e.g. "120 A/(cm^2 K^2)"')
+    .option('--out <file>', 'results file (default SESSION_DIR/refit-MODEL-TIME.json)')
+    .option('--json', 'print one JSON object')
+    .action(async (dir: string, o: Record<string, string | boolean | undefined>) => {
+      const { refitSession } = await import('../journal/refit.js');
+      const { readInputs, readWindow } = await import('./inputs.js');
+      const inputs = Object.fromEntries(Object.entries(readInputs(o as never)).filter(([, v]) => v !== undefined));
+      const window = o.auto || o.from !== undefined || o.to !== undefined ? readWindow(o as never) : undefined;
+      const r = refitSession(resolve(dir), { model: o.model as string | undefined, window, inputs }, o.out !== undefined ? resolve(String(o.out)) : undefined);
+      if (o.json) {
+        process.stdout.write(`${JSON.stringify(r)}\n`);
+        return;
+      }
+      process.stdout.write(`refit of ${r.sweeps.length} sweep(s) with model ${r.request.model} → ${r.file}\n`);
+      for (const sw of r.sweeps) {
+        const p = sw.fit ? Object.entries(sw.fit.parameters).slice(0, 3).map(([k, v]) => `${k} ${v.value.toPrecision(5)} ± ${v.stdErr.toPrecision(2)} ${v.unit}`).join(', ') : `no fit: ${sw.error}`;
+        process.stdout.write(`  sweep ${String(sw.sweep).padStart(3)}: ${p}\n`);
+      }
+    });
+
+  program
+    .command('tseries')
+    .description('Arrhenius plot of a fitted quantity across sweeps at several temperatures (trap depth, barrier, activation energy)')
+    .argument('<session-dir>', 'a session folder')
+    .option('--model <id>', 'model fitted to each sweep (default: the session\'s)')
+    .option('--quantity <q>', 'intercept (the line\'s, a logarithm) or the name of a positive fitted parameter', 'intercept')
+    .option('--temperatures <list>', 'temperature of each sweep in order, in K, comma separated (default: from notes "T = 350 K")')
+    .option('--json', 'print one JSON object')
+    .action(async (dir: string, o: { model?: string; quantity: string; temperatures?: string; json?: boolean }) => {
+      const { temperatureSeries } = await import('../journal/tseries.js');
+      let temperatures: number[] | undefined;
+      if (o.temperatures !== undefined) {
+        temperatures = o.temperatures.split(',').map((t) => Number(t.trim().replace(/\s*K$/i, '')));
+        const bad = temperatures.findIndex((t) => !(t > 0));
+        if (bad >= 0) throw new UsageError(`--temperatures: entry ${bad + 1} ('${o.temperatures.split(',')[bad].trim()}') is not a temperature in K`);
+      }
+      const r = temperatureSeries(resolve(dir), { model: o.model, quantity: o.quantity, temperatures });
+      if (o.json) {
+        process.stdout.write(`${JSON.stringify(r)}\n`);
+        return;
+      }
+      process.stdout.write(`Arrhenius plot of the ${r.model} ${r.quantity} over ${r.points.length} sweep(s)\n`);
+      for (const p of r.points) process.stdout.write(`  sweep ${String(p.sweep).padStart(3)}  T = ${p.temperature} K  ${r.quantity} ${p.value.toPrecision(6)} ± ${p.stdErr.toPrecision(2)}\n`);
+      for (const k of r.skipped) process.stdout.write(`  skipped sweep ${k.sweep}: ${k.reason}\n`);
+      const e = r.result.activationEnergy;
+      process.stdout.write(`activation energy ${e.value.toPrecision(5)} ± ${e.stdErr.toPrecision(2)} eV — ${r.meaning}\n`);
+    });
+
+  program
     .command('export')
     .description('write points.csv, sweeps.csv and session.json from a session folder')
     .argument('<session-dir>', 'a session folder (under the data folder)')

@@ -1,31 +1,15 @@
 /**
  * The uPlot charts. Each takes the numbers the daemon computed and draws them; log axes get
  * positive values only (a value ≤ 0 becomes a gap, per uPlot's log-scale rule).
- * Palettes: sweep order on a viridis-like sequential ramp (colour-blind safe, published by van der
- * Walt & Smith for matplotlib); categorical marks use the Okabe–Ito palette; every colour cue is
- * doubled by a marker shape or dash.
+ * Palettes (protocols/palette.ts, shared with the report): sweep order on a viridis-like
+ * sequential ramp, categories in Okabe–Ito; every colour cue is doubled by a marker shape or dash.
  */
 import uPlot from 'uplot';
+import { OKABE_ITO, sequential } from '../../protocols/palette.js';
 import type { PlotViewData, WireEvent } from '../../protocols/wire.js';
 import type { SweepPoints } from './store.js';
 
-const VIRIDIS = ['#440154', '#482878', '#3e4989', '#31688e', '#26828e', '#1f9e89', '#35b779', '#6ece58', '#b5de2b', '#fde725'];
-export const OKABE_ITO = { orange: '#E69F00', sky: '#56B4E9', green: '#009E73', yellow: '#F0E442', blue: '#0072B2', vermillion: '#D55E00', purple: '#CC79A7', black: '#000000' };
-
-export function sequential(t: number): string {
-  const x = Math.min(1, Math.max(0, t)) * (VIRIDIS.length - 1);
-  const a = Math.floor(x);
-  const b = Math.min(VIRIDIS.length - 1, a + 1);
-  const f = x - a;
-  const pa = hex(VIRIDIS[a]);
-  const pb = hex(VIRIDIS[b]);
-  const c = pa.map((v, k) => Math.round(v + (pb[k] - v) * f));
-  return `rgb(${c[0]},${c[1]},${c[2]})`;
-}
-
-function hex(h: string): number[] {
-  return [1, 3, 5].map((k) => Number.parseInt(h.slice(k, k + 2), 16));
-}
+export { OKABE_ITO, sequential };
 
 function size(el: HTMLElement, h: number): { width: number; height: number } {
   return { width: Math.max(300, el.clientWidth), height: h };

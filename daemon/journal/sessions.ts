@@ -1,0 +1,118 @@
+/**
+ * Reading a finished (or running) session back for offline work: its sweeps' readings, the
+ * analysis settings in force, fits, drift, annotations, cautions and decisions — one pass over the
+ * journal. Used by refit, report and the temperature series.
+ */
+import { basename, resolve } from 'node:path';
+import type { FitSummary, WireEvent } from '../../protocols/wire.js';
+import { FLAG } from '../../protocols/wire.js';
+import { scanJournal, type BadLine } from './reader.js';
+
+export interface SweepData {
+  readonly sweep: number;
+  readonly v: number[];
+  readonly i: number[];
+  /** 1 where the reading was at compliance. */
+  readonly c: number[];
+  complete: boolean | null;
+  fit: FitSummary | null;
+  fitError: string | null;
+  drift: Extract<WireEvent, { type: 'drift' }> | null;
+  annotations: Extract<WireEvent, { type: 'annotation' }>[];
+}
+
+export interface SessionData {
+  readonly id: string;
+  readonly dir: string;
+  readonly session: Extract<WireEvent, { type: 'session' }> | null;
+  /** The analysis settings last in force (session start, then setting changes). */
+  readonly analysis: unknown;
+  readonly complianceLimit: number | undefined;
+  readonly sweeps: SweepData[];
+  readonly annotations: Extract<WireEvent, { type: 'annotation' }>[];
+  /** Cautions, decisions, output changes, recovery and run end, in time order. */
+  readonly timeline: WireEvent[];
+  readonly runEnd: Extract<WireEvent, { type: 'run-end' }> | null;
+  readonly badLines: BadLine[];
+}
+
+export function loadSession(dirIn: string): SessionData {
+  const dir = resolve(dirIn);
+  const sweeps = new Map<number, SweepData>();
+  const sweep = (n: number) => {
+    let s = sweeps.get(n);
+    if (!s) {
+      s = { sweep: n, v: [], i: [], c: [], complete: null, fit: null, fitError: null, drift: null, annotations: [] };
+      sweeps.set(n, s);
+    }
+    return s;
+  };
+  let session: SessionData['session'] = null;
+  let analysis: unknown = null;
+  let complianceLimit: number | undefined;
+  const annotations: SessionData['annotations'] = [];
+  const timeline: WireEvent[] = [];
+  let runEnd: SessionData['runEnd'] = null;
+  const scan = scanJournal(dir, (e) => {
+    switch (e.type) {
+      case 'reading': {
+        const s = sweep(e.sweep);
+        s.v.push(e.v);
+        s.i.push(e.i);
+        s.c.push(e.flags & FLAG.compliance ? 1 : 0);
+        break;
+      }
+      case 'session':
+        session = e;
+        analysis = e.analysis;
+        complianceLimit = (e.plan as { compliance?: number } | null)?.compliance;
+        break;
+      case 'settings':
+        analysis = e.analysis;
+        break;
+      case 'sweep-start':
+        sweep(e.sweep);
+        break;
+      case 'sweep-end':
+        sweep(e.sweep).complete = e.complete;
+        break;
+      case 'fit':
+        if (e.final) {
+          sweep(e.sweep).fit = e.fit;
+          sweep(e.sweep).fitError = e.error ?? null;
+        }
+        break;
+      case 'drift':
+        sweep(e.sweep).drift = e;
+        break;
+      case 'annotation':
+        annotations.push(e);
+        if (e.sweep !== undefined) sweep(e.sweep).annotations.push(e);
+        break;
+      case 'run-end':
+        runEnd = e;
+        timeline.push(e);
+        break;
+      case 'caution':
+      case 'decision':
+      case 'output':
+      case 'recovery':
+        timeline.push(e);
+        break;
+      default:
+        break;
+    }
+  });
+  return {
+    id: basename(dir),
+    dir,
+    session,
+    analysis,
+    complianceLimit,
+    sweeps: [...sweeps.values()].sort((a, b) => a.sweep - b.sweep),
+    annotations,
+    timeline,
+    runEnd,
+    badLines: scan.bad,
+  };
+}

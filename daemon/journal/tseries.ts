@@ -1,0 +1,73 @@
+/**
+ * `plumbline tseries`: the Arrhenius plot of a fitted quantity across the sweeps of a session taken
+ * at several temperatures. Each sweep's temperature comes from `--temperatures` (in sweep order)
+ * or from a note on the sweep ("T = 350 K"); each sweep is fitted with the session's analysis (or
+ * --model) at its own temperature.
+ */
+import { analyze, type FitRequest } from '../analysis/analyze.js';
+import { AnalysisError } from '../analysis/errors.js';
+import { getMechanism } from '../analysis/mechanisms/index.js';
+import { arrhenius, temperatureFromText, type ArrheniusResult } from '../analysis/temperature-series.js';
+import { loadSession } from './sessions.js';
+
+export interface SeriesReport {
+  readonly session: string;
+  readonly model: string;
+  readonly quantity: string;
+  readonly meaning: string;
+  readonly points: { sweep: number; temperature: number; value: number; stdErr: number; y: number }[];
+  readonly skipped: { sweep: number; reason: string }[];
+  readonly result: ArrheniusResult;
+}
+
+const MEANING: Record<string, string> = {
+  'poole-frenkel': 'trap depth φ_t (intercept of ln(J/E) against √E, extrapolated to zero field)',
+  schottky: 'barrier height φ_B (Richardson plot: intercept of ln(J/T²) against √E)',
+};
+
+export function temperatureSeries(dir: string, o: { model?: string; quantity?: string; temperatures?: number[] }): SeriesReport {
+  const s = loadSession(dir);
+  const base = (s.analysis ?? {}) as Partial<FitRequest>;
+  const model = o.model ?? base.model ?? 'arrhenius';
+  const quantity = o.quantity ?? 'intercept';
+  getMechanism(model); // an unknown model is refused before any work (UNKNOWN_MODEL)
+  const points: SeriesReport['points'] = [];
+  const skipped: SeriesReport['skipped'] = [];
+  s.sweeps.forEach((sw, k) => {
+    let T = o.temperatures?.[k];
+    if (T === undefined) for (const a of sw.annotations) T = temperatureFromText(`${a.text} ${a.tags.join(' ')}`) ?? T;
+    if (T === undefined) {
+      skipped.push({ sweep: sw.sweep, reason: 'no temperature (add a note "T = 350 K" on the sweep, or give --temperatures)' });
+      return;
+    }
+    try {
+      const r = analyze({ x: sw.v, y: sw.i, compliance: sw.c }, {
+        model,
+        window: o.model !== undefined && o.model !== base.model ? 'auto' : base.window ?? 'auto',
+        inputs: { ...(base.inputs ?? {}), temperature: T },
+        complianceLimit: s.complianceLimit,
+      });
+      if (quantity === 'intercept') {
+        points.push({ sweep: sw.sweep, temperature: T, value: r.line.intercept, stdErr: r.line.interceptStdErr, y: r.line.intercept });
+      } else {
+        const p = r.parameters[quantity];
+        if (!p) throw new AnalysisError('BAD_INPUT', `model ${model} has no parameter '${quantity}' (it has ${Object.keys(r.parameters).join(', ') || 'none'})`);
+        if (!(p.value > 0)) throw new AnalysisError('BAD_INPUT', `${quantity} = ${p.value} is not positive: no logarithm`);
+        points.push({ sweep: sw.sweep, temperature: T, value: p.value, stdErr: p.stdErr, y: Math.log(p.value) });
+      }
+    } catch (e) {
+      if (e instanceof AnalysisError && e.message.includes('has no parameter')) throw e;
+      skipped.push({ sweep: sw.sweep, reason: (e as Error).message });
+    }
+  });
+  const result = arrhenius(points.map((p) => ({ temperature: p.temperature, y: p.y, yStdErr: quantity === 'intercept' ? p.stdErr : p.stdErr / p.value })));
+  return {
+    session: s.id,
+    model,
+    quantity,
+    meaning: quantity === 'intercept' ? MEANING[model] ?? `activation energy of the ${model} intercept` : `activation energy of ${quantity}`,
+    points,
+    skipped,
+    result,
+  };
+}

@@ -1,0 +1,130 @@
+/**
+ * After the run: refit, temperature series and the HTML report, on sessions made by the real CLI
+ * on the simulator (and, for the temperature series, a session written through the journal API
+ * from the Poole–Frenkel forward model: J = C·E·exp(−q(φ_t − β_PF√E)/kT), Frenkel 1938; Chiu 2014
+ * review — the model plumbline fits).
+ */
+import { readFileSync } from 'node:fs';
+import { join } from 'node:path';
+import { chromium } from 'playwright-core';
+import { describe, expect, it } from 'vitest';
+import { pooleFrenkel } from '../../daemon/analysis/mechanisms/poole-frenkel.js';
+import { seededNormal } from '../../daemon/analysis/random.js';
+import { JournalWriter } from '../../daemon/journal/journal.js';
+import { loadSession } from '../../daemon/journal/sessions.js';
+import { runCli } from '../helpers/cli.js';
+import { tempDir } from '../helpers/daemon.js';
+
+function simulatedSession(scenario: string, sweeps: number): string {
+  const data = join(tempDir(), 'data');
+  const r = runCli(['run', '--scenario', scenario, '--sweeps', String(sweeps), '--fast', '--data', data, '--json']);
+  return JSON.parse(r.stdout).dir as string;
+}
+
+describe('refit', () => {
+  it('with the session\'s own settings, refit results equal the live results', () => {
+    const dir = simulatedSession('nitride-pf', 3);
+    const r = runCli(['refit', dir, '--json']);
+    expect(r.code, r.stderr).toBe(0);
+    const refit = JSON.parse(r.stdout);
+    const live = loadSession(dir);
+    expect(refit.sweeps).toHaveLength(3);
+    for (const sw of live.sweeps) {
+      const mine = refit.sweeps.find((x: { sweep: number }) => x.sweep === sw.sweep).fit;
+      expect(mine.line).toEqual(sw.fit?.line);
+      expect(mine.parameters).toEqual(sw.fit?.parameters);
+    }
+    // The journal is untouched; the results went to their own file.
+    expect(JSON.parse(readFileSync(refit.file, 'utf8')).sweeps).toHaveLength(3);
+  });
+
+  it('with another model, each sweep is fitted again (and a bad model is refused)', () => {
+    const dir = simulatedSession('nitride-pf', 2);
+    const r = runCli(['refit', dir, '--model', 'schottky', '--auto', '--json']);
+    expect(r.code, r.stderr).toBe(0);
+    expect(JSON.parse(r.stdout).sweeps[0].fit.model).toBe('schottky');
+    const bad = runCli(['refit', dir, '--model', 'no-such']);
+    expect(bad.code).toBe(2);
+  });
+});
+
+describe('temperature series', () => {
+  it('recovers the Poole–Frenkel trap depth from sweeps at 300–400 K within its stated uncertainty', () => {
+    const data = join(tempDir(), 'data');
+    const { writer, id } = JournalWriter.create(data, 'pf-temperatures');
+    const inputs = { thickness: 2e-8, area: 1e-8, refractiveIndex: 2 };
+    writer.event({ type: 'session', id, startedAt: new Date().toISOString(), source: { kind: 'test', detail: 'forward model', control: false }, instrument: '-', plan: null, analysis: { model: 'poole-frenkel', window: { from: 4, to: 12 }, inputs }, drift: {}, limits: {} });
+    const normal = seededNormal(9);
+    const temps = [300, 325, 350, 375, 400];
+    temps.forEach((T, s) => {
+      writer.event({ type: 'sweep-start', sweep: s + 1, planned: 41, label: '' });
+      for (let k = 0; k <= 40; k++) {
+        const v = 0.3 * k;
+        const e = v / 2e-8;
+        const j = k === 0 ? 0 : pooleFrenkel(e, 1e-2, 1.0, 4.0, T);
+        writer.reading(s + 1, k, v, j * 1e-8 * (1 + 0.005 * normal()), 0);
+      }
+      writer.event({ type: 'sweep-end', sweep: s + 1, points: 41, complete: true });
+      writer.event({ type: 'annotation', text: `chuck at T = ${T} K`, tags: [], sweep: s + 1, source: 'test' });
+    });
+    writer.event({ type: 'run-end', outcome: 'completed', reason: 'test', sweeps: 5 });
+    writer.close();
+    const r = runCli(['tseries', join(data, id), '--json']);
+    expect(r.code, r.stderr).toBe(0);
+    const j = JSON.parse(r.stdout);
+    expect(j.points.map((p: { temperature: number }) => p.temperature)).toEqual(temps);
+    const ea = j.result.activationEnergy;
+    expect(ea.stdErr).toBeGreaterThan(0);
+    expect(ea.stdErr).toBeLessThan(0.02);
+    expect(Math.abs(ea.value - 1.0)).toBeLessThan(2 * ea.stdErr + 1e-6);
+    expect(j.meaning).toMatch(/trap depth/);
+    // Without temperatures the command says how to give them.
+    const none = runCli(['tseries', simulatedSession('nitride-pf', 1)]);
+    expect(none.code).toBe(1);
+    expect(none.stderr).toMatch(/Arrhenius fit needs sweeps at 3 or more temperatures/);
+  });
+});
+
+describe('report', () => {
+  it('one self-contained HTML file that opens offline in Chromium and shows every sweep', async () => {
+    const dir = simulatedSession('oxide-fn-trapping', 8); // the drift watch stops it at sweep 5
+    const a = runCli(['annotate', dir, '--sweep', '2', '--text', 'probe re-landed', '--tag', 'setup']);
+    expect(a.code, a.stderr).toBe(0);
+    const out = join(tempDir(), 'report.html');
+    const r = runCli(['report', dir, '--out', out]);
+    expect(r.code, r.stderr).toBe(0);
+    const html = readFileSync(out, 'utf8');
+    expect(html).not.toMatch(/<script|<link|src="http|href="http/);
+    const sweeps = loadSession(dir).sweeps.length;
+    const browser = await chromium.launch({ executablePath: '/usr/bin/chromium', args: ['--disable-gpu', '--disable-background-networking', '--no-first-run'] });
+    try {
+      const page = await browser.newPage();
+      const requests: string[] = [];
+      await page.route('**/*', (route) => {
+        requests.push(route.request().url());
+        return route.request().url().startsWith('file:') ? route.continue() : route.abort();
+      });
+      await page.goto(`file://${out}`);
+      const facts = await page.evaluate(() => {
+        const charts = [...document.querySelectorAll('svg.chart')];
+        return {
+          charts: charts.length,
+          overviewLines: charts[0].querySelectorAll('polyline.series').length,
+          tableRows: [...document.querySelectorAll('h2')].find((h) => h.textContent === 'Results')?.nextElementSibling?.querySelectorAll('tr').length,
+          text: document.body.textContent ?? '',
+        };
+      });
+      expect(requests.filter((u) => !u.startsWith('file:'))).toEqual([]);
+      expect(facts.overviewLines).toBeGreaterThanOrEqual(sweeps);
+      expect(facts.tableRows).toBe(sweeps + 1);
+      // Overview + one trend chart + two plots per sweep.
+      expect(facts.charts).toBe(1 + 1 + 2 * sweeps);
+      expect(facts.text).toMatch(/probe re-landed/);
+      expect(facts.text).toMatch(/aborted-drift/);
+      expect(facts.text).toMatch(/caution: drift-limit/);
+      await page.pdf?.({ path: join(tempDir(), 'report.pdf') }).catch(() => undefined);
+    } finally {
+      await browser.close();
+    }
+  });
+});
