@@ -161,6 +161,47 @@ function darkStart(p: Points, vt: number): DiodeStart {
   return { photocurrent: 0, diodes: [{ i0, n }], seriesResistance: Math.max(rs, 1e-6), shuntResistance: rsh };
 }
 
+/**
+ * A two-diode start from the curve itself: with the single-diode R_s and R_sh, the diode current
+ * I_d = I_ph − I − V_j/R_sh at the junction voltage V_j = V + I·R_s is split into its lower and upper
+ * thirds (in ln I_d); a semilog line through each gives the recombination (n₂, I₀₂) and the
+ * diffusion (n₁, I₀₁) diode. Empty when the curve does not allow it.
+ */
+function twoRegionStart(p: Points, s: { photocurrent: number; seriesResistance: number; shuntResistance: number }, vt: number): DiodeStart[] {
+  const vj: number[] = [];
+  const ln: number[] = [];
+  for (let k = 0; k < p.v.length; k++) {
+    const j = p.v[k] + p.i[k] * s.seriesResistance;
+    const id = s.photocurrent - p.i[k] - j / s.shuntResistance;
+    if (j > 3 * vt && id > 0) {
+      vj.push(j);
+      ln.push(Math.log(id));
+    }
+  }
+  if (vj.length < 9) return [];
+  const lo = Math.min(...ln);
+  const hi = Math.max(...ln);
+  if (!(hi - lo > 2)) return [];
+  const pick = (a: number, b: number) => {
+    const xs: number[] = [];
+    const ys: number[] = [];
+    for (let k = 0; k < vj.length; k++) {
+      if (ln[k] >= lo + a * (hi - lo) && ln[k] <= lo + b * (hi - lo)) {
+        xs.push(vj[k]);
+        ys.push(ln[k]);
+      }
+    }
+    if (xs.length < 3) return undefined;
+    const f = fitLine(xs, ys);
+    return f.slope > 0 ? { n: 1 / (f.slope * vt), i0: Math.exp(f.intercept) } : undefined;
+  };
+  const low = pick(0, 1 / 3);
+  const high = pick(2 / 3, 1);
+  if (!low || !high) return [];
+  const clamp = (n: number) => Math.min(1.95, Math.max(1.05, n));
+  return [{ ...s, diodes: [{ i0: high.i0, n: clamp(high.n) }, { i0: low.i0, n: clamp(low.n) }] }];
+}
+
 const TITLES: Record<DiodeModel, string> = {
   'single-diode': 'single-diode model (I_ph, I₀, n, R_s, R_sh), Lambert-W explicit',
   'double-diode': 'double-diode model (I_ph, I₀₁, n₁, I₀₂, n₂, R_s, R_sh)',
@@ -189,6 +230,7 @@ export function fitDiode(data: IVData, model: DiodeModel, req: DiodeRequest = {}
     // current, and diffusion + recombination diodes (n ≈ 1 and 2). The first start is run to
     // convergence; the others only when it ends on a bound or no better than one diode.
     const starts: DiodeStart[] = [
+      ...twoRegionStart(p, s, vt),
       { ...base, diodes: [{ i0: d.i0 * 0.5, n: d.n }, { i0: d.i0 * 0.5, n: Math.min(d.n * 1.5, 4) }] },
       { ...base, diodes: [{ i0: d.i0 * 0.9, n: d.n }, { i0: d.i0 * 0.1, n: 2 }] },
       { ...base, diodes: [{ i0: d.i0 * Math.exp(-Math.max(0, d.n - 1) * 10), n: 1 }, { i0: d.i0, n: 2 }] },

@@ -75,6 +75,7 @@ export class GuardedSource {
   private compliance: number | undefined;
   private level = 0;
   private on = false;
+  private inhibited = false;
   /** Every level this guard let through, for tests and the journal. */
   readonly passed: number[] = [];
 
@@ -102,11 +103,21 @@ export class GuardedSource {
     this.level = 0;
   }
 
+  /**
+   * After an abort nothing may turn the output on again: checked synchronously right before the
+   * output-on command is queued, so an abort that lands while this call is in flight wins.
+   */
+  inhibit(): void {
+    this.inhibited = true;
+  }
+
   /** Output on at 0 V (compliance must have been set). */
   async outputOn(): Promise<void> {
     if (this.compliance === undefined) throw new GuardError('output on refused: no compliance has been set', 'compliance', {});
+    if (this.inhibited) throw new GuardError('output on refused: the run was aborted', 'abort', {});
     await this.driver.setVoltage(0);
     this.level = 0;
+    if (this.inhibited) throw new GuardError('output on refused: the run was aborted', 'abort', {});
     await this.driver.outputOn();
     this.on = true;
   }

@@ -34,6 +34,7 @@ export class RunController {
   private abortOutcome: RunOutcome = 'aborted-user';
   private wake: (() => void) | undefined;
   private offSent: Promise<boolean> | undefined;
+  private finished = false;
 
   constructor(readonly source: GuardedSource, readonly chain: LiveChain, readonly plan: Plan) {}
 
@@ -43,14 +44,17 @@ export class RunController {
 
   /** Stop after the sweep in progress (the source ramps down, then output off). */
   stop(reason = 'stop requested'): void {
+    if (this.finished) return;
     this.chain.requestStop(reason);
   }
 
   /** Abort now: output off at once, even while a reading is in flight. */
   abort(reason: string, outcome: RunOutcome = 'aborted-user'): void {
-    if (this.abortReason !== undefined) return;
+    // After the run has ended (output already off, journal closed) an abort has nothing to do.
+    if (this.abortReason !== undefined || this.finished) return;
     this.abortReason = reason;
     this.abortOutcome = outcome;
+    this.source.inhibit();
     if (outcome === 'aborted-user') this.chain.emit({ type: 'decision', action: 'abort', reason });
     this.offSent = this.offNow(reason);
     this.wake?.();
@@ -140,10 +144,13 @@ export class RunController {
       const ok = await this.source.outputOff();
       this.chain.emit({ type: 'output', on: false, confirmed: ok, reason: 'run ended' });
     } catch (e) {
-      if (e instanceof AbortSignalled) {
+      if (e instanceof AbortSignalled || (e instanceof GuardError && this.aborting)) {
         outcome = this.abortOutcome;
         reason = this.abortReason ?? e.message;
         await this.offSent;
+        // Belt and braces: whatever was in flight when the abort came, the last word is output off.
+        const ok = await this.source.outputOff();
+        if (!ok) this.chain.emit({ type: 'output', on: false, confirmed: false, reason: 'final output off after abort did not reach the instrument' });
       } else {
         const fault = e instanceof ScpiTimeoutError || e instanceof ScpiDisconnectError || e instanceof ScpiInstrumentError;
         outcome = e instanceof GuardError ? 'guard-refused' : fault ? 'instrument-fault' : 'instrument-fault';
@@ -158,6 +165,7 @@ export class RunController {
         this.chain.emit({ type: 'output', on: false, confirmed: ok, reason: `after: ${reason}` });
       }
     }
+    this.finished = true;
     this.chain.end(outcome, reason);
     return { outcome, reason, sweeps: this.chain.sweepsDone };
   }

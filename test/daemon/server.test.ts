@@ -134,13 +134,18 @@ describe('hard limits on the wire (property test)', () => {
       await fc.assert(
         fc.asyncProperty(fc.array(command, { minLength: 1, maxLength: 6 }), async (cmds) => {
           for (const c of cmds) {
-            const r = await api(url, c.method, c.path, c.body);
-            expect(r.status).toBeLessThan(500);
+            const t0 = Date.now();
+            const r = await api(url, c.method, c.path, c.body).catch((e: Error) => {
+              throw new Error(`${c.method} ${c.path} ${JSON.stringify(c.body).slice(0, 200)} failed after ${Date.now() - t0} ms: ${e.message}; running=${st.running}`);
+            });
+            if (Date.now() - t0 > 3000) console.error(`slow: ${c.method} ${c.path} ${JSON.stringify(c.body).slice(0, 200)} took ${Date.now() - t0} ms`);
+            expect(r.status, JSON.stringify(r.json)).toBeLessThan(500);
             await new Promise((res) => setTimeout(res, 5));
           }
           // Let a run in progress finish or abort it, then read the wire.
           if (st.running) st.abort('property test: end of sequence');
-          for (let k = 0; k < 200 && st.running; k++) await new Promise((res) => setTimeout(res, 10));
+          for (let k = 0; k < 1000 && st.running; k++) await new Promise((res) => setTimeout(res, 10));
+          expect(st.running, 'the run did not end within 10 s of the abort').toBe(false);
           const smu = st.simulator;
           if (!smu) return;
           let compliance = 1e-3; // the simulator's reset value; a run always sets its own before output on
@@ -162,7 +167,7 @@ describe('hard limits on the wire (property test)', () => {
           }
           expect(smu.output).toBe(false);
         }),
-        { numRuns: 25, seed: 20261202 },
+        { numRuns: 25, seed: 20261202, endOnFailure: true },
       );
       // The sequences did reach the instrument (the property is not vacuous).
       const sourced = (st.simulator?.log ?? []).filter((l) => /^:SOUR:VOLT /.test(l) && Number(l.split(' ')[1]) !== 0);
