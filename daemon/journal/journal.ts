@@ -7,8 +7,10 @@
  *    no number formatting, so the chain keeps up with fast sources; `plumbline export` turns it into
  *    points.csv. Events and readings share one sequence; readers merge the two files by seq.
  *
- * Crash safety: both files are buffered and written (readings first) with one write(2) each every
- * FLUSH_MS (100 ms) and whenever a buffer fills; fdatasync follows at most every SYNC_MS (250 ms).
+ * Crash safety: both files are buffered and written with one write(2) each every FLUSH_MS (100 ms)
+ * and whenever a buffer fills — events first, and the readings before an event are written before
+ * that event is buffered, so the files on disk are always a consistent prefix of the session;
+ * fdatasync follows at most every SYNC_MS (250 ms).
  * A killed process loses at most the last ~100 ms (the kernel keeps what was written), a power cut
  * at most ~350 ms. `session.lock` holds the writer's pid while it runs.
  */
@@ -100,6 +102,11 @@ export class JournalWriter {
 
   /** Journals an event; returns it with its sequence number and time. */
   event(e: NewEvent): WireEvent {
+    // Everything before this event reaches the files before the event can (flush() writes the
+    // buffered events, then the readings): a crash at any moment leaves a journal that is a
+    // prefix of the session in sequence order — no event without the readings before it, no
+    // reading without its sweep's start.
+    if (this.recPos > 0) this.flush();
     const full = { seq: ++this.seq, t: this.now(), ...e } as WireEvent;
     this.push(`${JSON.stringify(full)}\n`);
     return full;
@@ -144,27 +151,28 @@ export class JournalWriter {
     }
     this.lastFlush = performance.now();
     if (this.closed) return;
-    if (this.recPos > 0) {
-      const bytes = new Uint8Array(this.rec.buffer, 0, this.recPos * 8);
+    // Events first, then readings (see event()).
+    if (this.buf.length > 0) {
+      const data = this.buf.join('');
+      this.buf = [];
+      this.bufBytes = 0;
       let off = 0;
-      while (off < bytes.length) off += writeSync(this.rfd, bytes, off);
+      const bytes = Buffer.from(data, 'utf8');
+      while (off < bytes.length) off += writeSync(this.fd, bytes, off);
       this.written += bytes.length;
-      this.recPos = 0;
       this.dirty = true;
     }
-    if (this.buf.length === 0) {
-      this.maybeSync();
-      return;
-    }
-    const data = this.buf.join('');
-    this.buf = [];
-    this.bufBytes = 0;
-    let off = 0;
-    const bytes = Buffer.from(data, 'utf8');
-    while (off < bytes.length) off += writeSync(this.fd, bytes, off);
-    this.written += bytes.length;
-    this.dirty = true;
+    if (this.recPos > 0) this.writeReadings();
     this.maybeSync();
+  }
+
+  private writeReadings(): void {
+    const bytes = new Uint8Array(this.rec.buffer, 0, this.recPos * 8);
+    let off = 0;
+    while (off < bytes.length) off += writeSync(this.rfd, bytes, off);
+    this.written += bytes.length;
+    this.recPos = 0;
+    this.dirty = true;
   }
 
   private maybeSync(): void {

@@ -83,7 +83,9 @@ describe('daemon over a real pty', () => {
       expect(b?.value).toBeGreaterThan(3.0);
       expect(b?.value).toBeLessThan(3.2);
     }
-    // Output went on after the compliance was set, and off at the end.
+    // Output went on after the compliance was set, and off at the end (the simulator reads the
+    // pty asynchronously: give it the time to execute what the daemon already sent).
+    for (let k = 0; k < 500 && smu.log.at(-1) !== ':OUTP OFF'; k++) await new Promise((r) => setTimeout(r, 10));
     const on = smu.log.indexOf(':OUTP ON');
     expect(smu.log.slice(0, on).some((l) => l.startsWith(':SENS:CURR:PROT '))).toBe(true);
     expect(smu.log.at(-1)).toBe(':OUTP OFF');
@@ -131,6 +133,7 @@ describe('run aborts over a real pty', () => {
       expect(decision?.type === 'decision' && decision.reason).toMatch(/barrierHeight drifted/);
       const end = ev.at(-1);
       expect(end?.type === 'run-end' && end.sweeps).toBe(expected);
+      for (let k = 0; k < 500 && smu.output; k++) await new Promise((r) => setTimeout(r, 10));
       expect(smu.output).toBe(false);
     } finally {
       await pty.close();
@@ -152,7 +155,8 @@ describe('run aborts over a real pty', () => {
       expect(res.outcome).toBe('aborted-breakdown');
       expect(r.code).toBe(5);
       // The reading that showed breakdown is the last READ? before OUTP OFF; no voltage command between.
-      const off = smu.log.lastIndexOf(':OUTP OFF');
+      for (let k = 0; k < 500 && smu.output; k++) await new Promise((r) => setTimeout(r, 10));
+      const off = smu.log.indexOf(':OUTP OFF', smu.log.indexOf(':OUTP ON'));
       const lastRead = smu.log.lastIndexOf(':READ?', off);
       const between = smu.log.slice(lastRead + 1, off);
       expect(between.filter((l) => l.startsWith(':SOUR:VOLT'))).toEqual([]);

@@ -148,6 +148,8 @@ describe('hard limits on the wire (property test)', () => {
           expect(st.running, 'the run did not end within 10 s of the abort').toBe(false);
           const smu = st.simulator;
           if (!smu) return;
+          // The simulator executes what reached it asynchronously: let it finish the queued commands.
+          for (let k = 0; k < 500 && smu.output; k++) await new Promise((res) => setTimeout(res, 10));
           let compliance = 1e-3; // the simulator's reset value; a run always sets its own before output on
           let on = false;
           for (const line of smu.log) {
@@ -165,7 +167,7 @@ describe('hard limits on the wire (property test)', () => {
               if (on) expect(Math.abs(v) * compliance).toBeLessThanOrEqual(LIMITS.maxPower * (1 + 1e-9));
             }
           }
-          expect(smu.output).toBe(false);
+          expect(smu.output, 'the output was still on 5 s after the run ended').toBe(false);
         }),
         { numRuns: 25, seed: 20261202, endOnFailure: true },
       );
