@@ -240,8 +240,9 @@ export class LiveChain {
   }
 
   private publishFit(final: boolean): { fit: FitSummary | null } {
-    // Interim fits skip the regime search (the final fit of the sweep has it).
-    const r = this.fitNow(this.v, this.i, this.c, final);
+    // The regime search is left to the linearized view (computed only while a page watches): the
+    // fit events carry the line and parameters, and the chain keeps its pace without a page.
+    const r = this.fitNow(this.v, this.i, this.c, false);
     this.emit({ type: 'fit', sweep: this.sweep, final, fit: r.fit, ...(r.error ? { error: r.error } : {}) });
     this.publishView(this.sweep, final, this.v, this.i, this.c);
     return r;
