@@ -272,11 +272,16 @@ export async function startServer(station: Station, options: ServerOptions): Pro
     hub.upgrade(req, socket, head);
   });
   await new Promise<void>((resolve, reject) => {
-    server.once('error', reject);
-    server.listen(options.port, host, () => {
-      server.off('error', reject);
-      resolve();
+    server.once('error', (e: NodeJS.ErrnoException) => {
+      sub.unsubscribe();
+      viewSub.unsubscribe();
+      hub.close();
+      if (e.code === 'EADDRINUSE') reject(new ServerConfigError(`port ${options.port} on ${host} is already in use (another plumbline serve?): give --port, or 0 for any free port`));
+      else if (e.code === 'EACCES') reject(new ServerConfigError(`no permission to listen on ${host}:${options.port}: use a port above 1023`));
+      else if (e.code === 'EADDRNOTAVAIL') reject(new ServerConfigError(`server.host '${host}' is not an address of this machine`));
+      else reject(e);
     });
+    server.listen(options.port, host, () => resolve());
   });
   boundPort = (server.address() as AddressInfo).port;
   const shownHost = host.includes(':') ? `[${host}]` : host;
