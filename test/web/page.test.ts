@@ -97,6 +97,26 @@ describe('live page in headless Chromium', () => {
     await page.close();
   });
 
+  it('a past session opens read-only from the journal', async () => {
+    const page = await browser.newPage({ viewport: { width: 1600, height: 1250 } });
+    await page.goto(daemon.url);
+    await page.waitForFunction(() => document.querySelectorAll('#sessions button').length > 0, undefined, { timeout: 15_000 });
+    const id = await page.textContent('#sessions button');
+    await page.click('#sessions button');
+    await page.waitForFunction(() => (window as any).__plumbline.store.readOnly === true && (window as any).__plumbline.store.sweeps.size > 0);
+    const st = await pageState(page);
+    expect(st.session).toBe(id);
+    const rows = (await api(daemon.url, 'GET', `/api/sessions/${id}/readings`)).json.rows as number[][];
+    expect(Object.values(st.sweeps).reduce((a, s) => a + s.v.length, 0)).toBe(rows.length);
+    expect(await page.isVisible('#readonly-badge')).toBe(true);
+    expect(await page.locator('.caution[data-kind="read-only"]').count()).toBe(1);
+    expect(await page.isDisabled('#abort')).toBe(true);
+    await page.screenshot({ path: join(ARTIFACTS, 'page-read-only.png'), fullPage: true });
+    await page.click('#back-live');
+    await page.waitForFunction(() => (window as any).__plumbline.store.readOnly === false);
+    await page.close();
+  });
+
   it('the abort control (Esc) turns the output off at once', async () => {
     const page = await browser.newPage({ viewport: { width: 1600, height: 1250 } });
     await page.goto(daemon.url);
