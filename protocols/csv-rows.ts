@@ -14,12 +14,14 @@ export interface ColumnMapping {
   readonly current?: string;
   /** Optional column with a compliance flag (non-zero = at compliance). */
   readonly compliance?: string;
+  /** Optional column with the device temperature, K. */
+  readonly temperature?: string;
 }
 
 export type RowResult =
   | { kind: 'header' }
   | { kind: 'skip' }
-  | { kind: 'reading'; reading: Reading; compliance: boolean }
+  | { kind: 'reading'; reading: Reading; compliance: boolean; temperature?: number }
   | { kind: 'rejected'; reason: string };
 
 export class CsvRowMapper {
@@ -28,6 +30,7 @@ export class CsvRowMapper {
   private vi = 0;
   private ii = 1;
   private ci = -1;
+  private ti = -1;
 
   constructor(private readonly mapping: ColumnMapping = {}) {}
 
@@ -58,6 +61,7 @@ export class CsvRowMapper {
         this.vi = this.resolve(this.mapping.voltage, 0, 'voltage');
         this.ii = this.resolve(this.mapping.current, 1, 'current');
         this.ci = this.mapping.compliance !== undefined ? this.resolve(this.mapping.compliance, -1, 'compliance') : -1;
+        this.ti = this.mapping.temperature !== undefined ? this.resolve(this.mapping.temperature, -1, 'temperature') : -1;
         return { kind: 'header' };
       }
     }
@@ -71,6 +75,11 @@ export class CsvRowMapper {
     if (Number.isNaN(v)) return { kind: 'rejected', reason: `column '${this.headers[this.vi]}': '${fields[this.vi].trim()}' is not a number` };
     if (Number.isNaN(i)) return { kind: 'rejected', reason: `column '${this.headers[this.ii]}': '${fields[this.ii].trim()}' is not a number` };
     const c = this.ci >= 0 ? parseNumberField(fields[this.ci]) : 0;
-    return { kind: 'reading', reading: { v, i, overflow: false }, compliance: c !== 0 && !Number.isNaN(c) };
+    let temperature: number | undefined;
+    if (this.ti >= 0) {
+      temperature = parseNumberField(fields[this.ti]);
+      if (!(temperature > 0)) return { kind: 'rejected', reason: `column '${this.headers[this.ti]}': '${fields[this.ti].trim()}' is not a temperature in K` };
+    }
+    return { kind: 'reading', reading: { v, i, overflow: false }, compliance: c !== 0 && !Number.isNaN(c), ...(temperature !== undefined ? { temperature } : {}) };
   }
 }

@@ -214,12 +214,13 @@ export function registerStation(program: Command): void {
     .option('--voltage <col>', 'voltage column, by header name or 1-based position (default: the first)')
     .option('--current <col>', 'current column (default: the second)')
     .option('--compliance-column <col>', 'column flagging readings at compliance (non-zero)')
+    .option('--temperature-column <col>', 'column with the device temperature in K: each sweep gets a note "T = … K" (for plumbline tseries)')
     .option('--model <id>', 'live-fit model (default: the config\'s)')
     .option('--config <file>', 'station config (analysis, drift, server, data settings)')
     .option('--data <dir>', 'folder for the session folder (default: the config\'s, plumbline-data)')
     .option('--port <n>', 'serve the page on this port (default: the config\'s; 0 = any free port)')
     .option('--no-page', 'do not serve the page')
-    .action(async (file: string, o: { voltage?: string; current?: string; complianceColumn?: string; model?: string; config?: string; data?: string; port?: string; page: boolean }) => {
+    .action(async (file: string, o: { voltage?: string; current?: string; complianceColumn?: string; temperatureColumn?: string; model?: string; config?: string; data?: string; port?: string; page: boolean }) => {
       const config = await stationConfig({ config: o.config });
       const { dataDir, Station, startServer } = await daemonModules();
       const { feedPassive } = await import('../pipeline/passive.js');
@@ -239,7 +240,7 @@ export function registerStation(program: Command): void {
       const where = file === '-' ? 'standard input' : file;
       const source = file === '-' ? streamLines(process.stdin) : await fileLines(file);
       const passive = station.openPassive('watch', where);
-      const feed = feedPassive(source, passive.chain, { voltage: o.voltage, current: o.current, compliance: o.complianceColumn }, where);
+      const feed = feedPassive(source, passive.chain, { voltage: o.voltage, current: o.current, compliance: o.complianceColumn, temperature: o.temperatureColumn }, where);
       process.stdout.write(`watching ${where} → session ${passive.session}\n  folder ${passive.dir}\n${srv ? `  page  ${srv.url}\n` : ''}plumbline does not control this instrument; Ctrl-C stops watching.\n`);
       station.events$.subscribe({
         next: (e) => {

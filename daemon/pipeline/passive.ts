@@ -59,9 +59,17 @@ export function feedPassive(source: LineSource, chain: LiveChain, mapping: Colum
   const seg = new ReversalSegmenter();
   const stats: PassiveStats = { lines: 0, readings: 0, rejected: 0, sweeps: 0 };
   let open = false;
+  let tSum = 0;
+  let tN = 0;
   const endSweep = (note?: string) => {
-    if (open) chain.endSweep(true, note);
+    if (open) {
+      chain.endSweep(true, note);
+      // A temperature column tags the sweep (the mean over its readings) for the temperature series.
+      if (tN > 0) chain.emit({ type: 'annotation', text: `T = ${+(tSum / tN).toPrecision(6)} K (mean of the temperature column)`, tags: ['temperature'], sweep: stats.sweeps, source: 'watch' });
+    }
     open = false;
+    tSum = 0;
+    tN = 0;
   };
   let resolveDone: () => void = () => undefined;
   const done = new Promise<void>((r) => (resolveDone = r));
@@ -111,6 +119,10 @@ export function feedPassive(source: LineSource, chain: LiveChain, mapping: Colum
           open = true;
         }
         chain.reading(r.reading.v, r.reading.i, r.compliance, r.reading.overflow);
+        if (r.temperature !== undefined) {
+          tSum += r.temperature;
+          tN++;
+        }
         stats.readings++;
       },
       error: () => finish(),

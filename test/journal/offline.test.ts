@@ -12,6 +12,12 @@ import { pooleFrenkel } from '../../daemon/analysis/mechanisms/poole-frenkel.js'
 import { seededNormal } from '../../daemon/analysis/random.js';
 import { JournalWriter } from '../../daemon/journal/journal.js';
 import { loadSession } from '../../daemon/journal/sessions.js';
+import { EventEmitter } from 'node:events';
+import type { LineSource } from '../../protocols/line-source.js';
+import { LiveChain } from '../../daemon/pipeline/chain.js';
+import { feedPassive } from '../../daemon/pipeline/passive.js';
+import { analysisSchema, breakdownSchema, driftSchema } from '../../daemon/pipeline/settings.js';
+import { temperatureSeries } from '../../daemon/journal/tseries.js';
 import { runCli } from '../helpers/cli.js';
 import { tempDir } from '../helpers/daemon.js';
 
@@ -82,6 +88,45 @@ describe('temperature series', () => {
     const none = runCli(['tseries', simulatedSession('nitride-pf', 1)]);
     expect(none.code).toBe(1);
     expect(none.stderr).toMatch(/Arrhenius fit needs sweeps at 3 or more temperatures/);
+  });
+});
+
+describe('temperature from a column (watch mode)', () => {
+  it('a watched file with a temperature column tags each sweep, and the series gives the trap depth', async () => {
+    const data = join(tempDir(), 'data');
+    const { writer, id } = JournalWriter.create(data, 'watch-temperatures');
+    const inputs = { thickness: 2e-8, area: 1e-8 };
+    const chain = new LiveChain({
+      journal: writer,
+      analysis: analysisSchema.parse({ model: 'poole-frenkel', window: { from: 4, to: 12 }, inputs }),
+      drift: driftSchema.parse({ enabled: false }),
+      breakdown: breakdownSchema.parse({}),
+      hazardVoltage: 30,
+      control: false,
+    });
+    chain.emit({ type: 'session', id, startedAt: new Date().toISOString(), source: { kind: 'passive', detail: 'test', control: false }, instrument: '-', plan: null, analysis: { model: 'poole-frenkel', window: { from: 4, to: 12 }, inputs }, drift: {}, limits: {} });
+    const source = new EventEmitter() as LineSource;
+    source.stop = async () => undefined;
+    const feed = feedPassive(source, chain, { voltage: 'V', current: 'I', temperature: 'T_chuck' }, 'test.csv');
+    const normal = seededNormal(3);
+    let line = 0;
+    source.emit('line', 'V,I,T_chuck', ++line);
+    for (const T of [300, 330, 360, 390]) {
+      for (let k = 0; k <= 40; k++) {
+        const v = 0.3 * k;
+        const j = k === 0 ? 0 : pooleFrenkel(v / 2e-8, 1e-2, 0.9, 4.0, T);
+        // The chuck wanders ±0.2 K around its set point.
+        source.emit('line', `${v},${j * 1e-8 * (1 + 0.005 * normal())},${T + 0.2 * normal()}`, ++line);
+      }
+    }
+    source.emit('end');
+    await feed.done;
+    chain.end('completed', 'test');
+    const r = temperatureSeries(join(data, id), {});
+    expect(r.points.map((p) => Math.round(p.temperature))).toEqual([300, 330, 360, 390]);
+    const ea = r.result.activationEnergy;
+    expect(Math.abs(ea.value - 0.9)).toBeLessThan(2 * ea.stdErr + 1e-6);
+    expect(ea.stdErr).toBeLessThan(0.02);
   });
 });
 
