@@ -156,7 +156,16 @@ export function registerStation(program: Command): void {
         },
         error: () => undefined,
       });
-      const h = await station.startRun({ plan, analysis });
+      let h: Awaited<ReturnType<typeof station.startRun>>;
+      try {
+        h = await station.startRun({ plan, analysis });
+      } catch (e) {
+        if ((e as { status?: number }).status === 502) {
+          process.stderr.write(`plumbline run: ${(e as Error).message}\n`);
+          process.exit(EXIT_CODE['instrument-fault']);
+        }
+        throw e;
+      }
       if (!o.json) {
         process.stdout.write(`session ${h.session}\n  folder ${h.dir}\n  plan: ${describePlan(h.plan)}\n`);
         process.stdout.write('CAUTION: on a real station the output can reach hazardous voltages. Follow your lab\'s safety rules; these software limits do not replace the instrument\'s interlock.\n');

@@ -193,13 +193,24 @@ export class Station {
     return { driver: new SmuDriver(session, loadDialect(this.config.dialect)), session, detail };
   }
 
+  private describeInstrument(): string {
+    const ic = this.config.instrument;
+    return ic.kind === 'tcp' ? `TCP ${ic.host}:${ic.port}` : ic.kind === 'serial' ? `serial ${ic.path}` : 'simulator';
+  }
+
   /** Validates and starts a run; resolves once the session folder exists and the run is under way. */
   async startRun(options: { plan?: unknown; analysis?: unknown; label?: string } = {}): Promise<RunHandle> {
     if (this.running) throw new StationError(`a run is in progress (session ${this.current?.session}); stop or abort it first`);
     const plan = options.plan === undefined ? this.defaultPlan() : parsePlan(options.plan, 'plan');
     checkPlan(this.config.limits, plan);
     if (options.analysis !== undefined) this.analysis = this.parseAnalysis(options.analysis);
-    const { driver, session, detail } = await this.connect();
+    let link: Awaited<ReturnType<Station['connect']>>;
+    try {
+      link = await this.connect();
+    } catch (e) {
+      throw new StationError(`cannot reach the instrument (${this.describeInstrument()}): ${(e as Error).message}; check the cable or address, and that nothing else holds the port`, 502);
+    }
+    const { driver, session, detail } = link;
     let idn: string;
     try {
       idn = await driver.identify();
