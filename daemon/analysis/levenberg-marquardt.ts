@@ -137,19 +137,18 @@ export function levenbergMarquardt(problem: LmProblem, options: LmOptions = {}):
     else numericJacobian(problem, at, J, typical);
   };
   const normal = () => {
-    A.fill(0);
-    g.fill(0);
-    for (let i = 0; i < n; i++) {
-      const row = i * m;
-      const ri = r[i];
-      for (let j = 0; j < m; j++) {
-        const jij = J[row + j];
-        if (jij === 0) continue;
-        g[j] += jij * ri;
-        for (let k = 0; k <= j; k++) A[j * m + k] += jij * J[row + k];
+    // JᵀJ and Jᵀr column pair by column pair: the sums stay in registers (row-major J, m ≪ n).
+    for (let j = 0; j < m; j++) {
+      let gj = 0;
+      for (let i = 0, o = j; i < n; i++, o += m) gj += J[o] * r[i];
+      g[j] = gj;
+      for (let k = 0; k <= j; k++) {
+        let s = 0;
+        for (let i = 0, oj = j, ok = k; i < n; i++, oj += m, ok += m) s += J[oj] * J[ok];
+        A[j * m + k] = s;
+        A[k * m + j] = s;
       }
     }
-    for (let j = 0; j < m; j++) for (let k = 0; k < j; k++) A[k * m + j] = A[j * m + k];
   };
 
   problem.residuals(p, r);
