@@ -303,7 +303,7 @@ export function fitDiodeModel(
             J[col] = (sc * u) / rsh; // ∂f/∂R_sh · R_sh = u/R_sh
           }
         },
-      }, { maxIterations, ...tolerances });
+      }, { maxIterations, ...tolerances, geodesic: true });
     } catch (e) {
       if (e instanceof AnalysisError) return undefined;
       throw e;

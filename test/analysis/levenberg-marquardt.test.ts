@@ -12,7 +12,7 @@ import { HAVE_STRD, loadStrd, lre } from '../helpers/reference.js';
 
 const SETS = ['Misra1a', 'Chwirut2', 'DanWood', 'Misra1b', 'Kirby2', 'MGH17', 'Misra1c', 'Misra1d'];
 
-function fitStrd(name: string, start: 'start1' | 'start2') {
+function fitStrd(name: string, start: 'start1' | 'start2', geodesic = false) {
   const d = loadStrd(name);
   const names = d.parameterNames;
   // NIST writes powers as '**'; mathjs writes them as '^'.
@@ -31,7 +31,7 @@ function fitStrd(name: string, start: 'start1' | 'start2') {
           r[i] = (expr.evaluate(scope) as number) - d.y[i];
         }
       },
-    }),
+    }, { geodesic }),
   };
 }
 
@@ -49,6 +49,16 @@ describe.skipIf(!HAVE_STRD)('Levenberg–Marquardt on NIST StRD nonlinear sets (
         expect(lre(result.sse, d.certified.residualSumOfSquares)).toBeGreaterThanOrEqual(6);
       });
     }
+  }
+});
+
+describe.skipIf(!HAVE_STRD)('Levenberg–Marquardt with geodesic acceleration (used by the diode fits)', () => {
+  for (const name of ['Misra1a', 'Kirby2', 'MGH17']) {
+    it(`${name} from start1: parameters to ≥ 6 digits`, () => {
+      const { d, names, result } = fitStrd(name, 'start1', true);
+      expect(result.converged, result.reason).toBe(true);
+      names.forEach((k, j) => expect(lre(result.p[j], d.certified.params[k].value), k).toBeGreaterThanOrEqual(6));
+    });
   }
 });
 

@@ -25,5 +25,5 @@ export function benchDiode(): void {
     rmse = fit.rmse as number;
   }
   times.sort((a, b) => a - b);
-  report('two-diode fit, 1000 points (3 starts + seed fit)', times[4], `ms median; RMSE ${rmse.toExponential(3)} A (noise 2e-6 A)`, '≤ 20');
+  report('two-diode fit, 1000 points (one-diode seed + two-diode)', times[4], `ms median; RMSE ${rmse.toExponential(3)} A (noise 2e-6 A)`, '≤ 20');
 }
