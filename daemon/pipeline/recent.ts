@@ -3,7 +3,7 @@
  * most recent readings in a fixed ring of typed arrays — constant memory, no per-reading objects
  * kept alive, however long the run.
  */
-import { packReading, type PackedReading, type WireEvent } from '../../protocols/wire.js';
+import type { PackedReading, WireEvent } from '../../protocols/wire.js';
 
 const FIELDS = 7;
 
@@ -68,5 +68,3 @@ export class RecentEvents {
     return this.events;
   }
 }
-
-export { packReading };

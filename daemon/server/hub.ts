@@ -125,7 +125,6 @@ export class Hub {
     this.stats.events += events.length;
     if (this.clients.size === 0) return;
     const first = events[0].seq;
-    const last = events[events.length - 1].seq;
     let text: string | undefined;
     const now = Date.now();
     let lagging = 0;
@@ -161,7 +160,6 @@ export class Hub {
       c.ws.send(text);
     }
     this.stats.lagging = lagging;
-    void last;
   }
 
   close(): void {

@@ -9,8 +9,6 @@ import { OKABE_ITO, sequential } from '../../protocols/palette.js';
 import type { PlotViewData, WireEvent } from '../../protocols/wire.js';
 import type { SweepPoints } from './store.js';
 
-export { OKABE_ITO, sequential };
-
 function size(el: HTMLElement, h: number): { width: number; height: number } {
   return { width: Math.max(300, el.clientWidth), height: h };
 }
