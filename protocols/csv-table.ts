@@ -23,6 +23,11 @@ export interface CsvTable {
   readonly columns: Float64Array[];
   /** Source line (1-based) of each data row. */
   readonly lines: number[];
+  /**
+   * The first cell of each column that is not a number (its line and text), or undefined: text
+   * columns (a session name, a comment) are allowed as long as nothing uses them as numbers.
+   */
+  readonly firstText: ({ line: number; text: string } | undefined)[];
 }
 
 const NUMBER = /^[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?$/;
@@ -82,6 +87,7 @@ export function parseCsvTable(text: string, file: string): CsvTable {
   });
   const cols: number[][] = headers.map(() => []);
   const lines: number[] = [];
+  const firstText: CsvTable['firstText'] = headers.map(() => undefined);
   for (let i = headerAt + 1; i < rawLines.length; i++) {
     const t = rawLines[i].trim();
     if (t === '' || t.startsWith('#')) continue;
@@ -91,13 +97,19 @@ export function parseCsvTable(text: string, file: string): CsvTable {
     }
     for (let k = 0; k < headers.length; k++) {
       const v = parseNumberField(fields[k]);
-      if (Number.isNaN(v)) throw new CsvError(file, i + 1, headers[k], `'${fields[k].trim()}' is not a number`);
+      if (Number.isNaN(v) && firstText[k] === undefined) firstText[k] = { line: i + 1, text: fields[k].trim() };
       cols[k].push(v);
     }
     lines.push(i + 1);
   }
   if (lines.length === 0) throw new CsvError(file, undefined, undefined, 'no data rows after the header');
-  return { file, headers, columns: cols.map((c) => Float64Array.from(c)), lines };
+  return { file, headers, columns: cols.map((c) => Float64Array.from(c)), lines, firstText };
+}
+
+/** Throws, naming the file, line and column, if column k holds a cell that is not a number. */
+export function requireNumeric(table: CsvTable, k: number): void {
+  const t = table.firstText[k];
+  if (t) throw new CsvError(table.file, t.line, table.headers[k], `'${t.text}' is not a number`);
 }
 
 /** Finds a column by header name (case-insensitive) or 1-based position. */

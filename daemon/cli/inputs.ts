@@ -9,7 +9,7 @@ import type { AccuracySpec } from '../analysis/accuracy.js';
 import type { IVData, WindowRequest } from '../analysis/analyze.js';
 import type { Inputs } from '../analysis/mechanism.js';
 import { columnIdentifiers, setExpressionEngine } from '../analysis/mechanisms/custom.js';
-import { columnIndex, CsvError, parseCsvTable, type CsvTable } from '../../protocols/csv-table.js';
+import { columnIndex, CsvError, parseCsvTable, requireNumeric, type CsvTable } from '../../protocols/csv-table.js';
 import { parseQuantity, QuantityError } from '../quantity.js';
 
 export interface AnalysisOptions {
@@ -109,6 +109,8 @@ export function loadData(file: string, o: AnalysisOptions): { table: CsvTable; d
   const xi = o.x !== undefined ? columnIndex(table, o.x, '--x') : 0;
   const yi = o.y !== undefined ? columnIndex(table, o.y, '--y') : 1;
   const ci = table.headers.findIndex((h) => /^compliance$/i.test(h));
+  // Only the columns in use must be numbers (an exported points.csv carries a text session column).
+  for (const k of [xi, yi, ...(ci >= 0 ? [ci] : [])]) requireNumeric(table, k);
   const columns: Record<string, Float64Array> = {};
   columnIdentifiers(table.headers).forEach((ids, k) => ids.forEach((id) => (columns[id] = table.columns[k])));
   return {

@@ -103,3 +103,17 @@ describe('malformed CSV: non-zero exit, the message names file, line and column'
     expect(r.stderr).toMatch(/line 1.*header row/);
   });
 });
+
+describe('text columns that are not used', () => {
+  it('a CSV with a text column (an exported points.csv) fits on its numeric columns; a text cell in a used column names its line', () => {
+    // Ohmic by construction: I = V / 1 kΩ, worked by hand.
+    const rows = [0, 1, 2, 3, 4, 5].map((v) => `run-A,${v},${v / 1000},0`).join('\n');
+    const f = tempFile('points.csv', `session,voltage_V,current_A,compliance\n${rows}\n`);
+    const ok = runCli(['fit', f, '--x', 'voltage_V', '--y', 'current_A', '--model', 'ohmic', '--json']);
+    expect(ok.code, ok.stderr).toBe(0);
+    expect(JSON.parse(ok.stdout).parameters.resistance.value).toBeCloseTo(1000, 9);
+    const bad = runCli(['fit', f, '--model', 'ohmic']); // default x is column 1: the text column
+    expect(bad.code).toBe(2);
+    expect(bad.stderr).toMatch(/line 2, column 'session': 'run-A' is not a number/);
+  });
+});
