@@ -5,9 +5,13 @@
  * synthetic Cheung–Cheung diode of ../shared/physics.md §6. Expected values: see
  * test/analysis/diode.test.ts (published fits, from memory; hand interpolation of the data).
  */
+import { mkdtempSync, readdirSync, readFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
 import { thermalVoltage } from '../../daemon/analysis/constants.js';
 import { runCli, tempFile } from '../helpers/cli.js';
+import { PROJECT_ROOT } from '../helpers/reference.js';
 
 const V = [-0.2057, -0.1291, -0.0588, 0.0057, 0.0646, 0.1185, 0.1678, 0.2132, 0.2545, 0.2924, 0.3269, 0.3585, 0.3873, 0.4137, 0.4373, 0.459, 0.4784, 0.496, 0.5119, 0.5265, 0.5398, 0.5521, 0.5633, 0.5736, 0.5833, 0.59];
 const I = [0.764, 0.762, 0.7605, 0.7605, 0.76, 0.759, 0.757, 0.757, 0.7555, 0.754, 0.7505, 0.7465, 0.7385, 0.728, 0.7065, 0.6755, 0.632, 0.573, 0.499, 0.413, 0.3165, 0.212, 0.1035, -0.01, -0.123, -0.21];
@@ -84,5 +88,25 @@ describe('plumbline solar', () => {
     const r = runCli(['solar', smuCsv, '--irradiance', '3 V']);
     expect(r.code).toBe(2);
     expect(r.stderr).toMatch(/--irradiance/);
+  });
+});
+
+describe('the whole path: simulator → journal → export → fit', () => {
+  // Not an outside reference (the simulator uses the same forward model): a check that nothing on
+  // the way — driver, journal, export, CSV reading, conventions — loses or bends the data.
+  it('the solar-cell scenario\'s invented cell comes back from an exported session within 3σ', () => {
+    const dir = mkdtempSync(join(tmpdir(), 'plumbline-solar-'));
+    expect(runCli(['run', '--scenario', 'solar-cell', '--sweeps', '1', '--fast', '--data', join(dir, 'd')]).code).toBe(0);
+    const session = join(dir, 'd', readdirSync(join(dir, 'd'))[0]);
+    expect(runCli(['export', session, '--out', join(dir, 'x')]).code).toBe(0);
+    const r = runCli(['fit', join(dir, 'x', 'points.csv'), '--x', 'voltage_V', '--y', 'current_A', '--model', 'single-diode', '--illuminated', '--temperature', '298.15 K', '--json']);
+    expect(r.code, r.stderr).toBe(0);
+    const p = JSON.parse(r.stdout).parameters;
+    const truth = JSON.parse(readFileSync(join(PROJECT_ROOT, 'config', 'scenarios', 'solar-cell.json'), 'utf8')).device.params;
+    for (const k of ['photocurrent', 'saturationCurrent', 'idealityFactor', 'seriesResistance', 'shuntResistance']) {
+      expect(Math.abs(p[k].value - truth[k]), `${k} ${p[k].value} ± ${p[k].stdErr} vs ${truth[k]}`).toBeLessThan(3 * p[k].stdErr);
+    }
+    const s = JSON.parse(runCli(['solar', join(dir, 'x', 'points.csv'), '--x', 'voltage_V', '--y', 'current_A', '--json']).stdout);
+    expect(s.isc).toBeCloseTo(truth.photocurrent, 2);
   });
 });

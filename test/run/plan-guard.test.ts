@@ -44,3 +44,15 @@ describe('guard', () => {
     expect(() => checkPlan(limits, parsePlan({ kind: 'list', values: [1, 2, -11], compliance: 1e-4 }))).toThrow(/-11/);
   });
 });
+
+describe('the default station and the demo scenarios', () => {
+  it('every scenario\'s suggested sweep passes the default station\'s hard limits (npm start -- --scenario NAME works)', async () => {
+    const { loadConfig } = await import('../../daemon/run/config.js');
+    const { listScenarios } = await import('../../daemon/simulator/scenarios.js');
+    const station = loadConfig();
+    for (const s of listScenarios()) {
+      const plan = parsePlan({ start: s.sweep.start, stop: s.sweep.stop, points: s.sweep.points, compliance: s.sweep.compliance });
+      expect(() => checkPlan(station.limits, plan), s.name).not.toThrow();
+    }
+  });
+});
