@@ -127,6 +127,9 @@ export function registerStation(program: Command): void {
       const station = new Station(config, data);
       for (const r of station.recovered) process.stderr.write(`journal ${r.dir}: ${r.message}\n`);
       let plan: unknown = o.plan !== undefined ? readJson(o.plan, 'plan') : undefined;
+      // Errors in a plan file name the file and the field.
+      const { parsePlan } = await daemonModules();
+      if (o.plan !== undefined) parsePlan(plan, o.plan);
       if (o.sweeps !== undefined) {
         const n = Number(o.sweeps);
         if (!Number.isInteger(n) || n < 1) throw new UsageError(`--sweeps '${o.sweeps}': expected a whole number ≥ 1`);
