@@ -162,6 +162,22 @@ function darkStart(p: Points, vt: number): DiodeStart {
 }
 
 /**
+ * Long curves: the long crawl along the two-diode valley is done on every k-th point (about 250),
+ * then the full curve is fitted from there — the two optima lie close, so the last run is short.
+ */
+function fitOnSubsampleFirst(p: Points, w: number[], opts: Parameters<typeof fitDiodeModel>[3], start: DiodeStart): ReturnType<typeof fitDiodeModel> {
+  const n = p.v.length;
+  if (n < 600) return fitDiodeModel(p.v, p.i, w, opts, [start]);
+  const step = Math.floor(n / 250);
+  const idx: number[] = [];
+  for (let k = 0; k < n; k += step) idx.push(k);
+  if (idx[idx.length - 1] !== n - 1) idx.push(n - 1);
+  const sub = fitDiodeModel(idx.map((k) => p.v[k]), idx.map((k) => p.i[k]), idx.map((k) => w[k]), opts, [start]);
+  const c = sub.circuit;
+  return fitDiodeModel(p.v, p.i, w, opts, [{ photocurrent: c.photocurrent, diodes: c.diodes, seriesResistance: c.seriesResistance, shuntResistance: c.shuntResistance }]);
+}
+
+/**
  * A two-diode start from the curve itself: with the single-diode R_s and R_sh, the diode current
  * I_d = I_ph − I − V_j/R_sh at the junction voltage V_j = V + I·R_s is split into its lower and upper
  * thirds (in ln I_d); a semilog line through each gives the recombination (n₂, I₀₂) and the
@@ -245,7 +261,7 @@ export function fitDiode(data: IVData, model: DiodeModel, req: DiodeRequest = {}
     for (const st of starts) {
       let f: typeof sdm;
       try {
-        f = fitDiodeModel(p.v, p.i, w, opts, [st]);
+        f = fitOnSubsampleFirst(p, w, opts, st);
       } catch (e) {
         if (e instanceof AnalysisError) continue;
         throw e;
