@@ -1,6 +1,6 @@
 /** Tiny timing helpers for the benchmark scripts: median of repeated runs, in milliseconds. */
 export function medianMs(fn: () => void, repeats: number): number {
-  fn(); // warm-up (JIT)
+  for (let k = 0; k < 3; k++) fn(); // warm-up (JIT tiers settle after a few calls)
   const t: number[] = [];
   for (let k = 0; k < repeats; k++) {
     const s = process.hrtime.bigint();
