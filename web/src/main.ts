@@ -315,6 +315,10 @@ $('run-stop').addEventListener('click', () => {
   call('POST', '/api/run/stop', { reason: 'stop requested from the page' }).then(() => say('The run stops after this sweep.')).catch((e: Error) => say(e.message, true));
 });
 function abort(): void {
+  if (viewStore.readOnly) {
+    say('A past session is open read-only: nothing to abort here (Back to the live session).', true);
+    return;
+  }
   call('POST', '/api/run/abort', { reason: 'abort from the page' }).then(() => say('Aborted: output off sent.')).catch((e: Error) => say(e.message, true));
 }
 $('abort').addEventListener('click', abort);
