@@ -29,6 +29,16 @@ export interface ArrheniusResult {
   readonly n: number;
 }
 
+/**
+ * A point for the Arrhenius plot from a fitted quantity: an intercept is already a logarithm;
+ * a parameter p enters as ln p with δ(ln p) = δp/p.
+ */
+export function seriesPoint(temperature: number, value: number, stdErr: number, alreadyLog: boolean): SeriesPoint {
+  if (alreadyLog) return { temperature, y: value, yStdErr: stdErr };
+  if (!(value > 0)) throw new AnalysisError('BAD_INPUT', `${value} is not positive: no logarithm for the Arrhenius plot`);
+  return { temperature, y: Math.log(value), yStdErr: stdErr / value };
+}
+
 export function arrhenius(points: readonly SeriesPoint[]): ArrheniusResult {
   if (points.length < 3) throw new AnalysisError('TOO_FEW_POINTS', `an Arrhenius fit needs sweeps at 3 or more temperatures; ${points.length} given`);
   const temps = new Set(points.map((p) => p.temperature));

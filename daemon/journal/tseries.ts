@@ -7,7 +7,7 @@
 import { analyze, type FitRequest } from '../analysis/analyze.js';
 import { AnalysisError } from '../analysis/errors.js';
 import { getMechanism } from '../analysis/mechanisms/index.js';
-import { arrhenius, temperatureFromText, type ArrheniusResult } from '../analysis/temperature-series.js';
+import { arrhenius, seriesPoint, temperatureFromText, type ArrheniusResult, type SeriesPoint } from '../analysis/temperature-series.js';
 import { loadSession } from './sessions.js';
 
 export interface SeriesReport {
@@ -15,7 +15,7 @@ export interface SeriesReport {
   readonly model: string;
   readonly quantity: string;
   readonly meaning: string;
-  readonly points: { sweep: number; temperature: number; value: number; stdErr: number; y: number }[];
+  readonly points: { sweep: number; temperature: number; value: number; stdErr: number; y: SeriesPoint }[];
   readonly skipped: { sweep: number; reason: string }[];
   readonly result: ArrheniusResult;
 }
@@ -48,19 +48,19 @@ export function temperatureSeries(dir: string, o: { model?: string; quantity?: s
         complianceLimit: s.complianceLimit,
       });
       if (quantity === 'intercept') {
-        points.push({ sweep: sw.sweep, temperature: T, value: r.line.intercept, stdErr: r.line.interceptStdErr, y: r.line.intercept });
+        points.push({ sweep: sw.sweep, temperature: T, value: r.line.intercept, stdErr: r.line.interceptStdErr, y: seriesPoint(T, r.line.intercept, r.line.interceptStdErr, true) });
       } else {
         const p = r.parameters[quantity];
         if (!p) throw new AnalysisError('BAD_INPUT', `model ${model} has no parameter '${quantity}' (it has ${Object.keys(r.parameters).join(', ') || 'none'})`);
         if (!(p.value > 0)) throw new AnalysisError('BAD_INPUT', `${quantity} = ${p.value} is not positive: no logarithm`);
-        points.push({ sweep: sw.sweep, temperature: T, value: p.value, stdErr: p.stdErr, y: Math.log(p.value) });
+        points.push({ sweep: sw.sweep, temperature: T, value: p.value, stdErr: p.stdErr, y: seriesPoint(T, p.value, p.stdErr, false) });
       }
     } catch (e) {
       if (e instanceof AnalysisError && e.message.includes('has no parameter')) throw e;
       skipped.push({ sweep: sw.sweep, reason: (e as Error).message });
     }
   });
-  const result = arrhenius(points.map((p) => ({ temperature: p.temperature, y: p.y, yStdErr: quantity === 'intercept' ? p.stdErr : p.stdErr / p.value })));
+  const result = arrhenius(points.map((p) => p.y));
   return {
     session: s.id,
     model,

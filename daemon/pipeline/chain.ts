@@ -8,7 +8,7 @@
  * that could drop or reorder readings sits between the instrument and the journal.
  */
 import { Subject } from 'rxjs';
-import { analyze, predictCurrent, resolveInputs, transformPoint, type FitReport } from '../analysis/analyze.js';
+import { analyze, predictCurrent, resolveInputs, transformPoint, type FitReport, type FitRequest, type IVData } from '../analysis/analyze.js';
 import { BreakdownWatch } from '../analysis/breakdown.js';
 import { DriftChart } from '../analysis/drift.js';
 import { LineAccumulator } from '../analysis/line-accumulator.js';
@@ -224,15 +224,19 @@ export class LiveChain {
     this.emit({ type: 'progress', sweep: this.sweep, sweeps, point: this.k, points: per, eta });
   }
 
+  /** A sweep's readings as analysis data (compliance from the flag bits). */
+  private data(v: number[], i: number[], c: number[]): IVData {
+    return { x: v, y: i, compliance: c.map((f) => f & FLAG.compliance) };
+  }
+
+  /** The run's analysis settings as a fit request. */
+  private request(regimes: boolean): FitRequest {
+    return { model: this.analysis.model, inputs: this.analysis.inputs, window: this.analysis.window, complianceLimit: this.options.complianceLimit, regimes };
+  }
+
   private fitNow(v: number[], i: number[], c: number[], regimes = true): { fit: FitSummary | null; error?: string; report?: FitReport } {
     try {
-      const report = analyze({ x: v, y: i, compliance: c.map((f) => f & FLAG.compliance) }, {
-        model: this.analysis.model,
-        inputs: this.analysis.inputs,
-        window: this.analysis.window,
-        complianceLimit: this.options.complianceLimit,
-        regimes,
-      });
+      const report = analyze(this.data(v, i, c), this.request(regimes));
       return { fit: summarizeFit(report), report };
     } catch (e) {
       return { fit: null, error: (e as Error).message };
@@ -251,12 +255,7 @@ export class LiveChain {
   private publishView(sweep: number, final: boolean, v: number[], i: number[], c: number[]): void {
     if (!this.views$.observed) return;
     try {
-      const view = plotView({ x: v, y: i, compliance: c.map((f) => f & FLAG.compliance) }, {
-        model: this.analysis.model,
-        inputs: this.analysis.inputs,
-        window: this.analysis.window,
-        complianceLimit: this.options.complianceLimit,
-      });
+      const view = plotView(this.data(v, i, c), this.request(true));
       this.views$.next({ sweep, final, view });
     } catch {
       /* a view the data cannot give is simply not drawn; the fit event carries the reason */
@@ -268,7 +267,7 @@ export class LiveChain {
     if (this.v.length > RANKING_MAX_POINTS || now - this.lastRankingAt < RANKING_INTERVAL_MS) return;
     this.lastRankingAt = now;
     try {
-      const r = rankMechanisms({ x: this.v, y: this.i, compliance: this.c.map((f) => f & FLAG.compliance) }, {
+      const r = rankMechanisms(this.data(this.v, this.i, this.c), {
         inputs: this.analysis.inputs,
         window: this.analysis.window,
         complianceLimit: this.options.complianceLimit,
