@@ -20,7 +20,7 @@ export async function runDemo(scenarioName = 'oxide-fn'): Promise<void> {
   const [client, instrument] = duplexPair();
   attachInstrument(smu, instrument);
   const session = new ScpiSession(client);
-  const driver = new SmuDriver(session, loadDialect('scpi-default'));
+  const driver = new SmuDriver(session, loadDialect('protection-trip'));
   const out = (t: string) => process.stdout.write(t);
   out(`plumbline demo — simulated instrument: ${await driver.identify()}\n`);
   out(`device: ${scenario.name} — ${scenario.description}\n`);

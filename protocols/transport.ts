@@ -12,11 +12,13 @@ export const SCPI_RAW_PORT = 5025;
 export interface SerialSettings {
   readonly path: string;
   readonly baudRate?: number;
-  readonly parity?: 'none' | 'even' | 'odd';
-  readonly dataBits?: 7 | 8;
-  readonly stopBits?: 1 | 2;
+  readonly parity?: 'none' | 'even' | 'odd' | 'mark' | 'space';
+  readonly dataBits?: 5 | 6 | 7 | 8;
+  readonly stopBits?: 1 | 1.5 | 2;
+  /** Hardware flow control (RTS/CTS). */
   readonly rtscts?: boolean;
-  readonly xon?: boolean;
+  /** Software flow control (XON/XOFF) in both directions. */
+  readonly xonxoff?: boolean;
 }
 
 export function openTcp(host: string, port = SCPI_RAW_PORT, timeoutMs = 5000): Promise<Duplex> {
@@ -47,8 +49,8 @@ export function openSerial(settings: SerialSettings): Promise<Duplex> {
     dataBits: settings.dataBits ?? 8,
     stopBits: settings.stopBits ?? 1,
     rtscts: settings.rtscts ?? false,
-    xon: settings.xon ?? false,
-    xoff: settings.xon ?? false,
+    xon: settings.xonxoff ?? false,
+    xoff: settings.xonxoff ?? false,
     autoOpen: false,
   });
   return new Promise((resolve, reject) =>
@@ -56,13 +58,48 @@ export function openSerial(settings: SerialSettings): Promise<Duplex> {
   );
 }
 
-/** Lists serial ports; where udev is missing (containers) it reports and returns an empty list. */
-export async function listSerialPorts(): Promise<{ ports: { path: string; manufacturer?: string }[]; warning?: string }> {
+export interface SerialPortInfo {
+  readonly path: string;
+  readonly manufacturer?: string;
+  readonly serialNumber?: string;
+  readonly vendorId?: string;
+  readonly productId?: string;
+  /** A stable path under /dev/serial/by-id that names this adapter, when there is one. */
+  readonly byId?: string;
+}
+
+/**
+ * Lists serial ports. The port scan needs udev; where it is missing (containers, minimal systems)
+ * the list comes back empty with a warning saying so, and the ports under /dev/serial/by-id (if
+ * any) are still listed.
+ */
+export async function listSerialPorts(): Promise<{ ports: SerialPortInfo[]; warning?: string }> {
+  const { readdirSync, realpathSync } = await import('node:fs');
+  const byId = new Map<string, string>();
+  try {
+    for (const name of readdirSync('/dev/serial/by-id')) {
+      const link = `/dev/serial/by-id/${name}`;
+      try {
+        byId.set(realpathSync(link), link);
+      } catch {
+        /* a dangling link: the adapter went away */
+      }
+    }
+  } catch {
+    /* no /dev/serial/by-id: no USB serial adapter plugged in, or not Linux */
+  }
   try {
     const ports = await SerialPort.list();
-    return { ports: ports.map((p) => ({ path: p.path, manufacturer: p.manufacturer })) };
+    const out: SerialPortInfo[] = ports.map((p) => ({ path: p.path, manufacturer: p.manufacturer, serialNumber: p.serialNumber, vendorId: p.vendorId, productId: p.productId, byId: byId.get(p.path) }));
+    for (const [real, link] of byId) if (!out.some((p) => p.path === real)) out.push({ path: real, byId: link });
+    return { ports: out };
   } catch (e) {
-    return { ports: [], warning: `port listing unavailable (${(e as Error).message}); give the port path directly` };
+    const msg = (e as Error).message;
+    const why = /udevadm/.test(msg) ? 'udevadm is missing (no udev here, as in most containers)' : msg;
+    return {
+      ports: [...byId].map(([real, link]) => ({ path: real, byId: link })),
+      warning: `the serial-port scan is unavailable: ${why}. Give the port's path directly in the station config (a /dev/serial/by-id/… path stays the same across replugging; socat ptys live under /dev/pts).`,
+    };
   }
 }
 

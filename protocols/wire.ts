@@ -10,8 +10,12 @@
 
 /** Reading flag bits. */
 export const FLAG = {
+  /** The instrument was at its compliance limit: the bias was not held; never fitted. */
   compliance: 1,
+  /** The current was the instrument's overflow value (over range): stored as ±Infinity. */
   overflow: 2,
+  /** The voltage was the instrument's overflow value: stored as ±Infinity. */
+  voltageOverflow: 4,
 } as const;
 
 /** Field order inside a compact reading line. */
@@ -62,7 +66,11 @@ export type RunOutcome =
   | 'aborted-breakdown'
   | 'instrument-fault'
   | 'guard-refused'
-  | 'interrupted';
+  | 'interrupted'
+  /** The journal could not be written (disk full, I/O error): the run stopped with the output off. */
+  | 'journal-fault'
+  /** A defect in plumbline itself; the output was turned off. */
+  | 'internal-error';
 
 export type CautionKind =
   | 'output-on'
@@ -73,6 +81,11 @@ export type CautionKind =
   | 'drift-warning'
   | 'drift-limit'
   | 'instrument-fault'
+  | 'journal-fault'
+  /** Output off was sent but the instrument did not confirm it. */
+  | 'output-unconfirmed'
+  /** After a crash: the output may still be on. */
+  | 'recovery'
   | 'passive-source';
 
 interface Stamped {
@@ -93,6 +106,8 @@ export type WireEvent =
       readonly analysis: unknown;
       readonly drift: unknown;
       readonly limits: unknown;
+      /** The dialect the instrument was driven with (name). */
+      readonly dialect?: string;
     })
   | (Stamped & { readonly type: 'sweep-start'; readonly sweep: number; readonly planned: number; readonly label: string })
   | (Stamped & { readonly type: 'sweep-end'; readonly sweep: number; readonly points: number; readonly complete: boolean; readonly note?: string })
@@ -137,7 +152,12 @@ export type WireEvent =
       /** Seconds left, estimated from the pace so far; null before there is a pace. */
       readonly eta: number | null;
     })
-  | (Stamped & { readonly type: 'output'; readonly on: boolean; readonly confirmed: boolean; readonly reason: string })
+  /**
+   * Fires when an output command was written (`sent`: the bytes reached the transport), and again
+   * with `queried: true` when the instrument's own output query was asked: `confirmed` only when it
+   * answered with the state in `on`. Older journals lack `sent` and `queried`.
+   */
+  | (Stamped & { readonly type: 'output'; readonly on: boolean; readonly sent?: boolean; readonly queried?: boolean; readonly confirmed: boolean; readonly reason: string })
   | (Stamped & { readonly type: 'rejected'; readonly raw: string; readonly reason: string })
   | (Stamped & { readonly type: 'run-end'; readonly outcome: RunOutcome; readonly reason: string; readonly sweeps: number })
   | (Stamped & { readonly type: 'recovery'; readonly tornLines: number; readonly closedSweep: number | null; readonly addedRunEnd: boolean; readonly message: string });

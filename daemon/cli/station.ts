@@ -99,7 +99,12 @@ function describe(e: WireEvent): string | undefined {
     case 'drift':
       return e.state === 'baseline' || e.state === 'no-value' ? undefined : `         drift of ${e.parameter}: ${e.state} (${e.method} ${e.statistic?.toPrecision(5)}, limits ${e.lower?.toPrecision(5)} … ${e.upper?.toPrecision(5)})`;
     case 'output':
-      return `output ${e.on ? 'ON' : 'off'}${e.confirmed ? '' : ' (NOT confirmed: the command did not reach the instrument — check the front panel)'} — ${e.reason}`;
+      if (e.queried) {
+        if (e.on) return `output ON, confirmed by the instrument — ${e.reason}`;
+        return e.confirmed ? `output off, confirmed by the instrument — ${e.reason}` : `output off NOT confirmed — ${e.reason}`;
+      }
+      if (e.on) return `output ON — ${e.reason}`;
+      return e.sent === false ? `output off could NOT be sent — ${e.reason}` : `output off sent — ${e.reason}`;
     case 'recovery':
       return `journal: ${e.message}`;
     default:
@@ -119,8 +124,9 @@ export function registerStation(program: Command): void {
     .option('--data <dir>', 'folder under which the run creates its session folder (default: the config\'s, plumbline-data)')
     .option('--fast', 'simulated instrument: answer at once instead of waiting the integration time')
     .option('--json', 'print one JSON object at the end instead of the progress text')
-    .addHelpText('after', '\nExit codes: 0 completed or stopped, 2 bad input, 3 aborted by the user, 4 aborted by drift, 5 aborted by breakdown, 6 instrument fault, 7 refused by the safety guard.')
-    .action(async (o: StationOptions & { plan?: string; sweeps?: string; model?: string; json?: boolean }) => {
+    .option('--override-disk-check', 'run a plan whose journal would not fit in the free disk space (refused otherwise)')
+    .addHelpText('after', '\nExit codes: 0 completed or stopped, 2 bad input, 3 aborted by the user, 4 aborted by drift, 5 aborted by breakdown, 6 instrument fault (no usable reading, replies out of step, no answer), 7 refused by the safety guard, 9 the journal could not be written (disk full), 10 internal error.')
+    .action(async (o: StationOptions & { plan?: string; sweeps?: string; model?: string; json?: boolean; overrideDiskCheck?: boolean }) => {
       const config = await stationConfig(o);
       const { dataDir, Station, EXIT_CODE, describePlan, startServer } = await daemonModules();
       const data = dataDir(config, o.data);
@@ -135,6 +141,7 @@ export function registerStation(program: Command): void {
         if (!Number.isInteger(n) || n < 1) throw new UsageError(`--sweeps '${o.sweeps}': expected a whole number ≥ 1`);
         plan = plan === undefined ? { ...station.defaultPlan(n) } : { ...(plan as object), repeat: n };
       }
+      if (o.overrideDiskCheck) plan = { ...((plan ?? station.defaultPlan()) as object), overrideDiskCheck: true };
       const analysis = o.model !== undefined ? { ...station.analysisSettings, model: o.model, ...(o.model !== station.analysisSettings.model ? { window: 'auto' } : {}) } : undefined;
       guardProcess(station, () => undefined);
       const tty = process.stdout.isTTY && !o.json;
@@ -199,7 +206,7 @@ export function registerStation(program: Command): void {
       if (!Number.isInteger(port) || port < 0 || port > 65535) throw new UsageError(`--port '${o.port}': expected a port number`);
       const station = new Station(config, data);
       for (const r of station.recovered) process.stderr.write(`journal ${r.dir}: ${r.message}\n`);
-      const srv = await startServer(station, { host: o.host ?? config.server.host, port, token: config.server.token });
+      const srv = await startServer(station, { host: o.host ?? config.server.host, port, token: config.server.token, allowedHosts: config.server.allowedHosts });
       guardProcess(station, () => srv.close());
       station.events$.subscribe({
         next: (e) => {
@@ -247,7 +254,7 @@ export function registerStation(program: Command): void {
       if (o.page) {
         const port = o.port !== undefined ? Number(o.port) : config.server.port;
         if (!Number.isInteger(port) || port < 0 || port > 65535) throw new UsageError(`--port '${o.port}': expected a port number`);
-        srv = await startServer(station, { host: config.server.host, port, token: config.server.token });
+        srv = await startServer(station, { host: config.server.host, port, token: config.server.token, allowedHosts: config.server.allowedHosts });
       }
       const where = file === '-' ? 'standard input' : file;
       const source = file === '-' ? streamLines(process.stdin) : await fileLines(file);

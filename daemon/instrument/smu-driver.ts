@@ -1,22 +1,54 @@
 /**
- * The SMU driver: a dialect plus a SCPI session give setCompliance, setVoltage, measure, outputOn,
- * outputOff. Order follows the safe-state recipe: compliance before output on; errors drained after
- * every configuration step; output off is attempted even when the session looks broken.
+ * The SMU driver: a dialect plus a SCPI session give configure, setVoltage, measure, outputOn and
+ * the two ways of turning the output off. Order follows the usual safe-state recipe (common
+ * practice for source-measure units): compliance before output on; the error queue drained after
+ * every configuration step; output on confirmed by the instrument's own output query.
+ *
+ * Replies are checked against the query that asked for them: a reading with the wrong number of
+ * fields, a compliance reply that is not 0 or 1, or a measured bias far from the level just
+ * programmed means the replies have slipped onto the wrong queries — an OutOfStepError, which
+ * ends the run with the output off.
  */
 import { fill, type Dialect } from '../../protocols/dialect.js';
-import { parseReading, RejectCounter, type Reading } from '../../protocols/reading-parser.js';
-import type { ScpiSession } from '../../protocols/scpi-session.js';
+import { parseReading, REJECT_MEANING, RejectCounter, type Reading } from '../../protocols/reading-parser.js';
+import { ScpiReplyError, type ScpiSession } from '../../protocols/scpi-session.js';
 
 export interface Measurement {
   readonly reading: Reading | undefined;
   /** The raw reply, kept for the journal. */
   readonly raw: string;
   readonly compliance: boolean;
+  /** Why the reply gave no reading (the parser's reason, in plain words). */
+  readonly rejectReason?: string;
+}
+
+/** The instrument's replies no longer belong to the queries they answer. */
+export class OutOfStepError extends ScpiReplyError {}
+
+/** A level or output-on command after the output was turned off for good. */
+export class FencedError extends Error {
+  readonly code = 'FENCED';
+}
+
+/** What the output query confirmed. */
+export interface OffCheck {
+  readonly confirmed: boolean;
+  /** The instrument's reply, or why there is none. */
+  readonly detail: string;
+}
+
+const STATE_REPLY = /^(?:[+]?[01](?:\.0*)?(?:E[+-]?0+)?|ON|OFF)$/i;
+
+function parseState(reply: string): boolean {
+  const t = reply.trim().toUpperCase();
+  return t === 'ON' || (t !== 'OFF' && Number(t) === 1);
 }
 
 export class SmuDriver {
   readonly rejects = new RejectCounter();
   private outputKnownOn = false;
+  private programmed = 0;
+  private fenced = false;
 
   constructor(readonly session: ScpiSession, readonly dialect: Dialect) {}
 
@@ -24,10 +56,12 @@ export class SmuDriver {
     return this.session.query(this.dialect.commands.identify);
   }
 
-  /** Output off, function, compliance, integration, auto range — then the error queue must be empty. */
+  /** Reset (if the dialect has one), output off, reading format, function, compliance, integration, auto range — then the error queue must be empty. */
   async configure(settings: { compliance: number; nplc?: number }): Promise<void> {
     const c = this.dialect.commands;
+    if (c.reset) await this.session.write(c.reset);
     await this.session.write(c.outputOff);
+    if (c.readingFormat) await this.session.write(c.readingFormat);
     await this.session.write(c.sourceVoltageMode);
     await this.session.write(fill(c.compliance, settings.compliance));
     if (settings.nplc !== undefined) await this.session.write(fill(c.integration, settings.nplc));
@@ -35,17 +69,33 @@ export class SmuDriver {
     await this.session.checkErrors('configuring the instrument');
   }
 
+  private checkFence(what: string): void {
+    if (this.fenced) throw new FencedError(`${what} refused: the output was turned off for good in this run`);
+  }
+
   async setVoltage(v: number): Promise<void> {
+    this.checkFence('a source level');
+    this.programmed = v;
     await this.session.write(fill(this.dialect.commands.sourceVoltage, v));
   }
 
-  async outputOn(): Promise<void> {
-    await this.session.write(this.dialect.commands.outputOn);
-    await this.session.checkErrors('turning the output on');
-    this.outputKnownOn = true;
+  /** The level last programmed, V. */
+  get programmedLevel(): number {
+    return this.programmed;
   }
 
-  /** Best effort: never throws; returns whether the command reached the transport. */
+  /** Output on, then the error queue and the instrument's own output query must agree. */
+  async outputOn(): Promise<void> {
+    this.checkFence('output on');
+    await this.session.write(this.dialect.commands.outputOn);
+    this.outputKnownOn = true;
+    await this.session.checkErrors('turning the output on');
+    const reply = await this.session.query(this.dialect.commands.outputQuery);
+    if (!STATE_REPLY.test(reply.trim())) throw new OutOfStepError(`the reply to '${this.dialect.commands.outputQuery}' was '${reply.slice(0, 80)}', not an output state (0/1 or OFF/ON): replies are out of step with the queries`);
+    if (!parseState(reply)) throw new OutOfStepError(`the instrument reports its output off ('${this.dialect.commands.outputQuery}' → '${reply.trim()}') right after output on (an interlock open?)`);
+  }
+
+  /** Output off through the command queue (the normal end of a run). Never throws; resolves whether the bytes were written. */
   async outputOff(): Promise<boolean> {
     try {
       await this.session.write(this.dialect.commands.outputOff);
@@ -56,18 +106,84 @@ export class SmuDriver {
     }
   }
 
+  /**
+   * The safety path: drops every queued command, then writes the dialect's abort and output off at
+   * once, ahead of any query still waiting for its reply; from then on no level or output-on command
+   * is accepted. Never throws; resolves whether the bytes were handed to the transport.
+   */
+  emergencyOff(reason: string): Promise<boolean> {
+    this.fenced = true;
+    this.session.cancelQueued(`not sent: ${reason}`);
+    const c = this.dialect.commands;
+    return this.session.urgent([c.abort, c.outputOff]).then((ok) => {
+      if (ok) this.outputKnownOn = false;
+      return ok;
+    });
+  }
+
+  /**
+   * Asks the instrument whether its output is off: waits for the line to go quiet (a late reply of
+   * an earlier query is discarded), then the dialect's output query. Confirmed only when the
+   * instrument itself answers "off". Never throws.
+   */
+  async confirmOff(timeoutMs = this.session.timeoutMs): Promise<OffCheck> {
+    const q = this.dialect.commands.outputQuery;
+    if (this.session.isClosed) return { confirmed: false, detail: 'the connection to the instrument is closed: its output state is unknown' };
+    try {
+      if (this.session.unsettled) await this.session.resync(100, timeoutMs);
+      const reply = await this.session.query(q, timeoutMs, STATE_REPLY);
+      const on = parseState(reply);
+      return on
+        ? { confirmed: false, detail: `the instrument reports its output ON ('${q}' → '${reply.trim()}')` }
+        : { confirmed: true, detail: `the instrument reports its output off ('${q}' → '${reply.trim()}')` };
+    } catch (e) {
+      return { confirmed: false, detail: `no answer to '${q}' (${(e as Error).message}): the output state is unknown` };
+    }
+  }
+
   get outputOnAsFarAsKnown(): boolean {
     return this.outputKnownOn;
   }
 
+  /** One reading at the programmed level, checked against the query that asked for it. */
   async measure(): Promise<Measurement> {
-    const raw = await this.session.query(this.dialect.commands.measure);
-    const parsed = parseReading(raw, this.dialect.readFields);
-    const tripped = (await this.session.query(this.dialect.commands.complianceTripped)).trim() === '1';
+    const d = this.dialect;
+    const raw = await this.session.query(d.commands.measure);
+    const parsed = parseReading(raw, d.readFields);
     if (!parsed.ok) {
+      if (parsed.reason === 'field count') {
+        throw new OutOfStepError(`the reply to '${d.commands.measure}' was '${raw.slice(0, 120)}': ${raw.split(',').length} field(s) where the dialect expects ${d.readFields.length} (${d.readFields.join(', ')}): replies are out of step with the queries`);
+      }
       this.rejects.add(parsed.reason);
-      return { reading: undefined, raw, compliance: tripped };
+      return { reading: undefined, raw, compliance: false, rejectReason: REJECT_MEANING[parsed.reason] };
     }
-    return { reading: parsed.reading, raw, compliance: tripped };
+    const r = parsed.reading;
+    let compliance: boolean;
+    if (d.status && r.status !== undefined) {
+      compliance = Number.isFinite(r.status) && (Math.round(r.status) & d.status.complianceMask) !== 0;
+    } else {
+      const q = d.commands.complianceTripped as string;
+      const tripped = (await this.session.query(q)).trim();
+      if (!/^\+?[01]$/.test(tripped)) {
+        throw new OutOfStepError(`the reply to '${q}' was '${tripped.slice(0, 120)}', not 0 or 1: replies are out of step with the queries`);
+      }
+      compliance = tripped.endsWith('1');
+    }
+    this.checkReadback(r, compliance, raw);
+    return { reading: r, raw, compliance };
+  }
+
+  /** A measured bias far from the programmed level means the reply belongs to another point. */
+  private checkReadback(r: Reading, compliance: boolean, raw: string): void {
+    if (!Number.isFinite(r.v)) return;
+    const set = this.programmed;
+    const tol = this.dialect.readback.absolute + this.dialect.readback.relative * Math.abs(set);
+    // At compliance the source cannot hold the level: the bias falls toward zero, never beyond it.
+    const fits = compliance
+      ? Math.abs(r.v) <= Math.abs(set) + tol && (r.v * set >= 0 || Math.abs(r.v) <= tol)
+      : Math.abs(r.v - set) <= tol;
+    if (!fits) {
+      throw new OutOfStepError(`the reply '${raw.slice(0, 120)}' reports ${r.v} V while ${set} V is programmed (more than ±${tol.toPrecision(3)} V apart${compliance ? ', at compliance' : ''}): the reply belongs to another point — replies are out of step with the commands`);
+    }
   }
 }

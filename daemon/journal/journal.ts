@@ -31,7 +31,26 @@ const SYNC_MS = 250;
 const MAX_BUFFER = 1 << 20;
 
 export class JournalError extends Error {
-  readonly code = 'JOURNAL';
+  readonly code: string = 'JOURNAL';
+}
+
+/**
+ * Writing the journal failed (a full disk, a quota, an I/O error). From then on the writer refuses
+ * every event: the station turns the output off rather than measure what it cannot record.
+ */
+export class JournalWriteError extends JournalError {
+  override readonly code = 'JOURNAL_WRITE';
+}
+
+/** Plain words for the usual write failures. */
+function writeFailure(dir: string, e: unknown): JournalWriteError {
+  const err = e as NodeJS.ErrnoException;
+  const what = err.code === 'ENOSPC' ? 'no space left on the disk'
+    : err.code === 'EDQUOT' ? 'the disk quota is used up'
+    : err.code === 'EIO' ? 'an input/output error on the disk'
+    : err.code === 'EROFS' ? 'the file system is read-only'
+    : err.message;
+  return new JournalWriteError(`cannot write the journal in ${dir}: ${what} (${err.code ?? 'error'}); free space or fix the disk, then start a new run`);
 }
 
 // Records are written from a Float64Array, i.e. in the machine's byte order; the format is little-endian.
@@ -65,6 +84,9 @@ export class JournalWriter {
   readonly t0: number;
   /** Bytes handed to write(2) so far in this process. */
   written = 0;
+  private failure: JournalWriteError | undefined;
+  /** Called once, when a write first fails (also from the background flush timer). */
+  onError: ((e: JournalWriteError) => void) | undefined;
 
   private constructor(readonly dir: string, startSeq: number, t0: number, private readonly lock: boolean) {
     this.fd = openSync(join(dir, JOURNAL_FILE), 'a');
@@ -102,6 +124,7 @@ export class JournalWriter {
 
   /** Journals an event; returns it with its sequence number and time. */
   event(e: NewEvent): WireEvent {
+    if (this.failure) throw this.failure;
     // Everything before this event reaches the files before the event can (flush() writes the
     // buffered events, then the readings): a crash at any moment leaves a journal that is a
     // prefix of the session in sequence order — no event without the readings before it, no
@@ -114,6 +137,7 @@ export class JournalWriter {
 
   /** Journals one reading (binary record). */
   reading(sweep: number, k: number, v: number, i: number, flags: number): ReadingEvent {
+    if (this.failure) throw this.failure;
     if (this.closed) throw new JournalError(`${this.dir}: journal already closed`);
     const seq = ++this.seq;
     const now = performance.now();
@@ -129,7 +153,7 @@ export class JournalWriter {
     r[p++] = flags;
     this.recPos = p;
     if (p === r.length || now - this.lastFlush >= FLUSH_MS) this.flush();
-    else if (!this.timer) this.timer = setTimeout(() => this.flush(), FLUSH_MS);
+    else if (!this.timer) this.timer = setTimeout(this.timedFlush, FLUSH_MS);
     return { type: 'reading', seq, sweep, k, t, v, i, flags };
   }
 
@@ -140,7 +164,36 @@ export class JournalWriter {
     // The timer covers an idle daemon; the clock check covers a busy one whose event loop does not
     // reach its timers (a long run of microtasks), so the bound holds either way.
     if (this.bufBytes >= MAX_BUFFER || performance.now() - this.lastFlush >= FLUSH_MS) this.flush();
-    else if (!this.timer) this.timer = setTimeout(() => this.flush(), FLUSH_MS);
+    else if (!this.timer) this.timer = setTimeout(this.timedFlush, FLUSH_MS);
+  }
+
+  /** The background flush: a failure is reported through onError, never thrown into a timer. */
+  private readonly timedFlush = (): void => {
+    try {
+      this.flush();
+    } catch {
+      /* reported through onError */
+    }
+  };
+
+  /** Whether a write has failed (the writer then refuses everything). */
+  get failed(): JournalWriteError | undefined {
+    return this.failure;
+  }
+
+  private fail(e: unknown): never {
+    if (!this.failure) {
+      this.failure = writeFailure(this.dir, e);
+      this.buf = [];
+      this.bufBytes = 0;
+      this.recPos = 0;
+      try {
+        this.onError?.(this.failure);
+      } catch {
+        /* the listener's own trouble must not hide this one */
+      }
+    }
+    throw this.failure;
   }
 
   /** Writes the buffer now (synchronously). */
@@ -150,19 +203,23 @@ export class JournalWriter {
       this.timer = undefined;
     }
     this.lastFlush = performance.now();
-    if (this.closed) return;
-    // Events first, then readings (see event()).
-    if (this.buf.length > 0) {
-      const data = this.buf.join('');
-      this.buf = [];
-      this.bufBytes = 0;
-      let off = 0;
-      const bytes = Buffer.from(data, 'utf8');
-      while (off < bytes.length) off += writeSync(this.fd, bytes, off);
-      this.written += bytes.length;
-      this.dirty = true;
+    if (this.closed || this.failure) return;
+    try {
+      // Events first, then readings (see event()).
+      if (this.buf.length > 0) {
+        const data = this.buf.join('');
+        this.buf = [];
+        this.bufBytes = 0;
+        let off = 0;
+        const bytes = Buffer.from(data, 'utf8');
+        while (off < bytes.length) off += writeSync(this.fd, bytes, off);
+        this.written += bytes.length;
+        this.dirty = true;
+      }
+      if (this.recPos > 0) this.writeReadings();
+    } catch (e) {
+      this.fail(e);
     }
-    if (this.recPos > 0) this.writeReadings();
     this.maybeSync();
   }
 
@@ -189,8 +246,19 @@ export class JournalWriter {
     this.syncing = true;
     this.dirty = false;
     this.lastSync = performance.now();
-    fdatasync(this.rfd, () => {
-      fdatasync(this.fd, () => {
+    const synced = (err: NodeJS.ErrnoException | null) => {
+      if (err && !this.closed && !this.failure) {
+        try {
+          this.fail(err);
+        } catch {
+          /* reported through onError */
+        }
+      }
+    };
+    fdatasync(this.rfd, (e1) => {
+      synced(e1);
+      fdatasync(this.fd, (e2) => {
+        synced(e2);
         this.syncing = false;
         if (this.dirty) this.maybeSync();
       });
@@ -200,8 +268,15 @@ export class JournalWriter {
   /** Flushes, closes the file and removes the lock. */
   close(): void {
     if (this.closed) return;
-    this.flush();
-    this.closed = true;
+    try {
+      this.flush();
+    } finally {
+      this.closed = true;
+      this.closeFiles();
+    }
+  }
+
+  private closeFiles(): void {
     try {
       closeSync(this.rfd);
       closeSync(this.fd);

@@ -57,7 +57,7 @@ table{border-collapse:collapse;font-variant-numeric:tabular-nums;font-size:.85re
   else {
     out.push('<table><tr><th>t (s)</th><th>event</th><th>text</th></tr>');
     for (const e of s.timeline) {
-      const what = e.type === 'caution' ? `caution: ${e.kind}` : e.type === 'decision' ? `decision: ${e.action}` : e.type === 'output' ? `output ${e.on ? 'on' : 'off'}${e.confirmed ? '' : ' (not confirmed)'}` : e.type;
+      const what = e.type === 'caution' ? `caution: ${e.kind}` : e.type === 'decision' ? `decision: ${e.action}` : e.type === 'output' ? `output ${e.on ? 'on' : 'off'}${e.queried ? (e.confirmed ? ' (confirmed by the instrument)' : ' (NOT confirmed)') : e.sent === false ? ' (could not be sent)' : ' (sent)'}` : e.type;
       const text = e.type === 'caution' ? e.message : e.type === 'decision' || e.type === 'output' || e.type === 'run-end' ? e.reason : e.type === 'recovery' ? e.message : '';
       out.push(`<tr><td>${(e.t / 1000).toFixed(3)}</td><td>${esc(what)}</td><td>${esc(text)}</td></tr>`);
     }

@@ -133,8 +133,8 @@ export class LiveChain {
   }
 
   /** One reading. Returns an abort decision when the point shows breakdown. */
-  reading(v: number, i: number, compliance: boolean, overflow: boolean, programmed?: number): Decision | undefined {
-    const flags = (compliance ? FLAG.compliance : 0) | (overflow ? FLAG.overflow : 0);
+  reading(v: number, i: number, compliance: boolean, overflow: boolean, programmed?: number, voltageOverflow = false): Decision | undefined {
+    const flags = (compliance ? FLAG.compliance : 0) | (overflow ? FLAG.overflow : 0) | (voltageOverflow ? FLAG.voltageOverflow : 0);
     const ev = this.options.journal.reading(this.sweep, this.k, v, i, flags);
     this.events$.next(ev);
     this.k++;
@@ -144,7 +144,8 @@ export class LiveChain {
     this.c.push(flags);
     let decision: Decision | undefined;
 
-    if (!this.hazardSeen && Math.abs(v) > this.options.hazardVoltage) {
+    // An over-range voltage reads as ±Infinity: it is flagged, not taken for a hazardous bias.
+    if (!this.hazardSeen && Number.isFinite(v) && Math.abs(v) > this.options.hazardVoltage) {
       this.hazardSeen = true;
       this.emit({ type: 'caution', kind: 'hazard-voltage', sweep: this.sweep, numbers: { voltage: v, hazardVoltage: this.options.hazardVoltage }, message: `The output is above ${this.options.hazardVoltage} V. Follow your lab's high-voltage rules: interlocked fixture, hands off the probes and the device while the output is on.` });
     }

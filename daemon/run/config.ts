@@ -21,6 +21,18 @@ const faultsSchema = z.object({
   disconnectAfterReadings: z.number().int().positive().optional(),
 }).strict();
 
+const terminatorName = z.enum(['lf', 'crlf', 'cr']);
+
+/** Link settings that override the dialect's (a converter or a firmware setting can change them). */
+const linkOverrides = {
+  /** What ends each message written: lf, crlf or cr (default: the dialect's). */
+  writeTerminator: terminatorName.optional(),
+  /** What ends each reply: lf, crlf or cr (default: the dialect's). */
+  readTerminator: terminatorName.optional(),
+  /** Least time between two messages, ms (default: the dialect's). */
+  commandDelayMs: z.number().min(0).max(10000).optional(),
+};
+
 export const instrumentSchema = z.discriminatedUnion('kind', [
   z.object({
     kind: z.literal('simulator'),
@@ -34,27 +46,39 @@ export const instrumentSchema = z.discriminatedUnion('kind', [
     kind: z.literal('tcp'),
     host: z.string().min(1),
     port: z.number().int().min(1).max(65535).default(5025),
+    ...linkOverrides,
   }).strict(),
   z.object({
     kind: z.literal('serial'),
     path: z.string().min(1),
-    baudRate: z.number().int().positive().default(9600),
-    dataBits: z.union([z.literal(7), z.literal(8)]).default(8),
-    parity: z.enum(['none', 'even', 'odd']).default('none'),
-    stopBits: z.union([z.literal(1), z.literal(2)]).default(1),
+    baudRate: z.number().int().positive().max(4000000).default(9600),
+    dataBits: z.union([z.literal(5), z.literal(6), z.literal(7), z.literal(8)]).default(8),
+    parity: z.enum(['none', 'even', 'odd', 'mark', 'space']).default('none'),
+    stopBits: z.union([z.literal(1), z.literal(1.5), z.literal(2)]).default(1),
+    /** Hardware flow control (RTS/CTS). */
     rtscts: z.boolean().default(false),
-    terminator: z.enum(['\n', '\r\n']).default('\n'),
+    /** Software flow control (XON/XOFF, bytes 0x11/0x13 in the data: ASCII replies only). */
+    xonxoff: z.boolean().default(false),
+    ...linkOverrides,
   }).strict(),
 ]);
 
 export type InstrumentConfig = z.infer<typeof instrumentSchema>;
 
+/** The dialect the built-in simulated instrument speaks. */
+export const SIMULATOR_DIALECT = 'protection-trip';
+
 export const stationSchema = z.object({
   name: z.string().default('station'),
   instrument: instrumentSchema,
-  dialect: z.string().default('scpi-default'),
-  /** Reply timeout for each query, ms. */
-  timeoutMs: z.number().int().positive().default(5000),
+  /**
+   * The instrument's dialect: a name in config/dialects/ or a .json file. Required for a serial or
+   * TCP instrument (which command tree it speaks is a choice, not a default); the simulator speaks
+   * protection-trip unless told otherwise.
+   */
+  dialect: z.string().min(1).optional(),
+  /** Reply timeout for each query, ms (default: the dialect's). */
+  timeoutMs: z.number().int().min(10).max(600000).optional(),
   limits: limitsSchema,
   /** Default plan (a simulator scenario supplies one when absent). */
   plan: planSchema.optional(),
@@ -65,14 +89,29 @@ export const stationSchema = z.object({
   server: z.object({
     host: z.string().default('127.0.0.1'),
     port: z.number().int().min(0).max(65535).default(DEFAULT_PORT),
-    /** Required for control requests when set; required to bind beyond loopback. */
+    /** Required for every request when the server listens beyond loopback, and for control requests whenever it is set. */
     token: z.string().min(16).optional(),
-  }).strict().default({ host: '127.0.0.1', port: DEFAULT_PORT }),
+    /** Host names the page may be reached by beyond loopback (besides this machine's own name and addresses). */
+    allowedHosts: z.array(z.string().min(1)).max(64).default([]),
+  }).strict().default({ host: '127.0.0.1', port: DEFAULT_PORT, allowedHosts: [] }),
   /** Folder under which each run creates its session folder. */
   data: z.string().default('plumbline-data'),
   /** `serve` starts the default plan as soon as it is up (the demo). */
   autostart: z.boolean().default(false),
-}).strict();
+}).strict().superRefine((c, ctx) => {
+  if (c.instrument.kind !== 'simulator' && c.dialect === undefined) {
+    ctx.addIssue({
+      code: 'custom',
+      path: ['dialect'],
+      message: 'name the dialect your instrument speaks: protection-trip or protection-status (config/dialects/, described in the README under "Dialects"), or the path of a .json dialect of your own',
+    });
+  }
+});
+
+/** The dialect a config uses. */
+export function dialectOf(config: StationConfig): string {
+  return config.dialect ?? SIMULATOR_DIALECT;
+}
 
 export type StationConfig = z.infer<typeof stationSchema>;
 

@@ -13,9 +13,13 @@
  * fixture's interlock and the lab's safety rules.
  */
 import { z } from 'zod';
-import type { SmuDriver, Measurement } from '../instrument/smu-driver.js';
+import type { Measurement, OffCheck, SmuDriver } from '../instrument/smu-driver.js';
 import type { Plan } from './plan.js';
 import { sweepValues } from './plan.js';
+
+/** Most steps a ramp over the whole range may take, and its longest duration, s. */
+export const MAX_RAMP_STEPS = 10000;
+export const MAX_RAMP_SECONDS = 600;
 
 export const limitsSchema = z.object({
   /** Largest |V| the station may source, V. */
@@ -26,11 +30,19 @@ export const limitsSchema = z.object({
   maxPower: z.number().positive().finite(),
   /** Above this |V| the page and the CLI show the high-voltage caution, V (common practice: 30 V). */
   hazardVoltage: z.number().positive().finite().default(30),
-  /** Largest step the source takes when moving between levels outside a sweep, V. */
-  rampStep: z.number().positive().finite().default(1),
+  /** Largest step the source takes when moving between levels outside a sweep, V (at least 1 mV). */
+  rampStep: z.number().min(1e-3, 'must be at least 0.001 V (a smaller step makes a ramp that never ends with the output on)').finite().default(1),
   /** Wait per ramp step, s. */
   rampDelay: z.number().min(0).max(10).default(0.01),
-}).strict();
+}).strict().superRefine((l, ctx) => {
+  // A ramp across the whole range must end in reasonable time with the output on.
+  const steps = l.maxVoltage / l.rampStep;
+  if (steps > MAX_RAMP_STEPS) {
+    ctx.addIssue({ code: 'custom', path: ['rampStep'], message: `${l.rampStep} V makes ${Math.ceil(steps)} steps from 0 to maxVoltage = ${l.maxVoltage} V; at most ${MAX_RAMP_STEPS} are allowed (raise rampStep)` });
+  } else if (steps * l.rampDelay > MAX_RAMP_SECONDS) {
+    ctx.addIssue({ code: 'custom', path: ['rampDelay'], message: `a ramp from 0 to maxVoltage = ${l.maxVoltage} V would take ${Math.round(steps * l.rampDelay)} s (${Math.ceil(steps)} steps × ${l.rampDelay} s); at most ${MAX_RAMP_SECONDS} s are allowed` });
+  }
+});
 
 export type Limits = z.infer<typeof limitsSchema>;
 
@@ -41,14 +53,17 @@ export class GuardError extends Error {
   }
 }
 
-export function checkLevel(limits: Limits, v: number, compliance: number): void {
-  if (!Number.isFinite(v)) throw new GuardError(`bias ${v} is not a number`, 'voltage', { voltage: v });
+/** A number as people write it: 20.555555555555557 → 20.5556. */
+const show = (x: number) => String(+x.toPrecision(6));
+
+export function checkLevel(limits: Limits, v: number, compliance: number, where = 'bias'): void {
+  if (!Number.isFinite(v)) throw new GuardError(`${where} ${v} is not a number`, 'voltage', { voltage: v });
   if (Math.abs(v) > limits.maxVoltage) {
-    throw new GuardError(`|${v} V| exceeds the station limit maxVoltage = ${limits.maxVoltage} V`, 'maxVoltage', { voltage: v, maxVoltage: limits.maxVoltage });
+    throw new GuardError(`${where} = ${show(v)} V exceeds the station limit maxVoltage = ${show(limits.maxVoltage)} V`, 'maxVoltage', { voltage: v, maxVoltage: limits.maxVoltage });
   }
   if (Math.abs(v) * compliance > limits.maxPower) {
     throw new GuardError(
-      `${v} V at the ${compliance} A compliance could deliver ${(Math.abs(v) * compliance).toPrecision(3)} W, above the station limit maxPower = ${limits.maxPower} W`,
+      `${where} = ${show(v)} V at the ${show(compliance)} A compliance could deliver ${show(Math.abs(v) * compliance)} W, above the station limit maxPower = ${show(limits.maxPower)} W`,
       'maxPower',
       { voltage: v, compliance, maxPower: limits.maxPower },
     );
@@ -58,13 +73,23 @@ export function checkLevel(limits: Limits, v: number, compliance: number): void 
 export function checkCompliance(limits: Limits, compliance: number): void {
   if (!(compliance > 0) || !Number.isFinite(compliance)) throw new GuardError(`compliance ${compliance} A must be a positive number`, 'compliance', { compliance });
   if (compliance > limits.maxCompliance) {
-    throw new GuardError(`compliance ${compliance} A exceeds the station limit maxCompliance = ${limits.maxCompliance} A`, 'maxCompliance', { compliance, maxCompliance: limits.maxCompliance });
+    throw new GuardError(`plan compliance = ${show(compliance)} A exceeds the station limit maxCompliance = ${show(limits.maxCompliance)} A`, 'maxCompliance', { compliance, maxCompliance: limits.maxCompliance });
   }
 }
 
-/** Checks a whole plan before anything is sent; throws the first violation, naming the setting. */
+/**
+ * Checks a whole plan before anything is sent; throws the first violation, naming the plan field
+ * that holds the offending level as the user wrote it and the station limit it breaks.
+ */
 export function checkPlan(limits: Limits, plan: Plan): void {
   checkCompliance(limits, plan.compliance);
+  if (plan.kind === 'list') {
+    (plan.values ?? []).forEach((v, k) => checkLevel(limits, v, plan.compliance, `plan values[${k}]`));
+    return;
+  }
+  // Linear and log staircases never go beyond their ends.
+  checkLevel(limits, plan.start ?? 0, plan.compliance, 'plan start');
+  checkLevel(limits, plan.stop ?? 0, plan.compliance, 'plan stop');
   for (const v of sweepValues(plan)) checkLevel(limits, v, plan.compliance);
 }
 
@@ -104,34 +129,43 @@ export class GuardedSource {
   }
 
   /**
-   * After an abort nothing may turn the output on again: checked synchronously right before the
-   * output-on command is queued, so an abort that lands while this call is in flight wins.
+   * After an abort nothing may move the source or turn the output on again: checked synchronously
+   * right before each command is queued, so an abort that lands while a call is in flight wins.
    */
   inhibit(): void {
     this.inhibited = true;
   }
 
-  /** Output on at 0 V (compliance must have been set). */
+  get isInhibited(): boolean {
+    return this.inhibited;
+  }
+
+  private refuseIfInhibited(what: string): void {
+    if (this.inhibited) throw new GuardError(`${what} refused: the run was aborted`, 'abort', {});
+  }
+
+  /** Output on at 0 V (compliance must have been set); the instrument must confirm it. */
   async outputOn(): Promise<void> {
     if (this.compliance === undefined) throw new GuardError('output on refused: no compliance has been set', 'compliance', {});
-    if (this.inhibited) throw new GuardError('output on refused: the run was aborted', 'abort', {});
+    this.refuseIfInhibited('output on');
     await this.driver.setVoltage(0);
     this.level = 0;
-    if (this.inhibited) throw new GuardError('output on refused: the run was aborted', 'abort', {});
-    await this.driver.outputOn();
+    this.refuseIfInhibited('output on');
     this.on = true;
+    await this.driver.outputOn();
   }
 
   /** One step to v (inside a sweep: the plan's own staircase). */
   async step(v: number): Promise<void> {
     if (this.compliance === undefined) throw new GuardError('no compliance set', 'compliance', {});
+    this.refuseIfInhibited('a source level');
     checkLevel(this.limits, v, this.compliance);
     await this.driver.setVoltage(v);
     this.passed.push(v);
     this.level = v;
   }
 
-  /** Moves to v in steps of at most rampStep (between sweeps, and down at the end of a run). */
+  /** Moves to v in steps of at most rampStep (between sweeps, and down at the end of a run); an abort stops it at once. */
   async rampTo(v: number): Promise<void> {
     if (this.compliance === undefined) throw new GuardError('no compliance set', 'compliance', {});
     checkLevel(this.limits, v, this.compliance);
@@ -147,10 +181,25 @@ export class GuardedSource {
     return this.driver.measure();
   }
 
-  /** Output off at once (no ramp); never throws. Returns whether the command reached the transport. */
+  /** Output off through the queue, at the normal end of a run; never throws. Resolves whether the bytes were written. */
   async outputOff(): Promise<boolean> {
     const ok = await this.driver.outputOff();
     this.on = false;
     return ok;
+  }
+
+  /**
+   * Output off now, ahead of everything queued and of any reply still awaited; nothing moves the
+   * source afterwards. Never throws; resolves whether the bytes were handed to the transport.
+   */
+  emergencyOff(reason: string): Promise<boolean> {
+    this.inhibit();
+    this.on = false;
+    return this.driver.emergencyOff(reason);
+  }
+
+  /** Whether the instrument itself reports its output off. */
+  confirmOff(timeoutMs?: number): Promise<OffCheck> {
+    return this.driver.confirmOff(timeoutMs);
   }
 }

@@ -3,6 +3,7 @@
  * repeated with a dwell between sweeps, with per-point settling delay, integration time and the
  * compliance for the run. Validated with zod so a bad plan names its field.
  */
+import { statfsSync } from 'node:fs';
 import { z } from 'zod';
 
 export const planSchema = z.object({
@@ -26,6 +27,8 @@ export const planSchema = z.object({
   nplc: z.number().min(0.001).max(100).optional(),
   /** Current compliance, A. */
   compliance: z.number().positive().finite(),
+  /** Run a plan whose journal would not fit on the data folder's disk (refused otherwise). */
+  overrideDiskCheck: z.boolean().default(false),
 }).strict().superRefine((p, ctx) => {
   if (p.kind === 'list') {
     if (!p.values) ctx.addIssue({ code: 'custom', path: ['values'], message: 'a list sweep needs values' });
@@ -82,4 +85,38 @@ export function describePlan(p: Plan): string {
   const v = sweepValues(p);
   const shape = p.kind === 'list' ? `list of ${p.values?.length} values` : `${p.kind} ${p.start} V → ${p.stop} V, ${p.points} points`;
   return `${shape}${p.dual ? ', out and back' : ''}; ${v.length} points per sweep × ${p.repeat} sweep(s); compliance ${p.compliance} A${p.delay ? `; settle ${p.delay} s` : ''}${p.dwell ? `; dwell ${p.dwell} s` : ''}`;
+}
+
+/** Journal bytes per reading (one binary record) and per sweep (its events: boundaries, fits, drift). */
+const BYTES_PER_READING = 56;
+const BYTES_PER_SWEEP = 8192;
+
+/** The journal a plan will write, bytes (an estimate on the high side). */
+export function planJournalBytes(p: Plan): number {
+  return p.repeat * (sweepValues(p).length * BYTES_PER_READING + BYTES_PER_SWEEP);
+}
+
+/**
+ * Refuses a plan whose journal would not fit in the free space of the data folder's disk (checked
+ * on the nearest existing parent), unless the plan says `overrideDiskCheck: true`.
+ */
+export function checkPlanSize(p: Plan, dataDir: string): void {
+  if (p.overrideDiskCheck) return;
+  const need = planJournalBytes(p);
+  let dir = dataDir;
+  let free: number | undefined;
+  for (let k = 0; k < 64 && free === undefined; k++) {
+    try {
+      const st = statfsSync(dir);
+      free = st.bavail * st.bsize;
+    } catch {
+      const parent = dir.replace(/\/[^/]*\/?$/, '') || '/';
+      if (parent === dir) break;
+      dir = parent;
+    }
+  }
+  if (free === undefined || need <= free) return;
+  const perSweep = sweepValues(p).length;
+  const gib = (b: number) => (b >= 1e9 ? `${(b / 1e9).toPrecision(3)} GB` : `${(b / 1e6).toPrecision(3)} MB`);
+  throw new PlanError(`plan: field 'repeat': ${p.repeat} sweep(s) × ${perSweep} points would write about ${gib(need)} of journal, more than the ${gib(free)} free under ${dataDir}; shorten the plan, free space, or set "overrideDiskCheck": true`);
 }

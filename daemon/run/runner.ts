@@ -1,10 +1,17 @@
 /**
  * Executes a sweep plan through the safety guard, feeding every reading to the live chain, and
- * ends every path — completion, stop, abort, breakdown, drift, instrument fault, exception — with
- * the output off, attempted and recorded.
+ * ends every path — completion, stop, abort, breakdown, drift, instrument fault, a journal that
+ * cannot be written, exception — with the output off.
+ *
+ * Order on every failure: output off first (the guard's emergency path writes it ahead of anything
+ * queued, before any journal write, so a full disk or a page error cannot hold it back), then what
+ * can be recorded is recorded, then the instrument's own output query confirms the state. The
+ * journal says "sent" and, separately, "confirmed" only when the instrument answered "off".
  */
-import { ScpiDisconnectError, ScpiInstrumentError, ScpiTimeoutError } from '../../protocols/scpi-session.js';
-import type { RunOutcome } from '../../protocols/wire.js';
+import { ScpiCancelledError, ScpiDisconnectError, ScpiInstrumentError, ScpiReplyError, ScpiTimeoutError } from '../../protocols/scpi-session.js';
+import type { NewEvent, RunOutcome } from '../../protocols/wire.js';
+import { FencedError } from '../instrument/smu-driver.js';
+import { JournalWriteError } from '../journal/journal.js';
 import type { Decision, LiveChain } from '../pipeline/chain.js';
 import { GuardError, type GuardedSource } from './guard.js';
 import { sweepValues, type Plan } from './plan.js';
@@ -13,6 +20,12 @@ export interface RunResult {
   readonly outcome: RunOutcome;
   readonly reason: string;
   readonly sweeps: number;
+  /** Readings that could enter an analysis (finite bias and current, no over-range flag). */
+  readonly usable: number;
+  /** Replies that gave no reading, by reason. */
+  readonly rejected: Readonly<Record<string, number>>;
+  /** Whether the instrument itself confirmed its output off at the end. */
+  readonly outputOffConfirmed: boolean;
 }
 
 /** Exit codes of `plumbline run` by outcome. */
@@ -25,6 +38,8 @@ export const EXIT_CODE: Record<RunOutcome, number> = {
   'instrument-fault': 6,
   'guard-refused': 7,
   interrupted: 8,
+  'journal-fault': 9,
+  'internal-error': 10,
 };
 
 class AbortSignalled extends Error {}
@@ -35,8 +50,18 @@ export class RunController {
   private wake: (() => void) | undefined;
   private offSent: Promise<boolean> | undefined;
   private finished = false;
+  private usable = 0;
+  private readonly rejectedBy: Record<string, number> = {};
+  /** The first journal failure (the run goes on to turn the output off without it). */
+  private journalError: Error | undefined;
 
-  constructor(readonly source: GuardedSource, readonly chain: LiveChain, readonly plan: Plan) {}
+  constructor(readonly source: GuardedSource, readonly chain: LiveChain, readonly plan: Plan) {
+    // A line nobody asked for means every later reply would land on the wrong query.
+    source.driver.session.onStray = (line) => {
+      if (this.finished || this.aborting) return;
+      this.abort(`out of step: the instrument sent '${line.slice(0, 120)}' with no query waiting for it (an extra reply line, or a reply to an earlier command)`, 'instrument-fault');
+    };
+  }
 
   get aborting(): boolean {
     return this.abortReason !== undefined;
@@ -44,26 +69,34 @@ export class RunController {
 
   /** Stop after the sweep in progress (the source ramps down, then output off). */
   stop(reason = 'stop requested'): void {
-    if (this.finished) return;
+    if (this.finished || this.aborting) return;
     this.chain.requestStop(reason);
   }
 
-  /** Abort now: output off at once, even while a reading is in flight. */
+  /**
+   * Abort now: output off at once — written ahead of any queued command and of a reading still in
+   * flight — then the decision is recorded.
+   */
   abort(reason: string, outcome: RunOutcome = 'aborted-user'): void {
     // After the run has ended (output already off, journal closed) an abort has nothing to do.
     if (this.abortReason !== undefined || this.finished) return;
     this.abortReason = reason;
     this.abortOutcome = outcome;
-    this.source.inhibit();
-    if (outcome === 'aborted-user') this.chain.emit({ type: 'decision', action: 'abort', reason });
-    this.offSent = this.offNow(reason);
+    this.offSent = this.source.emergencyOff(reason);
+    if (outcome === 'aborted-user') this.record({ type: 'decision', action: 'abort', reason });
+    else if (outcome === 'instrument-fault' || outcome === 'journal-fault') {
+      this.record({ type: 'caution', kind: outcome, message: `${outcome === 'journal-fault' ? 'The journal could not be written' : 'Instrument fault'}: ${reason}. Output off was sent at once; check the instrument's front panel before touching the fixture.` });
+    }
     this.wake?.();
   }
 
-  private async offNow(reason: string): Promise<boolean> {
-    const ok = await this.source.outputOff();
-    this.chain.emit({ type: 'output', on: false, confirmed: ok, reason });
-    return ok;
+  /** Journals and broadcasts; a journal failure is kept, never thrown into a safety path. */
+  private record(e: NewEvent): void {
+    try {
+      this.chain.emit(e);
+    } catch (err) {
+      this.journalError ??= err as Error;
+    }
   }
 
   private sleep(s: number): Promise<void> {
@@ -91,11 +124,13 @@ export class RunController {
     let outcome: RunOutcome = 'completed';
     let reason = `all ${plan.repeat} sweep(s) done`;
     let sweepOpen = false;
+    let offSent: boolean | undefined;
     try {
       await this.source.configure(plan.compliance, plan.nplc);
       this.check();
       await this.source.outputOn();
-      this.chain.emit({ type: 'output', on: true, confirmed: true, reason: 'run started' });
+      this.check();
+      this.chain.emit({ type: 'output', on: true, sent: true, queried: true, confirmed: true, reason: 'run started (the instrument reports its output on)' });
       this.chain.emit({ type: 'caution', kind: 'output-on', message: 'Output on. The device terminals are live: keep hands off the probes and the fixture, and follow your lab\'s safety rules.' });
       for (let s = 1; s <= plan.repeat; s++) {
         this.check();
@@ -109,11 +144,16 @@ export class RunController {
           if (plan.delay > 0) await this.sleep(plan.delay);
           this.check();
           const m = await this.source.measure();
+          this.check();
           if (!m.reading) {
-            this.chain.rejected(m.raw, 'unreadable reply');
+            const why = m.rejectReason ?? 'an unreadable reply';
+            this.rejectedBy[why] = (this.rejectedBy[why] ?? 0) + 1;
+            this.chain.rejected(m.raw, why);
             continue;
           }
-          decision = this.chain.reading(m.reading.v, m.reading.i, m.compliance, m.reading.overflow, v);
+          const r = m.reading;
+          if (Number.isFinite(r.v) && Number.isFinite(r.i) && !r.overflow && !r.voltageOverflow) this.usable++;
+          decision = this.chain.reading(r.v, r.i, m.compliance, r.overflow, v, r.voltageOverflow);
           if (decision?.action === 'abort') {
             this.abort(decision.reason, decision.outcome);
             break;
@@ -141,32 +181,71 @@ export class RunController {
         }
       }
       await this.source.rampTo(0);
-      const ok = await this.source.outputOff();
-      this.chain.emit({ type: 'output', on: false, confirmed: ok, reason: 'run ended' });
+      offSent = await this.source.outputOff();
+      this.chain.emit({ type: 'output', on: false, sent: offSent, confirmed: false, reason: 'run ended' });
+      if (this.usable === 0) {
+        const total = Object.values(this.rejectedBy).reduce((a, b) => a + b, 0) + this.chain.readings;
+        outcome = 'instrument-fault';
+        reason = `no usable reading in ${total} repl${total === 1 ? 'y' : 'ies'} (${this.describeRejects()}): check the dialect's readFields and the instrument's range`;
+        this.record({ type: 'caution', kind: 'instrument-fault', message: `The run gave no usable reading: ${reason}.` });
+      }
     } catch (e) {
-      if (e instanceof AbortSignalled || (e instanceof GuardError && this.aborting)) {
+      // Output off before anything else: nothing below (journal, disk, page) may delay it.
+      if (!this.offSent) this.offSent = this.source.emergencyOff((e as Error).message);
+      offSent = await this.offSent;
+      if (e instanceof AbortSignalled || ((e instanceof GuardError || e instanceof ScpiCancelledError || e instanceof FencedError) && this.aborting)) {
         outcome = this.abortOutcome;
         reason = this.abortReason ?? e.message;
-        await this.offSent;
-        // Belt and braces: whatever was in flight when the abort came, the last word is output off.
-        const ok = await this.source.outputOff();
-        if (!ok) this.chain.emit({ type: 'output', on: false, confirmed: false, reason: 'final output off after abort did not reach the instrument' });
+        if (sweepOpen) this.safely(() => this.chain.endSweep(false, `aborted: ${reason}`));
       } else {
-        const fault = e instanceof ScpiTimeoutError || e instanceof ScpiDisconnectError || e instanceof ScpiInstrumentError;
-        outcome = e instanceof GuardError ? 'guard-refused' : fault ? 'instrument-fault' : 'instrument-fault';
-        reason = (e as Error).message;
-        if (sweepOpen) this.chain.endSweep(false, `ended by: ${reason}`);
-        this.chain.emit({
+        ({ outcome, reason } = this.classify(e as Error));
+        if (sweepOpen) this.safely(() => this.chain.endSweep(false, `ended by: ${reason}`));
+        this.record({
           type: 'caution',
-          kind: 'instrument-fault',
-          message: `${e instanceof GuardError ? 'The safety guard refused a command' : 'Instrument fault'}: ${reason}. Output off was attempted; check the instrument's front panel before touching the fixture.`,
+          kind: outcome === 'journal-fault' ? 'journal-fault' : 'instrument-fault',
+          message: `${outcome === 'guard-refused' ? 'The safety guard refused a command' : outcome === 'journal-fault' ? 'The journal could not be written' : 'Instrument fault'}: ${reason}. Output off was sent at once; check the instrument's front panel before touching the fixture.`,
         });
-        const ok = await this.source.outputOff();
-        this.chain.emit({ type: 'output', on: false, confirmed: ok, reason: `after: ${reason}` });
       }
+      this.record({ type: 'output', on: false, sent: offSent, confirmed: false, reason: offSent ? `output off sent after: ${reason}` : `output off could NOT be sent (the connection is gone) after: ${reason}` });
+    }
+    // The instrument's own word on its output.
+    const check = await this.source.confirmOff();
+    this.record({ type: 'output', on: false, sent: offSent ?? false, queried: true, confirmed: check.confirmed, reason: check.detail });
+    if (!check.confirmed) {
+      this.record({ type: 'caution', kind: 'output-unconfirmed', message: `The instrument did not confirm that its output is off: ${check.detail}. Treat the terminals as live; check the instrument's front panel and turn the output off there before touching the fixture.` });
+    }
+    if (this.journalError && outcome !== 'journal-fault') {
+      outcome = 'journal-fault';
+      reason = `${this.journalError.message} (the run was ${reason})`;
     }
     this.finished = true;
-    this.chain.end(outcome, reason);
-    return { outcome, reason, sweeps: this.chain.sweepsDone };
+    this.safely(() => this.chain.end(outcome, reason));
+    return { outcome, reason, sweeps: this.chain.sweepsDone, usable: this.usable, rejected: { ...this.rejectedBy }, outputOffConfirmed: check.confirmed };
+  }
+
+  private safely(fn: () => unknown): void {
+    try {
+      fn();
+    } catch (err) {
+      this.journalError ??= err as Error;
+    }
+  }
+
+  private describeRejects(): string {
+    const parts = Object.entries(this.rejectedBy).map(([k, n]) => `${n} × ${k}`);
+    const unusable = this.chain.readings - this.usable;
+    if (unusable > 0) parts.push(`${unusable} over range or not finite`);
+    return parts.join(', ') || 'none';
+  }
+
+  private classify(e: Error): { outcome: RunOutcome; reason: string } {
+    if (e instanceof JournalWriteError) return { outcome: 'journal-fault', reason: `${e.message}; readings journaled before the failure are on disk` };
+    if (e instanceof GuardError) return { outcome: 'guard-refused', reason: e.message };
+    if (e instanceof ScpiReplyError) return { outcome: 'instrument-fault', reason: `out of step: ${e.message}` };
+    if (e instanceof ScpiTimeoutError || e instanceof ScpiDisconnectError || e instanceof ScpiInstrumentError || e instanceof FencedError) {
+      return { outcome: 'instrument-fault', reason: e.message };
+    }
+    // Anything else is a defect of ours: say so rather than blaming the instrument.
+    return { outcome: 'internal-error', reason: `internal error while driving the instrument (please report it): ${e.message}` };
   }
 }

@@ -6,7 +6,7 @@
 import { join } from 'node:path';
 import type { Duplex } from 'node:stream';
 import { Subject } from 'rxjs';
-import { loadDialect } from '../../protocols/dialect.js';
+import { loadDialect, type Dialect } from '../../protocols/dialect.js';
 import { ScpiSession } from '../../protocols/scpi-session.js';
 import { openSerial, openTcp, duplexPair } from '../../protocols/transport.js';
 import type { RunOutcome, Snapshot, WireEvent } from '../../protocols/wire.js';
@@ -20,10 +20,12 @@ import { analysisSchema, type AnalysisSettings, zodMessage } from '../pipeline/s
 import { SimulatedSmu } from '../simulator/instrument.js';
 import { findScenario, type Scenario } from '../simulator/scenarios.js';
 import { attachInstrument } from '../simulator/serve.js';
-import type { StationConfig } from './config.js';
+import { dialectOf, type StationConfig } from './config.js';
 import { checkPlan, GuardedSource } from './guard.js';
-import { describePlan, parsePlan, sweepValues, type Plan } from './plan.js';
+import { checkPlanSize, describePlan, parsePlan, sweepValues, type Plan } from './plan.js';
 import { RunController, type RunResult } from './runner.js';
+
+const TERMINATOR = { lf: '\n', crlf: '\r\n', cr: '\r' } as const;
 
 export class StationError extends Error {
   constructor(message: string, readonly status = 409) {
@@ -83,14 +85,22 @@ export class Station {
   }
 
   get running(): boolean {
-    return this.controller !== undefined || this.passive;
+    return this.controller !== undefined || this.passive || this.starting;
   }
+
+  /** Set from the first check of startRun until the run is registered (or has failed to start). */
+  private starting = false;
 
   private passive = false;
 
+  /** Whether this station drives an instrument (false while it watches a passive source). */
+  get hasControl(): boolean {
+    return !this.passive;
+  }
+
   /**
-   * A session fed by a passive source (a file or stream another program writes; issue 7's watch
-   * mode, and the page benchmark): the same chain, journal and page, with no control of the
+   * A session fed by a passive source (a file or stream another program writes: `plumbline
+   * watch`, and the page benchmark): the same chain, journal and page, with no control of the
    * instrument. The caller feeds `chain.startSweep / reading / endSweep` and ends with `close`.
    */
   openPassive(label: string, detail: string, options: { sweeps?: number; pointsPerSweep?: number; complianceLimit?: number } = {}): { chain: LiveChain; session: string; dir: string; close(outcome: RunOutcome, reason: string): void } {
@@ -171,8 +181,9 @@ export class Station {
     return this.current?.session;
   }
 
-  private async connect(): Promise<{ driver: SmuDriver; session: ScpiSession; detail: string }> {
+  private async connect(dialect: Dialect): Promise<{ driver: SmuDriver; session: ScpiSession; detail: string }> {
     const ic = this.config.instrument;
+    const timeoutMs = this.config.timeoutMs ?? dialect.timeoutMs;
     let stream: Duplex;
     let detail: string;
     if (ic.kind === 'simulator') {
@@ -183,14 +194,21 @@ export class Station {
       stream = client;
       detail = `built-in simulated instrument, scenario ${scenario.name}: ${scenario.description}`;
     } else if (ic.kind === 'tcp') {
-      stream = await openTcp(ic.host, ic.port, this.config.timeoutMs);
+      stream = await openTcp(ic.host, ic.port, timeoutMs);
       detail = `TCP ${ic.host}:${ic.port}`;
     } else {
-      stream = await openSerial({ path: ic.path, baudRate: ic.baudRate, dataBits: ic.dataBits, parity: ic.parity, stopBits: ic.stopBits, rtscts: ic.rtscts });
-      detail = `serial ${ic.path} at ${ic.baudRate} baud`;
+      stream = await openSerial({ path: ic.path, baudRate: ic.baudRate, dataBits: ic.dataBits, parity: ic.parity, stopBits: ic.stopBits, rtscts: ic.rtscts, xonxoff: ic.xonxoff });
+      detail = `serial ${ic.path} at ${ic.baudRate} baud, ${ic.dataBits}${ic.parity[0].toUpperCase()}${ic.stopBits}${ic.rtscts ? ', RTS/CTS' : ''}${ic.xonxoff ? ', XON/XOFF' : ''}`;
     }
-    const session = new ScpiSession(stream, { timeoutMs: this.config.timeoutMs, terminator: ic.kind === 'serial' ? ic.terminator : '\n' });
-    return { driver: new SmuDriver(session, loadDialect(this.config.dialect)), session, detail };
+    const link: { writeTerminator?: keyof typeof TERMINATOR; readTerminator?: 'lf' | 'crlf' | 'cr'; commandDelayMs?: number } = ic.kind === 'simulator' ? {} : ic;
+    const session = new ScpiSession(stream, {
+      timeoutMs,
+      terminator: link.writeTerminator ? TERMINATOR[link.writeTerminator] : dialect.terminator,
+      readTerminator: link.readTerminator ?? dialect.readTerminator,
+      commandDelayMs: link.commandDelayMs ?? dialect.commandDelayMs,
+      errorQuery: dialect.commands.errorQuery,
+    });
+    return { driver: new SmuDriver(session, dialect), session, detail };
   }
 
   private describeInstrument(): string {
@@ -198,53 +216,87 @@ export class Station {
     return ic.kind === 'tcp' ? `TCP ${ic.host}:${ic.port}` : ic.kind === 'serial' ? `serial ${ic.path}` : 'simulator';
   }
 
-  /** Validates and starts a run; resolves once the session folder exists and the run is under way. */
+  /**
+   * Validates and starts a run; resolves once the session folder exists and the run is under way.
+   * The instrument is claimed before the first await, so of two requests arriving together exactly
+   * one starts a run and the other gets 409.
+   */
   async startRun(options: { plan?: unknown; analysis?: unknown; label?: string } = {}): Promise<RunHandle> {
-    if (this.running) throw new StationError(`a run is in progress (session ${this.current?.session}); stop or abort it first`);
+    if (this.running) throw new StationError(`a run is in progress (session ${this.current?.session ?? '(starting)'}); stop or abort it first`);
     const plan = options.plan === undefined ? this.defaultPlan() : parsePlan(options.plan, 'plan');
     checkPlan(this.config.limits, plan);
-    if (options.analysis !== undefined) this.analysis = this.parseAnalysis(options.analysis);
-    let link: Awaited<ReturnType<Station['connect']>>;
+    const analysis = options.analysis !== undefined ? this.parseAnalysis(options.analysis) : undefined;
+    checkPlanSize(plan, this.dataDir);
+    let dialect: Dialect;
     try {
-      link = await this.connect();
+      dialect = loadDialect(dialectOf(this.config));
     } catch (e) {
-      throw new StationError(`cannot reach the instrument (${this.describeInstrument()}): ${(e as Error).message}; check the cable or address, and that nothing else holds the port`, 502);
+      throw new StationError(`station config: ${(e as Error).message}`, 400);
     }
-    const { driver, session, detail } = link;
-    let idn: string;
+    this.starting = true;
+    let link: Awaited<ReturnType<Station['connect']>> | undefined;
     try {
-      idn = await driver.identify();
+      if (analysis) this.analysis = analysis;
+      try {
+        link = await this.connect(dialect);
+      } catch (e) {
+        throw new StationError(`cannot reach the instrument (${this.describeInstrument()}): ${(e as Error).message}; check the cable or address, and that nothing else holds the port`, 502);
+      }
+      const { driver, session, detail } = link;
+      let idn: string;
+      try {
+        idn = await driver.identify();
+      } catch (e) {
+        throw new StationError(`the instrument did not answer '${dialect.commands.identify}' (${(e as Error).message}); check the connection and the dialect's terminators`, 502);
+      }
+      const label = options.label ?? this.scenario?.name ?? 'run';
+      let created: ReturnType<Station['newSession']>;
+      try {
+        created = this.newSession(label, { complianceLimit: plan.compliance, sweeps: plan.repeat, pointsPerSweep: sweepValues(plan).length });
+      } catch (e) {
+        const err = e as NodeJS.ErrnoException;
+        throw new StationError(`cannot create the session folder under ${this.dataDir}: ${err.code === 'ENOSPC' ? 'no space left on the disk' : err.message}`, err.code === 'ENOSPC' ? 507 : 500);
+      }
+      const { chain, id, dir } = created;
+      chain.emit({
+        type: 'session',
+        id,
+        startedAt: new Date(Date.now() - (performance.now() - chain.options.journal.t0)).toISOString(),
+        source: { kind: this.config.instrument.kind, detail, control: true },
+        instrument: idn,
+        plan: { ...plan, description: describePlan(plan) },
+        analysis: this.analysis,
+        drift: this.config.drift,
+        limits: this.config.limits,
+        dialect: dialect.name,
+      });
+      const source = new GuardedSource(driver, this.config.limits);
+      const controller = new RunController(source, chain, plan);
+      // A journal that cannot be written stops the run at once (even between readings).
+      chain.options.journal.onError = (err) => controller.abort(err.message, 'journal-fault');
+      this.controller = controller;
+      const done = controller.execute().finally(() => {
+        session.close();
+        this.controller = undefined;
+        this.chain = undefined;
+      });
+      return { session: id, dir, plan, done };
     } catch (e) {
-      session.close();
-      throw new StationError(`the instrument did not answer *IDN? (${(e as Error).message}); check the connection`, 502);
+      link?.session.close();
+      throw e;
+    } finally {
+      this.starting = false;
     }
-    const label = options.label ?? this.scenario?.name ?? 'run';
-    const { chain, id, dir } = this.newSession(label, { complianceLimit: plan.compliance, sweeps: plan.repeat, pointsPerSweep: sweepValues(plan).length });
-    chain.emit({
-      type: 'session',
-      id,
-      startedAt: new Date(Date.now() - (performance.now() - chain.options.journal.t0)).toISOString(),
-      source: { kind: this.config.instrument.kind, detail, control: true },
-      instrument: idn,
-      plan: { ...plan, description: describePlan(plan) },
-      analysis: this.analysis,
-      drift: this.config.drift,
-      limits: this.config.limits,
-    });
-    const source = new GuardedSource(driver, this.config.limits);
-    const controller = new RunController(source, chain, plan);
-    this.controller = controller;
-    const done = controller.execute().finally(() => {
-      session.close();
-      this.controller = undefined;
-      this.chain = undefined;
-    });
-    return { session: id, dir, plan, done };
   }
 
+  /** After the journal: snapshot and subscribers. A subscriber's failure never reaches the run. */
   private publish(e: WireEvent): void {
-    this.recent.add(e);
-    this.events$.next(e);
+    try {
+      this.recent.add(e);
+      this.events$.next(e);
+    } catch (err) {
+      process.stderr.write(`plumbline: delivering event ${e.seq} (${e.type}) failed: ${(err as Error).message}\n`);
+    }
   }
 
   parseAnalysis(raw: unknown): AnalysisSettings {

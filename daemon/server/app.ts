@@ -1,17 +1,21 @@
 /**
  * The HTTP side of the daemon: the built page (static files), the REST API and the websocket
- * upgrade, behind three rules:
- *  - it listens on 127.0.0.1 unless told otherwise, and binding beyond loopback needs a control token;
- *  - control requests (anything but GET/HEAD) need the token when one is set, and are refused from
- *    a foreign Origin (another web site in the same browser);
- *  - websocket upgrades from a foreign Origin, or without the token when one is set, are refused;
- *  - the Host header must name this server (a DNS-rebinding page cannot reach the API).
- * Every request body is validated with zod; a bad one gets 400 naming the field.
+ * upgrade, behind these rules:
+ *  - it listens on 127.0.0.1 unless told otherwise, and binding beyond loopback needs a token;
+ *  - beyond loopback every request — reads, the page, the websocket — needs the token (a header,
+ *    the `token` query parameter once, after which an HttpOnly same-site cookie carries it);
+ *  - on loopback, control requests (anything but GET/HEAD) need the token when one is set;
+ *  - control requests and websocket upgrades from a foreign Origin (another web site in the same
+ *    browser) are refused;
+ *  - the Host header must name this server (loopback names on loopback; beyond it this machine's
+ *    own name and addresses or `server.allowedHosts`), so a DNS-rebinding page cannot reach it;
+ *  - request bodies must be JSON (415 otherwise) and are validated with zod (400 naming the field).
  */
 import { timingSafeEqual } from 'node:crypto';
 import { existsSync } from 'node:fs';
 import { createServer, type IncomingMessage, type Server } from 'node:http';
 import type { AddressInfo } from 'node:net';
+import { hostname, networkInterfaces } from 'node:os';
 import { join } from 'node:path';
 import express, { type NextFunction, type Request, type Response } from 'express';
 import { z } from 'zod';
@@ -35,7 +39,11 @@ export interface ServerOptions {
   readonly token?: string;
   /** Folder with the built page (default dist/web). */
   readonly webDir?: string;
+  /** Extra host names the server may be reached by beyond loopback. */
+  readonly allowedHosts?: readonly string[];
 }
+
+const TOKEN_COOKIE = 'plumbline_token';
 
 export class ServerConfigError extends Error {
   readonly code = 'BAD_CONFIG';
@@ -68,13 +76,24 @@ function sameOrigin(req: IncomingMessage): boolean {
   }
 }
 
-function hostAllowed(req: IncomingMessage, host: string, port: number): boolean {
+/** The names and addresses this machine answers to (for the Host check beyond loopback). */
+function ownNames(host: string, extra: readonly string[]): Set<string> {
+  const names = new Set<string>(['localhost', '127.0.0.1', '::1', hostname().toLowerCase(), `${hostname().toLowerCase()}.local`]);
+  if (host !== '0.0.0.0' && host !== '::') names.add(host.toLowerCase());
+  for (const list of Object.values(networkInterfaces())) for (const a of list ?? []) names.add(a.address.toLowerCase());
+  for (const h of extra) names.add(h.toLowerCase());
+  return names;
+}
+
+function hostAllowed(req: IncomingMessage, host: string, port: number, names: Set<string>): boolean {
   const h = req.headers.host;
   if (!h) return false;
-  if (!isLoopback(host) && host !== '0.0.0.0' && host !== '::') return true;
-  const name = h.replace(/:\d+$/, '').replace(/^\[|\]$/g, '');
-  if (isLoopback(host)) return isLoopback(name) && (h.endsWith(`:${port}`) || !/:\d+$/.test(h));
-  return true;
+  const m = /^(\[[^\]]+\]|[^:]+)(?::(\d+))?$/.exec(h);
+  if (!m) return false;
+  const name = m[1].replace(/^\[|\]$/g, '').toLowerCase();
+  if (m[2] !== undefined && Number(m[2]) !== port) return false;
+  if (isLoopback(host)) return isLoopback(name);
+  return names.has(name) || isLoopback(name);
 }
 
 function bearer(req: IncomingMessage): string | undefined {
@@ -82,6 +101,16 @@ function bearer(req: IncomingMessage): string | undefined {
   if (a?.startsWith('Bearer ')) return a.slice(7);
   const x = req.headers['x-plumbline-token'];
   return typeof x === 'string' ? x : undefined;
+}
+
+function cookieToken(req: IncomingMessage): string | undefined {
+  const c = req.headers.cookie;
+  if (!c) return undefined;
+  for (const part of c.split(';')) {
+    const [k, ...v] = part.trim().split('=');
+    if (k === TOKEN_COOKIE) return decodeURIComponent(v.join('='));
+  }
+  return undefined;
 }
 
 export interface RunningServer {
@@ -104,22 +133,40 @@ export async function startServer(station: Station, options: ServerOptions): Pro
   const sub = station.events$.subscribe({ next: (e) => hub.publish(e), error: () => undefined });
   const viewSub = station.views$.subscribe({ next: (v) => hub.publishView(v.session, v.sweep, v.final, v.view), error: () => undefined });
 
+  const names = ownNames(host, options.allowedHosts ?? []);
+  // Beyond loopback the whole server is behind the token, reads included.
+  const readsNeedToken = !isLoopback(host) && token !== undefined;
   app.use((req, res, next) => {
-    if (!hostAllowed(req, host, boundPort)) {
-      res.status(403).json({ error: `Host '${req.headers.host}' is not this server` });
+    if (!hostAllowed(req, host, boundPort, names)) {
+      res.status(403).json({ error: `Host '${req.headers.host}' is not this server (add the name to server.allowedHosts in the station config if it is)` });
       return;
     }
     next();
   });
-  // Control: token and same origin.
   app.use((req, res, next) => {
-    if (req.method === 'GET' || req.method === 'HEAD') return next();
-    if (!sameOrigin(req)) {
+    const control = req.method !== 'GET' && req.method !== 'HEAD';
+    if (control && !sameOrigin(req)) {
       res.status(403).json({ error: `control request from a foreign origin '${req.headers.origin}' refused` });
       return;
     }
-    if (token !== undefined && !tokenMatches(bearer(req), token)) {
-      res.status(401).json({ error: 'control request without the station token refused (send Authorization: Bearer <token>)' });
+    if (token === undefined || (!control && !readsNeedToken)) return next();
+    const fromQuery = typeof req.query.token === 'string' ? req.query.token : undefined;
+    const given = bearer(req) ?? fromQuery ?? cookieToken(req);
+    if (!tokenMatches(given, token)) {
+      res.status(401).json({ error: control
+        ? 'control request without the station token refused (send Authorization: Bearer <token>)'
+        : 'this station needs its token for every request: open the page as http://HOST:PORT/?token=<token>, or send Authorization: Bearer <token>' });
+      return;
+    }
+    // Once a browser has shown the token, a same-site cookie carries it to the page's own files.
+    if (fromQuery !== undefined) res.cookie(TOKEN_COOKIE, fromQuery, { httpOnly: true, sameSite: 'strict', path: '/' });
+    next();
+  });
+  // Bodies must be JSON: a form or text body is refused instead of being read as "no options".
+  app.use((req, res, next) => {
+    const hasBody = (req.headers['content-length'] !== undefined && req.headers['content-length'] !== '0') || req.headers['transfer-encoding'] !== undefined;
+    if (hasBody && !req.is('application/json')) {
+      res.status(415).json({ error: `request body must be JSON (Content-Type: application/json), not '${req.headers['content-type'] ?? 'none'}'` });
       return;
     }
     next();
@@ -144,7 +191,7 @@ export async function startServer(station: Station, options: ServerOptions): Pro
       limits: station.config.limits,
       instrument: station.config.instrument.kind,
       scenario: station.scenario?.name ?? null,
-      control: true,
+      control: station.hasControl,
       recovered: station.recovered.map((r) => ({ dir: r.dir, message: r.message })),
       hub: hub.stats,
       models: MECHANISMS.map((m) => ({ id: m.id, title: m.title, requires: m.requires })),
@@ -243,6 +290,10 @@ export async function startServer(station: Station, options: ServerOptions): Pro
       res.status(400).json({ error: `request body is not valid JSON: ${e.message}` });
       return;
     }
+    if (e.type === 'charset.unsupported' || e.type === 'encoding.unsupported') {
+      res.status(415).json({ error: `request body: ${e.message}; send JSON in UTF-8` });
+      return;
+    }
     if (e.type === 'entity.too.large') {
       res.status(413).json({ error: 'request body too large (64 kB at most)' });
       return;
@@ -266,9 +317,9 @@ export async function startServer(station: Station, options: ServerOptions): Pro
     };
     const url = new URL(req.url ?? '/', 'http://x');
     if (url.pathname !== '/ws') return refuse(404, 'Not Found');
-    if (!hostAllowed(req, host, boundPort)) return refuse(403, 'Forbidden');
+    if (!hostAllowed(req, host, boundPort, names)) return refuse(403, 'Forbidden');
     if (!sameOrigin(req)) return refuse(403, 'Forbidden');
-    if (token !== undefined && !tokenMatches(url.searchParams.get('token') ?? undefined, token)) return refuse(401, 'Unauthorized');
+    if (token !== undefined && !tokenMatches(url.searchParams.get('token') ?? bearer(req) ?? cookieToken(req), token)) return refuse(401, 'Unauthorized');
     hub.upgrade(req, socket, head);
   });
   await new Promise<void>((resolve, reject) => {

@@ -34,6 +34,12 @@ export interface Faults {
   readonly slowReplyMs?: number;
   /** Close the connection after this many READ? replies. */
   readonly disconnectAfterReadings?: number;
+  /** Take this long over each reading (READ?, MEAS?), ms: a long integration; the parser waits meanwhile. */
+  readonly readDelayMs?: number;
+  /** Stop answering anything after this many readings (a hung instrument). */
+  readonly hangAfterReadings?: number;
+  /** After this many readings, send one extra reply line nobody asked for (a copy of the last reading). */
+  readonly strayAfterReadings?: number;
 }
 
 export interface SimOptions {
@@ -74,10 +80,32 @@ export class SimulatedSmu {
   autoRange = true;
   range = 1e-3;
   tripped = false;
+  /** Reply elements of a reading (:FORM:ELEM): voltage and current, optionally a status word. */
+  elements: ('VOLT' | 'CURR' | 'STAT')[] = ['VOLT', 'CURR'];
+  /** Source mode: a fixed level, or a list the instrument steps through itself after :INIT. */
+  sourceMode: 'FIX' | 'LIST' = 'FIX';
+  list: number[] = [];
+  triggerCount = 1;
+  sourceDelay = 0;
+  /** True while an :INIT list sweep runs. */
+  sweeping = false;
+  private sweepAbort = false;
+  private buffer: string[] = [];
+  private hung = false;
   /** Every voltage actually applied to the device (for tests that check the wire). */
   readonly applied: number[] = [];
   /** Every command line received, in order (bounded: the oldest half is dropped past 200,000). */
   readonly log: string[] = [];
+  /**
+   * Every line as it arrived at the instrument's end of the wire, with the time of arrival in ms
+   * since the Unix epoch (performance.timeOrigin + now, comparable across processes), before the
+   * parser executed it. Bounded like `log`.
+   */
+  readonly received: { line: string; at: number }[] = [];
+  /** Bit of the reading's status word that means "at compliance" (this simulator's choice). */
+  static readonly STATUS_COMPLIANCE = 8;
+  /** Bit of the operation condition register set while a list sweep runs (SCPI's "sweeping" bit 3). */
+  static readonly OPER_SWEEPING = 8;
   onDisconnect: (() => void) | undefined;
 
   constructor(options: SimOptions) {
@@ -116,11 +144,17 @@ export class SimulatedSmu {
   private define(): void {
     this.on('*IDN', (_a, q) => (q ? this.idn : undefined));
     this.on('*RST', () => {
+      this.stopSweep();
       this.output = false;
       this.level = 0;
       this.compliance = 1e-3;
       this.nplc = 1;
       this.tripped = false;
+      this.elements = ['VOLT', 'CURR'];
+      this.sourceMode = 'FIX';
+      this.list = [];
+      this.triggerCount = 1;
+      this.sourceDelay = 0;
       return undefined;
     });
     this.on('*CLS', () => {
@@ -177,13 +211,86 @@ export class SimulatedSmu {
     this.on(':OUTPut[:STATe]', (a, q) => {
       if (q) return this.output ? '1' : '0';
       this.output = this.bool(a);
-      if (!this.output) this.tripped = false;
+      if (!this.output) {
+        this.tripped = false;
+        this.stopSweep();
+      }
       return undefined;
     });
-    this.on(':ABORt', () => undefined);
+    this.on(':ABORt', () => {
+      this.stopSweep();
+      return undefined;
+    });
     const read: Handler = (_a, q) => (q ? this.measure() : undefined);
     this.on(':READ', read);
     this.on(':MEASure[:CURRent][:DC]', read);
+    this.on(':FORMat:ELEMents', (a, q) => {
+      if (q) return this.elements.join(',');
+      const els = (a ?? '').split(',').map((x) => x.trim().toUpperCase().replace(/^(VOLT)AGE$|^(CURR)ENT$|^(STAT)US$/, '$1$2$3'));
+      if (els.length === 0 || els.some((e) => e !== 'VOLT' && e !== 'CURR' && e !== 'STAT')) throw new ScpiError(-224, 'Illegal parameter value');
+      this.elements = els as ('VOLT' | 'CURR' | 'STAT')[];
+      return undefined;
+    });
+    this.on(':STATus:OPERation:CONDition', (_a, q) => (q ? String(this.sweeping ? SimulatedSmu.OPER_SWEEPING : 0) : undefined));
+    this.on('[:SOURce]:VOLTage:MODE', (a, q) => {
+      if (q) return this.sourceMode;
+      const m = (a ?? '').trim().toUpperCase();
+      if (m === 'FIX' || m === 'FIXED') this.sourceMode = 'FIX';
+      else if (m === 'LIST') this.sourceMode = 'LIST';
+      else throw new ScpiError(-224, 'Illegal parameter value');
+      return undefined;
+    });
+    this.on('[:SOURce]:LIST:VOLTage', (a, q) => {
+      if (q) return this.list.map(formatScpiNumber).join(',');
+      const vals = (a ?? '').split(',').map((x) => this.num(x));
+      if (vals.length === 0 || vals.length > 2500) throw new ScpiError(-223, 'Too much data');
+      if (vals.some((v) => Math.abs(v) > this.spec.maxVoltage)) throw new ScpiError(-222, 'Data out of range');
+      this.list = vals;
+      return undefined;
+    });
+    this.on(':TRIGger[:SEQuence]:COUNt', (a, q) => {
+      if (q) return String(this.triggerCount);
+      const n = Math.round(this.num(a));
+      if (!(n >= 1 && n <= 2500)) throw new ScpiError(-222, 'Data out of range');
+      this.triggerCount = n;
+      return undefined;
+    });
+    this.on('[:SOURce]:DELay', (a, q) => {
+      if (q) return formatScpiNumber(this.sourceDelay);
+      const d = this.num(a);
+      if (!(d >= 0 && d <= 1000)) throw new ScpiError(-222, 'Data out of range');
+      this.sourceDelay = d;
+      return undefined;
+    });
+    this.on(':INITiate[:IMMediate]', () => {
+      if (!this.output) throw new ScpiError(-221, 'Settings conflict; output is off');
+      if (this.sweeping) throw new ScpiError(-213, 'Init ignored');
+      this.startSweep();
+      return undefined;
+    });
+    this.on(':FETCh', (_a, q) => (q ? (this.buffer.length ? this.buffer.join(',') : undefined) : undefined));
+  }
+
+  /** Runs the loaded list (or the fixed level) triggerCount times in the background, as the instrument's own trigger model does. */
+  private startSweep(): void {
+    this.sweeping = true;
+    this.sweepAbort = false;
+    this.buffer = [];
+    const levels = this.sourceMode === 'LIST' && this.list.length ? this.list : [this.level];
+    void (async () => {
+      for (let k = 0; k < this.triggerCount && !this.sweepAbort && this.output; k++) {
+        this.level = levels[k % levels.length];
+        if (this.realTime && this.sourceDelay > 0) await new Promise((r) => setTimeout(r, this.sourceDelay * 1000));
+        else await new Promise((r) => setImmediate(r));
+        if (this.sweepAbort || !this.output) break;
+        this.buffer.push(await this.measure());
+      }
+      this.sweeping = false;
+    })();
+  }
+
+  private stopSweep(): void {
+    this.sweepAbort = true;
   }
 
   /** One source-measure point: the reply is "<voltage>,<current>" in NR3. */
@@ -191,6 +298,7 @@ export class SimulatedSmu {
     if (!this.output) throw new ScpiError(-221, 'Settings conflict; output is off');
     const period = (this.nplc / this.spec.lineFrequency) * 1000;
     if (this.realTime && period >= 1) await new Promise((r) => setTimeout(r, period));
+    if (this.faults.readDelayMs) await new Promise((r) => setTimeout(r, this.faults.readDelayMs));
     let v = this.level;
     this.applied.push(v);
     if (this.applied.length > 200000) this.applied.splice(0, 100000);
@@ -218,7 +326,17 @@ export class SimulatedSmu {
     const iMeas = this.tripped ? i : i + sigma * this.normal();
     const vMeas = v + (1e-5 * Math.abs(v) + 1e-5) * this.normal();
     this.readingsServed++;
-    return `${formatScpiNumber(vMeas)},${formatScpiNumber(iMeas)}`;
+    return this.elements.map((e) => (e === 'VOLT' ? formatScpiNumber(vMeas) : e === 'CURR' ? formatScpiNumber(iMeas) : String(this.tripped ? SimulatedSmu.STATUS_COMPLIANCE : 0))).join(',');
+  }
+
+  /** Whether the instrument has stopped answering (the hang fault). */
+  get isHung(): boolean {
+    return this.hung;
+  }
+
+  /** Readings served so far. */
+  get readings(): number {
+    return this.readingsServed;
   }
 
   private pushError(code: number, text: string): void {
@@ -234,6 +352,7 @@ export class SimulatedSmu {
    * response line, or undefined when nothing is queried. Errors go to the queue, as on hardware.
    */
   async handleLine(line: string): Promise<string | undefined> {
+    if (this.hung) return undefined;
     this.log.push(line);
     if (this.log.length > 200000) this.log.splice(0, 100000);
     const out: string[] = [];
@@ -275,6 +394,8 @@ export class SimulatedSmu {
   frame(reply: string, isReading: boolean): { bytes: string; disconnect: boolean } {
     let bytes = reply + '\n';
     const f = this.faults;
+    if (isReading && f.strayAfterReadings !== undefined && this.readingsServed === f.strayAfterReadings) bytes += reply + '\n';
+    if (isReading && f.hangAfterReadings !== undefined && this.readingsServed >= f.hangAfterReadings) this.hung = true;
     if (f.dropTerminatorEvery && this.replies % f.dropTerminatorEvery === 0) bytes = reply;
     if (f.garbageEvery && this.replies % f.garbageEvery === 0) bytes = '\u0007#@!\u00ff' + bytes;
     const disconnect = isReading && f.disconnectAfterReadings !== undefined && this.readingsServed >= f.disconnectAfterReadings;

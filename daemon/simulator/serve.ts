@@ -18,6 +18,8 @@ export function attachInstrument(smu: SimulatedSmu, stream: Duplex): void {
   let chain = Promise.resolve();
   stream.pipe(framer);
   framer.on('data', (line: string) => {
+    smu.received.push({ line, at: performance.timeOrigin + performance.now() });
+    if (smu.received.length > 200000) smu.received.splice(0, 100000);
     chain = chain.then(async () => {
       // Yield to the event loop once per command, as a real link does: a controller on an in-process
       // pair would otherwise run on microtasks alone and starve its own timers and sockets.
@@ -25,7 +27,7 @@ export function attachInstrument(smu: SimulatedSmu, stream: Duplex): void {
       const reply = await smu.handleLine(line);
       if (reply === undefined || stream.destroyed) return;
       if (smu.slowReplyMs > 0) await new Promise((r) => setTimeout(r, smu.slowReplyMs));
-      const isReading = /READ\?|MEAS/i.test(line);
+      const isReading = /READ\?|MEAS|FETC/i.test(line);
       const { bytes, disconnect } = smu.frame(reply, isReading);
       stream.write(bytes, 'latin1');
       if (disconnect) {

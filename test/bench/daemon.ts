@@ -83,7 +83,7 @@ async function abortLatency(): Promise<{ median: number; max: number }> {
     });
     attachInstrument(smu, inst);
     const session = new ScpiSession(client);
-    const driver = new SmuDriver(session, loadDialect('scpi-default'));
+    const driver = new SmuDriver(session, loadDialect('protection-trip'));
     const { writer } = JournalWriter.create(dir, 'bench');
     const chain = new LiveChain({
       journal: writer,

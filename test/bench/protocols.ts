@@ -11,7 +11,7 @@ import { servePty, serveTcp } from '../../daemon/simulator/serve.js';
 import { report } from './timing.js';
 
 async function roundTrips(session: ScpiSession, n: number): Promise<number> {
-  const driver = new SmuDriver(session, loadDialect('scpi-default'));
+  const driver = new SmuDriver(session, loadDialect('protection-trip'));
   await driver.configure({ compliance: 1e-3 });
   await driver.outputOn();
   const t0 = process.hrtime.bigint();

@@ -132,8 +132,11 @@ describe('instrument disconnect mid-sweep (loopback TCP)', () => {
     const events: WireEvent[] = [];
     scanJournal(join(dir, 'data', first.json.session), (e) => events.push(e));
     const off = events.filter((e) => e.type === 'output' && !e.on);
-    expect(off).toHaveLength(1);
-    expect(off[0].type === 'output' && off[0].confirmed).toBe(false); // the connection was gone: attempted, not confirmed
+    // The connection was gone: output off could not be sent, and nothing could confirm it.
+    expect(off).toHaveLength(2);
+    expect(off[0]).toMatchObject({ sent: false, confirmed: false });
+    expect(off[1]).toMatchObject({ queried: true, confirmed: false });
+    expect(events.some((e) => e.type === 'caution' && e.kind === 'output-unconfirmed')).toBe(true);
     expect(events.some((e) => e.type === 'caution' && e.kind === 'instrument-fault')).toBe(true);
     const sweepEnd = events.find((e) => e.type === 'sweep-end' && !e.complete);
     expect(sweepEnd?.type === 'sweep-end' && sweepEnd.sweep).toBe(2); // 60 readings: 46 + 14

@@ -85,11 +85,14 @@ describe('daemon over a real pty', () => {
     }
     // Output went on after the compliance was set, and off at the end (the simulator reads the
     // pty asynchronously: give it the time to execute what the daemon already sent).
-    for (let k = 0; k < 500 && smu.log.at(-1) !== ':OUTP OFF'; k++) await new Promise((r) => setTimeout(r, 10));
+    for (let k = 0; k < 500 && smu.log.at(-1) !== ':OUTP?'; k++) await new Promise((r) => setTimeout(r, 10));
     const on = smu.log.indexOf(':OUTP ON');
     expect(smu.log.slice(0, on).some((l) => l.startsWith(':SENS:CURR:PROT '))).toBe(true);
-    expect(smu.log.at(-1)).toBe(':OUTP OFF');
+    // Output off last, then the output query whose answer the journal records as the confirmation.
+    expect(smu.log.slice(-2)).toEqual([':OUTP OFF', ':OUTP?']);
     expect(smu.output).toBe(false);
+    const offs = journal(join(dir, 'data', start.json.session)).filter((e) => e.type === 'output' && !e.on);
+    expect(offs.at(-1)).toMatchObject({ queried: true, confirmed: true });
   });
 });
 

@@ -14,6 +14,7 @@ export function tempDir(prefix = 'plumbline-daemon-'): string {
 export function writeConfig(dir: string, config: Record<string, unknown>): string {
   const file = join(dir, 'station.json');
   writeFileSync(file, JSON.stringify({
+    dialect: 'protection-trip',
     limits: { maxVoltage: 20, maxCompliance: 0.01, maxPower: 0.1, rampDelay: 0 },
     server: { host: '127.0.0.1', port: 0 },
     ...config,

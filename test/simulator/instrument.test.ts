@@ -25,7 +25,7 @@ function inProcess(scenario = 'oxide-fn', faults?: Faults, timeoutMs = 2000) {
   const smu = new SimulatedSmu({ device: findScenario(scenario).device, seed: 3, realTime: false, faults });
   const [a, b] = duplexPair();
   attachInstrument(smu, b);
-  const dialect = loadDialect('scpi-default');
+  const dialect = loadDialect('protection-trip');
   const session = new ScpiSession(a, { timeoutMs });
   cleanups.push(() => session.close());
   return { smu, session, driver: new SmuDriver(session, dialect) };
@@ -157,7 +157,7 @@ describe('simulated SMU over real transports', () => {
     const port = (server.address() as { port: number }).port;
     const session = new ScpiSession(await openTcp('127.0.0.1', port));
     cleanups.push(() => session.close());
-    const driver = new SmuDriver(session, loadDialect('scpi-default'));
+    const driver = new SmuDriver(session, loadDialect('protection-trip'));
     expect(await driver.identify()).toMatch(/plumbline/);
     await driver.configure({ compliance: 1e-3 });
     await driver.outputOn();
@@ -174,7 +174,7 @@ describe('simulated SMU over real transports', () => {
     cleanups.push(() => pair.close());
     const session = new ScpiSession(await openSerial({ path: pair.clientPath, baudRate: 115200 }));
     cleanups.push(() => session.close());
-    const driver = new SmuDriver(session, loadDialect('scpi-default'));
+    const driver = new SmuDriver(session, loadDialect('protection-trip'));
     expect(await driver.identify()).toMatch(/simulated SMU/);
     await driver.configure({ compliance: 1e-2 });
     await driver.outputOn();

@@ -130,7 +130,10 @@ describe('live page in headless Chromium', () => {
     expect(st.runEnd?.outcome).toBe('aborted-user');
     const events = (await api(daemon.url, 'GET', `/api/sessions/${st.session}`)).json.events as any[];
     const off = events.filter((e) => e.type === 'output' && !e.on);
-    expect(off[0]).toMatchObject({ confirmed: true, reason: 'abort from the page' });
+    // First the command on its way (sent), then the instrument's own answer to the output query.
+    expect(off[0]).toMatchObject({ sent: true, confirmed: false });
+    expect(off[0].reason).toMatch(/abort from the page/);
+    expect(off.at(-1)).toMatchObject({ queried: true, confirmed: true });
     expect((await api(daemon.url, 'GET', '/api/status')).json.running).toBe(false);
     await page.waitForTimeout(100);
     expect(await page.locator('.caution[data-kind="output on"]').count()).toBe(0);
