@@ -90,6 +90,7 @@ export class SmuDriver {
     await this.session.write(this.dialect.commands.outputOn);
     this.outputKnownOn = true;
     await this.session.checkErrors('turning the output on');
+    this.checkFence('the output-on check');
     const reply = await this.session.query(this.dialect.commands.outputQuery);
     if (!STATE_REPLY.test(reply.trim())) throw new OutOfStepError(`the reply to '${this.dialect.commands.outputQuery}' was '${reply.slice(0, 80)}', not an output state (0/1 or OFF/ON): replies are out of step with the queries`);
     if (!parseState(reply)) throw new OutOfStepError(`the instrument reports its output off ('${this.dialect.commands.outputQuery}' → '${reply.trim()}') right after output on (an interlock open?)`);

@@ -14,7 +14,7 @@
  * A killed process loses at most the last ~100 ms (the kernel keeps what was written), a power cut
  * at most ~350 ms. `session.lock` holds the writer's pid while it runs.
  */
-import { closeSync, existsSync, fdatasync, mkdirSync, openSync, readFileSync, rmSync, writeFileSync, writeSync } from 'node:fs';
+import { closeSync, existsSync, fdatasync, fstatSync, ftruncateSync, mkdirSync, openSync, readFileSync, rmSync, writeFileSync, writeSync } from 'node:fs';
 import { endianness } from 'node:os';
 import { join } from 'node:path';
 import type { NewEvent, ReadingEvent, WireEvent } from '../../protocols/wire.js';
@@ -85,12 +85,17 @@ export class JournalWriter {
   /** Bytes handed to write(2) so far in this process. */
   written = 0;
   private failure: JournalWriteError | undefined;
+  /** Sizes of the two files up to their last whole line / record. */
+  private eventBytes: number;
+  private readingBytes: number;
   /** Called once, when a write first fails (also from the background flush timer). */
   onError: ((e: JournalWriteError) => void) | undefined;
 
   private constructor(readonly dir: string, startSeq: number, t0: number, private readonly lock: boolean) {
     this.fd = openSync(join(dir, JOURNAL_FILE), 'a');
     this.rfd = openSync(join(dir, READINGS_FILE), 'a');
+    this.eventBytes = fstatSync(this.fd).size;
+    this.readingBytes = fstatSync(this.rfd).size;
     this.seq = startSeq;
     this.t0 = t0;
     if (lock) writeFileSync(join(dir, LOCK_FILE), `${process.pid}\n`);
@@ -210,9 +215,8 @@ export class JournalWriter {
         const data = this.buf.join('');
         this.buf = [];
         this.bufBytes = 0;
-        let off = 0;
         const bytes = Buffer.from(data, 'utf8');
-        while (off < bytes.length) off += writeSync(this.fd, bytes, off);
+        this.writeWhole(this.fd, bytes, 'eventBytes');
         this.written += bytes.length;
         this.dirty = true;
       }
@@ -223,10 +227,30 @@ export class JournalWriter {
     this.maybeSync();
   }
 
+  /**
+   * Writes all of `bytes` or, when the disk refuses part of them, cuts the file back to where it
+   * was, so a full disk leaves whole lines and whole records only.
+   */
+  private writeWhole(fd: number, bytes: Uint8Array, size: 'eventBytes' | 'readingBytes'): void {
+    let off = 0;
+    try {
+      while (off < bytes.length) off += writeSync(fd, bytes, off);
+    } catch (e) {
+      if (off > 0) {
+        try {
+          ftruncateSync(fd, this[size]);
+        } catch {
+          /* the reader skips a torn tail anyway */
+        }
+      }
+      throw e;
+    }
+    this[size] += bytes.length;
+  }
+
   private writeReadings(): void {
     const bytes = new Uint8Array(this.rec.buffer, 0, this.recPos * 8);
-    let off = 0;
-    while (off < bytes.length) off += writeSync(this.rfd, bytes, off);
+    this.writeWhole(this.rfd, bytes, 'readingBytes');
     this.written += bytes.length;
     this.recPos = 0;
     this.dirty = true;

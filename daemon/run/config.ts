@@ -19,6 +19,10 @@ const faultsSchema = z.object({
   dropTerminatorEvery: z.number().int().positive().optional(),
   slowReplyMs: z.number().min(0).optional(),
   disconnectAfterReadings: z.number().int().positive().optional(),
+  readDelayMs: z.number().min(0).optional(),
+  hangAfterReadings: z.number().int().positive().optional(),
+  strayAfterReadings: z.number().int().positive().optional(),
+  readingReply: z.string().optional(),
 }).strict();
 
 const terminatorName = z.enum(['lf', 'crlf', 'cr']);

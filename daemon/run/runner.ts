@@ -8,7 +8,7 @@
  * can be recorded is recorded, then the instrument's own output query confirms the state. The
  * journal says "sent" and, separately, "confirmed" only when the instrument answered "off".
  */
-import { ScpiCancelledError, ScpiDisconnectError, ScpiInstrumentError, ScpiReplyError, ScpiTimeoutError } from '../../protocols/scpi-session.js';
+import { ScpiDisconnectError, ScpiInstrumentError, ScpiReplyError, ScpiTimeoutError } from '../../protocols/scpi-session.js';
 import type { NewEvent, RunOutcome } from '../../protocols/wire.js';
 import { FencedError } from '../instrument/smu-driver.js';
 import { JournalWriteError } from '../journal/journal.js';
@@ -193,9 +193,10 @@ export class RunController {
       // Output off before anything else: nothing below (journal, disk, page) may delay it.
       if (!this.offSent) this.offSent = this.source.emergencyOff((e as Error).message);
       offSent = await this.offSent;
-      if (e instanceof AbortSignalled || ((e instanceof GuardError || e instanceof ScpiCancelledError || e instanceof FencedError) && this.aborting)) {
+      // Once an abort has begun, whatever else fails (a cancelled command, a refused level) is its consequence.
+      if (e instanceof AbortSignalled || this.aborting) {
         outcome = this.abortOutcome;
-        reason = this.abortReason ?? e.message;
+        reason = this.abortReason ?? (e as Error).message;
         if (sweepOpen) this.safely(() => this.chain.endSweep(false, `aborted: ${reason}`));
       } else {
         ({ outcome, reason } = this.classify(e as Error));

@@ -88,6 +88,13 @@ export class Station {
     return this.controller !== undefined || this.passive || this.starting;
   }
 
+  /** How the last run of this process ended (also when its journal could not record it). */
+  private last: { session: string; outcome: RunOutcome; reason: string; outputOffConfirmed: boolean } | undefined;
+
+  get lastRun(): { session: string; outcome: RunOutcome; reason: string; outputOffConfirmed: boolean } | null {
+    return this.last ?? null;
+  }
+
   /** Set from the first check of startRun until the run is registered (or has failed to start). */
   private starting = false;
 
@@ -275,7 +282,10 @@ export class Station {
       // A journal that cannot be written stops the run at once (even between readings).
       chain.options.journal.onError = (err) => controller.abort(err.message, 'journal-fault');
       this.controller = controller;
-      const done = controller.execute().finally(() => {
+      const done = controller.execute().then((r) => {
+        this.last = { session: id, outcome: r.outcome, reason: r.reason, outputOffConfirmed: r.outputOffConfirmed };
+        return r;
+      }).finally(() => {
         session.close();
         this.controller = undefined;
         this.chain = undefined;

@@ -192,6 +192,7 @@ export async function startServer(station: Station, options: ServerOptions): Pro
       instrument: station.config.instrument.kind,
       scenario: station.scenario?.name ?? null,
       control: station.hasControl,
+      lastRun: station.lastRun,
       recovered: station.recovered.map((r) => ({ dir: r.dir, message: r.message })),
       hub: hub.stats,
       models: MECHANISMS.map((m) => ({ id: m.id, title: m.title, requires: m.requires })),

@@ -40,6 +40,8 @@ export interface Faults {
   readonly hangAfterReadings?: number;
   /** After this many readings, send one extra reply line nobody asked for (a copy of the last reading). */
   readonly strayAfterReadings?: number;
+  /** Answer every reading with this text instead (e.g. "+9.9E37,+9.9E37": over range; "9.91E37,9.91E37": not a number). */
+  readonly readingReply?: string;
 }
 
 export interface SimOptions {
@@ -101,7 +103,9 @@ export class SimulatedSmu {
    * since the Unix epoch (performance.timeOrigin + now, comparable across processes), before the
    * parser executed it. Bounded like `log`.
    */
-  readonly received: { line: string; at: number }[] = [];
+  readonly received: { line: string; at: number; repliesSent: number }[] = [];
+  /** Reply lines written to the wire so far. */
+  repliesSent = 0;
   /** Bit of the reading's status word that means "at compliance" (this simulator's choice). */
   static readonly STATUS_COMPLIANCE = 8;
   /** Bit of the operation condition register set while a list sweep runs (SCPI's "sweeping" bit 3). */
@@ -326,6 +330,7 @@ export class SimulatedSmu {
     const iMeas = this.tripped ? i : i + sigma * this.normal();
     const vMeas = v + (1e-5 * Math.abs(v) + 1e-5) * this.normal();
     this.readingsServed++;
+    if (this.faults.readingReply !== undefined) return this.faults.readingReply;
     return this.elements.map((e) => (e === 'VOLT' ? formatScpiNumber(vMeas) : e === 'CURR' ? formatScpiNumber(iMeas) : String(this.tripped ? SimulatedSmu.STATUS_COMPLIANCE : 0))).join(',');
   }
 

@@ -18,7 +18,7 @@ export function attachInstrument(smu: SimulatedSmu, stream: Duplex): void {
   let chain = Promise.resolve();
   stream.pipe(framer);
   framer.on('data', (line: string) => {
-    smu.received.push({ line, at: performance.timeOrigin + performance.now() });
+    smu.received.push({ line, at: performance.timeOrigin + performance.now(), repliesSent: smu.repliesSent });
     if (smu.received.length > 200000) smu.received.splice(0, 100000);
     chain = chain.then(async () => {
       // Yield to the event loop once per command, as a real link does: a controller on an in-process
@@ -30,6 +30,7 @@ export function attachInstrument(smu: SimulatedSmu, stream: Duplex): void {
       const isReading = /READ\?|MEAS|FETC/i.test(line);
       const { bytes, disconnect } = smu.frame(reply, isReading);
       stream.write(bytes, 'latin1');
+      smu.repliesSent++;
       if (disconnect) {
         stream.destroy();
         smu.onDisconnect?.();

@@ -107,6 +107,82 @@ describe('security rules', () => {
   });
 });
 
+describe('request bodies', () => {
+  let srv: RunningServer;
+  let st: Station;
+  beforeAll(async () => {
+    st = station();
+    srv = await startServer(st, { host: '127.0.0.1', port: 0 });
+  });
+  afterAll(() => srv?.close());
+
+  it('a run request whose body is not JSON gets 415 and starts nothing', async () => {
+    const url = srv.url.replace(/\/$/, '');
+    const asText = await fetch(`${url}/api/run`, { method: 'POST', headers: { 'content-type': 'text/plain' }, body: '{"plan":{}}' });
+    expect(asText.status).toBe(415);
+    expect((await asText.json()).error).toMatch(/must be JSON/);
+    const asForm = await fetch(`${url}/api/run`, { method: 'POST', headers: { 'content-type': 'application/x-www-form-urlencoded' }, body: 'plan=x' });
+    expect(asForm.status).toBe(415);
+    expect(st.running).toBe(false);
+    expect(st.simulator?.log ?? []).toEqual([]);
+  });
+
+  it('a JSON body in a charset the server does not read gets 415 naming the charset, not 500', async () => {
+    const url = srv.url.replace(/\/$/, '');
+    const r = await fetch(`${url}/api/annotations`, { method: 'POST', headers: { 'content-type': 'application/json; charset=latin1' }, body: '{"text":"x"}' });
+    expect(r.status).toBe(415);
+    expect((await r.json()).error).toMatch(/unsupported charset "LATIN1".*UTF-8/);
+  });
+});
+
+describe('beyond loopback', () => {
+  let srv: RunningServer;
+  beforeAll(async () => {
+    srv = await startServer(station(), { host: '0.0.0.0', port: 0, token: TOKEN, allowedHosts: ['probe-station-7.lab.example'] });
+  });
+  afterAll(() => srv?.close());
+
+  const get = async (path: string, headers: Record<string, string> = {}) => {
+    const { request } = await import('node:http');
+    return new Promise<{ status: number; cookie?: string[]; body: string }>((resolve, reject) => {
+      const req = request({ host: '127.0.0.1', port: srv.port, path, headers: { host: `127.0.0.1:${srv.port}`, ...headers } }, (res) => {
+        let body = '';
+        res.on('data', (d) => (body += String(d)));
+        res.on('end', () => resolve({ status: res.statusCode ?? 0, cookie: res.headers['set-cookie'], body }));
+      });
+      req.on('error', reject);
+      req.end();
+    });
+  };
+
+  it('every read needs the token: status, sessions, readings and the page itself', async () => {
+    for (const path of ['/api/status', '/api/sessions', '/api/sessions/x/readings', '/']) {
+      const r = await get(path);
+      expect(r.status, path).toBe(401);
+    }
+    expect((await get('/api/status', { authorization: `Bearer ${TOKEN}` })).status).toBe(200);
+  });
+
+  it('the token in the page address sets an HttpOnly same-site cookie that carries it afterwards', async () => {
+    const first = await get(`/api/status?token=${TOKEN}`);
+    expect(first.status).toBe(200);
+    const cookie = (first.cookie ?? [])[0] ?? '';
+    expect(cookie).toMatch(/HttpOnly/);
+    expect(cookie).toMatch(/SameSite=Strict/);
+    const again = await get('/api/sessions', { cookie: cookie.split(';')[0] });
+    expect(again.status).toBe(200);
+    expect((await get('/api/sessions', { cookie: 'plumbline_token=wrong-token-0123456789' })).status).toBe(401);
+  });
+
+  it('the Host check holds there: another name is refused even with the token; allowed names pass', async () => {
+    const auth = { authorization: `Bearer ${TOKEN}` };
+    expect((await get('/api/status', { ...auth, host: 'attacker.example' })).status).toBe(403);
+    expect((await get('/api/status', { ...auth, host: `attacker.example:${srv.port}` })).status).toBe(403);
+    expect((await get('/api/status', { ...auth, host: `probe-station-7.lab.example:${srv.port}` })).status).toBe(200);
+    expect((await get('/api/status', { ...auth, host: `127.0.0.1:${srv.port + 1}` })).status).toBe(403);
+  });
+});
+
 describe('hard limits on the wire (property test)', () => {
   it('random API commands never put a voltage, compliance or power beyond the limits on the wire', async () => {
     const st = station();

@@ -1,5 +1,5 @@
 /** Starting the real daemon (the built CLI) as a child process, and talking to it as a page would. */
-import { spawn, type ChildProcess } from 'node:child_process';
+import { spawn, spawnSync, type ChildProcess } from 'node:child_process';
 import { mkdtempSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
@@ -128,4 +128,47 @@ export class Viewer {
   close(): void {
     this.ws.terminate();
   }
+}
+
+/** Runs the built CLI to the end without blocking this process (a simulator here must keep answering). */
+export function runCliAsync(args: string[], timeoutMs = 120_000): Promise<{ code: number; stdout: string; stderr: string }> {
+  return new Promise((resolve) => {
+    const p = spawn(process.execPath, [CLI, ...args]);
+    let stdout = '';
+    let stderr = '';
+    const t = setTimeout(() => p.kill('SIGKILL'), timeoutMs);
+    p.stdout.on('data', (d) => (stdout += String(d)));
+    p.stderr.on('data', (d) => (stderr += String(d)));
+    p.on('exit', (code) => {
+      clearTimeout(t);
+      resolve({ code: code ?? -1, stdout, stderr });
+    });
+  });
+}
+
+/** Polls until pred() holds; rejects with `what` after timeoutMs. */
+export async function waitUntil(pred: () => boolean, what: string, timeoutMs = 20_000): Promise<void> {
+  const t0 = Date.now();
+  while (!pred()) {
+    if (Date.now() - t0 > timeoutMs) throw new Error(`timed out waiting for ${what}`);
+    await new Promise((r) => setTimeout(r, 10));
+  }
+}
+
+/**
+ * A small tmpfs (a real file system that fills up) at a new folder; needs root or passwordless
+ * sudo, as the test command's own setup does. Returns the folder and a function that unmounts it.
+ */
+export function smallDisk(kilobytes: number): { dir: string; release(): void } {
+  const dir = tempDir('plumbline-disk-');
+  const root = typeof process.getuid === 'function' && process.getuid() === 0;
+  const pre = root ? [] : ['sudo', '-n'];
+  const run = (args: string[]) => {
+    const cmd = pre.length ? pre[0] : args[0];
+    const rest = pre.length ? [...pre.slice(1), ...args] : args.slice(1);
+    const r = spawnSync(cmd, rest, { encoding: 'utf8' });
+    if (r.status !== 0) throw new Error(`${args.join(' ')} failed (the disk-full test needs root or passwordless sudo): ${r.stderr || r.error?.message}`);
+  };
+  run(['mount', '-t', 'tmpfs', '-o', `size=${kilobytes}k`, 'tmpfs', dir]);
+  return { dir, release: () => run(['umount', '-l', dir]) };
 }
