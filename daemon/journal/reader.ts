@@ -171,8 +171,13 @@ export interface RecoveryReport {
   readonly badLines: BadLine[];
   readonly closedSweep: number | null;
   readonly addedRunEnd: boolean;
+  /** The run had the output on when its process died: nothing turned it off. */
+  readonly outputMayBeOn?: boolean;
   readonly message: string;
 }
+
+/** What to do when a daemon died with the output on (an instrument keeps its output state; common practice). */
+export const OUTPUT_MAY_BE_ON = 'nothing turned it off when the daemon stopped, and a source-measure unit keeps its output state on its own. Check the instrument (its front panel) and turn the output off there before touching the probes or the fixture.';
 
 /**
  * Closes a session a dead process left open: terminates a torn last line (so the next append starts
@@ -186,13 +191,19 @@ export function recoverSession(dir: string): RecoveryReport {
     return { dir, recovered: false, tornLines: 0, badLines: [], closedSweep: null, addedRunEnd: false, message: `in use by process ${holder}; left alone` };
   }
   let openSweep: number | null = null;
+  let planned = 0;
   let ended = false;
   let pointsInOpen = 0;
   let readings = 0;
   let maxSweep = 0;
+  let control = false;
+  let outputOn = false;
   const scan = scanJournal(dir, (e) => {
-    if (e.type === 'sweep-start') {
+    if (e.type === 'session') control = e.source.control;
+    else if (e.type === 'output') outputOn = e.on;
+    else if (e.type === 'sweep-start') {
       openSweep = e.sweep;
+      planned = e.planned;
       pointsInOpen = 0;
     } else if (e.type === 'sweep-end') openSweep = null;
     else if (e.type === 'reading') {
@@ -214,21 +225,29 @@ export function recoverSession(dir: string): RecoveryReport {
   if (scan.tornReadingBytes > 0) truncateTornReadings(dir, scan.tornReadingBytes);
   const w = JournalWriter.append(dir, scan.lastSeq, scan.lastT);
   const closedSweep: number | null = openSweep;
+  // Every planned point journaled: the sweep is whole, whatever stopped the daemon after it.
+  const whole = closedSweep !== null && planned > 0 && pointsInOpen >= planned;
+  // A run that drove the instrument and never recorded its output going off.
+  const outputMayBeOn = !ended && control && outputOn;
   const parts = [`${readings} readings kept`];
   if (scan.tornTail) parts.push('the torn last line was skipped');
   if (scan.tornReadingBytes > 0) parts.push(`an incomplete last reading record (${scan.tornReadingBytes} of ${RECORD_BYTES} bytes) was dropped`);
   if (tornLines > (scan.tornTail ? 1 : 0)) parts.push(`${tornLines} damaged line(s) skipped`);
-  if (closedSweep !== null) parts.push(`sweep ${closedSweep} marked incomplete after ${pointsInOpen} points`);
+  if (closedSweep !== null) parts.push(whole ? `sweep ${closedSweep} closed: all ${planned} planned points were journaled` : `sweep ${closedSweep} marked incomplete after ${pointsInOpen} of ${planned} points`);
   if (!ended) parts.push('run marked interrupted');
+  if (outputMayBeOn) parts.push(`THE INSTRUMENT'S OUTPUT MAY STILL BE ON: ${OUTPUT_MAY_BE_ON}`);
   const message = `recovered: ${parts.join('; ')}`;
   w.event({ type: 'recovery', tornLines, closedSweep, addedRunEnd: !ended, message });
+  if (outputMayBeOn) w.event({ type: 'caution', kind: 'recovery', message: `The daemon stopped while this run had the output on: ${OUTPUT_MAY_BE_ON}` });
   if (closedSweep !== null) {
-    w.event({ type: 'sweep-end', sweep: closedSweep, points: pointsInOpen, complete: false, note: 'the daemon stopped mid-sweep (recovered on the next start)' });
+    w.event(whole
+      ? { type: 'sweep-end', sweep: closedSweep, points: pointsInOpen, complete: true, note: 'closed on recovery: every planned point was journaled before the daemon stopped' }
+      : { type: 'sweep-end', sweep: closedSweep, points: pointsInOpen, complete: false, note: 'the daemon stopped mid-sweep (recovered on the next start)' });
   }
   if (!ended) w.event({ type: 'run-end', outcome: 'interrupted', reason: 'the daemon stopped without closing the session (crash, kill or power loss)', sweeps: maxSweep });
   w.close();
   rmSync(join(dir, LOCK_FILE), { force: true });
-  return { dir, recovered: true, tornLines, badLines: scan.bad, closedSweep, addedRunEnd: !ended, message };
+  return { dir, recovered: true, tornLines, badLines: scan.bad, closedSweep, addedRunEnd: !ended, outputMayBeOn, message };
 }
 
 /** Recovers every unfinished session under a data directory (the start-up pass). */

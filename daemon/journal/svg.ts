@@ -31,13 +31,26 @@ export interface SvgChart {
 
 const esc = (s: string) => s.replace(/&/g, '&amp;').replace(/</g, '&lt;').replace(/>/g, '&gt;').replace(/"/g, '&quot;');
 
-function niceTicks(lo: number, hi: number, count = 5): number[] {
+/**
+ * Round tick values between lo and hi. Ticks are counted by index (never by adding a step to a
+ * running total), so a range narrower than the spacing of doubles near lo — a parameter's ±2σ band
+ * on a large value — gives the two ends instead of a loop that never ends.
+ */
+export function niceTicks(lo: number, hi: number, count = 5): number[] {
+  if (!Number.isFinite(lo) || !Number.isFinite(hi)) return [];
   if (!(hi > lo)) return [lo];
   const raw = (hi - lo) / count;
   const mag = 10 ** Math.floor(Math.log10(raw));
   const step = [1, 2, 5, 10].map((m) => m * mag).find((s) => s >= raw) ?? 10 * mag;
+  const first = Math.ceil(lo / step);
+  const last = Math.floor(hi / step + 1e-9);
+  // A step below the resolution of the values themselves: no distinct round ticks exist.
+  if (!(step > Math.max(Math.abs(lo), Math.abs(hi)) * 4 * Number.EPSILON) || last - first > 10 * count) return [lo, hi];
   const out: number[] = [];
-  for (let t = Math.ceil(lo / step) * step; t <= hi + step * 1e-9; t += step) out.push(Math.abs(t) < step * 1e-9 ? 0 : t);
+  for (let k = first; k <= last; k++) {
+    const t = k * step;
+    out.push(Math.abs(t) < step * 1e-9 ? 0 : t);
+  }
   return out;
 }
 

@@ -49,7 +49,6 @@ describe('kill -9 at random moments', () => {
     const plan = join(data, '..', 'plan.json');
     writeFileSync(plan, JSON.stringify({ start: 0, stop: 9, points: 91, dual: true, compliance: 1e-3 }));
     const normal = seededNormal(2026);
-    let recoveredWithTorn = 0;
     let recoveredMidSweep = 0;
     let leftForNext = false;
     for (let n = 0; n < 20; n++) {
@@ -64,17 +63,36 @@ describe('kill -9 at random moments', () => {
         continue;
       }
       if (leftForNext && created) expect(stderr).toMatch(/journal .*: recovered: \d+ readings kept/);
+      const sessionsBefore = readdirSync(data).sort();
+      if (!created || sessionsBefore.length === 0) {
+        expect(runCli(['recover', data]).code).toBe(0);
+        continue;
+      }
+      // What the killed session holds before recovery: was its output on, did its run end?
+      const last = join(data, sessionsBefore.at(-1) as string);
+      let outputOn = false;
+      let ended = false;
+      let readings = 0;
+      scanJournal(last, (e) => {
+        if (e.type === 'output') outputOn = e.on;
+        else if (e.type === 'run-end') ended = true;
+        else if (e.type === 'reading') readings++;
+      });
       // Even rounds: `plumbline recover` closes the session just killed.
       const r = runCli(['recover', data, '--json']);
       expect(r.code, r.stderr).toBe(0);
-      const reports = JSON.parse(r.stdout).reports as { dir: string; message: string; closedSweep: number | null; tornLines: number }[];
-      const sessions = readdirSync(data).sort();
-      if (sessions.length === 0) continue;
-      const last = join(data, sessions.at(-1) as string);
+      const reports = JSON.parse(r.stdout).reports as { dir: string; message: string; closedSweep: number | null; outputMayBeOn?: boolean }[];
       const rep = reports.find((x) => x.dir === last);
-      expect(rep?.message ?? 'nothing').toMatch(/^recovered: \d+ readings kept|nothing/);
-      if (rep && rep.tornLines > 0) recoveredWithTorn++;
-      if (rep && rep.closedSweep !== null) recoveredMidSweep++;
+      if (ended) {
+        expect(rep).toBeUndefined();
+        continue;
+      }
+      expect(rep, `recovery of ${last}`).toBeDefined();
+      expect(rep?.message).toMatch(new RegExp(`^recovered: ${readings} readings kept`));
+      // A run killed with the output on: recovery says plainly that it may still be on.
+      expect(rep?.outputMayBeOn ?? false).toBe(outputOn);
+      if (outputOn) expect(rep?.message).toMatch(/OUTPUT MAY STILL BE ON: .*Check the instrument/);
+      if (rep?.closedSweep !== null) recoveredMidSweep++;
     }
     expect(runCli(['recover', data]).code).toBe(0);
     const sessions = readdirSync(data).sort();
@@ -94,12 +112,17 @@ describe('kill -9 at random moments', () => {
         if (e.type === 'reading') expect(started.has(e.sweep)).toBe(true);
       }
       if (events.length > 0) expect(events.at(-1)?.type).toBe('run-end');
+      // A sweep is complete exactly when every planned point is in the journal.
+      const planned = new Map<number, number>();
+      for (const e of events) {
+        if (e.type === 'sweep-start') planned.set(e.sweep, e.planned);
+        if (e.type === 'sweep-end') expect(e.complete, `sweep ${e.sweep} of ${s}: ${e.points} of ${planned.get(e.sweep)} points`).toBe(e.points >= (planned.get(e.sweep) ?? Infinity));
+      }
       const x = exportSession(dir, join(dir, 'export'));
       expect(x.readings).toBe(events.filter((e) => e.type === 'reading').length);
     }
     // Kills land mid-sweep often at this pace; at least one of the ten recoveries closed an open sweep.
     expect(recoveredMidSweep).toBeGreaterThan(0);
-    void recoveredWithTorn;
   }, 120_000);
 });
 
