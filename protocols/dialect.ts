@@ -92,6 +92,9 @@ export const dialectSchema = z.object({
 }).strict().superRefine((d, ctx) => {
   const statusField = d.readFields.includes('status');
   if (d.status && !statusField) ctx.addIssue({ code: 'custom', path: ['status'], message: 'a status mask needs a "status" entry in readFields' });
+  if (d.paced && !(d.status && statusField)) {
+    ctx.addIssue({ code: 'custom', path: ['paced'], message: 'instrument-paced sweeps need readings that carry a status word (readFields "status" and status.complianceMask): compliance cannot be queried per point' });
+  }
   if (!d.commands.complianceTripped && !(d.status && statusField)) {
     ctx.addIssue({ code: 'custom', path: ['commands', 'complianceTripped'], message: 'needed unless the reading carries a status word (readFields "status" and status.complianceMask)' });
   }

@@ -6,7 +6,7 @@
 import { EventEmitter } from 'node:events';
 import type { Readable } from 'node:stream';
 import { FileTail } from './file-tail.js';
-import { LineFramer } from './line-framer.js';
+import { LineFramer, type ReadTerminator } from './line-framer.js';
 import { openSerial, openTcp, type SerialSettings } from './transport.js';
 
 export interface LineSource extends EventEmitter {
@@ -17,9 +17,9 @@ export interface LineSource extends EventEmitter {
 }
 
 /** Lines from any readable byte stream (stdin, a socket, a serial port). */
-export function streamLines(stream: Readable, maxLine = 65536): LineSource {
+export function streamLines(stream: Readable, maxLine = 65536, terminator: ReadTerminator = 'lf'): LineSource {
   const em = new EventEmitter() as LineSource;
-  const framer = new LineFramer({ maxLine });
+  const framer = new LineFramer({ maxLine, terminator });
   let n = 0;
   stream.pipe(framer);
   framer.on('data', (l: string) => em.emit('line', l, ++n));
@@ -31,12 +31,49 @@ export function streamLines(stream: Readable, maxLine = 65536): LineSource {
   return em;
 }
 
-export async function tcpLines(host: string, port: number): Promise<LineSource> {
-  return streamLines(await openTcp(host, port));
+export async function tcpLines(host: string, port: number, terminator: ReadTerminator = 'lf'): Promise<LineSource> {
+  const socket = await openTcp(host, port);
+  const src = streamLines(socket, 65536, terminator);
+  const stop = src.stop;
+  src.stop = async () => {
+    await stop();
+    socket.destroy();
+  };
+  return src;
 }
 
-export async function serialLines(settings: SerialSettings): Promise<LineSource> {
-  return streamLines(await openSerial(settings));
+export async function serialLines(settings: SerialSettings, terminator: ReadTerminator = 'lf'): Promise<LineSource> {
+  const port = await openSerial(settings);
+  const src = streamLines(port, 65536, terminator);
+  const stop = src.stop;
+  src.stop = async () => {
+    await stop();
+    port.destroy();
+  };
+  // A serial port does not end on its own: an unplugged adapter closes it.
+  port.on('close', () => src.emit('end'));
+  return src;
+}
+
+/**
+ * A watch source named on the command line: `-` (standard input), `tcp://HOST:PORT`,
+ * `serial:PATH`, or a file path. Returns what kind it is and, for tcp/serial, where.
+ */
+export function parseSourceSpec(spec: string): { kind: 'stdin' } | { kind: 'tcp'; host: string; port: number } | { kind: 'serial'; path: string } | { kind: 'file'; path: string } {
+  if (spec === '-') return { kind: 'stdin' };
+  const tcp = /^tcp:\/\/(\[[^\]]+\]|[^:/]+):(\d+)\/?$/.exec(spec);
+  if (tcp) {
+    const port = Number(tcp[2]);
+    if (!(port >= 1 && port <= 65535)) throw new TypeError(`${spec}: port ${tcp[2]} is not a TCP port (1–65535)`);
+    return { kind: 'tcp', host: tcp[1].replace(/^\[|\]$/g, ''), port };
+  }
+  if (spec.startsWith('tcp:')) throw new TypeError(`${spec}: expected tcp://HOST:PORT`);
+  if (spec.startsWith('serial:')) {
+    const path = spec.slice('serial:'.length);
+    if (!path) throw new TypeError(`${spec}: expected serial:PATH, e.g. serial:/dev/ttyUSB0`);
+    return { kind: 'serial', path };
+  }
+  return { kind: 'file', path: spec };
 }
 
 /** Lines of a file being appended to; truncation and rotation are reported as notices. */

@@ -64,6 +64,26 @@ function readJson(file: string, what: string): unknown {
   }
 }
 
+/** Serial settings from watch's options; a bad value names its option. */
+function serialSettings(path: string, o: { baud: string; dataBits: string; parity: string; stopBits: string; rtscts?: boolean; xonxoff?: boolean }) {
+  const baudRate = Number(o.baud);
+  if (!Number.isInteger(baudRate) || baudRate <= 0) throw new UsageError(`--baud '${o.baud}': expected a baud rate such as 9600 or 115200`);
+  const dataBits = Number(o.dataBits);
+  if (![5, 6, 7, 8].includes(dataBits)) throw new UsageError(`--data-bits '${o.dataBits}': expected 5, 6, 7 or 8`);
+  if (!['none', 'even', 'odd', 'mark', 'space'].includes(o.parity)) throw new UsageError(`--parity '${o.parity}': expected none, even, odd, mark or space`);
+  const stopBits = Number(o.stopBits);
+  if (![1, 1.5, 2].includes(stopBits)) throw new UsageError(`--stop-bits '${o.stopBits}': expected 1, 1.5 or 2`);
+  return {
+    path,
+    baudRate,
+    dataBits: dataBits as 5 | 6 | 7 | 8,
+    parity: o.parity as 'none' | 'even' | 'odd' | 'mark' | 'space',
+    stopBits: stopBits as 1 | 1.5 | 2,
+    rtscts: o.rtscts ?? false,
+    xonxoff: o.xonxoff ?? false,
+  };
+}
+
 /** Output off on the way out, whatever the way out is. */
 function guardProcess(station: Station, onExit: () => Promise<void> | void): void {
   let exiting = false;
@@ -228,8 +248,8 @@ export function registerStation(program: Command): void {
 
   program
     .command('watch')
-    .description('follow a CSV another program is writing (or stdin: -), segment sweeps, and run the live chain, journal and page on it — no control of the instrument')
-    .argument('<file>', 'the CSV being written, or - for standard input')
+    .description('follow readings another program produces — a CSV it is writing, standard input, a TCP or serial line stream — segment sweeps, and run the live chain, journal and page on them, with no control of the instrument')
+    .argument('<source>', 'the CSV being written; - for standard input; tcp://HOST:PORT; or serial:PATH (e.g. serial:/dev/ttyUSB0)')
     .option('--voltage <col>', 'voltage column, by header name or 1-based position (default: the first)')
     .option('--current <col>', 'current column (default: the second)')
     .option('--compliance-column <col>', 'column flagging readings at compliance (non-zero)')
@@ -239,13 +259,29 @@ export function registerStation(program: Command): void {
     .option('--data <dir>', 'folder for the session folder (default: the config\'s, plumbline-data)')
     .option('--port <n>', 'serve the page on this port (default: the config\'s; 0 = any free port)')
     .option('--no-page', 'do not serve the page')
-    .action(async (file: string, o: { voltage?: string; current?: string; complianceColumn?: string; temperatureColumn?: string; model?: string; config?: string; data?: string; port?: string; page: boolean }) => {
+    .option('--baud <n>', 'serial: baud rate', '9600')
+    .option('--data-bits <n>', 'serial: 5, 6, 7 or 8', '8')
+    .option('--parity <p>', 'serial: none, even, odd, mark or space', 'none')
+    .option('--stop-bits <n>', 'serial: 1, 1.5 or 2', '1')
+    .option('--rtscts', 'serial: hardware flow control (RTS/CTS)')
+    .option('--xonxoff', 'serial: software flow control (XON/XOFF)')
+    .option('--read-terminator <t>', 'serial and TCP: what ends a line: lf (a trailing CR is dropped), crlf or cr', 'lf')
+    .action(async (spec: string, o: { voltage?: string; current?: string; complianceColumn?: string; temperatureColumn?: string; model?: string; config?: string; data?: string; port?: string; page: boolean; baud: string; dataBits: string; parity: string; stopBits: string; rtscts?: boolean; xonxoff?: boolean; readTerminator: string }) => {
       const config = await stationConfig({ config: o.config });
       const { dataDir, Station, startServer } = await daemonModules();
       const { feedPassive } = await import('../pipeline/passive.js');
-      const { fileLines, streamLines } = await import('../../protocols/line-source.js');
+      const { fileLines, streamLines, tcpLines, serialLines, parseSourceSpec } = await import('../../protocols/line-source.js');
       const { existsSync } = await import('node:fs');
-      if (file !== '-' && !existsSync(file)) throw new UsageError(`${file}: no such file (watch follows a file that exists; create it first, even empty)`);
+      let src: ReturnType<typeof parseSourceSpec>;
+      try {
+        src = parseSourceSpec(spec);
+      } catch (e) {
+        throw new UsageError((e as Error).message);
+      }
+      if (!['lf', 'crlf', 'cr'].includes(o.readTerminator)) throw new UsageError(`--read-terminator '${o.readTerminator}': expected lf, crlf or cr`);
+      const term = o.readTerminator as 'lf' | 'crlf' | 'cr';
+      const serial = src.kind === 'serial' ? serialSettings(src.path, o) : undefined;
+      if (src.kind === 'file' && !existsSync(src.path)) throw new UsageError(`${src.path}: no such file (watch follows a file that exists; create it first, even empty)`);
       const station = new Station(config, dataDir(config, o.data));
       for (const r of station.recovered) process.stderr.write(`journal ${r.dir}: ${r.message}\n`);
       // Another program's data: the fit window is found automatically unless the config fixes one.
@@ -256,8 +292,17 @@ export function registerStation(program: Command): void {
         if (!Number.isInteger(port) || port < 0 || port > 65535) throw new UsageError(`--port '${o.port}': expected a port number`);
         srv = await startServer(station, { host: config.server.host, port, token: config.server.token, allowedHosts: config.server.allowedHosts });
       }
-      const where = file === '-' ? 'standard input' : file;
-      const source = file === '-' ? streamLines(process.stdin) : await fileLines(file);
+      const where = src.kind === 'stdin' ? 'standard input' : src.kind === 'tcp' ? `TCP ${src.host}:${src.port}` : src.kind === 'serial' ? `serial ${src.path}` : src.path;
+      let source;
+      try {
+        source = src.kind === 'stdin' ? streamLines(process.stdin, 65536, term)
+          : src.kind === 'tcp' ? await tcpLines(src.host, src.port, term)
+          : src.kind === 'serial' ? await serialLines(serial!, term)
+          : await fileLines(src.path);
+      } catch (e) {
+        await srv?.close();
+        throw new UsageError(`cannot open ${where}: ${(e as Error).message}`);
+      }
       const passive = station.openPassive('watch', where);
       const feed = feedPassive(source, passive.chain, { voltage: o.voltage, current: o.current, compliance: o.complianceColumn, temperature: o.temperatureColumn }, where);
       process.stdout.write(`watching ${where} → session ${passive.session}\n  folder ${passive.dir}\n${srv ? `  page  ${srv.url}\n` : ''}plumbline does not control this instrument; Ctrl-C stops watching.\n`);
@@ -282,6 +327,25 @@ export function registerStation(program: Command): void {
       process.on('SIGTERM', () => void close('terminated (SIGTERM)'));
       await feed.done;
       await close('the source ended');
+    });
+
+  program
+    .command('ports')
+    .description('list the serial ports this machine has (USB adapters show their stable /dev/serial/by-id name)')
+    .option('--json', 'print one JSON object')
+    .action(async (o: { json?: boolean }) => {
+      const { listSerialPorts } = await import('../../protocols/transport.js');
+      const r = await listSerialPorts();
+      if (o.json) {
+        process.stdout.write(`${JSON.stringify(r)}\n`);
+        return;
+      }
+      if (r.warning) process.stderr.write(`plumbline ports: ${r.warning}\n`);
+      if (r.ports.length === 0) process.stdout.write('no serial ports found\n');
+      for (const p of r.ports) {
+        const about = [p.manufacturer, p.serialNumber ? `serial number ${p.serialNumber}` : undefined, p.vendorId ? `USB ${p.vendorId}:${p.productId ?? '?'}` : undefined].filter(Boolean).join(', ');
+        process.stdout.write(`${p.byId ?? p.path}${p.byId ? `  (${p.path})` : ''}${about ? `  ${about}` : ''}\n`);
+      }
     });
 
   program

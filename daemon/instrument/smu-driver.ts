@@ -9,9 +9,11 @@
  * programmed means the replies have slipped onto the wrong queries — an OutOfStepError, which
  * ends the run with the output off.
  */
-import { fill, type Dialect } from '../../protocols/dialect.js';
+import { fill, fillList, type Dialect } from '../../protocols/dialect.js';
 import { parseReading, REJECT_MEANING, RejectCounter, type Reading } from '../../protocols/reading-parser.js';
-import { ScpiReplyError, type ScpiSession } from '../../protocols/scpi-session.js';
+import { ScpiReplyError, ScpiTimeoutError, type ScpiSession } from '../../protocols/scpi-session.js';
+
+const sleep = (ms: number) => new Promise<void>((r) => setTimeout(r, ms));
 
 export interface Measurement {
   readonly reading: Reading | undefined;
@@ -174,10 +176,64 @@ export class SmuDriver {
     return { reading: r, raw, compliance };
   }
 
+  /**
+   * Instrument-paced block: loads the levels, lets the instrument step through them on its own
+   * (settling `delay` s before each measurement), polls its busy bit — a short query, so the parser
+   * stays free for an abort — and fetches every reading at once. Each reading is checked against its
+   * own level as in `measure`. `expectedMs` bounds the wait (a block that never ends is a fault).
+   */
+  async runBlock(levels: readonly number[], delay: number, expectedMs: number): Promise<Measurement[]> {
+    const d = this.dialect;
+    const p = d.paced;
+    if (!p) throw new Error(`dialect '${d.name}' has no instrument-paced templates`);
+    this.checkFence('an instrument-paced block');
+    await this.session.write(p.listMode);
+    await this.session.write(fillList(p.listValues, levels));
+    await this.session.write(fill(p.pointCount, levels.length));
+    await this.session.write(fill(p.pointDelay, delay));
+    await this.session.checkErrors('loading a block of levels');
+    this.checkFence('an instrument-paced block');
+    this.programmed = levels[levels.length - 1];
+    await this.session.write(p.start);
+    const t0 = performance.now();
+    const budget = 2 * expectedMs + this.session.timeoutMs;
+    const pollMs = Math.min(200, Math.max(10, expectedMs / 20));
+    for (;;) {
+      const reply = (await this.session.query(p.busyQuery)).trim();
+      const word = Number(reply);
+      if (!Number.isFinite(word)) throw new OutOfStepError(`the reply to '${p.busyQuery}' was '${reply.slice(0, 80)}', not a status word: replies are out of step with the queries`);
+      if ((Math.round(word) & p.busyMask) === 0) break;
+      if (performance.now() - t0 > budget) throw new ScpiTimeoutError(`the instrument-paced block of ${levels.length} points did not finish within ${Math.round(budget)} ms`);
+      await sleep(pollMs);
+    }
+    const raw = await this.session.query(p.fetch);
+    const fields = raw.split(',');
+    const per = d.readFields.length;
+    if (fields.length !== per * levels.length) {
+      throw new OutOfStepError(`the reply to '${p.fetch}' holds ${fields.length} fields where ${levels.length} readings of ${per} (${d.readFields.join(', ')}) were expected: replies are out of step with the queries`);
+    }
+    const out: Measurement[] = [];
+    for (let k = 0; k < levels.length; k++) {
+      const text = fields.slice(k * per, (k + 1) * per).join(',');
+      const parsed = parseReading(text, d.readFields);
+      if (!parsed.ok) {
+        this.rejects.add(parsed.reason);
+        out.push({ reading: undefined, raw: text, compliance: false, rejectReason: REJECT_MEANING[parsed.reason] });
+        continue;
+      }
+      const r = parsed.reading;
+      const compliance = r.status !== undefined && Number.isFinite(r.status) && (Math.round(r.status) & (d.status?.complianceMask ?? 0)) !== 0;
+      this.checkReadback(r, compliance, text, levels[k]);
+      out.push({ reading: r, raw: text, compliance });
+    }
+    await this.session.write(p.fixedMode);
+    await this.session.write(fill(d.commands.sourceVoltage, this.programmed));
+    return out;
+  }
+
   /** A measured bias far from the programmed level means the reply belongs to another point. */
-  private checkReadback(r: Reading, compliance: boolean, raw: string): void {
+  private checkReadback(r: Reading, compliance: boolean, raw: string, set = this.programmed): void {
     if (!Number.isFinite(r.v)) return;
-    const set = this.programmed;
     const tol = this.dialect.readback.absolute + this.dialect.readback.relative * Math.abs(set);
     // At compliance the source cannot hold the level: the bias falls toward zero, never beyond it.
     const fits = compliance

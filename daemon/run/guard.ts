@@ -181,6 +181,20 @@ export class GuardedSource {
     return this.driver.measure();
   }
 
+  /**
+   * An instrument-paced block: every level passes the same checks as a step before the block is
+   * loaded; the instrument's compliance is set (it protects the device between readings).
+   */
+  async block(levels: readonly number[], delay: number, expectedMs: number): Promise<Measurement[]> {
+    if (this.compliance === undefined) throw new GuardError('no compliance set', 'compliance', {});
+    this.refuseIfInhibited('an instrument-paced block');
+    for (const v of levels) checkLevel(this.limits, v, this.compliance);
+    const m = await this.driver.runBlock(levels, delay, expectedMs);
+    this.passed.push(...levels);
+    this.level = levels[levels.length - 1];
+    return m;
+  }
+
   /** Output off through the queue, at the normal end of a run; never throws. Resolves whether the bytes were written. */
   async outputOff(): Promise<boolean> {
     const ok = await this.driver.outputOff();

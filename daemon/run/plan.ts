@@ -27,6 +27,14 @@ export const planSchema = z.object({
   nplc: z.number().min(0.001).max(100).optional(),
   /** Current compliance, A. */
   compliance: z.number().positive().finite(),
+  /**
+   * Who paces the points: 'station' (default) sets each level and reads it, one exchange per point;
+   * 'instrument' loads a block of levels into the instrument, which steps through them itself,
+   * and the station fetches the block's readings (needs a dialect with instrument-paced templates).
+   */
+  pacing: z.enum(['station', 'instrument']).default('station'),
+  /** Points per block in instrument-paced mode (default: the whole sweep, up to the instrument's list size). */
+  blockPoints: z.number().int().min(1).max(100000).optional(),
   /** Run a plan whose journal would not fit on the data folder's disk (refused otherwise). */
   overrideDiskCheck: z.boolean().default(false),
 }).strict().superRefine((p, ctx) => {

@@ -10,7 +10,7 @@
  */
 import { ScpiDisconnectError, ScpiInstrumentError, ScpiReplyError, ScpiTimeoutError } from '../../protocols/scpi-session.js';
 import type { NewEvent, RunOutcome } from '../../protocols/wire.js';
-import { FencedError } from '../instrument/smu-driver.js';
+import { FencedError, type Measurement } from '../instrument/smu-driver.js';
 import { JournalWriteError } from '../journal/journal.js';
 import type { Decision, LiveChain } from '../pipeline/chain.js';
 import { GuardError, type GuardedSource } from './guard.js';
@@ -138,25 +138,37 @@ export class RunController {
         this.chain.startSweep(s, values.length, `sweep ${s} of ${plan.repeat}`);
         sweepOpen = true;
         let decision: Decision | undefined;
-        for (const v of values) {
-          this.check();
-          await this.source.step(v);
-          if (plan.delay > 0) await this.sleep(plan.delay);
-          this.check();
-          const m = await this.source.measure();
-          this.check();
-          if (!m.reading) {
-            const why = m.rejectReason ?? 'an unreadable reply';
-            this.rejectedBy[why] = (this.rejectedBy[why] ?? 0) + 1;
-            this.chain.rejected(m.raw, why);
-            continue;
+        if (plan.pacing === 'instrument') {
+          // The instrument steps through each block itself; the readings are judged when the block
+          // is fetched, and an abort decision turns the output off before the next block.
+          const size = Math.min(plan.blockPoints ?? values.length, this.source.driver.dialect.paced?.maxPoints ?? values.length);
+          const perPointMs = plan.delay * 1000 + ((plan.nplc ?? 1) / 50) * 1000 + 2;
+          blocks: for (let b = 0; b < values.length; b += size) {
+            this.check();
+            const levels = values.slice(b, b + size);
+            const ms = await this.source.block(levels, plan.delay, levels.length * perPointMs);
+            this.check();
+            for (let k = 0; k < ms.length; k++) {
+              decision = this.take(ms[k], levels[k]);
+              if (decision?.action === 'abort') {
+                this.abort(decision.reason, decision.outcome);
+                break blocks;
+              }
+            }
           }
-          const r = m.reading;
-          if (Number.isFinite(r.v) && Number.isFinite(r.i) && !r.overflow && !r.voltageOverflow) this.usable++;
-          decision = this.chain.reading(r.v, r.i, m.compliance, r.overflow, v, r.voltageOverflow);
-          if (decision?.action === 'abort') {
-            this.abort(decision.reason, decision.outcome);
-            break;
+        } else {
+          for (const v of values) {
+            this.check();
+            await this.source.step(v);
+            if (plan.delay > 0) await this.sleep(plan.delay);
+            this.check();
+            const m = await this.source.measure();
+            this.check();
+            decision = this.take(m, v);
+            if (decision?.action === 'abort') {
+              this.abort(decision.reason, decision.outcome);
+              break;
+            }
           }
         }
         if (this.aborting) {
@@ -222,6 +234,19 @@ export class RunController {
     this.finished = true;
     this.safely(() => this.chain.end(outcome, reason));
     return { outcome, reason, sweeps: this.chain.sweepsDone, usable: this.usable, rejected: { ...this.rejectedBy }, outputOffConfirmed: check.confirmed };
+  }
+
+  /** One measurement into the chain (a reply without a reading is journaled as rejected, with its reason). */
+  private take(m: Measurement, programmed: number): Decision | undefined {
+    if (!m.reading) {
+      const why = m.rejectReason ?? 'an unreadable reply';
+      this.rejectedBy[why] = (this.rejectedBy[why] ?? 0) + 1;
+      this.chain.rejected(m.raw, why);
+      return undefined;
+    }
+    const r = m.reading;
+    if (Number.isFinite(r.v) && Number.isFinite(r.i) && !r.overflow && !r.voltageOverflow) this.usable++;
+    return this.chain.reading(r.v, r.i, m.compliance, r.overflow, programmed, r.voltageOverflow);
   }
 
   private safely(fn: () => unknown): void {

@@ -214,6 +214,8 @@ export class Station {
       readTerminator: link.readTerminator ?? dialect.readTerminator,
       commandDelayMs: link.commandDelayMs ?? dialect.commandDelayMs,
       errorQuery: dialect.commands.errorQuery,
+      // An instrument-paced block comes back as one line of every reading.
+      maxLine: dialect.paced ? Math.max(4096, dialect.paced.maxPoints * dialect.readFields.length * 24) : 4096,
     });
     return { driver: new SmuDriver(session, dialect), session, detail };
   }
@@ -239,6 +241,10 @@ export class Station {
       dialect = loadDialect(dialectOf(this.config));
     } catch (e) {
       throw new StationError(`station config: ${(e as Error).message}`, 400);
+    }
+    if (plan.pacing === 'instrument') {
+      if (!dialect.paced) throw new StationError(`plan: field 'pacing': the dialect '${dialect.name}' has no instrument-paced templates ("paced"); use pacing "station" or a dialect that has them (protection-status)`, 400);
+      if (plan.blockPoints !== undefined && plan.blockPoints > dialect.paced.maxPoints) throw new StationError(`plan: field 'blockPoints': ${plan.blockPoints} is more than the ${dialect.paced.maxPoints} levels the dialect '${dialect.name}' says the instrument's list holds`, 400);
     }
     this.starting = true;
     let link: Awaited<ReturnType<Station['connect']>> | undefined;

@@ -9,12 +9,21 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import type { Duplex } from 'node:stream';
 import { SerialPort } from 'serialport';
-import { LineFramer } from '../../protocols/line-framer.js';
+import { LineFramer, type ReadTerminator } from '../../protocols/line-framer.js';
 import { SimulatedSmu } from './instrument.js';
 
+/** How the simulated instrument frames its lines (as a dialect's terminators would describe it). */
+export interface LinkFraming {
+  /** What ends each command it reads (default lf). */
+  readonly readTerminator?: ReadTerminator;
+  /** What it appends to each reply (default LF). */
+  readonly writeTerminator?: '\n' | '\r\n' | '\r';
+}
+
 /** Serves the instrument on a duplex byte stream until it closes. */
-export function attachInstrument(smu: SimulatedSmu, stream: Duplex): void {
-  const framer = new LineFramer({ maxLine: 8192 });
+export function attachInstrument(smu: SimulatedSmu, stream: Duplex, framing: LinkFraming = {}): void {
+  const framer = new LineFramer({ maxLine: 1 << 20, terminator: framing.readTerminator ?? 'lf' });
+  const eol = framing.writeTerminator ?? '\n';
   let chain = Promise.resolve();
   stream.pipe(framer);
   framer.on('data', (line: string) => {
@@ -28,7 +37,9 @@ export function attachInstrument(smu: SimulatedSmu, stream: Duplex): void {
       if (reply === undefined || stream.destroyed) return;
       if (smu.slowReplyMs > 0) await new Promise((r) => setTimeout(r, smu.slowReplyMs));
       const isReading = /READ\?|MEAS|FETC/i.test(line);
-      const { bytes, disconnect } = smu.frame(reply, isReading);
+      const framed = smu.frame(reply, isReading);
+      const bytes = eol === '\n' ? framed.bytes : framed.bytes.replace(/\n/g, eol);
+      const disconnect = framed.disconnect;
       stream.write(bytes, 'latin1');
       smu.repliesSent++;
       if (disconnect) {
@@ -43,11 +54,11 @@ export function attachInstrument(smu: SimulatedSmu, stream: Duplex): void {
 }
 
 /** Listens on host:port (0 = any free port); resolves with the server once bound. */
-export function serveTcp(smu: SimulatedSmu, port: number, host = '127.0.0.1'): Promise<Server> {
+export function serveTcp(smu: SimulatedSmu, port: number, host = '127.0.0.1', framing: LinkFraming = {}): Promise<Server> {
   return new Promise((resolve, reject) => {
     const server = createServer((socket: Socket) => {
       socket.setNoDelay(true);
-      attachInstrument(smu, socket);
+      attachInstrument(smu, socket, framing);
     });
     server.once('error', reject);
     server.listen(port, host, () => resolve(server));
@@ -65,7 +76,7 @@ export interface PtyPair {
  * Makes a linked pseudo-terminal pair with socat (from Debian's packages) and serves the
  * instrument on one end. The controller opens `clientPath` as it would a USB-serial adapter.
  */
-export async function servePty(smu: SimulatedSmu, dir = mkdtempSync(join(tmpdir(), 'plumbline-pty-'))): Promise<PtyPair> {
+export async function servePty(smu: SimulatedSmu, dir = mkdtempSync(join(tmpdir(), 'plumbline-pty-')), framing: LinkFraming = {}): Promise<PtyPair> {
   const instrumentPath = join(dir, 'instrument');
   const clientPath = join(dir, 'client');
   let socat: ChildProcess;
@@ -90,7 +101,7 @@ export async function servePty(smu: SimulatedSmu, dir = mkdtempSync(join(tmpdir(
   }
   const port = new SerialPort({ path: instrumentPath, baudRate: 115200, autoOpen: false });
   await new Promise<void>((resolve, reject) => port.open((err) => (err ? reject(err) : resolve())));
-  attachInstrument(smu, port);
+  attachInstrument(smu, port, framing);
   return {
     clientPath,
     instrumentPath,
