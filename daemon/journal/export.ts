@@ -7,7 +7,7 @@ import { basename, join, resolve } from 'node:path';
 import { FLAG, type FitSummary, type WireEvent } from '../../protocols/wire.js';
 import { scanJournal, type BadLine } from './reader.js';
 
-export const POINTS_HEADER = ['session', 'sweep', 'point', 'seq', 't_ms', 'voltage_V', 'current_A', 'compliance', 'overflow'];
+export const POINTS_HEADER = ['session', 'sweep', 'point', 'seq', 't_ms', 'voltage_V', 'current_A', 'compliance', 'overflow', 'voltage_overflow'];
 
 function csvField(v: unknown): string {
   if (v === null || v === undefined) return '';
@@ -73,7 +73,7 @@ export function exportSession(sessionDir: string, outDir = join(sessionDir, 'exp
           const r = row(e.sweep);
           r.readings++;
           if (e.flags & FLAG.compliance) r.complianceReadings++;
-          pending.push(`${qs},${e.sweep},${e.k},${e.seq},${e.t},${csvField(e.v)},${csvField(e.i)},${e.flags & FLAG.compliance ? 1 : 0},${e.flags & FLAG.overflow ? 1 : 0}\n`);
+          pending.push(`${qs},${e.sweep},${e.k},${e.seq},${e.t},${csvField(e.v)},${csvField(e.i)},${e.flags & FLAG.compliance ? 1 : 0},${e.flags & FLAG.overflow ? 1 : 0},${e.flags & FLAG.voltageOverflow ? 1 : 0}\n`);
           if (pending.length >= 4096) flush();
           break;
         }

@@ -1,6 +1,6 @@
 /**
  * Daemon benchmark figures: readings per second through the live chain with the journal on, abort
- * decision → output-off bytes at the instrument, RSS after 1e7 readings (in a child process), and
+ * decision → output-off bytes at the instrument (also with a slow reading in flight), RSS after 1e7 readings (in a child process), and
  * the acquisition rate with 50 websocket viewers plus one stalled client.
  */
 import { spawn, spawnSync } from 'node:child_process';
@@ -12,7 +12,7 @@ import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { loadDialect } from '../../protocols/dialect.js';
 import { ScpiSession } from '../../protocols/scpi-session.js';
-import { duplexPair } from '../../protocols/transport.js';
+import { duplexPair, openTcp } from '../../protocols/transport.js';
 import { SmuDriver } from '../../daemon/instrument/smu-driver.js';
 import { JournalWriter } from '../../daemon/journal/journal.js';
 import { LiveChain } from '../../daemon/pipeline/chain.js';
@@ -24,7 +24,7 @@ import { RunController } from '../../daemon/run/runner.js';
 import { Hub } from '../../daemon/server/hub.js';
 import { SimulatedSmu } from '../../daemon/simulator/instrument.js';
 import { findScenario } from '../../daemon/simulator/scenarios.js';
-import { attachInstrument } from '../../daemon/simulator/serve.js';
+import { attachInstrument, serveTcp } from '../../daemon/simulator/serve.js';
 import { report } from './timing.js';
 
 export function makeChain(dir: string, pointsPerSweep: number): LiveChain {
@@ -106,6 +106,41 @@ async function abortLatency(): Promise<{ median: number; max: number }> {
   return { median: times[times.length >> 1], max: times[times.length - 1] };
 }
 
+/**
+ * Abort with a reading in flight on a slow instrument (each reading takes 1 s): time from the abort
+ * call to the output-off bytes arriving at the instrument over loopback TCP, while its READ? is
+ * still unanswered.
+ */
+export async function abortWithReadingInFlight(): Promise<{ median: number; max: number; trials: number }> {
+  const times: number[] = [];
+  for (let run = 0; run < 5; run++) {
+    const dir = mkdtempSync(join(tmpdir(), 'plumbline-bench-'));
+    const smu = new SimulatedSmu({ device: findScenario('oxide-fn').device, seed: run, realTime: false, faults: { readDelayMs: 1000 } });
+    const server = await serveTcp(smu, 0);
+    const socket = await openTcp('127.0.0.1', (server.address() as AddressInfo).port);
+    const session = new ScpiSession(socket, { timeoutMs: 5000 });
+    const chain = makeChain(dir, 46);
+    const source = new GuardedSource(new SmuDriver(session, loadDialect('protection-trip')), limitsSchema.parse({ maxVoltage: 20, maxCompliance: 0.01, maxPower: 1, rampDelay: 0 }));
+    const c = new RunController(source, chain, parsePlan({ start: 0, stop: 9, points: 46, compliance: 1e-3 }));
+    const done = c.execute();
+    while (smu.received.filter((r) => r.line === ':READ?').length < 2) await new Promise((r) => setTimeout(r, 5));
+    const inFlight = smu.repliesSent;
+    const t0 = performance.now();
+    c.abort('bench abort');
+    const on = smu.received.findIndex((r) => r.line === ':OUTP ON');
+    let off: { at: number; repliesSent: number } | undefined;
+    while (!(off = smu.received.find((r, k) => k > on && r.line === ':OUTP OFF'))) await new Promise((r) => setImmediate(r));
+    // Only a trial whose reading was still unanswered when the off command arrived counts.
+    if (off.repliesSent === inFlight) times.push(off.at - performance.timeOrigin - t0);
+    await done;
+    session.close();
+    server.close();
+    rmSync(dir, { recursive: true, force: true });
+  }
+  times.sort((a, b) => a - b);
+  return { median: times[times.length >> 1], max: times[times.length - 1], trials: times.length };
+}
+
 async function viewers(): Promise<{ rate: number; lagging: number; dropped: number; received: number; messages: number }> {
   const dir = mkdtempSync(join(tmpdir(), 'plumbline-bench-'));
   const chain = makeChain(dir, 1000);
@@ -147,6 +182,8 @@ export async function benchDaemon(): Promise<void> {
   report('live chain + journal, ohmic fit, 1000-pt sweeps', throughput() / 1e6, 'M readings/s', '≥ 1');
   const a = await abortLatency();
   report('abort decision → output-off bytes at the instrument', a.median, `ms median (max ${a.max.toFixed(2)})`, '≤ 5');
+  const f = await abortWithReadingInFlight();
+  report('abort → output-off bytes, 1 s reading in flight (TCP)', f.median, `ms median (max ${f.max.toFixed(2)}, ${f.trials} of 5 trials in flight)`, '≤ 5');
   const rss = spawnSync(process.execPath, ['--max-old-space-size=512', fileURLToPath(new URL('./rss.js', import.meta.url))], { encoding: 'utf8', timeout: 300_000 });
   const m = /rss (\d+(?:\.\d+)?) MB after (\d+) readings in (\d+(?:\.\d+)?) s/.exec(rss.stdout);
   if (m) report(`RSS after ${Number(m[2]).toExponential(0)} readings (chain + journal, child)`, Number(m[1]), `MB (${m[3]} s)`, '≤ 150');
