@@ -17,12 +17,12 @@ function tmp(): string {
   return mkdtempSync(join(tmpdir(), 'plumbline-journal-'));
 }
 
-function writeSession(data: string, sweeps: number, points: number, close = true) {
+function writeSession(data: string, sweeps: number, points: number, close = true, planned = points) {
   const { writer, id } = JournalWriter.create(data, 'unit');
   writer.event({ type: 'session', id, startedAt: new Date().toISOString(), source: { kind: 'test', detail: '', control: false }, instrument: 'x', plan: {}, analysis: {}, drift: {}, limits: {} });
   const sent: { v: number; i: number }[] = [];
   for (let s = 1; s <= sweeps; s++) {
-    writer.event({ type: 'sweep-start', sweep: s, planned: points, label: '' });
+    writer.event({ type: 'sweep-start', sweep: s, planned, label: '' });
     for (let k = 0; k < points; k++) {
       // Values with all 17 significant digits, to see that none is lost.
       const v = 0.1 * k + 1 / 3;
@@ -52,7 +52,8 @@ describe('journal', () => {
   });
 
   it('recovery after a crash: torn last line reported and skipped, open sweep marked incomplete, run interrupted', () => {
-    const { dir, writer } = writeSession(tmp(), 2, 20, false);
+    // 20 of the 25 planned points of sweep 2 reached the journal.
+    const { dir, writer } = writeSession(tmp(), 2, 20, false, 25);
     void writer; // the "crashed" writer is never closed
     appendFileSync(join(dir, JOURNAL_FILE), '{"seq":999,"t":12.5,"type":"capt');
     appendFileSync(join(dir, READINGS_FILE), Buffer.alloc(20, 7)); // 20 of a record's 56 bytes
@@ -76,6 +77,18 @@ describe('journal', () => {
     expect(sweepEnd?.type === 'sweep-end' && sweepEnd.points).toBe(20);
     // Recovering again changes nothing.
     expect(recoverSession(dir).recovered).toBe(false);
+  });
+
+  it('recovery closes a sweep whose every planned point was journaled as complete', () => {
+    const { dir } = writeSession(tmp(), 2, 20, false, 20);
+    const r = recoverSession(dir);
+    expect(r.message).toMatch(/sweep 2 closed: all 20 planned points were journaled/);
+    const after: WireEvent[] = [];
+    scanJournal(dir, (e) => after.push(e));
+    const sweepEnd = after.find((e) => e.type === 'sweep-end' && e.sweep === 2);
+    expect(sweepEnd).toMatchObject({ complete: true, points: 20 });
+    // This session had no control of an instrument: nothing to say about an output.
+    expect(r.outputMayBeOn).toBe(false);
   });
 
   it('a damaged line in the middle is reported with its number and the rest is read', () => {
