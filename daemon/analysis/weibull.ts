@@ -499,7 +499,7 @@ export interface BendResult {
   readonly upper: number;
   /** The value at which the branches meet (the largest x of the lower branch). */
   readonly at: number;
-  /** Slopes of W on ln x in each branch (a Weibull shape estimate per branch). */
+  /** The Weibull shape of each branch (1 / the slope of ln x on W). */
   readonly lowerShape: number;
   readonly upperShape: number;
   /** Fraction of the one-line residual sum of squares that the two lines remove. */
@@ -526,30 +526,30 @@ function sse(s: Seg): { sse: number; slope: number } {
   return { sse: Math.max(vy - (cxy * cxy) / vx, 0), slope: cxy / vx };
 }
 
-/** The best split of the plot points into two straight branches (each ≥ minSeg points). */
-function bestSplit(lnx: ArrayLike<number>, w: ArrayLike<number>, minSeg: number): { k: number; stat: number; slopeLo: number; slopeHi: number } | null {
-  const m = lnx.length;
-  if (m < 2 * minSeg + 2) return null;
+/** The best split of points (u, v), ordered, into two straight lines of v on u (≥ minLo, ≥ minHi points). */
+function bestSplit(u: ArrayLike<number>, v: ArrayLike<number>, minLo: number, minHi: number): { k: number; stat: number; slopeLo: number; slopeHi: number } | null {
+  const m = u.length;
+  if (m < minLo + minHi + 2) return null;
   const tot: Seg = { sx: 0, sy: 0, sxx: 0, sxy: 0, syy: 0, n: m };
   for (let i = 0; i < m; i++) {
-    tot.sx += lnx[i];
-    tot.sy += w[i];
-    tot.sxx += lnx[i] * lnx[i];
-    tot.sxy += lnx[i] * w[i];
-    tot.syy += w[i] * w[i];
+    tot.sx += u[i];
+    tot.sy += v[i];
+    tot.sxx += u[i] * u[i];
+    tot.sxy += u[i] * v[i];
+    tot.syy += v[i] * v[i];
   }
   const one = sse(tot).sse;
   if (!(one > 0)) return null;
   const lo: Seg = { sx: 0, sy: 0, sxx: 0, sxy: 0, syy: 0, n: 0 };
   let best = { k: -1, stat: -Infinity, slopeLo: Number.NaN, slopeHi: Number.NaN };
-  for (let i = 0; i < m - minSeg; i++) {
-    lo.sx += lnx[i];
-    lo.sy += w[i];
-    lo.sxx += lnx[i] * lnx[i];
-    lo.sxy += lnx[i] * w[i];
-    lo.syy += w[i] * w[i];
+  for (let i = 0; i < m - minHi; i++) {
+    lo.sx += u[i];
+    lo.sy += v[i];
+    lo.sxx += u[i] * u[i];
+    lo.sxy += u[i] * v[i];
+    lo.syy += v[i] * v[i];
     lo.n++;
-    if (lo.n < minSeg) continue;
+    if (lo.n < minLo) continue;
     const hi: Seg = { sx: tot.sx - lo.sx, sy: tot.sy - lo.sy, sxx: tot.sxx - lo.sxx, sxy: tot.sxy - lo.sxy, syy: tot.syy - lo.syy, n: m - lo.n };
     const a = sse(lo);
     const b = sse(hi);
@@ -568,17 +568,20 @@ function plotArrays(d: WeibullData): { lnx: Float64Array; w: Float64Array; x: Fl
   };
 }
 
+/** Smallest branches the bend test considers: an early-failure tail is often only a few devices. */
+const MIN_LOWER = 2;
+const MIN_UPPER = 4;
+
 /**
- * Does the Weibull plot bend? Two straight branches (lowest k failures, the rest; each at least 3
- * points) are compared with one line by the share of residual sum of squares they remove; its
- * p-value comes from a parametric bootstrap: lots drawn from the fitted Weibull, survivors censored
+ * Does the Weibull plot bend? Two straight branches (the lowest k failures, at least 2, and the
+ * rest, at least 4), each a regression of ln x on W (the values are what is random; the ranks are
+ * fixed), are compared with one line by the share of residual sum of squares they remove; its p-value comes from a parametric bootstrap: lots drawn from the fitted Weibull, survivors censored
  * at the values they reached, analysed the same way. Returns null when there are too few failures
  * (fewer than 8) to tell.
  */
 export function bendTest(d: WeibullData, fit: WeibullFit, bootstrap = 199, seed = 20240611): BendResult | null {
-  const minSeg = 3;
   const { lnx, w, x } = plotArrays(d);
-  const best = bestSplit(lnx, w, minSeg);
+  const best = bestSplit(w, lnx, MIN_LOWER, MIN_UPPER);
   if (!best) return null;
   const n = d.values.length;
   const rnd = seededUniform(seed);
@@ -594,15 +597,15 @@ export function bendTest(d: WeibullData, fit: WeibullFit, bootstrap = 199, seed 
       cens[i] = v > c ? 1 : 0;
     }
     const pts = plotArrays({ values: sim, censored: cens });
-    const sb = bestSplit(pts.lnx, pts.w, minSeg);
+    const sb = bestSplit(pts.w, pts.lnx, MIN_LOWER, MIN_UPPER);
     if (sb && sb.stat >= best.stat) exceed++;
   }
   return {
     lower: best.k,
     upper: lnx.length - best.k,
     at: x[best.k - 1],
-    lowerShape: best.slopeLo,
-    upperShape: best.slopeHi,
+    lowerShape: 1 / best.slopeLo,
+    upperShape: 1 / best.slopeHi,
     statistic: best.stat,
     pValue: (exceed + 1) / (bootstrap + 1),
     bootstrap,
@@ -625,6 +628,8 @@ export interface WeibullOptions {
   readonly bendLevel?: number;
   readonly bootstrap?: number;
   readonly seed?: number;
+  /** How a value is written in warnings (default: SI with the unit). */
+  readonly display?: (value: number) => string;
 }
 
 export interface WeibullReport {
@@ -651,6 +656,7 @@ export function analyzeWeibull(d: WeibullData, o: WeibullOptions = {}): WeibullR
   const confidence = o.confidence ?? 0.9;
   const method = o.bounds ?? 'likelihood-ratio';
   const unit = o.unit ?? '';
+  const show = o.display ?? ((v: number) => `${v.toPrecision(4)}${unit ? ` ${unit}` : ''}`);
   checkConfidence(confidence);
   const p = prepare(d);
   const fit = fitPrepared(p);
@@ -663,9 +669,9 @@ export function analyzeWeibull(d: WeibullData, o: WeibullOptions = {}): WeibullR
   const bend = bendTest(d, fit, o.bootstrap ?? 199, o.seed);
   if (bend && bend.pValue < (o.bendLevel ?? 0.01)) {
     if (bend.lowerShape < bend.upperShape) {
-      warnings.push(`the Weibull plot bends at ${bend.at.toPrecision(4)}${unit ? ` ${unit}` : ''}: the lowest ${bend.lower} failures follow a shallower slope (β ≈ ${bend.lowerShape.toPrecision(3)}) than the other ${bend.upper} (β ≈ ${bend.upperShape.toPrecision(3)}), p = ${bend.pValue.toPrecision(2)} — an early-failure (extrinsic, defect-related) branch below the intrinsic one; a single β and η describe neither`);
+      warnings.push(`the Weibull plot bends at ${show(bend.at)}: the lowest ${bend.lower} failures follow a shallower slope (β ≈ ${bend.lowerShape.toPrecision(3)}) than the other ${bend.upper} (β ≈ ${bend.upperShape.toPrecision(3)}), p = ${bend.pValue.toPrecision(2)} — an early-failure (extrinsic, defect-related) branch below the intrinsic one; a single β and η describe neither`);
     } else {
-      warnings.push(`the Weibull plot bends at ${bend.at.toPrecision(4)}${unit ? ` ${unit}` : ''}: the highest ${bend.upper} failures follow a shallower slope (β ≈ ${bend.upperShape.toPrecision(3)}) than the lowest ${bend.lower} (β ≈ ${bend.lowerShape.toPrecision(3)}), p = ${bend.pValue.toPrecision(2)} — two populations (or a test limit); a single β and η describe neither`);
+      warnings.push(`the Weibull plot bends at ${show(bend.at)}: the highest ${bend.upper} failures follow a shallower slope (β ≈ ${bend.upperShape.toPrecision(3)}) than the lowest ${bend.lower} (β ≈ ${bend.lowerShape.toPrecision(3)}), p = ${bend.pValue.toPrecision(2)} — two populations (or a test limit); a single β and η describe neither`);
     }
   }
   if (fit.failures < 10) warnings.push(`only ${fit.failures} failures: the maximum-likelihood shape is biased high for small samples and the bounds are wide`);
