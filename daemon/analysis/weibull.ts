@@ -12,8 +12,8 @@
  * devices have the reference area). That per-device factor is the weakest-link (Poisson defect)
  * area scaling: a device of area A fails when any of its A/A_ref independent reference-area
  * patches fails, so 1 − F_A = (1 − F_ref)^(A/A_ref) (Wu & Suñé, IEEE Trans. Electron Devices 56,
- * 1433 (2009), who use it as the standard check of intrinsic breakdown statistics; JEDEC JEP122
- * states the same area scaling for oxide breakdown). Moving η from area A1 to A2 therefore gives
+ * 1433 (2009), who use it as the standard check of intrinsic breakdown statistics; the same
+ * weakest-link scaling is common practice across dielectric reliability). Moving η from area A1 to A2 gives
  * η2 = η1·(A1/A2)^(1/β) with β unchanged.
  *
  * Method (IEC 61649:2008, Weibull analysis, describes maximum likelihood with censored data and

@@ -355,7 +355,7 @@ export function displayUnit(unit: string): { unit: string; factor: number } {
 export function formatValue(v: number, unit: string, digits = 4): string {
   const d = displayUnit(unit);
   const x = v * d.factor;
-  const s = Math.abs(x) >= 1e5 || (Math.abs(x) < 1e-3 && x !== 0) ? x.toExponential(digits - 1) : String(+x.toPrecision(digits));
+  const s = Math.abs(x) >= 1e5 || (Math.abs(x) < 1e-3 && x !== 0) ? x.toExponential(digits - 1).replace(/\.?0+e/, 'e') : String(+x.toPrecision(digits));
   return d.unit ? `${s} ${d.unit}` : s;
 }
 
