@@ -208,3 +208,40 @@ export function parseDeviceResults(text: string, file: string): DeviceResult[] {
   }
   return rows;
 }
+
+/** A device identity that does not validate: the message names the field. */
+export class DeviceIdentityError extends Error {
+  readonly code = 'BAD_DEVICE';
+}
+
+const TEXT = /^[^\u0000-\u001f]{1,64}$/;
+
+/**
+ * Checks a device identity from a run request, a plan file or an annotation (JSON): known fields
+ * only, names and tags up to 64 printable characters, positions finite, area, thickness and
+ * temperature positive and in SI (m², m, K). `where` prefixes the field in messages.
+ */
+export function parseDeviceIdentity(raw: unknown, where = 'device'): DeviceIdentity {
+  if (typeof raw !== 'object' || raw === null || Array.isArray(raw)) throw new DeviceIdentityError(`${where}: expected an object with ${DEVICE_FIELDS.join(', ')}`);
+  const out: Record<string, unknown> = {};
+  for (const [k, v] of Object.entries(raw)) {
+    const f = `${where}.${k}`;
+    if (!(DEVICE_FIELDS as readonly string[]).includes(k)) throw new DeviceIdentityError(`${f}: unknown field (expected ${DEVICE_FIELDS.join(', ')})`);
+    if (v === undefined || v === null) continue;
+    if (k === 'device' || k === 'wafer' || k === 'site') {
+      if (typeof v !== 'string' || !TEXT.test(v)) throw new DeviceIdentityError(`${f}: expected a name of 1 to 64 printable characters`);
+      out[k] = v;
+    } else if (k === 'x' || k === 'y') {
+      if (typeof v !== 'number' || !Number.isFinite(v)) throw new DeviceIdentityError(`${f}: expected a number (the site's column or row on the wafer map)`);
+      out[k] = v;
+    } else if (k === 'tags') {
+      if (!Array.isArray(v) || v.length > 32 || !v.every((t) => typeof t === 'string' && TEXT.test(t))) throw new DeviceIdentityError(`${f}: expected up to 32 tags of 1 to 64 printable characters`);
+      out[k] = [...v];
+    } else {
+      const unit = k === 'area' ? 'm^2' : k === 'thickness' ? 'm' : 'K';
+      if (typeof v !== 'number' || !(v > 0) || !Number.isFinite(v)) throw new DeviceIdentityError(`${f}: expected a positive number in ${unit} (SI)`);
+      out[k] = v;
+    }
+  }
+  return out as DeviceIdentity;
+}

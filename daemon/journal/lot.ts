@@ -69,10 +69,6 @@ const sameStamp = (a: Stamp, b: Stamp) =>
   a.journal[0] === b.journal[0] && a.journal[1] === b.journal[1] &&
   (a.results === null ? b.results === null : b.results !== null && a.results[0] === b.results[0] && a.results[1] === b.results[1]);
 
-function deviceOf(e: WireEvent): DeviceIdentity | undefined {
-  return (e as { device?: DeviceIdentity }).device;
-}
-
 /** Reads one session's summary from its journal and results file (no cache). */
 export function summarizeSession(dirIn: string): DeviceSummary {
   const dir = resolve(dirIn);
@@ -88,11 +84,11 @@ export function summarizeSession(dirIn: string): DeviceSummary {
     switch (e.type) {
       case 'session':
         startedAt = e.startedAt;
-        identity = mergeIdentity(identity, deviceOf(e));
+        identity = mergeIdentity(identity, e.device);
         inputs = ((e.analysis as { inputs?: Record<string, unknown> } | null)?.inputs ?? {}) as Record<string, unknown>;
         break;
       case 'annotation':
-        identity = mergeIdentity(identity, deviceOf(e));
+        identity = mergeIdentity(identity, e.device);
         break;
       case 'settings': {
         const i = (e.analysis as { inputs?: Record<string, unknown> } | null)?.inputs;

@@ -10,6 +10,7 @@ import { loadDialect } from '../../protocols/dialect.js';
 import { ScpiSession } from '../../protocols/scpi-session.js';
 import { openSerial, openTcp, duplexPair } from '../../protocols/transport.js';
 import type { RunOutcome, Snapshot, WireEvent } from '../../protocols/wire.js';
+import { parseDeviceIdentity, type DeviceIdentity } from '../../protocols/device-results.js';
 import { SmuDriver } from '../instrument/smu-driver.js';
 import { JournalWriter } from '../journal/journal.js';
 import { listSessions, recoverAll, scanJournal, type RecoveryReport } from '../journal/reader.js';
@@ -199,11 +200,19 @@ export class Station {
   }
 
   /** Validates and starts a run; resolves once the session folder exists and the run is under way. */
-  async startRun(options: { plan?: unknown; analysis?: unknown; label?: string } = {}): Promise<RunHandle> {
+  async startRun(options: { plan?: unknown; analysis?: unknown; label?: string; device?: unknown } = {}): Promise<RunHandle> {
     if (this.running) throw new StationError(`a run is in progress (session ${this.current?.session}); stop or abort it first`);
-    const plan = options.plan === undefined ? this.defaultPlan() : parsePlan(options.plan, 'plan');
+    // A plan (file or request) may carry the device under test beside its sweep settings.
+    const { device: planDevice, ...planRest } = (typeof options.plan === 'object' && options.plan !== null && !Array.isArray(options.plan) ? options.plan : {}) as { device?: unknown };
+    const plan = options.plan === undefined ? this.defaultPlan() : parsePlan(planDevice === undefined ? options.plan : planRest, 'plan');
     checkPlan(this.config.limits, plan);
+    const device = this.parseDevice(planDevice, options.device);
     if (options.analysis !== undefined) this.analysis = this.parseAnalysis(options.analysis);
+    // The device's own area, thickness and temperature are the live fit's inputs for this run.
+    const given = { area: device?.area, thickness: device?.thickness, temperature: device?.temperature };
+    if (Object.values(given).some((v) => v !== undefined)) {
+      this.analysis = { ...this.analysis, inputs: { ...this.analysis.inputs, ...Object.fromEntries(Object.entries(given).filter(([, v]) => v !== undefined)) } };
+    }
     let link: Awaited<ReturnType<Station['connect']>>;
     try {
       link = await this.connect();
@@ -230,6 +239,7 @@ export class Station {
       analysis: this.analysis,
       drift: this.config.drift,
       limits: this.config.limits,
+      ...(device ? { device } : {}),
     });
     const source = new GuardedSource(driver, this.config.limits);
     const controller = new RunController(source, chain, plan);
@@ -240,6 +250,18 @@ export class Station {
       this.chain = undefined;
     });
     return { session: id, dir, plan, done };
+  }
+
+  /** The device identity of a run request: the plan's, overridden field by field by the request's. */
+  private parseDevice(fromPlan: unknown, fromRequest: unknown): DeviceIdentity | undefined {
+    try {
+      const a = fromPlan === undefined ? undefined : parseDeviceIdentity(fromPlan, 'plan.device');
+      const b = fromRequest === undefined ? undefined : parseDeviceIdentity(fromRequest, 'device');
+      const merged = { ...(a ?? {}), ...(b ?? {}) };
+      return Object.keys(merged).length ? merged : undefined;
+    } catch (e) {
+      throw new StationError((e as Error).message, 400);
+    }
   }
 
   private publish(e: WireEvent): void {
@@ -294,10 +316,11 @@ export class Station {
   }
 
   /** Annotates the running session, or any session folder by id. */
-  annotate(a: { text: string; tags?: string[]; sweep?: number; session?: string }, source: string): WireEvent {
+  annotate(a: { text: string; tags?: string[]; sweep?: number; session?: string; device?: unknown }, source: string): WireEvent {
     const target = a.session ?? this.current?.session ?? listSessions(this.dataDir)[0];
     if (!target) throw new StationError('no session to annotate yet', 404);
-    const ev = { type: 'annotation' as const, text: a.text, tags: a.tags ?? [], ...(a.sweep !== undefined ? { sweep: a.sweep } : {}), source };
+    const device = a.device === undefined ? undefined : this.parseDevice(undefined, a.device);
+    const ev = { type: 'annotation' as const, text: a.text, tags: a.tags ?? [], ...(a.sweep !== undefined ? { sweep: a.sweep } : {}), source, ...(device ? { device } : {}) };
     if (this.chain && this.current?.session === target) return this.chain.emit(ev);
     if (!listSessions(this.dataDir).includes(target)) throw new StationError(`no session '${target}' under ${this.dataDir}`, 404);
     return annotateFolder(join(this.dataDir, target), ev);
@@ -317,7 +340,7 @@ export class Station {
 }
 
 /** Appends an annotation to a session folder (after its run, or from another process). */
-export function annotateFolder(dir: string, ev: { type: 'annotation'; text: string; tags: string[]; sweep?: number; source: string }): WireEvent {
+export function annotateFolder(dir: string, ev: { type: 'annotation'; text: string; tags: string[]; sweep?: number; source: string; device?: DeviceIdentity }): WireEvent {
   const scan = scanJournal(dir, () => undefined);
   const w = JournalWriter.append(dir, scan.lastSeq, scan.lastT);
   try {

@@ -46,8 +46,10 @@ const annotationBody = z.object({
   tags: z.array(z.string().min(1).max(64)).max(32).optional(),
   sweep: z.number().int().positive().optional(),
   session: z.string().regex(/^[A-Za-z0-9-]+$/).optional(),
+  /** Corrections to the session's device identity (checked by the station: 400 naming the field). */
+  device: z.unknown().optional(),
 }).strict();
-const runBody = z.object({ plan: z.unknown().optional(), analysis: z.unknown().optional(), label: z.string().max(40).optional() }).strict();
+const runBody = z.object({ plan: z.unknown().optional(), analysis: z.unknown().optional(), label: z.string().max(40).optional(), device: z.unknown().optional() }).strict();
 const reasonBody = z.object({ reason: z.string().max(500).optional() }).strict();
 
 function tokenMatches(given: string | undefined, token: string): boolean {
@@ -201,7 +203,7 @@ export async function startServer(station: Station, options: ServerOptions): Pro
   });
   app.post('/api/run', async (req, res) => {
     const b = body(runBody, req);
-    const h = await station.startRun({ plan: b.plan, analysis: b.analysis, label: b.label });
+    const h = await station.startRun({ plan: b.plan, analysis: b.analysis, label: b.label, device: b.device });
     h.done.catch(() => undefined);
     res.status(201).json({ session: h.session, plan: h.plan });
   });
