@@ -65,7 +65,7 @@ describe('device identity', () => {
     const bad = await api(daemon.url, 'POST', '/api/run', { device: { wafer: 'W1', colour: 'red' } });
     expect(bad.status).toBe(400);
     expect(JSON.stringify(bad.json)).toMatch(/device\.colour: unknown field/);
-    const ok = await api(daemon.url, 'POST', '/api/run', { plan: { kind: 'linear', start: 0, stop: 3, points: 7, compliance: 1e-3 }, device: { wafer: 'W1', site: 'B2', x: 0, y: 1 } });
+    const ok = await api(daemon.url, 'POST', '/api/run', { plan: { kind: 'linear', start: 0, stop: 9, points: 46, compliance: 1e-3 }, device: { wafer: 'W1', site: 'B2', x: 0, y: 1 } });
     expect(ok.status).toBe(201);
     for (let k = 0; k < 200 && (await api(daemon.url, 'GET', '/api/status')).json.running; k++) await new Promise((r) => setTimeout(r, 50));
     const dir = join(data, ok.json.session);
@@ -77,5 +77,16 @@ describe('device identity', () => {
     expect(n2.status).toBe(400);
     expect(JSON.stringify(n2.json)).toMatch(/device\.area: expected a positive number/);
     expect(readSummary(dir).summary.identity).toMatchObject({ wafer: 'W1', site: 'B3', x: 0, y: 2 });
+    // The lot view of the data folder, as the page's link opens it (and as JSON).
+    const lot = await api(daemon.url, 'GET', '/api/lot?map=barrierHeight');
+    expect(lot.status).toBe(200);
+    expect(lot.json.rows).toHaveLength(1);
+    expect(lot.json.rows[0]).toMatchObject({ wafer: 'W1', site: 'B3', x: 0, y: 2 });
+    const html = await fetch(`${daemon.url}/lot?map=barrierHeight`).then((r) => r.text());
+    expect(html).toContain('plumbline lot report');
+    expect(html).toContain('Wafer map: barrierHeight');
+    expect(html.match(/<rect class="site"/g)).toHaveLength(1);
+    const page = await fetch(`${daemon.url}/`).then((r) => r.text());
+    expect(page).toMatch(/id="lot-link" href="lot"/);
   });
 });
