@@ -25,6 +25,8 @@ import {
 import { QuantityError } from './quantity.js';
 import { registerSim } from './cli/sim.js';
 import { registerStation } from './cli/station.js';
+import { registerLot } from './cli/lot.js';
+import { registerWeibull } from './cli/weibull.js';
 
 import { isInputError, UsageError } from './cli/usage.js';
 
@@ -160,6 +162,8 @@ process.stdout.on('error', (e: NodeJS.ErrnoException) => {
 
 registerSim(program);
 registerStation(program);
+registerWeibull(program);
+registerLot(program);
 
 export async function main(argv: string[]): Promise<number> {
   try {

@@ -66,7 +66,8 @@ export function splitFields(line: string, delimiter: string): string[] {
   return out;
 }
 
-export function parseCsvTable(text: string, file: string): CsvTable {
+/** `minColumns`: 2 for x–y data (the default); 1 for a list of values. */
+export function parseCsvTable(text: string, file: string, minColumns = 2): CsvTable {
   const rawLines = text.split(/\r?\n/);
   let headerAt = -1;
   for (let i = 0; i < rawLines.length; i++) {
@@ -78,8 +79,8 @@ export function parseCsvTable(text: string, file: string): CsvTable {
   if (headerAt < 0) throw new CsvError(file, undefined, undefined, 'the file is empty: expected a header row and data rows');
   const delimiter = detectDelimiter(rawLines[headerAt]);
   const headers = splitFields(rawLines[headerAt], delimiter).map((h) => h.trim());
-  if (headers.length < 2) {
-    throw new CsvError(file, headerAt + 1, undefined, `the header row has ${headers.length} column; at least 2 (x and y) are needed`);
+  if (headers.length < minColumns) {
+    throw new CsvError(file, headerAt + 1, undefined, `the header row has ${headers.length} column; at least ${minColumns} (x and y) are needed`);
   }
   headers.forEach((h, k) => {
     if (h === '') throw new CsvError(file, headerAt + 1, `#${k + 1}`, 'empty column name in the header row');

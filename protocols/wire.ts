@@ -8,6 +8,8 @@
  * bulk of the data — a compact reading line `{"r":[seq,sweep,k,t,v,i,flags]}` (see READING_FIELDS).
  */
 
+import type { DeviceIdentity } from './device-results.js';
+
 /** Reading flag bits. */
 export const FLAG = {
   /** The instrument was at its compliance limit: the bias was not held; never fitted. */
@@ -108,6 +110,8 @@ export type WireEvent =
       readonly limits: unknown;
       /** The dialect the instrument was driven with (name). */
       readonly dialect?: string;
+      /** The device under test (wafer, site, x, y, area m², thickness m, temperature K, tags). */
+      readonly device?: DeviceIdentity;
     })
   | (Stamped & { readonly type: 'sweep-start'; readonly sweep: number; readonly planned: number; readonly label: string })
   | (Stamped & { readonly type: 'sweep-end'; readonly sweep: number; readonly points: number; readonly complete: boolean; readonly note?: string })
@@ -135,7 +139,7 @@ export type WireEvent =
       readonly sweep?: number;
       readonly numbers?: Record<string, number>;
     })
-  | (Stamped & { readonly type: 'annotation'; readonly text: string; readonly tags: readonly string[]; readonly sweep?: number; readonly source: string })
+  | (Stamped & { readonly type: 'annotation'; readonly text: string; readonly tags: readonly string[]; readonly sweep?: number; readonly source: string; /** Corrections to the session's device identity (later values win). */ readonly device?: DeviceIdentity })
   | (Stamped & { readonly type: 'settings'; readonly analysis: unknown; readonly source: string })
   | (Stamped & {
       readonly type: 'ranking';

@@ -1,7 +1,8 @@
 #!/usr/bin/env node
 // Makes a fresh clone runnable with nothing done before: installs the npm dependencies when they
 // are missing or older than the lockfile, compiles the TypeScript, and (with --system) installs the
-// Debian packages the integration and browser tests need (socat, chromium) when they are absent.
+// Debian packages the integration, browser and reference tests need (socat, chromium, and scipy
+// for Debian's own python3) when they are absent.
 // Uses only Node built-ins, because it runs before any dependency exists.
 import { spawnSync } from 'node:child_process';
 import { existsSync, statSync } from 'node:fs';
@@ -29,6 +30,12 @@ function onPath(name) {
   return r.status === 0;
 }
 
+/** Debian's own python3 (not a user's virtualenv or pyenv) can import the module. */
+function debianPython(module) {
+  const r = spawnSync('/usr/bin/python3', ['-c', `import ${module}`], { stdio: 'ignore' });
+  return r.status === 0;
+}
+
 // 1. npm dependencies
 const stamp = join(root, 'node_modules', '.package-lock.json');
 if (!existsSync(stamp) || mtime(join(root, 'package-lock.json')) > mtime(stamp)) {
@@ -38,10 +45,12 @@ if (!existsSync(stamp) || mtime(join(root, 'package-lock.json')) > mtime(stamp))
 
 // 2. Debian packages the tests need
 if (wantSystem) {
+  // [package, present?]: the statistics tests compare with scipy run by /usr/bin/python3.
   const needed = [
-    ['socat', 'socat'],
-    ['chromium', 'chromium'],
-  ].filter(([bin]) => !onPath(bin)).map(([, pkg]) => pkg);
+    ['socat', () => onPath('socat')],
+    ['chromium', () => onPath('chromium')],
+    ['python3-scipy', () => debianPython('scipy')],
+  ].filter(([, present]) => !present()).map(([pkg]) => pkg);
   if (needed.length > 0) {
     const isRoot = typeof process.getuid === 'function' && process.getuid() === 0;
     const sudo = isRoot ? [] : onPath('sudo') ? ['sudo', '-n'] : null;

@@ -10,6 +10,7 @@ import type { WireEvent } from '../../protocols/wire.js';
 import type { StationConfig } from '../run/config.js';
 import type { Station } from '../run/station.js';
 import { UsageError } from './usage.js';
+import { describeDevice, readDevice, withDeviceOptions, type DeviceOptions } from './device.js';
 
 // The daemon's modules (express, ws, serialport, rxjs) load only when a station command runs, so
 // `plumbline fit` and friends keep their short start-up.
@@ -133,7 +134,7 @@ function describe(e: WireEvent): string | undefined {
 }
 
 export function registerStation(program: Command): void {
-  program
+  withDeviceOptions(program
     .command('run')
     .description('run a sweep plan headless: progress on the terminal, a session folder under --data, exit code by outcome')
     .option('--config <file>', 'station config (default config/station.json: the built-in simulated instrument)')
@@ -145,8 +146,8 @@ export function registerStation(program: Command): void {
     .option('--fast', 'simulated instrument: answer at once instead of waiting the integration time')
     .option('--json', 'print one JSON object at the end instead of the progress text')
     .option('--override-disk-check', 'run a plan whose journal would not fit in the free disk space (refused otherwise)')
-    .addHelpText('after', '\nExit codes: 0 completed or stopped, 2 bad input, 3 aborted by the user, 4 aborted by drift, 5 aborted by breakdown, 6 instrument fault (no usable reading, replies out of step, no answer), 7 refused by the safety guard, 9 the journal could not be written (disk full), 10 internal error.')
-    .action(async (o: StationOptions & { plan?: string; sweeps?: string; model?: string; json?: boolean; overrideDiskCheck?: boolean }) => {
+    .addHelpText('after', '\nA plan file may also carry the device under test: {"kind": …, "device": {"wafer": "W07", "site": "C4", "x": 3, "y": -2, "area": 1e-8}} (SI); the options above override its fields.\nExit codes: 0 completed or stopped, 2 bad input, 3 aborted by the user, 4 aborted by drift, 5 aborted by breakdown, 6 instrument fault (no usable reading, replies out of step, no answer), 7 refused by the safety guard, 9 the journal could not be written (disk full), 10 internal error.'))
+    .action(async (o: StationOptions & DeviceOptions & { plan?: string; sweeps?: string; model?: string; json?: boolean; overrideDiskCheck?: boolean }) => {
       const config = await stationConfig(o);
       const { dataDir, Station, EXIT_CODE, describePlan, startServer } = await daemonModules();
       const data = dataDir(config, o.data);
@@ -155,7 +156,15 @@ export function registerStation(program: Command): void {
       let plan: unknown = o.plan !== undefined ? readJson(o.plan, 'plan') : undefined;
       // Errors in a plan file name the file and the field.
       const { parsePlan } = await daemonModules();
-      if (o.plan !== undefined) parsePlan(plan, o.plan);
+      if (o.plan !== undefined && typeof plan === 'object' && plan !== null) {
+        // A plan file may carry the device under test beside the sweep settings.
+        const { device: planDevice, ...sweepPlan } = plan as Record<string, unknown>;
+        parsePlan(sweepPlan, o.plan);
+        if (planDevice !== undefined) {
+          const { parseDeviceIdentity } = await import('../../protocols/device-results.js');
+          parseDeviceIdentity(planDevice, `${o.plan}: device`);
+        }
+      } else if (o.plan !== undefined) parsePlan(plan, o.plan);
       if (o.sweeps !== undefined) {
         const n = Number(o.sweeps);
         if (!Number.isInteger(n) || n < 1) throw new UsageError(`--sweeps '${o.sweeps}': expected a whole number ≥ 1`);
@@ -163,6 +172,7 @@ export function registerStation(program: Command): void {
       }
       if (o.overrideDiskCheck) plan = { ...((plan ?? station.defaultPlan()) as object), overrideDiskCheck: true };
       const analysis = o.model !== undefined ? { ...station.analysisSettings, model: o.model, ...(o.model !== station.analysisSettings.model ? { window: 'auto' } : {}) } : undefined;
+      const device = await readDevice(o);
       guardProcess(station, () => undefined);
       const tty = process.stdout.isTTY && !o.json;
       let progressShown = false;
@@ -188,7 +198,7 @@ export function registerStation(program: Command): void {
       });
       let h: Awaited<ReturnType<typeof station.startRun>>;
       try {
-        h = await station.startRun({ plan, analysis });
+        h = await station.startRun({ plan, analysis, device });
       } catch (e) {
         if ((e as { status?: number }).status === 502) {
           process.stderr.write(`plumbline run: ${(e as Error).message}\n`);
@@ -438,14 +448,14 @@ export function registerStation(program: Command): void {
       }
     });
 
-  program
+  withDeviceOptions(program
     .command('annotate')
-    .description('add a note (free text and tags) to a session, or to one of its sweeps')
+    .description('add a note (free text and tags) to a session, or to one of its sweeps; with device options, correct the session\'s device identity (wafer, site, x, y, area …)')
     .argument('<session-dir>', 'a session folder')
-    .requiredOption('--text <text>', 'the note')
+    .option('--text <text>', 'the note (required unless device options are given)')
     .option('--tag <tag...>', 'tags (repeatable)')
-    .option('--sweep <n>', 'the sweep the note is about (default: the whole session)')
-    .action(async (dir: string, o: { text: string; tag?: string[]; sweep?: string }) => {
+    .option('--sweep <n>', 'the sweep the note is about (default: the whole session)'))
+    .action(async (dir: string, o: DeviceOptions & { text?: string; tag?: string[]; sweep?: string }) => {
       const { liveLockHolder, annotateFolder } = await daemonModules();
       const holder = liveLockHolder(resolve(dir));
       if (holder !== undefined) throw new UsageError(`${dir} is being written by the running daemon (pid ${holder}); annotate through its API: POST /api/annotations`);
@@ -454,8 +464,11 @@ export function registerStation(program: Command): void {
         sweep = Number(o.sweep);
         if (!Number.isInteger(sweep) || sweep < 1) throw new UsageError(`--sweep '${o.sweep}': expected a sweep number ≥ 1`);
       }
-      if (o.text.trim() === '') throw new UsageError('--text is empty');
-      const e = annotateFolder(resolve(dir), { type: 'annotation', text: o.text, tags: o.tag ?? [], ...(sweep !== undefined ? { sweep } : {}), source: 'cli' });
+      const device = await readDevice(o);
+      if (o.text === undefined && device === undefined) throw new UsageError('give --text (the note), device options (--wafer, --site, --x, --y, --area …), or both');
+      if (o.text !== undefined && o.text.trim() === '') throw new UsageError('--text is empty');
+      const text = o.text ?? `device identity corrected: ${describeDevice(device ?? {})}`;
+      const e = annotateFolder(resolve(dir), { type: 'annotation', text, tags: o.tag ?? [], ...(sweep !== undefined ? { sweep } : {}), source: 'cli', ...(device ? { device } : {}) });
       process.stdout.write(`annotation ${e.seq} added to ${dir}\n`);
     });
 

@@ -11,7 +11,7 @@ export class UsageError extends Error {
 export function isInputError(e: unknown): e is Error {
   if (!(e instanceof Error)) return false;
   const code = (e as { code?: unknown }).code;
-  if (typeof code === 'string' && ['BAD_CONFIG', 'BAD_PLAN', 'GUARD', 'JOURNAL', 'BAD_SCENARIO'].includes(code)) return true;
+  if (typeof code === 'string' && ['BAD_CONFIG', 'BAD_PLAN', 'GUARD', 'JOURNAL', 'BAD_SCENARIO', 'BAD_DEVICE'].includes(code)) return true;
   const status = (e as { status?: unknown }).status;
   return e.name === 'StationError' || (typeof status === 'number' && status >= 400 && status < 500);
 }

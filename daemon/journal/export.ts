@@ -2,9 +2,10 @@
  * `plumbline export`: a session journal to plain files any spreadsheet or pandas reads without our
  * code. points.csv streams (bounded memory); sweeps.csv and session.json are small.
  */
-import { closeSync, mkdirSync, openSync, writeFileSync, writeSync } from 'node:fs';
+import { closeSync, copyFileSync, existsSync, mkdirSync, openSync, writeFileSync, writeSync } from 'node:fs';
 import { basename, join, resolve } from 'node:path';
 import { FLAG, type FitSummary, type WireEvent } from '../../protocols/wire.js';
+import { DEVICE_RESULTS_FILE, mergeIdentity, type DeviceIdentity } from '../../protocols/device-results.js';
 import { scanJournal, type BadLine } from './reader.js';
 
 export const POINTS_HEADER = ['session', 'sweep', 'point', 'seq', 't_ms', 'voltage_V', 'current_A', 'compliance', 'overflow', 'voltage_overflow'];
@@ -63,6 +64,8 @@ export function exportSession(sessionDir: string, outDir = join(sessionDir, 'exp
   const annotations: WireEvent[] = [];
   const settings: WireEvent[] = [];
   let readings = 0;
+  // The device identity as it stands: the session's, with later corrections (annotations) applied.
+  let device: DeviceIdentity = {};
   const qs = csvField(session);
   let scan;
   try {
@@ -79,6 +82,7 @@ export function exportSession(sessionDir: string, outDir = join(sessionDir, 'exp
         }
         case 'session':
           meta.sessionEvent = e;
+          device = mergeIdentity(device, e.device);
           break;
         case 'sweep-start':
           row(e.sweep);
@@ -100,6 +104,7 @@ export function exportSession(sessionDir: string, outDir = join(sessionDir, 'exp
           break;
         case 'annotation':
           annotations.push(e);
+          device = mergeIdentity(device, e.device);
           if (e.sweep !== undefined) row(e.sweep).annotations.push(e.text);
           break;
         case 'settings':
@@ -153,6 +158,13 @@ export function exportSession(sessionDir: string, outDir = join(sessionDir, 'exp
   meta.damagedLines = scan.bad;
   meta.tornTail = scan.tornTail;
   meta.tornReadingBytes = scan.tornReadingBytes;
+  meta.device = device;
   writeFileSync(join(outDir, 'session.json'), `${JSON.stringify(meta, null, 2)}\n`);
-  return { outDir, files: ['points.csv', 'sweeps.csv', 'session.json'].map((f) => join(outDir, f)), readings, sweeps: rows.length, badLines: scan.bad };
+  const files = ['points.csv', 'sweeps.csv', 'session.json'];
+  // Breakdown tests' per-device results travel with the export unchanged (already plain CSV).
+  if (existsSync(join(dir, DEVICE_RESULTS_FILE))) {
+    copyFileSync(join(dir, DEVICE_RESULTS_FILE), join(outDir, DEVICE_RESULTS_FILE));
+    files.push(DEVICE_RESULTS_FILE);
+  }
+  return { outDir, files: files.map((f) => join(outDir, f)), readings, sweeps: rows.length, badLines: scan.bad };
 }

@@ -78,8 +78,9 @@ function scanReadings(dir: string, on: (r: ReadingEvent) => void): { count: numb
 /**
  * Calls `onEvent` for every good event and reading, merged in sequence order (journal.jsonl holds
  * the events, readings.f64 the readings). `line` is the event's line in journal.jsonl (0 for readings).
+ * With `readings: false` only the events are read (summaries that need no readings).
  */
-export function scanJournal(dir: string, onEvent: (e: WireEvent, line: number) => void): ScanResult {
+export function scanJournal(dir: string, onEvent: (e: WireEvent, line: number) => void, opts: { readings?: boolean } = {}): ScanResult {
   const file = join(dir, JOURNAL_FILE);
   if (!existsSync(file)) throw new JournalError(`${dir}: no ${JOURNAL_FILE} here; is this a session folder?`);
   // Events are few (a handful per sweep); they are read first and interleaved with the readings.
@@ -126,7 +127,7 @@ export function scanJournal(dir: string, onEvent: (e: WireEvent, line: number) =
     if (typeof x.e.t === 'number' && x.e.t > lastT) lastT = x.e.t;
     onEvent(x.e, x.line);
   };
-  const r = scanReadings(dir, (reading) => {
+  const r = opts.readings === false ? { count: 0, tornBytes: 0 } : scanReadings(dir, (reading) => {
     while (next < events.length && events[next].e.seq < reading.seq) emit(events[next++]);
     emit({ e: reading, line: 0 });
   });

@@ -10,6 +10,7 @@ import { loadDialect, type Dialect } from '../../protocols/dialect.js';
 import { ScpiSession } from '../../protocols/scpi-session.js';
 import { openSerial, openTcp, duplexPair } from '../../protocols/transport.js';
 import type { RunOutcome, Snapshot, WireEvent } from '../../protocols/wire.js';
+import { parseDeviceIdentity, type DeviceIdentity } from '../../protocols/device-results.js';
 import { SmuDriver } from '../instrument/smu-driver.js';
 import { JournalWriter } from '../journal/journal.js';
 import { listSessions, recoverAll, scanJournal, type RecoveryReport } from '../journal/reader.js';
@@ -230,11 +231,19 @@ export class Station {
    * The instrument is claimed before the first await, so of two requests arriving together exactly
    * one starts a run and the other gets 409.
    */
-  async startRun(options: { plan?: unknown; analysis?: unknown; label?: string } = {}): Promise<RunHandle> {
+  async startRun(options: { plan?: unknown; analysis?: unknown; label?: string; device?: unknown } = {}): Promise<RunHandle> {
     if (this.running) throw new StationError(`a run is in progress (session ${this.current?.session ?? '(starting)'}); stop or abort it first`);
-    const plan = options.plan === undefined ? this.defaultPlan() : parsePlan(options.plan, 'plan');
+    // A plan (file or request) may carry the device under test beside its sweep settings.
+    const { device: planDevice, ...planRest } = (typeof options.plan === 'object' && options.plan !== null && !Array.isArray(options.plan) ? options.plan : {}) as { device?: unknown };
+    const plan = options.plan === undefined ? this.defaultPlan() : parsePlan(planDevice === undefined ? options.plan : planRest, 'plan');
     checkPlan(this.config.limits, plan);
-    const analysis = options.analysis !== undefined ? this.parseAnalysis(options.analysis) : undefined;
+    const device = this.parseDevice(planDevice, options.device);
+    let analysis = options.analysis !== undefined ? this.parseAnalysis(options.analysis) : this.analysis;
+    // The device's own area, thickness and temperature are the live fit's inputs for this run.
+    const given = { area: device?.area, thickness: device?.thickness, temperature: device?.temperature };
+    if (Object.values(given).some((v) => v !== undefined)) {
+      analysis = { ...analysis, inputs: { ...analysis.inputs, ...Object.fromEntries(Object.entries(given).filter(([, v]) => v !== undefined)) } };
+    }
     checkPlanSize(plan, this.dataDir);
     let dialect: Dialect;
     try {
@@ -249,7 +258,7 @@ export class Station {
     this.starting = true;
     let link: Awaited<ReturnType<Station['connect']>> | undefined;
     try {
-      if (analysis) this.analysis = analysis;
+      this.analysis = analysis;
       try {
         link = await this.connect(dialect);
       } catch (e) {
@@ -282,6 +291,7 @@ export class Station {
         drift: this.config.drift,
         limits: this.config.limits,
         dialect: dialect.name,
+        ...(device ? { device } : {}),
       });
       const source = new GuardedSource(driver, this.config.limits);
       const controller = new RunController(source, chain, plan);
@@ -302,6 +312,18 @@ export class Station {
       throw e;
     } finally {
       this.starting = false;
+    }
+  }
+
+  /** The device identity of a run request: the plan's, overridden field by field by the request's. */
+  private parseDevice(fromPlan: unknown, fromRequest: unknown): DeviceIdentity | undefined {
+    try {
+      const a = fromPlan === undefined ? undefined : parseDeviceIdentity(fromPlan, 'plan.device');
+      const b = fromRequest === undefined ? undefined : parseDeviceIdentity(fromRequest, 'device');
+      const merged = { ...(a ?? {}), ...(b ?? {}) };
+      return Object.keys(merged).length ? merged : undefined;
+    } catch (e) {
+      throw new StationError((e as Error).message, 400);
     }
   }
 
@@ -362,10 +384,11 @@ export class Station {
   }
 
   /** Annotates the running session, or any session folder by id. */
-  annotate(a: { text: string; tags?: string[]; sweep?: number; session?: string }, source: string): WireEvent {
+  annotate(a: { text: string; tags?: string[]; sweep?: number; session?: string; device?: unknown }, source: string): WireEvent {
     const target = a.session ?? this.current?.session ?? listSessions(this.dataDir)[0];
     if (!target) throw new StationError('no session to annotate yet', 404);
-    const ev = { type: 'annotation' as const, text: a.text, tags: a.tags ?? [], ...(a.sweep !== undefined ? { sweep: a.sweep } : {}), source };
+    const device = a.device === undefined ? undefined : this.parseDevice(undefined, a.device);
+    const ev = { type: 'annotation' as const, text: a.text, tags: a.tags ?? [], ...(a.sweep !== undefined ? { sweep: a.sweep } : {}), source, ...(device ? { device } : {}) };
     if (this.chain && this.current?.session === target) return this.chain.emit(ev);
     if (!listSessions(this.dataDir).includes(target)) throw new StationError(`no session '${target}' under ${this.dataDir}`, 404);
     return annotateFolder(join(this.dataDir, target), ev);
@@ -385,7 +408,7 @@ export class Station {
 }
 
 /** Appends an annotation to a session folder (after its run, or from another process). */
-export function annotateFolder(dir: string, ev: { type: 'annotation'; text: string; tags: string[]; sweep?: number; source: string }): WireEvent {
+export function annotateFolder(dir: string, ev: { type: 'annotation'; text: string; tags: string[]; sweep?: number; source: string; device?: DeviceIdentity }): WireEvent {
   const scan = scanJournal(dir, () => undefined);
   const w = JournalWriter.append(dir, scan.lastSeq, scan.lastT);
   try {

@@ -23,6 +23,8 @@ import { projectRoot } from '../../protocols/project-root.js';
 import { MECHANISMS } from '../analysis/mechanisms/index.js';
 import { plotView } from '../analysis/plot.js';
 import { exportSession } from '../journal/export.js';
+import { FolderLot } from '../journal/lot.js';
+import { analyzeLot, renderLot } from '../journal/lot-report.js';
 import { listSessions, scanJournal } from '../journal/reader.js';
 import { zodMessage } from '../pipeline/settings.js';
 import { isLoopback } from '../run/config.js';
@@ -54,8 +56,10 @@ const annotationBody = z.object({
   tags: z.array(z.string().min(1).max(64)).max(32).optional(),
   sweep: z.number().int().positive().optional(),
   session: z.string().regex(/^[A-Za-z0-9-]+$/).optional(),
+  /** Corrections to the session's device identity (checked by the station: 400 naming the field). */
+  device: z.unknown().optional(),
 }).strict();
-const runBody = z.object({ plan: z.unknown().optional(), analysis: z.unknown().optional(), label: z.string().max(40).optional() }).strict();
+const runBody = z.object({ plan: z.unknown().optional(), analysis: z.unknown().optional(), label: z.string().max(40).optional(), device: z.unknown().optional() }).strict();
 const reasonBody = z.object({ reason: z.string().max(500).optional() }).strict();
 
 function tokenMatches(given: string | undefined, token: string): boolean {
@@ -198,6 +202,22 @@ export async function startServer(station: Station, options: ServerOptions): Pro
       models: MECHANISMS.map((m) => ({ id: m.id, title: m.title, requires: m.requires })),
     });
   });
+  // The lot view: every session in the data folder as one report (summaries cached beside each
+  // journal, so this stays fast with hundreds of sessions); the page links to it.
+  const lotQuery = (req: Request) => {
+    const q = (k: string) => (typeof req.query[k] === 'string' ? (req.query[k] as string).slice(0, 64) : undefined);
+    return { map: q('map'), quantity: q('quantity') };
+  };
+  app.get('/api/lot', async (req, res) => {
+    if (listSessions(station.dataDir).length === 0) return void res.json({ rows: [], parameters: [], weibull: null, cautions: [], problems: [] });
+    const { sample: _sample, ...a } = await analyzeLot(new FolderLot([station.dataDir]), lotQuery(req));
+    res.json(a);
+  });
+  app.get('/lot', async (req, res) => {
+    if (listSessions(station.dataDir).length === 0) return void res.type('html').send('<!doctype html><meta charset="utf-8"><title>plumbline lot</title><p>No sessions in the data folder yet.</p>');
+    const o = lotQuery(req);
+    res.type('html').send(renderLot(await analyzeLot(new FolderLot([station.dataDir]), o), o));
+  });
   app.get('/api/sessions', (_req, res) => {
     res.json({ sessions: listSessions(station.dataDir) });
   });
@@ -249,7 +269,7 @@ export async function startServer(station: Station, options: ServerOptions): Pro
   });
   app.post('/api/run', async (req, res) => {
     const b = body(runBody, req);
-    const h = await station.startRun({ plan: b.plan, analysis: b.analysis, label: b.label });
+    const h = await station.startRun({ plan: b.plan, analysis: b.analysis, label: b.label, device: b.device });
     h.done.catch(() => undefined);
     res.status(201).json({ session: h.session, plan: h.plan });
   });

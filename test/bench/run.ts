@@ -5,6 +5,7 @@ import { benchDiode } from './diode.js';
 import { benchProtocols } from './protocols.js';
 import { benchDaemon } from './daemon.js';
 import { benchPage } from './page.js';
+import { benchLot } from './lot.js';
 
 process.stdout.write(`plumbline benchmarks — Node ${process.version}, ${cpus()[0]?.model ?? 'unknown CPU'}, single thread\n\n`);
 process.stdout.write('analysis core\n');
@@ -14,6 +15,8 @@ process.stdout.write('\nprotocols and simulated instrument\n');
 await benchProtocols();
 process.stdout.write('\ndaemon: live chain, journal, abort, websocket\n');
 await benchDaemon();
+process.stdout.write('\nlots: many sessions\n');
+await benchLot();
 process.stdout.write('\nlive page (headless Chromium)\n');
 await benchPage();
 process.exit(0);

@@ -9,6 +9,7 @@ import { Store } from './store.js';
 
 const $ = <T extends HTMLElement = HTMLElement>(id: string) => document.getElementById(id) as T;
 const token = new URLSearchParams(location.search).get('token');
+document.getElementById('lot-link')?.setAttribute('href', `lot${token ? `?token=${encodeURIComponent(token)}` : ''}`);
 const store = new Store();
 let liveStore = store;
 let viewStore = store;
@@ -308,8 +309,13 @@ $('plan-form').addEventListener('submit', (ev) => {
     compliance: num(f, 'compliance'),
     dual: (f.elements.namedItem('dual') as HTMLInputElement).checked,
   };
+  // The device under test (journaled with the session; used by the lot view and weibull).
+  const text = (name: string) => (f.elements.namedItem(name) as HTMLInputElement).value.trim();
+  const device = Object.fromEntries(
+    [['device', text('device') || undefined], ['wafer', text('wafer') || undefined], ['site', text('site') || undefined], ['x', num(f, 'x')], ['y', num(f, 'y')]].filter(([, v]) => v !== undefined),
+  );
   backToLive();
-  call('POST', '/api/run', { plan }).then((r) => say(`Run started: ${r.session}`)).catch((e: Error) => say(e.message, true));
+  call('POST', '/api/run', Object.keys(device).length ? { plan, device } : { plan }).then((r) => say(`Run started: ${r.session}`)).catch((e: Error) => say(e.message, true));
 });
 $('run-stop').addEventListener('click', () => {
   call('POST', '/api/run/stop', { reason: 'stop requested from the page' }).then(() => say('The run stops after this sweep.')).catch((e: Error) => say(e.message, true));

@@ -1,0 +1,361 @@
+/**
+ * `plumbline lot`: one self-contained HTML file across devices (no script, no network; inline SVG):
+ * a table of every device's fitted parameters ± error with its site, the distribution of each
+ * parameter per wafer (box and strip plots), a wafer map of a chosen parameter on the sequential
+ * colour-blind-safe ramp, the Weibull plot of the breakdown results with its fit and bounds,
+ * outliers by robust z-score, and the cautions the sessions raised.
+ */
+import { writeFileSync } from 'node:fs';
+import { boxSummary, modifiedZ, OUTLIER_Z } from '../analysis/robust.js';
+import { analyzeWeibull, weibullPlotY, weibullQuantile, type WeibullReport } from '../analysis/weibull.js';
+import { OKABE_ITO, sequential } from '../../protocols/palette.js';
+import { resultQuantity } from '../../protocols/device-results.js';
+import { breakdownSample, displayUnit, formatValue, lotResults, type BreakdownSample, type DeviceSummary, type LotSource } from './lot.js';
+import { svgChart } from './svg.js';
+
+const esc = (s: unknown) => String(s).replace(/&/g, '&amp;').replace(/</g, '&lt;').replace(/>/g, '&gt;').replace(/"/g, '&quot;');
+const num = (v: number | undefined, d = 4) => (v === undefined || !Number.isFinite(v) ? '—' : Math.abs(v) >= 1e4 || (Math.abs(v) < 1e-2 && v !== 0) ? v.toExponential(d - 1) : String(+v.toPrecision(d)));
+
+export interface LotOptions {
+  /** Parameter (or breakdown quantity: field, voltage, charge, time) for the wafer map. */
+  readonly map?: string;
+  /** Breakdown quantity for the Weibull plot (default field). */
+  readonly quantity?: string;
+  readonly confidence?: number;
+  readonly area?: number;
+}
+
+/** One row of the lot: a device with its values (parameters and breakdown results). */
+export interface LotRow {
+  readonly session: string;
+  readonly device: string;
+  readonly wafer: string;
+  readonly site: string;
+  readonly x: number | undefined;
+  readonly y: number | undefined;
+  readonly values: Record<string, { value: number; stdErr?: number; unit: string }>;
+  readonly outcome: string | null;
+}
+
+export interface ParameterStats {
+  readonly name: string;
+  readonly unit: string;
+  readonly n: number;
+  /** The robust z-scores were taken of ln(value) (a positive quantity spanning more than a decade). */
+  readonly logScale: boolean;
+  readonly box: ReturnType<typeof boxSummary> | null;
+  /** Devices with |modified z| > 3.5 (Iglewicz & Hoaglin 1993). */
+  readonly outliers: readonly { session: string; device: string; value: number; z: number }[];
+}
+
+export interface LotAnalysis {
+  readonly description: string;
+  readonly rows: LotRow[];
+  readonly parameters: ParameterStats[];
+  readonly weibull: (WeibullReport & { quantity: string; notes: string[] }) | null;
+  readonly weibullError: string | null;
+  readonly cautions: { kind: string; count: number; sessions: number; message: string }[];
+  readonly problems: string[];
+  /** The Weibull sample behind `weibull` (values, survivors, area factors). */
+  readonly sample: BreakdownSample | null;
+}
+
+const BREAKDOWN_KEYS: Record<string, string> = { breakdownField: 'breakdown field', breakdownVoltage: 'breakdown voltage', chargeToBreakdown: 'charge to breakdown', timeToBreakdown: 'time to breakdown' };
+const BREAKDOWN_UNITS: Record<string, string> = { breakdownField: 'V/m', breakdownVoltage: 'V', chargeToBreakdown: 'C/m^2', timeToBreakdown: 's' };
+
+/** The lot's rows: one per session, or one per results row when a session tested several devices. */
+export function lotRows(devices: readonly DeviceSummary[]): LotRow[] {
+  const rows: LotRow[] = [];
+  const results = lotResults(devices);
+  for (const d of devices) {
+    const params: LotRow['values'] = {};
+    for (const [k, p] of Object.entries(d.parameters)) params[k] = { value: p.value, stdErr: p.stdErr, unit: p.unit };
+    const mine = results.filter((r) => r.session === d.session);
+    const id = d.identity;
+    if (mine.length === 0) {
+      rows.push({ session: d.session, device: id.device ?? d.session, wafer: id.wafer ?? '', site: id.site ?? '', x: id.x, y: id.y, values: params, outcome: d.outcome });
+      continue;
+    }
+    for (const r of mine) {
+      const values = { ...params };
+      for (const [key, title] of Object.entries(BREAKDOWN_KEYS)) {
+        const v = r[key as keyof typeof r];
+        if (typeof v === 'number') values[title] = { value: v, unit: BREAKDOWN_UNITS[key] };
+      }
+      rows.push({ session: d.session, device: r.device, wafer: r.wafer ?? id.wafer ?? '', site: r.site ?? id.site ?? '', x: r.x ?? id.x, y: r.y ?? id.y, values, outcome: r.outcome });
+    }
+  }
+  return rows;
+}
+
+export async function analyzeLot(source: LotSource, o: LotOptions = {}): Promise<LotAnalysis> {
+  const devices = await source.devices();
+  const rows = lotRows(devices);
+  const names = new Map<string, string>();
+  for (const r of rows) for (const [k, v] of Object.entries(r.values)) if (!names.has(k)) names.set(k, v.unit);
+  const parameters: ParameterStats[] = [];
+  for (const [name, unit] of names) {
+    const have = rows.filter((r) => r.values[name] && Number.isFinite(r.values[name].value));
+    const vals = have.map((r) => r.values[name].value);
+    // Quantities spanning decades (charge to breakdown, leakage) are compared on a log scale.
+    const log = vals.length > 0 && vals.every((v) => v > 0) && Math.max(...vals) / Math.min(...vals) > 10;
+    const z = vals.length >= 3 ? modifiedZ(log ? vals.map(Math.log) : vals) : vals.map(() => 0);
+    parameters.push({
+      name,
+      unit,
+      n: vals.length,
+      logScale: log,
+      box: vals.length ? boxSummary(vals) : null,
+      outliers: have.map((r, k) => ({ session: r.session, device: r.device, value: vals[k], z: z[k] })).filter((q) => Math.abs(q.z) > OUTLIER_Z),
+    });
+  }
+  let weibull: LotAnalysis['weibull'] = null;
+  let weibullError: string | null = null;
+  let sample: BreakdownSample | null = null;
+  const q = resultQuantity(o.quantity ?? 'field');
+  const results = lotResults(devices);
+  if (q && results.length) {
+    const s: BreakdownSample = breakdownSample(results, q, o.area);
+    sample = s;
+    try {
+      weibull = { ...analyzeWeibull({ values: s.values, censored: s.censored, areaFactor: s.areaFactor }, { confidence: o.confidence ?? 0.9, unit: s.unit, area: s.area, display: (v) => formatValue(v, s.unit) }), quantity: s.title, notes: s.notes };
+    } catch (e) {
+      weibullError = (e as Error).message;
+    }
+  }
+  const cautions = new Map<string, { kind: string; count: number; sessions: number; message: string }>();
+  for (const d of devices) {
+    for (const c of d.cautions) {
+      const e = cautions.get(c.kind);
+      if (e) {
+        e.count += c.count;
+        e.sessions++;
+      } else cautions.set(c.kind, { kind: c.kind, count: c.count, sessions: 1, message: c.message });
+    }
+  }
+  return {
+    description: source.description,
+    rows,
+    parameters,
+    weibull,
+    weibullError,
+    cautions: [...cautions.values()],
+    problems: devices.flatMap((d) => d.problems.map((p) => `${d.session}: ${p}`)),
+    sample,
+  };
+}
+
+/** Box and strip plot of one parameter, one row per wafer; outliers drawn as open diamonds. */
+function boxStrip(p: ParameterStats, rows: LotRow[]): string {
+  const d = displayUnit(p.unit);
+  const groups = new Map<string, { v: number; out: boolean; label: string }[]>();
+  const outKeys = new Set(p.outliers.map((o) => `${o.session}/${o.device}`));
+  for (const r of rows) {
+    const v = r.values[p.name];
+    if (!v || !Number.isFinite(v.value)) continue;
+    const g = r.wafer || '(no wafer)';
+    if (!groups.has(g)) groups.set(g, []);
+    groups.get(g)?.push({ v: v.value * d.factor, out: outKeys.has(`${r.session}/${r.device}`), label: `${r.device}${r.site ? ` @ ${r.site}` : ''}` });
+  }
+  const all = [...groups.values()].flat().map((q) => q.v);
+  if (all.length === 0) return '';
+  let lo = Math.min(...all);
+  let hi = Math.max(...all);
+  if (hi === lo) {
+    lo -= Math.abs(lo) * 0.05 || 1;
+    hi += Math.abs(hi) * 0.05 || 1;
+  }
+  const pad = (hi - lo) * 0.05;
+  lo -= pad;
+  hi += pad;
+  const W = 900;
+  const L = 150;
+  const R = 20;
+  const rowH = 44;
+  const H = 40 + groups.size * rowH + 30;
+  const px = (v: number) => L + ((v - lo) / (hi - lo)) * (W - L - R);
+  const parts = [`<svg class="chart" xmlns="http://www.w3.org/2000/svg" width="${W}" height="${H}" viewBox="0 0 ${W} ${H}" role="img" aria-label="${esc(p.name)} distribution">`];
+  parts.push(`<text x="${L}" y="16" class="t">${esc(p.name)}${d.unit ? ` (${esc(d.unit)})` : ''}: box = quartiles, bar = median, whiskers to 1.5 IQR; ● devices, ◇ outliers (|robust z| &gt; ${OUTLIER_Z})</text>`);
+  let k = 0;
+  for (const [g, pts] of groups) {
+    const yc = 40 + k * rowH + rowH / 2;
+    const b = boxSummary(pts.map((q) => q.v));
+    parts.push(`<text x="${L - 8}" y="${yc}" text-anchor="end" dominant-baseline="middle">${esc(g)} (${pts.length})</text>`);
+    parts.push(`<line x1="${px(b.lowWhisker).toFixed(1)}" x2="${px(b.highWhisker).toFixed(1)}" y1="${yc}" y2="${yc}" stroke="#555"/>`);
+    parts.push(`<rect x="${px(b.q1).toFixed(1)}" y="${yc - 12}" width="${Math.max(1, px(b.q3) - px(b.q1)).toFixed(1)}" height="24" fill="rgba(86,180,233,0.25)" stroke="${OKABE_ITO.blue}"/>`);
+    parts.push(`<line x1="${px(b.median).toFixed(1)}" x2="${px(b.median).toFixed(1)}" y1="${yc - 12}" y2="${yc + 12}" stroke="${OKABE_ITO.black}" stroke-width="2.5"/>`);
+    pts.forEach((q, j) => {
+      const X = px(q.v).toFixed(1);
+      const Y = (yc - 9 + ((j * 7) % 19)).toFixed(1);
+      parts.push(q.out
+        ? `<path d="M${X} ${+Y - 5}l5 5l-5 5l-5 -5z" fill="#fff" stroke="${OKABE_ITO.vermillion}" stroke-width="1.6"><title>${esc(q.label)}: ${num(q.v)} (outlier)</title></path>`
+        : `<circle cx="${X}" cy="${Y}" r="2.8" fill="${OKABE_ITO.orange}" stroke="#333" stroke-width="0.4"><title>${esc(q.label)}: ${num(q.v)}</title></circle>`);
+    });
+    k++;
+  }
+  const ty = H - 22;
+  parts.push(`<line x1="${L}" x2="${W - R}" y1="${ty}" y2="${ty}" stroke="#888"/>`);
+  for (let t = 0; t <= 5; t++) {
+    const v = lo + ((hi - lo) * t) / 5;
+    parts.push(`<text x="${px(v).toFixed(1)}" y="${ty + 14}" text-anchor="middle">${num(v, 3)}</text>`);
+  }
+  parts.push('</svg>');
+  return parts.join('');
+}
+
+/** Wafer map: each site a square at (x, y) coloured on the sequential ramp, its value written in it. */
+function waferMap(name: string, rows: LotRow[], outliers: Set<string>): string {
+  const have = rows.filter((r) => r.x !== undefined && r.y !== undefined);
+  if (have.length === 0) return '<p class="note">No site has x, y coordinates: give them with the run (--x, --y) or in the results file to draw a wafer map.</p>';
+  const wafers = new Map<string, LotRow[]>();
+  for (const r of have) {
+    const w = r.wafer || '(no wafer)';
+    if (!wafers.has(w)) wafers.set(w, []);
+    wafers.get(w)?.push(r);
+  }
+  const vals = have.map((r) => r.values[name]?.value).filter((v): v is number => v !== undefined && Number.isFinite(v));
+  const unit = have.find((r) => r.values[name])?.values[name].unit ?? '';
+  const d = displayUnit(unit);
+  const vlo = Math.min(...vals);
+  const vhi = Math.max(...vals);
+  const t = (v: number) => (vhi > vlo ? (v - vlo) / (vhi - vlo) : 0.5);
+  const out: string[] = [];
+  for (const [w, rs] of wafers) {
+    const xs = rs.map((r) => r.x as number);
+    const ys = rs.map((r) => r.y as number);
+    const x0 = Math.min(...xs);
+    const x1 = Math.max(...xs);
+    const y0 = Math.min(...ys);
+    const y1 = Math.max(...ys);
+    const cols = x1 - x0 + 1;
+    const rws = y1 - y0 + 1;
+    const cell = Math.max(26, Math.min(60, Math.floor(420 / Math.max(cols, rws))));
+    const W = cols * cell + 40;
+    const H = rws * cell + 60;
+    const parts = [`<svg class="chart" xmlns="http://www.w3.org/2000/svg" width="${W}" height="${H}" viewBox="0 0 ${W} ${H}" role="img" aria-label="wafer ${esc(w)}">`];
+    parts.push(`<text x="20" y="16" class="t">wafer ${esc(w)}</text>`);
+    const cx = 20 + (cols * cell) / 2;
+    const cy = 30 + (rws * cell) / 2;
+    parts.push(`<circle cx="${cx}" cy="${cy}" r="${(Math.hypot(cols, rws) * cell) / 2 + 4}" fill="none" stroke="#bbb" stroke-dasharray="3 3"/>`);
+    for (const r of rs) {
+      const X = 20 + ((r.x as number) - x0) * cell;
+      // y grows upwards on a wafer map.
+      const Y = 30 + (y1 - (r.y as number)) * cell;
+      const v = r.values[name]?.value;
+      const has = v !== undefined && Number.isFinite(v);
+      const isOut = outliers.has(`${r.session}/${r.device}`);
+      const fill = has ? sequential(t(v)) : '#eeeeee';
+      const textColour = has && t(v) > 0.55 ? '#000' : has ? '#fff' : '#555';
+      // (a style, not a fill attribute: the report's stylesheet sets the chart text colour)
+      parts.push(`<g><title>${esc(r.device)}${r.site ? ` @ ${esc(r.site)}` : ''} (${r.x}, ${r.y}): ${has ? esc(formatValue(v, unit)) : 'no value'}${isOut ? ' — outlier' : ''}</title>`);
+      parts.push(`<rect class="site" x="${X + 1}" y="${Y + 1}" width="${cell - 2}" height="${cell - 2}" fill="${fill}" stroke="${isOut ? OKABE_ITO.vermillion : '#fff'}" stroke-width="${isOut ? 3 : 1}"${has ? '' : ' stroke-dasharray="2 2"'}/>`);
+      parts.push(`<text x="${X + cell / 2}" y="${Y + cell / 2}" text-anchor="middle" dominant-baseline="middle" style="fill:${textColour}" font-size="${cell < 34 ? 8 : 10}">${has ? esc(num(v * d.factor, 3)) : '—'}${isOut ? '!' : ''}</text></g>`);
+    }
+    parts.push('</svg>');
+    out.push(parts.join(''));
+  }
+  // Colour bar.
+  const bar = [`<svg class="chart" xmlns="http://www.w3.org/2000/svg" width="320" height="46" viewBox="0 0 320 46" role="img" aria-label="colour scale">`];
+  for (let k = 0; k < 60; k++) bar.push(`<rect x="${10 + k * 5}" y="6" width="5.5" height="14" fill="${sequential(k / 59)}"/>`);
+  bar.push(`<text x="10" y="34">${esc(num(vlo * d.factor, 4))}</text><text x="310" y="34" text-anchor="end">${esc(num(vhi * d.factor, 4))} ${esc(d.unit)}</text></svg>`);
+  return `<div class="plots">${out.join('')}</div>${bar.join('')}<p class="note">Squares: sites, coloured from the lowest value (dark) to the highest (light) and labelled with the value; a thick vermillion border and "!" mark an outlier; dashed grey: no value.</p>`;
+}
+
+/** The Weibull plot: median-rank points, the ML line and pointwise bounds on the quantiles. */
+function weibullPlot(w: WeibullReport & { quantity: string }, values: number[], censored: boolean[], areaFactor: number[] | undefined): string {
+  const d = displayUnit(w.scale.unit);
+  const pts = w.points;
+  const Fs = [0.001, 0.003, 0.01, 0.03, 0.06, 0.1, 0.2, 0.3, 0.5, 0.632, 0.8, 0.9, 0.97, 0.99, 0.999].filter((F) => F >= Math.min(pts[0]?.F ?? 0.01, 0.01) * 0.5 && F <= Math.max(pts[pts.length - 1]?.F ?? 0.99, 0.99));
+  const q = Fs.map((F) => weibullQuantile({ values, censored, areaFactor }, F, w.bounds.confidence, w.bounds.method));
+  const pct = `${+(w.bounds.confidence * 100).toPrecision(3)} %`;
+  return svgChart({
+    width: 900,
+    height: 420,
+    title: `Weibull plot of the ${w.quantity}: ● median ranks, solid: ML fit (β = ${+w.shape.value.toPrecision(3)}, η = ${formatValue(w.scale.value, w.scale.unit)}), dashed: ${pct} bounds`,
+    xLabel: `${w.quantity} (${d.unit})`,
+    yLabel: 'ln(−ln(1 − F))',
+    xLog: true,
+    series: [
+      { x: q.map((p) => p.low * d.factor), y: Fs.map(weibullPlotY), color: OKABE_ITO.sky, dash: '5 4', label: 'lower bound' },
+      { x: q.map((p) => p.high * d.factor), y: Fs.map(weibullPlotY), color: OKABE_ITO.sky, dash: '5 4', label: 'upper bound' },
+      { x: q.map((p) => p.value * d.factor), y: Fs.map(weibullPlotY), color: OKABE_ITO.black, width: 2, label: 'fit' },
+      { x: pts.map((p) => p.x * d.factor), y: pts.map((p) => weibullPlotY(p.F)), color: OKABE_ITO.vermillion, marker: 'dot', line: false, label: 'devices' },
+    ],
+  });
+}
+
+export function renderLot(a: LotAnalysis, o: LotOptions = {}): string {
+  const sample = a.sample;
+  const out: string[] = [];
+  out.push(`<!doctype html><html lang="en"><head><meta charset="utf-8"><title>plumbline lot report — ${esc(a.description)}</title><style>
+body{font-family:system-ui,"DejaVu Sans",sans-serif;color:#1b1b1b;margin:1.5rem auto;max-width:1000px;padding:0 1rem}
+h1{font-size:1.4rem}h2{font-size:1.15rem;margin-top:1.6rem;border-bottom:1px solid #ccc}
+table{border-collapse:collapse;font-variant-numeric:tabular-nums;font-size:.8rem}td,th{border-bottom:1px solid #ddd;padding:.15rem .4rem;text-align:left;vertical-align:top}
+.chart text{font-size:10px;fill:#333}.chart .t{font-size:12px;font-weight:600}.chart .ax{font-size:11px}
+.note{color:#555;font-size:.85rem}.caution{border:2px solid #7a1010;background:#fde3de;padding:.4rem .6rem;margin:.6rem 0}
+.out{font-weight:700;color:#8a2b00}.plots{display:flex;flex-wrap:wrap;gap:.5rem}
+@media print{body{margin:0}h2{page-break-after:avoid}}
+</style></head><body>`);
+  out.push(`<h1>plumbline lot report: ${esc(a.description)}</h1>`);
+  out.push(`<p>${a.rows.length} device(s) from ${new Set(a.rows.map((r) => r.session)).size} session(s); wafers: ${esc([...new Set(a.rows.map((r) => r.wafer || '(none)'))].join(', '))}.</p>`);
+  out.push('<p class="caution">Breakdown tests destroy devices at high field and can leave hazardous voltages on fixtures. The cautions below record what the software saw; your lab\'s safety rules, the instrument\'s manual and licensed practice govern.</p>');
+  // Cautions.
+  out.push('<h2>Cautions</h2>');
+  if (a.cautions.length === 0) out.push('<p class="note">No cautions were raised.</p>');
+  else out.push(`<table><tr><th>caution</th><th>times</th><th>sessions</th><th>first message</th></tr>${a.cautions.map((c) => `<tr><td>${esc(c.kind)}</td><td>${c.count}</td><td>${c.sessions}</td><td>${esc(c.message)}</td></tr>`).join('')}</table>`);
+  if (a.problems.length) out.push(`<p class="note">Could not read: ${a.problems.map(esc).join('; ')}</p>`);
+  // Devices table.
+  const outKey = new Map<string, Set<string>>();
+  for (const p of a.parameters) outKey.set(p.name, new Set(p.outliers.map((q) => `${q.session}/${q.device}`)));
+  out.push('<h2>Devices</h2><table><tr><th>session</th><th>device</th><th>wafer</th><th>site</th><th>x, y</th><th>outcome</th>');
+  for (const p of a.parameters) out.push(`<th>${esc(p.name)}${displayUnit(p.unit).unit ? ` (${esc(displayUnit(p.unit).unit)})` : ''}</th>`);
+  out.push('</tr>');
+  for (const r of a.rows) {
+    out.push(`<tr><td>${esc(r.session)}</td><td>${esc(r.device)}</td><td>${esc(r.wafer)}</td><td>${esc(r.site)}</td><td>${r.x ?? '—'}, ${r.y ?? '—'}</td><td>${esc(r.outcome ?? '—')}</td>`);
+    for (const p of a.parameters) {
+      const v = r.values[p.name];
+      const f = displayUnit(p.unit).factor;
+      const isOut = outKey.get(p.name)?.has(`${r.session}/${r.device}`);
+      out.push(`<td${isOut ? ' class="out"' : ''}>${v ? `${num(v.value * f, 5)}${v.stdErr !== undefined ? ` ± ${num(v.stdErr * f, 2)}` : ''}${isOut ? ' ◇ outlier' : ''}` : '—'}</td>`);
+    }
+    out.push('</tr>');
+  }
+  out.push('</table><p class="note">Fitted parameters are those of each device\'s first complete sweep with a plausible fit (the device as found); ± one standard error. Outliers: |modified z| = |0.6745 (x − median)/MAD| &gt; 3.5 within the lot (Iglewicz &amp; Hoaglin 1993).</p>');
+  // Distributions.
+  out.push('<h2>Distributions</h2>');
+  for (const p of a.parameters) {
+    if (!p.box) continue;
+    const d = displayUnit(p.unit);
+    out.push(boxStrip(p, a.rows));
+    out.push(`<p class="note">${esc(p.name)}: n = ${p.n}, median ${num(p.box.median * d.factor)} ${esc(d.unit)}, quartiles ${num(p.box.q1 * d.factor)} … ${num(p.box.q3 * d.factor)}${p.logScale ? '; spans more than a decade, so outliers are judged on ln(value)' : ''}${p.outliers.length ? `; outliers: ${p.outliers.map((q) => `${esc(q.device)} (z = ${q.z.toFixed(1)})`).join(', ')}` : ''}.</p>`);
+  }
+  // Wafer map.
+  const mapName = o.map !== undefined ? (a.parameters.find((p) => p.name === o.map) ?? a.parameters.find((p) => p.name === resultQuantity(o.map as string)?.title))?.name : (a.parameters.find((p) => p.name === 'breakdown field') ?? a.parameters[0])?.name;
+  out.push(`<h2>Wafer map${mapName ? `: ${esc(mapName)}` : ''}</h2>`);
+  if (o.map !== undefined && !mapName) out.push(`<p class="note">No parameter named '${esc(o.map)}' in this lot (have: ${a.parameters.map((p) => esc(p.name)).join(', ')}).</p>`);
+  else if (mapName) out.push(waferMap(mapName, a.rows, outKey.get(mapName) ?? new Set()));
+  // Weibull.
+  out.push('<h2>Breakdown statistics</h2>');
+  if (a.weibull && sample) {
+    const w = a.weibull;
+    const pct = `${+(w.bounds.confidence * 100).toPrecision(3)} %`;
+    out.push(weibullPlot(w, sample.values, sample.censored, sample.areaFactor));
+    out.push(`<table><tr><th>devices</th><td>${w.n} (${w.failures} broke down, ${w.censored} survived)</td></tr>
+<tr><th>shape β</th><td>${num(w.shape.value)} (${pct}: ${num(w.shape.low)} … ${num(w.shape.high)})</td></tr>
+<tr><th>scale η</th><td>${esc(formatValue(w.scale.value, w.scale.unit, 5))} (${pct}: ${esc(formatValue(w.scale.low, w.scale.unit))} … ${esc(formatValue(w.scale.high, w.scale.unit))})${w.area !== null ? `, devices of ${esc(formatValue(w.area, 'm^2'))}` : ''}</td></tr>
+<tr><th>1 % point</th><td>${esc(formatValue(w.onePercent.value, w.onePercent.unit))} (${esc(formatValue(w.onePercent.low, w.onePercent.unit))} … ${esc(formatValue(w.onePercent.high, w.onePercent.unit))})</td></tr>
+<tr><th>goodness of fit</th><td>${w.goodnessOfFit ? `Anderson–Darling A²·(1 + 0.2/√n) = ${w.goodnessOfFit.modified.toFixed(3)} (5 % critical ${w.goodnessOfFit.critical['0.05']})` : 'not computed with survivors'}</td></tr>
+<tr><th>method</th><td>maximum likelihood, ${w.bounds.method} bounds (IEC 61649)</td></tr></table>`);
+    for (const n of w.notes) out.push(`<p class="note">${esc(n)}</p>`);
+    for (const x of w.warnings) out.push(`<p class="caution">${esc(x)}</p>`);
+  } else if (a.weibullError) out.push(`<p class="note">No Weibull fit: ${esc(a.weibullError)}</p>`);
+  else out.push('<p class="note">No breakdown results in these sessions (ramp and constant-stress tests write them).</p>');
+  out.push(`<p class="note">Generated by plumbline on ${new Date().toISOString()}. Values in the trade's units (MV/cm, C/cm², cm², nm); files and JSON hold SI.</p></body></html>`);
+  return out.join('\n');
+}
+
+export async function writeLotReport(source: LotSource, file: string, o: LotOptions = {}): Promise<LotAnalysis> {
+  const a = await analyzeLot(source, o);
+  writeFileSync(file, renderLot(a, o));
+  return a;
+}

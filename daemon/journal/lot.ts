@@ -1,0 +1,357 @@
+/**
+ * Many sessions as one lot: a per-device summary of each session (its identity, the fitted
+ * parameters of the device as found, its breakdown results, the cautions it raised), read from
+ * session folders through one small interface (`LotSource`) that another store can implement.
+ *
+ * Reading hundreds of sessions stays fast because each summary is cached beside its journal
+ * (`device-summary.json`) and rebuilt only when the journal or the results file changes (their
+ * size and modification time are kept with the summary). A session a live process is still writing
+ * is summarised but not cached.
+ */
+import { existsSync, readFileSync, statSync, writeFileSync } from 'node:fs';
+import { basename, join, resolve } from 'node:path';
+import { DEVICE_RESULTS_FILE, mergeIdentity, parseDeviceResults, type DeviceIdentity, type DeviceResult } from '../../protocols/device-results.js';
+import type { ParameterFigure, WireEvent } from '../../protocols/wire.js';
+import { JOURNAL_FILE, JournalError, liveLockHolder } from './journal.js';
+import { listSessions, scanJournal } from './reader.js';
+
+export const SUMMARY_FILE = 'device-summary.json';
+/** Bumped whenever the summary's shape or meaning changes, so old caches are rebuilt. */
+const SUMMARY_FORMAT = 1;
+
+export interface DeviceSummary {
+  /** Session id (folder name). */
+  readonly session: string;
+  /** Session folder, or null when the summary came from another store. */
+  readonly dir: string | null;
+  readonly startedAt: string | null;
+  /** The session's device identity, with later edits (annotations) applied. */
+  readonly identity: DeviceIdentity;
+  /** The live-fit model of the sweep the parameters come from. */
+  readonly model: string | null;
+  /**
+   * Fitted parameters of the device as found: the first complete sweep whose final fit is
+   * plausible (later sweeps may already have stressed the device).
+   */
+  readonly parameters: Readonly<Record<string, ParameterFigure>>;
+  readonly fitSweep: number | null;
+  readonly sweeps: number;
+  readonly outcome: string | null;
+  readonly reason: string | null;
+  /** Cautions raised, one entry per kind with its count and first message. */
+  readonly cautions: readonly { readonly kind: string; readonly count: number; readonly message: string }[];
+  /** Rows of the session's device-results.csv (breakdown tests), if any. */
+  readonly results: readonly DeviceResult[];
+  /** What could not be read (damaged journal lines, an unreadable results file). */
+  readonly problems: readonly string[];
+}
+
+/** Where a lot's devices come from: session folders here; another store can implement it. */
+export interface LotSource {
+  /** For titles and messages: what the selection covers. */
+  readonly description: string;
+  devices(): Promise<DeviceSummary[]>;
+}
+
+interface Stamp {
+  readonly journal: [number, number];
+  readonly results: [number, number] | null;
+}
+
+function stampOf(dir: string): Stamp {
+  const j = statSync(join(dir, JOURNAL_FILE));
+  const rf = join(dir, DEVICE_RESULTS_FILE);
+  const r = existsSync(rf) ? statSync(rf) : null;
+  return { journal: [j.size, j.mtimeMs], results: r ? [r.size, r.mtimeMs] : null };
+}
+
+const sameStamp = (a: Stamp, b: Stamp) =>
+  a.journal[0] === b.journal[0] && a.journal[1] === b.journal[1] &&
+  (a.results === null ? b.results === null : b.results !== null && a.results[0] === b.results[0] && a.results[1] === b.results[1]);
+
+/** Reads one session's summary from its journal and results file (no cache). */
+export function summarizeSession(dirIn: string): DeviceSummary {
+  const dir = resolve(dirIn);
+  let startedAt: string | null = null;
+  let identity: DeviceIdentity = {};
+  let inputs: Record<string, unknown> = {};
+  const fits = new Map<number, { fit: Extract<WireEvent, { type: 'fit' }>['fit'] }>();
+  const complete = new Map<number, boolean>();
+  let outcome: string | null = null;
+  let reason: string | null = null;
+  const cautions = new Map<string, { kind: string; count: number; message: string }>();
+  const scan = scanJournal(dir, (e) => {
+    switch (e.type) {
+      case 'session':
+        startedAt = e.startedAt;
+        identity = mergeIdentity(identity, e.device);
+        inputs = ((e.analysis as { inputs?: Record<string, unknown> } | null)?.inputs ?? {}) as Record<string, unknown>;
+        break;
+      case 'annotation':
+        identity = mergeIdentity(identity, e.device);
+        break;
+      case 'settings': {
+        const i = (e.analysis as { inputs?: Record<string, unknown> } | null)?.inputs;
+        if (i) inputs = i;
+        break;
+      }
+      case 'sweep-end':
+        complete.set(e.sweep, e.complete);
+        break;
+      case 'fit':
+        if (e.final) fits.set(e.sweep, { fit: e.fit });
+        break;
+      case 'caution': {
+        const c = cautions.get(e.kind);
+        if (c) c.count++;
+        else cautions.set(e.kind, { kind: e.kind, count: 1, message: e.message });
+        break;
+      }
+      case 'run-end':
+        outcome = e.outcome;
+        reason = e.reason;
+        break;
+      default:
+        break;
+    }
+  }, { readings: false });
+  // The analysis inputs fill what the identity leaves out (the fit used them).
+  const fill: DeviceIdentity = {
+    ...(typeof inputs.area === 'number' ? { area: inputs.area } : {}),
+    ...(typeof inputs.thickness === 'number' ? { thickness: inputs.thickness } : {}),
+    ...(typeof inputs.temperature === 'number' ? { temperature: inputs.temperature } : {}),
+  };
+  identity = mergeIdentity(fill, identity);
+  let fitSweep: number | null = null;
+  let chosen: Extract<WireEvent, { type: 'fit' }>['fit'] = null;
+  for (const sweep of [...fits.keys()].sort((a, b) => a - b)) {
+    const f = fits.get(sweep)?.fit;
+    if (f && f.plausible && complete.get(sweep) !== false) {
+      fitSweep = sweep;
+      chosen = f;
+      break;
+    }
+  }
+  const problems: string[] = scan.bad.map((b) => `${JOURNAL_FILE} line ${b.line}: ${b.problem}`);
+  let results: DeviceResult[] = [];
+  const rf = join(dir, DEVICE_RESULTS_FILE);
+  if (existsSync(rf)) {
+    try {
+      results = parseDeviceResults(readFileSync(rf, 'utf8'), rf);
+    } catch (e) {
+      problems.push((e as Error).message);
+    }
+  }
+  return {
+    session: basename(dir),
+    dir,
+    startedAt,
+    identity,
+    model: chosen?.model ?? null,
+    parameters: chosen?.parameters ?? {},
+    fitSweep,
+    sweeps: complete.size,
+    outcome,
+    reason,
+    cautions: [...cautions.values()],
+    results,
+    problems,
+  };
+}
+
+/** A session's summary, from the cache beside its journal when that is still current. */
+export function readSummary(dir: string, o: { cache?: boolean } = {}): { summary: DeviceSummary; cached: boolean } {
+  const abs = resolve(dir);
+  const stamp = stampOf(abs);
+  const file = join(abs, SUMMARY_FILE);
+  if (o.cache !== false && existsSync(file)) {
+    try {
+      const c = JSON.parse(readFileSync(file, 'utf8')) as { format: number; stamp: Stamp; summary: DeviceSummary };
+      if (c.format === SUMMARY_FORMAT && sameStamp(c.stamp, stamp)) return { summary: { ...c.summary, dir: abs }, cached: true };
+    } catch {
+      /* a damaged cache is rebuilt */
+    }
+  }
+  const summary = summarizeSession(abs);
+  if (o.cache !== false && liveLockHolder(abs) === undefined) {
+    try {
+      writeFileSync(file, JSON.stringify({ format: SUMMARY_FORMAT, stamp, summary }));
+    } catch {
+      /* a read-only folder still gives its summary */
+    }
+  }
+  return { summary, cached: false };
+}
+
+/**
+ * The session folders named by `paths`: each is a session folder itself (it holds a journal) or a
+ * data folder whose session folders are all taken. Errors name the path.
+ */
+export function expandSessionPaths(paths: readonly string[]): string[] {
+  const out: string[] = [];
+  for (const p of paths) {
+    const abs = resolve(p);
+    if (!existsSync(abs)) throw new JournalError(`${p}: no such folder`);
+    if (existsSync(join(abs, JOURNAL_FILE))) {
+      out.push(abs);
+      continue;
+    }
+    if (!statSync(abs).isDirectory()) throw new JournalError(`${p}: not a session folder or a data folder`);
+    const found = listSessions(abs).map((id) => join(abs, id));
+    if (found.length === 0) throw new JournalError(`${p}: neither a session folder (no ${JOURNAL_FILE}) nor a data folder holding session folders`);
+    out.push(...found.reverse());
+  }
+  return [...new Set(out)];
+}
+
+/** Session folders as a lot. */
+export class FolderLot implements LotSource {
+  readonly description: string;
+  private readonly dirs: string[];
+  /** How many summaries came from the cache on the last read. */
+  cachedCount = 0;
+
+  constructor(paths: readonly string[], private readonly opts: { cache?: boolean } = {}) {
+    this.dirs = expandSessionPaths(paths);
+    this.description = this.dirs.length === 1 ? basename(this.dirs[0]) : `${this.dirs.length} sessions`;
+  }
+
+  async devices(): Promise<DeviceSummary[]> {
+    this.cachedCount = 0;
+    return this.dirs.map((d) => {
+      const r = readSummary(d, this.opts);
+      if (r.cached) this.cachedCount++;
+      return r.summary;
+    });
+  }
+}
+
+/** One device's breakdown result with its effective identity (results row + session identity). */
+export interface LotResult extends DeviceResult {
+  readonly session: string;
+}
+
+/**
+ * Every results row of the lot. A row's own identity columns stand, except that in a session that
+ * tested one device the session's identity (with its later edits) wins, so a corrected site or
+ * area reaches the statistics.
+ */
+export function lotResults(devices: readonly DeviceSummary[]): LotResult[] {
+  const out: LotResult[] = [];
+  for (const d of devices) {
+    const names = new Set(d.results.map((r) => r.device));
+    for (const r of d.results) {
+      const id = names.size === 1 ? d.identity : {};
+      out.push({
+        ...r,
+        ...(id.wafer !== undefined ? { wafer: id.wafer } : {}),
+        ...(id.site !== undefined ? { site: id.site } : {}),
+        ...(id.x !== undefined ? { x: id.x } : {}),
+        ...(id.y !== undefined ? { y: id.y } : {}),
+        ...(id.area !== undefined ? { area: id.area } : {}),
+        ...(id.thickness !== undefined ? { thickness: id.thickness } : {}),
+        ...(r.area === undefined && id.area !== undefined ? { area: id.area } : {}),
+        session: d.session,
+      });
+    }
+  }
+  return out;
+}
+
+/** What `weibull` fits: values, survivors and area factors, with what was left out and why. */
+export interface BreakdownSample {
+  readonly values: number[];
+  readonly censored: boolean[];
+  /** Device area over the reference area; undefined when every device has the reference area. */
+  readonly areaFactor: number[] | undefined;
+  /** The reference area η refers to, m² (undefined when no area is known). */
+  readonly area: number | undefined;
+  readonly labels: string[];
+  readonly unit: string;
+  readonly title: string;
+  readonly notes: string[];
+}
+
+/**
+ * The Weibull sample of one quantity (field, voltage, charge, time) from results rows: breakdowns
+ * are failures, survivors are right-censored at the value they reached; initial failures (failed at
+ * the use condition before the test) and invalid tests are left out and counted. Devices of
+ * different areas are put on one reference area (`referenceArea`, else their median area) through
+ * per-device area factors.
+ */
+export function breakdownSample(rows: readonly (DeviceResult & { session?: string })[], quantity: { key: keyof DeviceResult; unit: string; title: string; column: string }, referenceArea?: number): BreakdownSample {
+  const values: number[] = [];
+  const censored: boolean[] = [];
+  const areas: (number | undefined)[] = [];
+  const labels: string[] = [];
+  const notes: string[] = [];
+  let initial = 0;
+  let invalid = 0;
+  let missing = 0;
+  for (const r of rows) {
+    if (r.outcome === 'initial-failure') {
+      initial++;
+      continue;
+    }
+    if (r.outcome === 'invalid') {
+      invalid++;
+      continue;
+    }
+    const v = r[quantity.key];
+    if (typeof v !== 'number' || !(v > 0)) {
+      missing++;
+      continue;
+    }
+    values.push(v);
+    censored.push(r.outcome === 'survived');
+    areas.push(r.area);
+    labels.push(r.session ? `${r.session}/${r.device}` : r.device);
+  }
+  if (initial) notes.push(`${initial} initial failure(s) (failed at the use condition before the test) left out of the fit; count them as yield loss`);
+  if (invalid) notes.push(`${invalid} invalid test(s) left out`);
+  if (missing) notes.push(`${missing} device(s) without a ${quantity.title} (${quantity.column}) left out`);
+  const a = referenceAreas(areas, referenceArea);
+  notes.push(...a.notes);
+  return { values, censored, areaFactor: a.areaFactor, area: a.area, labels, unit: quantity.unit, title: quantity.title, notes };
+}
+
+/**
+ * The reference area and per-device area factors for devices of these areas: the given reference,
+ * else the one area they share, else their median; devices without an area count as the reference.
+ */
+export function referenceAreas(areas: readonly (number | undefined)[], referenceArea?: number): { area: number | undefined; areaFactor: number[] | undefined; notes: string[] } {
+  const notes: string[] = [];
+  const known = areas.filter((a): a is number => a !== undefined && a > 0);
+  if (known.length === 0) return { area: referenceArea, areaFactor: undefined, notes };
+  const sorted = [...known].sort((a, b) => a - b);
+  const distinct = new Set(known);
+  const area = referenceArea ?? (distinct.size === 1 ? known[0] : sorted[Math.floor((sorted.length - 1) / 2)]);
+  if (distinct.size === 1 && known[0] === area && known.length === areas.length) return { area, areaFactor: undefined, notes };
+  if (known.length < areas.length) notes.push(`${areas.length - known.length} device(s) without an area taken at the reference area`);
+  if (distinct.size > 1) notes.push(`devices of ${distinct.size} areas put on the reference area ${area.toPrecision(4)} m² by Poisson (weakest-link) area scaling`);
+  return { area, areaFactor: areas.map((a) => (a !== undefined && a > 0 ? a / area : 1)), notes };
+}
+
+/** Units the trade quotes on screen for the SI units the files hold. */
+export function displayUnit(unit: string): { unit: string; factor: number } {
+  switch (unit) {
+    case 'V/m':
+      return { unit: 'MV/cm', factor: 1e-8 };
+    case 'C/m^2':
+      return { unit: 'C/cm²', factor: 1e-4 };
+    case 'm^2':
+      return { unit: 'cm²', factor: 1e4 };
+    case 'm':
+      return { unit: 'nm', factor: 1e9 };
+    default:
+      return { unit, factor: 1 };
+  }
+}
+
+export function formatValue(v: number, unit: string, digits = 4): string {
+  const d = displayUnit(unit);
+  const x = v * d.factor;
+  const s = Math.abs(x) >= 1e5 || (Math.abs(x) < 1e-3 && x !== 0) ? x.toExponential(digits - 1).replace(/\.?0+e/, 'e') : String(+x.toPrecision(digits));
+  return d.unit ? `${s} ${d.unit}` : s;
+}
+
