@@ -3,9 +3,11 @@ import { describe, expect, it } from 'vitest';
 import { LineFramer } from '../../protocols/line-framer.js';
 import { parseReading, RejectCounter } from '../../protocols/reading-parser.js';
 import { formatScpiNumber, parseScpiNumber } from '../../protocols/scpi-numbers.js';
+import { ScpiSession } from '../../protocols/scpi-session.js';
+import { duplexPair } from '../../protocols/transport.js';
 
-async function frame(chunks: string[], maxLine = 4096): Promise<{ lines: string[]; overlong: number }> {
-  const f = new LineFramer({ maxLine });
+async function frame(chunks: string[], maxLine = 4096, terminator: 'lf' | 'crlf' | 'cr' = 'lf'): Promise<{ lines: string[]; overlong: number }> {
+  const f = new LineFramer({ maxLine, terminator });
   const lines: string[] = [];
   f.on('data', (l: string) => lines.push(l));
   for (const c of chunks) f.write(c);
@@ -46,6 +48,69 @@ describe('line framing', () => {
   });
   it('rejects a bad maxLine with a TypeError naming the option', () => {
     expect(() => new LineFramer({ maxLine: 0 })).toThrowError(/maxLine/);
+  });
+});
+
+describe('CR-terminated links', () => {
+  it('splits on CR, also when CR and a following LF land in different chunks', async () => {
+    expect((await frame(['1.0E0,2.0E-9\r3.0E0,', '4.0E-9\r'], 4096, 'cr')).lines).toEqual(['1.0E0,2.0E-9', '3.0E0,4.0E-9']);
+    expect((await frame(['a\r', '\nb\r\n', 'c\r'], 4096, 'cr')).lines).toEqual(['a', 'b', 'c']);
+  });
+
+  it('an LF-only reply on a CR link is one overlong line, reported as such', async () => {
+    const r = await frame(['x'.repeat(50) + '\n', 'y'.repeat(50) + '\n'], 64, 'cr');
+    expect(r.lines).toEqual([]);
+    expect(r.overlong).toBe(1);
+  });
+});
+
+describe('SCPI session pacing and the priority path', () => {
+  it('keeps at least commandDelayMs between messages (a slow serial parser)', async () => {
+    const [a, b] = duplexPair();
+    const arrivals: number[] = [];
+    b.on('data', () => arrivals.push(performance.now()));
+    const s = new ScpiSession(a, { commandDelayMs: 25 });
+    for (let k = 0; k < 4; k++) await s.write(`:SOUR:VOLT ${k}`);
+    await new Promise((r) => setTimeout(r, 20));
+    expect(arrivals).toHaveLength(4);
+    for (let k = 1; k < 4; k++) expect(arrivals[k] - arrivals[k - 1]).toBeGreaterThanOrEqual(24);
+    s.close();
+  });
+
+  it('urgent() writes ahead of queued commands and of a pending query; cancelQueued() drops the queue', async () => {
+    const [a, b] = duplexPair();
+    const lines: string[] = [];
+    b.setEncoding('latin1');
+    b.on('data', (d: string) => lines.push(...d.split('\n').filter(Boolean)));
+    const s = new ScpiSession(a, { timeoutMs: 500 });
+    const pending = s.query(':READ?');
+    const queued = s.write(':SOUR:VOLT 5');
+    await new Promise((r) => setImmediate(r));
+    s.cancelQueued('test abort');
+    expect(await s.urgent([':ABOR', ':OUTP OFF'])).toBe(true);
+    b.write('1.0E0,1.0E-9\n');
+    expect(await pending).toBe('1.0E0,1.0E-9');
+    // The queued level command is dropped when its turn comes, never written.
+    await expect(queued).rejects.toThrow(/test abort/);
+    await new Promise((r) => setTimeout(r, 10));
+    expect(lines).toEqual([':READ?', ':ABOR', ':OUTP OFF']);
+    s.close();
+  });
+
+  it('a line with no query waiting is reported as stray; a late reply after a timeout is discarded', async () => {
+    const [a, b] = duplexPair();
+    const s = new ScpiSession(a, { timeoutMs: 30 });
+    const stray: string[] = [];
+    s.onStray = (l) => stray.push(l);
+    b.write('unasked\n');
+    await new Promise((r) => setTimeout(r, 10));
+    expect(stray).toEqual(['unasked']);
+    await expect(s.query(':READ?')).rejects.toThrow(/no reply to ':READ\?' within 30 ms/);
+    b.write('late reply\n');
+    await new Promise((r) => setTimeout(r, 10));
+    expect(stray).toEqual(['unasked']);
+    expect(s.discarded).toBe(1);
+    s.close();
   });
 });
 
