@@ -72,6 +72,12 @@ export const dialectSchema = z.object({
     measure: template,
     /** Compliance query (reply 0 or 1); not needed when the reading carries a status word with `status.complianceMask`. */
     complianceTripped: template.optional(),
+    /** Current sourcing (current ramps): the source function, the forced current ({value}, A) and the voltage compliance ({value}, V). Optional. */
+    sourceCurrentMode: template.optional(),
+    sourceCurrent: valued.optional(),
+    voltageCompliance: valued.optional(),
+    /** Optional: reaching the voltage compliance while forcing current (reply 0 or 1); otherwise the compliance query or status bit is used. */
+    voltageComplianceTripped: template.optional(),
     /** Stops whatever the instrument is doing (trigger model, a running list); sent ahead of output off on an abort. */
     abort: template,
     errorQuery: template,
@@ -94,6 +100,10 @@ export const dialectSchema = z.object({
   if (d.status && !statusField) ctx.addIssue({ code: 'custom', path: ['status'], message: 'a status mask needs a "status" entry in readFields' });
   if (d.paced && !(d.status && statusField)) {
     ctx.addIssue({ code: 'custom', path: ['paced'], message: 'instrument-paced sweeps need readings that carry a status word (readFields "status" and status.complianceMask): compliance cannot be queried per point' });
+  }
+  const cur = [d.commands.sourceCurrentMode, d.commands.sourceCurrent, d.commands.voltageCompliance];
+  if (cur.some((x) => x !== undefined) && cur.some((x) => x === undefined)) {
+    ctx.addIssue({ code: 'custom', path: ['commands', 'sourceCurrentMode'], message: 'current sourcing needs all three of sourceCurrentMode, sourceCurrent and voltageCompliance' });
   }
   if (!d.commands.complianceTripped && !(d.status && statusField)) {
     ctx.addIssue({ code: 'custom', path: ['commands', 'complianceTripped'], message: 'needed unless the reading carries a status word (readFields "status" and status.complianceMask)' });

@@ -88,6 +88,8 @@ export type CautionKind =
   | 'output-unconfirmed'
   /** After a crash: the output may still be on. */
   | 'recovery'
+  /** A breakdown test is starting: it destroys the device on purpose. */
+  | 'destructive-test'
   | 'passive-source';
 
 interface Stamped {
@@ -164,6 +166,25 @@ export type WireEvent =
   | (Stamped & { readonly type: 'output'; readonly on: boolean; readonly sent?: boolean; readonly queried?: boolean; readonly confirmed: boolean; readonly reason: string })
   | (Stamped & { readonly type: 'rejected'; readonly raw: string; readonly reason: string })
   | (Stamped & { readonly type: 'run-end'; readonly outcome: RunOutcome; readonly reason: string; readonly sweeps: number })
+  /**
+   * Fires when a breakdown test ends: the device's result (a row of device-results.csv, SI units:
+   * breakdownVoltage V, breakdownField V/m, chargeToBreakdown C/m², timeToBreakdown s, leakage A),
+   * the criterion that fired and its numbers.
+   */
+  /**
+   * Fires at the end of each adaptive sweep: readings, the largest |bias| applied (V), the charge
+   * passed (C), the target parameter with its standard error, and why the sweep stopped.
+   */
+  | (Stamped & {
+      readonly type: 'adaptive-sweep';
+      readonly sweep: number;
+      readonly readings: number;
+      readonly maxAbsBias: number;
+      readonly charge: number;
+      readonly parameter: { readonly name: string; readonly value: number; readonly stdErr: number; readonly unit: string } | null;
+      readonly stopReason: string;
+    })
+  | (Stamped & { readonly type: 'test-result'; readonly test: string; readonly outcome: string; readonly reason: string; readonly result: Readonly<Record<string, unknown>>; readonly numbers?: Readonly<Record<string, number>> })
   | (Stamped & { readonly type: 'recovery'; readonly tornLines: number; readonly closedSweep: number | null; readonly addedRunEnd: boolean; readonly message: string });
 
 export type EventType = WireEvent['type'];

@@ -51,6 +51,8 @@ export class SmuDriver {
   private outputKnownOn = false;
   private programmed = 0;
   private fenced = false;
+  /** What the source forces: a voltage (the usual) or a current (current ramps). */
+  private mode: 'voltage' | 'current' = 'voltage';
 
   constructor(readonly session: ScpiSession, readonly dialect: Dialect) {}
 
@@ -69,6 +71,39 @@ export class SmuDriver {
     if (settings.nplc !== undefined) await this.session.write(fill(c.integration, settings.nplc));
     await this.session.write(c.autoRange);
     await this.session.checkErrors('configuring the instrument');
+    this.mode = 'voltage';
+  }
+
+  /**
+   * Current sourcing: output off, the source function, the voltage compliance, integration — then
+   * the error queue must be empty. Needs the dialect's current-sourcing commands.
+   */
+  async configureCurrentSource(settings: { voltageLimit: number; nplc?: number }): Promise<void> {
+    const c = this.dialect.commands;
+    if (!c.sourceCurrentMode || !c.sourceCurrent || !c.voltageCompliance) {
+      throw new Error(`dialect '${this.dialect.name}' cannot source current (it has no sourceCurrentMode, sourceCurrent and voltageCompliance commands)`);
+    }
+    if (c.reset) await this.session.write(c.reset);
+    await this.session.write(c.outputOff);
+    if (c.readingFormat) await this.session.write(c.readingFormat);
+    await this.session.write(c.sourceCurrentMode);
+    await this.session.write(fill(c.voltageCompliance, settings.voltageLimit));
+    if (settings.nplc !== undefined) await this.session.write(fill(c.integration, settings.nplc));
+    await this.session.checkErrors('configuring the instrument to source current');
+    this.mode = 'current';
+    this.programmed = 0;
+  }
+
+  /** Forces a current, A (after configureCurrentSource). */
+  async setCurrent(i: number): Promise<void> {
+    this.checkFence('a source current');
+    this.programmed = i;
+    await this.session.write(fill(this.dialect.commands.sourceCurrent as string, i));
+  }
+
+  /** Whether the source forces a current. */
+  get sourcesCurrent(): boolean {
+    return this.mode === 'current';
   }
 
   private checkFence(what: string): void {
@@ -77,8 +112,15 @@ export class SmuDriver {
 
   async setVoltage(v: number): Promise<void> {
     this.checkFence('a source level');
+    if (this.mode === 'current') throw new Error('setVoltage while the source forces current');
     this.programmed = v;
     await this.session.write(fill(this.dialect.commands.sourceVoltage, v));
+  }
+
+  /** The level 0 in whichever quantity the source forces (before output on). */
+  async setZero(): Promise<void> {
+    if (this.mode === 'current') await this.setCurrent(0);
+    else await this.setVoltage(0);
   }
 
   /** The level last programmed, V. */
@@ -165,7 +207,7 @@ export class SmuDriver {
     if (d.status && r.status !== undefined) {
       compliance = Number.isFinite(r.status) && (Math.round(r.status) & d.status.complianceMask) !== 0;
     } else {
-      const q = d.commands.complianceTripped as string;
+      const q = (this.mode === 'current' ? d.commands.voltageComplianceTripped : undefined) ?? (d.commands.complianceTripped as string);
       const tripped = (await this.session.query(q)).trim();
       if (!/^\+?[01]$/.test(tripped)) {
         throw new OutOfStepError(`the reply to '${q}' was '${tripped.slice(0, 120)}', not 0 or 1: replies are out of step with the queries`);
@@ -233,6 +275,15 @@ export class SmuDriver {
 
   /** A measured bias far from the programmed level means the reply belongs to another point. */
   private checkReadback(r: Reading, compliance: boolean, raw: string, set = this.programmed): void {
+    if (this.mode === 'current') {
+      // Forcing current: the measured current must be the forced one (unless the voltage limit held it back).
+      if (compliance || !Number.isFinite(r.i)) return;
+      const tol = 1e-12 + Math.max(0.01, this.dialect.readback.relative) * Math.abs(set);
+      if (Math.abs(r.i - set) > tol) {
+        throw new OutOfStepError(`the reply '${raw.slice(0, 120)}' reports ${r.i} A while ${set} A is forced: the reply belongs to another point — replies are out of step with the commands`);
+      }
+      return;
+    }
     if (!Number.isFinite(r.v)) return;
     const tol = this.dialect.readback.absolute + this.dialect.readback.relative * Math.abs(set);
     // At compliance the source cannot hold the level: the bias falls toward zero, never beyond it.

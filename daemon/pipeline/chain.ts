@@ -96,6 +96,8 @@ export class LiveChain {
   private stopRequested: Decision | undefined;
   sweepsDone = 0;
   readings = 0;
+  /** Whether a sweep has started and not yet ended. */
+  sweepInProgress = false;
 
   constructor(readonly options: ChainOptions) {
     this.analysis = options.analysis;
@@ -130,6 +132,7 @@ export class LiveChain {
     this.breakdown?.reset();
     this.lastFitAt = performance.now();
     this.emit({ type: 'sweep-start', sweep: n, planned, label });
+    this.sweepInProgress = true;
   }
 
   /** One reading. Returns an abort decision when the point shows breakdown. */
@@ -244,6 +247,12 @@ export class LiveChain {
     }
   }
 
+  /** The fit of the sweep so far, without publishing it (adaptive plans decide from it). */
+  fitSoFar(): { fit: FitSummary | null; error?: string } {
+    const r = this.fitNow(this.v, this.i, this.c, false);
+    return { fit: r.fit, ...(r.error ? { error: r.error } : {}) };
+  }
+
   private publishFit(final: boolean): { fit: FitSummary | null } {
     // The regime search is left to the linearized view (computed only while a page watches): the
     // fit events carry the line and parameters, and the chain keeps its pace without a page.
@@ -289,6 +298,7 @@ export class LiveChain {
    * (after this sweep) or abort.
    */
   endSweep(complete: boolean, note?: string): Decision | undefined {
+    this.sweepInProgress = false;
     this.emit({ type: 'sweep-end', sweep: this.sweep, points: this.k, complete, ...(note ? { note } : {}) });
     const { fit } = this.publishFit(true);
     if (complete) this.publishRanking();

@@ -77,20 +77,65 @@ export function checkCompliance(limits: Limits, compliance: number): void {
   }
 }
 
+/** A forced current: |I| ≤ maxCompliance and |I| × voltage limit ≤ maxPower. */
+export function checkCurrentLevel(limits: Limits, i: number, voltageLimit: number, where = 'current'): void {
+  if (!Number.isFinite(i)) throw new GuardError(`${where} ${i} is not a number`, 'current', { current: i });
+  if (Math.abs(i) > limits.maxCompliance) {
+    throw new GuardError(`${where} = ${show(i)} A exceeds the station limit maxCompliance = ${show(limits.maxCompliance)} A (the most current the station may drive)`, 'maxCompliance', { current: i, maxCompliance: limits.maxCompliance });
+  }
+  if (Math.abs(i) * voltageLimit > limits.maxPower) {
+    throw new GuardError(`${where} = ${show(i)} A at the ${show(voltageLimit)} V voltage limit could deliver ${show(Math.abs(i) * voltageLimit)} W, above the station limit maxPower = ${show(limits.maxPower)} W`, 'maxPower', { current: i, voltageLimit, maxPower: limits.maxPower });
+  }
+}
+
+/** The current compliance of a use-condition check (a current ramp has none of its own). */
+export function useCheckCompliance(limits: Limits, plan: Plan): number {
+  return plan.kind === 'current-ramp' ? Math.min(limits.maxCompliance, Math.abs(plan.stop)) : (plan as { compliance: number }).compliance;
+}
+
 /**
  * Checks a whole plan before anything is sent; throws the first violation, naming the plan field
  * that holds the offending level as the user wrote it and the station limit it breaks.
  */
 export function checkPlan(limits: Limits, plan: Plan): void {
-  checkCompliance(limits, plan.compliance);
-  if (plan.kind === 'list') {
-    (plan.values ?? []).forEach((v, k) => checkLevel(limits, v, plan.compliance, `plan values[${k}]`));
-    return;
+  if ((plan.kind === 'voltage-ramp' || plan.kind === 'current-ramp' || plan.kind === 'constant-voltage') && plan.useVoltage !== undefined) {
+    const c = useCheckCompliance(limits, plan);
+    checkCompliance(limits, c);
+    checkLevel(limits, plan.useVoltage, c, 'plan useVoltage');
   }
-  // Linear and log staircases never go beyond their ends.
-  checkLevel(limits, plan.start ?? 0, plan.compliance, 'plan start');
-  checkLevel(limits, plan.stop ?? 0, plan.compliance, 'plan stop');
-  for (const v of sweepValues(plan)) checkLevel(limits, v, plan.compliance);
+  switch (plan.kind) {
+    case 'current-ramp':
+      if (plan.voltageLimit > limits.maxVoltage) {
+        throw new GuardError(`plan voltageLimit = ${show(plan.voltageLimit)} V exceeds the station limit maxVoltage = ${show(limits.maxVoltage)} V`, 'maxVoltage', { voltageLimit: plan.voltageLimit, maxVoltage: limits.maxVoltage });
+      }
+      checkCurrentLevel(limits, plan.start, plan.voltageLimit, 'plan start');
+      checkCurrentLevel(limits, plan.stop, plan.voltageLimit, 'plan stop');
+      return;
+    case 'constant-voltage':
+      checkCompliance(limits, plan.compliance);
+      checkLevel(limits, plan.stress, plan.compliance, 'plan stress');
+      if (plan.sense) {
+        checkLevel(limits, plan.sense.start, plan.compliance, 'plan sense.start');
+        checkLevel(limits, plan.sense.stop, plan.compliance, 'plan sense.stop');
+      }
+      return;
+    case 'adaptive':
+    case 'voltage-ramp':
+      checkCompliance(limits, plan.compliance);
+      checkLevel(limits, plan.start, plan.compliance, 'plan start');
+      checkLevel(limits, plan.stop, plan.compliance, 'plan stop');
+      return;
+    case 'list':
+      checkCompliance(limits, plan.compliance);
+      (plan.values ?? []).forEach((v, k) => checkLevel(limits, v, plan.compliance, `plan values[${k}]`));
+      return;
+    default:
+      checkCompliance(limits, plan.compliance);
+      // Linear and log staircases never go beyond their ends.
+      checkLevel(limits, plan.start ?? 0, plan.compliance, 'plan start');
+      checkLevel(limits, plan.stop ?? 0, plan.compliance, 'plan stop');
+      for (const v of sweepValues(plan)) checkLevel(limits, v, plan.compliance);
+  }
 }
 
 const sleep = (s: number) => (s > 0 ? new Promise((r) => setTimeout(r, s * 1000)) : Promise.resolve());
@@ -98,6 +143,7 @@ const sleep = (s: number) => (s > 0 ? new Promise((r) => setTimeout(r, s * 1000)
 /** The only path from a run to the driver. */
 export class GuardedSource {
   private compliance: number | undefined;
+  private voltageLimit: number | undefined;
   private level = 0;
   private on = false;
   private inhibited = false;
@@ -123,6 +169,7 @@ export class GuardedSource {
       }
     }
     await this.driver.configure({ compliance, nplc });
+    this.voltageLimit = undefined;
     this.compliance = compliance;
     this.on = false;
     this.level = 0;
@@ -144,11 +191,38 @@ export class GuardedSource {
     if (this.inhibited) throw new GuardError(`${what} refused: the run was aborted`, 'abort', {});
   }
 
-  /** Output on at 0 V (compliance must have been set); the instrument must confirm it. */
+  /**
+   * Current sourcing (a current ramp): the voltage compliance must be within maxVoltage; then each
+   * forced current within maxCompliance and |I| × voltage limit within maxPower.
+   */
+  async configureCurrent(voltageLimit: number, nplc?: number): Promise<void> {
+    if (!(voltageLimit > 0) || voltageLimit > this.limits.maxVoltage) {
+      throw new GuardError(`voltage limit = ${show(voltageLimit)} V exceeds the station limit maxVoltage = ${show(this.limits.maxVoltage)} V`, 'maxVoltage', { voltageLimit, maxVoltage: this.limits.maxVoltage });
+    }
+    if (this.on) throw new GuardError('changing to current sourcing with the output on is refused', 'mode', {});
+    await this.driver.configureCurrentSource({ voltageLimit, nplc });
+    this.voltageLimit = voltageLimit;
+    // Stands in for the current compliance: output on and the checks below need it set.
+    this.compliance = this.limits.maxCompliance;
+    this.on = false;
+    this.level = 0;
+  }
+
+  /** One forced current, A (current sourcing only). */
+  async stepCurrent(i: number): Promise<void> {
+    if (this.voltageLimit === undefined) throw new GuardError('no voltage limit set for current sourcing', 'voltageLimit', {});
+    this.refuseIfInhibited('a source current');
+    checkCurrentLevel(this.limits, i, this.voltageLimit);
+    await this.driver.setCurrent(i);
+    this.passed.push(i);
+    this.level = i;
+  }
+
+  /** Output on at 0 (V or A; compliance must have been set); the instrument must confirm it. */
   async outputOn(): Promise<void> {
     if (this.compliance === undefined) throw new GuardError('output on refused: no compliance has been set', 'compliance', {});
     this.refuseIfInhibited('output on');
-    await this.driver.setVoltage(0);
+    await this.driver.setZero();
     this.level = 0;
     this.refuseIfInhibited('output on');
     this.on = true;
@@ -175,6 +249,14 @@ export class GuardedSource {
       await this.step(from + ((v - from) * k) / n);
       if (k < n) await sleep(this.limits.rampDelay);
     }
+  }
+
+  /** Back to zero at the end of a run: a ramp to 0 V, or 0 A when forcing current. */
+  async toZero(): Promise<void> {
+    // With the output already off (a breakdown test turns it off at once) there is nothing to ramp.
+    if (!this.on) return;
+    if (this.driver.sourcesCurrent) await this.stepCurrent(0);
+    else await this.rampTo(0);
   }
 
   measure(): Promise<Measurement> {

@@ -1,12 +1,18 @@
 /**
- * Sweep plans: linear and logarithmic staircases, list sweeps, single or dual (out and back),
- * repeated with a dwell between sweeps, with per-point settling delay, integration time and the
- * compliance for the run. Validated with zod so a bad plan names its field.
+ * Plans: what a run does with the instrument. Validated with zod so a bad plan names its field.
+ *  - sweeps (`linear`, `log`, `list`): staircases or lists of levels, single or dual (out and
+ *    back), repeated with a dwell between sweeps, with per-point settling delay, integration time
+ *    and the compliance for the run;
+ *  - `adaptive` sweeps: the next level is chosen from what has been measured, and a sweep stops as
+ *    soon as a fitted parameter is known to a target standard error;
+ *  - breakdown tests of thin dielectrics after the wafer-level procedures of JEDEC JESD35-A: a
+ *    voltage ramp (`voltage-ramp`), a current ramp (`current-ramp`) and constant-voltage stress
+ *    with periodic sense sweeps (`constant-voltage`).
  */
 import { statfsSync } from 'node:fs';
 import { z } from 'zod';
 
-export const planSchema = z.object({
+export const sweepPlanSchema = z.object({
   kind: z.enum(['linear', 'log', 'list']).default('linear'),
   /** Start and stop bias, V (linear and log). */
   start: z.number().finite().optional(),
@@ -50,15 +56,162 @@ export const planSchema = z.object({
   }
 });
 
-export type Plan = z.infer<typeof planSchema>;
+export type SweepPlan = z.infer<typeof sweepPlanSchema>;
 
 export class PlanError extends Error {
   readonly code = 'BAD_PLAN';
 }
 
+/** A check at the use condition before and after a breakdown test (JEDEC JESD35-A's pre- and post-test). */
+const useCheck = {
+  /** Bias of the use condition, V (the device's operating voltage); no check when absent. */
+  useVoltage: z.number().finite().optional(),
+  /** At the use voltage, a current above this means a device already broken (before) or broken by the test (after), A. */
+  useCurrentLimit: z.number().positive().finite().default(1e-6),
+};
+
+const rampCriteria = z.object({
+  /** |I| rising by this factor or more from one step to the next is a current jump (hard breakdown). */
+  currentJump: z.number().min(1.5).default(10),
+  /** The local slope of ln|I| against V rising to this multiple of its recent median (a soft breakdown); 0 turns it off. */
+  slopeFactor: z.number().min(0).default(3),
+  /** Steps in that recent median. */
+  slopeWindow: z.number().int().min(2).max(100).default(5),
+  /** |I| at or above this is breakdown, A (default: the compliance). */
+  currentLimit: z.number().positive().finite().optional(),
+  /** Below this current the ratio and slope tests are not applied (the noise floor), A. */
+  floor: z.number().positive().finite().default(1e-10),
+}).strict();
+
+export const adaptivePlanSchema = z.object({
+  kind: z.literal('adaptive'),
+  /** First and last bias of the range the sweep may cover, V. */
+  start: z.number().finite().default(0),
+  stop: z.number().finite(),
+  /** The most readings a sweep may take. */
+  maxPoints: z.number().int().min(8).max(100000),
+  compliance: z.number().positive().finite(),
+  /** The sweep stops when the current reaches this, A (default: half the compliance). */
+  currentLimit: z.number().positive().finite().optional(),
+  /** Stop each sweep when this fitted parameter's total standard error (statistical and window) reaches stdErr (in the parameter's unit). */
+  target: z.object({ parameter: z.string().min(1), stdErr: z.number().positive().finite() }).strict(),
+  repeat: z.number().int().min(1).max(1000000).default(1),
+  dwell: z.number().min(0).max(86400).default(0),
+  delay: z.number().min(0).max(3600).default(0),
+  nplc: z.number().min(0.001).max(100).optional(),
+  overrideDiskCheck: z.boolean().default(false),
+}).strict().superRefine((p, ctx) => {
+  if (p.start === p.stop) ctx.addIssue({ code: 'custom', path: ['stop'], message: 'must differ from start' });
+});
+
+export const voltageRampPlanSchema = z.object({
+  kind: z.literal('voltage-ramp'),
+  /** First level of the ramp, V. */
+  start: z.number().finite().default(0),
+  /** The most the ramp goes to, V (the test ends as "survived" there). */
+  stop: z.number().finite(),
+  /** Voltage step, V (its sign follows stop − start). */
+  step: z.number().positive().finite(),
+  /** Time at each step, s (the ramp rate is step / stepTime). */
+  stepTime: z.number().min(0.001).max(3600),
+  /** The instrument's current compliance, A. */
+  compliance: z.number().positive().finite(),
+  nplc: z.number().min(0.001).max(100).optional(),
+  ...useCheck,
+  criteria: rampCriteria.default(rampCriteria.parse({})),
+  overrideDiskCheck: z.boolean().default(false),
+}).strict().superRefine((p, ctx) => {
+  if (p.start === p.stop) ctx.addIssue({ code: 'custom', path: ['stop'], message: 'must differ from start' });
+  if (Math.abs(p.stop - p.start) / p.step > 1e6) ctx.addIssue({ code: 'custom', path: ['step'], message: 'makes more than a million steps' });
+});
+
+export const currentRampPlanSchema = z.object({
+  kind: z.literal('current-ramp'),
+  /** First forced current, A (its sign gives the polarity). */
+  start: z.number().finite().refine((x) => x !== 0, 'must not be zero'),
+  /** The most the ramp forces, A. */
+  stop: z.number().finite(),
+  /** Logarithmic steps per decade of current. */
+  stepsPerDecade: z.number().int().min(1).max(1000).default(10),
+  /** Time at each step, s. */
+  stepTime: z.number().min(0.001).max(3600),
+  /** The instrument's voltage compliance while forcing current, V. */
+  voltageLimit: z.number().positive().finite(),
+  nplc: z.number().min(0.001).max(100).optional(),
+  ...useCheck,
+  criteria: z.object({
+    /** The voltage falling by this fraction of its highest value so far is a collapse (breakdown). */
+    voltageDrop: z.number().min(0.01).max(0.99).default(0.1),
+  }).strict().default({ voltageDrop: 0.1 }),
+  overrideDiskCheck: z.boolean().default(false),
+}).strict().superRefine((p, ctx) => {
+  if (!(p.start * p.stop > 0) || Math.abs(p.stop) <= Math.abs(p.start)) ctx.addIssue({ code: 'custom', path: ['stop'], message: 'must have the sign of start and a larger magnitude' });
+});
+
+export const constantStressPlanSchema = z.object({
+  kind: z.literal('constant-voltage'),
+  /** Stress bias, V. */
+  stress: z.number().finite().refine((x) => x !== 0, 'must not be zero'),
+  /** Longest stress, s (the device then "survived"). */
+  duration: z.number().positive().max(30 * 86400),
+  /** Time between current readings under stress, s. */
+  sampleEvery: z.number().min(0.001).max(3600),
+  compliance: z.number().positive().finite(),
+  nplc: z.number().min(0.001).max(100).optional(),
+  /** A short low-field sweep every `every` s of stress, to watch the leakage grow (stress-induced leakage). */
+  sense: z.object({
+    start: z.number().finite(),
+    stop: z.number().finite(),
+    points: z.number().int().min(2).max(10000),
+    every: z.number().positive(),
+  }).strict().optional(),
+  ...useCheck,
+  criteria: z.object({
+    currentJump: z.number().min(1.5).default(10),
+    currentLimit: z.number().positive().finite().optional(),
+    floor: z.number().positive().finite().default(1e-10),
+  }).strict().default({ currentJump: 10, floor: 1e-10 }),
+  overrideDiskCheck: z.boolean().default(false),
+}).strict();
+
+export type AdaptivePlan = z.infer<typeof adaptivePlanSchema>;
+export type VoltageRampPlan = z.infer<typeof voltageRampPlanSchema>;
+export type CurrentRampPlan = z.infer<typeof currentRampPlanSchema>;
+export type ConstantStressPlan = z.infer<typeof constantStressPlanSchema>;
+export type StressPlan = VoltageRampPlan | CurrentRampPlan | ConstantStressPlan;
+export type Plan = SweepPlan | AdaptivePlan | StressPlan;
+
+export const PLAN_KINDS = ['linear', 'log', 'list', 'adaptive', 'voltage-ramp', 'current-ramp', 'constant-voltage'] as const;
+
+/** Any plan object (zod), for configs and request bodies; `parsePlan` gives the error that names the field. */
+export const planSchema = z.unknown().superRefine((raw, ctx) => {
+  try {
+    parsePlan(raw);
+  } catch (e) {
+    ctx.addIssue({ code: 'custom', message: (e as Error).message.replace(/^plan: /, '') });
+  }
+}).transform((raw) => parsePlan(raw));
+
+export function isStressPlan(p: Plan): p is StressPlan {
+  return p.kind === 'voltage-ramp' || p.kind === 'current-ramp' || p.kind === 'constant-voltage';
+}
+
+export function isSweepPlan(p: Plan): p is SweepPlan {
+  return p.kind === 'linear' || p.kind === 'log' || p.kind === 'list';
+}
+
 /** Validates an unknown value as a plan; errors name the field (`where` is the file or 'plan'). */
 export function parsePlan(raw: unknown, where = 'plan'): Plan {
-  const r = planSchema.safeParse(raw);
+  const kind = typeof raw === 'object' && raw !== null && !Array.isArray(raw) ? (raw as { kind?: unknown }).kind : undefined;
+  if (kind !== undefined && !(PLAN_KINDS as readonly unknown[]).includes(kind)) {
+    throw new PlanError(`${where}: field 'kind': '${String(kind)}' is not a plan kind (${PLAN_KINDS.join(', ')})`);
+  }
+  const schema = kind === 'adaptive' ? adaptivePlanSchema
+    : kind === 'voltage-ramp' ? voltageRampPlanSchema
+    : kind === 'current-ramp' ? currentRampPlanSchema
+    : kind === 'constant-voltage' ? constantStressPlanSchema
+    : sweepPlanSchema;
+  const r = (schema as z.ZodType<Plan>).safeParse(raw);
   if (!r.success) {
     const i = r.error.issues[0];
     throw new PlanError(`${where}: field '${i.path.join('.') || '(root)'}': ${i.message}`);
@@ -66,8 +219,29 @@ export function parsePlan(raw: unknown, where = 'plan'): Plan {
   return r.data;
 }
 
+/** How many sweeps (or test phases) a plan runs, and the most points one of them holds (for progress and the journal estimate). */
+export function planShape(p: Plan): { sweeps: number; pointsPerSweep: number } {
+  switch (p.kind) {
+    case 'adaptive':
+      return { sweeps: p.repeat, pointsPerSweep: p.maxPoints };
+    case 'voltage-ramp':
+      return { sweeps: 1, pointsPerSweep: Math.floor(Math.abs(p.stop - p.start) / p.step) + 1 };
+    case 'current-ramp':
+      return { sweeps: 1, pointsPerSweep: Math.ceil(Math.log10(Math.abs(p.stop / p.start)) * p.stepsPerDecade) + 1 };
+    case 'constant-voltage':
+      return { sweeps: 1 + (p.sense ? Math.floor(p.duration / p.sense.every) + 1 : 0), pointsPerSweep: Math.ceil(p.duration / p.sampleEvery) + 1 };
+    default:
+      return { sweeps: p.repeat, pointsPerSweep: sweepValues(p).length };
+  }
+}
+
+/** The current compliance a plan runs under, A (a current ramp has a voltage limit instead: undefined). */
+export function planCompliance(p: Plan): number | undefined {
+  return p.kind === 'current-ramp' ? undefined : p.compliance;
+}
+
 /** The bias values of one sweep, V. */
-export function sweepValues(p: Plan): number[] {
+export function sweepValues(p: SweepPlan): number[] {
   let out: number[];
   if (p.kind === 'list') out = [...(p.values ?? [])];
   else {
@@ -90,9 +264,21 @@ export function sweepValues(p: Plan): number[] {
 }
 
 export function describePlan(p: Plan): string {
-  const v = sweepValues(p);
-  const shape = p.kind === 'list' ? `list of ${p.values?.length} values` : `${p.kind} ${p.start} V → ${p.stop} V, ${p.points} points`;
-  return `${shape}${p.dual ? ', out and back' : ''}; ${v.length} points per sweep × ${p.repeat} sweep(s); compliance ${p.compliance} A${p.delay ? `; settle ${p.delay} s` : ''}${p.dwell ? `; dwell ${p.dwell} s` : ''}`;
+  switch (p.kind) {
+    case 'adaptive':
+      return `adaptive ${p.start} V → ${p.stop} V, at most ${p.maxPoints} points per sweep, until ${p.target.parameter} is known to ±${p.target.stdErr} × ${p.repeat} sweep(s); compliance ${p.compliance} A`;
+    case 'voltage-ramp':
+      return `voltage ramp ${p.start} V → ${p.stop} V in ${p.step} V steps of ${p.stepTime} s (${(p.step / p.stepTime).toPrecision(3)} V/s) to breakdown; compliance ${p.compliance} A${p.useVoltage !== undefined ? `; use-condition check at ${p.useVoltage} V before and after` : ''}`;
+    case 'current-ramp':
+      return `current ramp ${p.start} A → ${p.stop} A, ${p.stepsPerDecade} steps per decade of ${p.stepTime} s, to breakdown; voltage limit ${p.voltageLimit} V${p.useVoltage !== undefined ? `; use-condition check at ${p.useVoltage} V before and after` : ''}`;
+    case 'constant-voltage':
+      return `constant-voltage stress at ${p.stress} V for up to ${p.duration} s, a reading every ${p.sampleEvery} s${p.sense ? `, a sense sweep ${p.sense.start} V → ${p.sense.stop} V every ${p.sense.every} s` : ''}; compliance ${p.compliance} A`;
+    default: {
+      const v = sweepValues(p);
+      const shape = p.kind === 'list' ? `list of ${p.values?.length} values` : `${p.kind} ${p.start} V → ${p.stop} V, ${p.points} points`;
+      return `${shape}${p.dual ? ', out and back' : ''}; ${v.length} points per sweep × ${p.repeat} sweep(s); compliance ${p.compliance} A${p.delay ? `; settle ${p.delay} s` : ''}${p.dwell ? `; dwell ${p.dwell} s` : ''}`;
+    }
+  }
 }
 
 /** Journal bytes per reading (one binary record) and per sweep (its events: boundaries, fits, drift). */
@@ -101,7 +287,8 @@ const BYTES_PER_SWEEP = 8192;
 
 /** The journal a plan will write, bytes (an estimate on the high side). */
 export function planJournalBytes(p: Plan): number {
-  return p.repeat * (sweepValues(p).length * BYTES_PER_READING + BYTES_PER_SWEEP);
+  const { sweeps, pointsPerSweep } = planShape(p);
+  return sweeps * (pointsPerSweep * BYTES_PER_READING + BYTES_PER_SWEEP);
 }
 
 /**
@@ -124,7 +311,8 @@ export function checkPlanSize(p: Plan, dataDir: string): void {
     }
   }
   if (free === undefined || need <= free) return;
-  const perSweep = sweepValues(p).length;
+  const { sweeps, pointsPerSweep } = planShape(p);
   const gib = (b: number) => (b >= 1e9 ? `${(b / 1e9).toPrecision(3)} GB` : `${(b / 1e6).toPrecision(3)} MB`);
-  throw new PlanError(`plan: field 'repeat': ${p.repeat} sweep(s) × ${perSweep} points would write about ${gib(need)} of journal, more than the ${gib(free)} free under ${dataDir}; shorten the plan, free space, or set "overrideDiskCheck": true`);
+  const field = p.kind === 'constant-voltage' ? 'duration' : p.kind === 'voltage-ramp' ? 'step' : p.kind === 'current-ramp' ? 'stepsPerDecade' : 'repeat';
+  throw new PlanError(`plan: field '${field}': ${sweeps} sweep(s) × ${pointsPerSweep} points would write about ${gib(need)} of journal, more than the ${gib(free)} free under ${dataDir}; shorten the plan, free space, or set "overrideDiskCheck": true`);
 }

@@ -14,7 +14,10 @@ import { FencedError, type Measurement } from '../instrument/smu-driver.js';
 import { JournalWriteError } from '../journal/journal.js';
 import type { Decision, LiveChain } from '../pipeline/chain.js';
 import { GuardError, type GuardedSource } from './guard.js';
-import { sweepValues, type Plan } from './plan.js';
+import type { DeviceIdentity, DeviceResult } from '../../protocols/device-results.js';
+import { runAdaptive, type AdaptiveSweepFigures } from './adaptive.js';
+import { isStressPlan, sweepValues, type AdaptivePlan, type Plan, type StressPlan, type SweepPlan } from './plan.js';
+import { StressTest, writeDeviceResults, type RunContext } from './stress.js';
 
 export interface RunResult {
   readonly outcome: RunOutcome;
@@ -26,6 +29,21 @@ export interface RunResult {
   readonly rejected: Readonly<Record<string, number>>;
   /** Whether the instrument itself confirmed its output off at the end. */
   readonly outputOffConfirmed: boolean;
+  /** A breakdown test's result (the row written to device-results.csv). */
+  readonly result?: DeviceResult;
+  /** An adaptive run's figures, for the run and per sweep. */
+  readonly adaptive?: ReturnType<typeof adaptiveTotals>;
+}
+
+/** Run totals of adaptive sweeps: readings, largest |bias| (V), charge (C), the last parameter, and every sweep. */
+export function adaptiveTotals(sweeps: readonly AdaptiveSweepFigures[]) {
+  return {
+    readings: sweeps.reduce((a, f) => a + f.readings, 0),
+    maxAbsBias: sweeps.reduce((a, f) => Math.max(a, f.maxAbsBias), 0),
+    charge: sweeps.reduce((a, f) => a + f.charge, 0),
+    parameter: sweeps.at(-1)?.parameter ?? null,
+    sweeps: [...sweeps],
+  };
 }
 
 /** Exit codes of `plumbline run` by outcome. */
@@ -55,7 +73,7 @@ export class RunController {
   /** The first journal failure (the run goes on to turn the output off without it). */
   private journalError: Error | undefined;
 
-  constructor(readonly source: GuardedSource, readonly chain: LiveChain, readonly plan: Plan) {
+  constructor(readonly source: GuardedSource, readonly chain: LiveChain, readonly plan: Plan, readonly device?: DeviceIdentity, readonly sessionId = 'session') {
     // A line nobody asked for means every later reply would land on the wrong query.
     source.driver.session.onStray = (line) => {
       if (this.finished || this.aborting) return;
@@ -120,81 +138,23 @@ export class RunController {
 
   async execute(): Promise<RunResult> {
     const plan = this.plan;
-    const values = sweepValues(plan);
     let outcome: RunOutcome = 'completed';
-    let reason = `all ${plan.repeat} sweep(s) done`;
-    let sweepOpen = false;
+    let reason = '';
     let offSent: boolean | undefined;
     try {
-      await this.source.configure(plan.compliance, plan.nplc);
-      this.check();
-      await this.source.outputOn();
-      this.check();
-      this.chain.emit({ type: 'output', on: true, sent: true, queried: true, confirmed: true, reason: 'run started (the instrument reports its output on)' });
-      this.chain.emit({ type: 'caution', kind: 'output-on', message: 'Output on. The device terminals are live: keep hands off the probes and the fixture, and follow your lab\'s safety rules.' });
-      for (let s = 1; s <= plan.repeat; s++) {
-        this.check();
-        if (Math.abs(values[0] - this.source.present) > 1e-12) await this.source.rampTo(values[0]);
-        this.chain.startSweep(s, values.length, `sweep ${s} of ${plan.repeat}`);
-        sweepOpen = true;
-        let decision: Decision | undefined;
-        if (plan.pacing === 'instrument') {
-          // The instrument steps through each block itself; the readings are judged when the block
-          // is fetched, and an abort decision turns the output off before the next block.
-          const size = Math.min(plan.blockPoints ?? values.length, this.source.driver.dialect.paced?.maxPoints ?? values.length);
-          const perPointMs = plan.delay * 1000 + ((plan.nplc ?? 1) / 50) * 1000 + 2;
-          blocks: for (let b = 0; b < values.length; b += size) {
-            this.check();
-            const levels = values.slice(b, b + size);
-            const ms = await this.source.block(levels, plan.delay, levels.length * perPointMs);
-            this.check();
-            for (let k = 0; k < ms.length; k++) {
-              decision = this.take(ms[k], levels[k]);
-              if (decision?.action === 'abort') {
-                this.abort(decision.reason, decision.outcome);
-                break blocks;
-              }
-            }
-          }
-        } else {
-          for (const v of values) {
-            this.check();
-            await this.source.step(v);
-            if (plan.delay > 0) await this.sleep(plan.delay);
-            this.check();
-            const m = await this.source.measure();
-            this.check();
-            decision = this.take(m, v);
-            if (decision?.action === 'abort') {
-              this.abort(decision.reason, decision.outcome);
-              break;
-            }
-          }
-        }
-        if (this.aborting) {
-          sweepOpen = false;
-          this.chain.endSweep(false, `aborted: ${this.abortReason}`);
-          throw new AbortSignalled(this.abortReason);
-        }
-        sweepOpen = false;
-        decision = this.chain.endSweep(true);
-        if (decision?.action === 'abort') {
-          this.abort(decision.reason, decision.outcome);
-          throw new AbortSignalled(decision.reason);
-        }
-        if (decision?.action === 'stop-after-sweep') {
-          outcome = decision.outcome;
-          reason = decision.reason;
-          break;
-        }
-        if (s < plan.repeat && plan.dwell > 0) {
-          await this.source.rampTo(0);
-          await this.sleep(plan.dwell);
-        }
+      let ended: { outcome: RunOutcome; reason: string };
+      if (isStressPlan(plan)) ended = await this.stressBody(plan);
+      else if (plan.kind === 'adaptive') ended = await this.adaptiveBody(plan);
+      else ended = await this.sweepBody(plan);
+      ({ outcome, reason } = ended);
+      if (this.source.isOn) {
+        await this.source.toZero();
+        offSent = await this.source.outputOff();
+        this.chain.emit({ type: 'output', on: false, sent: offSent, confirmed: false, reason: 'run ended' });
+      } else {
+        // The body turned the output off itself (a breakdown test does, at once) and recorded it.
+        offSent = true;
       }
-      await this.source.rampTo(0);
-      offSent = await this.source.outputOff();
-      this.chain.emit({ type: 'output', on: false, sent: offSent, confirmed: false, reason: 'run ended' });
       if (this.usable === 0) {
         const total = Object.values(this.rejectedBy).reduce((a, b) => a + b, 0) + this.chain.readings;
         outcome = 'instrument-fault';
@@ -209,10 +169,10 @@ export class RunController {
       if (e instanceof AbortSignalled || this.aborting) {
         outcome = this.abortOutcome;
         reason = this.abortReason ?? (e as Error).message;
-        if (sweepOpen) this.safely(() => this.chain.endSweep(false, `aborted: ${reason}`));
+        if (this.sweepOpen) this.safely(() => this.chain.endSweep(false, `aborted: ${reason}`));
       } else {
         ({ outcome, reason } = this.classify(e as Error));
-        if (sweepOpen) this.safely(() => this.chain.endSweep(false, `ended by: ${reason}`));
+        if (this.sweepOpen) this.safely(() => this.chain.endSweep(false, `ended by: ${reason}`));
         this.record({
           type: 'caution',
           kind: outcome === 'journal-fault' ? 'journal-fault' : 'instrument-fault',
@@ -231,9 +191,159 @@ export class RunController {
       outcome = 'journal-fault';
       reason = `${this.journalError.message} (the run was ${reason})`;
     }
+    if (isStressPlan(plan)) this.writeResults(outcome, reason);
     this.finished = true;
     this.safely(() => this.chain.end(outcome, reason));
-    return { outcome, reason, sweeps: this.chain.sweepsDone, usable: this.usable, rejected: { ...this.rejectedBy }, outputOffConfirmed: check.confirmed };
+    return {
+      outcome,
+      reason,
+      sweeps: this.chain.sweepsDone,
+      usable: this.usable,
+      rejected: { ...this.rejectedBy },
+      outputOffConfirmed: check.confirmed,
+      ...(this.testResult ? { result: this.testResult } : {}),
+      ...(plan.kind === 'adaptive' ? { adaptive: adaptiveTotals(this.adaptive) } : {}),
+    };
+  }
+
+  /** Whether a sweep is open in the chain (an abort closes it as incomplete). */
+  private get sweepOpen(): boolean {
+    return this.chain.sweepInProgress;
+  }
+
+  /** Configure, output on (the instrument must confirm it), and say the terminals are live. */
+  private async powerUp(compliance: number, nplc: number | undefined): Promise<void> {
+    await this.source.configure(compliance, nplc);
+    this.check();
+    await this.source.outputOn();
+    this.check();
+    this.chain.emit({ type: 'output', on: true, sent: true, queried: true, confirmed: true, reason: 'run started (the instrument reports its output on)' });
+    this.chain.emit({ type: 'caution', kind: 'output-on', message: 'Output on. The device terminals are live: keep hands off the probes and the fixture, and follow your lab\'s safety rules.' });
+  }
+
+  private async sweepBody(plan: SweepPlan): Promise<{ outcome: RunOutcome; reason: string }> {
+    const values = sweepValues(plan);
+    await this.powerUp(plan.compliance, plan.nplc);
+    for (let s = 1; s <= plan.repeat; s++) {
+      this.check();
+      if (Math.abs(values[0] - this.source.present) > 1e-12) await this.source.rampTo(values[0]);
+      this.chain.startSweep(s, values.length, `sweep ${s} of ${plan.repeat}`);
+      let decision: Decision | undefined;
+      if (plan.pacing === 'instrument') {
+        // The instrument steps through each block itself; the readings are judged when the block
+        // is fetched, and an abort decision turns the output off before the next block.
+        const size = Math.min(plan.blockPoints ?? values.length, this.source.driver.dialect.paced?.maxPoints ?? values.length);
+        const perPointMs = plan.delay * 1000 + ((plan.nplc ?? 1) / 50) * 1000 + 2;
+        blocks: for (let b = 0; b < values.length; b += size) {
+          this.check();
+          const levels = values.slice(b, b + size);
+          const ms = await this.source.block(levels, plan.delay, levels.length * perPointMs);
+          this.check();
+          for (let k = 0; k < ms.length; k++) {
+            decision = this.take(ms[k], levels[k]);
+            if (decision?.action === 'abort') {
+              this.abort(decision.reason, decision.outcome);
+              break blocks;
+            }
+          }
+        }
+      } else {
+        for (const v of values) {
+          this.check();
+          await this.source.step(v);
+          if (plan.delay > 0) await this.sleep(plan.delay);
+          this.check();
+          const m = await this.source.measure();
+          this.check();
+          decision = this.take(m, v);
+          if (decision?.action === 'abort') {
+            this.abort(decision.reason, decision.outcome);
+            break;
+          }
+        }
+      }
+      if (this.aborting) {
+        this.chain.endSweep(false, `aborted: ${this.abortReason}`);
+        throw new AbortSignalled(this.abortReason);
+      }
+      decision = this.chain.endSweep(true);
+      if (decision?.action === 'abort') {
+        this.abort(decision.reason, decision.outcome);
+        throw new AbortSignalled(decision.reason);
+      }
+      if (decision?.action === 'stop-after-sweep') return { outcome: decision.outcome, reason: decision.reason };
+      if (s < plan.repeat && plan.dwell > 0) {
+        await this.source.rampTo(0);
+        await this.sleep(plan.dwell);
+      }
+    }
+    return { outcome: 'completed', reason: `all ${plan.repeat} sweep(s) done` };
+  }
+
+  private testResult: DeviceResult | undefined;
+
+  private async stressBody(plan: StressPlan): Promise<{ outcome: RunOutcome; reason: string }> {
+    const test = new StressTest(this.context(), plan, this.device ?? {}, this.sessionId);
+    const r = await test.run();
+    this.testResult = r.result;
+    // Breakdown is what the test is for: the run itself completed; the result says what happened.
+    return { outcome: 'completed', reason: r.reason };
+  }
+
+  /** Each adaptive sweep's figures (readings, largest bias, charge, parameter, why it stopped). */
+  readonly adaptive: AdaptiveSweepFigures[] = [];
+
+  private async adaptiveBody(plan: AdaptivePlan): Promise<{ outcome: RunOutcome; reason: string }> {
+    await this.powerUp(plan.compliance, plan.nplc);
+    return runAdaptive(this.context(), plan, this.adaptive);
+  }
+
+  /** What the test and adaptive bodies see of this run. */
+  private context(): RunContext {
+    return {
+      source: this.source,
+      chain: this.chain,
+      check: () => this.check(),
+      sleep: (s) => this.sleep(s),
+      take: (m, programmed) => {
+        const d = this.take(m, programmed);
+        if (d?.action === 'abort') {
+          this.abort(d.reason, d.outcome);
+          this.check();
+        }
+        return d;
+      },
+      record: (e) => this.record(e),
+      endSweep: (note) => {
+        const d = this.chain.endSweep(true, note);
+        if (d?.action === 'abort') {
+          this.abort(d.reason, d.outcome);
+          throw new AbortSignalled(d.reason);
+        }
+        return d?.action === 'stop-after-sweep' ? 'stop' : undefined;
+      },
+    };
+  }
+
+  /** The device-results row of a breakdown test beside the journal (an aborted test is "invalid"). */
+  private writeResults(outcome: RunOutcome, reason: string): void {
+    const dir = this.chain.options.journal.dir;
+    const r: DeviceResult = this.testResult && outcome === 'completed'
+      ? this.testResult
+      : {
+          device: this.device?.device ?? this.sessionId,
+          wafer: this.device?.wafer,
+          site: this.device?.site,
+          x: this.device?.x,
+          y: this.device?.y,
+          test: this.plan.kind,
+          outcome: 'invalid',
+          criterion: outcome,
+          tags: this.device?.tags,
+        };
+    if (!this.testResult || outcome !== 'completed') this.testResult = r;
+    this.safely(() => writeDeviceResults(dir, [r]));
+    void reason;
   }
 
   /** One measurement into the chain (a reply without a reading is journaled as rejected, with its reason). */

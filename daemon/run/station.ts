@@ -23,7 +23,7 @@ import { findScenario, type Scenario } from '../simulator/scenarios.js';
 import { attachInstrument } from '../simulator/serve.js';
 import { dialectOf, type StationConfig } from './config.js';
 import { checkPlan, GuardedSource } from './guard.js';
-import { checkPlanSize, describePlan, parsePlan, sweepValues, type Plan } from './plan.js';
+import { checkPlanSize, describePlan, isStressPlan, parsePlan, planCompliance, planShape, type Plan } from './plan.js';
 import { RunController, type RunResult } from './runner.js';
 
 const TERMINATOR = { lf: '\n', crlf: '\r\n', cr: '\r' } as const;
@@ -144,14 +144,15 @@ export class Station {
     };
   }
 
-  private newSession(label: string, o: { complianceLimit?: number; sweeps: number; pointsPerSweep: number; control?: boolean }): { chain: LiveChain; id: string; dir: string } {
+  private newSession(label: string, o: { complianceLimit?: number; sweeps: number; pointsPerSweep: number; control?: boolean; watches?: boolean }): { chain: LiveChain; id: string; dir: string } {
     const { writer, id } = JournalWriter.create(this.dataDir, label);
     const dir = join(this.dataDir, id);
+    const watches = o.watches ?? true;
     const chain = new LiveChain({
       journal: writer,
       analysis: this.analysis,
-      drift: this.config.drift,
-      breakdown: this.config.breakdown,
+      drift: watches ? this.config.drift : { ...this.config.drift, enabled: false },
+      breakdown: watches ? this.config.breakdown : { ...this.config.breakdown, enabled: false },
       complianceLimit: o.complianceLimit,
       hazardVoltage: this.config.limits.hazardVoltage,
       sweeps: o.sweeps,
@@ -251,7 +252,10 @@ export class Station {
     } catch (e) {
       throw new StationError(`station config: ${(e as Error).message}`, 400);
     }
-    if (plan.pacing === 'instrument') {
+    if (plan.kind === 'current-ramp' && !dialect.commands.sourceCurrent) {
+      throw new StationError(`plan: field 'kind': a current ramp forces current, and the dialect '${dialect.name}' has no current-sourcing commands (sourceCurrentMode, sourceCurrent, voltageCompliance)`, 400);
+    }
+    if ((plan.kind === 'linear' || plan.kind === 'log' || plan.kind === 'list') && plan.pacing === 'instrument') {
       if (!dialect.paced) throw new StationError(`plan: field 'pacing': the dialect '${dialect.name}' has no instrument-paced templates ("paced"); use pacing "station" or a dialect that has them (protection-status)`, 400);
       if (plan.blockPoints !== undefined && plan.blockPoints > dialect.paced.maxPoints) throw new StationError(`plan: field 'blockPoints': ${plan.blockPoints} is more than the ${dialect.paced.maxPoints} levels the dialect '${dialect.name}' says the instrument's list holds`, 400);
     }
@@ -274,7 +278,11 @@ export class Station {
       const label = options.label ?? this.scenario?.name ?? 'run';
       let created: ReturnType<Station['newSession']>;
       try {
-        created = this.newSession(label, { complianceLimit: plan.compliance, sweeps: plan.repeat, pointsPerSweep: sweepValues(plan).length });
+        const shape = planShape(plan);
+        // A breakdown test judges breakdown by its own criteria (and destroys the device on
+        // purpose); the live breakdown and drift watches are for sweeps of devices meant to survive.
+        const stress = isStressPlan(plan);
+        created = this.newSession(label, { complianceLimit: planCompliance(plan), sweeps: shape.sweeps, pointsPerSweep: shape.pointsPerSweep, ...(stress ? { watches: false } : {}) });
       } catch (e) {
         const err = e as NodeJS.ErrnoException;
         throw new StationError(`cannot create the session folder under ${this.dataDir}: ${err.code === 'ENOSPC' ? 'no space left on the disk' : err.message}`, err.code === 'ENOSPC' ? 507 : 500);
@@ -294,7 +302,7 @@ export class Station {
         ...(device ? { device } : {}),
       });
       const source = new GuardedSource(driver, this.config.limits);
-      const controller = new RunController(source, chain, plan);
+      const controller = new RunController(source, chain, plan, device, id);
       // A journal that cannot be written stops the run at once (even between readings).
       chain.options.journal.onError = (err) => controller.abort(err.message, 'journal-fault');
       this.controller = controller;

@@ -82,6 +82,14 @@ export class SimulatedSmu {
   autoRange = true;
   range = 1e-3;
   tripped = false;
+  /** What the source forces: a voltage (default) or a current (with a voltage compliance). */
+  sourceFunction: 'VOLT' | 'CURR' = 'VOLT';
+  /** Forced current in current mode, A. */
+  currentLevel = 0;
+  /** Voltage compliance in current mode, V. */
+  voltageCompliance = 21;
+  /** When the device's wear was last brought up to date (performance.now, ms). */
+  private wearAt = performance.now();
   /** Reply elements of a reading (:FORM:ELEM): voltage and current, optionally a status word. */
   elements: ('VOLT' | 'CURR' | 'STAT')[] = ['VOLT', 'CURR'];
   /** Source mode: a fixed level, or a list the instrument steps through itself after :INIT. */
@@ -113,7 +121,7 @@ export class SimulatedSmu {
   onDisconnect: (() => void) | undefined;
 
   constructor(options: SimOptions) {
-    this.device = new SimulatedDevice(options.device);
+    this.device = new SimulatedDevice(options.device, options.seed ?? 1);
     this.spec = { ...DEFAULT_INSTRUMENT, ...options.instrument };
     this.normal = seededNormal(options.seed ?? 1);
     this.faults = options.faults ?? {};
@@ -149,12 +157,15 @@ export class SimulatedSmu {
     this.on('*IDN', (_a, q) => (q ? this.idn : undefined));
     this.on('*RST', () => {
       this.stopSweep();
-      this.output = false;
+      this.wear(() => (this.output = false));
       this.level = 0;
       this.compliance = 1e-3;
       this.nplc = 1;
       this.tripped = false;
       this.elements = ['VOLT', 'CURR'];
+      this.sourceFunction = 'VOLT';
+      this.currentLevel = 0;
+      this.voltageCompliance = 21;
       this.sourceMode = 'FIX';
       this.list = [];
       this.triggerCount = 1;
@@ -175,15 +186,32 @@ export class SimulatedSmu {
     });
     this.on(':SYSTem:VERSion', () => '1999.0');
     this.on('[:SOURce]:FUNCtion[:MODE]', (a, q) => {
-      if (q) return 'VOLT';
-      if (!/^VOLT(AGE)?$/i.test((a ?? '').trim())) throw new ScpiError(-224, 'Illegal parameter value');
+      if (q) return this.sourceFunction;
+      const f = (a ?? '').trim();
+      if (/^VOLT(AGE)?$/i.test(f)) this.wear(() => (this.sourceFunction = 'VOLT'));
+      else if (/^CURR(ENT)?$/i.test(f)) this.wear(() => (this.sourceFunction = 'CURR'));
+      else throw new ScpiError(-224, 'Illegal parameter value');
       return undefined;
     });
     this.on('[:SOURce]:VOLTage[:LEVel][:IMMediate][:AMPLitude]', (a, q) => {
       if (q) return formatScpiNumber(this.level);
       const v = this.num(a);
       if (Math.abs(v) > this.spec.maxVoltage) throw new ScpiError(-222, 'Data out of range');
-      this.level = v;
+      this.wear(() => (this.level = v));
+      return undefined;
+    });
+    this.on('[:SOURce]:CURRent[:LEVel][:IMMediate][:AMPLitude]', (a, q) => {
+      if (q) return formatScpiNumber(this.currentLevel);
+      const c = this.num(a);
+      if (Math.abs(c) > 1) throw new ScpiError(-222, 'Data out of range');
+      this.wear(() => (this.currentLevel = c));
+      return undefined;
+    });
+    this.on(':SENSe:VOLTage[:DC]:PROTection[:LEVel]', (a, q) => {
+      if (q) return formatScpiNumber(this.voltageCompliance);
+      const v = this.num(a);
+      if (!(v > 0) || v > this.spec.maxVoltage) throw new ScpiError(-222, 'Data out of range');
+      this.wear(() => (this.voltageCompliance = v));
       return undefined;
     });
     this.on(':SENSe:CURRent[:DC]:PROTection[:LEVel]', (a, q) => {
@@ -214,7 +242,8 @@ export class SimulatedSmu {
     });
     this.on(':OUTPut[:STATe]', (a, q) => {
       if (q) return this.output ? '1' : '0';
-      this.output = this.bool(a);
+      const on = this.bool(a);
+      this.wear(() => (this.output = on));
       if (!this.output) {
         this.tripped = false;
         this.stopSweep();
@@ -283,7 +312,7 @@ export class SimulatedSmu {
     const levels = this.sourceMode === 'LIST' && this.list.length ? this.list : [this.level];
     void (async () => {
       for (let k = 0; k < this.triggerCount && !this.sweepAbort && this.output; k++) {
-        this.level = levels[k % levels.length];
+        this.wear(() => (this.level = levels[k % levels.length]));
         if (this.realTime && this.sourceDelay > 0) await new Promise((r) => setTimeout(r, this.sourceDelay * 1000));
         else await new Promise((r) => setImmediate(r));
         if (this.sweepAbort || !this.output) break;
@@ -297,12 +326,46 @@ export class SimulatedSmu {
     this.sweepAbort = true;
   }
 
+  /**
+   * The bias across the device now: the level in voltage mode; in current mode the voltage at which
+   * it draws the forced current (bisection within the voltage compliance), or the compliance itself
+   * when it cannot draw that much.
+   */
+  private deviceBias(): { v: number; atLimit: boolean } {
+    if (this.sourceFunction === 'VOLT') return { v: this.level, atLimit: false };
+    const target = this.currentLevel;
+    const s = Math.sign(target) || 1;
+    const vc = this.voltageCompliance * s;
+    if (Math.abs(this.device.current(vc)) < Math.abs(target)) return { v: vc, atLimit: true };
+    let lo = 0;
+    let hi = vc;
+    for (let k = 0; k < 80; k++) {
+      const mid = 0.5 * (lo + hi);
+      if (Math.abs(this.device.current(mid)) >= Math.abs(target)) hi = mid;
+      else lo = mid;
+    }
+    return { v: hi, atLimit: false };
+  }
+
+  /**
+   * Brings the device's wear up to now at the bias it has had since the last change (wall-clock
+   * time while the output is on), then applies the change.
+   */
+  private wear(change: () => void = () => undefined): void {
+    const now = performance.now();
+    if (this.output && this.device.spec.wearout) this.device.age(this.deviceBias().v, (now - this.wearAt) / 1000);
+    this.wearAt = now;
+    change();
+  }
+
   /** One source-measure point: the reply is "<voltage>,<current>" in NR3. */
   private async measure(): Promise<string> {
     if (!this.output) throw new ScpiError(-221, 'Settings conflict; output is off');
     const period = (this.nplc / this.spec.lineFrequency) * 1000;
     if (this.realTime && period >= 1) await new Promise((r) => setTimeout(r, period));
     if (this.faults.readDelayMs) await new Promise((r) => setTimeout(r, this.faults.readDelayMs));
+    this.wear();
+    if (this.sourceFunction === 'CURR') return this.measureForced();
     let v = this.level;
     this.applied.push(v);
     if (this.applied.length > 200000) this.applied.splice(0, 100000);
@@ -328,6 +391,21 @@ export class SimulatedSmu {
     }
     const sigma = this.spec.gain * Math.abs(i) + this.spec.rangeOffset * range;
     const iMeas = this.tripped ? i : i + sigma * this.normal();
+    const vMeas = v + (1e-5 * Math.abs(v) + 1e-5) * this.normal();
+    this.readingsServed++;
+    if (this.faults.readingReply !== undefined) return this.faults.readingReply;
+    return this.elements.map((e) => (e === 'VOLT' ? formatScpiNumber(vMeas) : e === 'CURR' ? formatScpiNumber(iMeas) : String(this.tripped ? SimulatedSmu.STATUS_COMPLIANCE : 0))).join(',');
+  }
+
+  /** A reading in current mode: the forced current and the voltage it took (or the voltage compliance). */
+  private measureForced(): string {
+    const { v, atLimit } = this.deviceBias();
+    this.applied.push(v);
+    if (this.applied.length > 200000) this.applied.splice(0, 100000);
+    this.tripped = atLimit;
+    const i = atLimit ? this.device.current(v) : this.currentLevel;
+    this.device.stress(v);
+    const iMeas = i * (1 + this.spec.gain * this.normal());
     const vMeas = v + (1e-5 * Math.abs(v) + 1e-5) * this.normal();
     this.readingsServed++;
     if (this.faults.readingReply !== undefined) return this.faults.readingReply;

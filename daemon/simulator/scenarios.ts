@@ -32,6 +32,13 @@ export const scenarioSchema = z.object({
     drift: z.object({ parameter: z.string(), perReading: z.number() }).optional(),
     breakdownField: z.number().positive().optional(),
     brokenResistance: z.number().positive().optional(),
+    wearout: z.object({
+      shape: z.number().positive(),
+      chargeScale: z.number().positive(),
+      referenceField: z.number().positive(),
+      fieldAcceleration: z.number().min(0),
+      referenceArea: z.number().positive(),
+    }).strict().optional(),
   }).strict(),
   /** Suggested sweep for demos and `plumbline run`. */
   sweep: z.object({ start: z.number(), stop: z.number(), points: z.number().int().min(2), compliance: z.number().positive() }).strict(),

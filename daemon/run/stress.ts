@@ -1,0 +1,372 @@
+/**
+ * Breakdown tests of thin dielectrics on the station, after the wafer-level procedures of JEDEC
+ * JESD35-A (in our own words): an optional check at the use condition first (a device already
+ * conducting there is an initial failure and is not stressed), then the stress — a voltage ramp, a
+ * current ramp, or a constant voltage with periodic sense sweeps — judged reading by reading by the
+ * criteria in daemon/analysis/breakdown-tests.ts, the output off the moment breakdown is confirmed,
+ * and the use-condition check again (the leakage after the test, stress-induced leakage).
+ *
+ * These tests destroy devices on purpose at high field: the cautions say so, the station's hard
+ * limits still apply to every level, and the output goes off at breakdown without a ramp down.
+ * The result (breakdown voltage and field, charge to breakdown per area, time to breakdown,
+ * leakage before and after, the criterion that fired with its numbers) is journaled as a
+ * `test-result` event and written as one row of the device-results file beside the journal.
+ */
+import { writeFileSync } from 'node:fs';
+import { join } from 'node:path';
+import { chargeToBreakdown, CurrentRampJudge, StressJudge, VoltageRampJudge, type BreakdownVerdict } from '../analysis/breakdown-tests.js';
+import { DEVICE_RESULTS_FILE, formatDeviceResults, type DeviceIdentity, type DeviceResult, type Outcome } from '../../protocols/device-results.js';
+import type { NewEvent } from '../../protocols/wire.js';
+import type { Measurement } from '../instrument/smu-driver.js';
+import type { Decision, LiveChain } from '../pipeline/chain.js';
+import type { GuardedSource } from './guard.js';
+import { useCheckCompliance } from './guard.js';
+import type { ConstantStressPlan, CurrentRampPlan, StressPlan, VoltageRampPlan } from './plan.js';
+
+/** What a stress test needs from the run that hosts it. */
+export interface RunContext {
+  readonly source: GuardedSource;
+  readonly chain: LiveChain;
+  /** Throws when the run is being aborted. */
+  check(): void;
+  /** Waits s seconds; an abort wakes it early. */
+  sleep(s: number): Promise<void>;
+  /** Journals one measurement; returns the live chain's decision, if any. */
+  take(m: Measurement, programmed: number): Decision | undefined;
+  /** Journals an event; a journal failure is kept for the run, never thrown here. */
+  record(e: NewEvent): void;
+  /**
+   * Ends the chain's sweep as complete and acts on its decision: an abort (drift) throws as every
+   * abort does; 'stop' asks the caller to end the run after this sweep.
+   */
+  endSweep(note?: string): 'stop' | undefined;
+}
+
+export interface StressOutcome {
+  readonly result: DeviceResult;
+  /** Plain words for the run's end. */
+  readonly reason: string;
+}
+
+const TEST_OF: Record<StressPlan['kind'], string> = {
+  'voltage-ramp': 'voltage-ramp',
+  'current-ramp': 'current-ramp',
+  'constant-voltage': 'constant-voltage',
+};
+
+const g = (x: number) => x.toPrecision(4);
+
+/** One reading series of the test: times (s since the session started), the stress hold each reading ends (s), biases (V), currents (A). */
+class Series {
+  readonly t: number[] = [];
+  readonly hold: number[] = [];
+  readonly v: number[] = [];
+  /** The level programmed for each reading (V, or A for a current ramp). */
+  readonly set: number[] = [];
+  readonly i: number[] = [];
+  private last: number;
+
+  constructor(start: number) {
+    this.last = start;
+  }
+
+  add(t: number, v: number, i: number, set: number, hold = t - this.last): void {
+    this.t.push(t);
+    this.hold.push(hold);
+    this.v.push(v);
+    this.set.push(set);
+    this.i.push(i);
+    this.last = t;
+  }
+
+  /** Restart the hold clock (after time that was not stress). */
+  resume(t: number): void {
+    this.last = t;
+  }
+}
+
+export class StressTest {
+  private sweep = 0;
+  private leakageBefore: number | undefined;
+  private leakageAfter: number | undefined;
+
+  constructor(readonly ctx: RunContext, readonly plan: StressPlan, readonly device: DeviceIdentity, readonly sessionId: string) {}
+
+  private get limits() {
+    return this.ctx.source.limits;
+  }
+
+  private now(): number {
+    return this.ctx.chain.options.journal.now() / 1000;
+  }
+
+  private startSweep(points: number, label: string): void {
+    this.sweep++;
+    this.ctx.chain.startSweep(this.sweep, points, label);
+  }
+
+  /** The device's area and thickness: the device identity's, else the analysis inputs'. */
+  private geometry(): { area?: number; thickness?: number; temperature?: number } {
+    const inputs = this.ctx.chain.settings.inputs as { area?: number; thickness?: number; temperature?: number };
+    return { area: this.device.area ?? inputs.area, thickness: this.device.thickness ?? inputs.thickness, temperature: this.device.temperature ?? inputs.temperature };
+  }
+
+  async run(): Promise<StressOutcome> {
+    const p = this.plan;
+    this.ctx.record({
+      type: 'caution',
+      kind: 'destructive-test',
+      message: 'This test drives the device to breakdown on purpose: high fields, currents up to the limits, and a device that is destroyed at the end. The station\'s hard limits still apply and the output goes off the moment breakdown is confirmed; keep hands off the probes and the fixture, and follow your lab\'s safety rules.',
+    });
+    if (p.useVoltage !== undefined) {
+      this.leakageBefore = await this.useCheck('use-condition check before the test');
+      if (Math.abs(this.leakageBefore) > p.useCurrentLimit) {
+        return this.finish('initial-failure', undefined, `the device already conducts ${g(Math.abs(this.leakageBefore))} A at the ${p.useVoltage} V use condition (limit ${p.useCurrentLimit} A): an initial failure, not stressed`);
+      }
+    }
+    let verdict: BreakdownVerdict | undefined;
+    let series: Series;
+    if (p.kind === 'voltage-ramp') ({ verdict, series } = await this.voltageRamp(p));
+    else if (p.kind === 'current-ramp') ({ verdict, series } = await this.currentRamp(p));
+    else ({ verdict, series } = await this.constantStress(p));
+    if (p.useVoltage !== undefined) this.leakageAfter = await this.useCheck('use-condition check after the test');
+    const { area, thickness } = this.geometry();
+    const n = series.t.length;
+    if (verdict) {
+      const k = verdict.index;
+      const q = chargeToBreakdown(series.hold, series.i, k);
+      // The applied bias at breakdown: the level of the step in which it broke (a ramp or stress
+      // programs the voltage; at breakdown the measured one collapses); for a current ramp the
+      // highest voltage the device held before the collapse.
+      const vbd = p.kind === 'current-ramp' ? Math.max(...series.v.slice(0, Math.max(1, k)).map(Math.abs)) : Math.abs(series.set[k]);
+      return this.finish('breakdown', verdict.criterion, `breakdown (${verdict.criterion}): ${verdict.reason}`, {
+        voltage: vbd,
+        field: thickness ? vbd / thickness : undefined,
+        charge: area ? q / area : undefined,
+        // Time under stress until the breakdown reading (sense sweeps excluded).
+        time: series.hold.slice(0, k + 1).reduce((a, b) => a + b, 0),
+        numbers: verdict.numbers,
+      });
+    }
+    // The end of the ramp or of the stress time without breakdown: the device survived (censored).
+    const last = n - 1;
+    const vmax = n ? Math.max(...(p.kind === 'current-ramp' ? series.v : series.set).map(Math.abs)) : 0;
+    const q = chargeToBreakdown(series.hold, series.i, n);
+    return this.finish('survived', p.kind === 'constant-voltage' ? 'end-of-stress' : 'end-of-ramp', `no breakdown: the device held to the end of the ${p.kind === 'constant-voltage' ? `stress (${g(p.duration)} s)` : 'ramp'}`, {
+      voltage: vmax,
+      field: thickness ? vmax / thickness : undefined,
+      charge: area ? q / area : undefined,
+      time: last >= 0 ? series.hold.reduce((a, b) => a + b, 0) : undefined,
+    });
+  }
+
+  /** One reading at the use voltage (voltage sourcing at the plan's compliance); output off after. */
+  private async useCheck(label: string): Promise<number> {
+    const p = this.plan;
+    const src = this.ctx.source;
+    const v = p.useVoltage as number;
+    await src.configure(useCheckCompliance(this.limits, p), p.nplc);
+    this.ctx.check();
+    await src.outputOn();
+    this.startSweep(1, label);
+    await src.rampTo(v);
+    await this.ctx.sleep(0.01);
+    this.ctx.check();
+    const m = await src.measure();
+    this.ctx.take(m, v);
+    this.ctx.chain.endSweep(true);
+    await src.rampTo(0);
+    await src.outputOff();
+    return m.reading?.i ?? Number.NaN;
+  }
+
+  /** Output off at once (no ramp down): breakdown was confirmed. */
+  private async offAtBreakdown(verdict: BreakdownVerdict): Promise<void> {
+    const sent = await this.ctx.source.outputOff();
+    this.ctx.record({ type: 'output', on: false, sent, confirmed: false, reason: `breakdown confirmed (${verdict.criterion})` });
+    this.ctx.record({ type: 'caution', kind: 'breakdown-confirmed', sweep: this.sweep, numbers: verdict.numbers, message: `Breakdown (${verdict.criterion}): ${verdict.reason}. The output was turned off. The device is destroyed; follow your lab's rules before touching the fixture.` });
+  }
+
+  private async voltageRamp(p: VoltageRampPlan): Promise<{ verdict?: BreakdownVerdict; series: Series; tStart: number }> {
+    const src = this.ctx.source;
+    await src.configure(p.compliance, p.nplc);
+    this.ctx.check();
+    await src.outputOn();
+    this.ctx.record({ type: 'output', on: true, sent: true, queried: true, confirmed: true, reason: 'voltage ramp started (the instrument reports its output on)' });
+    const dir = Math.sign(p.stop - p.start);
+    const steps = Math.floor(Math.abs(p.stop - p.start) / p.step + 1e-9);
+    const levels = Array.from({ length: steps + 1 }, (_, k) => p.start + dir * k * p.step);
+    if (Math.abs(levels[levels.length - 1] - p.stop) > 1e-9) levels.push(p.stop);
+    if (Math.abs(levels[0]) > p.step) await src.rampTo(levels[0]);
+    const judge = new VoltageRampJudge(p.criteria, p.compliance);
+    this.startSweep(levels.length, `voltage ramp ${p.start} → ${p.stop} V at ${g(p.step / p.stepTime)} V/s`);
+    const tStart = this.now();
+    const series = new Series(tStart);
+    for (const v of levels) {
+      this.ctx.check();
+      await src.step(v);
+      await this.ctx.sleep(p.stepTime);
+      this.ctx.check();
+      const m = await src.measure();
+      this.ctx.take(m, v);
+      if (!m.reading) continue;
+      series.add(this.now(), m.reading.v, m.reading.i, v);
+      // Judged against the applied (programmed) bias: at compliance the measured one collapses.
+      const verdict = judge.add(v, m.reading.i, m.compliance);
+      if (verdict) {
+        const at = { ...verdict, index: series.t.length - 1 };
+        await this.offAtBreakdown(at);
+        this.ctx.chain.endSweep(false, `breakdown at ${g(v)} V`);
+        return { verdict: at, series, tStart };
+      }
+    }
+    this.ctx.chain.endSweep(true);
+    await src.rampTo(0);
+    await src.outputOff();
+    return { series, tStart };
+  }
+
+  private async currentRamp(p: CurrentRampPlan): Promise<{ verdict?: BreakdownVerdict; series: Series; tStart: number }> {
+    const src = this.ctx.source;
+    await src.configureCurrent(p.voltageLimit, p.nplc);
+    this.ctx.check();
+    await src.outputOn();
+    this.ctx.record({ type: 'output', on: true, sent: true, queried: true, confirmed: true, reason: 'current ramp started (the instrument reports its output on)' });
+    const decades = Math.log10(Math.abs(p.stop / p.start));
+    const n = Math.ceil(decades * p.stepsPerDecade - 1e-9);
+    const levels = Array.from({ length: n + 1 }, (_, k) => (k === n ? p.stop : p.start * 10 ** (k / p.stepsPerDecade)));
+    const judge = new CurrentRampJudge(p.criteria.voltageDrop);
+    this.startSweep(levels.length, `current ramp ${p.start} → ${p.stop} A, ${p.stepsPerDecade} steps per decade`);
+    const tStart = this.now();
+    const series = new Series(tStart);
+    let limited = false;
+    for (const i of levels) {
+      this.ctx.check();
+      await src.stepCurrent(i);
+      await this.ctx.sleep(p.stepTime);
+      this.ctx.check();
+      const m = await src.measure();
+      this.ctx.take(m, i);
+      if (!m.reading) continue;
+      // The forced current is the current through the device (the instrument's own reading of it).
+      series.add(this.now(), m.reading.v, m.reading.i, i);
+      const verdict = judge.add(m.reading.v, m.reading.i);
+      if (verdict) {
+        const at = { ...verdict, index: series.t.length - 1 };
+        await this.offAtBreakdown(at);
+        this.ctx.chain.endSweep(false, `breakdown at ${g(i)} A`);
+        return { verdict: at, series, tStart };
+      }
+      if (m.compliance) {
+        // The voltage limit held the current back: the device could not be driven further.
+        limited = true;
+        break;
+      }
+    }
+    this.ctx.chain.endSweep(!limited, limited ? 'the voltage limit was reached: the ramp could not force more current' : undefined);
+    await src.stepCurrent(0);
+    await src.outputOff();
+    return { series, tStart };
+  }
+
+  private async constantStress(p: ConstantStressPlan): Promise<{ verdict?: BreakdownVerdict; series: Series; tStart: number; stressTime: number }> {
+    const src = this.ctx.source;
+    await src.configure(p.compliance, p.nplc);
+    this.ctx.check();
+    await src.outputOn();
+    this.ctx.record({ type: 'output', on: true, sent: true, queried: true, confirmed: true, reason: 'constant-voltage stress started (the instrument reports its output on)' });
+    const judge = new StressJudge(p.criteria, p.compliance);
+    let stressTime = 0;
+    let nextSense = p.sense ? p.sense.every : Infinity;
+    let segmentOpen = false;
+    const openSegment = () => {
+      this.startSweep(Math.max(1, Math.ceil(Math.min(p.duration - stressTime, nextSense - stressTime) / p.sampleEvery)), `stress at ${p.stress} V from ${g(stressTime)} s`);
+      segmentOpen = true;
+    };
+    await src.rampTo(p.stress);
+    const tStart = this.now();
+    const series = new Series(tStart);
+    openSegment();
+    while (stressTime < p.duration) {
+      this.ctx.check();
+      await this.ctx.sleep(Math.min(p.sampleEvery, p.duration - stressTime));
+      this.ctx.check();
+      const m = await src.measure();
+      this.ctx.take(m, p.stress);
+      if (!m.reading) continue;
+      const t = this.now();
+      series.add(t, m.reading.v, m.reading.i, p.stress);
+      stressTime += series.hold[series.hold.length - 1];
+      const verdict = judge.add(stressTime, m.reading.i, m.compliance);
+      if (verdict) {
+        const at = { ...verdict, index: series.t.length - 1 };
+        await this.offAtBreakdown(at);
+        this.ctx.chain.endSweep(false, `breakdown after ${g(stressTime)} s`);
+        return { verdict: at, series, tStart, stressTime };
+      }
+      if (p.sense && stressTime >= nextSense && stressTime < p.duration) {
+        this.ctx.chain.endSweep(true);
+        segmentOpen = false;
+        await this.senseSweep(p);
+        nextSense += p.sense.every;
+        await src.rampTo(p.stress);
+        // The time spent sensing is not stress: the hold clock resumes here.
+        series.resume(this.now());
+        openSegment();
+      }
+    }
+    if (segmentOpen) this.ctx.chain.endSweep(true);
+    await src.rampTo(0);
+    await src.outputOff();
+    return { series, tStart, stressTime };
+  }
+
+  /** A short low-field sweep between stress intervals (the leakage it shows grows with trapped charge). */
+  private async senseSweep(p: ConstantStressPlan): Promise<void> {
+    const s = p.sense as NonNullable<ConstantStressPlan['sense']>;
+    const src = this.ctx.source;
+    await src.rampTo(s.start);
+    this.startSweep(s.points, `sense sweep ${s.start} → ${s.stop} V`);
+    for (let k = 0; k < s.points; k++) {
+      const v = s.start + ((s.stop - s.start) * k) / (s.points - 1);
+      this.ctx.check();
+      await src.step(v);
+      const m = await src.measure();
+      this.ctx.take(m, v);
+    }
+    this.ctx.chain.endSweep(true);
+  }
+
+  private finish(outcome: Outcome, criterion: string | undefined, reason: string, at: { voltage?: number; field?: number; charge?: number; time?: number; numbers?: Readonly<Record<string, number>> } = {}): StressOutcome {
+    const { area, thickness, temperature } = this.geometry();
+    const result: DeviceResult = {
+      device: this.device.device ?? this.sessionId,
+      wafer: this.device.wafer,
+      site: this.device.site,
+      x: this.device.x,
+      y: this.device.y,
+      test: TEST_OF[this.plan.kind],
+      outcome,
+      criterion,
+      breakdownVoltage: at.voltage,
+      breakdownField: at.field,
+      chargeToBreakdown: at.charge,
+      timeToBreakdown: at.time,
+      area,
+      thickness,
+      temperature,
+      leakageBefore: this.leakageBefore,
+      leakageAfter: this.leakageAfter,
+      tags: this.device.tags,
+    };
+    this.ctx.record({ type: 'test-result', test: result.test, outcome, reason, result: result as unknown as Record<string, unknown>, ...(at.numbers ? { numbers: at.numbers } : {}) });
+    return { result, reason };
+  }
+}
+
+/** Writes the device-results file beside the journal (one row per test of the session). */
+export function writeDeviceResults(dir: string, results: readonly DeviceResult[]): string {
+  const file = join(dir, DEVICE_RESULTS_FILE);
+  writeFileSync(file, formatDeviceResults(results));
+  return file;
+}

@@ -1,0 +1,141 @@
+/**
+ * Breakdown criteria and charge to breakdown on hand-worked sequences. The criteria are the kinds
+ * JEDEC JESD35-A names for wafer-level tests of thin dielectrics (a current level, a jump of the
+ * current between steps, a change of the slope of the I–V curve; under a forced current, a collapse
+ * of the voltage); each case below is worked by hand from its definition.
+ * The wear-out model is checked against its closed form (a Weibull variate of unit scale, the
+ * exponential field acceleration of the E model — McPherson & Mogul 1998 — and weakest-link area
+ * scaling, η ∝ A^(−1/β), Wu & Suñé 2009).
+ */
+import { describe, expect, it } from 'vitest';
+import { chargeToBreakdown, CurrentRampJudge, heldCharge, StressJudge, VoltageRampJudge } from '../../daemon/analysis/breakdown-tests.js';
+import { chargeScaleAt, unitWeibull } from '../../daemon/analysis/wearout.js';
+import { AdaptiveSweep } from '../../daemon/analysis/adaptive-sweep.js';
+
+const CRITERIA = { currentJump: 10, slopeFactor: 3, slopeWindow: 5, floor: 1e-10 };
+
+describe('voltage ramp', () => {
+  // A hand-worked ramp: 0.5 V steps; the current grows ×2 per step (slope ln2/0.5 = 1.386 /V)
+  // from 1 nA, then at the 12th reading (index 11) jumps ×40.
+  const v = Array.from({ length: 14 }, (_, k) => 1 + 0.5 * k);
+  const i = v.map((_, k) => 1e-9 * 2 ** k * (k >= 11 ? 40 : 1));
+
+  it('the decade jump fires at the step where it happens, with the ratio', () => {
+    const j = new VoltageRampJudge(CRITERIA, 1e-3);
+    let verdict;
+    for (let k = 0; k < v.length && !verdict; k++) verdict = j.add(v[k], i[k], false);
+    expect(verdict?.criterion).toBe('current-jump');
+    expect(verdict?.index).toBe(11);
+    expect(verdict?.numbers.ratio).toBeCloseTo(80, 10); // ×2 of the ramp times ×40
+  });
+
+  it('a smaller step that triples the slope is a slope change (soft breakdown), not a jump', () => {
+    // Slope ln2/0.5 for ten steps, then one step ×8 (slope ln8/0.5 = 3× the median): index 10.
+    const ii = v.map((_, k) => 1e-9 * 2 ** Math.min(k, 9) * (k >= 10 ? 8 ** (k - 9) : 1));
+    const j = new VoltageRampJudge(CRITERIA, 1e-3);
+    let verdict;
+    for (let k = 0; k < v.length && !verdict; k++) verdict = j.add(v[k], ii[k], false);
+    expect(verdict?.criterion).toBe('slope-change');
+    expect(verdict?.index).toBe(10);
+    expect(verdict?.numbers.slope).toBeCloseTo(Math.log(8) / 0.5, 10);
+    expect(verdict?.numbers.median).toBeCloseTo(Math.log(2) / 0.5, 10);
+  });
+
+  it('a Fowler–Nordheim ramp, whose ln-slope falls smoothly, fires nothing until its current level', () => {
+    // J ∝ E² exp(−B/E) (Fowler & Nordheim 1928): d ln J/dV decreases with V.
+    const B = 25; // V/nm·nm: B·d with d = 1 nm in these units — any B > 0 makes the slope fall
+    const j = new VoltageRampJudge({ ...CRITERIA, currentLimit: 1e-4 }, 1e-3);
+    let verdict;
+    let k = 0;
+    for (let V = 2; V <= 20 && !verdict; V += 0.1, k++) verdict = j.add(V, 1e-3 * V * V * Math.exp(-B / V), false);
+    expect(verdict?.criterion).toBe('current-limit');
+    expect(1e-3 * (verdict?.numbers.voltage ?? 0) ** 2 * Math.exp(-B / (verdict?.numbers.voltage ?? 1))).toBeGreaterThanOrEqual(1e-4);
+  });
+
+  it('readings under the floor never trigger the ratio tests; compliance always does', () => {
+    const j = new VoltageRampJudge(CRITERIA, 1e-3);
+    expect(j.add(1, 1e-13, false)).toBeUndefined();
+    expect(j.add(2, 5e-12, false)).toBeUndefined(); // ×50, but below the 1e-10 A floor
+    expect(j.add(3, 1e-3, true)?.criterion).toBe('compliance');
+  });
+});
+
+describe('current ramp and constant stress', () => {
+  it('the voltage falling by more than the set fraction of its highest value is a collapse', () => {
+    const j = new CurrentRampJudge(0.1);
+    const volts = [5, 6, 7, 7.5, 7.8, 7.7, 6.9];
+    const out = volts.map((x, k) => j.add(x, 1e-6 * 10 ** k));
+    // 7.7 is 1.3 % under 7.8 (kept); 6.9 is 11.5 % under it: collapse at index 6.
+    expect(out.findIndex((x) => x !== undefined)).toBe(6);
+    expect(out[6]?.numbers.highest).toBe(7.8);
+  });
+
+  it('constant stress: a jump between readings, with the stress time', () => {
+    const j = new StressJudge({ currentJump: 10, floor: 1e-10 }, 1e-3);
+    expect(j.add(0.1, 1e-6, false)).toBeUndefined();
+    expect(j.add(0.2, 1.2e-6, false)).toBeUndefined();
+    const v = j.add(0.3, 2e-5, false);
+    expect(v?.criterion).toBe('current-jump');
+    expect(v?.numbers.time).toBe(0.3);
+  });
+});
+
+describe('charge to breakdown', () => {
+  it('each reading stands for the hold that ends with it; half the breakdown step is added', () => {
+    const hold = [0.01, 0.01, 0.02, 0.01];
+    const i = [1e-6, 2e-6, 4e-6, 1e-2];
+    // Readings 0–2 intact: 1e-8 + 2e-8 + 8e-8 = 1.1e-7 C; half of step 3 at the last intact 4 µA: 2e-8.
+    expect(heldCharge(hold, i, 3)).toBeCloseTo(1.1e-7, 20);
+    expect(chargeToBreakdown(hold, i, 3)).toBeCloseTo(1.3e-7, 20);
+  });
+});
+
+describe('wear-out model', () => {
+  it('the unit Weibull variate is the inverse of F(x) = 1 − exp(−x^β)', () => {
+    for (const [beta, u] of [[2, 0.5], [1.3, 0.9], [5, 0.01]]) {
+      const x = unitWeibull(beta, u);
+      expect(1 - Math.exp(-(x ** beta))).toBeCloseTo(u, 12);
+    }
+  });
+
+  it('the charge scale falls e-fold per 1/γ of field and scales with area as A^(−1/β)', () => {
+    const spec = { shape: 2, chargeScale: 3000, referenceField: 1.4e9, fieldAcceleration: 1e-8, referenceArea: 1e-8 };
+    expect(chargeScaleAt(spec, 1.4e9, 1e-8)).toBeCloseTo(3000, 9);
+    expect(chargeScaleAt(spec, 1.3e9, 1e-8)).toBeCloseTo(3000 * Math.E, 9);
+    expect(chargeScaleAt(spec, 1.4e9, 4e-8)).toBeCloseTo(3000 / 2, 9); // (1/4)^(1/2)
+  });
+});
+
+describe('adaptive sweep plan', () => {
+  it('coarse steps on the floor, fine steps once the current leaves it, and the stop reasons', () => {
+    const p = new AdaptiveSweep({ start: 0, stop: 12, maxPoints: 100, currentLimit: 1e-3 });
+    expect(p.coarse).toBe(1);
+    expect(p.fine).toBeCloseTo(0.2, 12);
+    // Floor readings of either sign near 1e-13 A.
+    expect(p.add(0, 1e-13, false)).toEqual({ next: 1 });
+    expect(p.add(1, -2e-13, false)).toEqual({ next: 2 });
+    expect(p.inRegime).toBe(false);
+    // 3e-11 A is more than twenty floors (2e-13): the regime begins; steps become fine.
+    const r = p.add(2, 3e-11, false);
+    expect(p.inRegime).toBe(true);
+    expect('next' in r && r.next).toBeCloseTo(2.2, 12);
+    expect(p.add(2.2, 2e-3, false)).toEqual({ stop: 'current-limit' });
+    expect(p.knowledge()).toEqual({ onset: 2, floor: 2e-13 });
+    // The next sweep starts two fine steps below the onset, in fine steps.
+    const q = new AdaptiveSweep({ start: 0, stop: 12, maxPoints: 100, currentLimit: 1e-3 }, p.knowledge());
+    expect(q.first()).toBeCloseTo(1.6, 12);
+    const s = q.add(1.6, 1e-12, false);
+    expect('next' in s && s.next).toBeCloseTo(1.8, 12);
+  });
+
+  it('the end of the range and the point budget stop a sweep', () => {
+    const p = new AdaptiveSweep({ start: 0, stop: 1, maxPoints: 8, currentLimit: 1 });
+    let v = 0;
+    let r: ReturnType<AdaptiveSweep['add']> = { next: 0 };
+    for (let k = 0; k < 20 && 'next' in r; k++) {
+      r = p.add(v, 1e-9 * (k + 1), false);
+      if ('next' in r) v = r.next;
+    }
+    expect(r).toEqual({ stop: 'point-budget' });
+  });
+});

@@ -1,0 +1,223 @@
+/**
+ * Breakdown tests and adaptive sweeps through the real station: the built CLI (`run`, or `serve`
+ * driven over its API) against the simulated instrument on loopback TCP. The simulated device wears
+ * out as daemon/analysis/wearout.ts describes and records the truth — the charge it passed and the
+ * bias and field at which it broke — so the station's results are checked against it:
+ *  - voltage ramp, current ramp and constant-voltage stress: breakdown found, output off at once,
+ *    charge to breakdown and breakdown field within 5 % of the device's own, leakage before and
+ *    after at the use condition, a device-results.csv row;
+ *  - a lot of 30 devices ramped to breakdown, then `plumbline weibull` on the data folder recovers
+ *    the simulator's Weibull shape and scale within its 90 % bounds;
+ *  - adaptive sweeps: the target parameter pinned within tolerance, with far fewer readings than
+ *    the fixed plan, and the figures `run --json` reports.
+ */
+import { readFileSync, writeFileSync } from 'node:fs';
+import { createServer, type Server, type Socket } from 'node:net';
+import { join } from 'node:path';
+import { afterEach, describe, expect, it } from 'vitest';
+import { scanJournal } from '../../daemon/journal/reader.js';
+import { SimulatedSmu } from '../../daemon/simulator/instrument.js';
+import { findScenario } from '../../daemon/simulator/scenarios.js';
+import { attachInstrument } from '../../daemon/simulator/serve.js';
+import { parseDeviceResults } from '../../protocols/device-results.js';
+import type { WireEvent } from '../../protocols/wire.js';
+import { runCli } from '../helpers/cli.js';
+import { api, runCliAsync, startDaemon, tempDir, writeConfig } from '../helpers/daemon.js';
+
+const cleanups: (() => Promise<void> | void)[] = [];
+afterEach(async () => {
+  while (cleanups.length) await cleanups.pop()?.();
+});
+
+const LIMITS = { maxVoltage: 15, maxCompliance: 0.01, maxPower: 0.2, rampStep: 1, rampDelay: 0 };
+const WEAROUT = findScenario('oxide-wearout');
+
+/** A TCP instrument whose every new connection meets the next device (a new run = a new device). */
+async function instruments(make: (n: number) => SimulatedSmu): Promise<{ inst: Record<string, unknown>; devices: SimulatedSmu[] }> {
+  const devices: SimulatedSmu[] = [];
+  const server: Server = await new Promise((resolve) => {
+    const s = createServer((sock: Socket) => {
+      sock.setNoDelay(true);
+      const smu = make(devices.length + 1);
+      devices.push(smu);
+      attachInstrument(smu, sock);
+    });
+    s.listen(0, '127.0.0.1', () => resolve(s));
+  });
+  cleanups.push(() => new Promise<void>((r) => server.close(() => r())));
+  return { inst: { kind: 'tcp', host: '127.0.0.1', port: (server.address() as { port: number }).port }, devices };
+}
+
+function events(dir: string): WireEvent[] {
+  const out: WireEvent[] = [];
+  scanJournal(dir, (e) => out.push(e));
+  return out;
+}
+
+function results(dir: string) {
+  return { rows: parseDeviceResults(readFileSync(join(dir, 'device-results.csv'), 'utf8'), join(dir, 'device-results.csv')) };
+}
+
+/** `plumbline run` with a plan file (which may carry the device under test). */
+async function runPlan(dir: string, config: Record<string, unknown>, plan: Record<string, unknown>) {
+  const cfg = writeConfig(dir, config);
+  const file = join(dir, 'plan.json');
+  writeFileSync(file, JSON.stringify(plan));
+  const r = await runCliAsync(['run', '--config', cfg, '--plan', file, '--data', join(dir, 'data'), '--json']);
+  expect(r.code, r.stderr).toBe(0);
+  return JSON.parse(r.stdout);
+}
+
+const within = (x: number | undefined, truth: number, rel: number) => {
+  expect(x, `truth ${truth}`).toBeDefined();
+  expect(Math.abs((x as number) / truth - 1), `${x} against ${truth}`).toBeLessThan(rel);
+};
+
+describe('voltage ramp to breakdown', () => {
+  it('finds the breakdown, turns the output off at once, and gives Q_bd and E_bd within 5 % of the device\'s own', async () => {
+    const { inst, devices } = await instruments((n) => new SimulatedSmu({ device: WEAROUT.device, seed: 40 + n, realTime: false }));
+    const dir = tempDir();
+    const plan = { kind: 'voltage-ramp', start: 6, stop: 12, step: 0.02, stepTime: 0.005, compliance: 0.01, useVoltage: 1, useCurrentLimit: 1e-6, device: { device: 'PL11-A1', wafer: 'PL-11', site: 'A1' } };
+    const res = await runPlan(dir, { instrument: inst, limits: LIMITS, analysis: { model: 'fowler-nordheim', window: 'auto', inputs: WEAROUT.device.inputs } }, plan);
+    const smu = devices[0];
+    const truth = smu.device.breakdown;
+    expect(truth, 'the device broke').toBeDefined();
+    const row = results(res.dir).rows[0];
+    expect(row).toMatchObject({ device: 'PL11-A1', wafer: 'PL-11', test: 'voltage-ramp', outcome: 'breakdown' });
+    within(row.chargeToBreakdown, truth!.charge, 0.05);
+    within(row.breakdownField, truth!.field, 0.05);
+    within(row.breakdownVoltage, truth!.voltage, 0.01);
+    // Leakage at the use condition: a few hundred fA before, the broken film's 5 mA after (1 V / 200 Ω).
+    expect(Math.abs(row.leakageBefore ?? 1)).toBeLessThan(1e-9);
+    expect(row.leakageAfter).toBeGreaterThan(1e-3);
+    // No level beyond the breakdown step reached the instrument before the output went off.
+    const log = smu.log;
+    const offAfterRamp = log.findIndex((l, k) => l === ':OUTP OFF' && log.slice(0, k).filter((x) => x === ':OUTP ON').length === 2);
+    const ramp = log.slice(0, offAfterRamp).filter((l) => l.startsWith(':SOUR:VOLT ')).map((l) => Number(l.split(' ')[1]));
+    expect(Math.max(...ramp)).toBeCloseTo(truth!.voltage, 9);
+    const ev = events(res.dir);
+    expect(ev.some((e) => e.type === 'caution' && e.kind === 'destructive-test')).toBe(true);
+    const tr = ev.find((e) => e.type === 'test-result');
+    expect(tr?.type === 'test-result' && tr.outcome).toBe('breakdown');
+    expect(smu.output).toBe(false);
+  });
+
+  it('a device already leaking at the use condition is an initial failure and is not ramped', async () => {
+    const leaky = { ...WEAROUT.device, leakageResistance: 1e5 };
+    const { inst, devices } = await instruments(() => new SimulatedSmu({ device: leaky, seed: 3, realTime: false }));
+    const dir = tempDir();
+    const plan = { kind: 'voltage-ramp', start: 6, stop: 12, step: 0.02, stepTime: 0.005, compliance: 0.01, useVoltage: 1, useCurrentLimit: 1e-6 };
+    const cfg = writeConfig(dir, { instrument: inst, limits: LIMITS, plan });
+    const r = await runCliAsync(['run', '--config', cfg, '--data', join(dir, 'data'), '--json']);
+    expect(r.code, r.stderr).toBe(0);
+    const row = results(JSON.parse(r.stdout).dir).rows[0];
+    expect(row.outcome).toBe('initial-failure');
+    expect(Math.max(...devices[0].applied)).toBeLessThanOrEqual(1 + 1e-9);
+  });
+});
+
+describe('current ramp to breakdown', () => {
+  it('forces rising currents until the voltage collapses; Q_bd within 5 % of the device\'s own', async () => {
+    const { inst, devices } = await instruments(() => new SimulatedSmu({ device: WEAROUT.device, seed: 77, realTime: false }));
+    const dir = tempDir();
+    const plan = { kind: 'current-ramp', start: 1e-9, stop: 1e-2, stepsPerDecade: 40, stepTime: 0.005, voltageLimit: 14 };
+    const cfg = writeConfig(dir, { instrument: inst, limits: LIMITS, plan, analysis: { model: 'fowler-nordheim', window: 'auto', inputs: WEAROUT.device.inputs } });
+    const r = await runCliAsync(['run', '--config', cfg, '--data', join(dir, 'data'), '--json']);
+    expect(r.code, r.stderr).toBe(0);
+    const row = results(JSON.parse(r.stdout).dir).rows[0];
+    const truth = devices[0].device.breakdown;
+    expect(truth).toBeDefined();
+    expect(row).toMatchObject({ test: 'current-ramp', outcome: 'breakdown', criterion: 'voltage-collapse' });
+    within(row.chargeToBreakdown, truth!.charge, 0.05);
+    within(row.breakdownVoltage, truth!.voltage, 0.02);
+    expect(devices[0].log).toContain(':SOUR:FUNC CURR');
+    expect(devices[0].output).toBe(false);
+  });
+});
+
+describe('constant-voltage stress', () => {
+  it('holds the stress, senses in between, and finds the breakdown; Q_bd within 5 % of the device\'s own', async () => {
+    const { inst, devices } = await instruments(() => new SimulatedSmu({ device: WEAROUT.device, seed: 12, realTime: false }));
+    const dir = tempDir();
+    const plan = { kind: 'constant-voltage', stress: 9, duration: 30, sampleEvery: 0.01, compliance: 0.01, sense: { start: 0, stop: 2, points: 5, every: 0.2 } };
+    const cfg = writeConfig(dir, { instrument: inst, limits: LIMITS, plan, analysis: { model: 'fowler-nordheim', window: 'auto', inputs: WEAROUT.device.inputs } });
+    const r = await runCliAsync(['run', '--config', cfg, '--data', join(dir, 'data'), '--json']);
+    expect(r.code, r.stderr).toBe(0);
+    const res = JSON.parse(r.stdout);
+    const row = results(res.dir).rows[0];
+    const truth = devices[0].device.breakdown;
+    expect(truth).toBeDefined();
+    expect(row).toMatchObject({ test: 'constant-voltage', outcome: 'breakdown', breakdownVoltage: 9 });
+    within(row.chargeToBreakdown, truth!.charge, 0.05);
+    // The sense sweeps are journaled as their own sweeps between stress intervals.
+    const labels = events(res.dir).filter((e) => e.type === 'sweep-start').map((e) => (e.type === 'sweep-start' ? e.label : ''));
+    expect(labels.filter((l) => l.startsWith('sense sweep')).length).toBeGreaterThan(0);
+    expect(devices[0].output).toBe(false);
+  });
+});
+
+describe('a lot ramped to breakdown, then weibull', () => {
+  it('30 devices through the station; the Weibull fit of Q_bd brackets the simulator\'s shape and scale', async () => {
+    // No field acceleration: then the charge a device passes before it breaks is its own Weibull
+    // draw whatever the ramp, so the simulator's β and η are the truth the fit must bracket.
+    const spec = { ...WEAROUT.device, wearout: { shape: 2, chargeScale: 2000, referenceField: 1.4e9, fieldAcceleration: 0, referenceArea: 1e-8 } };
+    const { inst, devices } = await instruments((n) => new SimulatedSmu({ device: spec, seed: 1000 + n, realTime: false }));
+    const dir = tempDir();
+    const data = join(dir, 'data');
+    const cfg = writeConfig(dir, { instrument: inst, limits: LIMITS, analysis: { model: 'fowler-nordheim', window: 'auto', inputs: WEAROUT.device.inputs } });
+    const d = await startDaemon(['--config', cfg, '--data', data]);
+    cleanups.push(() => d.stop());
+    for (let n = 1; n <= 30; n++) {
+      const plan = { kind: 'voltage-ramp', start: 7, stop: 13, step: 0.05, stepTime: 0.003, compliance: 0.01, device: { device: `D${n}`, wafer: 'PL-11', site: `S${n}` } };
+      const start = await api(d.url, 'POST', '/api/run', { plan });
+      expect(start.status, JSON.stringify(start.json)).toBe(201);
+      for (let k = 0; k < 2000 && (await api(d.url, 'GET', '/api/status')).json.running; k++) await new Promise((res) => setTimeout(res, 20));
+    }
+    expect(devices.filter((x) => x.device.breakdown).length).toBe(30);
+    const w = runCli(['weibull', data, '--quantity', 'charge', '--json']);
+    expect(w.code, w.stderr).toBe(0);
+    const fit = JSON.parse(w.stdout);
+    expect(fit.n).toBe(30);
+    expect(fit.failures).toBe(30);
+    expect(fit.shape.low).toBeLessThan(2);
+    expect(fit.shape.high).toBeGreaterThan(2);
+    expect(fit.scale.low).toBeLessThan(2000);
+    expect(fit.scale.high).toBeGreaterThan(2000);
+    // And each device's measured charge is its own within 15 % (coarser steps than above).
+    const truths = devices.map((x) => x.device.breakdown!.charge);
+    const rows = fit.points.map((p: { x: number }) => p.x).sort((a: number, b: number) => a - b);
+    const sortedTruth = [...truths].sort((a, b) => a - b);
+    // (0.05 V steps: the half-step estimate of the breakdown step is good to about one step's share.)
+    rows.forEach((x: number, k: number) => expect(Math.abs(x / sortedTruth[k] - 1)).toBeLessThan(0.15));
+  }, 180_000);
+});
+
+describe('adaptive sweeps', () => {
+  it('pins the barrier to its target with far fewer readings than the fixed sweep, and reports the figures', async () => {
+    const sc = findScenario('oxide-fn');
+    const { inst, devices } = await instruments(() => new SimulatedSmu({ device: sc.device, seed: 5, realTime: false }));
+    const dir = tempDir();
+    const plan = { kind: 'adaptive', start: 0, stop: 10, maxPoints: 200, compliance: 1e-3, repeat: 3, target: { parameter: 'barrierHeight', stdErr: 0.01 } };
+    const cfg = writeConfig(dir, { instrument: inst, plan, analysis: { model: 'fowler-nordheim', window: 'auto', inputs: sc.device.inputs } });
+    const r = await runCliAsync(['run', '--config', cfg, '--data', join(dir, 'data'), '--json']);
+    expect(r.code, r.stderr).toBe(0);
+    const res = JSON.parse(r.stdout);
+    const a = res.adaptive;
+    expect(a.sweeps).toHaveLength(3);
+    for (const s of a.sweeps) {
+      expect(s.stopReason).toBe('target-reached');
+      expect(s.parameter.stdErr).toBeLessThanOrEqual(0.01);
+      // The scenario's device: 3.1 eV (its own parameter), within the ±0.05 eV engineering tolerance.
+      expect(Math.abs(s.parameter.value - sc.device.params.barrierHeight)).toBeLessThan(0.05);
+      expect(s.maxAbsBias).toBeLessThanOrEqual(10);
+      expect(s.charge).toBeGreaterThan(0);
+    }
+    // Later sweeps skip the floor: fewer readings than the first.
+    expect(a.sweeps[1].readings).toBeLessThan(a.sweeps[0].readings);
+    expect(a.readings).toBe(a.sweeps.reduce((x: number, s: { readings: number }) => x + s.readings, 0));
+    // What reached the instrument matches the figures.
+    expect(devices[0].log.filter((l) => l === ':READ?').length).toBe(a.readings);
+    const ev = events(res.dir).filter((e) => e.type === 'adaptive-sweep');
+    expect(ev).toHaveLength(3);
+  });
+});
