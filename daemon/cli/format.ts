@@ -3,12 +3,12 @@ import type { FitReport } from '../analysis/analyze.js';
 import { describeReasons } from '../analysis/analyze.js';
 import type { Ranking } from '../analysis/ranking.js';
 import type { DiodeReport, SolarReport } from '../analysis/diode-fit.js';
+import { axisLabel, formatInputs, formatParameterText } from '../../protocols/display-units.js';
+import { formatNumber } from '../../protocols/number-format.js';
 
+/** Numbers in text output: the formatter the page and the report use too. */
 export function num(v: number, digits = 5): string {
-  if (!Number.isFinite(v)) return String(v);
-  if (v === 0) return '0';
-  const a = Math.abs(v);
-  return a >= 1e-3 && a < 1e5 ? Number(v.toPrecision(digits)).toString() : v.toExponential(digits - 1);
+  return formatNumber(v, digits);
 }
 
 function pad(s: string, n: number): string {
@@ -18,7 +18,7 @@ function pad(s: string, n: number): string {
 export function formatFit(r: FitReport): string {
   const out: string[] = [];
   out.push(`${r.title}  [model ${r.model}]`);
-  out.push(`axes:       x = ${r.axes.x.label} (${r.axes.x.unit || '-'}, ${r.axes.x.kind}), y = ${r.axes.y.label} (${r.axes.y.unit || '-'}, ${r.axes.y.kind}${r.axes.y.kind === 'log' ? ', fitted as ln' : ''})`);
+  out.push(`axes:       x = ${axisLabel(r.axes.x)} ${r.axes.x.kind}, y = ${axisLabel(r.axes.y)} ${r.axes.y.kind}${r.axes.y.kind === 'log' ? ', fitted as ln' : ''} (the line's slope and intercept are in SI, as in --json)`);
   out.push(`points:     ${r.points.used} used, ${r.points.excluded} excluded (${describeReasons(r.points.reasons)})`);
   out.push(`window:     ${num(r.window.from)} to ${num(r.window.to)} in the x column (${r.window.mode})`);
   const L = r.line;
@@ -28,10 +28,9 @@ export function formatFit(r: FitReport): string {
   if (params.length) {
     out.push('parameters:');
     const w = Math.max(...params.map(([k]) => k.length));
-    for (const [k, p] of params) out.push(`  ${pad(k, w)}  ${num(p.value, 6)} ± ${num(p.stdErr, 2)} ${p.unit}`);
+    for (const [k, p] of params) out.push(`  ${pad(k, w)}  ${formatParameterText(p, k)}`);
   }
-  const inputs = Object.entries(r.inputs);
-  if (inputs.length) out.push(`inputs:     ${inputs.map(([k, v]) => `${k} ${num(v.value)}${v.assumed ? ' (assumed)' : ''}`).join(', ')} (SI)`);
+  if (Object.keys(r.inputs).length) out.push(`inputs:     ${formatInputs(r.inputs)}`);
   if (r.regimes.length > 1) {
     out.push('regimes:');
     for (const g of r.regimes) out.push(`  ${num(g.from)} to ${num(g.to)}: slope ${num(g.slope)} (${g.n} points)`);
@@ -46,7 +45,7 @@ export function formatRanking(r: Ranking): string {
   out.push(`points: ${r.points.used} used, ${r.points.excluded} excluded (${describeReasons(r.points.reasons)})`);
   out.push(`${pad('#', 3)}${pad('model', 26)}${pad('score', 8)}${pad('ΔAICc', 9)}${pad('plausible', 10)}parameters`);
   r.ranking.forEach((e, k) => {
-    const params = Object.entries(e.parameters).map(([n, p]) => `${n} ${num(p.value, 4)} ± ${num(p.stdErr, 2)} ${p.unit}`).join('; ');
+    const params = Object.entries(e.parameters).map(([n, p]) => `${n} ${formatParameterText(p, n)}`).join('; ');
     out.push(`${pad(String(k + 1), 3)}${pad(e.model, 26)}${pad(e.score.toFixed(3), 8)}${pad(e.deltaAicc.toFixed(1), 9)}${pad(e.plausible ? 'yes' : 'no', 10)}${params}`);
     for (const why of e.reasons) out.push(`     - ${why}`);
   });
@@ -63,7 +62,7 @@ export function formatDiode(r: DiodeReport): string {
   const params = Object.entries(r.parameters);
   out.push('parameters:');
   const w = Math.max(...params.map(([k]) => k.length));
-  for (const [k, p] of params) out.push(`  ${pad(k, w)}  ${num(p.value, 6)} ± ${num(p.stdErr, 2)} ${p.unit}`);
+  for (const [k, p] of params) out.push(`  ${pad(k, w)}  ${formatParameterText(p, k)}`);
   if (r.rmse !== null) out.push(`rmse:       ${num(r.rmse, 5)} A (true current)${r.rmseImplicit !== undefined ? `; implicit-residual RMSE ${num(r.rmseImplicit, 5)} A` : ''}${r.objective === 'implicit' ? ' — fitted on the implicit residual' : ''}`);
   for (const n of r.notes) out.push(`note:       ${n}`);
   for (const x of r.warnings) out.push(`warning:    ${x}`);

@@ -10,6 +10,8 @@ import type { WireEvent } from '../../protocols/wire.js';
 import type { StationConfig } from '../run/config.js';
 import type { Station } from '../run/station.js';
 import { UsageError } from './usage.js';
+import { formatParameterText } from '../../protocols/display-units.js';
+import { formatNumber } from '../../protocols/number-format.js';
 import { describeDevice, readDevice, withDeviceOptions, type DeviceOptions } from './device.js';
 
 // The daemon's modules (express, ws, serialport, rxjs) load only when a station command runs, so
@@ -114,11 +116,11 @@ function describe(e: WireEvent): string | undefined {
     case 'fit': {
       if (!e.final) return undefined;
       if (!e.fit) return `sweep ${e.sweep}: no fit (${e.error})`;
-      const p = Object.entries(e.fit.parameters).slice(0, 3).map(([k, v]) => `${k} = ${v.value.toPrecision(4)} ± ${v.stdErr.toPrecision(2)} ${v.unit}`);
+      const p = Object.entries(e.fit.parameters).slice(0, 3).map(([k, v]) => `${k} = ${formatParameterText(v, k)}`);
       return `sweep ${e.sweep}: ${e.fit.model} fit on ${e.fit.line.n} points, ${p.join(', ')}`;
     }
     case 'drift':
-      return e.state === 'baseline' || e.state === 'no-value' ? undefined : `         drift of ${e.parameter}: ${e.state} (${e.method} ${e.statistic?.toPrecision(5)}, limits ${e.lower?.toPrecision(5)} … ${e.upper?.toPrecision(5)})`;
+      return e.state === 'baseline' || e.state === 'no-value' ? undefined : `         drift of ${e.parameter}: ${e.state} (${e.method} ${formatNumber(e.statistic ?? Number.NaN, 5)}, limits ${formatNumber(e.lower ?? Number.NaN, 5)} … ${formatNumber(e.upper ?? Number.NaN, 5)})`;
     case 'output':
       if (e.queried) {
         if (e.on) return `output ON, confirmed by the instrument — ${e.reason}`;
@@ -413,7 +415,7 @@ export function registerStation(program: Command): void {
       }
       process.stdout.write(`refit of ${r.sweeps.length} sweep(s) with model ${r.request.model} → ${r.file}\n`);
       for (const sw of r.sweeps) {
-        const p = sw.fit ? Object.entries(sw.fit.parameters).slice(0, 3).map(([k, v]) => `${k} ${v.value.toPrecision(5)} ± ${v.stdErr.toPrecision(2)} ${v.unit}`).join(', ') : `no fit: ${sw.error}`;
+        const p = sw.fit ? Object.entries(sw.fit.parameters).slice(0, 3).map(([k, v]) => `${k} ${formatParameterText(v, k)}`).join(', ') : `no fit: ${sw.error}`;
         process.stdout.write(`  sweep ${String(sw.sweep).padStart(3)}: ${p}\n`);
       }
     });
@@ -440,10 +442,10 @@ export function registerStation(program: Command): void {
         return;
       }
       process.stdout.write(`Arrhenius plot of the ${r.model} ${r.quantity} over ${r.points.length} sweep(s)\n`);
-      for (const p of r.points) process.stdout.write(`  sweep ${String(p.sweep).padStart(3)}  T = ${p.temperature} K  ${r.quantity} ${p.value.toPrecision(6)} ± ${p.stdErr.toPrecision(2)}\n`);
+      for (const p of r.points) process.stdout.write(`  sweep ${String(p.sweep).padStart(3)}  T = ${formatNumber(p.temperature, 5)} K  ${r.quantity} ${formatParameterText({ value: p.value, stdErr: p.stdErr, unit: '' })}\n`);
       for (const k of r.skipped) process.stdout.write(`  skipped sweep ${k.sweep}: ${k.reason}\n`);
       const e = r.result.activationEnergy;
-      process.stdout.write(`activation energy ${e.value.toPrecision(5)} ± ${e.stdErr.toPrecision(2)} eV — ${r.meaning}\n`);
+      process.stdout.write(`activation energy ${formatParameterText({ value: e.value, stdErr: e.stdErr, unit: 'eV' })} — ${r.meaning}\n`);
     });
 
   program

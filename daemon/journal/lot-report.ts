@@ -11,7 +11,6 @@ import { analyzeWeibull, weibullPlotY, weibullQuantile, type WeibullReport } fro
 import { OKABE_ITO, sequential } from '../../protocols/palette.js';
 import { resultQuantity } from '../../protocols/device-results.js';
 import { breakdownSample, displayUnit, formatValue, lotResults, type BreakdownSample, type DeviceSummary, type LotSource } from './lot.js';
-import { svgChart } from './svg.js';
 
 const esc = (s: unknown) => String(s).replace(/&/g, '&amp;').replace(/</g, '&lt;').replace(/>/g, '&gt;').replace(/"/g, '&quot;');
 const num = (v: number | undefined, d = 4) => (v === undefined || !Number.isFinite(v) ? '—' : Math.abs(v) >= 1e4 || (Math.abs(v) < 1e-2 && v !== 0) ? v.toExponential(d - 1) : String(+v.toPrecision(d)));
@@ -261,27 +260,63 @@ function waferMap(name: string, rows: LotRow[], outliers: Set<string>): string {
   return `<div class="plots">${out.join('')}</div>${bar.join('')}<p class="note">Squares: sites, coloured from the lowest value (dark) to the highest (light) and labelled with the value; a thick vermillion border and "!" mark an outlier; dashed grey: no value.</p>`;
 }
 
-/** The Weibull plot: median-rank points, the ML line and pointwise bounds on the quantiles. */
+/** Ticks at 1, 2, 5 × 10^k inside [lo, hi] (at least the decade ends when the range is wide). */
+function logTicks(lo: number, hi: number): number[] {
+  const out: number[] = [];
+  for (let k = Math.floor(Math.log10(lo)); k <= Math.ceil(Math.log10(hi)); k++) {
+    for (const m of hi / lo > 1e3 ? [1] : hi / lo > 30 ? [1, 3] : [1, 1.5, 2, 3, 4, 5, 6, 7, 8, 9]) {
+      const v = m * 10 ** k;
+      if (v >= lo && v <= hi) out.push(v);
+    }
+  }
+  return out;
+}
+
+/**
+ * The Weibull plot as on Weibull probability paper: x on a log axis fitted to the data (1-2-5
+ * ticks), the ordinate W = ln(−ln(1 − F)) labelled in F; median-rank points, the ML line and the
+ * pointwise bounds of the quantiles.
+ */
 function weibullPlot(w: WeibullReport & { quantity: string }, values: number[], censored: boolean[], areaFactor: number[] | undefined): string {
   const d = displayUnit(w.scale.unit);
   const pts = w.points;
-  const Fs = [0.001, 0.003, 0.01, 0.03, 0.06, 0.1, 0.2, 0.3, 0.5, 0.632, 0.8, 0.9, 0.97, 0.99, 0.999].filter((F) => F >= Math.min(pts[0]?.F ?? 0.01, 0.01) * 0.5 && F <= Math.max(pts[pts.length - 1]?.F ?? 0.99, 0.99));
+  const Fs = [0.001, 0.002, 0.005, 0.01, 0.02, 0.05, 0.1, 0.2, 0.3, 0.5, 0.632, 0.8, 0.9, 0.95, 0.99, 0.999]
+    .filter((F) => F >= Math.min(pts[0]?.F ?? 0.01, 0.01) * 0.5 && F <= Math.max(pts[pts.length - 1]?.F ?? 0.99, 0.99));
   const q = Fs.map((F) => weibullQuantile({ values, censored, areaFactor }, F, w.bounds.confidence, w.bounds.method));
   const pct = `${+(w.bounds.confidence * 100).toPrecision(3)} %`;
-  return svgChart({
-    width: 900,
-    height: 420,
-    title: `Weibull plot of the ${w.quantity}: ● median ranks, solid: ML fit (β = ${+w.shape.value.toPrecision(3)}, η = ${formatValue(w.scale.value, w.scale.unit)}), dashed: ${pct} bounds`,
-    xLabel: `${w.quantity} (${d.unit})`,
-    yLabel: 'ln(−ln(1 − F))',
-    xLog: true,
-    series: [
-      { x: q.map((p) => p.low * d.factor), y: Fs.map(weibullPlotY), color: OKABE_ITO.sky, dash: '5 4', label: 'lower bound' },
-      { x: q.map((p) => p.high * d.factor), y: Fs.map(weibullPlotY), color: OKABE_ITO.sky, dash: '5 4', label: 'upper bound' },
-      { x: q.map((p) => p.value * d.factor), y: Fs.map(weibullPlotY), color: OKABE_ITO.black, width: 2, label: 'fit' },
-      { x: pts.map((p) => p.x * d.factor), y: pts.map((p) => weibullPlotY(p.F)), color: OKABE_ITO.vermillion, marker: 'dot', line: false, label: 'devices' },
-    ],
-  });
+  const xs = [...pts.map((p) => p.x), ...q.map((p) => p.low), ...q.map((p) => p.high)].filter((v) => v > 0 && Number.isFinite(v)).map((v) => v * d.factor);
+  const xlo = Math.min(...xs) / 1.08;
+  const xhi = Math.max(...xs) * 1.08;
+  const ylo = weibullPlotY(Fs[0]) - 0.2;
+  const yhi = weibullPlotY(Fs[Fs.length - 1]) + 0.2;
+  const W = 900;
+  const H = 440;
+  const L = 70;
+  const R = 20;
+  const T = 28;
+  const B = 46;
+  const px = (v: number) => L + ((Math.log(v) - Math.log(xlo)) / (Math.log(xhi) - Math.log(xlo))) * (W - L - R);
+  const py = (y: number) => H - B - ((y - ylo) / (yhi - ylo)) * (H - T - B);
+  const parts = [`<svg class="chart" xmlns="http://www.w3.org/2000/svg" width="${W}" height="${H}" viewBox="0 0 ${W} ${H}" role="img" aria-label="Weibull plot">`];
+  parts.push(`<text x="${L}" y="16" class="t">${esc(w.quantity)}: ● devices (median ranks) · solid: ML fit, β = ${+w.shape.value.toPrecision(3)}, η = ${esc(formatValue(w.scale.value, w.scale.unit))} · dashed: ${pct} bounds</text>`);
+  parts.push(`<rect x="${L}" y="${T}" width="${W - L - R}" height="${H - T - B}" fill="none" stroke="#888"/>`);
+  for (const t of logTicks(xlo, xhi)) {
+    const X = px(t).toFixed(1);
+    parts.push(`<line x1="${X}" y1="${T}" x2="${X}" y2="${H - B}" stroke="#e4e1d8"/><text x="${X}" y="${H - B + 14}" text-anchor="middle">${num(t, 3)}</text>`);
+  }
+  for (const F of Fs) {
+    const Y = py(weibullPlotY(F)).toFixed(1);
+    parts.push(`<line x1="${L}" y1="${Y}" x2="${W - R}" y2="${Y}" stroke="${F === 0.632 ? '#bbb' : '#e4e1d8'}"/><text x="${L - 4}" y="${Y}" text-anchor="end" dominant-baseline="middle">${+(F * 100).toPrecision(3)} %</text>`);
+  }
+  parts.push(`<text x="${(L + W - R) / 2}" y="${H - 8}" text-anchor="middle" class="ax">${esc(w.quantity)} (${esc(d.unit)}), log scale</text>`);
+  parts.push(`<text transform="translate(14 ${(T + H - B) / 2}) rotate(-90)" text-anchor="middle" class="ax">fraction broken down F (on ln(−ln(1 − F)))</text>`);
+  const line = (xsv: number[], stroke: string, extra: string) => `<polyline fill="none" stroke="${stroke}" ${extra} points="${xsv.map((x, k) => `${px(x * d.factor).toFixed(1)},${py(weibullPlotY(Fs[k])).toFixed(1)}`).join(' ')}"/>`;
+  parts.push(line(q.map((p) => p.low), OKABE_ITO.sky, 'stroke-dasharray="5 4" stroke-width="1.4"'));
+  parts.push(line(q.map((p) => p.high), OKABE_ITO.sky, 'stroke-dasharray="5 4" stroke-width="1.4"'));
+  parts.push(line(q.map((p) => p.value), OKABE_ITO.black, 'stroke-width="2"'));
+  for (const p of pts) parts.push(`<circle class="device" cx="${px(p.x * d.factor).toFixed(1)}" cy="${py(weibullPlotY(p.F)).toFixed(1)}" r="3" fill="${OKABE_ITO.vermillion}"><title>${esc(formatValue(p.x, w.scale.unit))}, F = ${p.F.toFixed(3)}</title></circle>`);
+  parts.push('</svg>');
+  return parts.join('');
 }
 
 export function renderLot(a: LotAnalysis, o: LotOptions = {}): string {

@@ -250,7 +250,6 @@ export function lotResults(devices: readonly DeviceSummary[]): LotResult[] {
         ...(id.y !== undefined ? { y: id.y } : {}),
         ...(id.area !== undefined ? { area: id.area } : {}),
         ...(id.thickness !== undefined ? { thickness: id.thickness } : {}),
-        ...(r.area === undefined && id.area !== undefined ? { area: id.area } : {}),
         session: d.session,
       });
     }

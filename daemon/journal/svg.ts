@@ -29,36 +29,11 @@ export interface SvgChart {
   readonly hlines?: readonly { y: number; color: string; dash?: string; label?: string }[];
 }
 
+import { formatLogTick, formatTicks, logTicks, niceTicks } from '../../protocols/number-format.js';
+
 const esc = (s: string) => s.replace(/&/g, '&amp;').replace(/</g, '&lt;').replace(/>/g, '&gt;').replace(/"/g, '&quot;');
 
-/**
- * Round tick values between lo and hi. Ticks are counted by index (never by adding a step to a
- * running total), so a range narrower than the spacing of doubles near lo — a parameter's ±2σ band
- * on a large value — gives the two ends instead of a loop that never ends.
- */
-export function niceTicks(lo: number, hi: number, count = 5): number[] {
-  if (!Number.isFinite(lo) || !Number.isFinite(hi)) return [];
-  if (!(hi > lo)) return [lo];
-  const raw = (hi - lo) / count;
-  const mag = 10 ** Math.floor(Math.log10(raw));
-  const step = [1, 2, 5, 10].map((m) => m * mag).find((s) => s >= raw) ?? 10 * mag;
-  const first = Math.ceil(lo / step);
-  const last = Math.floor(hi / step + 1e-9);
-  // A step below the resolution of the values themselves: no distinct round ticks exist.
-  if (!(step > Math.max(Math.abs(lo), Math.abs(hi)) * 4 * Number.EPSILON) || last - first > 10 * count) return [lo, hi];
-  const out: number[] = [];
-  for (let k = first; k <= last; k++) {
-    const t = k * step;
-    out.push(Math.abs(t) < step * 1e-9 ? 0 : t);
-  }
-  return out;
-}
-
-function fmt(v: number): string {
-  if (v === 0) return '0';
-  const a = Math.abs(v);
-  return a >= 1e4 || a < 1e-2 ? v.toExponential(1) : String(+v.toPrecision(3));
-}
+export { niceTicks } from '../../protocols/number-format.js';
 
 export function svgChart(c: SvgChart): string {
   const W = c.width ?? 460;
@@ -120,16 +95,22 @@ export function svgChart(c: SvgChart): string {
     if (Number.isFinite(a) && Number.isFinite(z)) parts.push(`<rect x="${Math.min(a, z).toFixed(1)}" y="${T}" width="${Math.abs(z - a).toFixed(1)}" height="${H - T - B}" fill="${b.color}" stroke="#0072B2" stroke-dasharray="4 3"/>`);
   }
   // Axes and ticks.
-  const xt = c.xLog ? Array.from({ length: x1 - x0 + 1 }, (_, k) => x0 + k) : niceTicks(x0, x1);
-  const yt = c.yLog ? Array.from({ length: y1 - y0 + 1 }, (_, k) => y0 + k).filter((_, k, a) => a.length <= 9 || k % Math.ceil(a.length / 8) === 0) : niceTicks(y0, y1);
+  // Ticks in value space (log axes: decades, or 1-2-5 steps on narrow ranges), labelled so that no
+  // two labels on an axis read the same.
+  const ticks = (lo: number, hi: number, log: boolean): { at: number; label: string }[] => {
+    if (log) return logTicks(10 ** lo, 10 ** hi).map((v) => ({ at: Math.log10(v), label: formatLogTick(v) }));
+    const t = niceTicks(lo, hi);
+    const labels = formatTicks(t);
+    return t.map((v, k) => ({ at: v, label: labels[k] }));
+  };
   parts.push(`<rect x="${L}" y="${T}" width="${W - L - R}" height="${H - T - B}" fill="none" stroke="#888"/>`);
-  for (const t of xt) {
-    const X = px(t).toFixed(1);
-    parts.push(`<line x1="${X}" y1="${T}" x2="${X}" y2="${H - B}" stroke="#e4e1d8"/><text x="${X}" y="${H - B + 14}" text-anchor="middle">${c.xLog ? `1e${t}` : fmt(t)}</text>`);
+  for (const t of ticks(x0, x1, Boolean(c.xLog))) {
+    const X = px(t.at).toFixed(1);
+    parts.push(`<line x1="${X}" y1="${T}" x2="${X}" y2="${H - B}" stroke="#e4e1d8"/><text x="${X}" y="${H - B + 14}" text-anchor="middle">${esc(t.label)}</text>`);
   }
-  for (const t of yt) {
-    const Y = py(t).toFixed(1);
-    parts.push(`<line x1="${L}" y1="${Y}" x2="${W - R}" y2="${Y}" stroke="#e4e1d8"/><text x="${L - 4}" y="${Y}" text-anchor="end" dominant-baseline="middle">${c.yLog ? `1e${t}` : fmt(t)}</text>`);
+  for (const t of ticks(y0, y1, Boolean(c.yLog))) {
+    const Y = py(t.at).toFixed(1);
+    parts.push(`<line x1="${L}" y1="${Y}" x2="${W - R}" y2="${Y}" stroke="#e4e1d8"/><text x="${L - 4}" y="${Y}" text-anchor="end" dominant-baseline="middle">${esc(t.label)}</text>`);
   }
   parts.push(`<text x="${(L + W - R) / 2}" y="${H - 8}" text-anchor="middle" class="ax">${esc(c.xLabel)}</text>`);
   parts.push(`<text transform="translate(14 ${(T + H - B) / 2}) rotate(-90)" text-anchor="middle" class="ax">${esc(c.yLabel)}</text>`);

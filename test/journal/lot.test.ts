@@ -182,6 +182,8 @@ describe('lot report', () => {
     expect(html).toContain(`${+direct.shape.value.toPrecision(4)} (90 %`);
     expect(html).toMatch(/breakdown field \(MV\/cm\)/);
     expect(html).toContain('11.5'); // 1.15e9 V/m = 11.5 MV/cm in the table
+    // The Weibull plot: one marker per breakdown (the survivor is not plotted).
+    expect(html.match(/<circle class="device"/g)).toHaveLength(8);
     expect(html).not.toMatch(/<script/);
   });
 });
