@@ -111,7 +111,7 @@ async function abortLatency(): Promise<{ median: number; max: number }> {
  * call to the output-off bytes arriving at the instrument over loopback TCP, while its READ? is
  * still unanswered.
  */
-export async function abortWithReadingInFlight(): Promise<{ median: number; max: number; trials: number }> {
+async function abortWithReadingInFlight(): Promise<{ median: number; max: number; trials: number }> {
   const times: number[] = [];
   for (let run = 0; run < 5; run++) {
     const dir = mkdtempSync(join(tmpdir(), 'plumbline-bench-'));

@@ -6,6 +6,7 @@ import { benchProtocols } from './protocols.js';
 import { benchDaemon } from './daemon.js';
 import { benchPage } from './page.js';
 import { benchLot } from './lot.js';
+import { benchAdaptive } from './adaptive.js';
 
 process.stdout.write(`plumbline benchmarks — Node ${process.version}, ${cpus()[0]?.model ?? 'unknown CPU'}, single thread\n\n`);
 process.stdout.write('analysis core\n');
@@ -15,6 +16,8 @@ process.stdout.write('\nprotocols and simulated instrument\n');
 await benchProtocols();
 process.stdout.write('\ndaemon: live chain, journal, abort, websocket\n');
 await benchDaemon();
+process.stdout.write('\nadaptive against fixed sweeps (to the error each scenario\'s usual sweep reaches)\n');
+await benchAdaptive();
 process.stdout.write('\nlots: many sessions\n');
 await benchLot();
 process.stdout.write('\nlive page (headless Chromium)\n');
