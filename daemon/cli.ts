@@ -4,7 +4,10 @@
  * daemon modules, and prints either a readable table or exactly one JSON object.
  * Exit codes: 0 done; 1 the analysis could not be done on these data; 2 bad input or usage.
  */
+import { readFileSync } from 'node:fs';
+import { join } from 'node:path';
 import { Command, CommanderError } from 'commander';
+import { projectRoot } from '../protocols/project-root.js';
 import { analyze } from './analysis/analyze.js';
 import { AnalysisError } from './analysis/errors.js';
 import { MODEL_IDS } from './analysis/mechanisms/index.js';
@@ -30,11 +33,20 @@ import { registerWeibull } from './cli/weibull.js';
 
 import { isInputError, UsageError } from './cli/usage.js';
 
+/** The version in package.json (one place for it). */
+function packageVersion(): string {
+  try {
+    return (JSON.parse(readFileSync(join(projectRoot(), 'package.json'), 'utf8')) as { version: string }).version;
+  } catch {
+    return 'unknown';
+  }
+}
+
 const program = new Command();
 program
   .name('plumbline')
   .description('Live and offline analysis of current–voltage sweeps from source-measure units.')
-  .version('0.1.0')
+  .version(packageVersion())
   .showHelpAfterError()
   .exitOverride();
 
