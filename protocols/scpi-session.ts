@@ -191,8 +191,10 @@ export class ScpiSession {
     const epoch = this.epoch;
     const step = async (): Promise<T> => {
       if (epoch !== this.epoch) throw new ScpiCancelledError(this.cancelReason);
-      const wait = this.lastWriteAt + this.commandDelayMs - performance.now();
-      if (this.commandDelayMs > 0 && wait > 0) await sleep(wait);
+      // Timers may fire a fraction of a millisecond early: wait until the gap is really there.
+      for (let wait = this.lastWriteAt + this.commandDelayMs - performance.now(); this.commandDelayMs > 0 && wait > 0; wait = this.lastWriteAt + this.commandDelayMs - performance.now()) {
+        await sleep(Math.ceil(wait));
+      }
       if (epoch !== this.epoch) throw new ScpiCancelledError(this.cancelReason);
       return fn();
     };
