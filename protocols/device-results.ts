@@ -214,6 +214,7 @@ export class DeviceIdentityError extends Error {
   readonly code = 'BAD_DEVICE';
 }
 
+// biome-ignore lint/suspicious/noControlCharactersInRegex: the point is to refuse control characters in names
 const TEXT = /^[^\u0000-\u001f]{1,64}$/;
 
 /**

@@ -67,7 +67,7 @@ export class FileTail extends EventEmitter<TailEvents> {
     if (this.busy || this.stopped) return;
     this.busy = true;
     try {
-      let st;
+      let st: Awaited<ReturnType<typeof stat>>;
       try {
         st = await stat(this.path);
       } catch {

@@ -107,7 +107,7 @@ export async function listSerialPorts(): Promise<{ ports: SerialPortInfo[]; warn
 export function duplexPair(): [Duplex, Duplex] {
   const aToB = new PassThrough();
   const bToA = new PassThrough();
-  const make = (readable: PassThrough, writable: PassThrough) =>
+  const make = (_readable: PassThrough, writable: PassThrough) =>
     new Duplex({
       read() {
         /* data is pushed from the readable side below */

@@ -239,7 +239,7 @@ export function preparePoints(
       count(REASONS.notFinite);
       continue;
     }
-    if ((data.compliance && data.compliance[i]) || (limit !== undefined && Math.abs(rawY) >= 0.99 * limit)) {
+    if ((data.compliance?.[i]) || (limit !== undefined && Math.abs(rawY) >= 0.99 * limit)) {
       count(REASONS.compliance);
       continue;
     }

@@ -64,7 +64,7 @@ function points(data: IVData, req: DiodeRequest): Points {
       count(REASONS.notFinite);
       continue;
     }
-    if ((data.compliance && data.compliance[k]) || (req.complianceLimit !== undefined && Math.abs(i) >= 0.99 * req.complianceLimit)) {
+    if ((data.compliance?.[k]) || (req.complianceLimit !== undefined && Math.abs(i) >= 0.99 * req.complianceLimit)) {
       count(REASONS.compliance);
       continue;
     }
@@ -96,7 +96,7 @@ function illuminatedStart(p: Points, vt: number): DiodeStart {
   const isc = interpolateAt(v, i, 0) ?? Math.max(...i);
   const voc = crossing(v, i) ?? v[v.length - 1];
   // Shunt: slope of the flat part (V below half of V_oc).
-  const flat = v.map((x, k) => k).filter((k) => v[k] < 0.5 * voc);
+  const flat = v.map((_x, k) => k).filter((k) => v[k] < 0.5 * voc);
   let rsh = 1e4 * (voc / Math.max(isc, 1e-30));
   if (flat.length >= 3) {
     const f = fitLine(flat.map((k) => v[k]), flat.map((k) => i[k]));

@@ -50,7 +50,7 @@ function residualAt(v: number, i: number, c: DiodeCircuit, ex: Float64Array, out
   for (let k = 0; k < ds.length; k++) {
     const d = ds[k];
     const a = u / (d.n * c.vt);
-    const e = Math.exp(a < EXP_CAP ? a : EXP_CAP);
+    const e = Math.exp(Math.min(a , EXP_CAP));
     ex[k] = e;
     f -= d.i0 * (e - 1);
     df -= (d.i0 * e * rs) / (d.n * c.vt);

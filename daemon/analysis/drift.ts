@@ -54,7 +54,7 @@ export function ewmaStep(z: number, x: number, lambda: number): number {
 
 /** σ of z after t updates: σ√(λ/(2−λ)·[1−(1−λ)^{2t}]). */
 export function ewmaSigma(sigma: number, lambda: number, t: number): number {
-  return sigma * Math.sqrt((lambda / (2 - lambda)) * (1 - Math.pow(1 - lambda, 2 * t)));
+  return sigma * Math.sqrt((lambda / (2 - lambda)) * (1 - (1 - lambda) ** (2 * t)));
 }
 
 /** Moving-range estimate of σ for individual values: mean |x_i − x_{i−1}| / 1.128 (d2 for n = 2). */

@@ -89,7 +89,7 @@ function prepare(d: WeibullData): Prepared {
   for (let i = 0; i < n; i++) {
     const x = d.values[i];
     if (!(x > 0) || !Number.isFinite(x)) throw new AnalysisError('BAD_INPUT', `value ${i + 1} is ${x}: Weibull values must be finite and > 0`, 'values');
-    fail[i] = d.censored && d.censored[i] ? 0 : 1;
+    fail[i] = d.censored?.[i] ? 0 : 1;
     const ai = d.areaFactor ? d.areaFactor[i] : 1;
     if (!(ai > 0) || !Number.isFinite(ai)) throw new AnalysisError('BAD_INPUT', `area factor ${i + 1} is ${ai}: must be finite and > 0`, 'areaFactor');
     a[i] = ai;
@@ -279,7 +279,6 @@ export function chiSquare1Quantile(confidence: number): number {
  * in β, so its maximum is the single root of its derivative.
  */
 function profileQ(p: Prepared, lnQT: number, k: number): number {
-  const lnk = Math.log(k);
   let sumLF = 0;
   for (let i = 0; i < p.n; i++) if (p.fail[i]) sumLF += p.lnT[i] - lnQT;
   const beta = decreasingRoot((b) => {
@@ -432,7 +431,7 @@ export interface PlotPoint {
 export function medianRankPoints(d: WeibullData): PlotPoint[] {
   const n = d.values.length;
   const idx = Array.from({ length: n }, (_, k) => k);
-  const isCens = (k: number) => Boolean(d.censored && d.censored[k]);
+  const isCens = (k: number) => Boolean(d.censored?.[k]);
   idx.sort((a, b) => d.values[a] - d.values[b] || Number(isCens(a)) - Number(isCens(b)) || a - b);
   const out: PlotPoint[] = [];
   let order = 0;
@@ -592,7 +591,7 @@ export function bendTest(d: WeibullData, fit: WeibullFit, bootstrap = 199, seed 
     for (let i = 0; i < n; i++) {
       const a = d.areaFactor ? d.areaFactor[i] : 1;
       const v = fit.scale * (-Math.log(rnd()) / a) ** (1 / fit.shape);
-      const c = d.censored && d.censored[i] ? d.values[i] : Infinity;
+      const c = d.censored?.[i] ? d.values[i] : Infinity;
       sim[i] = Math.min(v, c);
       cens[i] = v > c ? 1 : 0;
     }

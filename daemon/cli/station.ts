@@ -165,7 +165,7 @@ export function registerStation(program: Command): void {
     .addHelpText('after', '\nA plan file may also carry the device under test: {"kind": …, "device": {"wafer": "W07", "site": "C4", "x": 3, "y": -2, "area": 1e-8}} (SI); the options above override its fields.\nExit codes: 0 completed or stopped, 2 bad input, 3 aborted by the user, 4 aborted by drift, 5 aborted by breakdown, 6 instrument fault (no usable reading, replies out of step, no answer), 7 refused by the safety guard, 9 the journal could not be written (disk full), 10 internal error.'))
     .action(async (o: StationOptions & DeviceOptions & { plan?: string; sweeps?: string; model?: string; json?: boolean; overrideDiskCheck?: boolean }) => {
       const config = await stationConfig(o);
-      const { dataDir, Station, EXIT_CODE, describePlan, startServer } = await daemonModules();
+      const { dataDir, Station, EXIT_CODE, describePlan } = await daemonModules();
       const data = dataDir(config, o.data);
       const station = new Station(config, data);
       for (const r of station.recovered) process.stderr.write(`journal ${r.dir}: ${r.message}\n`);
@@ -246,7 +246,7 @@ export function registerStation(program: Command): void {
     .option('--no-autostart', 'do not start the default plan at once even if the config says so')
     .action(async (o: StationOptions & { port?: string; host?: string; autostart: boolean }) => {
       const config = await stationConfig(o);
-      const { dataDir, Station, EXIT_CODE, describePlan, startServer } = await daemonModules();
+      const { dataDir, Station, startServer } = await daemonModules();
       const data = dataDir(config, o.data);
       const port = o.port !== undefined ? Number(o.port) : config.server.port;
       if (!Number.isInteger(port) || port < 0 || port > 65535) throw new UsageError(`--port '${o.port}': expected a port number`);
@@ -319,7 +319,7 @@ export function registerStation(program: Command): void {
         srv = await startServer(station, { host: config.server.host, port, token: config.server.token, allowedHosts: config.server.allowedHosts });
       }
       const where = src.kind === 'stdin' ? 'standard input' : src.kind === 'tcp' ? `TCP ${src.host}:${src.port}` : src.kind === 'serial' ? `serial ${src.path}` : src.path;
-      let source;
+      let source: import('../../protocols/line-source.js').LineSource;
       try {
         source = src.kind === 'stdin' ? streamLines(process.stdin, 65536, term)
           : src.kind === 'tcp' ? await tcpLines(src.host, src.port, term)
@@ -496,7 +496,7 @@ export function registerStation(program: Command): void {
     .action(async (dir: string, o: { json?: boolean }) => {
       const { recoverSession, recoverAll } = await daemonModules();
       const abs = resolve(dir);
-      let reports;
+      let reports: import('../journal/reader.js').RecoveryReport[];
       try {
         reports = [recoverSession(abs)];
       } catch {

@@ -67,7 +67,7 @@ export function exportSession(sessionDir: string, outDir = join(sessionDir, 'exp
   // The device identity as it stands: the session's, with later corrections (annotations) applied.
   let device: DeviceIdentity = {};
   const qs = csvField(session);
-  let scan;
+  let scan: ReturnType<typeof scanJournal>;
   try {
     scan = scanJournal(dir, (e) => {
       switch (e.type) {

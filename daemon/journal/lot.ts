@@ -126,7 +126,7 @@ export function summarizeSession(dirIn: string): DeviceSummary {
   let chosen: Extract<WireEvent, { type: 'fit' }>['fit'] = null;
   for (const sweep of [...fits.keys()].sort((a, b) => a - b)) {
     const f = fits.get(sweep)?.fit;
-    if (f && f.plausible && complete.get(sweep) !== false) {
+    if (f?.plausible && complete.get(sweep) !== false) {
       fitSweep = sweep;
       chosen = f;
       break;

@@ -134,7 +134,7 @@ table{border-collapse:collapse;font-variant-numeric:tabular-nums;font-size:.85re
           keep = (x: number) => tx(x) >= a - mg && tx(x) <= b + mg;
           hidden = v.x.filter((x) => !keep(x)).length;
         }
-        const sel = (inside: boolean) => v.x.map((x, k) => k).filter((k) => (v.inWindow[k] === 1) === inside && keep(v.x[k]));
+        const sel = (inside: boolean) => v.x.map((_x, k) => k).filter((k) => (v.inWindow[k] === 1) === inside && keep(v.x[k]));
         const inX = sel(true).map((k) => v.x[k]);
         const inY = sel(true).map((k) => v.y[k]);
         const outX = sel(false).map((k) => v.x[k]);

@@ -98,7 +98,7 @@ export function feedPassive(source: LineSource, chain: LiveChain, mapping: Colum
           return;
         }
         stats.lines++;
-        let r;
+        let r: ReturnType<CsvRowMapper['map']>;
         try {
           r = mapper.map(x.line as string);
         } catch (e) {

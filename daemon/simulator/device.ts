@@ -49,7 +49,6 @@ export class SimulatedDevice {
   private readonly params: Record<string, number>;
   private readonly inputs;
   private readonly mech;
-  private readings = 0;
   broken = false;
   /** Charge density passed so far, C/m² (wear-out devices). */
   injected = 0;
@@ -133,7 +132,6 @@ export class SimulatedDevice {
 
   /** Called once per measured point at bias v: applies breakdown and degradation. */
   stress(v: number): void {
-    this.readings++;
     const d = this.spec.inputs.thickness;
     if (!this.broken && this.spec.breakdownField !== undefined && d !== undefined && Math.abs(v) / d >= this.spec.breakdownField) {
       this.broken = true;

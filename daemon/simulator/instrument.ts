@@ -475,12 +475,12 @@ export class SimulatedSmu {
 
   /** Applies fault injection to a reply on its way out; returns the bytes to send. */
   frame(reply: string, isReading: boolean): { bytes: string; disconnect: boolean } {
-    let bytes = reply + '\n';
+    let bytes = `${reply}\n`;
     const f = this.faults;
-    if (isReading && f.strayAfterReadings !== undefined && this.readingsServed === f.strayAfterReadings) bytes += reply + '\n';
+    if (isReading && f.strayAfterReadings !== undefined && this.readingsServed === f.strayAfterReadings) bytes += `${reply}\n`;
     if (isReading && f.hangAfterReadings !== undefined && this.readingsServed >= f.hangAfterReadings) this.hung = true;
     if (f.dropTerminatorEvery && this.replies % f.dropTerminatorEvery === 0) bytes = reply;
-    if (f.garbageEvery && this.replies % f.garbageEvery === 0) bytes = '\u0007#@!\u00ff' + bytes;
+    if (f.garbageEvery && this.replies % f.garbageEvery === 0) bytes = `\u0007#@!\u00ff${bytes}`;
     const disconnect = isReading && f.disconnectAfterReadings !== undefined && this.readingsServed >= f.disconnectAfterReadings;
     return { bytes, disconnect };
   }

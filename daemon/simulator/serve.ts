@@ -10,7 +10,7 @@ import { join } from 'node:path';
 import type { Duplex } from 'node:stream';
 import { SerialPort } from 'serialport';
 import { LineFramer, type ReadTerminator } from '../../protocols/line-framer.js';
-import { SimulatedSmu } from './instrument.js';
+import type { SimulatedSmu } from './instrument.js';
 
 /** How the simulated instrument frames its lines (as a dialect's terminators would describe it). */
 export interface LinkFraming {

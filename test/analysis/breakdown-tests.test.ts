@@ -22,7 +22,7 @@ describe('voltage ramp', () => {
 
   it('the decade jump fires at the step where it happens, with the ratio', () => {
     const j = new VoltageRampJudge(CRITERIA, 1e-3);
-    let verdict;
+    let verdict: ReturnType<VoltageRampJudge['add']>;
     for (let k = 0; k < v.length && !verdict; k++) verdict = j.add(v[k], i[k], false);
     expect(verdict?.criterion).toBe('current-jump');
     expect(verdict?.index).toBe(11);
@@ -33,7 +33,7 @@ describe('voltage ramp', () => {
     // Slope ln2/0.5 for ten steps, then one step ×8 (slope ln8/0.5 = 3× the median): index 10.
     const ii = v.map((_, k) => 1e-9 * 2 ** Math.min(k, 9) * (k >= 10 ? 8 ** (k - 9) : 1));
     const j = new VoltageRampJudge(CRITERIA, 1e-3);
-    let verdict;
+    let verdict: ReturnType<VoltageRampJudge['add']>;
     for (let k = 0; k < v.length && !verdict; k++) verdict = j.add(v[k], ii[k], false);
     expect(verdict?.criterion).toBe('slope-change');
     expect(verdict?.index).toBe(10);
@@ -45,9 +45,8 @@ describe('voltage ramp', () => {
     // J ∝ E² exp(−B/E) (Fowler & Nordheim 1928): d ln J/dV decreases with V.
     const B = 25; // V/nm·nm: B·d with d = 1 nm in these units — any B > 0 makes the slope fall
     const j = new VoltageRampJudge({ ...CRITERIA, currentLimit: 1e-4 }, 1e-3);
-    let verdict;
-    let k = 0;
-    for (let V = 2; V <= 20 && !verdict; V += 0.1, k++) verdict = j.add(V, 1e-3 * V * V * Math.exp(-B / V), false);
+    let verdict: ReturnType<VoltageRampJudge['add']>;
+    for (let V = 2; V <= 20 && !verdict; V += 0.1) verdict = j.add(V, 1e-3 * V * V * Math.exp(-B / V), false);
     expect(verdict?.criterion).toBe('current-limit');
     expect(1e-3 * (verdict?.numbers.voltage ?? 0) ** 2 * Math.exp(-B / (verdict?.numbers.voltage ?? 1))).toBeGreaterThanOrEqual(1e-4);
   });

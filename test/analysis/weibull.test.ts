@@ -43,7 +43,7 @@ function lot(n: number, shape: number, scale: number, seed: number, censorAt = I
 // (scipy.stats.CensoredData arrived in 1.11): for censored lots the snippet maximises the censored
 // log-likelihood, Σ logpdf(failures) + Σ logsf(survivors), with scipy.optimize; where CensoredData
 // exists it also fits with it and reports both.
-const FIT_PY = String.raw`
+const FIT_PY = `
 import json, sys, numpy as np
 from scipy import stats, optimize
 d = json.load(sys.stdin)
@@ -71,7 +71,7 @@ print(json.dumps(out))
 // Reference bounds, computed independently of our profile formulas: the profile likelihoods are
 // maximised numerically (minimize_scalar), the crossings found with brentq, χ² from scipy.stats.chi2;
 // Fisher bounds from a central-difference Hessian of scipy's log-likelihood.
-const BOUNDS_PY = String.raw`
+const BOUNDS_PY = `
 import json, sys, numpy as np
 from scipy import stats, optimize
 d = json.load(sys.stdin)
@@ -210,8 +210,14 @@ describe('confidence bounds', () => {
     console.log(`coverage of 90 % bounds, 20 devices: LR β ${lr.shape} η ${lr.scale}; LR censored at η (≈37 % survive) β ${lrCens.shape} η ${lrCens.scale}; Fisher β ${fisher.shape} η ${fisher.scale}`);
     // Binomial SD of a 1,000-lot proportion at 0.9 is 0.0095: ±3 SD, plus the known small-sample
     // shortfall of asymptotic bounds (Meeker & Escobar 1998, §8.4).
-    for (const v of [lr.shape, lr.scale]) expect(v).toBeGreaterThan(0.87), expect(v).toBeLessThan(0.93);
-    for (const v of [lrCens.shape, lrCens.scale]) expect(v).toBeGreaterThan(0.86), expect(v).toBeLessThan(0.94);
+    for (const v of [lr.shape, lr.scale]) {
+      expect(v).toBeGreaterThan(0.87);
+      expect(v).toBeLessThan(0.93);
+    }
+    for (const v of [lrCens.shape, lrCens.scale]) {
+      expect(v).toBeGreaterThan(0.86);
+      expect(v).toBeLessThan(0.94);
+    }
     // Fisher bounds on β undercover at n = 20; the likelihood-ratio ones are closer to nominal.
     expect(Math.abs(lr.shape - 0.9)).toBeLessThanOrEqual(Math.abs(fisher.shape - 0.9) + 0.01);
   });

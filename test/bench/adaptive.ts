@@ -99,7 +99,7 @@ async function adaptive(c: Case, stdErr: number): Promise<Outcome | undefined> {
   const { result, dir } = await run(c.scenario, { kind: 'adaptive', start: sc.sweep.start, stop: sc.sweep.stop, maxPoints: 400, compliance: sc.sweep.compliance, target: { parameter: c.parameter, stdErr } }, 9);
   rmSync(dir, { recursive: true, force: true });
   const a = result.adaptive;
-  if (!a || !a.parameter) return undefined;
+  if (!a?.parameter) return undefined;
   return { readings: a.readings, peak: a.maxAbsBias, charge: a.charge, value: a.parameter.value, stdErr: a.parameter.stdErr };
 }
 

@@ -18,7 +18,7 @@ import { afterEach, describe, expect, it } from 'vitest';
 import { scanJournal } from '../../daemon/journal/reader.js';
 import { SimulatedSmu } from '../../daemon/simulator/instrument.js';
 import { findScenario } from '../../daemon/simulator/scenarios.js';
-import { servePty, serveTcp, type LinkFraming } from '../../daemon/simulator/serve.js';
+import { servePty, type LinkFraming } from '../../daemon/simulator/serve.js';
 import { DIALECT_DIR } from '../../protocols/dialect.js';
 import { FLAG, type WireEvent } from '../../protocols/wire.js';
 import { CLI, runCli } from '../helpers/cli.js';

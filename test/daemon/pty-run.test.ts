@@ -9,7 +9,7 @@
  * heights, with σ from the baseline's moving range / 1.128 (common practice) floored as the
  * station config states.
  */
-import { spawn, spawnSync } from 'node:child_process';
+import { spawn, } from 'node:child_process';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { scanJournal } from '../../daemon/journal/reader.js';

@@ -103,7 +103,11 @@ export class Viewer {
         if (e.seq <= this.lastSeq) continue;
         this.lastSeq = e.seq;
         this.events.push(e);
-        this.waiters = this.waiters.filter((w) => (w.pred(e) ? (w.resolve(e), false) : true));
+        this.waiters = this.waiters.filter((w) => {
+          if (!w.pred(e)) return true;
+          w.resolve(e);
+          return false;
+        });
       }
     });
   }
@@ -121,7 +125,13 @@ export class Viewer {
     if (found) return Promise.resolve(found);
     return new Promise((resolve, reject) => {
       const t = setTimeout(() => reject(new Error(`timed out waiting; last events: ${JSON.stringify(this.events.slice(-3))}`)), timeoutMs);
-      this.waiters.push({ pred, resolve: (e) => (clearTimeout(t), resolve(e)) });
+      this.waiters.push({
+        pred,
+        resolve: (e) => {
+          clearTimeout(t);
+          resolve(e);
+        },
+      });
     });
   }
 

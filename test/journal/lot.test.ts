@@ -20,7 +20,7 @@ const tmp = () => mkdtempSync(join(tmpdir(), 'plumbline-lot-'));
 
 const ROWS: DeviceResult[] = [
   { device: 'D1', wafer: 'W07', site: 'C3', x: 0, y: 0, test: 'voltage-ramp', outcome: 'breakdown', criterion: 'current-jump', breakdownVoltage: 8.05, breakdownField: 1.15e9, chargeToBreakdown: 0.41, area: 1e-8, thickness: 7e-9, temperature: 298.15, leakageBefore: 1.2e-12, leakageAfter: 3.4e-11, tags: ['lot A', 'edge'] },
-  { device: 'D2, "spare"', test: 'voltage-ramp', outcome: 'survived', criterion: 'max-voltage', breakdownVoltage: 9, breakdownField: 1.2857142857142858e9 },
+  { device: 'D2, "spare"', test: 'voltage-ramp', outcome: 'survived', criterion: 'max-voltage', breakdownVoltage: 9, breakdownField: 9 / 7e-9 },
   { device: 'D3', test: 'voltage-ramp', outcome: 'initial-failure' },
 ];
 

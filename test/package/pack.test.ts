@@ -43,7 +43,7 @@ describe('npm pack of a fresh clone', () => {
     expect(v.code, v.out).toBe(0);
     expect(v.out.trim()).toBe(version);
     // An ohmic film of 1 GΩ (V/I = 1e9 Ω): the fit gives it back.
-    writeFileSync(join(app, 'sweep.csv'), 'V,I\n' + [1, 2, 3, 4, 5, 6].map((x) => `${x},${x * 1e-9}`).join('\n') + '\n');
+    writeFileSync(join(app, 'sweep.csv'), `V,I\n${[1, 2, 3, 4, 5, 6].map((x) => `${x},${x * 1e-9}`).join('\n')}\n`);
     const fit = sh(bin, ['fit', 'sweep.csv', '--model', 'ohmic', '--json'], app);
     expect(fit.code, fit.out).toBe(0);
     const r = JSON.parse(fit.out);

