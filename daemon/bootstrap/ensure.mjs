@@ -36,11 +36,16 @@ function debianPython(module) {
   return r.status === 0;
 }
 
-// 1. npm dependencies
+// 1. npm dependencies: a fresh clone gets exactly the locked versions (npm ci); an existing
+// node_modules that is older than the lockfile is brought up to date in place (npm install), never
+// wiped.
 const stamp = join(root, 'node_modules', '.package-lock.json');
-if (!existsSync(stamp) || mtime(join(root, 'package-lock.json')) > mtime(stamp)) {
-  console.error('plumbline setup: installing npm dependencies (npm ci) ...');
+if (!existsSync(join(root, 'node_modules'))) {
+  console.error('plumbline setup: node_modules is missing — installing the locked npm dependencies (npm ci) ...');
   run('npm', ['ci', '--no-audit', '--no-fund']);
+} else if (!existsSync(stamp) || mtime(join(root, 'package-lock.json')) > mtime(stamp)) {
+  console.error('plumbline setup: package-lock.json is newer than node_modules — updating the npm dependencies in place (npm install) ...');
+  run('npm', ['install', '--no-audit', '--no-fund']);
 }
 
 // 2. Debian packages the tests need
