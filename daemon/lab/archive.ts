@@ -223,20 +223,24 @@ export class Archive {
     if (!c?.connected) return;
     const now = Date.now();
     const grace = this.options.replayAfterMs ?? 2000;
-    // While batches queued on the broker are still being worked through, a "gap" may just be
-    // waiting in that queue: ask for nothing until the archive has caught up.
-    if (now - this.lastBatchAt < grace && this.lastTransit > 500) return;
+    // A gap below the highest archived seq is a real loss (a session's batches arrive in order).
+    // One at the tail may just be waiting in the broker's queue while a backlog is worked through:
+    // it is asked for only once the archive has caught up.
+    const backlog = now - this.lastBatchAt < grace && this.lastTransit > 500;
     for (const p of this.progress.values()) {
-      const missing = missingRanges(p.committed, p.knownLast);
+      const top = p.committed.length > 0 ? p.committed[p.committed.length - 1][1] : 0;
+      const missing = missingRanges(p.committed, backlog ? top : p.knownLast);
       if (missing.length === 0) {
-        p.gapSince = undefined;
+        if (missingRanges(p.committed, p.knownLast).length === 0) p.gapSince = undefined;
         continue;
       }
       p.gapSince ??= now;
       if (now - p.gapSince < grace || now - p.lastRequest < Math.max(grace, 3000)) continue;
       p.lastRequest = now;
       this.stats.replayRequests++;
-      c.publish(topics.replay(this.addr.prefix, p.station), JSON.stringify({ session: p.session, ranges: missing.slice(0, 32) }), { qos: 1 });
+      const ranges = missing.slice(0, 32);
+      this.log(`archive: ${p.station}/${p.session} lacks seq ${ranges.map(([a, b]) => (a === b ? `${a}` : `${a}–${b}`)).join(', ')}; asking the station to publish them again`);
+      c.publish(topics.replay(this.addr.prefix, p.station), JSON.stringify({ session: p.session, ranges }), { qos: 1 });
     }
   }
 

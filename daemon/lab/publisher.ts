@@ -37,7 +37,7 @@ export interface PublisherOptions {
   readonly page?: string | null;
   readonly tokenRequired?: boolean;
   readonly log?: (line: string) => void;
-  /** How often the journals are looked at, ms (default 50). */
+  /** How often the journals are looked at, ms (default 100, the journal's own flush interval). */
   readonly pollMs?: number;
   /** Readings per batch at most (default 4096, ~230 kB). */
   readonly maxReadings?: number;
@@ -116,7 +116,7 @@ export class LabPublisher {
     this.addr = parseBrokerUrl(options.url, '--publish');
     checkName(options.station, 'station id');
     this.target = `${this.addr.server}/${this.addr.prefix}`;
-    this.pollMs = options.pollMs ?? 50;
+    this.pollMs = options.pollMs ?? 100;
     this.maxReadings = options.maxReadings ?? 4096;
     this.window = options.window ?? 16;
     this.status = new StatusTracker(options.station, options.name, options.page ?? null, options.tokenRequired ?? false);
@@ -299,6 +299,7 @@ export class LabPublisher {
       if (this.replays.length >= 64) break;
       if (this.replays.some((j) => j.id === id && j.follower.position + 1 <= r[0] && j.to >= r[1])) continue;
       this.replays.push({ id, follower: new JournalFollower(dir, r[0] - 1, this.maxReadings), to: r[1] });
+      this.log(`publish: a subscriber asked for seq ${r[0]}–${r[1]} of ${id} again; sending it from the journal`);
       this.stats.replays++;
     }
     this.schedulePump(0);
@@ -440,7 +441,8 @@ export class LabPublisher {
     this.scan(false);
     const until = Date.now() + flushMs;
     const pending = () => [...this.sessions.values()].filter((t) => !t.complete && (t.sent.length > 0 || t.follower.behind()));
-    while (Date.now() < until && this.connected && pending().length > 0) await new Promise((r) => setTimeout(r, 20));
+    // A broker that is down may come back within the wait; one that never answers costs flushMs.
+    while (Date.now() < until && pending().length > 0) await new Promise((r) => setTimeout(r, 20));
     for (const t of this.sessions.values()) this.checkComplete(t);
     const unsent = pending().map((t) => t.id);
     this.stopped = true;

@@ -200,7 +200,7 @@ export async function startPostgres(): Promise<Database> {
   children.add(pid);
   const psqlBin = join(bin, 'psql');
   const psql = (sql: string, db = 'plumbline') => {
-    const r = spawnSync(psqlBin, ['-h', dir, '-p', String(port), '-U', 'postgres', '-d', db, '-X', '-A', '-t', '-v', 'ON_ERROR_STOP=1', '-c', sql], { encoding: 'utf8' });
+    const r = spawnSync(psqlBin, ['-h', dir, '-p', String(port), '-U', 'postgres', '-d', db, '-X', '-A', '-t', '-v', 'ON_ERROR_STOP=1', '-c', sql], { encoding: 'utf8', maxBuffer: 1 << 28 });
     if (r.status !== 0) throw new Error(`psql: ${r.stderr}`);
     return r.stdout.trim();
   };
