@@ -70,4 +70,26 @@ export function registerLab(program: Command): void {
       process.on('SIGTERM', () => void stop('terminated (SIGTERM)'));
       await new Promise(() => undefined);
     });
+
+  program
+    .command('lab')
+    .description('one read-only page with every station publishing to the broker: state, device, progress, latest parameters, cautions; links to each station\'s page')
+    .requiredOption('--mqtt <url>', 'broker the stations publish to: mqtt://HOST:PORT[/PREFIX]')
+    .option('--port <n>', 'HTTP port (0 = any free port)', '8480')
+    .option('--host <addr>', 'address to listen on (anything beyond loopback needs --token)', '127.0.0.1')
+    .option('--token <token>', 'required by the page (open it as /?token=…) when set; needed beyond loopback (or PLUMBLINE_LAB_TOKEN)')
+    .action(async (o: { mqtt: string; port: string; host: string; token?: string }) => {
+      const port = Number(o.port);
+      if (!Number.isInteger(port) || port < 0 || port > 65535) throw new UsageError(`--port '${o.port}': expected a port number`);
+      const { startLabServer } = await import('../lab/lab-server.js');
+      const srv = await startLabServer({ mqtt: o.mqtt, host: o.host, port, token: o.token ?? process.env.PLUMBLINE_LAB_TOKEN, log: (line) => process.stderr.write(`${line}\n`) });
+      process.stdout.write(`plumbline lab\n  page  ${srv.url}\n`);
+      const stop = async () => {
+        await srv.close();
+        process.exit(0);
+      };
+      process.on('SIGINT', () => void stop());
+      process.on('SIGTERM', () => void stop());
+      await new Promise(() => undefined);
+    });
 }

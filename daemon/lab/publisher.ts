@@ -43,6 +43,8 @@ export interface PublisherOptions {
   readonly maxReadings?: number;
   /** Unacknowledged batches at most (default 16). */
   readonly window?: number;
+  /** Sessions created since this time (ms since the epoch) are published even if already finished (default: now). */
+  readonly since?: number;
 }
 
 interface Sent {
@@ -105,7 +107,7 @@ export class LabPublisher {
   private backoff = 500;
   private lastStatus = 0;
   private readonly status: StatusTracker;
-  private readonly startedAt = Date.now();
+  private readonly since: number;
   private outageLogged = false;
   readonly stats: PublisherStats = { batches: 0, readings: 0, events: 0, replays: 0, connected: false, reconnects: 0 };
   private readonly pollMs: number;
@@ -116,6 +118,7 @@ export class LabPublisher {
     this.addr = parseBrokerUrl(options.url, '--publish');
     checkName(options.station, 'station id');
     this.target = `${this.addr.server}/${this.addr.prefix}`;
+    this.since = options.since ?? Date.now();
     this.pollMs = options.pollMs ?? 100;
     this.maxReadings = options.maxReadings ?? 4096;
     this.window = options.window ?? 16;
@@ -127,16 +130,16 @@ export class LabPublisher {
   }
 
   start(): void {
-    this.scan(true);
+    this.scan();
     this.connect();
-    this.scanTimer = setInterval(() => this.scan(false), 250);
+    this.scanTimer = setInterval(() => this.scan(), 250);
     this.schedulePump();
   }
 
   // ---- sessions -------------------------------------------------------------------------------
 
   /** Finds sessions to publish: new ones, live ones, and ones left unfinished for this broker. */
-  private scan(initial: boolean): void {
+  private scan(): void {
     let names: string[];
     try {
       names = readdirSync(this.options.dataDir).sort();
@@ -152,11 +155,11 @@ export class LabPublisher {
       if (state?.complete) continue;
       let fresh = false;
       try {
-        fresh = statSync(dir).mtimeMs >= this.startedAt - 2000;
+        fresh = statSync(dir).mtimeMs >= this.since - 1000;
       } catch {
         continue;
       }
-      if (state || sessionLive(dir) || (!initial && fresh)) this.track(id, dir, state?.acked ?? 0);
+      if (state || fresh || sessionLive(dir)) this.track(id, dir, state?.acked ?? 0);
     }
   }
 
@@ -253,15 +256,15 @@ export class LabPublisher {
     c.on('message', (topic, payload) => {
       if (gen === this.gen && topic === topics.replay(this.addr.prefix, station)) this.onReplay(payload);
     });
+    let lastError: string | undefined;
     c.on('error', (e) => {
-      if (gen !== this.gen || this.outageLogged) return;
-      this.log(`publish: broker ${this.addr.display}: ${e.message}; readings stay in the journal and are published when it is back`);
-      this.outageLogged = true;
+      lastError = e.message;
     });
     c.on('close', () => {
       if (gen !== this.gen) return;
-      if (this.connected && !this.outageLogged && !this.stopping) {
-        this.log(`publish: lost the broker ${this.addr.display}; readings stay in the journal and are published when it is back`);
+      if (!this.outageLogged && (!this.stopping || (!this.connected && lastError))) {
+        const why = lastError ? ` (${lastError})` : '';
+        this.log(`publish: ${this.connected ? 'lost the broker' : 'cannot reach the broker'} ${this.addr.display}${why}; readings stay in the journal and are published when it is back`);
         this.outageLogged = true;
       }
       this.connected = false;
@@ -438,7 +441,7 @@ export class LabPublisher {
     if (this.stopped) return { unsent: [] };
     this.stopping = true;
     if (this.scanTimer) clearInterval(this.scanTimer);
-    this.scan(false);
+    this.scan();
     const until = Date.now() + flushMs;
     const pending = () => [...this.sessions.values()].filter((t) => !t.complete && (t.sent.length > 0 || t.follower.behind()));
     // A broker that is down may come back within the wait; one that never answers costs flushMs.

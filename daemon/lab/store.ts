@@ -111,11 +111,13 @@ export class ArchiveStore {
     let released = false;
     try {
       await c.query('BEGIN');
-      await c.query('INSERT INTO sessions (station, session) VALUES ($1, $2) ON CONFLICT (station, session) DO NOTHING', [h.station, h.session]);
+      // Creates the session row or locks the existing one (ON CONFLICT DO UPDATE takes the row
+      // lock), and says whether this batch is archived already — one round trip.
       const s = await c.query<{ id: string; contained: boolean; overlaps: boolean; started: number | null }>(
-        `SELECT id, committed @> int8range($3, $4, '[]') AS contained, committed && int8range($3, $4, '[]') AS overlaps,
-                extract(epoch FROM started_at) * 1000 AS started
-           FROM sessions WHERE station = $1 AND session = $2 FOR UPDATE`,
+        `INSERT INTO sessions AS x (station, session) VALUES ($1, $2)
+           ON CONFLICT (station, session) DO UPDATE SET updated_at = x.updated_at
+         RETURNING id, committed @> int8range($3, $4, '[]') AS contained, committed && int8range($3, $4, '[]') AS overlaps,
+                   extract(epoch FROM started_at) * 1000 AS started`,
         [h.station, h.session, h.from, h.to],
       );
       const id = Number(s.rows[0].id);
