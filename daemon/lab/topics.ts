@@ -49,6 +49,7 @@ export function parseBrokerUrl(text: string, setting = '--mqtt', env: NodeJS.Pro
   if (u.protocol !== 'mqtt:' && u.protocol !== 'mqtts:') throw new LabConfigError(`${setting}: expected an mqtt:// or mqtts:// address, got '${u.protocol}'`);
   if (!u.hostname) throw new LabConfigError(`${setting}: the address has no host`);
   const port = u.port || (u.protocol === 'mqtts:' ? '8883' : '1883');
+  if (/[#?+]/.test(text.replace(/^[a-z]+:\/\/[^/]*/i, ''))) throw new LabConfigError(`${setting}: the topic prefix may not contain '#', '+' or '?'`);
   const prefix = decodeURIComponent(u.pathname.replace(/^\/+|\/+$/g, '')) || 'plumbline';
   if (/[#+]/.test(prefix) || prefix.split('/').some((p) => p === '')) throw new LabConfigError(`${setting}: topic prefix '${prefix}' may not contain '#', '+' or empty levels`);
   const username = u.username ? decodeURIComponent(u.username) : env.PLUMBLINE_MQTT_USERNAME || undefined;

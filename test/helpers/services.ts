@@ -96,13 +96,13 @@ export interface Broker {
 
 /**
  * A private Mosquitto broker on a free loopback port: no persistence, queues large enough for a
- * test's offline subscribers. `user` makes it require that name and password.
+ * test's offline subscribers. `user` makes it require that name and password; `port` picks the port.
  */
-export async function startMosquitto(options: { user?: { name: string; password: string } } = {}): Promise<Broker> {
+export async function startMosquitto(options: { user?: { name: string; password: string }; port?: number } = {}): Promise<Broker> {
   const bin = ensureInstalled(() => which(['/usr/sbin/mosquitto', '/usr/bin/mosquitto']), 'mosquitto');
   const dir = mkdtempSync(join(tmpdir(), 'plumbline-mosquitto-'));
   chmodSync(dir, 0o755);
-  const port = await freePort();
+  const port = options.port ?? (await freePort());
   const lines = [
     `listener ${port} 127.0.0.1`,
     'persistence false',
