@@ -34,6 +34,8 @@ export interface ArchiveStats {
   badMessages: number;
   /** Journal-to-database lag of recent batches (ms): wall time of commit minus the last reading's time. */
   readonly lags: number[];
+  /** Broker-to-database part of it (ms): commit minus the time the station sent the batch. */
+  readonly transits: number[];
 }
 
 interface Progress {
@@ -66,7 +68,7 @@ export class Archive {
   private readonly progress = new Map<string, Progress>();
   private gapTimer: NodeJS.Timeout | undefined;
   private closed = false;
-  readonly stats: ArchiveStats = { batches: 0, duplicates: 0, readings: 0, events: 0, replayRequests: 0, badMessages: 0, lags: [] };
+  readonly stats: ArchiveStats = { batches: 0, duplicates: 0, readings: 0, events: 0, replayRequests: 0, badMessages: 0, lags: [], transits: [] };
   private readonly secrets: (string | undefined)[];
   /** When the last batch was written, and how long it had been on its way (ms): a backlog shows here. */
   private lastBatchAt = 0;
@@ -178,7 +180,11 @@ export class Archive {
         if (r.startedAt !== null && header.readings > 0 && !header.replay) {
           const tLast = records.readDoubleLE((header.readings - 1) * RECORD_BYTES + 24);
           this.stats.lags.push(Date.now() - (r.startedAt + tLast));
-          if (this.stats.lags.length > 100_000) this.stats.lags.splice(0, 50_000);
+          this.stats.transits.push(this.lastTransit);
+          if (this.stats.lags.length > 100_000) {
+            this.stats.lags.splice(0, 50_000);
+            this.stats.transits.splice(0, 50_000);
+          }
         }
         const k = this.key(header.station, header.session);
         const p = this.progress.get(k) ?? { station: header.station, session: header.session, committed: [], knownLast: 0, startedAt: null, gapSince: undefined, lastRequest: 0 };

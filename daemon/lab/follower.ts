@@ -27,7 +27,7 @@ export interface Chunk {
   readonly from: number;
   readonly to: number;
   readonly events: readonly JournalEventLine[];
-  /** Raw reading records (RECORD_BYTES each), in seq order. */
+  /** Raw reading records (RECORD_BYTES each), in seq order: a view valid until the next poll. */
   readonly records: Buffer;
   readonly readings: number;
   readonly holes: readonly number[];
@@ -72,7 +72,7 @@ export class JournalFollower {
    * @param after  hand out sequence numbers after this one (0: from the start)
    * @param maxReadings  readings per chunk at most (bounds memory: maxReadings × 56 bytes)
    */
-  constructor(readonly dir: string, after = 0, private readonly maxReadings = 4096) {
+  constructor(readonly dir: string, after = 0, private readonly maxReadings = 8192) {
     this.rbuf = Buffer.allocUnsafe(maxReadings * RECORD_BYTES);
     this.next = after + 1;
     this.seekReadings(after);
@@ -248,7 +248,7 @@ export class JournalFollower {
     this.pending = this.pending.slice(pi);
     this.rOff += r0 * RECORD_BYTES;
     if (this.next === from) return null;
-    const records = Buffer.from(rec.subarray(r0 * RECORD_BYTES, ri * RECORD_BYTES));
+    const records = rec.subarray(r0 * RECORD_BYTES, ri * RECORD_BYTES);
     this.rOff += (ri - r0) * RECORD_BYTES;
     return { from, to: this.next - 1, events, records, readings: ri - r0, holes };
   }

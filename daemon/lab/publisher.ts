@@ -37,9 +37,9 @@ export interface PublisherOptions {
   readonly page?: string | null;
   readonly tokenRequired?: boolean;
   readonly log?: (line: string) => void;
-  /** How often the journals are looked at, ms (default 100, the journal's own flush interval). */
+  /** How often the journals are looked at, ms (default 250: fewer, larger batches for the archive). */
   readonly pollMs?: number;
-  /** Readings per batch at most (default 4096, ~230 kB). */
+  /** Readings per batch at most (default 8192, ~460 kB). */
   readonly maxReadings?: number;
   /** Unacknowledged batches at most (default 16). */
   readonly window?: number;
@@ -109,6 +109,7 @@ export class LabPublisher {
   private readonly status: StatusTracker;
   private readonly since: number;
   private outageLogged = false;
+  private lastConnected = 0;
   readonly stats: PublisherStats = { batches: 0, readings: 0, events: 0, replays: 0, connected: false, reconnects: 0 };
   private readonly pollMs: number;
   private readonly maxReadings: number;
@@ -119,8 +120,8 @@ export class LabPublisher {
     checkName(options.station, 'station id');
     this.target = `${this.addr.server}/${this.addr.prefix}`;
     this.since = options.since ?? Date.now();
-    this.pollMs = options.pollMs ?? 100;
-    this.maxReadings = options.maxReadings ?? 4096;
+    this.pollMs = options.pollMs ?? 250;
+    this.maxReadings = options.maxReadings ?? 8192;
     this.window = options.window ?? 16;
     this.status = new StatusTracker(options.station, options.name, options.page ?? null, options.tokenRequired ?? false);
   }
@@ -239,6 +240,7 @@ export class LabPublisher {
     c.on('connect', () => {
       if (gen !== this.gen) return;
       this.connected = true;
+      this.lastConnected = Date.now();
       this.stats.connected = true;
       this.backoff = 500;
       this.inflight = 0;
@@ -442,7 +444,9 @@ export class LabPublisher {
     this.stopping = true;
     if (this.scanTimer) clearInterval(this.scanTimer);
     this.scan();
-    const until = Date.now() + flushMs;
+    // A broker that has been unreachable for a while is not waited for long (the journal keeps it all).
+    const recently = this.connected || Date.now() - this.lastConnected < 5000;
+    const until = Date.now() + (recently ? flushMs : Math.min(flushMs, 1000));
     const pending = () => [...this.sessions.values()].filter((t) => !t.complete && (t.sent.length > 0 || t.follower.behind()));
     // A broker that is down may come back within the wait; one that never answers costs flushMs.
     while (Date.now() < until && pending().length > 0) await new Promise((r) => setTimeout(r, 20));
@@ -462,9 +466,14 @@ export class LabPublisher {
         });
       });
     }
+    const wasConnected = this.connected;
     this.gen++;
     await new Promise<void>((resolve) => {
       if (!c) return resolve();
+      if (!wasConnected) {
+        c.end(true);
+        return resolve();
+      }
       const t = setTimeout(resolve, 1000);
       c.end(false, {}, () => {
         clearTimeout(t);

@@ -14,6 +14,8 @@ export interface PublishingOptions {
   readonly dataDir: string;
   readonly page?: string | null;
   readonly tokenRequired?: boolean;
+  /** Sessions created since this time (ms since the epoch) are published even if finished (default: now). */
+  readonly since?: number;
   /** Where log lines go (credentials are already removed). */
   readonly log: (line: string) => void;
 }
@@ -29,7 +31,7 @@ export interface PublishingHandle {
 export function startPublishing(o: PublishingOptions): PublishingHandle {
   const addr = parseBrokerUrl(o.url, '--publish');
   const station = checkName(o.station ?? defaultStationId(o.dataDir), 'station id');
-  const data = { url: o.url, station, name: o.name, dataDir: o.dataDir, page: o.page ?? null, tokenRequired: o.tokenRequired ?? false, since: Date.now() };
+  const data = { url: o.url, station, name: o.name, dataDir: o.dataDir, page: o.page ?? null, tokenRequired: o.tokenRequired ?? false, since: o.since ?? Date.now() };
   let worker: Worker | undefined;
   let stopping = false;
   let result: ((r: { unsent: string[] }) => void) | undefined;

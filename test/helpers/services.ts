@@ -12,7 +12,7 @@ import { chmodSync, chownSync, existsSync, mkdtempSync, readdirSync, readFileSyn
 import { createServer } from 'node:net';
 import { tmpdir, userInfo } from 'node:os';
 import { join } from 'node:path';
-import { PROJECT_ROOT } from './reference.js';
+import { projectRoot } from '../../protocols/project-root.js';
 
 const children = new Set<number>();
 process.on('exit', () => {
@@ -28,7 +28,7 @@ process.on('exit', () => {
 function ensureInstalled(check: () => string | undefined, what: string): string {
   let found = check();
   if (found) return found;
-  const r = spawnSync(process.execPath, [join(PROJECT_ROOT, 'daemon', 'bootstrap', 'ensure.mjs'), '--system'], { stdio: 'inherit' });
+  const r = spawnSync(process.execPath, [join(projectRoot(), 'daemon', 'bootstrap', 'ensure.mjs'), '--system'], { stdio: 'inherit' });
   found = check();
   if (!found) throw new Error(`${what} is not installed and the setup script could not install it (exit ${r.status})`);
   return found;
