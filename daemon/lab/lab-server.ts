@@ -5,10 +5,11 @@
  * stays on each station's page, behind that station's token.
  *
  * It follows the station server's rules: 127.0.0.1 unless told otherwise, and beyond loopback only
- * with a token (which the page's websocket then sends); the Host header must name this server;
- * websocket upgrades from a foreign Origin are refused; anything but GET/HEAD is refused.
+ * with a token; with a token every request needs it (Authorization: Bearer, or ?token= once, after
+ * which an HttpOnly same-site cookie carries it); the Host header must name this server; websocket
+ * upgrades from a foreign Origin are refused; anything but GET/HEAD is refused.
  */
-import { createServer, type Server } from 'node:http';
+import { createServer, type IncomingMessage, type Server } from 'node:http';
 import type { AddressInfo } from 'node:net';
 import { join } from 'node:path';
 import express from 'express';
@@ -17,7 +18,7 @@ import { WebSocket, WebSocketServer } from 'ws';
 import { OKABE_ITO } from '../../protocols/palette.js';
 import { projectRoot } from '../../protocols/project-root.js';
 import { isLoopback } from '../run/config.js';
-import { hostAllowed, ownNames, sameOrigin, tokenMatches } from '../server/app.js';
+import { bearer, hostAllowed, ownNames, sameOrigin, tokenMatches } from '../server/app.js';
 import type { StationStatus } from './status.js';
 import { LabConfigError, parseBrokerUrl, parseTopic, scrub, topics } from './topics.js';
 
@@ -47,6 +48,15 @@ export type LabMessage =
   | { readonly kind: 'broker'; readonly connected: boolean };
 
 const MAX_BUFFERED = 1 << 20;
+const COOKIE = 'plumbline_lab_token';
+
+function cookieToken(req: IncomingMessage): string | undefined {
+  for (const part of (req.headers.cookie ?? '').split(';')) {
+    const [k, ...v] = part.trim().split('=');
+    if (k === COOKIE) return decodeURIComponent(v.join('='));
+  }
+  return undefined;
+}
 
 export async function startLabServer(o: LabServerOptions): Promise<LabServer> {
   const addr = parseBrokerUrl(o.mqtt, '--mqtt');
@@ -116,6 +126,14 @@ export async function startLabServer(o: LabServerOptions): Promise<LabServer> {
       res.status(405).json({ error: 'the lab page is read-only; control a station on its own page' });
       return;
     }
+    if (o.token !== undefined) {
+      const fromQuery = typeof req.query.token === 'string' ? req.query.token : undefined;
+      if (!tokenMatches(bearer(req) ?? fromQuery ?? cookieToken(req), o.token)) {
+        res.status(401).json({ error: 'this lab page needs its token: open it as http://HOST:PORT/?token=<token>, or send Authorization: Bearer <token>' });
+        return;
+      }
+      if (fromQuery !== undefined) res.setHeader('Set-Cookie', `${COOKIE}=${encodeURIComponent(fromQuery)}; HttpOnly; SameSite=Strict; Path=/`);
+    }
     res.setHeader('Content-Security-Policy', "default-src 'self'; connect-src 'self'; img-src 'self' data:; style-src 'self'; script-src 'self'; frame-ancestors 'none'");
     res.setHeader('X-Content-Type-Options', 'nosniff');
     next();
@@ -136,7 +154,7 @@ export async function startLabServer(o: LabServerOptions): Promise<LabServer> {
     const url = new URL(req.url ?? '/', 'http://x');
     if (url.pathname !== '/ws') return refuse(404, 'Not Found');
     if (!hostAllowed(req, o.host, boundPort, names) || !sameOrigin(req)) return refuse(403, 'Forbidden');
-    if (o.token !== undefined && !tokenMatches(url.searchParams.get('token') ?? undefined, o.token)) return refuse(401, 'Unauthorized');
+    if (o.token !== undefined && !tokenMatches(url.searchParams.get('token') ?? bearer(req) ?? cookieToken(req), o.token)) return refuse(401, 'Unauthorized');
     wss.handleUpgrade(req, socket, head, (ws) => {
       clients.add(ws);
       ws.on('error', () => ws.terminate());

@@ -194,7 +194,9 @@ export class ArchiveStore {
     switch (e.type) {
       case 'session': {
         await c.query(
-          'UPDATE sessions SET started_at = $2, source = $3, instrument = $4, plan = $5, analysis = $6, drift = $7, limits = $8, device = $9 WHERE id = $1',
+          // Corrections already archived (annotations that arrived first) keep precedence.
+          `UPDATE sessions SET started_at = $2, source = $3, instrument = $4, plan = $5, analysis = $6, drift = $7, limits = $8,
+                  device = CASE WHEN $9::jsonb IS NULL AND device IS NULL THEN NULL ELSE coalesce($9::jsonb, '{}') || coalesce(device, '{}') END WHERE id = $1`,
           [id, e.startedAt ?? null, j(e.source), (e.instrument as string) ?? null, j(e.plan), j(e.analysis), j(e.drift), j(e.limits), j(e.device)],
         );
         const t = Date.parse(String(e.startedAt));
@@ -225,6 +227,12 @@ export class ArchiveStore {
         );
         return undefined;
       }
+      case 'annotation':
+        // A note may correct the device's identity (later values win, field by field).
+        if (e.device !== undefined && e.device !== null && typeof e.device === 'object') {
+          await c.query("UPDATE sessions SET device = coalesce(device, '{}'::jsonb) || $2::jsonb WHERE id = $1", [id, JSON.stringify(e.device)]);
+        }
+        return undefined;
       case 'run-end':
         await c.query('UPDATE sessions SET outcome = $2, reason = $3, sweeps = $4 WHERE id = $1', [id, e.outcome, e.reason, e.sweeps ?? null]);
         return undefined;

@@ -78,14 +78,16 @@ describe('archive writer (PostgreSQL)', () => {
       writer.event({ type: 'sweep-end', sweep, points: 50, complete: true });
       writer.event({ type: 'fit', sweep, final: true, fit: { model: 'ohmic', title: 'Ohmic', window: { from: 0, to: 5, mode: 'auto' }, line: { slope: 1e-9, slopeStdErr: 1e-12, intercept: 0, interceptStdErr: 1e-13, r2: 1, residualStdDev: 0, n: 50 }, axes: {} as never, parameters: { resistance: { value: 1e9, stdErr: 1e6, unit: 'Ω' } }, plausible: true, warnings: [], points: { used: 50, excluded: 0, reasons: {} }, regimes: [] } });
     }
+    writer.event({ type: 'annotation', text: 'probed site C4, not C3', tags: [], source: 'test', device: { site: 'C4' } } as never);
     writer.event({ type: 'run-end', outcome: 'completed', reason: 'done', sweeps: 2 });
     writer.close();
     const dir = join(data, id);
     const first = await importSession(store, dir, 'imp');
-    expect(first).toMatchObject({ readings: 100, readingsInserted: 100, lastSeq: 108 });
+    expect(first).toMatchObject({ readings: 100, readingsInserted: 100, lastSeq: 109 });
     const again = await importSession(store, dir, 'imp');
     expect(again).toMatchObject({ readings: 100, readingsInserted: 0, eventsInserted: 0 });
-    expect(db.psql(`SELECT outcome, wafer, site, started_at = '2026-12-02T03:15:00Z', committed FROM sessions WHERE station = 'imp'`)).toBe('completed|W7|C3|t|{[1,109)}');
+    // The annotation's correction of the site wins over the session event's.
+    expect(db.psql(`SELECT outcome, wafer, site, started_at = '2026-12-02T03:15:00Z', committed FROM sessions WHERE station = 'imp'`)).toBe('completed|W7|C4|t|{[1,110)}');
     expect(db.psql("SELECT count(*) FROM sweeps w JOIN sessions s ON s.id = w.session_id WHERE s.station = 'imp' AND complete AND points = 50")).toBe('2');
     expect(db.psql("SELECT parameter, value, unit FROM fit_parameters WHERE station = 'imp' ORDER BY sweep LIMIT 1")).toBe('resistance|1000000000|Ω');
   });

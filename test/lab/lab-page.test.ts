@@ -153,10 +153,15 @@ describe('lab overview page', () => {
     const srv = await startLabServer({ mqtt: `${broker.url}/lab`, host: '127.0.0.1', port: 0, token });
     try {
       const base = `http://127.0.0.1:${srv.port}`;
-      expect((await fetch(`${base}/api/stations`)).status).toBe(200);
+      expect((await fetch(`${base}/api/stations`)).status).toBe(401);
+      expect((await fetch(`${base}/api/stations`, { headers: { authorization: `Bearer ${token}` } })).status).toBe(200);
+      const first = await fetch(`${base}/?token=${token}`);
+      expect(first.status).toBe(200);
+      const cookie = first.headers.get('set-cookie')!.split(';')[0];
+      expect((await fetch(`${base}/api/stations`, { headers: { cookie } })).status).toBe(200);
       // fetch() will not send another Host; a raw request does, as a DNS-rebinding page's would.
       const foreignHost = await new Promise<number>((resolve, reject) => {
-        const q = request({ host: '127.0.0.1', port: srv.port, path: '/api/stations', headers: { host: 'evil.example' } }, (res) => (res.resume(), resolve(res.statusCode ?? 0)));
+        const q = request({ host: '127.0.0.1', port: srv.port, path: '/api/stations', headers: { host: 'evil.example', authorization: `Bearer ${token}` } }, (res) => (res.resume(), resolve(res.statusCode ?? 0)));
         q.on('error', reject);
         q.end();
       });
