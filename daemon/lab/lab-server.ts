@@ -15,6 +15,7 @@ import { join } from 'node:path';
 import express from 'express';
 import mqtt, { type MqttClient } from 'mqtt';
 import { WebSocket, WebSocketServer } from 'ws';
+import { formatParameter } from '../../protocols/display-units.js';
 import { OKABE_ITO } from '../../protocols/palette.js';
 import { projectRoot } from '../../protocols/project-root.js';
 import { isLoopback } from '../run/config.js';
@@ -39,6 +40,23 @@ export interface LabServer {
   /** Latest status per station. */
   readonly stations: Map<string, StationStatus>;
   close(): Promise<void>;
+}
+
+/**
+ * A status as the page gets it: each fitted parameter also as text in the trade's units (the one
+ * formatter of protocols/display-units), so the page formats nothing itself.
+ */
+export function forPage(s: StationStatus): StationStatus & { display?: Record<string, { text: string; unit: string }> } {
+  if (!s.fit) return s;
+  const display: Record<string, { text: string; unit: string }> = {};
+  for (const [k, p] of Object.entries(s.fit.parameters)) {
+    try {
+      display[k] = formatParameter(p, k);
+    } catch {
+      display[k] = { text: `${p.value} ± ${p.stdErr}`, unit: p.unit };
+    }
+  }
+  return { ...s, display };
 }
 
 /** Server → page messages. */
@@ -110,7 +128,7 @@ export async function startLabServer(o: LabServerOptions): Promise<LabServer> {
     }
     if (s.station !== t.station || s.v !== 1) return;
     stations.set(s.station, s);
-    send({ kind: 'status', status: s });
+    send({ kind: 'status', status: forPage(s) });
   });
 
   const app = express();
@@ -159,7 +177,7 @@ export async function startLabServer(o: LabServerOptions): Promise<LabServer> {
       clients.add(ws);
       ws.on('error', () => ws.terminate());
       ws.on('close', () => clients.delete(ws));
-      ws.send(JSON.stringify({ kind: 'stations', broker: addr.display, connected, stations: [...stations.values()], palette: OKABE_ITO } satisfies LabMessage));
+      ws.send(JSON.stringify({ kind: 'stations', broker: addr.display, connected, stations: [...stations.values()].map(forPage), palette: OKABE_ITO } satisfies LabMessage));
     });
   });
   await new Promise<void>((resolve, reject) => {

@@ -244,7 +244,7 @@ export class LabPublisher {
       this.stats.connected = true;
       this.backoff = 500;
       this.inflight = 0;
-      this.log(`${this.outageLogged ? 'publish: reconnected to' : 'publishing to'} ${this.addr.display} as station '${station}'`);
+      this.log(`publish: ${this.outageLogged ? 'reconnected to' : 'connected to'} ${this.addr.display}`);
       this.outageLogged = false;
       for (const t of this.sessions.values()) {
         t.sent = [];

@@ -15,6 +15,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { WebSocket } from 'ws';
 import { scanJournal } from '../../daemon/journal/reader.js';
 import { startLabServer } from '../../daemon/lab/lab-server.js';
+import { formatParameter } from '../../protocols/display-units.js';
 import type { WireEvent } from '../../protocols/wire.js';
 import { CLI, runCli } from '../helpers/cli.js';
 import { api, tempDir } from '../helpers/daemon.js';
@@ -122,7 +123,10 @@ describe('lab overview page', () => {
       expect(text).toContain(`${readings} readings`);
       const b = last!.fit!.parameters.barrierHeight;
       const row = await card.locator('tr[data-parameter="barrierHeight"]').innerText();
-      expect(row).toContain(`${b.value.toPrecision(5)} ± ${b.stdErr.toPrecision(2)}`);
+      // The station's own numbers, in the trade's units through the project's one formatter.
+      const shown = formatParameter(b, 'barrierHeight');
+      expect(row).toContain(shown.text);
+      expect(shown.unit).toBe('eV');
       expect(row).toContain('eV');
       expect(text).toContain(`sweep ${last!.sweep}`);
       expect(await card.locator('a.open').getAttribute('href')).toBe(`${s.url}/`);

@@ -80,7 +80,9 @@ function card(s) {
     for (const [k, v] of Object.entries(s.fit.parameters).slice(0, 4)) {
       const tr = el('tr');
       tr.dataset.parameter = k;
-      tr.append(el('td', 'k', k), el('td', 'v', `${fmt(v.value, 5)} ± ${fmt(v.stdErr, 2)}`), el('td', 'u', v.unit));
+      // The server's text in the trade's units; the SI figures only if it sent none.
+      const d = s.display?.[k] ?? { text: `${fmt(v.value, 5)} ± ${fmt(v.stdErr, 2)}`, unit: v.unit };
+      tr.append(el('td', 'k', k), el('td', 'v', d.text), el('td', 'u', d.unit));
       t.append(tr);
     }
     f.append(t);
