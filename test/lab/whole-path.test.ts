@@ -83,6 +83,7 @@ describe('three stations → broker → archive → PostgreSQL', () => {
       writeFileSync(config, JSON.stringify({
         name: `test station ${s}`,
         instrument: { kind: 'tcp', host: '127.0.0.1', port },
+        dialect: 'protection-trip',
         limits: { maxVoltage: 20, maxCompliance: 0.01, maxPower: 0.1, rampDelay: 0 },
         // No integration wait: the instrument answers as fast as the link allows (full rate).
         plan: { ...devices[s].sweep, nplc: 0.01, repeat: 600 },
