@@ -30,6 +30,7 @@ import { registerSim } from './cli/sim.js';
 import { registerStation } from './cli/station.js';
 import { registerLot } from './cli/lot.js';
 import { registerWeibull } from './cli/weibull.js';
+import { registerLab } from './cli/lab.js';
 
 import { isInputError, UsageError } from './cli/usage.js';
 
@@ -176,6 +177,7 @@ registerSim(program);
 registerStation(program);
 registerWeibull(program);
 registerLot(program);
+registerLab(program);
 
 export async function main(argv: string[]): Promise<number> {
   try {

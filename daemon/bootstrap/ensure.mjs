@@ -1,11 +1,12 @@
 #!/usr/bin/env node
 // Makes a fresh clone runnable with nothing done before: installs the npm dependencies when they
 // are missing or older than the lockfile, compiles the TypeScript, and (with --system) installs the
-// Debian packages the integration, browser and reference tests need (socat, chromium, and scipy
-// for Debian's own python3) when they are absent.
+// Debian packages the integration, browser and reference tests need (socat, chromium, scipy for
+// Debian's own python3, and for the lab tests the Mosquitto broker and the PostgreSQL server) when
+// they are absent.
 // Uses only Node built-ins, because it runs before any dependency exists.
 import { spawnSync } from 'node:child_process';
-import { existsSync, statSync } from 'node:fs';
+import { existsSync, readdirSync, statSync } from 'node:fs';
 import { dirname, join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 
@@ -36,6 +37,14 @@ function debianPython(module) {
   return r.status === 0;
 }
 
+// Servers that Debian keeps off a user's PATH: mosquitto in /usr/sbin, PostgreSQL's initdb in
+// /usr/lib/postgresql/<major>/bin.
+function installed(name) {
+  if (onPath(name) || existsSync(join('/usr/sbin', name))) return true;
+  const pg = '/usr/lib/postgresql';
+  return existsSync(pg) && readdirSync(pg).some((v) => existsSync(join(pg, v, 'bin', name)));
+}
+
 // 1. npm dependencies: a fresh clone gets exactly the locked versions (npm ci); an existing
 // node_modules that is older than the lockfile is brought up to date in place (npm install), never
 // wiped.
@@ -55,6 +64,8 @@ if (wantSystem) {
     ['socat', () => onPath('socat')],
     ['chromium', () => onPath('chromium')],
     ['python3-scipy', () => debianPython('scipy')],
+    ['mosquitto', () => installed('mosquitto')],
+    ['postgresql', () => installed('initdb')],
   ].filter(([, present]) => !present()).map(([pkg]) => pkg);
   if (needed.length > 0) {
     const isRoot = typeof process.getuid === 'function' && process.getuid() === 0;

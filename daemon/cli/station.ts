@@ -34,6 +34,27 @@ interface StationOptions {
   fast?: boolean;
 }
 
+interface PublishOptions {
+  publish?: string;
+  station?: string;
+}
+
+/**
+ * Publishing to the lab's broker (--publish or the config's `publish`): it reads the journal in a
+ * thread of its own, so the run neither waits for it nor notices a missing broker.
+ */
+async function startPublishing(config: StationConfig, data: string, o: PublishOptions, page: string | null) {
+  const url = o.publish ?? config.publish?.url;
+  if (url === undefined) return undefined;
+  const lab = await import('../lab/publishing.js');
+  const h = lab.startPublishing({ url, station: o.station ?? config.publish?.station, name: config.name, dataDir: data, page, tokenRequired: config.server.token !== undefined, log: (line) => process.stderr.write(`${line}\n`) });
+  process.stderr.write(`publishing to ${h.display} as station ${h.station}\n`);
+  return h;
+}
+
+const PUBLISH_HELP = 'publish the sessions to an MQTT broker (mqtt://HOST:PORT[/PREFIX]); credentials as user:password@ or PLUMBLINE_MQTT_USERNAME/PASSWORD';
+const STATION_HELP = 'station id in the broker\'s topics (default: host name and data folder name)';
+
 async function stationConfig(o: StationOptions): Promise<StationConfig> {
   const { loadConfig, DEFAULT_CONFIG_FILE } = await daemonModules();
   const config = loadConfig(o.config ?? DEFAULT_CONFIG_FILE);
@@ -161,9 +182,11 @@ export function registerStation(program: Command): void {
     .option('--data <dir>', 'folder under which the run creates its session folder (default: the config\'s, plumbline-data)')
     .option('--fast', 'simulated instrument: answer at once instead of waiting the integration time')
     .option('--json', 'print one JSON object at the end instead of the progress text')
+    .option('--publish <url>', PUBLISH_HELP)
+    .option('--station <id>', STATION_HELP)
     .option('--override-disk-check', 'run a plan whose journal would not fit in the free disk space (refused otherwise)')
     .addHelpText('after', '\nA plan file may also carry the device under test: {"kind": …, "device": {"wafer": "W07", "site": "C4", "x": 3, "y": -2, "area": 1e-8}} (SI); the options above override its fields.\nExit codes: 0 completed or stopped, 2 bad input, 3 aborted by the user, 4 aborted by drift, 5 aborted by breakdown, 6 instrument fault (no usable reading, replies out of step, no answer), 7 refused by the safety guard, 9 the journal could not be written (disk full), 10 internal error.'))
-    .action(async (o: StationOptions & DeviceOptions & { plan?: string; sweeps?: string; model?: string; json?: boolean; overrideDiskCheck?: boolean }) => {
+    .action(async (o: StationOptions & DeviceOptions & PublishOptions & { plan?: string; sweeps?: string; model?: string; json?: boolean; overrideDiskCheck?: boolean }) => {
       const config = await stationConfig(o);
       const { dataDir, Station, EXIT_CODE, describePlan } = await daemonModules();
       const data = dataDir(config, o.data);
@@ -189,7 +212,8 @@ export function registerStation(program: Command): void {
       if (o.overrideDiskCheck) plan = { ...((plan ?? station.defaultPlan()) as object), overrideDiskCheck: true };
       const analysis = o.model !== undefined ? { ...station.analysisSettings, model: o.model, ...(o.model !== station.analysisSettings.model ? { window: 'auto' } : {}) } : undefined;
       const device = await readDevice(o);
-      guardProcess(station, () => undefined);
+      const pub = await startPublishing(config, data, o, null);
+      guardProcess(station, async () => void (await pub?.stop(1000)));
       const tty = process.stdout.isTTY && !o.json;
       let progressShown = false;
       station.events$.subscribe({
@@ -229,6 +253,10 @@ export function registerStation(program: Command): void {
       const result = await h.done;
       if (o.json) process.stdout.write(`${JSON.stringify({ session: h.session, dir: h.dir, ...result })}\n`);
       else process.stdout.write(`${progressShown ? '\n' : ''}run ended: ${result.outcome} — ${result.reason} (${result.sweeps} sweep(s) finished)\nexport it: plumbline export ${h.dir}\n`);
+      // The journal is closed: hand the broker what it has not got yet (a broker that is down costs
+      // a few seconds here, nothing more; the rest goes out on the next start).
+      const left = await pub?.stop(5000);
+      if (left && left.unsent.length > 0) process.stderr.write(`publish: not everything reached the broker; it is published on the next start with --publish\n`);
       // Exit explicitly: the journal is closed and the output is off; a serial port's native poller
       // can otherwise keep the event loop alive after close (seen with socat ptys).
       process.exit(EXIT_CODE[result.outcome]);
@@ -244,7 +272,9 @@ export function registerStation(program: Command): void {
     .option('--data <dir>', 'folder for session folders (default: the config\'s, plumbline-data)')
     .option('--fast', 'simulated instrument: answer at once instead of waiting the integration time')
     .option('--no-autostart', 'do not start the default plan at once even if the config says so')
-    .action(async (o: StationOptions & { port?: string; host?: string; autostart: boolean }) => {
+    .option('--publish <url>', PUBLISH_HELP)
+    .option('--station <id>', STATION_HELP)
+    .action(async (o: StationOptions & PublishOptions & { port?: string; host?: string; autostart: boolean }) => {
       const config = await stationConfig(o);
       const { dataDir, Station, startServer } = await daemonModules();
       const data = dataDir(config, o.data);
@@ -253,7 +283,8 @@ export function registerStation(program: Command): void {
       const station = new Station(config, data);
       for (const r of station.recovered) process.stderr.write(`journal ${r.dir}: ${r.message}\n`);
       const srv = await startServer(station, { host: o.host ?? config.server.host, port, token: config.server.token, allowedHosts: config.server.allowedHosts });
-      guardProcess(station, () => srv.close());
+      const pub = await startPublishing(config, data, o, srv.url);
+      guardProcess(station, async () => void (await Promise.all([srv.close(), pub?.stop(1000)])));
       station.events$.subscribe({
         next: (e) => {
           if (e.type === 'session') process.stdout.write(`session ${e.id} started\n`);
@@ -292,7 +323,9 @@ export function registerStation(program: Command): void {
     .option('--rtscts', 'serial: hardware flow control (RTS/CTS)')
     .option('--xonxoff', 'serial: software flow control (XON/XOFF)')
     .option('--read-terminator <t>', 'serial and TCP: what ends a line: lf (a trailing CR is dropped), crlf or cr', 'lf')
-    .action(async (spec: string, o: { voltage?: string; current?: string; complianceColumn?: string; temperatureColumn?: string; model?: string; config?: string; data?: string; port?: string; page: boolean; baud: string; dataBits: string; parity: string; stopBits: string; rtscts?: boolean; xonxoff?: boolean; readTerminator: string }) => {
+    .option('--publish <url>', PUBLISH_HELP)
+    .option('--station <id>', STATION_HELP)
+    .action(async (spec: string, o: PublishOptions & { voltage?: string; current?: string; complianceColumn?: string; temperatureColumn?: string; model?: string; config?: string; data?: string; port?: string; page: boolean; baud: string; dataBits: string; parity: string; stopBits: string; rtscts?: boolean; xonxoff?: boolean; readTerminator: string }) => {
       const config = await stationConfig({ config: o.config });
       const { dataDir, Station, startServer } = await daemonModules();
       const { feedPassive } = await import('../pipeline/passive.js');
@@ -329,6 +362,7 @@ export function registerStation(program: Command): void {
         await srv?.close();
         throw new UsageError(`cannot open ${where}: ${(e as Error).message}`);
       }
+      const pub = await startPublishing(config, dataDir(config, o.data), o, srv?.url ?? null);
       const passive = station.openPassive('watch', where);
       const feed = feedPassive(source, passive.chain, { voltage: o.voltage, current: o.current, compliance: o.complianceColumn, temperature: o.temperatureColumn }, where);
       process.stdout.write(`watching ${where} → session ${passive.session}\n  folder ${passive.dir}\n${srv ? `  page  ${srv.url}\n` : ''}plumbline does not control this instrument; Ctrl-C stops watching.\n`);
@@ -346,6 +380,7 @@ export function registerStation(program: Command): void {
         feed.stop();
         passive.close('completed', why);
         await srv?.close();
+        await pub?.stop(3000);
         process.stdout.write(`stopped: ${why}; ${feed.stats.readings} readings in ${feed.stats.sweeps} sweep(s), ${feed.stats.rejected} row(s) skipped\n`);
         process.exit(0);
       };

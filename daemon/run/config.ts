@@ -100,6 +100,14 @@ export const stationSchema = z.object({
   }).strict().default({ host: '127.0.0.1', port: DEFAULT_PORT, allowedHosts: [] }),
   /** Folder under which each run creates its session folder. */
   data: z.string().default('plumbline-data'),
+  /**
+   * Publish this station's sessions to an MQTT broker (mqtt://HOST:PORT[/PREFIX]), read from the
+   * journal; `station` is its id in topic names (default: host name and data folder name).
+   */
+  publish: z.object({
+    url: z.string().min(1),
+    station: z.string().regex(/^[A-Za-z0-9._-]{1,80}$/, 'use 1–80 letters, digits, ".", "_" or "-"').optional(),
+  }).strict().optional(),
   /** `serve` starts the default plan as soon as it is up (the demo). */
   autostart: z.boolean().default(false),
 }).strict().superRefine((c, ctx) => {

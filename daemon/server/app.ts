@@ -62,7 +62,7 @@ const annotationBody = z.object({
 const runBody = z.object({ plan: z.unknown().optional(), analysis: z.unknown().optional(), label: z.string().max(40).optional(), device: z.unknown().optional() }).strict();
 const reasonBody = z.object({ reason: z.string().max(500).optional() }).strict();
 
-function tokenMatches(given: string | undefined, token: string): boolean {
+export function tokenMatches(given: string | undefined, token: string): boolean {
   if (given === undefined) return false;
   const a = Buffer.from(given);
   const b = Buffer.from(token);
@@ -70,7 +70,7 @@ function tokenMatches(given: string | undefined, token: string): boolean {
 }
 
 /** Whether the Origin header (if any) is this server itself. */
-function sameOrigin(req: IncomingMessage): boolean {
+export function sameOrigin(req: IncomingMessage): boolean {
   const origin = req.headers.origin;
   if (origin === undefined) return true; // not a browser page (curl, scripts, the CLI)
   try {
@@ -81,7 +81,7 @@ function sameOrigin(req: IncomingMessage): boolean {
 }
 
 /** The names and addresses this machine answers to (for the Host check beyond loopback). */
-function ownNames(host: string, extra: readonly string[]): Set<string> {
+export function ownNames(host: string, extra: readonly string[]): Set<string> {
   const names = new Set<string>(['localhost', '127.0.0.1', '::1', hostname().toLowerCase(), `${hostname().toLowerCase()}.local`]);
   if (host !== '0.0.0.0' && host !== '::') names.add(host.toLowerCase());
   for (const list of Object.values(networkInterfaces())) for (const a of list ?? []) names.add(a.address.toLowerCase());
@@ -89,7 +89,7 @@ function ownNames(host: string, extra: readonly string[]): Set<string> {
   return names;
 }
 
-function hostAllowed(req: IncomingMessage, host: string, port: number, names: Set<string>): boolean {
+export function hostAllowed(req: IncomingMessage, host: string, port: number, names: Set<string>): boolean {
   const h = req.headers.host;
   if (!h) return false;
   const m = /^(\[[^\]]+\]|[^:]+)(?::(\d+))?$/.exec(h);
@@ -100,7 +100,7 @@ function hostAllowed(req: IncomingMessage, host: string, port: number, names: Se
   return names.has(name) || isLoopback(name);
 }
 
-function bearer(req: IncomingMessage): string | undefined {
+export function bearer(req: IncomingMessage): string | undefined {
   const a = req.headers.authorization;
   if (a?.startsWith('Bearer ')) return a.slice(7);
   const x = req.headers['x-plumbline-token'];

@@ -7,6 +7,7 @@ import { benchDaemon } from './daemon.js';
 import { benchPage } from './page.js';
 import { benchLot } from './lot.js';
 import { benchAdaptive } from './adaptive.js';
+import { benchLab } from './lab.js';
 
 process.stdout.write(`plumbline benchmarks — Node ${process.version}, ${cpus()[0]?.model ?? 'unknown CPU'}, single thread\n\n`);
 process.stdout.write('analysis core\n');
@@ -22,4 +23,6 @@ process.stdout.write('\nlots: many sessions\n');
 await benchLot();
 process.stdout.write('\nlive page (headless Chromium)\n');
 await benchPage();
+process.stdout.write('\nlab: stations → MQTT broker → archive → PostgreSQL\n');
+await benchLab();
 process.exit(0);

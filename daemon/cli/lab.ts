@@ -1,0 +1,95 @@
+/**
+ * `plumbline archive` and `plumbline lab`: the lab beyond one station. Stations publish their
+ * journals to an MQTT broker (serve|run|watch --publish); `archive` writes them into PostgreSQL,
+ * or loads session folders directly (--import); `lab` serves one page with every station's state.
+ * Modules (mqtt, pg, express) load only when these commands run.
+ */
+import type { Command } from 'commander';
+import { UsageError } from './usage.js';
+
+function percentile(xs: readonly number[], p: number): number {
+  if (xs.length === 0) return Number.NaN;
+  const s = [...xs].sort((a, b) => a - b);
+  return s[Math.min(s.length - 1, Math.floor(p * s.length))];
+}
+
+export function registerLab(program: Command): void {
+  program
+    .command('archive')
+    .description('write every station\'s published sessions into PostgreSQL (persistent MQTT session, idempotent), or --import session folders')
+    .requiredOption('--postgres <url>', 'database, e.g. postgres://user@host/db or postgres:///db?host=/run/postgresql (password: PGPASSWORD or in the URL)')
+    .option('--mqtt <url>', 'broker the stations publish to: mqtt://HOST:PORT[/PREFIX] (credentials as user:password@ or PLUMBLINE_MQTT_USERNAME/PASSWORD)')
+    .option('--client-id <id>', 'MQTT client id of the archive\'s persistent session (one per archive)', 'plumbline-archive')
+    .option('--import <dirs...>', 'load session folders (or data folders holding them) instead of subscribing')
+    .option('--station <id>', 'with --import: the station id to file them under (default: host name and data folder name, as --publish uses)')
+    .option('--json', 'with --import: print one JSON object')
+    .action(async (o: { postgres: string; mqtt?: string; clientId: string; import?: string[]; station?: string; json?: boolean }) => {
+      const log = (line: string) => process.stderr.write(`${line}\n`);
+      if (o.import !== undefined) {
+        if (o.mqtt !== undefined) throw new UsageError('--import loads folders directly; leave out --mqtt');
+        const { expandSessionDirs, importSession } = await import('../lab/import.js');
+        const { ArchiveStore } = await import('../lab/store.js');
+        const dirs = expandSessionDirs(o.import);
+        const store = await ArchiveStore.open(o.postgres, log);
+        try {
+          const results = [];
+          for (const d of dirs) {
+            const r = await importSession(store, d, o.station);
+            results.push(r);
+            if (!o.json) {
+              process.stdout.write(`${r.station}/${r.session}: ${r.readings} readings (${r.readingsInserted} new), ${r.eventsInserted} new events, through seq ${r.lastSeq}${r.holes ? `, ${r.holes} damaged line(s) skipped` : ''}${r.live ? ' — still being written: import again later for the rest' : ''}\n`);
+            }
+          }
+          if (o.json) process.stdout.write(`${JSON.stringify({ sessions: results })}\n`);
+        } finally {
+          await store.close();
+        }
+        return;
+      }
+      if (o.mqtt === undefined) throw new UsageError('give --mqtt URL to archive what stations publish, or --import SESSION_DIR... to load folders');
+      if (o.station !== undefined) throw new UsageError('--station applies to --import only');
+      const { Archive } = await import('../lab/archive.js');
+      const archive = new Archive({ mqtt: o.mqtt, postgres: o.postgres, clientId: o.clientId, log });
+      await archive.start();
+      process.stdout.write(`archiving ${archive.addr.display} into PostgreSQL; Ctrl-C stops\n`);
+      let shown = -1;
+      const report = setInterval(() => {
+        const s = archive.stats;
+        if (s.batches === shown) return;
+        shown = s.batches;
+        const lags = s.lags.slice(-2000);
+        process.stdout.write(`archived ${s.readings} readings and ${s.events} events in ${s.batches} batches (${s.duplicates} already there); lag p50 ${percentile(lags, 0.5).toFixed(0)} ms, p99 ${percentile(lags, 0.99).toFixed(0)} ms\n`);
+      }, 10_000);
+      const stop = async (why: string) => {
+        clearInterval(report);
+        process.stdout.write(`stopping: ${why}\n`);
+        await archive.close();
+        process.exit(0);
+      };
+      process.on('SIGINT', () => void stop('interrupted (SIGINT)'));
+      process.on('SIGTERM', () => void stop('terminated (SIGTERM)'));
+      await new Promise(() => undefined);
+    });
+
+  program
+    .command('lab')
+    .description('one read-only page with every station publishing to the broker: state, device, progress, latest parameters, cautions; links to each station\'s page')
+    .requiredOption('--mqtt <url>', 'broker the stations publish to: mqtt://HOST:PORT[/PREFIX]')
+    .option('--port <n>', 'HTTP port (0 = any free port)', '8480')
+    .option('--host <addr>', 'address to listen on (anything beyond loopback needs --token)', '127.0.0.1')
+    .option('--token <token>', 'required by the page (open it as /?token=…) when set; needed beyond loopback (or PLUMBLINE_LAB_TOKEN)')
+    .action(async (o: { mqtt: string; port: string; host: string; token?: string }) => {
+      const port = Number(o.port);
+      if (!Number.isInteger(port) || port < 0 || port > 65535) throw new UsageError(`--port '${o.port}': expected a port number`);
+      const { startLabServer } = await import('../lab/lab-server.js');
+      const srv = await startLabServer({ mqtt: o.mqtt, host: o.host, port, token: o.token ?? process.env.PLUMBLINE_LAB_TOKEN, log: (line) => process.stderr.write(`${line}\n`) });
+      process.stdout.write(`plumbline lab\n  page  ${srv.url}\n`);
+      const stop = async () => {
+        await srv.close();
+        process.exit(0);
+      };
+      process.on('SIGINT', () => void stop());
+      process.on('SIGTERM', () => void stop());
+      await new Promise(() => undefined);
+    });
+}
