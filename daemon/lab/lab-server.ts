@@ -14,7 +14,7 @@ import type { AddressInfo } from 'node:net';
 import { join } from 'node:path';
 import express from 'express';
 import mqtt, { type MqttClient } from 'mqtt';
-import { WebSocket, WebSocketServer } from 'ws';
+import { type WebSocket, WebSocketServer } from 'ws';
 import { formatParameter } from '../../protocols/display-units.js';
 import { OKABE_ITO } from '../../protocols/palette.js';
 import { projectRoot } from '../../protocols/project-root.js';

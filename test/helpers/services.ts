@@ -73,7 +73,10 @@ function portOpen(port: number): Promise<boolean> {
   return new Promise((resolve) => {
     import('node:net').then(({ connect }) => {
       const c = connect(port, '127.0.0.1');
-      c.once('connect', () => (c.destroy(), resolve(true)));
+      c.once('connect', () => {
+        c.destroy();
+        resolve(true);
+      });
       c.once('error', () => resolve(false));
     });
   });

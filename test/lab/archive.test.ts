@@ -59,6 +59,7 @@ describe('archive writer (PostgreSQL)', () => {
   });
 
   it('stores every bit of the readings (signed zero, subnormals, NaN payloads)', async () => {
+    // biome-ignore lint/correctness/noPrecisionLoss: all seventeen digits on purpose (bit-exact round trip)
     const special = [0, -0, 5e-324, -1.2345678901234567e-13, Number.MAX_VALUE, Number.NaN];
     const rec = records(1, special.length, (seq) => special[seq - 1]);
     rec.writeUInt32LE(0x7ff80123, 5 * RECORD_BYTES + 40 + 4); // a NaN with a payload

@@ -110,6 +110,7 @@ describe('journal follower', () => {
 
 describe('batch format', () => {
   it('keeps every bit of every reading and the events as written', () => {
+    // biome-ignore lint/correctness/noPrecisionLoss: all seventeen digits on purpose (bit-exact round trip)
     const values = [0, -0, Number.NaN, 1e-300, 5e-324, -1.2345678901234567e-13, Number.MAX_VALUE, 1 / 3];
     const records = Buffer.alloc(values.length * RECORD_BYTES);
     values.forEach((v, r) => {

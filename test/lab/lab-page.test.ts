@@ -49,7 +49,11 @@ function start(args: string[], ready: RegExp, env: NodeJS.ProcessEnv = process.e
     };
     proc.stdout!.on('data', check);
     proc.stderr!.on('data', check);
-    proc.once('exit', (code) => (procs.delete(proc), clearTimeout(t), reject(new Error(`exited ${code}: ${out}`))));
+    proc.once('exit', (code) => {
+      procs.delete(proc);
+      clearTimeout(t);
+      reject(new Error(`exited ${code}: ${out}`));
+    });
   });
 }
 
@@ -165,7 +169,10 @@ describe('lab overview page', () => {
       expect((await fetch(`${base}/api/stations`, { headers: { cookie } })).status).toBe(200);
       // fetch() will not send another Host; a raw request does, as a DNS-rebinding page's would.
       const foreignHost = await new Promise<number>((resolve, reject) => {
-        const q = request({ host: '127.0.0.1', port: srv.port, path: '/api/stations', headers: { host: 'evil.example', authorization: `Bearer ${token}` } }, (res) => (res.resume(), resolve(res.statusCode ?? 0)));
+        const q = request({ host: '127.0.0.1', port: srv.port, path: '/api/stations', headers: { host: 'evil.example', authorization: `Bearer ${token}` } }, (res) => {
+          res.resume();
+          resolve(res.statusCode ?? 0);
+        });
         q.on('error', reject);
         q.end();
       });
@@ -173,7 +180,10 @@ describe('lab overview page', () => {
       const upgrade = (query: string, origin?: string) =>
         new Promise<number>((resolve) => {
           const ws = new WebSocket(`ws://127.0.0.1:${srv.port}/ws${query}`, origin ? { origin } : {});
-          ws.once('open', () => (ws.terminate(), resolve(101)));
+          ws.once('open', () => {
+            ws.terminate();
+            resolve(101);
+          });
           ws.once('unexpected-response', (_q, res) => resolve(res.statusCode ?? 0));
           ws.once('error', () => undefined);
         });

@@ -23,7 +23,10 @@ function start(args: string[], ready?: RegExp): Promise<{ proc: ChildProcess; ou
   let out = '';
   proc.stdout!.on('data', (d) => (out += String(d)));
   proc.stderr!.on('data', (d) => (out += String(d)));
-  const exited = new Promise<number | null>((r) => proc.once('exit', (code) => (procs.delete(proc), r(code))));
+  const exited = new Promise<number | null>((r) => proc.once('exit', (code) => {
+      procs.delete(proc);
+      r(code);
+    }));
   if (!ready) return Promise.resolve({ proc, out: () => out, exited });
   return new Promise((resolve, reject) => {
     const t = setTimeout(() => reject(new Error(`not ready: ${args.join(' ')}: ${out}`)), 30_000);
