@@ -14,7 +14,7 @@ interface SimOptions {
 export function registerSim(program: Command): void {
   program
     .command('sim')
-    .description('the built-in simulated source-measure unit (default SCPI dialect)')
+    .description('the built-in simulated source-measure unit (it speaks the protection-trip and protection-status dialects)')
     .option('--list', 'print each scenario\'s name and a one-line description')
     .option('--tcp <port>', 'serve on a TCP raw socket (SCPI raw-socket convention: 5025)')
     .option('--host <addr>', 'address to bind for --tcp', '127.0.0.1')

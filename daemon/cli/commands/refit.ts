@@ -1,0 +1,43 @@
+/**
+ * `plumbline refit`: every sweep of a session analysed again (the journal is not changed).
+ */
+import { resolve } from 'node:path';
+import type { Command } from 'commander';
+import { formatParameterText } from '../../../protocols/display-units.js';
+
+export function registerRefit(program: Command): void {
+  program
+    .command('refit')
+    .description('analyse every sweep of a session again with another model, window or inputs (the journal is not changed; results go to a new file)')
+    .argument('<session-dir>', 'a session folder')
+    .option('--model <id>', 'model (default: the session\'s)')
+    .option('--from <V>', 'fit window start, V')
+    .option('--to <V>', 'fit window end, V')
+    .option('--auto', 'choose the fit window automatically')
+    .option('--thickness <q>', 'film thickness, e.g. "8 nm"')
+    .option('--area <q>', 'device area, e.g. "1e-4 cm^2"')
+    .option('--temperature <q>', 'temperature, e.g. "300 K"')
+    .option('--mass-ratio <r>', 'tunnelling effective-mass ratio m*/m0')
+    .option('--permittivity <r>', 'relative permittivity (static)')
+    .option('--refractive-index <r>', 'refractive index')
+    .option('--flat-band <q>', 'flat-band voltage, e.g. "-0.9 V"')
+    .option('--richardson <q>', 'Richardson constant, e.g. "120 A/(cm^2 K^2)"')
+    .option('--out <file>', 'results file (default SESSION_DIR/refit-MODEL-TIME.json)')
+    .option('--json', 'print one JSON object')
+    .action(async (dir: string, o: Record<string, string | boolean | undefined>) => {
+      const { refitSession } = await import('../../journal/refit.js');
+      const { readInputs, readWindow } = await import('../inputs.js');
+      const inputs = Object.fromEntries(Object.entries(readInputs(o as never)).filter(([, v]) => v !== undefined));
+      const window = o.auto || o.from !== undefined || o.to !== undefined ? readWindow(o as never) : undefined;
+      const r = refitSession(resolve(dir), { model: o.model as string | undefined, window, inputs }, o.out !== undefined ? resolve(String(o.out)) : undefined);
+      if (o.json) {
+        process.stdout.write(`${JSON.stringify(r)}\n`);
+        return;
+      }
+      process.stdout.write(`refit of ${r.sweeps.length} sweep(s) with model ${r.request.model} → ${r.file}\n`);
+      for (const sw of r.sweeps) {
+        const p = sw.fit ? Object.entries(sw.fit.parameters).slice(0, 3).map(([k, v]) => `${k} ${formatParameterText(v, k)}`).join(', ') : `no fit: ${sw.error}`;
+        process.stdout.write(`  sweep ${String(sw.sweep).padStart(3)}: ${p}\n`);
+      }
+    });
+}

@@ -1,0 +1,50 @@
+/**
+ * `plumbline serve`: the station daemon with its page and API; the output goes off on SIGINT,
+ * SIGTERM and uncaught exceptions.
+ */
+import type { Command } from 'commander';
+import { UsageError } from '../usage.js';
+import { daemonModules, guardProcess, PUBLISH_HELP, STATION_HELP, startPublishing, stationConfig, type PublishOptions, type StationOptions } from '../station-common.js';
+
+export function registerServe(program: Command): void {
+  program
+    .command('serve')
+    .description('the station daemon with its page and API (default: the built-in simulated instrument)')
+    .option('--config <file>', 'station config (default config/station.json)')
+    .option('--port <n>', 'HTTP port (default: the config\'s, 8470; 0 = any free port)')
+    .option('--host <addr>', 'address to listen on (default 127.0.0.1; anything else needs server.token in the config)')
+    .option('--scenario <name>', 'use the built-in simulated instrument with this scenario')
+    .option('--data <dir>', 'folder for session folders (default: the config\'s, plumbline-data)')
+    .option('--fast', 'simulated instrument: answer at once instead of waiting the integration time')
+    .option('--no-autostart', 'do not start the default plan at once even if the config says so')
+    .option('--publish <url>', PUBLISH_HELP)
+    .option('--station <id>', STATION_HELP)
+    .action(async (o: StationOptions & PublishOptions & { port?: string; host?: string; autostart: boolean }) => {
+      const config = await stationConfig(o);
+      const { dataDir, Station, startServer } = await daemonModules();
+      const data = dataDir(config, o.data);
+      const port = o.port !== undefined ? Number(o.port) : config.server.port;
+      if (!Number.isInteger(port) || port < 0 || port > 65535) throw new UsageError(`--port '${o.port}': expected a port number`);
+      const station = new Station(config, data);
+      for (const r of station.recovered) process.stderr.write(`journal ${r.dir}: ${r.message}\n`);
+      const srv = await startServer(station, { host: o.host ?? config.server.host, port, token: config.server.token, allowedHosts: config.server.allowedHosts });
+      const pub = await startPublishing(config, data, o, srv.url);
+      guardProcess(station, async () => void (await Promise.all([srv.close(), pub?.stop(1000)])));
+      station.events$.subscribe({
+        next: (e) => {
+          if (e.type === 'session') process.stdout.write(`session ${e.id} started\n`);
+          else if (e.type === 'run-end') process.stdout.write(`run ended: ${e.outcome} — ${e.reason}\n`);
+          else if (e.type === 'caution') process.stdout.write(`CAUTION [${e.kind}] ${e.message}\n`);
+        },
+        error: () => undefined,
+      });
+      process.stdout.write(`plumbline daemon: ${config.name}\n  page  ${srv.url}\n  data  ${data}\n  instrument: ${config.instrument.kind}${station.scenario ? ` (scenario ${station.scenario.name})` : ''}\n`);
+      process.stdout.write('CAUTION: on a real station the output can reach hazardous voltages. Follow your lab\'s safety rules.\n');
+      if (config.autostart && o.autostart) {
+        const h = await station.startRun({});
+        process.stdout.write(`demo run started: ${h.session}\n`);
+        h.done.catch(() => undefined);
+      }
+      await new Promise(() => undefined);
+    });
+}

@@ -1,0 +1,96 @@
+/**
+ * `plumbline watch`: readings another program produces (a growing CSV, standard input, a TCP or
+ * serial line stream) through the live chain, journal and page, with no control of the instrument.
+ */
+import type { Command } from 'commander';
+import { UsageError } from '../usage.js';
+import { daemonModules, PUBLISH_HELP, serialSettings, STATION_HELP, startPublishing, stationConfig, type PublishOptions, } from '../station-common.js';
+
+export function registerWatch(program: Command): void {
+  program
+    .command('watch')
+    .description('follow readings another program produces — a CSV it is writing, standard input, a TCP or serial line stream — segment sweeps, and run the live chain, journal and page on them, with no control of the instrument')
+    .argument('<source>', 'the CSV being written; - for standard input; tcp://HOST:PORT; or serial:PATH (e.g. serial:/dev/ttyUSB0)')
+    .option('--voltage <col>', 'voltage column, by header name or 1-based position (default: the first)')
+    .option('--current <col>', 'current column (default: the second)')
+    .option('--compliance-column <col>', 'column flagging readings at compliance (non-zero)')
+    .option('--temperature-column <col>', 'column with the device temperature in K: each sweep gets a note "T = … K" (for plumbline tseries)')
+    .option('--model <id>', 'live-fit model (default: the config\'s)')
+    .option('--config <file>', 'station config (analysis, drift, server, data settings)')
+    .option('--data <dir>', 'folder for the session folder (default: the config\'s, plumbline-data)')
+    .option('--port <n>', 'serve the page on this port (default: the config\'s; 0 = any free port)')
+    .option('--no-page', 'do not serve the page')
+    .option('--baud <n>', 'serial: baud rate', '9600')
+    .option('--data-bits <n>', 'serial: 5, 6, 7 or 8', '8')
+    .option('--parity <p>', 'serial: none, even, odd, mark or space', 'none')
+    .option('--stop-bits <n>', 'serial: 1, 1.5 or 2', '1')
+    .option('--rtscts', 'serial: hardware flow control (RTS/CTS)')
+    .option('--xonxoff', 'serial: software flow control (XON/XOFF)')
+    .option('--read-terminator <t>', 'serial and TCP: what ends a line: lf (a trailing CR is dropped), crlf or cr', 'lf')
+    .option('--publish <url>', PUBLISH_HELP)
+    .option('--station <id>', STATION_HELP)
+    .action(async (spec: string, o: PublishOptions & { voltage?: string; current?: string; complianceColumn?: string; temperatureColumn?: string; model?: string; config?: string; data?: string; port?: string; page: boolean; baud: string; dataBits: string; parity: string; stopBits: string; rtscts?: boolean; xonxoff?: boolean; readTerminator: string }) => {
+      const config = await stationConfig({ config: o.config });
+      const { dataDir, Station, startServer } = await daemonModules();
+      const { feedPassive } = await import('../../pipeline/passive.js');
+      const { fileLines, streamLines, tcpLines, serialLines, parseSourceSpec } = await import('../../../protocols/line-source.js');
+      const { existsSync } = await import('node:fs');
+      let src: ReturnType<typeof parseSourceSpec>;
+      try {
+        src = parseSourceSpec(spec);
+      } catch (e) {
+        throw new UsageError((e as Error).message);
+      }
+      if (!['lf', 'crlf', 'cr'].includes(o.readTerminator)) throw new UsageError(`--read-terminator '${o.readTerminator}': expected lf, crlf or cr`);
+      const term = o.readTerminator as 'lf' | 'crlf' | 'cr';
+      const serial = src.kind === 'serial' ? serialSettings(src.path, o) : undefined;
+      if (src.kind === 'file' && !existsSync(src.path)) throw new UsageError(`${src.path}: no such file (watch follows a file that exists; create it first, even empty)`);
+      const station = new Station(config, dataDir(config, o.data));
+      for (const r of station.recovered) process.stderr.write(`journal ${r.dir}: ${r.message}\n`);
+      // Another program's data: the fit window is found automatically unless the config fixes one.
+      station.setAnalysis({ ...station.analysisSettings, ...(o.model !== undefined ? { model: o.model } : {}), window: config.analysis?.window ?? 'auto' }, 'cli');
+      let srv: Awaited<ReturnType<typeof startServer>> | undefined;
+      if (o.page) {
+        const port = o.port !== undefined ? Number(o.port) : config.server.port;
+        if (!Number.isInteger(port) || port < 0 || port > 65535) throw new UsageError(`--port '${o.port}': expected a port number`);
+        srv = await startServer(station, { host: config.server.host, port, token: config.server.token, allowedHosts: config.server.allowedHosts });
+      }
+      const where = src.kind === 'stdin' ? 'standard input' : src.kind === 'tcp' ? `TCP ${src.host}:${src.port}` : src.kind === 'serial' ? `serial ${src.path}` : src.path;
+      let source: import('../../../protocols/line-source.js').LineSource;
+      try {
+        source = src.kind === 'stdin' ? streamLines(process.stdin, 65536, term)
+          : src.kind === 'tcp' ? await tcpLines(src.host, src.port, term)
+          : src.kind === 'serial' ? await serialLines(serial!, term)
+          : await fileLines(src.path);
+      } catch (e) {
+        await srv?.close();
+        throw new UsageError(`cannot open ${where}: ${(e as Error).message}`);
+      }
+      const pub = await startPublishing(config, dataDir(config, o.data), o, srv?.url ?? null);
+      const passive = station.openPassive('watch', where);
+      const feed = feedPassive(source, passive.chain, { voltage: o.voltage, current: o.current, compliance: o.complianceColumn, temperature: o.temperatureColumn }, where);
+      process.stdout.write(`watching ${where} → session ${passive.session}\n  folder ${passive.dir}\n${srv ? `  page  ${srv.url}\n` : ''}plumbline does not control this instrument; Ctrl-C stops watching.\n`);
+      station.events$.subscribe({
+        next: (e) => {
+          if (e.type === 'caution' && e.kind !== 'passive-source') process.stdout.write(`CAUTION [${e.kind}] ${e.message}\n`);
+          else if (e.type === 'rejected') process.stderr.write(`skipped: ${e.reason}\n`);
+        },
+        error: () => undefined,
+      });
+      let closed = false;
+      const close = async (why: string) => {
+        if (closed) return;
+        closed = true;
+        feed.stop();
+        passive.close('completed', why);
+        await srv?.close();
+        await pub?.stop(3000);
+        process.stdout.write(`stopped: ${why}; ${feed.stats.readings} readings in ${feed.stats.sweeps} sweep(s), ${feed.stats.rejected} row(s) skipped\n`);
+        process.exit(0);
+      };
+      process.on('SIGINT', () => void close('interrupted (SIGINT)'));
+      process.on('SIGTERM', () => void close('terminated (SIGTERM)'));
+      await feed.done;
+      await close('the source ended');
+    });
+}

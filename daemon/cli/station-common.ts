@@ -1,0 +1,170 @@
+/**
+ * What the station commands (run, serve, watch, export, annotate, recover, report, refit, tseries)
+ * share: the daemon's modules loaded lazily, the station config with its command-line overrides,
+ * publishing to a lab broker, the guard that turns the output off on every way out of the process,
+ * and one line of text per journal event for the terminal.
+ */
+import { readFileSync } from 'node:fs';
+import type { WireEvent } from '../../protocols/wire.js';
+import type { StationConfig } from '../run/config.js';
+import type { Station } from '../run/station.js';
+import { UsageError } from './usage.js';
+import { formatParameterText } from '../../protocols/display-units.js';
+import { formatNumber } from '../../protocols/number-format.js';
+
+// The daemon's modules (express, ws, serialport, rxjs) load only when a station command runs, so
+// `plumbline fit` and friends keep their short start-up.
+export const daemonModules = async () => ({
+  ...(await import('../run/config.js')),
+  ...(await import('../run/station.js')),
+  ...(await import('../run/runner.js')),
+  ...(await import('../server/app.js')),
+  ...(await import('../journal/export.js')),
+  ...(await import('../journal/journal.js')),
+  ...(await import('../journal/reader.js')),
+  ...(await import('../run/plan.js')),
+});
+
+export interface StationOptions {
+  config?: string;
+  scenario?: string;
+  data?: string;
+  fast?: boolean;
+}
+
+export interface PublishOptions {
+  publish?: string;
+  station?: string;
+}
+
+/**
+ * Publishing to the lab's broker (--publish or the config's `publish`): it reads the journal in a
+ * thread of its own, so the run neither waits for it nor notices a missing broker.
+ */
+export async function startPublishing(config: StationConfig, data: string, o: PublishOptions, page: string | null) {
+  const url = o.publish ?? config.publish?.url;
+  if (url === undefined) return undefined;
+  const lab = await import('../lab/publishing.js');
+  const h = lab.startPublishing({ url, station: o.station ?? config.publish?.station, name: config.name, dataDir: data, page, tokenRequired: config.server.token !== undefined, log: (line) => process.stderr.write(`${line}\n`) });
+  process.stderr.write(`publishing to ${h.display} as station ${h.station}\n`);
+  return h;
+}
+
+export const PUBLISH_HELP = 'publish the sessions to an MQTT broker (mqtt://HOST:PORT[/PREFIX]); credentials as user:password@ or PLUMBLINE_MQTT_USERNAME/PASSWORD';
+export const STATION_HELP = 'station id in the broker\'s topics (default: host name and data folder name)';
+
+export async function stationConfig(o: StationOptions): Promise<StationConfig> {
+  const { loadConfig, DEFAULT_CONFIG_FILE } = await daemonModules();
+  const config = loadConfig(o.config ?? DEFAULT_CONFIG_FILE);
+  if (o.scenario !== undefined) {
+    const prev = config.instrument.kind === 'simulator' ? config.instrument : undefined;
+    config.instrument = { kind: 'simulator', scenario: o.scenario, realTime: prev?.realTime ?? true, seed: prev?.seed ?? 7 };
+    // A scenario brings its own plan and analysis unless the config fixes them.
+    if (o.config === undefined) {
+      delete config.plan;
+      delete config.analysis;
+    }
+  }
+  if (o.fast) {
+    if (config.instrument.kind !== 'simulator') throw new UsageError('--fast applies to the simulated instrument only');
+    config.instrument = { ...config.instrument, realTime: false };
+  }
+  return config;
+}
+
+export function readJson(file: string, what: string): unknown {
+  let text: string;
+  try {
+    text = readFileSync(file, 'utf8');
+  } catch (e) {
+    throw new UsageError(`${what} ${file}: cannot read: ${(e as Error).message}`);
+  }
+  try {
+    return JSON.parse(text);
+  } catch (e) {
+    throw new UsageError(`${what} ${file}: not valid JSON: ${(e as Error).message}`);
+  }
+}
+
+/** Serial settings from watch's options; a bad value names its option. */
+export function serialSettings(path: string, o: { baud: string; dataBits: string; parity: string; stopBits: string; rtscts?: boolean; xonxoff?: boolean }) {
+  const baudRate = Number(o.baud);
+  if (!Number.isInteger(baudRate) || baudRate <= 0) throw new UsageError(`--baud '${o.baud}': expected a baud rate such as 9600 or 115200`);
+  const dataBits = Number(o.dataBits);
+  if (![5, 6, 7, 8].includes(dataBits)) throw new UsageError(`--data-bits '${o.dataBits}': expected 5, 6, 7 or 8`);
+  if (!['none', 'even', 'odd', 'mark', 'space'].includes(o.parity)) throw new UsageError(`--parity '${o.parity}': expected none, even, odd, mark or space`);
+  const stopBits = Number(o.stopBits);
+  if (![1, 1.5, 2].includes(stopBits)) throw new UsageError(`--stop-bits '${o.stopBits}': expected 1, 1.5 or 2`);
+  return {
+    path,
+    baudRate,
+    dataBits: dataBits as 5 | 6 | 7 | 8,
+    parity: o.parity as 'none' | 'even' | 'odd' | 'mark' | 'space',
+    stopBits: stopBits as 1 | 1.5 | 2,
+    rtscts: o.rtscts ?? false,
+    xonxoff: o.xonxoff ?? false,
+  };
+}
+
+/** Output off on the way out, whatever the way out is. */
+export function guardProcess(station: Station, onExit: () => Promise<void> | void): void {
+  let exiting = false;
+  const leave = async (why: string, code: number) => {
+    if (exiting) return;
+    exiting = true;
+    process.stderr.write(`\nplumbline: ${why}; turning the output off\n`);
+    try {
+      await station.emergencyStop(why);
+      await onExit();
+    } finally {
+      process.exit(code);
+    }
+  };
+  process.on('SIGINT', () => void leave('interrupted (SIGINT)', 130));
+  process.on('SIGTERM', () => void leave('terminated (SIGTERM)', 143));
+  process.on('uncaughtException', (e) => void leave(`uncaught exception: ${e.stack ?? e.message}`, 1));
+  process.on('unhandledRejection', (e) => void leave(`unhandled rejection: ${(e as Error)?.stack ?? String(e)}`, 1));
+}
+
+export function describe(e: WireEvent): string | undefined {
+  switch (e.type) {
+    case 'caution':
+      return `CAUTION [${e.kind}] ${e.message}`;
+    case 'decision':
+      return `decision: ${e.action} — ${e.reason}`;
+    case 'fit': {
+      if (!e.final) return undefined;
+      if (!e.fit) return `sweep ${e.sweep}: no fit (${e.error})`;
+      const p = Object.entries(e.fit.parameters).slice(0, 3).map(([k, v]) => `${k} = ${formatParameterText(v, k)}`);
+      return `sweep ${e.sweep}: ${e.fit.model} fit on ${e.fit.line.n} points, ${p.join(', ')}`;
+    }
+    case 'drift':
+      return e.state === 'baseline' || e.state === 'no-value' ? undefined : `         drift of ${e.parameter}: ${e.state} (${e.method} ${formatNumber(e.statistic ?? Number.NaN, 5)}, limits ${formatNumber(e.lower ?? Number.NaN, 5)} … ${formatNumber(e.upper ?? Number.NaN, 5)})`;
+    case 'output':
+      if (e.queried) {
+        if (e.on) return `output ON, confirmed by the instrument — ${e.reason}`;
+        return e.confirmed ? `output off, confirmed by the instrument — ${e.reason}` : `output off NOT confirmed — ${e.reason}`;
+      }
+      if (e.on) return `output ON — ${e.reason}`;
+      return e.sent === false ? `output off could NOT be sent — ${e.reason}` : `output off sent — ${e.reason}`;
+    case 'test-result': {
+      const r = e.result as { breakdownVoltage?: number; breakdownField?: number; chargeToBreakdown?: number; timeToBreakdown?: number; leakageBefore?: number; leakageAfter?: number };
+      const parts = [
+        r.breakdownVoltage !== undefined ? `V = ${r.breakdownVoltage.toPrecision(4)} V` : '',
+        r.breakdownField !== undefined ? `E = ${(r.breakdownField / 1e8).toPrecision(4)} MV/cm` : '',
+        r.chargeToBreakdown !== undefined ? `Q = ${(r.chargeToBreakdown / 1e4).toPrecision(3)} C/cm²` : '',
+        r.timeToBreakdown !== undefined ? `t = ${r.timeToBreakdown.toPrecision(3)} s` : '',
+        r.leakageBefore !== undefined ? `leakage before ${r.leakageBefore.toPrecision(3)} A` : '',
+        r.leakageAfter !== undefined ? `after ${r.leakageAfter.toPrecision(3)} A` : '',
+      ].filter(Boolean);
+      return `${e.test}: ${e.outcome} — ${e.reason}${parts.length ? `\n         ${parts.join(', ')}` : ''}`;
+    }
+    case 'adaptive-sweep':
+      return `sweep ${e.sweep}: ${e.readings} readings, up to ${e.maxAbsBias.toPrecision(4)} V, ${e.charge.toPrecision(3)} C passed; ${e.parameter ? `${e.parameter.name} = ${e.parameter.value.toPrecision(5)} ± ${e.parameter.stdErr.toPrecision(2)} ${e.parameter.unit}; ` : ''}stopped: ${e.stopReason}`;
+    case 'recovery':
+      return `journal: ${e.message}`;
+    default:
+      return undefined;
+  }
+}
+
