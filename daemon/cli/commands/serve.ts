@@ -4,7 +4,8 @@
  */
 import type { Command } from 'commander';
 import { UsageError } from '../usage.js';
-import { daemonModules, guardProcess, PUBLISH_HELP, STATION_HELP, startPublishing, stationConfig, type PublishOptions, type StationOptions } from '../station-common.js';
+import { Log } from '../log.js';
+import { daemonModules, describe, guardProcess, PUBLISH_HELP, STATION_HELP, startPublishing, stationConfig, type PublishOptions, type StationOptions } from '../station-common.js';
 
 export function registerServe(program: Command): void {
   program
@@ -19,30 +20,40 @@ export function registerServe(program: Command): void {
     .option('--no-autostart', 'do not start the default plan at once even if the config says so')
     .option('--publish <url>', PUBLISH_HELP)
     .option('--station <id>', STATION_HELP)
-    .action(async (o: StationOptions & PublishOptions & { port?: string; host?: string; autostart: boolean }) => {
+    .option('--quiet', 'log only notices (the page address, runs starting and ending), cautions and errors')
+    .option('--verbose', 'also log every fit, drift statistic, decision and output change')
+    .action(async (o: StationOptions & PublishOptions & { port?: string; host?: string; autostart: boolean; quiet?: boolean; verbose?: boolean }) => {
+      const log = Log.from(o);
       const config = await stationConfig(o);
       const { dataDir, Station, startServer } = await daemonModules();
       const data = dataDir(config, o.data);
       const port = o.port !== undefined ? Number(o.port) : config.server.port;
       if (!Number.isInteger(port) || port < 0 || port > 65535) throw new UsageError(`--port '${o.port}': expected a port number`);
       const station = new Station(config, data);
-      for (const r of station.recovered) process.stderr.write(`journal ${r.dir}: ${r.message}\n`);
+      for (const r of station.recovered) (r.outputMayBeOn ? log.warn.bind(log) : log.notice.bind(log))(`journal ${r.dir}: ${r.message}`);
       const srv = await startServer(station, { host: o.host ?? config.server.host, port, token: config.server.token, allowedHosts: config.server.allowedHosts });
       const pub = await startPublishing(config, data, o, srv.url);
       guardProcess(station, async () => void (await Promise.all([srv.close(), pub?.stop(1000)])));
       station.events$.subscribe({
         next: (e) => {
-          if (e.type === 'session') process.stdout.write(`session ${e.id} started\n`);
-          else if (e.type === 'run-end') process.stdout.write(`run ended: ${e.outcome} — ${e.reason}\n`);
-          else if (e.type === 'caution') process.stdout.write(`CAUTION [${e.kind}] ${e.message}\n`);
+          if (e.type === 'session') log.notice(`session ${e.id} started`);
+          else if (e.type === 'run-end') log.notice(`run ended: ${e.outcome} — ${e.reason}`);
+          else if (e.type === 'caution') log.warn(`CAUTION [${e.kind}] ${e.message}`);
+          else if (log.threshold === 'debug') {
+            const line = describe(e);
+            if (line) log.debug(line.trim());
+          }
         },
         error: () => undefined,
       });
-      process.stdout.write(`plumbline daemon: ${config.name}\n  page  ${srv.url}\n  data  ${data}\n  instrument: ${config.instrument.kind}${station.scenario ? ` (scenario ${station.scenario.name})` : ''}\n`);
-      process.stdout.write('CAUTION: on a real station the output can reach hazardous voltages. Follow your lab\'s safety rules.\n');
+      log.notice(`plumbline daemon: ${config.name}`);
+      log.notice(`page  ${srv.url}`);
+      log.notice(`data  ${data}`);
+      log.notice(`instrument: ${config.instrument.kind}${station.scenario ? ` (scenario ${station.scenario.name})` : ''}`);
+      log.warn('CAUTION: on a real station the output can reach hazardous voltages. Follow your lab\'s safety rules.');
       if (config.autostart && o.autostart) {
         const h = await station.startRun({});
-        process.stdout.write(`demo run started: ${h.session}\n`);
+        log.notice(`demo run started: ${h.session}`);
         h.done.catch(() => undefined);
       }
       await new Promise(() => undefined);

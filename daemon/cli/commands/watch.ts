@@ -4,7 +4,8 @@
  */
 import type { Command } from 'commander';
 import { UsageError } from '../usage.js';
-import { daemonModules, PUBLISH_HELP, serialSettings, STATION_HELP, startPublishing, stationConfig, type PublishOptions, } from '../station-common.js';
+import { Log } from '../log.js';
+import { daemonModules, describe, PUBLISH_HELP, serialSettings, STATION_HELP, startPublishing, stationConfig, type PublishOptions, } from '../station-common.js';
 
 export function registerWatch(program: Command): void {
   program
@@ -26,10 +27,13 @@ export function registerWatch(program: Command): void {
     .option('--stop-bits <n>', 'serial: 1, 1.5 or 2', '1')
     .option('--rtscts', 'serial: hardware flow control (RTS/CTS)')
     .option('--xonxoff', 'serial: software flow control (XON/XOFF)')
+    .option('--quiet', 'log only notices, cautions and errors')
+    .option('--verbose', 'also log every fit, drift statistic, decision and output change')
     .option('--read-terminator <t>', 'serial and TCP: what ends a line: lf (a trailing CR is dropped), crlf or cr', 'lf')
     .option('--publish <url>', PUBLISH_HELP)
     .option('--station <id>', STATION_HELP)
-    .action(async (spec: string, o: PublishOptions & { voltage?: string; current?: string; complianceColumn?: string; temperatureColumn?: string; model?: string; config?: string; data?: string; port?: string; page: boolean; baud: string; dataBits: string; parity: string; stopBits: string; rtscts?: boolean; xonxoff?: boolean; readTerminator: string }) => {
+    .action(async (spec: string, o: PublishOptions & { voltage?: string; current?: string; complianceColumn?: string; temperatureColumn?: string; model?: string; config?: string; data?: string; port?: string; page: boolean; baud: string; dataBits: string; parity: string; stopBits: string; rtscts?: boolean; xonxoff?: boolean; readTerminator: string; quiet?: boolean; verbose?: boolean }) => {
+      const log = Log.from(o);
       const config = await stationConfig({ config: o.config });
       const { dataDir, Station, startServer } = await daemonModules();
       const { feedPassive } = await import('../../pipeline/passive.js');
@@ -46,7 +50,7 @@ export function registerWatch(program: Command): void {
       const serial = src.kind === 'serial' ? serialSettings(src.path, o) : undefined;
       if (src.kind === 'file' && !existsSync(src.path)) throw new UsageError(`${src.path}: no such file (watch follows a file that exists; create it first, even empty)`);
       const station = new Station(config, dataDir(config, o.data));
-      for (const r of station.recovered) process.stderr.write(`journal ${r.dir}: ${r.message}\n`);
+      for (const r of station.recovered) log.notice(`journal ${r.dir}: ${r.message}`);
       // Another program's data: the fit window is found automatically unless the config fixes one.
       station.setAnalysis({ ...station.analysisSettings, ...(o.model !== undefined ? { model: o.model } : {}), window: config.analysis?.window ?? 'auto' }, 'cli');
       let srv: Awaited<ReturnType<typeof startServer>> | undefined;
@@ -69,11 +73,18 @@ export function registerWatch(program: Command): void {
       const pub = await startPublishing(config, dataDir(config, o.data), o, srv?.url ?? null);
       const passive = station.openPassive('watch', where);
       const feed = feedPassive(source, passive.chain, { voltage: o.voltage, current: o.current, compliance: o.complianceColumn, temperature: o.temperatureColumn }, where);
-      process.stdout.write(`watching ${where} → session ${passive.session}\n  folder ${passive.dir}\n${srv ? `  page  ${srv.url}\n` : ''}plumbline does not control this instrument; Ctrl-C stops watching.\n`);
+      log.notice(`watching ${where} → session ${passive.session}`);
+      log.notice(`folder ${passive.dir}`);
+      if (srv) log.notice(`page  ${srv.url}`);
+      log.notice('plumbline does not control this instrument; Ctrl-C stops watching.');
       station.events$.subscribe({
         next: (e) => {
-          if (e.type === 'caution' && e.kind !== 'passive-source') process.stdout.write(`CAUTION [${e.kind}] ${e.message}\n`);
-          else if (e.type === 'rejected') process.stderr.write(`skipped: ${e.reason}\n`);
+          if (e.type === 'caution' && e.kind !== 'passive-source') log.warn(`CAUTION [${e.kind}] ${e.message}`);
+          else if (e.type === 'rejected') log.warn(`skipped: ${e.reason}`);
+          else if (log.threshold === 'debug') {
+            const line = describe(e);
+            if (line) log.debug(line.trim());
+          }
         },
         error: () => undefined,
       });
@@ -85,7 +96,7 @@ export function registerWatch(program: Command): void {
         passive.close('completed', why);
         await srv?.close();
         await pub?.stop(3000);
-        process.stdout.write(`stopped: ${why}; ${feed.stats.readings} readings in ${feed.stats.sweeps} sweep(s), ${feed.stats.rejected} row(s) skipped\n`);
+        log.notice(`stopped: ${why}; ${feed.stats.readings} readings in ${feed.stats.sweeps} sweep(s), ${feed.stats.rejected} row(s) skipped`);
         process.exit(0);
       };
       process.on('SIGINT', () => void close('interrupted (SIGINT)'));

@@ -1,0 +1,38 @@
+/**
+ * The daemon's log lines: an ISO 8601 time, a level, the text; --quiet keeps notices, cautions and
+ * errors; --verbose adds a line per journal event worth reading.
+ */
+import { join } from 'node:path';
+import { afterEach, describe, expect, it } from 'vitest';
+import { api, startDaemon, tempDir, type DaemonProcess } from '../helpers/daemon.js';
+
+const LINE = /^\d{4}-\d\d-\d\dT\d\d:\d\d:\d\d\.\d{3}Z (DEBUG|INFO|NOTICE|WARN|ERROR) +\S/;
+let d: DaemonProcess | undefined;
+afterEach(async () => {
+  await d?.stop();
+  d = undefined;
+});
+
+async function runOnce(args: string[]): Promise<string[]> {
+  d = await startDaemon(['--scenario', 'oxide-fn', '--fast', '--no-autostart', '--data', join(tempDir(), 'data'), ...args]);
+  expect((await api(d.url, 'POST', '/api/run', { plan: { start: 0, stop: 9, points: 10, compliance: 1e-3, repeat: 2 } })).status).toBe(201);
+  for (let k = 0; k < 500 && !/run ended/.test(d.output()); k++) await new Promise((r) => setTimeout(r, 20));
+  return d.output().split('\n').filter(Boolean);
+}
+
+describe('daemon log lines', () => {
+  it('every line has its time and level; --verbose shows the fits and the output changes', async () => {
+    const lines = await runOnce(['--verbose']);
+    for (const l of lines) expect(l).toMatch(LINE);
+    expect(lines.some((l) => / DEBUG +sweep 1: fowler-nordheim fit/.test(l))).toBe(true);
+    expect(lines.some((l) => / DEBUG +output off, confirmed by the instrument/.test(l))).toBe(true);
+    expect(lines.some((l) => / NOTICE +run ended: completed/.test(l))).toBe(true);
+  });
+
+  it('--quiet leaves out the debug and info lines, not the notices and cautions', async () => {
+    const lines = await runOnce(['--quiet']);
+    expect(lines.filter((l) => / (DEBUG|INFO) /.test(l))).toEqual([]);
+    expect(lines.some((l) => / NOTICE +page +http/.test(l))).toBe(true);
+    expect(lines.some((l) => / WARN +CAUTION \[output-on\]/.test(l))).toBe(true);
+  });
+});
