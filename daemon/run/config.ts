@@ -73,6 +73,8 @@ export type InstrumentConfig = z.infer<typeof instrumentSchema>;
 export const SIMULATOR_DIALECT = 'protection-trip';
 
 export const stationSchema = z.object({
+  /** The JSON Schema editors check the file against (config/station.schema.json). */
+  $schema: z.string().optional(),
   name: z.string().default('station'),
   instrument: instrumentSchema,
   /**
