@@ -64,6 +64,8 @@ if (wantSystem) {
     ['socat', () => onPath('socat')],
     ['chromium', () => onPath('chromium')],
     ['python3-scipy', () => debianPython('scipy')],
+    // The README's Python client example is run by a test.
+    ['python3-pandas', () => debianPython('pandas')],
     ['mosquitto', () => installed('mosquitto')],
     ['postgresql', () => installed('initdb')],
   ].filter(([, present]) => !present()).map(([pkg]) => pkg);

@@ -12,13 +12,13 @@
  *  - request bodies must be JSON (415 otherwise) and are validated with zod (400 naming the field).
  */
 import { timingSafeEqual } from 'node:crypto';
-import { existsSync } from 'node:fs';
+import { existsSync, readFileSync } from 'node:fs';
 import { createServer, type IncomingMessage, type Server } from 'node:http';
 import type { AddressInfo } from 'node:net';
 import { hostname, networkInterfaces } from 'node:os';
 import { join } from 'node:path';
 import express, { type NextFunction, type Request, type Response } from 'express';
-import { z } from 'zod';
+import type { z } from 'zod';
 import { projectRoot } from '../../protocols/project-root.js';
 import { MECHANISMS } from '../analysis/mechanisms/index.js';
 import { plotView } from '../analysis/plot.js';
@@ -31,9 +31,18 @@ import { isLoopback } from '../run/config.js';
 import { GuardError } from '../run/guard.js';
 import { PlanError } from '../run/plan.js';
 import { StationError, type Station } from '../run/station.js';
+import { annotationBody, openApiDocument, reasonBody, runBody } from './api-spec.js';
 import { Hub } from './hub.js';
 
 export const WEB_DIR = join(projectRoot(), 'dist', 'web');
+
+function packageVersion(): string {
+  try {
+    return (JSON.parse(readFileSync(join(projectRoot(), 'package.json'), 'utf8')) as { version: string }).version;
+  } catch {
+    return 'unknown';
+  }
+}
 
 export interface ServerOptions {
   readonly host: string;
@@ -51,16 +60,6 @@ export class ServerConfigError extends Error {
   readonly code = 'BAD_CONFIG';
 }
 
-const annotationBody = z.object({
-  text: z.string().min(1).max(10000),
-  tags: z.array(z.string().min(1).max(64)).max(32).optional(),
-  sweep: z.number().int().positive().optional(),
-  session: z.string().regex(/^[A-Za-z0-9-]+$/).optional(),
-  /** Corrections to the session's device identity (checked by the station: 400 naming the field). */
-  device: z.unknown().optional(),
-}).strict();
-const runBody = z.object({ plan: z.unknown().optional(), analysis: z.unknown().optional(), label: z.string().max(40).optional(), device: z.unknown().optional() }).strict();
-const reasonBody = z.object({ reason: z.string().max(500).optional() }).strict();
 
 export function tokenMatches(given: string | undefined, token: string): boolean {
   if (given === undefined) return false;
@@ -187,6 +186,9 @@ export async function startServer(station: Station, options: ServerOptions): Pro
     return join(station.dataDir, id);
   };
 
+  app.get('/api/openapi.json', (_req, res) => {
+    res.json(openApiDocument(packageVersion()));
+  });
   app.get('/api/status', (_req, res) => {
     res.json({
       running: station.running,
