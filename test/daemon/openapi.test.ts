@@ -5,7 +5,6 @@
  * its body validates against the document's schema, with Ajv (a general-purpose JSON Schema
  * draft 2020-12 validator, the dialect OpenAPI 3.1 uses).
  */
-import type { Server } from 'node:http';
 import { join } from 'node:path';
 import { Ajv2020 } from 'ajv/dist/2020.js';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
