@@ -150,3 +150,27 @@ export function chargeToBreakdown(hold: ArrayLike<number>, i: ArrayLike<number>,
   const a = Math.abs(i[at - 1]);
   return q + (Number.isFinite(a) ? 0.5 * a * hold[at] : 0);
 }
+
+/**
+ * Charge to breakdown on a staircase from the moments the levels were set (`tSet`) and read
+ * (`tMeas`), s, up to the reading `at` that showed the breakdown, C. What is known: each intact
+ * level's current flowed from its setting to the next one's; the last intact level's from its
+ * setting to its reading. The device broke at an unknown moment between that reading and the one
+ * that showed the breakdown: half of that interval is counted, at the last intact current (the
+ * midpoint estimate, unbiased whatever the length of the interval).
+ */
+export function staircaseChargeToBreakdown(tSet: ArrayLike<number>, tMeas: ArrayLike<number>, i: ArrayLike<number>, at: number): number {
+  let q = 0;
+  const n = Math.min(at, tSet.length);
+  for (let k = 0; k < n; k++) {
+    const a = Math.abs(i[k]);
+    if (!Number.isFinite(a)) continue;
+    const end = k + 1 < n ? tSet[k + 1] : tMeas[k];
+    q += a * Math.max(0, end - tSet[k]);
+  }
+  if (at > 0 && at < tMeas.length) {
+    const a = Math.abs(i[at - 1]);
+    if (Number.isFinite(a)) q += 0.5 * a * Math.max(0, tMeas[at] - tMeas[at - 1]);
+  }
+  return q;
+}

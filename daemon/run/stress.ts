@@ -14,7 +14,7 @@
  */
 import { writeFileSync } from 'node:fs';
 import { join } from 'node:path';
-import { chargeToBreakdown, CurrentRampJudge, StressJudge, VoltageRampJudge, type BreakdownVerdict } from '../analysis/breakdown-tests.js';
+import { chargeToBreakdown, CurrentRampJudge, staircaseChargeToBreakdown, StressJudge, VoltageRampJudge, type BreakdownVerdict } from '../analysis/breakdown-tests.js';
 import { DEVICE_RESULTS_FILE, formatDeviceResults, type DeviceIdentity, type DeviceResult, type Outcome } from '../../protocols/device-results.js';
 import type { NewEvent } from '../../protocols/wire.js';
 import type { Measurement } from '../instrument/smu-driver.js';
@@ -56,23 +56,34 @@ const TEST_OF: Record<StressPlan['kind'], string> = {
 
 const g = (x: number) => x.toPrecision(4);
 
-/** One reading series of the test: times (s since the session started), the stress hold each reading ends (s), biases (V), currents (A). */
+/**
+ * One reading series of a test: the time each reading was taken (s since the session started),
+ * the time its level was set, the measured bias (V) and current (A), and the programmed level.
+ *
+ * How long each reading's current flowed (its hold): on a staircase (a ramp) the level k is on the
+ * device from the moment it is set until level k+1 is set — its reading is taken somewhere inside
+ * that interval — so hold_k = tSet_{k+1} − tSet_k (the last: until its reading). Under constant
+ * stress the current flows between readings: hold_k = t_k − t_{k−1}, restarted after a pause.
+ * Timing from the moments the levels change, not from the readings, keeps the charge right when
+ * the computer is slow between a reading and the next level.
+ */
 class Series {
   readonly t: number[] = [];
-  readonly hold: number[] = [];
+  readonly tSet: number[] = [];
   readonly v: number[] = [];
   /** The level programmed for each reading (V, or A for a current ramp). */
   readonly set: number[] = [];
   readonly i: number[] = [];
   private last: number;
 
-  constructor(start: number) {
+  constructor(start: number, readonly staircase: boolean) {
     this.last = start;
   }
 
-  add(t: number, v: number, i: number, set: number, hold = t - this.last): void {
+  /** A reading; `tSet` is when its level was set (staircases), else the previous reading's time. */
+  add(t: number, v: number, i: number, set: number, tSet = this.last): void {
     this.t.push(t);
-    this.hold.push(hold);
+    this.tSet.push(tSet);
     this.v.push(v);
     this.set.push(set);
     this.i.push(i);
@@ -82,6 +93,12 @@ class Series {
   /** Restart the hold clock (after time that was not stress). */
   resume(t: number): void {
     this.last = t;
+  }
+
+  /** Seconds each reading's current flowed. */
+  holds(): number[] {
+    const n = this.t.length;
+    return this.t.map((t, k) => (this.staircase ? (k + 1 < n ? this.tSet[k + 1] : t) - this.tSet[k] : t - this.tSet[k]));
   }
 }
 
@@ -134,7 +151,8 @@ export class StressTest {
     const n = series.t.length;
     if (verdict) {
       const k = verdict.index;
-      const q = chargeToBreakdown(series.hold, series.i, k);
+      const hold = series.holds();
+      const q = series.staircase ? staircaseChargeToBreakdown(series.tSet, series.t, series.i, k) : chargeToBreakdown(hold, series.i, k);
       // The applied bias at breakdown: the level of the step in which it broke (a ramp or stress
       // programs the voltage; at breakdown the measured one collapses); for a current ramp the
       // highest voltage the device held before the collapse.
@@ -144,19 +162,22 @@ export class StressTest {
         field: thickness ? vbd / thickness : undefined,
         charge: area ? q / area : undefined,
         // Time under stress until the breakdown reading (sense sweeps excluded).
-        time: series.hold.slice(0, k + 1).reduce((a, b) => a + b, 0),
-        numbers: verdict.numbers,
+        time: hold.slice(0, k + 1).reduce((a, b) => a + b, 0),
+        // The breakdown moment is known only to lie between the last intact reading and the one
+        // that showed it: half that interval's charge is the estimate's own uncertainty.
+        numbers: { ...verdict.numbers, ...(area && k > 0 ? { chargeUncertainty: (0.5 * Math.abs(series.i[k - 1]) * (series.t[k] - series.t[k - 1])) / area } : {}) },
       });
     }
     // The end of the ramp or of the stress time without breakdown: the device survived (censored).
     const last = n - 1;
     const vmax = n ? Math.max(...(p.kind === 'current-ramp' ? series.v : series.set).map(Math.abs)) : 0;
-    const q = chargeToBreakdown(series.hold, series.i, n);
+    const holds = series.holds();
+    const q = chargeToBreakdown(holds, series.i, n);
     return this.finish('survived', p.kind === 'constant-voltage' ? 'end-of-stress' : 'end-of-ramp', `no breakdown: the device held to the end of the ${p.kind === 'constant-voltage' ? `stress (${g(p.duration)} s)` : 'ramp'}`, {
       voltage: vmax,
       field: thickness ? vmax / thickness : undefined,
       charge: area ? q / area : undefined,
-      time: last >= 0 ? series.hold.reduce((a, b) => a + b, 0) : undefined,
+      time: last >= 0 ? holds.reduce((a, b) => a + b, 0) : undefined,
     });
   }
 
@@ -201,16 +222,17 @@ export class StressTest {
     const judge = new VoltageRampJudge(p.criteria, p.compliance);
     this.startSweep(levels.length, `voltage ramp ${p.start} → ${p.stop} V at ${g(p.step / p.stepTime)} V/s`);
     const tStart = this.now();
-    const series = new Series(tStart);
+    const series = new Series(tStart, true);
     for (const v of levels) {
       this.ctx.check();
       await src.step(v);
+      const tSet = this.now();
       await this.ctx.sleep(p.stepTime);
       this.ctx.check();
       const m = await src.measure();
       this.ctx.take(m, v);
       if (!m.reading) continue;
-      series.add(this.now(), m.reading.v, m.reading.i, v);
+      series.add(this.now(), m.reading.v, m.reading.i, v, tSet);
       // Judged against the applied (programmed) bias: at compliance the measured one collapses.
       const verdict = judge.add(v, m.reading.i, m.compliance);
       if (verdict) {
@@ -238,18 +260,19 @@ export class StressTest {
     const judge = new CurrentRampJudge(p.criteria.voltageDrop);
     this.startSweep(levels.length, `current ramp ${p.start} → ${p.stop} A, ${p.stepsPerDecade} steps per decade`);
     const tStart = this.now();
-    const series = new Series(tStart);
+    const series = new Series(tStart, true);
     let limited = false;
     for (const i of levels) {
       this.ctx.check();
       await src.stepCurrent(i);
+      const tSet = this.now();
       await this.ctx.sleep(p.stepTime);
       this.ctx.check();
       const m = await src.measure();
       this.ctx.take(m, i);
       if (!m.reading) continue;
       // The forced current is the current through the device (the instrument's own reading of it).
-      series.add(this.now(), m.reading.v, m.reading.i, i);
+      series.add(this.now(), m.reading.v, m.reading.i, i, tSet);
       const verdict = judge.add(m.reading.v, m.reading.i);
       if (verdict) {
         const at = { ...verdict, index: series.t.length - 1 };
@@ -285,7 +308,7 @@ export class StressTest {
     };
     await src.rampTo(p.stress);
     const tStart = this.now();
-    const series = new Series(tStart);
+    const series = new Series(tStart, false);
     openSegment();
     while (stressTime < p.duration) {
       this.ctx.check();
@@ -296,7 +319,7 @@ export class StressTest {
       if (!m.reading) continue;
       const t = this.now();
       series.add(t, m.reading.v, m.reading.i, p.stress);
-      stressTime += series.hold[series.hold.length - 1];
+      stressTime += t - series.tSet[series.tSet.length - 1];
       const verdict = judge.add(stressTime, m.reading.i, m.compliance);
       if (verdict) {
         const at = { ...verdict, index: series.t.length - 1 };

@@ -8,7 +8,7 @@
  * scaling, η ∝ A^(−1/β), Wu & Suñé 2009).
  */
 import { describe, expect, it } from 'vitest';
-import { chargeToBreakdown, CurrentRampJudge, heldCharge, StressJudge, VoltageRampJudge } from '../../daemon/analysis/breakdown-tests.js';
+import { chargeToBreakdown, CurrentRampJudge, heldCharge, staircaseChargeToBreakdown, StressJudge, VoltageRampJudge } from '../../daemon/analysis/breakdown-tests.js';
 import { chargeScaleAt, unitWeibull } from '../../daemon/analysis/wearout.js';
 import { AdaptiveSweep } from '../../daemon/analysis/adaptive-sweep.js';
 
@@ -86,6 +86,19 @@ describe('charge to breakdown', () => {
     // Readings 0–2 intact: 1e-8 + 2e-8 + 8e-8 = 1.1e-7 C; half of step 3 at the last intact 4 µA: 2e-8.
     expect(heldCharge(hold, i, 3)).toBeCloseTo(1.1e-7, 20);
     expect(chargeToBreakdown(hold, i, 3)).toBeCloseTo(1.3e-7, 20);
+  });
+});
+
+describe('charge to breakdown on a staircase, timed by the level changes', () => {
+  it('intact levels count from their setting to the next; half the uncertain interval at the last intact current', () => {
+    // Levels set at 0, 10, 20, 30 ms; read at 8, 18, 60 (a slow gap before level 3), 38 ms; the
+    // reading at 38 ms (index 3) shows the breakdown.
+    const tSet = [0, 0.01, 0.02, 0.065];
+    const tMeas = [0.008, 0.018, 0.06, 0.073];
+    const i = [1e-6, 2e-6, 4e-6, 1e-2];
+    // 1e-6·0.01 + 2e-6·0.01 + 4e-6·(0.06 − 0.02) known; + ½·4e-6·(0.073 − 0.06).
+    const expected = 1e-8 + 2e-8 + 1.6e-7 + 0.5 * 4e-6 * 0.013;
+    expect(staircaseChargeToBreakdown(tSet, tMeas, i, 3)).toBeCloseTo(expected, 20);
   });
 });
 
