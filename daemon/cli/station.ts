@@ -272,9 +272,10 @@ export function registerStation(program: Command): void {
     .option('--data <dir>', 'folder for session folders (default: the config\'s, plumbline-data)')
     .option('--fast', 'simulated instrument: answer at once instead of waiting the integration time')
     .option('--no-autostart', 'do not start the default plan at once even if the config says so')
+    .option('--start-on-page', 'with autostart: start the default plan when the first page connects (npm start does this, so a newcomer sees the demo from its start)')
     .option('--publish <url>', PUBLISH_HELP)
     .option('--station <id>', STATION_HELP)
-    .action(async (o: StationOptions & PublishOptions & { port?: string; host?: string; autostart: boolean }) => {
+    .action(async (o: StationOptions & PublishOptions & { port?: string; host?: string; autostart: boolean; startOnPage?: boolean }) => {
       const config = await stationConfig(o);
       const { dataDir, Station, startServer } = await daemonModules();
       const data = dataDir(config, o.data);
@@ -296,6 +297,11 @@ export function registerStation(program: Command): void {
       process.stdout.write(`plumbline daemon: ${config.name}\n  page  ${srv.url}\n  data  ${data}\n  instrument: ${config.instrument.kind}${station.scenario ? ` (scenario ${station.scenario.name})` : ''}\n`);
       process.stdout.write('CAUTION: on a real station the output can reach hazardous voltages. Follow your lab\'s safety rules.\n');
       if (config.autostart && o.autostart) {
+        if (o.startOnPage) {
+          // The demo waits for someone to watch it: it starts when the first page connects.
+          process.stdout.write(`the demo run starts when the page connects: open ${srv.url}\n`);
+          while (srv.hub.stats.clients === 0) await new Promise((r) => setTimeout(r, 200));
+        }
         const h = await station.startRun({});
         process.stdout.write(`demo run started: ${h.session}\n`);
         h.done.catch(() => undefined);
