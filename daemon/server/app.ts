@@ -21,7 +21,6 @@ import express, { type NextFunction, type Request, type Response } from 'express
 import { z } from 'zod';
 import { projectRoot } from '../../protocols/project-root.js';
 import { MECHANISMS } from '../analysis/mechanisms/index.js';
-import { plotView } from '../analysis/plot.js';
 import { exportSession } from '../journal/export.js';
 import { FolderLot } from '../journal/lot.js';
 import { analyzeLot, renderLot } from '../journal/lot-report.js';

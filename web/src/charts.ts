@@ -244,7 +244,7 @@ export class LinearizedChart {
     const dim = under ? displayView(under) : null;
     this.shown = main;
     this.under = dim;
-    const ref = (main && main.x.length ? main : dim) as DisplayView;
+    const ref = (main?.x.length ? main : dim) as DisplayView;
     const split = (v: DisplayView | null) => {
       const o = { inX: [] as number[], inY: [] as number[], outX: [] as number[], outY: [] as number[], rInX: [] as number[], rInY: [] as number[], rOutX: [] as number[], rOutY: [] as number[] };
       if (!v) return o;

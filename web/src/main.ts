@@ -177,7 +177,7 @@ function renderLinearized(s: Store, cur: number): void {
     note = ' — re-analysis';
   } else {
     main = s.views.get(cur);
-    if (s.isLive(cur) && (!main || !main.line || inWindow(main) < MIN_IN_WINDOW)) {
+    if (s.isLive(cur) && (!main?.line || inWindow(main) < MIN_IN_WINDOW)) {
       const prev = previousFinalView(s, cur);
       if (prev) {
         under = prev.view;
