@@ -74,6 +74,9 @@ function drawSegment(u: uPlot, x: [number, number], y: [number, number], color: 
   ctx.restore();
 }
 
+/** Readings on the raw chart up to which each one gets a dot (beyond, lines only: drawing stays fast). */
+const DOT_LIMIT = 5000;
+
 /** Per-sweep arrays the raw chart draws, rebuilt only for sweeps that grew. */
 interface RawCache {
   n: number;
@@ -158,11 +161,13 @@ export class RawChart {
         hooks: {
           drawClear: [(u: uPlot) => this.drawEnvelope(u)],
           draw: [(u: uPlot) => {
+            // Small dots on the readings while they are few enough to tell apart; lines beyond.
+            let total = 0;
+            for (const c of this.cache.values()) total += c.n;
             for (let n = 0; n < nSweeps; n++) {
               const c = this.cache.get(keys[n]);
               if (!c) continue;
-              const col = sequential(nSweeps > 1 ? n / (nSweeps - 1) : 1);
-              drawPoints(u, (u.data[n + 1] as unknown as [number[]])[0], c.y, 'dot', col, 1.6);
+              if (total <= DOT_LIMIT) drawPoints(u, (u.data[n + 1] as unknown as [number[]])[0], c.y, 'dot', sequential(nSweeps > 1 ? n / (nSweeps - 1) : 1), 1.6);
               if (c.negX.length) drawPoints(u, c.negX, c.negY, 'cross', OKABE_ITO.vermillion);
               if (c.compX.length) drawPoints(u, c.compX, c.compY, 'square', OKABE_ITO.black);
             }

@@ -151,7 +151,9 @@ function render(): void {
     ? '— re-analyses this past session (kept beside its journal)'
     : live.running ? (control ? '— applies to the run from now on (journaled)' : '— applies to the watched readings from now on')
       : s.session ? '— re-analyses the session on screen and becomes the station\'s setting for the next run' : '— the station\'s setting for the next run';
-  renderCautions($('cautions'), s);
+  // Each panel is redrawn only when what it shows has changed (a frame carries new readings most
+  // of the time, and nothing else).
+  if (changed('cautions', s, s.cautions.length, s.outputOn, s.readOnly, s.sessionEvent)) renderCautions($('cautions'), s);
   raw.update(s.sweeps, ($('raw-log') as HTMLInputElement).checked, s.envelope);
   $('raw-note').textContent = `Colour runs from the first sweep shown (dark) to the latest (light)${s.envelope ? `; grey band: every one of the ${s.allSweeps.length} sweeps (smallest to largest current at each bias)` : ''}. ✕ marks negative current (plotted as |I|), □ marks readings at compliance.`;
   if (s.sessionEvent && s.readingCount > 0) {
@@ -160,11 +162,20 @@ function render(): void {
     if (latency.length > 10_000) latency.splice(0, 5_000);
   }
   renderLinearized(s, cur);
-  renderParamsPanel(s, cur);
-  renderRanking($('ranking'), s.ranking);
-  renderDrift(s);
+  if (changed('params', s, cur, s.finalFits.get(cur), s.liveFit, s.reanalysis, s.running, s.ended.get(cur), s.analysis)) renderParamsPanel(s, cur);
+  if (changed('ranking', s, s.ranking)) renderRanking($('ranking'), s.ranking);
+  if (changed('drift', s, s.drift)) renderDrift(s);
   renderPicker(s, cur);
   refillForms(s);
+}
+
+/** Whether any of the values differ (by identity) from the last call with this name. */
+const memo = new Map<string, unknown[]>();
+function changed(name: string, ...values: unknown[]): boolean {
+  const prev = memo.get(name);
+  if (prev && prev.length === values.length && prev.every((v, k) => v === values[k])) return false;
+  memo.set(name, values);
+  return true;
 }
 
 function renderLinearized(s: Store, cur: number): void {
@@ -185,7 +196,7 @@ function renderLinearized(s: Store, cur: number): void {
       }
     }
   }
-  lin.update(main, under);
+  if (changed('lin', s, main, under, lin.wholeCurve)) lin.update(main, under);
   $('lin-empty').hidden = Boolean(main || under);
   const title = (re?.views.has(cur) ? re.fits.get(cur)?.fit?.title : undefined) ?? (main && s.finalFits.get(cur)?.model === main.model ? s.finalFits.get(cur)?.title : undefined)
     ?? (s.liveFit?.fit?.model === (main ?? under)?.model ? s.liveFit?.fit?.title : undefined) ?? main?.model ?? under?.model;
