@@ -147,3 +147,41 @@ export function formatInputs(inputs: Record<string, number | undefined | { value
   }
   return out.join(', ');
 }
+
+/** Names of fitted parameters and figures of merit as the trade writes them (keys stay as in JSON). */
+export const PARAMETER_LABELS: Readonly<Record<string, string>> = {
+  barrierHeight: 'barrier height φ_B',
+  relativePermittivity: 'relative permittivity ε_r',
+  idealityFactor: 'ideality factor n',
+  saturationCurrent: 'saturation current I₀',
+  idealityFactor1: 'ideality factor n₁',
+  saturationCurrent1: 'saturation current I₀₁',
+  idealityFactor2: 'ideality factor n₂',
+  saturationCurrent2: 'saturation current I₀₂',
+  hoppingDistance: 'hopping distance a',
+  mobility: 'mobility μ',
+  exponent: 'exponent',
+  transitionVoltage: 'transition voltage V_tr',
+  resistance: 'resistance R',
+  conductivity: 'conductivity σ',
+  trapEnergy: 'trap energy φ_t',
+  rate: 'rate',
+  prefactor: 'prefactor',
+  activationEnergy: 'activation energy E_a',
+  photocurrent: 'photocurrent I_ph',
+  seriesResistance: 'series resistance R_s',
+  shuntResistance: 'shunt resistance R_sh',
+  isc: 'short-circuit current I_sc',
+  jsc: 'short-circuit current density J_sc',
+  voc: 'open-circuit voltage V_oc',
+  pmax: 'maximum power P_max',
+  vmp: 'voltage at P_max',
+  imp: 'current at P_max',
+  fillFactor: 'fill factor FF',
+  efficiency: 'efficiency η',
+};
+
+/** A parameter's name for people: the trade's words, or the key itself. */
+export function parameterLabel(key: string): string {
+  return PARAMETER_LABELS[key] ?? key;
+}

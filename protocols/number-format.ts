@@ -114,6 +114,23 @@ export function formatLogTick(v: number): string {
 }
 
 /**
+ * Labels for the ticks of one log axis, in one style: plain decimals when every tick lies in
+ * 0.001 … 10000, otherwise powers of ten throughout (10⁻⁶, 2×10⁻⁶).
+ */
+export function formatLogTicks(ticks: readonly number[]): string[] {
+  const pos = ticks.filter((v) => v > 0 && Number.isFinite(v));
+  const plain = pos.every((v) => v >= 1e-3 && v < 1e4 * (1 + 1e-9));
+  return ticks.map((v) => {
+    if (!(v > 0) || !Number.isFinite(v)) return '';
+    if (plain) return formatNumber(v, 3);
+    const e = exponentOf(v);
+    const m = Number((v / 10 ** e).toPrecision(3));
+    const pow = `10${String(e).split('').map((c) => SUPERSCRIPT[c] ?? c).join('')}`;
+    return Math.abs(m - 1) < 1e-9 ? pow : `${formatNumber(m, 3)}×${pow}`;
+  });
+}
+
+/**
  * Round tick values between lo and hi (about `count` of them, never fewer than 3 on a range that
  * has any width). Ticks are counted by index (never by adding a step to a running total), so a
  * range narrower than the spacing of doubles near lo gives the two ends instead of a loop without

@@ -5,7 +5,46 @@
  * Modules (mqtt, pg, express) load only when these commands run.
  */
 import type { Command } from 'commander';
+import type { LotSource } from '../journal/lot.js';
 import { UsageError } from './usage.js';
+
+export interface ArchiveSelectionOptions {
+  postgres?: string;
+  wafer?: string;
+  site?: string;
+  tag?: string;
+  from?: string;
+  to?: string;
+  station?: string;
+}
+
+/** The options that read devices from the archive instead of folders (weibull, lot). */
+export function withArchiveSelection(cmd: Command): Command {
+  return cmd
+    .option('--postgres <url>', 'read the devices from the archive (plumbline archive) instead of folders, selected by the options below')
+    .option('--wafer <name>', 'with --postgres: sessions of this wafer')
+    .option('--site <name>', 'with --postgres: sessions of this site')
+    .option('--tag <tag>', 'with --postgres: sessions whose device, or one of whose notes, carries this tag')
+    .option('--from <date>', 'with --postgres: sessions started at or after this date/time (ISO 8601)')
+    .option('--to <date>', 'with --postgres: sessions started before this date/time')
+    .option('--station <id>', 'with --postgres: sessions of this station');
+}
+
+/**
+ * The archive selection as a lot, or undefined when --postgres is not given (then folders are read,
+ * and a selection option alone is a usage error).
+ */
+export async function archiveLot(o: ArchiveSelectionOptions, inputs: readonly string[]): Promise<LotSource | undefined> {
+  const given = (['wafer', 'site', 'tag', 'from', 'to', 'station'] as const).filter((k) => o[k] !== undefined);
+  if (o.postgres === undefined) {
+    if (given.length > 0) throw new UsageError(`--${given[0]} selects sessions in the archive: give --postgres URL too`);
+    if (inputs.length === 0) throw new UsageError('give session folders (or data folders), or --postgres URL with a selection');
+    return undefined;
+  }
+  if (inputs.length > 0) throw new UsageError('give folders or --postgres, not both');
+  const { ArchiveLot } = await import('../lab/archive-lot.js');
+  return new ArchiveLot(o.postgres, { wafer: o.wafer, site: o.site, tag: o.tag, from: o.from, to: o.to, station: o.station });
+}
 
 function percentile(xs: readonly number[], p: number): number {
   if (xs.length === 0) return Number.NaN;

@@ -6,8 +6,9 @@
 import { resolve } from 'node:path';
 import type { Command } from 'commander';
 import { readConfidence } from './weibull.js';
+import { archiveLot, withArchiveSelection, type ArchiveSelectionOptions } from './lab.js';
 
-interface LotCliOptions {
+interface LotCliOptions extends ArchiveSelectionOptions {
   out?: string;
   map?: string;
   quantity?: string;
@@ -18,23 +19,23 @@ interface LotCliOptions {
 }
 
 export function registerLot(program: Command): void {
-  program
+  withArchiveSelection(program
     .command('lot')
     .description('a self-contained HTML report across devices: fitted parameters by site, distributions, wafer map, Weibull plot of breakdown results, outliers, cautions')
-    .argument('<session-dir...>', 'session folders, or data folders whose session folders are all taken')
+    .argument('[session-dir...]', 'session folders, or data folders whose session folders are all taken (or --postgres with a selection)')
     .option('--out <file>', 'HTML file to write (default lot.html in the current folder)')
     .option('--map <parameter>', 'parameter for the wafer map (a fitted parameter such as barrierHeight, or field | voltage | charge | time); default: the breakdown field, else the first parameter')
     .option('--quantity <name>', 'breakdown quantity for the Weibull plot: field | voltage | charge | time', 'field')
     .option('--area <q>', 'reference area for the Weibull scale when devices differ, e.g. "1e-4 cm^2"')
     .option('--confidence <c>', 'two-sided confidence of the Weibull bounds', '0.9')
     .option('--no-cache', 'read every journal again instead of the cached summaries')
-    .option('--json', 'print one JSON object (devices, parameter statistics, outliers, Weibull fit) as well as writing the report')
+    .option('--json', 'print one JSON object (devices, parameter statistics, outliers, Weibull fit) as well as writing the report'))
     .action(async (dirs: string[], o: LotCliOptions) => {
       const { FolderLot } = await import('../journal/lot.js');
       const { writeLotReport } = await import('../journal/lot-report.js');
       const { parseQuantity } = await import('../quantity.js');
       const area = o.area !== undefined ? parseQuantity(o.area, 'area', '--area') : undefined;
-      const source = new FolderLot(dirs, { cache: o.cache });
+      const source = (await archiveLot(o, dirs)) ?? new FolderLot(dirs, { cache: o.cache });
       const file = resolve(o.out ?? 'lot.html');
       const t0 = performance.now();
       const a = await writeLotReport(source, file, { map: o.map, quantity: o.quantity, area, confidence: readConfidence(o.confidence) });
@@ -44,7 +45,7 @@ export function registerLot(program: Command): void {
         return;
       }
       const outliers = a.parameters.reduce((n, p) => n + p.outliers.length, 0);
-      process.stdout.write(`lot report of ${a.rows.length} device(s) from ${new Set(a.rows.map((r) => r.session)).size} session(s) written to ${file} (${source.cachedCount} summaries from the cache, ${(performance.now() - t0).toFixed(0)} ms)\n`);
+      process.stdout.write(`lot report of ${a.rows.length} device(s) from ${new Set(a.rows.map((r) => r.session)).size} session(s) written to ${file} (${source instanceof FolderLot ? `${source.cachedCount} summaries from the cache` : source.description}, ${(performance.now() - t0).toFixed(0)} ms)\n`);
       if (outliers) process.stdout.write(`  ${outliers} outlier value(s) flagged (robust z > 3.5)\n`);
       if (a.weibull) process.stdout.write(`  Weibull ${a.weibull.quantity}: β = ${a.weibull.shape.value.toPrecision(4)}, η = ${a.weibull.scale.value.toPrecision(5)} ${a.weibull.scale.unit} (${a.weibull.failures} breakdowns, ${a.weibull.censored} survived)\n`);
       else if (a.weibullError) process.stdout.write(`  no Weibull fit: ${a.weibullError}\n`);

@@ -10,6 +10,7 @@ import { DEVICE_RESULTS_FILE, parseDeviceResults, resultQuantity, RESULT_QUANTIT
 import { columnIndex, CsvError, parseCsvTable, requireNumeric, splitFields, detectDelimiter } from '../../protocols/csv-table.js';
 import { UsageError } from './usage.js';
 import { formatValue, type BreakdownSample } from '../journal/lot.js';
+import { archiveLot, withArchiveSelection, type ArchiveSelectionOptions } from './lab.js';
 
 const SURVIVOR_COLUMNS = /^(censored|survived|survivor|suspended)$/i;
 
@@ -54,7 +55,7 @@ function isResultsHeader(text: string): boolean {
   return h.includes('device') && h.includes('outcome');
 }
 
-export interface WeibullCliOptions {
+export interface WeibullCliOptions extends ArchiveSelectionOptions {
   quantity?: string;
   area?: string;
   toArea?: string;
@@ -78,8 +79,9 @@ export async function gatherSample(inputs: string[], o: WeibullCliOptions, refer
   const files = inputs.filter((p) => !folders.includes(p));
   const q = resultQuantity(o.quantity ?? 'field');
   const rows = [];
-  if (folders.length) {
-    const lot = new FolderLot(folders, { cache: o.cache });
+  const archive = await archiveLot(o, inputs);
+  if (archive || folders.length) {
+    const lot = archive ?? new FolderLot(folders, { cache: o.cache });
     const devices = await lot.devices();
     rows.push(...lotResults(devices));
     for (const d of devices) for (const p of d.problems) process.stderr.write(`plumbline weibull: ${d.session}: ${p}\n`);
@@ -154,10 +156,10 @@ function formatReport(r: WeibullReport, s: BreakdownSample): string {
 }
 
 export function registerWeibull(program: Command): void {
-  program
+  withArchiveSelection(program
     .command('weibull')
     .description('Weibull statistics of breakdown values across devices: shape and scale by maximum likelihood with bounds, median-rank plot, goodness of fit, two-population warning, area scaling')
-    .argument('<input...>', 'session folders or data folders (their device-results.csv), results files, or CSV files with one value per device')
+    .argument('[input...]', 'session folders or data folders (their device-results.csv), results files, or CSV files with one value per device (or --postgres with a selection)')
     .option('--quantity <name>', `results: ${Object.keys(RESULT_QUANTITIES).join(' | ')} (default field); other CSVs: the column with the values`)
     .option('--area <q>', 'device area (or the reference area when devices differ), e.g. "1e-4 cm^2"')
     .option('--to-area <q>', 'scale η to this area through β (Poisson area scaling), e.g. "1 cm^2"')
@@ -165,7 +167,7 @@ export function registerWeibull(program: Command): void {
     .option('--bounds <method>', 'lr (likelihood ratio, default) or fisher (Fisher matrix)', 'lr')
     .option('--unit <u>', 'plain CSVs: the SI unit of the values (V/m, C/m^2, s, V), for display')
     .option('--no-cache', 'session folders: read every journal again instead of the cached summaries')
-    .option('--json', 'print exactly one JSON object')
+    .option('--json', 'print exactly one JSON object'))
     .action(async (inputs: string[], o: WeibullCliOptions) => {
       const { parseQuantity } = await import('../quantity.js');
       const confidence = readConfidence(o.confidence);

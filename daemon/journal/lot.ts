@@ -72,6 +72,26 @@ const sameStamp = (a: Stamp, b: Stamp) =>
 /** Reads one session's summary from its journal and results file (no cache). */
 export function summarizeSession(dirIn: string): DeviceSummary {
   const dir = resolve(dirIn);
+  const events: WireEvent[] = [];
+  const scan = scanJournal(dir, (e) => void events.push(e), { readings: false });
+  const problems: string[] = scan.bad.map((b) => `${JOURNAL_FILE} line ${b.line}: ${b.problem}`);
+  let results: DeviceResult[] = [];
+  const rf = join(dir, DEVICE_RESULTS_FILE);
+  if (existsSync(rf)) {
+    try {
+      results = parseDeviceResults(readFileSync(rf, 'utf8'), rf);
+    } catch (e) {
+      problems.push((e as Error).message);
+    }
+  }
+  return summarizeEvents(basename(dir), dir, events, results, problems);
+}
+
+/**
+ * A session's summary from its events (in sequence order; readings are not needed) and its results
+ * rows: the one place the summary is made, whether the events come from a journal or an archive.
+ */
+export function summarizeEvents(session: string, dir: string | null, events: Iterable<WireEvent>, results: readonly DeviceResult[], problems: readonly string[]): DeviceSummary {
   let startedAt: string | null = null;
   let identity: DeviceIdentity = {};
   let inputs: Record<string, unknown> = {};
@@ -80,7 +100,7 @@ export function summarizeSession(dirIn: string): DeviceSummary {
   let outcome: string | null = null;
   let reason: string | null = null;
   const cautions = new Map<string, { kind: string; count: number; message: string }>();
-  const scan = scanJournal(dir, (e) => {
+  for (const e of events) {
     switch (e.type) {
       case 'session':
         startedAt = e.startedAt;
@@ -114,7 +134,7 @@ export function summarizeSession(dirIn: string): DeviceSummary {
       default:
         break;
     }
-  }, { readings: false });
+  }
   // The analysis inputs fill what the identity leaves out (the fit used them).
   const fill: DeviceIdentity = {
     ...(typeof inputs.area === 'number' ? { area: inputs.area } : {}),
@@ -132,18 +152,8 @@ export function summarizeSession(dirIn: string): DeviceSummary {
       break;
     }
   }
-  const problems: string[] = scan.bad.map((b) => `${JOURNAL_FILE} line ${b.line}: ${b.problem}`);
-  let results: DeviceResult[] = [];
-  const rf = join(dir, DEVICE_RESULTS_FILE);
-  if (existsSync(rf)) {
-    try {
-      results = parseDeviceResults(readFileSync(rf, 'utf8'), rf);
-    } catch (e) {
-      problems.push((e as Error).message);
-    }
-  }
   return {
-    session: basename(dir),
+    session,
     dir,
     startedAt,
     identity,
@@ -154,8 +164,8 @@ export function summarizeSession(dirIn: string): DeviceSummary {
     outcome,
     reason,
     cautions: [...cautions.values()],
-    results,
-    problems,
+    results: [...results],
+    problems: [...problems],
   };
 }
 

@@ -29,7 +29,7 @@ export interface SvgChart {
   readonly hlines?: readonly { y: number; color: string; dash?: string; label?: string }[];
 }
 
-import { formatLogTick, formatTicks, logTicks, niceTicks } from '../../protocols/number-format.js';
+import { formatLogTicks, formatTicks, logTicks, niceTicks } from '../../protocols/number-format.js';
 
 const esc = (s: string) => s.replace(/&/g, '&amp;').replace(/</g, '&lt;').replace(/>/g, '&gt;').replace(/"/g, '&quot;');
 
@@ -98,7 +98,11 @@ export function svgChart(c: SvgChart): string {
   // Ticks in value space (log axes: decades, or 1-2-5 steps on narrow ranges), labelled so that no
   // two labels on an axis read the same.
   const ticks = (lo: number, hi: number, log: boolean): { at: number; label: string }[] => {
-    if (log) return logTicks(10 ** lo, 10 ** hi).map((v) => ({ at: Math.log10(v), label: formatLogTick(v) }));
+    if (log) {
+      const t = logTicks(10 ** lo, 10 ** hi);
+      const labels = formatLogTicks(t);
+      return t.map((v, k) => ({ at: Math.log10(v), label: labels[k] }));
+    }
     const t = niceTicks(lo, hi);
     const labels = formatTicks(t);
     return t.map((v, k) => ({ at: v, label: labels[k] }));

@@ -7,6 +7,7 @@
  * Quantities are SI (V, A, s, m, m²; energies in eV), as in the journal and every JSON output.
  */
 import { z } from 'zod';
+import { MAX_REANALYSIS_SWEEPS } from '../journal/reanalysis.js';
 import { analysisSchema } from '../pipeline/settings.js';
 
 // ---- request bodies -------------------------------------------------------------------------
@@ -28,6 +29,12 @@ export const runBody = z.object({
 
 export const reasonBody = z.object({ reason: z.string().max(500).optional() }).strict();
 
+export const reanalysisBody = z.object({
+  analysis: z.unknown().describe('Analysis settings {model, window, inputs} to fit the sweeps with; the journal\'s own fits are not touched.'),
+  sweeps: z.array(z.number().int().positive()).max(MAX_REANALYSIS_SWEEPS).describe('The sweeps to fit again.'),
+  views: z.array(z.number().int().positive()).max(5).optional().describe('Sweeps whose linearized view to return as well.'),
+}).strict();
+
 // ---- responses ------------------------------------------------------------------------------
 
 const errorReply = z.object({ error: z.string().describe('What went wrong, naming the field or setting.'), setting: z.string().optional() });
@@ -45,6 +52,7 @@ const statusReply = z.looseObject({
   lastRun: z.object({ session: z.string(), outcome: z.string(), reason: z.string(), outputOffConfirmed: z.boolean() }).nullable(),
   recovered: z.array(z.object({ dir: z.string(), message: z.string() })),
   models: z.array(z.looseObject({ id: z.string(), title: z.string() })),
+  plan: z.looseObject({ kind: z.string() }).nullable().describe('The station\'s default plan (what the page\'s forms start from).'),
 });
 const sessionsReply = z.object({ sessions: z.array(z.string()).describe('Session ids, newest first.') });
 const sessionReply = z.object({
@@ -57,10 +65,31 @@ const readingsReply = z.object({
   fields: z.array(z.string()).describe('seq, sweep, k, t (ms), v (V), i (A), flags (1 compliance, 2 current over range, 4 voltage over range).'),
   rows: z.array(z.array(z.number().nullable())),
 });
-const viewReply = z.object({ sweep: z.number().int(), view: z.looseObject({ model: z.string() }) });
+const viewReply = z.looseObject({ sweep: z.number().int(), view: z.looseObject({ model: z.string() }).nullable() });
 const exportReply = z.object({ files: z.array(z.string()), readings: z.number().int(), sweeps: z.number().int() });
 const runReply = z.object({ session: z.string(), plan: z.looseObject({ kind: z.string() }) });
 const lotReply = z.looseObject({ rows: z.array(z.unknown()) });
+const sweepFit = z.looseObject({ sweep: z.number().int(), fit: z.looseObject({ model: z.string() }).nullable(), error: z.string().nullable() });
+const overviewReply = z.looseObject({
+  id: z.string(),
+  readings: z.number().int(),
+  lastSeq: z.number().int(),
+  events: z.array(event),
+  sweeps: z.unknown().describe('Every sweep\'s summary (points, completeness, label).'),
+  fits: z.array(sweepFit),
+  recent: z.array(z.array(z.number().nullable())).describe('The last sweeps\' readings, packed as seq, sweep, k, t, v, i, flags.'),
+  envelope: z.unknown().describe('Every reading\'s range over the session, decimated for the overview chart.'),
+  damagedLines: z.number().int(),
+});
+const sweepDetailReply = z.looseObject({
+  sweep: z.number().int(),
+  readings: z.array(z.array(z.number().nullable())),
+  complete: z.boolean().nullable(),
+  fit: z.looseObject({ model: z.string() }).nullable(),
+  error: z.string().nullable(),
+  view: z.looseObject({ model: z.string() }).nullable(),
+});
+const reanalysisReply = z.looseObject({ session: z.string(), at: z.string(), analysis: z.looseObject({ model: z.string() }), fits: z.array(sweepFit) });
 
 type Responses = Record<number, { description: string; schema?: z.ZodType; html?: boolean }>;
 
@@ -84,7 +113,10 @@ export const ROUTES: readonly RouteSpec[] = [
   { method: 'get', path: '/api/sessions', summary: 'The session ids in the data folder.', responses: { 200: { description: 'Sessions.', schema: sessionsReply } } },
   { method: 'get', path: '/api/sessions/:id', summary: 'One session\'s events (every journal event but the readings) and its reading count.', responses: { 200: { description: 'The session.', schema: sessionReply }, 404: E('No such session.') } },
   { method: 'get', path: '/api/sessions/:id/readings', summary: 'A session\'s readings, packed as rows.', query: { sweep: 'Only this sweep (integer).' }, responses: { 200: { description: 'Readings.', schema: readingsReply }, 400: E('A bad query.'), 404: E('No such session.') } },
-  { method: 'get', path: '/api/sessions/:id/sweeps/:sweep/view', summary: 'The linearized view of one sweep (the points on the model\'s straight-line plot, the fit, the window, the regimes).', query: { model: 'Another model than the session\'s (automatic window).' }, responses: { 200: { description: 'The view.', schema: viewReply }, 400: E('A bad sweep number or model.'), 404: E('No such session.') } },
+  { method: 'get', path: '/api/sessions/:id/overview', summary: 'What a page needs to open a session of any length: its events, every sweep\'s summary and fit, the last sweeps\' readings, an envelope of all of them.', query: { last: 'How many of the last sweeps to include in full (1–200).' }, responses: { 200: { description: 'The overview.', schema: overviewReply }, 400: E('A bad query.'), 404: E('No such session.') } },
+  { method: 'get', path: '/api/sessions/:id/sweeps/:sweep', summary: 'One sweep: its readings, fit and linearized view.', responses: { 200: { description: 'The sweep.', schema: sweepDetailReply }, 400: E('A bad sweep number.'), 404: E('No such session or sweep.') } },
+  { method: 'post', path: '/api/sessions/:id/reanalyze', control: true, body: reanalysisBody, summary: 'Fit sweeps of a session again with other analysis settings; the results are kept beside the journal (reanalysis.jsonl), the recorded fits untouched.', responses: { 200: { description: 'The new fits (and views).', schema: reanalysisReply }, 400: E('Bad settings or body.'), 404: E('No such session.') } },
+  { method: 'get', path: '/api/sessions/:id/sweeps/:sweep/view', summary: 'The linearized view of one sweep (the points on the model\'s straight-line plot, the fit, the window, the regimes).', query: { model: 'Another model than the session\'s (automatic window).' }, responses: { 200: { description: 'The view.', schema: viewReply }, 400: E('A bad sweep number or model.'), 404: E('No such session or sweep.') } },
   { method: 'post', path: '/api/sessions/:id/export', control: true, summary: 'Write points.csv, sweeps.csv and session.json in the session folder\'s export/.', responses: { 200: { description: 'What was written.', schema: exportReply }, 404: E('No such session.') } },
   { method: 'post', path: '/api/run', control: true, body: runBody, summary: 'Start a run (one per instrument): the plan is checked against the station\'s limits and the free disk before anything is sent.', responses: { 201: { description: 'The run started.', schema: runReply }, 400: E('A bad plan, a limit it breaks, or a bad body.'), 409: E('A run is already in progress.'), 415: E('The body is not JSON.'), 502: E('The instrument cannot be reached or does not answer.'), 507: E('No space for the session folder.') } },
   { method: 'post', path: '/api/run/stop', control: true, body: reasonBody, summary: 'Stop after the sweep in progress (ramp down, output off).', responses: { 200: { description: 'Stopping.', schema: ok }, 409: E('No run in progress, or a passive source.') } },

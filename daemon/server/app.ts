@@ -21,17 +21,17 @@ import express, { type NextFunction, type Request, type Response } from 'express
 import type { z } from 'zod';
 import { projectRoot } from '../../protocols/project-root.js';
 import { MECHANISMS } from '../analysis/mechanisms/index.js';
-import { plotView } from '../analysis/plot.js';
 import { exportSession } from '../journal/export.js';
 import { FolderLot } from '../journal/lot.js';
 import { analyzeLot, renderLot } from '../journal/lot-report.js';
 import { listSessions, scanJournal } from '../journal/reader.js';
+import { MAX_REANALYSIS_SWEEPS, OVERVIEW_SWEEPS, reanalyze, sessionOverview, sweepDetail, sweepViewWith } from '../journal/reanalysis.js';
 import { zodMessage } from '../pipeline/settings.js';
 import { isLoopback } from '../run/config.js';
 import { GuardError } from '../run/guard.js';
 import { PlanError } from '../run/plan.js';
 import { StationError, type Station } from '../run/station.js';
-import { annotationBody, openApiDocument, reasonBody, runBody } from './api-spec.js';
+import { annotationBody, openApiDocument, reanalysisBody, reasonBody, runBody } from './api-spec.js';
 import { Hub } from './hub.js';
 
 export const WEB_DIR = join(projectRoot(), 'dist', 'web');
@@ -189,6 +189,13 @@ export async function startServer(station: Station, options: ServerOptions): Pro
   app.get('/api/openapi.json', (_req, res) => {
     res.json(openApiDocument(packageVersion()));
   });
+  const defaultPlanOrNull = (): unknown => {
+    try {
+      return station.defaultPlan();
+    } catch {
+      return null;
+    }
+  };
   app.get('/api/status', (_req, res) => {
     res.json({
       running: station.running,
@@ -201,7 +208,9 @@ export async function startServer(station: Station, options: ServerOptions): Pro
       lastRun: station.lastRun,
       recovered: station.recovered.map((r) => ({ dir: r.dir, message: r.message })),
       hub: hub.stats,
-      models: MECHANISMS.map((m) => ({ id: m.id, title: m.title, requires: m.requires })),
+      models: MECHANISMS.map((m) => ({ id: m.id, title: m.title, requires: m.requires, uses: m.uses })),
+      // What the page's forms start from: the station's default plan (null when it has none).
+      plan: defaultPlanOrNull(),
     });
   });
   // The lot view: every session in the data folder as one report (summaries cached beside each
@@ -243,27 +252,42 @@ export async function startServer(station: Station, options: ServerOptions): Pro
     });
     res.json({ fields: ['seq', 'sweep', 'k', 't', 'v', 'i', 'flags'], rows });
   });
+  // Viewing a session of any length: an overview of bounded size, any one sweep on demand (one
+  // positioned read), and re-analysis with other settings (kept beside the journal, never in it).
+  const sweepParam = (raw: string) => {
+    const n = Number(raw);
+    if (!Number.isInteger(n) || n < 1) throw new StationError(`sweep '${raw}': expected a sweep number`, 400);
+    return n;
+  };
+  app.get('/api/sessions/:id/overview', (req, res) => {
+    const last = req.query.last === undefined ? OVERVIEW_SWEEPS : Number(req.query.last);
+    if (!Number.isInteger(last) || last < 1 || last > 200) throw new StationError(`query 'last': expected a whole number from 1 to 200, got '${String(req.query.last)}'`, 400);
+    res.json(sessionOverview(sessionDir(req.params.id), last));
+  });
+  app.get('/api/sessions/:id/sweeps/:sweep', (req, res) => {
+    const sweep = sweepParam(req.params.sweep);
+    const d = sweepDetail(sessionDir(req.params.id), sweep);
+    if (!d) throw new StationError(`session ${req.params.id} has no sweep ${sweep}`, 404);
+    res.json(d);
+  });
   app.get('/api/sessions/:id/sweeps/:sweep/view', (req, res) => {
     const dir = sessionDir(req.params.id);
-    const sweep = Number(req.params.sweep);
-    if (!Number.isInteger(sweep) || sweep < 1) throw new StationError(`sweep '${req.params.sweep}': expected a sweep number`, 400);
-    const v: number[] = [];
-    const i: number[] = [];
-    const c: number[] = [];
-    let analysis: unknown;
-    let compliance: number | undefined;
-    scanJournal(dir, (e) => {
-      if (e.type === 'reading' && e.sweep === sweep) {
-        v.push(e.v);
-        i.push(e.i);
-        c.push(e.flags & 1);
-      } else if (e.type === 'session') {
-        analysis = e.analysis;
-        compliance = (e.plan as { compliance?: number } | undefined)?.compliance;
-      } else if (e.type === 'settings') analysis = e.analysis;
-    });
-    const a = station.parseAnalysis(req.query.model !== undefined ? { ...(analysis as object), model: String(req.query.model), window: 'auto' } : analysis);
-    res.json({ sweep, view: plotView({ x: v, y: i, compliance: c }, { model: a.model, inputs: a.inputs, window: a.window, complianceLimit: compliance }) });
+    const sweep = sweepParam(req.params.sweep);
+    if (req.query.model === undefined) {
+      const d = sweepDetail(dir, sweep);
+      if (!d) throw new StationError(`session ${req.params.id} has no sweep ${sweep}`, 404);
+      res.json({ sweep, analysis: d.analysis, view: d.view });
+      return;
+    }
+    const d = sweepDetail(dir, sweep);
+    const a = station.parseAnalysis({ ...((d?.analysis ?? station.analysisSettings) as object), model: String(req.query.model), window: 'auto' });
+    res.json({ sweep, analysis: a, view: sweepViewWith(dir, sweep, a) ?? null });
+  });
+  app.post('/api/sessions/:id/reanalyze', (req, res) => {
+    const dir = sessionDir(req.params.id);
+    const b = body(reanalysisBody, req);
+    const a = station.parseAnalysis(b.analysis);
+    res.json(reanalyze(dir, a, b.sweeps, b.views ?? []));
   });
   app.post('/api/sessions/:id/export', (req, res) => {
     const r = exportSession(sessionDir(req.params.id));

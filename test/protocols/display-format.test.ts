@@ -7,7 +7,7 @@
 import { evaluate, unit } from 'mathjs';
 import { describe, expect, it } from 'vitest';
 import { axisLabel, displayUnit, formatInputs, formatParameterText, fromDisplay, INPUTS, prettyUnit, toDisplay } from '../../protocols/display-units.js';
-import { formatLogTick, formatMeasurement, formatNumber, formatTicks, logTicks, niceTicks } from '../../protocols/number-format.js';
+import { formatLogTick, formatLogTicks, formatMeasurement, formatNumber, formatTicks, logTicks, niceTicks } from '../../protocols/number-format.js';
 
 describe('formatNumber', () => {
   it('writes plain decimals from 1e-3 to 1e5 and exponents outside', () => {
@@ -127,5 +127,13 @@ describe('display units', () => {
 describe('formatMeasurement on noise-free data', () => {
   it('an uncertainty below ten significant digits of the value is written on its own', () => {
     expect(formatMeasurement(3.200000000000001, 4.9e-15)).toBe('3.2 ± 4.9e-15');
+  });
+});
+
+describe('log-axis labels', () => {
+  it('one style per axis: powers of ten as soon as one tick needs them', () => {
+    expect(formatLogTicks([1e-10, 1e-6, 1e-2])).toEqual(['10⁻¹⁰', '10⁻⁶', '10⁻²']);
+    expect(formatLogTicks([0.01, 0.1, 1, 10])).toEqual(['0.01', '0.1', '1', '10']);
+    expect(formatLogTicks([2e-6, 5e-6, 1e-5])).toEqual(['2×10⁻⁶', '5×10⁻⁶', '10⁻⁵']);
   });
 });

@@ -3,10 +3,11 @@
  * against the real daemon (built CLI, child process) on the built-in simulated instrument.
  * Screenshots go to test-artifacts/ for a person to look at.
  */
-import { mkdirSync } from 'node:fs';
+import { mkdirSync, readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { chromium, type Browser, type Page } from 'playwright-core';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { formatParameter } from '../../protocols/display-units.js';
 import { PROJECT_ROOT } from '../helpers/reference.js';
 import { api, startDaemon, tempDir, type DaemonProcess } from '../helpers/daemon.js';
 
@@ -42,10 +43,49 @@ async function startFromPage(page: Page, plan: Record<string, string>): Promise<
   await page.click('#run-start');
 }
 
+async function openPage(browser: Browser, url: string): Promise<{ page: Page; errors: string[] }> {
+  const page = await browser.newPage({ viewport: { width: 1600, height: 1250 } });
+  const errors: string[] = [];
+  page.on('pageerror', (e) => errors.push(e.message));
+  await page.goto(url);
+  await page.waitForFunction(() => (window as any).__plumbline && document.querySelector('#conn')?.getAttribute('data-state') === 'live');
+  await page.waitForFunction(() => (document.querySelector('#model-select') as HTMLSelectElement).options.length > 0);
+  return { page, errors };
+}
+
+/** The value and uncertainty printed for a parameter, back as numbers (display units). */
+async function shownParameter(page: Page, key: string): Promise<{ text: string; value: number; stdErr: number }> {
+  const text = (await page.textContent(`tr[data-param="${key}"] td.value .num`)) ?? '';
+  const m = /^\(?(-?[\d.]+) ± ([\d.]+)\)?(?:e(-?\d+))?$/.exec(text);
+  if (!m) throw new Error(`cannot read '${text}'`);
+  const scale = m[3] ? 10 ** Number(m[3]) : 1;
+  return { text, value: Number(m[1]) * scale, stdErr: Number(m[2]) * scale };
+}
+
+/**
+ * A full-page screenshot for a person to look at. Chromium leaves the page scrolled oddly after a
+ * full-page capture (a later click can miss), so the page is scrolled back to the top.
+ */
+async function snap(page: Page, name: string): Promise<void> {
+  await page.screenshot({ path: join(ARTIFACTS, name), fullPage: true });
+  await page.evaluate(() => window.scrollTo(0, 0));
+}
+
+/** Drags across a fraction of the linearized plot's width. */
+async function dragWindow(page: Page, from: number, to: number): Promise<void> {
+  const box = await page.locator('#lin-chart .u-over').boundingBox();
+  if (!box) throw new Error('no linearized plot');
+  await page.mouse.move(box.x + box.width * from, box.y + box.height * 0.5);
+  await page.mouse.down();
+  await page.mouse.move(box.x + box.width * to, box.y + box.height * 0.5, { steps: 8 });
+  await page.mouse.up();
+}
+
 describe('live page in headless Chromium', () => {
   let browser: Browser;
   let daemon: DaemonProcess;
   let data: string;
+  let firstSession = '';
 
   beforeAll(async () => {
     browser = await launch();
@@ -57,16 +97,16 @@ describe('live page in headless Chromium', () => {
     await daemon?.stop();
   });
 
-  it('shows a run end to end: the charts hold the streamed points, the parameters are the daemon\'s', async () => {
-    const page = await browser.newPage({ viewport: { width: 1600, height: 1250 } });
-    const errors: string[] = [];
-    page.on('pageerror', (e) => errors.push(e.message));
-    await page.goto(daemon.url);
-    await page.waitForFunction(() => (window as any).__plumbline && document.querySelector('#conn')?.getAttribute('data-state') === 'live');
+  it('shows a run end to end: the charts hold the streamed points, the parameters are the daemon\'s, in the trade\'s units', async () => {
+    const { page, errors } = await openPage(browser, daemon.url);
+    // Idle: nothing to stop or abort.
+    expect(await page.isDisabled('#abort')).toBe(true);
+    expect(await page.isDisabled('#run-stop')).toBe(true);
     await startFromPage(page, { start: '0', stop: '9', points: '46', repeat: '3', compliance: '0.001' });
     await page.waitForFunction(() => (window as any).__plumbline.store.runEnd !== null, undefined, { timeout: 30_000 });
     await page.waitForTimeout(300); // the last view and ranking
     const st = await pageState(page);
+    firstSession = st.session as string;
     expect(st.runEnd?.outcome).toBe('completed');
     // Every reading the daemon journaled is in the page, in order, with the same numbers.
     const rd = await api(daemon.url, 'GET', `/api/sessions/${st.session}/readings`);
@@ -81,49 +121,130 @@ describe('live page in headless Chromium', () => {
     const chartSweep3 = await page.evaluate(() => (window as any).__plumbline.charts.raw.data[3]);
     expect(chartSweep3[0]).toEqual(st.sweeps[3].v);
     expect(chartSweep3[1]).toEqual(st.sweeps[3].i.map((i) => (Math.abs(i) > 0 ? Math.abs(i) : null)));
-    // The displayed barrier height is the daemon's final fit of sweep 3, as printed (4 significant digits).
+    // The displayed barrier height is the daemon's final fit of sweep 3, within the printed rounding.
     const detail = await api(daemon.url, 'GET', `/api/sessions/${st.session}`);
     const fit = (detail.json.events as any[]).filter((e) => e.type === 'fit' && e.final && e.sweep === 3)[0].fit;
-    const shown = await page.textContent('tr[data-param="barrierHeight"] td.value .num');
-    expect(shown).toBe(`${fit.parameters.barrierHeight.value.toPrecision(4)} ± ${fit.parameters.barrierHeight.stdErr.toExponential(1)}`);
-    // The linearized chart draws the daemon's view of the last sweep.
+    const shown = await shownParameter(page, 'barrierHeight');
+    expect(shown.text).toBe(formatParameter(fit.parameters.barrierHeight).text);
+    expect(Math.abs(shown.value - fit.parameters.barrierHeight.value)).toBeLessThanOrEqual(fit.parameters.barrierHeight.stdErr);
+    expect(await page.textContent('tr[data-param="barrierHeight"] td.value .unit')).toBe(' eV');
+    // The linearized chart draws the daemon's view of the last sweep, in cm/MV on the x axis
+    // (1/E: 1 m/V = 1e8 cm/MV, since 1 MV/cm = 1e8 V/m).
     const view = (await api(daemon.url, 'GET', `/api/sessions/${st.session}/sweeps/3/view`)).json.view;
-    const drawn = await page.evaluate(() => (window as any).__plumbline.charts.lin.view);
-    expect(drawn.x).toEqual(view.x);
-    expect(drawn.line).toEqual(view.line);
+    const drawn = await page.evaluate(() => {
+      const l = (window as any).__plumbline.charts.lin;
+      return { view: l.view, shown: l.shown, xLabel: l.plot.axes[0].label, yLabel: l.plot.axes[1].label };
+    });
+    expect(drawn.view.x).toEqual(view.x);
+    expect(drawn.view.line).toEqual(view.line);
+    drawn.shown.x.forEach((x: number, k: number) => expect(x / (view.x[k] * 1e8)).toBeCloseTo(1, 12));
+    expect(drawn.xLabel).toBe('1/E (cm/MV)');
+    expect(drawn.yLabel).toBe('J/E² ((A/cm²)/(MV/cm)²)');
     expect(await page.textContent('#lin-title')).toMatch(/Fowler–Nordheim/);
-    await page.screenshot({ path: join(ARTIFACTS, 'page-run-completed.png'), fullPage: true });
+    // Every mechanism ranked is listed, and their weights sum to 1.
+    const ranking = await page.evaluate(() => [...document.querySelectorAll('ol.ranking > li')].map((li) => (li as HTMLElement).dataset.model));
+    const ranked = (detail.json.events as any[]).filter((e) => e.type === 'ranking').at(-1).ranking;
+    expect(ranking).toEqual(ranked.map((e: any) => e.model));
+    expect(ranked.reduce((a: number, e: any) => a + e.score, 0)).toBeCloseTo(1, 6);
+    await snap(page, 'page-run-completed.png');
     expect(errors).toEqual([]);
     await page.close();
   });
 
-  it('a past session opens read-only from the journal', async () => {
-    const page = await browser.newPage({ viewport: { width: 1600, height: 1250 } });
-    await page.goto(daemon.url);
+  it('after the run, a dragged window re-fits the sweep on screen; the journal keeps its fits', async () => {
+    const { page, errors } = await openPage(browser, daemon.url);
+    await page.waitForFunction(() => (window as any).__plumbline.store.views.size > 0 && (window as any).__plumbline.charts.lin.plot);
+    const journalFits = () => readFileSync(join(data, firstSession, 'journal.jsonl'), 'utf8').split('\n').filter((l) => l.includes('"type":"fit"')).length;
+    const fitsBefore = journalFits();
+    const before = await shownParameter(page, 'barrierHeight');
+    const windowBefore = await page.evaluate(() => (window as any).__plumbline.charts.lin.view.window.bias);
+    await dragWindow(page, 0.1, 0.45);
+    await page.waitForFunction(() => (window as any).__plumbline.store.reanalysis !== null, undefined, { timeout: 10_000 });
+    await page.waitForTimeout(200);
+    const re = await page.evaluate(() => {
+      const s = (window as any).__plumbline.store;
+      return { analysis: s.reanalysis.analysis, fit: s.reanalysis.fits.get(3).fit, view: (window as any).__plumbline.charts.lin.view };
+    });
+    // The new window is what was dragged (high fields: the left of the 1/E axis), not the old one.
+    expect(typeof re.analysis.window).toBe('object');
+    expect(re.analysis.window.from).toBeGreaterThan(windowBefore[0] + 0.5);
+    expect(re.view.window.bias[0]).toBeGreaterThanOrEqual(re.analysis.window.from - 1e-9);
+    // The parameters shown are the re-analysis', and they differ from the recorded ones.
+    const after = await shownParameter(page, 'barrierHeight');
+    expect(after.text).toBe(formatParameter(re.fit.parameters.barrierHeight).text);
+    expect(after.text).not.toBe(before.text);
+    expect(re.fit.line.n).toBeLessThan(40);
+    expect(await page.textContent('#params-source')).toMatch(/Re-analysis .* journal's fits are unchanged/);
+    // Kept beside the journal; the journal itself gained no fit.
+    const kept = readFileSync(join(data, firstSession, 'reanalysis.jsonl'), 'utf8').trim().split('\n').map((l) => JSON.parse(l));
+    expect(kept.at(-1).fits.find((f: any) => f.sweep === 3).fit.parameters.barrierHeight.value).toBe(re.fit.parameters.barrierHeight.value);
+    expect(journalFits()).toBe(fitsBefore);
+    await snap(page, 'page-drag-after-run.png');
+
+    // Another model from the Analysis form re-analyses the same sweeps with it.
+    await page.selectOption('#model-select', 'poole-frenkel');
+    await page.fill('#analysis-form [name="refractiveIndex"]', '1.46');
+    await page.fill('#analysis-form [name="from"]', '');
+    await page.fill('#analysis-form [name="to"]', '');
+    await page.click('#analysis-apply');
+    await page.waitForFunction(() => (window as any).__plumbline.store.reanalysis?.analysis.model === 'poole-frenkel', undefined, { timeout: 10_000 });
+    await page.waitForTimeout(200);
+    expect(await page.textContent('#lin-title')).toMatch(/Poole–Frenkel/);
+    expect(await page.locator('tr[data-param="relativePermittivity"]').count()).toBe(1);
+    // ε_r is dimensionless: no unit is printed.
+    expect(await page.locator('tr[data-param="relativePermittivity"] td.value .unit').count()).toBe(0);
+    expect(await page.evaluate(() => (window as any).__plumbline.charts.lin.plot.axes[0].label)).toBe('√E ((MV/cm)^½)');
+    await snap(page, 'page-model-change-after-run.png');
+    expect(errors).toEqual([]);
+    await page.close();
+  });
+
+  it('a past session opens read-only from its overview, and the picker loads any sweep', async () => {
+    const { page, errors } = await openPage(browser, daemon.url);
     await page.waitForFunction(() => document.querySelectorAll('#sessions button').length > 0, undefined, { timeout: 15_000 });
-    const id = await page.textContent('#sessions button');
-    await page.click('#sessions button');
+    await page.click(`#sessions button:text("${firstSession}")`);
     await page.waitForFunction(() => (window as any).__plumbline.store.readOnly === true && (window as any).__plumbline.store.sweeps.size > 0);
     const st = await pageState(page);
-    expect(st.session).toBe(id);
-    const rows = (await api(daemon.url, 'GET', `/api/sessions/${id}/readings`)).json.rows as number[][];
+    expect(st.session).toBe(firstSession);
+    const rows = (await api(daemon.url, 'GET', `/api/sessions/${firstSession}/readings`)).json.rows as number[][];
     expect(Object.values(st.sweeps).reduce((a, s) => a + s.v.length, 0)).toBe(rows.length);
     expect(await page.isVisible('#readonly-badge')).toBe(true);
     expect(await page.locator('.caution[data-kind="read-only"]').count()).toBe(1);
     expect(await page.isDisabled('#abort')).toBe(true);
-    await page.screenshot({ path: join(ARTIFACTS, 'page-read-only.png'), fullPage: true });
+    // The envelope spans every sweep's currents at each bias.
+    const env = await page.evaluate(() => (window as any).__plumbline.store.envelope);
+    const top = Math.max(...rows.map((r) => Math.abs(r[5])));
+    expect(Math.max(...env.hi.filter((x: number | null) => x !== null))).toBe(top);
+    // Sweep 1 on demand: its readings and its recorded view.
+    await page.fill('#sweep-pick', '1');
+    await page.press('#sweep-pick', 'Enter');
+    await page.waitForFunction(() => (window as any).__plumbline.charts.lin.view && (window as any).__plumbline.store.shownSweep === 1);
+    await page.waitForTimeout(150);
+    const view1 = (await api(daemon.url, 'GET', `/api/sessions/${firstSession}/sweeps/1/view`)).json.view;
+    expect(await page.evaluate(() => (window as any).__plumbline.charts.lin.view.y)).toEqual(view1.y);
+    expect(await page.textContent('#lin-title')).toMatch(/sweep 1/);
+    await snap(page, 'page-read-only.png');
     await page.click('#back-live');
     await page.waitForFunction(() => (window as any).__plumbline.store.readOnly === false);
+    expect(errors).toEqual([]);
     await page.close();
   });
 
-  it('the abort control (Esc) turns the output off at once', async () => {
-    const page = await browser.newPage({ viewport: { width: 1600, height: 1250 } });
-    await page.goto(daemon.url);
-    await page.waitForFunction(() => document.querySelector('#conn')?.getAttribute('data-state') === 'live');
+  it('Esc typed in a text field never aborts; Esc outside one turns the output off at once', async () => {
+    const { page } = await openPage(browser, daemon.url);
     await startFromPage(page, { start: '0', stop: '9', points: '200', repeat: '1000', compliance: '0.001' });
     await page.waitForFunction(() => (window as any).__plumbline.store.readingCount > 300 && (window as any).__plumbline.store.outputOn, undefined, { timeout: 30_000 });
     expect(await page.locator('.caution[data-kind="output on"]').count()).toBe(1);
+    expect(await page.isDisabled('#abort')).toBe(false);
+    // A note being typed: Esc leaves the field and says how to abort; the run goes on.
+    await page.click('#note-form [name="text"]');
+    await page.keyboard.type('probe re-landed');
+    await page.keyboard.press('Escape');
+    const count = await page.evaluate(() => (window as any).__plumbline.store.readingCount);
+    await page.waitForFunction((n) => (window as any).__plumbline.store.readingCount > n + 100, count, { timeout: 10_000 });
+    expect(await page.evaluate(() => (window as any).__plumbline.store.runEnd)).toBeNull();
+    expect((await api(daemon.url, 'GET', '/api/status')).json.running).toBe(true);
+    expect(await page.textContent('#control-msg')).toMatch(/does not abort/);
     await page.keyboard.press('Escape');
     await page.waitForFunction(() => (window as any).__plumbline.store.runEnd !== null, undefined, { timeout: 10_000 });
     const st = await pageState(page);
@@ -135,14 +256,49 @@ describe('live page in headless Chromium', () => {
     expect(off[0].reason).toMatch(/abort from the page/);
     expect(off.at(-1)).toMatchObject({ queried: true, confirmed: true });
     expect((await api(daemon.url, 'GET', '/api/status')).json.running).toBe(false);
-    await page.waitForTimeout(100);
+    await page.waitForTimeout(150);
     expect(await page.locator('.caution[data-kind="output on"]').count()).toBe(0);
-    await page.screenshot({ path: join(ARTIFACTS, 'page-aborted.png'), fullPage: true });
+    expect(await page.isDisabled('#abort')).toBe(true);
+    // The interrupted sweep is not called live any more.
+    expect(await page.textContent('#params')).not.toMatch(/\(live\)/);
+    await snap(page, 'page-aborted.png');
+    await page.close();
+  });
+
+  it('a model change during the run starts a new baseline, drawn as a break', async () => {
+    // The run starts on Fowler–Nordheim (an earlier test left the station on another model).
+    const fn = await api(daemon.url, 'PUT', '/api/analysis', { model: 'fowler-nordheim', window: { from: 5, to: 9 }, inputs: { thickness: 7e-9, area: 1e-8, massRatio: 0.42 } });
+    expect(fn.status).toBe(200);
+    const { page, errors } = await openPage(browser, daemon.url);
+    // Long sweeps, so the change lands in the middle of the run.
+    await startFromPage(page, { start: '0', stop: '9', points: '300', repeat: '60', compliance: '0.001' });
+    await page.waitForFunction(() => (window as any).__plumbline.store.drift.length >= 2, undefined, { timeout: 60_000 });
+    await page.selectOption('#model-select', 'poole-frenkel');
+    await page.fill('#analysis-form [name="from"]', '');
+    await page.fill('#analysis-form [name="to"]', '');
+    await page.click('#analysis-apply');
+    await page.waitForFunction(() => (window as any).__plumbline.store.drift.some((d: any) => d.parameter === 'relativePermittivity'), undefined, { timeout: 60_000 });
+    await page.waitForTimeout(200);
+    const drawn = await page.evaluate(() => {
+      const s = (window as any).__plumbline.store;
+      const d = (window as any).__plumbline.charts.drift;
+      return { breaks: d.breaks, sweeps: d.drawnSweeps, drift: s.drift.map((x: any) => ({ sweep: x.sweep, parameter: x.parameter })), y: d.plot.axes[1].label };
+    });
+    const first = drawn.drift.filter((d: any) => d.parameter === 'relativePermittivity').map((d: any) => d.sweep).sort((a: number, b: number) => a - b)[0];
+    expect(drawn.breaks.at(-1)).toMatchObject({ sweep: first, reason: 'now relativePermittivity' });
+    // Only the new baseline's parameter is plotted (a permittivity is never charted against a barrier).
+    expect(drawn.sweeps.every((s: number) => s >= first)).toBe(true);
+    expect(drawn.y).toBe('relativePermittivity');
+    expect(await page.textContent('#drift-state')).toMatch(/baseline restarted at sweep/);
+    await snap(page, 'page-drift-new-baseline.png');
+    if (!(await page.isDisabled('#abort'))) await page.click('#abort');
+    await page.waitForFunction(() => (window as any).__plumbline.store.runEnd !== null, undefined, { timeout: 10_000 });
+    expect(errors).toEqual([]);
     await page.close();
   });
 });
 
-describe('drift caution on the page', () => {
+describe('drift on the page', () => {
   let browser: Browser;
   let daemon: DaemonProcess;
   beforeAll(async () => {
@@ -155,20 +311,58 @@ describe('drift caution on the page', () => {
   });
 
   it('a drifting device shows the drift caution and the run ends on it', async () => {
-    const page = await browser.newPage({ viewport: { width: 1600, height: 1250 } });
-    await page.goto(daemon.url);
-    await page.waitForFunction(() => document.querySelector('#conn')?.getAttribute('data-state') === 'live');
+    const { page } = await openPage(browser, daemon.url);
     await startFromPage(page, { start: '0', stop: '9', points: '91', repeat: '12', compliance: '0.001' });
     await page.waitForSelector('.caution[data-kind="drift limit"]', { timeout: 30_000 });
     await page.waitForFunction(() => (window as any).__plumbline.store.runEnd !== null, undefined, { timeout: 10_000 });
     const st = await pageState(page);
     expect(st.runEnd?.outcome).toBe('aborted-drift');
     expect(await page.textContent('.caution[data-kind="drift limit"]')).toMatch(/barrierHeight drifted/);
-    // The drift chart holds one point per finished sweep.
-    const n = await page.evaluate(() => (window as any).__plumbline.charts.drift.plot.data[0].length);
-    expect(n).toBe(Object.keys(st.sweeps).length);
+    // The drift chart holds one point per finished sweep, labelled with the parameter and its unit.
+    const chart = await page.evaluate(() => {
+      const d = (window as any).__plumbline.charts.drift;
+      return { n: d.plot.data[0].length, y: d.plot.axes[1].label };
+    });
+    expect(chart.n).toBe(Object.keys(st.sweeps).length);
+    expect(chart.y).toBe('barrierHeight (eV)');
     await page.waitForTimeout(200);
-    await page.screenshot({ path: join(ARTIFACTS, 'page-drift.png'), fullPage: true });
+    await snap(page, 'page-drift.png');
+    await page.close();
+  });
+
+});
+
+describe('a station other than the default', () => {
+  let browser: Browser;
+  let daemon: DaemonProcess;
+  beforeAll(async () => {
+    browser = await launch();
+    daemon = await startDaemon(['--scenario', 'solar-cell', '--fast', '--no-autostart', '--data', join(tempDir(), 'data')]);
+  });
+  afterAll(async () => {
+    await browser?.close();
+    await daemon?.stop();
+  });
+
+  it('the forms hold the station\'s own plan, limits and analysis', async () => {
+    const { page, errors } = await openPage(browser, daemon.url);
+    const status = (await api(daemon.url, 'GET', '/api/status')).json;
+    const value = (sel: string) => page.inputValue(sel);
+    expect(Number(await value('#plan-form [name="start"]'))).toBe(status.plan.start);
+    expect(Number(await value('#plan-form [name="stop"]'))).toBe(status.plan.stop);
+    expect(Number(await value('#plan-form [name="points"]'))).toBe(status.plan.points);
+    expect(Number(await value('#plan-form [name="compliance"]'))).toBe(status.plan.compliance);
+    expect(status.plan).toMatchObject({ start: -0.1, stop: 0.72, points: 83, compliance: 0.5 });
+    expect(await page.textContent('#limits-hint')).toContain(`compliance ≤ ${status.limits.maxCompliance} A`);
+    expect(await page.inputValue('#model-select')).toBe(status.analysis.model);
+    expect(Number(await value('#analysis-form [name="temperature"]'))).toBeCloseTo(status.analysis.inputs.temperature, 6);
+    // An empty compliance says which field and what it needs, not schema text.
+    await page.fill('#plan-form [name="compliance"]', '');
+    await page.click('#run-start');
+    expect(await page.textContent("#control-msg")).toMatch(/^compliance \(A\): enter the current limit .*at most 1 A/);
+    expect((await api(daemon.url, 'GET', '/api/status')).json.running).toBe(false);
+    await snap(page, 'page-solar-station-forms.png');
+    expect(errors).toEqual([]);
     await page.close();
   });
 });

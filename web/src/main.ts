@@ -2,10 +2,19 @@
  * The live page: connects to the daemon's websocket (snapshot, then batches; re-syncs on a gap and
  * reconnects on its own), draws at most once per animation frame, and sends commands over REST.
  * Abort is a plain POST that does not wait for the event stream, so it works while the page lags.
+ *
+ * What is on screen can always be re-analysed: during a run a settings change goes to the run
+ * (journaled, applied from then on, the last finished sweep re-fitted by the daemon); after it, or
+ * for a past session, the sweeps on screen are fitted again by the daemon and the results are kept
+ * beside the journal (reanalysis.jsonl), never in it. The panels say which settings produced each
+ * number.
  */
-import type { FitSummary, ServerMessage, WireEvent } from '../../protocols/wire.js';
+import type { FitSummary, PlotViewData, ServerMessage, WireEvent } from '../../protocols/wire.js';
+import { formatNumber } from '../../protocols/number-format.js';
 import { DriftChart, LinearizedChart, RawChart } from './charts.js';
-import { Store } from './store.js';
+import { buildInputFields, fillAnalysis, fillPlan, markInputs, readAnalysis, readPlan, type StationStatus } from './forms.js';
+import { describeAnalysis, renderCautions, renderFitNotes, renderParams, renderRanking } from './panels.js';
+import { Store, type AnalysisSettings, type Envelope } from './store.js';
 
 const $ = <T extends HTMLElement = HTMLElement>(id: string) => document.getElementById(id) as T;
 const token = new URLSearchParams(location.search).get('token');
@@ -13,6 +22,10 @@ document.getElementById('lot-link')?.setAttribute('href', `lot${token ? `?token=
 const store = new Store();
 const liveStore = store;
 let viewStore = store;
+let status: StationStatus | null = null;
+
+/** Fewer points than this in the fit window: the previous complete sweep stays on screen, dimmed. */
+const MIN_IN_WINDOW = 5;
 
 function headers(): Record<string, string> {
   return { 'content-type': 'application/json', ...(token ? { authorization: `Bearer ${token}` } : {}) };
@@ -37,20 +50,17 @@ function say(text: string, error = false): void {
 // ---- charts -------------------------------------------------------------------------------
 const raw = new RawChart($('raw-chart'));
 const lin = new LinearizedChart($('lin-chart'), $('resid-chart'), (from, to) => {
-  const a = currentAnalysis();
-  if (!a || viewStore.readOnly) return;
-  call('PUT', '/api/analysis', { ...a, window: { from, to } })
-    .then((r) => say(`Fit window set to ${from.toPrecision(4)} … ${to.toPrecision(4)} V; the daemon re-fitted (${r.model}).`))
-    .catch((e: Error) => say(e.message, true));
+  const a = shownAnalysis();
+  if (!a) return;
+  void applyAnalysis({ ...a, window: { from, to } }, `fit window ${formatNumber(from)} … ${formatNumber(to)} V`);
 });
 const drift = new DriftChart($('drift-chart'));
 
 // ---- connection -------------------------------------------------------------------------------
-let ws: WebSocket | null = null;
 let retry = 500;
 function connect(): void {
   setConn('connecting');
-  ws = new WebSocket(`${location.protocol === 'https:' ? 'wss' : 'ws'}://${location.host}/ws${token ? `?token=${encodeURIComponent(token)}` : ''}`);
+  const ws = new WebSocket(`${location.protocol === 'https:' ? 'wss' : 'ws'}://${location.host}/ws${token ? `?token=${encodeURIComponent(token)}` : ''}`);
   ws.onopen = () => {
     retry = 500;
     setConn('live');
@@ -60,7 +70,10 @@ function connect(): void {
     const before = liveStore.session;
     const ended = liveStore.runEnd;
     liveStore.applyMessage(msg);
-    if (liveStore.session !== before || liveStore.runEnd !== ended) void loadSessions().catch(() => undefined);
+    if (liveStore.session !== before || liveStore.runEnd !== ended) {
+      void loadSessions().catch(() => undefined);
+      void loadStatus().catch(() => undefined);
+    }
     if (msg.kind === 'gap') setConn('resync');
     else if (msg.kind === 'snapshot') setConn('live');
     schedule();
@@ -78,6 +91,29 @@ function setConn(state: 'live' | 'connecting' | 'resync'): void {
   $('conn-text').textContent = state === 'live' ? 'live' : state === 'resync' ? 're-syncing' : 'reconnecting…';
 }
 
+// ---- what is on screen ----------------------------------------------------------------------
+/** The settings behind the numbers shown: the re-analysis', else those of the shown sweep's fit. */
+function shownAnalysis(): AnalysisSettings | null {
+  const s = viewStore;
+  if (s.reanalysis) return s.reanalysis.analysis;
+  const cur = s.currentSweep();
+  return s.fitAnalysis.get(cur) ?? s.analysis ?? status?.analysis ?? null;
+}
+
+function inWindow(v: PlotViewData | undefined): number {
+  if (!v) return 0;
+  let n = 0;
+  for (const w of v.inWindow) n += w;
+  return n;
+}
+
+/** The latest sweep before `before` whose final view the store holds. */
+function previousFinalView(s: Store, before: number): { sweep: number; view: PlotViewData } | null {
+  let best = -1;
+  for (const k of s.viewFinal) if (k < before && k > best && s.views.has(k)) best = k;
+  return best > 0 ? { sweep: best, view: s.views.get(best) as PlotViewData } : null;
+}
+
 // ---- rendering -------------------------------------------------------------------------------
 let frame = 0;
 const latency: number[] = [];
@@ -85,237 +121,255 @@ function schedule(): void {
   if (!frame) frame = requestAnimationFrame(render);
 }
 
-const fmt = (x: number) => (x === 0 ? '0' : Math.abs(x) >= 1e4 || Math.abs(x) < 1e-2 ? x.toExponential(3) : x.toPrecision(4));
-const fmtSe = (x: number) => (x === 0 ? '0' : Math.abs(x) >= 1e4 || Math.abs(x) < 1e-2 ? x.toExponential(1) : x.toPrecision(2));
-
 function render(): void {
   frame = 0;
   const s = viewStore;
   if (!s.dirty) return;
   s.dirty = false;
-  const last = s.latestSweep();
+  const cur = s.currentSweep();
+  const live = liveStore;
+  const source = live.sessionEvent?.source;
+  const passive = Boolean(live.running && source && !source.control) || live.station?.control === false;
+  $('station-name').textContent = passive && source ? `watching ${source.detail}` : status ? (status.scenario ? `simulator: ${status.scenario}` : status.instrument) : 'station';
   $('session-id').textContent = s.session ?? 'no session';
   $('readonly-badge').hidden = !s.readOnly;
   $('back-live').hidden = !s.readOnly;
-  // Progress.
   const p = s.progress;
   $('progress').textContent = s.readOnly
-    ? `session ${s.session}: ${s.sweeps.size} sweeps, ${s.runEnd ? `ended: ${s.runEnd.outcome}` : 'not ended'}`
+    ? `session ${s.session}: ${s.allSweeps.length} sweeps, ${s.runEnd ? `ended: ${s.runEnd.outcome}` : 'not ended'}`
     : s.running && p
       ? `sweep ${p.sweep} of ${p.sweeps || '?'} · point ${p.point} of ${p.points || '?'}${p.eta !== null ? ` · about ${Math.ceil(p.eta)} s left` : ''}`
       : s.runEnd ? `run ended: ${s.runEnd.outcome} — ${s.runEnd.reason}` : 'idle';
-  ($('abort') as HTMLButtonElement).disabled = s.readOnly;
-  renderCautions(s);
-  raw.update(s.sweeps, ($('raw-log') as HTMLInputElement).checked);
-  // Point-to-pixel latency of the newest reading (the benchmark reads these; same machine clock).
+  // Controls act only when they can: abort and stop while a run this station controls is on.
+  const control = !passive && (status?.control ?? true);
+  const canStop = live.running && control;
+  ($('abort') as HTMLButtonElement).disabled = !(canStop || (live.outputOn && control));
+  ($('run-stop') as HTMLButtonElement).disabled = !canStop;
+  ($('run-start') as HTMLButtonElement).disabled = live.running || !control;
+  for (const el of ($('plan-form') as HTMLFormElement).elements) if (el.id !== 'run-stop' && el.id !== 'run-start') (el as HTMLInputElement).disabled = !control;
+  $('analysis-scope').textContent = s.readOnly
+    ? '— re-analyses this past session (kept beside its journal)'
+    : live.running ? (control ? '— applies to the run from now on (journaled)' : '— applies to the watched readings from now on')
+      : s.session ? '— re-analyses the session on screen and becomes the station\'s setting for the next run' : '— the station\'s setting for the next run';
+  // Each panel is redrawn only when what it shows has changed (a frame carries new readings most
+  // of the time, and nothing else).
+  if (changed('cautions', s, s.cautions.length, s.outputOn, s.readOnly, s.sessionEvent)) renderCautions($('cautions'), s);
+  raw.update(s.sweeps, ($('raw-log') as HTMLInputElement).checked, s.envelope);
+  $('raw-note').textContent = `Colour runs from the first sweep shown (dark) to the latest (light)${s.envelope ? `; grey band: every one of the ${s.allSweeps.length} sweeps (smallest to largest current at each bias)` : ''}. ✕ marks negative current (plotted as |I|), □ marks readings at compliance.`;
   if (s.sessionEvent && s.readingCount > 0) {
+    // Point-to-pixel latency of the newest reading (the benchmark reads these; same machine clock).
     latency.push(Date.now() - (Date.parse(s.sessionEvent.startedAt) + s.lastReadingT));
     if (latency.length > 10_000) latency.splice(0, 5_000);
   }
-  const view = s.views.get(last) ?? s.views.get(last - 1);
-  lin.update(view);
-  const fitNow = s.liveFit?.fit ?? null;
-  $('lin-title').textContent = fitNow ? `Linearized: ${fitNow.title}` : view ? `Linearized: ${view.model}` : 'Linearized view';
-  renderParams(s, last);
-  renderRanking(s);
-  drift.update(s.drift);
-  const d = s.drift.at(-1);
-  $('drift-title').textContent = d ? `Drift of ${d.parameter} (${d.method.toUpperCase()})` : 'Drift';
-  $('drift-state').textContent = d ? `sweep ${d.sweep}: ${d.state.replace(/-/g, ' ')}${d.value !== null ? ` — value ${fmt(d.value)}` : ''}` : 'charted once the baseline sweeps are in';
+  renderLinearized(s, cur);
+  if (changed('params', s, cur, s.finalFits.get(cur), s.liveFit, s.reanalysis, s.running, s.ended.get(cur), s.analysis)) renderParamsPanel(s, cur);
+  if (changed('ranking', s, s.ranking)) renderRanking($('ranking'), s.ranking);
+  if (changed('drift', s, s.drift)) renderDrift(s);
+  renderPicker(s, cur);
+  refillForms(s);
 }
 
-function renderCautions(s: Store): void {
-  const box = $('cautions');
-  box.textContent = '';
-  const add = (level: 'danger' | 'warning' | 'info', tag: string, text: string) => {
-    const div = document.createElement('div');
-    div.className = `caution ${level}`;
-    div.dataset.kind = tag;
-    const t = document.createElement('span');
-    t.className = 'tag';
-    t.textContent = `${level === 'danger' ? '✖' : level === 'warning' ? '⚠' : 'ℹ'} ${tag}`;
-    const m = document.createElement('span');
-    m.textContent = text;
-    div.append(t, m);
-    box.append(div);
-  };
-  if (s.readOnly) add('info', 'read-only', 'A past session from the journal: nothing here controls the instrument.');
-  const source = s.sessionEvent?.source;
-  if (source && !source.control) add('info', 'watching', `Readings come from ${source.detail}; plumbline does not control this instrument.`);
-  if (s.outputOn && !s.readOnly) {
-    const hv = s.cautions.find((c) => c.kind === 'hazard-voltage');
-    if (hv) add('danger', 'high voltage', hv.message);
-    else add('warning', 'output on', 'The output is on: the device terminals are live. Hands off the probes and the fixture; follow your lab\'s safety rules.');
-  }
-  const latest = new Map<string, Extract<WireEvent, { type: 'caution' }>>();
-  for (const c of s.cautions) latest.set(c.kind, c);
-  const order: [string, 'danger' | 'warning' | 'info', string][] = [
-    ['breakdown-confirmed', 'danger', 'breakdown'],
-    ['instrument-fault', 'danger', 'instrument fault'],
-    ['drift-limit', 'danger', 'drift limit'],
-    ['breakdown-suspected', 'warning', 'breakdown suspected'],
-    ['drift-warning', 'warning', 'drift warning'],
-    ['compliance', 'warning', 'compliance'],
-  ];
-  for (const [kind, level, tag] of order) {
-    const c = latest.get(kind);
-    if (c) add(level, tag, `${c.sweep !== undefined ? `sweep ${c.sweep}: ` : ''}${c.message}`);
-  }
+/** Whether any of the values differ (by identity) from the last call with this name. */
+const memo = new Map<string, unknown[]>();
+function changed(name: string, ...values: unknown[]): boolean {
+  const prev = memo.get(name);
+  if (prev && prev.length === values.length && prev.every((v, k) => v === values[k])) return false;
+  memo.set(name, values);
+  return true;
 }
 
-function paramRows(fit: FitSummary | null | undefined): Map<string, string> {
-  const m = new Map<string, string>();
-  if (!fit) return m;
-  for (const [k, p] of Object.entries(fit.parameters)) m.set(k, `${fmt(p.value)} ± ${fmtSe(p.stdErr)}|${p.unit}`);
-  return m;
-}
-
-function renderParams(s: Store, last: number): void {
-  const cur = s.finalFits.get(last) ?? (s.liveFit?.sweep === last ? s.liveFit.fit : undefined);
-  const curFinal = s.finalFits.has(last);
-  const prevSweep = [...s.finalFits.keys()].filter((k) => k < last).sort((a, b) => b - a)[0];
-  const prev = prevSweep !== undefined ? s.finalFits.get(prevSweep) : undefined;
-  const a = paramRows(cur);
-  const b = paramRows(prev);
-  const names = [...new Set([...a.keys(), ...b.keys()])];
-  const box = $('params');
-  box.textContent = '';
-  if (names.length === 0) {
-    box.textContent = s.fitErrors.get(last) ?? 'No fit yet.';
-    return;
-  }
-  const table = document.createElement('table');
-  table.className = 'params';
-  const head = table.insertRow();
-  for (const h of ['', `sweep ${last}${curFinal ? '' : ' (live)'}`, prevSweep !== undefined ? `sweep ${prevSweep}` : '']) {
-    const th = document.createElement('th');
-    th.textContent = h;
-    head.append(th);
-  }
-  for (const n of names) {
-    const row = table.insertRow();
-    row.dataset.param = n;
-    const c0 = row.insertCell();
-    c0.textContent = n;
-    for (const [src, cls] of [[a, 'value'], [b, '']] as const) {
-      const c = row.insertCell();
-      c.className = cls;
-      const v = src.get(n);
-      if (v) {
-        const [val, unit] = v.split('|');
-        c.innerHTML = '';
-        const sv = document.createElement('span');
-        sv.className = 'num';
-        sv.textContent = val;
-        const su = document.createElement('span');
-        su.className = 'unit';
-        su.textContent = ` ${unit}`;
-        c.append(sv, su);
+function renderLinearized(s: Store, cur: number): void {
+  const re = s.reanalysis;
+  let main: PlotViewData | undefined;
+  let under: PlotViewData | null = null;
+  let note = '';
+  if (re?.views.has(cur)) {
+    main = re.views.get(cur);
+    note = ' — re-analysis';
+  } else {
+    main = s.views.get(cur);
+    if (s.isLive(cur) && (!main?.line || inWindow(main) < MIN_IN_WINDOW)) {
+      const prev = previousFinalView(s, cur);
+      if (prev) {
+        under = prev.view;
+        note = ` — sweep ${prev.sweep} dimmed until sweep ${cur} reaches the window`;
       }
     }
   }
-  box.append(table);
-  const w = $('fit-warnings');
-  w.textContent = '';
-  if (cur) {
-    const ul = document.createElement('ul');
-    ul.className = 'warnings';
-    if (!cur.plausible) {
-      const li = document.createElement('li');
-      li.className = 'implausible';
-      li.textContent = 'Not plausible for this mechanism: see the notes.';
-      ul.append(li);
+  if (changed('lin', s, main, under, lin.wholeCurve)) lin.update(main, under);
+  $('lin-empty').hidden = Boolean(main || under);
+  const title = (re?.views.has(cur) ? re.fits.get(cur)?.fit?.title : undefined) ?? (main && s.finalFits.get(cur)?.model === main.model ? s.finalFits.get(cur)?.title : undefined)
+    ?? (s.liveFit?.fit?.model === (main ?? under)?.model ? s.liveFit?.fit?.title : undefined) ?? main?.model ?? under?.model;
+  $('lin-title').textContent = title ? `Linearized: ${title}, sweep ${cur}${note}` : 'Linearized view';
+  const err = $('lin-error');
+  const e = main?.error ?? (main && !main.line ? 'no fit line' : undefined);
+  err.hidden = !e || (s.isLive(cur) && under !== null);
+  err.textContent = e ? `Sweep ${cur}: ${e}.` : '';
+  $('lin-hint').textContent = s.readOnly
+    ? 'Drag across the plot to set the fit window: the daemon re-analyses this sweep (the journal is not changed).'
+    : 'Drag across the plot to set the fit window (shaded): the daemon re-fits.';
+}
+
+function renderParamsPanel(s: Store, cur: number): void {
+  const re = s.reanalysis;
+  const src = $('params-source');
+  ($('show-recorded') as HTMLButtonElement).hidden = !re;
+  if (re && (re.fits.has(cur) || re.views.has(cur))) {
+    const prev = [...re.fits.keys()].filter((k) => k < cur).sort((a, b) => b - a)[0];
+    src.textContent = `Re-analysis of ${new Date(re.at).toLocaleTimeString()} (kept beside the journal in reanalysis.jsonl; the journal's fits are unchanged): ${describeAnalysis(re.analysis)}`;
+    src.dataset.source = 'reanalysis';
+    const c = re.fits.get(cur);
+    renderParams($('params'), [
+      { title: `sweep ${cur}`, fit: c?.fit },
+      ...(prev !== undefined ? [{ title: `sweep ${prev}`, fit: re.fits.get(prev)?.fit }] : []),
+    ], c?.error ? `No fit of sweep ${cur}: ${c.error}` : 'No fit.');
+    renderFitNotes($('fit-warnings'), c?.fit);
+    return;
+  }
+  const final = s.finalFits.has(cur);
+  const live = s.isLive(cur);
+  const fit: FitSummary | null | undefined = s.finalFits.get(cur) ?? (s.liveFit?.sweep === cur ? s.liveFit.fit : undefined);
+  const state = final ? (s.ended.get(cur) === false ? ' (cut short)' : '') : live ? ' (live)' : s.liveFit?.sweep === cur ? ' (cut short: last interim fit)' : '';
+  const prevSweep = [...s.finalFits.keys()].filter((k) => k < cur).sort((a, b) => b - a)[0];
+  const a = final ? s.fitAnalysis.get(cur) : s.analysis;
+  src.textContent = !s.session ? 'No session yet.' : `${live ? 'Live fits (journaled)' : 'Recorded fits (journal)'}: ${describeAnalysis(a ?? null)}`;
+  src.dataset.source = 'journal';
+  renderParams($('params'), [
+    { title: `sweep ${cur}${state}`, fit },
+    ...(prevSweep !== undefined ? [{ title: `sweep ${prevSweep}`, fit: s.finalFits.get(prevSweep) }] : []),
+  ], s.fitErrors.get(cur) ? `No fit of sweep ${cur}: ${s.fitErrors.get(cur)}` : cur ? `No fit of sweep ${cur} yet.` : 'No fit yet.');
+  renderFitNotes($('fit-warnings'), fit);
+}
+
+function unitOf(s: Store): (parameter: string) => string {
+  return (parameter) => {
+    for (const f of [...s.finalFits.values()].reverse()) {
+      const p = f?.parameters[parameter];
+      if (p) return p.unit;
     }
-    for (const t of cur.warnings) {
-      const li = document.createElement('li');
-      li.textContent = t;
-      ul.append(li);
+    return '';
+  };
+}
+
+function renderDrift(s: Store): void {
+  drift.update(s.drift, unitOf(s));
+  const d = [...s.drift].sort((a, b) => a.sweep - b.sweep).at(-1);
+  $('drift-title').textContent = d ? `Drift of ${d.parameter} (${d.method.toUpperCase()})` : 'Drift';
+  const br = drift.breaks.at(-1);
+  $('drift-state').textContent = d
+    ? `sweep ${d.sweep}: ${d.state.replace(/-/g, ' ')}${br ? ` · baseline restarted at sweep ${br.sweep} (${br.reason})` : ''}`
+    : 'charted once the baseline sweeps are in';
+}
+
+let pickerKey = '';
+function renderPicker(s: Store, cur: number): void {
+  const n = s.allSweeps.length;
+  const key = `${s.session}:${cur}:${n}:${s.shownSweep}`;
+  if (key === pickerKey) return;
+  pickerKey = key;
+  const input = $<HTMLInputElement>('sweep-pick');
+  if (document.activeElement !== input) input.value = cur ? String(cur) : '';
+  input.max = String(s.allSweeps.at(-1) ?? 1);
+  $('sweep-count').textContent = n ? `${s.shownSweep === null ? 'following the latest' : 'picked'}; sweeps ${s.allSweeps[0]}–${s.allSweeps.at(-1)}` : '';
+}
+
+let filledFrom = '';
+function refillForms(s: Store): void {
+  const a = shownAnalysis();
+  const key = JSON.stringify(a);
+  const f = $<HTMLFormElement>('analysis-form');
+  if (!a || key === filledFrom || f.contains(document.activeElement)) return;
+  filledFrom = key;
+  fillAnalysis(f, a);
+  markInputs($('input-fields'), status?.models.find((m) => m.id === a.model));
+  void s;
+}
+
+// ---- re-analysis ---------------------------------------------------------------------------
+/**
+ * Applies analysis settings to what is on screen. A run in progress takes them (journaled); a
+ * finished or past session is re-analysed by the daemon, the sweep shown and the one before it.
+ */
+async function applyAnalysis(a: AnalysisSettings, what: string): Promise<void> {
+  const s = viewStore;
+  try {
+    if (!s.readOnly && liveStore.running) {
+      const r = await call('PUT', '/api/analysis', a);
+      say(`${what}: applied to the run from now on (journaled, ${r.model}); the daemon re-fits the last finished sweep.`);
+      if (s.shownSweep !== null) await reanalyse(s, r as AnalysisSettings);
+      return;
     }
-    const li = document.createElement('li');
-    li.style.color = '#5d5d5d';
-    li.textContent = `window ${fmt(cur.window.from)} … ${fmt(cur.window.to)} V (${cur.window.mode}), ${cur.line.n} points, R² ${cur.line.r2.toFixed(5)}`;
-    ul.append(li);
-    w.append(ul);
+    let settings = a;
+    if (!s.readOnly) settings = (await call('PUT', '/api/analysis', a)) as AnalysisSettings;
+    if (!s.session) {
+      say(`${what}: the station's analysis for the next run is ${settings.model}.`);
+      return;
+    }
+    await reanalyse(s, settings);
+    say(`${what}: sweeps ${[...(s.reanalysis?.fits.keys() ?? [])].join(', ')} re-analysed with ${settings.model}${s.readOnly ? '' : ' (also the station\'s setting for the next run)'}; the results are kept beside the journal, which is unchanged.`);
+  } catch (e) {
+    say(`${what}: ${(e as Error).message}`, true);
   }
 }
 
-function renderRanking(s: Store): void {
-  const box = $('ranking');
-  box.textContent = '';
-  const r = s.ranking;
-  if (!r) {
-    box.textContent = 'After the first complete sweep.';
-    return;
-  }
-  const ol = document.createElement('ol');
-  ol.className = 'ranking';
-  for (const e of r.ranking.slice(0, 6)) {
-    const li = document.createElement('li');
-    const name = document.createElement('span');
-    name.textContent = e.title;
-    if (!e.plausible) name.className = 'no';
-    const sc = document.createElement('span');
-    sc.className = 'score';
-    sc.textContent = ` — weight ${e.score >= 0.001 ? e.score.toFixed(3) : '< 0.001'}${e.plausible ? '' : ' (implausible)'}`;
-    li.append(name, sc);
-    ol.append(li);
-  }
-  box.append(`Latest ranking (sweep ${r.sweep}; at most one a second), Akaike weights:`, ol);
+async function reanalyse(s: Store, a: AnalysisSettings): Promise<void> {
+  const cur = s.currentSweep();
+  if (!s.session || !cur) return;
+  const idx = s.allSweeps.indexOf(cur);
+  const prev = idx > 0 ? s.allSweeps[idx - 1] : undefined;
+  const r = await call('POST', `/api/sessions/${encodeURIComponent(s.session)}/reanalyze`, { analysis: a, sweeps: prev !== undefined ? [prev, cur] : [cur], views: [cur] });
+  s.reanalysis = {
+    at: r.at,
+    analysis: r.analysis,
+    fits: new Map((r.fits as { sweep: number; fit: FitSummary | null; error: string | null }[]).map((f) => [f.sweep, { fit: f.fit, error: f.error }])),
+    views: new Map((r.views as { sweep: number; view: PlotViewData }[]).map((v) => [v.sweep, v.view])),
+  };
+  s.dirty = true;
+  schedule();
 }
 
 // ---- controls -------------------------------------------------------------------------------
-let analysis: Json = null;
-function currentAnalysis(): Json {
-  return analysis;
-}
-
 async function loadStatus(): Promise<void> {
-  const st = await call('GET', '/api/status');
-  analysis = st.analysis;
-  $('station-name').textContent = st.scenario ? `simulator: ${st.scenario}` : st.instrument;
-  const sel = $<HTMLSelectElement>('model-select');
-  sel.textContent = '';
-  for (const m of st.models as { id: string; title: string }[]) {
-    const o = document.createElement('option');
-    o.value = m.id;
-    o.textContent = m.title;
-    sel.append(o);
+  const first = status === null;
+  status = (await call('GET', '/api/status')) as StationStatus;
+  if (first) {
+    const sel = $<HTMLSelectElement>('model-select');
+    sel.textContent = '';
+    for (const m of status.models) {
+      const o = document.createElement('option');
+      o.value = m.id;
+      o.textContent = m.title;
+      sel.append(o);
+    }
+    buildInputFields($('input-fields'));
+    fillPlan($<HTMLFormElement>('plan-form'), status);
+    filledFrom = '';
   }
-  fillAnalysis(st.analysis);
+  liveStore.dirty = true;
+  viewStore.dirty = true;
+  schedule();
 }
 
-function fillAnalysis(a: Json): void {
-  const f = $<HTMLFormElement>('analysis-form');
-  (f.elements.namedItem('model') as HTMLSelectElement).value = a.model;
-  const set = (n: string, v: number | undefined) => ((f.elements.namedItem(n) as HTMLInputElement).value = v === undefined ? '' : String(v));
-  set('thickness', a.inputs?.thickness !== undefined ? a.inputs.thickness * 1e9 : undefined);
-  set('area', a.inputs?.area !== undefined ? a.inputs.area * 1e4 : undefined);
-  set('temperature', a.inputs?.temperature);
-  set('from', typeof a.window === 'object' ? a.window.from : undefined);
-  set('to', typeof a.window === 'object' ? a.window.to : undefined);
-}
-
-function num(form: HTMLFormElement, name: string): number | undefined {
-  const v = (form.elements.namedItem(name) as HTMLInputElement).value.trim();
-  return v === '' ? undefined : Number(v);
-}
+$('model-select').addEventListener('change', () => {
+  const id = $<HTMLSelectElement>('model-select').value;
+  markInputs($('input-fields'), status?.models.find((m) => m.id === id));
+});
 
 $('plan-form').addEventListener('submit', (ev) => {
   ev.preventDefault();
   const f = ev.target as HTMLFormElement;
-  const plan = {
-    kind: (f.elements.namedItem('kind') as HTMLSelectElement).value,
-    start: num(f, 'start'),
-    stop: num(f, 'stop'),
-    points: num(f, 'points'),
-    repeat: num(f, 'repeat'),
-    compliance: num(f, 'compliance'),
-    dual: (f.elements.namedItem('dual') as HTMLInputElement).checked,
-  };
+  let plan: Record<string, unknown>;
+  try {
+    plan = readPlan(f, status);
+  } catch (e) {
+    say((e as Error).message, true);
+    return;
+  }
   // The device under test (journaled with the session; used by the lot view and weibull).
   const text = (name: string) => (f.elements.namedItem(name) as HTMLInputElement).value.trim();
+  const num = (name: string) => (text(name) === '' ? undefined : Number(text(name)));
   const device = Object.fromEntries(
-    [['device', text('device') || undefined], ['wafer', text('wafer') || undefined], ['site', text('site') || undefined], ['x', num(f, 'x')], ['y', num(f, 'y')]].filter(([, v]) => v !== undefined),
+    [['device', text('device') || undefined], ['wafer', text('wafer') || undefined], ['site', text('site') || undefined], ['x', num('x')], ['y', num('y')]].filter(([, v]) => v !== undefined),
   );
   backToLive();
   call('POST', '/api/run', Object.keys(device).length ? { plan, device } : { plan }).then((r) => say(`Run started: ${r.session}`)).catch((e: Error) => say(e.message, true));
@@ -324,48 +378,57 @@ $('run-stop').addEventListener('click', () => {
   call('POST', '/api/run/stop', { reason: 'stop requested from the page' }).then(() => say('The run stops after this sweep.')).catch((e: Error) => say(e.message, true));
 });
 function abort(): void {
-  if (viewStore.readOnly) {
-    say('A past session is open read-only: nothing to abort here (Back to the live session).', true);
-    return;
-  }
   call('POST', '/api/run/abort', { reason: 'abort from the page' }).then(() => say('Aborted: output off sent.')).catch((e: Error) => say(e.message, true));
 }
 $('abort').addEventListener('click', abort);
 document.addEventListener('keydown', (e) => {
-  if (e.key === 'Escape') abort();
+  if (e.key !== 'Escape') return;
+  // Esc in a text field only leaves the field: a habit there must never end a long run.
+  const t = e.target as HTMLElement | null;
+  if (t && (t.isContentEditable || ['INPUT', 'TEXTAREA', 'SELECT'].includes(t.tagName))) {
+    t.blur();
+    say('Esc in a text field does not abort. Press Esc again (outside the field) or click ABORT to turn the output off.');
+    return;
+  }
+  if (($('abort') as HTMLButtonElement).disabled) {
+    say(viewStore.readOnly ? 'A past session is open read-only: nothing to abort here (Back to the live session).' : 'No run in progress: nothing to abort.');
+    return;
+  }
+  abort();
 });
 $('analysis-form').addEventListener('submit', (ev) => {
   ev.preventDefault();
   const f = ev.target as HTMLFormElement;
-  const t = num(f, 'thickness');
-  const ar = num(f, 'area');
-  const from = num(f, 'from');
-  const to = num(f, 'to');
-  const body = {
-    model: (f.elements.namedItem('model') as HTMLSelectElement).value,
-    inputs: { ...(analysis?.inputs ?? {}), ...(t !== undefined ? { thickness: t * 1e-9 } : {}), ...(ar !== undefined ? { area: ar * 1e-4 } : {}), ...(num(f, 'temperature') !== undefined ? { temperature: num(f, 'temperature') } : {}) },
-    window: from !== undefined || to !== undefined ? { from, to } : 'auto',
-  };
-  call('PUT', '/api/analysis', body).then((a) => {
-    analysis = a;
-    say(`Analysis set: ${a.model}`);
-  }).catch((e: Error) => say(e.message, true));
+  const model = status?.models.find((m) => m.id === (f.elements.namedItem('model') as HTMLSelectElement).value);
+  let a: AnalysisSettings;
+  try {
+    a = readAnalysis(f, model);
+  } catch (e) {
+    say((e as Error).message, true);
+    return;
+  }
+  filledFrom = '';
+  void applyAnalysis(a, `Analysis ${a.model}`);
 });
 $('auto-window').addEventListener('click', () => {
-  if (!analysis) return;
-  call('PUT', '/api/analysis', { ...analysis, window: 'auto' }).then((a) => {
-    analysis = a;
-    fillAnalysis(a);
-    say('Automatic fit window.');
-  }).catch((e: Error) => say(e.message, true));
+  const a = shownAnalysis();
+  if (!a) return;
+  filledFrom = '';
+  void applyAnalysis({ ...a, window: 'auto' }, 'Automatic fit window');
+});
+$('show-recorded').addEventListener('click', () => {
+  viewStore.reanalysis = null;
+  viewStore.dirty = true;
+  filledFrom = '';
+  schedule();
 });
 $('note-form').addEventListener('submit', (ev) => {
   ev.preventDefault();
   const f = ev.target as HTMLFormElement;
   const text = (f.elements.namedItem('text') as HTMLInputElement).value;
   const tags = (f.elements.namedItem('tags') as HTMLInputElement).value.split(',').map((t) => t.trim()).filter(Boolean);
-  const sweep = num(f, 'sweep');
-  call('POST', '/api/annotations', { text, tags, ...(sweep !== undefined ? { sweep } : {}), ...(viewStore.readOnly && viewStore.session ? { session: viewStore.session } : {}) })
+  const sw = (f.elements.namedItem('sweep') as HTMLInputElement).value.trim();
+  call('POST', '/api/annotations', { text, tags, ...(sw !== '' ? { sweep: Number(sw) } : {}), ...(viewStore.readOnly && viewStore.session ? { session: viewStore.session } : {}) })
     .then(() => {
       say('Note added to the journal.');
       f.reset();
@@ -373,7 +436,6 @@ $('note-form').addEventListener('submit', (ev) => {
 });
 $('lin-whole').addEventListener('change', () => {
   lin.wholeCurve = ($('lin-whole') as HTMLInputElement).checked;
-  if (lin.wholeCurve) lin.plot?.setData(lin.plot.data, true);
   viewStore.dirty = true;
   schedule();
 });
@@ -381,6 +443,53 @@ $('raw-log').addEventListener('change', () => {
   viewStore.dirty = true;
   schedule();
 });
+
+// ---- the sweep picker ------------------------------------------------------------------------
+/** Shows one sweep: its readings, recorded fit and view are loaded from the journal if not held. */
+async function pickSweep(n: number | null): Promise<void> {
+  const s = viewStore;
+  if (n !== null) {
+    const last = s.allSweeps.at(-1) ?? 0;
+    if (!s.allSweeps.includes(n)) {
+      say(`sweep ${n}: this session has sweeps ${s.allSweeps[0] ?? '–'} to ${last}`, true);
+      return;
+    }
+    if (s.session && (!s.views.has(n) || !s.finalFits.has(n) || !s.sweeps.has(n))) {
+      const d = await call('GET', `/api/sessions/${encodeURIComponent(s.session)}/sweeps/${n}`);
+      s.shownSweep = n;
+      if (!s.sweeps.has(n) || (s.sweeps.get(n)?.v.length ?? 0) < d.readings.length) {
+        const pts = s.sweepPoints(n);
+        pts.v = d.readings.map((r: number[]) => r[4]);
+        pts.i = d.readings.map((r: number[]) => r[5]);
+        pts.flags = d.readings.map((r: number[]) => r[6]);
+      }
+      if (d.fit !== undefined && (d.complete !== null || d.fit)) {
+        s.finalFits.set(n, d.fit);
+        s.fitAnalysis.set(n, d.analysis);
+        if (d.error) s.fitErrors.set(n, d.error);
+      }
+      if (d.complete !== null) s.ended.set(n, d.complete);
+      if (d.view) s.setView(n, d.complete !== null, d.view);
+    }
+  }
+  s.shownSweep = n;
+  if (s.reanalysis && n !== null && !s.reanalysis.views.has(n)) await reanalyse(s, s.reanalysis.analysis).catch((e: Error) => say(e.message, true));
+  s.dirty = true;
+  schedule();
+}
+const pickNumber = () => Number($<HTMLInputElement>('sweep-pick').value);
+$('sweep-pick').addEventListener('change', () => void pickSweep(pickNumber()).catch((e: Error) => say(e.message, true)));
+$('sweep-prev').addEventListener('click', () => {
+  const s = viewStore;
+  const i = s.allSweeps.indexOf(s.currentSweep());
+  if (i > 0) void pickSweep(s.allSweeps[i - 1]).catch((e: Error) => say(e.message, true));
+});
+$('sweep-next').addEventListener('click', () => {
+  const s = viewStore;
+  const i = s.allSweeps.indexOf(s.currentSweep());
+  if (i >= 0 && i < s.allSweeps.length - 1) void pickSweep(s.allSweeps[i + 1]).catch((e: Error) => say(e.message, true));
+});
+$('sweep-latest').addEventListener('click', () => void pickSweep(null));
 
 // ---- past sessions (read-only) ------------------------------------------------------------
 async function loadSessions(): Promise<void> {
@@ -390,36 +499,52 @@ async function loadSessions(): Promise<void> {
   for (const id of (r.sessions as string[]).slice(0, 30)) {
     const b = document.createElement('button');
     b.textContent = id;
-    b.addEventListener('click', () => void openSession(id));
+    b.addEventListener('click', () => void openSession(id).catch((e: Error) => say(`${id}: ${e.message}`, true)));
     box.append(b);
   }
 }
 
+/**
+ * Opens a past session from the daemon's overview: its events, every sweep's final parameters and
+ * drift, the readings of the last sweeps and an envelope of all of them — bounded in size whatever
+ * the session's length; the picker loads any other sweep on demand.
+ */
 async function openSession(id: string): Promise<void> {
+  const o = await call('GET', `/api/sessions/${encodeURIComponent(id)}/overview`);
   const past = new Store();
-  past.readOnly = true;
   past.reset(id);
-  const detail = await call('GET', `/api/sessions/${encodeURIComponent(id)}`);
-  const rd = await call('GET', `/api/sessions/${encodeURIComponent(id)}/readings`);
-  const evs: WireEvent[] = [...detail.events];
-  for (const row of rd.rows as number[][]) evs.push({ type: 'reading', seq: row[0], sweep: row[1], k: row[2], t: row[3], v: row[4], i: row[5], flags: row[6] });
-  evs.sort((a, b) => a.seq - b.seq);
-  for (const e of evs) past.applyEvent(e);
+  past.readOnly = true;
+  for (const e of o.events as WireEvent[]) past.applyEvent(e);
   past.running = false;
+  past.outputOn = false;
   past.session = id;
-  const last = past.latestSweep();
-  if (last > 0) {
-    const v = await call('GET', `/api/sessions/${encodeURIComponent(id)}/sweeps/${last}/view`);
-    past.views.set(last, v.view);
+  past.analysis = o.analysis;
+  past.allSweeps = o.sweeps.sweep;
+  (o.sweeps.complete as (boolean | null)[]).forEach((c, k) => {
+    if (c !== null) past.ended.set(o.sweeps.sweep[k], c);
+  });
+  for (const f of o.fits as { sweep: number; fit: FitSummary | null; error: string | null; analysis: AnalysisSettings | null }[]) {
+    past.finalFits.set(f.sweep, f.fit);
+    past.fitAnalysis.set(f.sweep, f.analysis);
+    if (f.error) past.fitErrors.set(f.sweep, f.error);
   }
+  past.drift = o.drift;
+  past.ranking = o.ranking;
+  for (const r of o.recent as number[][]) past.applyEvent({ type: 'reading', seq: r[0], sweep: r[1], k: r[2], t: r[3], v: r[4], i: r[5], flags: r[6] });
+  past.envelope = o.envelope as Envelope;
+  if (o.view) past.setView(o.view.sweep, true, o.view.view);
   past.dirty = true;
   viewStore = past;
+  filledFrom = '';
+  pickerKey = '';
   schedule();
 }
 
 function backToLive(): void {
   viewStore = liveStore;
   liveStore.dirty = true;
+  filledFrom = '';
+  pickerKey = '';
   schedule();
 }
 $('back-live').addEventListener('click', backToLive);
@@ -433,6 +558,8 @@ $('back-live').addEventListener('click', backToLive);
   },
   live: liveStore,
   charts: { raw, lin, drift },
+  openSession,
+  pickSweep,
 };
 
 loadStatus().catch((e: Error) => say(`status: ${e.message}`, true));

@@ -1,7 +1,8 @@
 /**
- * The page's copy of what the daemon computed: the session's readings per sweep, its events, the
- * latest linearized views. Events arrive with sequence numbers; anything at or below the last one
- * seen is a duplicate and skipped. The page never computes physics: it keeps and draws these.
+ * The page's copy of what the daemon computed: the session's readings per sweep (the last ones),
+ * its events, fits and linearized views, and — for a past session — the envelope of every sweep.
+ * Events arrive with sequence numbers; anything at or below the last one seen is a duplicate and
+ * skipped. The page never computes physics: it keeps and draws these.
  */
 import type { FitSummary, PackedReading, PlotViewData, ServerMessage, Snapshot, WireEvent } from '../../protocols/wire.js';
 
@@ -13,6 +14,34 @@ export interface SweepPoints {
 
 type Ev<T extends WireEvent['type']> = Extract<WireEvent, { type: T }>;
 
+/** Sweeps whose readings the page keeps (older ones stay in the journal and the picker loads them). */
+export const KEPT_SWEEPS = 100;
+
+/** The analysis settings as the daemon sends them (SI). */
+export interface AnalysisSettings {
+  model: string;
+  window: 'auto' | 'all' | { from?: number; to?: number };
+  inputs: Record<string, number | undefined>;
+  solar?: { irradiance?: number } | undefined;
+}
+
+/** |I| and I against V over every sweep of a past session (from the daemon's overview). */
+export interface Envelope {
+  v: number[];
+  lo: (number | null)[];
+  hi: (number | null)[];
+  min: (number | null)[];
+  max: (number | null)[];
+}
+
+/** Results of a re-analysis: the settings, and fits and views per sweep. */
+export interface Reanalysis {
+  at: string;
+  analysis: AnalysisSettings;
+  fits: Map<number, { fit: FitSummary | null; error: string | null }>;
+  views: Map<number, PlotViewData>;
+}
+
 export class Store {
   session: string | null = null;
   running = false;
@@ -23,8 +52,14 @@ export class Store {
   events: WireEvent[] = [];
   finalFits = new Map<number, FitSummary | null>();
   fitErrors = new Map<number, string>();
+  /** The analysis settings in force when each sweep's final fit was made. */
+  fitAnalysis = new Map<number, AnalysisSettings | null>();
   liveFit: { sweep: number; fit: FitSummary | null } | null = null;
   views = new Map<number, PlotViewData>();
+  /** Sweeps whose view is the final one (the sweep had ended). */
+  viewFinal = new Set<number>();
+  /** Sweeps that ended (sweep-end seen), with whether they were complete. */
+  ended = new Map<number, boolean>();
   drift: Ev<'drift'>[] = [];
   ranking: Ev<'ranking'> | null = null;
   progress: Ev<'progress'> | null = null;
@@ -32,6 +67,14 @@ export class Store {
   cautions: Ev<'caution'>[] = [];
   runEnd: Ev<'run-end'> | null = null;
   sessionEvent: Ev<'session'> | null = null;
+  /** The analysis settings in force now (session start, then settings changes). */
+  analysis: AnalysisSettings | null = null;
+  /** Every sweep number of the session (a past session's overview lists them all). */
+  allSweeps: number[] = [];
+  envelope: Envelope | null = null;
+  reanalysis: Reanalysis | null = null;
+  /** The sweep chosen in the picker; null follows the latest. */
+  shownSweep: number | null = null;
   resyncing = false;
   /** Readings received, for tests and the status line. */
   readingCount = 0;
@@ -46,8 +89,11 @@ export class Store {
     this.events = [];
     this.finalFits = new Map();
     this.fitErrors = new Map();
+    this.fitAnalysis = new Map();
     this.liveFit = null;
     this.views = new Map();
+    this.viewFinal = new Set();
+    this.ended = new Map();
     this.drift = [];
     this.ranking = null;
     this.progress = null;
@@ -55,6 +101,11 @@ export class Store {
     this.cautions = [];
     this.runEnd = null;
     this.sessionEvent = null;
+    this.analysis = null;
+    this.allSweeps = [];
+    this.envelope = null;
+    this.reanalysis = null;
+    this.shownSweep = null;
     this.readingCount = 0;
     this.dirty = true;
   }
@@ -73,8 +124,9 @@ export class Store {
       if (x.e) this.applyEvent(x.e);
       else if (x.r) this.applyReading(x.r);
     }
+    this.running = s.running;
     this.lastSeq = s.lastSeq;
-    for (const v of s.views) this.views.set(v.sweep, v.view);
+    for (const v of s.views) this.setView(v.sweep, v.final, v.view);
     this.dirty = true;
   }
 
@@ -82,7 +134,7 @@ export class Store {
     if (m.kind === 'snapshot') this.applySnapshot(m.snapshot);
     else if (m.kind === 'gap') this.resyncing = true;
     else if (m.kind === 'view') {
-      if (m.session === this.session || this.session === null) this.views.set(m.sweep, m.view);
+      if (m.session === this.session || this.session === null) this.setView(m.sweep, m.final, m.view);
     } else {
       const all: { seq: number; e?: WireEvent; r?: PackedReading }[] = [
         ...m.events.map((e) => ({ seq: e.seq, e })),
@@ -100,14 +152,34 @@ export class Store {
     this.dirty = true;
   }
 
-  private applyReading(r: PackedReading): void {
-    let s = this.sweeps.get(r[1]);
+  setView(sweep: number, final: boolean, view: PlotViewData): void {
+    this.views.set(sweep, view);
+    if (final) this.viewFinal.add(sweep);
+    // Views of sweeps long gone are not kept.
+    if (this.views.size > 8) {
+      const keys = [...this.views.keys()].sort((a, b) => a - b);
+      for (const k of keys.slice(0, keys.length - 8)) if (k !== this.shownSweep) this.views.delete(k);
+    }
+  }
+
+  /** The sweep's points, created (and the oldest dropped beyond KEPT_SWEEPS) when first seen. */
+  sweepPoints(n: number): SweepPoints {
+    let s = this.sweeps.get(n);
     if (!s) {
       s = { v: [], i: [], flags: [] };
-      this.sweeps.set(r[1], s);
-      // Keep the last 100 sweeps in memory; older ones stay in the journal.
-      if (this.sweeps.size > 100) this.sweeps.delete(Math.min(...this.sweeps.keys()));
+      this.sweeps.set(n, s);
+      if (!this.allSweeps.length || this.allSweeps[this.allSweeps.length - 1] < n) this.allSweeps.push(n);
+      if (this.sweeps.size > KEPT_SWEEPS) {
+        let oldest = Infinity;
+        for (const k of this.sweeps.keys()) if (k < oldest && k !== this.shownSweep) oldest = k;
+        this.sweeps.delete(oldest);
+      }
     }
+    return s;
+  }
+
+  private applyReading(r: PackedReading): void {
+    const s = this.sweepPoints(r[1]);
     s.v.push(r[4]);
     s.i.push(r[5]);
     s.flags.push(r[6]);
@@ -124,14 +196,23 @@ export class Store {
         this.session = e.id;
         this.sessionEvent = e;
         this.running = true;
+        this.analysis = e.analysis as AnalysisSettings;
+        break;
+      case 'settings':
+        this.analysis = e.analysis as AnalysisSettings;
         break;
       case 'sweep-start':
-        if (!this.sweeps.has(e.sweep)) this.sweeps.set(e.sweep, { v: [], i: [], flags: [] });
+        this.sweepPoints(e.sweep);
+        break;
+      case 'sweep-end':
+        this.ended.set(e.sweep, e.complete);
         break;
       case 'fit':
         if (e.final) {
           this.finalFits.set(e.sweep, e.fit);
+          this.fitAnalysis.set(e.sweep, this.analysis);
           if (e.error) this.fitErrors.set(e.sweep, e.error);
+          else this.fitErrors.delete(e.sweep);
         }
         this.liveFit = { sweep: e.sweep, fit: e.fit };
         break;
@@ -144,7 +225,7 @@ export class Store {
         break;
       case 'progress':
         this.progress = e;
-        break;
+        return;
       case 'output':
         this.outputOn = e.on;
         break;
@@ -165,6 +246,16 @@ export class Store {
   latestSweep(): number {
     let m = 0;
     for (const k of this.sweeps.keys()) m = Math.max(m, k);
-    return m;
+    return Math.max(m, this.allSweeps.at(-1) ?? 0);
+  }
+
+  /** The sweep the panels show: the one picked, or the latest. */
+  currentSweep(): number {
+    return this.shownSweep ?? this.latestSweep();
+  }
+
+  /** Whether a sweep is still being measured (no end seen while the run goes on). */
+  isLive(sweep: number): boolean {
+    return this.running && !this.readOnly && !this.ended.has(sweep);
   }
 }

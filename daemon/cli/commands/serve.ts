@@ -18,11 +18,12 @@ export function registerServe(program: Command): void {
     .option('--data <dir>', 'folder for session folders (default: the config\'s, plumbline-data)')
     .option('--fast', 'simulated instrument: answer at once instead of waiting the integration time')
     .option('--no-autostart', 'do not start the default plan at once even if the config says so')
+    .option('--start-on-page', 'with autostart: start the default plan when the first page connects (npm start does this, so a newcomer sees the demo from its start)')
     .option('--publish <url>', PUBLISH_HELP)
     .option('--station <id>', STATION_HELP)
     .option('--quiet', 'log only notices (the page address, runs starting and ending), cautions and errors')
     .option('--verbose', 'also log every fit, drift statistic, decision and output change')
-    .action(async (o: StationOptions & PublishOptions & { port?: string; host?: string; autostart: boolean; quiet?: boolean; verbose?: boolean }) => {
+    .action(async (o: StationOptions & PublishOptions & { port?: string; host?: string; autostart: boolean; startOnPage?: boolean; quiet?: boolean; verbose?: boolean }) => {
       const log = Log.from(o);
       const config = await stationConfig(o);
       const { dataDir, Station, startServer } = await daemonModules();
@@ -52,6 +53,11 @@ export function registerServe(program: Command): void {
       log.notice(`instrument: ${config.instrument.kind}${station.scenario ? ` (scenario ${station.scenario.name})` : ''}`);
       log.warn('CAUTION: on a real station the output can reach hazardous voltages. Follow your lab\'s safety rules.');
       if (config.autostart && o.autostart) {
+        if (o.startOnPage) {
+          // The demo waits for someone to watch it: it starts when the first page connects.
+          log.notice(`the demo run starts when the page connects: open ${srv.url}`);
+          while (srv.hub.stats.clients === 0) await new Promise((r) => setTimeout(r, 200));
+        }
         const h = await station.startRun({});
         log.notice(`demo run started: ${h.session}`);
         h.done.catch(() => undefined);

@@ -1,0 +1,179 @@
+/**
+ * The text panels: cautions, fitted parameters (with where they came from), the mechanism ranking.
+ * Numbers go through the shared formatter and display units, as in the CLI and the report.
+ */
+import { formatInputs, formatParameter, parameterLabel } from '../../protocols/display-units.js';
+import { formatNumber } from '../../protocols/number-format.js';
+import type { FitSummary, WireEvent } from '../../protocols/wire.js';
+import type { AnalysisSettings, Store } from './store.js';
+
+type Level = 'danger' | 'warning' | 'info';
+
+export function renderCautions(box: HTMLElement, s: Store): void {
+  box.textContent = '';
+  const add = (level: Level, tag: string, text: string) => {
+    const div = document.createElement('div');
+    div.className = `caution ${level}`;
+    div.dataset.kind = tag;
+    const t = document.createElement('span');
+    t.className = 'tag';
+    t.textContent = `${level === 'danger' ? '✖' : level === 'warning' ? '⚠' : 'ℹ'} ${tag}`;
+    const m = document.createElement('span');
+    m.textContent = text;
+    div.append(t, m);
+    box.append(div);
+  };
+  if (s.readOnly) add('info', 'read-only', 'A past session from the journal: nothing here controls the instrument.');
+  const source = s.sessionEvent?.source;
+  if (source && !source.control) add('info', 'watching', `Readings come from ${source.detail}; plumbline does not control this instrument.`);
+  if (s.outputOn && !s.readOnly) {
+    const hv = s.cautions.find((c) => c.kind === 'hazard-voltage');
+    if (hv) add('danger', 'high voltage', hv.message);
+    else add('warning', 'output on', 'The output is on: the device terminals are live. Hands off the probes and the fixture; follow your lab\'s safety rules.');
+  }
+  const latest = new Map<string, Extract<WireEvent, { type: 'caution' }>>();
+  for (const c of s.cautions) latest.set(c.kind, c);
+  const order: [string, Level, string][] = [
+    ['breakdown-confirmed', 'danger', 'breakdown'],
+    ['instrument-fault', 'danger', 'instrument fault'],
+    ['output-unconfirmed', 'danger', 'output not confirmed off'],
+    ['journal-fault', 'danger', 'journal fault'],
+    ['drift-limit', 'danger', 'drift limit'],
+    ['breakdown-suspected', 'warning', 'breakdown suspected'],
+    ['drift-warning', 'warning', 'drift warning'],
+    ['compliance', 'warning', 'compliance'],
+    ['recovery', 'warning', 'recovered'],
+  ];
+  for (const [kind, level, tag] of order) {
+    const c = latest.get(kind);
+    if (c) add(level, tag, `${c.sweep !== undefined ? `sweep ${c.sweep}: ` : ''}${c.message}`);
+  }
+}
+
+/** "fowler-nordheim · window 5 … 9 V · thickness 7 nm, area 1e-4 cm²". */
+export function describeAnalysis(a: AnalysisSettings | null | undefined): string {
+  if (!a) return 'settings not recorded';
+  const w = a.window;
+  const win = typeof w === 'object' ? `window ${w.from !== undefined ? formatNumber(w.from) : '−∞'} … ${w.to !== undefined ? formatNumber(w.to) : '∞'} V` : w === 'auto' ? 'automatic window' : 'all points';
+  const inputs = formatInputs(a.inputs ?? {});
+  return `${a.model} · ${win}${inputs ? ` · ${inputs}` : ''}${a.solar ? ` · solar cell${a.solar.irradiance !== undefined ? ` at ${formatNumber(a.solar.irradiance)} W/m²` : ''}` : ''}`;
+}
+
+export interface ParamColumn {
+  readonly title: string;
+  readonly fit: FitSummary | null | undefined;
+}
+
+/** The parameters table: one row per parameter, one column per fit (current sweep, previous). */
+export function renderParams(box: HTMLElement, cols: ParamColumn[], empty: string): void {
+  box.textContent = '';
+  const names = [...new Set(cols.flatMap((c) => Object.keys(c.fit?.parameters ?? {})))];
+  if (names.length === 0) {
+    box.textContent = empty;
+    return;
+  }
+  const table = document.createElement('table');
+  table.className = 'params';
+  const head = table.insertRow();
+  for (const h of ['', ...cols.map((c) => c.title)]) {
+    const th = document.createElement('th');
+    th.textContent = h;
+    head.append(th);
+  }
+  for (const n of names) {
+    const row = table.insertRow();
+    row.dataset.param = n;
+    const c0 = row.insertCell();
+    c0.textContent = parameterLabel(n);
+    c0.title = n;
+    cols.forEach((col, k) => {
+      const c = row.insertCell();
+      c.className = k === 0 ? 'value' : '';
+      const p = col.fit?.parameters[n];
+      if (!p) return;
+      const f = formatParameter(p, n);
+      const sv = document.createElement('span');
+      sv.className = 'num';
+      sv.textContent = f.text;
+      c.append(sv);
+      if (f.unit) {
+        const su = document.createElement('span');
+        su.className = 'unit';
+        su.textContent = ` ${f.unit}`;
+        c.append(su);
+      }
+    });
+  }
+  box.append(table);
+}
+
+export function renderFitNotes(box: HTMLElement, fit: FitSummary | null | undefined): void {
+  box.textContent = '';
+  if (!fit) return;
+  const ul = document.createElement('ul');
+  ul.className = 'warnings';
+  if (!fit.plausible) {
+    const li = document.createElement('li');
+    li.className = 'implausible';
+    li.textContent = 'Not plausible for this mechanism: see the notes.';
+    ul.append(li);
+  }
+  for (const t of fit.warnings) {
+    const li = document.createElement('li');
+    li.textContent = t;
+    ul.append(li);
+  }
+  const li = document.createElement('li');
+  li.className = 'plain';
+  li.textContent = `window ${formatNumber(fit.window.from)} … ${formatNumber(fit.window.to)} V (${fit.window.mode}), ${fit.line.n} points, R² ${fit.line.r2.toFixed(5)}`;
+  ul.append(li);
+  box.append(ul);
+}
+
+/**
+ * Every ranked mechanism with its Akaike weight (they sum to 1 over the list), whether its
+ * parameters pass the physical checks, and the reasons (collapsed).
+ */
+export function renderRanking(box: HTMLElement, r: Extract<WireEvent, { type: 'ranking' }> | null): void {
+  box.textContent = '';
+  if (!r) {
+    box.textContent = 'After the first complete sweep.';
+    return;
+  }
+  const sum = r.ranking.reduce((a, e) => a + e.score, 0);
+  const head = document.createElement('p');
+  head.className = 'hint';
+  head.textContent = `Sweep ${r.sweep}: Akaike weights of ${r.ranking.length} mechanisms (sum ${sum.toFixed(3)}); at most one ranking a second. ✓ passes the physical checks, ✗ fails them.`;
+  const ol = document.createElement('ol');
+  ol.className = 'ranking';
+  for (const e of r.ranking) {
+    const li = document.createElement('li');
+    li.dataset.model = e.model;
+    const det = document.createElement('details');
+    const sum = document.createElement('summary');
+    const name = document.createElement('span');
+    name.textContent = `${e.plausible ? '✓' : '✗'} ${e.title}`;
+    name.className = e.plausible ? 'yes' : 'no';
+    const sc = document.createElement('span');
+    sc.className = 'score';
+    sc.textContent = ` — weight ${e.score >= 0.001 ? e.score.toFixed(3) : '< 0.001'}, ΔAICc ${formatNumber(e.deltaAicc, 3)}${e.plausible ? '' : ' (implausible)'}`;
+    sum.append(name, sc);
+    det.append(sum);
+    const ul = document.createElement('ul');
+    for (const why of e.reasons) {
+      const w = document.createElement('li');
+      w.textContent = why;
+      ul.append(w);
+    }
+    if (e.reasons.length) det.append(ul);
+    li.append(det);
+    ol.append(li);
+  }
+  box.append(head, ol);
+  for (const w of r.warnings) {
+    const p = document.createElement('p');
+    p.className = 'warn';
+    p.textContent = w;
+    box.append(p);
+  }
+}
