@@ -25,7 +25,7 @@ import { exportSession } from '../journal/export.js';
 import { FolderLot } from '../journal/lot.js';
 import { analyzeLot, renderLot } from '../journal/lot-report.js';
 import { listSessions, scanJournal } from '../journal/reader.js';
-import { MAX_REANALYSIS_SWEEPS, OVERVIEW_SWEEPS, reanalyze, sessionOverview, sweepDetail, sweepViewWith } from '../journal/reanalysis.js';
+import { OVERVIEW_SWEEPS, reanalyze, sessionOverview, sweepDetail, sweepViewWith } from '../journal/reanalysis.js';
 import { zodMessage } from '../pipeline/settings.js';
 import { isLoopback } from '../run/config.js';
 import { GuardError } from '../run/guard.js';

@@ -95,6 +95,13 @@ describe('the OpenAPI document', () => {
     expect((await call('GET', `/api/sessions/${id}/readings?sweep=2`, '/api/sessions/{id}/readings')).json.rows).toHaveLength(10);
     expect((await call('GET', `/api/sessions/${id}/readings?sweep=x`, '/api/sessions/{id}/readings')).status).toBe(400);
     await call('GET', `/api/sessions/${id}/sweeps/1/view`, '/api/sessions/{id}/sweeps/{sweep}/view');
+    expect((await call('GET', `/api/sessions/${id}/overview`, '/api/sessions/{id}/overview')).json.readings).toBe(20);
+    expect((await call('GET', `/api/sessions/${id}/overview?last=0`, '/api/sessions/{id}/overview')).status).toBe(400);
+    expect((await call('GET', `/api/sessions/${id}/sweeps/2`, '/api/sessions/{id}/sweeps/{sweep}')).json.readings).toHaveLength(10);
+    expect((await call('GET', `/api/sessions/${id}/sweeps/9`, '/api/sessions/{id}/sweeps/{sweep}')).status).toBe(404);
+    const re = await call('POST', `/api/sessions/${id}/reanalyze`, '/api/sessions/{id}/reanalyze', { analysis: { model: 'ohmic', window: 'auto' }, sweeps: [1, 2] });
+    expect(re.json.fits.map((f: { sweep: number }) => f.sweep)).toEqual([1, 2]);
+    expect((await call('POST', `/api/sessions/${id}/reanalyze`, '/api/sessions/{id}/reanalyze', { analysis: { model: 'no-such' }, sweeps: [1] })).status).toBe(400);
     expect((await call('GET', `/api/sessions/${id}/sweeps/0/view`, '/api/sessions/{id}/sweeps/{sweep}/view')).status).toBe(400);
     expect((await call('POST', `/api/sessions/${id}/export`, '/api/sessions/{id}/export', {})).json.readings).toBe(20);
     await call('GET', '/api/analysis', '/api/analysis');
