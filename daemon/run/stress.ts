@@ -74,6 +74,10 @@ class Series {
   /** The level programmed for each reading (V, or A for a current ramp). */
   readonly set: number[] = [];
   readonly i: number[] = [];
+  /** Extra seconds at a reading's current (the estimated part of a pause's edges). */
+  readonly extra: number[] = [];
+  /** Charge the estimates of pause edges may be off by, C. */
+  edgeUncertainty = 0;
   private last: number;
 
   constructor(start: number, readonly staircase: boolean) {
@@ -87,7 +91,20 @@ class Series {
     this.v.push(v);
     this.set.push(set);
     this.i.push(i);
+    this.extra.push(0);
     this.last = t;
+  }
+
+  /**
+   * A pause's edge: the stress level was on for an unknown part of `gap` seconds next to reading k
+   * (before the source stepped away, or after it stepped back): half of it is counted at that
+   * reading's current, and the other half is the estimate's uncertainty.
+   */
+  edge(k: number, gap: number): void {
+    if (k < 0 || k >= this.t.length || !(gap > 0)) return;
+    this.extra[k] += 0.5 * gap;
+    const a = Math.abs(this.i[k]);
+    if (Number.isFinite(a)) this.edgeUncertainty += 0.5 * gap * a;
   }
 
   /** Restart the hold clock (after time that was not stress). */
@@ -98,7 +115,7 @@ class Series {
   /** Seconds each reading's current flowed. */
   holds(): number[] {
     const n = this.t.length;
-    return this.t.map((t, k) => (this.staircase ? (k + 1 < n ? this.tSet[k + 1] : t) - this.tSet[k] : t - this.tSet[k]));
+    return this.t.map((t, k) => (this.staircase ? (k + 1 < n ? this.tSet[k + 1] : t) - this.tSet[k] : t - this.tSet[k]) + this.extra[k]);
   }
 }
 
@@ -165,7 +182,7 @@ export class StressTest {
         time: hold.slice(0, k + 1).reduce((a, b) => a + b, 0),
         // The breakdown moment is known only to lie between the last intact reading and the one
         // that showed it: half that interval's charge is the estimate's own uncertainty.
-        numbers: { ...verdict.numbers, ...(area && k > 0 ? { chargeUncertainty: (0.5 * Math.abs(series.i[k - 1]) * (series.t[k] - series.t[k - 1])) / area } : {}) },
+        numbers: { ...verdict.numbers, ...(area && k > 0 ? { chargeUncertainty: (0.5 * Math.abs(series.i[k - 1]) * (series.t[k] - series.t[k - 1]) + series.edgeUncertainty) / area } : {}) },
       });
     }
     // The end of the ramp or of the stress time without breakdown: the device survived (censored).
@@ -302,14 +319,42 @@ export class StressTest {
     let stressTime = 0;
     let nextSense = p.sense ? p.sense.every : Infinity;
     let segmentOpen = false;
-    const openSegment = () => {
+    const openSegment = (): void => {
       this.startSweep(Math.max(1, Math.ceil(Math.min(p.duration - stressTime, nextSense - stressTime) / p.sampleEvery)), `stress at ${p.stress} V from ${g(stressTime)} s`);
       segmentOpen = true;
     };
-    await src.rampTo(p.stress);
+    // Stress time is taken from the instrument's own clock when its readings carry one (the
+    // dialect's "time" field): the computer's clock would count its own delays as stress.
+    const clock = (m: Measurement) => (m.reading?.t !== undefined && Number.isFinite(m.reading.t) ? m.reading.t : this.now());
     const tStart = this.now();
     const series = new Series(tStart, false);
-    openSegment();
+    /**
+     * Ramps to the stress and reads at once: that reading starts the segment's stress clock. After a
+     * sense sweep, the stress came on somewhere between the sweep's last reading and this one: half
+     * of that gap is counted (an edge).
+     */
+    const startSegment = async (after?: number): Promise<BreakdownVerdict | undefined> => {
+      await src.rampTo(p.stress);
+      openSegment();
+      this.ctx.check();
+      const m = await src.measure();
+      this.ctx.take(m, p.stress);
+      const t = clock(m);
+      series.resume(t);
+      if (!m.reading) return undefined;
+      series.add(t, m.reading.v, m.reading.i, p.stress);
+      if (after !== undefined) series.edge(series.t.length - 1, t - after);
+      stressTime += after !== undefined ? 0.5 * Math.max(0, t - after) : 0;
+      return judge.add(stressTime, m.reading.i, m.compliance);
+    };
+    const broke = async (verdict: BreakdownVerdict) => {
+      const at = { ...verdict, index: series.t.length - 1 };
+      await this.offAtBreakdown(at);
+      this.ctx.chain.endSweep(false, `breakdown after ${g(stressTime)} s`);
+      return { verdict: at, series, tStart, stressTime };
+    };
+    let v0 = await startSegment();
+    if (v0) return broke(v0);
     while (stressTime < p.duration) {
       this.ctx.check();
       await this.ctx.sleep(Math.min(p.sampleEvery, p.duration - stressTime));
@@ -317,25 +362,24 @@ export class StressTest {
       const m = await src.measure();
       this.ctx.take(m, p.stress);
       if (!m.reading) continue;
-      const t = this.now();
+      const t = clock(m);
       series.add(t, m.reading.v, m.reading.i, p.stress);
       stressTime += t - series.tSet[series.tSet.length - 1];
       const verdict = judge.add(stressTime, m.reading.i, m.compliance);
-      if (verdict) {
-        const at = { ...verdict, index: series.t.length - 1 };
-        await this.offAtBreakdown(at);
-        this.ctx.chain.endSweep(false, `breakdown after ${g(stressTime)} s`);
-        return { verdict: at, series, tStart, stressTime };
-      }
+      if (verdict) return broke(verdict);
       if (p.sense && stressTime >= nextSense && stressTime < p.duration) {
         this.ctx.chain.endSweep(true);
         segmentOpen = false;
-        await this.senseSweep(p);
+        const sensed = await this.senseSweep(p, clock);
+        // The stress was still on for part of the gap before the sense sweep's first reading.
+        if (sensed) {
+          series.edge(series.t.length - 1, sensed.first - series.t[series.t.length - 1]);
+          stressTime += 0.5 * Math.max(0, sensed.first - series.t[series.t.length - 1]);
+        }
         nextSense += p.sense.every;
-        await src.rampTo(p.stress);
-        // The time spent sensing is not stress: the hold clock resumes here.
-        series.resume(this.now());
-        openSegment();
+        // The time spent sensing is not stress: the stress clock resumes at the next segment's first reading.
+        v0 = await startSegment(sensed?.last);
+        if (v0) return broke(v0);
       }
     }
     if (segmentOpen) this.ctx.chain.endSweep(true);
@@ -344,20 +388,29 @@ export class StressTest {
     return { series, tStart, stressTime };
   }
 
-  /** A short low-field sweep between stress intervals (the leakage it shows grows with trapped charge). */
-  private async senseSweep(p: ConstantStressPlan): Promise<void> {
+  /**
+   * A short low-field sweep between stress intervals (the leakage it shows grows with trapped
+   * charge). Returns the clock readings of its first and last points.
+   */
+  private async senseSweep(p: ConstantStressPlan, clock: (m: Measurement) => number): Promise<{ first: number; last: number } | undefined> {
     const s = p.sense as NonNullable<ConstantStressPlan['sense']>;
     const src = this.ctx.source;
     await src.rampTo(s.start);
     this.startSweep(s.points, `sense sweep ${s.start} → ${s.stop} V`);
+    let first: number | undefined;
+    let last: number | undefined;
     for (let k = 0; k < s.points; k++) {
       const v = s.start + ((s.stop - s.start) * k) / (s.points - 1);
       this.ctx.check();
       await src.step(v);
       const m = await src.measure();
       this.ctx.take(m, v);
+      const t = clock(m);
+      first ??= t;
+      last = t;
     }
     this.ctx.chain.endSweep(true);
+    return first !== undefined && last !== undefined ? { first, last } : undefined;
   }
 
   private finish(outcome: Outcome, criterion: string | undefined, reason: string, at: { voltage?: number; field?: number; charge?: number; time?: number; numbers?: Readonly<Record<string, number>> } = {}): StressOutcome {

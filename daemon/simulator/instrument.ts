@@ -91,7 +91,9 @@ export class SimulatedSmu {
   /** When the device's wear was last brought up to date (performance.now, ms). */
   private wearAt = performance.now();
   /** Reply elements of a reading (:FORM:ELEM): voltage and current, optionally a status word. */
-  elements: ('VOLT' | 'CURR' | 'STAT')[] = ['VOLT', 'CURR'];
+  elements: ('VOLT' | 'CURR' | 'TIME' | 'STAT')[] = ['VOLT', 'CURR'];
+  /** The instrument's clock: readings' TIME element is seconds since then (performance.now, ms). */
+  private readonly clockZero = performance.now();
   /** Source mode: a fixed level, or a list the instrument steps through itself after :INIT. */
   sourceMode: 'FIX' | 'LIST' = 'FIX';
   list: number[] = [];
@@ -260,8 +262,8 @@ export class SimulatedSmu {
     this.on(':FORMat:ELEMents', (a, q) => {
       if (q) return this.elements.join(',');
       const els = (a ?? '').split(',').map((x) => x.trim().toUpperCase().replace(/^(VOLT)AGE$|^(CURR)ENT$|^(STAT)US$/, '$1$2$3'));
-      if (els.length === 0 || els.some((e) => e !== 'VOLT' && e !== 'CURR' && e !== 'STAT')) throw new ScpiError(-224, 'Illegal parameter value');
-      this.elements = els as ('VOLT' | 'CURR' | 'STAT')[];
+      if (els.length === 0 || els.some((e) => e !== 'VOLT' && e !== 'CURR' && e !== 'TIME' && e !== 'STAT')) throw new ScpiError(-224, 'Illegal parameter value');
+      this.elements = els as ('VOLT' | 'CURR' | 'TIME' | 'STAT')[];
       return undefined;
     });
     this.on(':STATus:OPERation:CONDition', (_a, q) => (q ? String(this.sweeping ? SimulatedSmu.OPER_SWEEPING : 0) : undefined));
@@ -394,7 +396,7 @@ export class SimulatedSmu {
     const vMeas = v + (1e-5 * Math.abs(v) + 1e-5) * this.normal();
     this.readingsServed++;
     if (this.faults.readingReply !== undefined) return this.faults.readingReply;
-    return this.elements.map((e) => (e === 'VOLT' ? formatScpiNumber(vMeas) : e === 'CURR' ? formatScpiNumber(iMeas) : String(this.tripped ? SimulatedSmu.STATUS_COMPLIANCE : 0))).join(',');
+    return this.formatReading(vMeas, iMeas);
   }
 
   /** A reading in current mode: the forced current and the voltage it took (or the voltage compliance). */
@@ -409,7 +411,15 @@ export class SimulatedSmu {
     const vMeas = v + (1e-5 * Math.abs(v) + 1e-5) * this.normal();
     this.readingsServed++;
     if (this.faults.readingReply !== undefined) return this.faults.readingReply;
-    return this.elements.map((e) => (e === 'VOLT' ? formatScpiNumber(vMeas) : e === 'CURR' ? formatScpiNumber(iMeas) : String(this.tripped ? SimulatedSmu.STATUS_COMPLIANCE : 0))).join(',');
+    return this.formatReading(vMeas, iMeas);
+  }
+
+  /** A reading's elements in the order :FORM:ELEM chose; TIME is the instrument clock when it was taken, s. */
+  private formatReading(v: number, i: number): string {
+    const t = (this.wearAt - this.clockZero) / 1000;
+    return this.elements
+      .map((e) => (e === 'VOLT' ? formatScpiNumber(v) : e === 'CURR' ? formatScpiNumber(i) : e === 'TIME' ? formatScpiNumber(t) : String(this.tripped ? SimulatedSmu.STATUS_COMPLIANCE : 0)))
+      .join(',');
   }
 
   /** Whether the instrument has stopped answering (the hang fault). */

@@ -52,7 +52,7 @@ describe('a reading that carries its status word', () => {
     const r = await runCliAsync(['run', '--config', cfg, '--data', join(dir, 'data'), '--json']);
     expect(r.code, r.stderr).toBe(0);
     const res = JSON.parse(r.stdout);
-    expect(smu.log).toContain(':FORM:ELEM VOLT,CURR,STAT');
+    expect(smu.log).toContain(':FORM:ELEM VOLT,CURR,TIME,STAT');
     expect(smu.log.filter((l) => l === ':READ?')).toHaveLength(46);
     expect(smu.log.filter((l) => l.includes('TRIP'))).toEqual([]);
     const readings = journal(res.dir).filter((e): e is Extract<WireEvent, { type: 'reading' }> => e.type === 'reading');
