@@ -66,7 +66,7 @@ describe('synthetic recovery: forward model → noisy data → fit → known par
     const p = r.parameters.relativePermittivity;
     expect(Math.abs(p.value - 4)).toBeLessThan(3 * p.stdErr);
     expect(r.plausible).toBe(true);
-    expect(r.notes.join(' ')).toMatch(/close to n²/);
+    expect(r.notes.join(' ')).toMatch(/agrees with n²/);
   });
 
   it('schottky: ε_r = 2.13 and φ_B = 1.0 eV from slope and intercept', () => {
@@ -127,9 +127,12 @@ describe('synthetic recovery: forward model → noisy data → fit → known par
     const r = analyze({ x: v, y: i }, { model: 'ohmic', inputs: { thickness: d, area } });
     expect(approxEqual(r.parameters.resistance.value, 1e6, 0.01)).toBe(true);
     expect(approxEqual(r.parameters.conductivity.value, d / (1e6 * area), 0.01)).toBe(true);
-    // One polarity only: the negative half is excluded and counted, the zero point too.
-    expect(r.points.reasons['opposite polarity']).toBe(10);
+    // Both polarities carry signal: each branch is analysed on its own, the other one counted; the
+    // zero-bias reading belongs to neither.
+    expect(r.points.reasons['other polarity (analysed as its own branch)']).toBe(10);
     expect(r.points.reasons['zero bias']).toBe(1);
+    expect(r.branches.map((b) => b.polarity).sort()).toEqual(['negative', 'positive']);
+    for (const b of r.branches) expect(approxEqual(b.parameters.resistance.value, 1e6, 0.01)).toBe(true);
   });
 });
 
@@ -154,9 +157,11 @@ describe('points that cannot enter a transform are counted by reason', () => {
     const comp = [0, 0, 0, 0, 0, 0, 1, 0];
     const r = analyze({ x: v, y: i, compliance: comp }, { model: 'diode', complianceLimit: 1e-3 });
     expect(r.points.used).toBe(3);
+    // A reading of exactly zero is at the noise floor (whatever the floor is); the one of the other sign
+    // flows against the bias.
     expect(r.points.reasons).toEqual({
       'zero bias': 1,
-      'non-positive value under a log': 1,
+      'at the noise floor': 1,
       'current flows against the bias': 1,
       'at compliance': 2,
     });
