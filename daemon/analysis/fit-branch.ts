@@ -548,6 +548,15 @@ export function fitBranch(
   if (n < 3) {
     throw new AnalysisError('TOO_FEW_POINTS', `model '${mech.id}' has ${n} usable points of ${data.x.length}; excluded: ${describe(reasons)}`);
   }
+  let xmin = Infinity;
+  let xmax = -Infinity;
+  for (let k = 0; k < n; k++) {
+    if (p.x[k] < xmin) xmin = p.x[k];
+    if (p.x[k] > xmax) xmax = p.x[k];
+  }
+  if (!(xmax > xmin)) {
+    throw new AnalysisError('DEGENERATE_X', `all ${n} usable readings sit at one bias (${fmt(p.raw[0])}): a constant-stress series, not a sweep; there is no slope to fit`);
+  }
   let noise = weigh(mech, inputs, p, classes.noise);
   const weighted = !!mech.current;
   const absolute = request.absoluteNoise;

@@ -62,6 +62,21 @@ export function summarizeFit(r: FitReport): FitSummary {
   };
 }
 
+/**
+ * Whether every reading sits at one bias (a constant-stress interval): no curve to fit, and the
+ * analysis is skipped outright — a stress run's clock keeps running at the stress bias meanwhile.
+ */
+function atOneBias(v: readonly number[]): boolean {
+  if (v.length === 0) return true;
+  let lo = v[0];
+  let hi = v[0];
+  for (let k = 1; k < v.length; k++) {
+    if (v[k] < lo) lo = v[k];
+    else if (v[k] > hi) hi = v[k];
+  }
+  return hi - lo <= 1e-3 * Math.max(1, Math.abs(hi), Math.abs(lo));
+}
+
 /** Ranking runs at a sweep's end at most this often, and on sweeps up to this many points. */
 const RANKING_INTERVAL_MS = 1000;
 const RANKING_MAX_POINTS = 5000;
@@ -239,6 +254,7 @@ export class LiveChain {
   }
 
   private fitNow(v: number[], i: number[], c: number[], regimes = true): { fit: FitSummary | null; error?: string; report?: FitReport } {
+    if (atOneBias(v)) return { fit: null, error: 'every reading is at one bias (a constant-stress interval): there is no current–voltage curve to fit' };
     try {
       const report = analyze(this.data(v, i, c), this.request(regimes));
       return { fit: summarizeFit(report), report };
@@ -263,7 +279,7 @@ export class LiveChain {
   }
 
   private publishView(sweep: number, final: boolean, v: number[], i: number[], c: number[]): void {
-    if (!this.views$.observed) return;
+    if (!this.views$.observed || atOneBias(v)) return;
     try {
       const view = plotView(this.data(v, i, c), this.request(true));
       this.views$.next({ sweep, final, view });
@@ -274,7 +290,7 @@ export class LiveChain {
 
   private publishRanking(): void {
     const now = performance.now();
-    if (this.v.length > RANKING_MAX_POINTS || now - this.lastRankingAt < RANKING_INTERVAL_MS) return;
+    if (this.v.length > RANKING_MAX_POINTS || now - this.lastRankingAt < RANKING_INTERVAL_MS || atOneBias(this.v)) return;
     this.lastRankingAt = now;
     try {
       const r = rankMechanisms(this.data(this.v, this.i, this.c), {
