@@ -43,6 +43,11 @@ export interface FitRequest {
   readonly custom?: CustomSpec;
   /** Search the whole curve for regimes (default true; the live chain's fits skip it). */
   readonly regimes?: boolean;
+  /**
+   * A quick look (the live chain's fits while a sweep is still running): no window-choice
+   * uncertainty and no second window search; the sweep's final fit is always the full one.
+   */
+  readonly quick?: boolean;
   /** Analyse only this branch (+1 positive, −1 negative bias). */
   readonly polarity?: 1 | -1;
   /** Also analyse the other branch when it carries signal (default true). */
@@ -278,6 +283,7 @@ export function analyzeDetailed(data: IVData, request: FitRequest): DetailedFit 
     absoluteNoise: request.accuracy !== undefined,
     custom,
     columns: data.columns,
+    quick: request.quick === true,
   };
 
   // Which branches: the user's window decides, then a forced polarity, then the physics.

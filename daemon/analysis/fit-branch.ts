@@ -33,6 +33,8 @@ export interface BranchRequest {
   readonly absoluteNoise: boolean;
   readonly custom?: ReturnType<typeof compileCustom>;
   readonly columns?: Record<string, ArrayLike<number>>;
+  /** Skip the window-choice uncertainty and the refinement search (interim live fits). */
+  readonly quick?: boolean;
 }
 
 /** The fitted extra terms, in current units: leakage conductance G (A/V) and series resistance (Ω). */
@@ -609,7 +611,7 @@ export function fitBranch(
       const anchored = mech.superOhmic && !mech.series ? { ...search, anchor: (xRisesWithBias ? 'end' : 'start') as 'start' | 'end' } : undefined;
       let w0 = anchored ? searchWindow(q.x, q.y, yw, anchored) : searchWindow(q.x, q.y, yw, search);
       if (anchored && !w0.passed) w0 = searchWindow(q.x, q.y, yw, search);
-      if (weighted && w0.passed) {
+      if (weighted && w0.passed && !request.quick) {
         // One refinement: the relative noise from the window's own residuals, then the search again.
         const better = refineRelative(mech, inputs, q, noise, w0.start, w0.end);
         if (better) {
@@ -668,7 +670,7 @@ export function fitBranch(
 
   // ---- window-choice uncertainty --------------------------------------------------------------
   const qLine = q === p ? line : scaleLine(line, n / nq);
-  const windowErr = request.mode === 'all' ? {} : windowSpread(mech, inputs, q, s, e, joint, diode, qLine, absolute, weighted, all);
+  const windowErr = request.mode === 'all' || request.quick ? {} : windowSpread(mech, inputs, q, s, e, joint, diode, qLine, absolute, weighted, all);
   const parameters: Record<string, ParameterValue> = {};
   for (const [k, v] of Object.entries(extraction.parameters)) {
     const u = windowErr[k] ?? 0;

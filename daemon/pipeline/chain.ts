@@ -253,10 +253,10 @@ export class LiveChain {
     return { model: this.analysis.model, inputs: this.analysis.inputs, window: this.analysis.window, complianceLimit: this.options.complianceLimit, regimes };
   }
 
-  private fitNow(v: number[], i: number[], c: number[], regimes = true): { fit: FitSummary | null; error?: string; report?: FitReport } {
+  private fitNow(v: number[], i: number[], c: number[], regimes = true, quick = false): { fit: FitSummary | null; error?: string; report?: FitReport } {
     if (atOneBias(v)) return { fit: null, error: 'every reading is at one bias (a constant-stress interval): there is no current–voltage curve to fit' };
     try {
-      const report = analyze(this.data(v, i, c), this.request(regimes));
+      const report = analyze(this.data(v, i, c), { ...this.request(regimes), quick });
       return { fit: summarizeFit(report), report };
     } catch (e) {
       return { fit: null, error: (e as Error).message };
@@ -272,7 +272,7 @@ export class LiveChain {
   private publishFit(final: boolean): { fit: FitSummary | null } {
     // The regime search is left to the linearized view (computed only while a page watches): the
     // fit events carry the line and parameters, and the chain keeps its pace without a page.
-    const r = this.fitNow(this.v, this.i, this.c, false);
+    const r = this.fitNow(this.v, this.i, this.c, false, !final);
     this.emit({ type: 'fit', sweep: this.sweep, final, fit: r.fit, ...(r.error ? { error: r.error } : {}) });
     this.publishView(this.sweep, final, this.v, this.i, this.c);
     return r;
