@@ -114,10 +114,16 @@ export class WindowMoments {
 
   /** Weighted straight line through points start..end inclusive (undefined when degenerate). */
   line(start: number, end: number): RunLine | undefined {
+    const out = { n: 0, slope: 0, intercept: 0, chi2: 0, sxx: 0, sumW: 0, meanX: 0 };
+    return this.lineInto(start, end, out) ? out : undefined;
+  }
+
+  /** As line(), written into `out` (no allocation, for the window search's inner loop); false when degenerate. */
+  lineInto(start: number, end: number, out: { -readonly [K in keyof RunLine]: RunLine[K] }): boolean {
     const a = start;
     const b = end + 1;
     const S = this.s0[b] - this.s0[a];
-    if (!(S > 0)) return undefined;
+    if (!(S > 0)) return false;
     const Su = this.s1[b] - this.s1[a];
     const Suu = this.s2[b] - this.s2[a];
     const Sv = this.t0[b] - this.t0[a];
@@ -126,7 +132,7 @@ export class WindowMoments {
     const mu = Su / S;
     const mv = Sv / S;
     const cuu = Suu - Su * mu;
-    if (!(cuu > 1e-14 * Math.max(Suu, 1e-300))) return undefined;
+    if (!(cuu > 1e-14 * Math.max(Suu, 1e-300))) return false;
     const cuv = Suv - Su * mv;
     const cvv = Math.max(0, Svv - Sv * mv);
     const slopeUV = cuv / cuu;
@@ -134,25 +140,30 @@ export class WindowMoments {
     const slope = (slopeUV * this.ky) / this.kx;
     const meanX = this.cx + mu * this.kx;
     const meanY = this.cy + mv * this.ky;
-    return {
-      n: this.count(start, end),
-      slope,
-      intercept: meanY - slope * meanX,
-      chi2: chiUV * this.ky * this.ky,
-      sxx: cuu * this.kx * this.kx,
-      sumW: S,
-      meanX,
-    };
+    out.n = this.count(start, end);
+    out.slope = slope;
+    out.intercept = meanY - slope * meanX;
+    out.chi2 = chiUV * this.ky * this.ky;
+    out.sxx = cuu * this.kx * this.kx;
+    out.sumW = S;
+    out.meanX = meanX;
+    return true;
   }
 
   /** Weighted quadratic through start..end (undefined when degenerate or fewer than 4 points). */
   curvature(start: number, end: number): RunCurvature | undefined {
-    if (this.count(start, end) < 4) return undefined;
+    const out = { c2: 0, c2StdErr: 0, chi2: 0, sag: 0 };
+    return this.curvatureInto(start, end, out) ? out : undefined;
+  }
+
+  /** As curvature(), written into `out`; false when degenerate. */
+  curvatureInto(start: number, end: number, out: { -readonly [K in keyof RunCurvature]: RunCurvature[K] }): boolean {
+    if (this.count(start, end) < 4) return false;
     const a = start;
     const b = end + 1;
     // Centre on the run's weighted mean of u to keep the 3×3 system well conditioned.
     const S = this.s0[b] - this.s0[a];
-    if (!(S > 0)) return undefined;
+    if (!(S > 0)) return false;
     const m1 = (this.s1[b] - this.s1[a]) / S;
     const m2 = (this.s2[b] - this.s2[a]) / S;
     const m3 = (this.s3[b] - this.s3[a]) / S;
@@ -169,10 +180,10 @@ export class WindowMoments {
     const kv = muv - c * mv; // E[(u−c)(v−v̄)] with v centred below
     const k2v = mu2v - 2 * c * muv + c * c * mv - k2 * mv; // E[((u−c)² − k2)(v − v̄)]
     const kvv = mvv - mv * mv;
-    if (!(k2 > 1e-12)) return undefined;
+    if (!(k2 > 1e-12)) return false;
     // Orthogonal basis: 1, p1 = u − c, p2 = (u − c)² − (k3/k2)(u − c) − k2.
     const p2p2 = k4 - (k3 * k3) / k2 - k2 * k2;
-    if (!(p2p2 > 1e-14 * Math.max(k4, 1e-300))) return undefined;
+    if (!(p2p2 > 1e-14 * Math.max(k4, 1e-300))) return false;
     const vp2 = k2v - (k3 / k2) * kv;
     const g2 = vp2 / p2p2; // coefficient of p2 (= c2 in u units)
     const g1 = kv / k2;
@@ -187,6 +198,10 @@ export class WindowMoments {
     const uMin = c + k3 / (2 * k2);
     let sag = Math.max(Math.abs(p2at(uLo)), Math.abs(p2at(uHi)));
     if (uMin > Math.min(uLo, uHi) && uMin < Math.max(uLo, uHi)) sag = Math.max(sag, Math.abs(p2at(uMin)));
-    return { c2, c2StdErr, chi2: chiUV * this.ky * this.ky, sag: Math.abs(g2) * sag * this.ky };
+    out.c2 = c2;
+    out.c2StdErr = c2StdErr;
+    out.chi2 = chiUV * this.ky * this.ky;
+    out.sag = Math.abs(g2) * sag * this.ky;
+    return true;
   }
 }

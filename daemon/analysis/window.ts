@@ -107,6 +107,26 @@ export function testRun(m: WindowMoments, start: number, end: number, slopeSign?
   return mk(!bends, curvatureZ, sag, true, bends ? (explain ? `the points bend away from a straight line (curvature ${curvatureZ.toFixed(1)} standard errors)` : 'bends') : undefined);
 }
 
+const scratchLine = { n: 0, slope: 0, intercept: 0, chi2: 0, sxx: 0, sumW: 0, meanX: 0 };
+const scratchCurv = { c2: 0, c2StdErr: 0, chi2: 0, sag: 0 };
+
+/** testRun's verdict without allocating: the score (Σw(x − x̄)²) when the run passes, −1 otherwise. */
+function passScore(m: WindowMoments, start: number, end: number, slopeSign?: 1 | -1, admissible?: Admissible): number {
+  const line = scratchLine;
+  if (!m.lineInto(start, end, line) || line.n < 3) return -1;
+  if (slopeSign !== undefined && Math.sign(line.slope) !== slopeSign) return -1;
+  if (admissible && !admissible.ok(start, end, line.intercept, line.slope)) return -1;
+  const dof = line.n - 2;
+  if (line.chi2 > Math.max(chiSquareUpper(Math.max(1, dof), 3.090232306167813), 2 * dof)) return -1;
+  const curv = scratchCurv;
+  if (m.curvatureInto(start, end, curv)) {
+    const s2 = line.n > 3 ? Math.max(1, curv.chi2 / (line.n - 3)) : 1;
+    const z = curv.c2StdErr > 0 ? Math.abs(curv.c2) / (curv.c2StdErr * Math.sqrt(s2)) : 0;
+    if (z > Z_CURVATURE && curv.sag > 0.05 * Math.sqrt(line.n / line.sumW)) return -1;
+  }
+  return line.sxx;
+}
+
 /**
  * The best admissible window over points sorted by x. When no run passes, the run of at least
  * `minPoints` with the smallest χ² per degree of freedom comes back with passed = false.
@@ -123,17 +143,30 @@ export function searchWindow(x: Numbers, y: Numbers, w: Numbers, options: Search
   let best: { s: number; e: number; score: number } | undefined;
   let fallback: { s: number; e: number; q: number } | undefined;
   for (let i = 0; i < M; i++) {
-    for (let j = i + 1; j <= M; j++) {
+    if (options.anchor === 'start' && i > 0) break;
+    for (let j = options.anchor === 'end' ? M : i + 1; j <= M; j++) {
       const s = grid[i];
       const e = grid[j] - 1;
       if (e - s + 1 < minP) continue;
-      if ((options.anchor === 'start' && s !== 0) || (options.anchor === 'end' && e !== n - 1)) continue;
-      const t = testRun(m, s, e, options.slopeSign, options.admissible, false);
-      if (t.passed) {
-        if (!best || t.score > best.score) best = { s, e, score: t.score };
-      } else if (!best && t.slopeOk && t.dof > 0) {
-        const q = t.chi2 / t.dof + (t.curvatureZ > Z_CURVATURE ? t.curvatureZ : 0);
-        if (!fallback || q < fallback.q) fallback = { s, e, q };
+      const score = passScore(m, s, e, options.slopeSign, options.admissible);
+      if (score >= 0) {
+        if (!best || score > best.score) best = { s, e, score };
+      }
+    }
+  }
+  if (!best) {
+    // Nothing passes: the least bad run for the report (χ² per degree of freedom, curvature).
+    for (let i = 0; i < M; i++) {
+      for (let j = i + 1; j <= M; j++) {
+        const s = grid[i];
+        const e = grid[j] - 1;
+        if (e - s + 1 < minP) continue;
+        if ((options.anchor === 'start' && s !== 0) || (options.anchor === 'end' && e !== n - 1)) continue;
+        const t = testRun(m, s, e, options.slopeSign, options.admissible, false);
+        if (t.slopeOk && t.dof > 0) {
+          const q = t.chi2 / t.dof + (t.curvatureZ > Z_CURVATURE ? t.curvatureZ : 0);
+          if (!fallback || q < fallback.q) fallback = { s, e, q };
+        }
       }
     }
   }
@@ -149,18 +182,18 @@ export function searchWindow(x: Numbers, y: Numbers, w: Numbers, options: Search
     let moved = false;
     for (let s2 = Math.max(0, s - cell); s2 <= Math.min(e - minP + 1, s + cell); s2++) {
       if (s2 === s || options.anchor === 'start') continue;
-      const t = testRun(m, s2, e, options.slopeSign, options.admissible, false);
-      if (t.passed && t.score > bestScore) {
-        bestScore = t.score;
+      const score = passScore(m, s2, e, options.slopeSign, options.admissible);
+      if (score > bestScore) {
+        bestScore = score;
         s = s2;
         moved = true;
       }
     }
     for (let e2 = Math.max(s + minP - 1, e - cell); e2 <= Math.min(n - 1, e + cell); e2++) {
       if (e2 === e || options.anchor === 'end') continue;
-      const t = testRun(m, s, e2, options.slopeSign, options.admissible, false);
-      if (t.passed && t.score > bestScore) {
-        bestScore = t.score;
+      const score = passScore(m, s, e2, options.slopeSign, options.admissible);
+      if (score > bestScore) {
+        bestScore = score;
         e = e2;
         moved = true;
       }
