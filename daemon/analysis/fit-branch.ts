@@ -90,8 +90,8 @@ function runningMedian(values: Float64Array): Float64Array {
   const out = new Float64Array(n);
   const buf = [0, 0, 0, 0, 0];
   for (let j = 0; j < n; j++) {
-    const a = j - 2 < 0 ? 0 : j - 2;
-    const b = j + 2 > n - 1 ? n - 1 : j + 2;
+    const a = Math.max(0, j - 2);
+    const b = Math.min(n - 1, j + 2);
     const m = b - a + 1;
     // Insertion sort of at most five values.
     for (let q = 0; q < m; q++) {
@@ -589,7 +589,7 @@ export function fitBranch(
       }
     }
     if (first < 0 || last - first + 1 < 3) {
-      throw new AnalysisError('TOO_FEW_POINTS', `the fit window ${fmt(lo)} to ${fmt(hi)} holds ${first < 0 ? 0 : last - first + 1} usable points of this ${branch ? (branch.sign > 0 ? 'positive' : 'negative') + ' branch' : 'curve'}; a line needs at least 3 (excluded: ${describe(reasons)})`, 'window');
+      throw new AnalysisError('TOO_FEW_POINTS', `the fit window ${fmt(lo)} to ${fmt(hi)} holds ${first < 0 ? 0 : last - first + 1} usable points of this ${branch ? `${branch.sign > 0 ? 'positive' : 'negative'} branch` : 'curve'}; a line needs at least 3 (excluded: ${describe(reasons)})`, 'window');
     }
     fullRange = [first, last];
     s = lowerIndex(qi, first);

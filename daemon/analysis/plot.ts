@@ -5,7 +5,7 @@
  * the residuals against the fitted model (in the fitted logarithmic or linear units), and the
  * regimes. The page only draws these numbers.
  */
-import { analyzeDetailed, type FitRequest, type IVData } from './analyze.js';
+import { analyzeDetailed, type DetailedFit, type FitRequest, type IVData } from './analyze.js';
 import { AnalysisError } from './errors.js';
 import type { AxisSpec } from './mechanism.js';
 import { getMechanism } from './mechanisms/index.js';
@@ -37,7 +37,7 @@ export function plotView(data: IVData, request: FitRequest): PlotView {
   const axes = mech.axes(inputs);
   const dx = (x: number) => (axes.x.kind === 'log' ? Math.exp(x) : x);
   const dy = (y: number) => (axes.y.kind === 'log' ? Math.exp(y) : y);
-  let detailed;
+  let detailed: DetailedFit;
   try {
     detailed = analyzeDetailed(data, { ...request, regimes: request.regimes ?? true, eachBranch: false });
   } catch (e) {

@@ -134,7 +134,7 @@ export function classifySweep(data: SweepData, options: ClassifyOptions = {}): S
     const v = data.x[k];
     const i = data.y[k];
     if (!Number.isFinite(v) || !Number.isFinite(i)) excluded[k] = REASONS.notFinite;
-    else if ((data.compliance && data.compliance[k]) || (limit !== undefined && Math.abs(i) >= 0.99 * limit)) excluded[k] = REASONS.compliance;
+    else if (data.compliance?.[k] || (limit !== undefined && Math.abs(i) >= 0.99 * limit)) excluded[k] = REASONS.compliance;
     else if (Math.abs(v - vfb) <= zeroTol) excluded[k] = REASONS.zeroBias;
   }
   // Branch membership by the sign of the bias.

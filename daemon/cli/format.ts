@@ -46,7 +46,7 @@ export function formatFit(r: FitReport): string {
   }
   for (const b of r.branches.slice(1)) {
     const ps = Object.entries(b.parameters).map(([k, p]) => `${k} ${withParts(p, k)}`).join('; ');
-    out.push(`${b.polarity} branch: ${b.points} points, ${num(b.window.from)} to ${num(b.window.to)}: ${ps}${b.plausible ? '' : ' (implausible: ' + b.warnings.join('; ') + ')'}`);
+    out.push(`${b.polarity} branch: ${b.points} points, ${num(b.window.from)} to ${num(b.window.to)}: ${ps}${b.plausible ? '' : ` (implausible: ${b.warnings.join('; ')})`}`);
   }
   if (Object.keys(r.inputs).length) out.push(`inputs:     ${formatInputs(r.inputs)}`);
   if (r.regimes.length > 1) {
