@@ -91,6 +91,8 @@ export class LiveChain {
   private inputs: ResolvedInputs;
   private area = 1;
   private drift: DriftChart | undefined;
+  /** The parameter the drift chart's baseline belongs to (a new one restarts the baseline). */
+  private driftParameter: string | undefined;
   private readonly breakdown: BreakdownWatch | undefined;
   // Current sweep.
   private sweep = 0;
@@ -330,6 +332,11 @@ export class LiveChain {
     const cfg = this.options.drift;
     const name = cfg.parameter ?? (fit ? Object.keys(fit.parameters)[0] : undefined);
     if (name === undefined) return undefined;
+    if (this.driftParameter !== undefined && name !== this.driftParameter) {
+      // Another parameter (another model): its values are not comparable with the old baseline.
+      this.drift = new DriftChart(cfg);
+    }
+    this.driftParameter = name;
     const p = fit?.parameters[name];
     const point = this.drift.add(p?.value, p?.stdErr);
     this.emit({ type: 'drift', sweep: this.sweep, parameter: name, value: p?.value ?? null, method: cfg.method, ...point });
@@ -362,6 +369,11 @@ export class LiveChain {
   setAnalysis(a: AnalysisSettings, source: string): void {
     const mech = getMechanism(a.model);
     const inputs = resolveInputs(mech, a.inputs);
+    if (this.drift && (a.model !== this.analysis.model || JSON.stringify(a.inputs) !== JSON.stringify(this.analysis.inputs))) {
+      // Another model, or other inputs to it: the charted values change meaning, so the baseline starts again.
+      this.drift = new DriftChart(this.options.drift);
+      this.driftParameter = undefined;
+    }
     this.analysis = a;
     this.mech = mech;
     this.inputs = inputs;

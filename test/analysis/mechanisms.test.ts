@@ -1,7 +1,7 @@
 /**
  * Each mechanism: its forward model against published check values, then synthetic data from the
  * forward model with known parameters and 1–2 % noise, fitted back. Check values are the ones in the
- * project's physics reference, computed from CODATA 2018 with the formulas of the sources named.
+ * formulas of the sources named, computed from CODATA 2018 values.
  */
 import { describe, expect, it } from 'vitest';
 import { analyze, resolveInputs } from '../../daemon/analysis/analyze.js';
@@ -19,7 +19,7 @@ import { sweep, withNoise } from '../helpers/synthetic.js';
 
 describe('forward models against published check values', () => {
   // Lenzlinger & Snow (1969) form with Forbes' constants; φ = 3.2 eV, m_r = 0.42:
-  // J(10 MV/cm) = 1.13e-3 A/cm², J(8 MV/cm) = 1.29e-6 A/cm² (physics reference §1, computed).
+  // J(10 MV/cm) = 1.13e-3 A/cm², J(8 MV/cm) = 1.29e-6 A/cm² (computed from CODATA 2018 with Forbes' constants).
   it('Fowler–Nordheim current density at 10 and 8 MV/cm', () => {
     expect(approxEqual(fowlerNordheim(1e9, 3.2, 0.42) * 1e-4, 1.13e-3, 5e-3)).toBe(true);
     expect(approxEqual(fowlerNordheim(8e8, 3.2, 0.42) * 1e-4, 1.29e-6, 5e-3)).toBe(true);
