@@ -1,9 +1,12 @@
 /**
- * Quantities typed by people ("8 nm", "1e-4 cm^2", "300 K", "25 degC") read through mathjs units
- * and returned as SI numbers. A bare number is taken as SI. The error names the setting.
+ * Quantities typed by people ("8 nm", "1e-4 cm^2", "300 K", "25 degC") returned as SI numbers. A
+ * bare number is taken as SI. The units of the trade are read by our own small reader
+ * (unit-parser.ts, mathjs's grammar and arithmetic); anything else goes to mathjs units, with the
+ * same results. The error names the setting and the kind of quantity expected.
  */
 import { createRequire } from 'node:module';
 import type { Unit } from 'mathjs';
+import { type ParsedQuantity, readQuantity, sameDimensions, valueIn } from './unit-parser.js';
 
 // mathjs takes most of a second to load; only quantities written with units need it.
 const lazyRequire = createRequire(import.meta.url);
@@ -33,11 +36,26 @@ export class QuantityError extends Error {
 
 const BARE = /^[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?$/;
 
+const targets = new Map<string, ParsedQuantity>();
+function target(si: string): ParsedQuantity {
+  let q = targets.get(si);
+  if (q === undefined) targets.set(si, (q = readQuantity(`1 ${si}`)!));
+  return q;
+}
+
 export function parseQuantity(text: string, kind: QuantityKind, setting: string): number {
   const t = text.trim();
   if (BARE.test(t)) return Number(t);
   if (kind === 'number') throw new QuantityError(setting, `${setting} '${text}': expected a plain number`);
   const ref = REFERENCE[kind];
+  const own = readQuantity(t);
+  if (own !== undefined) {
+    const si = target(ref.si);
+    if (!sameDimensions(own.dims, si.dims)) throw new QuantityError(setting, `${setting} '${text}': expected a ${kind} (e.g. "${ref.example}")`);
+    const v = valueIn(own, si);
+    if (!Number.isFinite(v)) throw new QuantityError(setting, `${setting} '${text}': not a finite value`);
+    return v;
+  }
   let u: Unit;
   try {
     u = unit(t);

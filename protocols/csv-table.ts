@@ -3,6 +3,8 @@
  * Comma, semicolon or tab separated (taken from the header line); lines starting with '#' and
  * blank lines are skipped. Every error names the file, the line and the column.
  */
+import { isAsciiBlank, type ScanCursor, scanDecimal } from './csv-scan.js';
+
 export class CsvError extends Error {
   readonly code = 'CSV_MALFORMED';
   constructor(
@@ -22,7 +24,7 @@ export interface CsvTable {
   /** One array per column, in header order. */
   readonly columns: Float64Array[];
   /** Source line (1-based) of each data row. */
-  readonly lines: number[];
+  readonly lines: Int32Array;
   /**
    * The first cell of each column that is not a number (its line and text), or undefined: text
    * columns (a session name, a comment) are allowed as long as nothing uses them as numbers.
@@ -66,45 +68,151 @@ export function splitFields(line: string, delimiter: string): string[] {
   return out;
 }
 
-/** `minColumns`: 2 for x–y data (the default); 1 for a list of values. */
-export function parseCsvTable(text: string, file: string, minColumns = 2): CsvTable {
-  const rawLines = text.split(/\r?\n/);
-  let headerAt = -1;
-  for (let i = 0; i < rawLines.length; i++) {
-    const t = rawLines[i].trim();
+const utf8 = new TextDecoder('utf-8', { ignoreBOM: true });
+const NEWLINE = 10;
+const QUOTE = 34;
+const HASH = 35;
+
+/**
+ * `minColumns`: 2 for x–y data (the default); 1 for a list of values. Takes the file's text or,
+ * faster, its bytes (UTF-8): data lines are scanned byte by byte straight into typed arrays; a
+ * line with a double quote or a non-ASCII byte is decoded and split as text, with the same result.
+ */
+export function parseCsvTable(input: string | Uint8Array, file: string, minColumns = 2): CsvTable {
+  const bytes = typeof input === 'string' ? new TextEncoder().encode(input) : input;
+  const size = bytes.length;
+  // The header: the first line that is neither blank nor a comment.
+  let pos = 0;
+  let lineNo = 0;
+  let headerLine: string | undefined;
+  while (pos < size || (pos === size && lineNo === 0)) {
+    const end = lineEnd(bytes, pos);
+    lineNo++;
+    const text = decodeLine(bytes, pos, end);
+    pos = end + 1;
+    const t = text.trim();
     if (t === '' || t.startsWith('#')) continue;
-    headerAt = i;
+    headerLine = text;
     break;
   }
-  if (headerAt < 0) throw new CsvError(file, undefined, undefined, 'the file is empty: expected a header row and data rows');
-  const delimiter = detectDelimiter(rawLines[headerAt]);
-  const headers = splitFields(rawLines[headerAt], delimiter).map((h) => h.trim());
+  if (headerLine === undefined) throw new CsvError(file, undefined, undefined, 'the file is empty: expected a header row and data rows');
+  const headerAt = lineNo;
+  const delimiter = detectDelimiter(headerLine);
+  const headers = splitFields(headerLine, delimiter).map((h) => h.trim());
   if (headers.length < minColumns) {
-    throw new CsvError(file, headerAt + 1, undefined, `the header row has ${headers.length} column; at least ${minColumns} (x and y) are needed`);
+    throw new CsvError(file, headerAt, undefined, `the header row has ${headers.length} column; at least ${minColumns} (x and y) are needed`);
   }
   headers.forEach((h, k) => {
-    if (h === '') throw new CsvError(file, headerAt + 1, `#${k + 1}`, 'empty column name in the header row');
-    if (NUMBER.test(h)) throw new CsvError(file, headerAt + 1, h, 'the first row looks like data; a header row with column names is required');
+    if (h === '') throw new CsvError(file, headerAt, `#${k + 1}`, 'empty column name in the header row');
+    if (NUMBER.test(h)) throw new CsvError(file, headerAt, h, 'the first row looks like data; a header row with column names is required');
   });
-  const cols: number[][] = headers.map(() => []);
-  const lines: number[] = [];
+
+  // Room for every remaining line (grown if the estimate falls short, trimmed at the end).
+  let capacity = Math.max(16, Math.ceil((size - pos) / 8));
+  const width = headers.length;
+  let cols = headers.map(() => new Float64Array(capacity));
+  let lines = new Int32Array(capacity);
   const firstText: CsvTable['firstText'] = headers.map(() => undefined);
-  for (let i = headerAt + 1; i < rawLines.length; i++) {
-    const t = rawLines[i].trim();
-    if (t === '' || t.startsWith('#')) continue;
-    const fields = splitFields(rawLines[i], delimiter);
-    if (fields.length !== headers.length) {
-      throw new CsvError(file, i + 1, undefined, `expected ${headers.length} fields (${headers.join(', ')}), found ${fields.length}`);
+  const sep = delimiter.charCodeAt(0);
+  const at: ScanCursor = { end: 0 };
+  let rows = 0;
+  const textLine = (start: number, end: number) => {
+    const line = decodeLine(bytes, start, end);
+    const t = line.trim();
+    if (t === '' || t.startsWith('#')) return;
+    const fields = splitFields(line, delimiter);
+    if (fields.length !== width) {
+      throw new CsvError(file, lineNo, undefined, `expected ${width} fields (${headers.join(', ')}), found ${fields.length}`);
     }
-    for (let k = 0; k < headers.length; k++) {
+    for (let k = 0; k < width; k++) {
       const v = parseNumberField(fields[k]);
-      if (Number.isNaN(v) && firstText[k] === undefined) firstText[k] = { line: i + 1, text: fields[k].trim() };
-      cols[k].push(v);
+      if (Number.isNaN(v) && firstText[k] === undefined) firstText[k] = { line: lineNo, text: fields[k].trim() };
+      cols[k][rows] = v;
     }
-    lines.push(i + 1);
+    lines[rows++] = lineNo;
+  };
+  /** A blank byte inside a line (the delimiter is a field boundary even when it is a tab). */
+  const blank = (c: number) => c !== sep && isAsciiBlank(c) && c !== NEWLINE;
+
+  while (pos < size) {
+    lineNo++;
+    if (rows === capacity) {
+      capacity = Math.ceil(capacity * 1.5);
+      cols = cols.map((c) => grow(c, capacity));
+      lines = grow(lines, capacity);
+    }
+    const start = pos;
+    // Blank or comment line? (Decided on ASCII; anything else is left to the text path.)
+    let j = start;
+    while (j < size && bytes[j] !== NEWLINE && isAsciiBlank(bytes[j])) j++;
+    if (j === size || bytes[j] === NEWLINE || bytes[j] === HASH) {
+      pos = lineEnd(bytes, j) + 1;
+      continue;
+    }
+    // Fields: a number read in place, blanks around it; anything else is a text field, and a
+    // double quote or a non-ASCII byte sends the whole line to the text path.
+    let k = 0;
+    let i = start;
+    let slow = bytes[j] >= 128;
+    while (!slow) {
+      const fieldStart = i;
+      while (i < size && blank(bytes[i])) i++;
+      let v = scanDecimal(bytes, i, size, at);
+      i = at.end;
+      while (i < size && blank(bytes[i])) i++;
+      let c = i < size ? bytes[i] : NEWLINE;
+      if (c !== sep && c !== NEWLINE) v = Number.NaN;
+      if (Number.isNaN(v)) {
+        // Text: find the field's end.
+        while (c !== sep && c !== NEWLINE && c !== QUOTE && c < 128) c = ++i < size ? bytes[i] : NEWLINE;
+        if (c === QUOTE || c >= 128) {
+          slow = true;
+          break;
+        }
+        if (k < width && firstText[k] === undefined) firstText[k] = { line: lineNo, text: latin1(bytes, fieldStart, i).trim() };
+      }
+      if (k < width) cols[k][rows] = v;
+      k++;
+      i++;
+      if (c === NEWLINE) break;
+    }
+    if (slow) {
+      const end = lineEnd(bytes, i);
+      textLine(start, end);
+      pos = end + 1;
+      continue;
+    }
+    if (k !== width) throw new CsvError(file, lineNo, undefined, `expected ${width} fields (${headers.join(', ')}), found ${k}`);
+    lines[rows++] = lineNo;
+    pos = i;
   }
-  if (lines.length === 0) throw new CsvError(file, undefined, undefined, 'no data rows after the header');
-  return { file, headers, columns: cols.map((c) => Float64Array.from(c)), lines, firstText };
+  if (rows === 0) throw new CsvError(file, undefined, undefined, 'no data rows after the header');
+  // Keep the arrays when they are mostly full; copy when comment lines left much of them empty.
+  const trim = <T extends Float64Array | Int32Array>(a: T): T => (rows > capacity / 2 ? a.subarray(0, rows) : a.slice(0, rows)) as T;
+  return { file, headers, columns: cols.map(trim), lines: trim(lines), firstText };
+}
+
+/** Index of the newline ending the line that starts at `from` (or the end of the bytes). */
+function lineEnd(bytes: Uint8Array, from: number): number {
+  const i = bytes.indexOf(NEWLINE, from);
+  return i < 0 ? bytes.length : i;
+}
+
+/** One line as text, without its line break (a CR before the LF is part of the break). */
+function decodeLine(bytes: Uint8Array, start: number, end: number): string {
+  return utf8.decode(bytes.subarray(start, end > start && bytes[end - 1] === 13 && end < bytes.length ? end - 1 : end));
+}
+
+function grow<T extends Float64Array | Int32Array>(a: T, capacity: number): T {
+  const b = new (a.constructor as new (n: number) => T)(capacity);
+  b.set(a);
+  return b;
+}
+
+function latin1(bytes: Uint8Array, start: number, end: number): string {
+  let s = '';
+  for (let i = start; i < end; i++) s += String.fromCharCode(bytes[i]);
+  return s;
 }
 
 /** Throws, naming the file, line and column, if column k holds a cell that is not a number. */

@@ -1,18 +1,24 @@
 /**
- * One I–V dataset through one mechanism: points mapped into the mechanism's coordinates (each
- * point that cannot enter is counted by reason), window chosen (manual, automatic or all), line
- * fitted, parameters extracted, regimes found. The result is the report `plumbline fit` prints and
- * the live chain publishes.
+ * One I–V dataset through one mechanism, as it came off the instrument: readings sorted into
+ * floor, compliance, zero bias and the two branches of bias (sweep-points.ts), each branch that
+ * carries signal fitted on its own (fit-branch.ts: window automatic by default, manual, or every
+ * usable point; weights from the noise model; leakage and series terms where they matter; the
+ * window-choice uncertainty), parameters extracted, regimes found. The result is the report
+ * `plumbline fit` prints and the live chain publishes.
  */
-import { pointWeight, type AccuracySpec } from './accuracy.js';
+import type { AccuracySpec } from './accuracy.js';
 import { RICHARDSON_FREE_A_PER_M2_K2 } from './constants.js';
 import { AnalysisError } from './errors.js';
-import { fitLine, type LineFit } from './line-fit.js';
+import { describe, fitBranch, type BranchFit, type WindowMode } from './fit-branch.js';
 import type { AxisSpec, FitPoints, Inputs, InputName, Mechanism, ParameterValue, ResolvedInputs } from './mechanism.js';
-import { compileCustom, customMechanism, evalNumber, type CustomSpec } from './mechanisms/custom.js';
+import { fmt } from './mechanism.js';
+import { compileCustom, customMechanism, type CustomSpec } from './mechanisms/custom.js';
 import { getMechanism } from './mechanisms/index.js';
+import { floorLevel, type NoiseModel } from './noise-floor.js';
 import { segmentLine } from './segmentation.js';
-import { autoWindow } from './window.js';
+import { chooseBranches, classifySweep, REASONS, type Branch, type SweepClasses } from './sweep-points.js';
+
+export { REASONS } from './sweep-points.js';
 
 /** One dataset: the x column (bias in V, or temperature in K), the y column (current, A). */
 export interface IVData {
@@ -29,13 +35,25 @@ export type WindowRequest = { readonly from?: number; readonly to?: number } | '
 export interface FitRequest {
   readonly model: string;
   readonly inputs?: Inputs;
+  /** Default: 'auto' for mechanisms of the current, 'all' for raw columns, temperatures and custom transforms. */
   readonly window?: WindowRequest;
   readonly accuracy?: AccuracySpec;
   /** Readings with |I| ≥ 0.99·limit are treated as at compliance (common practice). */
   readonly complianceLimit?: number;
   readonly custom?: CustomSpec;
-  /** Search the whole curve for regimes (default true; the live chain's interim fits skip it). */
+  /** Search the whole curve for regimes (default true; the live chain's fits skip it). */
   readonly regimes?: boolean;
+  /**
+   * A quick look (the live chain's fits while a sweep is still running): no window-choice
+   * uncertainty and no second window search; the sweep's final fit is always the full one.
+   */
+  readonly quick?: boolean;
+  /** Analyse only this branch (+1 positive, −1 negative bias). */
+  readonly polarity?: 1 | -1;
+  /** Also analyse the other branch when it carries signal (default true). */
+  readonly eachBranch?: boolean;
+  /** A classification made earlier for the same data and settings (ranking reuses one). */
+  readonly classes?: SweepClasses;
 }
 
 export interface Regime {
@@ -47,11 +65,32 @@ export interface Regime {
   readonly n: number;
 }
 
+export interface NoiseReport {
+  /** σ of a reading at zero current, A. */
+  readonly floor: number;
+  /** Readings with |I| below this are at the noise floor, A. */
+  readonly floorLevel: number;
+  readonly floorSource: NoiseModel['floorSource'];
+  readonly floorReadings: number;
+  /** Relative σ of a reading (fraction), on this mechanism's plot. */
+  readonly relative: number;
+  readonly relativeSource: NoiseModel['relativeSource'];
+}
+
+export interface BranchSummary {
+  readonly polarity: 'positive' | 'negative';
+  readonly points: number;
+  readonly window: { from: number; to: number };
+  readonly parameters: Record<string, ParameterValue>;
+  readonly plausible: boolean;
+  readonly warnings: string[];
+}
+
 export interface FitReport {
   readonly model: string;
   readonly title: string;
   readonly points: { used: number; excluded: number; reasons: Record<string, number> };
-  readonly window: { from: number; to: number; mode: 'all' | 'manual' | 'auto' };
+  readonly window: { from: number; to: number; mode: WindowMode };
   readonly line: {
     slope: number;
     slopeStdErr: number;
@@ -70,20 +109,21 @@ export interface FitReport {
   readonly plausible: boolean;
   readonly inputs: Record<string, { value: number; assumed: boolean }>;
   readonly regimes: Regime[];
+  readonly noise: NoiseReport;
+  /** The branch of bias this report is about (null for raw columns and temperatures). */
+  readonly branch: 'positive' | 'negative' | null;
+  /** Every branch analysed, this report's first. */
+  readonly branches: BranchSummary[];
 }
 
-/** Points excluded for these reasons are counted under these names in every report. */
-export const REASONS = {
-  notFinite: 'not a finite number',
-  compliance: 'at compliance',
-  zeroBias: 'zero bias',
-  oppositePolarity: 'opposite polarity',
-  againstBias: 'current flows against the bias',
-  nonPositiveLog: 'non-positive value under a log',
-  nonPositiveTemperature: 'non-positive temperature',
-  expression: 'expression not a finite number',
-  outsideWindow: 'outside the fit window',
-} as const;
+/** A report together with the points and fit behind it (for plots, ranking and the live chain). */
+export interface DetailedFit {
+  readonly report: FitReport;
+  readonly mechanism: Mechanism;
+  readonly inputs: ResolvedInputs;
+  readonly fit: BranchFit;
+  readonly classes: SweepClasses;
+}
 
 /** Applies defaults (300 K, m* / m₀ = 0.5, V_FB = 0, free-electron A*) and checks required inputs. */
 export function resolveInputs(mech: Mechanism, inputs: Inputs = {}): ResolvedInputs {
@@ -136,16 +176,11 @@ const ASSUMED_TEXT: Partial<Record<InputName, string>> = {
   richardson: 'Richardson constant not given: the free-electron value 1.2017e6 A/(m^2 K^2) assumed',
 };
 
-interface Prepared {
-  readonly all: FitPoints;
-  readonly reasons: Record<string, number>;
-}
-
 /**
  * One reading into the mechanism's coordinates (x, y, and the bias as the mechanism sees it), written
  * into `out`; returns the exclusion reason instead when the point cannot enter. `sign` is the
  * polarity the 'magnitude' mechanisms accept (+1 or −1); `area` divides the current (1 for none).
- * The live chain calls this per point; preparePoints calls it for whole datasets.
+ * The live chain calls this per point.
  */
 export function transformPoint(
   mech: Mechanism,
@@ -162,9 +197,9 @@ export function transformPoint(
     const b = (rawX - inputs.flatBand) * sign;
     if (b === 0) return REASONS.zeroBias;
     if (b < 0) return REASONS.oppositePolarity;
-    if (rawY * sign < 0) return REASONS.againstBias;
+    if (rawY * sign < 0 && mech.yKind === 'log') return REASONS.againstBias;
     bias = b;
-    j = Math.abs(rawY);
+    j = rawY * sign;
   } else if (mech.bias === 'temperature' && !(rawX > 0)) {
     return REASONS.nonPositiveTemperature;
   }
@@ -175,7 +210,7 @@ export function transformPoint(
     const mag = mech.bias === 'raw' ? Math.abs(j) : j;
     if (!(mag > 0)) return REASONS.nonPositiveLog;
     y = Math.log(mag) - (mech.lnOffset ? mech.lnOffset(bias, inputs) : 0);
-  } else y = j;
+  } else y = j / (mech.linearScale ? mech.linearScale(bias, inputs) : 1);
   if (!Number.isFinite(x) || !Number.isFinite(y)) return REASONS.notFinite;
   out.x = x;
   out.y = y;
@@ -185,130 +220,14 @@ export function transformPoint(
 
 /**
  * The current a fitted line predicts at a bias (inverse of transformPoint), in A: for log mechanisms
- * area·exp(a + b·x + lnOffset), for linear ones area·(a + b·x). Magnitude for 'magnitude' mechanisms.
+ * area·exp(a + b·x + lnOffset), for linear ones area·(a + b·x)·linearScale. Magnitude for 'magnitude'
+ * mechanisms.
  */
 export function predictCurrent(mech: Mechanism, inputs: ResolvedInputs, slope: number, intercept: number, bias: number, area: number): number {
   const x = mech.x(bias, inputs);
   const y = intercept + slope * x;
   if (mech.yKind === 'log') return area * Math.exp(y + (mech.lnOffset ? mech.lnOffset(bias, inputs) : 0));
-  return area * y;
-}
-
-/**
- * Maps every reading into the mechanism's coordinates. Points that cannot enter are counted under
- * a reason; the survivors come back sorted by x.
- */
-export function preparePoints(
-  mech: Mechanism,
-  data: IVData,
-  inputs: ResolvedInputs,
-  options: { accuracy?: AccuracySpec; complianceLimit?: number; custom?: CustomSpec } = {},
-): Prepared {
-  const n = data.x.length;
-  if (data.y.length !== n) throw new AnalysisError('BAD_INPUT', `x and y columns differ in length (${n}, ${data.y.length})`);
-  const reasons: Record<string, number> = {};
-  const count = (r: string) => (reasons[r] = (reasons[r] ?? 0) + 1);
-  const xs: number[] = [];
-  const ys: number[] = [];
-  const ws: number[] = [];
-  const vs: number[] = [];
-  const raws: number[] = [];
-  const cur: number[] = [];
-
-  // Polarity for the 'magnitude' mechanisms: the sign most of the biased points share.
-  let pos = 0;
-  let neg = 0;
-  if (mech.bias === 'magnitude') {
-    for (let i = 0; i < n; i++) {
-      const b = data.x[i] - inputs.flatBand;
-      if (b > 0) pos++;
-      else if (b < 0) neg++;
-    }
-  }
-  const sign = neg > pos ? -1 : 1;
-  const compiled = options.custom ? compileCustom(options.custom) : undefined;
-  const cols = data.columns ?? {};
-  const area = mech.usesArea && inputs.area !== undefined ? inputs.area : 1;
-  const limit = options.complianceLimit;
-  const out = { x: 0, y: 0, bias: 0 };
-
-  for (let i = 0; i < n; i++) {
-    const rawX = data.x[i];
-    const rawY = data.y[i];
-    if (!Number.isFinite(rawX) || !Number.isFinite(rawY)) {
-      count(REASONS.notFinite);
-      continue;
-    }
-    if ((data.compliance?.[i]) || (limit !== undefined && Math.abs(rawY) >= 0.99 * limit)) {
-      count(REASONS.compliance);
-      continue;
-    }
-    let x: number;
-    let y: number;
-    let bias = rawX;
-    if (compiled) {
-      const scope: Record<string, number> = {};
-      for (const k of Object.keys(cols)) scope[k] = cols[k][i];
-      const cx = evalNumber(compiled.x, scope);
-      const cy = evalNumber(compiled.y, scope);
-      if (cx === undefined || cy === undefined) {
-        count(REASONS.expression);
-        continue;
-      }
-      x = cx;
-      if (mech.yKind === 'log') {
-        if (!(cy > 0)) {
-          count(REASONS.nonPositiveLog);
-          continue;
-        }
-        y = Math.log(cy);
-      } else y = cy;
-    } else {
-      const reason = transformPoint(mech, inputs, rawX, rawY, sign, area, out);
-      if (reason !== undefined) {
-        count(reason);
-        continue;
-      }
-      x = out.x;
-      y = out.y;
-      bias = out.bias;
-    }
-    xs.push(x);
-    ys.push(y);
-    ws.push(options.accuracy ? pointWeight(options.accuracy, rawY, mech.yKind) : 1);
-    vs.push(bias);
-    raws.push(rawX);
-    cur.push(rawY);
-  }
-  const order = Array.from(xs.keys()).sort((a, b) => xs[a] - xs[b]);
-  // Plain loops: Float64Array.from with a mapping function is several times slower in V8.
-  const take = (src: number[]) => {
-    const out = new Float64Array(order.length);
-    for (let k = 0; k < order.length; k++) out[k] = src[order[k]];
-    return out;
-  };
-  return {
-    all: {
-      x: take(xs),
-      y: take(ys),
-      w: options.accuracy ? take(ws) : undefined,
-      v: take(vs),
-      raw: take(raws),
-      current: take(cur),
-    },
-    reasons,
-  };
-}
-
-function slice(p: FitPoints, keep: (k: number) => boolean): FitPoints {
-  const idx: number[] = [];
-  for (let k = 0; k < p.x.length; k++) if (keep(k)) idx.push(k);
-  const pick = (a: Float64Array) => {
-    const out = new Float64Array(idx.length);
-    for (let k = 0; k < idx.length; k++) out[k] = a[idx[k]];
-    return out;
-  };
-  return { x: pick(p.x), y: pick(p.y), w: p.w ? pick(p.w) : undefined, v: pick(p.v), raw: pick(p.raw), current: pick(p.current) };
+  return area * y * (mech.linearScale ? mech.linearScale(bias, inputs) : 1);
 }
 
 function rawRange(p: FitPoints): { from: number; to: number } {
@@ -321,110 +240,159 @@ function rawRange(p: FitPoints): { from: number; to: number } {
   return { from: lo, to: hi };
 }
 
-/** Selects the window's points from all the prepared ones. */
-export function selectWindow(all: FitPoints, request: WindowRequest | undefined): { used: FitPoints; mode: 'all' | 'manual' | 'auto' } {
-  if (request === undefined || request === 'all') return { used: all, mode: 'all' };
-  if (request === 'auto') {
-    const w = autoWindow(all.x, all.y);
-    return { used: slice(all, (k) => k >= w.start && k <= w.end), mode: 'auto' };
-  }
-  const lo = Math.min(request.from ?? -Infinity, request.to ?? Infinity);
-  const hi = Math.max(request.from ?? -Infinity, request.to ?? Infinity);
-  return { used: slice(all, (k) => all.raw[k] >= lo && all.raw[k] <= hi), mode: 'manual' };
-}
-
 /** Segments the whole linearized curve into regimes (only where there are enough points). */
 export function findRegimes(all: FitPoints): Regime[] {
   if (all.x.length < 12) return [];
   const seg = segmentLine(all.x, all.y, { minPoints: 5, maxSegments: 5 });
   return seg.segments.map((s) => {
-    const r = rawRange(slice(all, (k) => k >= s.start && k <= s.end));
-    return { from: r.from, to: r.to, slope: s.slope, intercept: s.intercept, n: s.n };
+    let lo = Infinity;
+    let hi = -Infinity;
+    for (let k = s.start; k <= s.end; k++) {
+      lo = Math.min(lo, all.raw[k]);
+      hi = Math.max(hi, all.raw[k]);
+    }
+    return { from: lo, to: hi, slope: s.slope, intercept: s.intercept, n: s.n };
   }).sort((a, b) => a.from - b.from);
 }
 
 /** Fits one mechanism to one dataset. Throws AnalysisError with a code on unusable input. */
 export function analyze(data: IVData, request: FitRequest): FitReport {
+  return analyzeDetailed(data, request).report;
+}
+
+/** The default window of a mechanism: automatic for mechanisms of the current, all points otherwise. */
+export function defaultWindow(mech: Mechanism): 'auto' | 'all' {
+  return mech.current ? 'auto' : 'all';
+}
+
+/** As analyze, with the points and the fit behind the report. */
+export function analyzeDetailed(data: IVData, request: FitRequest): DetailedFit {
   const mech = request.model === 'custom'
     ? customMechanism(request.custom ?? missingCustom())
     : getMechanism(request.model);
   const inputs = resolveInputs(mech, request.inputs);
-  const { all, reasons } = preparePoints(mech, data, inputs, {
-    accuracy: request.accuracy,
-    complianceLimit: request.complianceLimit,
-    custom: request.model === 'custom' ? request.custom : undefined,
-  });
-  if (all.x.length < 3) {
-    throw new AnalysisError(
-      'TOO_FEW_POINTS',
-      `model '${mech.id}' has ${all.x.length} usable points of ${data.x.length}; excluded: ${describeReasons(reasons)}`,
-    );
-  }
-  const { used, mode } = selectWindow(all, request.window);
-  const outside = all.x.length - used.x.length;
-  if (outside > 0) reasons[REASONS.outsideWindow] = outside;
-  if (used.x.length < 3) {
-    throw new AnalysisError('TOO_FEW_POINTS', `the fit window holds ${used.x.length} usable points; a line needs at least 3`, 'window');
-  }
-  return analyzePrepared(mech, inputs, all, used, { reasons, mode, regimes: request.regimes });
-}
+  const custom = request.model === 'custom' && request.custom ? compileCustom(request.custom) : undefined;
+  const classes = request.classes ?? classifySweep(data, { flatBand: inputs.flatBand, complianceLimit: request.complianceLimit, accuracy: request.accuracy, detectCompliance: !!mech.current });
+  const win = request.window ?? defaultWindow(mech);
+  const mode: WindowMode = win === 'auto' ? 'auto' : win === 'all' ? 'all' : 'manual';
+  const manual = typeof win === 'object' ? win : undefined;
+  const base = {
+    mode,
+    from: manual?.from,
+    to: manual?.to,
+    absoluteNoise: request.accuracy !== undefined,
+    custom,
+    columns: data.columns,
+    quick: request.quick === true,
+  };
 
-/**
- * Fits the window's points and builds the report. `all` is every transformable point (for the
- * regimes and for mechanisms that look beyond the window), `used` the window's points.
- */
-export function analyzePrepared(
-  mech: Mechanism,
-  inputs: ResolvedInputs,
-  all: FitPoints,
-  used: FitPoints,
-  context: { reasons?: Record<string, number>; mode?: 'all' | 'manual' | 'auto'; regimes?: boolean } = {},
-): FitReport {
-  const reasons = context.reasons ?? {};
-  const line: LineFit = fitLine(used.x, used.y, { weights: used.w });
-  const ex = mech.extract({ line, used, all, inputs });
-  const warnings = [...inputs.assumed.map((k) => ASSUMED_TEXT[k]).filter((s): s is string => !!s), ...ex.warnings];
-  if (used.x.length < 5) warnings.push(`only ${used.x.length} points in the window; at least 5 are advised`);
-  if (mech.yKind === 'log' && mech.id !== 'custom') {
-    let lo = Infinity;
-    let hi = -Infinity;
-    for (let k = 0; k < used.current.length; k++) {
-      const a = Math.abs(used.current[k]);
-      lo = Math.min(lo, a);
-      hi = Math.max(hi, a);
+  // Which branches: the user's window decides, then a forced polarity, then the physics.
+  let branches: Branch[];
+  if (mech.bias !== 'magnitude' || custom) branches = [];
+  else if (request.polarity !== undefined) branches = [request.polarity > 0 ? classes.positive : classes.negative];
+  else if (manual) {
+    const lo = Math.min(manual.from ?? -Infinity, manual.to ?? Infinity) - inputs.flatBand;
+    const hi = Math.max(manual.from ?? -Infinity, manual.to ?? Infinity) - inputs.flatBand;
+    if (hi > 0 && lo < 0) branches = chooseBranches(classes, !!mech.forwardOnly, 0);
+    else branches = [hi > 0 ? classes.positive : classes.negative];
+  } else branches = chooseBranches(classes, !!mech.forwardOnly);
+  if (request.eachBranch === false || mech.forwardOnly) branches = branches.slice(0, 1);
+
+  const fits: { fit: BranchFit; branch: Branch | undefined }[] = [];
+  const failures: string[] = [];
+  const list = branches.length ? branches : [undefined];
+  for (let q = 0; q < list.length; q++) {
+    const b = list[q];
+    const reasons: Record<string, number> = { ...classes.reasons };
+    if (b) {
+      const other = b.sign > 0 ? classes.negative : classes.positive;
+      const analysed = list.some((x) => x === other);
+      if (other.index.length) reasons[analysed ? REASONS.otherBranch : REASONS.oppositePolarity] = other.index.length;
     }
-    if (hi / lo < 10) warnings.push(`the window spans ${Math.log10(hi / lo).toFixed(2)} decades of current; one decade or more is advised`);
+    try {
+      fits.push({ fit: fitBranch(mech, inputs, data, classes, b, base, reasons), branch: b });
+    } catch (e) {
+      if (!(e instanceof AnalysisError) || q === 0 && list.length === 1) throw e;
+      failures.push(`${b && b.sign > 0 ? 'positive' : 'negative'} branch: ${e.message}`);
+    }
   }
-  const excluded = Object.values(reasons).reduce((a, b) => a + b, 0);
+  if (fits.length === 0) {
+    throw new AnalysisError('TOO_FEW_POINTS', failures.join('; '));
+  }
+  const primary = fits[0].fit;
+  const polarity = (f: BranchFit): 'positive' | 'negative' | null => (f.sign > 0 ? 'positive' : f.sign < 0 ? 'negative' : null);
+  const summaries: BranchSummary[] = fits.map(({ fit }) => ({
+    polarity: polarity(fit) as 'positive' | 'negative',
+    points: fit.used.x.length,
+    window: rawRange(fit.used),
+    parameters: fit.parameters,
+    plausible: fit.plausible,
+    warnings: fit.warnings,
+  }));
+  const warnings = [
+    ...inputs.assumed.map((k) => ASSUMED_TEXT[k]).filter((s): s is string => !!s),
+    ...classes.notes.filter((n) => /too large to be noise/.test(n)),
+    ...primary.warnings,
+  ];
+  const notes = [...classes.notes.filter((n) => !/too large to be noise/.test(n)), ...primary.notes];
+  if (fits.length > 1) {
+    const key = Object.keys(primary.parameters)[0];
+    const describeOne = (f: BranchFit) => {
+      const p = key ? f.parameters[key] : undefined;
+      return `${polarity(f)}${p ? ` ${key} ${fmt(p.value)} ± ${fmt(p.stdErr)}` : ''}`;
+    };
+    notes.push(`both polarities carry signal: each branch is analysed on its own (${fits.map((f) => describeOne(f.fit)).join('; ')}); this report is the ${polarity(primary)} branch's, the others are under "branches"`);
+    const a = key ? fits[0].fit.parameters[key] : undefined;
+    const b = key ? fits[1].fit.parameters[key] : undefined;
+    if (a && b && Math.abs(a.value - b.value) > 3 * Math.hypot(a.stdErr, b.stdErr)) {
+      warnings.push(`the two branches give different ${key} (${fmt(a.value)} and ${fmt(b.value)} ${a.unit}): the device is not symmetric (e.g. a different barrier at each electrode)`);
+    }
+  }
+  for (const f of failures) notes.push(`not analysed: ${f}`);
+  if (!branches.length && mech.bias === 'magnitude') notes.push('no branch of bias carries signal');
   const reportedInputs: Record<string, { value: number; assumed: boolean }> = {};
   for (const k of [...mech.requires, ...mech.uses] as InputName[]) {
     const v = inputs[k];
     if (v !== undefined) reportedInputs[k] = { value: v, assumed: inputs.assumed.includes(k) };
   }
-  return {
+  const L = primary.line;
+  const reasons = primary.reasons;
+  const excluded = Object.values(reasons).reduce((a, b) => a + b, 0);
+  const report: FitReport = {
     model: mech.id,
     title: mech.title,
-    points: { used: used.x.length, excluded, reasons },
-    window: { ...rawRange(used), mode: context.mode ?? 'all' },
+    points: { used: primary.used.x.length, excluded, reasons },
+    window: { ...rawRange(primary.used), mode },
     line: {
-      slope: line.slope,
-      slopeStdErr: line.slopeStdErr,
-      intercept: line.intercept,
-      interceptStdErr: line.interceptStdErr,
-      covariance: line.covariance,
-      r2: line.r2,
-      residualStdDev: line.residualStdDev,
-      chi2Reduced: line.chi2Reduced,
-      n: line.n,
+      slope: L.slope,
+      slopeStdErr: L.slopeStdErr,
+      intercept: L.intercept,
+      interceptStdErr: L.interceptStdErr,
+      covariance: L.covariance,
+      r2: L.r2,
+      residualStdDev: L.residualStdDev,
+      chi2Reduced: L.chi2Reduced,
+      n: L.n,
     },
     axes: mech.axes(inputs),
-    parameters: ex.parameters,
+    parameters: primary.parameters,
     warnings,
-    notes: ex.notes,
-    plausible: ex.plausible,
+    notes,
+    plausible: primary.plausible,
     inputs: reportedInputs,
-    regimes: context.regimes === false ? [] : findRegimes(all),
+    regimes: request.regimes === false ? [] : findRegimes(primary.all),
+    noise: {
+      floor: primary.noise.floor,
+      floorLevel: floorLevel(primary.noise),
+      floorSource: primary.noise.floorSource,
+      floorReadings: primary.noise.floorReadings,
+      relative: primary.noise.relative,
+      relativeSource: primary.noise.relativeSource,
+    },
+    branch: polarity(primary),
+    branches: summaries,
   };
+  return { report, mechanism: mech, inputs, fit: primary, classes };
 }
 
 function missingCustom(): never {
@@ -432,6 +400,5 @@ function missingCustom(): never {
 }
 
 export function describeReasons(reasons: Record<string, number>): string {
-  const parts = Object.entries(reasons).map(([r, c]) => `${c} ${r}`);
-  return parts.length ? parts.join(', ') : 'none';
+  return describe(reasons);
 }

@@ -300,7 +300,7 @@ export function fitDiode(data: IVData, model: DiodeModel, req: DiodeRequest = {}
 }
 
 /**
- * Cheung–Cheung series resistance (Cheung & Cheung 1986; ../shared/physics.md §6): in the bend-over
+ * Cheung–Cheung series resistance (Cheung & Cheung, Appl. Phys. Lett. 49, 85, 1986; Schroder 2006): in the bend-over
  * region V = I·R_s + n(kT/q)·ln(I/(A·A**·T²)) + n·φ_B, so
  *   dV/d(ln I) = I·R_s + n·kT/q       (slope R_s, intercept n·kT/q),
  *   H(I) = V − n(kT/q)·ln(I/(A·A**·T²)) = I·R_s + n·φ_B   (slope R_s, intercept n·φ_B).

@@ -1,6 +1,6 @@
 /**
  * Single- and double-diode models of diodes and solar cells with series and shunt resistance, in
- * the generator convention (current delivered positive; ../shared/physics.md §7):
+ * the generator convention (current delivered positive, as the solar-cell literature writes it; Jain & Kapoor 2004):
  *   I = I_ph − Σₖ I₀ₖ·(exp((V + I·R_s)/(nₖ·V_t)) − 1) − (V + I·R_s)/R_sh.
  * The single-diode current is explicit through the Lambert W function (Jain & Kapoor 2004), in the
  * log form that does not overflow; the double-diode current is solved by damped Newton. Fits are

@@ -6,7 +6,12 @@
  * MR̄/1.128 (common practice for individual values), never smaller than the mean fit standard
  * error of the baseline values nor than `minRelativeSigma`·|μ0| — so a baseline of nearly equal
  * values does not make the chart fire on noise.
- * Phase II: every later value updates the statistic and is compared with the limits.
+ * Phase II: every later value updates the statistic and is compared with the limits. The centre
+ * μ0 is itself an estimate from n0 baseline values, so the limits carry its variance too:
+ * σ_eff² = σ_z,t² + σ²/n0 for the EWMA (the deviation z_t − μ0 has both parts), σ·√(1 + 1/n0) for
+ * the CUSUM (Montgomery, Introduction to Statistical Quality Control, on control limits from
+ * estimated parameters: a short Phase I otherwise raises false alarms far more often than the
+ * nominal run length says).
  */
 
 export interface DriftSettings {
@@ -28,7 +33,7 @@ export interface DriftSettings {
 
 export const DEFAULT_DRIFT: DriftSettings = {
   method: 'ewma',
-  baseline: 3,
+  baseline: 5,
   lambda: 0.2,
   L: 3,
   warnL: 2,
@@ -97,13 +102,14 @@ export class DriftChart {
     this.t++;
     if (s.method === 'ewma') {
       this.z = ewmaStep(this.z, value, s.lambda);
-      const sz = ewmaSigma(this.sigma, s.lambda, this.t);
+      const sz = Math.hypot(ewmaSigma(this.sigma, s.lambda, this.t), this.sigma / Math.sqrt(this.base.length));
       const dev = Math.abs(this.z - this.mu);
       const state = dev > s.L * sz ? 'out-of-control' : dev > s.warnL * sz ? 'warning' : 'in-control';
       return { phase: 'monitor', statistic: this.z, center: this.mu, lower: this.mu - s.L * sz, upper: this.mu + s.L * sz, sigma: this.sigma, state };
     }
-    const K = s.k * this.sigma;
-    const H = s.h * this.sigma;
+    const sEff = this.sigma * Math.sqrt(1 + 1 / this.base.length);
+    const K = s.k * sEff;
+    const H = s.h * sEff;
     this.cPlus = Math.max(0, value - this.mu - K + this.cPlus);
     this.cMinus = Math.max(0, this.mu - K - value + this.cMinus);
     const c = Math.max(this.cPlus, this.cMinus);

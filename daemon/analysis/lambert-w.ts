@@ -1,8 +1,8 @@
 /**
  * The Lambert W function, principal branch W₀ (w·eʷ = x, x ≥ −1/e), and its overflow-safe form
  * W(eᴸ) for arguments given by their logarithm L, which the single-diode model needs: its argument
- * θ = a·exp(b) overflows double precision for real cells (Jain & Kapoor 2004 form; see
- * ../shared/physics.md §7). For L large, w solves w + ln w = L, which Newton handles without ever
+ * θ = a·exp(b) overflows double precision for real cells (Jain & Kapoor, Sol. Energy Mater.
+ * Sol. Cells 81, 269, 2004). For L large, w solves w + ln w = L, which Newton handles without ever
  * forming eᴸ.
  */
 

@@ -49,8 +49,13 @@ export interface AxisSpec {
 
 export interface ParameterValue {
   readonly value: number;
+  /** One standard uncertainty: the statistical and window-choice parts added in quadrature. */
   readonly stdErr: number;
   readonly unit: string;
+  /** The statistical part (the fit's covariance, scaled by χ²/dof). */
+  readonly statStdErr?: number;
+  /** The window-choice part: the spread of the value over admissible windows beyond what noise explains. */
+  readonly windowStdErr?: number;
 }
 
 export interface Extraction {
@@ -105,6 +110,20 @@ export interface Mechanism {
   readonly usesArea: boolean;
   /** Whether the mechanism takes part in the automatic ranking of I–V data. */
   readonly ranked: boolean;
+  /** Whether y comes from the current reading, so the sweep's noise model weights the fit. */
+  readonly current?: boolean;
+  /** The sign the slope must have for the mechanism to describe the data (+1 rising, −1 falling). */
+  readonly slopeSign?: 1 | -1;
+  /** Only the forward branch (the one carrying the larger current) is analysed: a diode. */
+  readonly forwardOnly?: boolean;
+  /** A parallel ohmic leakage may be fitted together with it (log mechanisms of a film or junction). */
+  readonly leakage?: boolean;
+  /** A series resistance may be fitted together with it (the diode's I·R_s bend). */
+  readonly series?: boolean;
+  /** Its current rises faster than ohmic (log–log slope well above 1) wherever it dominates. */
+  readonly superOhmic?: boolean;
+  /** For linear mechanisms: y = J / linearScale(bias) (e.g. J/V for space-charge-limited current). */
+  linearScale?(bias: number, inputs: ResolvedInputs): number;
   axes(inputs: ResolvedInputs): { x: AxisSpec; y: AxisSpec };
   /** x coordinate from the bias (after the bias mode is applied). */
   x(bias: number, inputs: ResolvedInputs): number;

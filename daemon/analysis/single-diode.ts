@@ -1,6 +1,6 @@
 /**
  * Single-diode model of a solar cell or a diode with series and shunt resistance (Sze & Ng; the
- * implicit form as in the physics reference §7), generator convention (I > 0 delivered):
+ * implicit form of Jain & Kapoor 2004), generator convention (I > 0 delivered):
  *   I = I_ph − I₀·(exp((V + I·R_s)/(n·V_t)) − 1) − (V + I·R_s)/R_sh.
  * Evaluated explicitly through the Lambert W function (diode-models.ts), the same code the fits use.
  */

@@ -3,7 +3,7 @@ import type { FitReport } from '../analysis/analyze.js';
 import { describeReasons } from '../analysis/analyze.js';
 import type { Ranking } from '../analysis/ranking.js';
 import type { DiodeReport, SolarReport } from '../analysis/diode-fit.js';
-import { axisLabel, formatInputs, formatParameterText } from '../../protocols/display-units.js';
+import { axisLabel, displayUnit, formatInputs, formatParameterText } from '../../protocols/display-units.js';
 import { formatNumber } from '../../protocols/number-format.js';
 
 /** Numbers in text output: the formatter the page and the report use too. */
@@ -15,11 +15,25 @@ function pad(s: string, n: number): string {
   return s.length >= n ? s : s + ' '.repeat(n - s.length);
 }
 
+/**
+ * "value ± total unit (statistical ± s, window ± w)" in the display unit, the window-choice part
+ * shown when it is not zero.
+ */
+function withParts(p: { value: number; stdErr: number; unit: string; statStdErr?: number; windowStdErr?: number }, quantity: string): string {
+  const text = formatParameterText(p, quantity);
+  if (p.statStdErr === undefined || !p.windowStdErr) return text;
+  const scale = displayUnit(p.unit, quantity).scale;
+  return `${text} (statistical ± ${num(p.statStdErr * scale, 2)}, window ± ${num(p.windowStdErr * scale, 2)})`;
+}
+
 export function formatFit(r: FitReport): string {
   const out: string[] = [];
   out.push(`${r.title}  [model ${r.model}]`);
   out.push(`axes:       x = ${axisLabel(r.axes.x)} ${r.axes.x.kind}, y = ${axisLabel(r.axes.y)} ${r.axes.y.kind}${r.axes.y.kind === 'log' ? ', fitted as ln' : ''} (the line's slope and intercept are in SI, as in --json)`);
   out.push(`points:     ${r.points.used} used, ${r.points.excluded} excluded (${describeReasons(r.points.reasons)})`);
+  if (r.branch) out.push(`branch:     ${r.branch} bias${r.branches.length > 1 ? ` (${r.branches.length} branches analysed; see below)` : ''}`);
+  const nz = r.noise;
+  out.push(`noise:      floor ${nz.floorSource === 'not reached' ? 'not reached' : `${num(nz.floor, 3)} A (${nz.floorSource}; readings below ${num(nz.floorLevel, 3)} A left out of log plots)`}, relative ${num(100 * nz.relative, 3)} % (${nz.relativeSource})`);
   out.push(`window:     ${num(r.window.from)} to ${num(r.window.to)} in the x column (${r.window.mode})`);
   const L = r.line;
   out.push(`line:       slope ${num(L.slope, 7)} ± ${num(L.slopeStdErr, 3)}, intercept ${num(L.intercept, 7)} ± ${num(L.interceptStdErr, 3)}`);
@@ -28,7 +42,11 @@ export function formatFit(r: FitReport): string {
   if (params.length) {
     out.push('parameters:');
     const w = Math.max(...params.map(([k]) => k.length));
-    for (const [k, p] of params) out.push(`  ${pad(k, w)}  ${formatParameterText(p, k)}`);
+    for (const [k, p] of params) out.push(`  ${pad(k, w)}  ${withParts(p, k)}`);
+  }
+  for (const b of r.branches.slice(1)) {
+    const ps = Object.entries(b.parameters).map(([k, p]) => `${k} ${withParts(p, k)}`).join('; ');
+    out.push(`${b.polarity} branch: ${b.points} points, ${num(b.window.from)} to ${num(b.window.to)}: ${ps}${b.plausible ? '' : ` (implausible: ${b.warnings.join('; ')})`}`);
   }
   if (Object.keys(r.inputs).length) out.push(`inputs:     ${formatInputs(r.inputs)}`);
   if (r.regimes.length > 1) {
@@ -42,14 +60,15 @@ export function formatFit(r: FitReport): string {
 
 export function formatRanking(r: Ranking): string {
   const out: string[] = [];
-  out.push(`points: ${r.points.used} used, ${r.points.excluded} excluded (${describeReasons(r.points.reasons)})`);
-  out.push(`${pad('#', 3)}${pad('model', 26)}${pad('score', 8)}${pad('ΔAICc', 9)}${pad('plausible', 10)}parameters`);
+  out.push(`points: ${r.points.used} common points of the ${r.branch} branch, ${r.points.excluded} excluded (${describeReasons(r.points.reasons)})`);
+  out.push(`${pad('#', 3)}${pad('model', 26)}${pad('weight', 8)}${pad('ΔAICc', 9)}${pad('plausible', 10)}parameters`);
   r.ranking.forEach((e, k) => {
     const params = Object.entries(e.parameters).map(([n, p]) => `${n} ${formatParameterText(p, n)}`).join('; ');
     out.push(`${pad(String(k + 1), 3)}${pad(e.model, 26)}${pad(e.score.toFixed(3), 8)}${pad(e.deltaAicc.toFixed(1), 9)}${pad(e.plausible ? 'yes' : 'no', 10)}${params}`);
     for (const why of e.reasons) out.push(`     - ${why}`);
   });
   for (const s of r.skipped) out.push(`skipped ${s.model}: ${s.reason}`);
+  for (const n of r.notes) out.push(`note: ${n}`);
   for (const w of r.warnings) out.push(`warning: ${w}`);
   return out.join('\n');
 }

@@ -18,6 +18,7 @@ export interface AnalysisOptions {
   from?: string;
   to?: string;
   auto?: boolean;
+  all?: boolean;
   thickness?: string;
   area?: string;
   temperature?: string;
@@ -38,7 +39,8 @@ export function withAnalysisOptions(cmd: Command): Command {
     .option('--y <col>', 'y column (default: the second column)')
     .option('--from <x>', 'fit window start, in the x column\'s own values')
     .option('--to <x>', 'fit window end, in the x column\'s own values')
-    .option('--auto', 'choose the fit window automatically (widest straight run)')
+    .option('--auto', 'choose the fit window automatically (the default for mechanisms of the current)')
+    .option('--all', 'fit every usable point (above the noise floor, below compliance, one branch)')
     .option('--thickness <q>', 'film thickness, e.g. "8 nm" (bare number: metres)')
     .option('--area <q>', 'device area, e.g. "1e-4 cm^2" (bare number: m^2)')
     .option('--temperature <q>', 'temperature, e.g. "300 K" or "25 degC" (default 300 K)')
@@ -68,11 +70,14 @@ export function readInputs(o: AnalysisOptions): Inputs {
 }
 
 export function readWindow(o: AnalysisOptions, xIsTemperature = false): WindowRequest | undefined {
-  if (o.auto && (o.from !== undefined || o.to !== undefined)) {
-    throw new QuantityError('--auto', '--auto chooses the window itself: give either --auto or --from/--to, not both');
+  const manual = o.from !== undefined || o.to !== undefined;
+  const chosen = [o.auto ? '--auto' : '', o.all ? '--all' : '', manual ? '--from/--to' : ''].filter(Boolean);
+  if (chosen.length > 1) {
+    throw new QuantityError(chosen[0], `${chosen.join(' and ')}: give one way of choosing the window (--auto, --all, or --from/--to)`);
   }
   if (o.auto) return 'auto';
-  if (o.from === undefined && o.to === undefined) return undefined;
+  if (o.all) return 'all';
+  if (!manual) return undefined;
   const kind = xIsTemperature ? 'temperature' : 'voltage';
   return {
     from: o.from === undefined ? undefined : parseQuantity(o.from, kind, '--from'),

@@ -62,6 +62,21 @@ export function summarizeFit(r: FitReport): FitSummary {
   };
 }
 
+/**
+ * Whether every reading sits at one bias (a constant-stress interval): no curve to fit, and the
+ * analysis is skipped outright — a stress run's clock keeps running at the stress bias meanwhile.
+ */
+function atOneBias(v: readonly number[]): boolean {
+  if (v.length === 0) return true;
+  let lo = v[0];
+  let hi = v[0];
+  for (let k = 1; k < v.length; k++) {
+    if (v[k] < lo) lo = v[k];
+    else if (v[k] > hi) hi = v[k];
+  }
+  return hi - lo <= 1e-3 * Math.max(1, Math.abs(hi), Math.abs(lo));
+}
+
 /** Ranking runs at a sweep's end at most this often, and on sweeps up to this many points. */
 const RANKING_INTERVAL_MS = 1000;
 const RANKING_MAX_POINTS = 5000;
@@ -76,6 +91,8 @@ export class LiveChain {
   private inputs: ResolvedInputs;
   private area = 1;
   private drift: DriftChart | undefined;
+  /** The parameter the drift chart's baseline belongs to (a new one restarts the baseline). */
+  private driftParameter: string | undefined;
   private readonly breakdown: BreakdownWatch | undefined;
   // Current sweep.
   private sweep = 0;
@@ -238,9 +255,10 @@ export class LiveChain {
     return { model: this.analysis.model, inputs: this.analysis.inputs, window: this.analysis.window, complianceLimit: this.options.complianceLimit, regimes };
   }
 
-  private fitNow(v: number[], i: number[], c: number[], regimes = true): { fit: FitSummary | null; error?: string; report?: FitReport } {
+  private fitNow(v: number[], i: number[], c: number[], regimes = true, quick = false): { fit: FitSummary | null; error?: string; report?: FitReport } {
+    if (atOneBias(v)) return { fit: null, error: 'every reading is at one bias (a constant-stress interval): there is no current–voltage curve to fit' };
     try {
-      const report = analyze(this.data(v, i, c), this.request(regimes));
+      const report = analyze(this.data(v, i, c), { ...this.request(regimes), quick });
       return { fit: summarizeFit(report), report };
     } catch (e) {
       return { fit: null, error: (e as Error).message };
@@ -256,14 +274,14 @@ export class LiveChain {
   private publishFit(final: boolean): { fit: FitSummary | null } {
     // The regime search is left to the linearized view (computed only while a page watches): the
     // fit events carry the line and parameters, and the chain keeps its pace without a page.
-    const r = this.fitNow(this.v, this.i, this.c, false);
+    const r = this.fitNow(this.v, this.i, this.c, false, !final);
     this.emit({ type: 'fit', sweep: this.sweep, final, fit: r.fit, ...(r.error ? { error: r.error } : {}) });
     this.publishView(this.sweep, final, this.v, this.i, this.c);
     return r;
   }
 
   private publishView(sweep: number, final: boolean, v: number[], i: number[], c: number[]): void {
-    if (!this.views$.observed) return;
+    if (!this.views$.observed || atOneBias(v)) return;
     try {
       const view = plotView(this.data(v, i, c), this.request(true));
       this.views$.next({ sweep, final, view });
@@ -274,7 +292,7 @@ export class LiveChain {
 
   private publishRanking(): void {
     const now = performance.now();
-    if (this.v.length > RANKING_MAX_POINTS || now - this.lastRankingAt < RANKING_INTERVAL_MS) return;
+    if (this.v.length > RANKING_MAX_POINTS || now - this.lastRankingAt < RANKING_INTERVAL_MS || atOneBias(this.v)) return;
     this.lastRankingAt = now;
     try {
       const r = rankMechanisms(this.data(this.v, this.i, this.c), {
@@ -314,6 +332,11 @@ export class LiveChain {
     const cfg = this.options.drift;
     const name = cfg.parameter ?? (fit ? Object.keys(fit.parameters)[0] : undefined);
     if (name === undefined) return undefined;
+    if (this.driftParameter !== undefined && name !== this.driftParameter) {
+      // Another parameter (another model): its values are not comparable with the old baseline.
+      this.drift = new DriftChart(cfg);
+    }
+    this.driftParameter = name;
     const p = fit?.parameters[name];
     const point = this.drift.add(p?.value, p?.stdErr);
     this.emit({ type: 'drift', sweep: this.sweep, parameter: name, value: p?.value ?? null, method: cfg.method, ...point });
@@ -346,6 +369,11 @@ export class LiveChain {
   setAnalysis(a: AnalysisSettings, source: string): void {
     const mech = getMechanism(a.model);
     const inputs = resolveInputs(mech, a.inputs);
+    if (this.drift && (a.model !== this.analysis.model || JSON.stringify(a.inputs) !== JSON.stringify(this.analysis.inputs))) {
+      // Another model, or other inputs to it: the charted values change meaning, so the baseline starts again.
+      this.drift = new DriftChart(this.options.drift);
+      this.driftParameter = undefined;
+    }
     this.analysis = a;
     this.mech = mech;
     this.inputs = inputs;

@@ -12,9 +12,10 @@
  *    With the true-current objective (explicit Lambert-W current): RMSE = 7.7301e-4 A,
  *    R_s = 0.0365469 Ω, R_sh = 52.8898 Ω.
  *  - Lambert W: W(1) = Ω = 0.5671432904097838 (omega constant), W(e) = 1, W(x·eˣ) = x (definition).
- *  - Cheung–Cheung synthetic check (../shared/physics.md §6, computed there): n = 1.10,
+ *  - Cheung–Cheung synthetic check (Cheung & Cheung 1986 functions on a diode of our own, I₀ from
+ *    A·A**·T²·exp(−qφ_B/kT) computed by hand): n = 1.10,
  *    φ_B = 0.70 eV, R_s = 10 Ω, A = 1e-3 cm², A** = 112 A cm⁻² K⁻², 300 K.
- *  - kT/q at 300 K = 25.8520 mV (CODATA 2018, physics.md §1).
+ *  - kT/q at 300 K = 25.8520 mV (computed from CODATA 2018).
  */
 import { describe, expect, it } from 'vitest';
 import { thermalVoltage } from '../../daemon/analysis/constants.js';
@@ -138,7 +139,7 @@ describe('dark diode', () => {
     const area = 1e-3 * 1e-4; // m²
     const aStar = 112e4; // A m⁻² K⁻²
     const i0 = area * aStar * T * T * Math.exp(-0.7 / vt);
-    expect(i0).toBeCloseTo(1.754e-8, 10); // physics.md: I₀ = 1.754e-8 A
+    expect(i0).toBeCloseTo(1.754e-8, 10); // by hand: A·A**·T²·exp(−φ_B/V_t) = 1.754e-8 A
     const cur: number[] = [];
     const volt: number[] = [];
     for (let k = 0; k <= 60; k++) {
@@ -147,7 +148,7 @@ describe('dark diode', () => {
       volt.push(I * 10 + 1.1 * vt * Math.log(I / i0 + 1));
     }
     const r = cheung({ x: volt, y: cur }, { temperature: T, area, richardson: aStar });
-    expect(r.parameters.seriesResistance.value).toBeCloseTo(10.0, 1); // physics.md: 10.02 Ω
+    expect(r.parameters.seriesResistance.value).toBeCloseTo(10.0, 1); // function 1 on this diode gives 10.02 Ω (worked by hand)
     expect(r.parameters.idealityFactor.value).toBeCloseTo(1.1, 2); // 1.0999
     expect(r.parameters.barrierHeight.value).toBeCloseTo(0.7, 3); // 0.7000 eV
     expect(r.parameters.seriesResistanceH.value).toBeCloseTo(10, 2); // 10.000 Ω

@@ -2,7 +2,7 @@
  * Control charts and the breakdown watch.
  * Sources: NIST/SEMATECH e-Handbook of Statistical Methods §6.3.2.4 (EWMA: recursion, the σ of z,
  * limits μ0 ± Lσ_z) and §6.3.2.3 (tabular CUSUM); steady-state σ_z factors 0.3333 (λ = 0.2) and
- * 0.4201 (λ = 0.3) as computed in ../shared/physics.md §9; d2 = 1.128 for moving ranges of two
+ * 0.4201 (λ = 0.3) computed from √(λ/(2−λ)); d2 = 1.128 for moving ranges of two
  * (common practice, control-chart constant tables). The EWMA example series is the handbook's
  * §6.3.2.4 example as recalled from memory (target 50, λ = 0.3); the expected z values follow from
  * the recursion itself, so the check does not depend on the memory being exact.
@@ -47,24 +47,27 @@ describe('EWMA (NIST/SEMATECH §6.3.2.4)', () => {
       if (t <= 5) expect(p.state).toBe('in-control');
       if (p.state === 'out-of-control' && firstOut < 0) firstOut = t;
     }
-    // Hand check: the shift is 2σ; with λ = 0.2, L = 3 the EWMA needs z − μ0 > 3·0.333σ ≈ 1σ, i.e.
-    // 1 − 0.8^m > 0.5 → m ≥ 4 points after the shift (t = 9).
-    expect(firstOut).toBe(9);
+    // Hand check: the shift is 2σ; with λ = 0.2, L = 3 and the centre estimated from 4 values the
+    // limit is 3σ·√(λ/(2−λ)·(1 − 0.8^{2t}) + 1/4) → 3σ·√(0.1111 + 0.25) = 1.80σ late in the run, so the
+    // EWMA needs 2σ(1 − 0.8^m) > 1.80σ, i.e. 0.8^m < 0.1 → m = 11 points after the shift (t = 16);
+    // at m = 10, 2σ·0.893 = 1.79σ is still inside.
+    expect(firstOut).toBe(16);
   });
 
-  it('tabular CUSUM accumulates (x − μ0 − kσ) and signals above hσ (§6.3.2.3)', () => {
+  it('tabular CUSUM accumulates (x − μ0 − kσ) and signals above hσ (NIST/SEMATECH §6.3.2.3)', () => {
     const chart = new DriftChart({ ...DEFAULT_DRIFT, method: 'cusum', baseline: 2, minRelativeSigma: 0 });
     chart.add(0, 0);
     chart.add(1, 0); // μ0 = 0.5, σ = |1 − 0| / 1.128
     const s = 1 / 1.128;
-    // Each x = 0.5 + 1.4σ adds 0.9σ to C+ (k = 0.5): 3.6σ after four, 4.5σ after five; H = 4σ.
-    const states = [1, 2, 3, 4, 5].map(() => chart.add(0.5 + 1.4 * s).state);
-    expect(states.slice(0, 4)).not.toContain('out-of-control');
-    expect(states[4]).toBe('out-of-control');
+    // With the centre from two values, σ_eff = σ·√(1 + 1/2) = 1.2247σ: K = 0.6124σ, H = 4.899σ.
+    // Each x = 0.5 + 1.4σ adds 0.7876σ to C+: 4.73σ after six, 5.51σ after seven.
+    const states = [1, 2, 3, 4, 5, 6, 7].map(() => chart.add(0.5 + 1.4 * s).state);
+    expect(states.slice(0, 6)).not.toContain('out-of-control');
+    expect(states[6]).toBe('out-of-control');
   });
 });
 
-describe('breakdown watch (signatures: common practice, ../shared/physics.md §10)', () => {
+describe('breakdown watch (signatures: common practice)', () => {
   const inputs = resolveInputs(fowlerNordheim, { thickness: 7e-9, area: 1e-8, massRatio: 0.42 });
   const fn = (v: number) => fowlerNordheim.forward(v, { barrierHeight: 3.1 }, inputs) * 1e-8;
 

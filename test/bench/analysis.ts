@@ -1,12 +1,25 @@
-/** Analysis-core benchmark figures (issue: batch fit, incremental update, window, segmentation, ranking). */
+/**
+ * Analysis-core benchmark figures: batch line fit, incremental update, the default analysis of a
+ * whole sweep (noise floor, branches, automatic window, leakage term, window-choice uncertainty)
+ * and the ranking of every mechanism, at 1e3, 1e5 and 1e6 points.
+ */
 import { fitLine } from '../../daemon/analysis/line-fit.js';
 import { LineAccumulator } from '../../daemon/analysis/line-accumulator.js';
-import { autoWindow } from '../../daemon/analysis/window.js';
+import { analyze } from '../../daemon/analysis/analyze.js';
 import { segmentLine } from '../../daemon/analysis/segmentation.js';
 import { rankMechanisms } from '../../daemon/analysis/ranking.js';
 import { fowlerNordheim } from '../../daemon/analysis/mechanisms/fowler-nordheim.js';
 import { seededNormal } from '../../daemon/analysis/random.js';
 import { medianMs, report } from './timing.js';
+
+/** A whole 0 → 10 V sweep of an invented 8 nm oxide: floor 1e-13 A, 1 % noise, 1e13 Ω leakage. */
+function wholeSweep(m: number, normal: () => number): { v: Float64Array; i: Float64Array } {
+  const d = 8e-9;
+  const v = Float64Array.from({ length: m }, (_, k) => (10 * k) / (m - 1));
+  const i = v.map((b) => (b > 0 ? fowlerNordheim(b / d, 3.1, 0.42) * 1e-8 : 0) + b / 1e13);
+  for (let k = 0; k < m; k++) i[k] = i[k] * (1 + 0.01 * normal()) + 1e-13 * normal();
+  return { v, i };
+}
 
 export function benchAnalysis(): void {
   const normal = seededNormal(42);
@@ -31,17 +44,18 @@ export function benchAnalysis(): void {
   }
   report('incremental remove + add, per pair', Number(process.hrtime.bigint() - t1) / n, 'ns');
 
-  const m = 1000;
-  const d = 8e-9;
-  const v = Float64Array.from({ length: m }, (_, k) => 0.01 + (9 * k) / (m - 1));
-  const i = v.map((b) => (fowlerNordheim(b / d, 3.1, 0.42) * 1e-8 + 1e-14 * b) * (1 + 0.01 * normal()));
-  const lx = v.map((b) => d / b);
-  const ly = i.map((c, k) => Math.log(c / (v[k] / d) ** 2));
-  const order = Array.from(lx.keys()).sort((a, b) => lx[a] - lx[b]);
-  const sx = Float64Array.from(order, (k) => lx[k]);
-  const sy = Float64Array.from(order, (k) => ly[k]);
-  report('automatic window, 1000 points', medianMs(() => autoWindow(sx, sy), 9), 'ms');
-  report('regime segmentation, 1000 points', medianMs(() => segmentLine(sx, sy), 9), 'ms');
-  const inputs = { thickness: d, area: 1e-8, massRatio: 0.42, refractiveIndex: 1.46 };
-  report('mechanism ranking, 1000 points', medianMs(() => rankMechanisms({ x: v, y: i }, { inputs, window: 'all' }), 15), 'ms', '<= 10 ms');
+  const inputs = { thickness: 8e-9, area: 1e-8, massRatio: 0.42, refractiveIndex: 1.46 };
+  for (const m of [1_000, 100_000, 1_000_000]) {
+    const s = wholeSweep(m, normal);
+    const repeats = m >= 1_000_000 ? 3 : m >= 100_000 ? 5 : 15;
+    const label = m.toExponential(0).replace('+', '');
+    const fit = medianMs(() => analyze({ x: s.v, y: s.i }, { model: 'fowler-nordheim', inputs, regimes: false }), repeats);
+    report(`default fit (floor, branches, automatic window), ${label} points`, fit, 'ms', m === 1_000_000 ? '<= 1000 ms' : undefined);
+    const rank = medianMs(() => rankMechanisms({ x: s.v, y: s.i }, { inputs }), repeats);
+    report(`mechanism ranking (every mechanism, own window), ${label} points`, rank, 'ms', m === 1_000_000 ? '<= 1000 ms' : m === 1_000 ? '<= 10 ms' : undefined);
+  }
+  const small = wholeSweep(1000, normal);
+  const lx = small.v.map((b) => 8e-9 / b).slice(1);
+  const ly = small.i.map((c, k) => Math.log(Math.abs(c) / (small.v[k] / 8e-9) ** 2)).slice(1);
+  report('regime segmentation, 1000 points', medianMs(() => segmentLine(lx.reverse(), ly.reverse()), 9), 'ms');
 }

@@ -2,6 +2,7 @@
 import { cpus } from 'node:os';
 import { benchAnalysis } from './analysis.js';
 import { benchDiode } from './diode.js';
+import { benchCli } from './cli.js';
 import { benchProtocols } from './protocols.js';
 import { benchDaemon } from './daemon.js';
 import { benchPage } from './page.js';
@@ -13,6 +14,8 @@ process.stdout.write(`plumbline benchmarks — Node ${process.version}, ${cpus()
 process.stdout.write('analysis core\n');
 benchAnalysis();
 benchDiode();
+process.stdout.write('\ncommand line: plumbline fit against pandas + numpy, start-up with units\n');
+benchCli();
 process.stdout.write('\nprotocols and simulated instrument\n');
 await benchProtocols();
 process.stdout.write('\ndaemon: live chain, journal, abort, websocket\n');

@@ -2,7 +2,7 @@
  * `plumbline fit --model single-diode|double-diode|cheung` and `plumbline solar` as a user runs them
  * (the built command), on the R.T.C. France cell of Easwarakhanthan et al., Int. J. Solar Energy 4,
  * 1–12 (1986) — recorded here as an SMU records it (current into the device positive) — and on the
- * synthetic Cheung–Cheung diode of ../shared/physics.md §6. Expected values: see
+ * synthetic Cheung–Cheung diode (n = 1.10, φ_B = 0.70 eV, R_s = 10 Ω; Cheung & Cheung 1986). Expected values: see
  * test/analysis/diode.test.ts (published fits, from memory; hand interpolation of the data).
  */
 import { mkdtempSync, readdirSync, readFileSync } from 'node:fs';

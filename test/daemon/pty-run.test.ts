@@ -5,9 +5,9 @@
  * that reached the instrument.
  *
  * Drift check: the EWMA chart of NIST/SEMATECH e-Handbook §6.3.2.4 (z_t = λx_t + (1−λ)z_{t−1},
- * limits μ0 ± Lσ√(λ/(2−λ)(1−(1−λ)^{2t}))) recomputed here from the journaled per-sweep barrier
- * heights, with σ from the baseline's moving range / 1.128 (common practice) floored as the
- * station config states.
+ * limits μ0 ± Lσ√(λ/(2−λ)(1−(1−λ)^{2t}) + 1/n0), the last term for the centre estimated from n0
+ * baseline values) recomputed here from the journaled per-sweep barrier heights, with σ from the
+ * baseline's moving range / 1.128 (common practice) floored as the station config states.
  */
 import { spawn, } from 'node:child_process';
 import { join } from 'node:path';
@@ -124,7 +124,8 @@ describe('run aborts over a real pty', () => {
       let expected = -1;
       for (let t = 1; 3 + t <= x.length; t++) {
         z = 0.2 * x[2 + t] + 0.8 * z;
-        const sz = sigma * Math.sqrt((0.2 / 1.8) * (1 - 0.8 ** (2 * t)));
+        // The centre is the mean of 3 baseline values: its variance σ²/3 widens the limits.
+        const sz = sigma * Math.sqrt((0.2 / 1.8) * (1 - 0.8 ** (2 * t)) + 1 / 3);
         if (Math.abs(z - mu) > 3 * sz) {
           expected = 3 + t;
           break;

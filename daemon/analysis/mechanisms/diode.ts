@@ -20,6 +20,12 @@ export const diodeMechanism: Mechanism = {
   uses: ['temperature'],
   usesArea: false,
   ranked: true,
+  current: true,
+  slopeSign: 1,
+  forwardOnly: true,
+  leakage: true,
+  superOhmic: true,
+  series: true,
   axes: () => ({ x: { label: 'V', unit: 'V', kind: 'linear' }, y: { label: 'I', unit: 'A', kind: 'log' } }),
   x: (v) => v,
   lnOffset: () => 0,
@@ -36,6 +42,9 @@ export const diodeMechanism: Mechanism = {
     let plausible = true;
     if (n < 0.95) {
       warnings.push(`ideality factor ${fmt(n)} is below 1, which a diode at ${fmt(inputs.temperature)} K cannot have`);
+      plausible = false;
+    } else if (n > 4) {
+      warnings.push(`ideality factor ${fmt(n)} is far above 2: not a diode's exponential (a film, leakage, or tunnelling)`);
       plausible = false;
     } else if (n > 2.2) {
       warnings.push(`ideality factor ${fmt(n)} is above 2: series resistance, tunnelling or a window past the straight part`);

@@ -10,6 +10,7 @@ export const exponential: Mechanism = {
   uses: [],
   usesArea: false,
   ranked: false,
+  current: true,
   axes: () => ({ x: { label: 'V', unit: 'V', kind: 'linear' }, y: { label: '|I|', unit: 'A', kind: 'log' } }),
   x: (v) => v,
   lnOffset: () => 0,

@@ -31,6 +31,10 @@ export const fowlerNordheimMechanism: Mechanism = {
   uses: ['massRatio', 'area', 'flatBand'],
   usesArea: true,
   ranked: true,
+  current: true,
+  slopeSign: -1,
+  leakage: true,
+  superOhmic: true,
   axes: (inp) => ({
     x: { label: '1/E', unit: 'm/V', kind: 'linear' },
     y: { label: 'J/E²', unit: `${currentUnit(inp)}/(V/m)^2`, kind: 'log' },

@@ -19,6 +19,10 @@ export const hoppingMechanism: Mechanism = {
   uses: ['temperature', 'area', 'flatBand'],
   usesArea: true,
   ranked: true,
+  current: true,
+  slopeSign: 1,
+  leakage: true,
+  superOhmic: true,
   axes: (inp) => ({
     x: { label: 'E', unit: 'V/m', kind: 'linear' },
     y: { label: 'J', unit: currentUnit(inp), kind: 'log' },

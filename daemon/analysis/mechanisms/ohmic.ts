@@ -13,6 +13,8 @@ export const ohmic: Mechanism = {
   uses: ['area', 'thickness'],
   usesArea: false,
   ranked: true,
+  current: true,
+  slopeSign: 1,
   axes: () => ({ x: { label: '|V|', unit: 'V', kind: 'linear' }, y: { label: '|I|', unit: 'A', kind: 'linear' } }),
   x: (v) => v,
   extract: ({ line, inputs }) => {

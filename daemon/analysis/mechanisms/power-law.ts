@@ -10,6 +10,7 @@ export const powerLaw: Mechanism = {
   uses: [],
   usesArea: false,
   ranked: false,
+  current: true,
   axes: () => ({ x: { label: '|V|', unit: 'V', kind: 'log' }, y: { label: '|I|', unit: 'A', kind: 'log' } }),
   x: (v) => Math.log(v),
   lnOffset: () => 0,

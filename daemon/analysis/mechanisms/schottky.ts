@@ -20,9 +20,13 @@ export const schottkyMechanism: Mechanism = {
   yKind: 'log',
   bias: 'magnitude',
   requires: ['thickness'],
-  uses: ['area', 'temperature', 'richardson', 'refractiveIndex', 'flatBand'],
+  uses: ['area', 'temperature', 'richardson', 'refractiveIndex', 'permittivity', 'flatBand'],
   usesArea: true,
   ranked: true,
+  current: true,
+  slopeSign: 1,
+  leakage: true,
+  superOhmic: true,
   axes: (inp) => ({
     x: { label: '√E', unit: '(V/m)^0.5', kind: 'linear' },
     y: { label: 'J/T²', unit: `${currentUnit(inp)}/K^2`, kind: 'log' },
@@ -40,7 +44,7 @@ export const schottkyMechanism: Mechanism = {
     const eps = permittivityFromRootFieldSlope(line.slope, line.slopeStdErr, inputs.temperature, 4);
     parameters.relativePermittivity = param(eps.value, eps.stdErr, '1');
     let plausible = inRange(warnings, 'dynamic permittivity', eps.value, 1, 30, '');
-    plausible = checkAgainstIndex(eps.value, inputs.refractiveIndex, warnings, notes, { name: 'Poole–Frenkel emission', factor: 4 }) && plausible;
+    plausible = checkAgainstIndex(eps.value, eps.stdErr, inputs.refractiveIndex, inputs.permittivity, warnings, notes, { name: 'Poole–Frenkel emission', factor: 4 }) && plausible;
     if (inputs.area !== undefined) {
       const kt = (BOLTZMANN_J_PER_K * inputs.temperature) / Q;
       const phi = kt * (Math.log(inputs.richardson) - line.intercept);

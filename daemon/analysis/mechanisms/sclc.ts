@@ -1,13 +1,18 @@
 /**
- * `sclc`: trap-free space-charge-limited current, Mott–Gurney law J = (9/8)·ε₀ε_r·μ·V²/d³
- * (Mott & Gurney 1940). Linearization ln J against ln V: the slope is the exponent (2 for SCLC,
- * 1 for ohmic). The mobility comes from the intercept of the slope-2 line through the window,
- * μ = 8·K·d³/(9·ε₀ε_r) with J = K·V². Where the whole curve shows an ohmic run (slope ≈ 1) followed
- * by an SCLC run (slope ≈ 2), the transition voltage is where the two lines cross.
+ * `sclc`: space-charge-limited current with its ohmic background, the two limits added
+ * (Mott & Gurney 1940; Lampert & Mark 1970):
+ *   J = σ·V/d + (9/8)·ε₀ε_r·μ·V²/d³.
+ * Divided by V it is a straight line, J/V = σ/d + (9/8)·ε₀ε_r·μ·V/d³: the intercept c gives the
+ * conductivity σ = c·d, the slope s the mobility μ = 8·s·d³/(9·ε₀ε_r), and the two terms are equal
+ * at the transition voltage V_tr = c/s = 8σd²/(9ε₀ε_rμ) (Lampert & Mark's crossover with θ = 1),
+ * on a linear sweep as on a logarithmic one. The V² law itself is checked on the points where the
+ * Mott–Gurney term carries most of the current: the log–log slope of J − σV/d there must be 2
+ * within its own standard error (traps filling, a field-dependent mobility or an injection barrier
+ * bend it away).
  */
 import { VACUUM_PERMITTIVITY_F_PER_M } from '../constants.js';
+import { fitLine } from '../line-fit.js';
 import { currentUnit, fmt, param, type Extraction, type Mechanism, type ParameterValue } from '../mechanism.js';
-import { segmentLine } from '../segmentation.js';
 
 /** Mott–Gurney current density, A/m², for bias V (V), mobility μ (m²/(V·s)), ε_r and d (m). */
 export function mottGurney(v: number, mobility: number, permittivity: number, thickness: number): number {
@@ -16,52 +21,89 @@ export function mottGurney(v: number, mobility: number, permittivity: number, th
 
 export const sclc: Mechanism = {
   id: 'sclc',
-  title: 'Space-charge-limited current (Mott–Gurney), log J against log V',
-  yKind: 'log',
+  title: 'Space-charge-limited current with an ohmic background, J/V against V',
+  yKind: 'linear',
   bias: 'magnitude',
   requires: [],
   uses: ['area', 'thickness', 'permittivity'],
   usesArea: true,
   ranked: true,
+  current: true,
+  slopeSign: 1,
   axes: (inp) => ({
-    x: { label: '|V|', unit: 'V', kind: 'log' },
-    y: { label: 'J', unit: currentUnit(inp), kind: 'log' },
+    x: { label: '|V|', unit: 'V', kind: 'linear' },
+    y: { label: 'J/V', unit: `${currentUnit(inp)}/V`, kind: 'linear' },
   }),
-  x: (v) => Math.log(v),
-  lnOffset: () => 0,
-  extract: ({ line, used, all, inputs }): Extraction => {
+  x: (v) => v,
+  linearScale: (v) => v,
+  extract: ({ line, used, inputs }): Extraction => {
     const warnings: string[] = [];
     const notes: string[] = [];
-    const parameters: Record<string, ParameterValue> = {
-      exponent: param(line.slope, line.slopeStdErr, '1'),
-    };
+    const parameters: Record<string, ParameterValue> = {};
+    const s = line.slope;
+    const c = line.intercept;
     let plausible = true;
-    if (Math.abs(line.slope - 2) > 0.3) {
-      warnings.push(`log–log slope ${fmt(line.slope)} is not near 2: the window is not trap-free SCLC`);
+    if (!(s > 0)) {
+      warnings.push('J/V does not rise with V (slope ≤ 0): no space-charge-limited term');
+      return { parameters, warnings, plausible: false, notes };
+    }
+    if (s < 2 * line.slopeStdErr) {
+      warnings.push(`the V² term is not resolved (J/V slope ${fmt(s)} ± ${fmt(line.slopeStdErr)}): the current is ohmic, not space-charge-limited`);
       plausible = false;
-    } else {
-      notes.push(`log–log slope ${fmt(line.slope)} ± ${fmt(line.slopeStdErr)} is close to 2`);
     }
     const { area, thickness, permittivity } = inputs;
     if (area !== undefined && thickness !== undefined && permittivity !== undefined) {
-      // Intercept of the slope-2 line: mean of (y − 2x), its error from the scatter about it.
-      const n = used.x.length;
-      let c = 0;
-      for (let i = 0; i < n; i++) c += used.y[i] - 2 * used.x[i];
-      c /= n;
-      let ss = 0;
-      for (let i = 0; i < n; i++) ss += (used.y[i] - 2 * used.x[i] - c) ** 2;
-      const sc = Math.sqrt(ss / Math.max(1, n - 1) / n);
       const k = (8 * thickness ** 3) / (9 * VACUUM_PERMITTIVITY_F_PER_M * permittivity);
-      const mu = k * Math.exp(c);
-      parameters.mobility = param(mu, mu * sc, 'm^2/(V*s)');
+      parameters.mobility = param(k * s, k * line.slopeStdErr, 'm^2/(V*s)');
     } else {
       warnings.push('mobility needs area, thickness and permittivity');
     }
-    const vtr = transitionVoltage(all.x, all.y);
-    if (vtr) {
-      parameters.transitionVoltage = param(vtr.value, vtr.stdErr, 'V');
-      notes.push(`ohmic (slope ${fmt(vtr.ohmicSlope)}) to SCLC (slope ${fmt(vtr.sclcSlope)}) at ${fmt(vtr.value)} V`);
+    if (area !== undefined && thickness !== undefined) {
+      parameters.conductivity = param(c * thickness, line.interceptStdErr * thickness, 'S/m');
+    }
+    if (c > 0) {
+      // V_tr = c/s; its variance from the covariance of (c, s).
+      const v = c / s;
+      const g1 = 1 / s;
+      const g2 = -c / (s * s);
+      const var_ = g1 * g1 * line.interceptStdErr ** 2 + g2 * g2 * line.slopeStdErr ** 2 + 2 * g1 * g2 * line.covariance;
+      parameters.transitionVoltage = param(v, Math.sqrt(Math.max(0, var_)), 'V');
+      notes.push(`ohmic to space-charge-limited at V_tr = ${fmt(v)} V (where the two terms are equal)`);
+    } else if (c + 2 * line.interceptStdErr < 0) {
+      warnings.push(`the ohmic term is negative (J/V intercept ${fmt(c)} ± ${fmt(line.interceptStdErr)}): not an ohmic background`);
+      plausible = false;
+    }
+    // The V² law: log–log slope of the Mott–Gurney part where it carries at least 70 % of the current.
+    const xs: number[] = [];
+    const ys: number[] = [];
+    const ws: number[] = [];
+    for (let k = 0; k < used.x.length; k++) {
+      const v = used.v[k];
+      const j = used.y[k] * v; // J
+      const mg = j - c * v;
+      if (mg > 0 && mg >= 0.7 * j && s * v * v >= 0.7 * (s * v * v + Math.max(c, 0) * v)) {
+        xs.push(Math.log(v));
+        ys.push(Math.log(mg));
+        // σ(ln mg) = σ_J/mg = σ_y·V/mg, σ_y = 1/√w.
+        const w = used.w ? used.w[k] : 1;
+        ws.push(w > 0 ? (mg * mg) / (v * v) * w : 0);
+      }
+    }
+    if (xs.length >= 4) {
+      try {
+        const f = fitLine(xs, ys, { weights: ws });
+        parameters.exponent = param(f.slope, f.slopeStdErr, '1');
+        if (Math.abs(f.slope - 2) > 3 * f.slopeStdErr + 0.05) {
+          warnings.push(`the log–log slope of the space-charge-limited part is ${fmt(f.slope)} ± ${fmt(f.slopeStdErr)}, not 2: not trap-free Mott–Gurney (traps filling, a field-dependent mobility or an injection barrier)`);
+          plausible = false;
+        } else {
+          notes.push(`log–log slope of the space-charge-limited part ${fmt(f.slope)} ± ${fmt(f.slopeStdErr)}: consistent with 2`);
+        }
+      } catch {
+        /* degenerate: no exponent */
+      }
+    } else {
+      notes.push('too few points where the V² term dominates to test the log–log slope of 2');
     }
     return { parameters, warnings, plausible, notes };
   },
@@ -70,32 +112,3 @@ export const sclc: Mechanism = {
     return p.ohmicConductivity !== undefined ? j + (p.ohmicConductivity * v) / (inputs.thickness as number) : j;
   },
 };
-
-/**
- * Finds adjacent regimes with log–log slopes near 1 then near 2 and returns the bias where their
- * lines cross, with the standard error propagated from both segment fits.
- */
-export function transitionVoltage(
-  lnV: Float64Array,
-  lnJ: Float64Array,
-): { value: number; stdErr: number; ohmicSlope: number; sclcSlope: number } | undefined {
-  if (lnV.length < 10) return undefined;
-  const { segments } = segmentLine(lnV, lnJ, { minPoints: 5, maxSegments: 4 });
-  for (let k = 0; k + 1 < segments.length; k++) {
-    const a = segments[k];
-    const b = segments[k + 1];
-    if (Math.abs(a.slope - 1) < 0.35 && Math.abs(b.slope - 2) < 0.5) {
-      const dm = b.slope - a.slope;
-      const dc = a.intercept - b.intercept;
-      const lnVtr = dc / dm;
-      // Gradient of ln V_tr = (c1 − c2)/(m2 − m1) with respect to (c1, m1) and (c2, m2).
-      const gc = 1 / dm;
-      const gm = dc / (dm * dm);
-      const varA = gc * gc * a.interceptStdErr ** 2 + gm * gm * a.slopeStdErr ** 2 + 2 * gc * gm * a.covariance;
-      const varB = gc * gc * b.interceptStdErr ** 2 + gm * gm * b.slopeStdErr ** 2 + 2 * gc * gm * b.covariance;
-      const value = Math.exp(lnVtr);
-      return { value, stdErr: value * Math.sqrt(Math.max(0, varA + varB)), ohmicSlope: a.slope, sclcSlope: b.slope };
-    }
-  }
-  return undefined;
-}

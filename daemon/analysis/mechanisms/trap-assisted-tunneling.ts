@@ -20,6 +20,10 @@ export const trapAssistedTunnelingMechanism: Mechanism = {
   uses: ['massRatio', 'area', 'flatBand'],
   usesArea: true,
   ranked: true,
+  current: true,
+  slopeSign: -1,
+  leakage: true,
+  superOhmic: true,
   axes: (inp) => ({
     x: { label: '1/E', unit: 'm/V', kind: 'linear' },
     y: { label: 'J', unit: currentUnit(inp), kind: 'log' },

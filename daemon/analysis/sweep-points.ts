@@ -1,0 +1,313 @@
+/**
+ * A whole sweep as the instrument recorded it, sorted into what can be analysed: readings that are
+ * not numbers, at compliance (flagged, at ≥ 99 % of a given limit, or detected as a current pinned
+ * at the top of a branch), at zero bias (they belong to neither branch), and the two branches of
+ * bias, each ordered by |bias|. The noise model (floor and relative part) is estimated here, once
+ * per sweep, and every reason is counted.
+ */
+import type { AccuracySpec } from './accuracy.js';
+import { AnalysisError } from './errors.js';
+import { estimateFloor, floorLevel, MIN_RELATIVE, noiseFromAccuracy, type NoiseModel } from './noise-floor.js';
+
+/** Points excluded for these reasons are counted under these names in every report. */
+export const REASONS = {
+  notFinite: 'not a finite number',
+  compliance: 'at compliance',
+  zeroBias: 'zero bias',
+  oppositePolarity: 'opposite polarity',
+  otherBranch: 'other polarity (analysed as its own branch)',
+  floor: 'at the noise floor',
+  againstBias: 'current flows against the bias',
+  nonPositiveLog: 'non-positive value under a log',
+  nonPositiveTemperature: 'non-positive temperature',
+  expression: 'expression not a finite number',
+  outsideWindow: 'outside the fit window',
+} as const;
+
+export interface SweepData {
+  readonly x: ArrayLike<number>;
+  readonly y: ArrayLike<number>;
+  readonly compliance?: ArrayLike<number>;
+}
+
+export interface Branch {
+  /** +1: positive bias (relative to the flat-band voltage), −1: negative. */
+  readonly sign: 1 | -1;
+  /** Reading indices in order of increasing |bias|. */
+  readonly index: Int32Array;
+  /** Readings with current along the bias and above the noise floor. */
+  readonly signal: number;
+  /** Largest |I| among them, A. */
+  readonly maxCurrent: number;
+}
+
+export interface SweepClasses {
+  readonly noise: NoiseModel;
+  /** Notes on the floor estimate or detected compliance, for the report. */
+  readonly notes: string[];
+  /** Per reading: 0 usable, else an exclusion reason that holds for every mechanism. */
+  readonly excluded: (string | undefined)[];
+  readonly reasons: Record<string, number>;
+  readonly positive: Branch;
+  readonly negative: Branch;
+  /** |bias| at or below this counts as zero bias, V. */
+  readonly zeroTol: number;
+}
+
+export interface ClassifyOptions {
+  readonly flatBand?: number;
+  readonly complianceLimit?: number;
+  readonly accuracy?: AccuracySpec;
+  /** Relative noise when known from elsewhere (otherwise estimated later per mechanism). */
+  readonly relative?: number;
+  /** Look for a current pinned at compliance that no flag marks (default true: the y column is a current). */
+  readonly detectCompliance?: boolean;
+}
+
+/**
+ * Index permutation sorting keys ascending, stable: natural merge sort over the runs already in
+ * the data (a sweep is one run, out-and-back two), so sorted or reversed input costs O(n).
+ */
+export function sortedOrder(keys: ArrayLike<number>, idx: Int32Array): Int32Array {
+  const n = idx.length;
+  if (n < 2) return idx;
+  let a = Int32Array.from(idx);
+  // Find runs; reverse strictly descending ones.
+  const starts: number[] = [0];
+  let k = 0;
+  while (k < n - 1) {
+    let j = k;
+    if (keys[a[j + 1]] < keys[a[j]]) {
+      while (j < n - 1 && keys[a[j + 1]] < keys[a[j]]) j++;
+      for (let lo = k, hi = j; lo < hi; lo++, hi--) {
+        const t = a[lo];
+        a[lo] = a[hi];
+        a[hi] = t;
+      }
+    } else {
+      while (j < n - 1 && keys[a[j + 1]] >= keys[a[j]]) j++;
+    }
+    k = j + 1;
+    if (k < n) starts.push(k);
+  }
+  let runs = starts.concat([n]);
+  let b = new Int32Array(n);
+  while (runs.length > 2) {
+    const next: number[] = [0];
+    for (let r = 0; r + 1 < runs.length; r += 2) {
+      const lo = runs[r];
+      const mid = runs[r + 1];
+      const hi = r + 2 < runs.length ? runs[r + 2] : mid;
+      let i = lo;
+      let j = mid;
+      let o = lo;
+      while (i < mid && j < hi) b[o++] = keys[a[j]] < keys[a[i]] ? a[j++] : a[i++];
+      while (i < mid) b[o++] = a[i++];
+      while (j < hi) b[o++] = a[j++];
+      next.push(hi);
+    }
+    const t = a;
+    a = b;
+    b = t;
+    runs = next;
+  }
+  return a;
+}
+
+/** Sorts the readings of a sweep into branches and estimates its noise floor. */
+export function classifySweep(data: SweepData, options: ClassifyOptions = {}): SweepClasses {
+  const n = data.x.length;
+  if (data.y.length !== n) throw new AnalysisError('BAD_INPUT', `x and y columns differ in length (${n}, ${data.y.length})`);
+  const vfb = options.flatBand ?? 0;
+  const limit = options.complianceLimit;
+  const excluded: (string | undefined)[] = new Array(n);
+  const reasons: Record<string, number> = {};
+  const count = (r: string) => (reasons[r] = (reasons[r] ?? 0) + 1);
+  let maxBias = 0;
+  for (let k = 0; k < n; k++) {
+    const b = Math.abs(data.x[k] - vfb);
+    if (Number.isFinite(b) && b > maxBias) maxBias = b;
+  }
+  const zeroTol = 1e-4 * maxBias;
+  const notes: string[] = [];
+  for (let k = 0; k < n; k++) {
+    const v = data.x[k];
+    const i = data.y[k];
+    if (!Number.isFinite(v) || !Number.isFinite(i)) excluded[k] = REASONS.notFinite;
+    else if (data.compliance?.[k] || (limit !== undefined && Math.abs(i) >= 0.99 * limit)) excluded[k] = REASONS.compliance;
+    else if (Math.abs(v - vfb) <= zeroTol) excluded[k] = REASONS.zeroBias;
+  }
+  // Branch membership by the sign of the bias.
+  const pos: number[] = [];
+  const neg: number[] = [];
+  for (let k = 0; k < n; k++) {
+    if (excluded[k] !== undefined) continue;
+    if (data.x[k] - vfb > 0) pos.push(k);
+    else neg.push(k);
+  }
+  const absBias = new Float64Array(n);
+  for (let k = 0; k < n; k++) absBias[k] = Math.abs(data.x[k] - vfb);
+  const posIdx = sortedOrder(absBias, Int32Array.from(pos));
+  const negIdx = sortedOrder(absBias, Int32Array.from(neg));
+  // Compliance that no flag or limit told us about: a current pinned at its largest value over the
+  // highest biases of a branch (an SMU at its limit reads the limit while the bias it is asked for rises).
+  for (const [idx, name] of [[posIdx, 'positive'], [negIdx, 'negative']] as const) {
+    if (options.detectCompliance === false) break;
+    const pinned = detectPinned(data, idx, absBias);
+    if (pinned.length) {
+      for (const k of pinned) excluded[k] = REASONS.compliance;
+      const level = Math.abs(data.y[pinned[0]]);
+      notes.push(`${pinned.length} reading${pinned.length > 1 ? 's' : ''} at the top of the ${name} branch ${pinned.length > 1 ? 'are' : 'is'} pinned at ${level.toPrecision(4)} A (the branch's largest current, held while the bias rises or read as a round value): taken as compliance (no compliance column or --compliance given)`);
+    }
+  }
+  for (let k = 0; k < n; k++) if (excluded[k] !== undefined) count(excluded[k] as string);
+  // Noise floor from the null readings: zero bias, and each branch from zero bias up to its last
+  // reading against the bias (while at least a fifth of the readings so far are against it).
+  const zero: number[] = [];
+  const low: number[] = [];
+  let signal = 0;
+  for (let k = 0; k < n; k++) {
+    if (excluded[k] === REASONS.zeroBias) zero.push(data.y[k]);
+    else if (excluded[k] === undefined) signal = Math.max(signal, Math.abs(data.y[k]));
+  }
+  for (const [idx, sign] of [[posIdx, 1], [negIdx, -1]] as const) {
+    let against = 0;
+    let last = -1;
+    let seen = 0;
+    const all: number[] = [];
+    for (let j = 0; j < idx.length; j++) {
+      const k = idx[j];
+      if (excluded[k] !== undefined) continue;
+      seen++;
+      if (data.y[k] * sign < 0) {
+        against++;
+        all.push(data.y[k]);
+        if (against >= 0.1 * seen) last = j;
+      }
+    }
+    const before = low.length;
+    for (let j = 0; j <= last; j++) if (excluded[idx[j]] === undefined) low.push(data.y[idx[j]]);
+    // Too few in the run from zero bias: the readings against the bias alone.
+    if (low.length - before < 3 && all.length >= 3) low.splice(before, low.length - before, ...all);
+  }
+  let est = estimateFloor(zero, low, signal);
+  if (est?.note) notes.push(est.note);
+  if (!est) {
+    // Too few readings against the bias or at zero bias: the scatter of the lowest-bias readings
+    // about the straight interpolation of their neighbours (a leakage there is nearly linear in V).
+    const r: number[] = [];
+    const lowest: number[] = [];
+    for (const idx of [posIdx, negIdx]) {
+      // The low plateau: the first readings of the branch whose |I| stays within 30× the smallest.
+      const all = Array.from(idx).filter((k) => excluded[k] === undefined);
+      let min = Infinity;
+      for (const k of all.slice(0, 8)) min = Math.min(min, Math.abs(data.y[k]) || Infinity);
+      const ks: number[] = [];
+      for (const k of all) {
+        if (ks.length >= 8 || !(Math.abs(data.y[k]) <= 30 * min)) break;
+        ks.push(k);
+      }
+      lowest.push(...ks);
+      for (let j = 1; j + 1 < ks.length; j++) {
+        const [a, b, c] = [ks[j - 1], ks[j], ks[j + 1]];
+        const span = data.x[c] - data.x[a];
+        if (!(span !== 0)) continue;
+        const f = (data.x[b] - data.x[a]) / span;
+        const interp = data.y[a] + f * (data.y[c] - data.y[a]);
+        r.push((data.y[b] - interp) / Math.sqrt(1 + f * f + (1 - f) * (1 - f)));
+      }
+    }
+    if (r.length >= 3) {
+      const sq = Float64Array.from(r, (e) => e * e).sort();
+      const m = sq.length >> 1;
+      const med = sq.length % 2 ? sq[m] : 0.5 * (sq[m - 1] + sq[m]);
+      const sigma = Math.sqrt(med / 0.454936423119572);
+      // A scatter of a few percent of the currents themselves is their relative noise, not a floor;
+      // residuals all of one sign are the bend of a smooth curve, not noise.
+      const cur = lowest.map((k) => Math.abs(data.y[k])).sort((a, b) => a - b);
+      let plus = 0;
+      for (const e of r) if (e > 0) plus++;
+      const mixed = Math.min(plus, r.length - plus) >= 0.25 * r.length;
+      if (mixed && sigma >= 0.1 * cur[cur.length >> 1]) {
+        est = { sigma, n: r.length + 2 };
+        notes.push(`few readings lie at zero bias or against the bias: the noise floor (${sigma.toPrecision(3)} A) comes from the scatter of the lowest-bias readings`);
+      } else {
+        notes.push(`no reading reaches the noise floor: even the lowest-bias readings (${cur[0].toPrecision(3)} A and up) follow a smooth curve`);
+      }
+    }
+  }
+  let noise: NoiseModel;
+  if (options.accuracy) noise = noiseFromAccuracy(options.accuracy, est && est.sigma > 0 ? est.sigma : undefined, est?.n ?? 0);
+  else {
+    noise = {
+      floor: est?.sigma ?? 0,
+      relative: options.relative ?? MIN_RELATIVE,
+      floorSource: est && est.sigma > 0 ? 'readings' : 'not reached',
+      floorReadings: est?.n ?? 0,
+      relativeSource: 'scatter',
+    };
+  }
+  const level = floorLevel(noise);
+  const branch = (sign: 1 | -1, idx: Int32Array): Branch => {
+    let signal = 0;
+    let maxCurrent = 0;
+    for (const k of idx) {
+      if (excluded[k] !== undefined) continue;
+      const s = data.y[k] * sign;
+      if (s > level && s > 0) {
+        signal++;
+        if (s > maxCurrent) maxCurrent = s;
+      }
+    }
+    let m = 0;
+    const kept = new Int32Array(idx.length);
+    for (let j = 0; j < idx.length; j++) if (excluded[idx[j]] === undefined) kept[m++] = idx[j];
+    return { sign, index: kept.slice(0, m), signal, maxCurrent };
+  };
+  return { noise, notes, excluded, reasons, positive: branch(1, posIdx), negative: branch(-1, negIdx), zeroTol };
+}
+
+function detectPinned(data: SweepData, idx: Int32Array, absBias: Float64Array): number[] {
+  const m = idx.length;
+  if (m < 3) return [];
+  let top = 0;
+  for (const k of idx) top = Math.max(top, Math.abs(data.y[k]));
+  if (!(top > 0)) return [];
+  const tol = 2e-3 * top;
+  const near: number[] = [];
+  for (let j = 0; j < m; j++) if (top - Math.abs(data.y[idx[j]]) <= tol) near.push(j);
+  // They must be the highest biases of the branch.
+  const first = near[0];
+  for (let j = first; j < m; j++) if (top - Math.abs(data.y[idx[j]]) > tol) return [];
+  const ks = near.map((j) => idx[j]);
+  // A run of readings held at the top while the bias asked for rises.
+  const bLo = absBias[idx[first]];
+  const bHi = absBias[idx[m - 1]];
+  if (near.length >= 2 && bHi - bLo > 1e-3 * bHi) return ks;
+  // Readings at the top bias that read exactly the same round current (three significant digits
+  // or fewer), in a file whose other readings carry more digits: the instrument's limit.
+  const round = (a: number) => Number(a.toPrecision(3)) === a;
+  const v0 = Math.abs(data.y[ks[0]]);
+  if (!round(v0) || ks.some((k) => Math.abs(data.y[k]) !== v0)) return [];
+  let fine = 0;
+  for (const k of idx) if (!round(Math.abs(data.y[k]))) fine++;
+  return fine >= 0.8 * (m - ks.length) ? ks : [];
+}
+
+/**
+ * The branches to analyse for a mechanism: `forwardOnly` (a diode) takes the branch that carries the
+ * larger current; otherwise every branch with at least `minSignal` readings above the floor, first
+ * the one that carries ten times the other's current if either does (a forward branch), else the
+ * one with more readings above the floor (positive on a near tie).
+ */
+export function chooseBranches(c: SweepClasses, forwardOnly: boolean, minSignal = 5): Branch[] {
+  const p = c.positive;
+  const q = c.negative;
+  if (forwardOnly) return [q.maxCurrent > p.maxCurrent ? q : p];
+  const withSignal = [p, q].filter((b) => b.signal >= minSignal);
+  if (withSignal.length === 0) return [p.index.length >= q.index.length ? p : q];
+  if (withSignal.length === 1) return withSignal;
+  if (q.maxCurrent > 10 * p.maxCurrent) return [q, p];
+  if (p.maxCurrent > 10 * q.maxCurrent) return [p, q];
+  return q.signal > 1.1 * p.signal ? [q, p] : [p, q];
+}

@@ -1,0 +1,193 @@
+/**
+ * Whole sweeps as an instrument records them (test/helpers/whole-sweep.ts: published forward models
+ * written out independently of daemon/analysis, a noise floor of either sign, relative noise, leakage,
+ * compliance clipping, series and shunt resistance, both polarities), analysed with no window given.
+ * Tolerances are the engineering ones a device engineer quotes: barriers ±0.05 eV, ε_r ±10 %, ideality
+ * ±0.05, mobility ±30 % (common practice).
+ */
+import { describe, expect, it } from 'vitest';
+import { analyze, type FitReport } from '../../daemon/analysis/analyze.js';
+import { linearBias, wholeSweep, type Device, type SweepSpec } from '../helpers/whole-sweep.js';
+
+interface Case {
+  readonly name: string;
+  readonly spec: Omit<SweepSpec, 'seed'>;
+  readonly model: string;
+  readonly inputs: Record<string, number>;
+  readonly key: string;
+  readonly truth: number;
+  /** Absolute tolerance, or relative when `relative`. */
+  readonly tol: number;
+  readonly relative?: boolean;
+  /** Whether readings near zero bias reach the floor (a leakage or a diode's shunt can hold them above it). */
+  readonly floorVisible?: boolean;
+}
+
+const fn: Device = { kind: 'fowler-nordheim', barrier: 3.1, massRatio: 0.42 };
+const CASES: Case[] = [
+  {
+    name: 'Fowler–Nordheim, 7 nm oxide, 0 → 10 V, leakage 1e13 Ω, compliance 1 mA',
+    spec: { device: fn, thickness: 7e-9, area: 1e-8, leakage: 1e13, bias: linearBias(0, 10, 101), relative: 0.02, floor: 1e-13, compliance: 1e-3 },
+    model: 'fowler-nordheim', inputs: { thickness: 7e-9, area: 1e-8, massRatio: 0.42 }, key: 'barrierHeight', truth: 3.1, tol: 0.05, floorVisible: true,
+  },
+  {
+    name: 'Poole–Frenkel, 20 nm nitride (n = 2), 0 → 15 V',
+    spec: { device: { kind: 'poole-frenkel', prefactor: 1e-2, trapDepth: 1.0, permittivity: 4 }, thickness: 20e-9, area: 1e-8, leakage: 1e15, bias: linearBias(0, 15, 101), relative: 0.02, floor: 1e-13, compliance: 1e-3 },
+    model: 'poole-frenkel', inputs: { thickness: 20e-9, area: 1e-8, refractiveIndex: 2 }, key: 'relativePermittivity', truth: 4, tol: 0.1, relative: true, floorVisible: true,
+  },
+  {
+    name: 'Schottky emission, 12 nm high-k at 350 K: barrier from the intercept',
+    spec: { device: { kind: 'schottky', barrier: 0.9, permittivity: 4, richardson: 1.2017e6 }, thickness: 12e-9, area: 1e-8, temperature: 350, leakage: 1e14, bias: linearBias(0, 5, 51), relative: 0.02, floor: 1e-13, compliance: 1e-3 },
+    model: 'schottky', inputs: { thickness: 12e-9, area: 1e-8, temperature: 350, refractiveIndex: 2 }, key: 'barrierHeight', truth: 0.9, tol: 0.05,
+  },
+  {
+    name: 'trap-assisted tunnelling through 1.2 eV traps, strong leakage (1e12 Ω)',
+    spec: { device: { kind: 'trap-assisted-tunneling', prefactor: 100, trapEnergy: 1.2, massRatio: 0.5 }, thickness: 10e-9, area: 1e-8, leakage: 1e12, bias: linearBias(0, 9, 91), relative: 0.02, floor: 1e-13, compliance: 1e-3 },
+    model: 'trap-assisted-tunneling', inputs: { thickness: 10e-9, area: 1e-8, massRatio: 0.5 }, key: 'trapEnergy', truth: 1.2, tol: 0.05, floorVisible: true,
+  },
+  {
+    name: 'hopping over 2 nm, 50 nm film',
+    spec: { device: { kind: 'hopping', prefactor: 1e-3, distance: 2e-9 }, thickness: 50e-9, area: 1e-8, leakage: 1e13, bias: linearBias(0, 10, 101), relative: 0.02, floor: 1e-13, compliance: 1e-3 },
+    model: 'hopping', inputs: { thickness: 50e-9, area: 1e-8 }, key: 'hoppingDistance', truth: 2e-9, tol: 0.1, relative: true,
+  },
+  {
+    name: 'dark diode −1 → 0.8 V with 2 Ω series and 100 MΩ shunt, clipped at 10 mA',
+    spec: { device: { kind: 'diode', saturationCurrent: 1e-12, ideality: 1.2, series: 2, shunt: 1e8 }, bias: linearBias(-1, 0.8, 181), relative: 0.02, floor: 1e-13, compliance: 1e-2 },
+    model: 'diode', inputs: { temperature: 300 }, key: 'idealityFactor', truth: 1.2, tol: 0.05,
+  },
+  {
+    name: 'ohmic → space-charge-limited, 100 nm organic layer, linear 0 → 10 V sweep',
+    // σ = 3e-5 S/m puts the transition at 8σd²/(9ε₀ε_rμ) = 1.0 V, inside the sweep.
+    spec: { device: { kind: 'sclc', mobility: 1e-8, permittivity: 3, conductivity: 3e-5 }, thickness: 1e-7, area: 1e-8, bias: linearBias(0, 10, 101), relative: 0.02, floor: 1e-13, compliance: 1e-2 },
+    model: 'sclc', inputs: { thickness: 1e-7, area: 1e-8, permittivity: 3 }, key: 'mobility', truth: 1e-8, tol: 0.3, relative: true,
+  },
+];
+
+function err(c: Case, r: FitReport): number {
+  const v = r.parameters[c.key].value;
+  return c.relative ? v / c.truth - 1 : v - c.truth;
+}
+
+describe('whole sweeps, no window given: every mechanism lands within tolerance and says so', () => {
+  for (const c of CASES) {
+    it(c.name, () => {
+      for (const seed of [1, 2, 3, 4, 5]) {
+        const s = wholeSweep({ ...c.spec, seed });
+        const r = analyze({ x: s.v, y: s.i }, { model: c.model, inputs: c.inputs });
+        const what = `seed ${seed}: ${JSON.stringify(r.parameters[c.key])}; warnings ${r.warnings.join('; ')}`;
+        expect(Math.abs(err(c, r)), what).toBeLessThanOrEqual(c.tol);
+        expect(r.plausible, what).toBe(true);
+        expect(r.window.mode).toBe('auto');
+        // The noise floor is found from the readings and reported (or reported as not reached).
+        if (c.floorVisible) {
+          expect(r.noise.floorSource, what).toBe('readings');
+          expect(r.noise.floor / 1e-13, what).toBeGreaterThan(0.3);
+          expect(r.noise.floor / 1e-13, what).toBeLessThan(3);
+        } else expect(['readings', 'not reached']).toContain(r.noise.floorSource);
+      }
+    });
+  }
+
+  it('the floor is estimated within a factor of two from readings of either sign near zero bias', () => {
+    for (const floor of [1e-14, 1e-13, 1e-12]) {
+      const s = wholeSweep({ ...CASES[0].spec, floor, seed: 7 });
+      const r = analyze({ x: s.v, y: s.i }, { model: 'fowler-nordheim', inputs: CASES[0].inputs });
+      expect(r.noise.floorSource).toBe('readings');
+      expect(r.noise.floor / floor, `floor ${floor}`).toBeGreaterThan(0.5);
+      expect(r.noise.floor / floor, `floor ${floor}`).toBeLessThan(2);
+      expect(r.points.reasons['at the noise floor']).toBeGreaterThan(0);
+    }
+  });
+});
+
+describe('branches and polarity', () => {
+  it('a film with a different barrier at each electrode: each branch analysed and the difference said', () => {
+    const s = wholeSweep({ ...CASES[0].spec, bias: linearBias(-10, 10, 201), negativeDevice: { kind: 'fowler-nordheim', barrier: 2.8, massRatio: 0.42 }, seed: 3 });
+    const r = analyze({ x: s.v, y: s.i }, { model: 'fowler-nordheim', inputs: CASES[0].inputs });
+    expect(r.branches.length).toBe(2);
+    const pos = r.branches.find((b) => b.polarity === 'positive');
+    const neg = r.branches.find((b) => b.polarity === 'negative');
+    expect(Math.abs((pos?.parameters.barrierHeight.value ?? 0) - 3.1)).toBeLessThan(0.05);
+    expect(Math.abs((neg?.parameters.barrierHeight.value ?? 0) - 2.8)).toBeLessThan(0.05);
+    expect(r.notes.join(' ')).toMatch(/both polarities carry signal/);
+    expect(r.warnings.join(' ')).toMatch(/two branches give different barrierHeight/);
+    // The zero-bias reading belongs to neither branch.
+    expect(r.points.reasons['zero bias']).toBe(1);
+  });
+
+  it('a dark diode swept −1 → 0.8 V is fitted on its forward branch (the physics), not on the reverse one', () => {
+    const s = wholeSweep({ ...CASES[5].spec, seed: 2 });
+    const r = analyze({ x: s.v, y: s.i }, { model: 'diode', inputs: { temperature: 300 } });
+    expect(r.branch).toBe('positive');
+    expect(Math.abs(r.parameters.idealityFactor.value - 1.2)).toBeLessThan(0.05);
+    expect(r.parameters.saturationCurrent.value / 1e-12).toBeGreaterThan(0.8);
+    expect(r.parameters.saturationCurrent.value / 1e-12).toBeLessThan(1.25);
+  });
+
+  it('a symmetric ±1 V diode sweep with --from 0.2 --to 0.7 fits the forward points of that window', () => {
+    const s = wholeSweep({ ...CASES[5].spec, bias: linearBias(-1, 1, 201), seed: 4 });
+    const r = analyze({ x: s.v, y: s.i }, { model: 'diode', inputs: { temperature: 300 }, window: { from: 0.2, to: 0.7 } });
+    expect(r.branch).toBe('positive');
+    expect(r.window.from).toBeGreaterThanOrEqual(0.2);
+    expect(r.window.to).toBeLessThanOrEqual(0.7);
+    expect(Math.abs(r.parameters.idealityFactor.value - 1.2)).toBeLessThan(0.05);
+  });
+});
+
+describe('compliance clipping without a flag', () => {
+  it('readings pinned at the limit over the top biases are excluded as compliance, and the note says why', () => {
+    const s = wholeSweep({ ...CASES[1].spec, seed: 5 });
+    const clipped = Array.from(s.compliance).filter((c) => c).length;
+    expect(clipped).toBeGreaterThan(1);
+    const r = analyze({ x: s.v, y: s.i }, { model: 'poole-frenkel', inputs: CASES[1].inputs });
+    expect(r.points.reasons['at compliance']).toBe(clipped);
+    expect(r.notes.join(' ')).toMatch(/pinned at 0.001000 A/);
+  });
+});
+
+describe('a wrong answer is never silent', () => {
+  it('trap-assisted tunnelling asked of a film that only leaks: implausible, with the reason (not 0.1 eV passed as fine)', () => {
+    // An ohmic film (1e12 Ω) and nothing else.
+    const s = wholeSweep({ device: { kind: 'hopping', prefactor: 1e-30, distance: 1e-10 }, thickness: 10e-9, area: 1e-8, leakage: 1e12, bias: linearBias(0, 9, 91), relative: 0.02, floor: 1e-13, seed: 1 });
+    const r = analyze({ x: s.v, y: s.i }, { model: 'trap-assisted-tunneling', inputs: { thickness: 10e-9, area: 1e-8, massRatio: 0.5 } });
+    expect(r.plausible).toBe(false);
+    expect(r.warnings.join(' ')).toMatch(/no faster than an ohmic leakage|no range|not determined/);
+  });
+
+  it('Poole–Frenkel data read as Schottky: ε_r far from n², implausible, and the hint names the other reading', () => {
+    const s = wholeSweep({ ...CASES[1].spec, seed: 6 });
+    const r = analyze({ x: s.v, y: s.i }, { model: 'schottky', inputs: CASES[1].inputs });
+    expect(r.plausible).toBe(false);
+    expect(r.warnings.join(' ')).toMatch(/far from n²/);
+  });
+
+  it('a manual window across the leakage bend and the floor: warned, implausible', () => {
+    const s = wholeSweep({ ...CASES[0].spec, seed: 8 });
+    const r = analyze({ x: s.v, y: s.i }, { model: 'fowler-nordheim', inputs: CASES[0].inputs, window: { from: 0.5, to: 9.5 } });
+    expect(r.plausible).toBe(false);
+    expect(r.warnings.join(' ')).toMatch(/reaches the noise floor/);
+  });
+
+  it('an ohmic + V² mixture whose V² part is not V² (log–log slope 2.6, traps filling) fails the slope check with its own uncertainty', () => {
+    // J = σV/d + K·V^2.6: a trap-limited power law, not Mott–Gurney.
+    const v = linearBias(0.05, 10, 100);
+    const i = Float64Array.from(v, (x, k) => (3e-7 * x / 1e-7 + 3e-5 * x ** 2.6) * 1e-8 * (1 + 0.01 * Math.sin(13 * k)));
+    const r = analyze({ x: v, y: i }, { model: 'sclc', inputs: { thickness: 1e-7, area: 1e-8, permittivity: 3 }, window: 'all' });
+    expect(r.plausible).toBe(false);
+    expect(r.warnings.join(' ')).toMatch(/log–log slope|regime change|bend/);
+  });
+});
+
+describe('space-charge-limited with an ohmic background (Mott & Gurney 1940; Lampert & Mark 1970)', () => {
+  it('J/V against V gives σ, μ and the transition voltage 8σd²/(9ε₀ε_rμ) on a linear sweep; the V² slope is 2 within its error', () => {
+    const s = wholeSweep({ ...CASES[6].spec, seed: 9 });
+    const r = analyze({ x: s.v, y: s.i }, { model: 'sclc', inputs: CASES[6].inputs });
+    const eps0 = 8.8541878128e-12; // CODATA 2018
+    const vtr = (8 * 3e-5 * 1e-14) / (9 * eps0 * 3 * 1e-8); // 1.004 V for these values
+    expect(Math.abs(r.parameters.mobility.value / 1e-8 - 1)).toBeLessThan(0.3);
+    expect(Math.abs(r.parameters.conductivity.value / 3e-5 - 1)).toBeLessThan(0.3);
+    expect(Math.abs(r.parameters.transitionVoltage.value / vtr - 1)).toBeLessThan(0.3);
+    expect(Math.abs(r.parameters.exponent.value - 2)).toBeLessThan(3 * r.parameters.exponent.stdErr + 0.05);
+    expect(r.notes.join(' ')).toMatch(/consistent with 2/);
+  });
+});
