@@ -271,7 +271,7 @@ describe('live page in headless Chromium', () => {
     expect(fn.status).toBe(200);
     const { page, errors } = await openPage(browser, daemon.url);
     // Long sweeps, so the change lands in the middle of the run.
-    await startFromPage(page, { start: '0', stop: '9', points: '300', repeat: '60', compliance: '0.001' });
+    await startFromPage(page, { start: '0', stop: '9', points: '150', repeat: '60', compliance: '0.001' });
     await page.waitForFunction(() => (window as any).__plumbline.store.drift.length >= 2, undefined, { timeout: 60_000 });
     await page.selectOption('#model-select', 'poole-frenkel');
     await page.fill('#analysis-form [name="from"]', '');
@@ -295,7 +295,7 @@ describe('live page in headless Chromium', () => {
     await page.waitForFunction(() => (window as any).__plumbline.store.runEnd !== null, undefined, { timeout: 10_000 });
     expect(errors).toEqual([]);
     await page.close();
-  });
+  }, 90_000);
 });
 
 describe('drift on the page', () => {
