@@ -14,7 +14,7 @@ import { MODEL_IDS } from './analysis/mechanisms/index.js';
 import { rankMechanisms } from './analysis/ranking.js';
 import { CsvError } from '../protocols/csv-table.js';
 import { formatDiode, formatFit, formatRanking, formatSolar } from './cli/format.js';
-import { cheung, fitDiode, solarFigures, type Convention } from './analysis/diode-fit.js';
+import { cheung, fitDiode, solarFiguresWithUncertainty, type Convention } from './analysis/diode-fit.js';
 import {
   type AnalysisOptions,
   enableExpressions,
@@ -148,10 +148,12 @@ withAnalysisOptions(
     const { parseQuantity } = await import('./quantity.js');
     irradiance = parseQuantity(o.irradiance, 'irradiance', '--irradiance');
   }
-  const report = solarFigures(data, { convention: readConvention(o), complianceLimit: readCompliance(o), area: inputs.area, irradiance });
+  const report = solarFiguresWithUncertainty(data, { convention: readConvention(o), complianceLimit: readCompliance(o), area: inputs.area, irradiance });
+  const figures = { ...report.figures, jsc: report.jsc };
   const flat = {
-    ...Object.fromEntries(Object.entries(report.figures).map(([k, v]) => [k, v === null ? null : v.value])),
-    units: { isc: 'A', voc: 'V', pmax: 'W', vmp: 'V', imp: 'A', fillFactor: '', efficiency: '' },
+    ...Object.fromEntries(Object.entries(figures).map(([k, v]) => [k, v === null ? null : v.value])),
+    stdErr: Object.fromEntries(Object.entries(figures).map(([k, v]) => [k, v === null ? null : v.stdErr])),
+    units: { isc: 'A', jsc: 'A/m^2', voc: 'V', pmax: 'W', vmp: 'V', imp: 'A', fillFactor: '', efficiency: '' },
     irradiance: report.irradiance,
     area: report.area,
     points: report.points,

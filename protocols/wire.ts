@@ -60,6 +60,24 @@ export interface FitSummary {
   readonly regimes: readonly { from: number; to: number; slope: number; intercept: number; n: number }[];
 }
 
+/**
+ * An illuminated solar cell's sweep (with the analysis option `solar`): figures of merit with
+ * standard uncertainties from local fits of the measured curve (isc A, jsc A/m², voc V, pmax W,
+ * vmp V, imp A, fillFactor and efficiency dimensionless; jsc and efficiency need the area), the
+ * single-diode fit, and its model curve (V, A) to draw — all in the generator convention.
+ */
+export interface SolarSummary {
+  readonly convention: 'load' | 'generator';
+  readonly irradiance: number;
+  readonly area: number | null;
+  readonly temperature: { readonly value: number; readonly assumed: boolean };
+  readonly figures: Record<string, ParameterFigure>;
+  readonly model: { readonly parameters: Record<string, ParameterFigure>; readonly rmse: number | null } | null;
+  readonly curve: { readonly v: readonly number[]; readonly i: readonly number[] } | null;
+  readonly warnings: readonly string[];
+  readonly error?: string;
+}
+
 export type RunOutcome =
   | 'completed'
   | 'stopped'
@@ -117,7 +135,7 @@ export type WireEvent =
     })
   | (Stamped & { readonly type: 'sweep-start'; readonly sweep: number; readonly planned: number; readonly label: string })
   | (Stamped & { readonly type: 'sweep-end'; readonly sweep: number; readonly points: number; readonly complete: boolean; readonly note?: string })
-  | (Stamped & { readonly type: 'fit'; readonly sweep: number; readonly final: boolean; readonly fit: FitSummary | null; readonly error?: string })
+  | (Stamped & { readonly type: 'fit'; readonly sweep: number; readonly final: boolean; readonly fit: FitSummary | null; readonly error?: string; /** Final fits of a solar cell (analysis option `solar`). */ readonly solar?: SolarSummary })
   | (Stamped & {
       readonly type: 'drift';
       readonly sweep: number;

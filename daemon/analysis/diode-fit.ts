@@ -464,3 +464,148 @@ export function modelCurve(report: DiodeReport, v: number[]): number[] {
   const c = { photocurrent: P.photocurrent?.value ?? 0, diodes, seriesResistance: P.seriesResistance.value, shuntResistance: P.shuntResistance.value, vt };
   return v.map((x) => diodeCurrent(x, c));
 }
+
+/**
+ * A polynomial (degree 1 to 3) fitted by least squares to the `k` points nearest x0, in
+ * x − x0 for conditioning; coefficients, their covariance (scaled by the residual variance, so the
+ * noise is taken from the points themselves) and the degrees of freedom.
+ */
+function localPolynomial(v: number[], i: number[], x0: number, k: number, degree: number): { c: number[]; cov: number[][]; dof: number } | undefined {
+  const order = v.map((_x, j) => j).sort((a, b) => Math.abs(v[a] - x0) - Math.abs(v[b] - x0)).slice(0, k);
+  const m = degree + 1;
+  if (order.length < m + 2) return undefined;
+  // Normal equations AᵀA c = Aᵀy with rows [1, u, u², …], u = v − x0.
+  const ata = Array.from({ length: m }, () => new Array<number>(m).fill(0));
+  const aty = new Array<number>(m).fill(0);
+  for (const j of order) {
+    const u = v[j] - x0;
+    const row = Array.from({ length: m }, (_x, e) => u ** e);
+    for (let a = 0; a < m; a++) {
+      aty[a] += row[a] * i[j];
+      for (let b = 0; b < m; b++) ata[a][b] += row[a] * row[b];
+    }
+  }
+  const inv = invertSmall(ata);
+  if (!inv) return undefined;
+  const c = inv.map((r) => r.reduce((s, x, b) => s + x * aty[b], 0));
+  let ss = 0;
+  for (const j of order) {
+    const u = v[j] - x0;
+    const r = i[j] - poly(c, u);
+    ss += r * r;
+  }
+  const dof = order.length - m;
+  const s2 = ss / dof;
+  return { c, cov: inv.map((r) => r.map((x) => x * s2)), dof };
+}
+
+/** Σ c_j u^j. */
+function poly(c: number[], u: number): number {
+  let s = 0;
+  for (let j = c.length - 1; j >= 0; j--) s = s * u + c[j];
+  return s;
+}
+
+/** d/du Σ c_j u^j. */
+function dpoly(c: number[], u: number): number {
+  let s = 0;
+  for (let j = c.length - 1; j >= 1; j--) s = s * u + j * c[j];
+  return s;
+}
+
+/** Inverse of a small matrix (Gauss–Jordan); undefined when singular. */
+function invertSmall(a: number[][]): number[][] | undefined {
+  const n = a.length;
+  const m = a.map((r, k) => [...r, ...Array.from({ length: n }, (_x, j) => (j === k ? 1 : 0))]);
+  for (let col = 0; col < n; col++) {
+    let piv = col;
+    for (let r = col + 1; r < n; r++) if (Math.abs(m[r][col]) > Math.abs(m[piv][col])) piv = r;
+    if (!(Math.abs(m[piv][col]) > 0)) return undefined;
+    [m[col], m[piv]] = [m[piv], m[col]];
+    const p = m[col][col];
+    for (let j = 0; j < 2 * n; j++) m[col][j] /= p;
+    for (let r = 0; r < n; r++) {
+      if (r === col) continue;
+      const f = m[r][col];
+      for (let j = 0; j < 2 * n; j++) m[r][j] -= f * m[col][j];
+    }
+  }
+  return m.map((r) => r.slice(n));
+}
+
+/** gᵀ C g. */
+function quadForm(g: number[], cov: number[][]): number {
+  let s = 0;
+  for (let a = 0; a < g.length; a++) for (let b = 0; b < g.length; b++) s += g[a] * cov[a][b] * g[b];
+  return Math.max(0, s);
+}
+
+/** Points of the measured curve in each local fit of the figures of merit, and the degree near V_oc and P_max. */
+export const SOLAR_LOCAL_POINTS = 9;
+export const SOLAR_LOCAL_DEGREE = 4;
+
+/**
+ * The solar figures of merit with standard uncertainties, from local least-squares fits of the
+ * measured curve (the noise taken from each fit's own residuals; local fits near each point are
+ * how IEC 60904-1 has them read off a measured curve): I_sc as the intercept of a line through the
+ * points nearest V = 0; V_oc as the root of a quartic I(V) through the points nearest the zero
+ * crossing; P_max and V_mp at the maximum of a quartic P(V) = V·I through the points nearest the
+ * largest measured power; uncertainties by first-order propagation of each fit's
+ * covariance (the delta method), FF and η from those (the three regions share no points, so they
+ * are propagated as independent). G and the area are taken as exact. With `area`, J_sc = I_sc/A.
+ * Falls back to solarFigures' values (stdErr 0) where a local fit is not possible.
+ */
+export function solarFiguresWithUncertainty(data: IVData, req: DiodeRequest & { irradiance?: number } = {}): SolarReport & { readonly jsc: FittedParameter | null } {
+  const base = solarFigures(data, req);
+  const { v, i } = points(data, req);
+  const k = SOLAR_LOCAL_POINTS;
+  const f = base.figures;
+  const warnings = [...base.warnings];
+  let isc = f.isc;
+  const a = localPolynomial(v, i, 0, k, 1);
+  if (a) isc = { value: a.c[0], stdErr: Math.sqrt(a.cov[0][0]), unit: 'A' };
+  else warnings.push('too few points near V = 0 for the uncertainty of I_sc');
+  let voc = f.voc;
+  // Quartics near V_oc and P_max: over a few kT/q the exponential bends too much for a parabola
+  // (on a synthetic cell with 10 mV steps a parabola or cubic leaves a bias of several σ).
+  const spacing = (x0: number) => {
+    const near = [...v].sort((a2, b2) => Math.abs(a2 - x0) - Math.abs(b2 - x0)).slice(0, k).sort((a2, b2) => a2 - b2);
+    const steps = near.slice(1).map((x, j) => x - near[j]).sort((a2, b2) => a2 - b2);
+    return steps.length ? steps[steps.length >> 1] : Number.NaN;
+  };
+  if (spacing(f.voc.value) > 0.015) warnings.push(`the points near V_oc are about ${(spacing(f.voc.value) * 1000).toFixed(0)} mV apart: the local fit can bias V_oc and P_max beyond their stated uncertainties; sweep in steps of 10 mV or less there`);
+  const b = localPolynomial(v, i, f.voc.value, k, SOLAR_LOCAL_DEGREE);
+  if (b) {
+    const c = b.c;
+    const d1 = (u: number) => dpoly(c, u);
+    // Root nearest u = 0 (u = V − V_oc as interpolated), by Newton steps.
+    let root = -c[0] / c[1];
+    for (let it = 0; it < 8; it++) root -= poly(c, root) / d1(root);
+    const slope = d1(root);
+    const g = c.map((_x, e) => -(root ** e) / slope);
+    voc = { value: f.voc.value + root, stdErr: Math.sqrt(quadForm(g, b.cov)), unit: 'V' };
+  } else warnings.push('too few points near V_oc for its uncertainty');
+  let pmax = f.pmax;
+  let vmp = f.vmp;
+  const p = localPolynomial(v, v.map((x, j) => x * i[j]), f.vmp.value, k, SOLAR_LOCAL_DEGREE);
+  if (p) {
+    const c = p.c;
+    const d1 = (u: number) => dpoly(c, u);
+    const d2 = (u: number) => dpoly(c.slice(1).map((x, e) => x * (e + 1)), u);
+    let u = 0;
+    for (let it = 0; it < 8; it++) u -= d1(u) / d2(u);
+    if (d2(u) < 0 && Math.abs(u) < 0.5 * (v[v.length - 1] - v[0])) {
+      // P_max = P(u*): ∂P_max/∂c_j = u*^j (P' = 0 there); u* moves by −(∂P'/∂c_j)/P''.
+      const pow = c.map((_x, e) => u ** e);
+      pmax = { value: poly(c, u), stdErr: Math.sqrt(quadForm(pow, p.cov)), unit: 'W' };
+      vmp = { value: f.vmp.value + u, stdErr: Math.sqrt(quadForm(c.map((_x, e) => (-(e * u ** Math.max(0, e - 1)) / d2(u))), p.cov)), unit: 'V' };
+    } else warnings.push('no maximum of the power in the points near it: P_max without uncertainty');
+  } else warnings.push('too few points near the maximum power for its uncertainty');
+  const imp = { value: pmax.value / vmp.value, stdErr: (pmax.value / vmp.value) * Math.hypot(pmax.stdErr / pmax.value, vmp.stdErr / vmp.value), unit: 'A' };
+  const ffv = pmax.value / (isc.value * voc.value);
+  const fillFactor = { value: ffv, stdErr: ffv * Math.hypot(pmax.stdErr / pmax.value, isc.stdErr / isc.value, voc.stdErr / voc.value), unit: '' };
+  const g = req.irradiance ?? 1000;
+  const efficiency = req.area !== undefined ? { value: pmax.value / (g * req.area), stdErr: pmax.stdErr / (g * req.area), unit: '' } : null;
+  const jsc = req.area !== undefined ? { value: isc.value / req.area, stdErr: isc.stdErr / req.area, unit: 'A/m^2' } : null;
+  return { ...base, figures: { isc, voc, pmax, vmp, imp, fillFactor, efficiency }, jsc, warnings };
+}

@@ -88,15 +88,19 @@ export function formatDiode(r: DiodeReport): string {
   return out.join('\n');
 }
 
-export function formatSolar(r: SolarReport): string {
+export function formatSolar(r: SolarReport & { readonly jsc?: { value: number; stdErr: number; unit: string } | null }): string {
   const f = r.figures;
   const out: string[] = [];
-  out.push(`solar figures of merit (${r.points.used} points, current read as ${r.convention} convention; G = ${r.irradiance} W/m²)`);
-  out.push(`  isc         ${num(f.isc.value, 6)} A`);
-  out.push(`  voc         ${num(f.voc.value, 6)} V`);
-  out.push(`  pmax        ${num(f.pmax.value, 6)} W   at vmp ${num(f.vmp.value, 5)} V, imp ${num(f.imp.value, 5)} A`);
-  out.push(`  fillFactor  ${num(f.fillFactor.value, 5)}`);
-  out.push(`  efficiency  ${f.efficiency ? `${num(f.efficiency.value * 100, 4)} % (area ${num(r.area as number)} m²)` : 'needs --area'}`);
+  const line = (key: string, p: { value: number; stdErr: number; unit: string } | null | undefined, missing: string) => out.push(`  ${pad(key, 11)} ${p ? formatParameterText(p, key) : missing}`);
+  out.push(`solar figures of merit (${r.points.used} points, current read as ${r.convention} convention; G = ${num(r.irradiance)} W/m²${r.area !== null ? `, area ${formatParameterText({ value: r.area, unit: 'm^2' })}` : ''}); ± one standard uncertainty from local fits of the curve`);
+  line('isc', f.isc, '');
+  line('jsc', r.jsc, 'needs --area');
+  line('voc', f.voc, '');
+  line('pmax', f.pmax, '');
+  line('vmp', f.vmp, '');
+  line('imp', f.imp, '');
+  line('fillFactor', f.fillFactor, '');
+  line('efficiency', f.efficiency, 'needs --area');
   for (const x of r.warnings) out.push(`warning:    ${x}`);
   out.push('note:       STC is 1000 W/m², 25 °C cell, AM1.5G spectrum (IEC 60904-3; measurement per IEC 60904-1): state yours if they differ.');
   return out.join('\n');

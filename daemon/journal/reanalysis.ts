@@ -8,7 +8,8 @@ import { appendFileSync } from 'node:fs';
 import { basename, join } from 'node:path';
 import { analyze } from '../analysis/analyze.js';
 import { plotView, type PlotView } from '../analysis/plot.js';
-import type { FitSummary, PackedReading, WireEvent } from '../../protocols/wire.js';
+import type { FitSummary, PackedReading, SolarSummary, WireEvent } from '../../protocols/wire.js';
+import { solarSummary } from '../analysis/solar-live.js';
 import { summarizeFit } from '../pipeline/chain.js';
 import { analysisSchema, type AnalysisSettings } from '../pipeline/settings.js';
 import { SessionIndex, type Envelope } from './session-index.js';
@@ -22,6 +23,8 @@ export interface SweepFit {
   readonly sweep: number;
   readonly fit: FitSummary | null;
   readonly error: string | null;
+  /** A solar cell's figures of merit and diode fit (analysis option `solar`). */
+  readonly solar?: SolarSummary | null;
 }
 
 /** The settings a sweep was analysed with, parsed (null when the journal's cannot be read). */
@@ -31,11 +34,12 @@ function settingsOf(raw: unknown): AnalysisSettings | null {
 }
 
 /** One sweep fitted with the given settings (what the live chain does at a sweep's end). */
-export function fitSweep(data: { x: number[]; y: number[]; compliance: number[] }, a: AnalysisSettings, complianceLimit: number | undefined): { fit: FitSummary | null; error: string | null } {
+export function fitSweep(data: { x: number[]; y: number[]; compliance: number[] }, a: AnalysisSettings, complianceLimit: number | undefined): { fit: FitSummary | null; error: string | null; solar?: SolarSummary } {
+  const solar = a.solar ? { solar: solarSummary(data, { temperature: a.inputs.temperature, area: a.inputs.area, irradiance: a.solar.irradiance, complianceLimit }) } : {};
   try {
-    return { fit: summarizeFit(analyze(data, { model: a.model, inputs: a.inputs, window: a.window, complianceLimit, regimes: false })), error: null };
+    return { fit: summarizeFit(analyze(data, { model: a.model, inputs: a.inputs, window: a.window, complianceLimit, regimes: false })), error: null, ...solar };
   } catch (e) {
-    return { fit: null, error: (e as Error).message };
+    return { fit: null, error: (e as Error).message, ...solar };
   }
 }
 
@@ -55,6 +59,7 @@ export interface SweepDetail {
   /** The journaled final fit and the settings in force when it was made. */
   readonly fit: FitSummary | null;
   readonly error: string | null;
+  readonly solar: SolarSummary | null;
   readonly analysis: AnalysisSettings | null;
   readonly view: PlotView | null;
 }
@@ -67,7 +72,7 @@ export function sweepDetail(dir: string, sweep: number): SweepDetail | undefined
   const r = x.readSweep(sweep);
   const a = settingsOf(s.analysis);
   const data = { x: r.v, y: r.i, compliance: r.flags.map((f) => f & 1) };
-  return { sweep, readings: r.rows, complete: s.complete, fit: s.fit, error: s.fitError, analysis: a, view: a ? viewSweep(data, a, x.complianceLimit) : null };
+  return { sweep, readings: r.rows, complete: s.complete, fit: s.fit, error: s.fitError, solar: s.solar, analysis: a, view: a ? viewSweep(data, a, x.complianceLimit) : null };
 }
 
 /** One sweep's view with other settings, without recording anything. */
@@ -145,7 +150,7 @@ export function sessionOverview(dir: string, lastSweeps = OVERVIEW_SWEEPS): Over
       error: x.sweeps.map((s) => s.fitError),
       parameters,
     },
-    fits: x.sweeps.slice(-2).map((s) => ({ sweep: s.sweep, fit: s.fit, error: s.fitError, analysis: settingsOf(s.analysis) })),
+    fits: x.sweeps.slice(-2).map((s) => ({ sweep: s.sweep, fit: s.fit, error: s.fitError, solar: s.solar, analysis: settingsOf(s.analysis) })),
     drift: x.drift,
     ranking: x.ranking,
     recent,

@@ -8,7 +8,7 @@
  */
 import { closeSync, existsSync, openSync, readSync, statSync } from 'node:fs';
 import { join } from 'node:path';
-import type { FitSummary, PackedReading, WireEvent } from '../../protocols/wire.js';
+import type { FitSummary, PackedReading, SolarSummary, WireEvent } from '../../protocols/wire.js';
 import { FLAG } from '../../protocols/wire.js';
 import { JOURNAL_FILE, READINGS_FILE, RECORD_BYTES, RECORD_FIELDS } from './journal.js';
 import { scanJournal, type BadLine } from './reader.js';
@@ -27,6 +27,8 @@ export interface SweepRecord {
   /** The final fit as journaled (the last one, if the sweep was re-fitted after a settings change). */
   fit: FitSummary | null;
   fitError: string | null;
+  /** A solar cell's figures of merit and diode fit, when the analysis asked for them. */
+  solar: SolarSummary | null;
   /** The analysis settings in force when the sweep ended (what produced its final fit). */
   analysis: unknown;
 }
@@ -85,7 +87,7 @@ export class SessionIndex {
   private record(n: number): SweepRecord {
     let s = this.bySweep.get(n);
     if (!s) {
-      s = { sweep: n, first: -1, count: 0, complete: null, fit: null, fitError: null, analysis: this.analysis };
+      s = { sweep: n, first: -1, count: 0, complete: null, fit: null, fitError: null, solar: null, analysis: this.analysis };
       this.bySweep.set(n, s);
       this.sweeps.push(s);
     }
@@ -120,6 +122,7 @@ export class SessionIndex {
             const s = this.record(e.sweep);
             s.fit = e.fit;
             s.fitError = e.error ?? null;
+            s.solar = e.solar ?? null;
             s.analysis = this.analysis;
           }
           break;

@@ -15,8 +15,9 @@ import { LineAccumulator } from '../analysis/line-accumulator.js';
 import type { Mechanism, ResolvedInputs } from '../analysis/mechanism.js';
 import { getMechanism } from '../analysis/mechanisms/index.js';
 import { plotView, type PlotView } from '../analysis/plot.js';
+import { solarSummary } from '../analysis/solar-live.js';
 import { rankMechanisms } from '../analysis/ranking.js';
-import { FLAG, type FitSummary, type NewEvent, type RunOutcome, type WireEvent } from '../../protocols/wire.js';
+import { FLAG, type FitSummary, type NewEvent, type RunOutcome, type SolarSummary, type WireEvent } from '../../protocols/wire.js';
 import type { JournalWriter } from '../journal/journal.js';
 import type { AnalysisSettings, BreakdownConfig, DriftConfig } from './settings.js';
 
@@ -275,9 +276,18 @@ export class LiveChain {
     // The regime search is left to the linearized view (computed only while a page watches): the
     // fit events carry the line and parameters, and the chain keeps its pace without a page.
     const r = this.fitNow(this.v, this.i, this.c, false, !final);
-    this.emit({ type: 'fit', sweep: this.sweep, final, fit: r.fit, ...(r.error ? { error: r.error } : {}) });
+    const solar = final ? this.solarNow(this.v, this.i, this.c) : undefined;
+    this.emit({ type: 'fit', sweep: this.sweep, final, fit: r.fit, ...(r.error ? { error: r.error } : {}), ...(solar ? { solar } : {}) });
     this.publishView(this.sweep, final, this.v, this.i, this.c);
     return r;
+  }
+
+  /** A finished sweep of a solar cell (analysis option `solar`): figures of merit and the diode fit. */
+  private solarNow(v: number[], i: number[], c: number[]): SolarSummary | undefined {
+    const s = this.analysis.solar;
+    if (!s) return undefined;
+    const inp = this.analysis.inputs;
+    return solarSummary(this.data(v, i, c), { temperature: inp.temperature, area: inp.area, irradiance: s.irradiance, complianceLimit: this.options.complianceLimit });
   }
 
   private publishView(sweep: number, final: boolean, v: number[], i: number[], c: number[]): void {
@@ -385,7 +395,8 @@ export class LiveChain {
     const last = this.lastFinal;
     if (last) {
       const r = this.fitNow(last.v, last.i, last.c);
-      this.emit({ type: 'fit', sweep: last.sweep, final: true, fit: r.fit, ...(r.error ? { error: r.error } : {}) });
+      const solar = this.solarNow(last.v, last.i, last.c);
+      this.emit({ type: 'fit', sweep: last.sweep, final: true, fit: r.fit, ...(r.error ? { error: r.error } : {}), ...(solar ? { solar } : {}) });
       this.publishView(last.sweep, true, last.v, last.i, last.c);
     }
   }

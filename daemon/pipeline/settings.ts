@@ -30,6 +30,11 @@ export const analysisSchema = z.object({
   model: z.string().refine((m) => MODEL_IDS.includes(m) && m !== 'custom', { message: `expected one of ${MODEL_IDS.filter((m) => m !== 'custom').join(', ')}` }),
   window: windowSchema.default('auto'),
   inputs: inputsSchema.default({}),
+  /**
+   * An illuminated solar cell: each finished sweep also gets its figures of merit with
+   * uncertainties and the single-diode fit (irradiance in W/m², default 1000).
+   */
+  solar: z.object({ irradiance: positive.optional() }).strict().optional(),
 }).strict();
 
 export type AnalysisSettings = z.infer<typeof analysisSchema>;

@@ -73,6 +73,7 @@ export class Station {
       model: s.analysis.model,
       window: s.analysis.from !== undefined || s.analysis.to !== undefined ? { from: s.analysis.from, to: s.analysis.to } : 'auto',
       inputs: s.device.inputs,
+      ...(s.analysis.solar ? { solar: s.analysis.solar } : {}),
     });
   }
 

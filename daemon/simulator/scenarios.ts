@@ -43,7 +43,7 @@ export const scenarioSchema = z.object({
   /** Suggested sweep for demos and `plumbline run`. */
   sweep: z.object({ start: z.number(), stop: z.number(), points: z.number().int().min(2), compliance: z.number().positive() }).strict(),
   /** Suggested analysis for the live fit. */
-  analysis: z.object({ model: z.string(), from: z.number().optional(), to: z.number().optional() }).strict(),
+  analysis: z.object({ model: z.string(), from: z.number().optional(), to: z.number().optional(), solar: z.object({ irradiance: z.number().positive().optional() }).strict().optional() }).strict(),
 }).strict();
 
 export type Scenario = z.infer<typeof scenarioSchema>;

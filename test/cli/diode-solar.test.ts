@@ -71,11 +71,25 @@ describe('plumbline solar', () => {
     const r = runCli(['solar', smuCsv, '--area', '25.52 cm^2', '--json']);
     expect(r.code, r.stderr).toBe(0);
     const j = JSON.parse(r.stdout);
-    for (const k of ['isc', 'voc', 'pmax', 'vmp', 'imp', 'fillFactor', 'efficiency']) expect(typeof j[k]).toBe('number');
-    expect(j.isc).toBeCloseTo(0.7605, 10);
-    expect(j.voc).toBeCloseTo(0.5633 + (0.0103 * 0.1035) / 0.1135, 10);
+    for (const k of ['isc', 'jsc', 'voc', 'pmax', 'vmp', 'imp', 'fillFactor', 'efficiency']) {
+      expect(typeof j[k]).toBe('number');
+      // Every figure carries a standard uncertainty, small against the value for this smooth curve.
+      expect(j.stdErr[k]).toBeGreaterThan(0);
+      expect(j.stdErr[k]).toBeLessThan(0.01 * Math.abs(j[k]));
+    }
+    // The measured points around V = 0 read 0.7605 A; the zero crossing lies between 0.5633 V
+    // (0.1035 A) and 0.5736 V (−0.0100 A), 0.5724 V by a straight line between them.
+    expect(j.isc).toBeCloseTo(0.7605, 3);
+    expect(Math.abs(j.voc - (0.5633 + (0.0103 * 0.1035) / 0.1135))).toBeLessThan(5e-4);
+    expect(j.jsc).toBeCloseTo(j.isc / 25.52e-4, 9);
+    expect(j.units.jsc).toBe('A/m^2');
     expect(j.efficiency).toBeCloseTo(j.pmax / (1000 * 25.52e-4), 12);
+    expect(j.fillFactor).toBeCloseTo(j.pmax / (j.isc * j.voc), 12);
     expect(j.irradiance).toBe(1000);
+    // The text shows the trade's units: J_sc in mA/cm², η in %.
+    const text = runCli(['solar', smuCsv, '--area', '25.52 cm^2']).stdout;
+    expect(text).toMatch(/jsc\s+29\.\d+ ± 0\.\d+ mA\/cm²/);
+    expect(text).toMatch(/efficiency\s+12\.\d+ ± 0\.\d+ %/);
   });
 
   it('a generator-convention file read as the SMU convention: the error says what to check', () => {

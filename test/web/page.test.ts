@@ -271,7 +271,7 @@ describe('live page in headless Chromium', () => {
     expect(fn.status).toBe(200);
     const { page, errors } = await openPage(browser, daemon.url);
     // Long sweeps, so the change lands in the middle of the run.
-    await startFromPage(page, { start: '0', stop: '9', points: '300', repeat: '60', compliance: '0.001' });
+    await startFromPage(page, { start: '0', stop: '9', points: '150', repeat: '60', compliance: '0.001' });
     await page.waitForFunction(() => (window as any).__plumbline.store.drift.length >= 2, undefined, { timeout: 60_000 });
     await page.selectOption('#model-select', 'poole-frenkel');
     await page.fill('#analysis-form [name="from"]', '');
@@ -295,7 +295,7 @@ describe('live page in headless Chromium', () => {
     await page.waitForFunction(() => (window as any).__plumbline.store.runEnd !== null, undefined, { timeout: 10_000 });
     expect(errors).toEqual([]);
     await page.close();
-  });
+  }, 90_000);
 });
 
 describe('drift on the page', () => {
@@ -362,6 +362,45 @@ describe('a station other than the default', () => {
     expect(await page.textContent("#control-msg")).toMatch(/^compliance \(A\): enter the current limit .*at most 1 A/);
     expect((await api(daemon.url, 'GET', '/api/status')).json.running).toBe(false);
     await snap(page, 'page-solar-station-forms.png');
+    expect(errors).toEqual([]);
+    await page.close();
+  });
+
+  it('an illuminated cell shows its figures of merit and single-diode fit with uncertainties', async () => {
+    const { page, errors } = await openPage(browser, daemon.url);
+    await startFromPage(page, { repeat: '2', compliance: '0.5' });
+    await page.waitForFunction(() => (window as any).__plumbline.store.runEnd !== null, undefined, { timeout: 60_000 });
+    await page.waitForSelector('#solar-panel:not([hidden])');
+    await page.waitForTimeout(200);
+    const st = await pageState(page);
+    const events = (await api(daemon.url, 'GET', `/api/sessions/${st.session}`)).json.events as any[];
+    const solar = events.filter((e) => e.type === 'fit' && e.final && e.sweep === 2)[0].solar;
+    // What the page prints is the daemon's figure, rounded as the CLI and the report round it.
+    for (const key of ['isc', 'jsc', 'voc', 'pmax', 'fillFactor', 'efficiency']) {
+      const text = await page.textContent(`#solar tr[data-param="${key}"] td.value .num`);
+      expect(text, key).toBe(formatParameter(solar.figures[key], key).text);
+    }
+    expect(await page.textContent('#solar tr[data-param="jsc"] td.value .unit')).toBe(' mA/cm²');
+    expect(await page.textContent('#solar tr[data-param="efficiency"] td.value .unit')).toBe(' %');
+    expect(await page.locator('#solar tr[data-param="fillFactor"] td.value .unit').count()).toBe(0);
+    for (const key of ['photocurrent', 'saturationCurrent', 'idealityFactor', 'seriesResistance', 'shuntResistance']) {
+      expect(await page.locator(`#solar tr[data-param="${key}"]`).count(), key).toBe(1);
+    }
+    // The simulated cell's own single-diode parameters (config/scenarios/solar-cell.json) are
+    // recovered within 4σ (the simulator adds its instrument's noise).
+    const truth = { photocurrent: 0.14, idealityFactor: 1.3, seriesResistance: 0.05, shuntResistance: 200 };
+    for (const [k, v] of Object.entries(truth)) {
+      const p = solar.model.parameters[k];
+      expect(Math.abs(p.value - v), `${k} ${p.value} ± ${p.stdErr}`).toBeLessThan(4 * p.stdErr + 1e-9);
+    }
+    // FF = P_max / (I_sc · V_oc) and η = P_max / (G · A), G = 1000 W/m², A = 4 cm².
+    expect(solar.figures.fillFactor.value).toBeCloseTo(solar.figures.pmax.value / (solar.figures.isc.value * solar.figures.voc.value), 12);
+    expect(solar.figures.efficiency.value).toBeCloseTo(solar.figures.pmax.value / (1000 * 4e-4), 12);
+    // The chart draws the daemon's model curve and the maximum-power point.
+    const drawn = await page.evaluate(() => (window as any).__plumbline.charts.solar.plot.data[2]);
+    expect(drawn[0]).toEqual(solar.curve.v);
+    expect(drawn[1]).toEqual(solar.curve.i);
+    await snap(page, 'page-solar-cell.png');
     expect(errors).toEqual([]);
     await page.close();
   });

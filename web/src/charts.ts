@@ -7,7 +7,7 @@
 import uPlot from 'uplot';
 import { displayUnit } from '../../protocols/display-units.js';
 import { OKABE_ITO, sequential } from '../../protocols/palette.js';
-import type { PlotViewData, WireEvent } from '../../protocols/wire.js';
+import type { PlotViewData, SolarSummary, WireEvent } from '../../protocols/wire.js';
 import { axisText, displayView, linearRange, linearSplits, linearValues, logRange, logSplits, logValues, type DisplayView } from './axes.js';
 import type { Envelope, SweepPoints } from './store.js';
 
@@ -596,4 +596,66 @@ function intTicks(min: number, max: number): number[] {
   const out: number[] = [];
   for (let x = Math.ceil(a / step) * step; x <= b; x += step) out.push(x);
   return out;
+}
+
+/**
+ * An illuminated cell's I–V in the generator convention (delivered current positive): the measured
+ * readings ●, the fitted single-diode model (line), and the maximum-power point ■ with its
+ * rectangle (V_mp × I_mp, the area that is P_max). All numbers are the daemon's; the readings are
+ * only flipped in sign when the instrument recorded them in the load convention.
+ */
+export class SolarChart {
+  plot: uPlot | null = null;
+  solar: SolarSummary | null = null;
+
+  constructor(private readonly el: HTMLElement) {}
+
+  update(solar: SolarSummary, measured: SweepPoints | undefined): void {
+    this.solar = solar;
+    const sign = solar.convention === 'load' ? -1 : 1;
+    const mv = measured?.v ?? [];
+    const mi = (measured?.i ?? []).map((i, k) => ((measured?.flags[k] ?? 0) & 1 ? null : sign * i));
+    const curve = solar.curve ?? { v: [], i: [] };
+    const data = [null, [mv, mi], [curve.v, curve.i]];
+    if (!this.plot) {
+      this.el.textContent = '';
+      this.plot = new uPlot({
+        mode: 2,
+        ...size(this.el, 260),
+        legend: { show: false },
+        cursor: { drag: { x: true, y: true, setScale: true } },
+        scales: { x: { time: false, range: linearRange }, y: { range: linearRange } },
+        axes: [
+          { label: 'bias V (V)', stroke: '#1b1b1b', splits: linearSplits(), values: linearValues },
+          { label: 'delivered current I (A)', stroke: '#1b1b1b', size: 78, splits: linearSplits(), values: linearValues },
+        ],
+        series: [
+          {},
+          { label: 'measured', stroke: OKABE_ITO.blue, paths: () => null, points: { show: false } },
+          { label: 'single-diode fit', stroke: OKABE_ITO.black, width: 2, points: { show: false } },
+        ],
+        hooks: {
+          draw: [(u: uPlot) => {
+            const d = u.data as unknown as [null, [number[], (number | null)[]]];
+            drawPoints(u, d[1][0], d[1][1], 'dot', OKABE_ITO.blue, 2.5);
+            const f = this.solar?.figures;
+            if (!f?.vmp || !f.imp) return;
+            const ctx = u.ctx;
+            const x0 = u.valToPos(0, 'x', true);
+            const y0 = u.valToPos(0, 'y', true);
+            const x1 = u.valToPos(f.vmp.value, 'x', true);
+            const y1 = u.valToPos(f.imp.value, 'y', true);
+            ctx.save();
+            ctx.fillStyle = 'rgba(230, 159, 0, 0.15)';
+            ctx.strokeStyle = OKABE_ITO.orange;
+            ctx.setLineDash([5 * devicePixelRatio, 3 * devicePixelRatio]);
+            ctx.fillRect(Math.min(x0, x1), Math.min(y0, y1), Math.abs(x1 - x0), Math.abs(y1 - y0));
+            ctx.strokeRect(Math.min(x0, x1), Math.min(y0, y1), Math.abs(x1 - x0), Math.abs(y1 - y0));
+            ctx.restore();
+            drawPoints(u, [f.vmp.value], [f.imp.value], 'square', OKABE_ITO.vermillion, 5);
+          }],
+        },
+      }, data as unknown as uPlot.AlignedData, this.el);
+    } else this.plot.setData(data as unknown as uPlot.AlignedData);
+  }
 }

@@ -9,11 +9,11 @@
  * beside the journal (reanalysis.jsonl), never in it. The panels say which settings produced each
  * number.
  */
-import type { FitSummary, PlotViewData, ServerMessage, WireEvent } from '../../protocols/wire.js';
+import type { FitSummary, PlotViewData, ServerMessage, SolarSummary, WireEvent } from '../../protocols/wire.js';
 import { formatNumber } from '../../protocols/number-format.js';
-import { DriftChart, LinearizedChart, RawChart } from './charts.js';
+import { DriftChart, LinearizedChart, RawChart, SolarChart } from './charts.js';
 import { buildInputFields, fillAnalysis, fillPlan, markInputs, readAnalysis, readPlan, type StationStatus } from './forms.js';
-import { describeAnalysis, renderCautions, renderFitNotes, renderParams, renderRanking } from './panels.js';
+import { describeAnalysis, renderCautions, renderFitNotes, renderParams, renderRanking, renderSolar } from './panels.js';
 import { Store, type AnalysisSettings, type Envelope } from './store.js';
 
 const $ = <T extends HTMLElement = HTMLElement>(id: string) => document.getElementById(id) as T;
@@ -55,6 +55,7 @@ const lin = new LinearizedChart($('lin-chart'), $('resid-chart'), (from, to) => 
   void applyAnalysis({ ...a, window: { from, to } }, `fit window ${formatNumber(from)} … ${formatNumber(to)} V`);
 });
 const drift = new DriftChart($('drift-chart'));
+const solarChart = new SolarChart($('solar-chart'));
 
 // ---- connection -------------------------------------------------------------------------------
 let retry = 500;
@@ -163,6 +164,7 @@ function render(): void {
   }
   renderLinearized(s, cur);
   if (changed('params', s, cur, s.finalFits.get(cur), s.liveFit, s.reanalysis, s.running, s.ended.get(cur), s.analysis)) renderParamsPanel(s, cur);
+  renderSolarPanel(s, cur);
   if (changed('ranking', s, s.ranking)) renderRanking($('ranking'), s.ranking);
   if (changed('drift', s, s.drift)) renderDrift(s);
   renderPicker(s, cur);
@@ -241,6 +243,32 @@ function renderParamsPanel(s: Store, cur: number): void {
   renderFitNotes($('fit-warnings'), fit);
 }
 
+/** The solar figures of the sweep shown, or (while a sweep runs) of the last finished one. */
+function renderSolarPanel(s: Store, cur: number): void {
+  const re = s.reanalysis;
+  let sweep = cur;
+  let solar: SolarSummary | null | undefined = re?.fits.has(cur) ? re.fits.get(cur)?.solar : undefined;
+  let source = re?.fits.has(cur) ? 're-analysis' : 'recorded';
+  if (!solar) {
+    source = 'recorded';
+    solar = s.finalSolar.get(cur);
+    if (!solar) {
+      const earlier = [...s.finalSolar.keys()].filter((k) => k < cur).sort((a, b) => b - a)[0];
+      if (earlier !== undefined) {
+        sweep = earlier;
+        solar = s.finalSolar.get(earlier);
+        source = 'last finished sweep';
+      }
+    }
+  }
+  const panel = $('solar-panel');
+  panel.hidden = !solar;
+  if (!solar || !changed('solar', s, solar, sweep, s.sweeps.get(sweep)?.v.length)) return;
+  $('solar-title').textContent = `Solar cell: sweep ${sweep}`;
+  solarChart.update(solar, s.sweeps.get(sweep));
+  renderSolar($('solar'), `Sweep ${sweep} (${source})`, solar);
+}
+
 function unitOf(s: Store): (parameter: string) => string {
   return (parameter) => {
     for (const f of [...s.finalFits.values()].reverse()) {
@@ -258,7 +286,9 @@ function renderDrift(s: Store): void {
   const br = drift.breaks.at(-1);
   $('drift-state').textContent = d
     ? `sweep ${d.sweep}: ${d.state.replace(/-/g, ' ')}${br ? ` · baseline restarted at sweep ${br.sweep} (${br.reason})` : ''}`
-    : 'charted once the baseline sweeps are in';
+    : s.finalFits.size >= 2 && [...s.finalFits.values()].every((f) => !f || Object.keys(f.parameters).length === 0)
+      ? 'nothing to chart: this model\'s fits have no physical parameter'
+      : 'charted once the baseline sweeps are in';
 }
 
 let pickerKey = '';
@@ -321,7 +351,7 @@ async function reanalyse(s: Store, a: AnalysisSettings): Promise<void> {
   s.reanalysis = {
     at: r.at,
     analysis: r.analysis,
-    fits: new Map((r.fits as { sweep: number; fit: FitSummary | null; error: string | null }[]).map((f) => [f.sweep, { fit: f.fit, error: f.error }])),
+    fits: new Map((r.fits as { sweep: number; fit: FitSummary | null; error: string | null; solar?: SolarSummary }[]).map((f) => [f.sweep, { fit: f.fit, error: f.error, solar: f.solar ?? null }])),
     views: new Map((r.views as { sweep: number; view: PlotViewData }[]).map((v) => [v.sweep, v.view])),
   };
   s.dirty = true;
@@ -463,6 +493,7 @@ async function pickSweep(n: number | null): Promise<void> {
         pts.i = d.readings.map((r: number[]) => r[5]);
         pts.flags = d.readings.map((r: number[]) => r[6]);
       }
+      if (d.solar) s.finalSolar.set(n, d.solar);
       if (d.fit !== undefined && (d.complete !== null || d.fit)) {
         s.finalFits.set(n, d.fit);
         s.fitAnalysis.set(n, d.analysis);
@@ -523,7 +554,8 @@ async function openSession(id: string): Promise<void> {
   (o.sweeps.complete as (boolean | null)[]).forEach((c, k) => {
     if (c !== null) past.ended.set(o.sweeps.sweep[k], c);
   });
-  for (const f of o.fits as { sweep: number; fit: FitSummary | null; error: string | null; analysis: AnalysisSettings | null }[]) {
+  for (const f of o.fits as { sweep: number; fit: FitSummary | null; error: string | null; solar: SolarSummary | null; analysis: AnalysisSettings | null }[]) {
+    if (f.solar) past.finalSolar.set(f.sweep, f.solar);
     past.finalFits.set(f.sweep, f.fit);
     past.fitAnalysis.set(f.sweep, f.analysis);
     if (f.error) past.fitErrors.set(f.sweep, f.error);
@@ -557,7 +589,7 @@ $('back-live').addEventListener('click', backToLive);
     return viewStore;
   },
   live: liveStore,
-  charts: { raw, lin, drift },
+  charts: { raw, lin, drift, solar: solarChart },
   openSession,
   pickSweep,
 };
@@ -566,6 +598,6 @@ loadStatus().catch((e: Error) => say(`status: ${e.message}`, true));
 loadSessions().catch(() => undefined);
 setInterval(() => void loadSessions().catch(() => undefined), 10_000);
 window.addEventListener('resize', () => {
-  for (const p of [raw.plot, lin.plot, lin.resid, drift.plot]) p?.setSize({ width: Math.max(300, (p.root.parentElement as HTMLElement).clientWidth), height: p.height });
+  for (const p of [raw.plot, lin.plot, lin.resid, drift.plot, solarChart.plot]) p?.setSize({ width: Math.max(300, (p.root.parentElement as HTMLElement).clientWidth), height: p.height });
 });
 connect();

@@ -4,7 +4,7 @@
  */
 import { formatInputs, formatParameter, parameterLabel } from '../../protocols/display-units.js';
 import { formatNumber } from '../../protocols/number-format.js';
-import type { FitSummary, WireEvent } from '../../protocols/wire.js';
+import type { FitSummary, SolarSummary, WireEvent } from '../../protocols/wire.js';
 import type { AnalysisSettings, Store } from './store.js';
 
 type Level = 'danger' | 'warning' | 'info';
@@ -65,9 +65,25 @@ export interface ParamColumn {
 }
 
 /** The parameters table: one row per parameter, one column per fit (current sweep, previous). */
+/**
+ * A fit's parameters; a mechanism without physical parameters (a straight line of raw columns)
+ * shows its line's slope and intercept instead, in the axes' units.
+ */
+function figures(fit: FitSummary | null | undefined): Record<string, { value: number; stdErr: number; unit: string }> {
+  if (!fit) return {};
+  if (Object.keys(fit.parameters).length) return fit.parameters;
+  const xu = fit.axes.x.unit;
+  const yu = fit.axes.y.unit;
+  if (fit.axes.y.kind === 'log') return {};
+  return {
+    slope: { value: fit.line.slope, stdErr: fit.line.slopeStdErr, unit: xu || yu ? `${yu || '1'}/${xu || '1'}` : '' },
+    intercept: { value: fit.line.intercept, stdErr: fit.line.interceptStdErr, unit: yu },
+  };
+}
+
 export function renderParams(box: HTMLElement, cols: ParamColumn[], empty: string): void {
   box.textContent = '';
-  const names = [...new Set(cols.flatMap((c) => Object.keys(c.fit?.parameters ?? {})))];
+  const names = [...new Set(cols.flatMap((c) => Object.keys(figures(c.fit))))];
   if (names.length === 0) {
     box.textContent = empty;
     return;
@@ -89,7 +105,7 @@ export function renderParams(box: HTMLElement, cols: ParamColumn[], empty: strin
     cols.forEach((col, k) => {
       const c = row.insertCell();
       c.className = k === 0 ? 'value' : '';
-      const p = col.fit?.parameters[n];
+      const p = figures(col.fit)[n];
       if (!p) return;
       const f = formatParameter(p, n);
       const sv = document.createElement('span');
@@ -140,6 +156,16 @@ export function renderRanking(box: HTMLElement, r: Extract<WireEvent, { type: 'r
     box.textContent = 'After the first complete sweep.';
     return;
   }
+  if (r.ranking.length === 0) {
+    box.textContent = `No mechanism could be ranked on sweep ${r.sweep}.`;
+    for (const w of r.warnings) {
+      const p = document.createElement('p');
+      p.className = 'warn';
+      p.textContent = w;
+      box.append(p);
+    }
+    return;
+  }
   const sum = r.ranking.reduce((a, e) => a + e.score, 0);
   const head = document.createElement('p');
   head.className = 'hint';
@@ -175,5 +201,56 @@ export function renderRanking(box: HTMLElement, r: Extract<WireEvent, { type: 'r
     p.className = 'warn';
     p.textContent = w;
     box.append(p);
+  }
+}
+
+/** The solar figures of merit and the single-diode parameters, each with its uncertainty. */
+export function renderSolar(box: HTMLElement, title: string, solar: SolarSummary): void {
+  box.textContent = '';
+  const p = document.createElement('p');
+  p.className = 'source';
+  p.textContent = `${title} · G = ${formatNumber(solar.irradiance)} W/m²${solar.area !== null ? ` · area ${formatNumber(solar.area * 1e4)} cm²` : ' · no area: J_sc and η need one'} · T ${formatNumber(solar.temperature.value)} K${solar.temperature.assumed ? ' (assumed)' : ''}. Figures from local fits of the measured curve; the diode from the single-diode model.`;
+  box.append(p);
+  if (solar.error) {
+    const e = document.createElement('p');
+    e.className = 'warn';
+    e.textContent = `No figures of merit: ${solar.error}`;
+    box.append(e);
+  }
+  const table = document.createElement('table');
+  table.className = 'params solar';
+  const add = (key: string, fig: { value: number; stdErr: number; unit: string }, cls = '') => {
+    const row = table.insertRow();
+    row.dataset.param = key;
+    if (cls) row.className = cls;
+    const c0 = row.insertCell();
+    c0.textContent = parameterLabel(key);
+    c0.title = key;
+    const c = row.insertCell();
+    c.className = 'value';
+    const f = formatParameter(fig, key);
+    const sv = document.createElement('span');
+    sv.className = 'num';
+    sv.textContent = f.text;
+    c.append(sv);
+    if (f.unit) {
+      const su = document.createElement('span');
+      su.className = 'unit';
+      su.textContent = ` ${f.unit}`;
+      c.append(su);
+    }
+  };
+  for (const [k, f] of Object.entries(solar.figures)) add(k, f);
+  for (const [k, f] of Object.entries(solar.model?.parameters ?? {})) add(k, f, 'model');
+  box.append(table);
+  if (solar.warnings.length) {
+    const ul = document.createElement('ul');
+    ul.className = 'warnings';
+    for (const w of solar.warnings) {
+      const li = document.createElement('li');
+      li.textContent = w;
+      ul.append(li);
+    }
+    box.append(ul);
   }
 }

@@ -4,7 +4,7 @@
  * Events arrive with sequence numbers; anything at or below the last one seen is a duplicate and
  * skipped. The page never computes physics: it keeps and draws these.
  */
-import type { FitSummary, PackedReading, PlotViewData, ServerMessage, Snapshot, WireEvent } from '../../protocols/wire.js';
+import type { FitSummary, PackedReading, PlotViewData, ServerMessage, Snapshot, SolarSummary, WireEvent } from '../../protocols/wire.js';
 
 export interface SweepPoints {
   v: number[];
@@ -38,7 +38,7 @@ export interface Envelope {
 export interface Reanalysis {
   at: string;
   analysis: AnalysisSettings;
-  fits: Map<number, { fit: FitSummary | null; error: string | null }>;
+  fits: Map<number, { fit: FitSummary | null; error: string | null; solar?: SolarSummary | null }>;
   views: Map<number, PlotViewData>;
 }
 
@@ -52,6 +52,8 @@ export class Store {
   events: WireEvent[] = [];
   finalFits = new Map<number, FitSummary | null>();
   fitErrors = new Map<number, string>();
+  /** A solar cell's figures of merit and diode fit per finished sweep (analysis option `solar`). */
+  finalSolar = new Map<number, SolarSummary>();
   /** The analysis settings in force when each sweep's final fit was made. */
   fitAnalysis = new Map<number, AnalysisSettings | null>();
   liveFit: { sweep: number; fit: FitSummary | null } | null = null;
@@ -89,6 +91,7 @@ export class Store {
     this.events = [];
     this.finalFits = new Map();
     this.fitErrors = new Map();
+    this.finalSolar = new Map();
     this.fitAnalysis = new Map();
     this.liveFit = null;
     this.views = new Map();
@@ -213,6 +216,7 @@ export class Store {
           this.fitAnalysis.set(e.sweep, this.analysis);
           if (e.error) this.fitErrors.set(e.sweep, e.error);
           else this.fitErrors.delete(e.sweep);
+          if (e.solar) this.finalSolar.set(e.sweep, e.solar);
         }
         this.liveFit = { sweep: e.sweep, fit: e.fit };
         break;
