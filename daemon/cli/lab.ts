@@ -46,6 +46,52 @@ export async function archiveLot(o: ArchiveSelectionOptions, inputs: readonly st
   return new ArchiveLot(o.postgres, { wafer: o.wafer, site: o.site, tag: o.tag, from: o.from, to: o.to, station: o.station });
 }
 
+export interface ArchiveSessionOptions extends ArchiveSelectionOptions {
+  session?: string;
+  into?: string;
+}
+
+/**
+ * The options that read sessions from the archive instead of a folder (export, report, refit):
+ * the selected sessions are written back as session folders under --into and read from there.
+ * `selection` adds the wafer/site/tag/date options (export); the others take one session.
+ */
+export function withArchiveSessions(cmd: Command, selection: boolean): Command {
+  cmd
+    .option('--postgres <url>', 'read the session(s) from the archive (plumbline archive) instead of a folder')
+    .option('--session <name>', 'with --postgres: the session\'s name (its folder\'s name on the station)')
+    .option('--station <id>', 'with --postgres: the station it came from (when two stations have sessions of that name)')
+    .option('--into <dir>', 'with --postgres: where the archived sessions are written as folders (default ./plumbline-archive-sessions)');
+  if (selection) {
+    cmd
+      .option('--wafer <name>', 'with --postgres: sessions of this wafer')
+      .option('--site <name>', 'with --postgres: sessions of this site')
+      .option('--tag <tag>', 'with --postgres: sessions whose device, or one of whose notes, carries this tag')
+      .option('--from <date>', 'with --postgres: sessions started at or after this date/time (ISO 8601)')
+      .option('--to <date>', 'with --postgres: sessions started before this date/time');
+  }
+  return cmd;
+}
+
+/** The session folders a command works on: the one given, or the archived ones written out. */
+export async function sessionDirs(dir: string | undefined, o: ArchiveSessionOptions, one: boolean): Promise<string[]> {
+  const { resolve } = await import('node:path');
+  const given = (['session', 'station', 'into', 'wafer', 'site', 'tag'] as const).filter((k) => o[k] !== undefined);
+  if (o.postgres === undefined) {
+    if (given.length > 0) throw new UsageError(`--${given[0]} reads from the archive: give --postgres URL too`);
+    if (dir === undefined) throw new UsageError('give a session folder, or --postgres URL with --session NAME');
+    return [resolve(dir)];
+  }
+  if (dir !== undefined) throw new UsageError('give a session folder or --postgres, not both');
+  if (one && o.session === undefined) throw new UsageError('with --postgres, name the session: --session NAME');
+  const { materializeSessions } = await import('../lab/archive-sessions.js');
+  const out = await materializeSessions(o.postgres, { session: o.session, station: o.station, wafer: o.wafer, site: o.site, tag: o.tag, from: o.from, to: o.to }, resolve(o.into ?? 'plumbline-archive-sessions'));
+  if (out.length === 0) throw new UsageError(`the archive has no session${o.session ? ` named '${o.session}'` : ' matching the selection'}`);
+  if (one && out.length > 1) throw new UsageError(`the archive has ${out.length} sessions named '${o.session}' (from ${out.map((x) => x.station).join(', ')}): give --station`);
+  for (const m of out) process.stderr.write(`from the archive: ${m.station}/${m.session} (${m.readings} readings, ${m.events} events) → ${m.dir}\n`);
+  return out.map((m) => m.dir);
+}
+
 function percentile(xs: readonly number[], p: number): number {
   if (xs.length === 0) return Number.NaN;
   const s = [...xs].sort((a, b) => a - b);

@@ -3,13 +3,14 @@
  */
 import { resolve } from 'node:path';
 import type { Command } from 'commander';
+import { sessionDirs, withArchiveSessions, type ArchiveSessionOptions } from '../lab.js';
 import { formatParameterText } from '../../../protocols/display-units.js';
 
 export function registerRefit(program: Command): void {
-  program
+  withArchiveSessions(program
     .command('refit')
     .description('analyse every sweep of a session again with another model, window or inputs (the journal is not changed; results go to a new file)')
-    .argument('<session-dir>', 'a session folder')
+    .argument('[session-dir]', 'a session folder')
     .option('--model <id>', 'model (default: the session\'s)')
     .option('--from <V>', 'fit window start, V')
     .option('--to <V>', 'fit window end, V')
@@ -23,13 +24,14 @@ export function registerRefit(program: Command): void {
     .option('--flat-band <q>', 'flat-band voltage, e.g. "-0.9 V"')
     .option('--richardson <q>', 'Richardson constant, e.g. "120 A/(cm^2 K^2)"')
     .option('--out <file>', 'results file (default SESSION_DIR/refit-MODEL-TIME.json)')
-    .option('--json', 'print one JSON object')
-    .action(async (dir: string, o: Record<string, string | boolean | undefined>) => {
+    .option('--json', 'print one JSON object'), false)
+    .action(async (dir: string | undefined, o: Record<string, string | boolean | undefined>) => {
+      const [d] = await sessionDirs(dir, o as ArchiveSessionOptions, true);
       const { refitSession } = await import('../../journal/refit.js');
       const { readInputs, readWindow } = await import('../inputs.js');
       const inputs = Object.fromEntries(Object.entries(readInputs(o as never)).filter(([, v]) => v !== undefined));
       const window = o.auto || o.from !== undefined || o.to !== undefined ? readWindow(o as never) : undefined;
-      const r = refitSession(resolve(dir), { model: o.model as string | undefined, window, inputs }, o.out !== undefined ? resolve(String(o.out)) : undefined);
+      const r = refitSession(d, { model: o.model as string | undefined, window, inputs }, o.out !== undefined ? resolve(String(o.out)) : undefined);
       if (o.json) {
         process.stdout.write(`${JSON.stringify(r)}\n`);
         return;
