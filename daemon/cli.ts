@@ -85,9 +85,11 @@ withAnalysisOptions(
     .option('--y-expr <expr>', 'custom model: y as a mathjs expression over the columns')
     .option('--y-axis <kind>', 'custom model: log (fit ln y) or linear', 'linear'),
 ).action((file: string, o: FitOptions) => {
-  const { data } = loadData(file, o);
+  const { data, notes } = loadData(file, o);
   if (DIODE_MODELS.includes(o.model)) {
     if (o.objective !== 'current' && o.objective !== 'implicit') throw new QuantityError('--objective', `--objective '${o.objective}': expected current or implicit`);
+    if (o.auto) throw new UsageError(`--auto: the ${o.model} model is fitted over the whole curve (every usable reading, or --from/--to); an automatic window belongs to the linearized models (the semilog diode is --model diode)`);
+    const win = readWindow(o);
     const inputs = readInputs(o);
     const req = {
       temperature: inputs.temperature,
@@ -97,8 +99,11 @@ withAnalysisOptions(
       area: inputs.area,
       richardson: inputs.richardson,
       objective: o.objective as 'current' | 'implicit',
+      window: typeof win === 'object' ? win : undefined,
     };
     const report = o.model === 'cheung' ? cheung(data, req) : fitDiode(data, o.model as 'single-diode' | 'double-diode', req);
+    report.notes.push(...notes);
+    if (typeof win === 'object') report.notes.push(`fitted on the readings from ${win.from ?? '−∞'} to ${win.to ?? '∞'} V`);
     print(o.json, report, () => formatDiode(report));
     return;
   }
@@ -114,6 +119,7 @@ withAnalysisOptions(
       ? { x: o.xExpr, y: o.yExpr, yAxis: o.yAxis }
       : undefined,
   });
+  report.notes.push(...notes);
   print(o.json, report, () => formatFit(report));
 });
 
@@ -123,13 +129,14 @@ withAnalysisOptions(
     .description('fit every applicable mechanism to the same points and rank them')
     .argument('<file>', 'CSV with a header row; x = bias (V), y = current (A)'),
 ).action((file: string, o: AnalysisOptions) => {
-  const { data } = loadData(file, o);
+  const { data, notes } = loadData(file, o);
   const ranking = rankMechanisms(data, {
     inputs: readInputs(o),
     window: readWindow(o),
     accuracy: readAccuracy(o),
     complianceLimit: readCompliance(o),
   });
+  ranking.notes.push(...notes);
   print(o.json, ranking, () => formatRanking(ranking));
 });
 

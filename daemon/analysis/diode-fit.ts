@@ -6,6 +6,8 @@
  * figures of merit. All currents in A, voltages in V, resistances in Ω, temperatures in K.
  */
 import { REASONS, describeReasons, type IVData } from './analyze.js';
+import { MIN_RELATIVE, relativeFromScatter, runningMedian } from './noise-floor.js';
+import { classifySweep } from './sweep-points.js';
 import { RICHARDSON_FREE_A_PER_M2_K2, thermalVoltage } from './constants.js';
 import { fitDiodeModel, diodeCurrent, type DiodeModel, type DiodeStart, type FittedParameter } from './diode-models.js';
 import { AnalysisError } from './errors.js';
@@ -25,6 +27,8 @@ export interface DiodeRequest {
   readonly richardson?: number;
   /** Fit objective (see DiodeFitOptions): 'current' (default) or 'implicit'. */
   readonly objective?: 'current' | 'implicit';
+  /** Only the readings with bias in this range (V) are fitted; the rest are counted as outside the window. */
+  readonly window?: { readonly from?: number; readonly to?: number };
 }
 
 export interface DiodeReport {
@@ -56,6 +60,8 @@ function points(data: IVData, req: DiodeRequest): Points {
   const reasons: Record<string, number> = {};
   const count = (r: string) => (reasons[r] = (reasons[r] ?? 0) + 1);
   const sign = (req.convention ?? 'load') === 'load' ? -1 : 1;
+  const lo = Math.min(req.window?.from ?? -Infinity, req.window?.to ?? Infinity);
+  const hi = Math.max(req.window?.from ?? -Infinity, req.window?.to ?? Infinity);
   const idx: number[] = [];
   for (let k = 0; k < data.x.length; k++) {
     const v = data.x[k];
@@ -64,14 +70,59 @@ function points(data: IVData, req: DiodeRequest): Points {
       count(REASONS.notFinite);
       continue;
     }
-    if ((data.compliance?.[k]) || (req.complianceLimit !== undefined && Math.abs(i) >= 0.99 * req.complianceLimit)) {
+    if (data.compliance?.[k] || (req.complianceLimit !== undefined && Math.abs(i) >= 0.99 * req.complianceLimit)) {
       count(REASONS.compliance);
+      continue;
+    }
+    if (v < lo || v > hi) {
+      count(REASONS.outsideWindow);
       continue;
     }
     idx.push(k);
   }
   idx.sort((a, b) => data.x[a] - data.x[b]);
   return { v: idx.map((k) => data.x[k]), i: idx.map((k) => sign * data.y[k]), reasons };
+}
+
+/**
+ * Weights 1/σ_I of a dark curve's readings from the sweep's noise model σ_I² = σ_floor² + (g·I)²
+ * (noise-floor.ts): the floor from the readings at zero bias and against the bias, g from the
+ * point-to-point scatter of ln|I| above the floor. Relative residuals alone would give the readings
+ * at the floor the weight of the best ones.
+ */
+function darkWeights(p: Points): { w: number[]; floor: number; relative: number } {
+  const classes = classifySweep({ x: p.v, y: p.i.map((x) => -x) }, { detectCompliance: false });
+  const floor = classes.noise.floor;
+  const xs: number[] = [];
+  const ys: number[] = [];
+  const qs: number[] = [];
+  for (let k = 0; k < p.v.length; k++) {
+    const a = Math.abs(p.i[k]);
+    if (a > 5 * floor && a > 0) {
+      xs.push(p.v[k]);
+      ys.push(Math.log(a));
+      qs.push(floor / a);
+    }
+  }
+  const g = Math.max(MIN_RELATIVE, relativeFromScatter(xs, ys, qs) ?? 0.01);
+  // A floor no reading reached lies below the smallest current read: a fifth of it keeps a reading
+  // near zero current from weighing as if it were known to its relative noise alone.
+  let least = Infinity;
+  for (const x of p.i) if (x !== 0) least = Math.min(least, Math.abs(x));
+  const f = floor > 0 ? floor : Number.isFinite(least) ? 0.01 * least : 0;
+  const ref = runningMedian(p.i.map(Math.abs));
+  return { w: Array.from(ref, (x) => 1 / Math.sqrt(f * f + g * g * x * x || Number.MIN_VALUE)), floor, relative: g };
+}
+
+/** Smallest and largest of an array, by a loop (a spread into Math.min/max overflows the stack past ~1e5). */
+function extent(a: ArrayLike<number>): { lo: number; hi: number } {
+  let lo = Infinity;
+  let hi = -Infinity;
+  for (let k = 0; k < a.length; k++) {
+    if (a[k] < lo) lo = a[k];
+    if (a[k] > hi) hi = a[k];
+  }
+  return { lo, hi };
 }
 
 /** Linear interpolation of y at x = x0 over (xs, ys) sorted by x; undefined outside the range. */
@@ -93,7 +144,7 @@ function crossing(v: number[], i: number[]): number | undefined {
 /** Starting values for an illuminated cell (generator convention). */
 function illuminatedStart(p: Points, vt: number): DiodeStart {
   const { v, i } = p;
-  const isc = interpolateAt(v, i, 0) ?? Math.max(...i);
+  const isc = interpolateAt(v, i, 0) ?? extent(i).hi;
   const voc = crossing(v, i) ?? v[v.length - 1];
   // Shunt: slope of the flat part (V below half of V_oc).
   const flat = v.map((_x, k) => k).filter((k) => v[k] < 0.5 * voc);
@@ -138,8 +189,7 @@ function darkStart(p: Points, vt: number): DiodeStart {
   if (fwd.length < 3) throw new AnalysisError('TOO_FEW_POINTS', 'a dark diode fit needs forward-bias points (V > 3kT/q with forward current); is the sign convention right? (--convention)');
   // Semilog slope over the lower part of the forward current (before R_s bends it).
   const lnI = fwd.map((k) => Math.log(-p.i[k]));
-  const lo = Math.min(...lnI);
-  const hi = Math.max(...lnI);
+  const { lo, hi } = extent(lnI);
   const sel = fwd.filter((_, j) => lnI[j] <= lo + 0.6 * (hi - lo));
   const use = sel.length >= 3 ? sel : fwd;
   const f = fitLine(use.map((k) => p.v[k]), use.map((k) => Math.log(-p.i[k])));
@@ -165,16 +215,24 @@ function darkStart(p: Points, vt: number): DiodeStart {
  * Long curves: the long crawl along the two-diode valley is done on every k-th point (about 250),
  * then the full curve is fitted from there — the two optima lie close, so the last run is short.
  */
-function fitOnSubsampleFirst(p: Points, w: number[], opts: Parameters<typeof fitDiodeModel>[3], start: DiodeStart): ReturnType<typeof fitDiodeModel> {
+function subsample(p: Points, w: number[]): { v: number[]; i: number[]; w: number[] } {
   const n = p.v.length;
-  if (n < 600) return fitDiodeModel(p.v, p.i, w, opts, [start]);
   const step = Math.floor(n / 250);
   const idx: number[] = [];
   for (let k = 0; k < n; k += step) idx.push(k);
   if (idx[idx.length - 1] !== n - 1) idx.push(n - 1);
-  const sub = fitDiodeModel(idx.map((k) => p.v[k]), idx.map((k) => p.i[k]), idx.map((k) => w[k]), opts, [start]);
-  const c = sub.circuit;
-  return fitDiodeModel(p.v, p.i, w, opts, [{ photocurrent: c.photocurrent, diodes: c.diodes, seriesResistance: c.seriesResistance, shuntResistance: c.shuntResistance }]);
+  return { v: idx.map((k) => p.v[k]), i: idx.map((k) => p.i[k]), w: idx.map((k) => w[k]) };
+}
+
+/** A fit on the whole curve from a start that is already close (the subsample's optimum): a short run. */
+function polish(p: Points, w: number[], opts: Parameters<typeof fitDiodeModel>[3], c: DiodeStart): ReturnType<typeof fitDiodeModel> {
+  return fitDiodeModel(p.v, p.i, w, { ...opts, maxIterations: 30 }, [{ photocurrent: c.photocurrent, diodes: c.diodes, seriesResistance: c.seriesResistance, shuntResistance: c.shuntResistance }]);
+}
+
+function fitOnSubsampleFirst(p: Points, w: number[], opts: Parameters<typeof fitDiodeModel>[3], start: DiodeStart): ReturnType<typeof fitDiodeModel> {
+  if (p.v.length < 600) return fitDiodeModel(p.v, p.i, w, opts, [start]);
+  const s = subsample(p, w);
+  return polish(p, w, opts, fitDiodeModel(s.v, s.i, s.w, opts, [start]).circuit);
 }
 
 /**
@@ -195,8 +253,7 @@ function twoRegionStart(p: Points, s: { photocurrent: number; seriesResistance: 
     }
   }
   if (vj.length < 9) return [];
-  const lo = Math.min(...ln);
-  const hi = Math.max(...ln);
+  const { lo, hi } = extent(ln);
   if (!(hi - lo > 2)) return [];
   const pick = (a: number, b: number) => {
     const xs: number[] = [];
@@ -228,15 +285,27 @@ export function fitDiode(data: IVData, model: DiodeModel, req: DiodeRequest = {}
   const illuminated = req.illuminated ?? false;
   const vt = thermalVoltage(temperature);
   const p = points(data, req);
+  if (!illuminated) {
+    // In the dark the model current at zero bias is zero whatever the parameters: a reading there
+    // is noise only (it says nothing and would be weighed against nothing).
+    for (let k = p.v.length - 1; k >= 0; k--) {
+      if (p.v[k] === 0) {
+        p.v.splice(k, 1);
+        p.i.splice(k, 1);
+        p.reasons[REASONS.zeroBias] = (p.reasons[REASONS.zeroBias] ?? 0) + 1;
+      }
+    }
+  }
   const excluded = Object.values(p.reasons).reduce((a, b) => a + b, 0);
   if (p.v.length < 6) throw new AnalysisError('TOO_FEW_POINTS', `${p.v.length} usable points; excluded: ${describeReasons(p.reasons)}`);
   const start = illuminated ? illuminatedStart(p, vt) : darkStart(p, vt);
-  // Dark curves span decades: fit relative residuals so the low-current points count; illuminated
-  // curves are fitted on absolute current (the RMSE users compare).
-  const maxI = Math.max(...p.i.map(Math.abs));
-  const w = illuminated ? p.i.map(() => 1) : p.i.map((x) => 1 / (Math.abs(x) + Math.max(1e-15, 1e-9 * maxI)));
+  // Dark curves span decades: each reading weighted by its noise (floor and relative part), so the
+  // low-current points count as much as they deserve; illuminated curves are fitted on absolute
+  // current (the RMSE users compare).
+  const noise = illuminated ? undefined : darkWeights(p);
+  const w = noise ? noise.w : p.i.map(() => 1);
   const objective = req.objective ?? 'current';
-  const sdm = fitDiodeModel(p.v, p.i, w, { model: 'single-diode', temperature, illuminated, objective }, [start]);
+  const sdm = fitOnSubsampleFirst(p, w, { model: 'single-diode', temperature, illuminated, objective }, start);
   let fit = sdm;
   if (model === 'double-diode') {
     const s = sdm.circuit;
@@ -258,19 +327,31 @@ export function fitDiode(data: IVData, model: DiodeModel, req: DiodeRequest = {}
     const opts = { model: 'double-diode' as const, temperature, illuminated, objective, idealityBounds };
     const score = (f: typeof sdm) => (objective === 'implicit' ? f.rmseImplicit : f.rmse);
     let bestFit: typeof sdm | undefined;
+    const long = p.v.length >= 600;
+    // Long curves: every start crawls on the subsample (the one-diode fit scored on it too), and
+    // only the best is polished on the whole curve.
+    const sub = long ? subsample(p, w) : undefined;
+    const ref = sub ? fitDiodeModel(sub.v, sub.i, sub.w, { model: 'single-diode', temperature, illuminated, objective }, [start]) : sdm;
     for (const st of starts) {
       let f: typeof sdm;
       try {
-        f = fitOnSubsampleFirst(p, w, opts, st);
+        f = sub ? fitDiodeModel(sub.v, sub.i, sub.w, opts, [st]) : fitDiodeModel(p.v, p.i, w, opts, [st]);
       } catch (e) {
         if (e instanceof AnalysisError) continue;
         throw e;
       }
       if (!bestFit || score(f) < score(bestFit)) bestFit = f;
-      const good = bestFit.converged && bestFit.atBound.length === 0 && score(bestFit) < score(sdm) * (1 - 1e-6);
+      const good = bestFit.converged && bestFit.atBound.length === 0 && score(bestFit) < score(ref) * (1 - 1e-6);
       if (good) break;
     }
     if (!bestFit) throw new AnalysisError('BAD_INPUT', 'the double-diode model could not be fitted from any start');
+    if (sub) {
+      try {
+        bestFit = polish(p, w, opts, bestFit.circuit);
+      } catch (e) {
+        if (!(e instanceof AnalysisError)) throw e;
+      }
+    }
     fit = bestFit;
   }
   const warnings: string[] = [];
@@ -282,6 +363,7 @@ export function fitDiode(data: IVData, model: DiodeModel, req: DiodeRequest = {}
     else if (v.stdErr > Math.abs(v.value)) warnings.push(`${k}: standard error larger than the value`);
   }
   const notes = [`ideality factors at T = ${temperature} K (kT/q = ${(vt * 1000).toFixed(4)} mV)`];
+  if (noise) notes.push(`each reading weighted by its noise: floor ${noise.floor > 0 ? `${noise.floor.toPrecision(3)} A` : 'not reached'}, ${(100 * noise.relative).toPrecision(3)} % of reading`);
   return {
     model,
     title: TITLES[model],
@@ -318,8 +400,7 @@ export function cheung(data: IVData, req: DiodeRequest = {}): DiodeReport {
   if (v.length < 8) throw new AnalysisError('TOO_FEW_POINTS', `Cheung–Cheung needs at least 8 forward-bias points above 3kT/q; ${v.length} usable (is the sign convention right? --convention)`);
   // Bend-over region: the upper half of the forward current range (in decades).
   const ln = cur.map(Math.log);
-  const lnMin = Math.min(...ln);
-  const lnMax = Math.max(...ln);
+  const { lo: lnMin, hi: lnMax } = extent(ln);
   const xs: number[] = [];
   const d1: number[] = [];
   const vs: number[] = [];
@@ -340,7 +421,8 @@ export function cheung(data: IVData, req: DiodeRequest = {}): DiodeReport {
     idealityFactor: { value: n, stdErr: nSe, unit: '' },
   };
   const warnings: string[] = [];
-  const notes: string[] = [`function 1 (dV/d ln I against I) on ${xs.length} points from ${Math.min(...xs).toExponential(2)} to ${Math.max(...xs).toExponential(2)} A`];
+  const xr = extent(xs);
+  const notes: string[] = [`function 1 (dV/d ln I against I) on ${xs.length} points from ${xr.lo.toExponential(2)} to ${xr.hi.toExponential(2)} A`];
   if (req.temperature === undefined) warnings.push('temperature not given: 300 K assumed; n is valid only with the temperature used');
   if (req.area !== undefined) {
     const aStar = req.richardson ?? RICHARDSON_FREE_A_PER_M2_K2;

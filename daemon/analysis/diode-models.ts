@@ -107,6 +107,8 @@ export interface DiodeFitOptions {
   readonly objective?: 'current' | 'implicit';
   /** Bounds on the ideality factors (default [0.3, 10]; [1, 2] is common for two-diode fits). */
   readonly idealityBounds?: readonly [number, number];
+  /** Iteration cap of a run from a single start (default 300; a polish from a close start needs few). */
+  readonly maxIterations?: number;
 }
 
 export interface FittedParameter {
@@ -249,7 +251,7 @@ export function fitDiodeModel(
   });
   let best: ReturnType<typeof levenbergMarquardt> | undefined;
   // Several starts: a short run from each, then the best one is run to convergence.
-  const short = starts.length > 1 ? 60 : 300;
+  const short = starts.length > 1 ? 60 : options.maxIterations ?? 300;
   const tolerances = { xtol: 1e-8, ftol: 1e-11 };
   const runFrom = (p0: number[], maxIterations: number): ReturnType<typeof levenbergMarquardt> | undefined => {
     lastI.set(Array.from(i));
@@ -323,7 +325,7 @@ export function fitDiodeModel(
   if (!best) throw new AnalysisError('BAD_INPUT', `the ${options.model} model could not be evaluated at any starting point`);
   if (!best.converged) {
     lastC = undefined;
-    const more = runFrom(best.p, 300);
+    const more = runFrom(best.p, options.maxIterations ?? 300);
     if (more && more.sse <= best.sse) best = { ...more, iterations: more.iterations + best.iterations };
   }
   lastC = undefined;

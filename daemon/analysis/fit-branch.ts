@@ -13,7 +13,7 @@
  * ±10 % of its points (at least one point), less the spread that noise alone gives nested windows
  * (var(θ_w − θ) = |σ_w² − σ²| for nested least-squares fits); the two add in quadrature.
  */
-import { currentSigma, FLOOR_MULTIPLE, floorLevel, MIN_RELATIVE, relativeFromResiduals, relativeFromScatter, type NoiseModel } from './noise-floor.js';
+import { currentSigma, FLOOR_MULTIPLE, floorLevel, MIN_RELATIVE, relativeFromResiduals, relativeFromScatter, runningMedian, type NoiseModel } from './noise-floor.js';
 import { AnalysisError } from './errors.js';
 import { fitJoint, jointY, type JointData, type JointResult } from './joint-fit.js';
 import { fitLine, type LineFit } from './line-fit.js';
@@ -78,34 +78,6 @@ interface Points {
   t: Float64Array;
   /** |I| smoothed over neighbouring biases (5-point running median), A: sets the floor's share of σ. */
   ref: Float64Array;
-}
-
-/**
- * 5-point running median of the signed currents along the bias order: whether a reading stands
- * above the floor is judged on it, so that the reading's own noise does not decide whether it
- * enters (which would bias the kept readings upwards near the floor).
- */
-function runningMedian(values: Float64Array): Float64Array {
-  const n = values.length;
-  const out = new Float64Array(n);
-  const buf = [0, 0, 0, 0, 0];
-  for (let j = 0; j < n; j++) {
-    const a = Math.max(0, j - 2);
-    const b = Math.min(n - 1, j + 2);
-    const m = b - a + 1;
-    // Insertion sort of at most five values.
-    for (let q = 0; q < m; q++) {
-      const x = values[a + q];
-      let r = q - 1;
-      while (r >= 0 && buf[r] > x) {
-        buf[r + 1] = buf[r];
-        r--;
-      }
-      buf[r + 1] = x;
-    }
-    out[j] = m % 2 ? buf[m >> 1] : 0.5 * (buf[(m >> 1) - 1] + buf[m >> 1]);
-  }
-  return out;
 }
 
 /** Maps a branch's readings (or, for sign 0, every usable reading) onto the mechanism's plot. */

@@ -168,3 +168,37 @@ export function noiseFromAccuracy(spec: AccuracySpec, estimatedFloor: number | u
     relativeSource: 'accuracy',
   };
 }
+
+/**
+ * 5-point running median of currents along the bias order. Whether a reading stands above the floor,
+ * and how much it weighs, are judged on it rather than on the reading itself, so that a reading's own
+ * noise does not decide whether it enters or how much it counts (which would bias what is kept).
+ */
+export function runningMedian(values: ArrayLike<number>): Float64Array {
+  const n = values.length;
+  const out = new Float64Array(n);
+  const buf = [0, 0, 0, 0, 0];
+  for (let j = 0; j < n; j++) {
+    if (j < 2 || j > n - 3) {
+      // At the ends the window would hold the neighbours on one side only: on a rising curve that
+      // is a biased value, so the reading stands for itself there.
+      out[j] = values[j];
+      continue;
+    }
+    const a = j - 2;
+    const b = j + 2;
+    const m = b - a + 1;
+    // Insertion sort of at most five values.
+    for (let q = 0; q < m; q++) {
+      const x = values[a + q];
+      let r = q - 1;
+      while (r >= 0 && buf[r] > x) {
+        buf[r + 1] = buf[r];
+        r--;
+      }
+      buf[r + 1] = x;
+    }
+    out[j] = m % 2 ? buf[m >> 1] : 0.5 * (buf[(m >> 1) - 1] + buf[m >> 1]);
+  }
+  return out;
+}

@@ -11,6 +11,7 @@ import type { Inputs } from '../analysis/mechanism.js';
 import { columnIdentifiers, setExpressionEngine } from '../analysis/mechanisms/custom.js';
 import { columnIndex, CsvError, parseCsvTable, requireNumeric, type CsvTable } from '../../protocols/csv-table.js';
 import { parseQuantity, QuantityError } from '../quantity.js';
+import { UsageError } from './usage.js';
 
 export interface AnalysisOptions {
   x?: string;
@@ -19,6 +20,8 @@ export interface AnalysisOptions {
   to?: string;
   auto?: boolean;
   all?: boolean;
+  sweep?: string;
+  allSweeps?: boolean;
   thickness?: string;
   area?: string;
   temperature?: string;
@@ -41,6 +44,8 @@ export function withAnalysisOptions(cmd: Command): Command {
     .option('--to <x>', 'fit window end, in the x column\'s own values')
     .option('--auto', 'choose the fit window automatically (the default for mechanisms of the current)')
     .option('--all', 'fit every usable point (above the noise floor, below compliance, one branch)')
+    .option('--sweep <n>', 'a file with a sweep column (an exported points.csv): analyse sweep n')
+    .option('--all-sweeps', 'a file with a sweep column: pool every sweep into one analysis (say so explicitly)')
     .option('--thickness <q>', 'film thickness, e.g. "8 nm" (bare number: metres)')
     .option('--area <q>', 'device area, e.g. "1e-4 cm^2" (bare number: m^2)')
     .option('--temperature <q>', 'temperature, e.g. "300 K" or "25 degC" (default 300 K)')
@@ -102,8 +107,12 @@ export function readCompliance(o: AnalysisOptions): number | undefined {
   return o.compliance === undefined ? undefined : parseQuantity(o.compliance, 'current', '--compliance');
 }
 
-/** Loads the CSV and picks x, y and an optional compliance column. */
-export function loadData(file: string, o: AnalysisOptions): { table: CsvTable; data: IVData } {
+/**
+ * Loads the CSV and picks x, y and an optional compliance column. A file with a `sweep` column
+ * holding more than one sweep (an exported points.csv) must say which one (--sweep N) or that they
+ * are to be pooled (--all-sweeps): pooling is never silent. `notes` says what was chosen.
+ */
+export function loadData(file: string, o: AnalysisOptions): { table: CsvTable; data: IVData; notes: string[] } {
   let text: string;
   try {
     text = readFileSync(file, 'utf8');
@@ -114,18 +123,44 @@ export function loadData(file: string, o: AnalysisOptions): { table: CsvTable; d
   const xi = o.x !== undefined ? columnIndex(table, o.x, '--x') : 0;
   const yi = o.y !== undefined ? columnIndex(table, o.y, '--y') : 1;
   const ci = table.headers.findIndex((h) => /^compliance$/i.test(h));
+  const si = table.headers.findIndex((h) => /^sweep$/i.test(h));
   // Only the columns in use must be numbers (an exported points.csv carries a text session column).
-  for (const k of [xi, yi, ...(ci >= 0 ? [ci] : [])]) requireNumeric(table, k);
+  for (const k of [xi, yi, ...(ci >= 0 ? [ci] : []), ...(si >= 0 && si !== xi && si !== yi ? [si] : [])]) requireNumeric(table, k);
   const columns: Record<string, Float64Array> = {};
   columnIdentifiers(table.headers).forEach((ids, k) => ids.forEach((id) => (columns[id] = table.columns[k])));
+  const notes: string[] = [];
+  let keep: number[] | undefined;
+  if (si < 0 || si === xi || si === yi) {
+    if (o.sweep !== undefined) throw new UsageError(`--sweep ${o.sweep}: ${file} has no sweep column`);
+  } else {
+    const sw = table.columns[si];
+    const ids = [...new Set(Array.from(sw))].sort((a, b) => a - b);
+    const range = ids.length > 1 ? `${ids[0]}–${ids[ids.length - 1]}` : String(ids[0]);
+    if (o.sweep !== undefined) {
+      if (o.allSweeps) throw new UsageError('--sweep and --all-sweeps: give one of them');
+      const n = Number(o.sweep);
+      if (!Number.isFinite(n) || !ids.includes(n)) throw new UsageError(`--sweep ${o.sweep}: ${file} has no sweep ${o.sweep} (its sweep column holds ${ids.length} sweeps, ${range})`);
+      keep = [];
+      for (let k = 0; k < sw.length; k++) if (sw[k] === n) keep.push(k);
+      notes.push(`sweep ${n} of ${ids.length} in the file`);
+    } else if (ids.length > 1) {
+      if (!o.allSweeps) {
+        throw new UsageError(`${file} holds ${ids.length} sweeps (column '${table.headers[si]}', ${range}): choose one with --sweep N, or pool them all with --all-sweeps`);
+      }
+      notes.push(`${ids.length} sweeps of the file pooled into one analysis (--all-sweeps)`);
+    }
+  }
+  const pick = (a: Float64Array) => (keep ? Float64Array.from(keep, (k) => a[k]) : a);
+  if (keep) for (const id of Object.keys(columns)) columns[id] = pick(columns[id]);
   return {
     table,
     data: {
-      x: table.columns[xi],
-      y: table.columns[yi],
-      compliance: ci >= 0 && ci !== xi && ci !== yi ? table.columns[ci] : undefined,
+      x: pick(table.columns[xi]),
+      y: pick(table.columns[yi]),
+      compliance: ci >= 0 && ci !== xi && ci !== yi ? pick(table.columns[ci]) : undefined,
       columns,
     },
+    notes,
   };
 }
 

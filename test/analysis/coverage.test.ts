@@ -8,6 +8,7 @@
  */
 import { describe, expect, it } from 'vitest';
 import { analyze } from '../../daemon/analysis/analyze.js';
+import { fitDiode } from '../../daemon/analysis/diode-fit.js';
 import { linearBias, wholeSweep, type SweepSpec } from '../helpers/whole-sweep.js';
 
 interface Study {
@@ -68,4 +69,33 @@ describe('stated ±1σ against replicate sweeps (coverage 60–80 %, spread of z
       expect(rmsZ, what).toBeLessThan(1.25);
     });
   }
+});
+
+describe('the single-diode model of a dark diode (Levenberg–Marquardt, Shockley with R_s and R_sh): ±1σ against replicates', () => {
+  // Shockley 1949 with series and shunt resistance (Sze & Ng 2007), swept −0.5 → 0.7 V as an SMU
+  // records it: 2 % relative noise, a 1e-13 A floor, 10 mA compliance.
+  const truth: Record<string, number> = { idealityFactor: 1.2, saturationCurrent: 1e-12, seriesResistance: 2, shuntResistance: 1e8 };
+  it('n, I₀, R_s and R_sh each covered 60–80 % of the time, spread of z near 1', () => {
+    const acc: Record<string, { c: number; z2: number }> = {};
+    for (let seed = 1; seed <= REPLICATES; seed++) {
+      const s = wholeSweep({ device: { kind: 'diode', saturationCurrent: 1e-12, ideality: 1.2, series: 2, shunt: 1e8 }, bias: linearBias(-0.5, 0.7, 121), relative: 0.02, floor: 1e-13, compliance: 1e-2, seed: 500 + seed });
+      const r = fitDiode({ x: s.v, y: s.i, compliance: s.compliance }, 'single-diode', { temperature: 300 });
+      for (const [k, t] of Object.entries(truth)) {
+        const p = r.parameters[k];
+        const z = (p.value - t) / p.stdErr;
+        const a = (acc[k] ??= { c: 0, z2: 0 });
+        if (Math.abs(z) <= 1) a.c++;
+        a.z2 += z * z;
+      }
+    }
+    for (const [k, a] of Object.entries(acc)) {
+      const coverage = a.c / REPLICATES;
+      const rmsZ = Math.sqrt(a.z2 / REPLICATES);
+      const what = `${k}: coverage ${(100 * coverage).toFixed(1)} %, RMS z ${rmsZ.toFixed(3)}`;
+      expect(coverage, what).toBeGreaterThanOrEqual(0.55);
+      expect(coverage, what).toBeLessThanOrEqual(0.8);
+      expect(rmsZ, what).toBeGreaterThan(0.8);
+      expect(rmsZ, what).toBeLessThan(1.3);
+    }
+  });
 });

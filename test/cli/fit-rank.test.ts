@@ -2,6 +2,7 @@ import { describe, expect, it } from 'vitest';
 import { fowlerNordheim } from '../../daemon/analysis/mechanisms/fowler-nordheim.js';
 import { runCli, tempFile } from '../helpers/cli.js';
 import { HAVE_STRD, loadStrd, lre } from '../helpers/reference.js';
+import { linearBias, toCsv, wholeSweep } from '../helpers/whole-sweep.js';
 
 function norrisCsv(): string {
   const d = loadStrd('Norris');
@@ -115,5 +116,70 @@ describe('text columns that are not used', () => {
     const bad = runCli(['fit', f, '--model', 'ohmic']); // default x is column 1: the text column
     expect(bad.code).toBe(2);
     expect(bad.stderr).toMatch(/line 2, column 'session': 'run-A' is not a number/);
+  });
+});
+
+describe('whole sweeps from the command line, no window given (test/helpers/whole-sweep.ts)', () => {
+  const spec = { device: { kind: 'fowler-nordheim', barrier: 3.1, massRatio: 0.42 } as const, thickness: 7e-9, area: 1e-8, leakage: 1e13, bias: linearBias(-10, 10, 201), relative: 0.02, floor: 1e-13, compliance: 1e-3 };
+  const args = ['--thickness', '7 nm', '--area', '1e-4 cm^2', '--mass-ratio', '0.42'];
+  it('fit: the barrier of each branch within 0.05 eV, the floor reported, every exclusion named', () => {
+    const file = tempFile('fn-whole.csv', toCsv(wholeSweep({ ...spec, seed: 11 })));
+    const r = runCli(['fit', file, '--model', 'fowler-nordheim', ...args, '--json']);
+    expect(r.code, r.stderr).toBe(0);
+    const out = JSON.parse(r.stdout);
+    expect(Math.abs(out.parameters.barrierHeight.value - 3.1)).toBeLessThan(0.05);
+    expect(out.parameters.barrierHeight.statStdErr).toBeGreaterThan(0);
+    expect(out.plausible).toBe(true);
+    expect(out.window.mode).toBe('auto');
+    expect(out.noise.floorSource).toBe('readings');
+    expect(out.noise.floor / 1e-13).toBeGreaterThan(0.5);
+    expect(out.noise.floor / 1e-13).toBeLessThan(2);
+    expect(out.branches.length).toBe(2);
+    expect(Object.keys(out.points.reasons)).toEqual(expect.arrayContaining(['zero bias', 'at the noise floor', 'other polarity (analysed as its own branch)']));
+  });
+  it('rank: Fowler–Nordheim first, weights summing to 1', () => {
+    const file = tempFile('fn-whole.csv', toCsv(wholeSweep({ ...spec, seed: 12 })));
+    const r = runCli(['rank', file, ...args, '--refractive-index', '1.46', '--json']);
+    expect(r.code, r.stderr).toBe(0);
+    const out = JSON.parse(r.stdout);
+    expect(out.ranking[0].model).toBe('fowler-nordheim');
+    expect(out.ranking.reduce((a: number, e: { score: number }) => a + e.score, 0)).toBeCloseTo(1, 9);
+  });
+});
+
+describe('files with a sweep column (an exported points.csv): pooling is never silent', () => {
+  const rows = (sweep: number, scale: number) => [1, 2, 3, 4, 5, 6, 7, 8].map((v, k) => `S,${sweep},${k},${v},${(v * scale) / 1e6}`).join('\n');
+  const csv = `session,sweep,point,voltage_V,current_A\n${rows(1, 1)}\n${rows(2, 2)}\n`;
+  const base = ['--x', 'voltage_V', '--y', 'current_A', '--model', 'ohmic', '--json'];
+  it('without --sweep or --all-sweeps the fit is refused, naming both', () => {
+    const r = runCli(['fit', tempFile('pts.csv', csv), ...base]);
+    expect(r.code).toBe(2);
+    expect(r.stderr).toMatch(/holds 2 sweeps \(column 'sweep', 1–2\): choose one with --sweep N, or pool them all with --all-sweeps/);
+  });
+  it('--sweep 2 fits that sweep alone (R = 0.5 MΩ by construction); --all-sweeps pools and says so', () => {
+    const one = runCli(['fit', tempFile('pts.csv', csv), ...base, '--sweep', '2']);
+    expect(one.code, one.stderr).toBe(0);
+    const a = JSON.parse(one.stdout);
+    expect(a.parameters.resistance.value).toBeCloseTo(5e5, 3);
+    expect(a.notes.join(' ')).toMatch(/sweep 2 of 2/);
+    const all = runCli(['fit', tempFile('pts.csv', csv), ...base, '--all-sweeps']);
+    expect(all.code, all.stderr).toBe(0);
+    expect(JSON.parse(all.stdout).notes.join(' ')).toMatch(/2 sweeps of the file pooled/);
+    expect(runCli(['fit', tempFile('pts.csv', csv), ...base, '--sweep', '3']).stderr).toMatch(/no sweep 3/);
+  });
+});
+
+describe('window flags on the nonlinear diode models', () => {
+  const d = wholeSweep({ device: { kind: 'diode', saturationCurrent: 1e-12, ideality: 1.2, series: 2, shunt: 1e8 }, bias: linearBias(-0.5, 0.7, 121), relative: 0.01, floor: 1e-13, seed: 3 });
+  it('--auto is refused with the reason; --from/--to restrict the readings fitted and are counted', () => {
+    const file = tempFile('diode.csv', toCsv(d));
+    const auto = runCli(['fit', file, '--model', 'single-diode', '--temperature', '300 K', '--auto']);
+    expect(auto.code).toBe(2);
+    expect(auto.stderr).toMatch(/--auto: the single-diode model is fitted over the whole curve/);
+    const win = runCli(['fit', file, '--model', 'single-diode', '--temperature', '300 K', '--from', '0.05', '--to', '0.7', '--json']);
+    expect(win.code, win.stderr).toBe(0);
+    const out = JSON.parse(win.stdout);
+    expect(out.points.reasons['outside the fit window']).toBe(55);
+    expect(Math.abs(out.parameters.idealityFactor.value - 1.2)).toBeLessThan(0.05);
   });
 });
