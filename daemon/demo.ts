@@ -50,10 +50,12 @@ export async function runDemo(scenarioName = 'oxide-fn'): Promise<void> {
   const data = { x: v, y: i, compliance: comp };
   const { model, from, to } = scenario.analysis;
   const inputs = scenario.device.inputs;
-  out(`Ranking of the mechanisms between ${from} V and ${to} V:\n`);
-  out(`${formatRanking(rankMechanisms(data, { inputs, window: { from, to } }))}\n\n`);
+  // The scenario's own window when it has one, else the automatic one.
+  const window = from !== undefined || to !== undefined ? { from, to } : undefined;
+  out(window ? `Ranking of the mechanisms between ${from} V and ${to} V:\n` : 'Ranking of the mechanisms, each on its own window:\n');
+  out(`${formatRanking(rankMechanisms(data, { inputs, window }))}\n\n`);
   try {
-    out(`${formatFit(analyze(data, { model, inputs, window: { from, to } }))}\n\n`);
+    out(`${formatFit(analyze(data, { model, inputs, window }))}\n\n`);
   } catch (e) {
     out(`The ${model} fit could not be made on this sweep: ${(e as Error).message}\n\n`);
   }

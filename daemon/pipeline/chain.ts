@@ -1,17 +1,17 @@
 /**
- * The live chain for one session: reading → flagged point (journaled) → live fit of the sweep so far
- * (a LineAccumulator updated per point, the full analysis at most every FIT_INTERVAL_MS and at the
- * sweep's end) → breakdown watch → drift chart across sweeps → decisions.
+ * The live chain for one session: reading → flagged point (journaled) → breakdown watch (each reading
+ * against the sweep's own trend, the noise floor ignored) → live fit of the sweep so far (a quick
+ * analysis at most every FIT_INTERVAL_MS, the full one at the sweep's end) → drift chart across
+ * sweeps → decisions.
  *
  * Every event goes to the journal first and then to `events$` (an rxjs Subject the websocket hub and
  * the CLI progress line subscribe to). The recording path is plain synchronous code — no operator
  * that could drop or reorder readings sits between the instrument and the journal.
  */
 import { Subject } from 'rxjs';
-import { analyze, predictCurrent, resolveInputs, transformPoint, type FitReport, type FitRequest, type IVData } from '../analysis/analyze.js';
+import { analyze, resolveInputs, transformPoint, type FitReport, type FitRequest, type IVData } from '../analysis/analyze.js';
 import { BreakdownWatch } from '../analysis/breakdown.js';
 import { DriftChart } from '../analysis/drift.js';
-import { LineAccumulator } from '../analysis/line-accumulator.js';
 import type { Mechanism, ResolvedInputs } from '../analysis/mechanism.js';
 import { getMechanism } from '../analysis/mechanisms/index.js';
 import { plotView, type PlotView } from '../analysis/plot.js';
@@ -101,9 +101,11 @@ export class LiveChain {
   private v: number[] = [];
   private i: number[] = [];
   private c: number[] = [];
-  private readonly acc = new LineAccumulator();
-  private accMinBias = Infinity;
-  private sign = 0;
+  /** Polarity of the breakdown watch's current trend (a change restarts it). */
+  private trendSign = 0;
+  /** Squares of recent null readings (zero bias, against the bias) and the largest |I| seen, for the floor. */
+  private readonly nulls: number[] = [];
+  private maxCurrent = 0;
   private complianceSeen = false;
   private hazardSeen = false;
   private lastFitAt = 0;
@@ -143,9 +145,7 @@ export class LiveChain {
     this.v = [];
     this.i = [];
     this.c = [];
-    this.acc.reset();
-    this.accMinBias = Infinity;
-    this.sign = 0;
+    this.trendSign = 0;
     this.complianceSeen = false;
     this.breakdown?.reset();
     this.lastFitAt = performance.now();
@@ -176,21 +176,9 @@ export class LiveChain {
       this.emit({ type: 'caution', kind: 'compliance', sweep: this.sweep, numbers: { voltage: v, current: i, ...(programmed !== undefined ? { programmed } : {}) }, message: `Compliance reached at ${at}: the instrument no longer holds the programmed bias. Points at compliance are kept in the journal and left out of every fit.` });
     }
 
-    this.accumulate(v, i, flags);
-
     if (this.breakdown) {
-      const bias = this.mech.bias === 'magnitude' && this.sign !== 0 ? (v - this.inputs.flatBand) * this.sign : v;
-      // The fit's prediction is computed only when the watch sees a jump and asks for it.
-      const predict = (): number | undefined => {
-        if (this.acc.n < 5 || bias < this.accMinBias) return undefined;
-        try {
-          const f = this.acc.fit();
-          return Math.abs(predictCurrent(this.mech, this.inputs, f.slope, f.intercept, bias, this.area));
-        } catch {
-          return undefined;
-        }
-      };
-      const verdict = this.breakdown.add(v, i, compliance, predict);
+      this.noteNull(v, i, flags);
+      const verdict = this.breakdown.add(v, i, compliance, this.trendPoint(v, i));
       if (verdict) {
         if (verdict.state === 'confirmed') {
           const action = this.options.control === false
@@ -220,16 +208,42 @@ export class LiveChain {
     return decision;
   }
 
-  /** Incremental line of the sweep so far (window points only when the window is manual). */
-  private accumulate(v: number, i: number, flags: number): void {
-    if (flags !== 0) return;
-    if (this.sign === 0 && v !== 0) this.sign = v > 0 ? 1 : -1;
-    const w = this.analysis.window;
-    const inWindow = typeof w !== 'object' || (v >= Math.min(w.from ?? -Infinity, w.to ?? Infinity) && v <= Math.max(w.from ?? -Infinity, w.to ?? Infinity));
-    if (inWindow && this.sign !== 0 && transformPoint(this.mech, this.inputs, v, i, this.sign, this.area, this.tp) === undefined) {
-      this.acc.add(this.tp.x, this.tp.y);
-      if (this.tp.bias < this.accMinBias) this.accMinBias = this.tp.bias;
+  /**
+   * Where a reading sits on the breakdown watch's trend plot: the mechanism's own plot for log
+   * mechanisms (a straight line where the mechanism holds), ln I against ln V otherwise; undefined
+   * at zero bias or for a current against the bias. A change of polarity starts a new trend.
+   */
+  private trendPoint(v: number, i: number): { x: number; y: number } | undefined {
+    const b = v - this.inputs.flatBand;
+    if (!Number.isFinite(b) || !Number.isFinite(i) || b === 0 || i * b <= 0) return undefined;
+    const sign = b > 0 ? 1 : -1;
+    if (sign !== this.trendSign) {
+      this.trendSign = sign;
+      this.breakdown?.resetTrend();
     }
+    if (this.mech.yKind === 'log' && this.mech.bias === 'magnitude') {
+      return transformPoint(this.mech, this.inputs, v, i, sign, this.area, this.tp) === undefined ? { x: this.tp.x, y: this.tp.y } : undefined;
+    }
+    return { x: Math.log(Math.abs(b)), y: Math.log(Math.abs(i)) };
+  }
+
+  /**
+   * Readings at zero bias or against the bias carry no signal (a passive film, a dark diode): their
+   * robust RMS is the noise floor the breakdown watch ignores. Skipped when they are large compared
+   * with the currents seen (a photocurrent or a built-in field makes them real).
+   */
+  private noteNull(v: number, i: number, flags: number): void {
+    if (flags !== 0 || !Number.isFinite(v) || !Number.isFinite(i)) return;
+    const b = v - this.inputs.flatBand;
+    if (Math.abs(i) > this.maxCurrent) this.maxCurrent = Math.abs(i);
+    if (!(Math.abs(b) <= 1e-4 * Math.max(1, Math.abs(v)) || i * b < 0)) return;
+    this.nulls.push(i * i);
+    if (this.nulls.length > 256) this.nulls.shift();
+    if (this.nulls.length < 3) return;
+    const sq = Float64Array.from(this.nulls).sort();
+    const m = sq.length >> 1;
+    const sigma = Math.sqrt((sq.length % 2 ? sq[m] : 0.5 * (sq[m - 1] + sq[m])) / 0.454936423119572);
+    if (sigma <= 0.01 * this.maxCurrent) this.breakdown?.setNoiseFloor(sigma);
   }
 
   rejected(raw: string, reason: string): void {
@@ -388,9 +402,6 @@ export class LiveChain {
     this.mech = mech;
     this.inputs = inputs;
     this.area = mech.usesArea && inputs.area !== undefined ? inputs.area : 1;
-    this.acc.reset();
-    this.accMinBias = Infinity;
-    for (let k = 0; k < this.v.length; k++) this.accumulate(this.v[k], this.i[k], this.c[k]);
     this.emit({ type: 'settings', analysis: a, source });
     const last = this.lastFinal;
     if (last) {

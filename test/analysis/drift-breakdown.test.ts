@@ -11,7 +11,7 @@ import { describe, expect, it } from 'vitest';
 import { BreakdownWatch, DEFAULT_BREAKDOWN } from '../../daemon/analysis/breakdown.js';
 import { DEFAULT_DRIFT, DriftChart, ewmaSigma, ewmaStep, movingRangeSigma } from '../../daemon/analysis/drift.js';
 import { fowlerNordheimMechanism as fowlerNordheim } from '../../daemon/analysis/mechanisms/fowler-nordheim.js';
-import { resolveInputs } from '../../daemon/analysis/analyze.js';
+import { resolveInputs, transformPoint } from '../../daemon/analysis/analyze.js';
 
 describe('EWMA (NIST/SEMATECH §6.3.2.4)', () => {
   it('reproduces the recursion on the handbook example series (values from memory; z by hand)', () => {
@@ -67,40 +67,68 @@ describe('EWMA (NIST/SEMATECH §6.3.2.4)', () => {
   });
 });
 
-describe('breakdown watch (signatures: common practice)', () => {
+describe('breakdown watch: each reading against the sweep\'s own trend (signatures: common practice)', () => {
   const inputs = resolveInputs(fowlerNordheim, { thickness: 7e-9, area: 1e-8, massRatio: 0.42 });
   const fn = (v: number) => fowlerNordheim.forward(v, { barrierHeight: 3.1 }, inputs) * 1e-8;
+  // The trend plot of Fowler–Nordheim: ln(J/E²) against 1/E (Lenzlinger & Snow 1969).
+  const at = (v: number, i: number) => {
+    const out = { x: 0, y: 0, bias: 0 };
+    return transformPoint(fowlerNordheim, inputs, v, i, 1, 1e-8, out) === undefined ? { x: out.x, y: out.y } : undefined;
+  };
 
-  it('a Fowler–Nordheim current climbing smoothly into compliance is not breakdown', () => {
-    const limit = fn(9.2);
-    const w = new BreakdownWatch(DEFAULT_BREAKDOWN, limit);
-    for (let v = 5; v <= 9.5; v += 0.05) {
-      const i = Math.min(fn(v), limit);
-      expect(w.add(v, i, i >= limit)).toBeUndefined();
+  it('a Fowler–Nordheim current climbing smoothly into compliance is not breakdown, fine or coarse steps', () => {
+    for (const step of [0.05, 0.5, 1]) {
+      const limit = fn(9.2);
+      const w = new BreakdownWatch(DEFAULT_BREAKDOWN, limit);
+      w.setNoiseFloor(1e-13);
+      for (let v = step; v <= 10; v += step) {
+        const i = Math.min(fn(v) + 1e-13 * Math.sin(37 * v), limit);
+        const verdict = w.add(v, i, i >= limit, at(v, i));
+        expect(verdict?.state, `step ${step} V at ${v.toFixed(2)} V`).not.toBe('confirmed');
+        if (step === 0.05) expect(verdict, `at ${v.toFixed(2)} V`).toBeUndefined();
+      }
     }
   });
 
-  it('a jump of decades into compliance with the bias collapsing is confirmed', () => {
-    const w = new BreakdownWatch(DEFAULT_BREAKDOWN, 1e-3);
-    for (let v = 5; v < 8.7; v += 0.1) w.add(v, fn(v), false);
-    const verdict = w.add(0.2, 1e-3, true);
-    expect(verdict?.state).toBe('confirmed');
-    expect(verdict?.numbers.previousBias).toBeGreaterThan(8.5);
+  it('a current leaving the noise floor (an ohmic layer turning on in one step) raises nothing', () => {
+    const w = new BreakdownWatch({ ...DEFAULT_BREAKDOWN, floor: 1e-14 }, 1e-2);
+    w.setNoiseFloor(2e-13);
+    const readings: [number, number][] = [[0, 1e-13], [0.1, 3e-9], [0.2, 6.1e-9], [0.3, 9e-9], [0.4, 1.21e-8]];
+    for (const [v, i] of readings) expect(w.add(v, i, false, v > 0 ? { x: Math.log(v), y: Math.log(i) } : undefined)).toBeUndefined();
   });
 
-  it('a jump above the floor without compliance is suspected, and confirmed when the fit predicts decades less', () => {
+  it('a jump of decades above the trend is confirmed at once; compliance with the bias collapsing too', () => {
+    const w = new BreakdownWatch(DEFAULT_BREAKDOWN, 1e-3);
+    for (let v = 5; v < 8.7; v += 0.1) expect(w.add(v, fn(v), false, at(v, fn(v)))).toBeUndefined();
+    const i = fn(8.7) * 3000; // 3.5 decades above the current the trend predicts
+    const verdict = w.add(8.7, i, false, at(8.7, i));
+    expect(verdict?.state).toBe('confirmed');
+    expect(verdict?.numbers.decadesAboveTrend).toBeGreaterThan(3);
+    const w2 = new BreakdownWatch(DEFAULT_BREAKDOWN, 1e-3);
+    for (let v = 5; v < 8.7; v += 0.1) w2.add(v, fn(v), false, at(v, fn(v)));
+    const collapse = w2.add(0.2, 1e-3, true, at(0.2, 1e-3));
+    expect(collapse?.state).toBe('confirmed');
+    expect(collapse?.numbers.previousBias).toBeGreaterThan(8.5);
+  });
+
+  it('compliance where the trend predicts decades less is confirmed; where it predicts the limit, nothing', () => {
+    const w = new BreakdownWatch(DEFAULT_BREAKDOWN, 1e-3);
+    for (let v = 5; v < 7; v += 0.1) w.add(v, fn(v), false, at(v, fn(v)));
+    // fn(7) ≈ 5e-8 A: compliance at 1 mA there is 4 decades above the trend, the bias held.
+    expect(w.add(7, 1e-3, true, at(7, 1e-3))?.state).toBe('confirmed');
+    const limit = fn(9.25);
+    const w2 = new BreakdownWatch(DEFAULT_BREAKDOWN, limit);
+    for (let v = 5; v < 9.25; v += 0.25) w2.add(v, fn(v), false, at(v, fn(v)));
+    expect(w2.add(9.25, limit, true, at(9.25, limit))).toBeUndefined();
+  });
+
+  it('without a trend yet, a jump from a measured level is only suspected; noise below the floor never counts', () => {
     const w = new BreakdownWatch(DEFAULT_BREAKDOWN, 1e-3);
     w.add(6, 1e-9, false);
     w.add(6.1, 1.2e-9, false);
-    expect(w.add(6.2, 5e-6, false)?.state).toBe('suspected');
+    expect(w.add(6.2, 5e-6, false)).toBeUndefined(); // 3.6 decades: a steep mechanism can do that in a step
+    expect(w.add(6.3, 5e-4, false)?.state).toBe('suspected'); // 5.4 decades above 1.2e-9 within three steps
     const w2 = new BreakdownWatch(DEFAULT_BREAKDOWN, 1e-3);
-    w2.add(6, 1e-9, false);
-    w2.add(6.1, 1.2e-9, false);
-    expect(w2.add(6.2, 5e-6, false, 1.5e-9)?.state).toBe('confirmed');
-  });
-
-  it('noise below the floor never triggers', () => {
-    const w = new BreakdownWatch(DEFAULT_BREAKDOWN, 1e-3);
-    for (const i of [1e-15, 3e-13, 2e-15, 8e-14, 1e-15, 9e-11]) expect(w.add(1, i, false)).toBeUndefined();
+    for (const i of [1e-15, 3e-13, 2e-15, 8e-14, 1e-15, 9e-11]) expect(w2.add(1, i, false)).toBeUndefined();
   });
 });
