@@ -157,12 +157,11 @@ describe('points that cannot enter a transform are counted by reason', () => {
     const comp = [0, 0, 0, 0, 0, 0, 1, 0];
     const r = analyze({ x: v, y: i, compliance: comp }, { model: 'diode', complianceLimit: 1e-3 });
     expect(r.points.used).toBe(3);
-    // A reading of exactly zero is at the noise floor (whatever the floor is); the one of the other sign
-    // flows against the bias.
+    // The reading of exactly zero and the one of the other sign carry no current along the bias: at
+    // the noise floor (whatever the floor is).
     expect(r.points.reasons).toEqual({
       'zero bias': 1,
-      'at the noise floor': 1,
-      'current flows against the bias': 1,
+      'at the noise floor': 2,
       'at compliance': 2,
     });
     expect(r.points.excluded).toBe(5);
