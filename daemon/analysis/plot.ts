@@ -9,7 +9,7 @@ import { analyzeDetailed, type DetailedFit, type FitRequest, type IVData } from 
 import { AnalysisError } from './errors.js';
 import type { AxisSpec } from './mechanism.js';
 import { getMechanism } from './mechanisms/index.js';
-import { resolveInputs } from './analyze.js';
+import { resolveInputs, transformPoint } from './analyze.js';
 
 export interface PlotView {
   readonly model: string;
@@ -42,7 +42,10 @@ export function plotView(data: IVData, request: FitRequest): PlotView {
     detailed = analyzeDetailed(data, { ...request, regimes: request.regimes ?? true, eachBranch: false });
   } catch (e) {
     if (e instanceof AnalysisError) {
-      return { model: mech.id, axes, x: [], y: [], bias: [], inWindow: [], residual: [], line: null, window: null, regimes: [], error: e.message };
+      // No fit: the readings are still drawn on the mechanism's plot (the branch carrying the larger current).
+      const pts = rawPoints(data, mech, inputs);
+      const n = pts.x.length;
+      return { model: mech.id, axes, x: pts.x.map(dx), y: pts.y.map(dy), bias: pts.bias, inWindow: new Array<number>(n).fill(0), residual: new Array<number | null>(n).fill(null), line: null, window: null, regimes: [], error: e.message };
     }
     throw e;
   }
@@ -83,4 +86,33 @@ export function plotView(data: IVData, request: FitRequest): PlotView {
     window: { x: [dx(lo), dx(hi)], bias: [bLo, bHi] },
     regimes,
   };
+}
+
+/** Every reading the mechanism's plot can take, in bias order, when no fit could be made. */
+function rawPoints(data: IVData, mech: ReturnType<typeof getMechanism>, inputs: ReturnType<typeof resolveInputs>): { x: number[]; y: number[]; bias: number[] } {
+  let pos = 0;
+  let neg = 0;
+  for (let k = 0; k < data.x.length; k++) {
+    const b = data.x[k] - inputs.flatBand;
+    const a = Math.abs(data.y[k]);
+    if (b > 0 && a > pos) pos = a;
+    if (b < 0 && a > neg) neg = a;
+  }
+  const sign = neg > pos ? -1 : 1;
+  const area = mech.usesArea && inputs.area !== undefined ? inputs.area : 1;
+  const out = { x: 0, y: 0, bias: 0 };
+  const ks: number[] = [];
+  for (let k = 0; k < data.x.length; k++) ks.push(k);
+  ks.sort((a, b) => data.x[a] - data.x[b]);
+  const x: number[] = [];
+  const y: number[] = [];
+  const bias: number[] = [];
+  for (const k of ks) {
+    if (data.compliance?.[k]) continue;
+    if (transformPoint(mech, inputs, data.x[k], data.y[k], sign, area, out) !== undefined) continue;
+    x.push(out.x);
+    y.push(out.y);
+    bias.push(data.x[k]);
+  }
+  return { x, y, bias };
 }
