@@ -43,6 +43,11 @@ export interface ChainOptions {
   readonly pointsPerSweep?: number;
   /** False for passive sources: plumbline cannot act on the instrument (cautions say so). */
   readonly control?: boolean;
+  /**
+   * Where events go after the journal: the station passes its one stream (which outlives each
+   * session, so the chain does not complete it); without it the chain has a stream of its own.
+   */
+  readonly events?: Subject<WireEvent>;
 }
 
 export function summarizeFit(r: FitReport): FitSummary {
@@ -83,7 +88,8 @@ const RANKING_INTERVAL_MS = 1000;
 const RANKING_MAX_POINTS = 5000;
 
 export class LiveChain {
-  readonly events$ = new Subject<WireEvent>();
+  /** Every event, after the journal has it: the station's own stream when it passes one in. */
+  readonly events$: Subject<WireEvent>;
   /** Linearized views for pages (display data, derived from journaled readings; not journaled). */
   readonly views$ = new Subject<{ sweep: number; final: boolean; view: PlotView }>();
   private lastRankingAt = -Infinity;
@@ -120,6 +126,7 @@ export class LiveChain {
   sweepInProgress = false;
 
   constructor(readonly options: ChainOptions) {
+    this.events$ = options.events ?? new Subject<WireEvent>();
     this.analysis = options.analysis;
     this.mech = getMechanism(options.analysis.model);
     this.inputs = resolveInputs(this.mech, options.analysis.inputs);
@@ -415,7 +422,7 @@ export class LiveChain {
   end(outcome: RunOutcome, reason: string): void {
     this.emit({ type: 'run-end', outcome, reason, sweeps: this.sweepsDone });
     this.options.journal.close();
-    this.events$.complete();
+    if (!this.options.events) this.events$.complete();
     this.views$.complete();
   }
 }

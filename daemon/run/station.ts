@@ -5,7 +5,7 @@
  */
 import { join } from 'node:path';
 import type { Duplex } from 'node:stream';
-import { Subject } from 'rxjs';
+import { config as rxjsConfig, Subject } from 'rxjs';
 import { loadDialect, type Dialect } from '../../protocols/dialect.js';
 import { ScpiSession } from '../../protocols/scpi-session.js';
 import { openSerial, openTcp, duplexPair } from '../../protocols/transport.js';
@@ -25,6 +25,20 @@ import { dialectOf, type StationConfig } from './config.js';
 import { checkPlan, GuardedSource } from './guard.js';
 import { checkPlanSize, describePlan, isStressPlan, parsePlan, planCompliance, planShape, type Plan } from './plan.js';
 import { RunController, type RunResult } from './runner.js';
+
+// One stream of events from the chain to every subscriber (snapshot, websocket hub, terminal, lab
+// publisher). A subscriber that throws must never reach the run: rxjs reports such errors here
+// instead of throwing them from a timer (which would end the process).
+// At most one report every 10 s (a broken subscriber fails on every reading).
+let subscriberErrors = 0;
+let lastReport = -Infinity;
+rxjsConfig.onUnhandledError = (err: unknown) => {
+  subscriberErrors++;
+  const now = performance.now();
+  if (now - lastReport < 10_000) return;
+  lastReport = now;
+  process.stderr.write(`plumbline: a subscriber of the event stream failed (${subscriberErrors} time(s) so far; the run is not affected): ${(err as Error)?.stack ?? String(err)}\n`);
+};
 
 const TERMINATOR = { lf: '\n', crlf: '\r\n', cr: '\r' } as const;
 
@@ -64,6 +78,9 @@ export class Station {
     }
     this.analysis = config.analysis ?? this.scenarioAnalysis();
     this.recovered = recoverAll(dataDir);
+    // The snapshot buffer is the stream's first subscriber: a page connecting at any moment gets
+    // everything up to the last event it will then receive live.
+    this.events$.subscribe({ next: (e) => this.recent.add(e), error: () => undefined });
   }
 
   private scenarioAnalysis(): AnalysisSettings {
@@ -159,13 +176,10 @@ export class Station {
       sweeps: o.sweeps,
       pointsPerSweep: o.pointsPerSweep,
       control: o.control ?? true,
+      events: this.events$,
     });
     this.recent.clear();
     this.views = new Map();
-    chain.events$.subscribe({
-      next: (e) => this.publish(e),
-      error: () => undefined,
-    });
     chain.views$.subscribe({
       next: (v) => {
         this.views.set(v.sweep, v);
@@ -333,16 +347,6 @@ export class Station {
       return Object.keys(merged).length ? merged : undefined;
     } catch (e) {
       throw new StationError((e as Error).message, 400);
-    }
-  }
-
-  /** After the journal: snapshot and subscribers. A subscriber's failure never reaches the run. */
-  private publish(e: WireEvent): void {
-    try {
-      this.recent.add(e);
-      this.events$.next(e);
-    } catch (err) {
-      process.stderr.write(`plumbline: delivering event ${e.seq} (${e.type}) failed: ${(err as Error).message}\n`);
     }
   }
 
