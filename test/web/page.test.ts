@@ -272,7 +272,7 @@ describe('live page in headless Chromium', () => {
     const { page, errors } = await openPage(browser, daemon.url);
     // Long sweeps, so the change lands in the middle of the run.
     await startFromPage(page, { start: '0', stop: '9', points: '100', repeat: '60', compliance: '0.001' });
-    await page.waitForFunction(() => (window as any).__plumbline.store.drift.length >= 2, undefined, { timeout: 60_000 });
+    await page.waitForFunction(() => (window as any).__plumbline.store.drift.length >= 2, undefined, { timeout: 120_000 });
     await page.selectOption('#model-select', 'poole-frenkel');
     await page.fill('#analysis-form [name="from"]', '');
     await page.fill('#analysis-form [name="to"]', '');
