@@ -271,8 +271,13 @@ describe('live page in headless Chromium', () => {
     expect(fn.status).toBe(200);
     const { page, errors } = await openPage(browser, daemon.url);
     // Long sweeps, so the change lands in the middle of the run.
+    const before = await page.evaluate(() => (window as any).__plumbline.store.session);
     await startFromPage(page, { start: '0', stop: '9', points: '100', repeat: '60', compliance: '0.001' });
-    await page.waitForFunction(() => (window as any).__plumbline.store.drift.length >= 2, undefined, { timeout: 120_000 });
+    // Two sweeps of the new run on the first baseline (the page holds the previous session until the new one starts).
+    await page.waitForFunction((old) => {
+      const s = (window as any).__plumbline.store;
+      return s.session !== old && s.drift.filter((d: any) => d.parameter === 'barrierHeight').length >= 2;
+    }, before, { timeout: 120_000 });
     await page.selectOption('#model-select', 'poole-frenkel');
     await page.fill('#analysis-form [name="from"]', '');
     await page.fill('#analysis-form [name="to"]', '');
