@@ -69,30 +69,32 @@ export function formatMeasurement(value: number, stdErr: number | null | undefin
 }
 
 /**
- * Labels for axis ticks: the fewest significant digits (2 to 12) at which all labels differ, in
- * one notation for the whole axis (exponent form when any tick needs it).
+ * Labels for axis ticks: one notation and one number of decimals for the whole axis (exponent form
+ * when any tick needs it), the fewest decimals at which every label still reads as its tick (so
+ * 2.5 is never shown as "3") and no two labels are the same.
  */
 export function formatTicks(ticks: readonly number[]): string[] {
-  const finite = ticks.filter((t) => Number.isFinite(t) && t !== 0);
-  const big = finite.reduce((m, t) => Math.max(m, Math.abs(t)), 0);
-  const small = finite.reduce((m, t) => Math.min(m, Math.abs(t)), Infinity);
-  const expForm = finite.length > 0 && (big >= FIXED_HI || small < FIXED_LO);
-  for (let d = 2; d <= 12; d++) {
-    const labels = ticks.map((t) => tickLabel(t, d, expForm, big));
-    if (new Set(labels).size === labels.length) return labels;
+  const finite = ticks.filter((t) => Number.isFinite(t));
+  const nonzero = finite.filter((t) => t !== 0);
+  const big = nonzero.reduce((m, t) => Math.max(m, Math.abs(t)), 0);
+  const small = nonzero.reduce((m, t) => Math.min(m, Math.abs(t)), Infinity);
+  const sorted = [...finite].sort((x, y) => x - y);
+  let step = Infinity;
+  for (let k = 1; k < sorted.length; k++) if (sorted[k] > sorted[k - 1]) step = Math.min(step, sorted[k] - sorted[k - 1]);
+  if (!Number.isFinite(step)) step = big || 1;
+  const tol = step * 1e-6;
+  const expForm = nonzero.length > 0 && (big >= FIXED_HI || small < FIXED_LO);
+  const label = (t: number, d: number) => {
+    if (!Number.isFinite(t)) return finiteText(t);
+    if (Math.abs(t) < tol) return expForm ? (0).toExponential(d).replace(/e\+?/, 'e') : (0).toFixed(d);
+    return expForm ? t.toExponential(d).replace('e+', 'e') : t.toFixed(d);
+  };
+  for (let d = 0; d <= 15; d++) {
+    const labels = ticks.map((t) => label(t, d));
+    const exact = ticks.every((t, k) => !Number.isFinite(t) || Math.abs(Number(labels[k]) - (Math.abs(t) < tol ? 0 : t)) <= tol);
+    if (exact && new Set(labels).size === labels.length) return expForm ? labels.map((l) => (/^-?0(\.0+)?e/.test(l) ? '0' : l)) : labels;
   }
-  return ticks.map((t) => tickLabel(t, 12, expForm, big));
-}
-
-function tickLabel(t: number, digits: number, expForm: boolean, big: number): string {
-  if (!Number.isFinite(t)) return finiteText(t);
-  if (Math.abs(t) < big * 1e-12) return '0';
-  if (!expForm) {
-    // Digits relative to the largest tick, so 0.5 and 10.5 on one axis keep the same decimals.
-    const dec = Math.max(0, digits - 1 - exponentOf(big));
-    return trim(t.toFixed(Math.min(20, dec)));
-  }
-  return trim(t.toExponential(Math.max(0, digits - 1)));
+  return ticks.map((t) => label(t, 15));
 }
 
 const SUPERSCRIPT: Record<string, string> = { '-': '⁻', '0': '⁰', '1': '¹', '2': '²', '3': '³', '4': '⁴', '5': '⁵', '6': '⁶', '7': '⁷', '8': '⁸', '9': '⁹' };

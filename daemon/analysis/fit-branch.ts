@@ -638,7 +638,7 @@ export function fitBranch(
   const model = modelValues(p, { a: line.intercept, b: line.slope, joint }, diode);
   const used = pointsOf(p, fs, fe);
   const all = pointsOf(p, 0, n - 1);
-  const extraction = mech.extract({ line, used, all, inputs });
+  const extraction = mech.extract({ line, used, all, inputs, terms: joint ? { leakage: joint.names.includes('g'), series: joint.names.includes('rs') } : undefined });
 
   // ---- window-choice uncertainty --------------------------------------------------------------
   const qLine = q === p ? line : scaleLine(line, n / nq);

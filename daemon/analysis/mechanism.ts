@@ -88,6 +88,8 @@ export interface ExtractionInput {
   /** Every transformable point, inside the window or not (for regime analysis). */
   readonly all: FitPoints;
   readonly inputs: ResolvedInputs;
+  /** The line came from a fit with these extra terms (a leakage; a diode's series resistance and exact "−1"). */
+  readonly terms?: { readonly leakage: boolean; readonly series: boolean };
 }
 
 /**

@@ -1,19 +1,38 @@
 /**
  * `plumbline refit`: every sweep of a session analysed again with another model, window or inputs,
  * from the journaled readings. The journal is never touched; results go to a new JSON file.
+ * Each sweep's temperature is, in this order: the one given, a note on the sweep ("T = 350 K",
+ * as `plumbline watch --temperature-column` writes them), the session's analysis inputs; the result
+ * says which, and carries every fit's warnings.
  */
 import { writeFileSync } from 'node:fs';
 import { join } from 'node:path';
-import { analyze, type FitRequest } from '../analysis/analyze.js';
+import { analyze, resolveInputs, type FitRequest } from '../analysis/analyze.js';
 import { getMechanism } from '../analysis/mechanisms/index.js';
+import { temperatureFromText } from '../analysis/temperature-series.js';
 import type { FitSummary } from '../../protocols/wire.js';
 import { summarizeFit } from '../pipeline/chain.js';
 import { loadSession } from './sessions.js';
 
+/** Where an input of a refit came from. */
+export type InputSource = 'given' | 'note' | 'session' | 'default';
+
+export interface RefitSweep {
+  readonly sweep: number;
+  readonly complete: boolean | null;
+  /** The temperature this sweep was fitted at, K, and where it came from. */
+  readonly temperature: { readonly value: number; readonly source: InputSource };
+  readonly fit: FitSummary | null;
+  readonly error: string | null;
+  readonly warnings: readonly string[];
+}
+
 export interface RefitResult {
   readonly session: string;
   readonly request: FitRequest;
-  readonly sweeps: { sweep: number; complete: boolean | null; fit: FitSummary | null; error: string | null }[];
+  /** Every input the model uses, SI, with where it came from (the temperature may vary per sweep). */
+  readonly inputs: Record<string, { value: number; source: InputSource }>;
+  readonly sweeps: RefitSweep[];
   readonly file: string;
 }
 
@@ -21,24 +40,46 @@ export interface RefitResult {
 export function refitSession(dir: string, override: Partial<Pick<FitRequest, 'model' | 'window' | 'inputs'>>, out?: string): RefitResult {
   const s = loadSession(dir);
   const base = (s.analysis ?? {}) as { model?: string; window?: FitRequest['window']; inputs?: FitRequest['inputs'] };
+  const given = override.inputs ?? {};
   const request: FitRequest = {
     model: override.model ?? base.model ?? 'ohmic',
     window: override.window ?? (override.model !== undefined && override.model !== base.model ? 'auto' : base.window ?? 'auto'),
-    inputs: { ...(base.inputs ?? {}), ...(override.inputs ?? {}) },
+    inputs: { ...(base.inputs ?? {}), ...given },
     complianceLimit: s.complianceLimit,
   };
-  getMechanism(request.model); // an unknown model is refused before any work (UNKNOWN_MODEL)
-  const sweeps = s.sweeps.map((sw) => {
+  const mech = getMechanism(request.model); // an unknown model is refused before any work (UNKNOWN_MODEL)
+  const sourceOf = (k: string): InputSource => (k in given ? 'given' : base.inputs && k in base.inputs ? 'session' : 'default');
+  const sweeps: RefitSweep[] = s.sweeps.map((sw) => {
+    let T: { value: number; source: InputSource } | undefined;
+    if (given.temperature !== undefined) T = { value: given.temperature, source: 'given' };
+    else {
+      for (const a of sw.annotations) {
+        const t = temperatureFromText(`${a.text} ${a.tags.join(' ')}`);
+        if (t !== undefined) T = { value: t, source: 'note' };
+      }
+    }
+    T ??= request.inputs?.temperature !== undefined ? { value: request.inputs.temperature, source: sourceOf('temperature') } : { value: 300, source: 'default' };
     try {
-      const r = analyze({ x: sw.v, y: sw.i, compliance: sw.c }, request);
-      return { sweep: sw.sweep, complete: sw.complete, fit: summarizeFit(r), error: null };
+      const r = analyze({ x: sw.v, y: sw.i, compliance: sw.c }, { ...request, inputs: { ...request.inputs, temperature: T.value } });
+      return { sweep: sw.sweep, complete: sw.complete, temperature: T, fit: summarizeFit(r), error: null, warnings: r.warnings };
     } catch (e) {
-      return { sweep: sw.sweep, complete: sw.complete, fit: null, error: (e as Error).message };
+      return { sweep: sw.sweep, complete: sw.complete, temperature: T, fit: null, error: (e as Error).message, warnings: [] };
     }
   });
+  // The inputs the model uses, as resolved (defaults included), with their origin.
+  const inputs: RefitResult['inputs'] = {};
+  try {
+    const resolved = resolveInputs(mech, request.inputs);
+    for (const k of [...mech.requires, ...mech.uses]) {
+      const v = (resolved as unknown as Record<string, number | undefined>)[k];
+      if (v !== undefined) inputs[k] = { value: v, source: resolved.assumed.includes(k) ? 'default' : sourceOf(k) };
+    }
+  } catch {
+    /* a missing required input: every sweep carries the error */
+  }
   const stamp = new Date().toISOString().replace(/[-:]/g, '').replace(/\.\d+Z$/, 'Z');
   const file = out ?? join(s.dir, `refit-${request.model}-${stamp}.json`);
-  const result = { session: s.id, request, sweeps, file };
+  const result = { session: s.id, request, inputs, sweeps, file };
   writeFileSync(file, `${JSON.stringify(result, null, 2)}\n`);
   return result;
 }

@@ -4,7 +4,7 @@
  * journal. Used by refit, report and the temperature series.
  */
 import { basename, resolve } from 'node:path';
-import type { FitSummary, WireEvent } from '../../protocols/wire.js';
+import type { FitSummary, SolarSummary, WireEvent } from '../../protocols/wire.js';
 import { FLAG } from '../../protocols/wire.js';
 import { scanJournal, type BadLine } from './reader.js';
 
@@ -17,6 +17,10 @@ export interface SweepData {
   complete: boolean | null;
   fit: FitSummary | null;
   fitError: string | null;
+  /** A solar cell's figures of merit and diode fit (analysis option `solar`). */
+  solar: SolarSummary | null;
+  /** The analysis settings in force when the sweep's final fit was made. */
+  analysis: unknown;
   drift: Extract<WireEvent, { type: 'drift' }> | null;
   annotations: Extract<WireEvent, { type: 'annotation' }>[];
 }
@@ -30,6 +34,8 @@ export interface SessionData {
   readonly complianceLimit: number | undefined;
   readonly sweeps: SweepData[];
   readonly annotations: Extract<WireEvent, { type: 'annotation' }>[];
+  /** Analysis settings changes after the start, in time order. */
+  readonly timelineSettings: Extract<WireEvent, { type: 'settings' }>[];
   /** Cautions, decisions, output changes, recovery and run end, in time order. */
   readonly timeline: WireEvent[];
   readonly runEnd: Extract<WireEvent, { type: 'run-end' }> | null;
@@ -42,7 +48,7 @@ export function loadSession(dirIn: string): SessionData {
   const sweep = (n: number) => {
     let s = sweeps.get(n);
     if (!s) {
-      s = { sweep: n, v: [], i: [], c: [], complete: null, fit: null, fitError: null, drift: null, annotations: [] };
+      s = { sweep: n, v: [], i: [], c: [], complete: null, fit: null, fitError: null, solar: null, analysis, drift: null, annotations: [] };
       sweeps.set(n, s);
     }
     return s;
@@ -52,6 +58,7 @@ export function loadSession(dirIn: string): SessionData {
   let complianceLimit: number | undefined;
   const annotations: SessionData['annotations'] = [];
   const timeline: WireEvent[] = [];
+  const timelineSettings: SessionData['timelineSettings'] = [];
   let runEnd: SessionData['runEnd'] = null;
   const scan = scanJournal(dir, (e) => {
     switch (e.type) {
@@ -69,6 +76,7 @@ export function loadSession(dirIn: string): SessionData {
         break;
       case 'settings':
         analysis = e.analysis;
+        timelineSettings.push(e);
         break;
       case 'sweep-start':
         sweep(e.sweep);
@@ -80,6 +88,8 @@ export function loadSession(dirIn: string): SessionData {
         if (e.final) {
           sweep(e.sweep).fit = e.fit;
           sweep(e.sweep).fitError = e.error ?? null;
+          sweep(e.sweep).solar = e.solar ?? null;
+          sweep(e.sweep).analysis = analysis;
         }
         break;
       case 'drift':
@@ -112,6 +122,7 @@ export function loadSession(dirIn: string): SessionData {
     sweeps: [...sweeps.values()].sort((a, b) => a.sweep - b.sweep),
     annotations,
     timeline,
+    timelineSettings,
     runEnd,
     badLines: scan.bad,
   };

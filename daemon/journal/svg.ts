@@ -10,7 +10,7 @@ export interface SvgSeries {
   readonly color: string;
   readonly line?: boolean;
   readonly dash?: string;
-  readonly marker?: 'dot' | 'ring' | 'none';
+  readonly marker?: 'dot' | 'ring' | 'cross' | 'square' | 'none';
   readonly label?: string;
   readonly width?: number;
 }
@@ -27,6 +27,12 @@ export interface SvgChart {
   readonly title?: string;
   /** Horizontal reference lines (e.g. control limits). */
   readonly hlines?: readonly { y: number; color: string; dash?: string; label?: string }[];
+  /** Vertical reference lines with a label (e.g. where a drift baseline starts again). */
+  readonly vlines?: readonly { x: number; color: string; dash?: string; label?: string }[];
+  /** Whole-number ticks only on x (sweep numbers). */
+  readonly xInteger?: boolean;
+  /** Filled rectangles in data coordinates (e.g. V_mp × I_mp). */
+  readonly rects?: readonly { x0: number; y0: number; x1: number; y1: number; fill: string; stroke: string }[];
 }
 
 import { formatLogTicks, formatTicks, logTicks, niceTicks } from '../../protocols/number-format.js';
@@ -108,7 +114,12 @@ export function svgChart(c: SvgChart): string {
     return t.map((v, k) => ({ at: v, label: labels[k] }));
   };
   parts.push(`<rect x="${L}" y="${T}" width="${W - L - R}" height="${H - T - B}" fill="none" stroke="#888"/>`);
-  for (const t of ticks(x0, x1, Boolean(c.xLog))) {
+  let xticks = ticks(x0, x1, Boolean(c.xLog));
+  if (c.xInteger && !c.xLog) {
+    const whole = xticks.filter((t) => Math.abs(t.at - Math.round(t.at)) < 1e-9);
+    xticks = whole.length >= 2 ? whole.map((t) => ({ at: t.at, label: String(Math.round(t.at)) })) : Array.from({ length: Math.floor(x1) - Math.ceil(x0) + 1 }, (_x, k) => ({ at: Math.ceil(x0) + k, label: String(Math.ceil(x0) + k) }));
+  }
+  for (const t of xticks) {
     const X = px(t.at).toFixed(1);
     parts.push(`<line x1="${X}" y1="${T}" x2="${X}" y2="${H - B}" stroke="#e4e1d8"/><text x="${X}" y="${H - B + 14}" text-anchor="middle">${esc(t.label)}</text>`);
   }
@@ -119,6 +130,19 @@ export function svgChart(c: SvgChart): string {
   parts.push(`<text x="${(L + W - R) / 2}" y="${H - 8}" text-anchor="middle" class="ax">${esc(c.xLabel)}</text>`);
   parts.push(`<text transform="translate(14 ${(T + H - B) / 2}) rotate(-90)" text-anchor="middle" class="ax">${esc(c.yLabel)}</text>`);
   parts.push(`<g clip-path="none">`);
+  for (const r of c.rects ?? []) {
+    const xa = px(fx(r.x0));
+    const xb = px(fx(r.x1));
+    const ya = py(fy(r.y0));
+    const yb = py(fy(r.y1));
+    if ([xa, xb, ya, yb].every(Number.isFinite)) parts.push(`<rect x="${Math.min(xa, xb).toFixed(1)}" y="${Math.min(ya, yb).toFixed(1)}" width="${Math.abs(xb - xa).toFixed(1)}" height="${Math.abs(yb - ya).toFixed(1)}" fill="${r.fill}" stroke="${r.stroke}" stroke-dasharray="5 3"/>`);
+  }
+  for (const v of c.vlines ?? []) {
+    const X = px(fx(v.x));
+    if (!Number.isFinite(X)) continue;
+    parts.push(`<line x1="${X.toFixed(1)}" y1="${T}" x2="${X.toFixed(1)}" y2="${H - B}" stroke="${v.color}" stroke-dasharray="${v.dash ?? '3 3'}" stroke-width="1.4"/>`);
+    if (v.label) parts.push(`<text x="${(X + 3).toFixed(1)}" y="${T + 11}">${esc(v.label)}</text>`);
+  }
   for (const h of c.hlines ?? []) {
     const Y = py(fy(h.y));
     if (Number.isFinite(Y)) parts.push(`<line x1="${L}" y1="${Y.toFixed(1)}" x2="${W - R}" y2="${Y.toFixed(1)}" stroke="${h.color}" stroke-dasharray="${h.dash ?? '6 4'}"/>`);
@@ -138,6 +162,8 @@ export function svgChart(c: SvgChart): string {
       pts.push(`${X.toFixed(1)},${Y.toFixed(1)}`);
       if (s.marker === 'dot') marks.push(`<circle cx="${X.toFixed(1)}" cy="${Y.toFixed(1)}" r="2.6" fill="${s.color}"/>`);
       else if (s.marker === 'ring') marks.push(`<circle cx="${X.toFixed(1)}" cy="${Y.toFixed(1)}" r="2.6" fill="#fff" stroke="${s.color}"/>`);
+      else if (s.marker === 'cross') marks.push(`<path d="M${(X - 3).toFixed(1)},${(Y - 3).toFixed(1)}l6,6m0,-6l-6,6" stroke="${s.color}" stroke-width="1.4" fill="none"/>`);
+      else if (s.marker === 'square') marks.push(`<rect x="${(X - 3).toFixed(1)}" y="${(Y - 3).toFixed(1)}" width="6" height="6" fill="#fff" stroke="${s.color}" stroke-width="1.4"/>`);
     }
     if (s.line !== false) {
       const runs = pts.join(' ').split('M').map((r) => r.trim()).filter((r) => r.includes(' ') || r.includes(','));

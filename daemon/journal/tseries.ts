@@ -18,6 +18,10 @@ export interface SeriesReport {
   readonly points: { sweep: number; temperature: number; value: number; stdErr: number; y: SeriesPoint }[];
   readonly skipped: { sweep: number; reason: string }[];
   readonly result: ArrheniusResult;
+  /** What makes the result doubtful, in words (a negative energy, one indistinguishable from zero …). */
+  readonly warnings: string[];
+  /** False when the energy cannot be what the quantity means (a negative trap depth or barrier). */
+  readonly plausible: boolean;
 }
 
 const MEANING: Record<string, string> = {
@@ -61,7 +65,21 @@ export function temperatureSeries(dir: string, o: { model?: string; quantity?: s
     }
   });
   const result = arrhenius(points.map((p) => p.y));
+  const warnings: string[] = [];
+  const e = result.activationEnergy;
+  let plausible = true;
+  if (e.value < 0) {
+    plausible = false;
+    warnings.push(`the activation energy ${e.value.toPrecision(3)} eV is negative: the ${quantity} grows as the temperature falls, so it is not a thermally activated ${quantity === 'intercept' && MEANING[model] ? MEANING[model].split(' (')[0] : 'quantity'}; check the temperatures (notes "T = … K" or --temperatures), the model and the fit window`);
+  } else if (e.value < 2 * e.stdErr) {
+    warnings.push(`the activation energy ${e.value.toPrecision(3)} ± ${e.stdErr.toPrecision(2)} eV is not distinguishable from zero (less than 2σ)`);
+  }
+  const temps = points.map((p) => p.temperature);
+  if (temps.length && Math.max(...temps) / Math.min(...temps) < 1.1) warnings.push(`the temperatures span only ${Math.min(...temps)}–${Math.max(...temps)} K: 1/T changes by less than 10 %, so the slope is poorly determined`);
+  if (skipped.length) warnings.push(`${skipped.length} sweep(s) left out (see skipped)`);
   return {
+    warnings,
+    plausible,
     session: s.id,
     model,
     quantity,

@@ -16,6 +16,8 @@ import type { Mechanism, ResolvedInputs } from '../analysis/mechanism.js';
 import { getMechanism } from '../analysis/mechanisms/index.js';
 import { plotView, type PlotView } from '../analysis/plot.js';
 import { solarSummary } from '../analysis/solar-live.js';
+import { displayUnit } from '../../protocols/display-units.js';
+import { formatNumber } from '../../protocols/number-format.js';
 import { rankMechanisms } from '../analysis/ranking.js';
 import { FLAG, type FitSummary, type NewEvent, type RunOutcome, type SolarSummary, type WireEvent } from '../../protocols/wire.js';
 import type { JournalWriter } from '../journal/journal.js';
@@ -375,12 +377,15 @@ export class LiveChain {
     for (const [k, x] of Object.entries({ value: p?.value, statistic: point.statistic, center: point.center, lower: point.lower, upper: point.upper, sigma: point.sigma })) {
       if (typeof x === 'number') numbers[k] = x;
     }
-    const unit = p?.unit ? ` ${p.unit}` : '';
+    // Words for people: the trade's unit, none for a dimensionless value (the numbers stay SI).
+    const du = displayUnit(p?.unit ?? '', name);
+    const unit = du.unit ? ` ${du.unit}` : '';
+    const q = (x: number | null | undefined, digits: number) => formatNumber((x ?? Number.NaN) * du.scale, digits);
     const stat = point.statistic === null ? '' : cfg.method === 'ewma'
-      ? `EWMA ${point.statistic.toPrecision(5)}${unit} outside [${point.lower?.toPrecision(5)}, ${point.upper?.toPrecision(5)}]${unit}`
-      : `CUSUM ${point.statistic.toPrecision(3)}${unit} beyond ±${point.upper?.toPrecision(3)}${unit}`;
+      ? `EWMA ${q(point.statistic, 5)}${unit} outside [${q(point.lower, 5)}, ${q(point.upper, 5)}]${unit}`
+      : `CUSUM ${q(point.statistic, 3)}${unit} beyond ±${q(point.upper, 3)}${unit}`;
     if (point.state === 'out-of-control') {
-      const reason = `${name} drifted in sweep ${this.sweep}: ${stat} (baseline centre ${point.center?.toPrecision(5)}${unit}, σ ${point.sigma?.toPrecision(3)}${unit})`;
+      const reason = `${name} drifted in sweep ${this.sweep}: ${stat} (baseline centre ${q(point.center, 5)}${unit}, σ ${q(point.sigma, 3)}${unit})`;
       this.emit({ type: 'caution', kind: 'drift-limit', sweep: this.sweep, numbers, message: `Drift: ${reason}.` });
       this.emit({ type: 'decision', action: cfg.action, reason, sweep: this.sweep, numbers });
       if (cfg.action !== 'warn') return { action: cfg.action, outcome: 'aborted-drift', reason };

@@ -162,8 +162,8 @@ describe('report', () => {
       expect(requests.filter((u) => !u.startsWith('file:'))).toEqual([]);
       expect(facts.overviewLines).toBeGreaterThanOrEqual(sweeps);
       expect(facts.tableRows).toBe(sweeps + 1);
-      // Overview + one trend chart + two plots per sweep.
-      expect(facts.charts).toBe(1 + 1 + 2 * sweeps);
+      // Overview + one trend chart + three plots per sweep (measured, linearized, residuals).
+      expect(facts.charts).toBe(1 + 1 + 3 * sweeps);
       expect(facts.text).toMatch(/probe re-landed/);
       expect(facts.text).toMatch(/aborted-drift/);
       expect(facts.text).toMatch(/caution: drift-limit/);

@@ -54,9 +54,22 @@ describe('formatMeasurement (GUM rounding)', () => {
 
 describe('ticks', () => {
   it('labels are distinct with the fewest digits', () => {
-    expect(formatTicks([3.1, 3.1000001, 3.1000002])).toEqual(['3.1', '3.1000001', '3.1000002']);
-    expect(formatTicks([0, 0.5, 1, 1.5])).toEqual(['0', '0.5', '1', '1.5']);
+    expect(formatTicks([3.1, 3.1000001, 3.1000002])).toEqual(['3.1000000', '3.1000001', '3.1000002']);
+    expect(formatTicks([0, 0.5, 1, 1.5])).toEqual(['0.0', '0.5', '1.0', '1.5']);
+    expect(formatTicks([0, 2, 4])).toEqual(['0', '2', '4']);
     expect(formatTicks([1e-9, 2e-9, 3e-9])).toEqual(['1e-9', '2e-9', '3e-9']);
+    expect(formatTicks([9.999e-5, 1e-4, 1.0001e-4])).toEqual(['9.9990e-5', '1.0000e-4', '1.0001e-4']);
+    expect(formatTicks([-1e-3, 0, 1e-3, 2e-3])).toEqual(['-0.001', '0.000', '0.001', '0.002']);
+    expect(formatTicks([-2e-4, 0, 2e-4])).toEqual(['-2e-4', '0', '2e-4']);
+  });
+  it('a label always reads as its tick (2.5 is never shown as 3)', () => {
+    expect(formatTicks([0, 2.5, 5, 7.5, 10])).toEqual(['0.0', '2.5', '5.0', '7.5', '10.0']);
+    for (const [a, b] of [[0, 10], [3.09999, 3.10001], [1e-25, 1.7e-25], [-0.37, 0.41], [0.95, 1.05]]) {
+      const t = niceTicks(a, b);
+      const l = formatTicks(t);
+      const step = t[1] - t[0];
+      l.forEach((x, k) => expect(Math.abs(Number(x) - t[k]), `${x} for ${t[k]}`).toBeLessThanOrEqual(step * 1e-6));
+    }
     const l = formatTicks(niceTicks(3.09999, 3.10001));
     expect(new Set(l).size).toBe(l.length);
   });

@@ -271,13 +271,18 @@ describe('live page in headless Chromium', () => {
     expect(fn.status).toBe(200);
     const { page, errors } = await openPage(browser, daemon.url);
     // Long sweeps, so the change lands in the middle of the run.
-    await startFromPage(page, { start: '0', stop: '9', points: '150', repeat: '60', compliance: '0.001' });
-    await page.waitForFunction(() => (window as any).__plumbline.store.drift.length >= 2, undefined, { timeout: 60_000 });
+    const before = await page.evaluate(() => (window as any).__plumbline.store.session);
+    await startFromPage(page, { start: '0', stop: '9', points: '100', repeat: '60', compliance: '0.001' });
+    // Two sweeps of the new run on the first baseline (the page holds the previous session until the new one starts).
+    await page.waitForFunction((old) => {
+      const s = (window as any).__plumbline.store;
+      return s.session !== old && s.drift.filter((d: any) => d.parameter === 'barrierHeight').length >= 2;
+    }, before, { timeout: 120_000 });
     await page.selectOption('#model-select', 'poole-frenkel');
     await page.fill('#analysis-form [name="from"]', '');
     await page.fill('#analysis-form [name="to"]', '');
     await page.click('#analysis-apply');
-    await page.waitForFunction(() => (window as any).__plumbline.store.drift.some((d: any) => d.parameter === 'relativePermittivity'), undefined, { timeout: 60_000 });
+    await page.waitForFunction(() => (window as any).__plumbline.store.drift.some((d: any) => d.parameter === 'relativePermittivity'), undefined, { timeout: 120_000 });
     await page.waitForTimeout(200);
     const drawn = await page.evaluate(() => {
       const s = (window as any).__plumbline.store;
@@ -295,7 +300,7 @@ describe('live page in headless Chromium', () => {
     await page.waitForFunction(() => (window as any).__plumbline.store.runEnd !== null, undefined, { timeout: 10_000 });
     expect(errors).toEqual([]);
     await page.close();
-  }, 90_000);
+  }, 180_000);
 });
 
 describe('drift on the page', () => {

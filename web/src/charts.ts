@@ -109,7 +109,9 @@ export class RawChart {
     }
     for (let n = c.n; n < s.v.length; n++) {
       const i = s.i[n];
-      c.y.push(log ? (Math.abs(i) > 0 && Number.isFinite(i) ? Math.abs(i) : null) : Number.isFinite(i) ? i : null);
+      // A reading at compliance is marked (□) but not joined to the curve: the bias was not held.
+      const off = (s.flags[n] & 1) !== 0;
+      c.y.push(off ? null : log ? (Math.abs(i) > 0 && Number.isFinite(i) ? Math.abs(i) : null) : Number.isFinite(i) ? i : null);
       if (log && i < 0) {
         c.negX.push(s.v[n]);
         c.negY.push(-i);
@@ -468,19 +470,22 @@ export interface DriftBreak {
 
 /**
  * Splits the drift events into baselines: a new one starts when the charted parameter or the chart
- * method changes, or when the daemon's phase goes back to 'baseline' after monitoring.
+ * method changes, when the daemon's phase goes back to 'baseline' after monitoring, or when the
+ * analysis settings changed the model or its inputs in between (`restarts`: sequence numbers of
+ * such settings events; the daemon restarts the baseline then).
  */
-export function driftSegments(drift: readonly Drift[]): { points: Drift[]; breaks: DriftBreak[] }[] {
+export function driftSegments(drift: readonly Drift[], restarts: readonly number[] = []): { points: Drift[]; breaks: DriftBreak[] }[] {
   const d = [...drift].sort((a, b) => a.sweep - b.sweep);
   const out: { points: Drift[]; breaks: DriftBreak[] }[] = [];
   let cur: Drift[] = [];
   const breaks: DriftBreak[] = [];
   for (const p of d) {
     const prev = cur.at(-1);
-    const restart = prev !== undefined && (p.parameter !== prev.parameter || p.method !== prev.method || (p.phase === 'baseline' && prev.phase === 'monitor') || (p as { restart?: boolean }).restart === true);
+    const settings = prev !== undefined && restarts.some((r) => r > prev.seq && r < p.seq);
+    const restart = prev !== undefined && (settings || p.parameter !== prev.parameter || p.method !== prev.method || (p.phase === 'baseline' && prev.phase === 'monitor'));
     if (restart && prev) {
       out.push({ points: cur, breaks: [] });
-      breaks.push({ sweep: p.sweep, reason: p.parameter !== prev.parameter ? `now ${p.parameter}` : p.method !== prev.method ? `now ${p.method.toUpperCase()}` : 'settings changed' });
+      breaks.push({ sweep: p.sweep, reason: p.parameter !== prev.parameter ? `now ${p.parameter}` : p.method !== prev.method ? `now ${p.method.toUpperCase()}` : 'analysis changed' });
       cur = [];
     }
     cur.push(p);
@@ -505,9 +510,9 @@ export class DriftChart {
 
   constructor(private readonly el: HTMLElement) {}
 
-  update(drift: Drift[], unitOf: (parameter: string) => string): void {
+  update(drift: Drift[], unitOf: (parameter: string) => string, restarts: readonly number[] = []): void {
     if (drift.length === 0) return;
-    const segs = driftSegments(drift);
+    const segs = driftSegments(drift, restarts);
     const last = segs[segs.length - 1];
     const ref = last.points[0];
     const same = segs.filter((s) => s.points[0].parameter === ref.parameter && s.points[0].method === ref.method);

@@ -279,8 +279,21 @@ function unitOf(s: Store): (parameter: string) => string {
   };
 }
 
+/** Sequence numbers of settings changes that changed the model or its inputs (the drift baseline restarts). */
+function baselineRestarts(s: Store): number[] {
+  const out: number[] = [];
+  let prev: AnalysisSettings | null = null;
+  for (const e of s.events) {
+    if (e.type !== 'session' && e.type !== 'settings') continue;
+    const a = e.analysis as AnalysisSettings;
+    if (prev && e.type === 'settings' && (a.model !== prev.model || JSON.stringify(a.inputs) !== JSON.stringify(prev.inputs))) out.push(e.seq);
+    prev = a;
+  }
+  return out;
+}
+
 function renderDrift(s: Store): void {
-  drift.update(s.drift, unitOf(s));
+  drift.update(s.drift, unitOf(s), baselineRestarts(s));
   const d = [...s.drift].sort((a, b) => a.sweep - b.sweep).at(-1);
   $('drift-title').textContent = d ? `Drift of ${d.parameter} (${d.method.toUpperCase()})` : 'Drift';
   const br = drift.breaks.at(-1);

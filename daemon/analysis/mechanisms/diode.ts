@@ -29,7 +29,7 @@ export const diodeMechanism: Mechanism = {
   axes: () => ({ x: { label: 'V', unit: 'V', kind: 'linear' }, y: { label: 'I', unit: 'A', kind: 'log' } }),
   x: (v) => v,
   lnOffset: () => 0,
-  extract: ({ line, inputs, used }): Extraction => {
+  extract: ({ line, inputs, used, terms }): Extraction => {
     const warnings: string[] = [];
     const notes: string[] = [];
     if (!(line.slope > 0)) {
@@ -53,7 +53,8 @@ export const diodeMechanism: Mechanism = {
     }
     let minV = Infinity;
     for (let i = 0; i < used.v.length; i++) minV = Math.min(minV, used.v[i]);
-    if (minV < 3 * vt) warnings.push(`the window starts below 3kT/q (${fmt(3 * vt)} V), where the "−1" term bends the semilog line`);
+    // With the series-resistance model the exact Shockley current (its "−1" included) was fitted.
+    if (minV < 3 * vt && !terms?.series) warnings.push(`the window starts below 3kT/q (${fmt(3 * vt)} V), where the "−1" term bends the semilog line`);
     return {
       parameters: {
         idealityFactor: param(n, n * Math.abs(line.slopeStdErr / line.slope), '1'),

@@ -4,7 +4,8 @@
 import { resolve } from 'node:path';
 import type { Command } from 'commander';
 import { sessionDirs, withArchiveSessions, type ArchiveSessionOptions } from '../lab.js';
-import { formatParameterText } from '../../../protocols/display-units.js';
+import { formatInputs, formatParameterText } from '../../../protocols/display-units.js';
+import { formatNumber } from '../../../protocols/number-format.js';
 
 export function registerRefit(program: Command): void {
   withArchiveSessions(program
@@ -37,9 +38,23 @@ export function registerRefit(program: Command): void {
         return;
       }
       process.stdout.write(`refit of ${r.sweeps.length} sweep(s) with model ${r.request.model} → ${r.file}\n`);
+      // Which inputs were used, and from where (the options, the session's settings, or defaults).
+      const words = { given: 'given', session: 'the session\'s', default: 'assumed', note: 'from the sweep\'s note' } as const;
+      const used = Object.entries(r.inputs).filter(([k]) => k !== 'temperature').map(([k, v]) => `${formatInputs({ [k]: v.value })} (${words[v.source]})`);
+      const temps = new Map<string, number>();
+      for (const sw of r.sweeps) temps.set(words[sw.temperature.source], (temps.get(words[sw.temperature.source]) ?? 0) + 1);
+      if ('temperature' in r.inputs || [...temps.keys()].some((k) => k !== 'assumed')) {
+        used.push(`temperature ${[...temps.entries()].map(([src, n]) => `${src} for ${n} sweep(s)`).join(', ')}`);
+      }
+      if (used.length) process.stdout.write(`inputs: ${used.join('; ')}\n`);
       for (const sw of r.sweeps) {
         const p = sw.fit ? Object.entries(sw.fit.parameters).slice(0, 3).map(([k, v]) => `${k} ${formatParameterText(v, k)}`).join(', ') : `no fit: ${sw.error}`;
-        process.stdout.write(`  sweep ${String(sw.sweep).padStart(3)}: ${p}\n`);
+        const t = sw.temperature.source === 'note' ? ` (T = ${formatNumber(sw.temperature.value, 5)} K from its note)` : '';
+        process.stdout.write(`  sweep ${String(sw.sweep).padStart(3)}: ${p}${t}\n`);
       }
+      // Warnings once each, with the sweeps they concern.
+      const warned = new Map<string, number[]>();
+      for (const sw of r.sweeps) for (const w of sw.warnings) warned.set(w, [...(warned.get(w) ?? []), sw.sweep]);
+      for (const [w, list] of warned) process.stdout.write(`warning (sweep${list.length > 1 ? 's' : ''} ${list.length > 6 ? `${list.slice(0, 5).join(', ')} … ${list.at(-1)}` : list.join(', ')}): ${w}\n`);
     });
 }

@@ -33,6 +33,7 @@ export function registerTseries(program: Command): void {
       for (const p of r.points) process.stdout.write(`  sweep ${String(p.sweep).padStart(3)}  T = ${formatNumber(p.temperature, 5)} K  ${r.quantity} ${formatParameterText({ value: p.value, stdErr: p.stdErr, unit: '' })}\n`);
       for (const k of r.skipped) process.stdout.write(`  skipped sweep ${k.sweep}: ${k.reason}\n`);
       const e = r.result.activationEnergy;
-      process.stdout.write(`activation energy ${formatParameterText({ value: e.value, stdErr: e.stdErr, unit: 'eV' })} — ${r.meaning}\n`);
+      process.stdout.write(`activation energy ${formatParameterText({ value: e.value, stdErr: e.stdErr, unit: 'eV' })} — ${r.meaning}${r.plausible ? '' : ' (NOT plausible)'}\n`);
+      for (const w of r.warnings) process.stdout.write(`warning: ${w}\n`);
     });
 }

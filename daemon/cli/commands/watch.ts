@@ -17,6 +17,14 @@ export function registerWatch(program: Command): void {
     .option('--compliance-column <col>', 'column flagging readings at compliance (non-zero)')
     .option('--temperature-column <col>', 'column with the device temperature in K: each sweep gets a note "T = … K" (for plumbline tseries)')
     .option('--model <id>', 'live-fit model (default: the config\'s)')
+    .option('--thickness <q>', 'film thickness, e.g. "8 nm" (the live fit\'s input; default: the config\'s)')
+    .option('--area <q>', 'device area, e.g. "1e-4 cm^2"')
+    .option('--temperature <q>', 'temperature, e.g. "300 K" or "25 degC"')
+    .option('--mass-ratio <r>', 'tunnelling effective-mass ratio m*/m0')
+    .option('--permittivity <r>', 'relative permittivity (static)')
+    .option('--refractive-index <r>', 'refractive index n')
+    .option('--flat-band <q>', 'flat-band voltage, e.g. "-0.9 V"')
+    .option('--richardson <q>', 'Richardson constant, e.g. "120 A/(cm^2 K^2)"')
     .option('--config <file>', 'station config (analysis, drift, server, data settings)')
     .option('--data <dir>', 'folder for the session folder (default: the config\'s, plumbline-data)')
     .option('--port <n>', 'serve the page on this port (default: the config\'s; 0 = any free port)')
@@ -52,7 +60,13 @@ export function registerWatch(program: Command): void {
       const station = new Station(config, dataDir(config, o.data));
       for (const r of station.recovered) log.notice(`journal ${r.dir}: ${r.message}`);
       // Another program's data: the fit window is found automatically unless the config fixes one.
-      station.setAnalysis({ ...station.analysisSettings, ...(o.model !== undefined ? { model: o.model } : {}), window: config.analysis?.window ?? 'auto' }, 'cli');
+      // The device's inputs from the options override the config's (named in the notice below).
+      const { readInputs } = await import('../inputs.js');
+      const given = Object.fromEntries(Object.entries(readInputs(o as never)).filter(([, v]) => v !== undefined));
+      const analysis = station.setAnalysis({ ...station.analysisSettings, ...(o.model !== undefined ? { model: o.model } : {}), inputs: { ...station.analysisSettings.inputs, ...given }, window: config.analysis?.window ?? 'auto' }, 'cli');
+      const { formatInputs } = await import('../../../protocols/display-units.js');
+      const fromConfig = Object.fromEntries(Object.entries(analysis.inputs).filter(([k]) => !(k in given)));
+      log.notice(`analysis: ${analysis.model}; inputs ${formatInputs(given) || 'none'} from the options${Object.keys(fromConfig).length ? `, ${formatInputs(fromConfig)} from the ${o.config ? 'config' : 'default station config'}` : ''} (give --thickness, --area, --temperature … for this device)`);
       let srv: Awaited<ReturnType<typeof startServer>> | undefined;
       if (o.page) {
         const port = o.port !== undefined ? Number(o.port) : config.server.port;
