@@ -9,7 +9,7 @@ import { REASONS, describeReasons, type IVData } from './analyze.js';
 import { MIN_RELATIVE, relativeFromScatter, runningMedian } from './noise-floor.js';
 import { classifySweep } from './sweep-points.js';
 import { RICHARDSON_FREE_A_PER_M2_K2, thermalVoltage } from './constants.js';
-import { fitDiodeModel, diodeCurrent, type DiodeModel, type DiodeStart, type FittedParameter } from './diode-models.js';
+import { fitDiodeModel, diodeCurrent, modelRmse, type DiodeModel, type DiodeStart, type FittedParameter } from './diode-models.js';
 import { AnalysisError } from './errors.js';
 import { fitLine } from './line-fit.js';
 
@@ -80,8 +80,17 @@ function points(data: IVData, req: DiodeRequest): Points {
     }
     idx.push(k);
   }
-  idx.sort((a, b) => data.x[a] - data.x[b]);
-  return { v: idx.map((k) => data.x[k]), i: idx.map((k) => sign * data.y[k]), reasons };
+  // Sweeps usually arrive in order of bias: sorted only when they do not.
+  let sorted = true;
+  for (let j = 1; j < idx.length && sorted; j++) if (data.x[idx[j]] < data.x[idx[j - 1]]) sorted = false;
+  if (!sorted) idx.sort((a, b) => data.x[a] - data.x[b]);
+  const v = new Array<number>(idx.length);
+  const i = new Array<number>(idx.length);
+  for (let j = 0; j < idx.length; j++) {
+    v[j] = data.x[idx[j]];
+    i[j] = sign * data.y[idx[j]];
+  }
+  return { v, i, reasons };
 }
 
 /**
@@ -147,92 +156,151 @@ function illuminatedStart(p: Points, vt: number): DiodeStart {
   const isc = interpolateAt(v, i, 0) ?? extent(i).hi;
   const voc = crossing(v, i) ?? v[v.length - 1];
   // Shunt: slope of the flat part (V below half of V_oc).
-  const flat = v.map((_x, k) => k).filter((k) => v[k] < 0.5 * voc);
+  const fx: number[] = [];
+  const fy: number[] = [];
+  for (let k = 0; k < v.length; k++) {
+    if (v[k] < 0.5 * voc) {
+      fx.push(v[k]);
+      fy.push(i[k]);
+    }
+  }
   let rsh = 1e4 * (voc / Math.max(isc, 1e-30));
-  if (flat.length >= 3) {
-    const f = fitLine(flat.map((k) => v[k]), flat.map((k) => i[k]));
+  if (fx.length >= 3) {
+    const f = fitLine(fx, fy);
     if (f.slope < 0) rsh = -1 / f.slope;
   }
-  // Series: the slope at V_oc is −1/(R_s + n·V_t/I_sc) approximately.
-  let rs = 1e-3;
-  for (let k = 0; k + 1 < v.length; k++) {
-    if (i[k] > 0 && i[k + 1] <= 0) {
-      const dvdi = -(v[k + 1] - v[k]) / (i[k + 1] - i[k]);
-      rs = Math.max(1e-4 * dvdi, dvdi - 1.5 * vt / Math.max(isc, 1e-30));
-    }
-  }
-  // Ideality and saturation current from the semilog of the diode current near V_oc.
-  const xs: number[] = [];
-  const ys: number[] = [];
+  // Series: the slope at V_oc is dV/dI = −(R_s + n·V_t/I_sc) approximately; taken from a line
+  // through the points within V_t of V_oc (a pair of neighbours is too noisy on a dense curve).
+  const nx: number[] = [];
+  const ny: number[] = [];
   for (let k = 0; k < v.length; k++) {
-    const id = isc - i[k] - (v[k] + i[k] * rs) / rsh;
-    if (v[k] > 0.6 * voc && v[k] < voc * 1.02 && id > 0) {
-      xs.push(v[k] + i[k] * rs);
-      ys.push(Math.log(id));
+    if (Math.abs(v[k] - voc) <= vt) {
+      nx.push(i[k]);
+      ny.push(v[k]);
     }
   }
-  let n = 1.5;
-  let i0 = isc / Math.exp(voc / (n * vt));
-  if (xs.length >= 3) {
+  let dvdi = Number.NaN;
+  if (nx.length >= 3) dvdi = -fitLine(nx, ny).slope;
+  else {
+    for (let k = 0; k + 1 < v.length; k++) if (i[k] > 0 && i[k + 1] <= 0) dvdi = -(v[k + 1] - v[k]) / (i[k + 1] - i[k]);
+  }
+  const seriesFor = (n: number) => (dvdi > 0 ? Math.max(1e-4 * dvdi, dvdi - (n * vt) / Math.max(isc, 1e-30)) : 1e-3);
+  // Ideality and saturation current from the semilog of the diode current near V_oc; R_s and n
+  // depend on each other, so twice: with n = 1.5 for R_s first, then with the n found.
+  const semilog = (rs: number) => {
+    const xs: number[] = [];
+    const ys: number[] = [];
+    for (let k = 0; k < v.length; k++) {
+      const id = isc - i[k] - (v[k] + i[k] * rs) / rsh;
+      if (v[k] > 0.6 * voc && v[k] < voc * 1.02 && id > 0) {
+        xs.push(v[k] + i[k] * rs);
+        ys.push(Math.log(id));
+      }
+    }
+    if (xs.length < 3) return undefined;
     const f = fitLine(xs, ys);
-    if (f.slope > 0) {
-      n = Math.min(5, Math.max(0.8, 1 / (f.slope * vt)));
-      i0 = Math.exp(f.intercept);
-    }
+    return f.slope > 0 ? { n: Math.min(5, Math.max(0.8, 1 / (f.slope * vt))), i0: Math.exp(f.intercept) } : undefined;
+  };
+  let rs = seriesFor(1.5);
+  let d = semilog(rs);
+  if (d) {
+    rs = seriesFor(d.n);
+    d = semilog(rs) ?? d;
   }
-  return { photocurrent: isc, diodes: [{ i0, n }], seriesResistance: rs, shuntResistance: rsh };
+  const diode = d ?? { n: 1.5, i0: isc / Math.exp(voc / (1.5 * vt)) };
+  return { photocurrent: isc, diodes: [diode], seriesResistance: rs, shuntResistance: rsh };
 }
 
 /** Starting values for a dark curve (generator convention: forward current negative). */
 function darkStart(p: Points, vt: number): DiodeStart {
-  const fwd = p.v.map((_, k) => k).filter((k) => p.v[k] > 3 * vt && p.i[k] < 0);
-  if (fwd.length < 3) throw new AnalysisError('TOO_FEW_POINTS', 'a dark diode fit needs forward-bias points (V > 3kT/q with forward current); is the sign convention right? (--convention)');
-  // Semilog slope over the lower part of the forward current (before R_s bends it).
-  const lnI = fwd.map((k) => Math.log(-p.i[k]));
-  const { lo, hi } = extent(lnI);
-  const sel = fwd.filter((_, j) => lnI[j] <= lo + 0.6 * (hi - lo));
-  const use = sel.length >= 3 ? sel : fwd;
-  const f = fitLine(use.map((k) => p.v[k]), use.map((k) => Math.log(-p.i[k])));
+  const n0 = p.v.length;
+  let forward = 0;
+  for (let k = 0; k < n0; k++) if (p.v[k] > 3 * vt && p.i[k] < 0) forward++;
+  if (forward < 3) throw new AnalysisError('TOO_FEW_POINTS', 'a dark diode fit needs forward-bias points (V > 3kT/q with forward current); is the sign convention right? (--convention)');
+  // Shunt: slope near zero bias, or in reverse.
+  const lowV: number[] = [];
+  const lowI: number[] = [];
+  for (let k = 0; k < n0; k++) {
+    if (Math.abs(p.v[k]) < 2 * vt || p.v[k] < 0) {
+      lowV.push(p.v[k]);
+      lowI.push(-p.i[k]);
+    }
+  }
+  let rsh = 1e12;
+  if (lowV.length >= 2) {
+    const g = fitLine(lowV, lowI);
+    if (g.slope > 0) rsh = Math.max(1 / g.slope, 1);
+  }
+  // The diode's own current: the forward current less the shunt's, where the diode carries most
+  // of it (elsewhere the semilog slope would be the shunt's).
+  const fv: number[] = [];
+  const lnId: number[] = [];
+  for (let k = 0; k < n0; k++) {
+    const id = -p.i[k] - p.v[k] / rsh;
+    if (p.v[k] > 3 * vt && p.i[k] < 0 && id > 0.5 * -p.i[k]) {
+      fv.push(p.v[k]);
+      lnId.push(Math.log(id));
+    }
+  }
+  if (fv.length < 3) {
+    fv.length = 0;
+    lnId.length = 0;
+    for (let k = 0; k < n0; k++) {
+      if (p.v[k] > 3 * vt && p.i[k] < 0) {
+        fv.push(p.v[k]);
+        lnId.push(Math.log(-p.i[k]));
+      }
+    }
+  }
+  // Semilog slope over the lower part of the diode current (before R_s bends it).
+  const { lo, hi } = extent(lnId);
+  const xs: number[] = [];
+  const ys: number[] = [];
+  for (let j = 0; j < fv.length; j++) {
+    if (lnId[j] <= lo + 0.6 * (hi - lo)) {
+      xs.push(fv[j]);
+      ys.push(lnId[j]);
+    }
+  }
+  const f = xs.length >= 3 ? fitLine(xs, ys) : fitLine(fv, lnId);
   const n = f.slope > 0 ? Math.min(5, Math.max(0.8, 1 / (f.slope * vt))) : 1.5;
   const i0 = Math.exp(f.intercept);
-  // Series resistance: voltage in excess of the ideal diode at the highest currents.
+  // Series resistance: voltage in excess of the ideal diode at the highest current.
   let rs = 1e-3;
-  const top = fwd[fwd.length - 1];
-  const itop = -p.i[top];
-  const excess = p.v[top] - n * vt * Math.log(itop / i0 + 1);
-  if (excess > 0) rs = excess / itop;
-  // Shunt: slope near zero bias, or in reverse.
-  const low = p.v.map((_, k) => k).filter((k) => Math.abs(p.v[k]) < 2 * vt || p.v[k] < 0);
-  let rsh = 1e12;
-  if (low.length >= 2) {
-    const g = fitLine(low.map((k) => p.v[k]), low.map((k) => -p.i[k]));
-    if (g.slope > 0) rsh = Math.max(1 / g.slope, 1);
+  let top = -1;
+  for (let k = 0; k < n0; k++) if (p.v[k] > 3 * vt && p.i[k] < 0 && (top < 0 || p.v[k] > p.v[top])) top = k;
+  const itop = -p.i[top] - p.v[top] / rsh;
+  if (itop > 0) {
+    const excess = p.v[top] - n * vt * Math.log(itop / i0 + 1);
+    if (excess > 0) rs = excess / -p.i[top];
   }
   return { photocurrent: 0, diodes: [{ i0, n }], seriesResistance: Math.max(rs, 1e-6), shuntResistance: rsh };
 }
 
-/**
- * Long curves: the long crawl along the two-diode valley is done on every k-th point (about 250),
- * then the full curve is fitted from there — the two optima lie close, so the last run is short.
- */
-function subsample(p: Points, w: number[]): { v: number[]; i: number[]; w: number[] } {
+/** Every k-th point (about `target` of them, the last one always in), for the long curves' first fits. */
+function subsample(p: Points, w: number[], target: number): { v: number[]; i: number[]; w: number[] } {
   const n = p.v.length;
-  const step = Math.floor(n / 250);
-  const idx: number[] = [];
-  for (let k = 0; k < n; k += step) idx.push(k);
-  if (idx[idx.length - 1] !== n - 1) idx.push(n - 1);
-  return { v: idx.map((k) => p.v[k]), i: idx.map((k) => p.i[k]), w: idx.map((k) => w[k]) };
+  const step = Math.floor(n / target);
+  const v: number[] = [];
+  const i: number[] = [];
+  const ws: number[] = [];
+  for (let k = 0; k < n; k += step) {
+    v.push(p.v[k]);
+    i.push(p.i[k]);
+    ws.push(w[k]);
+  }
+  if ((n - 1) % step !== 0) {
+    v.push(p.v[n - 1]);
+    i.push(p.i[n - 1]);
+    ws.push(w[n - 1]);
+  }
+  return { v, i, w: ws };
 }
 
-/** A fit on the whole curve from a start that is already close (the subsample's optimum): a short run. */
-function polish(p: Points, w: number[], opts: Parameters<typeof fitDiodeModel>[3], c: DiodeStart): ReturnType<typeof fitDiodeModel> {
-  return fitDiodeModel(p.v, p.i, w, { ...opts, maxIterations: 30 }, [{ photocurrent: c.photocurrent, diodes: c.diodes, seriesResistance: c.seriesResistance, shuntResistance: c.shuntResistance }]);
-}
-
-function fitOnSubsampleFirst(p: Points, w: number[], opts: Parameters<typeof fitDiodeModel>[3], start: DiodeStart): ReturnType<typeof fitDiodeModel> {
-  if (p.v.length < 600) return fitDiodeModel(p.v, p.i, w, opts, [start]);
-  const s = subsample(p, w);
-  return polish(p, w, opts, fitDiodeModel(s.v, s.i, s.w, opts, [start]).circuit);
+/** The circuit of a fit as a start for another. */
+function startFrom(f: ReturnType<typeof fitDiodeModel>): DiodeStart {
+  const c = f.circuit;
+  return { photocurrent: c.photocurrent, diodes: c.diodes, seriesResistance: c.seriesResistance, shuntResistance: c.shuntResistance };
 }
 
 /**
@@ -305,7 +373,15 @@ export function fitDiode(data: IVData, model: DiodeModel, req: DiodeRequest = {}
   const noise = illuminated ? undefined : darkWeights(p);
   const w = noise ? noise.w : p.i.map(() => 1);
   const objective = req.objective ?? 'current';
-  const sdm = fitOnSubsampleFirst(p, w, { model: 'single-diode', temperature, illuminated, objective }, start);
+  // Long curves: each fit is first done on every k-th point (about 250), then refined on the whole
+  // curve from there — the two optima lie close, so the refinement is short and the cost stays
+  // proportional to the number of points.
+  const long = p.v.length >= 600;
+  const sub = long ? subsample(p, w, 250) : { v: p.v, i: p.i, w };
+  const sdmOpts = { model: 'single-diode' as const, temperature, illuminated, objective };
+  const sdm = long
+    ? fitDiodeModel(p.v, p.i, w, sdmOpts, [startFrom(fitDiodeModel(sub.v, sub.i, sub.w, sdmOpts, [start]))])
+    : fitDiodeModel(p.v, p.i, w, sdmOpts, [start]);
   let fit = sdm;
   if (model === 'double-diode') {
     const s = sdm.circuit;
@@ -313,7 +389,8 @@ export function fitDiode(data: IVData, model: DiodeModel, req: DiodeRequest = {}
     const base = { photocurrent: s.photocurrent, seriesResistance: s.seriesResistance, shuntResistance: s.shuntResistance };
     // Several starts (common practice for this ill-conditioned model): splits of the single-diode
     // current, and diffusion + recombination diodes (n ≈ 1 and 2). The first start is run to
-    // convergence; the others only when it ends on a bound or no better than one diode.
+    // convergence; the others only when it ends on a bound or no better than one diode. The last
+    // one is the one-diode fit itself with a vanishing second diode.
     const starts: DiodeStart[] = [
       ...twoRegionStart(p, s, vt),
       { ...base, diodes: [{ i0: d.i0 * 0.5, n: d.n }, { i0: d.i0 * 0.5, n: Math.min(d.n * 1.5, 4) }] },
@@ -325,33 +402,40 @@ export function fitDiode(data: IVData, model: DiodeModel, req: DiodeRequest = {}
     // ill-conditioned model) unless the one-diode n already lies outside.
     const idealityBounds: [number, number] = [Math.min(1, d.n), Math.max(2, d.n)];
     const opts = { model: 'double-diode' as const, temperature, illuminated, objective, idealityBounds };
-    const score = (f: typeof sdm) => (objective === 'implicit' ? f.rmseImplicit : f.rmse);
+    const score = (f: { rmse: number; rmseImplicit: number }) => (objective === 'implicit' ? f.rmseImplicit : f.rmse);
+    // Long curves: the starts are tried, and the crawl along the two-diode valley done, on the
+    // subsample; the best is refined on the whole curve, where it stops once the gains fall far
+    // below the noise (what is left there is a crawl along the valley floor).
+    const base1 = long ? modelRmse(sub.v, sub.i, sdm.circuit) : sdm;
     let bestFit: typeof sdm | undefined;
-    const long = p.v.length >= 600;
-    // Long curves: every start crawls on the subsample (the one-diode fit scored on it too), and
-    // only the best is polished on the whole curve.
-    const sub = long ? subsample(p, w) : undefined;
-    const ref = sub ? fitDiodeModel(sub.v, sub.i, sub.w, { model: 'single-diode', temperature, illuminated, objective }, [start]) : sdm;
     for (const st of starts) {
       let f: typeof sdm;
       try {
-        f = sub ? fitDiodeModel(sub.v, sub.i, sub.w, opts, [st]) : fitDiodeModel(p.v, p.i, w, opts, [st]);
+        f = fitDiodeModel(sub.v, sub.i, sub.w, opts, [st]);
       } catch (e) {
         if (e instanceof AnalysisError) continue;
         throw e;
       }
       if (!bestFit || score(f) < score(bestFit)) bestFit = f;
-      const good = bestFit.converged && bestFit.atBound.length === 0 && score(bestFit) < score(ref) * (1 - 1e-6);
+      const good = bestFit.converged && bestFit.atBound.length === 0 && score(bestFit) < score(base1) * (1 - 1e-6);
       if (good) break;
     }
-    if (!bestFit) throw new AnalysisError('BAD_INPUT', 'the double-diode model could not be fitted from any start');
-    if (sub) {
+    const refine = (st: DiodeStart) => {
       try {
-        bestFit = polish(p, w, opts, bestFit.circuit);
+        return fitDiodeModel(p.v, p.i, w, { ...opts, stall: true }, [st]);
       } catch (e) {
         if (!(e instanceof AnalysisError)) throw e;
+        return undefined;
       }
+    };
+    if (bestFit && long) bestFit = refine(startFrom(bestFit));
+    // Never worse than one diode: the one-diode fit with a vanishing second diode is a two-diode
+    // circuit as good as it; refined from there when the search ended above it.
+    if (long && (!bestFit || score(bestFit) > score(sdm) * (1 + 1e-6))) {
+      const f = refine(starts[starts.length - 1]);
+      if (f && (!bestFit || score(f) < score(bestFit))) bestFit = f;
     }
+    if (!bestFit) throw new AnalysisError('BAD_INPUT', 'the double-diode model could not be fitted from any start');
     fit = bestFit;
   }
   const warnings: string[] = [];

@@ -3,9 +3,10 @@
  * the generator convention (current delivered positive, as the solar-cell literature writes it; Jain & Kapoor 2004):
  *   I = I_ph − Σₖ I₀ₖ·(exp((V + I·R_s)/(nₖ·V_t)) − 1) − (V + I·R_s)/R_sh.
  * The single-diode current is explicit through the Lambert W function (Jain & Kapoor 2004), in the
- * log form that does not overflow; the double-diode current is solved by damped Newton. Fits are
- * Levenberg–Marquardt on the true current (model current at the measured V minus the measured
- * current), with the Jacobian from implicit differentiation of the model equation:
+ * log form that does not overflow; the double-diode current is solved by a bracketed Newton
+ * iteration on the junction voltage. Fits are Levenberg–Marquardt on the true current (model
+ * current at the measured V minus the measured current), with the Jacobian from implicit
+ * differentiation of the model equation:
  *   ∂I/∂p = −(∂f/∂p)/(∂f/∂I).
  * Only n·T is identifiable from one curve: the ideality factors belong to the temperature given.
  */
@@ -59,25 +60,134 @@ function residualAt(v: number, i: number, c: DiodeCircuit, ex: Float64Array, out
   out.df = df;
 }
 
-const scratchEx = new Float64Array(4);
-const scratchF = { f: 0, df: 0 };
+/** Per-circuit constants of the solver, kept for the last circuit (a fit solves one circuit at every point). */
+let prepared: DiodeCircuit | undefined;
+let lnI0 = new Float64Array(4);
+let invNvt = new Float64Array(4);
+let sumI0 = 0;
+let nvtMin = 0;
 
-/** Model current at v by damped Newton from `guess` (any number of diodes). */
-export function diodeCurrentNewton(v: number, c: DiodeCircuit, guess = c.photocurrent): number {
-  let i = guess;
-  let nMin = Infinity;
-  for (const d of c.diodes) nMin = Math.min(nMin, d.n);
-  const limit = 2 * nMin * c.vt;
-  const rs = c.seriesResistance;
-  for (let k = 0; k < 100; k++) {
-    residualAt(v, i, c, scratchEx, scratchF);
-    let step = scratchF.f / scratchF.df;
-    // Keep each step within a couple of n·V_t of junction voltage: the exponential's knee.
-    if (rs > 0 && Math.abs(step * rs) > limit) step = (Math.sign(step) * limit) / rs;
-    i -= step;
-    if (Math.abs(step) <= 1e-16 + 1e-12 * Math.abs(i)) break;
+function prepare(c: DiodeCircuit): void {
+  if (prepared === c) return;
+  const nd = c.diodes.length;
+  if (lnI0.length < nd) {
+    lnI0 = new Float64Array(nd);
+    invNvt = new Float64Array(nd);
   }
+  sumI0 = 0;
+  nvtMin = Infinity;
+  for (let k = 0; k < nd; k++) {
+    const d = c.diodes[k];
+    sumI0 += d.i0;
+    lnI0[k] = Math.log(d.i0);
+    invNvt[k] = 1 / (d.n * c.vt);
+    nvtMin = Math.min(nvtMin, d.n * c.vt);
+  }
+  prepared = c;
+}
+
+/**
+ * Model current at v for any number of diodes, by Newton's method on the junction voltage
+ * u = V + I·R_s inside a bracket. The model equation is A(u) = B(u) with
+ *   A(u) = I_ph + ΣI₀ₖ − u/R_sh − (u − V)/R_s   (a falling straight line) and
+ *   B(u) = ΣI₀ₖ·exp(u/(nₖ·V_t))                  (rising, convex),
+ * so F = A − B is concave and falling: from the right of the root Newton never overshoots, from the
+ * left its step lands right of the root. Deep on the exponential (B > 2A) Newton on F would creep
+ * down by about n·V_t a step; there it works on φ = ln A − ln B instead, nearly straight wherever
+ * one exponential dominates. Bracket: at u_lo = min(0, (I_ph + V/R_s)/(1/R_s + 1/R_sh)) the diodes
+ * carry at most ΣI₀ₖ while A − ΣI₀ₖ ≥ 0, so F ≥ 0; B(u) ≤ A(u_lo) above it bounds u by
+ * nₖV_t·ln(A(u_lo)/I₀ₖ) for every k, and A > 0 by the zero of A. A step that leaves the bracket is
+ * replaced by bisection. The current comes from the model equation at u (accurate for any R_s,
+ * which (u − V)/R_s is not when R_s is tiny). `guess`: a current near the answer (the previous
+ * evaluation's at this point).
+ */
+export function diodeCurrentNewton(v: number, c: DiodeCircuit, guess?: number): number {
+  prepare(c);
+  const ds = c.diodes;
+  const nd = ds.length;
+  const rs = c.seriesResistance;
+  const rsh = c.shuntResistance;
+  const iph = c.photocurrent;
+  // Outside the physical domain (a trial point beyond the bounds) the equation has no single root.
+  if (!(nvtMin > 0 && rsh > 0 && sumI0 >= 0 && sumI0 < Infinity)) return Number.NaN;
+  if (!(rs > 0)) {
+    let i = iph - v / rsh;
+    for (let k = 0; k < nd; k++) i -= ds[k].i0 * (Math.exp(Math.min(v * invNvt[k], EXP_CAP)) - 1);
+    return i;
+  }
+  if (!(sumI0 > 0)) return (iph - v / rsh) / (1 + rs / rsh);
+  const g = 1 / rsh + 1 / rs;
+  let lo = Math.min(0, (iph + v / rs) / g);
+  let hi = (iph + sumI0 + v / rs) / g;
+  const lnALo = Math.log(iph + sumI0 - lo / rsh - (lo - v) / rs);
+  for (let k = 0; k < nd; k++) {
+    const bound = (lnALo - lnI0[k]) / invNvt[k];
+    if (bound > lo && bound < hi) hi = bound;
+  }
+  let u = guess === undefined ? Number.NaN : v + guess * rs;
+  if (!(u > lo && u <= hi)) u = hi;
+  // Newton converges quadratically here (the error after a step is about (F''/2F')·step², with
+  // F''/F' at most 1/(n·V_t)): a step below 1e-8·n·V_t leaves an error far below the last digit.
+  const done = 1e-8 * nvtMin;
+  for (let it = 0; it < 100 && hi - lo > 1e-6 * done; it++) {
+    const a = iph + sumI0 - u / rsh - (u - v) / rs;
+    if (!(a > 0)) {
+      hi = u;
+      u = 0.5 * (lo + hi);
+      continue;
+    }
+    let b = 0;
+    let db = 0;
+    for (let k = 0; k < nd; k++) {
+      const e = Math.exp(lnI0[k] + u * invNvt[k]);
+      b += e;
+      db += e * invNvt[k];
+    }
+    const f = a - b;
+    if (f > 0) lo = u;
+    else hi = u;
+    let step = f / (g + db);
+    // Deep on the exponential, right of the root: both Newton steps (on F and on φ) fall short of
+    // it, so the longer one is taken (a short φ step near A = 0, where φ is steep, says nothing).
+    if (b > 2 * a && Number.isFinite(b)) step = Math.min(step, (Math.log(a) - Math.log(b)) / (g / a + db / b));
+    else if (!Number.isFinite(b)) {
+      // B overflows: ln B and its slope by log-sum-exp.
+      let top = -Infinity;
+      for (let k = 0; k < nd; k++) top = Math.max(top, lnI0[k] + u * invNvt[k]);
+      let sum = 0;
+      let slope = 0;
+      for (let k = 0; k < nd; k++) {
+        const e = Math.exp(lnI0[k] + u * invNvt[k] - top);
+        sum += e;
+        slope += e * invNvt[k];
+      }
+      step = (Math.log(a) - top - Math.log(sum)) / (g / a + slope / sum);
+    }
+    if (Math.abs(step) <= done && Number.isFinite(b)) {
+      // The current at u from the model equation, carried to u + step along its slope (the
+      // second-order term is below the last digit at this step).
+      return iph + sumI0 - b - u / rsh - (db + 1 / rsh) * step;
+    }
+    const next = u + step;
+    u = next > lo && next < hi ? next : 0.5 * (lo + hi);
+  }
+  let i = iph - u / rsh;
+  for (let k = 0; k < nd; k++) i -= ds[k].i0 * (Math.exp(Math.min(u * invNvt[k], EXP_CAP)) - 1);
   return i;
+}
+
+/** True-current and implicit-residual RMSE of a circuit on points (v, i), A. */
+export function modelRmse(v: ArrayLike<number>, i: ArrayLike<number>, c: DiodeCircuit): { rmse: number; rmseImplicit: number } {
+  const ex = new Float64Array(c.diodes.length);
+  const fd = { f: 0, df: 0 };
+  let ss = 0;
+  let sf = 0;
+  for (let k = 0; k < v.length; k++) {
+    ss += (diodeCurrent(v[k], c, i[k]) - i[k]) ** 2;
+    residualAt(v[k], i[k], c, ex, fd);
+    sf += fd.f ** 2;
+  }
+  return { rmse: Math.sqrt(ss / v.length), rmseImplicit: Math.sqrt(sf / v.length) };
 }
 
 /** Model current at v: explicit for one diode, Newton for two. */
@@ -107,8 +217,12 @@ export interface DiodeFitOptions {
   readonly objective?: 'current' | 'implicit';
   /** Bounds on the ideality factors (default [0.3, 10]; [1, 2] is common for two-diode fits). */
   readonly idealityBounds?: readonly [number, number];
-  /** Iteration cap of a run from a single start (default 300; a polish from a close start needs few). */
-  readonly maxIterations?: number;
+  /**
+   * Stop once 5 steps together lower the SSE by less than 1e-2 of the residual variance (for a
+   * refinement from a nearby optimum, where what is left is a crawl along a valley the data hardly
+   * determine).
+   */
+  readonly stall?: boolean;
 }
 
 export interface FittedParameter {
@@ -230,6 +344,9 @@ export function fitDiodeModel(
     }
     return c;
   };
+  let smallestCurrent = Infinity;
+  for (let k = 0; k < n; k++) if (i[k] !== 0) smallestCurrent = Math.min(smallestCurrent, Math.abs(i[k]));
+  if (!Number.isFinite(smallestCurrent)) smallestCurrent = 1e-300;
   const nBounds = options.idealityBounds ?? [0.3, 10];
   const implicit = options.objective === 'implicit';
   const lower: number[] = [];
@@ -242,7 +359,11 @@ export function fitDiodeModel(
       lower.push(-Infinity);
       upper.push(Infinity);
     } else if (name.startsWith('saturation')) {
-      lower.push(-Infinity);
+      // A diode whose current at V_ref (its largest in the range, give or take a factor 15) is
+      // below a millionth of the smallest measured current is invisible everywhere: the floor keeps
+      // a vanishing second diode on a bound (reported) instead of sliding to I₀ = 0, where its
+      // Jacobian columns underflow and the fit stalls.
+      lower.push(Math.log(1e-6 * smallestCurrent));
       upper.push(Infinity);
     } else if (lay.log[k]) {
       lower.push(Math.log(name === 'seriesResistance' ? 1e-9 : 1e-6));
@@ -251,7 +372,7 @@ export function fitDiodeModel(
   });
   let best: ReturnType<typeof levenbergMarquardt> | undefined;
   // Several starts: a short run from each, then the best one is run to convergence.
-  const short = starts.length > 1 ? 60 : options.maxIterations ?? 300;
+  const short = starts.length > 1 ? 60 : 300;
   const tolerances = { xtol: 1e-8, ftol: 1e-11 };
   const runFrom = (p0: number[], maxIterations: number): ReturnType<typeof levenbergMarquardt> | undefined => {
     lastI.set(Array.from(i));
@@ -305,7 +426,7 @@ export function fitDiodeModel(
             J[col] = (sc * u) / rsh; // ∂f/∂R_sh · R_sh = u/R_sh
           }
         },
-      }, { maxIterations, ...tolerances, geodesic: true });
+      }, { maxIterations, ...tolerances, ...(options.stall ? { stall: { iterations: 5, fraction: 1e-2 } } : {}) });
     } catch (e) {
       if (e instanceof AnalysisError) return undefined;
       throw e;
@@ -325,7 +446,7 @@ export function fitDiodeModel(
   if (!best) throw new AnalysisError('BAD_INPUT', `the ${options.model} model could not be evaluated at any starting point`);
   if (!best.converged) {
     lastC = undefined;
-    const more = runFrom(best.p, options.maxIterations ?? 300);
+    const more = runFrom(best.p, 300);
     if (more && more.sse <= best.sse) best = { ...more, iterations: more.iterations + best.iterations };
   }
   lastC = undefined;

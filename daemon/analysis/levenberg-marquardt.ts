@@ -38,6 +38,14 @@ export interface LmOptions {
    * curved valleys (strongly correlated parameters).
    */
   readonly geodesic?: boolean;
+  /**
+   * Stop when the SSE has fallen by less than `fraction` of the residual variance s² = SSE/(n − m)
+   * over the last `iterations` accepted steps: a crawl along a shallow valley (parameters the data
+   * hardly determine) advancing far slower than the noise can resolve. What such a crawl would still
+   * gain is small in χ² but not bounded by `fraction`; the result is reported as converged. Off by
+   * default.
+   */
+  readonly stall?: { readonly iterations: number; readonly fraction: number };
 }
 
 export interface LmResult {
@@ -169,6 +177,9 @@ export function levenbergMarquardt(problem: LmProblem, options: LmOptions = {}):
   let lambda = 1e-3;
   let nu = 2;
   let iter = 0;
+  // SSE after each of the last stall.iterations accepted steps (a ring).
+  const stallRing = options.stall ? new Float64Array(options.stall.iterations).fill(Number.POSITIVE_INFINITY) : undefined;
+  let accepted = 0;
   let reason = 'iteration limit reached';
   let converged = false;
   while (iter < maxIter) {
@@ -207,11 +218,17 @@ export function levenbergMarquardt(problem: LmProblem, options: LmOptions = {}):
       delta[j] /= Math.sqrt(d[j]);
       pNew[j] = p[j] + delta[j];
     }
-    if (options.geodesic) {
+    // The probe point of the acceleration must lie inside the bounds (the model may not exist
+    // outside them); when it does not, this step goes without.
+    let feasible = options.geodesic === true;
+    for (let j = 0; j < m && feasible; j++) {
+      pTry[j] = p[j] + 0.1 * delta[j];
+      if (pTry[j] < lo[j] || pTry[j] > hi[j]) feasible = false;
+    }
+    if (feasible) {
       // Directional second derivative r'' ≈ (2/h)·[(r(p + hδ) − r(p))/h − Jδ], then solve for the
       // acceleration a with the same damped matrix; step = δ + a/2 when |a| ≤ 0.75·|δ| (scaled).
       const h = 0.1;
-      for (let j = 0; j < m; j++) pTry[j] = p[j] + h * delta[j];
       problem.residuals(pTry, rTry);
       rhs.fill(0);
       for (let i = 0; i < n; i++) {
@@ -265,7 +282,25 @@ export function levenbergMarquardt(problem: LmProblem, options: LmOptions = {}):
         reason = 'SSE reduction below tolerance';
         break;
       }
+      if (stallRing && options.stall) {
+        const slot = accepted % stallRing.length;
+        const before = stallRing[slot];
+        stallRing[slot] = sse;
+        accepted++;
+        if (before - sse < options.stall.fraction * (sse / Math.max(1, n - m))) {
+          converged = true;
+          reason = 'SSE reduction below the noise';
+          break;
+        }
+      }
     } else {
+      // A step the linear model itself expected to gain less than ftol of the SSE: nothing worth
+      // having is left (the rejection is rounding at the optimum, not a bad direction).
+      if (pred > 0 && pred < ftol * sse) {
+        converged = true;
+        reason = 'predicted reduction below tolerance';
+        break;
+      }
       lambda *= nu;
       nu *= 2;
       if (lambda > 1e16) {

@@ -8,6 +8,7 @@
 import { compile } from 'mathjs';
 import { describe, expect, it } from 'vitest';
 import { levenbergMarquardt } from '../../daemon/analysis/levenberg-marquardt.js';
+import { seededNormal } from '../../daemon/analysis/random.js';
 import { HAVE_STRD, loadStrd, lre } from '../helpers/reference.js';
 
 const SETS = ['Misra1a', 'Chwirut2', 'DanWood', 'Misra1b', 'Kirby2', 'MGH17', 'Misra1c', 'Misra1d'];
@@ -52,7 +53,7 @@ describe.skipIf(!HAVE_STRD)('Levenberg–Marquardt on NIST StRD nonlinear sets (
   }
 });
 
-describe.skipIf(!HAVE_STRD)('Levenberg–Marquardt with geodesic acceleration (used by the diode fits)', () => {
+describe.skipIf(!HAVE_STRD)('Levenberg–Marquardt with geodesic acceleration (an option of the engine)', () => {
   for (const name of ['Misra1a', 'Kirby2', 'MGH17']) {
     it(`${name} from start1: parameters to ≥ 6 digits`, () => {
       const { d, names, result } = fitStrd(name, 'start1', true);
@@ -105,5 +106,30 @@ describe('Levenberg–Marquardt: bounds and an analytic Jacobian', () => {
     expect(r.p[0]).toBe(2);
     expect(r.p[1]).toBeCloseTo(1, 10);
     expect(r.atBound).toEqual([0]);
+  });
+
+  it('a stall stop ends a crawl along a valley the data do not determine, short of the end by an insignificant χ²', () => {
+    // Two exponentials fitted to noisy data from one (the classic ill-determined case: the split
+    // between the two terms is undetermined). With the stop, the fit ends once 5 steps gain less
+    // than 0.01·s² together; without it, it crawls on for many more steps.
+    const normal = seededNormal(3);
+    const x = Array.from({ length: 200 }, (_, k) => k / 40);
+    const y = x.map((t) => 3 * Math.exp(-1.2 * t) + 0.01 * normal());
+    const problem = {
+      n: x.length,
+      p0: [1, -0.5, 1, -2],
+      residuals: (p: Float64Array, r: Float64Array) => {
+        for (let i = 0; i < x.length; i++) r[i] = p[0] * Math.exp(p[1] * x[i]) + p[2] * Math.exp(p[3] * x[i]) - y[i];
+      },
+    };
+    const free = levenbergMarquardt(problem, { maxIterations: 2000, xtol: 1e-15, ftol: 1e-15 });
+    const stopped = levenbergMarquardt(problem, { maxIterations: 2000, xtol: 1e-15, ftol: 1e-15, stall: { iterations: 5, fraction: 1e-2 } });
+    const s2 = free.sse / (x.length - 4);
+    expect(stopped.reason).toBe('SSE reduction below the noise');
+    expect(stopped.converged).toBe(true);
+    expect(stopped.iterations, `${stopped.iterations} iterations against ${free.iterations}`).toBeLessThan(free.iterations);
+    // What the crawl still gains is not significant: below the 95 % point of χ² with 2 degrees of
+    // freedom (5.99; the split between the two terms is what the valley leaves undetermined).
+    expect((stopped.sse - free.sse) / s2, `SSE ${stopped.sse} against ${free.sse}, s² ${s2}`).toBeLessThan(5.99);
   });
 });
