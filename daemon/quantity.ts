@@ -43,6 +43,12 @@ function target(si: string): ParsedQuantity {
   return q;
 }
 
+/** "25 C" reads as 25 coulomb: say how to write degrees Celsius. */
+function celsiusHint(kind: QuantityKind, t: string): string {
+  if (kind !== 'temperature' || !/^[+-]?[\d.]+(?:e[+-]?\d+)?\s*°?\s*C$/i.test(t)) return '';
+  return `; ${t.includes('°') ? '' : 'C is the coulomb — '}for degrees Celsius write "${t.replace(/\s*°?\s*C$/i, '')} degC"`;
+}
+
 export function parseQuantity(text: string, kind: QuantityKind, setting: string): number {
   const t = text.trim();
   if (BARE.test(t)) return Number(t);
@@ -51,7 +57,7 @@ export function parseQuantity(text: string, kind: QuantityKind, setting: string)
   const own = readQuantity(t);
   if (own !== undefined) {
     const si = target(ref.si);
-    if (!sameDimensions(own.dims, si.dims)) throw new QuantityError(setting, `${setting} '${text}': expected a ${kind} (e.g. "${ref.example}")`);
+    if (!sameDimensions(own.dims, si.dims)) throw new QuantityError(setting, `${setting} '${text}': expected a ${kind} (e.g. "${ref.example}")${celsiusHint(kind, t)}`);
     const v = valueIn(own, si);
     if (!Number.isFinite(v)) throw new QuantityError(setting, `${setting} '${text}': not a finite value`);
     return v;
@@ -60,10 +66,10 @@ export function parseQuantity(text: string, kind: QuantityKind, setting: string)
   try {
     u = unit(t);
   } catch (e) {
-    throw new QuantityError(setting, `${setting} '${text}': not a quantity mathjs understands (${(e as Error).message}); e.g. "${ref.example}"`);
+    throw new QuantityError(setting, `${setting} '${text}': not a quantity mathjs understands (${(e as Error).message}); e.g. "${ref.example}"${celsiusHint(kind, t)}`);
   }
   if (!u.equalBase(unit(`1 ${ref.si}`))) {
-    throw new QuantityError(setting, `${setting} '${text}': expected a ${kind} (e.g. "${ref.example}")`);
+    throw new QuantityError(setting, `${setting} '${text}': expected a ${kind} (e.g. "${ref.example}")${celsiusHint(kind, t)}`);
   }
   const v = u.toNumber(ref.si);
   if (!Number.isFinite(v)) throw new QuantityError(setting, `${setting} '${text}': not a finite value`);
