@@ -200,8 +200,10 @@ function renderLinearized(s: Store, cur: number): void {
   }
   if (changed('lin', s, main, under, lin.wholeCurve)) lin.update(main, under);
   $('lin-empty').hidden = Boolean(main || under);
-  const title = (re?.views.has(cur) ? re.fits.get(cur)?.fit?.title : undefined) ?? (main && s.finalFits.get(cur)?.model === main.model ? s.finalFits.get(cur)?.title : undefined)
-    ?? (s.liveFit?.fit?.model === (main ?? under)?.model ? s.liveFit?.fit?.title : undefined) ?? main?.model ?? under?.model;
+  // The mechanism's title from any fit with this model (the view carries only the model id).
+  const model = (main ?? under)?.model;
+  const titled = [re?.fits.get(cur)?.fit, s.finalFits.get(cur), s.liveFit?.fit, ...[...s.finalFits.values()].reverse()].find((f) => f && f.model === model);
+  const title = titled?.title ?? model;
   $('lin-title').textContent = title ? `Linearized: ${title}, sweep ${cur}${note}` : 'Linearized view';
   const err = $('lin-error');
   const e = main?.error ?? (main && !main.line ? 'no fit line' : undefined);
