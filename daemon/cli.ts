@@ -176,10 +176,11 @@ program
   .option('--scenario <name>', 'device scenario (plumbline sim --list)', 'oxide-fn')
   .action(async (o: { scenario: string }) => (await import('./demo.js')).runDemo(o.scenario));
 
-// A reader that stops early (`| head`) is not an error.
+// A reader that stops early (`| head`) is not an error, and it must not end the process: a run
+// still has an instrument to drive and turn off. Further output is dropped; the command finishes.
 process.stdout.on('error', (e: NodeJS.ErrnoException) => {
-  if (e.code === 'EPIPE') process.exit(0);
-  throw e;
+  if (e.code !== 'EPIPE') throw e;
+  process.stdout.write = (() => true) as typeof process.stdout.write;
 });
 
 registerSim(program);

@@ -106,24 +106,35 @@ export function serialSettings(path: string, o: { baud: string; dataBits: string
   };
 }
 
-/** Output off on the way out, whatever the way out is. */
-export function guardProcess(station: Station, onExit: () => Promise<void> | void): void {
+/**
+ * Output off on the way out, whatever the way out is: a signal ends the run as 'interrupted', an
+ * uncaught error as 'internal-error'. `codes` are the process's exit codes for the two; by default
+ * the shell's 128 + signal number (130 SIGINT, 143 SIGTERM, 129 SIGHUP) and 1. Returns a probe the
+ * caller checks before exiting on its own, so the two exits never race.
+ */
+export function guardProcess(station: Station, onExit: () => Promise<void> | void, codes?: { signal: number; error: number }): () => boolean {
   let exiting = false;
-  const leave = async (why: string, code: number) => {
+  const leave = async (why: string, code: number, outcome: 'interrupted' | 'internal-error') => {
     if (exiting) return;
     exiting = true;
     process.stderr.write(`\nplumbline: ${why}; turning the output off\n`);
     try {
-      await station.emergencyStop(why);
+      await station.emergencyStop(why, outcome);
       await onExit();
     } finally {
       process.exit(code);
     }
   };
-  process.on('SIGINT', () => void leave('interrupted (SIGINT)', 130));
-  process.on('SIGTERM', () => void leave('terminated (SIGTERM)', 143));
-  process.on('uncaughtException', (e) => void leave(`uncaught exception: ${e.stack ?? e.message}`, 1));
-  process.on('unhandledRejection', (e) => void leave(`unhandled rejection: ${(e as Error)?.stack ?? String(e)}`, 1));
+  const signal = (name: string, why: string, n: number) => process.on(name, () => void leave(`${why} (${name})`, codes?.signal ?? 128 + n, 'interrupted'));
+  signal('SIGINT', 'interrupted', 2);
+  signal('SIGTERM', 'terminated', 15);
+  // A closed terminal or ssh session: nobody is left watching the output.
+  signal('SIGHUP', 'the terminal closed', 1);
+  // A reader that went away (stderr closed) must not turn a message into a crash with the output on.
+  process.stderr.on('error', () => undefined);
+  process.on('uncaughtException', (e) => void leave(`uncaught exception: ${e.stack ?? e.message}`, codes?.error ?? 1, 'internal-error'));
+  process.on('unhandledRejection', (e) => void leave(`unhandled rejection: ${(e as Error)?.stack ?? String(e)}`, codes?.error ?? 1, 'internal-error'));
+  return () => exiting;
 }
 
 export function describe(e: WireEvent): string | undefined {

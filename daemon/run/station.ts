@@ -382,10 +382,10 @@ export class Station {
   }
 
   /** Output off now from any state (signal handlers, fatal errors). Resolves when the run has ended. */
-  async emergencyStop(reason: string): Promise<void> {
+  async emergencyStop(reason: string, outcome: 'interrupted' | 'internal-error' = 'interrupted'): Promise<void> {
     const c = this.controller;
     if (!c) return;
-    c.abort(reason, 'aborted-user');
+    c.abort(reason, outcome);
     await Promise.race([new Promise((r) => setTimeout(r, 2000)), this.waitIdle()]);
   }
 

@@ -7,12 +7,14 @@
  *
  * Faults: two run requests at once, a disk that fills up mid-run (a small tmpfs), an instrument
  * whose readings take 1.5 s, an abort during a slow ramp, an instrument that stops answering, an
- * extra reply line nobody asked for, and replies that are all over range.
+ * extra reply line nobody asked for, replies that are all over range, and an operator's terminal
+ * that goes away (a reader that closes the pipe, a hang-up).
  *
  * The safe-state rules asserted (common practice for source-measure units): output off on every
  * exit path, no source level after output off, output off not held back by a pending reading, and
  * "confirmed" only when the instrument's own output query says off.
  */
+import { spawn } from 'node:child_process';
 import { statSync } from 'node:fs';
 import type { Server } from 'node:net';
 import { join } from 'node:path';
@@ -22,6 +24,7 @@ import { SimulatedSmu, type Faults } from '../../daemon/simulator/instrument.js'
 import { findScenario } from '../../daemon/simulator/scenarios.js';
 import { servePty, serveTcp, type PtyPair } from '../../daemon/simulator/serve.js';
 import { FLAG, type WireEvent } from '../../protocols/wire.js';
+import { CLI } from '../helpers/cli.js';
 import { api, runCliAsync, smallDisk, startDaemon, tempDir, waitUntil, writeConfig, type DaemonProcess } from '../helpers/daemon.js';
 
 const cleanups: (() => Promise<void> | void)[] = [];
@@ -150,6 +153,48 @@ describe('a disk that fills up mid-run', () => {
     expect([400, 507]).toContain(again.status);
     expect(again.json.error).toMatch(/disk|space/);
     expect(smu.log.filter((l) => l === ':OUTP ON')).toHaveLength(1);
+  });
+});
+
+describe("the operator's terminal goes away", () => {
+  /** `plumbline run` as a child with its output piped here; the caller decides when the reader leaves. */
+  function runChild(cfg: string, data: string) {
+    const p = spawn(process.execPath, [CLI, 'run', '--config', cfg, '--data', data], { stdio: ['ignore', 'pipe', 'pipe'] });
+    let out = '';
+    p.stdout.on('data', (d) => (out += String(d)));
+    p.stderr.on('data', (d) => (out += String(d)));
+    const exited = new Promise<number | null>((r) => p.once('exit', (code) => r(code)));
+    const guard = setTimeout(() => p.kill('SIGKILL'), 60_000);
+    cleanups.push(() => clearTimeout(guard));
+    return { p, out: () => out, exited };
+  }
+
+  it('a reader that stops early (`| head -1`): the run goes on to its end and turns the output off', async () => {
+    const smu = simulator();
+    const dir = tempDir();
+    const cfg = writeConfig(dir, { instrument: await tcpInstrument(smu), plan: { ...PLAN, repeat: 30 }, analysis: FN });
+    const data = join(dir, 'data');
+    const c = runChild(cfg, data);
+    await waitUntil(() => c.out().includes('session '), 'the run to start');
+    c.p.stdout.destroy(); // the reading end of the pipe closes: every later write fails with EPIPE
+    expect(await c.exited).toBe(0);
+    expect(smu.output).toBe(false);
+    expect(receivedAfter(smu, ':OUTP OFF').filter((l) => l.startsWith(':SOUR:VOLT') || l === ':OUTP ON')).toEqual([]);
+    const session = /session (\S+)/.exec(c.out())?.[1] as string;
+    expect(journal(join(data, session)).filter((e) => e.type === 'reading')).toHaveLength(30 * PLAN.points);
+  });
+
+  it('a hang-up (SIGHUP) mid-run: the run ends as interrupted (exit 8) with the output off at the instrument, nothing sourced after it', async () => {
+    const smu = simulator({ readDelayMs: 20 });
+    const dir = tempDir();
+    const cfg = writeConfig(dir, { instrument: await tcpInstrument(smu), plan: { ...PLAN, repeat: 100 }, analysis: FN });
+    const c = runChild(cfg, join(dir, 'data'));
+    await waitUntil(() => smu.received.filter((r) => r.line === ':READ?').length >= 5, 'readings under way');
+    c.p.kill('SIGHUP');
+    expect(await c.exited).toBe(8);
+    expect(smu.output).toBe(false);
+    expect(receivedAfter(smu, ':OUTP OFF').filter((l) => l.startsWith(':SOUR:VOLT') || l === ':OUTP ON')).toEqual([]);
+    expect(c.out()).toMatch(/run ended: interrupted — the terminal closed \(SIGHUP\)/);
   });
 });
 

@@ -50,7 +50,7 @@ export function registerRun(program: Command): void {
       const analysis = o.model !== undefined ? { ...station.analysisSettings, model: o.model, ...(o.model !== station.analysisSettings.model ? { window: 'auto' } : {}) } : undefined;
       const device = await readDevice(o);
       const pub = await startPublishing(config, data, o, null);
-      guardProcess(station, async () => void (await pub?.stop(1000)));
+      const leaving = guardProcess(station, async () => void (await pub?.stop(1000)), { signal: EXIT_CODE.interrupted, error: EXIT_CODE['internal-error'] });
       const tty = process.stdout.isTTY && !o.json;
       let progressShown = false;
       station.events$.subscribe({
@@ -90,6 +90,7 @@ export function registerRun(program: Command): void {
       const result = await h.done;
       if (o.json) process.stdout.write(`${JSON.stringify({ session: h.session, dir: h.dir, ...result })}\n`);
       else process.stdout.write(`${progressShown ? '\n' : ''}run ended: ${result.outcome} — ${result.reason} (${result.sweeps} sweep(s) finished)\nexport it: plumbline export ${h.dir}\n`);
+      if (leaving()) return; // a signal or error ended the run: its handler finishes and exits
       // The journal is closed: hand the broker what it has not got yet (a broker that is down costs
       // a few seconds here, nothing more; the rest goes out on the next start).
       const left = await pub?.stop(5000);
