@@ -18,6 +18,11 @@ export const FLAG = {
   overflow: 2,
   /** The voltage was the instrument's overflow value: stored as ±Infinity. */
   voltageOverflow: 4,
+  /**
+   * The reading that showed a confirmed breakdown: the device was no longer the one being measured
+   * (a new conduction path); kept in the journal, never fitted.
+   */
+  breakdown: 8,
 } as const;
 
 /** Field order inside a compact reading line. */

@@ -26,6 +26,8 @@ export interface IVData {
   readonly y: ArrayLike<number>;
   /** Non-zero where the instrument reported compliance. */
   readonly compliance?: ArrayLike<number>;
+  /** Non-zero at a reading that showed a confirmed breakdown (never fitted). */
+  readonly breakdown?: ArrayLike<number>;
   /** All columns by identifier, for custom expressions. */
   readonly columns?: Record<string, ArrayLike<number>>;
 }

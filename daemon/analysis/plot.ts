@@ -108,7 +108,7 @@ function rawPoints(data: IVData, mech: ReturnType<typeof getMechanism>, inputs: 
   const y: number[] = [];
   const bias: number[] = [];
   for (const k of ks) {
-    if (data.compliance?.[k]) continue;
+    if (data.compliance?.[k] || data.breakdown?.[k]) continue;
     if (transformPoint(mech, inputs, data.x[k], data.y[k], sign, area, out) !== undefined) continue;
     x.push(out.x);
     y.push(out.y);

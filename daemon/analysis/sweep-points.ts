@@ -1,6 +1,6 @@
 /**
  * A whole sweep as the instrument recorded it, sorted into what can be analysed: readings that are
- * not numbers, at compliance (flagged, at ≥ 99 % of a given limit, or detected as a current pinned
+ * not numbers, showing breakdown (flagged), at compliance (flagged, at ≥ 99 % of a given limit, or detected as a current pinned
  * at the top of a branch), at zero bias (they belong to neither branch), and the two branches of
  * bias, each ordered by |bias|. The noise model (floor and relative part) is estimated here, once
  * per sweep, and every reason is counted.
@@ -13,6 +13,7 @@ import { estimateFloor, floorLevel, MIN_RELATIVE, noiseFromAccuracy, type NoiseM
 export const REASONS = {
   notFinite: 'not a finite number',
   compliance: 'at compliance',
+  breakdown: 'showed breakdown (the device was no longer intact)',
   zeroBias: 'zero bias',
   oppositePolarity: 'opposite polarity',
   otherBranch: 'other polarity (analysed as its own branch)',
@@ -28,6 +29,8 @@ export interface SweepData {
   readonly x: ArrayLike<number>;
   readonly y: ArrayLike<number>;
   readonly compliance?: ArrayLike<number>;
+  /** Non-zero at a reading that showed a confirmed breakdown. */
+  readonly breakdown?: ArrayLike<number>;
 }
 
 export interface Branch {
@@ -134,6 +137,7 @@ export function classifySweep(data: SweepData, options: ClassifyOptions = {}): S
     const v = data.x[k];
     const i = data.y[k];
     if (!Number.isFinite(v) || !Number.isFinite(i)) excluded[k] = REASONS.notFinite;
+    else if (data.breakdown?.[k]) excluded[k] = REASONS.breakdown;
     else if (data.compliance?.[k] || (limit !== undefined && Math.abs(i) >= 0.99 * limit)) excluded[k] = REASONS.compliance;
     else if (Math.abs(v - vfb) <= zeroTol) excluded[k] = REASONS.zeroBias;
   }

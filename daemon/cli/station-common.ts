@@ -146,8 +146,10 @@ export function describe(e: WireEvent): string | undefined {
     case 'fit': {
       if (!e.final) return undefined;
       if (!e.fit) return `sweep ${e.sweep}: no fit (${e.error})`;
-      const p = Object.entries(e.fit.parameters).slice(0, 3).map(([k, v]) => `${k} = ${formatParameterText(v, k)}`);
-      return `sweep ${e.sweep}: ${e.fit.model} fit on ${e.fit.line.n} points, ${p.join(', ')}`;
+      const p = Object.entries(e.fit.parameters).slice(0, 3).map(([k, v]) => `${k} = ${formatParameterText(v, k)}${v.stdErr === null || !Number.isFinite(v.stdErr) ? ' (uncertainty not determined)' : ''}`);
+      // A wrong answer is never silent: an implausible fit says so, with every warning.
+      const head = `sweep ${e.sweep}: ${e.fit.model} fit on ${e.fit.line.n} points, ${p.join(', ')}${e.fit.plausible ? '' : ' — NOT PLAUSIBLE'}`;
+      return [head, ...e.fit.warnings.map((w) => `         warning: ${w}`)].join('\n');
     }
     case 'drift':
       return e.state === 'baseline' || e.state === 'no-value' ? undefined : `         drift of ${e.parameter}: ${e.state} (${e.method} ${formatNumber(e.statistic ?? Number.NaN, 5)}, limits ${formatNumber(e.lower ?? Number.NaN, 5)} … ${formatNumber(e.upper ?? Number.NaN, 5)})`;

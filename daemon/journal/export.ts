@@ -8,7 +8,7 @@ import { FLAG, type FitSummary, type WireEvent } from '../../protocols/wire.js';
 import { DEVICE_RESULTS_FILE, mergeIdentity, type DeviceIdentity } from '../../protocols/device-results.js';
 import { scanJournal, type BadLine } from './reader.js';
 
-export const POINTS_HEADER = ['session', 'sweep', 'point', 'seq', 't_ms', 'voltage_V', 'current_A', 'compliance', 'overflow', 'voltage_overflow'];
+export const POINTS_HEADER = ['session', 'sweep', 'point', 'seq', 't_ms', 'voltage_V', 'current_A', 'compliance', 'overflow', 'voltage_overflow', 'breakdown'];
 
 function csvField(v: unknown): string {
   if (v === null || v === undefined) return '';
@@ -76,7 +76,7 @@ export function exportSession(sessionDir: string, outDir = join(sessionDir, 'exp
           const r = row(e.sweep);
           r.readings++;
           if (e.flags & FLAG.compliance) r.complianceReadings++;
-          pending.push(`${qs},${e.sweep},${e.k},${e.seq},${e.t},${csvField(e.v)},${csvField(e.i)},${e.flags & FLAG.compliance ? 1 : 0},${e.flags & FLAG.overflow ? 1 : 0},${e.flags & FLAG.voltageOverflow ? 1 : 0}\n`);
+          pending.push(`${qs},${e.sweep},${e.k},${e.seq},${e.t},${csvField(e.v)},${csvField(e.i)},${e.flags & FLAG.compliance ? 1 : 0},${e.flags & FLAG.overflow ? 1 : 0},${e.flags & FLAG.voltageOverflow ? 1 : 0},${e.flags & FLAG.breakdown ? 1 : 0}\n`);
           if (pending.length >= 4096) flush();
           break;
         }

@@ -60,7 +60,7 @@ export function refitSession(dir: string, override: Partial<Pick<FitRequest, 'mo
     }
     T ??= request.inputs?.temperature !== undefined ? { value: request.inputs.temperature, source: sourceOf('temperature') } : { value: 300, source: 'default' };
     try {
-      const r = analyze({ x: sw.v, y: sw.i, compliance: sw.c }, { ...request, inputs: { ...request.inputs, temperature: T.value } });
+      const r = analyze({ x: sw.v, y: sw.i, compliance: sw.c, breakdown: sw.b }, { ...request, inputs: { ...request.inputs, temperature: T.value } });
       return { sweep: sw.sweep, complete: sw.complete, temperature: T, fit: summarizeFit(r), error: null, warnings: r.warnings };
     } catch (e) {
       return { sweep: sw.sweep, complete: sw.complete, temperature: T, fit: null, error: (e as Error).message, warnings: [] };

@@ -412,7 +412,7 @@ table.kv th{font-weight:600;color:#444;width:16rem}.settings{display:grid;grid-t
     const a = settingsOf(sw.analysis) ?? analysis;
     if (a) {
       try {
-        const v = plotView({ x: sw.v, y: sw.i, compliance: sw.c }, { model: a.model, inputs: a.inputs, window: a.window, complianceLimit: s.complianceLimit });
+        const v = plotView({ x: sw.v, y: sw.i, compliance: sw.c, breakdown: sw.b }, { model: a.model, inputs: a.inputs, window: a.window, complianceLimit: s.complianceLimit });
         const { charts, hidden } = linearizedCharts(v, a.model);
         out.push(...charts);
         if (hidden) notes.push(`${hidden} transformable point(s) far from the fit window are not drawn in the linearized plot`);

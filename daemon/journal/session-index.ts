@@ -237,10 +237,10 @@ export class SessionIndex {
     return out;
   }
 
-  /** A sweep's readings as analysis input (compliance from the flag bits). */
-  sweepData(n: number): { x: number[]; y: number[]; compliance: number[] } {
+  /** A sweep's readings as analysis input (compliance and breakdown from the flag bits). */
+  sweepData(n: number): { x: number[]; y: number[]; compliance: number[]; breakdown: number[] } {
     const r = this.readSweep(n);
-    return { x: r.v, y: r.i, compliance: r.flags.map((f) => f & FLAG.compliance) };
+    return { x: r.v, y: r.i, compliance: r.flags.map((f) => f & FLAG.compliance), breakdown: r.flags.map((f) => f & FLAG.breakdown) };
   }
 }
 

@@ -14,6 +14,8 @@ export interface SweepData {
   readonly i: number[];
   /** 1 where the reading was at compliance. */
   readonly c: number[];
+  /** 1 at the reading that showed a confirmed breakdown. */
+  readonly b: number[];
   complete: boolean | null;
   fit: FitSummary | null;
   fitError: string | null;
@@ -48,7 +50,7 @@ export function loadSession(dirIn: string): SessionData {
   const sweep = (n: number) => {
     let s = sweeps.get(n);
     if (!s) {
-      s = { sweep: n, v: [], i: [], c: [], complete: null, fit: null, fitError: null, solar: null, analysis, drift: null, annotations: [] };
+      s = { sweep: n, v: [], i: [], c: [], b: [], complete: null, fit: null, fitError: null, solar: null, analysis, drift: null, annotations: [] };
       sweeps.set(n, s);
     }
     return s;
@@ -67,6 +69,7 @@ export function loadSession(dirIn: string): SessionData {
         s.v.push(e.v);
         s.i.push(e.i);
         s.c.push(e.flags & FLAG.compliance ? 1 : 0);
+        s.b.push(e.flags & FLAG.breakdown ? 1 : 0);
         break;
       }
       case 'session':

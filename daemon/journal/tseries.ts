@@ -45,7 +45,7 @@ export function temperatureSeries(dir: string, o: { model?: string; quantity?: s
       return;
     }
     try {
-      const r = analyze({ x: sw.v, y: sw.i, compliance: sw.c }, {
+      const r = analyze({ x: sw.v, y: sw.i, compliance: sw.c, breakdown: sw.b }, {
         model,
         window: o.model !== undefined && o.model !== base.model ? 'auto' : base.window ?? 'auto',
         inputs: { ...(base.inputs ?? {}), temperature: T },

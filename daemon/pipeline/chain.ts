@@ -162,9 +162,20 @@ export class LiveChain {
     this.sweepInProgress = true;
   }
 
-  /** One reading. Returns an abort decision when the point shows breakdown. */
-  reading(v: number, i: number, compliance: boolean, overflow: boolean, programmed?: number, voltageOverflow = false): Decision | undefined {
-    const flags = (compliance ? FLAG.compliance : 0) | (overflow ? FLAG.overflow : 0) | (voltageOverflow ? FLAG.voltageOverflow : 0);
+  /**
+   * One reading. Returns an abort decision when the point shows breakdown. `brokeDown` says a
+   * stress test's own judge confirmed breakdown at this reading; the watch here may say so too.
+   * Either way the reading is journaled with the breakdown flag and never fitted.
+   */
+  reading(v: number, i: number, compliance: boolean, overflow: boolean, programmed?: number, voltageOverflow = false, brokeDown = false): Decision | undefined {
+    let flags = (compliance ? FLAG.compliance : 0) | (overflow ? FLAG.overflow : 0) | (voltageOverflow ? FLAG.voltageOverflow : 0);
+    // The breakdown watch judges before the reading is journaled, so that its flag goes with it.
+    let verdict: ReturnType<BreakdownWatch['add']> | undefined;
+    if (this.breakdown) {
+      this.noteNull(v, i, flags);
+      verdict = this.breakdown.add(v, i, compliance, this.trendPoint(v, i));
+    }
+    if (brokeDown || verdict?.state === 'confirmed') flags |= FLAG.breakdown;
     const ev = this.options.journal.reading(this.sweep, this.k, v, i, flags);
     this.events$.next(ev);
     this.k++;
@@ -185,20 +196,16 @@ export class LiveChain {
       this.emit({ type: 'caution', kind: 'compliance', sweep: this.sweep, numbers: { voltage: v, current: i, ...(programmed !== undefined ? { programmed } : {}) }, message: `Compliance reached at ${at}: the instrument no longer holds the programmed bias. Points at compliance are kept in the journal and left out of every fit.` });
     }
 
-    if (this.breakdown) {
-      this.noteNull(v, i, flags);
-      const verdict = this.breakdown.add(v, i, compliance, this.trendPoint(v, i));
-      if (verdict) {
-        if (verdict.state === 'confirmed') {
-          const action = this.options.control === false
-            ? 'plumbline does not control this instrument: turn its output off with its own controls now'
-            : 'The output is being turned off';
-          this.emit({ type: 'caution', kind: 'breakdown-confirmed', sweep: this.sweep, numbers: verdict.numbers, message: `Breakdown: ${verdict.reason}. ${action}. Treat the device as broken; follow your lab's rules before touching the fixture.` });
-          decision = { action: 'abort', outcome: 'aborted-breakdown', reason: `breakdown confirmed in sweep ${this.sweep}: ${verdict.reason}` };
-          this.emit({ type: 'decision', action: 'abort', reason: decision.reason, sweep: this.sweep, numbers: verdict.numbers });
-        } else {
-          this.emit({ type: 'caution', kind: 'breakdown-suspected', sweep: this.sweep, numbers: verdict.numbers, message: `Possible breakdown: ${verdict.reason}.` });
-        }
+    if (verdict) {
+      if (verdict.state === 'confirmed') {
+        const action = this.options.control === false
+          ? 'plumbline does not control this instrument: turn its output off with its own controls now'
+          : 'The output is being turned off';
+        this.emit({ type: 'caution', kind: 'breakdown-confirmed', sweep: this.sweep, numbers: verdict.numbers, message: `Breakdown: ${verdict.reason}. ${action}. Treat the device as broken; follow your lab's rules before touching the fixture.` });
+        decision = { action: 'abort', outcome: 'aborted-breakdown', reason: `breakdown confirmed in sweep ${this.sweep}: ${verdict.reason}` };
+        this.emit({ type: 'decision', action: 'abort', reason: decision.reason, sweep: this.sweep, numbers: verdict.numbers });
+      } else {
+        this.emit({ type: 'caution', kind: 'breakdown-suspected', sweep: this.sweep, numbers: verdict.numbers, message: `Possible breakdown: ${verdict.reason}.` });
       }
     }
 
@@ -269,9 +276,9 @@ export class LiveChain {
     this.emit({ type: 'progress', sweep: this.sweep, sweeps, point: this.k, points: per, eta });
   }
 
-  /** A sweep's readings as analysis data (compliance from the flag bits). */
+  /** A sweep's readings as analysis data (compliance and breakdown from the flag bits). */
   private data(v: number[], i: number[], c: number[]): IVData {
-    return { x: v, y: i, compliance: c.map((f) => f & FLAG.compliance) };
+    return { x: v, y: i, compliance: c.map((f) => f & FLAG.compliance), breakdown: c.map((f) => f & FLAG.breakdown) };
   }
 
   /** The run's analysis settings as a fit request. */

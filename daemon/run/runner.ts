@@ -305,8 +305,8 @@ export class RunController {
       chain: this.chain,
       check: () => this.check(),
       sleep: (s) => this.sleep(s),
-      take: (m, programmed) => {
-        const d = this.take(m, programmed);
+      take: (m, programmed, brokeDown) => {
+        const d = this.take(m, programmed, brokeDown);
         if (d?.action === 'abort') {
           this.abort(d.reason, d.outcome);
           this.check();
@@ -347,7 +347,7 @@ export class RunController {
   }
 
   /** One measurement into the chain (a reply without a reading is journaled as rejected, with its reason). */
-  private take(m: Measurement, programmed: number): Decision | undefined {
+  private take(m: Measurement, programmed: number, brokeDown = false): Decision | undefined {
     if (!m.reading) {
       const why = m.rejectReason ?? 'an unreadable reply';
       this.rejectedBy[why] = (this.rejectedBy[why] ?? 0) + 1;
@@ -356,7 +356,7 @@ export class RunController {
     }
     const r = m.reading;
     if (Number.isFinite(r.v) && Number.isFinite(r.i) && !r.overflow && !r.voltageOverflow) this.usable++;
-    return this.chain.reading(r.v, r.i, m.compliance, r.overflow, programmed, r.voltageOverflow);
+    return this.chain.reading(r.v, r.i, m.compliance, r.overflow, programmed, r.voltageOverflow, brokeDown);
   }
 
   private safely(fn: () => unknown): void {

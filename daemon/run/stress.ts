@@ -31,8 +31,11 @@ export interface RunContext {
   check(): void;
   /** Waits s seconds; an abort wakes it early. */
   sleep(s: number): Promise<void>;
-  /** Journals one measurement; returns the live chain's decision, if any. */
-  take(m: Measurement, programmed: number): Decision | undefined;
+  /**
+   * Journals one measurement; returns the live chain's decision, if any. `brokeDown`: the test's
+   * judge confirmed breakdown at it (the reading is flagged and never fitted).
+   */
+  take(m: Measurement, programmed: number, brokeDown?: boolean): Decision | undefined;
   /** Journals an event; a journal failure is kept for the run, never thrown here. */
   record(e: NewEvent): void;
   /**
@@ -247,11 +250,14 @@ export class StressTest {
       await this.ctx.sleep(p.stepTime);
       this.ctx.check();
       const m = await src.measure();
-      this.ctx.take(m, v);
-      if (!m.reading) continue;
+      if (!m.reading) {
+        this.ctx.take(m, v);
+        continue;
+      }
       series.add(this.now(), m.reading.v, m.reading.i, v, tSet);
       // Judged against the applied (programmed) bias: at compliance the measured one collapses.
       const verdict = judge.add(v, m.reading.i, m.compliance);
+      this.ctx.take(m, v, verdict !== undefined);
       if (verdict) {
         const at = { ...verdict, index: series.t.length - 1 };
         await this.offAtBreakdown(at);
@@ -286,11 +292,14 @@ export class StressTest {
       await this.ctx.sleep(p.stepTime);
       this.ctx.check();
       const m = await src.measure();
-      this.ctx.take(m, i);
-      if (!m.reading) continue;
+      if (!m.reading) {
+        this.ctx.take(m, i);
+        continue;
+      }
       // The forced current is the current through the device (the instrument's own reading of it).
       series.add(this.now(), m.reading.v, m.reading.i, i, tSet);
       const verdict = judge.add(m.reading.v, m.reading.i);
+      this.ctx.take(m, i, verdict !== undefined);
       if (verdict) {
         const at = { ...verdict, index: series.t.length - 1 };
         await this.offAtBreakdown(at);
@@ -338,14 +347,18 @@ export class StressTest {
       openSegment();
       this.ctx.check();
       const m = await src.measure();
-      this.ctx.take(m, p.stress);
       const t = clock(m);
       series.resume(t);
-      if (!m.reading) return undefined;
+      if (!m.reading) {
+        this.ctx.take(m, p.stress);
+        return undefined;
+      }
       series.add(t, m.reading.v, m.reading.i, p.stress);
       if (after !== undefined) series.edge(series.t.length - 1, t - after);
       stressTime += after !== undefined ? 0.5 * Math.max(0, t - after) : 0;
-      return judge.add(stressTime, m.reading.i, m.compliance);
+      const verdict = judge.add(stressTime, m.reading.i, m.compliance);
+      this.ctx.take(m, p.stress, verdict !== undefined);
+      return verdict;
     };
     const broke = async (verdict: BreakdownVerdict) => {
       const at = { ...verdict, index: series.t.length - 1 };
@@ -360,12 +373,15 @@ export class StressTest {
       await this.ctx.sleep(Math.min(p.sampleEvery, p.duration - stressTime));
       this.ctx.check();
       const m = await src.measure();
-      this.ctx.take(m, p.stress);
-      if (!m.reading) continue;
+      if (!m.reading) {
+        this.ctx.take(m, p.stress);
+        continue;
+      }
       const t = clock(m);
       series.add(t, m.reading.v, m.reading.i, p.stress);
       stressTime += t - series.tSet[series.tSet.length - 1];
       const verdict = judge.add(stressTime, m.reading.i, m.compliance);
+      this.ctx.take(m, p.stress, verdict !== undefined);
       if (verdict) return broke(verdict);
       if (p.sense && stressTime >= nextSense && stressTime < p.duration) {
         this.ctx.chain.endSweep(true);

@@ -20,7 +20,8 @@ import { SimulatedSmu } from '../../daemon/simulator/instrument.js';
 import { findScenario } from '../../daemon/simulator/scenarios.js';
 import { attachInstrument } from '../../daemon/simulator/serve.js';
 import { parseDeviceResults } from '../../protocols/device-results.js';
-import type { WireEvent } from '../../protocols/wire.js';
+import { FLAG, type WireEvent } from '../../protocols/wire.js';
+import { REASONS } from '../../daemon/analysis/sweep-points.js';
 import { runCli } from '../helpers/cli.js';
 import { api, runCliAsync, startDaemon, tempDir, writeConfig } from '../helpers/daemon.js';
 
@@ -148,6 +149,21 @@ describe('current ramp to breakdown', () => {
     expect(row).toMatchObject({ test: 'current-ramp', outcome: 'breakdown', criterion: 'voltage-collapse' });
     chargeWithin(res.dir, row.chargeToBreakdown, truth!.charge);
     within(row.breakdownVoltage, truth!.voltage, 0.02);
+    // The reading that showed the collapse (a broken film at a few tens of mV) is journaled with the
+    // breakdown flag and left out of the sweep's fit: the Fowler–Nordheim barrier of the intact
+    // film is recovered (the simulator's 3.1 eV), not a line bent by one reading of another device.
+    const ev = events(res.dir);
+    const readings = ev.filter((e) => e.type === 'reading');
+    const flagged = readings.filter((e) => e.type === 'reading' && e.flags & FLAG.breakdown);
+    expect(flagged).toHaveLength(1);
+    expect(flagged[0]).toBe(readings[readings.length - 1]);
+    expect(Math.abs(flagged[0].type === 'reading' ? flagged[0].v : Number.NaN)).toBeLessThan(0.1 * row.breakdownVoltage!);
+    const fit = ev.find((e) => e.type === 'fit' && e.final);
+    const f = fit?.type === 'fit' ? fit.fit : null;
+    expect(f?.plausible, JSON.stringify(f?.warnings)).toBe(true);
+    expect(f?.points.reasons[REASONS.breakdown]).toBe(1);
+    const phi = f!.parameters.barrierHeight;
+    expect(Math.abs(phi.value - WEAROUT.device.params.barrierHeight), `${phi.value} ± ${phi.stdErr} eV`).toBeLessThan(Math.max(3 * phi.stdErr, 0.02));
     expect(devices[0].log).toContain(':SOUR:FUNC CURR');
     expect(devices[0].output).toBe(false);
   });

@@ -1,0 +1,45 @@
+/**
+ * What `plumbline run` prints for a sweep's fit: a wrong answer is never silent. A fit the analysis
+ * marks not plausible says so on its line, with each of its warnings, and a parameter whose
+ * uncertainty could not be determined says that instead of showing a bare number.
+ */
+import { describe as suite, expect, it } from 'vitest';
+import { describe } from '../../daemon/cli/station-common.js';
+import type { FitSummary, WireEvent } from '../../protocols/wire.js';
+
+function fitEvent(fit: Partial<FitSummary>): WireEvent {
+  const base: FitSummary = {
+    model: 'fowler-nordheim',
+    title: 'Fowler–Nordheim tunnelling',
+    window: { from: 5, to: 8, mode: 'auto' },
+    line: { slope: -1, slopeStdErr: 0.01, intercept: 0, interceptStdErr: 0.01, r2: 0.99, residualStdDev: 0.01, n: 41 },
+    axes: { x: { label: '1/E', unit: 'm/V', kind: 'linear' }, y: { label: 'J/E²', unit: 'A/m^2/(V/m)^2', kind: 'log' } },
+    parameters: { barrierHeight: { value: 3.1, stdErr: 0.002, unit: 'eV' } },
+    plausible: true,
+    warnings: [],
+    points: { used: 41, excluded: 0, reasons: {} },
+    regimes: [],
+  };
+  return { type: 'fit', seq: 1, t: 0, sweep: 1, final: true, fit: { ...base, ...fit } } as WireEvent;
+}
+
+suite('run: a sweep fit line', () => {
+  it('a plausible fit: the value with its uncertainty, nothing more', () => {
+    const text = describe(fitEvent({})) as string;
+    expect(text).toMatch(/^sweep 1: fowler-nordheim fit on 41 points, barrierHeight = 3\.1000 ± 0\.0020 eV$/);
+  });
+
+  it('an implausible fit says NOT PLAUSIBLE and prints every warning; a missing uncertainty is named', () => {
+    const text = describe(fitEvent({
+      parameters: { barrierHeight: { value: 61.3, stdErr: null as unknown as number, unit: 'eV' } },
+      plausible: false,
+      warnings: ['barrier height = 61.3 eV is outside the plausible range 0.3–6 eV', 'the points scatter more than the noise allows'],
+    })) as string;
+    const lines = text.split('\n');
+    expect(lines[0]).toMatch(/barrierHeight = 61\.3\d* eV \(uncertainty not determined\) — NOT PLAUSIBLE$/);
+    expect(lines.slice(1)).toEqual([
+      '         warning: barrier height = 61.3 eV is outside the plausible range 0.3–6 eV',
+      '         warning: the points scatter more than the noise allows',
+    ]);
+  });
+});
