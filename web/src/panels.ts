@@ -59,6 +59,21 @@ export function describeAnalysis(a: AnalysisSettings | null | undefined): string
   return `${a.model} · ${win}${inputs ? ` · ${inputs}` : ''}${a.solar ? ` · solar cell${a.solar.irradiance !== undefined ? ` at ${formatNumber(a.solar.irradiance)} W/m²` : ''}` : ''}`;
 }
 
+/** A table cell with "value ± error" and its display unit (none for a dimensionless value). */
+function fillValue(c: HTMLTableCellElement, p: { value: number; stdErr: number; unit: string }, key: string): void {
+  const f = formatParameter(p, key);
+  const sv = document.createElement('span');
+  sv.className = 'num';
+  sv.textContent = f.text;
+  c.append(sv);
+  if (f.unit) {
+    const su = document.createElement('span');
+    su.className = 'unit';
+    su.textContent = ` ${f.unit}`;
+    c.append(su);
+  }
+}
+
 export interface ParamColumn {
   readonly title: string;
   readonly fit: FitSummary | null | undefined;
@@ -106,18 +121,7 @@ export function renderParams(box: HTMLElement, cols: ParamColumn[], empty: strin
       const c = row.insertCell();
       c.className = k === 0 ? 'value' : '';
       const p = figures(col.fit)[n];
-      if (!p) return;
-      const f = formatParameter(p, n);
-      const sv = document.createElement('span');
-      sv.className = 'num';
-      sv.textContent = f.text;
-      c.append(sv);
-      if (f.unit) {
-        const su = document.createElement('span');
-        su.className = 'unit';
-        su.textContent = ` ${f.unit}`;
-        c.append(su);
-      }
+      if (p) fillValue(c, p, n);
     });
   }
   box.append(table);
@@ -228,17 +232,7 @@ export function renderSolar(box: HTMLElement, title: string, solar: SolarSummary
     c0.title = key;
     const c = row.insertCell();
     c.className = 'value';
-    const f = formatParameter(fig, key);
-    const sv = document.createElement('span');
-    sv.className = 'num';
-    sv.textContent = f.text;
-    c.append(sv);
-    if (f.unit) {
-      const su = document.createElement('span');
-      su.className = 'unit';
-      su.textContent = ` ${f.unit}`;
-      c.append(su);
-    }
+    fillValue(c, fig, key);
   };
   for (const [k, f] of Object.entries(solar.figures)) add(k, f);
   for (const [k, f] of Object.entries(solar.model?.parameters ?? {})) add(k, f, 'model');
