@@ -421,6 +421,9 @@ export class LiveChain {
     this.mech = mech;
     this.inputs = inputs;
     this.area = mech.usesArea && inputs.area !== undefined ? inputs.area : 1;
+    // The breakdown watch's trend lives on the mechanism's plot: in another plot it starts again.
+    this.breakdown?.resetTrend();
+    this.trendSign = 0;
     this.emit({ type: 'settings', analysis: a, source });
     const last = this.lastFinal;
     if (last) {
