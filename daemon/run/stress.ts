@@ -258,6 +258,7 @@ export class StressTest {
     await src.configure(useCheckCompliance(this.limits, p), p.nplc);
     this.ctx.check();
     await src.outputOn();
+    this.ctx.record({ type: 'output', on: true, sent: true, queried: true, confirmed: true, reason: `${label} (the instrument reports its output on)` });
     this.startSweep(1, label);
     await src.rampTo(v);
     await this.ctx.sleep(0.01);
@@ -266,7 +267,8 @@ export class StressTest {
     this.ctx.take(m, v);
     this.ctx.chain.endSweep(true);
     await src.rampTo(0);
-    await src.outputOff();
+    const sent = await src.outputOff();
+    this.ctx.record({ type: 'output', on: false, sent, confirmed: false, reason: `${label} done` });
     return m.reading?.i ?? Number.NaN;
   }
 

@@ -115,6 +115,12 @@ describe('voltage ramp to breakdown', () => {
     expect(Math.max(...ramp) - truth!.voltage).toBeLessThanOrEqual(plan.step + 1e-9);
     const ev = events(res.dir);
     expect(ev.some((e) => e.type === 'caution' && e.kind === 'destructive-test')).toBe(true);
+    // Every time the output went on — the use check before, the ramp, the use check after — the
+    // journal says so, and says it went off before the next: what the instrument did, in order.
+    const outputs = ev.filter((e) => e.type === 'output').map((e) => (e.type === 'output' && e.on ? 'on' : 'off'));
+    expect(outputs.filter((o) => o === 'on')).toHaveLength(3);
+    expect(outputs.join(' ')).toMatch(/^on off on off on off( off)*$/);
+    expect(log.filter((l) => l === ':OUTP ON')).toHaveLength(3);
     const tr = ev.find((e) => e.type === 'test-result');
     expect(tr?.type === 'test-result' && tr.outcome).toBe('breakdown');
     expect(smu.output).toBe(false);
