@@ -115,6 +115,8 @@ describe('voltage ramp to breakdown', () => {
     expect(Math.max(...ramp) - truth!.voltage).toBeLessThanOrEqual(plan.step + 1e-9);
     const ev = events(res.dir);
     expect(ev.some((e) => e.type === 'caution' && e.kind === 'destructive-test')).toBe(true);
+    // A script reading `run --json` sees the same cautions as a person at the terminal.
+    expect(res.cautions.map((c: { kind: string }) => c.kind)).toEqual(expect.arrayContaining(['destructive-test', 'breakdown-confirmed']));
     // Every time the output went on — the use check before, the ramp, the use check after — the
     // journal says so, and says it went off before the next: what the instrument did, in order.
     const outputs = ev.filter((e) => e.type === 'output').map((e) => (e.type === 'output' && e.on ? 'on' : 'off'));
