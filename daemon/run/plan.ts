@@ -347,5 +347,5 @@ export function checkPlanSize(p: Plan, dataDir: string): void {
   const { sweeps, pointsPerSweep } = planShape(p);
   const gib = (b: number) => (b >= 1e9 ? `${(b / 1e9).toPrecision(3)} GB` : `${(b / 1e6).toPrecision(3)} MB`);
   const field = p.kind === 'constant-voltage' ? 'duration' : p.kind === 'voltage-ramp' ? 'step' : p.kind === 'current-ramp' ? 'stepsPerDecade' : 'repeat';
-  throw new PlanError(`plan: field '${field}': ${sweeps} sweep(s) × ${pointsPerSweep} points would write about ${gib(need)} of journal, more than the ${gib(free)} free under ${dataDir}; shorten the plan, free space, or set "overrideDiskCheck": true`);
+  throw new PlanError(`plan: field '${field}': ${sweeps} sweep(s) × ${pointsPerSweep} points would write about ${gib(need)} of journal, more than the ${gib(free)} free under ${dataDir}; shorten the plan, free space, or set "overrideDiskCheck": true in the plan ('plumbline run --override-disk-check')`);
 }

@@ -287,7 +287,8 @@ export class StressTest {
     this.ctx.record({ type: 'output', on: true, sent: true, queried: true, confirmed: true, reason: 'voltage ramp started (the instrument reports its output on)' });
     const dir = Math.sign(p.stop - p.start);
     const steps = Math.floor(Math.abs(p.stop - p.start) / p.step + 1e-9);
-    const levels = Array.from({ length: steps + 1 }, (_, k) => p.start + dir * k * p.step);
+    // Rounded to 12 significant digits: 9.6 V goes to the instrument as 9.6, not 9.600000000000001.
+    const levels = Array.from({ length: steps + 1 }, (_, k) => Number((p.start + dir * k * p.step).toPrecision(12)));
     if (Math.abs(levels[levels.length - 1] - p.stop) > 1e-9) levels.push(p.stop);
     if (Math.abs(levels[0]) > p.step) await src.rampTo(levels[0]);
     const judge = new VoltageRampJudge(p.criteria, p.compliance);
