@@ -316,7 +316,9 @@ export class Station {
         dialect: dialect.name,
         ...(device ? { device } : {}),
       });
-      const source = new GuardedSource(driver, this.config.limits);
+      // A simulator that answers at once (--fast) also lets the ramps' waits pass on its own clock.
+      const sim = this.config.instrument.kind === 'simulator' && !this.config.instrument.realTime ? this.sim : undefined;
+      const source = new GuardedSource(driver, this.config.limits, sim ? async (s) => sim.elapse(s) : undefined);
       const controller = new RunController(source, chain, plan, device, id);
       // A journal that cannot be written stops the run at once (even between readings).
       chain.options.journal.onError = (err) => controller.abort(err.message, 'journal-fault');

@@ -88,11 +88,13 @@ export class SimulatedSmu {
   currentLevel = 0;
   /** Voltage compliance in current mode, V. */
   voltageCompliance = 21;
-  /** When the device's wear was last brought up to date (performance.now, ms). */
+  /** Simulated time let pass at once (`elapse`), ms: added to the wall clock to give the instrument's. */
+  private skewMs = 0;
+  /** When the device's wear was last brought up to date (the instrument's clock, ms). */
   private wearAt = performance.now();
   /** Reply elements of a reading (:FORM:ELEM): voltage and current, optionally a status word. */
   elements: ('VOLT' | 'CURR' | 'TIME' | 'STAT')[] = ['VOLT', 'CURR'];
-  /** The instrument's clock: readings' TIME element is seconds since then (performance.now, ms). */
+  /** The instrument's clock: readings' TIME element is seconds since then (ms). */
   private readonly clockZero = performance.now();
   /** Source mode: a fixed level, or a list the instrument steps through itself after :INIT. */
   sourceMode: 'FIX' | 'LIST' = 'FIX';
@@ -130,6 +132,19 @@ export class SimulatedSmu {
     this.realTime = options.realTime ?? true;
     this.idn = options.idn ?? 'plumbline,simulated SMU,0,0.1';
     this.define();
+  }
+
+  /**
+   * Lets `seconds` of simulated time pass at once (a fast simulator's waits cost no wall time): the
+   * instrument's clock and the device's wear move on as if they had been waited.
+   */
+  elapse(seconds: number): void {
+    this.skewMs += seconds * 1000;
+  }
+
+  /** Simulated time let pass at once so far, s. */
+  get elapsedAtOnce(): number {
+    return this.skewMs / 1000;
   }
 
   /** Removes injected faults (a "repaired" instrument for reconnect tests). */
@@ -354,7 +369,7 @@ export class SimulatedSmu {
    * time while the output is on), then applies the change.
    */
   private wear(change: () => void = () => undefined): void {
-    const now = performance.now();
+    const now = performance.now() + this.skewMs;
     if (this.output && this.device.spec.wearout) this.device.age(this.deviceBias().v, (now - this.wearAt) / 1000);
     this.wearAt = now;
     change();
