@@ -51,6 +51,11 @@ export interface SimOptions {
   readonly faults?: Faults;
   /** Really wait the integration time before answering READ? (default true). */
   readonly realTime?: boolean;
+  /**
+   * How many lines `log`, `received` and `applied` keep (the oldest half goes past this; default
+   * 200,000). A station's own simulator keeps fewer: a long run must not grow with its records.
+   */
+  readonly recordLimit?: number;
   readonly idn?: string;
 }
 
@@ -108,7 +113,9 @@ export class SimulatedSmu {
   private hung = false;
   /** Every voltage actually applied to the device (for tests that check the wire). */
   readonly applied: number[] = [];
-  /** Every command line received, in order (bounded: the oldest half is dropped past 200,000). */
+  /** How many entries each record below keeps before its oldest half is dropped. */
+  readonly recordLimit: number;
+  /** Every command line received, in order (bounded: the oldest half is dropped past recordLimit). */
   readonly log: string[] = [];
   /**
    * Every line as it arrived at the instrument's end of the wire, with the time of arrival in ms
@@ -130,6 +137,7 @@ export class SimulatedSmu {
     this.normal = seededNormal(options.seed ?? 1);
     this.faults = options.faults ?? {};
     this.realTime = options.realTime ?? true;
+    this.recordLimit = options.recordLimit ?? 200_000;
     this.idn = options.idn ?? 'plumbline,simulated SMU,0,0.1';
     this.define();
   }
@@ -385,7 +393,7 @@ export class SimulatedSmu {
     if (this.sourceFunction === 'CURR') return this.measureForced();
     let v = this.level;
     this.applied.push(v);
-    if (this.applied.length > 200000) this.applied.splice(0, 100000);
+    if (this.applied.length > this.recordLimit) this.applied.splice(0, this.recordLimit >> 1);
     let i = this.device.current(v);
     this.tripped = Math.abs(i) >= this.compliance;
     if (this.tripped) {
@@ -418,7 +426,7 @@ export class SimulatedSmu {
   private measureForced(): string {
     const { v, atLimit } = this.deviceBias();
     this.applied.push(v);
-    if (this.applied.length > 200000) this.applied.splice(0, 100000);
+    if (this.applied.length > this.recordLimit) this.applied.splice(0, this.recordLimit >> 1);
     this.tripped = atLimit;
     const i = atLimit ? this.device.current(v) : this.currentLevel;
     this.device.stress(v);
@@ -462,7 +470,7 @@ export class SimulatedSmu {
   async handleLine(line: string): Promise<string | undefined> {
     if (this.hung) return undefined;
     this.log.push(line);
-    if (this.log.length > 200000) this.log.splice(0, 100000);
+    if (this.log.length > this.recordLimit) this.log.splice(0, this.recordLimit >> 1);
     const out: string[] = [];
     let path: string[] = [];
     for (const rawUnit of line.split(';')) {
