@@ -143,13 +143,13 @@ describe('voltage ramp to breakdown', () => {
 });
 
 describe('ramp rate', () => {
-  it('steps arrive at the instrument stepTime apart even when each reading takes 20 ms, and the journal records the rate achieved', async () => {
+  it('steps arrive at the instrument stepTime apart even when each reading takes 40 ms, and the journal records the rate achieved', async () => {
     // The ramp rate is the figure a ramped-voltage test quotes beside its result (JEDEC JESD35-A):
-    // a 50 ms step must not become 70 ms because the reading inside it takes 20 ms.
+    // a 100 ms step must not become 140 ms because the reading inside it takes 40 ms.
     const sc = findScenario('oxide-fn');
-    const { inst, devices } = await instruments(() => new SimulatedSmu({ device: sc.device, seed: 8, realTime: false, faults: { readDelayMs: 20 } }));
+    const { inst, devices } = await instruments(() => new SimulatedSmu({ device: sc.device, seed: 8, realTime: false, faults: { readDelayMs: 40 } }));
     const dir = tempDir();
-    const plan = { kind: 'voltage-ramp', start: 2, stop: 5, step: 0.1, stepTime: 0.05, compliance: 1e-3 };
+    const plan = { kind: 'voltage-ramp', start: 2, stop: 5, step: 0.1, stepTime: 0.1, compliance: 1e-3 };
     const res = await runPlan(dir, { instrument: inst, limits: LIMITS }, plan);
     // The ramp's 31 levels: the set commands up to the first at 5 V (before them the approach to
     // the start, after them the ramp down).
@@ -158,12 +158,12 @@ describe('ramp rate', () => {
     const sets = all.slice(top - 30, top + 1);
     expect(sets.map((r) => Number(r.line.split(' ')[1]))[0]).toBeCloseTo(2, 9);
     const period = (sets[sets.length - 1].at - sets[0].at) / (sets.length - 1) / 1000;
-    expect(period, 'mean step period at the instrument, s').toBeGreaterThan(0.045);
-    expect(period, 'mean step period at the instrument, s').toBeLessThan(0.055);
+    expect(period, 'mean step period at the instrument, s').toBeGreaterThan(0.095);
+    expect(period, 'mean step period at the instrument, s').toBeLessThan(0.11);
     const tr = events(res.dir).find((e) => e.type === 'test-result');
     const n = tr?.type === 'test-result' ? tr.numbers : undefined;
-    expect(n?.plannedRampRate).toBeCloseTo(2, 12);
-    expect(Math.abs((n?.rampRate ?? 0) / 2 - 1), `recorded ${n?.rampRate} V/s`).toBeLessThan(0.1);
+    expect(n?.plannedRampRate).toBeCloseTo(1, 12);
+    expect(Math.abs((n?.rampRate ?? 0) / 1 - 1), `recorded ${n?.rampRate} V/s`).toBeLessThan(0.1);
   });
 });
 
