@@ -57,6 +57,7 @@ function isResultsHeader(text: string): boolean {
 
 export interface WeibullCliOptions extends ArchiveSelectionOptions {
   quantity?: string;
+  test?: string;
   area?: string;
   toArea?: string;
   confidence: string;
@@ -68,7 +69,7 @@ export interface WeibullCliOptions extends ArchiveSelectionOptions {
 
 /** Gathers the sample from the inputs (folders or files). */
 export async function gatherSample(inputs: string[], o: WeibullCliOptions, referenceArea: number | undefined): Promise<BreakdownSample> {
-  const { FolderLot, lotResults, breakdownSample, referenceAreas } = await import('../journal/lot.js');
+  const { FolderLot, lotResults, breakdownSample, referenceAreas, LotRequestError } = await import('../journal/lot.js');
   const folders = inputs.filter((p) => {
     try {
       return statSync(p).isDirectory();
@@ -103,8 +104,14 @@ export async function gatherSample(inputs: string[], o: WeibullCliOptions, refer
   if (rows.length && generic.length) throw new UsageError('mix of results files (or session folders) and plain value CSVs: analyse them separately');
   if (rows.length) {
     if (!q) throw new UsageError(`--quantity '${o.quantity}': results hold ${Object.keys(RESULT_QUANTITIES).join(', ')} (or their column names)`);
-    return breakdownSample(rows, q, referenceArea);
+    try {
+      return breakdownSample(rows, q, referenceArea, o.test);
+    } catch (e) {
+      if (e instanceof LotRequestError) throw new UsageError(e.message);
+      throw e;
+    }
   }
+  if (o.test !== undefined) throw new UsageError(`--test '${o.test}': only results files and session folders name their kind of test; a plain CSV is taken as one sample`);
   // Plain CSVs: concatenated; per-device areas become area factors.
   const a = referenceAreas(generic.flatMap((g) => g.areas), referenceArea);
   return {
@@ -161,6 +168,7 @@ export function registerWeibull(program: Command): void {
     .description('Weibull statistics of breakdown values across devices: shape and scale by maximum likelihood with bounds, median-rank plot, goodness of fit, two-population warning, area scaling')
     .argument('[input...]', 'session folders or data folders (their device-results.csv), results files, or CSV files with one value per device (or --postgres with a selection)')
     .option('--quantity <name>', `results: ${Object.keys(RESULT_QUANTITIES).join(' | ')} (default field); other CSVs: the column with the values`)
+    .option('--test <kind>', 'results: the kind of test to analyse (voltage-ramp | current-ramp | constant-voltage | constant-current), or all to pool them; needed when the results hold several')
     .option('--area <q>', 'device area (or the reference area when devices differ), e.g. "1e-4 cm^2"')
     .option('--to-area <q>', 'scale η to this area through β (Poisson area scaling), e.g. "1 cm^2"')
     .option('--confidence <c>', 'two-sided confidence of the bounds', '0.9')

@@ -6,11 +6,11 @@
  * outliers by robust z-score, and the cautions the sessions raised.
  */
 import { writeFileSync } from 'node:fs';
-import { boxSummary, modifiedZ, OUTLIER_Z } from '../analysis/robust.js';
+import { boxSummary, gridResolution, modifiedZ, OUTLIER_Z } from '../analysis/robust.js';
 import { analyzeWeibull, weibullPlotY, weibullQuantile, type WeibullReport } from '../analysis/weibull.js';
 import { OKABE_ITO, sequential } from '../../protocols/palette.js';
 import { resultQuantity } from '../../protocols/device-results.js';
-import { breakdownSample, displayUnit, formatValue, lotResults, type BreakdownSample, type DeviceSummary, type LotSource } from './lot.js';
+import { breakdownSample, displayUnit, formatValue, LotRequestError, lotResults, type BreakdownSample, type DeviceSummary, type LotSource } from './lot.js';
 
 const esc = (s: unknown) => String(s).replace(/&/g, '&amp;').replace(/</g, '&lt;').replace(/>/g, '&gt;').replace(/"/g, '&quot;');
 const num = (v: number | undefined, d = 4) => (v === undefined || !Number.isFinite(v) ? '—' : Math.abs(v) >= 1e4 || (Math.abs(v) < 1e-2 && v !== 0) ? v.toExponential(d - 1) : String(+v.toPrecision(d)));
@@ -22,6 +22,8 @@ export interface LotOptions {
   readonly quantity?: string;
   readonly confidence?: number;
   readonly area?: number;
+  /** Kind of test whose results the Weibull plot takes ('all' pools every kind); needed when the lot holds several. */
+  readonly test?: string;
 }
 
 /** One row of the lot: a device with its values (parameters and breakdown results). */
@@ -42,6 +44,8 @@ export interface ParameterStats {
   readonly n: number;
   /** The robust z-scores were taken of ln(value) (a positive quantity spanning more than a decade). */
   readonly logScale: boolean;
+  /** The grid step the values sit on (ties on a ramp's levels), which floors the MAD; else null. */
+  readonly resolution: number | null;
   readonly box: ReturnType<typeof boxSummary> | null;
   /** Devices with |modified z| > 3.5 (Iglewicz & Hoaglin 1993). */
   readonly outliers: readonly { session: string; device: string; value: number; z: number }[];
@@ -98,12 +102,16 @@ export async function analyzeLot(source: LotSource, o: LotOptions = {}): Promise
     const vals = have.map((r) => r.values[name].value);
     // Quantities spanning decades (charge to breakdown, leakage) are compared on a log scale.
     const log = vals.length > 0 && vals.every((v) => v > 0) && Math.max(...vals) / Math.min(...vals) > 10;
-    const z = vals.length >= 3 ? modifiedZ(log ? vals.map(Math.log) : vals) : vals.map(() => 0);
+    // Values read on a grid (a ramp's levels) tie; the grid step floors the MAD so that devices one
+    // step from a tied majority are not all called outliers.
+    const resolution = log ? undefined : gridResolution(vals);
+    const z = vals.length >= 3 ? modifiedZ(log ? vals.map(Math.log) : vals, resolution) : vals.map(() => 0);
     parameters.push({
       name,
       unit,
       n: vals.length,
       logScale: log,
+      resolution: resolution ?? null,
       box: vals.length ? boxSummary(vals) : null,
       outliers: have.map((r, k) => ({ session: r.session, device: r.device, value: vals[k], z: z[k] })).filter((q) => Math.abs(q.z) > OUTLIER_Z),
     });
@@ -114,9 +122,9 @@ export async function analyzeLot(source: LotSource, o: LotOptions = {}): Promise
   const q = resultQuantity(o.quantity ?? 'field');
   const results = lotResults(devices);
   if (q && results.length) {
-    const s: BreakdownSample = breakdownSample(results, q, o.area);
-    sample = s;
     try {
+      const s: BreakdownSample = breakdownSample(results, q, o.area, o.test);
+      sample = s;
       weibull = { ...analyzeWeibull({ values: s.values, censored: s.censored, areaFactor: s.areaFactor }, { confidence: o.confidence ?? 0.9, unit: s.unit, area: s.area, display: (v) => formatValue(v, s.unit) }), quantity: s.title, notes: s.notes };
     } catch (e) {
       weibullError = (e as Error).message;
@@ -362,10 +370,10 @@ table{border-collapse:collapse;font-variant-numeric:tabular-nums;font-size:.8rem
     if (!p.box) continue;
     const d = displayUnit(p.unit);
     out.push(boxStrip(p, a.rows));
-    out.push(`<p class="note">${esc(p.name)}: n = ${p.n}, median ${num(p.box.median * d.factor)} ${esc(d.unit)}, quartiles ${num(p.box.q1 * d.factor)} … ${num(p.box.q3 * d.factor)}${p.logScale ? '; spans more than a decade, so outliers are judged on ln(value)' : ''}${p.outliers.length ? `; outliers: ${p.outliers.map((q) => `${esc(q.device)} (z = ${q.z.toFixed(1)})`).join(', ')}` : ''}.</p>`);
+    out.push(`<p class="note">${esc(p.name)}: n = ${p.n}, median ${num(p.box.median * d.factor)} ${esc(d.unit)}, quartiles ${num(p.box.q1 * d.factor)} … ${num(p.box.q3 * d.factor)}${p.logScale ? '; spans more than a decade, so outliers are judged on ln(value)' : ''}${p.resolution !== null ? `; values sit on a grid of ${num(p.resolution * d.factor)} ${esc(d.unit)} (ties), so no spread below one step counts` : ''}${p.outliers.length ? `; outliers: ${p.outliers.map((q) => `${esc(q.device)} (z = ${q.z.toFixed(1)})`).join(', ')}` : ''}.</p>`);
   }
   // Wafer map.
-  const mapName = o.map !== undefined ? (a.parameters.find((p) => p.name === o.map) ?? a.parameters.find((p) => p.name === resultQuantity(o.map as string)?.title))?.name : (a.parameters.find((p) => p.name === 'breakdown field') ?? a.parameters[0])?.name;
+  const mapName = mapParameter(a, o.map);
   out.push(`<h2>Wafer map${mapName ? `: ${esc(mapName)}` : ''}</h2>`);
   if (o.map !== undefined && !mapName) out.push(`<p class="note">No parameter named '${esc(o.map)}' in this lot (have: ${a.parameters.map((p) => esc(p.name)).join(', ')}).</p>`);
   else if (mapName) out.push(waferMap(mapName, a.rows, outKey.get(mapName) ?? new Set()));
@@ -389,8 +397,18 @@ table{border-collapse:collapse;font-variant-numeric:tabular-nums;font-size:.8rem
   return out.join('\n');
 }
 
+/** The parameter the wafer map shows: the one asked for (by name or breakdown quantity), else the breakdown field, else the first. */
+export function mapParameter(a: LotAnalysis, map: string | undefined): string | undefined {
+  if (map === undefined) return (a.parameters.find((p) => p.name === 'breakdown field') ?? a.parameters[0])?.name;
+  return (a.parameters.find((p) => p.name === map) ?? a.parameters.find((p) => p.name === resultQuantity(map)?.title))?.name;
+}
+
+/** Analyses the lot and writes its report; a --map naming no parameter of the lot is refused before anything is written. */
 export async function writeLotReport(source: LotSource, file: string, o: LotOptions = {}): Promise<LotAnalysis> {
   const a = await analyzeLot(source, o);
+  if (o.map !== undefined && mapParameter(a, o.map) === undefined) {
+    throw new LotRequestError(`--map '${o.map}': no such parameter in this lot (have: ${a.parameters.map((p) => p.name).join(', ') || 'none'}; or field | voltage | charge | time for breakdown results)`);
+  }
   writeFileSync(file, renderLot(a, o));
   return a;
 }

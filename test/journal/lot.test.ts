@@ -186,4 +186,17 @@ describe('lot report', () => {
     expect(html.match(/<circle class="device"/g)).toHaveLength(8);
     expect(html).not.toMatch(/<script/);
   });
+
+  it('breakdown voltages tied on a ramp\'s 0.1 V levels: neighbours one step away are not outliers, a far one is', async () => {
+    // Twelve of sixteen devices broke down on the same level: the MAD is 0, so without the grid
+    // every other device would be "infinitely" far (Iglewicz & Hoaglin's M divides by the MAD).
+    const data = tmp();
+    const volts = [...Array(12).fill(8.1), 8.0, 8.2, 8.200000000000001, 5.3];
+    volts.forEach((v, k) => writeSession(data, { label: `g${k}`, results: [{ device: `G${k}`, test: 'voltage-ramp', outcome: 'breakdown', breakdownVoltage: v }] }));
+    const a = await analyzeLot(new FolderLot([data]), { quantity: 'voltage' });
+    const p = a.parameters.find((q) => q.name === 'breakdown voltage');
+    expect(p?.resolution).toBeCloseTo(0.1, 9);
+    expect(p?.outliers.map((o) => o.device)).toEqual(['G15']);
+    expect(renderLot(a, {})).toMatch(/values sit on a grid of 0\.1 V \(ties\)/);
+  });
 });
