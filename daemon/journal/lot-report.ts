@@ -9,6 +9,7 @@ import { writeFileSync } from 'node:fs';
 import { boxSummary, gridResolution, modifiedZ, OUTLIER_Z } from '../analysis/robust.js';
 import { analyzeWeibull, weibullPlotY, weibullQuantile, type WeibullReport } from '../analysis/weibull.js';
 import { OKABE_ITO, sequential } from '../../protocols/palette.js';
+import { formatLogTicks, formatTicks, logTicks, niceTicks } from '../../protocols/number-format.js';
 import { resultQuantity } from '../../protocols/device-results.js';
 import { breakdownSample, displayUnit, formatValue, LotRequestError, lotResults, type BreakdownSample, type DeviceSummary, type LotSource } from './lot.js';
 
@@ -202,10 +203,11 @@ function boxStrip(p: ParameterStats, rows: LotRow[]): string {
   }
   const ty = H - 22;
   parts.push(`<line x1="${L}" x2="${W - R}" y1="${ty}" y2="${ty}" stroke="#888"/>`);
-  for (let t = 0; t <= 5; t++) {
-    const v = lo + ((hi - lo) * t) / 5;
-    parts.push(`<text x="${px(v).toFixed(1)}" y="${ty + 14}" text-anchor="middle">${num(v, 3)}</text>`);
-  }
+  const ticks = niceTicks(lo, hi, 6);
+  const labels = formatTicks(ticks);
+  ticks.forEach((v, k) => {
+    parts.push(`<text class="xtick" x="${px(v).toFixed(1)}" y="${ty + 14}" text-anchor="middle">${esc(labels[k])}</text>`);
+  });
   parts.push('</svg>');
   return parts.join('');
 }
@@ -268,18 +270,6 @@ function waferMap(name: string, rows: LotRow[], outliers: Set<string>): string {
   return `<div class="plots">${out.join('')}</div>${bar.join('')}<p class="note">Squares: sites, coloured from the lowest value (dark) to the highest (light) and labelled with the value; a thick vermillion border and "!" mark an outlier; dashed grey: no value.</p>`;
 }
 
-/** Ticks at 1, 2, 5 × 10^k inside [lo, hi] (at least the decade ends when the range is wide). */
-function logTicks(lo: number, hi: number): number[] {
-  const out: number[] = [];
-  for (let k = Math.floor(Math.log10(lo)); k <= Math.ceil(Math.log10(hi)); k++) {
-    for (const m of hi / lo > 1e3 ? [1] : hi / lo > 30 ? [1, 3] : [1, 1.5, 2, 3, 4, 5, 6, 7, 8, 9]) {
-      const v = m * 10 ** k;
-      if (v >= lo && v <= hi) out.push(v);
-    }
-  }
-  return out;
-}
-
 /**
  * The Weibull plot as on Weibull probability paper: x on a log axis fitted to the data (1-2-5
  * ticks), the ordinate W = ln(−ln(1 − F)) labelled in F; median-rank points, the ML line and the
@@ -308,10 +298,12 @@ function weibullPlot(w: WeibullReport & { quantity: string }, values: number[], 
   const parts = [`<svg class="chart" xmlns="http://www.w3.org/2000/svg" width="${W}" height="${H}" viewBox="0 0 ${W} ${H}" role="img" aria-label="Weibull plot">`];
   parts.push(`<text x="${L}" y="16" class="t">${esc(w.quantity)}: ● devices (median ranks) · solid: ML fit, β = ${+w.shape.value.toPrecision(3)}, η = ${esc(formatValue(w.scale.value, w.scale.unit))} · dashed: ${pct} bounds</text>`);
   parts.push(`<rect x="${L}" y="${T}" width="${W - L - R}" height="${H - T - B}" fill="none" stroke="#888"/>`);
-  for (const t of logTicks(xlo, xhi)) {
+  const xt = logTicks(xlo, xhi);
+  const xl = formatLogTicks(xt);
+  xt.forEach((t, k) => {
     const X = px(t).toFixed(1);
-    parts.push(`<line x1="${X}" y1="${T}" x2="${X}" y2="${H - B}" stroke="#e4e1d8"/><text x="${X}" y="${H - B + 14}" text-anchor="middle">${num(t, 3)}</text>`);
-  }
+    parts.push(`<line class="xtick" x1="${X}" y1="${T}" x2="${X}" y2="${H - B}" stroke="#e4e1d8"/><text x="${X}" y="${H - B + 14}" text-anchor="middle">${esc(xl[k])}</text>`);
+  });
   for (const F of Fs) {
     const Y = py(weibullPlotY(F)).toFixed(1);
     parts.push(`<line x1="${L}" y1="${Y}" x2="${W - R}" y2="${Y}" stroke="${F === 0.632 ? '#bbb' : '#e4e1d8'}"/><text x="${L - 4}" y="${Y}" text-anchor="end" dominant-baseline="middle">${+(F * 100).toPrecision(3)} %</text>`);

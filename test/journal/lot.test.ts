@@ -199,4 +199,20 @@ describe('lot report', () => {
     expect(p?.outliers.map((o) => o.device)).toEqual(['G15']);
     expect(renderLot(a, {})).toMatch(/values sit on a grid of 0\.1 V \(ties\)/);
   });
+
+  it('a narrow lot (β = 40) still gets a labelled Weibull axis and distribution axes with distinct round ticks', async () => {
+    const data = tmp();
+    // Fields 11.6 … 12.4 MV/cm (bounds reach about 10 … 13): a single 1-2-5 log tick falls inside.
+    const fields = Array.from({ length: 12 }, (_, k) => 1.16e9 + k * 0.0075e9);
+    fields.forEach((f, k) => writeSession(data, { label: `n${k}`, results: [{ device: `N${k}`, test: 'voltage-ramp', outcome: 'breakdown', breakdownField: f }] }));
+    const html = renderLot(await analyzeLot(new FolderLot([data])), {});
+    const weibull = html.slice(html.indexOf('aria-label="Weibull plot"'));
+    const xLabels = [...weibull.matchAll(/<line class="xtick"[^>]*\/><text[^>]*>([^<]+)<\/text>/g)].map((m) => m[1]);
+    expect(xLabels.length).toBeGreaterThanOrEqual(3);
+    expect(new Set(xLabels).size).toBe(xLabels.length);
+    for (const l of xLabels) expect(Number(l)).toBeGreaterThan(9);
+    const strip = [...html.matchAll(/<text class="xtick"[^>]*>([^<]+)<\/text>/g)].map((m) => m[1]);
+    expect(strip.length).toBeGreaterThanOrEqual(3);
+    expect(new Set(strip).size).toBe(strip.length);
+  });
 });
