@@ -35,7 +35,8 @@ export function registerLot(program: Command): void {
     .option('--no-cache', 'read every journal again instead of the cached summaries')
     .option('--json', 'print one JSON object (devices, parameter statistics, outliers, Weibull fit) as well as writing the report'))
     .action(async (dirs: string[], o: LotCliOptions) => {
-      const { FolderLot, LotRequestError, formatValue } = await import('../journal/lot.js');
+      const { FolderLot, LotRequestError } = await import('../journal/lot.js');
+      const { formatQuantity } = await import('../../protocols/display-units.js');
       const { writeLotReport } = await import('../journal/lot-report.js');
       const { parseQuantity } = await import('../quantity.js');
       const area = o.area !== undefined ? parseQuantity(o.area, 'area', '--area') : undefined;
@@ -59,7 +60,7 @@ export function registerLot(program: Command): void {
       const outliers = a.parameters.reduce((n, p) => n + p.outliers.length, 0);
       process.stdout.write(`lot report of ${a.rows.length} device(s) from ${new Set(a.rows.map((r) => r.session)).size} session(s) written to ${file} (${source instanceof FolderLot ? `${source.cachedCount} summaries from the cache` : source.description}, ${(performance.now() - t0).toFixed(0)} ms)\n`);
       if (outliers) process.stdout.write(`  ${outliers} outlier value(s) flagged (robust z > 3.5)\n`);
-      if (a.weibull) process.stdout.write(`  Weibull ${a.weibull.quantity}: β = ${a.weibull.shape.value.toPrecision(4)}, η = ${formatValue(a.weibull.scale.value, a.weibull.scale.unit, 5)} (${a.weibull.failures} breakdowns, ${a.weibull.censored} survived)\n`);
+      if (a.weibull) process.stdout.write(`  Weibull ${a.weibull.quantity}: β = ${a.weibull.shape.value.toPrecision(4)}, η = ${formatQuantity(a.weibull.scale.value, a.weibull.scale.unit, undefined, 5)} (${a.weibull.failures} breakdowns, ${a.weibull.censored} survived)\n`);
       else if (a.weibullError) process.stdout.write(`  no Weibull fit: ${a.weibullError}\n`);
       for (const w of a.weibull?.warnings ?? []) process.stdout.write(`  WARNING: ${w}\n`);
       for (const p of a.problems) process.stderr.write(`plumbline lot: ${p}\n`);

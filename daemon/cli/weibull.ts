@@ -9,7 +9,8 @@ import { analyzeWeibull, type BoundsMethod, type WeibullReport } from '../analys
 import { DEVICE_RESULTS_FILE, parseDeviceResults, resultQuantity, RESULT_QUANTITIES } from '../../protocols/device-results.js';
 import { columnIndex, CsvError, parseCsvTable, requireNumeric, splitFields, detectDelimiter } from '../../protocols/csv-table.js';
 import { UsageError } from './usage.js';
-import { formatValue, type BreakdownSample } from '../journal/lot.js';
+import type { BreakdownSample } from '../journal/lot.js';
+import { formatQuantity } from '../../protocols/display-units.js';
 import { archiveLot, withArchiveSelection, type ArchiveSelectionOptions } from './lab.js';
 
 const SURVIVOR_COLUMNS = /^(censored|survived|survivor|suspended)$/i;
@@ -143,11 +144,11 @@ function formatReport(r: WeibullReport, s: BreakdownSample): string {
   const lines: string[] = [];
   lines.push(`Weibull analysis of ${s.title}: ${r.n} device(s), ${r.failures} broke down, ${r.censored} survived (right-censored)`);
   lines.push(`  shape β = ${+r.shape.value.toPrecision(4)}    ${pct} bounds ${+r.shape.low.toPrecision(4)} … ${+r.shape.high.toPrecision(4)}`);
-  lines.push(`  scale η = ${formatValue(r.scale.value, r.scale.unit, 5)}    ${pct} bounds ${formatValue(r.scale.low, r.scale.unit)} … ${formatValue(r.scale.high, r.scale.unit)}  (63.2 % broken down${r.area !== null ? `, devices of ${formatValue(r.area, 'm^2')}` : ''})`);
-  lines.push(`  1 % point = ${formatValue(r.onePercent.value, r.onePercent.unit)}    bounds ${formatValue(r.onePercent.low, r.onePercent.unit)} … ${formatValue(r.onePercent.high, r.onePercent.unit)}`);
+  lines.push(`  scale η = ${formatQuantity(r.scale.value, r.scale.unit, undefined, 5)}    ${pct} bounds ${formatQuantity(r.scale.low, r.scale.unit, undefined, 4)} … ${formatQuantity(r.scale.high, r.scale.unit, undefined, 4)}  (63.2 % broken down${r.area !== null ? `, devices of ${formatQuantity(r.area, 'm^2', undefined, 4)}` : ''})`);
+  lines.push(`  1 % point = ${formatQuantity(r.onePercent.value, r.onePercent.unit, undefined, 4)}    bounds ${formatQuantity(r.onePercent.low, r.onePercent.unit, undefined, 4)} … ${formatQuantity(r.onePercent.high, r.onePercent.unit, undefined, 4)}`);
   if (r.areaScaling) {
     const a = r.areaScaling;
-    lines.push(`  η scaled to ${formatValue(a.toArea, 'm^2')} = ${formatValue(a.scale.value, a.scale.unit, 5)}    bounds ${formatValue(a.scale.low, a.scale.unit)} … ${formatValue(a.scale.high, a.scale.unit)}  (η₂ = η₁·(A₁/A₂)^(1/β), β unchanged)`);
+    lines.push(`  η scaled to ${formatQuantity(a.toArea, 'm^2', undefined, 4)} = ${formatQuantity(a.scale.value, a.scale.unit, undefined, 5)}    bounds ${formatQuantity(a.scale.low, a.scale.unit, undefined, 4)} … ${formatQuantity(a.scale.high, a.scale.unit, undefined, 4)}  (η₂ = η₁·(A₁/A₂)^(1/β), β unchanged)`);
   }
   lines.push(`  method: maximum likelihood; ${r.bounds.method === 'likelihood-ratio' ? 'likelihood-ratio' : 'Fisher-matrix'} bounds (two-sided ${pct}); log-likelihood ${r.logLikelihood.toFixed(4)}`);
   if (r.goodnessOfFit) {
@@ -158,7 +159,7 @@ function formatReport(r: WeibullReport, s: BreakdownSample): string {
   for (const n of s.notes) lines.push(`  note: ${n}`);
   for (const w of r.warnings) lines.push(`  WARNING: ${w}`);
   lines.push('  Weibull plot (median ranks, Bernard): x, F, ln(−ln(1−F))');
-  for (const p of r.points) lines.push(`    ${formatValue(p.x, r.scale.unit, 6).padStart(16)}  ${p.F.toFixed(4)}  ${Math.log(-Math.log1p(-p.F)).toFixed(4)}`);
+  for (const p of r.points) lines.push(`    ${formatQuantity(p.x, r.scale.unit, undefined, 6).padStart(16)}  ${p.F.toFixed(4)}  ${Math.log(-Math.log1p(-p.F)).toFixed(4)}`);
   return lines.join('\n');
 }
 
@@ -184,7 +185,7 @@ export function registerWeibull(program: Command): void {
       const toArea = o.toArea !== undefined ? parseQuantity(o.toArea, 'area', '--to-area') : undefined;
       const s = await gatherSample(inputs, o, area);
       if (toArea !== undefined && s.area === undefined) throw new UsageError('--to-area needs the devices\' area: give --area (or an area column / device area in the sessions)');
-      const r = analyzeWeibull({ values: s.values, censored: s.censored, areaFactor: s.areaFactor }, { confidence, bounds, unit: s.unit, area: s.area, toArea, display: (v) => formatValue(v, s.unit) });
+      const r = analyzeWeibull({ values: s.values, censored: s.censored, areaFactor: s.areaFactor }, { confidence, bounds, unit: s.unit, area: s.area, toArea, display: (v) => formatQuantity(v, s.unit, undefined, 4) });
       const report = { ...r, quantity: s.title, notes: s.notes };
       if (o.json) process.stdout.write(`${JSON.stringify(report)}\n`);
       else process.stdout.write(`${formatReport(r, s)}\n`);

@@ -367,26 +367,3 @@ export function referenceAreas(areas: readonly (number | undefined)[], reference
   return { area, areaFactor: areas.map((a) => (a !== undefined && a > 0 ? a / area : 1)), notes };
 }
 
-/** Units the trade quotes on screen for the SI units the files hold. */
-export function displayUnit(unit: string): { unit: string; factor: number } {
-  switch (unit) {
-    case 'V/m':
-      return { unit: 'MV/cm', factor: 1e-8 };
-    case 'C/m^2':
-      return { unit: 'C/cm²', factor: 1e-4 };
-    case 'm^2':
-      return { unit: 'cm²', factor: 1e4 };
-    case 'm':
-      return { unit: 'nm', factor: 1e9 };
-    default:
-      return { unit, factor: 1 };
-  }
-}
-
-export function formatValue(v: number, unit: string, digits = 4): string {
-  const d = displayUnit(unit);
-  const x = v * d.factor;
-  const s = Math.abs(x) >= 1e5 || (Math.abs(x) < 1e-3 && x !== 0) ? x.toExponential(digits - 1).replace(/\.?0+e/, 'e') : String(+x.toPrecision(digits));
-  return d.unit ? `${s} ${d.unit}` : s;
-}
-
