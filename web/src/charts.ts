@@ -251,7 +251,14 @@ export class LinearizedChart {
     const dim = under ? displayView(under) : null;
     this.shown = main;
     this.under = dim;
-    const ref = (main?.x.length ? main : dim) as DisplayView;
+    // The plot's axes follow the view with points: the sweep's own, else the one standing in.
+    // A sweep with no point on the mechanism's plot (every reading at compliance, at the floor or
+    // at zero bias) and nothing to stand in: no plot, the page says why beside it.
+    const ref = main?.x.length ? main : dim?.x.length ? dim : null;
+    if (!ref) {
+      this.clear();
+      return;
+    }
     const split = (v: DisplayView | null) => {
       const o = { inX: [] as number[], inY: [] as number[], outX: [] as number[], outY: [] as number[], rInX: [] as number[], rInY: [] as number[], rOutX: [] as number[], rOutY: [] as number[] };
       if (!v) return o;
@@ -376,6 +383,17 @@ export class LinearizedChart {
       this.resid?.setData(rdata as unknown as uPlot.AlignedData);
     }
     this.focus(main?.window ? main : dim?.window ? dim : main ?? dim);
+  }
+
+  /** Removes the plots (they are built again, with the next view's axes, by the next update). */
+  private clear(): void {
+    this.plot?.destroy();
+    this.resid?.destroy();
+    this.plot = null;
+    this.resid = null;
+    this.key = '';
+    this.el.textContent = '';
+    this.residEl.textContent = '';
   }
 
   private focus(view: DisplayView | null): void {
