@@ -44,17 +44,28 @@ describe('breakdown tests and adaptive sweeps on the page', () => {
     }
     await page.evaluate(() => (window as any).__plumbline.pickSweep(null));
     // The device is destroyed now: a sweep on it reads only its short (every reading at
-    // compliance), so its linearized view holds no point at all and there is no fit.
-    const after = await api(daemon.url, 'POST', '/api/run', { plan: { kind: 'linear', start: 0, stop: 2, points: 11, repeat: 2, compliance: 1e-3 } });
+    // compliance: 0.5 V over the broken film's 200 Ω is 2.5 mA), so its linearized view holds no
+    // point at all and there is no fit.
+    const after = await api(daemon.url, 'POST', '/api/run', { plan: { kind: 'linear', start: 0.5, stop: 2, points: 11, repeat: 2, compliance: 1e-3 } });
     expect(after.status).toBe(201);
     await page.waitForFunction((id) => (window as any).__plumbline.store.session === id && (window as any).__plumbline.store.runEnd !== null, after.json.session, { timeout: 30_000 });
     await page.waitForTimeout(300);
-    const empty = (await api(daemon.url, 'GET', `/api/sessions/${after.json.session}/sweeps/2/view`)).json.view;
-    expect(empty.x).toEqual([]);
-    expect(await page.textContent('#lin-error')).toMatch(/^Sweep 2: model 'fowler-nordheim' has 0 usable points/);
-    // No plot of an earlier sweep is left standing under this sweep's title.
+    // Following the latest sweep: the reason is said, and no plot of an earlier session stands
+    // under this sweep's title.
+    const fit2 = (await api(daemon.url, 'GET', `/api/sessions/${after.json.session}`)).json.events.find((e: any) => e.type === 'fit' && e.final && e.sweep === 2);
+    expect(fit2.fit).toBeNull();
+    expect(await page.textContent('#lin-error')).toBe(`Sweep 2: ${fit2.error}.`);
+    expect(await page.isVisible('#lin-error')).toBe(true);
     expect(await page.evaluate(() => (window as any).__plumbline.charts.lin.plot)).toBeNull();
-    expect(await page.textContent('#lin-title')).toMatch(/sweep 2/);
+    // Picked, each sweep's recorded view comes from the journal: a view without a single point.
+    for (const sweep of [1, 2]) {
+      await page.evaluate((n) => (window as any).__plumbline.pickSweep(n), sweep);
+      await page.waitForTimeout(150);
+      expect(await page.evaluate((n) => (window as any).__plumbline.store.views.get(n)?.x.length, sweep)).toBe(0);
+      expect(await page.textContent('#lin-error')).toMatch(new RegExp(`^Sweep ${sweep}: model 'fowler-nordheim' has 0 usable points`));
+      expect(await page.evaluate(() => (window as any).__plumbline.charts.lin.plot)).toBeNull();
+      expect(await page.textContent('#lin-title')).toMatch(new RegExp(`sweep ${sweep}$`));
+    }
     expect(errors).toEqual([]);
     await page.close();
   });

@@ -245,15 +245,15 @@ export class LinearizedChart {
   constructor(private readonly el: HTMLElement, private readonly residEl: HTMLElement, private readonly onWindow: (from: number, to: number) => void) {}
 
   update(view: PlotViewData | undefined, under: PlotViewData | null = null): void {
-    if (!view && !under) return;
     this.view = view ?? null;
     const main = view ? displayView(view) : null;
     const dim = under ? displayView(under) : null;
     this.shown = main;
     this.under = dim;
     // The plot's axes follow the view with points: the sweep's own, else the one standing in.
-    // A sweep with no point on the mechanism's plot (every reading at compliance, at the floor or
-    // at zero bias) and nothing to stand in: no plot, the page says why beside it.
+    // No view, or a sweep with no point on the mechanism's plot (every reading at compliance, at
+    // the floor or at zero bias), and nothing to stand in: no plot (never one of another sweep
+    // under this sweep's title); the page says why beside it.
     const ref = main?.x.length ? main : dim?.x.length ? dim : null;
     if (!ref) {
       this.clear();

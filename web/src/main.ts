@@ -198,17 +198,20 @@ function renderLinearized(s: Store, cur: number): void {
       }
     }
   }
-  if (changed('lin', s, main, under, lin.wholeCurve)) lin.update(main, under);
+  if (changed('lin', s, main, under, lin.wholeCurve, cur)) lin.update(main, under);
   $('lin-empty').hidden = Boolean(main || under);
   // The mechanism's title from any fit with this model (the view carries only the model id).
-  const model = (main ?? under)?.model;
+  const model = (main ?? under)?.model ?? (cur ? (s.fitAnalysis.get(cur) ?? s.analysis)?.model : undefined);
   const titled = [re?.fits.get(cur)?.fit, s.finalFits.get(cur), s.liveFit?.fit, ...[...s.finalFits.values()].reverse()].find((f) => f && f.model === model);
   const title = titled?.title ?? model;
   $('lin-title').textContent = title ? `Linearized: ${title}, sweep ${cur}${note}` : 'Linearized view';
   const err = $('lin-error');
-  const e = main?.error ?? (main && !main.line ? 'no fit line' : undefined);
+  // Why there is no line: the view's reason, or (no view: the daemon could not map a single reading
+  // onto the mechanism's plot) the fit's.
+  const e = main?.error ?? (main && !main.line ? 'no fit line' : undefined) ?? (!main && !s.isLive(cur) ? (re?.fits.get(cur)?.error ?? s.fitErrors.get(cur)) : undefined) ?? undefined;
   err.hidden = !e || (s.isLive(cur) && under !== null);
   err.textContent = e ? `Sweep ${cur}: ${e}.` : '';
+  if (e && !main && !under) $('lin-empty').hidden = true;
   $('lin-hint').textContent = s.readOnly
     ? 'Drag across the plot to set the fit window: the daemon re-analyses this sweep (the journal is not changed).'
     : 'Drag across the plot to set the fit window (shaded): the daemon re-fits.';
