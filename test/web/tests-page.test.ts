@@ -99,6 +99,13 @@ describe('breakdown tests and adaptive sweeps on the page', () => {
     expect(await page.evaluate(() => (window as any).__plumbline.store.running)).toBe(true);
     expect(await page.getAttribute('#cautions .caution:first-child', 'data-kind')).toBe('destructive test');
     const during = await page.textContent('#cautions .caution[data-kind="destructive test"]');
+    // The drift chart holds this session's sweeps only (the adaptive run before had three).
+    const drift = await page.evaluate(() => {
+      const p = (window as any).__plumbline;
+      return { drawn: p.charts.drift.drawnSweeps as number[], mine: p.store.drift.map((d: any) => d.sweep) as number[], plot: p.charts.drift.plot !== null };
+    });
+    expect(drift.drawn.filter((n) => !drift.mine.includes(n))).toEqual([]);
+    if (drift.mine.length === 0) expect(drift.plot).toBe(false);
     await snap(page, 'page-voltage-ramp-running.png');
     await page.waitForFunction(() => (window as any).__plumbline.store.runEnd !== null && (window as any).__plumbline.store.testResult !== null, undefined, { timeout: 60_000 });
     await page.waitForTimeout(300);

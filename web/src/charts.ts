@@ -529,7 +529,16 @@ export class DriftChart {
   constructor(private readonly el: HTMLElement) {}
 
   update(drift: Drift[], unitOf: (parameter: string) => string, restarts: readonly number[] = []): void {
-    if (drift.length === 0) return;
+    if (drift.length === 0) {
+      // A new session (or one without drift): no chart of another session's sweeps stays up.
+      this.plot?.destroy();
+      this.plot = null;
+      this.key = '';
+      this.breaks = [];
+      this.drawnSweeps = [];
+      this.el.textContent = '';
+      return;
+    }
     const segs = driftSegments(drift, restarts);
     const last = segs[segs.length - 1];
     const ref = last.points[0];
