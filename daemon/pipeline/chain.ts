@@ -50,6 +50,11 @@ export interface ChainOptions {
    * session, so the chain does not complete it); without it the chain has a stream of its own.
    */
   readonly events?: Subject<WireEvent>;
+  /**
+   * Whether anyone will draw the linearized views (computed per fit, not journaled): the station
+   * says whether a page server listens; by default, whether `views$` has a subscriber.
+   */
+  readonly viewsWanted?: () => boolean;
 }
 
 export function summarizeFit(r: FitReport): FitSummary {
@@ -321,7 +326,7 @@ export class LiveChain {
   }
 
   private publishView(sweep: number, final: boolean, v: number[], i: number[], c: number[]): void {
-    if (!this.views$.observed || atOneBias(v)) return;
+    if (!(this.options.viewsWanted ? this.options.viewsWanted() : this.views$.observed) || atOneBias(v)) return;
     try {
       const view = plotView(this.data(v, i, c), this.request(true));
       this.views$.next({ sweep, final, view });

@@ -138,7 +138,8 @@ export function checkPlan(limits: Limits, plan: Plan): void {
   }
 }
 
-const sleep = (s: number) => (s > 0 ? new Promise((r) => setTimeout(r, s * 1000)) : Promise.resolve());
+/** Waits s seconds of wall time. */
+export const wallClockWait = (s: number): Promise<void> => new Promise((r) => setTimeout(r, s * 1000));
 
 /** The only path from a run to the driver. */
 export class GuardedSource {
@@ -147,10 +148,12 @@ export class GuardedSource {
   private level = 0;
   private on = false;
   private inhibited = false;
-  /** Every level this guard let through, for tests and the journal. */
-  readonly passed: number[] = [];
-
-  constructor(readonly driver: SmuDriver, readonly limits: Limits) {}
+  /**
+   * `settle(s)` waits s seconds between ramp steps: wall time for a real instrument (the default);
+   * a simulated instrument that answers at once (--fast) lets the time pass on its own clock
+   * instead, so its ramps still step by rampStep with rampDelay between steps, at no cost.
+   */
+  constructor(readonly driver: SmuDriver, readonly limits: Limits, private readonly settle: (s: number) => Promise<void> = wallClockWait) {}
 
   get isOn(): boolean {
     return this.on;
@@ -214,7 +217,6 @@ export class GuardedSource {
     this.refuseIfInhibited('a source current');
     checkCurrentLevel(this.limits, i, this.voltageLimit);
     await this.driver.setCurrent(i);
-    this.passed.push(i);
     this.level = i;
   }
 
@@ -235,7 +237,6 @@ export class GuardedSource {
     this.refuseIfInhibited('a source level');
     checkLevel(this.limits, v, this.compliance);
     await this.driver.setVoltage(v);
-    this.passed.push(v);
     this.level = v;
   }
 
@@ -247,7 +248,7 @@ export class GuardedSource {
     const n = Math.ceil(Math.abs(v - from) / this.limits.rampStep);
     for (let k = 1; k <= n; k++) {
       await this.step(from + ((v - from) * k) / n);
-      if (k < n) await sleep(this.limits.rampDelay);
+      if (k < n && this.limits.rampDelay > 0) await this.settle(this.limits.rampDelay);
     }
   }
 
@@ -272,7 +273,6 @@ export class GuardedSource {
     this.refuseIfInhibited('an instrument-paced block');
     for (const v of levels) checkLevel(this.limits, v, this.compliance);
     const m = await this.driver.runBlock(levels, delay, expectedMs);
-    this.passed.push(...levels);
     this.level = levels[levels.length - 1];
     return m;
   }

@@ -72,7 +72,12 @@ export class Station {
   private analysis: AnalysisSettings;
   readonly recovered: RecoveryReport[];
 
-  constructor(readonly config: StationConfig, readonly dataDir: string) {
+  /**
+   * `simulatorRecords`: how many lines the built-in simulator keeps in its records (`log`,
+   * `received`, `applied`; tests read them). Few by default: they are kept long enough to age into
+   * the old generation, and a long run would carry them.
+   */
+  constructor(readonly config: StationConfig, readonly dataDir: string, private readonly options: { simulatorRecords?: number } = {}) {
     if (config.instrument.kind === 'simulator') {
       this.scenario = findScenario(config.instrument.scenario);
     }
@@ -177,6 +182,9 @@ export class Station {
       pointsPerSweep: o.pointsPerSweep,
       control: o.control ?? true,
       events: this.events$,
+      // Views only for a page server (it subscribes to the station's views): a headless run
+      // computes none.
+      viewsWanted: () => this.views$.observed,
     });
     this.recent.clear();
     this.views = new Map();
@@ -212,7 +220,7 @@ export class Station {
     let detail: string;
     if (ic.kind === 'simulator') {
       const scenario = this.scenario as Scenario;
-      this.sim ??= new SimulatedSmu({ device: scenario.device, seed: ic.seed, realTime: ic.realTime, faults: ic.faults });
+      this.sim ??= new SimulatedSmu({ device: scenario.device, seed: ic.seed, realTime: ic.realTime, faults: ic.faults, recordLimit: this.options.simulatorRecords ?? 1_000 });
       const [client, inst] = duplexPair();
       attachInstrument(this.sim, inst);
       stream = client;
@@ -316,7 +324,9 @@ export class Station {
         dialect: dialect.name,
         ...(device ? { device } : {}),
       });
-      const source = new GuardedSource(driver, this.config.limits);
+      // A simulator that answers at once (--fast) also lets the ramps' waits pass on its own clock.
+      const sim = this.config.instrument.kind === 'simulator' && !this.config.instrument.realTime ? this.sim : undefined;
+      const source = new GuardedSource(driver, this.config.limits, sim ? async (s) => sim.elapse(s) : undefined);
       const controller = new RunController(source, chain, plan, device, id);
       // A journal that cannot be written stops the run at once (even between readings).
       chain.options.journal.onError = (err) => controller.abort(err.message, 'journal-fault');

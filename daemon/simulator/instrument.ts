@@ -51,6 +51,11 @@ export interface SimOptions {
   readonly faults?: Faults;
   /** Really wait the integration time before answering READ? (default true). */
   readonly realTime?: boolean;
+  /**
+   * How many lines `log`, `received` and `applied` keep (the oldest half goes past this; default
+   * 200,000). A station's own simulator keeps fewer: a long run must not grow with its records.
+   */
+  readonly recordLimit?: number;
   readonly idn?: string;
 }
 
@@ -88,11 +93,13 @@ export class SimulatedSmu {
   currentLevel = 0;
   /** Voltage compliance in current mode, V. */
   voltageCompliance = 21;
-  /** When the device's wear was last brought up to date (performance.now, ms). */
+  /** Simulated time let pass at once (`elapse`), ms: added to the wall clock to give the instrument's. */
+  private skewMs = 0;
+  /** When the device's wear was last brought up to date (the instrument's clock, ms). */
   private wearAt = performance.now();
   /** Reply elements of a reading (:FORM:ELEM): voltage and current, optionally a status word. */
   elements: ('VOLT' | 'CURR' | 'TIME' | 'STAT')[] = ['VOLT', 'CURR'];
-  /** The instrument's clock: readings' TIME element is seconds since then (performance.now, ms). */
+  /** The instrument's clock: readings' TIME element is seconds since then (ms). */
   private readonly clockZero = performance.now();
   /** Source mode: a fixed level, or a list the instrument steps through itself after :INIT. */
   sourceMode: 'FIX' | 'LIST' = 'FIX';
@@ -106,7 +113,9 @@ export class SimulatedSmu {
   private hung = false;
   /** Every voltage actually applied to the device (for tests that check the wire). */
   readonly applied: number[] = [];
-  /** Every command line received, in order (bounded: the oldest half is dropped past 200,000). */
+  /** How many entries each record below keeps before its oldest half is dropped. */
+  readonly recordLimit: number;
+  /** Every command line received, in order (bounded: the oldest half is dropped past recordLimit). */
   readonly log: string[] = [];
   /**
    * Every line as it arrived at the instrument's end of the wire, with the time of arrival in ms
@@ -128,8 +137,22 @@ export class SimulatedSmu {
     this.normal = seededNormal(options.seed ?? 1);
     this.faults = options.faults ?? {};
     this.realTime = options.realTime ?? true;
+    this.recordLimit = options.recordLimit ?? 200_000;
     this.idn = options.idn ?? 'plumbline,simulated SMU,0,0.1';
     this.define();
+  }
+
+  /**
+   * Lets `seconds` of simulated time pass at once (a fast simulator's waits cost no wall time): the
+   * instrument's clock and the device's wear move on as if they had been waited.
+   */
+  elapse(seconds: number): void {
+    this.skewMs += seconds * 1000;
+  }
+
+  /** Simulated time let pass at once so far, s. */
+  get elapsedAtOnce(): number {
+    return this.skewMs / 1000;
   }
 
   /** Removes injected faults (a "repaired" instrument for reconnect tests). */
@@ -354,7 +377,7 @@ export class SimulatedSmu {
    * time while the output is on), then applies the change.
    */
   private wear(change: () => void = () => undefined): void {
-    const now = performance.now();
+    const now = performance.now() + this.skewMs;
     if (this.output && this.device.spec.wearout) this.device.age(this.deviceBias().v, (now - this.wearAt) / 1000);
     this.wearAt = now;
     change();
@@ -370,7 +393,7 @@ export class SimulatedSmu {
     if (this.sourceFunction === 'CURR') return this.measureForced();
     let v = this.level;
     this.applied.push(v);
-    if (this.applied.length > 200000) this.applied.splice(0, 100000);
+    if (this.applied.length > this.recordLimit) this.applied.splice(0, this.recordLimit >> 1);
     let i = this.device.current(v);
     this.tripped = Math.abs(i) >= this.compliance;
     if (this.tripped) {
@@ -403,7 +426,7 @@ export class SimulatedSmu {
   private measureForced(): string {
     const { v, atLimit } = this.deviceBias();
     this.applied.push(v);
-    if (this.applied.length > 200000) this.applied.splice(0, 100000);
+    if (this.applied.length > this.recordLimit) this.applied.splice(0, this.recordLimit >> 1);
     this.tripped = atLimit;
     const i = atLimit ? this.device.current(v) : this.currentLevel;
     this.device.stress(v);
@@ -447,7 +470,7 @@ export class SimulatedSmu {
   async handleLine(line: string): Promise<string | undefined> {
     if (this.hung) return undefined;
     this.log.push(line);
-    if (this.log.length > 200000) this.log.splice(0, 100000);
+    if (this.log.length > this.recordLimit) this.log.splice(0, this.recordLimit >> 1);
     const out: string[] = [];
     let path: string[] = [];
     for (const rawUnit of line.split(';')) {

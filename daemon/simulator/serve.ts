@@ -28,7 +28,7 @@ export function attachInstrument(smu: SimulatedSmu, stream: Duplex, framing: Lin
   stream.pipe(framer);
   framer.on('data', (line: string) => {
     smu.received.push({ line, at: performance.timeOrigin + performance.now(), repliesSent: smu.repliesSent });
-    if (smu.received.length > 200000) smu.received.splice(0, 100000);
+    if (smu.received.length > smu.recordLimit) smu.received.splice(0, smu.recordLimit >> 1);
     chain = chain.then(async () => {
       // Yield to the event loop once per command, as a real link does: a controller on an in-process
       // pair would otherwise run on microtasks alone and starve its own timers and sockets.

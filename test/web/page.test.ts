@@ -270,9 +270,10 @@ describe('live page in headless Chromium', () => {
     const fn = await api(daemon.url, 'PUT', '/api/analysis', { model: 'fowler-nordheim', window: { from: 5, to: 9 }, inputs: { thickness: 7e-9, area: 1e-8, massRatio: 0.42 } });
     expect(fn.status).toBe(200);
     const { page, errors } = await openPage(browser, daemon.url);
-    // Long sweeps, so the change lands in the middle of the run.
+    // Long sweeps and many of them, so the change lands in the middle of the run (a fast simulator
+    // goes through a sweep in milliseconds; the run is aborted at the end of the test).
     const before = await page.evaluate(() => (window as any).__plumbline.store.session);
-    await startFromPage(page, { start: '0', stop: '9', points: '100', repeat: '60', compliance: '0.001' });
+    await startFromPage(page, { start: '0', stop: '9', points: '100', repeat: '2000', compliance: '0.001' });
     // Two sweeps of the new run on the first baseline (the page holds the previous session until the new one starts).
     await page.waitForFunction((old) => {
       const s = (window as any).__plumbline.store;
