@@ -17,7 +17,9 @@ describe('breakdown tests and adaptive sweeps on the page', () => {
   let daemon: DaemonProcess;
   beforeAll(async () => {
     browser = await launch();
-    daemon = await startDaemon(['--scenario', 'oxide-wearout', '--fast', '--no-autostart', '--data', join(tempDir(), 'data')]);
+    // Real time, not --fast: a fast simulator lets a ramp's step times pass at once, and the test
+    // must see the page while a breakdown test is still running.
+    daemon = await startDaemon(['--scenario', 'oxide-wearout', '--no-autostart', '--data', join(tempDir(), 'data')]);
   });
   afterAll(async () => {
     await browser?.close();
