@@ -134,7 +134,7 @@ export function loadDialect(nameOrFile: string): Dialect {
   } catch (e) {
     const err = e as NodeJS.ErrnoException;
     throw new DialectError(err.code === 'ENOENT'
-      ? `dialect '${nameOrFile}': no file ${file} (the shipped dialects are in ${DIALECT_DIR}; a dialect of your own is given by its .json path)`
+      ? `dialect '${nameOrFile}': no file ${file} (the shipped dialects are in ${DIALECT_DIR}; a dialect of your own is given by its .json path; see the README, "Connecting a real instrument")`
       : `dialect ${file}: cannot read: ${err.message}`);
   }
   let raw: unknown;
@@ -146,7 +146,7 @@ export function loadDialect(nameOrFile: string): Dialect {
   const r = dialectSchema.safeParse(raw);
   if (!r.success) {
     const i = r.error.issues[0];
-    throw new DialectError(`dialect ${file}: field '${i.path.join('.') || '(root)'}': ${i.message}`);
+    throw new DialectError(`dialect ${file}: field '${i.path.join('.') || '(root)'}': ${i.message} (the fields are described in the README, "Connecting a real instrument")`);
   }
   return r.data;
 }

@@ -14,6 +14,8 @@
  *  - when the range is covered (the end of the range, or the current limit) before the target is
  *    met, a return leg comes back down through the regime in fine steps between the upward leg's
  *    levels (a dual sweep, as is common practice), until the target is met or the onset is reached;
+ *  - no step is longer than the one the last two readings' secant (of ln|I| against V) says reaches
+ *    the current limit, so the limit is approached, not jumped past;
  *  - compliance or the point budget end the sweep at once; every stop says why;
  *  - later sweeps of the same run start just below the bias where the earlier one left the floor
  *    (they skip what is known to be floor), with the same fine step.
@@ -105,7 +107,15 @@ export class AdaptiveSweep {
     // sweeps start at the regime already.
     const inRegime = this.onset !== undefined || this.prior !== undefined;
     const m = this.onset !== undefined ? this.regimePoints - 1 : this.v.length - 1;
-    const step = inRegime ? Math.min(this.coarse, this.fine * GROWTH ** Math.max(0, m)) : this.coarse;
+    let step = inRegime ? Math.min(this.coarse, this.fine * GROWTH ** Math.max(0, m)) : this.coarse;
+    // No step is to carry the current far past the limit: ln|I| is extrapolated along the secant of
+    // the last two readings. Every mechanism of a film or junction bends over (its ln|I| slope falls
+    // as the bias rises), so the secant overestimates the next current and the step errs short.
+    const room = this.roomToLimit(v, a);
+    if (room < step) {
+      if (room < 0.25 * this.fine) return this.startFill(v, 'current-limit');
+      step = room;
+    }
     const next = v + this.dir * step;
     const beyond = this.dir > 0 ? next > s.stop + 1e-12 : next < s.stop - 1e-12;
     if (beyond) {
@@ -113,6 +123,17 @@ export class AdaptiveSweep {
       return atEnd ? this.startFill(v, 'bias-limit') : { next: s.stop };
     }
     return { next };
+  }
+
+  /** Bias left before the secant of the last two readings reaches the current limit, V (Infinity when it does not rise). */
+  private roomToLimit(v: number, a: number): number {
+    const k = this.v.length - 1;
+    if (k < 1) return Infinity;
+    const a0 = Math.abs(this.i[k - 1]);
+    const dv = Math.abs(v - this.v[k - 1]);
+    if (!(a0 > 0) || !(a > a0) || !(dv > 0)) return Infinity;
+    const slope = Math.log(a / a0) / dv;
+    return Math.log(this.settings.currentLimit / a) / slope;
   }
 
   /**

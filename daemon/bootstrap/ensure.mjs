@@ -88,6 +88,7 @@ if (wantSystem) {
 }
 
 // 3. compile (incremental, so a second run costs little)
+console.error('plumbline setup: compiling the daemon and the page (a few seconds the first time) ...');
 run(process.execPath, [join(root, 'node_modules', 'typescript', 'bin', 'tsc'), '-p', 'tsconfig.json']);
 // 4. the page (web/ → dist/web)
 run(process.execPath, [join(root, 'web', 'build.mjs')]);

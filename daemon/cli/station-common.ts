@@ -169,6 +169,7 @@ export function describe(e: WireEvent): string | undefined {
         r.timeToBreakdown !== undefined ? `t = ${r.timeToBreakdown.toPrecision(3)} s` : '',
         r.leakageBefore !== undefined ? `leakage before ${r.leakageBefore.toPrecision(3)} A` : '',
         r.leakageAfter !== undefined ? `after ${r.leakageAfter.toPrecision(3)} A` : '',
+        e.numbers?.rampRate !== undefined ? `ramp ${e.numbers.rampRate.toPrecision(3)} V/s (planned ${(e.numbers.plannedRampRate ?? Number.NaN).toPrecision(3)} V/s)` : '',
       ].filter(Boolean);
       return `${e.test}: ${e.outcome} — ${e.reason}${parts.length ? `\n         ${parts.join(', ')}` : ''}`;
     }

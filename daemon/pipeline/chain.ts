@@ -277,8 +277,9 @@ export class LiveChain {
     const done = (this.sweep - 1) * per + this.k;
     const total = sweeps * per;
     const elapsed = (now - this.t0) / 1000;
-    const eta = total > 0 && done > 0 ? (elapsed / done) * (total - done) : null;
-    this.emit({ type: 'progress', sweep: this.sweep, sweeps, point: this.k, points: per, eta });
+    // An estimate only while the plan's shape holds (a test's sweeps differ in length; a stress ends early).
+    const eta = total > 0 && done > 0 && done <= total ? (elapsed / done) * (total - done) : null;
+    this.emit({ type: 'progress', sweep: this.sweep, sweeps: Math.max(sweeps, this.sweep), point: this.k, points: Math.max(per, this.k), eta });
   }
 
   /** A sweep's readings as analysis data (compliance and breakdown from the flag bits). */
@@ -426,6 +427,9 @@ export class LiveChain {
     this.mech = mech;
     this.inputs = inputs;
     this.area = mech.usesArea && inputs.area !== undefined ? inputs.area : 1;
+    // The breakdown watch's trend lives on the mechanism's plot: in another plot it starts again.
+    this.breakdown?.resetTrend();
+    this.trendSign = 0;
     this.emit({ type: 'settings', analysis: a, source });
     const last = this.lastFinal;
     if (last) {

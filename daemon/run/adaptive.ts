@@ -8,7 +8,7 @@
  */
 import { AdaptiveSweep, STOP_MEANING, type SweepKnowledge } from '../analysis/adaptive-sweep.js';
 import type { RunOutcome } from '../../protocols/wire.js';
-import type { AdaptivePlan } from './plan.js';
+import { PlanError, type AdaptivePlan } from './plan.js';
 import type { RunContext } from './stress.js';
 
 export interface AdaptiveSweepFigures {
@@ -58,6 +58,10 @@ export async function runAdaptive(ctx: RunContext, plan: AdaptivePlan, figures: 
       const step = planner.add(v, r && Number.isFinite(r.i) ? r.i : 0, m.compliance);
       if (planner.inRegime && planner.regimePoints >= MIN_REGIME_POINTS) {
         const f = ctx.chain.fitSoFar().fit;
+        if (f && Object.keys(f.parameters).length > 0 && !(plan.target.parameter in f.parameters)) {
+          // A misspelt or foreign target would otherwise run every sweep to its point budget.
+          throw new PlanError(`plan: field 'target.parameter': '${plan.target.parameter}' is not a parameter of the ${f.model} fit (it gives ${Object.keys(f.parameters).join(', ')}); the run was stopped`);
+        }
         const p = f?.parameters[plan.target.parameter];
         if (f && p && Number.isFinite(p.stdErr)) {
           parameter = { name: plan.target.parameter, value: p.value, stdErr: p.stdErr, unit: p.unit };

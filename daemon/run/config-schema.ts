@@ -17,14 +17,19 @@ export const STATION_SCHEMA_FILE = join(projectRoot(), 'config', 'station.schema
 
 const json = (s: z.ZodType) => z.toJSONSchema(s, { unrepresentable: 'any', io: 'input', target: 'draft-2020-12' }) as Record<string, unknown>;
 
-export function stationJsonSchema(): Record<string, unknown> {
-  const doc = json(stationSchema);
-  const props = doc.properties as Record<string, unknown>;
+/** Any plan kind, as JSON Schema (the station config's default plan and the run request's plan). */
+export function planJsonSchema(description: string): Record<string, unknown> {
   const plans = [sweepPlanSchema, adaptivePlanSchema, voltageRampPlanSchema, currentRampPlanSchema, constantStressPlanSchema].map((p) => {
     const { $schema: _drop, ...rest } = json(p);
     return rest;
   });
-  props.plan = { description: 'The default plan: a sweep (linear, log, list), an adaptive sweep, or a breakdown test (voltage-ramp, current-ramp, constant-voltage).', anyOf: plans };
+  return { description, anyOf: plans };
+}
+
+export function stationJsonSchema(): Record<string, unknown> {
+  const doc = json(stationSchema);
+  const props = doc.properties as Record<string, unknown>;
+  props.plan = planJsonSchema('The default plan: a sweep (linear, log, list), an adaptive sweep, or a breakdown test (voltage-ramp, current-ramp, constant-voltage).');
   return { ...doc, title: 'plumbline station config', $id: 'https://plumbline.invalid/station.schema.json' };
 }
 

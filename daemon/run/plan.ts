@@ -83,6 +83,23 @@ const rampCriteria = z.object({
   floor: z.number().positive().finite().default(1e-10),
 }).strict();
 
+/**
+ * A ramp or an adaptive sweep climbs away from zero: a stop nearer zero than the start, or across
+ * it, would sweep a device down from a high field (or through both polarities) in a test built for
+ * rising stress. Refused, naming the field.
+ */
+function outward(p: { start: number; stop: number }, ctx: z.RefinementCtx): void {
+  if (p.start === p.stop) ctx.addIssue({ code: 'custom', path: ['stop'], message: 'must differ from start' });
+  else if (p.start * p.stop < 0 || Math.abs(p.stop) < Math.abs(p.start)) {
+    ctx.addIssue({ code: 'custom', path: ['stop'], message: `${p.stop} V is nearer zero than start ${p.start} V or of the other sign: this plan climbs from start away from zero (sweep each polarity as its own plan)` });
+  }
+}
+
+/** A current limit of a plan must sit below the instrument's compliance, or the compliance fires first. */
+function belowCompliance(limit: number | undefined, compliance: number, path: (string | number)[], ctx: z.RefinementCtx): void {
+  if (limit !== undefined && limit > compliance) ctx.addIssue({ code: 'custom', path, message: `${limit} A is above the compliance ${compliance} A: the instrument would clamp the current first; set it at or below the compliance` });
+}
+
 export const adaptivePlanSchema = z.object({
   kind: z.literal('adaptive'),
   /** First and last bias of the range the sweep may cover, V. */
@@ -101,7 +118,8 @@ export const adaptivePlanSchema = z.object({
   nplc: z.number().min(0.001).max(100).optional(),
   overrideDiskCheck: z.boolean().default(false),
 }).strict().superRefine((p, ctx) => {
-  if (p.start === p.stop) ctx.addIssue({ code: 'custom', path: ['stop'], message: 'must differ from start' });
+  outward(p, ctx);
+  belowCompliance(p.currentLimit, p.compliance, ['currentLimit'], ctx);
 });
 
 export const voltageRampPlanSchema = z.object({
@@ -121,7 +139,9 @@ export const voltageRampPlanSchema = z.object({
   criteria: rampCriteria.default(rampCriteria.parse({})),
   overrideDiskCheck: z.boolean().default(false),
 }).strict().superRefine((p, ctx) => {
-  if (p.start === p.stop) ctx.addIssue({ code: 'custom', path: ['stop'], message: 'must differ from start' });
+  outward(p, ctx);
+  belowCompliance(p.criteria.currentLimit, p.compliance, ['criteria', 'currentLimit'], ctx);
+  if (p.criteria.floor >= p.compliance) ctx.addIssue({ code: 'custom', path: ['criteria', 'floor'], message: `${p.criteria.floor} A is not below the compliance ${p.compliance} A: no reading could be judged` });
   if (Math.abs(p.stop - p.start) / p.step > 1e6) ctx.addIssue({ code: 'custom', path: ['step'], message: 'makes more than a million steps' });
 });
 
@@ -172,7 +192,11 @@ export const constantStressPlanSchema = z.object({
     floor: z.number().positive().finite().default(1e-10),
   }).strict().default({ currentJump: 10, floor: 1e-10 }),
   overrideDiskCheck: z.boolean().default(false),
-}).strict();
+}).strict().superRefine((p, ctx) => {
+  belowCompliance(p.criteria.currentLimit, p.compliance, ['criteria', 'currentLimit'], ctx);
+  if (p.criteria.floor >= p.compliance) ctx.addIssue({ code: 'custom', path: ['criteria', 'floor'], message: `${p.criteria.floor} A is not below the compliance ${p.compliance} A: no reading could be judged` });
+  if (p.sense && p.sense.every < p.sampleEvery) ctx.addIssue({ code: 'custom', path: ['sense', 'every'], message: `${p.sense.every} s is shorter than sampleEvery ${p.sampleEvery} s: sense sweeps are checked between stress readings` });
+});
 
 export type AdaptivePlan = z.infer<typeof adaptivePlanSchema>;
 export type VoltageRampPlan = z.infer<typeof voltageRampPlanSchema>;
@@ -225,14 +249,23 @@ export function planShape(p: Plan): { sweeps: number; pointsPerSweep: number } {
     case 'adaptive':
       return { sweeps: p.repeat, pointsPerSweep: p.maxPoints };
     case 'voltage-ramp':
-      return { sweeps: 1, pointsPerSweep: Math.floor(Math.abs(p.stop - p.start) / p.step) + 1 };
+      return { sweeps: 1 + useChecks(p), pointsPerSweep: Math.floor(Math.abs(p.stop - p.start) / p.step) + 2 };
     case 'current-ramp':
-      return { sweeps: 1, pointsPerSweep: Math.ceil(Math.log10(Math.abs(p.stop / p.start)) * p.stepsPerDecade) + 1 };
-    case 'constant-voltage':
-      return { sweeps: 1 + (p.sense ? Math.floor(p.duration / p.sense.every) + 1 : 0), pointsPerSweep: Math.ceil(p.duration / p.sampleEvery) + 1 };
+      return { sweeps: 1 + useChecks(p), pointsPerSweep: Math.ceil(Math.log10(Math.abs(p.stop / p.start)) * p.stepsPerDecade) + 1 };
+    case 'constant-voltage': {
+      // A sense sweep at each multiple of sense.every short of the duration, and a stress segment
+      // before each and after the last.
+      const senses = p.sense ? Math.max(0, Math.ceil(p.duration / p.sense.every) - 1) : 0;
+      return { sweeps: 2 * senses + 1 + useChecks(p), pointsPerSweep: Math.max(Math.ceil(p.duration / p.sampleEvery) + 1, p.sense?.points ?? 0) };
+    }
     default:
       return { sweeps: p.repeat, pointsPerSweep: sweepValues(p).length };
   }
+}
+
+/** The one-reading sweeps of a test's use-condition check, before and after. */
+function useChecks(p: { useVoltage?: number }): number {
+  return p.useVoltage !== undefined ? 2 : 0;
 }
 
 /** The current compliance a plan runs under, A (a current ramp has a voltage limit instead: undefined). */
@@ -314,5 +347,5 @@ export function checkPlanSize(p: Plan, dataDir: string): void {
   const { sweeps, pointsPerSweep } = planShape(p);
   const gib = (b: number) => (b >= 1e9 ? `${(b / 1e9).toPrecision(3)} GB` : `${(b / 1e6).toPrecision(3)} MB`);
   const field = p.kind === 'constant-voltage' ? 'duration' : p.kind === 'voltage-ramp' ? 'step' : p.kind === 'current-ramp' ? 'stepsPerDecade' : 'repeat';
-  throw new PlanError(`plan: field '${field}': ${sweeps} sweep(s) × ${pointsPerSweep} points would write about ${gib(need)} of journal, more than the ${gib(free)} free under ${dataDir}; shorten the plan, free space, or set "overrideDiskCheck": true`);
+  throw new PlanError(`plan: field '${field}': ${sweeps} sweep(s) × ${pointsPerSweep} points would write about ${gib(need)} of journal, more than the ${gib(free)} free under ${dataDir}; shorten the plan, free space, or set "overrideDiskCheck": true in the plan ('plumbline run --override-disk-check')`);
 }

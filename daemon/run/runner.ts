@@ -16,7 +16,7 @@ import type { Decision, LiveChain } from '../pipeline/chain.js';
 import { GuardError, type GuardedSource } from './guard.js';
 import type { DeviceIdentity, DeviceResult } from '../../protocols/device-results.js';
 import { runAdaptive, type AdaptiveSweepFigures } from './adaptive.js';
-import { isStressPlan, sweepValues, type AdaptivePlan, type Plan, type StressPlan, type SweepPlan } from './plan.js';
+import { isStressPlan, PlanError, sweepValues, type AdaptivePlan, type Plan, type StressPlan, type SweepPlan } from './plan.js';
 import { StressTest, writeDeviceResults, type RunContext } from './stress.js';
 
 export interface RunResult {
@@ -377,6 +377,7 @@ export class RunController {
   private classify(e: Error): { outcome: RunOutcome; reason: string } {
     if (e instanceof JournalWriteError) return { outcome: 'journal-fault', reason: `${e.message}; readings journaled before the failure are on disk` };
     if (e instanceof GuardError) return { outcome: 'guard-refused', reason: e.message };
+    if (e instanceof PlanError) return { outcome: 'guard-refused', reason: e.message };
     if (e instanceof ScpiReplyError) return { outcome: 'instrument-fault', reason: `out of step: ${e.message}` };
     if (e instanceof ScpiTimeoutError || e instanceof ScpiDisconnectError || e instanceof ScpiInstrumentError || e instanceof FencedError) {
       return { outcome: 'instrument-fault', reason: e.message };

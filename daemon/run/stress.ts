@@ -60,6 +60,40 @@ const TEST_OF: Record<StressPlan['kind'], string> = {
 const g = (x: number) => x.toPrecision(4);
 
 /**
+ * Keeps a ramp's steps `stepTime` apart, set to set: the hold after a level is set is the step time
+ * less the time the last reading took (the device sits at the level while it is read) and less the
+ * set's own lateness, so a reading that takes 20 ms does not turn a 50 ms step into 70 ms and the
+ * ramp rate into 70 % of the plan.
+ */
+export class StepPacer {
+  /** When the current level was due to be set, s. */
+  private due: number | undefined;
+  private readTime = 0;
+
+  constructor(private readonly stepTime: number) {}
+
+  /**
+   * Seconds to wait after a level was set at `tSet` (s) before reading it. Levels are due every
+   * stepTime; a set that came late by a command's round trip is made up from the hold, one that
+   * came more than a whole step late (a stall) restarts the schedule rather than rush the next steps.
+   */
+  holdAfterSet(tSet: number): number {
+    if (this.due === undefined || tSet - this.due > this.stepTime) this.due = tSet;
+    const hold = Math.max(0, this.due + this.stepTime - this.readTime - tSet);
+    this.due += this.stepTime;
+    return hold;
+  }
+
+  /** Runs a reading and notes how long it took. */
+  async measure<T>(read: () => Promise<T>, now: () => number): Promise<T> {
+    const t0 = now();
+    const m = await read();
+    this.readTime = Math.max(0, now() - t0);
+    return m;
+  }
+}
+
+/**
  * One reading series of a test: the time each reading was taken (s since the session started),
  * the time its level was set, the measured bias (V) and current (A), and the programmed level.
  *
@@ -178,6 +212,7 @@ export class StressTest {
       // highest voltage the device held before the collapse.
       const vbd = p.kind === 'current-ramp' ? Math.max(...series.v.slice(0, Math.max(1, k)).map(Math.abs)) : Math.abs(series.set[k]);
       return this.finish('breakdown', verdict.criterion, `breakdown (${verdict.criterion}): ${verdict.reason}`, {
+        ...this.achievedRate(series),
         voltage: vbd,
         field: thickness ? vbd / thickness : undefined,
         charge: area ? q / area : undefined,
@@ -185,7 +220,7 @@ export class StressTest {
         time: hold.slice(0, k + 1).reduce((a, b) => a + b, 0),
         // The breakdown moment is known only to lie between the last intact reading and the one
         // that showed it: half that interval's charge is the estimate's own uncertainty.
-        numbers: { ...verdict.numbers, ...(area && k > 0 ? { chargeUncertainty: (0.5 * Math.abs(series.i[k - 1]) * (series.t[k] - series.t[k - 1]) + series.edgeUncertainty) / area } : {}) },
+        numbers: { ...verdict.numbers, ...this.achievedRate(series).numbers, ...(area && k > 0 ? { chargeUncertainty: (0.5 * Math.abs(series.i[k - 1]) * (series.t[k] - series.t[k - 1]) + series.edgeUncertainty) / area } : {}) },
       });
     }
     // The end of the ramp or of the stress time without breakdown: the device survived (censored).
@@ -198,7 +233,21 @@ export class StressTest {
       field: thickness ? vmax / thickness : undefined,
       charge: area ? q / area : undefined,
       time: last >= 0 ? holds.reduce((a, b) => a + b, 0) : undefined,
+      ...this.achievedRate(series),
     });
+  }
+
+  /**
+   * The ramp rate the instrument actually saw (a voltage ramp: V/s between the first and the last
+   * level set; a current ramp: steps per second), for the journal beside the planned one.
+   */
+  private achievedRate(series: Series): { numbers?: Record<string, number> } {
+    const p = this.plan;
+    const n = series.tSet.length;
+    if (p.kind === 'constant-voltage' || n < 2) return {};
+    const period = (series.tSet[n - 1] - series.tSet[0]) / (n - 1);
+    if (!(period > 0)) return {};
+    return { numbers: { stepPeriod: period, plannedStepPeriod: p.stepTime, ...(p.kind === 'voltage-ramp' ? { rampRate: p.step / period, plannedRampRate: p.step / p.stepTime } : {}) } };
   }
 
   /** One reading at the use voltage (voltage sourcing at the plan's compliance); output off after. */
@@ -209,6 +258,7 @@ export class StressTest {
     await src.configure(useCheckCompliance(this.limits, p), p.nplc);
     this.ctx.check();
     await src.outputOn();
+    this.ctx.record({ type: 'output', on: true, sent: true, queried: true, confirmed: true, reason: `${label} (the instrument reports its output on)` });
     this.startSweep(1, label);
     await src.rampTo(v);
     await this.ctx.sleep(0.01);
@@ -217,7 +267,8 @@ export class StressTest {
     this.ctx.take(m, v);
     this.ctx.chain.endSweep(true);
     await src.rampTo(0);
-    await src.outputOff();
+    const sent = await src.outputOff();
+    this.ctx.record({ type: 'output', on: false, sent, confirmed: false, reason: `${label} done` });
     return m.reading?.i ?? Number.NaN;
   }
 
@@ -236,20 +287,22 @@ export class StressTest {
     this.ctx.record({ type: 'output', on: true, sent: true, queried: true, confirmed: true, reason: 'voltage ramp started (the instrument reports its output on)' });
     const dir = Math.sign(p.stop - p.start);
     const steps = Math.floor(Math.abs(p.stop - p.start) / p.step + 1e-9);
-    const levels = Array.from({ length: steps + 1 }, (_, k) => p.start + dir * k * p.step);
+    // Rounded to 12 significant digits: 9.6 V goes to the instrument as 9.6, not 9.600000000000001.
+    const levels = Array.from({ length: steps + 1 }, (_, k) => Number((p.start + dir * k * p.step).toPrecision(12)));
     if (Math.abs(levels[levels.length - 1] - p.stop) > 1e-9) levels.push(p.stop);
     if (Math.abs(levels[0]) > p.step) await src.rampTo(levels[0]);
     const judge = new VoltageRampJudge(p.criteria, p.compliance);
     this.startSweep(levels.length, `voltage ramp ${p.start} → ${p.stop} V at ${g(p.step / p.stepTime)} V/s`);
     const tStart = this.now();
     const series = new Series(tStart, true);
+    const pace = new StepPacer(p.stepTime);
     for (const v of levels) {
       this.ctx.check();
       await src.step(v);
       const tSet = this.now();
-      await this.ctx.sleep(p.stepTime);
+      await this.ctx.sleep(pace.holdAfterSet(tSet));
       this.ctx.check();
-      const m = await src.measure();
+      const m = await pace.measure(() => src.measure(), () => this.now());
       if (!m.reading) {
         this.ctx.take(m, v);
         continue;
@@ -284,14 +337,15 @@ export class StressTest {
     this.startSweep(levels.length, `current ramp ${p.start} → ${p.stop} A, ${p.stepsPerDecade} steps per decade`);
     const tStart = this.now();
     const series = new Series(tStart, true);
+    const pace = new StepPacer(p.stepTime);
     let limited = false;
     for (const i of levels) {
       this.ctx.check();
       await src.stepCurrent(i);
       const tSet = this.now();
-      await this.ctx.sleep(p.stepTime);
+      await this.ctx.sleep(pace.holdAfterSet(tSet));
       this.ctx.check();
-      const m = await src.measure();
+      const m = await pace.measure(() => src.measure(), () => this.now());
       if (!m.reading) {
         this.ctx.take(m, i);
         continue;

@@ -9,6 +9,7 @@
 import { z } from 'zod';
 import { MAX_REANALYSIS_SWEEPS } from '../journal/reanalysis.js';
 import { analysisSchema } from '../pipeline/settings.js';
+import { planJsonSchema } from '../run/config-schema.js';
 
 // ---- request bodies -------------------------------------------------------------------------
 
@@ -21,7 +22,8 @@ export const annotationBody = z.object({
 }).strict();
 
 export const runBody = z.object({
-  plan: z.unknown().optional().describe('A plan: a sweep (linear, log, list), an adaptive sweep, or a breakdown test (voltage-ramp, current-ramp, constant-voltage); default: the station\'s plan. The station config\'s JSON Schema (config/station.schema.json) describes every kind.'),
+  // Checked by the station's own plan parser (its errors name the field); described below by the plan schemas.
+  plan: z.unknown().optional(),
   analysis: z.unknown().optional().describe('Analysis settings for the live fit: {model, window, inputs}.'),
   label: z.string().max(40).optional().describe('Part of the session id.'),
   device: z.unknown().optional().describe('The device under test: {device, wafer, site, x, y, area, thickness, temperature, tags} (SI).'),
@@ -129,6 +131,15 @@ export const ROUTES: readonly RouteSpec[] = [
   { method: 'get', path: '/lot', summary: 'The lot report as a page.', query: { map: 'Parameter for the wafer map.', quantity: 'Quantity for the Weibull analysis.' }, responses: { 200: { description: 'HTML.', html: true } } },
 ];
 
+/** A request body's schema; a run request's plan is described by every plan kind's own schema. */
+function bodySchema(body: z.ZodType): Record<string, unknown> {
+  const doc = jsonSchema(body) as { properties?: Record<string, unknown> };
+  if (body === runBody && doc.properties) {
+    doc.properties.plan = planJsonSchema('A plan: a sweep (linear, log, list), an adaptive sweep, or a breakdown test (voltage-ramp, current-ramp, constant-voltage); default: the station\'s plan.');
+  }
+  return doc as Record<string, unknown>;
+}
+
 const jsonSchema = (s: z.ZodType) => {
   const { $schema: _drop, ...rest } = z.toJSONSchema(s, { unrepresentable: 'any', io: 'output', target: 'draft-2020-12' }) as Record<string, unknown>;
   return rest;
@@ -153,7 +164,7 @@ export function openApiDocument(version: string): Record<string, unknown> {
     (paths[p] ??= {})[r.method] = {
       summary: r.summary,
       ...(params.length ? { parameters: params } : {}),
-      ...(r.body ? { requestBody: { required: false, content: { 'application/json': { schema: jsonSchema(r.body) } } } } : {}),
+      ...(r.body ? { requestBody: { required: false, content: { 'application/json': { schema: bodySchema(r.body) } } } } : {}),
       ...(r.control ? { security: [{}, { token: [] }] } : {}),
       responses,
     };

@@ -11,6 +11,7 @@ import { describe, expect, it } from 'vitest';
 import { chargeToBreakdown, CurrentRampJudge, heldCharge, staircaseChargeToBreakdown, StressJudge, VoltageRampJudge } from '../../daemon/analysis/breakdown-tests.js';
 import { chargeScaleAt, unitWeibull } from '../../daemon/analysis/wearout.js';
 import { AdaptiveSweep } from '../../daemon/analysis/adaptive-sweep.js';
+import { fowlerNordheim } from '../../daemon/analysis/mechanisms/fowler-nordheim.js';
 
 const CRITERIA = { currentJump: 10, slopeFactor: 3, slopeWindow: 5, floor: 1e-10 };
 
@@ -138,6 +139,31 @@ describe('adaptive sweep plan', () => {
     expect(q.first()).toBeCloseTo(1.6, 12);
     const s = q.add(1.6, 1e-12, false);
     expect('next' in s && s.next).toBeCloseTo(1.8, 12);
+  });
+
+  it('a step never jumps far past the current limit: on a Fowler–Nordheim film the highest reading stays within 2× of it', () => {
+    // J = A E²/φ · exp(−B φ^1.5/E) (Fowler & Nordheim 1928; constants as in Lenzlinger & Snow 1969):
+    // a 7 nm film with φ = 3.1 eV rises by about a decade per 0.5 V near 1 µA, so a coarse step of a
+    // twelfth of 0–14 V (1.17 V) taken blindly would land two decades or more past the limit.
+    const d = 7e-9;
+    const area = 1e-8;
+    const current = (V: number) => (V <= 0 ? 0 : area * fowlerNordheim(V / d, 3.1, 0.42)) + 1e-13;
+    // (A limit within four decades of the floor can still be passed by the one blind coarse step
+    // that leaves the floor — 2.1× at 1e-9 A here — as nothing about the slope is known before it.)
+    for (const limit of [1e-7, 1e-6, 1e-4]) {
+      const p = new AdaptiveSweep({ start: 0, stop: 14, maxPoints: 200, currentLimit: limit, absoluteFloor: 1e-13 });
+      let v = p.first();
+      let top = 0;
+      for (let k = 0; k < 200; k++) {
+        const i = current(v);
+        top = Math.max(top, i);
+        const r = p.add(v, i, false);
+        if ('stop' in r) break;
+        v = r.next;
+      }
+      expect(top, `limit ${limit} A`).toBeLessThanOrEqual(2 * limit);
+      expect(top, `limit ${limit} A: the sweep still climbs to it`).toBeGreaterThanOrEqual(0.1 * limit);
+    }
   });
 
   it('the end of the range and the point budget stop a sweep', () => {

@@ -115,6 +115,14 @@ describe('voltage ramp to breakdown', () => {
     expect(Math.max(...ramp) - truth!.voltage).toBeLessThanOrEqual(plan.step + 1e-9);
     const ev = events(res.dir);
     expect(ev.some((e) => e.type === 'caution' && e.kind === 'destructive-test')).toBe(true);
+    // A script reading `run --json` sees the same cautions as a person at the terminal.
+    expect(res.cautions.map((c: { kind: string }) => c.kind)).toEqual(expect.arrayContaining(['destructive-test', 'breakdown-confirmed']));
+    // Every time the output went on — the use check before, the ramp, the use check after — the
+    // journal says so, and says it went off before the next: what the instrument did, in order.
+    const outputs = ev.filter((e) => e.type === 'output').map((e) => (e.type === 'output' && e.on ? 'on' : 'off'));
+    expect(outputs.filter((o) => o === 'on')).toHaveLength(3);
+    expect(outputs.join(' ')).toMatch(/^on off on off on off( off)*$/);
+    expect(log.filter((l) => l === ':OUTP ON')).toHaveLength(3);
     const tr = ev.find((e) => e.type === 'test-result');
     expect(tr?.type === 'test-result' && tr.outcome).toBe('breakdown');
     expect(smu.output).toBe(false);
@@ -131,6 +139,31 @@ describe('voltage ramp to breakdown', () => {
     const row = results(JSON.parse(r.stdout).dir).rows[0];
     expect(row.outcome).toBe('initial-failure');
     expect(Math.max(...devices[0].applied)).toBeLessThanOrEqual(1 + 1e-9);
+  });
+});
+
+describe('ramp rate', () => {
+  it('steps arrive at the instrument stepTime apart even when each reading takes 40 ms, and the journal records the rate achieved', async () => {
+    // The ramp rate is the figure a ramped-voltage test quotes beside its result (JEDEC JESD35-A):
+    // a 100 ms step must not become 140 ms because the reading inside it takes 40 ms.
+    const sc = findScenario('oxide-fn');
+    const { inst, devices } = await instruments(() => new SimulatedSmu({ device: sc.device, seed: 8, realTime: false, faults: { readDelayMs: 40 } }));
+    const dir = tempDir();
+    const plan = { kind: 'voltage-ramp', start: 2, stop: 5, step: 0.1, stepTime: 0.1, compliance: 1e-3 };
+    const res = await runPlan(dir, { instrument: inst, limits: LIMITS }, plan);
+    // The ramp's 31 levels: the set commands up to the first at 5 V (before them the approach to
+    // the start, after them the ramp down).
+    const all = devices[0].received.filter((r) => r.line.startsWith(':SOUR:VOLT '));
+    const top = all.findIndex((r) => Math.abs(Number(r.line.split(' ')[1]) - 5) < 1e-9);
+    const sets = all.slice(top - 30, top + 1);
+    expect(sets.map((r) => Number(r.line.split(' ')[1]))[0]).toBeCloseTo(2, 9);
+    const period = (sets[sets.length - 1].at - sets[0].at) / (sets.length - 1) / 1000;
+    expect(period, 'mean step period at the instrument, s').toBeGreaterThan(0.095);
+    expect(period, 'mean step period at the instrument, s').toBeLessThan(0.11);
+    const tr = events(res.dir).find((e) => e.type === 'test-result');
+    const n = tr?.type === 'test-result' ? tr.numbers : undefined;
+    expect(n?.plannedRampRate).toBeCloseTo(1, 12);
+    expect(Math.abs((n?.rampRate ?? 0) / 1 - 1), `recorded ${n?.rampRate} V/s`).toBeLessThan(0.1);
   });
 });
 
@@ -258,5 +291,20 @@ describe('adaptive sweeps', () => {
     expect(devices[0].log.filter((l) => l === ':READ?').length).toBe(a.readings);
     const ev = events(res.dir).filter((e) => e.type === 'adaptive-sweep');
     expect(ev).toHaveLength(3);
+  });
+
+  it('a target the fit does not give is refused as soon as the first fit shows it (exit 7), with the output off', async () => {
+    const sc = findScenario('oxide-fn');
+    const { inst, devices } = await instruments(() => new SimulatedSmu({ device: sc.device, seed: 6, realTime: false }));
+    const dir = tempDir();
+    const plan = { kind: 'adaptive', start: 0, stop: 10, maxPoints: 200, compliance: 1e-3, repeat: 3, target: { parameter: 'barierHeight', stdErr: 0.01 } };
+    const cfg = writeConfig(dir, { instrument: inst, plan, analysis: { model: 'fowler-nordheim', window: 'auto', inputs: sc.device.inputs } });
+    const r = await runCliAsync(['run', '--config', cfg, '--data', join(dir, 'data'), '--json']);
+    expect(r.code, r.stderr).toBe(7);
+    const res = JSON.parse(r.stdout);
+    expect(res.reason).toMatch(/field 'target.parameter': 'barierHeight' is not a parameter of the fowler-nordheim fit \(it gives barrierHeight\)/);
+    expect(devices[0].output).toBe(false);
+    // Stopped in the first sweep, long before its 200-point budget.
+    expect(devices[0].log.filter((l) => l === ':READ?').length).toBeLessThan(60);
   });
 });

@@ -72,6 +72,20 @@ describe('the OpenAPI document', () => {
     expect([...documented].filter((r) => !routes.has(r)), 'documented routes the server does not have').toEqual([]);
   });
 
+  it('a run request\'s plan is described by the plan kinds\' own schemas: a good plan of each kind validates, a plan with an unknown field does not', () => {
+    const body = (doc.paths['/api/run'].post as unknown as { requestBody: { content: Record<string, { schema: object }> } }).requestBody.content['application/json'].schema;
+    const validate = ajv.compile(body);
+    const plans = [
+      { start: 0, stop: 5, points: 6, compliance: 1e-3 },
+      { kind: 'adaptive', stop: 10, maxPoints: 50, compliance: 1e-3, target: { parameter: 'barrierHeight', stdErr: 0.01 } },
+      { kind: 'voltage-ramp', stop: 10, step: 0.1, stepTime: 0.1, compliance: 1e-3 },
+      { kind: 'current-ramp', start: 1e-9, stop: 1e-3, stepTime: 0.1, voltageLimit: 10 },
+      { kind: 'constant-voltage', stress: 5, duration: 60, sampleEvery: 1, compliance: 1e-3 },
+    ];
+    for (const plan of plans) expect(validate({ plan }), `${JSON.stringify(plan)}: ${JSON.stringify(validate.errors)}`).toBe(true);
+    expect(validate({ plan: { kind: 'voltage-ramp', stop: 10, step: 0.1, stepTime: 0.1, compliance: 1e-3, volts: 3 } })).toBe(false);
+  });
+
   it('every route answers as documented, in success and failure', async () => {
     await call('GET', '/api/openapi.json', '/api/openapi.json');
     await call('GET', '/api/status', '/api/status');

@@ -106,6 +106,16 @@ describe('built-in scenarios, live, with the default analysis', () => {
     expect(run.cautions.filter((c) => c.kind.startsWith('breakdown')).map((c) => c.message)).toEqual([]);
   });
 
+  it('a change of model in the middle of a sweep raises no breakdown caution (the watch starts its trend again in the new plot)', async () => {
+    // The breakdown watch follows the sweep on the mechanism's own plot; after a switch from
+    // ln(J/E²) against 1/E to ln(J/E) against √E the old trend must not be extrapolated into the new.
+    const run = await runScenario('oxide-fn', 3, 4, undefined, (chain, e) => {
+      if (e.type === 'reading' && e.sweep === 2 && e.k === 60) chain.setAnalysis(analysisSchema.parse({ model: 'poole-frenkel', inputs: findScenario('oxide-fn').device.inputs }), 'test');
+    });
+    expect(run.outcome).toBe('completed');
+    expect(run.cautions.filter((c) => c.kind.startsWith('breakdown')).map((c) => c.message)).toEqual([]);
+  });
+
   it('a change of model mid-run starts a new drift baseline (a trap energy is never charted against a barrier)', async () => {
     const run = await runScenario('oxide-fn', 9, 9, undefined, (chain, e) => {
       if (e.type === 'sweep-start' && e.sweep === 4) chain.setAnalysis(analysisSchema.parse({ model: 'trap-assisted-tunneling', inputs: findScenario('oxide-fn').device.inputs }), 'test');

@@ -4,7 +4,7 @@
  */
 import { describe, expect, it } from 'vitest';
 import { checkLevel, checkPlan, GuardError, limitsSchema } from '../../daemon/run/guard.js';
-import { parsePlan, PlanError, sweepValues } from '../../daemon/run/plan.js';
+import { parsePlan, PlanError, planShape, sweepValues } from '../../daemon/run/plan.js';
 
 const limits = limitsSchema.parse({ maxVoltage: 10, maxCompliance: 1e-3, maxPower: 5e-3 });
 
@@ -25,6 +25,32 @@ describe('plans', () => {
     expect(() => parsePlan({ kind: 'log', start: 0, stop: 1, points: 3, compliance: 1e-3 })).toThrow(/same sign/);
     expect(() => parsePlan({ start: 0, stop: 1, points: 3, compliance: -1 })).toThrow(PlanError);
     expect(() => parsePlan({ start: 0, stop: 1, points: 3, compliance: 1e-3, volts: 3 })).toThrow(/volts/);
+  });
+
+  it('ramps and adaptive sweeps climb away from zero; their current limits sit under the compliance', () => {
+    const ramp = { kind: 'voltage-ramp', start: 0, stop: 10, step: 0.1, stepTime: 0.1, compliance: 1e-3 };
+    expect(parsePlan(ramp).kind).toBe('voltage-ramp');
+    expect(parsePlan({ ...ramp, start: -1, stop: -10 }).kind).toBe('voltage-ramp');
+    expect(() => parsePlan({ ...ramp, start: 10, stop: 2 }, 'down.json')).toThrow(/down\.json: field 'stop': 2 V is nearer zero than start 10 V/);
+    expect(() => parsePlan({ ...ramp, start: 2, stop: -5 })).toThrow(/field 'stop': .*other sign/);
+    expect(() => parsePlan({ ...ramp, criteria: { currentLimit: 1e-2 } })).toThrow(/field 'criteria.currentLimit': 0\.01 A is above the compliance 0\.001 A/);
+    expect(() => parsePlan({ ...ramp, criteria: { floor: 1e-3 } })).toThrow(/field 'criteria.floor'/);
+    const adaptive = { kind: 'adaptive', start: 0, stop: 10, maxPoints: 50, compliance: 1e-3, target: { parameter: 'barrierHeight', stdErr: 0.01 } };
+    expect(() => parsePlan({ ...adaptive, start: 10, stop: 0 })).toThrow(/field 'stop'/);
+    expect(() => parsePlan({ ...adaptive, currentLimit: 2e-3 })).toThrow(/field 'currentLimit'/);
+    const stress = { kind: 'constant-voltage', stress: 8, duration: 100, sampleEvery: 5, compliance: 1e-3 };
+    expect(() => parsePlan({ ...stress, sense: { start: 0, stop: 2, points: 5, every: 1 } })).toThrow(/field 'sense.every': 1 s is shorter than sampleEvery 5 s/);
+    expect(() => parsePlan({ ...stress, criteria: { currentLimit: 1 } })).toThrow(/field 'criteria.currentLimit'/);
+  });
+
+  it('a test counts its use-condition checks and sense sweeps among its sweeps', () => {
+    const ramp = { kind: 'voltage-ramp', start: 0, stop: 10, step: 0.1, stepTime: 0.1, compliance: 1e-3 };
+    expect(planShape(parsePlan(ramp)).sweeps).toBe(1);
+    expect(planShape(parsePlan({ ...ramp, useVoltage: 1 })).sweeps).toBe(3);
+    // Sense sweeps at 30 and 60 s of a 90 s stress (not at its end): 3 stress segments + 2 sense sweeps.
+    const stress = { kind: 'constant-voltage', stress: 8, duration: 90, sampleEvery: 5, compliance: 1e-3, sense: { start: 0, stop: 2, points: 5, every: 30 } };
+    expect(planShape(parsePlan(stress)).sweeps).toBe(5);
+    expect(planShape(parsePlan({ ...stress, duration: 91 })).sweeps).toBe(7);
   });
 });
 

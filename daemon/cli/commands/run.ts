@@ -53,8 +53,11 @@ export function registerRun(program: Command): void {
       const leaving = guardProcess(station, async () => void (await pub?.stop(1000)), { signal: EXIT_CODE.interrupted, error: EXIT_CODE['internal-error'] });
       const tty = process.stdout.isTTY && !o.json;
       let progressShown = false;
+      // Every caution of the run, for --json: a script must see what a person at the terminal sees.
+      const cautions: { kind: string; sweep?: number; message: string }[] = [];
       station.events$.subscribe({
         next: (e) => {
+          if (e.type === 'caution') cautions.push({ kind: e.kind, ...(e.sweep !== undefined ? { sweep: e.sweep } : {}), message: e.message });
           if (o.json) return;
           if (e.type === 'progress') {
             const eta = e.eta === null ? '' : `, about ${Math.ceil(e.eta)} s left`;
@@ -88,7 +91,7 @@ export function registerRun(program: Command): void {
         process.stdout.write('CAUTION: on a real station the output can reach hazardous voltages. Follow your lab\'s safety rules; these software limits do not replace the instrument\'s interlock.\n');
       }
       const result = await h.done;
-      if (o.json) process.stdout.write(`${JSON.stringify({ session: h.session, dir: h.dir, ...result })}\n`);
+      if (o.json) process.stdout.write(`${JSON.stringify({ session: h.session, dir: h.dir, ...result, cautions })}\n`);
       else process.stdout.write(`${progressShown ? '\n' : ''}run ended: ${result.outcome} — ${result.reason} (${result.sweeps} sweep(s) finished)\nexport it: plumbline export ${h.dir}\n`);
       if (leaving()) return; // a signal or error ended the run: its handler finishes and exits
       // The journal is closed: hand the broker what it has not got yet (a broker that is down costs
