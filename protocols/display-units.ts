@@ -170,6 +170,7 @@ export const PARAMETER_LABELS: Readonly<Record<string, string>> = {
   activationEnergy: 'activation energy E_a',
   photocurrent: 'photocurrent I_ph',
   seriesResistance: 'series resistance R_s',
+  leakageResistance: 'leakage resistance R_leak',
   shuntResistance: 'shunt resistance R_sh',
   isc: 'short-circuit current I_sc',
   jsc: 'short-circuit current density J_sc',
@@ -179,6 +180,20 @@ export const PARAMETER_LABELS: Readonly<Record<string, string>> = {
   imp: 'current at P_max',
   fillFactor: 'fill factor FF',
   efficiency: 'efficiency η',
+};
+
+/**
+ * The figures of a breakdown test's result (a `test-result` event's `result`, a row of
+ * device-results.csv) with their SI units and the trade's names; shown in display units (field in
+ * MV/cm, charge to breakdown in C/cm²). For a device that survived, the value it reached.
+ */
+export const RESULT_FIGURES: Readonly<Record<string, { readonly si: string; readonly label: string; readonly reached: string }>> = {
+  breakdownVoltage: { si: 'V', label: 'breakdown voltage V_bd', reached: 'highest voltage reached' },
+  breakdownField: { si: 'V/m', label: 'breakdown field E_bd', reached: 'highest field reached' },
+  chargeToBreakdown: { si: 'C/m^2', label: 'charge to breakdown Q_bd', reached: 'charge passed' },
+  timeToBreakdown: { si: 's', label: 'time to breakdown t_bd', reached: 'time under stress' },
+  leakageBefore: { si: 'A', label: 'leakage at the use voltage, before', reached: 'leakage at the use voltage, before' },
+  leakageAfter: { si: 'A', label: 'leakage at the use voltage, after', reached: 'leakage at the use voltage, after' },
 };
 
 /** A parameter's name for people: the trade's words, or the key itself. */

@@ -15,6 +15,9 @@ import { scanJournal, type BadLine } from './reader.js';
 
 type Ev<T extends WireEvent['type']> = Extract<WireEvent, { type: T }>;
 
+/** Adaptive sweeps whose figures a session's overview carries (the newest; the journal holds all). */
+export const ADAPTIVE_KEPT = 100;
+
 /** Bins of the all-sweeps envelope along the bias axis. */
 export const ENVELOPE_BINS = 240;
 
@@ -48,7 +51,11 @@ export class SessionIndex {
   readonly sweeps: SweepRecord[] = [];
   private readonly bySweep = new Map<number, SweepRecord>();
   session: Ev<'session'> | null = null;
-  /** Events a viewer shows besides the per-sweep fold: cautions, decisions, output, annotations, settings, recovery, run end. */
+  /**
+   * Events a viewer shows besides the per-sweep fold: cautions, decisions, output, annotations,
+   * settings, recovery, run end, a breakdown test's result, and the last ADAPTIVE_KEPT adaptive
+   * sweeps' figures.
+   */
   readonly events: WireEvent[] = [];
   readonly drift: Ev<'drift'>[] = [];
   ranking: Ev<'ranking'> | null = null;
@@ -96,6 +103,7 @@ export class SessionIndex {
 
   private build(): void {
     // Events first (journal.jsonl), folded per sweep.
+    let adaptive: Ev<'adaptive-sweep'>[] = [];
     const scan = scanJournal(this.dir, (e) => {
       switch (e.type) {
         case 'session':
@@ -141,12 +149,18 @@ export class SessionIndex {
         case 'output':
         case 'annotation':
         case 'recovery':
+        case 'test-result':
           this.events.push(e);
+          break;
+        case 'adaptive-sweep':
+          adaptive.push(e);
+          if (adaptive.length > 2 * ADAPTIVE_KEPT) adaptive = adaptive.slice(-ADAPTIVE_KEPT);
           break;
         default:
           break;
       }
     }, { readings: false });
+    this.events.push(...adaptive.slice(-ADAPTIVE_KEPT));
     this.bad = scan.bad;
     this.lastSeq = scan.lastSeq;
     // Readings: where each sweep lies, and the envelope (two passes: the bias range, then the bins).

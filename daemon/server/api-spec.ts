@@ -55,6 +55,7 @@ const statusReply = z.looseObject({
   recovered: z.array(z.object({ dir: z.string(), message: z.string() })),
   models: z.array(z.looseObject({ id: z.string(), title: z.string() })),
   plan: z.looseObject({ kind: z.string() }).nullable().describe('The station\'s default plan (what the page\'s forms start from).'),
+  planDefaults: z.record(z.string(), z.record(z.string(), z.unknown())).describe('Per plan kind (linear, log, adaptive, voltage-ramp, current-ramp, constant-voltage): the values the station fills in for fields a plan leaves out (SI).'),
 });
 const sessionsReply = z.object({ sessions: z.array(z.string()).describe('Session ids, newest first.') });
 const sessionReply = z.object({

@@ -33,6 +33,7 @@ import { PlanError } from '../run/plan.js';
 import { StationError, type Station } from '../run/station.js';
 import { annotationBody, openApiDocument, reanalysisBody, reasonBody, runBody } from './api-spec.js';
 import { Hub } from './hub.js';
+import { planDefaults } from './plan-defaults.js';
 
 export const WEB_DIR = join(projectRoot(), 'dist', 'web');
 
@@ -211,6 +212,8 @@ export async function startServer(station: Station, options: ServerOptions): Pro
       models: MECHANISMS.map((m) => ({ id: m.id, title: m.title, requires: m.requires, uses: m.uses })),
       // What the page's forms start from: the station's default plan (null when it has none).
       plan: defaultPlanOrNull(),
+      // And, per plan kind, the values the station fills in for fields left out.
+      planDefaults: planDefaults(),
     });
   });
   // The lot view: every session in the data folder as one report (summaries cached beside each

@@ -6,7 +6,8 @@
  */
 import { evaluate, unit } from 'mathjs';
 import { describe, expect, it } from 'vitest';
-import { axisLabel, displayUnit, formatInputs, formatParameterText, fromDisplay, INPUTS, prettyUnit, toDisplay } from '../../protocols/display-units.js';
+import { RESULT_COLUMNS } from '../../protocols/device-results.js';
+import { axisLabel, displayUnit, formatInputs, formatParameterText, fromDisplay, INPUTS, prettyUnit, RESULT_FIGURES, toDisplay } from '../../protocols/display-units.js';
 import { formatLogTick, formatLogTicks, formatMeasurement, formatNumber, formatTicks, logTicks, niceTicks } from '../../protocols/number-format.js';
 
 describe('formatNumber', () => {
@@ -134,6 +135,17 @@ describe('display units', () => {
     expect(fromDisplay(toDisplay(7e-9, INPUTS.thickness.si), INPUTS.thickness.si)).toBeCloseTo(7e-9, 20);
     expect(axisLabel({ label: '1/E', unit: 'm/V' })).toBe('1/E (cm/MV)');
     expect(axisLabel({ label: 'x', unit: '' })).toBe('x');
+  });
+});
+
+describe('breakdown-test figures', () => {
+  it('carry the SI unit of their device-results.csv column and show in the trade\'s units', () => {
+    for (const [key, f] of Object.entries(RESULT_FIGURES)) {
+      expect(RESULT_COLUMNS.find((c) => c.key === key)?.unit, key).toBe(f.si);
+    }
+    // E_bd in MV/cm and Q_bd in C/cm² (common practice), checked by mathjs above for the scales.
+    expect(formatParameterText({ value: 1.3e9, unit: RESULT_FIGURES.breakdownField.si })).toBe('13 MV/cm');
+    expect(formatParameterText({ value: 13882.85, stdErr: 755.6, unit: RESULT_FIGURES.chargeToBreakdown.si })).toBe('1.388 ± 0.076 C/cm²');
   });
 });
 

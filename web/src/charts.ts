@@ -245,13 +245,20 @@ export class LinearizedChart {
   constructor(private readonly el: HTMLElement, private readonly residEl: HTMLElement, private readonly onWindow: (from: number, to: number) => void) {}
 
   update(view: PlotViewData | undefined, under: PlotViewData | null = null): void {
-    if (!view && !under) return;
     this.view = view ?? null;
     const main = view ? displayView(view) : null;
     const dim = under ? displayView(under) : null;
     this.shown = main;
     this.under = dim;
-    const ref = (main?.x.length ? main : dim) as DisplayView;
+    // The plot's axes follow the view with points: the sweep's own, else the one standing in.
+    // No view, or a sweep with no point on the mechanism's plot (every reading at compliance, at
+    // the floor or at zero bias), and nothing to stand in: no plot (never one of another sweep
+    // under this sweep's title); the page says why beside it.
+    const ref = main?.x.length ? main : dim?.x.length ? dim : null;
+    if (!ref) {
+      this.clear();
+      return;
+    }
     const split = (v: DisplayView | null) => {
       const o = { inX: [] as number[], inY: [] as number[], outX: [] as number[], outY: [] as number[], rInX: [] as number[], rInY: [] as number[], rOutX: [] as number[], rOutY: [] as number[] };
       if (!v) return o;
@@ -376,6 +383,17 @@ export class LinearizedChart {
       this.resid?.setData(rdata as unknown as uPlot.AlignedData);
     }
     this.focus(main?.window ? main : dim?.window ? dim : main ?? dim);
+  }
+
+  /** Removes the plots (they are built again, with the next view's axes, by the next update). */
+  private clear(): void {
+    this.plot?.destroy();
+    this.resid?.destroy();
+    this.plot = null;
+    this.resid = null;
+    this.key = '';
+    this.el.textContent = '';
+    this.residEl.textContent = '';
   }
 
   private focus(view: DisplayView | null): void {
@@ -511,7 +529,16 @@ export class DriftChart {
   constructor(private readonly el: HTMLElement) {}
 
   update(drift: Drift[], unitOf: (parameter: string) => string, restarts: readonly number[] = []): void {
-    if (drift.length === 0) return;
+    if (drift.length === 0) {
+      // A new session (or one without drift): no chart of another session's sweeps stays up.
+      this.plot?.destroy();
+      this.plot = null;
+      this.key = '';
+      this.breaks = [];
+      this.drawnSweeps = [];
+      this.el.textContent = '';
+      return;
+    }
     const segs = driftSegments(drift, restarts);
     const last = segs[segs.length - 1];
     const ref = last.points[0];

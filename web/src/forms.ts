@@ -1,6 +1,6 @@
 /**
- * The Run and Analysis forms: filled from what the daemon says (the station's default plan and
- * limits, the analysis in force), every input a mechanism uses with its display unit (from
+ * The Analysis form (the Run form is in plan-form.ts): filled from what the daemon says (the
+ * analysis in force), every input a mechanism uses with its display unit (from
  * protocols/display-units.ts: the page does not scale units by hand), and read back to SI with a
  * message naming the field when something is missing or out of range.
  */
@@ -15,7 +15,10 @@ export interface StationStatus {
   limits: { maxVoltage: number; maxCompliance: number; maxPower: number; hazardVoltage?: number };
   instrument: string;
   scenario: string | null;
-  plan: { kind: string; start?: number; stop?: number; points?: number; values?: number[]; repeat?: number; compliance?: number; dual?: boolean } | null;
+  /** The station's default plan (SI), null when it has none. */
+  plan: ({ kind: string } & Record<string, unknown>) | null;
+  /** Per plan kind, the values the station fills in for fields left out (SI). */
+  planDefaults?: Record<string, Record<string, unknown>>;
   models: { id: string; title: string; requires: string[]; uses: string[] }[];
 }
 
@@ -96,62 +99,5 @@ export function readAnalysis(f: HTMLFormElement, model: StationStatus['models'][
     inputs,
     window: from !== undefined || to !== undefined ? { from, to } : 'auto',
     ...(solar ? { solar: g !== undefined ? { irradiance: g } : {} } : {}),
-  };
-}
-
-/** Fills the Run form from the station's default plan and shows its limits beside the fields. */
-export function fillPlan(f: HTMLFormElement, st: StationStatus): void {
-  const p = st.plan;
-  const set = (name: string, v: number | undefined) => {
-    if (v !== undefined) field(f, name).value = formatNumber(v, 6);
-  };
-  if (p) {
-    (f.elements.namedItem('kind') as HTMLSelectElement).value = p.kind === 'log' ? 'log' : 'linear';
-    set('start', p.start ?? p.values?.[0]);
-    set('stop', p.stop ?? p.values?.at(-1));
-    set('points', p.points ?? p.values?.length);
-    set('repeat', p.repeat);
-    set('compliance', p.compliance);
-    field(f, 'dual').checked = Boolean(p.dual);
-  }
-  const L = st.limits;
-  for (const n of ['start', 'stop']) {
-    field(f, n).max = String(L.maxVoltage);
-    field(f, n).min = String(-L.maxVoltage);
-  }
-  field(f, 'compliance').max = String(L.maxCompliance);
-  const hint = f.querySelector('#limits-hint');
-  if (hint) hint.textContent = `Station limits: |V| ≤ ${formatNumber(L.maxVoltage)} V, compliance ≤ ${formatNumber(L.maxCompliance)} A, |V| × compliance ≤ ${formatNumber(L.maxPower)} W${L.hazardVoltage !== undefined ? `; caution above ${formatNumber(L.hazardVoltage)} V` : ''}. The daemon refuses anything beyond them.`;
-}
-
-/** The Run form as a plan. Throws naming the field (and the station limit) on bad input. */
-export function readPlan(f: HTMLFormElement, st: StationStatus | null): Record<string, unknown> {
-  const need = (name: string, what: string): number => {
-    const v = read(f, name, what);
-    if (v === undefined) throw new Error(`${what}: enter a value`);
-    return v;
-  };
-  const L = st?.limits;
-  const start = need('start', 'start (V)');
-  const stop = need('stop', 'stop (V)');
-  const points = need('points', 'points');
-  const repeat = need('repeat', 'sweeps');
-  const compliance = read(f, 'compliance', 'compliance (A)');
-  if (compliance === undefined) throw new Error(`compliance (A): enter the current limit the instrument holds${L ? ` (at most ${formatNumber(L.maxCompliance)} A, the station limit)` : ''}`);
-  if (!(compliance > 0)) throw new Error(`compliance (A): must be positive, got ${compliance}`);
-  if (L && compliance > L.maxCompliance) throw new Error(`compliance (A): ${formatNumber(compliance)} A is above the station limit of ${formatNumber(L.maxCompliance)} A`);
-  for (const [v, what] of [[start, 'start'], [stop, 'stop']] as const) {
-    if (L && Math.abs(v) > L.maxVoltage) throw new Error(`${what} (V): ${formatNumber(v)} V is beyond the station limit of ±${formatNumber(L.maxVoltage)} V`);
-  }
-  if (!Number.isInteger(points) || points < 2) throw new Error(`points: a whole number ≥ 2, got ${points}`);
-  if (!Number.isInteger(repeat) || repeat < 1) throw new Error(`sweeps: a whole number ≥ 1, got ${repeat}`);
-  return {
-    kind: (f.elements.namedItem('kind') as HTMLSelectElement).value,
-    start,
-    stop,
-    points,
-    repeat,
-    compliance,
-    dual: field(f, 'dual').checked,
   };
 }

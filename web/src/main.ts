@@ -12,9 +12,12 @@
 import type { FitSummary, PlotViewData, ServerMessage, SolarSummary, WireEvent } from '../../protocols/wire.js';
 import { formatNumber } from '../../protocols/number-format.js';
 import { DriftChart, LinearizedChart, RawChart, SolarChart } from './charts.js';
-import { buildInputFields, fillAnalysis, fillPlan, markInputs, readAnalysis, readPlan, type StationStatus } from './forms.js';
+import { displayUnit, formatInputs } from '../../protocols/display-units.js';
+import { buildInputFields, fillAnalysis, markInputs, readAnalysis, type StationStatus } from './forms.js';
 import { describeAnalysis, renderCautions, renderFitNotes, renderParams, renderRanking, renderSolar } from './panels.js';
+import { buildPlanFields, fillKind, fillPlan, isDestructive, readPlan, setTargetUnit, showKind } from './plan-form.js';
 import { Store, type AnalysisSettings, type Envelope } from './store.js';
+import { renderAdaptive, renderTestPanel } from './test-panels.js';
 
 const $ = <T extends HTMLElement = HTMLElement>(id: string) => document.getElementById(id) as T;
 const token = new URLSearchParams(location.search).get('token');
@@ -147,14 +150,17 @@ function render(): void {
   ($('abort') as HTMLButtonElement).disabled = !(canStop || (live.outputOn && control));
   ($('run-stop') as HTMLButtonElement).disabled = !canStop;
   ($('run-start') as HTMLButtonElement).disabled = live.running || !control;
-  for (const el of ($('plan-form') as HTMLFormElement).elements) if (el.id !== 'run-stop' && el.id !== 'run-start') (el as HTMLInputElement).disabled = !control;
+  // The fields of the other plan kinds stay disabled (hidden, and not read).
+  for (const el of ($('plan-form') as HTMLFormElement).elements) if (el.id !== 'run-stop' && el.id !== 'run-start') (el as HTMLInputElement).disabled = !control || Boolean(el.closest('label')?.hidden);
   $('analysis-scope').textContent = s.readOnly
     ? '— re-analyses this past session (kept beside its journal)'
     : live.running ? (control ? '— applies to the run from now on (journaled)' : '— applies to the watched readings from now on')
       : s.session ? '— re-analyses the session on screen and becomes the station\'s setting for the next run' : '— the station\'s setting for the next run';
   // Each panel is redrawn only when what it shows has changed (a frame carries new readings most
   // of the time, and nothing else).
-  if (changed('cautions', s, s.cautions.length, s.outputOn, s.readOnly, s.sessionEvent)) renderCautions($('cautions'), s);
+  if (changed('cautions', s, s.cautions.length, s.outputOn, s.readOnly, s.sessionEvent, s.running)) renderCautions($('cautions'), s);
+  if (changed('test', s, s.testResult, s.sessionEvent, s.running)) $('test-panel').hidden = !renderTestPanel($('test-title'), $('test-result'), s);
+  if (changed('adaptive', s, s.adaptive.length)) $('adaptive-panel').hidden = !renderAdaptive($('adaptive'), s.adaptive);
   raw.update(s.sweeps, ($('raw-log') as HTMLInputElement).checked, s.envelope);
   $('raw-note').textContent = `Colour runs from the first sweep shown (dark) to the latest (light)${s.envelope ? `; grey band: every one of the ${s.allSweeps.length} sweeps (smallest to largest current at each bias)` : ''}. ✕ marks negative current (plotted as |I|), □ marks readings at compliance.`;
   if (s.sessionEvent && s.readingCount > 0) {
@@ -198,17 +204,20 @@ function renderLinearized(s: Store, cur: number): void {
       }
     }
   }
-  if (changed('lin', s, main, under, lin.wholeCurve)) lin.update(main, under);
+  if (changed('lin', s, main, under, lin.wholeCurve, cur)) lin.update(main, under);
   $('lin-empty').hidden = Boolean(main || under);
   // The mechanism's title from any fit with this model (the view carries only the model id).
-  const model = (main ?? under)?.model;
+  const model = (main ?? under)?.model ?? (cur ? (s.fitAnalysis.get(cur) ?? s.analysis)?.model : undefined);
   const titled = [re?.fits.get(cur)?.fit, s.finalFits.get(cur), s.liveFit?.fit, ...[...s.finalFits.values()].reverse()].find((f) => f && f.model === model);
   const title = titled?.title ?? model;
   $('lin-title').textContent = title ? `Linearized: ${title}, sweep ${cur}${note}` : 'Linearized view';
   const err = $('lin-error');
-  const e = main?.error ?? (main && !main.line ? 'no fit line' : undefined);
+  // Why there is no line: the view's reason, or (no view: the daemon could not map a single reading
+  // onto the mechanism's plot) the fit's.
+  const e = main?.error ?? (main && !main.line ? 'no fit line' : undefined) ?? (!main && !s.isLive(cur) ? (re?.fits.get(cur)?.error ?? s.fitErrors.get(cur)) : undefined) ?? undefined;
   err.hidden = !e || (s.isLive(cur) && under !== null);
   err.textContent = e ? `Sweep ${cur}: ${e}.` : '';
+  if (e && !main && !under) $('lin-empty').hidden = true;
   $('lin-hint').textContent = s.readOnly
     ? 'Drag across the plot to set the fit window: the daemon re-analyses this sweep (the journal is not changed).'
     : 'Drag across the plot to set the fit window (shaded): the daemon re-fits.';
@@ -315,7 +324,10 @@ function renderPicker(s: Store, cur: number): void {
   const input = $<HTMLInputElement>('sweep-pick');
   if (document.activeElement !== input) input.value = cur ? String(cur) : '';
   input.max = String(s.allSweeps.at(-1) ?? 1);
-  $('sweep-count').textContent = n ? `${s.shownSweep === null ? 'following the latest' : 'picked'}; sweeps ${s.allSweeps[0]}–${s.allSweeps.at(-1)}` : '';
+  // The daemon's name for the sweep when it says more than its number (a breakdown test's phases).
+  const label = s.labels.get(cur);
+  const what = label && !/^sweep \d/.test(label) ? ` · sweep ${cur}: ${label}` : '';
+  $('sweep-count').textContent = n ? `${s.shownSweep === null ? 'following the latest' : 'picked'}; sweeps ${s.allSweeps[0]}–${s.allSweeps.at(-1)}${what}` : '';
 }
 
 let filledFrom = '';
@@ -387,9 +399,12 @@ async function loadStatus(): Promise<void> {
       sel.append(o);
     }
     buildInputFields($('input-fields'));
+    buildPlanFields($<HTMLFormElement>('plan-form'), $('plan-fields'));
     fillPlan($<HTMLFormElement>('plan-form'), status);
     filledFrom = '';
   }
+  // The kind's hint names the thickness and area in force; empty fields take the station's values.
+  kindChosen();
   liveStore.dirty = true;
   viewStore.dirty = true;
   schedule();
@@ -400,12 +415,92 @@ $('model-select').addEventListener('change', () => {
   markInputs($('input-fields'), status?.models.find((m) => m.id === id));
 });
 
+// ---- the Run form: plan kinds, breakdown tests -----------------------------------------------
+const KIND_HINTS: Record<string, string> = {
+  linear: 'Equal bias steps from start to stop, repeated; out and back returns to the start.',
+  log: 'Bias steps evenly spaced in log |V| from start to stop (both of one sign), repeated.',
+  adaptive: 'Each next bias is chosen from what has been measured: coarse steps at the noise floor, fine ones in the regime. A sweep stops once the target parameter\'s standard error is reached, at the current limit or compliance, at the end of the range, or after its most points.',
+  'voltage-ramp': 'Voltage steps held for the time per step until breakdown (a current jump, the I–V slope rising, or the breakdown current) or the end of the ramp.',
+  'current-ramp': 'Forced currents rising in steps per decade, the voltage kept below its limit, until the voltage collapses (breakdown). Needs an instrument dialect that can source current.',
+  'constant-voltage': 'The stress bias held and read at intervals until breakdown (a current jump or the breakdown current) or the longest stress; optional sense sweeps watch the leakage grow.',
+};
+
+/** Parameters (name → SI unit) of the recent fits with the station's model: the adaptive target's choices. */
+function knownParameters(): Map<string, string> {
+  const model = status?.analysis.model;
+  const out = new Map<string, string>();
+  for (const s of [liveStore, viewStore]) {
+    for (const f of s.finalFits.values()) {
+      if (!f || f.model !== model) continue;
+      for (const [k, p] of Object.entries(f.parameters)) out.set(k, p.unit);
+    }
+  }
+  return out;
+}
+
+/** The adaptive target's unit as shown, and the scale to the parameter's own unit; null when not known yet. */
+function targetUnit(f: HTMLFormElement): { unit: string; scale: number } | null {
+  const name = (f.elements.namedItem('targetParameter') as HTMLInputElement).value.trim();
+  const si = knownParameters().get(name);
+  if (si === undefined) return null;
+  const d = displayUnit(si, name);
+  return { unit: d.unit, scale: d.scale };
+}
+
+/** Shows the chosen kind's fields, fills the empty ones from the station, and the destructive-test caution. */
+function kindChosen(): void {
+  const f = $<HTMLFormElement>('plan-form');
+  const kind = (f.elements.namedItem('kind') as HTMLSelectElement).value;
+  showKind(f, kind);
+  if (status) fillKind(f, status, kind);
+  const destructive = isDestructive(kind);
+  $('destructive-caution').hidden = !destructive;
+  if (!destructive) (f.elements.namedItem('acknowledge') as HTMLInputElement).checked = false;
+  $('run-start').textContent = destructive ? '▶ Start breakdown test' : '▶ Start';
+  let hint = KIND_HINTS[kind] ?? '';
+  if (destructive) {
+    // The breakdown field and the charge per area need the film's thickness and the device area.
+    const inputs = status?.analysis.inputs ?? {};
+    const given = formatInputs({ thickness: inputs.thickness, area: inputs.area });
+    hint += ` E_bd and Q_bd use the thickness and area of the Analysis form${given ? ` (now ${given})` : ': none given, so only V_bd and t_bd will be known'}.`;
+  }
+  $('kind-hint').textContent = hint;
+  if (kind === 'adaptive') {
+    const known = knownParameters();
+    const list = document.getElementById('targetParameter-list');
+    if (list) {
+      list.textContent = '';
+      for (const k of known.keys()) {
+        const o = document.createElement('option');
+        o.value = k;
+        list.append(o);
+      }
+    }
+    const target = f.elements.namedItem('targetParameter') as HTMLInputElement;
+    if (target.value.trim() === '' && known.size) target.value = [...known.keys()][0];
+    setTargetUnit(f, targetUnit(f)?.unit ?? null);
+  }
+}
+$('plan-form').addEventListener('change', (ev) => {
+  const name = (ev.target as HTMLInputElement).name;
+  if (name === 'kind') kindChosen();
+  if (name === 'targetParameter') setTargetUnit($<HTMLFormElement>('plan-form'), targetUnit($<HTMLFormElement>('plan-form'))?.unit ?? null);
+});
+
 $('plan-form').addEventListener('submit', (ev) => {
   ev.preventDefault();
   const f = ev.target as HTMLFormElement;
   let plan: Record<string, unknown>;
+  const ack = f.elements.namedItem('acknowledge') as HTMLInputElement;
   try {
-    plan = readPlan(f, status);
+    plan = readPlan(f, status, targetUnit(f));
+    const kind = String(plan.kind);
+    if (kind === 'adaptive') {
+      const known = knownParameters();
+      const name = String((plan.target as { parameter: string }).parameter);
+      if (known.size && !known.has(name)) throw new Error(`target parameter: '${name}' is not a parameter of the ${status?.analysis.model} fits (${[...known.keys()].join(', ')})`);
+    }
+    if (isDestructive(kind) && !ack.checked) throw new Error('This breakdown test destroys the device: read the caution above the Start button and tick its box to start it.');
   } catch (e) {
     say((e as Error).message, true);
     return;
@@ -417,7 +512,11 @@ $('plan-form').addEventListener('submit', (ev) => {
     [['device', text('device') || undefined], ['wafer', text('wafer') || undefined], ['site', text('site') || undefined], ['x', num('x')], ['y', num('y')]].filter(([, v]) => v !== undefined),
   );
   backToLive();
-  call('POST', '/api/run', Object.keys(device).length ? { plan, device } : { plan }).then((r) => say(`Run started: ${r.session}`)).catch((e: Error) => say(e.message, true));
+  // Each breakdown test is confirmed on its own: the box is cleared once one starts.
+  call('POST', '/api/run', Object.keys(device).length ? { plan, device } : { plan }).then((r) => {
+    ack.checked = false;
+    say(`Run started: ${r.session}`);
+  }).catch((e: Error) => say(e.message, true));
 });
 $('run-stop').addEventListener('click', () => {
   call('POST', '/api/run/stop', { reason: 'stop requested from the page' }).then(() => say('The run stops after this sweep.')).catch((e: Error) => say(e.message, true));

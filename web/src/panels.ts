@@ -26,6 +26,10 @@ export function renderCautions(box: HTMLElement, s: Store): void {
   if (s.readOnly) add('info', 'read-only', 'A past session from the journal: nothing here controls the instrument.');
   const source = s.sessionEvent?.source;
   if (source && !source.control) add('info', 'watching', `Readings come from ${source.detail}; plumbline does not control this instrument.`);
+  // A breakdown test destroys the device on purpose: its caution (the daemon's words, journaled
+  // when the test starts) stays on top for as long as the test runs.
+  const destructive = s.cautions.filter((c) => c.kind === 'destructive-test').at(-1);
+  if (destructive && s.running && !s.readOnly) add('danger', 'destructive test', destructive.message);
   if (s.outputOn && !s.readOnly) {
     const hv = s.cautions.find((c) => c.kind === 'hazard-voltage');
     if (hv) add('danger', 'high voltage', hv.message);

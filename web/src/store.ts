@@ -60,6 +60,8 @@ export class Store {
   views = new Map<number, PlotViewData>();
   /** Sweeps whose view is the final one (the sweep had ended). */
   viewFinal = new Set<number>();
+  /** What each sweep is, as the daemon named it at its start ("use-condition check before the test", "adaptive sweep 2 of 5"). */
+  labels = new Map<number, string>();
   /** Sweeps that ended (sweep-end seen), with whether they were complete. */
   ended = new Map<number, boolean>();
   drift: Ev<'drift'>[] = [];
@@ -68,6 +70,10 @@ export class Store {
   outputOn = false;
   cautions: Ev<'caution'>[] = [];
   runEnd: Ev<'run-end'> | null = null;
+  /** A breakdown test's result (its last, should a session hold more than one). */
+  testResult: Ev<'test-result'> | null = null;
+  /** Each adaptive sweep's figures (readings, peak bias, charge, target parameter, why it stopped). */
+  adaptive: Ev<'adaptive-sweep'>[] = [];
   sessionEvent: Ev<'session'> | null = null;
   /** The analysis settings in force now (session start, then settings changes). */
   analysis: AnalysisSettings | null = null;
@@ -97,12 +103,15 @@ export class Store {
     this.views = new Map();
     this.viewFinal = new Set();
     this.ended = new Map();
+    this.labels = new Map();
     this.drift = [];
     this.ranking = null;
     this.progress = null;
     this.outputOn = false;
     this.cautions = [];
     this.runEnd = null;
+    this.testResult = null;
+    this.adaptive = [];
     this.sessionEvent = null;
     this.analysis = null;
     this.allSweeps = [];
@@ -206,6 +215,7 @@ export class Store {
         break;
       case 'sweep-start':
         this.sweepPoints(e.sweep);
+        if (e.label) this.labels.set(e.sweep, e.label);
         break;
       case 'sweep-end':
         this.ended.set(e.sweep, e.complete);
@@ -235,6 +245,12 @@ export class Store {
         break;
       case 'caution':
         this.cautions.push(e);
+        break;
+      case 'test-result':
+        this.testResult = e;
+        break;
+      case 'adaptive-sweep':
+        this.adaptive.push(e);
         break;
       case 'run-end':
         this.runEnd = e;
