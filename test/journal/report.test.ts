@@ -356,6 +356,8 @@ describe('the report of a breakdown test', () => {
     }
     // Each phase of the test is named at its sweep.
     expect(html).toMatch(/<h3>Sweep 1: use-condition check before the test<\/h3>/);
+    // The command line prints the same figures under the same names.
+    for (const [key, row] of res) if (key in RESULT_FIGURES) expect(run.stdout).toContain(`${row.label} ${row.text} ${row.unit}`);
   });
 });
 
