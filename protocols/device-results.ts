@@ -67,7 +67,8 @@ export function mergeIdentity(base: DeviceIdentity, change: DeviceIdentity | und
   return out as DeviceIdentity;
 }
 
-export type TestKind = 'voltage-ramp' | 'current-ramp' | 'constant-voltage' | 'constant-current';
+export const TEST_KINDS = ['voltage-ramp', 'current-ramp', 'constant-voltage', 'constant-current'] as const;
+export type TestKind = (typeof TEST_KINDS)[number];
 export type Outcome = 'breakdown' | 'survived' | 'initial-failure' | 'invalid';
 export const OUTCOMES: readonly Outcome[] = ['breakdown', 'survived', 'initial-failure', 'invalid'];
 

@@ -167,7 +167,8 @@ export function inRange(
   unit: string,
 ): boolean {
   if (value >= lo && value <= hi && Number.isFinite(value)) return true;
-  warnings.push(`${what} = ${fmt(value)} ${unit} is outside the plausible range ${fmt(lo)}–${fmt(hi)} ${unit}`);
+  const u = unit ? ` ${unit}` : '';
+  warnings.push(`${what} = ${fmt(value)}${u} is outside the plausible range ${fmt(lo)}–${fmt(hi)}${u}`);
   return false;
 }
 

@@ -29,6 +29,7 @@
  *   maximises ℓ over the other parameter); they are the better choice for the small lots typical of
  *   breakdown tests (Meeker & Escobar, Statistical Methods for Reliability Data, 1998, ch. 8).
  */
+import { gridResolution } from './robust.js';
 import { AnalysisError } from './errors.js';
 import { seededUniform } from './random.js';
 
@@ -651,6 +652,24 @@ export interface WeibullReport {
   readonly onePercent: Interval & { readonly unit: string };
 }
 
+/**
+ * Failures read on a grid coarse against their scatter: the grid step over η, compared with the
+ * standard deviation of ln x for a Weibull, π/(β√6) (the smallest-extreme-value distribution's,
+ * Johnson, Kotz & Balakrishnan 1995, from memory). Coarse when the step exceeds a fifth of it (our
+ * own threshold). Null when the failures do not tie on a grid or the grid is fine.
+ */
+export function coarseGrid(d: WeibullData, shape: number, scale: number): { step: number; ratio: number; tied: number } | null {
+  const failed = Array.from(d.values).filter((_, k) => !d.censored?.[k]);
+  const step = gridResolution(failed);
+  if (step === undefined) return null;
+  const ratio = step / scale / (Math.PI / (shape * Math.sqrt(6)));
+  if (ratio <= 0.2) return null;
+  const tol = 1e-9 * Math.max(...failed.map(Math.abs));
+  const sorted = [...failed].sort((a, b) => a - b);
+  const tied = sorted.filter((v, k) => (k > 0 && v - sorted[k - 1] <= tol) || (k < sorted.length - 1 && sorted[k + 1] - v <= tol)).length;
+  return { step, ratio, tied };
+}
+
 export function analyzeWeibull(d: WeibullData, o: WeibullOptions = {}): WeibullReport {
   const confidence = o.confidence ?? 0.9;
   const method = o.bounds ?? 'likelihood-ratio';
@@ -674,6 +693,8 @@ export function analyzeWeibull(d: WeibullData, o: WeibullOptions = {}): WeibullR
     }
   }
   if (fit.failures < 10) warnings.push(`only ${fit.failures} failures: the maximum-likelihood shape is biased high for small samples and the bounds are wide`);
+  const coarse = coarseGrid(d, fit.shape, fit.scale);
+  if (coarse) warnings.push(`${coarse.tied} of ${fit.failures} failures tie on levels ${show(coarse.step)} apart (a ramp's steps): the fit takes each value as exact, though a ramp says only that the device failed within the step before; the step is ${coarse.ratio.toPrecision(2)} of the scatter in ln x, so β and η carry an error the bounds do not show (a finer step is more faithful)`);
   if (fit.censored > 0 && fit.censored >= fit.failures) warnings.push(`${fit.censored} of ${fit.n} devices survived: the fit rests on the lower tail only`);
   let areaScaling: WeibullReport['areaScaling'] = null;
   if (o.toArea !== undefined) {

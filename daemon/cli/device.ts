@@ -59,15 +59,3 @@ export async function readDevice(o: DeviceOptions): Promise<DeviceIdentity | und
   }
 }
 
-/** "wafer W07, site C4 (3, −2), area 1e-8 m²" for notes and messages. */
-export function describeDevice(d: DeviceIdentity): string {
-  const parts: string[] = [];
-  if (d.device) parts.push(`device ${d.device}`);
-  if (d.wafer) parts.push(`wafer ${d.wafer}`);
-  if (d.site || d.x !== undefined || d.y !== undefined) parts.push(`site ${d.site ?? ''}${d.x !== undefined || d.y !== undefined ? ` (${d.x ?? '?'}, ${d.y ?? '?'})` : ''}`.replace('site  (', 'site ('));
-  if (d.area !== undefined) parts.push(`area ${d.area} m²`);
-  if (d.thickness !== undefined) parts.push(`thickness ${d.thickness} m`);
-  if (d.temperature !== undefined) parts.push(`temperature ${d.temperature} K`);
-  if (d.tags?.length) parts.push(`tags ${d.tags.join(', ')}`);
-  return parts.join(', ');
-}

@@ -9,6 +9,7 @@ import type { WireEvent } from '../../protocols/wire.js';
 import type { StationConfig } from '../run/config.js';
 import type { Station } from '../run/station.js';
 import { UsageError } from './usage.js';
+import { numberRows, resultFigureRows, rowText } from '../../protocols/breakdown-display.js';
 import { formatParameterText } from '../../protocols/display-units.js';
 import { formatNumber } from '../../protocols/number-format.js';
 
@@ -161,17 +162,11 @@ export function describe(e: WireEvent): string | undefined {
       if (e.on) return `output ON — ${e.reason}`;
       return e.sent === false ? `output off could NOT be sent — ${e.reason}` : `output off sent — ${e.reason}`;
     case 'test-result': {
-      const r = e.result as { breakdownVoltage?: number; breakdownField?: number; chargeToBreakdown?: number; timeToBreakdown?: number; leakageBefore?: number; leakageAfter?: number };
-      const parts = [
-        r.breakdownVoltage !== undefined ? `V = ${r.breakdownVoltage.toPrecision(4)} V` : '',
-        r.breakdownField !== undefined ? `E = ${(r.breakdownField / 1e8).toPrecision(4)} MV/cm` : '',
-        r.chargeToBreakdown !== undefined ? `Q = ${(r.chargeToBreakdown / 1e4).toPrecision(3)} C/cm²` : '',
-        r.timeToBreakdown !== undefined ? `t = ${r.timeToBreakdown.toPrecision(3)} s` : '',
-        r.leakageBefore !== undefined ? `leakage before ${r.leakageBefore.toPrecision(3)} A` : '',
-        r.leakageAfter !== undefined ? `after ${r.leakageAfter.toPrecision(3)} A` : '',
-        e.numbers?.rampRate !== undefined ? `ramp ${e.numbers.rampRate.toPrecision(3)} V/s (planned ${(e.numbers.plannedRampRate ?? Number.NaN).toPrecision(3)} V/s)` : '',
-      ].filter(Boolean);
-      return `${e.test}: ${e.outcome} — ${e.reason}${parts.length ? `\n         ${parts.join(', ')}` : ''}`;
+      // The figures as the page and the report name and show them, one per line.
+      const lines = resultFigureRows(e).map((r) => `         ${rowText(r)}`);
+      const pace = numberRows(e.numbers, 'pace');
+      if (pace.length) lines.push(`         ${pace.map(rowText).join(', ')}`);
+      return [`${e.test}: ${e.outcome} — ${e.reason}`, ...lines].join('\n');
     }
     case 'adaptive-sweep':
       return `sweep ${e.sweep}: ${e.readings} readings, up to ${e.maxAbsBias.toPrecision(4)} V, ${e.charge.toPrecision(3)} C passed; ${e.parameter ? `${e.parameter.name} = ${e.parameter.value.toPrecision(5)} ± ${e.parameter.stdErr.toPrecision(2)} ${e.parameter.unit}; ` : ''}stopped: ${e.stopReason}`;

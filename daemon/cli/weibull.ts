@@ -9,7 +9,8 @@ import { analyzeWeibull, type BoundsMethod, type WeibullReport } from '../analys
 import { DEVICE_RESULTS_FILE, parseDeviceResults, resultQuantity, RESULT_QUANTITIES } from '../../protocols/device-results.js';
 import { columnIndex, CsvError, parseCsvTable, requireNumeric, splitFields, detectDelimiter } from '../../protocols/csv-table.js';
 import { UsageError } from './usage.js';
-import { formatValue, type BreakdownSample } from '../journal/lot.js';
+import type { BreakdownSample } from '../journal/lot.js';
+import { formatQuantity } from '../../protocols/display-units.js';
 import { archiveLot, withArchiveSelection, type ArchiveSelectionOptions } from './lab.js';
 
 const SURVIVOR_COLUMNS = /^(censored|survived|survivor|suspended)$/i;
@@ -57,6 +58,7 @@ function isResultsHeader(text: string): boolean {
 
 export interface WeibullCliOptions extends ArchiveSelectionOptions {
   quantity?: string;
+  test?: string;
   area?: string;
   toArea?: string;
   confidence: string;
@@ -68,7 +70,7 @@ export interface WeibullCliOptions extends ArchiveSelectionOptions {
 
 /** Gathers the sample from the inputs (folders or files). */
 export async function gatherSample(inputs: string[], o: WeibullCliOptions, referenceArea: number | undefined): Promise<BreakdownSample> {
-  const { FolderLot, lotResults, breakdownSample, referenceAreas } = await import('../journal/lot.js');
+  const { FolderLot, lotResults, breakdownSample, referenceAreas, LotRequestError } = await import('../journal/lot.js');
   const folders = inputs.filter((p) => {
     try {
       return statSync(p).isDirectory();
@@ -103,8 +105,14 @@ export async function gatherSample(inputs: string[], o: WeibullCliOptions, refer
   if (rows.length && generic.length) throw new UsageError('mix of results files (or session folders) and plain value CSVs: analyse them separately');
   if (rows.length) {
     if (!q) throw new UsageError(`--quantity '${o.quantity}': results hold ${Object.keys(RESULT_QUANTITIES).join(', ')} (or their column names)`);
-    return breakdownSample(rows, q, referenceArea);
+    try {
+      return breakdownSample(rows, q, referenceArea, o.test);
+    } catch (e) {
+      if (e instanceof LotRequestError) throw new UsageError(e.message);
+      throw e;
+    }
   }
+  if (o.test !== undefined) throw new UsageError(`--test '${o.test}': only results files and session folders name their kind of test; a plain CSV is taken as one sample`);
   // Plain CSVs: concatenated; per-device areas become area factors.
   const a = referenceAreas(generic.flatMap((g) => g.areas), referenceArea);
   return {
@@ -136,11 +144,11 @@ function formatReport(r: WeibullReport, s: BreakdownSample): string {
   const lines: string[] = [];
   lines.push(`Weibull analysis of ${s.title}: ${r.n} device(s), ${r.failures} broke down, ${r.censored} survived (right-censored)`);
   lines.push(`  shape β = ${+r.shape.value.toPrecision(4)}    ${pct} bounds ${+r.shape.low.toPrecision(4)} … ${+r.shape.high.toPrecision(4)}`);
-  lines.push(`  scale η = ${formatValue(r.scale.value, r.scale.unit, 5)}    ${pct} bounds ${formatValue(r.scale.low, r.scale.unit)} … ${formatValue(r.scale.high, r.scale.unit)}  (63.2 % broken down${r.area !== null ? `, devices of ${formatValue(r.area, 'm^2')}` : ''})`);
-  lines.push(`  1 % point = ${formatValue(r.onePercent.value, r.onePercent.unit)}    bounds ${formatValue(r.onePercent.low, r.onePercent.unit)} … ${formatValue(r.onePercent.high, r.onePercent.unit)}`);
+  lines.push(`  scale η = ${formatQuantity(r.scale.value, r.scale.unit, undefined, 5)}    ${pct} bounds ${formatQuantity(r.scale.low, r.scale.unit, undefined, 4)} … ${formatQuantity(r.scale.high, r.scale.unit, undefined, 4)}  (63.2 % broken down${r.area !== null ? `, devices of ${formatQuantity(r.area, 'm^2', undefined, 4)}` : ''})`);
+  lines.push(`  1 % point = ${formatQuantity(r.onePercent.value, r.onePercent.unit, undefined, 4)}    bounds ${formatQuantity(r.onePercent.low, r.onePercent.unit, undefined, 4)} … ${formatQuantity(r.onePercent.high, r.onePercent.unit, undefined, 4)}`);
   if (r.areaScaling) {
     const a = r.areaScaling;
-    lines.push(`  η scaled to ${formatValue(a.toArea, 'm^2')} = ${formatValue(a.scale.value, a.scale.unit, 5)}    bounds ${formatValue(a.scale.low, a.scale.unit)} … ${formatValue(a.scale.high, a.scale.unit)}  (η₂ = η₁·(A₁/A₂)^(1/β), β unchanged)`);
+    lines.push(`  η scaled to ${formatQuantity(a.toArea, 'm^2', undefined, 4)} = ${formatQuantity(a.scale.value, a.scale.unit, undefined, 5)}    bounds ${formatQuantity(a.scale.low, a.scale.unit, undefined, 4)} … ${formatQuantity(a.scale.high, a.scale.unit, undefined, 4)}  (η₂ = η₁·(A₁/A₂)^(1/β), β unchanged)`);
   }
   lines.push(`  method: maximum likelihood; ${r.bounds.method === 'likelihood-ratio' ? 'likelihood-ratio' : 'Fisher-matrix'} bounds (two-sided ${pct}); log-likelihood ${r.logLikelihood.toFixed(4)}`);
   if (r.goodnessOfFit) {
@@ -151,7 +159,7 @@ function formatReport(r: WeibullReport, s: BreakdownSample): string {
   for (const n of s.notes) lines.push(`  note: ${n}`);
   for (const w of r.warnings) lines.push(`  WARNING: ${w}`);
   lines.push('  Weibull plot (median ranks, Bernard): x, F, ln(−ln(1−F))');
-  for (const p of r.points) lines.push(`    ${formatValue(p.x, r.scale.unit, 6).padStart(16)}  ${p.F.toFixed(4)}  ${Math.log(-Math.log1p(-p.F)).toFixed(4)}`);
+  for (const p of r.points) lines.push(`    ${formatQuantity(p.x, r.scale.unit, undefined, 6).padStart(16)}  ${p.F.toFixed(4)}  ${Math.log(-Math.log1p(-p.F)).toFixed(4)}`);
   return lines.join('\n');
 }
 
@@ -161,6 +169,7 @@ export function registerWeibull(program: Command): void {
     .description('Weibull statistics of breakdown values across devices: shape and scale by maximum likelihood with bounds, median-rank plot, goodness of fit, two-population warning, area scaling')
     .argument('[input...]', 'session folders or data folders (their device-results.csv), results files, or CSV files with one value per device (or --postgres with a selection)')
     .option('--quantity <name>', `results: ${Object.keys(RESULT_QUANTITIES).join(' | ')} (default field); other CSVs: the column with the values`)
+    .option('--test <kind>', 'results: the kind of test to analyse (voltage-ramp | current-ramp | constant-voltage | constant-current), or all to pool them; needed when the results hold several')
     .option('--area <q>', 'device area (or the reference area when devices differ), e.g. "1e-4 cm^2"')
     .option('--to-area <q>', 'scale η to this area through β (Poisson area scaling), e.g. "1 cm^2"')
     .option('--confidence <c>', 'two-sided confidence of the bounds', '0.9')
@@ -176,7 +185,7 @@ export function registerWeibull(program: Command): void {
       const toArea = o.toArea !== undefined ? parseQuantity(o.toArea, 'area', '--to-area') : undefined;
       const s = await gatherSample(inputs, o, area);
       if (toArea !== undefined && s.area === undefined) throw new UsageError('--to-area needs the devices\' area: give --area (or an area column / device area in the sessions)');
-      const r = analyzeWeibull({ values: s.values, censored: s.censored, areaFactor: s.areaFactor }, { confidence, bounds, unit: s.unit, area: s.area, toArea, display: (v) => formatValue(v, s.unit) });
+      const r = analyzeWeibull({ values: s.values, censored: s.censored, areaFactor: s.areaFactor }, { confidence, bounds, unit: s.unit, area: s.area, toArea, display: (v) => formatQuantity(v, s.unit, undefined, 4) });
       const report = { ...r, quantity: s.title, notes: s.notes };
       if (o.json) process.stdout.write(`${JSON.stringify(report)}\n`);
       else process.stdout.write(`${formatReport(r, s)}\n`);

@@ -6,11 +6,13 @@
  * outliers by robust z-score, and the cautions the sessions raised.
  */
 import { writeFileSync } from 'node:fs';
-import { boxSummary, modifiedZ, OUTLIER_Z } from '../analysis/robust.js';
+import { boxSummary, gridResolution, modifiedZ, OUTLIER_Z } from '../analysis/robust.js';
 import { analyzeWeibull, weibullPlotY, weibullQuantile, type WeibullReport } from '../analysis/weibull.js';
 import { OKABE_ITO, sequential } from '../../protocols/palette.js';
+import { formatLogTicks, formatTicks, logTicks, niceTicks } from '../../protocols/number-format.js';
 import { resultQuantity } from '../../protocols/device-results.js';
-import { breakdownSample, displayUnit, formatValue, lotResults, type BreakdownSample, type DeviceSummary, type LotSource } from './lot.js';
+import { displayUnit, formatQuantity } from '../../protocols/display-units.js';
+import { breakdownSample, LotRequestError, lotResults, type BreakdownSample, type DeviceSummary, type LotSource } from './lot.js';
 
 const esc = (s: unknown) => String(s).replace(/&/g, '&amp;').replace(/</g, '&lt;').replace(/>/g, '&gt;').replace(/"/g, '&quot;');
 const num = (v: number | undefined, d = 4) => (v === undefined || !Number.isFinite(v) ? '—' : Math.abs(v) >= 1e4 || (Math.abs(v) < 1e-2 && v !== 0) ? v.toExponential(d - 1) : String(+v.toPrecision(d)));
@@ -22,6 +24,8 @@ export interface LotOptions {
   readonly quantity?: string;
   readonly confidence?: number;
   readonly area?: number;
+  /** Kind of test whose results the Weibull plot takes ('all' pools every kind); needed when the lot holds several. */
+  readonly test?: string;
 }
 
 /** One row of the lot: a device with its values (parameters and breakdown results). */
@@ -42,6 +46,8 @@ export interface ParameterStats {
   readonly n: number;
   /** The robust z-scores were taken of ln(value) (a positive quantity spanning more than a decade). */
   readonly logScale: boolean;
+  /** The grid step the values sit on (ties on a ramp's levels), which floors the MAD; else null. */
+  readonly resolution: number | null;
   readonly box: ReturnType<typeof boxSummary> | null;
   /** Devices with |modified z| > 3.5 (Iglewicz & Hoaglin 1993). */
   readonly outliers: readonly { session: string; device: string; value: number; z: number }[];
@@ -98,12 +104,16 @@ export async function analyzeLot(source: LotSource, o: LotOptions = {}): Promise
     const vals = have.map((r) => r.values[name].value);
     // Quantities spanning decades (charge to breakdown, leakage) are compared on a log scale.
     const log = vals.length > 0 && vals.every((v) => v > 0) && Math.max(...vals) / Math.min(...vals) > 10;
-    const z = vals.length >= 3 ? modifiedZ(log ? vals.map(Math.log) : vals) : vals.map(() => 0);
+    // Values read on a grid (a ramp's levels) tie; the grid step floors the MAD so that devices one
+    // step from a tied majority are not all called outliers.
+    const resolution = log ? undefined : gridResolution(vals);
+    const z = vals.length >= 3 ? modifiedZ(log ? vals.map(Math.log) : vals, resolution) : vals.map(() => 0);
     parameters.push({
       name,
       unit,
       n: vals.length,
       logScale: log,
+      resolution: resolution ?? null,
       box: vals.length ? boxSummary(vals) : null,
       outliers: have.map((r, k) => ({ session: r.session, device: r.device, value: vals[k], z: z[k] })).filter((q) => Math.abs(q.z) > OUTLIER_Z),
     });
@@ -114,10 +124,10 @@ export async function analyzeLot(source: LotSource, o: LotOptions = {}): Promise
   const q = resultQuantity(o.quantity ?? 'field');
   const results = lotResults(devices);
   if (q && results.length) {
-    const s: BreakdownSample = breakdownSample(results, q, o.area);
-    sample = s;
     try {
-      weibull = { ...analyzeWeibull({ values: s.values, censored: s.censored, areaFactor: s.areaFactor }, { confidence: o.confidence ?? 0.9, unit: s.unit, area: s.area, display: (v) => formatValue(v, s.unit) }), quantity: s.title, notes: s.notes };
+      const s: BreakdownSample = breakdownSample(results, q, o.area, o.test);
+      sample = s;
+      weibull = { ...analyzeWeibull({ values: s.values, censored: s.censored, areaFactor: s.areaFactor }, { confidence: o.confidence ?? 0.9, unit: s.unit, area: s.area, display: (v) => formatQuantity(v, s.unit, undefined, 4) }), quantity: s.title, notes: s.notes };
     } catch (e) {
       weibullError = (e as Error).message;
     }
@@ -154,7 +164,7 @@ function boxStrip(p: ParameterStats, rows: LotRow[]): string {
     if (!v || !Number.isFinite(v.value)) continue;
     const g = r.wafer || '(no wafer)';
     if (!groups.has(g)) groups.set(g, []);
-    groups.get(g)?.push({ v: v.value * d.factor, out: outKeys.has(`${r.session}/${r.device}`), label: `${r.device}${r.site ? ` @ ${r.site}` : ''}` });
+    groups.get(g)?.push({ v: v.value * d.scale, out: outKeys.has(`${r.session}/${r.device}`), label: `${r.device}${r.site ? ` @ ${r.site}` : ''}` });
   }
   const all = [...groups.values()].flat().map((q) => q.v);
   if (all.length === 0) return '';
@@ -194,10 +204,11 @@ function boxStrip(p: ParameterStats, rows: LotRow[]): string {
   }
   const ty = H - 22;
   parts.push(`<line x1="${L}" x2="${W - R}" y1="${ty}" y2="${ty}" stroke="#888"/>`);
-  for (let t = 0; t <= 5; t++) {
-    const v = lo + ((hi - lo) * t) / 5;
-    parts.push(`<text x="${px(v).toFixed(1)}" y="${ty + 14}" text-anchor="middle">${num(v, 3)}</text>`);
-  }
+  const ticks = niceTicks(lo, hi, 6);
+  const labels = formatTicks(ticks);
+  ticks.forEach((v, k) => {
+    parts.push(`<text class="xtick" x="${px(v).toFixed(1)}" y="${ty + 14}" text-anchor="middle">${esc(labels[k])}</text>`);
+  });
   parts.push('</svg>');
   return parts.join('');
 }
@@ -246,9 +257,9 @@ function waferMap(name: string, rows: LotRow[], outliers: Set<string>): string {
       const fill = has ? sequential(t(v)) : '#eeeeee';
       const textColour = has && t(v) > 0.55 ? '#000' : has ? '#fff' : '#555';
       // (a style, not a fill attribute: the report's stylesheet sets the chart text colour)
-      parts.push(`<g><title>${esc(r.device)}${r.site ? ` @ ${esc(r.site)}` : ''} (${r.x}, ${r.y}): ${has ? esc(formatValue(v, unit)) : 'no value'}${isOut ? ' — outlier' : ''}</title>`);
+      parts.push(`<g><title>${esc(r.device)}${r.site ? ` @ ${esc(r.site)}` : ''} (${r.x}, ${r.y}): ${has ? esc(formatQuantity(v, unit, undefined, 4)) : 'no value'}${isOut ? ' — outlier' : ''}</title>`);
       parts.push(`<rect class="site" x="${X + 1}" y="${Y + 1}" width="${cell - 2}" height="${cell - 2}" fill="${fill}" stroke="${isOut ? OKABE_ITO.vermillion : '#fff'}" stroke-width="${isOut ? 3 : 1}"${has ? '' : ' stroke-dasharray="2 2"'}/>`);
-      parts.push(`<text x="${X + cell / 2}" y="${Y + cell / 2}" text-anchor="middle" dominant-baseline="middle" style="fill:${textColour}" font-size="${cell < 34 ? 8 : 10}">${has ? esc(num(v * d.factor, 3)) : '—'}${isOut ? '!' : ''}</text></g>`);
+      parts.push(`<text x="${X + cell / 2}" y="${Y + cell / 2}" text-anchor="middle" dominant-baseline="middle" style="fill:${textColour}" font-size="${cell < 34 ? 8 : 10}">${has ? esc(num(v * d.scale, 3)) : '—'}${isOut ? '!' : ''}</text></g>`);
     }
     parts.push('</svg>');
     out.push(parts.join(''));
@@ -256,20 +267,8 @@ function waferMap(name: string, rows: LotRow[], outliers: Set<string>): string {
   // Colour bar.
   const bar = [`<svg class="chart" xmlns="http://www.w3.org/2000/svg" width="320" height="46" viewBox="0 0 320 46" role="img" aria-label="colour scale">`];
   for (let k = 0; k < 60; k++) bar.push(`<rect x="${10 + k * 5}" y="6" width="5.5" height="14" fill="${sequential(k / 59)}"/>`);
-  bar.push(`<text x="10" y="34">${esc(num(vlo * d.factor, 4))}</text><text x="310" y="34" text-anchor="end">${esc(num(vhi * d.factor, 4))} ${esc(d.unit)}</text></svg>`);
+  bar.push(`<text x="10" y="34">${esc(num(vlo * d.scale, 4))}</text><text x="310" y="34" text-anchor="end">${esc(num(vhi * d.scale, 4))} ${esc(d.unit)}</text></svg>`);
   return `<div class="plots">${out.join('')}</div>${bar.join('')}<p class="note">Squares: sites, coloured from the lowest value (dark) to the highest (light) and labelled with the value; a thick vermillion border and "!" mark an outlier; dashed grey: no value.</p>`;
-}
-
-/** Ticks at 1, 2, 5 × 10^k inside [lo, hi] (at least the decade ends when the range is wide). */
-function logTicks(lo: number, hi: number): number[] {
-  const out: number[] = [];
-  for (let k = Math.floor(Math.log10(lo)); k <= Math.ceil(Math.log10(hi)); k++) {
-    for (const m of hi / lo > 1e3 ? [1] : hi / lo > 30 ? [1, 3] : [1, 1.5, 2, 3, 4, 5, 6, 7, 8, 9]) {
-      const v = m * 10 ** k;
-      if (v >= lo && v <= hi) out.push(v);
-    }
-  }
-  return out;
 }
 
 /**
@@ -284,7 +283,7 @@ function weibullPlot(w: WeibullReport & { quantity: string }, values: number[], 
     .filter((F) => F >= Math.min(pts[0]?.F ?? 0.01, 0.01) * 0.5 && F <= Math.max(pts[pts.length - 1]?.F ?? 0.99, 0.99));
   const q = Fs.map((F) => weibullQuantile({ values, censored, areaFactor }, F, w.bounds.confidence, w.bounds.method));
   const pct = `${+(w.bounds.confidence * 100).toPrecision(3)} %`;
-  const xs = [...pts.map((p) => p.x), ...q.map((p) => p.low), ...q.map((p) => p.high)].filter((v) => v > 0 && Number.isFinite(v)).map((v) => v * d.factor);
+  const xs = [...pts.map((p) => p.x), ...q.map((p) => p.low), ...q.map((p) => p.high)].filter((v) => v > 0 && Number.isFinite(v)).map((v) => v * d.scale);
   const xlo = Math.min(...xs) / 1.08;
   const xhi = Math.max(...xs) * 1.08;
   const ylo = weibullPlotY(Fs[0]) - 0.2;
@@ -298,23 +297,25 @@ function weibullPlot(w: WeibullReport & { quantity: string }, values: number[], 
   const px = (v: number) => L + ((Math.log(v) - Math.log(xlo)) / (Math.log(xhi) - Math.log(xlo))) * (W - L - R);
   const py = (y: number) => H - B - ((y - ylo) / (yhi - ylo)) * (H - T - B);
   const parts = [`<svg class="chart" xmlns="http://www.w3.org/2000/svg" width="${W}" height="${H}" viewBox="0 0 ${W} ${H}" role="img" aria-label="Weibull plot">`];
-  parts.push(`<text x="${L}" y="16" class="t">${esc(w.quantity)}: ● devices (median ranks) · solid: ML fit, β = ${+w.shape.value.toPrecision(3)}, η = ${esc(formatValue(w.scale.value, w.scale.unit))} · dashed: ${pct} bounds</text>`);
+  parts.push(`<text x="${L}" y="16" class="t">${esc(w.quantity)}: ● devices (median ranks) · solid: ML fit, β = ${+w.shape.value.toPrecision(3)}, η = ${esc(formatQuantity(w.scale.value, w.scale.unit, undefined, 4))} · dashed: ${pct} bounds</text>`);
   parts.push(`<rect x="${L}" y="${T}" width="${W - L - R}" height="${H - T - B}" fill="none" stroke="#888"/>`);
-  for (const t of logTicks(xlo, xhi)) {
+  const xt = logTicks(xlo, xhi);
+  const xl = formatLogTicks(xt);
+  xt.forEach((t, k) => {
     const X = px(t).toFixed(1);
-    parts.push(`<line x1="${X}" y1="${T}" x2="${X}" y2="${H - B}" stroke="#e4e1d8"/><text x="${X}" y="${H - B + 14}" text-anchor="middle">${num(t, 3)}</text>`);
-  }
+    parts.push(`<line class="xtick" x1="${X}" y1="${T}" x2="${X}" y2="${H - B}" stroke="#e4e1d8"/><text x="${X}" y="${H - B + 14}" text-anchor="middle">${esc(xl[k])}</text>`);
+  });
   for (const F of Fs) {
     const Y = py(weibullPlotY(F)).toFixed(1);
     parts.push(`<line x1="${L}" y1="${Y}" x2="${W - R}" y2="${Y}" stroke="${F === 0.632 ? '#bbb' : '#e4e1d8'}"/><text x="${L - 4}" y="${Y}" text-anchor="end" dominant-baseline="middle">${+(F * 100).toPrecision(3)} %</text>`);
   }
   parts.push(`<text x="${(L + W - R) / 2}" y="${H - 8}" text-anchor="middle" class="ax">${esc(w.quantity)} (${esc(d.unit)}), log scale</text>`);
   parts.push(`<text transform="translate(14 ${(T + H - B) / 2}) rotate(-90)" text-anchor="middle" class="ax">fraction broken down F (on ln(−ln(1 − F)))</text>`);
-  const line = (xsv: number[], stroke: string, extra: string) => `<polyline fill="none" stroke="${stroke}" ${extra} points="${xsv.map((x, k) => `${px(x * d.factor).toFixed(1)},${py(weibullPlotY(Fs[k])).toFixed(1)}`).join(' ')}"/>`;
+  const line = (xsv: number[], stroke: string, extra: string) => `<polyline fill="none" stroke="${stroke}" ${extra} points="${xsv.map((x, k) => `${px(x * d.scale).toFixed(1)},${py(weibullPlotY(Fs[k])).toFixed(1)}`).join(' ')}"/>`;
   parts.push(line(q.map((p) => p.low), OKABE_ITO.sky, 'stroke-dasharray="5 4" stroke-width="1.4"'));
   parts.push(line(q.map((p) => p.high), OKABE_ITO.sky, 'stroke-dasharray="5 4" stroke-width="1.4"'));
   parts.push(line(q.map((p) => p.value), OKABE_ITO.black, 'stroke-width="2"'));
-  for (const p of pts) parts.push(`<circle class="device" cx="${px(p.x * d.factor).toFixed(1)}" cy="${py(weibullPlotY(p.F)).toFixed(1)}" r="3" fill="${OKABE_ITO.vermillion}"><title>${esc(formatValue(p.x, w.scale.unit))}, F = ${p.F.toFixed(3)}</title></circle>`);
+  for (const p of pts) parts.push(`<circle class="device" cx="${px(p.x * d.scale).toFixed(1)}" cy="${py(weibullPlotY(p.F)).toFixed(1)}" r="3" fill="${OKABE_ITO.vermillion}"><title>${esc(formatQuantity(p.x, w.scale.unit, undefined, 4))}, F = ${p.F.toFixed(3)}</title></circle>`);
   parts.push('</svg>');
   return parts.join('');
 }
@@ -349,7 +350,7 @@ table{border-collapse:collapse;font-variant-numeric:tabular-nums;font-size:.8rem
     out.push(`<tr><td>${esc(r.session)}</td><td>${esc(r.device)}</td><td>${esc(r.wafer)}</td><td>${esc(r.site)}</td><td>${r.x ?? '—'}, ${r.y ?? '—'}</td><td>${esc(r.outcome ?? '—')}</td>`);
     for (const p of a.parameters) {
       const v = r.values[p.name];
-      const f = displayUnit(p.unit).factor;
+      const f = displayUnit(p.unit).scale;
       const isOut = outKey.get(p.name)?.has(`${r.session}/${r.device}`);
       out.push(`<td${isOut ? ' class="out"' : ''}>${v ? `${num(v.value * f, 5)}${v.stdErr !== undefined ? ` ± ${num(v.stdErr * f, 2)}` : ''}${isOut ? ' ◇ outlier' : ''}` : '—'}</td>`);
     }
@@ -362,10 +363,10 @@ table{border-collapse:collapse;font-variant-numeric:tabular-nums;font-size:.8rem
     if (!p.box) continue;
     const d = displayUnit(p.unit);
     out.push(boxStrip(p, a.rows));
-    out.push(`<p class="note">${esc(p.name)}: n = ${p.n}, median ${num(p.box.median * d.factor)} ${esc(d.unit)}, quartiles ${num(p.box.q1 * d.factor)} … ${num(p.box.q3 * d.factor)}${p.logScale ? '; spans more than a decade, so outliers are judged on ln(value)' : ''}${p.outliers.length ? `; outliers: ${p.outliers.map((q) => `${esc(q.device)} (z = ${q.z.toFixed(1)})`).join(', ')}` : ''}.</p>`);
+    out.push(`<p class="note">${esc(p.name)}: n = ${p.n}, median ${num(p.box.median * d.scale)} ${esc(d.unit)}, quartiles ${num(p.box.q1 * d.scale)} … ${num(p.box.q3 * d.scale)}${p.logScale ? '; spans more than a decade, so outliers are judged on ln(value)' : ''}${p.resolution !== null ? `; values sit on a grid of ${num(p.resolution * d.scale)} ${esc(d.unit)} (ties), so no spread below one step counts` : ''}${p.outliers.length ? `; outliers: ${p.outliers.map((q) => `${esc(q.device)} (z = ${q.z.toFixed(1)})`).join(', ')}` : ''}.</p>`);
   }
   // Wafer map.
-  const mapName = o.map !== undefined ? (a.parameters.find((p) => p.name === o.map) ?? a.parameters.find((p) => p.name === resultQuantity(o.map as string)?.title))?.name : (a.parameters.find((p) => p.name === 'breakdown field') ?? a.parameters[0])?.name;
+  const mapName = mapParameter(a, o.map);
   out.push(`<h2>Wafer map${mapName ? `: ${esc(mapName)}` : ''}</h2>`);
   if (o.map !== undefined && !mapName) out.push(`<p class="note">No parameter named '${esc(o.map)}' in this lot (have: ${a.parameters.map((p) => esc(p.name)).join(', ')}).</p>`);
   else if (mapName) out.push(waferMap(mapName, a.rows, outKey.get(mapName) ?? new Set()));
@@ -377,8 +378,8 @@ table{border-collapse:collapse;font-variant-numeric:tabular-nums;font-size:.8rem
     out.push(weibullPlot(w, sample.values, sample.censored, sample.areaFactor));
     out.push(`<table><tr><th>devices</th><td>${w.n} (${w.failures} broke down, ${w.censored} survived)</td></tr>
 <tr><th>shape β</th><td>${num(w.shape.value)} (${pct}: ${num(w.shape.low)} … ${num(w.shape.high)})</td></tr>
-<tr><th>scale η</th><td>${esc(formatValue(w.scale.value, w.scale.unit, 5))} (${pct}: ${esc(formatValue(w.scale.low, w.scale.unit))} … ${esc(formatValue(w.scale.high, w.scale.unit))})${w.area !== null ? `, devices of ${esc(formatValue(w.area, 'm^2'))}` : ''}</td></tr>
-<tr><th>1 % point</th><td>${esc(formatValue(w.onePercent.value, w.onePercent.unit))} (${esc(formatValue(w.onePercent.low, w.onePercent.unit))} … ${esc(formatValue(w.onePercent.high, w.onePercent.unit))})</td></tr>
+<tr><th>scale η</th><td>${esc(formatQuantity(w.scale.value, w.scale.unit, undefined, 5))} (${pct}: ${esc(formatQuantity(w.scale.low, w.scale.unit, undefined, 4))} … ${esc(formatQuantity(w.scale.high, w.scale.unit, undefined, 4))})${w.area !== null ? `, devices of ${esc(formatQuantity(w.area, 'm^2', undefined, 4))}` : ''}</td></tr>
+<tr><th>1 % point</th><td>${esc(formatQuantity(w.onePercent.value, w.onePercent.unit, undefined, 4))} (${esc(formatQuantity(w.onePercent.low, w.onePercent.unit, undefined, 4))} … ${esc(formatQuantity(w.onePercent.high, w.onePercent.unit, undefined, 4))})</td></tr>
 <tr><th>goodness of fit</th><td>${w.goodnessOfFit ? `Anderson–Darling A²·(1 + 0.2/√n) = ${w.goodnessOfFit.modified.toFixed(3)} (5 % critical ${w.goodnessOfFit.critical['0.05']})` : 'not computed with survivors'}</td></tr>
 <tr><th>method</th><td>maximum likelihood, ${w.bounds.method} bounds (IEC 61649)</td></tr></table>`);
     for (const n of w.notes) out.push(`<p class="note">${esc(n)}</p>`);
@@ -389,8 +390,18 @@ table{border-collapse:collapse;font-variant-numeric:tabular-nums;font-size:.8rem
   return out.join('\n');
 }
 
+/** The parameter the wafer map shows: the one asked for (by name or breakdown quantity), else the breakdown field, else the first. */
+export function mapParameter(a: LotAnalysis, map: string | undefined): string | undefined {
+  if (map === undefined) return (a.parameters.find((p) => p.name === 'breakdown field') ?? a.parameters[0])?.name;
+  return (a.parameters.find((p) => p.name === map) ?? a.parameters.find((p) => p.name === resultQuantity(map)?.title))?.name;
+}
+
+/** Analyses the lot and writes its report; a --map naming no parameter of the lot is refused before anything is written. */
 export async function writeLotReport(source: LotSource, file: string, o: LotOptions = {}): Promise<LotAnalysis> {
   const a = await analyzeLot(source, o);
+  if (o.map !== undefined && mapParameter(a, o.map) === undefined) {
+    throw new LotRequestError(`--map '${o.map}': no such parameter in this lot (have: ${a.parameters.map((p) => p.name).join(', ') || 'none'}; or field | voltage | charge | time for breakdown results)`);
+  }
   writeFileSync(file, renderLot(a, o));
   return a;
 }

@@ -10,7 +10,7 @@
  */
 import { existsSync, readFileSync, statSync, writeFileSync } from 'node:fs';
 import { basename, join, resolve } from 'node:path';
-import { DEVICE_RESULTS_FILE, mergeIdentity, parseDeviceResults, type DeviceIdentity, type DeviceResult } from '../../protocols/device-results.js';
+import { DEVICE_RESULTS_FILE, mergeIdentity, parseDeviceResults, TEST_KINDS, type DeviceIdentity, type DeviceResult } from '../../protocols/device-results.js';
 import type { ParameterFigure, WireEvent } from '../../protocols/wire.js';
 import { JOURNAL_FILE, JournalError, liveLockHolder } from './journal.js';
 import { listSessions, scanJournal } from './reader.js';
@@ -288,7 +288,8 @@ export interface BreakdownSample {
  * different areas are put on one reference area (`referenceArea`, else their median area) through
  * per-device area factors.
  */
-export function breakdownSample(rows: readonly (DeviceResult & { session?: string })[], quantity: { key: keyof DeviceResult; unit: string; title: string; column: string }, referenceArea?: number): BreakdownSample {
+export function breakdownSample(rowsIn: readonly (DeviceResult & { session?: string })[], quantity: { key: keyof DeviceResult; unit: string; title: string; column: string }, referenceArea?: number, test?: string): BreakdownSample {
+  const rows = selectTest(rowsIn, test);
   const values: number[] = [];
   const censored: boolean[] = [];
   const areas: (number | undefined)[] = [];
@@ -316,12 +317,37 @@ export function breakdownSample(rows: readonly (DeviceResult & { session?: strin
     areas.push(r.area);
     labels.push(r.session ? `${r.session}/${r.device}` : r.device);
   }
+  const kinds = new Set(rows.map((r) => r.test));
+  if (kinds.size > 1) notes.push(`${kinds.size} kinds of test pooled (${[...kinds].join(', ')}), as asked`);
   if (initial) notes.push(`${initial} initial failure(s) (failed at the use condition before the test) left out of the fit; count them as yield loss`);
   if (invalid) notes.push(`${invalid} invalid test(s) left out`);
   if (missing) notes.push(`${missing} device(s) without a ${quantity.title} (${quantity.column}) left out`);
   const a = referenceAreas(areas, referenceArea);
   notes.push(...a.notes);
   return { values, censored, areaFactor: a.areaFactor, area: a.area, labels, unit: quantity.unit, title: quantity.title, notes };
+}
+
+/** What was asked of a lot cannot be done (several kinds of test pooled unasked, an unknown kind or map parameter); the message names the option. */
+export class LotRequestError extends Error {}
+
+/**
+ * The rows of one kind of test. Breakdown values of different tests do not come from one
+ * distribution (a ramp's breakdown field grows with its ramp rate, a constant-voltage stress sets
+ * the field and measures time; JEDEC JESD35-A treats them as separate tests), so rows of several
+ * kinds are refused unless one kind is chosen, or 'all' pools them on purpose.
+ */
+export function selectTest<T extends DeviceResult>(rows: readonly T[], test: string | undefined): T[] {
+  const counts = new Map<string, number>();
+  for (const r of rows) counts.set(r.test, (counts.get(r.test) ?? 0) + 1);
+  const order = (k: string) => ((TEST_KINDS as readonly string[]).indexOf(k) + 1 || 99);
+  const held = [...counts].sort((a, b) => order(a[0]) - order(b[0]) || a[0].localeCompare(b[0])).map(([k, n]) => `${k} (${n})`).join(', ');
+  if (test === 'all') return [...rows];
+  if (test === undefined || test === '') {
+    if (counts.size > 1) throw new LotRequestError(`the results hold ${counts.size} kinds of test: ${held}; choose one with --test KIND (the page's lot view: ?test=KIND), or pool them with --test all`);
+    return [...rows];
+  }
+  if (!counts.has(test)) throw new LotRequestError(`--test '${test}': ${rows.length ? `the results hold ${held}` : 'there are no results'}${(TEST_KINDS as readonly string[]).includes(test) ? '' : ` (kinds of test: ${TEST_KINDS.join(', ')}, or all)`}`);
+  return rows.filter((r) => r.test === test);
 }
 
 /**
@@ -339,28 +365,5 @@ export function referenceAreas(areas: readonly (number | undefined)[], reference
   if (known.length < areas.length) notes.push(`${areas.length - known.length} device(s) without an area taken at the reference area`);
   if (distinct.size > 1) notes.push(`devices of ${distinct.size} areas put on the reference area ${area.toPrecision(4)} m² by Poisson (weakest-link) area scaling`);
   return { area, areaFactor: areas.map((a) => (a !== undefined && a > 0 ? a / area : 1)), notes };
-}
-
-/** Units the trade quotes on screen for the SI units the files hold. */
-export function displayUnit(unit: string): { unit: string; factor: number } {
-  switch (unit) {
-    case 'V/m':
-      return { unit: 'MV/cm', factor: 1e-8 };
-    case 'C/m^2':
-      return { unit: 'C/cm²', factor: 1e-4 };
-    case 'm^2':
-      return { unit: 'cm²', factor: 1e4 };
-    case 'm':
-      return { unit: 'nm', factor: 1e9 };
-    default:
-      return { unit, factor: 1 };
-  }
-}
-
-export function formatValue(v: number, unit: string, digits = 4): string {
-  const d = displayUnit(unit);
-  const x = v * d.factor;
-  const s = Math.abs(x) >= 1e5 || (Math.abs(x) < 1e-3 && x !== 0) ? x.toExponential(digits - 1).replace(/\.?0+e/, 'e') : String(+x.toPrecision(digits));
-  return d.unit ? `${s} ${d.unit}` : s;
 }
 

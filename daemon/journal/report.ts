@@ -1,18 +1,23 @@
 /**
  * `plumbline report`: one self-contained HTML file for a session — no script, no network, inline SVG
- * charts and CSS that print to PDF — with the settings (plan, analysis, drift watch, limits) as
- * tables in the trade's units, the notes, cautions and decisions in time order, all sweeps on one
- * plot, each parameter across sweeps with the drift chart's limits and baseline breaks, a results
- * table with uncertainties, a solar cell's figures of merit, and every sweep's measured, linearized
- * and residual plots (the marks the page draws: ✕ negative current, □ compliance). The physics
- * comes from daemon/analysis (the linearized views are the same plotView the page draws); numbers
- * and units go through protocols/display-units.ts and number-format.ts, as on the page and the CLI.
+ * charts and CSS that print to PDF — with a breakdown test's result (outcome, the criterion that
+ * fired with its numbers, V_bd, E_bd, Q_bd ± its uncertainty, t_bd, leakage before and after, named
+ * as on the page: protocols/breakdown-display.ts), the device under test, the settings (plan,
+ * analysis, drift watch, limits) as tables in the trade's units, the notes, cautions and decisions
+ * in time order, all sweeps on one plot, each parameter across sweeps with the drift chart's limits
+ * and baseline breaks, a results table with uncertainties, a solar cell's figures of merit, and
+ * every sweep's measured, linearized and residual plots (the marks the page draws: ✕ negative
+ * current, □ compliance, a reading at compliance joined to no line since the bias was not held).
+ * The physics comes from daemon/analysis (the linearized views are the same plotView the page
+ * draws); numbers and units go through protocols/display-units.ts and number-format.ts, as on the
+ * page and the CLI.
  */
 import { existsSync, readFileSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { plotView, type PlotView } from '../analysis/plot.js';
 import { analysisSchema, type AnalysisSettings } from '../pipeline/settings.js';
-import { displayUnit, formatInputs, formatParameter, formatParameterText, formatQuantity, parameterLabel } from '../../protocols/display-units.js';
+import { deviceLine, deviceRows, type FigureRow, numberRows, OUTCOME_LABELS, resultFigureRows, TEST_TITLES } from '../../protocols/breakdown-display.js';
+import { axisLabel, displayUnit, formatInputs, formatParameter, formatParameterText, formatQuantity, parameterLabel } from '../../protocols/display-units.js';
 import { formatNumber } from '../../protocols/number-format.js';
 import { OKABE_ITO } from '../../protocols/palette.js';
 import type { SolarSummary, WireEvent } from '../../protocols/wire.js';
@@ -46,6 +51,39 @@ function table(rows: [string, string | undefined][]): string {
   return `<table class="kv">${rows.filter(([, v]) => v !== undefined && v !== '').map(([k, v]) => `<tr><th>${esc(k)}</th><td>${esc(v)}</td></tr>`).join('')}</table>`;
 }
 
+/** A table of figures (name, number and unit), each row marked with the key it came from. */
+function figureTable(rows: readonly FigureRow[], cls: string): string {
+  return `<table class="kv ${cls}">${rows.map((r) => `<tr data-figure="${esc(r.key)}"><th>${esc(r.label)}</th><td><span class="num">${esc(r.text)}</span>${r.unit ? ` <span class="unit">${esc(r.unit)}</span>` : ''}</td></tr>`).join('')}</table>`;
+}
+
+/**
+ * A breakdown test (voltage ramp, current ramp, constant-voltage stress): what was run, the
+ * outcome, the criterion that fired with its numbers, and the result figures in the trade's units
+ * with the page's names (protocols/breakdown-display.ts). Empty for a session that is no test.
+ */
+function breakdownSection(s: SessionData): string {
+  const plan = s.session?.plan as { kind?: unknown; description?: unknown } | null | undefined;
+  const kind = typeof plan?.kind === 'string' && plan.kind in TEST_TITLES ? plan.kind : s.testResult?.test;
+  if (!kind) return '';
+  const out = [`<h2>Breakdown test: ${esc(TEST_TITLES[kind] ?? kind)}</h2>`];
+  if (typeof plan?.description === 'string') out.push(`<p>${esc(plan.description)}.</p>`);
+  const r = s.testResult;
+  if (!r) return `${out.join('')}<p class="note">No result recorded: the test ended before it gave one (how the run ended is below).</p>`;
+  const criterion = typeof r.result.criterion === 'string' ? r.result.criterion : undefined;
+  out.push(`<p class="outcome" data-outcome="${esc(r.outcome)}"><b>${esc(OUTCOME_LABELS[r.outcome] ?? r.outcome)}</b> — ${esc(r.reason)}.</p>`);
+  const crit = numberRows(r.numbers, 'criterion');
+  const pace = numberRows(r.numbers, 'pace');
+  out.push('<div class="settings">');
+  out.push(`<div><h3>Result</h3>${figureTable([{ key: 'outcome', label: 'outcome', text: r.outcome, unit: '' }, ...(criterion ? [{ key: 'criterion', label: 'criterion', text: criterion, unit: '' }] : []), ...resultFigureRows(r)], 'test-result')}</div>`);
+  out.push(`<div><h3>Numbers of the criterion${criterion ? ` (${esc(criterion)})` : ''}</h3>${crit.length ? figureTable(crit, 'criterion') : '<p class="note">None recorded.</p>'}${pace.length ? `<h3>Pace of the test</h3>${figureTable(pace, 'pace')}` : ''}</div>`);
+  out.push('</div>');
+  const missing = [r.result.breakdownField === undefined ? 'no field without the film thickness' : '', r.result.chargeToBreakdown === undefined ? 'no charge per area without the device area' : ''].filter(Boolean);
+  if (missing.length && typeof r.result.breakdownVoltage === 'number') out.push(`<p class="note">${esc(missing.join('; '))}.</p>`);
+  const where = deviceLine(r.result);
+  out.push(`<p class="note">${where ? `${esc(where)}. ` : ''}The same figures in SI, full precision, are one row of device-results.csv beside the journal. Breakdown tests follow the wafer-level procedures of JEDEC JESD35-A.</p>`);
+  return out.join('');
+}
+
 function planTable(plan: Record<string, unknown> | null | undefined): string {
   if (plan === null) return '<p class="note">Passive source: no plan (plumbline watched readings another program produced).</p>';
   if (!plan) return '<p class="note">No plan recorded.</p>';
@@ -54,8 +92,17 @@ function planTable(plan: Record<string, unknown> | null | undefined): string {
   return table([
     ['sweep', typeof plan.description === 'string' ? plan.description : undefined],
     ['kind', typeof plan.kind === 'string' ? plan.kind : undefined],
-    ['from … to', n('start') !== undefined && n('stop') !== undefined ? `${num(n('start'))} … ${num(n('stop'))} V` : values ? `${values.length} listed levels, ${num(Math.min(...values))} … ${num(Math.max(...values))} V` : undefined],
+    // A current ramp forces currents: its range is in amperes.
+    ['from … to', n('start') !== undefined && n('stop') !== undefined ? `${num(n('start'))} … ${num(n('stop'))} ${plan.kind === 'current-ramp' ? 'A' : 'V'}` : values ? `${values.length} listed levels, ${num(Math.min(...values))} … ${num(Math.max(...values))} V` : undefined],
     ['points per sweep', n('points') !== undefined ? String(n('points')) : undefined],
+    ['step', n('step') !== undefined ? formatQuantity(n('step') as number, 'V') : undefined],
+    ['steps per decade', n('stepsPerDecade') !== undefined ? String(n('stepsPerDecade')) : undefined],
+    ['time per step', n('stepTime') !== undefined ? formatQuantity(n('stepTime') as number, 's') : undefined],
+    ['voltage limit', n('voltageLimit') !== undefined ? formatQuantity(n('voltageLimit') as number, 'V') : undefined],
+    ['stress', n('stress') !== undefined ? formatQuantity(n('stress') as number, 'V') : undefined],
+    ['duration', n('duration') !== undefined ? formatQuantity(n('duration') as number, 's') : undefined],
+    ['reading every', n('sampleEvery') !== undefined ? formatQuantity(n('sampleEvery') as number, 's') : undefined],
+    ['use-condition check at', n('useVoltage') !== undefined ? formatQuantity(n('useVoltage') as number, 'V') : undefined],
     ['out and back', plan.dual === undefined ? undefined : plan.dual ? 'yes' : 'no'],
     ['sweeps', n('repeat') !== undefined ? String(n('repeat')) : undefined],
     ['compliance', n('compliance') !== undefined ? formatQuantity(n('compliance') as number, 'A') : undefined],
@@ -164,12 +211,11 @@ function linearizedCharts(v: PlotView, model: string): { charts: string[]; hidde
   const sel = (inside: boolean) => xs.map((_x, k) => k).filter((k) => (v.inWindow[k] === 1) === inside && keep(xs[k]));
   const inK = sel(true);
   const outK = sel(false);
-  const label = (a: { label: string }, u: string) => (u ? `${a.label} (${u})` : a.label);
   const band = v.window ? [{ x0: v.window.x[0] * dx.scale, x1: v.window.x[1] * dx.scale, color: 'rgba(86,180,233,0.15)' }] : [];
   const charts = [svgChart({
     title: `${model}: ● in the window, ○ outside, line: fit`,
-    xLabel: label(v.axes.x, dx.unit),
-    yLabel: label(v.axes.y, dy.unit),
+    xLabel: axisLabel(v.axes.x),
+    yLabel: axisLabel(v.axes.y),
     xLog: xlog,
     yLog: ylog,
     bands: band,
@@ -187,8 +233,8 @@ function linearizedCharts(v: PlotView, model: string): { charts: string[]; hidde
     charts.push(svgChart({
       title: 'residuals of the fit',
       height: 200,
-      xLabel: label(v.axes.x, dx.unit),
-      yLabel: ylog ? 'ln residual' : label({ label: 'residual' }, dy.unit),
+      xLabel: axisLabel(v.axes.x),
+      yLabel: ylog ? 'ln residual' : axisLabel({ label: 'residual', unit: v.axes.y.unit }),
       xLog: xlog,
       bands: band,
       hlines: [{ y: 0, color: '#1b1b1b', dash: '1 0' }],
@@ -261,23 +307,17 @@ table.kv th{font-weight:600;color:#444;width:16rem}.settings{display:grid;grid-t
   out.push(`<p>Started ${esc(se?.startedAt ?? 'unknown')}; source: ${esc(se?.source.detail ?? 'unknown')}${se?.source.control === false ? ' (watched; plumbline did not control the instrument)' : ''}; instrument: ${esc(se?.instrument ?? 'unknown')}.<br>`);
   out.push(`Ended: <b>${esc(s.runEnd?.outcome ?? 'not ended')}</b>${s.runEnd ? ` — ${esc(s.runEnd.reason)}` : ''}. ${n} sweep(s).</p>`);
   out.push('<p class="caution">Cautions and decisions below record what the software saw. They do not replace your lab\'s safety rules, the instrument\'s manual or licensed practice.</p>');
+  out.push(breakdownSection(s));
   // Settings, as tables in the trade's units.
   out.push('<h2>Settings</h2><div class="settings">');
   out.push(`<div><h3>Sweep plan</h3>${planTable(plan)}</div>`);
   out.push(`<div><h3>Analysis at the start</h3>${analysisTable(first)}</div>`);
   out.push(`<div><h3>Drift watch</h3>${driftTable(se?.drift as Record<string, unknown> | null | undefined)}</div>`);
   out.push(`<div><h3>Station limits</h3>${limitsTable(se?.limits as Record<string, unknown> | null | undefined)}</div>`);
-  const dev = se?.device as Record<string, unknown> | undefined;
-  if (dev && Object.keys(dev).length) {
-    const q = (k: string, unit: string) => (typeof dev[k] === 'number' ? formatQuantity(dev[k] as number, unit, k) : undefined);
-    out.push(`<div><h3>Device under test</h3>${table([
-      ['device', typeof dev.device === 'string' ? dev.device : undefined],
-      ['wafer', typeof dev.wafer === 'string' ? dev.wafer : undefined],
-      ['site', typeof dev.site === 'string' ? `${dev.site}${typeof dev.x === 'number' ? ` (x ${dev.x}, y ${dev.y})` : ''}` : undefined],
-      ['area', q('area', 'm^2')],
-      ['thickness', q('thickness', 'm')],
-      ['temperature', q('temperature', 'K')],
-    ])}</div>`);
+  const dev = deviceRows(s.device as Record<string, unknown> | null);
+  if (dev.length) {
+    const corrected = s.annotations.some((a) => a.device);
+    out.push(`<div><h3>Device under test</h3>${figureTable(dev, 'device')}${corrected ? '<p class="note">With the corrections made in notes after the start (later values win).</p>' : ''}</div>`);
   }
   out.push('</div>');
   if (s.timelineSettings.length) {
@@ -311,7 +351,8 @@ table.kv th{font-weight:600;color:#444;width:16rem}.settings{display:grid;grid-t
     xLabel: 'bias V (V)',
     yLabel: '|I| (A)',
     yLog: true,
-    series: s.sweeps.flatMap((sw, k) => measuredSeries(sw, sequential(n > 1 ? k / (n - 1) : 1), `sweep ${sw.sweep}`).map((x, j) => (j === 0 ? { ...x, marker: 'none' as const } : x))),
+    // Curves as lines; a sweep of a single reading (a breakdown test's use-condition check) as a dot.
+    series: s.sweeps.flatMap((sw, k) => measuredSeries(sw, sequential(n > 1 ? k / (n - 1) : 1), `sweep ${sw.sweep}`).map((x, j) => (j === 0 && x.y.filter((y) => y !== null).length > 1 ? { ...x, marker: 'none' as const } : x))),
   }));
   // Parameter trends, in display units, with the drift chart of the charted parameter.
   const names = new Map<string, string>();
@@ -345,7 +386,7 @@ table.kv th{font-weight:600;color:#444;width:16rem}.settings{display:grid;grid-t
       line((d) => d.upper, OKABE_ITO.vermillion, '6 4', 'upper limit');
       line((d) => d.lower, OKABE_ITO.vermillion, '6 4', 'lower limit');
     }
-    const label = du.unit ? `${name} (${du.unit})` : name;
+    const label = du.unit ? `${parameterLabel(name)} (${du.unit})` : parameterLabel(name);
     out.push(svgChart({
       width: 900,
       title: `${parameterLabel(name)}${du.unit ? ` (${du.unit})` : ''}: value ● ± 2σ (dotted)${ewma ? '; EWMA ● (black) and its control limits (dashed)' : ''}${breaks.length && mine.length ? '; vertical dashes: a new drift baseline' : ''}`,
@@ -380,7 +421,7 @@ table.kv th{font-weight:600;color:#444;width:16rem}.settings{display:grid;grid-t
   out.push('<th>R²</th><th>drift</th><th>notes</th></tr>');
   for (const sw of s.sweeps) {
     const f = sw.fit;
-    out.push(`<tr><td>${sw.sweep}</td><td>${sw.v.length}</td><td>${sw.complete === null ? '—' : sw.complete ? 'yes' : 'no'}</td><td>${esc(f?.model ?? '—')}</td><td>${f ? `${num(f.window.from, 4)} … ${num(f.window.to, 4)}` : esc(sw.fitError ?? '—')}</td>`);
+    out.push(`<tr><td>${sw.sweep}${sw.label ? ` <span class="note">${esc(sw.label)}</span>` : ''}</td><td>${sw.v.length}</td><td>${sw.complete === null ? '—' : sw.complete ? 'yes' : 'no'}</td><td>${esc(f?.model ?? '—')}</td><td>${f ? `${num(f.window.from, 4)} … ${num(f.window.to, 4)}` : esc(sw.fitError ?? '—')}</td>`);
     for (const [name] of names) {
       const p = f?.parameters[name];
       out.push(`<td>${p ? esc(formatParameter(p, name).text) : '—'}</td>`);
@@ -406,7 +447,7 @@ table.kv th{font-weight:600;color:#444;width:16rem}.settings{display:grid;grid-t
   if (shown.length < n) out.push(`<p class="note">The last ${shown.length} of ${n} sweeps are drawn one by one; the overview and the table hold them all.</p>`);
   for (const sw of shown) {
     const notes: string[] = [];
-    out.push(`<div class="sweep"><h3>Sweep ${sw.sweep}${sw.complete === false ? ' (incomplete)' : ''}</h3><div class="plots">`);
+    out.push(`<div class="sweep"><h3>Sweep ${sw.sweep}${sw.label ? `: ${esc(sw.label)}` : ''}${sw.complete === false ? ' (incomplete)' : ''}</h3><div class="plots">`);
     out.push(svgChart({ title: 'measured: ✕ negative current (as |I|), □ at compliance', xLabel: 'bias V (V)', yLabel: '|I| (A)', yLog: true, series: measuredSeries(sw, OKABE_ITO.blue) }));
     // The sweep is drawn with the settings its recorded fit was made with.
     const a = settingsOf(sw.analysis) ?? analysis;

@@ -1,10 +1,11 @@
 /**
  * Reading a finished (or running) session back for offline work: its sweeps' readings, the
- * analysis settings in force, fits, drift, annotations, cautions and decisions — one pass over the
- * journal. Used by refit, report and the temperature series.
+ * analysis settings in force, fits, drift, annotations, cautions and decisions, a breakdown test's
+ * result and the device's identity — one pass over the journal. Used by refit, report and the temperature series.
  */
 import { basename, resolve } from 'node:path';
 import type { FitSummary, SolarSummary, WireEvent } from '../../protocols/wire.js';
+import { mergeIdentity, type DeviceIdentity } from '../../protocols/device-results.js';
 import { FLAG } from '../../protocols/wire.js';
 import { scanJournal, type BadLine } from './reader.js';
 
@@ -16,6 +17,8 @@ export interface SweepData {
   readonly c: number[];
   /** 1 at the reading that showed a confirmed breakdown. */
   readonly b: number[];
+  /** What the sweep is, as the run named it at its start ("use-condition check before the test"; '' for a plain sweep). */
+  label: string;
   complete: boolean | null;
   fit: FitSummary | null;
   fitError: string | null;
@@ -41,6 +44,10 @@ export interface SessionData {
   /** Cautions, decisions, output changes, recovery and run end, in time order. */
   readonly timeline: WireEvent[];
   readonly runEnd: Extract<WireEvent, { type: 'run-end' }> | null;
+  /** A breakdown test's result (the last `test-result` event), or null. */
+  readonly testResult: Extract<WireEvent, { type: 'test-result' }> | null;
+  /** The device under test: the session's device metadata with later corrections in notes applied (later values win). */
+  readonly device: DeviceIdentity | null;
   readonly badLines: BadLine[];
 }
 
@@ -50,7 +57,7 @@ export function loadSession(dirIn: string): SessionData {
   const sweep = (n: number) => {
     let s = sweeps.get(n);
     if (!s) {
-      s = { sweep: n, v: [], i: [], c: [], b: [], complete: null, fit: null, fitError: null, solar: null, analysis, drift: null, annotations: [] };
+      s = { sweep: n, v: [], i: [], c: [], b: [], label: '', complete: null, fit: null, fitError: null, solar: null, analysis, drift: null, annotations: [] };
       sweeps.set(n, s);
     }
     return s;
@@ -62,6 +69,8 @@ export function loadSession(dirIn: string): SessionData {
   const timeline: WireEvent[] = [];
   const timelineSettings: SessionData['timelineSettings'] = [];
   let runEnd: SessionData['runEnd'] = null;
+  let testResult: SessionData['testResult'] = null;
+  let device: DeviceIdentity | null = null;
   const scan = scanJournal(dir, (e) => {
     switch (e.type) {
       case 'reading': {
@@ -76,13 +85,14 @@ export function loadSession(dirIn: string): SessionData {
         session = e;
         analysis = e.analysis;
         complianceLimit = (e.plan as { compliance?: number } | null)?.compliance;
+        device = (e.device as DeviceIdentity | undefined) ?? null;
         break;
       case 'settings':
         analysis = e.analysis;
         timelineSettings.push(e);
         break;
       case 'sweep-start':
-        sweep(e.sweep);
+        sweep(e.sweep).label = e.label;
         break;
       case 'sweep-end':
         sweep(e.sweep).complete = e.complete;
@@ -100,7 +110,11 @@ export function loadSession(dirIn: string): SessionData {
         break;
       case 'annotation':
         annotations.push(e);
+        if (e.device) device = mergeIdentity(device ?? {}, e.device);
         if (e.sweep !== undefined) sweep(e.sweep).annotations.push(e);
+        break;
+      case 'test-result':
+        testResult = e;
         break;
       case 'run-end':
         runEnd = e;
@@ -127,6 +141,8 @@ export function loadSession(dirIn: string): SessionData {
     timeline,
     timelineSettings,
     runEnd,
+    testResult,
+    device,
     badLines: scan.bad,
   };
 }

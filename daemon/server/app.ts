@@ -220,7 +220,7 @@ export async function startServer(station: Station, options: ServerOptions): Pro
   // journal, so this stays fast with hundreds of sessions); the page links to it.
   const lotQuery = (req: Request) => {
     const q = (k: string) => (typeof req.query[k] === 'string' ? (req.query[k] as string).slice(0, 64) : undefined);
-    return { map: q('map'), quantity: q('quantity') };
+    return { map: q('map'), quantity: q('quantity'), test: q('test') };
   };
   app.get('/api/lot', async (req, res) => {
     if (listSessions(station.dataDir).length === 0) return void res.json({ rows: [], parameters: [], weibull: null, cautions: [], problems: [] });

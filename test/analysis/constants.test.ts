@@ -17,7 +17,7 @@ describe('constants derived from CODATA 2018', () => {
     expect(approxEqual(FN_B_EV32_V_PER_NM, 6.83089, 5e-7)).toBe(true);
   });
   // Sze & Ng, Physics of Semiconductor Devices: free-electron A* ≈ 120 A cm^-2 K^-2;
-  // 120.173 A cm^-2 K^-2 from CODATA 2018 (physics reference, computed).
+  // 120.173 A cm^-2 K^-2 computed from 4πqm_e k²/h³ with CODATA 2018 constants.
   it('free-electron Richardson constant is 120.17 A/(cm^2 K^2)', () => {
     expect(approxEqual(RICHARDSON_FREE_A_PER_M2_K2 * 1e-4, 120.173, 1e-5)).toBe(true);
   });

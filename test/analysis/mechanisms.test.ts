@@ -13,6 +13,7 @@ import { schottkyEmission } from '../../daemon/analysis/mechanisms/schottky.js';
 import { mottGurney } from '../../daemon/analysis/mechanisms/sclc.js';
 import { hopping } from '../../daemon/analysis/mechanisms/hopping.js';
 import { trapAssistedTunnelling } from '../../daemon/analysis/mechanisms/trap-assisted-tunneling.js';
+import { inRange } from '../../daemon/analysis/mechanism.js';
 import { shockley } from '../../daemon/analysis/mechanisms/diode.js';
 import { approxEqual } from '../helpers/reference.js';
 import { sweep, withNoise } from '../helpers/synthetic.js';
@@ -168,5 +169,15 @@ describe('points that cannot enter a transform are counted by reason', () => {
   });
   it('missing required input names the setting', () => {
     expect(() => resolveInputs(getMechanism('fowler-nordheim'), {})).toThrowError(/thickness/);
+  });
+});
+
+describe('plausibility warnings', () => {
+  it('name the value with its unit, and a dimensionless one without a dangling space', () => {
+    const w: string[] = [];
+    expect(inRange(w, 'ideality factor', 0.8796, 1, 5, '')).toBe(false);
+    expect(inRange(w, 'barrier height', 61.3, 0.3, 6, 'eV')).toBe(false);
+    expect(inRange(w, 'barrier height', 3.1, 0.3, 6, 'eV')).toBe(true);
+    expect(w).toEqual(['ideality factor = 0.8796 is outside the plausible range 1–5', 'barrier height = 61.3 eV is outside the plausible range 0.3–6 eV']);
   });
 });

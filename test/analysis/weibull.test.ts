@@ -9,6 +9,7 @@ import {
   analyzeWeibull,
   andersonDarling,
   areaScaledScale,
+  coarseGrid,
   bendTest,
   bernardRank,
   chiSquare1Quantile,
@@ -354,6 +355,20 @@ describe('goodness of fit and bent plots', () => {
     expect(r.points).toHaveLength(6);
     expect(r.warnings.some((w) => /only 6 failures/.test(w))).toBe(true);
     expect(r.areaScaling!.scale.value).toBeCloseTo(areaScaledScale(r.scale.value, r.shape.value, 1e-8, 1e-6), -1);
+  });
+
+  it('failures read on a coarse ramp grid are called out; a fine grid is not', () => {
+    // Breakdown voltages of a β = 10, η = 10 V lot as a ramp reports them: the level at which the
+    // current jumped (rounded up to the step). The scatter in ln V is π/(β√6) ≈ 0.128 (the
+    // smallest-extreme-value distribution's standard deviation), so a 0.5 V step is 0.39 of it.
+    const l = lot(40, 10, 10, 17);
+    const onGrid = (step: number) => l.values.map((v) => Math.ceil(v / step) * step);
+    const coarse = analyzeWeibull({ values: onGrid(0.5) }, { unit: 'V' });
+    const w = coarse.warnings.find((x) => /tie on levels/.test(x));
+    expect(w).toMatch(/failures tie on levels 0\.5\d* V apart/);
+    expect(coarseGrid({ values: onGrid(0.5) }, 10, 10)?.ratio).toBeCloseTo(0.05 / (Math.PI / (10 * Math.sqrt(6))), 6);
+    expect(analyzeWeibull({ values: onGrid(0.02) }, { unit: 'V' }).warnings.some((x) => /tie on levels/.test(x))).toBe(false);
+    expect(analyzeWeibull(l, { unit: 'V' }).warnings.some((x) => /tie on levels/.test(x))).toBe(false);
   });
 
   it('bad input is named', () => {

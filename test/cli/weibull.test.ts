@@ -70,6 +70,43 @@ describe('plumbline weibull', () => {
     expect(q.shape.value).toBeCloseTo(direct.shape.value, 10);
   });
 
+  it('results of several kinds of test are not pooled unasked: --test chooses one, --test all pools them', () => {
+    // A ramp's breakdown field and a constant-voltage stress's field are not draws of one
+    // distribution (JEDEC JESD35-A keeps the tests apart): pooling them silently mixes two lots.
+    const data = mkdtempSync(join(tmpdir(), 'plumbline-wbk-'));
+    const ramp = draws(10, 12, 1.2e9, 21);
+    const cvs = draws(6, 30, 0.9e9, 22);
+    ramp.forEach((v, k) => writeSession(data, { label: `r${k}`, results: [{ device: `R${k}`, test: 'voltage-ramp', outcome: 'breakdown', breakdownField: v }] }));
+    cvs.forEach((v, k) => writeSession(data, { label: `c${k}`, results: [{ device: `C${k}`, test: 'constant-voltage', outcome: 'breakdown', breakdownField: v }] }));
+    let r = runCli(['weibull', data]);
+    expect(r.code).toBe(2);
+    expect(r.stdout).toBe('');
+    expect(r.stderr).toMatch(/2 kinds of test: .*voltage-ramp \(10\).*constant-voltage \(6\).*--test KIND.*--test all/);
+    const one = JSON.parse(runCli(['weibull', data, '--test', 'voltage-ramp', '--json']).stdout);
+    expect(one.n).toBe(10);
+    expect(one.shape.value).toBeCloseTo(analyzeWeibull({ values: ramp }).shape.value, 10);
+    const all = JSON.parse(runCli(['weibull', data, '--test', 'all', '--json']).stdout);
+    expect(all.n).toBe(16);
+    expect(all.notes.join(' ')).toMatch(/2 kinds of test pooled/);
+    r = runCli(['weibull', data, '--test', 'ramp']);
+    expect(r.code).toBe(2);
+    expect(r.stderr).toMatch(/--test 'ramp': the results hold .*\(kinds of test: voltage-ramp, current-ramp, constant-voltage, constant-current, or all\)/);
+    r = runCli(['weibull', data, '--test', 'current-ramp']);
+    expect(r.code).toBe(2);
+    expect(r.stderr).toMatch(/--test 'current-ramp': the results hold voltage-ramp \(10\), constant-voltage \(6\)$/m);
+    // The lot report refuses the pooled fit but still reports the devices; --test gives the fit.
+    const out = join(data, 'lot.html');
+    r = runCli(['lot', data, '--out', out]);
+    expect(r.code).toBe(0);
+    expect(r.stdout).toMatch(/no Weibull fit: the results hold 2 kinds of test/);
+    expect(readFileSync(out, 'utf8')).toMatch(/No Weibull fit: the results hold 2 kinds of test/);
+    r = runCli(['lot', data, '--out', out, '--test', 'constant-voltage']);
+    expect(r.stdout).toMatch(/Weibull breakdown field: β = [\d.]+, η = [\d.]+ MV\/cm \(6 breakdowns, 0 survived\)/);
+    r = runCli(['lot', data, '--out', out, '--test', 'cvs']);
+    expect(r.code).toBe(2);
+    expect(r.stderr).toMatch(/--test 'cvs': expected one of voltage-ramp, current-ramp, constant-voltage, constant-current, or all/);
+  });
+
   it('bad input says what and where, exit 2', () => {
     const noCol = tempFile('v.csv', 'a,b\n1,2\n3,4\n');
     let r = runCli(['weibull', noCol]);
@@ -116,6 +153,16 @@ describe('plumbline lot', () => {
     const j = JSON.parse(runCli(['lot', data, '--out', out, '--json']).stdout);
     expect(j.rows).toHaveLength(9);
     expect(j.weibull.n).toBe(9);
+    // A wafer-map parameter the lot does not have is an error naming the option and what there is;
+    // the report already written stays as it was.
+    const before = readFileSync(out, 'utf8');
+    r = runCli(['lot', data, '--out', out, '--map', 'barrier']);
+    expect(r.code).toBe(2);
+    expect(r.stderr).toMatch(/--map 'barrier': no such parameter in this lot \(have: barrierHeight, breakdown field;/);
+    expect(readFileSync(out, 'utf8')).toBe(before);
+    r = runCli(['lot', data, '--out', out, '--quantity', 'fields']);
+    expect(r.code).toBe(2);
+    expect(r.stderr).toMatch(/--quantity 'fields': expected field \| voltage \| charge \| time/);
     r = runCli(['lot', join(data, 'nothing-here'), '--out', out]);
     expect(r.code).toBe(2);
     expect(r.stderr).toMatch(/nothing-here: no such folder/);

@@ -36,7 +36,7 @@ describe('device identity', () => {
     const meta = JSON.parse(readFileSync(join(data, 'x', 'session.json'), 'utf8'));
     expect(meta.device).toMatchObject({ device: 'C4-cap', wafer: 'W07', site: 'C5', x: 3, y: -1 });
     expect(meta.sessionEvent.device.site).toBe('C4');
-    expect(meta.annotations.at(-1).text).toMatch(/device identity corrected: site C5 \(\?, -1\)/);
+    expect(meta.annotations.at(-1).text).toMatch(/device identity corrected: site C5 · \(x –, y -1\)/);
     expect(readSummary(dir).summary.identity).toMatchObject({ site: 'C5', x: 3, y: -1, wafer: 'W07' });
   });
 

@@ -186,4 +186,33 @@ describe('lot report', () => {
     expect(html.match(/<circle class="device"/g)).toHaveLength(8);
     expect(html).not.toMatch(/<script/);
   });
+
+  it('breakdown voltages tied on a ramp\'s 0.1 V levels: neighbours one step away are not outliers, a far one is', async () => {
+    // Twelve of sixteen devices broke down on the same level: the MAD is 0, so without the grid
+    // every other device would be "infinitely" far (Iglewicz & Hoaglin's M divides by the MAD).
+    const data = tmp();
+    const volts = [...Array(12).fill(8.1), 8.0, 8.2, 8.200000000000001, 5.3];
+    volts.forEach((v, k) => writeSession(data, { label: `g${k}`, results: [{ device: `G${k}`, test: 'voltage-ramp', outcome: 'breakdown', breakdownVoltage: v }] }));
+    const a = await analyzeLot(new FolderLot([data]), { quantity: 'voltage' });
+    const p = a.parameters.find((q) => q.name === 'breakdown voltage');
+    expect(p?.resolution).toBeCloseTo(0.1, 9);
+    expect(p?.outliers.map((o) => o.device)).toEqual(['G15']);
+    expect(renderLot(a, {})).toMatch(/values sit on a grid of 0\.1 V \(ties\)/);
+  });
+
+  it('a narrow lot (β = 40) still gets a labelled Weibull axis and distribution axes with distinct round ticks', async () => {
+    const data = tmp();
+    // Fields 11.6 … 12.4 MV/cm (bounds reach about 10 … 13): a single 1-2-5 log tick falls inside.
+    const fields = Array.from({ length: 12 }, (_, k) => 1.16e9 + k * 0.0075e9);
+    fields.forEach((f, k) => writeSession(data, { label: `n${k}`, results: [{ device: `N${k}`, test: 'voltage-ramp', outcome: 'breakdown', breakdownField: f }] }));
+    const html = renderLot(await analyzeLot(new FolderLot([data])), {});
+    const weibull = html.slice(html.indexOf('aria-label="Weibull plot"'));
+    const xLabels = [...weibull.matchAll(/<line class="xtick"[^>]*\/><text[^>]*>([^<]+)<\/text>/g)].map((m) => m[1]);
+    expect(xLabels.length).toBeGreaterThanOrEqual(3);
+    expect(new Set(xLabels).size).toBe(xLabels.length);
+    for (const l of xLabels) expect(Number(l)).toBeGreaterThan(9);
+    const strip = [...html.matchAll(/<text class="xtick"[^>]*>([^<]+)<\/text>/g)].map((m) => m[1]);
+    expect(strip.length).toBeGreaterThanOrEqual(3);
+    expect(new Set(strip).size).toBe(strip.length);
+  });
 });

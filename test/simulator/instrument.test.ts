@@ -222,7 +222,8 @@ describe('illuminated solar cell scenario (single-diode model, implicit equation
     expect(Math.abs(isc - 0.14) / 0.14).toBeLessThan(0.01);
     await driver.setVoltage(0.5);
     const i = -(((await driver.measure()).reading?.i) ?? 0);
-    // Residual of the single-diode equation (physics reference §7) at the measured point.
+    // Residual of the single-diode equation with series and shunt resistance (Shockley 1949 with
+    // lumped R_s and R_sh, as in Sze & Ng, Physics of Semiconductor Devices, 3rd ed. 2007, ch. 14) at the measured point.
     const vt = 0.025692579; // kT/q at 298.15 K (CODATA 2018)
     const f = 0.14 - 2e-10 * Math.expm1((0.5 + i * 0.05) / (1.3 * vt)) - (0.5 + i * 0.05) / 200 - i;
     expect(Math.abs(f)).toBeLessThan(0.002);

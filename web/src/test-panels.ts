@@ -2,27 +2,14 @@
  * The panels of measurement strategies: a breakdown test's plan and result (outcome, the criterion
  * that fired, breakdown voltage, field in MV/cm, charge to breakdown in C/cm², time, leakage at the
  * use voltage before and after) and each adaptive sweep's figures. Every number is the daemon's
- * (the journaled `test-result` and `adaptive-sweep` events), shown in the trade's units through
- * protocols/display-units.ts.
+ * (the journaled `test-result` and `adaptive-sweep` events), shown in the trade's units with the
+ * same names and rows as the offline report (protocols/breakdown-display.ts).
  */
-import { displayUnit, formatParameter, formatQuantity, parameterLabel, RESULT_FIGURES } from '../../protocols/display-units.js';
+import { deviceLine, numberRows, OUTCOME_LABELS, resultFigureRows, rowText, TEST_TITLES } from '../../protocols/breakdown-display.js';
+import { displayUnit, formatParameter, parameterLabel } from '../../protocols/display-units.js';
 import { formatNumber } from '../../protocols/number-format.js';
 import type { WireEvent } from '../../protocols/wire.js';
 import type { Store } from './store.js';
-
-const TEST_TITLES: Record<string, string> = {
-  'voltage-ramp': 'voltage ramp to breakdown',
-  'current-ramp': 'current ramp to breakdown',
-  'constant-voltage': 'constant-voltage stress',
-  'constant-current': 'constant-current stress',
-};
-
-const OUTCOMES: Record<string, string> = {
-  breakdown: 'BREAKDOWN',
-  survived: 'SURVIVED (no breakdown)',
-  'initial-failure': 'INITIAL FAILURE (not stressed)',
-  invalid: 'INVALID (no result)',
-};
 
 /** The kind of the session's plan when it is a breakdown test, else null. */
 export function testKind(s: Store): string | null {
@@ -66,35 +53,19 @@ export function renderTestPanel(title: HTMLElement, box: HTMLElement, s: Store):
   }
   const out = el('p', '', 'outcome');
   out.dataset.outcome = r.outcome;
-  out.append(el('strong', OUTCOMES[r.outcome] ?? r.outcome));
+  out.append(el('strong', OUTCOME_LABELS[r.outcome] ?? r.outcome));
   const criterion = typeof r.result.criterion === 'string' ? r.result.criterion : undefined;
   if (criterion) out.append(document.createTextNode(` · criterion: ${criterion}`));
   box.append(out, el('p', `${r.reason}.`, 'reason'));
   const table = el('table', '', 'params test-result');
-  const broke = r.outcome === 'breakdown';
-  for (const [key, f] of Object.entries(RESULT_FIGURES)) {
-    const v = r.result[key];
-    if (typeof v !== 'number' || !Number.isFinite(v)) continue;
-    // The charge's own uncertainty: the breakdown moment lies somewhere in the last interval.
-    const u = key === 'chargeToBreakdown' ? r.numbers?.chargeUncertainty : undefined;
-    // With its uncertainty as the GUM rounds it; alone, to four digits (as the command line prints it).
-    const d = displayUnit(f.si, key);
-    const text = u !== undefined ? formatParameter({ value: v, stdErr: u, unit: f.si }, key).text : formatNumber(v * d.scale, 4);
-    row(table, key, broke ? f.label : f.reached, text, d.unit);
-  }
+  for (const f of resultFigureRows(r)) row(table, f.key, f.label, f.text, f.unit);
+  const pace = numberRows(r.numbers, 'pace');
   if (table.rows.length) box.append(table);
   const missing = ['breakdownField', 'chargeToBreakdown'].filter((k) => r.result[k] === undefined && typeof r.result.breakdownVoltage === 'number');
   if (missing.length) box.append(el('p', 'The field needs the film thickness and the charge per area the device area: give them in the Analysis form (or with the device) before the test.', 'hint'));
-  const d = r.result;
-  const where = [
-    typeof d.device === 'string' ? `device ${d.device}` : '',
-    typeof d.wafer === 'string' ? `wafer ${d.wafer}` : '',
-    typeof d.site === 'string' ? `site ${d.site}` : '',
-    typeof d.x === 'number' || typeof d.y === 'number' ? `(x ${d.x ?? '–'}, y ${d.y ?? '–'})` : '',
-    typeof d.area === 'number' ? `area ${formatQuantity(d.area, 'm^2', 'area')}` : '',
-    typeof d.thickness === 'number' ? `thickness ${formatQuantity(d.thickness, 'm', 'thickness')}` : '',
-  ].filter(Boolean);
-  if (where.length) box.append(el('p', `${where.join(' · ')}. One row of device-results.csv beside the journal.`, 'source'));
+  if (pace.length) box.append(el('p', pace.map(rowText).join(' · '), 'source'));
+  const where = deviceLine(r.result);
+  if (where) box.append(el('p', `${where}. One row of device-results.csv beside the journal.`, 'source'));
   return true;
 }
 

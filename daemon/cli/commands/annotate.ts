@@ -3,7 +3,8 @@
  */
 import { resolve } from 'node:path';
 import type { Command } from 'commander';
-import { describeDevice, readDevice, withDeviceOptions, type DeviceOptions } from '../device.js';
+import { deviceLine } from '../../../protocols/breakdown-display.js';
+import { readDevice, withDeviceOptions, type DeviceOptions } from '../device.js';
 import { UsageError } from '../usage.js';
 import { daemonModules, } from '../station-common.js';
 
@@ -27,7 +28,7 @@ export function registerAnnotate(program: Command): void {
       const device = await readDevice(o);
       if (o.text === undefined && device === undefined) throw new UsageError('give --text (the note), device options (--wafer, --site, --x, --y, --area …), or both');
       if (o.text !== undefined && o.text.trim() === '') throw new UsageError('--text is empty');
-      const text = o.text ?? `device identity corrected: ${describeDevice(device ?? {})}`;
+      const text = o.text ?? `device identity corrected: ${deviceLine(device as Record<string, unknown> | undefined)}`;
       const e = annotateFolder(resolve(dir), { type: 'annotation', text, tags: o.tag ?? [], ...(sweep !== undefined ? { sweep } : {}), source: 'cli', ...(device ? { device } : {}) });
       process.stdout.write(`annotation ${e.seq} added to ${dir}\n`);
     });
