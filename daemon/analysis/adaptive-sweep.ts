@@ -2,27 +2,36 @@
  * Where the next point of an adaptive sweep goes, and when the sweep has learned enough. Pure
  * decisions over the readings so far; the station measures and feeds them back.
  *
- * The plan (our own):
+ * The plan (our own; the design rules it follows are common practice in regression design):
  *  - while the current sits at the noise floor the mechanism says nothing: coarse steps, a twelfth
  *    of the range each;
  *  - once the current leaves the floor (twenty times the floor seen in the first readings, or an
- *    absolute floor), fine steps — a sixtieth of the range, or coarser when the point budget is too
- *    small — growing by a quarter per point up to the coarse step, because the fitted slope's error
- *    falls with the width of the range covered faster than with the number of points;
- *  - after every point in that regime the caller fits the sweep so far and reports the target
- *    parameter's standard error; the sweep stops as soon as it is at or below the target;
- *  - when the range is covered (the end of the range, or the current limit) before the target is
- *    met, a return leg comes back down through the regime in fine steps between the upward leg's
- *    levels (a dual sweep, as is common practice), until the target is met or the onset is reached;
+ *    absolute floor), fine steps — a sixtieth of the range, or coarser when the point budget is too small —
+ *    growing by GROWTH per point up to the coarse step, so the regime is crossed in a few readings;
  *  - no step is longer than the one the last two readings' secant (of ln|I| against V) says reaches
- *    the current limit, so the limit is approached, not jumped past;
+ *    the current limit, so the limit is approached, not jumped past (the steps shrink near it);
+ *  - after every point in the regime the caller fits the sweep so far and reports the target
+ *    parameter's standard error; the sweep stops as soon as it is at or below the target;
+ *  - when the top is reached (the end of the range, or the current limit) before the target is met,
+ *    the further readings go to the two ends of the regime, alternately: just above its low end
+ *    (the first level well off the floor) and just below the top. A straight line's slope is pinned
+ *    best by points far apart along its axis — its variance is σ²/Σ(x − x̄)², smallest with the
+ *    points split between the two ends (Montgomery, Design and Analysis of Experiments, the
+ *    two-level design; Box, Hunter & Hunter 2005) — while the up-leg's points in between keep the
+ *    straightness of the window testable. Each end's levels are distinct (a third of a fine step
+ *    apart), so the noise estimate from neighbouring readings still works. Downward moves are
+ *    free; upward ones go only to levels already read below the current limit. The fill ends after
+ *    as many readings as a fine-step return leg over the regime would have taken;
  *  - compliance or the point budget end the sweep at once; every stop says why;
- *  - later sweeps of the same run start just below the bias where the earlier one left the floor
- *    (they skip what is known to be floor), with the same fine step.
+ *  - later sweeps of the same run reuse what the first learned (the floor, where the regime starts
+ *    and where the top was): they start a fine step below the onset and climb to the known top in
+ *    about three steps, still under the secant rule.
  */
 
 /** Growth of the step from one regime point to the next. */
-const GROWTH = 1.25;
+const GROWTH = 1.6;
+/** A reading this many floors above the floor is well off it: the low end of the regime's fill. */
+const LOW_END_FLOORS = 100;
 
 export type StopReason = 'target-reached' | 'current-limit' | 'compliance' | 'bias-limit' | 'point-budget';
 
@@ -50,6 +59,8 @@ export interface SweepKnowledge {
   readonly onset: number;
   /** The floor current, A. */
   readonly floor: number;
+  /** Highest bias read below the current limit, V (absent when the sweep stopped before it). */
+  readonly top?: number;
 }
 
 export class AdaptiveSweep {
@@ -61,7 +72,9 @@ export class AdaptiveSweep {
   private readonly i: number[] = [];
   private floor: number | undefined;
   private onset: number | undefined;
+  private top: number | undefined;
   private stopped: StopReason | undefined;
+  private filling: { low: number; high: number; k: number; left: number; why: StopReason } | undefined;
 
   constructor(readonly settings: AdaptiveSettings, readonly prior?: SweepKnowledge) {
     this.dir = Math.sign(settings.stop - settings.start) || 1;
@@ -71,12 +84,14 @@ export class AdaptiveSweep {
     if (prior) this.floor = prior.floor;
   }
 
-  /** The first bias of the sweep: the start, or just below where an earlier sweep left the floor. */
+  /** The first bias of the sweep: the start, or a fine step below where an earlier sweep left the floor. */
   first(): number {
+    return this.prior ? this.clamp(this.prior.onset - this.dir * this.fine) : this.settings.start;
+  }
+
+  private clamp(v: number): number {
     const s = this.settings;
-    if (!this.prior) return s.start;
-    const back = this.prior.onset - this.dir * 2 * this.fine;
-    return this.dir > 0 ? Math.max(s.start, Math.min(back, s.stop)) : Math.min(s.start, Math.max(back, s.stop));
+    return this.dir > 0 ? Math.max(s.start, Math.min(v, s.stop)) : Math.min(s.start, Math.max(v, s.stop));
   }
 
   /** Whether a reading is in the regime the fit can use (off the floor). */
@@ -100,14 +115,13 @@ export class AdaptiveSweep {
     }
     if (this.onset === undefined && this.floor !== undefined && this.offFloor(a)) this.onset = v;
     if (this.filling) return this.fill();
-    if (a >= s.currentLimit) return this.startFill(this.v.length >= 2 ? this.v[this.v.length - 2] : v, 'current-limit');
-    // In the regime the steps start fine and grow by a quarter each point (up to the coarse step):
-    // the slope's error falls with the width of the range covered more than with the number of
-    // points, so the range is extended quickly while the region near the onset stays dense. Later
-    // sweeps start at the regime already.
+    if (a >= s.currentLimit) return this.startFill(this.previousLevel(v), 'current-limit');
+    // Later sweeps start at the regime already: fine steps from their first reading.
     const inRegime = this.onset !== undefined || this.prior !== undefined;
     const m = this.onset !== undefined ? this.regimePoints - 1 : this.v.length - 1;
     let step = inRegime ? Math.min(this.coarse, this.fine * GROWTH ** Math.max(0, m)) : this.coarse;
+    // A later sweep knows where its top was: once off the floor it climbs there in three steps or so.
+    if (this.onset !== undefined && this.prior?.top !== undefined) step = Math.max(step, Math.min(2 * this.coarse, (this.prior.top - v) * this.dir / 3));
     // No step is to carry the current far past the limit: ln|I| is extrapolated along the secant of
     // the last two readings. Every mechanism of a film or junction bends over (its ln|I| slope falls
     // as the bias rises), so the secant overestimates the next current and the step errs short.
@@ -125,39 +139,57 @@ export class AdaptiveSweep {
     return { next };
   }
 
+  /** The level read before the last one that stayed below the current limit. */
+  private previousLevel(v: number): number {
+    for (let k = this.v.length - 2; k >= 0; k--) if (Math.abs(this.i[k]) < this.settings.currentLimit) return this.v[k];
+    return v;
+  }
+
   /** Bias left before the secant of the last two readings reaches the current limit, V (Infinity when it does not rise). */
   private roomToLimit(v: number, a: number): number {
     const k = this.v.length - 1;
     if (k < 1) return Infinity;
     const a0 = Math.abs(this.i[k - 1]);
-    const dv = Math.abs(v - this.v[k - 1]);
+    const dv = (v - this.v[k - 1]) * this.dir;
     if (!(a0 > 0) || !(a > a0) || !(dv > 0)) return Infinity;
     const slope = Math.log(a / a0) / dv;
     return Math.log(this.settings.currentLimit / a) / slope;
   }
 
   /**
-   * The range is covered and the target not yet met: more readings go to the two ends of the
-   * regime, alternately — the highest level reached (below the current limit) and the lowest level
-   * well off the floor — because a line's slope is pinned best by points far apart (the two-point
-   * design of regression; common practice in experiment design). `why` is the stop reason if the
-   * regime was never reached.
+   * The top is reached and the target not yet met: further readings alternate between the two ends
+   * of the regime. `top` is the highest level read below the current limit; `why` is the stop reason
+   * if the regime was never reached, or when the fill is used up.
    */
   private startFill(top: number, why: StopReason): { next: number } | { stop: StopReason } {
+    this.top = top;
     if (this.onset === undefined) return this.end(why);
-    // A return leg from the top back toward the onset in fine steps, placed between the upward
-    // leg's levels: it adds points across the regime where the upward leg's growing steps left gaps.
-    this.filling = { level: top - this.dir * 0.5 * this.fine, stopAt: this.onset, why };
+    // The low end: the first regime level whose current is well off the floor (the onset when none is).
+    const f = Math.max(this.floor ?? 0, this.settings.absoluteFloor ?? 0);
+    const k0 = this.v.indexOf(this.onset);
+    let low = this.onset;
+    for (let k = k0; k < this.v.length; k++) {
+      if (Math.abs(this.i[k]) >= LOW_END_FLOORS * f && Math.abs(this.i[k]) < this.settings.currentLimit) {
+        low = this.v[k];
+        break;
+      }
+    }
+    const left = Math.max(4, Math.round(Math.abs(top - low) / this.fine));
+    this.filling = { low, high: top, k: 0, left, why };
     return this.fill();
   }
 
-  private filling: { level: number; stopAt: number; why: StopReason } | undefined;
-
   private fill(): { next: number } | { stop: StopReason } {
     const f = this.filling as NonNullable<AdaptiveSweep['filling']>;
-    const level = f.level;
-    if (this.dir > 0 ? level < f.stopAt : level > f.stopAt) return this.end(f.why);
-    f.level -= this.dir * this.fine;
+    if (f.left <= 0) return this.end(f.why);
+    f.left--;
+    const j = f.k++;
+    // Alternately the low end and the top, each end's levels a third of a fine step apart, moving
+    // inward: the low end upward from its first level, the top downward from its highest.
+    const d = (this.fine / 3) * (Math.floor(j / 2) + 1);
+    const level = j % 2 === 0 ? f.low + this.dir * d : f.high - this.dir * d;
+    const inside = this.dir > 0 ? level > f.low && level < f.high : level < f.low && level > f.high;
+    if (!inside) return this.end(f.why);
     return { next: level };
   }
 
@@ -182,9 +214,11 @@ export class AdaptiveSweep {
     return this.stopped;
   }
 
-  /** What this sweep learned (undefined when it never left the floor). */
+  /** What this sweep learned (the earlier knowledge when it never left the floor). */
   knowledge(): SweepKnowledge | undefined {
-    return this.onset !== undefined && this.floor !== undefined ? { onset: this.onset, floor: this.floor } : this.prior;
+    if (this.onset === undefined || this.floor === undefined) return this.prior;
+    const top = this.top ?? this.prior?.top;
+    return { onset: this.onset, floor: this.floor, ...(top !== undefined ? { top } : {}) };
   }
 
   private end(r: StopReason): { stop: StopReason } {

@@ -22,8 +22,8 @@ export interface AdaptiveSweepFigures {
   readonly stopReason: string;
 }
 
-/** Fewest readings in the regime before a fit's error is trusted to stop a sweep (a few degrees of freedom). */
-const MIN_REGIME_POINTS = 8;
+/** Fewest readings in the regime before a fit can stop a sweep: the fewest an automatic window takes (MIN_WINDOW_POINTS). */
+const MIN_REGIME_POINTS = 5;
 
 export async function runAdaptive(ctx: RunContext, plan: AdaptivePlan, figures: AdaptiveSweepFigures[]): Promise<{ outcome: RunOutcome; reason: string }> {
   const src = ctx.source;

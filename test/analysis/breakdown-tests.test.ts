@@ -133,12 +133,12 @@ describe('adaptive sweep plan', () => {
     expect(p.inRegime).toBe(true);
     expect('next' in r && r.next).toBeCloseTo(2.2, 12);
     expect(p.add(2.2, 2e-3, false)).toEqual({ stop: 'current-limit' });
-    expect(p.knowledge()).toEqual({ onset: 2, floor: 2e-13 });
-    // The next sweep starts two fine steps below the onset, in fine steps.
+    expect(p.knowledge()).toEqual({ onset: 2, floor: 2e-13, top: 2 });
+    // The next sweep starts a fine step below the onset, in fine steps.
     const q = new AdaptiveSweep({ start: 0, stop: 12, maxPoints: 100, currentLimit: 1e-3 }, p.knowledge());
-    expect(q.first()).toBeCloseTo(1.6, 12);
-    const s = q.add(1.6, 1e-12, false);
-    expect('next' in s && s.next).toBeCloseTo(1.8, 12);
+    expect(q.first()).toBeCloseTo(1.8, 12);
+    const s = q.add(1.8, 1e-12, false);
+    expect('next' in s && s.next).toBeCloseTo(2.0, 12);
   });
 
   it('a step never jumps far past the current limit: on a Fowler–Nordheim film the highest reading stays within 2× of it', () => {
@@ -164,6 +164,38 @@ describe('adaptive sweep plan', () => {
       expect(top, `limit ${limit} A`).toBeLessThanOrEqual(2 * limit);
       expect(top, `limit ${limit} A: the sweep still climbs to it`).toBeGreaterThanOrEqual(0.1 * limit);
     }
+  });
+
+  it('once the top is reached short of the target, readings alternate between the two ends of the regime, inside them', () => {
+    // The same Fowler–Nordheim film (Fowler & Nordheim 1928; Lenzlinger & Snow 1969) over 0–9 V with
+    // a limit it never reaches: the up-leg ends at 9 V, then the fill takes the ends in turn.
+    const current = (V: number) => (V <= 0 ? 0 : 1e-8 * fowlerNordheim(V / 7e-9, 3.1, 0.42)) + 1e-13;
+    const p = new AdaptiveSweep({ start: 0, stop: 9, maxPoints: 200, currentLimit: 5e-4, absoluteFloor: 1e-13 });
+    const levels: number[] = [];
+    let v = p.first();
+    let r: ReturnType<AdaptiveSweep['add']> = { next: v };
+    for (let k = 0; k < 200 && 'next' in r; k++) {
+      levels.push(v);
+      r = p.add(v, current(v), false);
+      if ('next' in r) v = r.next;
+    }
+    expect(r).toEqual({ stop: 'bias-limit' });
+    const top = levels.indexOf(9);
+    expect(top).toBeGreaterThan(0);
+    // Coarse steps over the floor, then a growing climb: the up-leg is short.
+    expect(top).toBeLessThan(20);
+    const onset = levels.find((x) => current(x) > 20 * 1e-13) as number;
+    const fill = levels.slice(top + 1);
+    expect(fill.length).toBeGreaterThanOrEqual(8);
+    const mid = 0.5 * (onset + 9);
+    fill.forEach((x, k) => {
+      // Even readings at the low end, odd ones at the top; all within the regime already read.
+      expect(k % 2 === 0 ? x < mid : x > mid, `fill reading ${k} at ${x} V`).toBe(true);
+      expect(x).toBeGreaterThan(onset);
+      expect(x).toBeLessThan(9);
+    });
+    // Each end's levels are distinct (the noise estimate from neighbours needs distinct biases).
+    expect(new Set(fill).size).toBe(fill.length);
   });
 
   it('the end of the range and the point budget stop a sweep', () => {

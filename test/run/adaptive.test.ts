@@ -1,0 +1,52 @@
+/**
+ * Adaptive sweeps against fixed sweeps on the built-in insulator scenarios, through the real runner,
+ * guard, driver and SCPI session against the simulated instrument (the benchmark's own harness,
+ * test/bench/adaptive.ts). For each scenario the target is the median error of the scenario's usual
+ * fixed sweep over five noise seeds; the adaptive sweep must use fewer readings than that sweep and
+ * no more than the fewest-point fixed sweep reaching the same error, go no higher in bias, and give
+ * the parameter within the engineering tolerance of the simulated device's own value and within
+ * 3 stated σ of it. The measured reductions (`npm run bench`) are 1.0–2.1× per scenario against the
+ * fewest-point fixed sweep; here the summed readings must stay at least 1.25× fewer (about 1.4×).
+ */
+import { describe, expect, it } from 'vitest';
+import { findScenario } from '../../daemon/simulator/scenarios.js';
+import { adaptiveRun, CASES, fixedBaseline, withinTolerance } from '../bench/adaptive.js';
+
+const SEED = 2;
+
+describe('adaptive sweeps against the fixed sweep on every insulator scenario', () => {
+  it('fewer readings, no higher bias, the parameter within tolerance of the device and honestly stated', async () => {
+    let fewestTotal = 0;
+    let adaptiveTotal = 0;
+    const reached: string[] = [];
+    for (const c of CASES) {
+      const sc = findScenario(c.scenario);
+      const truth = sc.device.params[c.parameter];
+      // The target: the median error of the usual sweep over five noise seeds; the fewest-point
+      // fixed sweep whose median error reaches it.
+      const base = await fixedBaseline(c);
+      expect(base, `${c.scenario}: the usual fixed sweep fits`).toBeDefined();
+      const b = base as NonNullable<typeof base>;
+      const a = await adaptiveRun(c, b.target, SEED);
+      expect(a, `${c.scenario}: the adaptive sweep gives a fit`).toBeDefined();
+      const o = a as NonNullable<typeof a>;
+      expect(o.plausible, c.scenario).toBe(true);
+      expect(o.readings, `${c.scenario}: readings against the usual ${sc.sweep.points}`).toBeLessThan(sc.sweep.points);
+      expect(o.readings, `${c.scenario}: readings against the fewest-point fixed sweep's ${b.points}`).toBeLessThanOrEqual(b.points);
+      expect(o.peak, c.scenario).toBeLessThanOrEqual(Math.max(Math.abs(sc.sweep.start), Math.abs(sc.sweep.stop)) + 1e-9);
+      expect(withinTolerance(c, o.value, truth), `${c.scenario}: ${o.value} against the device's ${truth}`).toBe(true);
+      expect(Math.abs(o.value - truth), `${c.scenario}: within 3 stated σ (${o.stdErr})`).toBeLessThanOrEqual(3 * o.stdErr);
+      expect(['target-reached', 'bias-limit', 'current-limit']).toContain(o.stopReason);
+      if (o.stopReason === 'target-reached') {
+        reached.push(c.scenario);
+        expect(o.stdErr, c.scenario).toBeLessThanOrEqual(b.target);
+      }
+      fewestTotal += b.points;
+      adaptiveTotal += o.readings;
+    }
+    // Fowler–Nordheim, Schottky and hopping reach the target in nearly every seed the benchmark tries.
+    expect(reached).toEqual(expect.arrayContaining(['oxide-fn', 'highk-schottky', 'film-hopping']));
+    // About 1.4× fewer in all than the fewest-point fixed sweeps reaching the same errors (measured).
+    expect(fewestTotal / adaptiveTotal).toBeGreaterThanOrEqual(1.25);
+  }, 120_000);
+});
