@@ -60,6 +60,15 @@ export class SmuDriver {
     return this.session.query(this.dialect.commands.identify);
   }
 
+  /**
+   * Returns once the instrument has carried out every command sent before (IEEE 488.2 *OPC?, which
+   * answers only then). A wait that passes on the instrument's own clock must start after the level
+   * it holds has really been applied.
+   */
+  async synchronize(): Promise<void> {
+    await this.session.query('*OPC?');
+  }
+
   /** Reset (if the dialect has one), output off, reading format, function, compliance, integration, auto range — then the error queue must be empty. */
   async configure(settings: { compliance: number; nplc?: number }): Promise<void> {
     const c = this.dialect.commands;

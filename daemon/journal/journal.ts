@@ -123,8 +123,21 @@ export class JournalWriter {
     return this.seq;
   }
 
+  /** Simulated time let pass at once since the session started, ms (a fast simulator's waits). */
+  private skew: () => number = () => 0;
+
+  /**
+   * Times this session on an instrument's clock that runs ahead of the wall clock: `elapsedMs()`
+   * is the time the instrument has let pass at once so far (a built-in simulator in fast mode).
+   * Only what passes from now on counts.
+   */
+  useInstrumentClock(elapsedMs: () => number): void {
+    const base = elapsedMs();
+    this.skew = () => elapsedMs() - base;
+  }
+
   now(): number {
-    return Math.round((performance.now() - this.t0) * 1000) / 1000;
+    return Math.round((performance.now() + this.skew() - this.t0) * 1000) / 1000;
   }
 
   /** Journals an event; returns it with its sequence number and time. */
@@ -146,7 +159,7 @@ export class JournalWriter {
     if (this.closed) throw new JournalError(`${this.dir}: journal already closed`);
     const seq = ++this.seq;
     const now = performance.now();
-    const t = Math.round((now - this.t0) * 1000) / 1000;
+    const t = Math.round((now + this.skew() - this.t0) * 1000) / 1000;
     const r = this.rec;
     let p = this.recPos;
     r[p++] = seq;

@@ -117,8 +117,15 @@ export class RunController {
     }
   }
 
+  /**
+   * How the run's waits (point delays, dwells, a test's hold times) pass: wall time (the default),
+   * or, for a built-in simulator in fast mode, at once on the simulator's clock.
+   */
+  settle?: (s: number) => Promise<void>;
+
   private sleep(s: number): Promise<void> {
     if (s <= 0) return Promise.resolve();
+    if (this.settle) return this.settle(s);
     return new Promise((resolve) => {
       const t = setTimeout(() => {
         this.wake = undefined;

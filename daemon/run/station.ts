@@ -326,8 +326,22 @@ export class Station {
       });
       // A simulator that answers at once (--fast) also lets the ramps' waits pass on its own clock.
       const sim = this.config.instrument.kind === 'simulator' && !this.config.instrument.realTime ? this.sim : undefined;
-      const source = new GuardedSource(driver, this.config.limits, sim ? async (s) => sim.elapse(s) : undefined);
+      // The wait starts once the simulator has applied what was sent before it (commands travel
+      // asynchronously): otherwise the time would be spent at the level before.
+      const fastSettle = sim
+        ? async (s: number) => {
+            await driver.synchronize();
+            sim.elapse(s);
+          }
+        : undefined;
+      const source = new GuardedSource(driver, this.config.limits, fastSettle);
       const controller = new RunController(source, chain, plan, device, id);
+      if (fastSettle) {
+        // So do the run's own waits (a ramp's step time, a stress's sampling interval), and the
+        // journal's clock follows the simulator's, so times and charges are the simulated ones.
+        controller.settle = fastSettle;
+        chain.options.journal.useInstrumentClock(() => (sim?.elapsedAtOnce ?? 0) * 1000);
+      }
       // A journal that cannot be written stops the run at once (even between readings).
       chain.options.journal.onError = (err) => controller.abort(err.message, 'journal-fault');
       this.controller = controller;

@@ -17,7 +17,7 @@ export function registerRun(program: Command): void {
     .option('--scenario <name>', 'use the built-in simulated instrument with this scenario (plumbline sim --list)')
     .option('--model <id>', 'live-fit model (default: the config\'s or the scenario\'s)')
     .option('--data <dir>', 'folder under which the run creates its session folder (default: the config\'s, plumbline-data)')
-    .option('--fast', 'simulated instrument: answer at once instead of waiting the integration time or the ramp delays')
+    .option('--fast', 'simulated instrument: answer at once, and let every wait (ramp delays, point delays, a breakdown test\'s step and sampling times) pass on its own clock')
     .option('--json', 'print one JSON object at the end instead of the progress text')
     .option('--publish <url>', PUBLISH_HELP)
     .option('--station <id>', STATION_HELP)

@@ -16,7 +16,7 @@ export function registerServe(program: Command): void {
     .option('--host <addr>', 'address to listen on (default 127.0.0.1; anything else needs server.token in the config)')
     .option('--scenario <name>', 'use the built-in simulated instrument with this scenario')
     .option('--data <dir>', 'folder for session folders (default: the config\'s, plumbline-data)')
-    .option('--fast', 'simulated instrument: answer at once instead of waiting the integration time or the ramp delays')
+    .option('--fast', 'simulated instrument: answer at once, and let every wait (ramp delays, point delays, a breakdown test\'s step and sampling times) pass on its own clock')
     .option('--no-autostart', 'do not start the default plan at once even if the config says so')
     .option('--start-on-page', 'with autostart: start the default plan when the first page connects (npm start does this, so a newcomer sees the demo from its start)')
     .option('--publish <url>', PUBLISH_HELP)

@@ -1,0 +1,66 @@
+/**
+ * Breakdown tests on the built-in simulator in fast mode: the test's own waits (a ramp's step
+ * time, a stress's sampling interval) pass at once on the simulator's clock, and the journal is
+ * timed on that clock, so the results are the simulated device's: its charge to breakdown (within
+ * 5 % or the result's stated uncertainty, as on a real-time run) and the ramp rate of the plan.
+ * Real parts: the station, guard, driver and SCPI session against the simulated instrument.
+ */
+import { join } from 'node:path';
+import { describe, expect, it } from 'vitest';
+import { scanJournal } from '../../daemon/journal/reader.js';
+import { parseConfig } from '../../daemon/run/config.js';
+import { Station } from '../../daemon/run/station.js';
+import type { WireEvent } from '../../protocols/wire.js';
+import { tempDir } from '../helpers/daemon.js';
+
+async function runTest(plan: Record<string, unknown>) {
+  const st = new Station(parseConfig({
+    instrument: { kind: 'simulator', scenario: 'oxide-wearout', realTime: false, seed: 3 },
+    limits: { maxVoltage: 20, maxCompliance: 0.02, maxPower: 0.5, rampStep: 10 },
+  }, 'test'), join(tempDir(), 'data'));
+  const h = await st.startRun({ plan });
+  const r = await h.done;
+  const events: WireEvent[] = [];
+  const readings: number[] = [];
+  scanJournal(h.dir, (e) => (e.type === 'reading' ? void readings.push(e.t) : void events.push(e)));
+  const sim = st.simulator!;
+  return { r, events, readings, sim, result: events.find((e) => e.type === 'test-result') };
+}
+
+describe('breakdown tests on a fast simulator', () => {
+  it('a voltage ramp at 1 V/s: held on the simulator\'s clock, Q_bd the device\'s own, the planned rate achieved', async () => {
+    const { r, readings, sim, result } = await runTest({ kind: 'voltage-ramp', start: 0, stop: 15, step: 0.1, stepTime: 0.1, compliance: 0.01 });
+    expect(r.outcome).toBe('completed');
+    expect(result?.type).toBe('test-result');
+    if (result?.type !== 'test-result') return;
+    expect(result.outcome).toBe('breakdown');
+    const truth = sim.device.breakdown!;
+    expect(truth).toBeDefined();
+    const q = result.result.chargeToBreakdown as number;
+    const u = result.numbers?.chargeUncertainty ?? 0;
+    expect(Math.abs(q - truth.charge), `Q_bd ${q} against the device's ${truth.charge} C/m² (stated ± ${u})`).toBeLessThanOrEqual(Math.max(0.05 * truth.charge, 2 * u));
+    // The hold times passed on the simulator's clock: one step time per level.
+    const levels = Math.round((result.result.breakdownVoltage as number) / 0.1) + 1;
+    expect(sim.elapsedAtOnce).toBeGreaterThanOrEqual(0.9 * levels * 0.1);
+    // The journal's times are the simulated ones: readings 0.1 s apart, and the rate as planned.
+    const gaps = readings.slice(1).map((t, k) => (t - readings[k]) / 1000);
+    const ramp = gaps.slice(2, -2);
+    expect(Math.min(...ramp)).toBeGreaterThan(0.095);
+    expect(result.numbers?.rampRate).toBeCloseTo(1, 1);
+  });
+
+  it('a constant-voltage stress of 2,000 s sampled every 0.5 s passes on the simulator\'s clock; t_bd and Q_bd are the device\'s', async () => {
+    const { r, sim, result } = await runTest({ kind: 'constant-voltage', stress: 9, duration: 2000, sampleEvery: 0.5, compliance: 0.01 });
+    expect(r.outcome).toBe('completed');
+    if (result?.type !== 'test-result') throw new Error('no test result');
+    expect(result.outcome).toBe('breakdown');
+    const truth = sim.device.breakdown!;
+    const q = result.result.chargeToBreakdown as number;
+    const u = result.numbers?.chargeUncertainty ?? 0;
+    expect(Math.abs(q - truth.charge), `Q_bd ${q} against ${truth.charge} (± ${u})`).toBeLessThanOrEqual(Math.max(0.05 * truth.charge, 2 * u));
+    // Breakdown is seen at the first reading after it: within one sampling interval of the device's time.
+    const t = result.result.timeToBreakdown as number;
+    expect(t).toBeGreaterThanOrEqual(truth.time - 1e-6);
+    expect(t - truth.time).toBeLessThanOrEqual(0.5 + 0.05);
+  });
+});
