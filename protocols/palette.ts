@@ -22,3 +22,12 @@ export function sequential(t: number): string {
   const c = pa.map((v, k) => Math.round(v + (pb[k] - v) * f));
   return `rgb(${c[0]},${c[1]},${c[2]})`;
 }
+
+/**
+ * The colour of sweep k of n on a chart of sweeps: the sequential ramp from its dark end to 85 %
+ * of the way (a green-yellow), so the latest sweep, the one a person looks for, is never the pale
+ * yellow end that nearly vanishes on a white plot.
+ */
+export function sweepColour(k: number, n: number): string {
+  return sequential(0.85 * (n > 1 ? k / (n - 1) : 1));
+}

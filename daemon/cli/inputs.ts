@@ -38,8 +38,8 @@ export interface AnalysisOptions {
 /** Adds the shared options to a command. */
 export function withAnalysisOptions(cmd: Command): Command {
   return cmd
-    .option('--x <col>', 'x column, by header name or 1-based position (default: the first column)')
-    .option('--y <col>', 'y column (default: the second column)')
+    .option('--x <col>', 'x column, by header name or 1-based position (default: a column named voltage_V, voltage, bias or V, else the first)')
+    .option('--y <col>', 'y column (default: a column named current_A, current or I, else the second)')
     .option('--from <x>', 'fit window start, in the x column\'s own values')
     .option('--to <x>', 'fit window end, in the x column\'s own values')
     .option('--auto', 'choose the fit window automatically (the default for mechanisms of the current)')
@@ -120,11 +120,21 @@ export function loadData(file: string, o: AnalysisOptions): { table: CsvTable; d
     throw new CsvError(file, undefined, undefined, `cannot read the file (${(e as NodeJS.ErrnoException).code ?? (e as Error).message})`);
   }
   const table = parseCsvTable(text, file);
-  const xi = o.x !== undefined ? columnIndex(table, o.x, '--x') : 0;
-  const yi = o.y !== undefined ? columnIndex(table, o.y, '--y') : 1;
+  // Without --x/--y: a column named as a bias (voltage_V, voltage, bias, V) and one named as a
+  // current (current_A, current, I), as our export and most instrument files name them; else the
+  // first two columns.
+  const named = (re: RegExp) => table.headers.findIndex((h) => re.test(h.trim()));
+  const xDefault = named(/^(voltage(_V)?|bias(_V)?|V)$/i);
+  const yDefault = named(/^(current(_A)?|I)$/i);
+  const xi = o.x !== undefined ? columnIndex(table, o.x, '--x') : xDefault >= 0 ? xDefault : 0;
+  const yi = o.y !== undefined ? columnIndex(table, o.y, '--y') : yDefault >= 0 ? yDefault : 1;
   const ci = table.headers.findIndex((h) => /^compliance$/i.test(h));
   const si = table.headers.findIndex((h) => /^sweep$/i.test(h));
   // Only the columns in use must be numbers (an exported points.csv carries a text session column).
+  for (const [k, option] of [[xi, o.x === undefined ? '--x' : ''], [yi, o.y === undefined ? '--y' : '']] as const) {
+    const t = table.firstText[k];
+    if (t && option) throw new CsvError(file, t.line, table.headers[k], `'${t.text}' is not a number: name the columns to use with --x and --y (columns: ${table.headers.join(', ')})`);
+  }
   for (const k of [xi, yi, ...(ci >= 0 ? [ci] : []), ...(si >= 0 && si !== xi && si !== yi ? [si] : [])]) requireNumeric(table, k);
   const columns: Record<string, Float64Array> = {};
   columnIdentifiers(table.headers).forEach((ids, k) => ids.forEach((id) => (columns[id] = table.columns[k])));

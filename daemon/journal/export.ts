@@ -10,6 +10,50 @@ import { scanJournal, type BadLine } from './reader.js';
 
 export const POINTS_HEADER = ['session', 'sweep', 'point', 'seq', 't_ms', 'voltage_V', 'current_A', 'compliance', 'overflow', 'voltage_overflow', 'breakdown'];
 
+/**
+ * A unit as a column-name tag that reads as the unit and survives any CSV reader or data-frame
+ * attribute: m^2/(V*s) → m2_per_V_s, A/(m^2*K^2) → A_per_m2_K2, m^-3 → per_m3, eV → eV; no tag for
+ * a dimensionless value ('' or '1'). Units nested deeper than one quotient fall back to a plain
+ * rewrite (/ → _per_, * → _, ^ and brackets dropped).
+ */
+export function csvUnitTag(unit: string): string {
+  const u = unit.replace(/\s+/g, '');
+  if (u === '' || u === '1') return '';
+  const factor = (f: string): { name: string; power: number } | null => {
+    const m = /^([A-Za-z]+)(?:\^(-?\d+))?$/.exec(f);
+    return m ? { name: m[1], power: m[2] === undefined ? 1 : Number(m[2]) } : null;
+  };
+  const pieces = u.split('/');
+  const num: string[] = [];
+  const den: string[] = [];
+  let simple = true;
+  pieces.forEach((piece, k) => {
+    const inner = /^\((.*)\)$/.exec(piece)?.[1] ?? piece;
+    if (/[()]/.test(inner)) simple = false;
+    for (const f of inner.split(/[*·]/)) {
+      const q = factor(f);
+      if (!q) {
+        simple = false;
+        continue;
+      }
+      const up = (k === 0) === q.power > 0;
+      const tag = `${q.name}${Math.abs(q.power) === 1 ? '' : Math.abs(q.power)}`;
+      (up ? num : den).push(tag);
+    }
+  });
+  if (!simple) return u.replace(/\//g, '_per_').replace(/[*·]/g, '_').replace(/[\^()]/g, '').replace(/-/g, 'neg');
+  return [num.join('_'), den.length ? `per_${den.join('_')}` : ''].filter(Boolean).join('_');
+}
+
+/** The units of a fitted line's slope, intercept and residuals from the axes of its plot (ln y on a log axis). */
+export function lineUnits(axes: FitSummary['axes']): { slope: string; intercept: string; residual: string } {
+  const x = axes.x.kind === 'log' ? '' : axes.x.unit;
+  const xs = /[/*·]/.test(x) ? `(${x})` : x;
+  const per = (top: string) => (x ? `${top || '1'}/${xs}` : top);
+  if (axes.y.kind === 'log') return { slope: per(''), intercept: axes.y.unit ? `ln(${axes.y.unit})` : '', residual: '' };
+  return { slope: per(axes.y.unit), intercept: axes.y.unit, residual: axes.y.unit };
+}
+
 function csvField(v: unknown): string {
   if (v === null || v === undefined) return '';
   if (typeof v === 'number') return Number.isFinite(v) ? String(v) : '';
@@ -130,11 +174,11 @@ export function exportSession(sessionDir: string, outDir = join(sessionDir, 'exp
   const rows = [...sweeps.values()].sort((a, b) => a.sweep - b.sweep);
   const paramCols = new Map<string, string>();
   for (const r of rows) for (const [k, p] of Object.entries(r.fit?.parameters ?? {})) if (!paramCols.has(k)) paramCols.set(k, p.unit);
-  const unitTag = (u: string) => u.replace(/[^A-Za-z0-9]+/g, '');
+  const paramHeader = (k: string, u: string) => `${k}${csvUnitTag(u) ? `_${csvUnitTag(u)}` : ''}`;
   const header = [
-    'session', 'sweep', 'readings', 'compliance_readings', 'complete', 'note', 'model', 'window_from', 'window_to', 'fit_points',
-    'slope', 'slope_se', 'intercept', 'intercept_se', 'r2', 'residual_sd', 'plausible', 'fit_error',
-    ...[...paramCols].flatMap(([k, u]) => [`${k}${u ? `_${unitTag(u)}` : ''}`, `${k}_se`]),
+    'session', 'sweep', 'readings', 'compliance_readings', 'complete', 'note', 'model', 'window_from_V', 'window_to_V', 'fit_points',
+    'slope', 'slope_se', 'intercept', 'intercept_se', 'r2', 'residual_sd', 'slope_unit', 'intercept_unit', 'plausible', 'fit_error',
+    ...[...paramCols].flatMap(([k, u]) => [paramHeader(k, u), `${k}_se`]),
     'drift_parameter', 'drift_method', 'drift_statistic', 'drift_lower', 'drift_upper', 'drift_state', 'annotations',
   ];
   const lines = [header.join(',')];
@@ -143,7 +187,8 @@ export function exportSession(sessionDir: string, outDir = join(sessionDir, 'exp
     const d = r.drift;
     lines.push([
       session, r.sweep, r.readings, r.complianceReadings, r.complete, r.note, f?.model, f?.window.from, f?.window.to, f?.line.n,
-      f?.line.slope, f?.line.slopeStdErr, f?.line.intercept, f?.line.interceptStdErr, f?.line.r2, f?.line.residualStdDev, f?.plausible, r.fitError,
+      f?.line.slope, f?.line.slopeStdErr, f?.line.intercept, f?.line.interceptStdErr, f?.line.r2, f?.line.residualStdDev,
+      f ? lineUnits(f.axes).slope : undefined, f ? lineUnits(f.axes).intercept : undefined, f?.plausible, r.fitError,
       ...[...paramCols.keys()].flatMap((k) => [f?.parameters[k]?.value, f?.parameters[k]?.stdErr]),
       d?.parameter, d?.method, d?.statistic, d?.lower, d?.upper, d?.state, r.annotations.join(' | '),
     ].map(csvField).join(','));
@@ -152,6 +197,25 @@ export function exportSession(sessionDir: string, outDir = join(sessionDir, 'exp
   meta.readings = readings;
   meta.sweeps = rows.length;
   meta.parameterUnits = Object.fromEntries(paramCols);
+  // Every column's unit (SI; '' for a dimensionless number, null for text and codes), so no unit has
+  // to be guessed from a column name. Line figures take their units from each row's own plot.
+  const models = new Set(rows.map((r) => r.fit?.model).filter((m): m is string => m !== undefined));
+  const oneLine = models.size === 1 ? rows.find((r) => r.fit)?.fit : undefined;
+  const lu = oneLine ? lineUnits(oneLine.axes) : undefined;
+  const perRow = (col: string) => `per row, in ${col}`;
+  const driftParams = new Set(rows.map((r) => r.drift?.parameter).filter((p): p is string => p !== undefined));
+  const driftUnit = driftParams.size === 1 ? (paramCols.get([...driftParams][0]) ?? null) : 'the unit of drift_parameter (parameterUnits)';
+  meta.columns = {
+    'points.csv': { session: null, sweep: '', point: '', seq: '', t_ms: 'ms', voltage_V: 'V', current_A: 'A', compliance: null, overflow: null, voltage_overflow: null, breakdown: null },
+    'sweeps.csv': {
+      session: null, sweep: '', readings: '', compliance_readings: '', complete: null, note: null, model: null, window_from_V: 'V', window_to_V: 'V', fit_points: '',
+      slope: lu?.slope ?? perRow('slope_unit'), slope_se: lu?.slope ?? perRow('slope_unit'),
+      intercept: lu?.intercept ?? perRow('intercept_unit'), intercept_se: lu?.intercept ?? perRow('intercept_unit'),
+      r2: '', residual_sd: lu?.residual ?? 'the y axis of the row\'s plot (ln units when it is logarithmic)', slope_unit: null, intercept_unit: null, plausible: null, fit_error: null,
+      ...Object.fromEntries([...paramCols].flatMap(([k, u]) => [[paramHeader(k, u), u === '1' ? '' : u], [`${k}_se`, u === '1' ? '' : u]])),
+      drift_parameter: null, drift_method: null, drift_statistic: driftUnit, drift_lower: driftUnit, drift_upper: driftUnit, drift_state: null, annotations: null,
+    },
+  };
   meta.annotations = annotations;
   meta.settingChanges = settings;
   meta.timeline = timeline;

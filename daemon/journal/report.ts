@@ -19,10 +19,10 @@ import { analysisSchema, type AnalysisSettings } from '../pipeline/settings.js';
 import { deviceLine, deviceRows, type FigureRow, numberRows, OUTCOME_LABELS, resultFigureRows, TEST_TITLES } from '../../protocols/breakdown-display.js';
 import { axisLabel, displayUnit, formatInputs, formatParameter, formatParameterText, formatQuantity, parameterLabel } from '../../protocols/display-units.js';
 import { formatNumber } from '../../protocols/number-format.js';
-import { OKABE_ITO } from '../../protocols/palette.js';
+import { OKABE_ITO, sweepColour } from '../../protocols/palette.js';
 import type { SolarSummary, WireEvent } from '../../protocols/wire.js';
 import { loadSession, type SessionData, type SweepData } from './sessions.js';
-import { sequential, svgChart, type SvgSeries } from './svg.js';
+import { svgChart, type SvgSeries } from './svg.js';
 
 const esc = (s: unknown) => String(s).replace(/&/g, '&amp;').replace(/</g, '&lt;').replace(/>/g, '&gt;').replace(/"/g, '&quot;');
 const num = (v: number | null | undefined, d = 5) => (v === null || v === undefined || !Number.isFinite(v) ? '—' : formatNumber(v, d));
@@ -352,7 +352,7 @@ table.kv th{font-weight:600;color:#444;width:16rem}.settings{display:grid;grid-t
     yLabel: '|I| (A)',
     yLog: true,
     // Curves as lines; a sweep of a single reading (a breakdown test's use-condition check) as a dot.
-    series: s.sweeps.flatMap((sw, k) => measuredSeries(sw, sequential(n > 1 ? k / (n - 1) : 1), `sweep ${sw.sweep}`).map((x, j) => (j === 0 && x.y.filter((y) => y !== null).length > 1 ? { ...x, marker: 'none' as const } : x))),
+    series: s.sweeps.flatMap((sw, k) => measuredSeries(sw, sweepColour(k, n), `sweep ${sw.sweep}`).map((x, j) => (j === 0 && x.y.filter((y) => y !== null).length > 1 ? { ...x, marker: 'none' as const } : x))),
   }));
   // Parameter trends, in display units, with the drift chart of the charted parameter.
   const names = new Map<string, string>();

@@ -39,8 +39,6 @@ import { formatLogTicks, formatTicks, logTicks, niceTicks } from '../../protocol
 
 const esc = (s: string) => s.replace(/&/g, '&amp;').replace(/</g, '&lt;').replace(/>/g, '&gt;').replace(/"/g, '&quot;');
 
-export { niceTicks } from '../../protocols/number-format.js';
-
 export function svgChart(c: SvgChart): string {
   const W = c.width ?? 460;
   const H = c.height ?? 280;
@@ -175,4 +173,3 @@ export function svgChart(c: SvgChart): string {
   return parts.join('');
 }
 
-export { sequential } from '../../protocols/palette.js';

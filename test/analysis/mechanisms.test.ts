@@ -15,33 +15,33 @@ import { hopping } from '../../daemon/analysis/mechanisms/hopping.js';
 import { trapAssistedTunnelling } from '../../daemon/analysis/mechanisms/trap-assisted-tunneling.js';
 import { inRange } from '../../daemon/analysis/mechanism.js';
 import { shockley } from '../../daemon/analysis/mechanisms/diode.js';
-import { approxEqual } from '../helpers/reference.js';
+import { expectRelClose } from '../helpers/reference.js';
 import { sweep, withNoise } from '../helpers/synthetic.js';
 
 describe('forward models against published check values', () => {
   // Lenzlinger & Snow (1969) form with Forbes' constants; φ = 3.2 eV, m_r = 0.42:
   // J(10 MV/cm) = 1.13e-3 A/cm², J(8 MV/cm) = 1.29e-6 A/cm² (computed from CODATA 2018 with Forbes' constants).
   it('Fowler–Nordheim current density at 10 and 8 MV/cm', () => {
-    expect(approxEqual(fowlerNordheim(1e9, 3.2, 0.42) * 1e-4, 1.13e-3, 5e-3)).toBe(true);
-    expect(approxEqual(fowlerNordheim(8e8, 3.2, 0.42) * 1e-4, 1.29e-6, 5e-3)).toBe(true);
+    expectRelClose(fowlerNordheim(1e9, 3.2, 0.42) * 1e-4, 1.13e-3, 5e-3);
+    expectRelClose(fowlerNordheim(8e8, 3.2, 0.42) * 1e-4, 1.29e-6, 5e-3);
   });
   // Chiu 2014 / Sze: SiO2 with ε_r = n² = 1.46² at 300 K: PF slope 2.011e-3 (m/V)^½, Schottky half that.
   it('Poole–Frenkel and Schottky √E slopes for SiO2 at 300 K', () => {
-    expect(approxEqual(rootFieldSlope(1.46 ** 2, 300, 1), 2.011e-3, 1e-3)).toBe(true);
-    expect(approxEqual(rootFieldSlope(1.46 ** 2, 300, 4), 1.005e-3, 1e-3)).toBe(true);
-    expect(approxEqual(rootFieldSlope(4.0, 300, 1), 1.468e-3, 1e-3)).toBe(true);
+    expectRelClose(rootFieldSlope(1.46 ** 2, 300, 1), 2.011e-3, 1e-3);
+    expectRelClose(rootFieldSlope(1.46 ** 2, 300, 4), 1.005e-3, 1e-3);
+    expectRelClose(rootFieldSlope(4.0, 300, 1), 1.468e-3, 1e-3);
   });
   // Mott & Gurney (1940): ε_r = 3, μ = 1e-4 cm²/Vs, d = 100 nm, V = 1 V → 298.8 A/m².
   it('Mott–Gurney current density', () => {
-    expect(approxEqual(mottGurney(1, 1e-8, 3, 100e-9), 298.8, 1e-3)).toBe(true);
+    expectRelClose(mottGurney(1, 1e-8, 3, 100e-9), 298.8, 1e-3);
   });
   // Arrhenius: E_a = 0.5 eV gives a slope of −5802.26 K in ln(rate) against 1/T.
   it('Arrhenius slope for 0.5 eV', () => {
     const t = sweep(250, 400, 16);
     const rate = t.map((T) => 3e7 * Math.exp(-0.5 / (BOLTZMANN_EV_PER_K * T)));
     const r = analyze({ x: t, y: rate }, { model: 'arrhenius' });
-    expect(approxEqual(r.line.slope, -5802.26, 1e-6)).toBe(true);
-    expect(approxEqual(r.parameters.activationEnergy.value, 0.5, 1e-9)).toBe(true);
+    expectRelClose(r.line.slope, -5802.26, 1e-6);
+    expectRelClose(r.parameters.activationEnergy.value, 0.5, 1e-9);
   });
 });
 
@@ -55,7 +55,7 @@ describe('synthetic recovery: forward model → noisy data → fit → known par
     const r = analyze({ x: v, y: i }, { model: 'fowler-nordheim', inputs: { thickness: d, area, massRatio: 0.42 } });
     const p = r.parameters.barrierHeight;
     expect(Math.abs(p.value - 3.2)).toBeLessThan(3 * p.stdErr + 1e-9);
-    expect(approxEqual(p.value, 3.2, 5e-3)).toBe(true);
+    expectRelClose(p.value, 3.2, 5e-3);
     expect(r.plausible).toBe(true);
     expect(p.unit).toBe('eV');
   });
@@ -115,25 +115,25 @@ describe('synthetic recovery: forward model → noisy data → fit → known par
     const vtr = (8 * sigma * dd * dd) / (9 * VACUUM_PERMITTIVITY_F_PER_M * 3 * 1e-8);
     const r = analyze({ x: v, y: i }, { model: 'sclc', inputs: { thickness: dd, area, permittivity: 3 }, window: { from: 3, to: 10 } });
     expect(Math.abs(r.parameters.exponent.value - 2)).toBeLessThan(0.1);
-    expect(approxEqual(r.parameters.mobility.value, 1e-8, 0.15)).toBe(true);
+    expectRelClose(r.parameters.mobility.value, 1e-8, 0.15);
     // The crossing of the two asymptotes is where both terms are equal (analytical above).
     const t = r.parameters.transitionVoltage;
     expect(t).toBeDefined();
-    expect(approxEqual(t.value, vtr, 0.35)).toBe(true);
+    expectRelClose(t.value, vtr, 0.35);
   });
 
   it('ohmic: R = 1 MΩ, conductivity = d/(R·A)', () => {
     const v = sweep(-1, 1, 21);
     const i = withNoise(v.map((x) => x / 1e6), 0.005, 18);
     const r = analyze({ x: v, y: i }, { model: 'ohmic', inputs: { thickness: d, area } });
-    expect(approxEqual(r.parameters.resistance.value, 1e6, 0.01)).toBe(true);
-    expect(approxEqual(r.parameters.conductivity.value, d / (1e6 * area), 0.01)).toBe(true);
+    expectRelClose(r.parameters.resistance.value, 1e6, 0.01);
+    expectRelClose(r.parameters.conductivity.value, d / (1e6 * area), 0.01);
     // Both polarities carry signal: each branch is analysed on its own, the other one counted; the
     // zero-bias reading belongs to neither.
     expect(r.points.reasons['other polarity (analysed as its own branch)']).toBe(10);
     expect(r.points.reasons['zero bias']).toBe(1);
     expect(r.branches.map((b) => b.polarity).sort()).toEqual(['negative', 'positive']);
-    for (const b of r.branches) expect(approxEqual(b.parameters.resistance.value, 1e6, 0.01)).toBe(true);
+    for (const b of r.branches) expectRelClose(b.parameters.resistance.value, 1e6, 0.01);
   });
 });
 

@@ -113,9 +113,17 @@ describe('text columns that are not used', () => {
     const ok = runCli(['fit', f, '--x', 'voltage_V', '--y', 'current_A', '--model', 'ohmic', '--json']);
     expect(ok.code, ok.stderr).toBe(0);
     expect(JSON.parse(ok.stdout).parameters.resistance.value).toBeCloseTo(1000, 9);
-    const bad = runCli(['fit', f, '--model', 'ohmic']); // default x is column 1: the text column
+    // Without --x/--y the columns named voltage_V and current_A are taken (as our export names them).
+    const named = runCli(['fit', f, '--model', 'ohmic', '--json']);
+    expect(named.code, named.stderr).toBe(0);
+    expect(JSON.parse(named.stdout).parameters.resistance.value).toBeCloseTo(1000, 9);
+    // A file whose default column holds text says which columns there are to choose from.
+    const g = tempFile('runs.csv', `run,bias_mV,amps\n${[0, 1, 2].map((v) => `A,${v},${v / 1000}`).join('\n')}\n`);
+    const bad = runCli(['fit', g, '--model', 'ohmic']);
     expect(bad.code).toBe(2);
-    expect(bad.stderr).toMatch(/line 2, column 'session': 'run-A' is not a number/);
+    expect(bad.stderr).toMatch(/line 2, column 'run': 'A' is not a number: name the columns to use with --x and --y \(columns: run, bias_mV, amps\)/);
+    const picked = runCli(['fit', g, '--x', 'run', '--y', 'amps', '--model', 'ohmic']);
+    expect(picked.stderr).toMatch(/line 2, column 'run': 'A' is not a number$/m);
   });
 });
 

@@ -17,6 +17,13 @@ async function runOnce(args: string[]): Promise<string[]> {
   d = await startDaemon(['--scenario', 'oxide-fn', '--fast', '--no-autostart', '--data', join(tempDir(), 'data'), ...args]);
   expect((await api(d.url, 'POST', '/api/run', { plan: { start: 0, stop: 9, points: 10, compliance: 1e-3, repeat: 2 } })).status).toBe(201);
   for (let k = 0; k < 500 && !/run ended/.test(d.output()); k++) await new Promise((r) => setTimeout(r, 20));
+  // The run's end is printed as the run ends; lines of its last events reach the log through the
+  // event stream and may follow a moment later: let the output settle.
+  let before = '';
+  for (let k = 0; k < 50 && d.output() !== before; k++) {
+    before = d.output();
+    await new Promise((r) => setTimeout(r, 100));
+  }
   return d.output().split('\n').filter(Boolean);
 }
 

@@ -3,6 +3,7 @@
  * and never copied into the project. Where the folder is absent (a user's fresh clone) the suites
  * that need it say so in one line and skip.
  */
+import { expect } from 'vitest';
 import { existsSync, readFileSync } from 'node:fs';
 import { dirname, join } from 'node:path';
 import { fileURLToPath } from 'node:url';
@@ -47,6 +48,8 @@ export function lre(computed: number, ref: number): number {
 }
 
 /** Relative closeness with a stated tolerance; the one comparison helper the numerics tests use. */
-export function approxEqual(computed: number, ref: number, relTol: number): boolean {
-  return Math.abs(computed - ref) <= relTol * Math.abs(ref);
+/** Asserts |computed − ref| ≤ relTol·|ref|; a failure prints both numbers and the relative gap. */
+export function expectRelClose(computed: number, ref: number, relTol: number): void {
+  const gap = Math.abs(computed - ref) / Math.abs(ref);
+  expect(gap, `${computed} against ${ref}: relative gap ${gap.toExponential(2)} > ${relTol}`).toBeLessThanOrEqual(relTol);
 }

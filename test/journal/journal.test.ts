@@ -7,11 +7,12 @@ import { appendFileSync, mkdtempSync, readFileSync, statSync, writeFileSync } fr
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
-import { exportSession, POINTS_HEADER } from '../../daemon/journal/export.js';
+import { csvUnitTag, exportSession, lineUnits, POINTS_HEADER } from '../../daemon/journal/export.js';
 import { JOURNAL_FILE, JournalWriter, READINGS_FILE } from '../../daemon/journal/journal.js';
 import { recoverSession, scanJournal } from '../../daemon/journal/reader.js';
 import { annotateFolder } from '../../daemon/run/station.js';
 import { FLAG, type WireEvent } from '../../protocols/wire.js';
+import { writeSession as writeLotSession } from '../helpers/lot.js';
 
 function tmp(): string {
   return mkdtempSync(join(tmpdir(), 'plumbline-journal-'));
@@ -123,5 +124,41 @@ describe('journal', () => {
     expect(meta.readings).toBe(24);
     expect(meta.annotations[0].tags).toEqual(['setup']);
     expect(meta.timeline.at(-1).type).toBe('run-end');
+  });
+
+  it('export names every column\'s unit: readable tags in the header, each row\'s line units, and a units map in session.json', () => {
+    // Tags as the units read (SI symbols, BIPM SI Brochure 2019); no tag for dimensionless values.
+    expect(['m^2/(V*s)', 'eV', '', '1', 'V/m', 'A/m^2', 'm', 'm^-3', 'A/(m^2*K^2)', 'ohm*m', 'K', 'V^-1'].map(csvUnitTag))
+      .toEqual(['m2_per_V_s', 'eV', '', '', 'V_per_m', 'A_per_m2', 'm', 'per_m3', 'A_per_m2_K2', 'ohm_m', 'K', 'per_V']);
+    const data = tmp();
+    const dir = writeLotSession(data, {
+      label: 'units',
+      fits: [
+        { params: { barrierHeight: [3.1, 0.01, 'eV'], mobility: [2e-7, 1e-8, 'm^2/(V*s)'], idealityFactor: [1.3, 0.02, '1'] } },
+        { params: { barrierHeight: [3.2, 0.01, 'eV'], mobility: [2.1e-7, 1e-8, 'm^2/(V*s)'], idealityFactor: [1.31, 0.02, '1'] } },
+      ],
+    });
+    const out = join(tmp(), 'u');
+    exportSession(dir, out);
+    const lines = readFileSync(join(out, 'sweeps.csv'), 'utf8').trim().split('\n');
+    const head = lines[0].split(',');
+    for (const c of ['window_from_V', 'window_to_V', 'slope_unit', 'intercept_unit', 'barrierHeight_eV', 'mobility_m2_per_V_s', 'idealityFactor']) expect(head).toContain(c);
+    expect(head.some((h) => /_1$|m2Vs/.test(h))).toBe(false);
+    const row = lines[1].split(',');
+    // The helper's fits are Fowler–Nordheim plots: ln(J/E²) against 1/E in m/V.
+    expect(row[head.indexOf('slope_unit')]).toBe('1/(m/V)');
+    expect(row[head.indexOf('intercept_unit')]).toBe(''); // the helper's y axis carries no unit
+    const meta = JSON.parse(readFileSync(join(out, 'session.json'), 'utf8'));
+    // Every column of both files has an entry.
+    expect(Object.keys(meta.columns['sweeps.csv']).sort()).toEqual([...head].sort());
+    expect(Object.keys(meta.columns['points.csv'])).toEqual(POINTS_HEADER);
+    expect(meta.columns['sweeps.csv'].mobility_m2_per_V_s).toBe('m^2/(V*s)');
+    expect(meta.columns['sweeps.csv'].idealityFactor_se).toBe('');
+    expect(meta.columns['sweeps.csv'].slope).toBe('1/(m/V)');
+    expect(meta.columns['points.csv'].current_A).toBe('A');
+    // A real Fowler–Nordheim plot (its axes as the mechanism declares them) and a linear one.
+    expect(lineUnits({ x: { label: '1/E', unit: 'm/V', kind: 'linear' }, y: { label: 'J/E²', unit: 'A/m^2/(V/m)^2', kind: 'log' } }))
+      .toEqual({ slope: '1/(m/V)', intercept: 'ln(A/m^2/(V/m)^2)', residual: '' });
+    expect(lineUnits({ x: { label: 'V', unit: 'V', kind: 'linear' }, y: { label: 'I', unit: 'A', kind: 'linear' } })).toEqual({ slope: 'A/V', intercept: 'A', residual: 'A' });
   });
 });

@@ -6,7 +6,7 @@
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
 import { JournalWriter } from '../../daemon/journal/journal.js';
-import { niceTicks } from '../../daemon/journal/svg.js';
+import { niceTicks } from '../../protocols/number-format.js';
 import { runCli } from '../helpers/cli.js';
 import { tempDir } from '../helpers/daemon.js';
 

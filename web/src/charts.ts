@@ -6,7 +6,7 @@
  */
 import uPlot from 'uplot';
 import { displayUnit } from '../../protocols/display-units.js';
-import { OKABE_ITO, sequential } from '../../protocols/palette.js';
+import { OKABE_ITO, sweepColour } from '../../protocols/palette.js';
 import type { PlotViewData, SolarSummary, WireEvent } from '../../protocols/wire.js';
 import { axisText, displayView, linearRange, linearSplits, linearValues, logRange, logSplits, logValues, type DisplayView } from './axes.js';
 import type { Envelope, SweepPoints } from './store.js';
@@ -146,7 +146,7 @@ export class RawChart {
       const series: uPlot.Series[] = [{}];
       keys.forEach((k, n) => series.push({
         label: `sweep ${k}`,
-        stroke: sequential(keys.length > 1 ? n / (keys.length - 1) : 1),
+        stroke: sweepColour(n, keys.length),
         width: 1.5,
         points: { show: false },
         paths: uPlot.paths.linear?.(),
@@ -169,7 +169,7 @@ export class RawChart {
             for (let n = 0; n < nSweeps; n++) {
               const c = this.cache.get(keys[n]);
               if (!c) continue;
-              if (total <= DOT_LIMIT) drawPoints(u, (u.data[n + 1] as unknown as [number[]])[0], c.y, 'dot', sequential(nSweeps > 1 ? n / (nSweeps - 1) : 1), 1.6);
+              if (total <= DOT_LIMIT) drawPoints(u, (u.data[n + 1] as unknown as [number[]])[0], c.y, 'dot', sweepColour(n, nSweeps), 1.6);
               if (c.negX.length) drawPoints(u, c.negX, c.negY, 'cross', OKABE_ITO.vermillion);
               if (c.compX.length) drawPoints(u, c.compX, c.compY, 'square', OKABE_ITO.black);
             }

@@ -57,8 +57,11 @@ export function markInputs(container: HTMLElement, model: StationStatus['models'
 export function fillAnalysis(f: HTMLFormElement, a: AnalysisSettings): void {
   (f.elements.namedItem('model') as HTMLSelectElement).value = a.model;
   for (const [name, d] of Object.entries(INPUTS)) {
+    const input = f.elements.namedItem(name) as HTMLInputElement | null;
+    // The input fields are built once the station's status arrives; until then there is nothing to fill.
+    if (!input) continue;
     const v = a.inputs?.[name];
-    field(f, name).value = v === undefined ? '' : formatNumber(toDisplay(v, d.si), 6);
+    input.value = v === undefined ? '' : formatNumber(toDisplay(v, d.si), 6);
   }
   const w = a.window;
   field(f, 'from').value = typeof w === 'object' && w.from !== undefined ? formatNumber(w.from, 6) : '';

@@ -335,7 +335,9 @@ function refillForms(s: Store): void {
   const a = shownAnalysis();
   const key = JSON.stringify(a);
   const f = $<HTMLFormElement>('analysis-form');
-  if (!a || key === filledFrom || f.contains(document.activeElement)) return;
+  // Before the station's status has built the input fields there is nothing to fill (the fill
+  // runs again once they exist: building them resets filledFrom).
+  if (!a || !status || key === filledFrom || f.contains(document.activeElement)) return;
   filledFrom = key;
   fillAnalysis(f, a);
   markInputs($('input-fields'), status?.models.find((m) => m.id === a.model));
