@@ -22,6 +22,7 @@ import { evalNumber, type compileCustom } from './mechanisms/custom.js';
 import { REASONS, sortedOrder, type Branch, type SweepClasses, type SweepData } from './sweep-points.js';
 import { MIN_WINDOW_POINTS, searchWindow, testRun, type Admissible, type WindowTest } from './window.js';
 import { WindowMoments } from './window-moments.js';
+import { selectInPlace } from './select.js';
 
 export type WindowMode = 'all' | 'manual' | 'auto';
 
@@ -242,8 +243,7 @@ function weigh(mech: Mechanism, inputs: ResolvedInputs, p: Points, base: NoiseMo
     }
     // The relative part is measured where it dominates: the half of the points with the smallest
     // floor share (a floor estimated a little high would otherwise pull g down through the median).
-    const sorted = q.slice().sort();
-    const cutQ = sorted[Math.min(m - 1, Math.max(4, m >> 1))];
+    const cutQ = selectInPlace(q.slice(), Math.min(m - 1, Math.max(4, m >> 1)));
     let c = 0;
     for (let j = 0; j < m; j++) if (q[j] <= cutQ) c++;
     const kx = new Float64Array(c);

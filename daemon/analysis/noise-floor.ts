@@ -16,6 +16,7 @@
  * chosen so that the trimmed mean of the normalised squared residuals takes its χ²₁ value.
  */
 import type { AccuracySpec } from './accuracy.js';
+import { medianInPlace, selectInPlace } from './select.js';
 
 /** Readings with |I| below this many floor σ are "at the noise floor". */
 export const FLOOR_MULTIPLE = 5;
@@ -65,9 +66,7 @@ export function estimateFloor(zero: number[], low: number[], signal: number): { 
   const robust = (vals: number[]) => {
     const s = new Float64Array(vals.length);
     for (let k = 0; k < vals.length; k++) s[k] = vals[k] * vals[k];
-    s.sort();
-    const m = s.length >> 1;
-    const med = s.length % 2 ? s[m] : 0.5 * (s[m - 1] + s[m]);
+    const med = medianInPlace(s);
     return Math.sqrt(med / CHI2_1_MEDIAN);
   };
   const all = zero.concat(low);
@@ -119,7 +118,8 @@ export function relativeFromScatter(x: ArrayLike<number>, y: ArrayLike<number>, 
   const trimmedMean = (g: number) => {
     const g2 = g * g;
     for (let j = 0; j < m; j++) ratio[j] = e2[j] / (g2 * qc[j] + qa[j] + qb[j] || Number.MIN_VALUE);
-    ratio.sort();
+    // The smallest `keep` ratios, in any order: a selection puts them first.
+    if (keep < m) selectInPlace(ratio, keep - 1);
     let t = 0;
     for (let j = 0; j < keep; j++) t += ratio[j];
     return t / keep;

@@ -8,6 +8,7 @@
 import type { AccuracySpec } from './accuracy.js';
 import { AnalysisError } from './errors.js';
 import { estimateFloor, floorLevel, MIN_RELATIVE, noiseFromAccuracy, type NoiseModel } from './noise-floor.js';
+import { medianInPlace } from './select.js';
 
 /** Points excluded for these reasons are counted under these names in every report. */
 export const REASONS = {
@@ -192,7 +193,11 @@ export function classifySweep(data: SweepData, options: ClassifyOptions = {}): S
     const before = low.length;
     for (let j = 0; j <= last; j++) if (excluded[idx[j]] === undefined) low.push(data.y[idx[j]]);
     // Too few in the run from zero bias: the readings against the bias alone.
-    if (low.length - before < 3 && all.length >= 3) low.splice(before, low.length - before, ...all);
+    if (low.length - before < 3 && all.length >= 3) {
+      // No spread into splice: a long noisy floor holds more readings than a call has arguments.
+      low.length = before;
+      for (const v of all) low.push(v);
+    }
   }
   let est = estimateFloor(zero, low, signal);
   if (est?.note) notes.push(est.note);
@@ -222,9 +227,7 @@ export function classifySweep(data: SweepData, options: ClassifyOptions = {}): S
       }
     }
     if (r.length >= 3) {
-      const sq = Float64Array.from(r, (e) => e * e).sort();
-      const m = sq.length >> 1;
-      const med = sq.length % 2 ? sq[m] : 0.5 * (sq[m - 1] + sq[m]);
+      const med = medianInPlace(Float64Array.from(r, (e) => e * e));
       const sigma = Math.sqrt(med / 0.454936423119572);
       // A scatter of a few percent of the currents themselves is their relative noise, not a floor;
       // residuals all of one sign are the bend of a smooth curve, not noise.

@@ -664,7 +664,7 @@ export function coarseGrid(d: WeibullData, shape: number, scale: number): { step
   if (step === undefined) return null;
   const ratio = step / scale / (Math.PI / (shape * Math.sqrt(6)));
   if (ratio <= 0.2) return null;
-  const tol = 1e-9 * Math.max(...failed.map(Math.abs));
+  const tol = 1e-9 * failed.reduce((m, v) => Math.max(m, Math.abs(v)), 0);
   const sorted = [...failed].sort((a, b) => a - b);
   const tied = sorted.filter((v, k) => (k > 0 && v - sorted[k - 1] <= tol) || (k < sorted.length - 1 && sorted[k + 1] - v <= tol)).length;
   return { step, ratio, tied };

@@ -126,7 +126,7 @@ export function loadData(file: string, o: AnalysisOptions): { table: CsvTable; d
   const named = (re: RegExp) => table.headers.findIndex((h) => re.test(h.trim()));
   const xDefault = named(/^(voltage(_V)?|bias(_V)?|V)$/i);
   const yDefault = named(/^(current(_A)?|I)$/i);
-  const xi = o.x !== undefined ? columnIndex(table, o.x, '--x') : xDefault >= 0 ? xDefault : 0;
+  const xi = o.x !== undefined ? columnIndex(table, o.x, '--x') : Math.max(xDefault, 0);
   const yi = o.y !== undefined ? columnIndex(table, o.y, '--y') : yDefault >= 0 ? yDefault : 1;
   const ci = table.headers.findIndex((h) => /^compliance$/i.test(h));
   const si = table.headers.findIndex((h) => /^sweep$/i.test(h));
