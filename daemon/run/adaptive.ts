@@ -24,6 +24,14 @@ export interface AdaptiveSweepFigures {
 
 /** Fewest readings in the regime before a fit can stop a sweep: the fewest an automatic window takes (MIN_WINDOW_POINTS). */
 const MIN_REGIME_POINTS = 5;
+/**
+ * Consecutive regime readings whose fit must meet the target before the sweep stops. Stopping at
+ * the first fit whose error dips below the target picks the fits whose error came out low by
+ * chance (optional stopping), and the stated error then covers the truth less often than it
+ * claims: on the simulated insulators one check gave 2σ coverage of 80 % and a 1σ coverage near
+ * 50 %; three checks restore about 95 % and 68 %, for two or three readings more.
+ */
+const TARGET_CHECKS = 3;
 
 export async function runAdaptive(ctx: RunContext, plan: AdaptivePlan, figures: AdaptiveSweepFigures[]): Promise<{ outcome: RunOutcome; reason: string }> {
   const src = ctx.source;
@@ -40,6 +48,7 @@ export async function runAdaptive(ctx: RunContext, plan: AdaptivePlan, figures: 
     let charge = 0;
     let last = journal.now();
     let parameter: AdaptiveSweepFigures['parameter'] = null;
+    let met = 0;
     for (;;) {
       ctx.check();
       await src.step(v);
@@ -65,7 +74,8 @@ export async function runAdaptive(ctx: RunContext, plan: AdaptivePlan, figures: 
         const p = f?.parameters[plan.target.parameter];
         if (f && p && Number.isFinite(p.stdErr)) {
           parameter = { name: plan.target.parameter, value: p.value, stdErr: p.stdErr, unit: p.unit };
-          if (p.stdErr <= plan.target.stdErr && f.plausible) {
+          met = p.stdErr <= plan.target.stdErr && f.plausible ? met + 1 : 0;
+          if (met >= TARGET_CHECKS) {
             planner.targetReached();
             break;
           }

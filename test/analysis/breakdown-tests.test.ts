@@ -133,7 +133,7 @@ describe('adaptive sweep plan', () => {
     expect(p.inRegime).toBe(true);
     expect('next' in r && r.next).toBeCloseTo(2.2, 12);
     expect(p.add(2.2, 2e-3, false)).toEqual({ stop: 'current-limit' });
-    expect(p.knowledge()).toEqual({ onset: 2, floor: 2e-13, top: 2 });
+    expect(p.knowledge()).toEqual({ onset: 2, floor: 2e-13, quietFloor: 1e-13 });
     // The next sweep starts a fine step below the onset, in fine steps.
     const q = new AdaptiveSweep({ start: 0, stop: 12, maxPoints: 100, currentLimit: 1e-3 }, p.knowledge());
     expect(q.first()).toBeCloseTo(1.8, 12);

@@ -186,6 +186,11 @@ export async function benchAdaptive(): Promise<void> {
     const zs = ad.map((o) => ((o.value - truth) / o.stdErr).toFixed(1)).join(' ');
     process.stdout.write(`  adaptive  ${String(aR).padStart(4)} readings (${ad.map((o) => o.readings).join(' ')}), ≤ ${aPeak.toPrecision(3)} V, ${e2(aQ)} C, ±${e2(median(ad.map((o) => o.stdErr)))}; target reached ${reached}/${ad.length}, within tolerance ${inTol}/${ad.length}, within 2σ of the device ${covered}/${ad.length} (z: ${zs})\n`);
     process.stdout.write(`  fixed     ${String(base.points).padStart(4)} readings, ≤ ${Math.abs(sc.sweep.stop).toPrecision(3)} V, ${e2(fQ)} C, ±${e2(medianErr(base.runs))}\n`);
+    // A run of three sweeps: the later ones reuse the first's floor, onset and top.
+    const rep = await run(c.scenario, { kind: 'adaptive', start: sc.sweep.start, stop: sc.sweep.stop, maxPoints: 400, compliance: sc.sweep.compliance, repeat: 3, target: { parameter: c.parameter, stdErr: base.target } }, SEEDS[0]);
+    rmSync(rep.dir, { recursive: true, force: true });
+    const sw = rep.result.adaptive?.sweeps ?? [];
+    process.stdout.write(`  3 sweeps (seed ${SEEDS[0]}): ${sw.map((x) => `${x.readings} readings${x.parameter ? ` ±${e2(x.parameter.stdErr)}` : ''} (${x.stopReason})`).join(', ')}\n`);
     const caveat = reached < ad.length ? `; the target was reached in only ${reached} of ${ad.length} sweeps, so the ratio flatters the adaptive plan` : '';
     process.stdout.write(`  ${(base.points / aR).toFixed(1)}× fewer readings, peak ${aPeak <= Math.abs(sc.sweep.stop) + 1e-9 ? 'not higher' : 'HIGHER'}, ${(fQ / Math.max(aQ, 1e-300)).toFixed(1)}× less charge   (goal ≥ 3×, peak not higher)${caveat}\n`);
   }
