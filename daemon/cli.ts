@@ -15,16 +15,7 @@ import { rankMechanisms } from './analysis/ranking.js';
 import { CsvError } from '../protocols/csv-table.js';
 import { formatDiode, formatFit, formatRanking, formatSolar } from './cli/format.js';
 import { cheung, fitDiode, solarFiguresWithUncertainty, type Convention } from './analysis/diode-fit.js';
-import {
-  type AnalysisOptions,
-  enableExpressions,
-  loadData,
-  readAccuracy,
-  readCompliance,
-  readInputs,
-  readWindow,
-  withAnalysisOptions,
-} from './cli/inputs.js';
+import { type AnalysisOptions, enableExpressions, loadData, readAccuracy, readCompliance, readInputs, readWindow, withAnalysisOptions } from './cli/inputs.js';
 import { QuantityError } from './quantity.js';
 import { registerSim } from './cli/sim.js';
 import { registerStation } from './cli/station.js';
@@ -68,7 +59,11 @@ interface FitOptions extends AnalysisOptions {
 const DIODE_MODELS = ['single-diode', 'double-diode', 'cheung'];
 
 function readConvention(o: { convention: string }): Convention {
-  if (o.convention !== 'load' && o.convention !== 'generator') throw new QuantityError('--convention', `--convention '${o.convention}': expected load (current into the device positive, as an SMU records it) or generator`);
+  if (o.convention !== 'load' && o.convention !== 'generator')
+    throw new QuantityError(
+      '--convention',
+      `--convention '${o.convention}': expected load (current into the device positive, as an SMU records it) or generator`,
+    );
   return o.convention;
 }
 
@@ -80,15 +75,23 @@ withAnalysisOptions(
     .requiredOption('--model <id>', `mechanism: ${MODEL_IDS.join(', ')}; or a diode model: ${DIODE_MODELS.join(', ')}`)
     .option('--illuminated', 'diode models: fit a photocurrent (an illuminated solar cell)')
     .option('--convention <c>', 'diode models: how the file signs the current: load (into the device positive, as an SMU records it) or generator', 'load')
-    .option('--objective <o>', 'diode models: current (true-current residuals, default) or implicit (the model equation\'s residual, as much of the literature fits)', 'current')
+    .option(
+      '--objective <o>',
+      "diode models: current (true-current residuals, default) or implicit (the model equation's residual, as much of the literature fits)",
+      'current',
+    )
     .option('--x-expr <expr>', 'custom model: x as a mathjs expression over the columns (by header or c1, c2 …)')
     .option('--y-expr <expr>', 'custom model: y as a mathjs expression over the columns')
     .option('--y-axis <kind>', 'custom model: log (fit ln y) or linear', 'linear'),
 ).action((file: string, o: FitOptions) => {
   const { data, notes } = loadData(file, o);
   if (DIODE_MODELS.includes(o.model)) {
-    if (o.objective !== 'current' && o.objective !== 'implicit') throw new QuantityError('--objective', `--objective '${o.objective}': expected current or implicit`);
-    if (o.auto) throw new UsageError(`--auto: the ${o.model} model is fitted over the whole curve (every usable reading, or --from/--to); an automatic window belongs to the linearized models (the semilog diode is --model diode)`);
+    if (o.objective !== 'current' && o.objective !== 'implicit')
+      throw new QuantityError('--objective', `--objective '${o.objective}': expected current or implicit`);
+    if (o.auto)
+      throw new UsageError(
+        `--auto: the ${o.model} model is fitted over the whole curve (every usable reading, or --from/--to); an automatic window belongs to the linearized models (the semilog diode is --model diode)`,
+      );
     const win = readWindow(o);
     const inputs = readInputs(o);
     const req = {
@@ -115,9 +118,7 @@ withAnalysisOptions(
     window: readWindow(o, o.model === 'arrhenius'),
     accuracy: readAccuracy(o),
     complianceLimit: readCompliance(o),
-    custom: o.model === 'custom' && o.xExpr !== undefined && o.yExpr !== undefined
-      ? { x: o.xExpr, y: o.yExpr, yAxis: o.yAxis }
-      : undefined,
+    custom: o.model === 'custom' && o.xExpr !== undefined && o.yExpr !== undefined ? { x: o.xExpr, y: o.yExpr, yAxis: o.yAxis } : undefined,
   });
   report.notes.push(...notes);
   print(o.json, report, () => formatFit(report));
@@ -198,10 +199,7 @@ export async function main(argv: string[]): Promise<number> {
       return e.exitCode === 0 ? 0 : 2;
     }
     const cmd = argv[2] ?? '';
-    if (
-      e instanceof CsvError || e instanceof QuantityError || e instanceof UsageError ||
-      isInputError(e)
-    ) {
+    if (e instanceof CsvError || e instanceof QuantityError || e instanceof UsageError || isInputError(e)) {
       process.stderr.write(`plumbline ${cmd}: ${e.message}\n`);
       return 2;
     }

@@ -26,7 +26,7 @@ export async function runDemo(scenarioName = 'oxide-fn'): Promise<void> {
   out(`device: ${scenario.name} — ${scenario.description}\n`);
   const { start, stop, points, compliance } = scenario.sweep;
   out(`sweep ${start} V to ${stop} V in ${points} points, compliance ${compliance} A\n`);
-  out('CAUTION: on a real station the output can be at a hazardous voltage; follow your lab\'s safety rules.\n\n');
+  out("CAUTION: on a real station the output can be at a hazardous voltage; follow your lab's safety rules.\n\n");
   const v: number[] = [];
   const i: number[] = [];
   const comp: number[] = [];
@@ -40,7 +40,10 @@ export async function runDemo(scenarioName = 'oxide-fn'): Promise<void> {
       v.push(m.reading.v);
       i.push(m.reading.i);
       comp.push(m.compliance ? 1 : 0);
-      if (k % 15 === 0 || k === points - 1) out(`  point ${String(k + 1).padStart(3)}/${points}  V = ${m.reading.v.toFixed(3)} V  I = ${m.reading.i.toExponential(3)} A${m.compliance ? '  (compliance)' : ''}\n`);
+      if (k % 15 === 0 || k === points - 1)
+        out(
+          `  point ${String(k + 1).padStart(3)}/${points}  V = ${m.reading.v.toFixed(3)} V  I = ${m.reading.i.toExponential(3)} A${m.compliance ? '  (compliance)' : ''}\n`,
+        );
     }
   } finally {
     await driver.outputOff();

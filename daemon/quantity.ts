@@ -28,7 +28,10 @@ const REFERENCE: Record<Exclude<QuantityKind, 'number'>, { si: string; example: 
 
 export class QuantityError extends Error {
   readonly code = 'BAD_QUANTITY';
-  constructor(readonly setting: string, message: string) {
+  constructor(
+    readonly setting: string,
+    message: string,
+  ) {
     super(message);
     this.name = 'QuantityError';
   }
@@ -57,7 +60,8 @@ export function parseQuantity(text: string, kind: QuantityKind, setting: string)
   const own = readQuantity(t);
   if (own !== undefined) {
     const si = target(ref.si);
-    if (!sameDimensions(own.dims, si.dims)) throw new QuantityError(setting, `${setting} '${text}': expected a ${kind} (e.g. "${ref.example}")${celsiusHint(kind, t)}`);
+    if (!sameDimensions(own.dims, si.dims))
+      throw new QuantityError(setting, `${setting} '${text}': expected a ${kind} (e.g. "${ref.example}")${celsiusHint(kind, t)}`);
     const v = valueIn(own, si);
     if (!Number.isFinite(v)) throw new QuantityError(setting, `${setting} '${text}': not a finite value`);
     return v;
@@ -66,7 +70,10 @@ export function parseQuantity(text: string, kind: QuantityKind, setting: string)
   try {
     u = unit(t);
   } catch (e) {
-    throw new QuantityError(setting, `${setting} '${text}': not a quantity mathjs understands (${(e as Error).message}); e.g. "${ref.example}"${celsiusHint(kind, t)}`);
+    throw new QuantityError(
+      setting,
+      `${setting} '${text}': not a quantity mathjs understands (${(e as Error).message}); e.g. "${ref.example}"${celsiusHint(kind, t)}`,
+    );
   }
   if (!u.equalBase(unit(`1 ${ref.si}`))) {
     throw new QuantityError(setting, `${setting} '${text}': expected a ${kind} (e.g. "${ref.example}")${celsiusHint(kind, t)}`);

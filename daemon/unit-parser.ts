@@ -32,8 +32,22 @@ const UNITS: Record<string, UnitDef> = {
 };
 
 const PREFIXES: Record<string, number> = {
-  da: 1e1, h: 1e2, k: 1e3, M: 1e6, G: 1e9, T: 1e12, P: 1e15, E: 1e18,
-  d: 1e-1, c: 1e-2, m: 1e-3, u: 1e-6, n: 1e-9, p: 1e-12, f: 1e-15, a: 1e-18,
+  da: 1e1,
+  h: 1e2,
+  k: 1e3,
+  M: 1e6,
+  G: 1e9,
+  T: 1e12,
+  P: 1e15,
+  E: 1e18,
+  d: 1e-1,
+  c: 1e-2,
+  m: 1e-3,
+  u: 1e-6,
+  n: 1e-9,
+  p: 1e-12,
+  f: 1e-15,
+  a: 1e-18,
 };
 
 interface UnitTerm {

@@ -113,7 +113,11 @@ export function deviceRows(d: Readonly<Record<string, unknown>> | null | undefin
   const x = number('x');
   const y = number('y');
   if (x !== undefined || y !== undefined) rows.push({ key: 'position', label: 'position on the wafer map', text: `x ${x ?? '–'}, y ${y ?? '–'}`, unit: '' });
-  for (const [k, si] of [['area', 'm^2'], ['thickness', 'm'], ['temperature', 'K']] as const) {
+  for (const [k, si] of [
+    ['area', 'm^2'],
+    ['thickness', 'm'],
+    ['temperature', 'K'],
+  ] as const) {
     const v = number(k);
     if (v === undefined) continue;
     const du = displayUnit(si, k);

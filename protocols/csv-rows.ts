@@ -80,6 +80,11 @@ export class CsvRowMapper {
       temperature = parseNumberField(fields[this.ti]);
       if (!(temperature > 0)) return { kind: 'rejected', reason: `column '${this.headers[this.ti]}': '${fields[this.ti].trim()}' is not a temperature in K` };
     }
-    return { kind: 'reading', reading: { v, i, overflow: false, voltageOverflow: false }, compliance: c !== 0 && !Number.isNaN(c), ...(temperature !== undefined ? { temperature } : {}) };
+    return {
+      kind: 'reading',
+      reading: { v, i, overflow: false, voltageOverflow: false },
+      compliance: c !== 0 && !Number.isNaN(c),
+      ...(temperature !== undefined ? { temperature } : {}),
+    };
   }
 }

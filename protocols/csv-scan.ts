@@ -214,5 +214,5 @@ function twoProductError(a: number, b: number, p: number): number {
   t = SPLIT * b;
   const bh = t - (t - b);
   const bl = b - bh;
-  return ((ah * bh - p) + ah * bl + al * bh) + al * bl;
+  return ah * bh - p + ah * bl + al * bh + al * bl;
 }

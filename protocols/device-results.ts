@@ -167,22 +167,26 @@ export function parseDeviceResults(text: string, file: string): DeviceResult[] {
   lines.forEach((t, k) => {
     if (t.trim() !== '' && !t.trim().startsWith('#')) content.push({ n: k + 1, text: t });
   });
-  if (content.length === 0) throw new CsvError(file, undefined, undefined, 'the results file is empty: expected a header row, a units row and one row per device');
+  if (content.length === 0)
+    throw new CsvError(file, undefined, undefined, 'the results file is empty: expected a header row, a units row and one row per device');
   const header = splitFields(content[0].text, ',').map((h) => h.trim().toLowerCase());
   const at = new Map<string, number>();
   header.forEach((h, k) => at.set(h, k));
-  for (const need of ['device', 'outcome']) if (!at.has(need)) throw new CsvError(file, content[0].n, need, `no '${need}' column (columns: ${header.join(', ')})`);
+  for (const need of ['device', 'outcome'])
+    if (!at.has(need)) throw new CsvError(file, content[0].n, need, `no '${need}' column (columns: ${header.join(', ')})`);
   let start = 1;
   if (content.length > 1) {
     const units = splitFields(content[1].text, ',').map((u) => u.trim());
-    const isUnits = units.every((u) => u === '' || !NUMBER.test(u)) && units.some((u) => u !== '') && !OUTCOMES.includes(units[at.get('outcome') as number] as Outcome);
+    const isUnits =
+      units.every((u) => u === '' || !NUMBER.test(u)) && units.some((u) => u !== '') && !OUTCOMES.includes(units[at.get('outcome') as number] as Outcome);
     if (isUnits) {
       start = 2;
       for (const c of RESULT_COLUMNS) {
         const k = at.get(c.name);
         if (k === undefined || c.unit === '') continue;
         const u = (units[k] ?? '').replace(/\s+/g, '');
-        if (u !== '' && u !== c.unit) throw new CsvError(file, content[1].n, c.name, `unit '${units[k]}' where the results format stores ${c.unit} (SI); convert the column`);
+        if (u !== '' && u !== c.unit)
+          throw new CsvError(file, content[1].n, c.name, `unit '${units[k]}' where the results format stores ${c.unit} (SI); convert the column`);
       }
     }
   }
@@ -199,11 +203,16 @@ export function parseDeviceResults(text: string, file: string): DeviceResult[] {
       if (c.kind === 'number') {
         if (!NUMBER.test(cell)) throw new CsvError(file, line.n, c.name, `'${cell}' is not a number`);
         row[c.key] = Number(cell);
-      } else if (c.kind === 'tags') row[c.key] = cell.split(';').map((t) => t.trim()).filter((t) => t !== '');
+      } else if (c.kind === 'tags')
+        row[c.key] = cell
+          .split(';')
+          .map((t) => t.trim())
+          .filter((t) => t !== '');
       else row[c.key] = cell;
     }
     if (typeof row.device !== 'string') throw new CsvError(file, line.n, 'device', 'empty device name');
-    if (!OUTCOMES.includes(row.outcome as Outcome)) throw new CsvError(file, line.n, 'outcome', `'${row.outcome ?? ''}': expected one of ${OUTCOMES.join(', ')}`);
+    if (!OUTCOMES.includes(row.outcome as Outcome))
+      throw new CsvError(file, line.n, 'outcome', `'${row.outcome ?? ''}': expected one of ${OUTCOMES.join(', ')}`);
     if (row.test === undefined) row.test = '';
     rows.push(row as unknown as DeviceResult);
   }
@@ -224,7 +233,8 @@ const TEXT = /^[^\u0000-\u001f]{1,64}$/;
  * temperature positive and in SI (m², m, K). `where` prefixes the field in messages.
  */
 export function parseDeviceIdentity(raw: unknown, where = 'device'): DeviceIdentity {
-  if (typeof raw !== 'object' || raw === null || Array.isArray(raw)) throw new DeviceIdentityError(`${where}: expected an object with ${DEVICE_FIELDS.join(', ')}`);
+  if (typeof raw !== 'object' || raw === null || Array.isArray(raw))
+    throw new DeviceIdentityError(`${where}: expected an object with ${DEVICE_FIELDS.join(', ')}`);
   const out: Record<string, unknown> = {};
   for (const [k, v] of Object.entries(raw)) {
     const f = `${where}.${k}`;
@@ -237,7 +247,8 @@ export function parseDeviceIdentity(raw: unknown, where = 'device'): DeviceIdent
       if (typeof v !== 'number' || !Number.isFinite(v)) throw new DeviceIdentityError(`${f}: expected a number (the site's column or row on the wafer map)`);
       out[k] = v;
     } else if (k === 'tags') {
-      if (!Array.isArray(v) || v.length > 32 || !v.every((t) => typeof t === 'string' && TEXT.test(t))) throw new DeviceIdentityError(`${f}: expected up to 32 tags of 1 to 64 printable characters`);
+      if (!Array.isArray(v) || v.length > 32 || !v.every((t) => typeof t === 'string' && TEXT.test(t)))
+        throw new DeviceIdentityError(`${f}: expected up to 32 tags of 1 to 64 printable characters`);
       out[k] = [...v];
     } else {
       const unit = k === 'area' ? 'm^2' : k === 'thickness' ? 'm' : 'K';

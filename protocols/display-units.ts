@@ -72,7 +72,12 @@ export function prettyUnit(u: string): string {
   const sup: Record<string, string> = { '-': '⁻', '0': '⁰', '1': '¹', '2': '²', '3': '³', '4': '⁴', '5': '⁵', '6': '⁶', '7': '⁷', '8': '⁸', '9': '⁹' };
   return u
     .replace(/\^0\.5/g, '^½')
-    .replace(/\^(-?\d+)/g, (_, e: string) => e.split('').map((c) => sup[c] ?? c).join(''))
+    .replace(/\^(-?\d+)/g, (_, e: string) =>
+      e
+        .split('')
+        .map((c) => sup[c] ?? c)
+        .join(''),
+    )
     .replace(/\*/g, '·')
     .replace(/\bohm\b/g, 'Ω');
 }

@@ -35,7 +35,10 @@ export class FileTail extends EventEmitter<TailEvents> {
   readonly maxLine: number;
   overlong = 0;
 
-  constructor(readonly path: string, private readonly options: TailOptions = {}) {
+  constructor(
+    readonly path: string,
+    private readonly options: TailOptions = {},
+  ) {
     super();
     this.pollMs = options.pollMs ?? 50;
     this.maxLine = options.maxLine ?? 65536;

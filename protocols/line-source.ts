@@ -59,7 +59,9 @@ export async function serialLines(settings: SerialSettings, terminator: ReadTerm
  * A watch source named on the command line: `-` (standard input), `tcp://HOST:PORT`,
  * `serial:PATH`, or a file path. Returns what kind it is and, for tcp/serial, where.
  */
-export function parseSourceSpec(spec: string): { kind: 'stdin' } | { kind: 'tcp'; host: string; port: number } | { kind: 'serial'; path: string } | { kind: 'file'; path: string } {
+export function parseSourceSpec(
+  spec: string,
+): { kind: 'stdin' } | { kind: 'tcp'; host: string; port: number } | { kind: 'serial'; path: string } | { kind: 'file'; path: string } {
   if (spec === '-') return { kind: 'stdin' };
   const tcp = /^tcp:\/\/(\[[^\]]+\]|[^:/]+):(\d+)\/?$/.exec(spec);
   if (tcp) {

@@ -102,7 +102,10 @@ const SUPERSCRIPT: Record<string, string> = { '-': '⁻', '0': '⁰', '1': '¹',
 /** A power of ten as on a printed log axis: 10⁻⁹ (plain decimals from 0.001 to 10000). */
 export function formatPowerOfTen(e: number): string {
   if (e >= -3 && e <= 4) return formatNumber(10 ** e);
-  return `10${String(e).split('').map((c) => SUPERSCRIPT[c] ?? c).join('')}`;
+  return `10${String(e)
+    .split('')
+    .map((c) => SUPERSCRIPT[c] ?? c)
+    .join('')}`;
 }
 
 /** Label of a tick on a log axis: decades as 10ⁿ, other ticks as m×10ⁿ (or plain decimals). */
@@ -127,7 +130,10 @@ export function formatLogTicks(ticks: readonly number[]): string[] {
     if (plain) return formatNumber(v, 3);
     const e = exponentOf(v);
     const m = Number((v / 10 ** e).toPrecision(3));
-    const pow = `10${String(e).split('').map((c) => SUPERSCRIPT[c] ?? c).join('')}`;
+    const pow = `10${String(e)
+      .split('')
+      .map((c) => SUPERSCRIPT[c] ?? c)
+      .join('')}`;
     return Math.abs(m - 1) < 1e-9 ? pow : `${formatNumber(m, 3)}×${pow}`;
   });
 }
@@ -178,9 +184,12 @@ export function logTicks(lo: number, hi: number): number[] {
     for (let e = a; e <= b; e += step) out.push(Number((10 ** e).toPrecision(12)));
     return out;
   }
-  for (const mult of [[1, 2, 5], [1, 2, 3, 4, 5, 6, 7, 8, 9]]) {
+  for (const mult of [
+    [1, 2, 5],
+    [1, 2, 3, 4, 5, 6, 7, 8, 9],
+  ]) {
     const out: number[] = [];
-    for (let e = Math.floor(Math.log10(lo)) ; e <= Math.ceil(Math.log10(hi)); e++) {
+    for (let e = Math.floor(Math.log10(lo)); e <= Math.ceil(Math.log10(hi)); e++) {
       for (const m of mult) {
         const v = Number((m * 10 ** e).toPrecision(12));
         if (v >= lo * (1 - 1e-9) && v <= hi * (1 + 1e-9)) out.push(v);

@@ -5,7 +5,16 @@
  */
 export const VIRIDIS = ['#440154', '#482878', '#3e4989', '#31688e', '#26828e', '#1f9e89', '#35b779', '#6ece58', '#b5de2b', '#fde725'] as const;
 
-export const OKABE_ITO = { orange: '#E69F00', sky: '#56B4E9', green: '#009E73', yellow: '#F0E442', blue: '#0072B2', vermillion: '#D55E00', purple: '#CC79A7', black: '#000000' } as const;
+export const OKABE_ITO = {
+  orange: '#E69F00',
+  sky: '#56B4E9',
+  green: '#009E73',
+  yellow: '#F0E442',
+  blue: '#0072B2',
+  vermillion: '#D55E00',
+  purple: '#CC79A7',
+  black: '#000000',
+} as const;
 
 function rgb(h: string): number[] {
   return [1, 3, 5].map((k) => Number.parseInt(h.slice(k, k + 2), 16));

@@ -28,7 +28,7 @@ export const REJECT_MEANING: Record<RejectReason, string> = {
   'too long': 'a reply longer than the parser accepts',
   'field count': 'a reply with the wrong number of comma-separated fields',
   'not a number': 'a field that is not a number',
-  'not-a-number value': 'the instrument\'s not-a-number value (9.91E37)',
+  'not-a-number value': "the instrument's not-a-number value (9.91E37)",
 };
 
 export type ParseResult = { ok: true; reading: Reading } | { ok: false; reason: RejectReason };

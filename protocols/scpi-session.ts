@@ -31,16 +31,19 @@ export class ScpiCancelledError extends Error {
 }
 export class ScpiInstrumentError extends Error {
   readonly code = 'SCPI_INSTRUMENT_ERROR';
-  constructor(readonly errors: { code: number; text: string }[], context: string) {
+  constructor(
+    readonly errors: { code: number; text: string }[],
+    context: string,
+  ) {
     super(`${context}: ${errors.map((e) => `${e.code} ${e.text} (${explainScpiError(e.code)})`).join('; ')}`);
   }
 }
 
 /** Plain-words meaning of the standard SCPI error classes (SCPI 1999 vol. 2). */
 export function explainScpiError(code: number): string {
-  if (code === -350) return 'the instrument\'s error queue overflowed: some errors were lost';
-  if (code === -222) return 'a value is out of the instrument\'s range';
-  if (code === -221) return 'the setting conflicts with the instrument\'s state (e.g. output off)';
+  if (code === -350) return "the instrument's error queue overflowed: some errors were lost";
+  if (code === -222) return "a value is out of the instrument's range";
+  if (code === -221) return "the setting conflicts with the instrument's state (e.g. output off)";
   if (code === -113) return 'the instrument does not know this command: check the dialect';
   if (code <= -100 && code > -200) return 'command error: the dialect sent something the instrument cannot parse';
   if (code <= -200 && code > -300) return 'execution error: the instrument could not carry out a valid command';
@@ -103,7 +106,10 @@ export class ScpiSession {
   /** The messages written, most recent last (the last 10,000 to 20,000; older ones are dropped). */
   readonly sent: string[] = [];
 
-  constructor(readonly stream: Duplex, options: SessionOptions = {}) {
+  constructor(
+    readonly stream: Duplex,
+    options: SessionOptions = {},
+  ) {
     this.terminator = options.terminator ?? '\n';
     if (!['\n', '\r\n', '\r'].includes(this.terminator)) throw new TypeError(`terminator must be LF, CR LF or CR, got ${JSON.stringify(this.terminator)}`);
     this.timeoutMs = options.timeoutMs ?? 2000;
@@ -118,14 +124,20 @@ export class ScpiSession {
       const p = this.pending;
       if (!p) return;
       this.settle(p);
-      p.reject(new ScpiReplyError(`the reply to '${p.msg}' is longer than ${max} characters (a lost terminator, or the dialect's read terminator does not match the instrument's)`));
+      p.reject(
+        new ScpiReplyError(
+          `the reply to '${p.msg}' is longer than ${max} characters (a lost terminator, or the dialect's read terminator does not match the instrument's)`,
+        ),
+      );
     });
     const onClose = (err?: Error) => {
       this.closed = true;
       const p = this.pending;
       if (p) {
         this.settle(p);
-        p.reject(new ScpiDisconnectError(`the instrument connection closed${err?.message ? ` (${err.message})` : ''} while waiting for the reply to '${p.msg}'`));
+        p.reject(
+          new ScpiDisconnectError(`the instrument connection closed${err?.message ? ` (${err.message})` : ''} while waiting for the reply to '${p.msg}'`),
+        );
       }
     };
     stream.on('close', () => onClose());
@@ -192,7 +204,11 @@ export class ScpiSession {
     const step = async (): Promise<T> => {
       if (epoch !== this.epoch) throw new ScpiCancelledError(this.cancelReason);
       // Timers may fire a fraction of a millisecond early: wait until the gap is really there.
-      for (let wait = this.lastWriteAt + this.commandDelayMs - performance.now(); this.commandDelayMs > 0 && wait > 0; wait = this.lastWriteAt + this.commandDelayMs - performance.now()) {
+      for (
+        let wait = this.lastWriteAt + this.commandDelayMs - performance.now();
+        this.commandDelayMs > 0 && wait > 0;
+        wait = this.lastWriteAt + this.commandDelayMs - performance.now()
+      ) {
         await sleep(Math.ceil(wait));
       }
       if (epoch !== this.epoch) throw new ScpiCancelledError(this.cancelReason);
@@ -239,7 +255,10 @@ export class ScpiSession {
     if (this.closed) return Promise.resolve(false);
     // Every message is handed to the stream in this same tick (no await in between).
     const writes = messages.map((m) => this.writeRaw(m));
-    return Promise.all(writes).then(() => true, () => false);
+    return Promise.all(writes).then(
+      () => true,
+      () => false,
+    );
   }
 
   /** Drops every command queued but not yet written; they reject with ScpiCancelledError(reason). */
@@ -277,7 +296,9 @@ export class ScpiSession {
       const line = await this.query(this.errorQuery);
       const m = /^\s*([+-]?\d+)\s*,\s*"(.*)"\s*$/s.exec(line);
       if (!m) {
-        throw new ScpiReplyError(`the reply to '${this.errorQuery}' is '${line.slice(0, 80)}', not an error-queue entry (code,"text"): replies are out of step with the queries`);
+        throw new ScpiReplyError(
+          `the reply to '${this.errorQuery}' is '${line.slice(0, 80)}', not an error-queue entry (code,"text"): replies are out of step with the queries`,
+        );
       }
       const code = Number(m[1]);
       if (code === 0) break;

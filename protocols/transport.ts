@@ -53,9 +53,7 @@ export function openSerial(settings: SerialSettings): Promise<Duplex> {
     xoff: settings.xonxoff ?? false,
     autoOpen: false,
   });
-  return new Promise((resolve, reject) =>
-    port.open((err) => (err ? reject(new Error(`serial ${settings.path}: ${err.message}`)) : resolve(port))),
-  );
+  return new Promise((resolve, reject) => port.open((err) => (err ? reject(new Error(`serial ${settings.path}: ${err.message}`)) : resolve(port))));
 }
 
 export interface SerialPortInfo {
@@ -90,7 +88,14 @@ export async function listSerialPorts(): Promise<{ ports: SerialPortInfo[]; warn
   }
   try {
     const ports = await SerialPort.list();
-    const out: SerialPortInfo[] = ports.map((p) => ({ path: p.path, manufacturer: p.manufacturer, serialNumber: p.serialNumber, vendorId: p.vendorId, productId: p.productId, byId: byId.get(p.path) }));
+    const out: SerialPortInfo[] = ports.map((p) => ({
+      path: p.path,
+      manufacturer: p.manufacturer,
+      serialNumber: p.serialNumber,
+      vendorId: p.vendorId,
+      productId: p.productId,
+      byId: byId.get(p.path),
+    }));
     for (const [real, link] of byId) if (!out.some((p) => p.path === real)) out.push({ path: real, byId: link });
     return { ports: out };
   } catch (e) {

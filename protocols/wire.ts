@@ -140,7 +140,14 @@ export type WireEvent =
     })
   | (Stamped & { readonly type: 'sweep-start'; readonly sweep: number; readonly planned: number; readonly label: string })
   | (Stamped & { readonly type: 'sweep-end'; readonly sweep: number; readonly points: number; readonly complete: boolean; readonly note?: string })
-  | (Stamped & { readonly type: 'fit'; readonly sweep: number; readonly final: boolean; readonly fit: FitSummary | null; readonly error?: string; /** Final fits of a solar cell (analysis option `solar`). */ readonly solar?: SolarSummary })
+  | (Stamped & {
+      readonly type: 'fit';
+      readonly sweep: number;
+      readonly final: boolean;
+      readonly fit: FitSummary | null;
+      readonly error?: string /** Final fits of a solar cell (analysis option `solar`). */;
+      readonly solar?: SolarSummary;
+    })
   | (Stamped & {
       readonly type: 'drift';
       readonly sweep: number;
@@ -156,7 +163,13 @@ export type WireEvent =
       readonly sigma: number | null;
       readonly state: 'baseline' | 'in-control' | 'warning' | 'out-of-control' | 'no-value';
     })
-  | (Stamped & { readonly type: 'caution'; readonly kind: CautionKind; readonly message: string; readonly sweep?: number; readonly numbers?: Record<string, number> })
+  | (Stamped & {
+      readonly type: 'caution';
+      readonly kind: CautionKind;
+      readonly message: string;
+      readonly sweep?: number;
+      readonly numbers?: Record<string, number>;
+    })
   | (Stamped & {
       readonly type: 'decision';
       readonly action: 'warn' | 'stop-after-sweep' | 'abort';
@@ -164,7 +177,14 @@ export type WireEvent =
       readonly sweep?: number;
       readonly numbers?: Record<string, number>;
     })
-  | (Stamped & { readonly type: 'annotation'; readonly text: string; readonly tags: readonly string[]; readonly sweep?: number; readonly source: string; /** Corrections to the session's device identity (later values win). */ readonly device?: DeviceIdentity })
+  | (Stamped & {
+      readonly type: 'annotation';
+      readonly text: string;
+      readonly tags: readonly string[];
+      readonly sweep?: number;
+      readonly source: string /** Corrections to the session's device identity (later values win). */;
+      readonly device?: DeviceIdentity;
+    })
   | (Stamped & { readonly type: 'settings'; readonly analysis: unknown; readonly source: string })
   | (Stamped & {
       readonly type: 'ranking';
@@ -186,7 +206,14 @@ export type WireEvent =
    * with `queried: true` when the instrument's own output query was asked: `confirmed` only when it
    * answered with the state in `on`. Older journals lack `sent` and `queried`.
    */
-  | (Stamped & { readonly type: 'output'; readonly on: boolean; readonly sent?: boolean; readonly queried?: boolean; readonly confirmed: boolean; readonly reason: string })
+  | (Stamped & {
+      readonly type: 'output';
+      readonly on: boolean;
+      readonly sent?: boolean;
+      readonly queried?: boolean;
+      readonly confirmed: boolean;
+      readonly reason: string;
+    })
   | (Stamped & { readonly type: 'rejected'; readonly raw: string; readonly reason: string })
   | (Stamped & { readonly type: 'run-end'; readonly outcome: RunOutcome; readonly reason: string; readonly sweeps: number })
   /**
@@ -207,8 +234,21 @@ export type WireEvent =
       readonly parameter: { readonly name: string; readonly value: number; readonly stdErr: number; readonly unit: string } | null;
       readonly stopReason: string;
     })
-  | (Stamped & { readonly type: 'test-result'; readonly test: string; readonly outcome: string; readonly reason: string; readonly result: Readonly<Record<string, unknown>>; readonly numbers?: Readonly<Record<string, number>> })
-  | (Stamped & { readonly type: 'recovery'; readonly tornLines: number; readonly closedSweep: number | null; readonly addedRunEnd: boolean; readonly message: string });
+  | (Stamped & {
+      readonly type: 'test-result';
+      readonly test: string;
+      readonly outcome: string;
+      readonly reason: string;
+      readonly result: Readonly<Record<string, unknown>>;
+      readonly numbers?: Readonly<Record<string, number>>;
+    })
+  | (Stamped & {
+      readonly type: 'recovery';
+      readonly tornLines: number;
+      readonly closedSweep: number | null;
+      readonly addedRunEnd: boolean;
+      readonly message: string;
+    });
 
 export type EventType = WireEvent['type'];
 
@@ -238,7 +278,12 @@ export type ServerMessage =
    * first and last kept) and `thinned` says how many there were; the journal always has them all
    * (GET /api/sessions/:id/readings).
    */
-  | { readonly kind: 'events'; readonly events: readonly WireEvent[]; readonly readings: readonly PackedReading[]; readonly thinned?: { readonly readings: number; readonly sent: number } }
+  | {
+      readonly kind: 'events';
+      readonly events: readonly WireEvent[];
+      readonly readings: readonly PackedReading[];
+      readonly thinned?: { readonly readings: number; readonly sent: number };
+    }
   /** Events from..to (inclusive) were not delivered to this client; a snapshot follows. */
   | { readonly kind: 'gap'; readonly from: number; readonly to: number }
   /**

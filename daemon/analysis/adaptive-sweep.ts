@@ -46,7 +46,7 @@ export type StopReason = 'target-reached' | 'current-limit' | 'compliance' | 'bi
 
 export const STOP_MEANING: Record<StopReason, string> = {
   'target-reached': 'the parameter reached its target standard error',
-  'current-limit': 'the current reached the plan\'s current limit',
+  'current-limit': "the current reached the plan's current limit",
   compliance: 'the instrument reached its compliance',
   'bias-limit': 'the bias reached the end of the range',
   'point-budget': 'the sweep used all of its points',
@@ -84,7 +84,10 @@ export class AdaptiveSweep {
   private stopped: StopReason | undefined;
   private filling: { low: number; high: number; k: number; left: number; why: StopReason } | undefined;
 
-  constructor(readonly settings: AdaptiveSettings, readonly prior?: SweepKnowledge) {
+  constructor(
+    readonly settings: AdaptiveSettings,
+    readonly prior?: SweepKnowledge,
+  ) {
     this.dir = Math.sign(settings.stop - settings.start) || 1;
     this.span = Math.abs(settings.stop - settings.start);
     this.coarse = this.span / 12;
@@ -118,7 +121,10 @@ export class AdaptiveSweep {
     if (this.v.length >= s.maxPoints) return this.end('point-budget');
     // The floor: what the first two readings show, while they are still off the regime.
     if (this.floor === undefined && this.v.length >= 2) {
-      const sorted = this.i.slice(0, 2).map(Math.abs).sort((x, y) => x - y);
+      const sorted = this.i
+        .slice(0, 2)
+        .map(Math.abs)
+        .sort((x, y) => x - y);
       // The larger of the two, unless the second already carries signal (far above the first).
       this.floor = sorted[1] > 100 * Math.max(sorted[0], this.settings.absoluteFloor ?? 0) ? sorted[0] : sorted[1];
     }

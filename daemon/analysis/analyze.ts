@@ -246,15 +246,17 @@ function rawRange(p: FitPoints): { from: number; to: number } {
 export function findRegimes(all: FitPoints): Regime[] {
   if (all.x.length < 12) return [];
   const seg = segmentLine(all.x, all.y, { minPoints: 5, maxSegments: 5 });
-  return seg.segments.map((s) => {
-    let lo = Infinity;
-    let hi = -Infinity;
-    for (let k = s.start; k <= s.end; k++) {
-      lo = Math.min(lo, all.raw[k]);
-      hi = Math.max(hi, all.raw[k]);
-    }
-    return { from: lo, to: hi, slope: s.slope, intercept: s.intercept, n: s.n };
-  }).sort((a, b) => a.from - b.from);
+  return seg.segments
+    .map((s) => {
+      let lo = Infinity;
+      let hi = -Infinity;
+      for (let k = s.start; k <= s.end; k++) {
+        lo = Math.min(lo, all.raw[k]);
+        hi = Math.max(hi, all.raw[k]);
+      }
+      return { from: lo, to: hi, slope: s.slope, intercept: s.intercept, n: s.n };
+    })
+    .sort((a, b) => a.from - b.from);
 }
 
 /** Fits one mechanism to one dataset. Throws AnalysisError with a code on unusable input. */
@@ -269,12 +271,12 @@ export function defaultWindow(mech: Mechanism): 'auto' | 'all' {
 
 /** As analyze, with the points and the fit behind the report. */
 export function analyzeDetailed(data: IVData, request: FitRequest): DetailedFit {
-  const mech = request.model === 'custom'
-    ? customMechanism(request.custom ?? missingCustom())
-    : getMechanism(request.model);
+  const mech = request.model === 'custom' ? customMechanism(request.custom ?? missingCustom()) : getMechanism(request.model);
   const inputs = resolveInputs(mech, request.inputs);
   const custom = request.model === 'custom' && request.custom ? compileCustom(request.custom) : undefined;
-  const classes = request.classes ?? classifySweep(data, { flatBand: inputs.flatBand, complianceLimit: request.complianceLimit, accuracy: request.accuracy, detectCompliance: !!mech.current });
+  const classes =
+    request.classes ??
+    classifySweep(data, { flatBand: inputs.flatBand, complianceLimit: request.complianceLimit, accuracy: request.accuracy, detectCompliance: !!mech.current });
   const win = request.window ?? defaultWindow(mech);
   const mode: WindowMode = win === 'auto' ? 'auto' : win === 'all' ? 'all' : 'manual';
   const manual = typeof win === 'object' ? win : undefined;
@@ -314,7 +316,7 @@ export function analyzeDetailed(data: IVData, request: FitRequest): DetailedFit 
     try {
       fits.push({ fit: fitBranch(mech, inputs, data, classes, b, base, reasons), branch: b });
     } catch (e) {
-      if (!(e instanceof AnalysisError) || q === 0 && list.length === 1) throw e;
+      if (!(e instanceof AnalysisError) || (q === 0 && list.length === 1)) throw e;
       failures.push(`${b && b.sign > 0 ? 'positive' : 'negative'} branch: ${e.message}`);
     }
   }
@@ -343,11 +345,15 @@ export function analyzeDetailed(data: IVData, request: FitRequest): DetailedFit 
       const p = key ? f.parameters[key] : undefined;
       return `${polarity(f)}${p ? ` ${key} ${fmt(p.value)} ± ${fmt(p.stdErr)}` : ''}`;
     };
-    notes.push(`both polarities carry signal: each branch is analysed on its own (${fits.map((f) => describeOne(f.fit)).join('; ')}); this report is the ${polarity(primary)} branch's, the others are under "branches"`);
+    notes.push(
+      `both polarities carry signal: each branch is analysed on its own (${fits.map((f) => describeOne(f.fit)).join('; ')}); this report is the ${polarity(primary)} branch's, the others are under "branches"`,
+    );
     const a = key ? fits[0].fit.parameters[key] : undefined;
     const b = key ? fits[1].fit.parameters[key] : undefined;
     if (a && b && Math.abs(a.value - b.value) > 3 * Math.hypot(a.stdErr, b.stdErr)) {
-      warnings.push(`the two branches give different ${key} (${fmt(a.value)} and ${fmt(b.value)} ${a.unit}): the device is not symmetric (e.g. a different barrier at each electrode)`);
+      warnings.push(
+        `the two branches give different ${key} (${fmt(a.value)} and ${fmt(b.value)} ${a.unit}): the device is not symmetric (e.g. a different barrier at each electrode)`,
+      );
     }
   }
   for (const f of failures) notes.push(`not analysed: ${f}`);

@@ -47,21 +47,41 @@ export class VoltageRampJudge {
   private readonly slopes: number[] = [];
   private n = 0;
 
-  constructor(readonly criteria: VoltageRampCriteria, readonly compliance: number) {}
+  constructor(
+    readonly criteria: VoltageRampCriteria,
+    readonly compliance: number,
+  ) {}
 
   add(v: number, i: number, atCompliance: boolean): BreakdownVerdict | undefined {
     const k = this.n++;
     const a = Math.abs(i);
     const c = this.criteria;
     const limit = c.currentLimit ?? Infinity;
-    if (atCompliance) return { criterion: 'compliance', index: k, reason: `the current reached the ${g(this.compliance)} A compliance at ${g(v)} V`, numbers: { voltage: v, current: i } };
-    if (a >= limit) return { criterion: 'current-limit', index: k, reason: `|I| = ${g(a)} A at ${g(v)} V reached the breakdown current ${g(limit)} A`, numbers: { voltage: v, current: i, limit } };
+    if (atCompliance)
+      return {
+        criterion: 'compliance',
+        index: k,
+        reason: `the current reached the ${g(this.compliance)} A compliance at ${g(v)} V`,
+        numbers: { voltage: v, current: i },
+      };
+    if (a >= limit)
+      return {
+        criterion: 'current-limit',
+        index: k,
+        reason: `|I| = ${g(a)} A at ${g(v)} V reached the breakdown current ${g(limit)} A`,
+        numbers: { voltage: v, current: i, limit },
+      };
     const p = this.prev;
     this.prev = { v, i: a };
     if (!p || !Number.isFinite(a) || p.i < c.floor || a < c.floor) return undefined;
     const ratio = a / p.i;
     if (ratio >= c.currentJump) {
-      return { criterion: 'current-jump', index: k, reason: `the current jumped ×${g(ratio)} in one step (${g(p.i)} → ${g(a)} A at ${g(v)} V)`, numbers: { voltage: v, current: i, previous: p.i, ratio } };
+      return {
+        criterion: 'current-jump',
+        index: k,
+        reason: `the current jumped ×${g(ratio)} in one step (${g(p.i)} → ${g(a)} A at ${g(v)} V)`,
+        numbers: { voltage: v, current: i, previous: p.i, ratio },
+      };
     }
     const dv = v - p.v;
     if (c.slopeFactor > 0 && dv !== 0) {
@@ -71,7 +91,12 @@ export class VoltageRampJudge {
         const med = recent[recent.length >> 1];
         if (med > 0 && s >= c.slopeFactor * med) {
           this.slopes.push(s);
-          return { criterion: 'slope-change', index: k, reason: `the slope of ln|I| against V rose to ${g(s)} /V, ${g(s / med)}× its recent median ${g(med)} /V, at ${g(v)} V`, numbers: { voltage: v, current: i, slope: s, median: med } };
+          return {
+            criterion: 'slope-change',
+            index: k,
+            reason: `the slope of ln|I| against V rose to ${g(s)} /V, ${g(s / med)}× its recent median ${g(med)} /V, at ${g(v)} V`,
+            numbers: { voltage: v, current: i, slope: s, median: med },
+          };
         }
       }
       this.slopes.push(s);
@@ -95,7 +120,12 @@ export class CurrentRampJudge {
     const k = this.n++;
     const a = Math.abs(v);
     if (this.vmax > 0 && a < (1 - this.voltageDrop) * this.vmax) {
-      return { criterion: 'voltage-collapse', index: k, reason: `the voltage fell to ${g(a)} V from ${g(this.vmax)} V (more than ${Math.round(this.voltageDrop * 100)} %) at ${g(Math.abs(i))} A`, numbers: { voltage: v, current: i, highest: this.vmax } };
+      return {
+        criterion: 'voltage-collapse',
+        index: k,
+        reason: `the voltage fell to ${g(a)} V from ${g(this.vmax)} V (more than ${Math.round(this.voltageDrop * 100)} %) at ${g(Math.abs(i))} A`,
+        numbers: { voltage: v, current: i, highest: this.vmax },
+      };
     }
     this.vmax = Math.max(this.vmax, a);
     return undefined;
@@ -107,18 +137,38 @@ export class StressJudge {
   private prev: number | undefined;
   private n = 0;
 
-  constructor(readonly criteria: { readonly currentJump: number; readonly currentLimit?: number; readonly floor: number }, readonly compliance: number) {}
+  constructor(
+    readonly criteria: { readonly currentJump: number; readonly currentLimit?: number; readonly floor: number },
+    readonly compliance: number,
+  ) {}
 
   add(t: number, i: number, atCompliance: boolean): BreakdownVerdict | undefined {
     const k = this.n++;
     const a = Math.abs(i);
-    if (atCompliance) return { criterion: 'compliance', index: k, reason: `the current reached the ${g(this.compliance)} A compliance after ${g(t)} s of stress`, numbers: { time: t, current: i } };
+    if (atCompliance)
+      return {
+        criterion: 'compliance',
+        index: k,
+        reason: `the current reached the ${g(this.compliance)} A compliance after ${g(t)} s of stress`,
+        numbers: { time: t, current: i },
+      };
     const limit = this.criteria.currentLimit ?? Infinity;
-    if (a >= limit) return { criterion: 'current-limit', index: k, reason: `|I| = ${g(a)} A after ${g(t)} s reached the breakdown current ${g(limit)} A`, numbers: { time: t, current: i, limit } };
+    if (a >= limit)
+      return {
+        criterion: 'current-limit',
+        index: k,
+        reason: `|I| = ${g(a)} A after ${g(t)} s reached the breakdown current ${g(limit)} A`,
+        numbers: { time: t, current: i, limit },
+      };
     const p = this.prev;
     this.prev = a;
     if (p !== undefined && p >= this.criteria.floor && a >= this.criteria.currentJump * p) {
-      return { criterion: 'current-jump', index: k, reason: `the current jumped ×${g(a / p)} between readings (${g(p)} → ${g(a)} A) after ${g(t)} s of stress`, numbers: { time: t, current: i, previous: p, ratio: a / p } };
+      return {
+        criterion: 'current-jump',
+        index: k,
+        reason: `the current jumped ×${g(a / p)} between readings (${g(p)} → ${g(a)} A) after ${g(t)} s of stress`,
+        numbers: { time: t, current: i, previous: p, ratio: a / p },
+      };
     }
     return undefined;
   }

@@ -57,7 +57,10 @@ export class BreakdownWatch {
   private readonly trendPoints: TrendPoint[] = [];
   private level: number;
 
-  constructor(readonly settings: BreakdownSettings = DEFAULT_BREAKDOWN, readonly complianceLimit = Infinity) {
+  constructor(
+    readonly settings: BreakdownSettings = DEFAULT_BREAKDOWN,
+    readonly complianceLimit = Infinity,
+  ) {
     this.level = settings.floor;
   }
 

@@ -32,13 +32,11 @@ export const FN_A_A_EV_PER_V2 = (ELEMENTARY_CHARGE_C * ELEMENTARY_CHARGE_C) / (8
  * Second Fowler–Nordheim constant b = (8π/3)·√(2m₀)/(q h), expressed for a barrier in eV and a
  * field in V/m: b = 8π√(2 m₀ q)/(3h), unit eV^-3/2·V·m⁻¹.
  */
-export const FN_B_EV32_V_PER_M =
-  (8 * Math.PI * Math.sqrt(2 * ELECTRON_MASS_KG * ELEMENTARY_CHARGE_C)) / (3 * PLANCK_J_S);
+export const FN_B_EV32_V_PER_M = (8 * Math.PI * Math.sqrt(2 * ELECTRON_MASS_KG * ELEMENTARY_CHARGE_C)) / (3 * PLANCK_J_S);
 
 /** The same constant in Forbes' customary unit eV^-3/2·V·nm⁻¹. */
 export const FN_B_EV32_V_PER_NM = FN_B_EV32_V_PER_M * 1e-9;
 
 /** Free-electron Richardson constant A* = 4π q m₀ k_B²/h³, A·m⁻²·K⁻². */
 export const RICHARDSON_FREE_A_PER_M2_K2 =
-  (4 * Math.PI * ELEMENTARY_CHARGE_C * ELECTRON_MASS_KG * BOLTZMANN_J_PER_K * BOLTZMANN_J_PER_K) /
-  (PLANCK_J_S * PLANCK_J_S * PLANCK_J_S);
+  (4 * Math.PI * ELEMENTARY_CHARGE_C * ELECTRON_MASS_KG * BOLTZMANN_J_PER_K * BOLTZMANN_J_PER_K) / (PLANCK_J_S * PLANCK_J_S * PLANCK_J_S);

@@ -216,7 +216,11 @@ function darkStart(p: Points, vt: number): DiodeStart {
   const n0 = p.v.length;
   let forward = 0;
   for (let k = 0; k < n0; k++) if (p.v[k] > 3 * vt && p.i[k] < 0) forward++;
-  if (forward < 3) throw new AnalysisError('TOO_FEW_POINTS', 'a dark diode fit needs forward-bias points (V > 3kT/q with forward current); is the sign convention right? (--convention)');
+  if (forward < 3)
+    throw new AnalysisError(
+      'TOO_FEW_POINTS',
+      'a dark diode fit needs forward-bias points (V > 3kT/q with forward current); is the sign convention right? (--convention)',
+    );
   // Shunt: slope near zero bias, or in reverse.
   const lowV: number[] = [];
   const lowI: number[] = [];
@@ -340,7 +344,15 @@ function twoRegionStart(p: Points, s: { photocurrent: number; seriesResistance: 
   const high = pick(2 / 3, 1);
   if (!low || !high) return [];
   const clamp = (n: number) => Math.min(1.95, Math.max(1.05, n));
-  return [{ ...s, diodes: [{ i0: high.i0, n: clamp(high.n) }, { i0: low.i0, n: clamp(low.n) }] }];
+  return [
+    {
+      ...s,
+      diodes: [
+        { i0: high.i0, n: clamp(high.n) },
+        { i0: low.i0, n: clamp(low.n) },
+      ],
+    },
+  ];
 }
 
 const TITLES: Record<DiodeModel, string> = {
@@ -393,10 +405,34 @@ export function fitDiode(data: IVData, model: DiodeModel, req: DiodeRequest = {}
     // one is the one-diode fit itself with a vanishing second diode.
     const starts: DiodeStart[] = [
       ...twoRegionStart(p, s, vt),
-      { ...base, diodes: [{ i0: d.i0 * 0.5, n: d.n }, { i0: d.i0 * 0.5, n: Math.min(d.n * 1.5, 4) }] },
-      { ...base, diodes: [{ i0: d.i0 * 0.9, n: d.n }, { i0: d.i0 * 0.1, n: 2 }] },
-      { ...base, diodes: [{ i0: d.i0 * Math.exp(-Math.max(0, d.n - 1) * 10), n: 1 }, { i0: d.i0, n: 2 }] },
-      { ...base, diodes: [{ i0: d.i0, n: d.n }, { i0: d.i0 * 1e-6, n: 2 }] },
+      {
+        ...base,
+        diodes: [
+          { i0: d.i0 * 0.5, n: d.n },
+          { i0: d.i0 * 0.5, n: Math.min(d.n * 1.5, 4) },
+        ],
+      },
+      {
+        ...base,
+        diodes: [
+          { i0: d.i0 * 0.9, n: d.n },
+          { i0: d.i0 * 0.1, n: 2 },
+        ],
+      },
+      {
+        ...base,
+        diodes: [
+          { i0: d.i0 * Math.exp(-Math.max(0, d.n - 1) * 10), n: 1 },
+          { i0: d.i0, n: 2 },
+        ],
+      },
+      {
+        ...base,
+        diodes: [
+          { i0: d.i0, n: d.n },
+          { i0: d.i0 * 1e-6, n: 2 },
+        ],
+      },
     ];
     // Ideality factors bounded to [1, 2] (diffusion and recombination; common practice for this
     // ill-conditioned model) unless the one-diode n already lies outside.
@@ -439,7 +475,8 @@ export function fitDiode(data: IVData, model: DiodeModel, req: DiodeRequest = {}
     fit = bestFit;
   }
   const warnings: string[] = [];
-  if (req.temperature === undefined) warnings.push('temperature not given: 300 K assumed; the ideality factors are valid only with the temperature used (only n·T is measured)');
+  if (req.temperature === undefined)
+    warnings.push('temperature not given: 300 K assumed; the ideality factors are valid only with the temperature used (only n·T is measured)');
   if (!fit.converged) warnings.push('the fit did not converge to the tolerances; treat the parameters with care');
   for (const b of fit.atBound) warnings.push(`${b} ended on its bound: the data do not determine it`);
   for (const [k, v] of Object.entries(fit.parameters)) {
@@ -447,7 +484,10 @@ export function fitDiode(data: IVData, model: DiodeModel, req: DiodeRequest = {}
     else if (v.stdErr > Math.abs(v.value)) warnings.push(`${k}: standard error larger than the value`);
   }
   const notes = [`ideality factors at T = ${temperature} K (kT/q = ${(vt * 1000).toFixed(4)} mV)`];
-  if (noise) notes.push(`each reading weighted by its noise: floor ${noise.floor > 0 ? `${noise.floor.toPrecision(3)} A` : 'not reached'}, ${(100 * noise.relative).toPrecision(3)} % of reading`);
+  if (noise)
+    notes.push(
+      `each reading weighted by its noise: floor ${noise.floor > 0 ? `${noise.floor.toPrecision(3)} A` : 'not reached'}, ${(100 * noise.relative).toPrecision(3)} % of reading`,
+    );
   return {
     model,
     title: TITLES[model],
@@ -455,7 +495,8 @@ export function fitDiode(data: IVData, model: DiodeModel, req: DiodeRequest = {}
     rmse: fit.rmse,
     rmseImplicit: fit.rmseImplicit,
     objective,
-    rmseDefinition: 'rmse: true-current RMSE √(mean (I_model(V) − I_measured)²) over the used points, A; rmseImplicit: √(mean f(V, I_measured)²) of the model equation at the same parameters, A',
+    rmseDefinition:
+      'rmse: true-current RMSE √(mean (I_model(V) − I_measured)²) over the used points, A; rmseImplicit: √(mean f(V, I_measured)²) of the model equation at the same parameters, A',
     points: { used: p.v.length, excluded, reasons: p.reasons },
     temperature: { value: temperature, assumed: req.temperature === undefined },
     convention: req.convention ?? 'load',
@@ -481,7 +522,11 @@ export function cheung(data: IVData, req: DiodeRequest = {}): DiodeReport {
   const v = idx.map((k) => p.v[k]);
   const cur = idx.map((k) => -p.i[k]);
   const excluded = Object.values(p.reasons).reduce((a, b) => a + b, 0) + (p.v.length - idx.length);
-  if (v.length < 8) throw new AnalysisError('TOO_FEW_POINTS', `Cheung–Cheung needs at least 8 forward-bias points above 3kT/q; ${v.length} usable (is the sign convention right? --convention)`);
+  if (v.length < 8)
+    throw new AnalysisError(
+      'TOO_FEW_POINTS',
+      `Cheung–Cheung needs at least 8 forward-bias points above 3kT/q; ${v.length} usable (is the sign convention right? --convention)`,
+    );
   // Bend-over region: the upper half of the forward current range (in decades).
   const ln = cur.map(Math.log);
   const { lo: lnMin, hi: lnMax } = extent(ln);
@@ -510,14 +555,17 @@ export function cheung(data: IVData, req: DiodeRequest = {}): DiodeReport {
   if (req.temperature === undefined) warnings.push('temperature not given: 300 K assumed; n is valid only with the temperature used');
   if (req.area !== undefined) {
     const aStar = req.richardson ?? RICHARDSON_FREE_A_PER_M2_K2;
-    const h = xs.map((x, k) => vs[k] - n * vt * Math.log(x / (req.area as number * aStar * temperature * temperature)));
+    const h = xs.map((x, k) => vs[k] - n * vt * Math.log(x / ((req.area as number) * aStar * temperature * temperature)));
     const f2 = fitLine(xs, h);
     const phi = f2.intercept / n;
     const phiSe = Math.abs(phi) * Math.hypot(f2.interceptStdErr / f2.intercept, nSe / n);
     parameters.barrierHeight = { value: phi, stdErr: phiSe, unit: 'eV' };
     parameters.seriesResistanceH = { value: f2.slope, stdErr: f2.slopeStdErr, unit: 'Ω' };
-    notes.push(`function 2 (H(I) against I) gives R_s = ${f2.slope.toPrecision(4)} Ω as a consistency check; A** = ${aStar} A m⁻² K⁻²${req.richardson === undefined ? ' (free-electron value assumed)' : ''}`);
-    if (Math.abs(f2.slope - f1.slope) > 0.2 * Math.abs(f1.slope)) warnings.push('the two Cheung functions disagree on R_s by more than 20 %: the bend-over region may hold another effect');
+    notes.push(
+      `function 2 (H(I) against I) gives R_s = ${f2.slope.toPrecision(4)} Ω as a consistency check; A** = ${aStar} A m⁻² K⁻²${req.richardson === undefined ? ' (free-electron value assumed)' : ''}`,
+    );
+    if (Math.abs(f2.slope - f1.slope) > 0.2 * Math.abs(f1.slope))
+      warnings.push('the two Cheung functions disagree on R_s by more than 20 %: the bend-over region may hold another effect');
   } else warnings.push('barrier height needs the device area (--area) and A** (--richardson)');
   if (f1.slope <= 0) warnings.push('negative series resistance: the curve shows no series-resistance bend in the region used');
   return {
@@ -525,7 +573,7 @@ export function cheung(data: IVData, req: DiodeRequest = {}): DiodeReport {
     title: 'Cheung–Cheung functions (dV/d ln I and H(I) against I)',
     parameters,
     rmse: null,
-    rmseDefinition: 'not applicable (straight-line fits; see the parameters\' standard errors)',
+    rmseDefinition: "not applicable (straight-line fits; see the parameters' standard errors)",
     points: { used: xs.length, excluded: Math.max(0, excluded + (v.length - xs.length)), reasons: p.reasons },
     temperature: { value: temperature, assumed: req.temperature === undefined },
     convention: req.convention ?? 'load',
@@ -569,7 +617,11 @@ export function solarFigures(data: IVData, req: DiodeRequest & { irradiance?: nu
   const isc = interpolateAt(v, i, 0);
   const voc = crossing(v, i);
   if (isc === undefined) throw new AnalysisError('BAD_INPUT', 'the curve does not span V = 0: no short-circuit current');
-  if (voc === undefined) throw new AnalysisError('BAD_INPUT', `the current never crosses zero: no open-circuit voltage (is the cell illuminated, and the convention right? the file was read as ${req.convention ?? 'load'} convention)`);
+  if (voc === undefined)
+    throw new AnalysisError(
+      'BAD_INPUT',
+      `the current never crosses zero: no open-circuit voltage (is the cell illuminated, and the convention right? the file was read as ${req.convention ?? 'load'} convention)`,
+    );
   if (isc <= 0) warnings.push('the short-circuit current is not positive in the generator convention: check --convention');
   let kBest = -1;
   let pBest = -Infinity;
@@ -624,9 +676,13 @@ export function solarFigures(data: IVData, req: DiodeRequest & { irradiance?: nu
 export function modelCurve(report: DiodeReport, v: number[]): number[] {
   const P = report.parameters;
   const vt = thermalVoltage(report.temperature.value);
-  const diodes = report.model === 'single-diode'
-    ? [{ i0: P.saturationCurrent.value, n: P.idealityFactor.value }]
-    : [{ i0: P.saturationCurrent1.value, n: P.idealityFactor1.value }, { i0: P.saturationCurrent2.value, n: P.idealityFactor2.value }];
+  const diodes =
+    report.model === 'single-diode'
+      ? [{ i0: P.saturationCurrent.value, n: P.idealityFactor.value }]
+      : [
+          { i0: P.saturationCurrent1.value, n: P.idealityFactor1.value },
+          { i0: P.saturationCurrent2.value, n: P.idealityFactor2.value },
+        ];
   const c = { photocurrent: P.photocurrent?.value ?? 0, diodes, seriesResistance: P.seriesResistance.value, shuntResistance: P.shuntResistance.value, vt };
   return v.map((x) => diodeCurrent(x, c));
 }
@@ -637,7 +693,10 @@ export function modelCurve(report: DiodeReport, v: number[]): number[] {
  * noise is taken from the points themselves) and the degrees of freedom.
  */
 function localPolynomial(v: number[], i: number[], x0: number, k: number, degree: number): { c: number[]; cov: number[][]; dof: number } | undefined {
-  const order = v.map((_x, j) => j).sort((a, b) => Math.abs(v[a] - x0) - Math.abs(v[b] - x0)).slice(0, k);
+  const order = v
+    .map((_x, j) => j)
+    .sort((a, b) => Math.abs(v[a] - x0) - Math.abs(v[b] - x0))
+    .slice(0, k);
   const m = degree + 1;
   if (order.length < m + 2) return undefined;
   // Normal equations AᵀA c = Aᵀy with rows [1, u, u², …], u = v − x0.
@@ -721,7 +780,10 @@ export const SOLAR_LOCAL_DEGREE = 4;
  * are propagated as independent). G and the area are taken as exact. With `area`, J_sc = I_sc/A.
  * Falls back to solarFigures' values (stdErr 0) where a local fit is not possible.
  */
-export function solarFiguresWithUncertainty(data: IVData, req: DiodeRequest & { irradiance?: number } = {}): SolarReport & { readonly jsc: FittedParameter | null } {
+export function solarFiguresWithUncertainty(
+  data: IVData,
+  req: DiodeRequest & { irradiance?: number } = {},
+): SolarReport & { readonly jsc: FittedParameter | null } {
   const base = solarFigures(data, req);
   const { v, i } = points(data, req);
   const k = SOLAR_LOCAL_POINTS;
@@ -735,11 +797,20 @@ export function solarFiguresWithUncertainty(data: IVData, req: DiodeRequest & { 
   // Quartics near V_oc and P_max: over a few kT/q the exponential bends too much for a parabola
   // (on a synthetic cell with 10 mV steps a parabola or cubic leaves a bias of several σ).
   const spacing = (x0: number) => {
-    const near = [...v].sort((a2, b2) => Math.abs(a2 - x0) - Math.abs(b2 - x0)).slice(0, k).sort((a2, b2) => a2 - b2);
-    const steps = near.slice(1).map((x, j) => x - near[j]).sort((a2, b2) => a2 - b2);
+    const near = [...v]
+      .sort((a2, b2) => Math.abs(a2 - x0) - Math.abs(b2 - x0))
+      .slice(0, k)
+      .sort((a2, b2) => a2 - b2);
+    const steps = near
+      .slice(1)
+      .map((x, j) => x - near[j])
+      .sort((a2, b2) => a2 - b2);
     return steps.length ? steps[steps.length >> 1] : Number.NaN;
   };
-  if (spacing(f.voc.value) > 0.015) warnings.push(`the points near V_oc are about ${(spacing(f.voc.value) * 1000).toFixed(0)} mV apart: the local fit can bias V_oc and P_max beyond their stated uncertainties; sweep in steps of 10 mV or less there`);
+  if (spacing(f.voc.value) > 0.015)
+    warnings.push(
+      `the points near V_oc are about ${(spacing(f.voc.value) * 1000).toFixed(0)} mV apart: the local fit can bias V_oc and P_max beyond their stated uncertainties; sweep in steps of 10 mV or less there`,
+    );
   const b = localPolynomial(v, i, f.voc.value, k, SOLAR_LOCAL_DEGREE);
   if (b) {
     const c = b.c;
@@ -753,18 +824,37 @@ export function solarFiguresWithUncertainty(data: IVData, req: DiodeRequest & { 
   } else warnings.push('too few points near V_oc for its uncertainty');
   let pmax = f.pmax;
   let vmp = f.vmp;
-  const p = localPolynomial(v, v.map((x, j) => x * i[j]), f.vmp.value, k, SOLAR_LOCAL_DEGREE);
+  const p = localPolynomial(
+    v,
+    v.map((x, j) => x * i[j]),
+    f.vmp.value,
+    k,
+    SOLAR_LOCAL_DEGREE,
+  );
   if (p) {
     const c = p.c;
     const d1 = (u: number) => dpoly(c, u);
-    const d2 = (u: number) => dpoly(c.slice(1).map((x, e) => x * (e + 1)), u);
+    const d2 = (u: number) =>
+      dpoly(
+        c.slice(1).map((x, e) => x * (e + 1)),
+        u,
+      );
     let u = 0;
     for (let it = 0; it < 8; it++) u -= d1(u) / d2(u);
     if (d2(u) < 0 && Math.abs(u) < 0.5 * (v[v.length - 1] - v[0])) {
       // P_max = P(u*): ∂P_max/∂c_j = u*^j (P' = 0 there); u* moves by −(∂P'/∂c_j)/P''.
       const pow = c.map((_x, e) => u ** e);
       pmax = { value: poly(c, u), stdErr: Math.sqrt(quadForm(pow, p.cov)), unit: 'W' };
-      vmp = { value: f.vmp.value + u, stdErr: Math.sqrt(quadForm(c.map((_x, e) => (-(e * u ** Math.max(0, e - 1)) / d2(u))), p.cov)), unit: 'V' };
+      vmp = {
+        value: f.vmp.value + u,
+        stdErr: Math.sqrt(
+          quadForm(
+            c.map((_x, e) => -(e * u ** Math.max(0, e - 1)) / d2(u)),
+            p.cov,
+          ),
+        ),
+        unit: 'V',
+      };
     } else warnings.push('no maximum of the power in the points near it: P_max without uncertainty');
   } else warnings.push('too few points near the maximum power for its uncertainty');
   const imp = { value: pmax.value / vmp.value, stdErr: (pmax.value / vmp.value) * Math.hypot(pmax.stdErr / pmax.value, vmp.stdErr / vmp.value), unit: 'A' };

@@ -51,7 +51,7 @@ function residualAt(v: number, i: number, c: DiodeCircuit, ex: Float64Array, out
   for (let k = 0; k < ds.length; k++) {
     const d = ds[k];
     const a = u / (d.n * c.vt);
-    const e = Math.exp(Math.min(a , EXP_CAP));
+    const e = Math.exp(Math.min(a, EXP_CAP));
     ex[k] = e;
     f -= d.i0 * (e - 1);
     df -= (d.i0 * e * rs) / (d.n * c.vt);
@@ -378,55 +378,58 @@ export function fitDiodeModel(
     lastI.set(Array.from(i));
     lastC = undefined;
     try {
-      return levenbergMarquardt({
-        n,
-        p0,
-        lower,
-        upper,
-        typical: p0.map((x, k) => (lay.log[k] ? 1 : Math.max(Math.abs(x), 1e-3))),
-        residuals: (q, out) => {
-          if (implicit) {
-            const c = circuitFrom(q, lay, vt, options.illuminated, vrefs);
+      return levenbergMarquardt(
+        {
+          n,
+          p0,
+          lower,
+          upper,
+          typical: p0.map((x, k) => (lay.log[k] ? 1 : Math.max(Math.abs(x), 1e-3))),
+          residuals: (q, out) => {
+            if (implicit) {
+              const c = circuitFrom(q, lay, vt, options.illuminated, vrefs);
+              for (let k = 0; k < n; k++) {
+                residualAt(v[k], i[k], c, ex, fd);
+                out[k] = fd.f * w[k];
+              }
+              return;
+            }
+            evaluate(q);
+            for (let k = 0; k < n; k++) out[k] = (modelI[k] - i[k]) * w[k];
+          },
+          jacobian: (q, J, out) => {
+            const c = implicit ? circuitFrom(q, lay, vt, options.illuminated, vrefs) : evaluate(q);
+            void out;
+            const nd = c.diodes.length;
+            const rsh = c.shuntResistance;
             for (let k = 0; k < n; k++) {
-              residualAt(v[k], i[k], c, ex, fd);
-              out[k] = fd.f * w[k];
+              const ik = implicit ? i[k] : modelI[k];
+              // True current: ∂I/∂p = −(∂f/∂p)/(∂f/∂I). Implicit residual: ∂f/∂p itself.
+              residualAt(v[k], ik, c, ex, fd);
+              const df = implicit ? -1 : fd.df;
+              const u = v[k] + ik * c.seriesResistance;
+              const row = k * m;
+              // J = −(∂f/∂p)/(∂f/∂I)·(scale for log parameters)·weight, written column by column.
+              const sc = -w[k] / df;
+              let col = row;
+              if (options.illuminated) J[col++] = sc;
+              let dRs = -ik / rsh;
+              for (let d = 0; d < nd; d++) {
+                const dd = c.diodes[d];
+                const e = ex[d];
+                const dA = -(e - 1) * dd.i0; // ∂f/∂a = ∂f/∂I₀ · I₀
+                J[col++] = sc * dA;
+                // ∂f/∂n at fixed a: the explicit n dependence plus I₀'s through a.
+                J[col++] = sc * ((dd.i0 * e * u) / (dd.n * dd.n * vt) + (dA * vrefs[d]) / (dd.n * dd.n * vt));
+                dRs -= (dd.i0 * e * ik) / (dd.n * vt);
+              }
+              J[col++] = sc * dRs * c.seriesResistance;
+              J[col] = (sc * u) / rsh; // ∂f/∂R_sh · R_sh = u/R_sh
             }
-            return;
-          }
-          evaluate(q);
-          for (let k = 0; k < n; k++) out[k] = (modelI[k] - i[k]) * w[k];
+          },
         },
-        jacobian: (q, J, out) => {
-          const c = implicit ? circuitFrom(q, lay, vt, options.illuminated, vrefs) : evaluate(q);
-          void out;
-          const nd = c.diodes.length;
-          const rsh = c.shuntResistance;
-          for (let k = 0; k < n; k++) {
-            const ik = implicit ? i[k] : modelI[k];
-            // True current: ∂I/∂p = −(∂f/∂p)/(∂f/∂I). Implicit residual: ∂f/∂p itself.
-            residualAt(v[k], ik, c, ex, fd);
-            const df = implicit ? -1 : fd.df;
-            const u = v[k] + ik * c.seriesResistance;
-            const row = k * m;
-            // J = −(∂f/∂p)/(∂f/∂I)·(scale for log parameters)·weight, written column by column.
-            const sc = -w[k] / df;
-            let col = row;
-            if (options.illuminated) J[col++] = sc;
-            let dRs = -ik / rsh;
-            for (let d = 0; d < nd; d++) {
-              const dd = c.diodes[d];
-              const e = ex[d];
-              const dA = -(e - 1) * dd.i0; // ∂f/∂a = ∂f/∂I₀ · I₀
-              J[col++] = sc * dA;
-              // ∂f/∂n at fixed a: the explicit n dependence plus I₀'s through a.
-              J[col++] = sc * ((dd.i0 * e * u) / (dd.n * dd.n * vt) + (dA * vrefs[d]) / (dd.n * dd.n * vt));
-              dRs -= (dd.i0 * e * ik) / (dd.n * vt);
-            }
-            J[col++] = sc * dRs * c.seriesResistance;
-            J[col] = (sc * u) / rsh; // ∂f/∂R_sh · R_sh = u/R_sh
-          }
-        },
-      }, { maxIterations, ...tolerances, ...(options.stall ? { stall: { iterations: 5, fraction: 1e-2 } } : {}) });
+        { maxIterations, ...tolerances, ...(options.stall ? { stall: { iterations: 5, fraction: 1e-2 } } : {}) },
+      );
     } catch (e) {
       if (e instanceof AnalysisError) return undefined;
       throw e;

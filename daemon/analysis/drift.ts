@@ -92,7 +92,15 @@ export class DriftChart {
   add(value: number | undefined, stdErr = 0): DriftPoint {
     const s = this.settings;
     if (value === undefined || !Number.isFinite(value)) {
-      return { phase: this.base.length < s.baseline ? 'baseline' : 'monitor', statistic: null, center: this.finite(this.mu), lower: null, upper: null, sigma: this.finite(this.sigma), state: 'no-value' };
+      return {
+        phase: this.base.length < s.baseline ? 'baseline' : 'monitor',
+        statistic: null,
+        center: this.finite(this.mu),
+        lower: null,
+        upper: null,
+        sigma: this.finite(this.sigma),
+        state: 'no-value',
+      };
     }
     if (this.base.length < s.baseline) {
       this.base.push({ value, stdErr: Number.isFinite(stdErr) ? stdErr : 0 });

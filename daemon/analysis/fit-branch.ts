@@ -13,7 +13,16 @@
  * ±10 % of its points (at least one point), less the spread that noise alone gives nested windows
  * (var(θ_w − θ) = |σ_w² − σ²| for nested least-squares fits); the two add in quadrature.
  */
-import { currentSigma, FLOOR_MULTIPLE, floorLevel, MIN_RELATIVE, relativeFromResiduals, relativeFromScatter, runningMedian, type NoiseModel } from './noise-floor.js';
+import {
+  currentSigma,
+  FLOOR_MULTIPLE,
+  floorLevel,
+  MIN_RELATIVE,
+  relativeFromResiduals,
+  relativeFromScatter,
+  runningMedian,
+  type NoiseModel,
+} from './noise-floor.js';
 import { AnalysisError } from './errors.js';
 import { fitJoint, jointY, type JointData, type JointResult } from './joint-fit.js';
 import { fitLine, type LineFit } from './line-fit.js';
@@ -355,11 +364,37 @@ function upperIndex(idx: Int32Array, k: number): number {
 
 /** A line's covariance as it would be on 1/f as many points (for the window variants on a decimated curve). */
 function scaleLine(l: LineFit, f: number): LineFit {
-  return lineOf(l.intercept, l.slope, l.interceptStdErr ** 2 * f, l.slopeStdErr ** 2 * f, l.covariance * f, Math.round(l.n / f), Math.max(1, Math.round(l.n / f) - 2), l.sse / f, l.meanX, l.meanY, l.sxx / f, l.r2);
+  return lineOf(
+    l.intercept,
+    l.slope,
+    l.interceptStdErr ** 2 * f,
+    l.slopeStdErr ** 2 * f,
+    l.covariance * f,
+    Math.round(l.n / f),
+    Math.max(1, Math.round(l.n / f) - 2),
+    l.sse / f,
+    l.meanX,
+    l.meanY,
+    l.sxx / f,
+    l.r2,
+  );
 }
 
 /** A LineFit from a slope, an intercept and their covariance. */
-function lineOf(a: number, b: number, va: number, vb: number, cab: number, n: number, dof: number, chi2: number, meanX: number, meanY: number, sxx: number, r2: number): LineFit {
+function lineOf(
+  a: number,
+  b: number,
+  va: number,
+  vb: number,
+  cab: number,
+  n: number,
+  dof: number,
+  chi2: number,
+  meanX: number,
+  meanY: number,
+  sxx: number,
+  r2: number,
+): LineFit {
   return Object.freeze({
     n,
     dof,
@@ -529,7 +564,10 @@ export function fitBranch(
     if (p.x[k] > xmax) xmax = p.x[k];
   }
   if (!(xmax > xmin)) {
-    throw new AnalysisError('DEGENERATE_X', `all ${n} usable readings sit at one bias (${fmt(p.raw[0])}): a constant-stress series, not a sweep; there is no slope to fit`);
+    throw new AnalysisError(
+      'DEGENERATE_X',
+      `all ${n} usable readings sit at one bias (${fmt(p.raw[0])}): a constant-stress series, not a sweep; there is no slope to fit`,
+    );
   }
   let noise = weigh(mech, inputs, p, classes.noise);
   const weighted = !!mech.current;
@@ -561,7 +599,11 @@ export function fitBranch(
       }
     }
     if (first < 0 || last - first + 1 < 3) {
-      throw new AnalysisError('TOO_FEW_POINTS', `the fit window ${fmt(lo)} to ${fmt(hi)} holds ${first < 0 ? 0 : last - first + 1} usable points of this ${branch ? `${branch.sign > 0 ? 'positive' : 'negative'} branch` : 'curve'}; a line needs at least 3 (excluded: ${describe(reasons)})`, 'window');
+      throw new AnalysisError(
+        'TOO_FEW_POINTS',
+        `the fit window ${fmt(lo)} to ${fmt(hi)} holds ${first < 0 ? 0 : last - first + 1} usable points of this ${branch ? `${branch.sign > 0 ? 'positive' : 'negative'} branch` : 'curve'}; a line needs at least 3 (excluded: ${describe(reasons)})`,
+        'window',
+      );
     }
     fullRange = [first, last];
     s = lowerIndex(qi, first);
@@ -638,7 +680,13 @@ export function fitBranch(
   const model = modelValues(p, { a: line.intercept, b: line.slope, joint }, diode);
   const used = pointsOf(p, fs, fe);
   const all = pointsOf(p, 0, n - 1);
-  const extraction = mech.extract({ line, used, all, inputs, terms: joint ? { leakage: joint.names.includes('g'), series: joint.names.includes('rs') } : undefined });
+  const extraction = mech.extract({
+    line,
+    used,
+    all,
+    inputs,
+    terms: joint ? { leakage: joint.names.includes('g'), series: joint.names.includes('rs') } : undefined,
+  });
 
   // ---- window-choice uncertainty --------------------------------------------------------------
   const qLine = q === p ? line : scaleLine(line, n / nq);
@@ -665,8 +713,14 @@ export function fitBranch(
       terms.series = { resistance: joint.rs, stdErr: se };
       parameters.seriesResistance = { value: joint.rs, stdErr: se, unit: 'ohm', statStdErr: se, windowStdErr: 0 };
     }
-    if (joint.stride > 1) notes.push(`the joint fit used every ${joint.stride}th point of the window (${joint.n} points); its errors are those of the points used`);
-    const what = [terms.leakage ? `a parallel leakage of ${fmt(1 / terms.leakage.conductance)} Ω` : '', terms.series ? `a series resistance of ${fmt(terms.series.resistance)} Ω` : ''].filter(Boolean).join(' and ');
+    if (joint.stride > 1)
+      notes.push(`the joint fit used every ${joint.stride}th point of the window (${joint.n} points); its errors are those of the points used`);
+    const what = [
+      terms.leakage ? `a parallel leakage of ${fmt(1 / terms.leakage.conductance)} Ω` : '',
+      terms.series ? `a series resistance of ${fmt(terms.series.resistance)} Ω` : '',
+    ]
+      .filter(Boolean)
+      .join(' and ');
     if (what) notes.push(`fitted together with ${what} (they bend the straight line at the ends of the window)`);
   }
 
@@ -674,7 +728,9 @@ export function fitBranch(
   const test = q === p ? residualTest(p, model, fs, fe) : residualTest(q, modelValues(q, { a: line.intercept, b: line.slope, joint }, diode), s, e);
   let plausible = extraction.plausible;
   if (request.mode === 'auto' && !searchPassed) {
-    warnings.push(`no range of this branch follows the mechanism's straight line within the noise (${searchFailure ?? 'none passes'}); the window shown is the least bad`);
+    warnings.push(
+      `no range of this branch follows the mechanism's straight line within the noise (${searchFailure ?? 'none passes'}); the window shown is the least bad`,
+    );
     plausible = false;
   } else if (!test.passed && request.mode !== 'auto') {
     warnings.push(`the window spans a regime change or the mechanism does not describe it: ${test.failure}`);
@@ -689,7 +745,9 @@ export function fitBranch(
       if (data.x[k] >= lo && data.x[k] <= hi && Math.abs(data.y[k]) < floorLevel(classes.noise)) atFloor++;
     }
     if (atFloor > 0 && mech.yKind === 'log') {
-      warnings.push(`the window reaches the noise floor: ${atFloor} readings in it are within ${FLOOR_MULTIPLE} σ of zero (σ = ${fmt(classes.noise.floor)} A) and were left out`);
+      warnings.push(
+        `the window reaches the noise floor: ${atFloor} readings in it are within ${FLOOR_MULTIPLE} σ of zero (σ = ${fmt(classes.noise.floor)} A) and were left out`,
+      );
       plausible = false;
     }
   }
@@ -774,7 +832,15 @@ function superOhmicTest(mech: Mechanism, inputs: ResolvedInputs, p: Points): Adm
  * terms are always fitted, never chosen by a significance test: a leakage too small to detect still
  * tilts the slope, and choosing the model by significance would bias the parameters.
  */
-function extendWithTerms(p: Points, w0: { start: number; end: number }, diode: boolean, lowFirst: boolean, leakage: boolean, series: boolean, search: { slopeSign?: 1 | -1; admissible?: Admissible }): Candidate | undefined {
+function extendWithTerms(
+  p: Points,
+  w0: { start: number; end: number },
+  diode: boolean,
+  lowFirst: boolean,
+  leakage: boolean,
+  series: boolean,
+  search: { slopeSign?: 1 | -1; admissible?: Admissible },
+): Candidate | undefined {
   const slopeSign = search.slopeSign;
   const n = p.x.length;
   const base = plainLine(p, w0.start, w0.end, false, true);
@@ -839,7 +905,7 @@ function windowSpread(
   const c = corrected(p, joint, diode);
   const w = weighted ? c.w : new Float64Array(n).fill(1 / Math.max(1e-300, main.residualStdDev) ** 2);
   const mom = new WindowMoments(c.x, c.y, w);
-  const scale = weighted ? (absolute || main.dof < SMALL_DOF ? Math.max(1, main.chi2Reduced ?? 1) : main.chi2Reduced ?? 1) : 1;
+  const scale = weighted ? (absolute || main.dof < SMALL_DOF ? Math.max(1, main.chi2Reduced ?? 1) : (main.chi2Reduced ?? 1)) : 1;
   const lineAt = (a: number, b: number): LineFit | undefined => {
     const l = mom.line(a, b);
     if (!l) return undefined;
@@ -860,7 +926,16 @@ function windowSpread(
   const ex0 = quiet(ref, s, e);
   if (!ex0) return {};
   const sums: Record<string, { d2: number; v: number; k: number }> = {};
-  for (const [ds, de] of [[-delta, 0], [delta, 0], [0, -delta], [0, delta], [-2 * delta, 0], [2 * delta, 0], [0, -2 * delta], [0, 2 * delta]]) {
+  for (const [ds, de] of [
+    [-delta, 0],
+    [delta, 0],
+    [0, -delta],
+    [0, delta],
+    [-2 * delta, 0],
+    [2 * delta, 0],
+    [0, -2 * delta],
+    [0, 2 * delta],
+  ]) {
     const a = s + ds;
     const b = e + de;
     if (a < 0 || b > n - 1 || b - a + 1 < MIN_WINDOW_POINTS) continue;

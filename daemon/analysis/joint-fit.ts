@@ -111,53 +111,56 @@ export function fitJoint(d: JointData, start: number, end: number, terms: JointT
     upper.push(Infinity);
   }
   const FLOOR_Y = -745;
-  const res = levenbergMarquardt({
-    n,
-    p0: start0,
-    lower,
-    upper,
-    typical,
-    residuals: (p, r) => {
-      const { a, b, g, rs } = par(p);
-      for (let j = 0; j < n; j++) {
-        const k = idx[j];
-        let yh = jointY(d, k, a, b, g, rs);
-        if (!Number.isFinite(yh)) yh = FLOOR_Y;
-        r[j] = sq[j] * (yh - d.y[k]);
-      }
-    },
-    jacobian: (p, J) => {
-      const { a, b, g, rs } = par(p);
-      for (let j = 0; j < n; j++) {
-        const k = idx[j];
-        const row = j * m;
-        if (d.diode) {
-          const vp = d.v[k] - d.current[k] * rs;
-          const e = Math.exp(a + b * vp);
-          const mm = Math.exp(a) * Math.expm1(b * vp);
-          const D = mm + g * vp;
-          if (!(D > 0)) {
-            for (let c = 0; c < m; c++) J[row + c] = 0;
-            continue;
-          }
-          J[row] = (sq[j] * mm) / D;
-          J[row + 1] = (sq[j] * e * vp) / D;
-          if (gi >= 0) J[row + gi] = (sq[j] * vp) / D;
-          if (ri >= 0) J[row + ri] = (sq[j] * (e * b + g) * -d.current[k]) / D;
-        } else {
-          const e = Math.exp(a + b * d.x[k]);
-          const D = e + g * d.t[k];
-          if (!(D > 0)) {
-            for (let c = 0; c < m; c++) J[row + c] = 0;
-            continue;
-          }
-          J[row] = (sq[j] * e) / D;
-          J[row + 1] = (sq[j] * e * d.x[k]) / D;
-          if (gi >= 0) J[row + gi] = (sq[j] * d.t[k]) / D;
+  const res = levenbergMarquardt(
+    {
+      n,
+      p0: start0,
+      lower,
+      upper,
+      typical,
+      residuals: (p, r) => {
+        const { a, b, g, rs } = par(p);
+        for (let j = 0; j < n; j++) {
+          const k = idx[j];
+          let yh = jointY(d, k, a, b, g, rs);
+          if (!Number.isFinite(yh)) yh = FLOOR_Y;
+          r[j] = sq[j] * (yh - d.y[k]);
         }
-      }
+      },
+      jacobian: (p, J) => {
+        const { a, b, g, rs } = par(p);
+        for (let j = 0; j < n; j++) {
+          const k = idx[j];
+          const row = j * m;
+          if (d.diode) {
+            const vp = d.v[k] - d.current[k] * rs;
+            const e = Math.exp(a + b * vp);
+            const mm = Math.exp(a) * Math.expm1(b * vp);
+            const D = mm + g * vp;
+            if (!(D > 0)) {
+              for (let c = 0; c < m; c++) J[row + c] = 0;
+              continue;
+            }
+            J[row] = (sq[j] * mm) / D;
+            J[row + 1] = (sq[j] * e * vp) / D;
+            if (gi >= 0) J[row + gi] = (sq[j] * vp) / D;
+            if (ri >= 0) J[row + ri] = (sq[j] * (e * b + g) * -d.current[k]) / D;
+          } else {
+            const e = Math.exp(a + b * d.x[k]);
+            const D = e + g * d.t[k];
+            if (!(D > 0)) {
+              for (let c = 0; c < m; c++) J[row + c] = 0;
+              continue;
+            }
+            J[row] = (sq[j] * e) / D;
+            J[row + 1] = (sq[j] * e * d.x[k]) / D;
+            if (gi >= 0) J[row + gi] = (sq[j] * d.t[k]) / D;
+          }
+        }
+      },
     },
-  }, { maxIterations: 60, xtol: 1e-12, ftol: 1e-15 });
+    { maxIterations: 60, xtol: 1e-12, ftol: 1e-15 },
+  );
   const { a, b, g, rs } = par(res.p);
   // χ² over the points used.
   let chi2 = 0;

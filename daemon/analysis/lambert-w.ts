@@ -16,7 +16,7 @@ export function lambertW0(x: number): number {
   if (x < -0.32) {
     // Near the branch point: series in p = √(2(e·x + 1)).
     const p = Math.sqrt(2 * (Math.E * x + 1));
-    w = -1 + p - p * p / 3 + (11 / 72) * p * p * p;
+    w = -1 + p - (p * p) / 3 + (11 / 72) * p * p * p;
   } else if (x < 3) {
     w = Math.log1p(x) * (1 - Math.log1p(Math.log1p(x)) / (2 + Math.log1p(x)));
   } else {

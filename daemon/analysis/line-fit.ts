@@ -97,10 +97,7 @@ export function lineFromMoments(m: {
 
 function checkLengths(x: Numbers, y: Numbers, w?: Numbers): void {
   if (x.length !== y.length || (w !== undefined && w.length !== x.length)) {
-    throw new AnalysisError(
-      'BAD_INPUT',
-      `x, y${w ? ' and weights' : ''} differ in length (${x.length}, ${y.length}${w ? `, ${w.length}` : ''})`,
-    );
+    throw new AnalysisError('BAD_INPUT', `x, y${w ? ' and weights' : ''} differ in length (${x.length}, ${y.length}${w ? `, ${w.length}` : ''})`);
   }
 }
 
@@ -150,7 +147,16 @@ export function fitLine(x: Numbers, y: Numbers, options: LineFitOptions = {}): L
     sse += wi * r * r;
   }
   return lineFromMoments({
-    n, sumW, meanX, meanY, sxx, sxy, syy, sse, weighted: true, absoluteWeights: options.absoluteWeights ?? false,
+    n,
+    sumW,
+    meanX,
+    meanY,
+    sxx,
+    sxy,
+    syy,
+    sse,
+    weighted: true,
+    absoluteWeights: options.absoluteWeights ?? false,
   });
 }
 

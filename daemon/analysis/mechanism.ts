@@ -158,14 +158,7 @@ export function field(bias: number, inputs: Inputs): number {
 }
 
 /** Range check that adds a warning and returns whether the value is inside. */
-export function inRange(
-  warnings: string[],
-  what: string,
-  value: number,
-  lo: number,
-  hi: number,
-  unit: string,
-): boolean {
+export function inRange(warnings: string[], what: string, value: number, lo: number, hi: number, unit: string): boolean {
   if (value >= lo && value <= hi && Number.isFinite(value)) return true;
   const u = unit ? ` ${unit}` : '';
   warnings.push(`${what} = ${fmt(value)}${u} is outside the plausible range ${fmt(lo)}–${fmt(hi)}${u}`);

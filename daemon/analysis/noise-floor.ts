@@ -76,7 +76,11 @@ export function estimateFloor(zero: number[], low: number[], signal: number): { 
   let big = 0;
   for (const c of low) big = Math.max(big, Math.abs(c));
   if (zero.length >= 3) {
-    return { sigma: robust(zero), n: zero.length, note: `readings against the bias are too large to be noise (up to ${fmtA(big)}): the floor comes from the zero-bias readings alone` };
+    return {
+      sigma: robust(zero),
+      n: zero.length,
+      note: `readings against the bias are too large to be noise (up to ${fmtA(big)}): the floor comes from the zero-bias readings alone`,
+    };
   }
   return { sigma: 0, n: 0, note: `readings against the bias are too large to be noise (up to ${fmtA(big)}); the floor could not be estimated` };
 }

@@ -45,7 +45,19 @@ export function plotView(data: IVData, request: FitRequest): PlotView {
       // No fit: the readings are still drawn on the mechanism's plot (the branch carrying the larger current).
       const pts = rawPoints(data, mech, inputs);
       const n = pts.x.length;
-      return { model: mech.id, axes, x: pts.x.map(dx), y: pts.y.map(dy), bias: pts.bias, inWindow: new Array<number>(n).fill(0), residual: new Array<number | null>(n).fill(null), line: null, window: null, regimes: [], error: e.message };
+      return {
+        model: mech.id,
+        axes,
+        x: pts.x.map(dx),
+        y: pts.y.map(dy),
+        bias: pts.bias,
+        inWindow: new Array<number>(n).fill(0),
+        residual: new Array<number | null>(n).fill(null),
+        line: null,
+        window: null,
+        regimes: [],
+        error: e.message,
+      };
     }
     throw e;
   }
@@ -89,7 +101,11 @@ export function plotView(data: IVData, request: FitRequest): PlotView {
 }
 
 /** Every reading the mechanism's plot can take, in bias order, when no fit could be made. */
-function rawPoints(data: IVData, mech: ReturnType<typeof getMechanism>, inputs: ReturnType<typeof resolveInputs>): { x: number[]; y: number[]; bias: number[] } {
+function rawPoints(
+  data: IVData,
+  mech: ReturnType<typeof getMechanism>,
+  inputs: ReturnType<typeof resolveInputs>,
+): { x: number[]; y: number[]; bias: number[] } {
   let pos = 0;
   let neg = 0;
   for (let k = 0; k < data.x.length; k++) {

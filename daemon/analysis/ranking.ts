@@ -74,11 +74,14 @@ export function rankMechanisms(input: IVData, request: RankRequest = {}): Rankin
   // more, and the cost stays near linear.
   const total = input.x.length;
   const stride = Math.max(1, Math.ceil(total / RANK_MAX_READINGS));
-  const data: IVData = stride === 1 ? input : {
-    x: pickEvery(input.x, stride),
-    y: pickEvery(input.y, stride),
-    compliance: input.compliance ? pickEvery(input.compliance, stride) : undefined,
-  };
+  const data: IVData =
+    stride === 1
+      ? input
+      : {
+          x: pickEvery(input.x, stride),
+          y: pickEvery(input.y, stride),
+          compliance: input.compliance ? pickEvery(input.compliance, stride) : undefined,
+        };
   const flatBand = request.inputs?.flatBand ?? 0;
   const classes = classifySweep(data, { flatBand, complianceLimit: request.complianceLimit, accuracy: request.accuracy });
   const branch = chooseBranches(classes, false)[0];
@@ -122,12 +125,23 @@ export function rankMechanisms(input: IVData, request: RankRequest = {}): Rankin
         classes,
       });
       relative = Math.min(relative, fit.fit.noise.relative);
-      scored.push({ model: mech.id, title: mech.title, chi2: 0, k: 2 + (fit.fit.terms.leakage ? 1 : 0) + (fit.fit.terms.series ? 1 : 0), rms: 0, fit, lnPred: predictLn(fit, data, common, branch.sign) });
+      scored.push({
+        model: mech.id,
+        title: mech.title,
+        chi2: 0,
+        k: 2 + (fit.fit.terms.leakage ? 1 : 0) + (fit.fit.terms.series ? 1 : 0),
+        rms: 0,
+        fit,
+        lnPred: predictLn(fit, data, common, branch.sign),
+      });
     } catch (e) {
       skipped.push({ model: mech.id, reason: (e as Error).message });
     }
   }
-  const noise = { floor: classes.noise.floor, relative: request.accuracy ? Math.max(request.accuracy.gain, MIN_RELATIVE) : Number.isFinite(relative) ? relative : 0.01 };
+  const noise = {
+    floor: classes.noise.floor,
+    relative: request.accuracy ? Math.max(request.accuracy.gain, MIN_RELATIVE) : Number.isFinite(relative) ? relative : 0.01,
+  };
   for (const s of scored) {
     let chi2 = 0;
     let ss = 0;
@@ -153,7 +167,9 @@ export function rankMechanisms(input: IVData, request: RankRequest = {}): Rankin
   const weightSum = rel.reduce((a, b) => a + b, 0) || 1;
   const entries: RankEntry[] = scored.map((s, q) => {
     const r = s.fit.report;
-    const why: string[] = [`noise-weighted χ² ${fmt(s.chi2)} over the ${n} common points (${fmt(s.chi2 / Math.max(1, n - s.k))} per degree of freedom; RMS residual of ln I ${fmt(s.rms)}), ${s.k} parameters, own window ${fmt(r.window.from)} to ${fmt(r.window.to)} V`];
+    const why: string[] = [
+      `noise-weighted χ² ${fmt(s.chi2)} over the ${n} common points (${fmt(s.chi2 / Math.max(1, n - s.k))} per degree of freedom; RMS residual of ln I ${fmt(s.rms)}), ${s.k} parameters, own window ${fmt(r.window.from)} to ${fmt(r.window.to)} V`,
+    ];
     if (!r.plausible) why.push('ranked after the plausible mechanisms: a physical check failed');
     return {
       model: s.model,
@@ -176,9 +192,12 @@ export function rankMechanisms(input: IVData, request: RankRequest = {}): Rankin
       const d = Math.abs(a.aicc - b.aicc);
       if (d > 2) continue;
       const same = Math.abs(a.aicc - b.aicc) <= 1e-6 * Math.max(1, Math.abs(a.aicc));
-      const told = a.plausible !== b.plausible
-        ? `told apart by the physical checks (${a.plausible ? a.model : b.model} passes them, ${a.plausible ? b.model : a.model} does not)`
-        : a.plausible ? 'both pass the physical checks: a tie these data cannot resolve' : 'neither passes the physical checks';
+      const told =
+        a.plausible !== b.plausible
+          ? `told apart by the physical checks (${a.plausible ? a.model : b.model} passes them, ${a.plausible ? b.model : a.model} does not)`
+          : a.plausible
+            ? 'both pass the physical checks: a tie these data cannot resolve'
+            : 'neither passes the physical checks';
       a.reasons.splice(1, 0, same ? `same straight line as '${b.model}': ${told}` : `within ${d.toFixed(1)} of '${b.model}' in AICc: ${told}`);
     }
   }
@@ -188,11 +207,20 @@ export function rankMechanisms(input: IVData, request: RankRequest = {}): Rankin
   const best = entries.reduce<RankEntry | undefined>((m, e) => (!m || e.score > m.score ? e : m), undefined);
   if (best && !best.plausible && best.score > 0.5) {
     const plausible = entries.find((e) => e.plausible);
-    warnings.push(`'${best.model}' fits best (weight ${fmt(best.score)}) but fails a physical check (${best.reasons.filter((x) => /far from|outside|not |wrong|below|above/.test(x)).slice(0, 1).join('') || 'see its reasons'})${plausible ? `; the best plausible mechanism is '${plausible.model}' (weight ${fmt(plausible.score)})` : '; no mechanism passes the physical checks'}`);
+    warnings.push(
+      `'${best.model}' fits best (weight ${fmt(best.score)}) but fails a physical check (${
+        best.reasons
+          .filter((x) => /far from|outside|not |wrong|below|above/.test(x))
+          .slice(0, 1)
+          .join('') || 'see its reasons'
+      })${plausible ? `; the best plausible mechanism is '${plausible.model}' (weight ${fmt(plausible.score)})` : '; no mechanism passes the physical checks'}`,
+    );
   }
   const top = scored.find((s) => s.model === entries[0]?.model);
   if (top && n > top.k && top.chi2 / (n - top.k) > 4) {
-    warnings.push(`no mechanism describes every common point within the noise (best χ²/dof ${fmt(top.chi2 / (n - top.k))}): the sweep may hold more than one regime; rank within one with --from/--to`);
+    warnings.push(
+      `no mechanism describes every common point within the noise (best χ²/dof ${fmt(top.chi2 / (n - top.k))}): the sweep may hold more than one regime; rank within one with --from/--to`,
+    );
   }
   const excluded = Object.values(reasons).reduce((a, b) => a + b, 0);
   return {

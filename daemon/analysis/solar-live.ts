@@ -54,7 +54,12 @@ export function solarSummary(data: IVData, req: SolarRequest = {}): SolarSummary
   const figures: Record<string, SolarFigure> = {};
   let error: string | undefined;
   try {
-    const r = solarFiguresWithUncertainty(data, { area: req.area, irradiance: req.irradiance, complianceLimit: req.complianceLimit, convention: req.convention });
+    const r = solarFiguresWithUncertainty(data, {
+      area: req.area,
+      irradiance: req.irradiance,
+      complianceLimit: req.complianceLimit,
+      convention: req.convention,
+    });
     const f = r.figures;
     figures.isc = f.isc;
     if (r.jsc) figures.jsc = r.jsc;
@@ -71,7 +76,12 @@ export function solarSummary(data: IVData, req: SolarRequest = {}): SolarSummary
   let model: SolarSummary['model'] = null;
   let curve: SolarSummary['curve'] = null;
   try {
-    const d = fitDiode(data, 'single-diode', { temperature: req.temperature, illuminated: true, convention: req.convention, complianceLimit: req.complianceLimit });
+    const d = fitDiode(data, 'single-diode', {
+      temperature: req.temperature,
+      illuminated: true,
+      convention: req.convention,
+      complianceLimit: req.complianceLimit,
+    });
     model = { parameters: d.parameters, rmse: d.rmse };
     warnings.push(...d.warnings.map((w) => `single-diode fit: ${w}`));
     let lo = Infinity;

@@ -156,13 +156,18 @@ export function classifySweep(data: SweepData, options: ClassifyOptions = {}): S
   const negIdx = sortedOrder(absBias, Int32Array.from(neg));
   // Compliance that no flag or limit told us about: a current pinned at its largest value over the
   // highest biases of a branch (an SMU at its limit reads the limit while the bias it is asked for rises).
-  for (const [idx, name] of [[posIdx, 'positive'], [negIdx, 'negative']] as const) {
+  for (const [idx, name] of [
+    [posIdx, 'positive'],
+    [negIdx, 'negative'],
+  ] as const) {
     if (options.detectCompliance === false) break;
     const pinned = detectPinned(data, idx, absBias);
     if (pinned.length) {
       for (const k of pinned) excluded[k] = REASONS.compliance;
       const level = Math.abs(data.y[pinned[0]]);
-      notes.push(`${pinned.length} reading${pinned.length > 1 ? 's' : ''} at the top of the ${name} branch ${pinned.length > 1 ? 'are' : 'is'} pinned at ${level.toPrecision(4)} A (the branch's largest current, held while the bias rises or read as a round value): taken as compliance (no compliance column or --compliance given)`);
+      notes.push(
+        `${pinned.length} reading${pinned.length > 1 ? 's' : ''} at the top of the ${name} branch ${pinned.length > 1 ? 'are' : 'is'} pinned at ${level.toPrecision(4)} A (the branch's largest current, held while the bias rises or read as a round value): taken as compliance (no compliance column or --compliance given)`,
+      );
     }
   }
   for (let k = 0; k < n; k++) if (excluded[k] !== undefined) count(excluded[k] as string);
@@ -175,7 +180,10 @@ export function classifySweep(data: SweepData, options: ClassifyOptions = {}): S
     if (excluded[k] === REASONS.zeroBias) zero.push(data.y[k]);
     else if (excluded[k] === undefined) signal = Math.max(signal, Math.abs(data.y[k]));
   }
-  for (const [idx, sign] of [[posIdx, 1], [negIdx, -1]] as const) {
+  for (const [idx, sign] of [
+    [posIdx, 1],
+    [negIdx, -1],
+  ] as const) {
     let against = 0;
     let last = -1;
     let seen = 0;
@@ -237,7 +245,9 @@ export function classifySweep(data: SweepData, options: ClassifyOptions = {}): S
       const mixed = Math.min(plus, r.length - plus) >= 0.25 * r.length;
       if (mixed && sigma >= 0.1 * cur[cur.length >> 1]) {
         est = { sigma, n: r.length + 2 };
-        notes.push(`few readings lie at zero bias or against the bias: the noise floor (${sigma.toPrecision(3)} A) comes from the scatter of the lowest-bias readings`);
+        notes.push(
+          `few readings lie at zero bias or against the bias: the noise floor (${sigma.toPrecision(3)} A) comes from the scatter of the lowest-bias readings`,
+        );
       } else {
         notes.push(`no reading reaches the noise floor: even the lowest-bias readings (${cur[0].toPrecision(3)} A and up) follow a smooth curve`);
       }

@@ -527,7 +527,12 @@ function sse(s: Seg): { sse: number; slope: number } {
 }
 
 /** The best split of points (u, v), ordered, into two straight lines of v on u (≥ minLo, ≥ minHi points). */
-function bestSplit(u: ArrayLike<number>, v: ArrayLike<number>, minLo: number, minHi: number): { k: number; stat: number; slopeLo: number; slopeHi: number } | null {
+function bestSplit(
+  u: ArrayLike<number>,
+  v: ArrayLike<number>,
+  minLo: number,
+  minHi: number,
+): { k: number; stat: number; slopeLo: number; slopeHi: number } | null {
   const m = u.length;
   if (m < minLo + minHi + 2) return null;
   const tot: Seg = { sx: 0, sy: 0, sxx: 0, sxy: 0, syy: 0, n: m };
@@ -683,22 +688,32 @@ export function analyzeWeibull(d: WeibullData, o: WeibullOptions = {}): WeibullR
   const warnings: string[] = [];
   const points = medianRankPoints(d).map((q) => ({ x: q.x, F: q.F }));
   const gof = fit.censored === 0 ? andersonDarling(d.values, fit.shape, fit.scale) : null;
-  if (gof?.rejected) warnings.push(`the Anderson–Darling statistic ${gof.modified.toPrecision(3)} exceeds its 5 % critical value ${AD_CRITICAL['0.05']}: one Weibull distribution does not describe these values well`);
+  if (gof?.rejected)
+    warnings.push(
+      `the Anderson–Darling statistic ${gof.modified.toPrecision(3)} exceeds its 5 % critical value ${AD_CRITICAL['0.05']}: one Weibull distribution does not describe these values well`,
+    );
   const bend = bendTest(d, fit, o.bootstrap ?? 199, o.seed);
   if (bend && bend.pValue < (o.bendLevel ?? 0.01)) {
     if (bend.lowerShape < bend.upperShape) {
-      warnings.push(`the Weibull plot bends at ${show(bend.at)}: the lowest ${bend.lower} failures follow a shallower slope (β ≈ ${bend.lowerShape.toPrecision(3)}) than the other ${bend.upper} (β ≈ ${bend.upperShape.toPrecision(3)}), p = ${bend.pValue.toPrecision(2)} — an early-failure (extrinsic, defect-related) branch below the intrinsic one; a single β and η describe neither`);
+      warnings.push(
+        `the Weibull plot bends at ${show(bend.at)}: the lowest ${bend.lower} failures follow a shallower slope (β ≈ ${bend.lowerShape.toPrecision(3)}) than the other ${bend.upper} (β ≈ ${bend.upperShape.toPrecision(3)}), p = ${bend.pValue.toPrecision(2)} — an early-failure (extrinsic, defect-related) branch below the intrinsic one; a single β and η describe neither`,
+      );
     } else {
-      warnings.push(`the Weibull plot bends at ${show(bend.at)}: the highest ${bend.upper} failures follow a shallower slope (β ≈ ${bend.upperShape.toPrecision(3)}) than the lowest ${bend.lower} (β ≈ ${bend.lowerShape.toPrecision(3)}), p = ${bend.pValue.toPrecision(2)} — two populations (or a test limit); a single β and η describe neither`);
+      warnings.push(
+        `the Weibull plot bends at ${show(bend.at)}: the highest ${bend.upper} failures follow a shallower slope (β ≈ ${bend.upperShape.toPrecision(3)}) than the lowest ${bend.lower} (β ≈ ${bend.lowerShape.toPrecision(3)}), p = ${bend.pValue.toPrecision(2)} — two populations (or a test limit); a single β and η describe neither`,
+      );
     }
   }
   if (fit.failures < 10) warnings.push(`only ${fit.failures} failures: the maximum-likelihood shape is biased high for small samples and the bounds are wide`);
   const coarse = coarseGrid(d, fit.shape, fit.scale);
-  if (coarse) warnings.push(`${coarse.tied} of ${fit.failures} failures tie on levels ${show(coarse.step)} apart (a ramp's steps): the fit takes each value as exact, though a ramp says only that the device failed within the step before; the step is ${coarse.ratio.toPrecision(2)} of the scatter in ln x, so β and η carry an error the bounds do not show (a finer step is more faithful)`);
+  if (coarse)
+    warnings.push(
+      `${coarse.tied} of ${fit.failures} failures tie on levels ${show(coarse.step)} apart (a ramp's steps): the fit takes each value as exact, though a ramp says only that the device failed within the step before; the step is ${coarse.ratio.toPrecision(2)} of the scatter in ln x, so β and η carry an error the bounds do not show (a finer step is more faithful)`,
+    );
   if (fit.censored > 0 && fit.censored >= fit.failures) warnings.push(`${fit.censored} of ${fit.n} devices survived: the fit rests on the lower tail only`);
   let areaScaling: WeibullReport['areaScaling'] = null;
   if (o.toArea !== undefined) {
-    if (o.area === undefined) throw new AnalysisError('MISSING_INPUT', 'scaling to another area needs the devices\' area', 'area');
+    if (o.area === undefined) throw new AnalysisError('MISSING_INPUT', "scaling to another area needs the devices' area", 'area');
     const q = quantityInterval(p, fit, o.area / o.toArea, confidence, method);
     areaScaling = { fromArea: o.area, toArea: o.toArea, scale: { ...q, unit } };
   }

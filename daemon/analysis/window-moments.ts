@@ -78,7 +78,16 @@ export class WindowMoments {
     this.t1 = mk();
     this.t2 = mk();
     this.u0 = mk();
-    let a0 = 0, a1 = 0, a2 = 0, a3 = 0, a4 = 0, b0 = 0, b1 = 0, b2 = 0, c0 = 0, cnt = 0;
+    let a0 = 0,
+      a1 = 0,
+      a2 = 0,
+      a3 = 0,
+      a4 = 0,
+      b0 = 0,
+      b1 = 0,
+      b2 = 0,
+      c0 = 0,
+      cnt = 0;
     for (let i = 0; i < n; i++) {
       const wi = w[i] > 0 && Number.isFinite(w[i]) ? w[i] : 0;
       const u = (x[i] - this.cx) / this.kx;

@@ -84,27 +84,64 @@ export function testRun(m: WindowMoments, start: number, end: number, slopeSign?
   const line = m.line(start, end);
   const n = m.count(start, end);
   if (!line || n < 3) {
-    return { passed: false, n, chi2: Infinity, dof: Math.max(0, n - 2), chi2Limit: 0, curvatureZ: 0, sag: 0, sigmaTypical: Infinity, slopeOk: false, failure: 'too few distinct points', sxx: 0, score: 0 };
+    return {
+      passed: false,
+      n,
+      chi2: Infinity,
+      dof: Math.max(0, n - 2),
+      chi2Limit: 0,
+      curvatureZ: 0,
+      sag: 0,
+      sigmaTypical: Infinity,
+      slopeOk: false,
+      failure: 'too few distinct points',
+      sxx: 0,
+      score: 0,
+    };
   }
   const dof = n - 2;
   const chi2Limit = Math.max(chiSquareUpper(Math.max(1, dof), 3.090232306167813), 2 * dof);
   const sigmaTypical = Math.sqrt(n / line.sumW);
-  const mk = (passed: boolean, curvatureZ: number, sag: number, slopeOk: boolean, failure: string | undefined): WindowTest =>
-    ({ passed, n, chi2: line.chi2, dof, chi2Limit, curvatureZ, sag, sigmaTypical, slopeOk, failure, sxx: line.sxx, score: line.sxx });
+  const mk = (passed: boolean, curvatureZ: number, sag: number, slopeOk: boolean, failure: string | undefined): WindowTest => ({
+    passed,
+    n,
+    chi2: line.chi2,
+    dof,
+    chi2Limit,
+    curvatureZ,
+    sag,
+    sigmaTypical,
+    slopeOk,
+    failure,
+    sxx: line.sxx,
+    score: line.sxx,
+  });
   const slopeOk = slopeSign === undefined || Math.sign(line.slope) === slopeSign;
   if (!slopeOk) return mk(false, 0, 0, false, 'the slope has the wrong sign for this mechanism');
   if (admissible && !admissible.ok(start, end, line.intercept, line.slope)) {
     return mk(false, 0, 0, false, explain ? admissible.why(start, end, line.intercept, line.slope) : 'inadmissible');
   }
   if (line.chi2 > chi2Limit) {
-    return mk(false, 0, 0, true, explain ? `χ² ${line.chi2.toFixed(1)} for ${dof} degrees of freedom: the points scatter more than the noise allows` : 'scatter');
+    return mk(
+      false,
+      0,
+      0,
+      true,
+      explain ? `χ² ${line.chi2.toFixed(1)} for ${dof} degrees of freedom: the points scatter more than the noise allows` : 'scatter',
+    );
   }
   const curv = m.curvature(start, end);
   const s2 = curv && n > 3 ? Math.max(1, curv.chi2 / (n - 3)) : 1;
   const curvatureZ = curv && curv.c2StdErr > 0 ? Math.abs(curv.c2) / (curv.c2StdErr * Math.sqrt(s2)) : 0;
   const sag = curv ? curv.sag : 0;
   const bends = curvatureZ > Z_CURVATURE && sag > 0.05 * sigmaTypical;
-  return mk(!bends, curvatureZ, sag, true, bends ? (explain ? `the points bend away from a straight line (curvature ${curvatureZ.toFixed(1)} standard errors)` : 'bends') : undefined);
+  return mk(
+    !bends,
+    curvatureZ,
+    sag,
+    true,
+    bends ? (explain ? `the points bend away from a straight line (curvature ${curvatureZ.toFixed(1)} standard errors)` : 'bends') : undefined,
+  );
 }
 
 const scratchLine = { n: 0, slope: 0, intercept: 0, chi2: 0, sxx: 0, sumW: 0, meanX: 0 };

@@ -23,7 +23,11 @@ function run(cmd, args, opts = {}) {
 }
 
 function mtime(p) {
-  try { return statSync(p).mtimeMs; } catch { return -1; }
+  try {
+    return statSync(p).mtimeMs;
+  } catch {
+    return -1;
+  }
 }
 
 function onPath(name) {
@@ -68,13 +72,17 @@ if (wantSystem) {
     ['python3-pandas', () => debianPython('pandas')],
     ['mosquitto', () => installed('mosquitto')],
     ['postgresql', () => installed('initdb')],
-  ].filter(([, present]) => !present()).map(([pkg]) => pkg);
+  ]
+    .filter(([, present]) => !present())
+    .map(([pkg]) => pkg);
   if (needed.length > 0) {
     const isRoot = typeof process.getuid === 'function' && process.getuid() === 0;
     const sudo = isRoot ? [] : onPath('sudo') ? ['sudo', '-n'] : null;
     if (sudo === null || !onPath('apt-get')) {
-      console.error(`plumbline setup: the tests need ${needed.join(', ')}; install them with your ` +
-        `package manager (Debian: apt-get install ${needed.join(' ')}) and run the tests again.`);
+      console.error(
+        `plumbline setup: the tests need ${needed.join(', ')}; install them with your ` +
+          `package manager (Debian: apt-get install ${needed.join(' ')}) and run the tests again.`,
+      );
       process.exit(1);
     }
     console.error(`plumbline setup: installing Debian packages: ${needed.join(' ')} ...`);

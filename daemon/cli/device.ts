@@ -23,8 +23,8 @@ export function withDeviceOptions(cmd: Command): Command {
     .option('--device <name>', 'device under test: its name')
     .option('--wafer <name>', 'device under test: its wafer')
     .option('--site <name>', 'device under test: its site (die) name')
-    .option('--x <n>', 'device under test: the site\'s column on the wafer map')
-    .option('--y <n>', 'device under test: the site\'s row on the wafer map')
+    .option('--x <n>', "device under test: the site's column on the wafer map")
+    .option('--y <n>', "device under test: the site's row on the wafer map")
     .option('--area <q>', 'device area, e.g. "1e-4 cm^2" (also the live fit\'s area)')
     .option('--thickness <q>', 'film thickness, e.g. "7 nm" (also the live fit\'s thickness)')
     .option('--temperature <q>', 'device temperature, e.g. "300 K" (also the live fit\'s temperature)')
@@ -41,7 +41,8 @@ export async function readDevice(o: DeviceOptions): Promise<DeviceIdentity | und
     const v = o[k];
     if (v === undefined) continue;
     const n = Number(v);
-    if (v.trim() === '' || !Number.isFinite(n)) throw new UsageError(`--${k} '${v}': expected a number (the site's ${k === 'x' ? 'column' : 'row'} on the wafer map)`);
+    if (v.trim() === '' || !Number.isFinite(n))
+      throw new UsageError(`--${k} '${v}': expected a number (the site's ${k === 'x' ? 'column' : 'row'} on the wafer map)`);
     raw[k] = n;
   }
   if (o.area !== undefined || o.thickness !== undefined || o.temperature !== undefined) {
@@ -58,4 +59,3 @@ export async function readDevice(o: DeviceOptions): Promise<DeviceIdentity | und
     throw new UsageError((e as Error).message.replace(/^device\.(\w+)/, (_m, f: string) => `--${f === 'tags' ? 'device-tag' : f}`));
   }
 }
-

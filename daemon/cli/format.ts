@@ -29,11 +29,15 @@ function withParts(p: { value: number; stdErr: number; unit: string; statStdErr?
 export function formatFit(r: FitReport): string {
   const out: string[] = [];
   out.push(`${r.title}  [model ${r.model}]`);
-  out.push(`axes:       x = ${axisLabel(r.axes.x)} ${r.axes.x.kind}, y = ${axisLabel(r.axes.y)} ${r.axes.y.kind}${r.axes.y.kind === 'log' ? ', fitted as ln' : ''} (the line's slope and intercept are in SI, as in --json)`);
+  out.push(
+    `axes:       x = ${axisLabel(r.axes.x)} ${r.axes.x.kind}, y = ${axisLabel(r.axes.y)} ${r.axes.y.kind}${r.axes.y.kind === 'log' ? ', fitted as ln' : ''} (the line's slope and intercept are in SI, as in --json)`,
+  );
   out.push(`points:     ${r.points.used} used, ${r.points.excluded} excluded (${describeReasons(r.points.reasons)})`);
   if (r.branch) out.push(`branch:     ${r.branch} bias${r.branches.length > 1 ? ` (${r.branches.length} branches analysed; see below)` : ''}`);
   const nz = r.noise;
-  out.push(`noise:      floor ${nz.floorSource === 'not reached' ? 'not reached' : `${num(nz.floor, 3)} A (${nz.floorSource}; readings below ${num(nz.floorLevel, 3)} A left out of log plots)`}, relative ${num(100 * nz.relative, 3)} % (${nz.relativeSource})`);
+  out.push(
+    `noise:      floor ${nz.floorSource === 'not reached' ? 'not reached' : `${num(nz.floor, 3)} A (${nz.floorSource}; readings below ${num(nz.floorLevel, 3)} A left out of log plots)`}, relative ${num(100 * nz.relative, 3)} % (${nz.relativeSource})`,
+  );
   out.push(`window:     ${num(r.window.from)} to ${num(r.window.to)} in the x column (${r.window.mode})`);
   const L = r.line;
   out.push(`line:       slope ${num(L.slope, 7)} ± ${num(L.slopeStdErr, 3)}, intercept ${num(L.intercept, 7)} ± ${num(L.interceptStdErr, 3)}`);
@@ -45,8 +49,12 @@ export function formatFit(r: FitReport): string {
     for (const [k, p] of params) out.push(`  ${pad(k, w)}  ${withParts(p, k)}`);
   }
   for (const b of r.branches.slice(1)) {
-    const ps = Object.entries(b.parameters).map(([k, p]) => `${k} ${withParts(p, k)}`).join('; ');
-    out.push(`${b.polarity} branch: ${b.points} points, ${num(b.window.from)} to ${num(b.window.to)}: ${ps}${b.plausible ? '' : ` (implausible: ${b.warnings.join('; ')})`}`);
+    const ps = Object.entries(b.parameters)
+      .map(([k, p]) => `${k} ${withParts(p, k)}`)
+      .join('; ');
+    out.push(
+      `${b.polarity} branch: ${b.points} points, ${num(b.window.from)} to ${num(b.window.to)}: ${ps}${b.plausible ? '' : ` (implausible: ${b.warnings.join('; ')})`}`,
+    );
   }
   if (Object.keys(r.inputs).length) out.push(`inputs:     ${formatInputs(r.inputs)}`);
   if (r.regimes.length > 1) {
@@ -63,8 +71,12 @@ export function formatRanking(r: Ranking): string {
   out.push(`points: ${r.points.used} common points of the ${r.branch} branch, ${r.points.excluded} excluded (${describeReasons(r.points.reasons)})`);
   out.push(`${pad('#', 3)}${pad('model', 26)}${pad('weight', 8)}${pad('ΔAICc', 9)}${pad('plausible', 10)}parameters`);
   r.ranking.forEach((e, k) => {
-    const params = Object.entries(e.parameters).map(([n, p]) => `${n} ${formatParameterText(p, n)}`).join('; ');
-    out.push(`${pad(String(k + 1), 3)}${pad(e.model, 26)}${pad(e.score.toFixed(3), 8)}${pad(e.deltaAicc.toFixed(1), 9)}${pad(e.plausible ? 'yes' : 'no', 10)}${params}`);
+    const params = Object.entries(e.parameters)
+      .map(([n, p]) => `${n} ${formatParameterText(p, n)}`)
+      .join('; ');
+    out.push(
+      `${pad(String(k + 1), 3)}${pad(e.model, 26)}${pad(e.score.toFixed(3), 8)}${pad(e.deltaAicc.toFixed(1), 9)}${pad(e.plausible ? 'yes' : 'no', 10)}${params}`,
+    );
     for (const why of e.reasons) out.push(`     - ${why}`);
   });
   for (const s of r.skipped) out.push(`skipped ${s.model}: ${s.reason}`);
@@ -76,13 +88,18 @@ export function formatRanking(r: Ranking): string {
 export function formatDiode(r: DiodeReport): string {
   const out: string[] = [];
   out.push(`${r.title}  [model ${r.model}]`);
-  out.push(`points:     ${r.points.used} used, ${r.points.excluded} excluded (${describeReasons(r.points.reasons)}); current read as ${r.convention} convention${r.illuminated ? ', illuminated' : ''}`);
+  out.push(
+    `points:     ${r.points.used} used, ${r.points.excluded} excluded (${describeReasons(r.points.reasons)}); current read as ${r.convention} convention${r.illuminated ? ', illuminated' : ''}`,
+  );
   out.push(`temperature ${num(r.temperature.value)} K${r.temperature.assumed ? ' (assumed)' : ''}`);
   const params = Object.entries(r.parameters);
   out.push('parameters:');
   const w = Math.max(...params.map(([k]) => k.length));
   for (const [k, p] of params) out.push(`  ${pad(k, w)}  ${formatParameterText(p, k)}`);
-  if (r.rmse !== null) out.push(`rmse:       ${num(r.rmse, 5)} A (true current)${r.rmseImplicit !== undefined ? `; implicit-residual RMSE ${num(r.rmseImplicit, 5)} A` : ''}${r.objective === 'implicit' ? ' — fitted on the implicit residual' : ''}`);
+  if (r.rmse !== null)
+    out.push(
+      `rmse:       ${num(r.rmse, 5)} A (true current)${r.rmseImplicit !== undefined ? `; implicit-residual RMSE ${num(r.rmseImplicit, 5)} A` : ''}${r.objective === 'implicit' ? ' — fitted on the implicit residual' : ''}`,
+    );
   for (const n of r.notes) out.push(`note:       ${n}`);
   for (const x of r.warnings) out.push(`warning:    ${x}`);
   return out.join('\n');
@@ -91,8 +108,11 @@ export function formatDiode(r: DiodeReport): string {
 export function formatSolar(r: SolarReport & { readonly jsc?: { value: number; stdErr: number; unit: string } | null }): string {
   const f = r.figures;
   const out: string[] = [];
-  const line = (key: string, p: { value: number; stdErr: number; unit: string } | null | undefined, missing: string) => out.push(`  ${pad(key, 11)} ${p ? formatParameterText(p, key) : missing}`);
-  out.push(`solar figures of merit (${r.points.used} points, current read as ${r.convention} convention; G = ${num(r.irradiance)} W/m²${r.area !== null ? `, area ${formatParameterText({ value: r.area, unit: 'm^2' })}` : ''}); ± one standard uncertainty from local fits of the curve`);
+  const line = (key: string, p: { value: number; stdErr: number; unit: string } | null | undefined, missing: string) =>
+    out.push(`  ${pad(key, 11)} ${p ? formatParameterText(p, key) : missing}`);
+  out.push(
+    `solar figures of merit (${r.points.used} points, current read as ${r.convention} convention; G = ${num(r.irradiance)} W/m²${r.area !== null ? `, area ${formatParameterText({ value: r.area, unit: 'm^2' })}` : ''}); ± one standard uncertainty from local fits of the curve`,
+  );
   line('isc', f.isc, '');
   line('jsc', r.jsc, 'needs --area');
   line('voc', f.voc, '');

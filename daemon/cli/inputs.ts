@@ -40,8 +40,8 @@ export function withAnalysisOptions(cmd: Command): Command {
   return cmd
     .option('--x <col>', 'x column, by header name or 1-based position (default: a column named voltage_V, voltage, bias or V, else the first)')
     .option('--y <col>', 'y column (default: a column named current_A, current or I, else the second)')
-    .option('--from <x>', 'fit window start, in the x column\'s own values')
-    .option('--to <x>', 'fit window end, in the x column\'s own values')
+    .option('--from <x>', "fit window start, in the x column's own values")
+    .option('--to <x>', "fit window end, in the x column's own values")
     .option('--auto', 'choose the fit window automatically (the default for mechanisms of the current)')
     .option('--all', 'fit every usable point (above the noise floor, below compliance, one branch)')
     .option('--sweep <n>', 'a file with a sweep column (an exported points.csv): analyse sweep n')
@@ -60,8 +60,7 @@ export function withAnalysisOptions(cmd: Command): Command {
 }
 
 export function readInputs(o: AnalysisOptions): Inputs {
-  const q = (v: string | undefined, kind: Parameters<typeof parseQuantity>[1], name: string) =>
-    v === undefined ? undefined : parseQuantity(v, kind, name);
+  const q = (v: string | undefined, kind: Parameters<typeof parseQuantity>[1], name: string) => (v === undefined ? undefined : parseQuantity(v, kind, name));
   return {
     thickness: q(o.thickness, 'length', '--thickness'),
     area: q(o.area, 'area', '--area'),
@@ -131,9 +130,18 @@ export function loadData(file: string, o: AnalysisOptions): { table: CsvTable; d
   const ci = table.headers.findIndex((h) => /^compliance$/i.test(h));
   const si = table.headers.findIndex((h) => /^sweep$/i.test(h));
   // Only the columns in use must be numbers (an exported points.csv carries a text session column).
-  for (const [k, option] of [[xi, o.x === undefined ? '--x' : ''], [yi, o.y === undefined ? '--y' : '']] as const) {
+  for (const [k, option] of [
+    [xi, o.x === undefined ? '--x' : ''],
+    [yi, o.y === undefined ? '--y' : ''],
+  ] as const) {
     const t = table.firstText[k];
-    if (t && option) throw new CsvError(file, t.line, table.headers[k], `'${t.text}' is not a number: name the columns to use with --x and --y (columns: ${table.headers.join(', ')})`);
+    if (t && option)
+      throw new CsvError(
+        file,
+        t.line,
+        table.headers[k],
+        `'${t.text}' is not a number: name the columns to use with --x and --y (columns: ${table.headers.join(', ')})`,
+      );
   }
   for (const k of [xi, yi, ...(ci >= 0 ? [ci] : []), ...(si >= 0 && si !== xi && si !== yi ? [si] : [])]) requireNumeric(table, k);
   const columns: Record<string, Float64Array> = {};
@@ -149,13 +157,16 @@ export function loadData(file: string, o: AnalysisOptions): { table: CsvTable; d
     if (o.sweep !== undefined) {
       if (o.allSweeps) throw new UsageError('--sweep and --all-sweeps: give one of them');
       const n = Number(o.sweep);
-      if (!Number.isFinite(n) || !ids.includes(n)) throw new UsageError(`--sweep ${o.sweep}: ${file} has no sweep ${o.sweep} (its sweep column holds ${ids.length} sweeps, ${range})`);
+      if (!Number.isFinite(n) || !ids.includes(n))
+        throw new UsageError(`--sweep ${o.sweep}: ${file} has no sweep ${o.sweep} (its sweep column holds ${ids.length} sweeps, ${range})`);
       keep = [];
       for (let k = 0; k < sw.length; k++) if (sw[k] === n) keep.push(k);
       notes.push(`sweep ${n} of ${ids.length} in the file`);
     } else if (ids.length > 1) {
       if (!o.allSweeps) {
-        throw new UsageError(`${file} holds ${ids.length} sweeps (column '${table.headers[si]}', ${range}): choose one with --sweep N, or pool them all with --all-sweeps`);
+        throw new UsageError(
+          `${file} holds ${ids.length} sweeps (column '${table.headers[si]}', ${range}): choose one with --sweep N, or pool them all with --all-sweeps`,
+        );
       }
       notes.push(`${ids.length} sweeps of the file pooled into one analysis (--all-sweeps)`);
     }

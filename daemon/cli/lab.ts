@@ -59,7 +59,7 @@ export interface ArchiveSessionOptions extends ArchiveSelectionOptions {
 export function withArchiveSessions(cmd: Command, selection: boolean): Command {
   cmd
     .option('--postgres <url>', 'read the session(s) from the archive (plumbline archive) instead of a folder')
-    .option('--session <name>', 'with --postgres: the session\'s name (its folder\'s name on the station)')
+    .option('--session <name>', "with --postgres: the session's name (its folder's name on the station)")
     .option('--station <id>', 'with --postgres: the station it came from (when two stations have sessions of that name)')
     .option('--into <dir>', 'with --postgres: where the archived sessions are written as folders (default ./plumbline-archive-sessions)');
   if (selection) {
@@ -85,9 +85,14 @@ export async function sessionDirs(dir: string | undefined, o: ArchiveSessionOpti
   if (dir !== undefined) throw new UsageError('give a session folder or --postgres, not both');
   if (one && o.session === undefined) throw new UsageError('with --postgres, name the session: --session NAME');
   const { materializeSessions } = await import('../lab/archive-sessions.js');
-  const out = await materializeSessions(o.postgres, { session: o.session, station: o.station, wafer: o.wafer, site: o.site, tag: o.tag, from: o.from, to: o.to }, resolve(o.into ?? 'plumbline-archive-sessions'));
+  const out = await materializeSessions(
+    o.postgres,
+    { session: o.session, station: o.station, wafer: o.wafer, site: o.site, tag: o.tag, from: o.from, to: o.to },
+    resolve(o.into ?? 'plumbline-archive-sessions'),
+  );
   if (out.length === 0) throw new UsageError(`the archive has no session${o.session ? ` named '${o.session}'` : ' matching the selection'}`);
-  if (one && out.length > 1) throw new UsageError(`the archive has ${out.length} sessions named '${o.session}' (from ${out.map((x) => x.station).join(', ')}): give --station`);
+  if (one && out.length > 1)
+    throw new UsageError(`the archive has ${out.length} sessions named '${o.session}' (from ${out.map((x) => x.station).join(', ')}): give --station`);
   for (const m of out) process.stderr.write(`from the archive: ${m.station}/${m.session} (${m.readings} readings, ${m.events} events) → ${m.dir}\n`);
   return out.map((m) => m.dir);
 }
@@ -101,10 +106,10 @@ function percentile(xs: readonly number[], p: number): number {
 export function registerLab(program: Command): void {
   program
     .command('archive')
-    .description('write every station\'s published sessions into PostgreSQL (persistent MQTT session, idempotent), or --import session folders')
+    .description("write every station's published sessions into PostgreSQL (persistent MQTT session, idempotent), or --import session folders")
     .requiredOption('--postgres <url>', 'database, e.g. postgres://user@host/db or postgres:///db?host=/run/postgresql (password: PGPASSWORD or in the URL)')
     .option('--mqtt <url>', 'broker the stations publish to: mqtt://HOST:PORT[/PREFIX] (credentials as user:password@ or PLUMBLINE_MQTT_USERNAME/PASSWORD)')
-    .option('--client-id <id>', 'MQTT client id of the archive\'s persistent session (one per archive)', 'plumbline-archive')
+    .option('--client-id <id>', "MQTT client id of the archive's persistent session (one per archive)", 'plumbline-archive')
     .option('--import <dirs...>', 'load session folders (or data folders holding them) instead of subscribing')
     .option('--station <id>', 'with --import: the station id to file them under (default: host name and data folder name, as --publish uses)')
     .option('--json', 'with --import: print one JSON object')
@@ -122,7 +127,9 @@ export function registerLab(program: Command): void {
             const r = await importSession(store, d, o.station);
             results.push(r);
             if (!o.json) {
-              process.stdout.write(`${r.station}/${r.session}: ${r.readings} readings (${r.readingsInserted} new), ${r.eventsInserted} new events, through seq ${r.lastSeq}${r.holes ? `, ${r.holes} damaged line(s) skipped` : ''}${r.live ? ' — still being written: import again later for the rest' : ''}\n`);
+              process.stdout.write(
+                `${r.station}/${r.session}: ${r.readings} readings (${r.readingsInserted} new), ${r.eventsInserted} new events, through seq ${r.lastSeq}${r.holes ? `, ${r.holes} damaged line(s) skipped` : ''}${r.live ? ' — still being written: import again later for the rest' : ''}\n`,
+              );
             }
           }
           if (o.json) process.stdout.write(`${JSON.stringify({ sessions: results })}\n`);
@@ -143,7 +150,9 @@ export function registerLab(program: Command): void {
         if (s.batches === shown) return;
         shown = s.batches;
         const lags = s.lags.slice(-2000);
-        process.stdout.write(`archived ${s.readings} readings and ${s.events} events in ${s.batches} batches (${s.duplicates} already there); lag p50 ${percentile(lags, 0.5).toFixed(0)} ms, p99 ${percentile(lags, 0.99).toFixed(0)} ms\n`);
+        process.stdout.write(
+          `archived ${s.readings} readings and ${s.events} events in ${s.batches} batches (${s.duplicates} already there); lag p50 ${percentile(lags, 0.5).toFixed(0)} ms, p99 ${percentile(lags, 0.99).toFixed(0)} ms\n`,
+        );
       }, 10_000);
       const stop = async (why: string) => {
         clearInterval(report);
@@ -158,7 +167,9 @@ export function registerLab(program: Command): void {
 
   program
     .command('lab')
-    .description('one read-only page with every station publishing to the broker: state, device, progress, latest parameters, cautions; links to each station\'s page')
+    .description(
+      "one read-only page with every station publishing to the broker: state, device, progress, latest parameters, cautions; links to each station's page",
+    )
     .requiredOption('--mqtt <url>', 'broker the stations publish to: mqtt://HOST:PORT[/PREFIX]')
     .option('--port <n>', 'HTTP port (0 = any free port)', '8480')
     .option('--host <addr>', 'address to listen on (anything beyond loopback needs --token)', '127.0.0.1')
@@ -167,7 +178,13 @@ export function registerLab(program: Command): void {
       const port = Number(o.port);
       if (!Number.isInteger(port) || port < 0 || port > 65535) throw new UsageError(`--port '${o.port}': expected a port number`);
       const { startLabServer } = await import('../lab/lab-server.js');
-      const srv = await startLabServer({ mqtt: o.mqtt, host: o.host, port, token: o.token ?? process.env.PLUMBLINE_LAB_TOKEN, log: (line) => process.stderr.write(`${line}\n`) });
+      const srv = await startLabServer({
+        mqtt: o.mqtt,
+        host: o.host,
+        port,
+        token: o.token ?? process.env.PLUMBLINE_LAB_TOKEN,
+        log: (line) => process.stderr.write(`${line}\n`),
+      });
       process.stdout.write(`plumbline lab\n  page  ${srv.url}\n`);
       const stop = async () => {
         await srv.close();

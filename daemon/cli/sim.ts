@@ -15,7 +15,7 @@ export function registerSim(program: Command): void {
   program
     .command('sim')
     .description('the built-in simulated source-measure unit (it speaks the protection-trip and protection-status dialects)')
-    .option('--list', 'print each scenario\'s name and a one-line description')
+    .option('--list', "print each scenario's name and a one-line description")
     .option('--tcp <port>', 'serve on a TCP raw socket (SCPI raw-socket convention: 5025)')
     .option('--host <addr>', 'address to bind for --tcp', '127.0.0.1')
     .option('--pty', 'serve on a pseudo-terminal pair (needs socat); prints the path to open')

@@ -46,13 +46,22 @@ export async function startPublishing(config: StationConfig, data: string, o: Pu
   const url = o.publish ?? config.publish?.url;
   if (url === undefined) return undefined;
   const lab = await import('../lab/publishing.js');
-  const h = lab.startPublishing({ url, station: o.station ?? config.publish?.station, name: config.name, dataDir: data, page, tokenRequired: config.server.token !== undefined, log: (line) => process.stderr.write(`${line}\n`) });
+  const h = lab.startPublishing({
+    url,
+    station: o.station ?? config.publish?.station,
+    name: config.name,
+    dataDir: data,
+    page,
+    tokenRequired: config.server.token !== undefined,
+    log: (line) => process.stderr.write(`${line}\n`),
+  });
   process.stderr.write(`publishing to ${h.display} as station ${h.station}\n`);
   return h;
 }
 
-export const PUBLISH_HELP = 'publish the sessions to an MQTT broker (mqtt://HOST:PORT[/PREFIX]); credentials as user:password@ or PLUMBLINE_MQTT_USERNAME/PASSWORD';
-export const STATION_HELP = 'station id in the broker\'s topics (default: host name and data folder name)';
+export const PUBLISH_HELP =
+  'publish the sessions to an MQTT broker (mqtt://HOST:PORT[/PREFIX]); credentials as user:password@ or PLUMBLINE_MQTT_USERNAME/PASSWORD';
+export const STATION_HELP = "station id in the broker's topics (default: host name and data folder name)";
 
 export async function stationConfig(o: StationOptions): Promise<StationConfig> {
   const { loadConfig, DEFAULT_CONFIG_FILE } = await daemonModules();
@@ -147,13 +156,17 @@ export function describe(e: WireEvent): string | undefined {
     case 'fit': {
       if (!e.final) return undefined;
       if (!e.fit) return `sweep ${e.sweep}: no fit (${e.error})`;
-      const p = Object.entries(e.fit.parameters).slice(0, 3).map(([k, v]) => `${k} = ${formatParameterText(v, k)}${v.stdErr === null || !Number.isFinite(v.stdErr) ? ' (uncertainty not determined)' : ''}`);
+      const p = Object.entries(e.fit.parameters)
+        .slice(0, 3)
+        .map(([k, v]) => `${k} = ${formatParameterText(v, k)}${v.stdErr === null || !Number.isFinite(v.stdErr) ? ' (uncertainty not determined)' : ''}`);
       // A wrong answer is never silent: an implausible fit says so, with every warning.
       const head = `sweep ${e.sweep}: ${e.fit.model} fit on ${e.fit.line.n} points, ${p.join(', ')}${e.fit.plausible ? '' : ' — NOT PLAUSIBLE'}`;
       return [head, ...e.fit.warnings.map((w) => `         warning: ${w}`)].join('\n');
     }
     case 'drift':
-      return e.state === 'baseline' || e.state === 'no-value' ? undefined : `         drift of ${e.parameter}: ${e.state} (${e.method} ${formatNumber(e.statistic ?? Number.NaN, 5)}, limits ${formatNumber(e.lower ?? Number.NaN, 5)} … ${formatNumber(e.upper ?? Number.NaN, 5)})`;
+      return e.state === 'baseline' || e.state === 'no-value'
+        ? undefined
+        : `         drift of ${e.parameter}: ${e.state} (${e.method} ${formatNumber(e.statistic ?? Number.NaN, 5)}, limits ${formatNumber(e.lower ?? Number.NaN, 5)} … ${formatNumber(e.upper ?? Number.NaN, 5)})`;
     case 'output':
       if (e.queried) {
         if (e.on) return `output ON, confirmed by the instrument — ${e.reason}`;
@@ -176,4 +189,3 @@ export function describe(e: WireEvent): string | undefined {
       return undefined;
   }
 }
-

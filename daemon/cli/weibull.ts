@@ -16,7 +16,12 @@ import { archiveLot, withArchiveSelection, type ArchiveSelectionOptions } from '
 const SURVIVOR_COLUMNS = /^(censored|survived|survivor|suspended)$/i;
 
 /** A CSV that is not a results file: one value per device in the --quantity column. */
-function genericSample(file: string, text: string, quantity: string | undefined, unit: string | undefined): Omit<BreakdownSample, 'area' | 'areaFactor' | 'notes'> & { areas: (number | undefined)[] } {
+function genericSample(
+  file: string,
+  text: string,
+  quantity: string | undefined,
+  unit: string | undefined,
+): Omit<BreakdownSample, 'area' | 'areaFactor' | 'notes'> & { areas: (number | undefined)[] } {
   const table = parseCsvTable(text, file, 1);
   const survivorCol = table.headers.findIndex((h) => SURVIVOR_COLUMNS.test(h));
   const areaCol = table.headers.findIndex((h) => /^area$/i.test(h));
@@ -24,7 +29,8 @@ function genericSample(file: string, text: string, quantity: string | undefined,
   if (quantity !== undefined) qi = columnIndex(table, quantity, '--quantity');
   else {
     const candidates = table.headers.map((_, k) => k).filter((k) => k !== survivorCol && k !== areaCol && table.firstText[k] === undefined);
-    if (candidates.length !== 1) throw new CsvError(file, undefined, undefined, `--quantity: name the column that holds the values (columns: ${table.headers.join(', ')})`);
+    if (candidates.length !== 1)
+      throw new CsvError(file, undefined, undefined, `--quantity: name the column that holds the values (columns: ${table.headers.join(', ')})`);
     qi = candidates[0];
   }
   requireNumeric(table, qi);
@@ -88,7 +94,9 @@ export async function gatherSample(inputs: string[], o: WeibullCliOptions, refer
     rows.push(...lotResults(devices));
     for (const d of devices) for (const p of d.problems) process.stderr.write(`plumbline weibull: ${d.session}: ${p}\n`);
     if (rows.length === 0 && files.length === 0) {
-      throw new UsageError(`no per-device breakdown results (${DEVICE_RESULTS_FILE}) in ${lot.description}: weibull reads the results of ramp and constant-stress tests, or a CSV with one value per device`);
+      throw new UsageError(
+        `no per-device breakdown results (${DEVICE_RESULTS_FILE}) in ${lot.description}: weibull reads the results of ramp and constant-stress tests, or a CSV with one value per device`,
+      );
     }
   }
   const generic: ReturnType<typeof genericSample>[] = [];
@@ -112,9 +120,13 @@ export async function gatherSample(inputs: string[], o: WeibullCliOptions, refer
       throw e;
     }
   }
-  if (o.test !== undefined) throw new UsageError(`--test '${o.test}': only results files and session folders name their kind of test; a plain CSV is taken as one sample`);
+  if (o.test !== undefined)
+    throw new UsageError(`--test '${o.test}': only results files and session folders name their kind of test; a plain CSV is taken as one sample`);
   // Plain CSVs: concatenated; per-device areas become area factors.
-  const a = referenceAreas(generic.flatMap((g) => g.areas), referenceArea);
+  const a = referenceAreas(
+    generic.flatMap((g) => g.areas),
+    referenceArea,
+  );
   return {
     values: generic.flatMap((g) => g.values),
     censored: generic.flatMap((g) => g.censored),
@@ -144,50 +156,75 @@ function formatReport(r: WeibullReport, s: BreakdownSample): string {
   const lines: string[] = [];
   lines.push(`Weibull analysis of ${s.title}: ${r.n} device(s), ${r.failures} broke down, ${r.censored} survived (right-censored)`);
   lines.push(`  shape β = ${+r.shape.value.toPrecision(4)}    ${pct} bounds ${+r.shape.low.toPrecision(4)} … ${+r.shape.high.toPrecision(4)}`);
-  lines.push(`  scale η = ${formatQuantity(r.scale.value, r.scale.unit, undefined, 5)}    ${pct} bounds ${formatQuantity(r.scale.low, r.scale.unit, undefined, 4)} … ${formatQuantity(r.scale.high, r.scale.unit, undefined, 4)}  (63.2 % broken down${r.area !== null ? `, devices of ${formatQuantity(r.area, 'm^2', undefined, 4)}` : ''})`);
-  lines.push(`  1 % point = ${formatQuantity(r.onePercent.value, r.onePercent.unit, undefined, 4)}    bounds ${formatQuantity(r.onePercent.low, r.onePercent.unit, undefined, 4)} … ${formatQuantity(r.onePercent.high, r.onePercent.unit, undefined, 4)}`);
+  lines.push(
+    `  scale η = ${formatQuantity(r.scale.value, r.scale.unit, undefined, 5)}    ${pct} bounds ${formatQuantity(r.scale.low, r.scale.unit, undefined, 4)} … ${formatQuantity(r.scale.high, r.scale.unit, undefined, 4)}  (63.2 % broken down${r.area !== null ? `, devices of ${formatQuantity(r.area, 'm^2', undefined, 4)}` : ''})`,
+  );
+  lines.push(
+    `  1 % point = ${formatQuantity(r.onePercent.value, r.onePercent.unit, undefined, 4)}    bounds ${formatQuantity(r.onePercent.low, r.onePercent.unit, undefined, 4)} … ${formatQuantity(r.onePercent.high, r.onePercent.unit, undefined, 4)}`,
+  );
   if (r.areaScaling) {
     const a = r.areaScaling;
-    lines.push(`  η scaled to ${formatQuantity(a.toArea, 'm^2', undefined, 4)} = ${formatQuantity(a.scale.value, a.scale.unit, undefined, 5)}    bounds ${formatQuantity(a.scale.low, a.scale.unit, undefined, 4)} … ${formatQuantity(a.scale.high, a.scale.unit, undefined, 4)}  (η₂ = η₁·(A₁/A₂)^(1/β), β unchanged)`);
+    lines.push(
+      `  η scaled to ${formatQuantity(a.toArea, 'm^2', undefined, 4)} = ${formatQuantity(a.scale.value, a.scale.unit, undefined, 5)}    bounds ${formatQuantity(a.scale.low, a.scale.unit, undefined, 4)} … ${formatQuantity(a.scale.high, a.scale.unit, undefined, 4)}  (η₂ = η₁·(A₁/A₂)^(1/β), β unchanged)`,
+    );
   }
-  lines.push(`  method: maximum likelihood; ${r.bounds.method === 'likelihood-ratio' ? 'likelihood-ratio' : 'Fisher-matrix'} bounds (two-sided ${pct}); log-likelihood ${r.logLikelihood.toFixed(4)}`);
+  lines.push(
+    `  method: maximum likelihood; ${r.bounds.method === 'likelihood-ratio' ? 'likelihood-ratio' : 'Fisher-matrix'} bounds (two-sided ${pct}); log-likelihood ${r.logLikelihood.toFixed(4)}`,
+  );
   if (r.goodnessOfFit) {
     const g = r.goodnessOfFit;
-    lines.push(`  goodness of fit: Anderson–Darling A²·(1 + 0.2/√n) = ${g.modified.toFixed(3)} (5 % critical value ${g.critical['0.05']}) — ${g.rejected ? 'one Weibull does NOT describe these values' : 'consistent with one Weibull'}`);
+    lines.push(
+      `  goodness of fit: Anderson–Darling A²·(1 + 0.2/√n) = ${g.modified.toFixed(3)} (5 % critical value ${g.critical['0.05']}) — ${g.rejected ? 'one Weibull does NOT describe these values' : 'consistent with one Weibull'}`,
+    );
   } else lines.push('  goodness of fit: not computed with survivors (see the bend test and the plot)');
-  if (r.bend) lines.push(`  bend test: best two-branch split after ${r.bend.lower} failures, p = ${r.bend.pValue.toPrecision(2)} (${r.bend.bootstrap} simulated lots)`);
+  if (r.bend)
+    lines.push(`  bend test: best two-branch split after ${r.bend.lower} failures, p = ${r.bend.pValue.toPrecision(2)} (${r.bend.bootstrap} simulated lots)`);
   for (const n of s.notes) lines.push(`  note: ${n}`);
   for (const w of r.warnings) lines.push(`  WARNING: ${w}`);
   lines.push('  Weibull plot (median ranks, Bernard): x, F, ln(−ln(1−F))');
-  for (const p of r.points) lines.push(`    ${formatQuantity(p.x, r.scale.unit, undefined, 6).padStart(16)}  ${p.F.toFixed(4)}  ${Math.log(-Math.log1p(-p.F)).toFixed(4)}`);
+  for (const p of r.points)
+    lines.push(`    ${formatQuantity(p.x, r.scale.unit, undefined, 6).padStart(16)}  ${p.F.toFixed(4)}  ${Math.log(-Math.log1p(-p.F)).toFixed(4)}`);
   return lines.join('\n');
 }
 
 export function registerWeibull(program: Command): void {
-  withArchiveSelection(program
-    .command('weibull')
-    .description('Weibull statistics of breakdown values across devices: shape and scale by maximum likelihood with bounds, median-rank plot, goodness of fit, two-population warning, area scaling')
-    .argument('[input...]', 'session folders or data folders (their device-results.csv), results files, or CSV files with one value per device (or --postgres with a selection)')
-    .option('--quantity <name>', `results: ${Object.keys(RESULT_QUANTITIES).join(' | ')} (default field); other CSVs: the column with the values`)
-    .option('--test <kind>', 'results: the kind of test to analyse (voltage-ramp | current-ramp | constant-voltage | constant-current), or all to pool them; needed when the results hold several')
-    .option('--area <q>', 'device area (or the reference area when devices differ), e.g. "1e-4 cm^2"')
-    .option('--to-area <q>', 'scale η to this area through β (Poisson area scaling), e.g. "1 cm^2"')
-    .option('--confidence <c>', 'two-sided confidence of the bounds', '0.9')
-    .option('--bounds <method>', 'lr (likelihood ratio, default) or fisher (Fisher matrix)', 'lr')
-    .option('--unit <u>', 'plain CSVs: the SI unit of the values (V/m, C/m^2, s, V), for display')
-    .option('--no-cache', 'session folders: read every journal again instead of the cached summaries')
-    .option('--json', 'print exactly one JSON object'))
-    .action(async (inputs: string[], o: WeibullCliOptions) => {
-      const { parseQuantity } = await import('../quantity.js');
-      const confidence = readConfidence(o.confidence);
-      const bounds = readBounds(o.bounds);
-      const area = o.area !== undefined ? parseQuantity(o.area, 'area', '--area') : undefined;
-      const toArea = o.toArea !== undefined ? parseQuantity(o.toArea, 'area', '--to-area') : undefined;
-      const s = await gatherSample(inputs, o, area);
-      if (toArea !== undefined && s.area === undefined) throw new UsageError('--to-area needs the devices\' area: give --area (or an area column / device area in the sessions)');
-      const r = analyzeWeibull({ values: s.values, censored: s.censored, areaFactor: s.areaFactor }, { confidence, bounds, unit: s.unit, area: s.area, toArea, display: (v) => formatQuantity(v, s.unit, undefined, 4) });
-      const report = { ...r, quantity: s.title, notes: s.notes };
-      if (o.json) process.stdout.write(`${JSON.stringify(report)}\n`);
-      else process.stdout.write(`${formatReport(r, s)}\n`);
-    });
+  withArchiveSelection(
+    program
+      .command('weibull')
+      .description(
+        'Weibull statistics of breakdown values across devices: shape and scale by maximum likelihood with bounds, median-rank plot, goodness of fit, two-population warning, area scaling',
+      )
+      .argument(
+        '[input...]',
+        'session folders or data folders (their device-results.csv), results files, or CSV files with one value per device (or --postgres with a selection)',
+      )
+      .option('--quantity <name>', `results: ${Object.keys(RESULT_QUANTITIES).join(' | ')} (default field); other CSVs: the column with the values`)
+      .option(
+        '--test <kind>',
+        'results: the kind of test to analyse (voltage-ramp | current-ramp | constant-voltage | constant-current), or all to pool them; needed when the results hold several',
+      )
+      .option('--area <q>', 'device area (or the reference area when devices differ), e.g. "1e-4 cm^2"')
+      .option('--to-area <q>', 'scale η to this area through β (Poisson area scaling), e.g. "1 cm^2"')
+      .option('--confidence <c>', 'two-sided confidence of the bounds', '0.9')
+      .option('--bounds <method>', 'lr (likelihood ratio, default) or fisher (Fisher matrix)', 'lr')
+      .option('--unit <u>', 'plain CSVs: the SI unit of the values (V/m, C/m^2, s, V), for display')
+      .option('--no-cache', 'session folders: read every journal again instead of the cached summaries')
+      .option('--json', 'print exactly one JSON object'),
+  ).action(async (inputs: string[], o: WeibullCliOptions) => {
+    const { parseQuantity } = await import('../quantity.js');
+    const confidence = readConfidence(o.confidence);
+    const bounds = readBounds(o.bounds);
+    const area = o.area !== undefined ? parseQuantity(o.area, 'area', '--area') : undefined;
+    const toArea = o.toArea !== undefined ? parseQuantity(o.toArea, 'area', '--to-area') : undefined;
+    const s = await gatherSample(inputs, o, area);
+    if (toArea !== undefined && s.area === undefined)
+      throw new UsageError("--to-area needs the devices' area: give --area (or an area column / device area in the sessions)");
+    const r = analyzeWeibull(
+      { values: s.values, censored: s.censored, areaFactor: s.areaFactor },
+      { confidence, bounds, unit: s.unit, area: s.area, toArea, display: (v) => formatQuantity(v, s.unit, undefined, 4) },
+    );
+    const report = { ...r, quantity: s.title, notes: s.notes };
+    if (o.json) process.stdout.write(`${JSON.stringify(report)}\n`);
+    else process.stdout.write(`${formatReport(r, s)}\n`);
+  });
 }

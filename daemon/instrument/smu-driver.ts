@@ -54,7 +54,10 @@ export class SmuDriver {
   /** What the source forces: a voltage (the usual) or a current (current ramps). */
   private mode: 'voltage' | 'current' = 'voltage';
 
-  constructor(readonly session: ScpiSession, readonly dialect: Dialect) {}
+  constructor(
+    readonly session: ScpiSession,
+    readonly dialect: Dialect,
+  ) {}
 
   async identify(): Promise<string> {
     return this.session.query(this.dialect.commands.identify);
@@ -145,8 +148,14 @@ export class SmuDriver {
     await this.session.checkErrors('turning the output on');
     this.checkFence('the output-on check');
     const reply = await this.session.query(this.dialect.commands.outputQuery);
-    if (!STATE_REPLY.test(reply.trim())) throw new OutOfStepError(`the reply to '${this.dialect.commands.outputQuery}' was '${reply.slice(0, 80)}', not an output state (0/1 or OFF/ON): replies are out of step with the queries`);
-    if (!parseState(reply)) throw new OutOfStepError(`the instrument reports its output off ('${this.dialect.commands.outputQuery}' → '${reply.trim()}') right after output on (an interlock open?)`);
+    if (!STATE_REPLY.test(reply.trim()))
+      throw new OutOfStepError(
+        `the reply to '${this.dialect.commands.outputQuery}' was '${reply.slice(0, 80)}', not an output state (0/1 or OFF/ON): replies are out of step with the queries`,
+      );
+    if (!parseState(reply))
+      throw new OutOfStepError(
+        `the instrument reports its output off ('${this.dialect.commands.outputQuery}' → '${reply.trim()}') right after output on (an interlock open?)`,
+      );
   }
 
   /** Output off through the command queue (the normal end of a run). Never throws; resolves whether the bytes were written. */
@@ -206,7 +215,9 @@ export class SmuDriver {
     const parsed = parseReading(raw, d.readFields);
     if (!parsed.ok) {
       if (parsed.reason === 'field count') {
-        throw new OutOfStepError(`the reply to '${d.commands.measure}' was '${raw.slice(0, 120)}': ${raw.split(',').length} field(s) where the dialect expects ${d.readFields.length} (${d.readFields.join(', ')}): replies are out of step with the queries`);
+        throw new OutOfStepError(
+          `the reply to '${d.commands.measure}' was '${raw.slice(0, 120)}': ${raw.split(',').length} field(s) where the dialect expects ${d.readFields.length} (${d.readFields.join(', ')}): replies are out of step with the queries`,
+        );
       }
       this.rejects.add(parsed.reason);
       return { reading: undefined, raw, compliance: false, rejectReason: REJECT_MEANING[parsed.reason] };
@@ -252,16 +263,20 @@ export class SmuDriver {
     for (;;) {
       const reply = (await this.session.query(p.busyQuery)).trim();
       const word = Number(reply);
-      if (!Number.isFinite(word)) throw new OutOfStepError(`the reply to '${p.busyQuery}' was '${reply.slice(0, 80)}', not a status word: replies are out of step with the queries`);
+      if (!Number.isFinite(word))
+        throw new OutOfStepError(`the reply to '${p.busyQuery}' was '${reply.slice(0, 80)}', not a status word: replies are out of step with the queries`);
       if ((Math.round(word) & p.busyMask) === 0) break;
-      if (performance.now() - t0 > budget) throw new ScpiTimeoutError(`the instrument-paced block of ${levels.length} points did not finish within ${Math.round(budget)} ms`);
+      if (performance.now() - t0 > budget)
+        throw new ScpiTimeoutError(`the instrument-paced block of ${levels.length} points did not finish within ${Math.round(budget)} ms`);
       await sleep(pollMs);
     }
     const raw = await this.session.query(p.fetch);
     const fields = raw.split(',');
     const per = d.readFields.length;
     if (fields.length !== per * levels.length) {
-      throw new OutOfStepError(`the reply to '${p.fetch}' holds ${fields.length} fields where ${levels.length} readings of ${per} (${d.readFields.join(', ')}) were expected: replies are out of step with the queries`);
+      throw new OutOfStepError(
+        `the reply to '${p.fetch}' holds ${fields.length} fields where ${levels.length} readings of ${per} (${d.readFields.join(', ')}) were expected: replies are out of step with the queries`,
+      );
     }
     const out: Measurement[] = [];
     for (let k = 0; k < levels.length; k++) {
@@ -289,18 +304,20 @@ export class SmuDriver {
       if (compliance || !Number.isFinite(r.i)) return;
       const tol = 1e-12 + Math.max(0.01, this.dialect.readback.relative) * Math.abs(set);
       if (Math.abs(r.i - set) > tol) {
-        throw new OutOfStepError(`the reply '${raw.slice(0, 120)}' reports ${r.i} A while ${set} A is forced: the reply belongs to another point — replies are out of step with the commands`);
+        throw new OutOfStepError(
+          `the reply '${raw.slice(0, 120)}' reports ${r.i} A while ${set} A is forced: the reply belongs to another point — replies are out of step with the commands`,
+        );
       }
       return;
     }
     if (!Number.isFinite(r.v)) return;
     const tol = this.dialect.readback.absolute + this.dialect.readback.relative * Math.abs(set);
     // At compliance the source cannot hold the level: the bias falls toward zero, never beyond it.
-    const fits = compliance
-      ? Math.abs(r.v) <= Math.abs(set) + tol && (r.v * set >= 0 || Math.abs(r.v) <= tol)
-      : Math.abs(r.v - set) <= tol;
+    const fits = compliance ? Math.abs(r.v) <= Math.abs(set) + tol && (r.v * set >= 0 || Math.abs(r.v) <= tol) : Math.abs(r.v - set) <= tol;
     if (!fits) {
-      throw new OutOfStepError(`the reply '${raw.slice(0, 120)}' reports ${r.v} V while ${set} V is programmed (more than ±${tol.toPrecision(3)} V apart${compliance ? ', at compliance' : ''}): the reply belongs to another point — replies are out of step with the commands`);
+      throw new OutOfStepError(
+        `the reply '${raw.slice(0, 120)}' reports ${r.v} V while ${set} V is programmed (more than ±${tol.toPrecision(3)} V apart${compliance ? ', at compliance' : ''}): the reply belongs to another point — replies are out of step with the commands`,
+      );
     }
   }
 }

@@ -41,7 +41,12 @@ export function csvUnitTag(unit: string): string {
       (up ? num : den).push(tag);
     }
   });
-  if (!simple) return u.replace(/\//g, '_per_').replace(/[*·]/g, '_').replace(/[\^()]/g, '').replace(/-/g, 'neg');
+  if (!simple)
+    return u
+      .replace(/\//g, '_per_')
+      .replace(/[*·]/g, '_')
+      .replace(/[\^()]/g, '')
+      .replace(/-/g, 'neg');
   return [num.join('_'), den.length ? `per_${den.join('_')}` : ''].filter(Boolean).join('_');
 }
 
@@ -120,7 +125,9 @@ export function exportSession(sessionDir: string, outDir = join(sessionDir, 'exp
           const r = row(e.sweep);
           r.readings++;
           if (e.flags & FLAG.compliance) r.complianceReadings++;
-          pending.push(`${qs},${e.sweep},${e.k},${e.seq},${e.t},${csvField(e.v)},${csvField(e.i)},${e.flags & FLAG.compliance ? 1 : 0},${e.flags & FLAG.overflow ? 1 : 0},${e.flags & FLAG.voltageOverflow ? 1 : 0},${e.flags & FLAG.breakdown ? 1 : 0}\n`);
+          pending.push(
+            `${qs},${e.sweep},${e.k},${e.seq},${e.t},${csvField(e.v)},${csvField(e.i)},${e.flags & FLAG.compliance ? 1 : 0},${e.flags & FLAG.overflow ? 1 : 0},${e.flags & FLAG.voltageOverflow ? 1 : 0},${e.flags & FLAG.breakdown ? 1 : 0}\n`,
+          );
           if (pending.length >= 4096) flush();
           break;
         }
@@ -176,22 +183,73 @@ export function exportSession(sessionDir: string, outDir = join(sessionDir, 'exp
   for (const r of rows) for (const [k, p] of Object.entries(r.fit?.parameters ?? {})) if (!paramCols.has(k)) paramCols.set(k, p.unit);
   const paramHeader = (k: string, u: string) => `${k}${csvUnitTag(u) ? `_${csvUnitTag(u)}` : ''}`;
   const header = [
-    'session', 'sweep', 'readings', 'compliance_readings', 'complete', 'note', 'model', 'window_from_V', 'window_to_V', 'fit_points',
-    'slope', 'slope_se', 'intercept', 'intercept_se', 'r2', 'residual_sd', 'slope_unit', 'intercept_unit', 'plausible', 'fit_error',
+    'session',
+    'sweep',
+    'readings',
+    'compliance_readings',
+    'complete',
+    'note',
+    'model',
+    'window_from_V',
+    'window_to_V',
+    'fit_points',
+    'slope',
+    'slope_se',
+    'intercept',
+    'intercept_se',
+    'r2',
+    'residual_sd',
+    'slope_unit',
+    'intercept_unit',
+    'plausible',
+    'fit_error',
     ...[...paramCols].flatMap(([k, u]) => [paramHeader(k, u), `${k}_se`]),
-    'drift_parameter', 'drift_method', 'drift_statistic', 'drift_lower', 'drift_upper', 'drift_state', 'annotations',
+    'drift_parameter',
+    'drift_method',
+    'drift_statistic',
+    'drift_lower',
+    'drift_upper',
+    'drift_state',
+    'annotations',
   ];
   const lines = [header.join(',')];
   for (const r of rows) {
     const f = r.fit;
     const d = r.drift;
-    lines.push([
-      session, r.sweep, r.readings, r.complianceReadings, r.complete, r.note, f?.model, f?.window.from, f?.window.to, f?.line.n,
-      f?.line.slope, f?.line.slopeStdErr, f?.line.intercept, f?.line.interceptStdErr, f?.line.r2, f?.line.residualStdDev,
-      f ? lineUnits(f.axes).slope : undefined, f ? lineUnits(f.axes).intercept : undefined, f?.plausible, r.fitError,
-      ...[...paramCols.keys()].flatMap((k) => [f?.parameters[k]?.value, f?.parameters[k]?.stdErr]),
-      d?.parameter, d?.method, d?.statistic, d?.lower, d?.upper, d?.state, r.annotations.join(' | '),
-    ].map(csvField).join(','));
+    lines.push(
+      [
+        session,
+        r.sweep,
+        r.readings,
+        r.complianceReadings,
+        r.complete,
+        r.note,
+        f?.model,
+        f?.window.from,
+        f?.window.to,
+        f?.line.n,
+        f?.line.slope,
+        f?.line.slopeStdErr,
+        f?.line.intercept,
+        f?.line.interceptStdErr,
+        f?.line.r2,
+        f?.line.residualStdDev,
+        f ? lineUnits(f.axes).slope : undefined,
+        f ? lineUnits(f.axes).intercept : undefined,
+        f?.plausible,
+        r.fitError,
+        ...[...paramCols.keys()].flatMap((k) => [f?.parameters[k]?.value, f?.parameters[k]?.stdErr]),
+        d?.parameter,
+        d?.method,
+        d?.statistic,
+        d?.lower,
+        d?.upper,
+        d?.state,
+        r.annotations.join(' | '),
+      ]
+        .map(csvField)
+        .join(','),
+    );
   }
   writeFileSync(join(outDir, 'sweeps.csv'), `${lines.join('\n')}\n`);
   meta.readings = readings;
@@ -206,14 +264,53 @@ export function exportSession(sessionDir: string, outDir = join(sessionDir, 'exp
   const driftParams = new Set(rows.map((r) => r.drift?.parameter).filter((p): p is string => p !== undefined));
   const driftUnit = driftParams.size === 1 ? (paramCols.get([...driftParams][0]) ?? null) : 'the unit of drift_parameter (parameterUnits)';
   meta.columns = {
-    'points.csv': { session: null, sweep: '', point: '', seq: '', t_ms: 'ms', voltage_V: 'V', current_A: 'A', compliance: null, overflow: null, voltage_overflow: null, breakdown: null },
+    'points.csv': {
+      session: null,
+      sweep: '',
+      point: '',
+      seq: '',
+      t_ms: 'ms',
+      voltage_V: 'V',
+      current_A: 'A',
+      compliance: null,
+      overflow: null,
+      voltage_overflow: null,
+      breakdown: null,
+    },
     'sweeps.csv': {
-      session: null, sweep: '', readings: '', compliance_readings: '', complete: null, note: null, model: null, window_from_V: 'V', window_to_V: 'V', fit_points: '',
-      slope: lu?.slope ?? perRow('slope_unit'), slope_se: lu?.slope ?? perRow('slope_unit'),
-      intercept: lu?.intercept ?? perRow('intercept_unit'), intercept_se: lu?.intercept ?? perRow('intercept_unit'),
-      r2: '', residual_sd: lu?.residual ?? 'the y axis of the row\'s plot (ln units when it is logarithmic)', slope_unit: null, intercept_unit: null, plausible: null, fit_error: null,
-      ...Object.fromEntries([...paramCols].flatMap(([k, u]) => [[paramHeader(k, u), u === '1' ? '' : u], [`${k}_se`, u === '1' ? '' : u]])),
-      drift_parameter: null, drift_method: null, drift_statistic: driftUnit, drift_lower: driftUnit, drift_upper: driftUnit, drift_state: null, annotations: null,
+      session: null,
+      sweep: '',
+      readings: '',
+      compliance_readings: '',
+      complete: null,
+      note: null,
+      model: null,
+      window_from_V: 'V',
+      window_to_V: 'V',
+      fit_points: '',
+      slope: lu?.slope ?? perRow('slope_unit'),
+      slope_se: lu?.slope ?? perRow('slope_unit'),
+      intercept: lu?.intercept ?? perRow('intercept_unit'),
+      intercept_se: lu?.intercept ?? perRow('intercept_unit'),
+      r2: '',
+      residual_sd: lu?.residual ?? "the y axis of the row's plot (ln units when it is logarithmic)",
+      slope_unit: null,
+      intercept_unit: null,
+      plausible: null,
+      fit_error: null,
+      ...Object.fromEntries(
+        [...paramCols].flatMap(([k, u]) => [
+          [paramHeader(k, u), u === '1' ? '' : u],
+          [`${k}_se`, u === '1' ? '' : u],
+        ]),
+      ),
+      drift_parameter: null,
+      drift_method: null,
+      drift_statistic: driftUnit,
+      drift_lower: driftUnit,
+      drift_upper: driftUnit,
+      drift_state: null,
+      annotations: null,
     },
   };
   meta.annotations = annotations;

@@ -45,11 +45,16 @@ export class JournalWriteError extends JournalError {
 /** Plain words for the usual write failures. */
 function writeFailure(dir: string, e: unknown): JournalWriteError {
   const err = e as NodeJS.ErrnoException;
-  const what = err.code === 'ENOSPC' ? 'no space left on the disk'
-    : err.code === 'EDQUOT' ? 'the disk quota is used up'
-    : err.code === 'EIO' ? 'an input/output error on the disk'
-    : err.code === 'EROFS' ? 'the file system is read-only'
-    : err.message;
+  const what =
+    err.code === 'ENOSPC'
+      ? 'no space left on the disk'
+      : err.code === 'EDQUOT'
+        ? 'the disk quota is used up'
+        : err.code === 'EIO'
+          ? 'an input/output error on the disk'
+          : err.code === 'EROFS'
+            ? 'the file system is read-only'
+            : err.message;
   return new JournalWriteError(`cannot write the journal in ${dir}: ${what} (${err.code ?? 'error'}); free space or fix the disk, then start a new run`);
 }
 
@@ -91,7 +96,12 @@ export class JournalWriter {
   /** Called once, when a write first fails (also from the background flush timer). */
   onError: ((e: JournalWriteError) => void) | undefined;
 
-  private constructor(readonly dir: string, startSeq: number, t0: number, private readonly lock: boolean) {
+  private constructor(
+    readonly dir: string,
+    startSeq: number,
+    t0: number,
+    private readonly lock: boolean,
+  ) {
     this.fd = openSync(join(dir, JOURNAL_FILE), 'a');
     this.rfd = openSync(join(dir, READINGS_FILE), 'a');
     this.eventBytes = fstatSync(this.fd).size;

@@ -15,7 +15,8 @@ import { displayUnit, formatQuantity } from '../../protocols/display-units.js';
 import { breakdownSample, LotRequestError, lotResults, type BreakdownSample, type DeviceSummary, type LotSource } from './lot.js';
 
 const esc = (s: unknown) => String(s).replace(/&/g, '&amp;').replace(/</g, '&lt;').replace(/>/g, '&gt;').replace(/"/g, '&quot;');
-const num = (v: number | undefined, d = 4) => (v === undefined || !Number.isFinite(v) ? '—' : Math.abs(v) >= 1e4 || (Math.abs(v) < 1e-2 && v !== 0) ? v.toExponential(d - 1) : String(+v.toPrecision(d)));
+const num = (v: number | undefined, d = 4) =>
+  v === undefined || !Number.isFinite(v) ? '—' : Math.abs(v) >= 1e4 || (Math.abs(v) < 1e-2 && v !== 0) ? v.toExponential(d - 1) : String(+v.toPrecision(d));
 
 export interface LotOptions {
   /** Parameter (or breakdown quantity: field, voltage, charge, time) for the wafer map. */
@@ -65,7 +66,12 @@ export interface LotAnalysis {
   readonly sample: BreakdownSample | null;
 }
 
-const BREAKDOWN_KEYS: Record<string, string> = { breakdownField: 'breakdown field', breakdownVoltage: 'breakdown voltage', chargeToBreakdown: 'charge to breakdown', timeToBreakdown: 'time to breakdown' };
+const BREAKDOWN_KEYS: Record<string, string> = {
+  breakdownField: 'breakdown field',
+  breakdownVoltage: 'breakdown voltage',
+  chargeToBreakdown: 'charge to breakdown',
+  timeToBreakdown: 'time to breakdown',
+};
 const BREAKDOWN_UNITS: Record<string, string> = { breakdownField: 'V/m', breakdownVoltage: 'V', chargeToBreakdown: 'C/m^2', timeToBreakdown: 's' };
 
 /** The lot's rows: one per session, or one per results row when a session tested several devices. */
@@ -78,7 +84,16 @@ export function lotRows(devices: readonly DeviceSummary[]): LotRow[] {
     const mine = results.filter((r) => r.session === d.session);
     const id = d.identity;
     if (mine.length === 0) {
-      rows.push({ session: d.session, device: id.device ?? d.session, wafer: id.wafer ?? '', site: id.site ?? '', x: id.x, y: id.y, values: params, outcome: d.outcome });
+      rows.push({
+        session: d.session,
+        device: id.device ?? d.session,
+        wafer: id.wafer ?? '',
+        site: id.site ?? '',
+        x: id.x,
+        y: id.y,
+        values: params,
+        outcome: d.outcome,
+      });
       continue;
     }
     for (const r of mine) {
@@ -87,7 +102,16 @@ export function lotRows(devices: readonly DeviceSummary[]): LotRow[] {
         const v = r[key as keyof typeof r];
         if (typeof v === 'number') values[title] = { value: v, unit: BREAKDOWN_UNITS[key] };
       }
-      rows.push({ session: d.session, device: r.device, wafer: r.wafer ?? id.wafer ?? '', site: r.site ?? id.site ?? '', x: r.x ?? id.x, y: r.y ?? id.y, values, outcome: r.outcome });
+      rows.push({
+        session: d.session,
+        device: r.device,
+        wafer: r.wafer ?? id.wafer ?? '',
+        site: r.site ?? id.site ?? '',
+        x: r.x ?? id.x,
+        y: r.y ?? id.y,
+        values,
+        outcome: r.outcome,
+      });
     }
   }
   return rows;
@@ -127,7 +151,14 @@ export async function analyzeLot(source: LotSource, o: LotOptions = {}): Promise
     try {
       const s: BreakdownSample = breakdownSample(results, q, o.area, o.test);
       sample = s;
-      weibull = { ...analyzeWeibull({ values: s.values, censored: s.censored, areaFactor: s.areaFactor }, { confidence: o.confidence ?? 0.9, unit: s.unit, area: s.area, display: (v) => formatQuantity(v, s.unit, undefined, 4) }), quantity: s.title, notes: s.notes };
+      weibull = {
+        ...analyzeWeibull(
+          { values: s.values, censored: s.censored, areaFactor: s.areaFactor },
+          { confidence: o.confidence ?? 0.9, unit: s.unit, area: s.area, display: (v) => formatQuantity(v, s.unit, undefined, 4) },
+        ),
+        quantity: s.title,
+        notes: s.notes,
+      };
     } catch (e) {
       weibullError = (e as Error).message;
     }
@@ -183,22 +214,32 @@ function boxStrip(p: ParameterStats, rows: LotRow[]): string {
   const rowH = 44;
   const H = 40 + groups.size * rowH + 30;
   const px = (v: number) => L + ((v - lo) / (hi - lo)) * (W - L - R);
-  const parts = [`<svg class="chart" xmlns="http://www.w3.org/2000/svg" width="${W}" height="${H}" viewBox="0 0 ${W} ${H}" role="img" aria-label="${esc(p.name)} distribution">`];
-  parts.push(`<text x="${L}" y="16" class="t">${esc(p.name)}${d.unit ? ` (${esc(d.unit)})` : ''}: box = quartiles, bar = median, whiskers to 1.5 IQR; ● devices, ◇ outliers (|robust z| &gt; ${OUTLIER_Z})</text>`);
+  const parts = [
+    `<svg class="chart" xmlns="http://www.w3.org/2000/svg" width="${W}" height="${H}" viewBox="0 0 ${W} ${H}" role="img" aria-label="${esc(p.name)} distribution">`,
+  ];
+  parts.push(
+    `<text x="${L}" y="16" class="t">${esc(p.name)}${d.unit ? ` (${esc(d.unit)})` : ''}: box = quartiles, bar = median, whiskers to 1.5 IQR; ● devices, ◇ outliers (|robust z| &gt; ${OUTLIER_Z})</text>`,
+  );
   let k = 0;
   for (const [g, pts] of groups) {
     const yc = 40 + k * rowH + rowH / 2;
     const b = boxSummary(pts.map((q) => q.v));
     parts.push(`<text x="${L - 8}" y="${yc}" text-anchor="end" dominant-baseline="middle">${esc(g)} (${pts.length})</text>`);
     parts.push(`<line x1="${px(b.lowWhisker).toFixed(1)}" x2="${px(b.highWhisker).toFixed(1)}" y1="${yc}" y2="${yc}" stroke="#555"/>`);
-    parts.push(`<rect x="${px(b.q1).toFixed(1)}" y="${yc - 12}" width="${Math.max(1, px(b.q3) - px(b.q1)).toFixed(1)}" height="24" fill="rgba(86,180,233,0.25)" stroke="${OKABE_ITO.blue}"/>`);
-    parts.push(`<line x1="${px(b.median).toFixed(1)}" x2="${px(b.median).toFixed(1)}" y1="${yc - 12}" y2="${yc + 12}" stroke="${OKABE_ITO.black}" stroke-width="2.5"/>`);
+    parts.push(
+      `<rect x="${px(b.q1).toFixed(1)}" y="${yc - 12}" width="${Math.max(1, px(b.q3) - px(b.q1)).toFixed(1)}" height="24" fill="rgba(86,180,233,0.25)" stroke="${OKABE_ITO.blue}"/>`,
+    );
+    parts.push(
+      `<line x1="${px(b.median).toFixed(1)}" x2="${px(b.median).toFixed(1)}" y1="${yc - 12}" y2="${yc + 12}" stroke="${OKABE_ITO.black}" stroke-width="2.5"/>`,
+    );
     pts.forEach((q, j) => {
       const X = px(q.v).toFixed(1);
       const Y = (yc - 9 + ((j * 7) % 19)).toFixed(1);
-      parts.push(q.out
-        ? `<path d="M${X} ${+Y - 5}l5 5l-5 5l-5 -5z" fill="#fff" stroke="${OKABE_ITO.vermillion}" stroke-width="1.6"><title>${esc(q.label)}: ${num(q.v)} (outlier)</title></path>`
-        : `<circle cx="${X}" cy="${Y}" r="2.8" fill="${OKABE_ITO.orange}" stroke="#333" stroke-width="0.4"><title>${esc(q.label)}: ${num(q.v)}</title></circle>`);
+      parts.push(
+        q.out
+          ? `<path d="M${X} ${+Y - 5}l5 5l-5 5l-5 -5z" fill="#fff" stroke="${OKABE_ITO.vermillion}" stroke-width="1.6"><title>${esc(q.label)}: ${num(q.v)} (outlier)</title></path>`
+          : `<circle cx="${X}" cy="${Y}" r="2.8" fill="${OKABE_ITO.orange}" stroke="#333" stroke-width="0.4"><title>${esc(q.label)}: ${num(q.v)}</title></circle>`,
+      );
     });
     k++;
   }
@@ -216,7 +257,8 @@ function boxStrip(p: ParameterStats, rows: LotRow[]): string {
 /** Wafer map: each site a square at (x, y) coloured on the sequential ramp, its value written in it. */
 function waferMap(name: string, rows: LotRow[], outliers: Set<string>): string {
   const have = rows.filter((r) => r.x !== undefined && r.y !== undefined);
-  if (have.length === 0) return '<p class="note">No site has x, y coordinates: give them with the run (--x, --y) or in the results file to draw a wafer map.</p>';
+  if (have.length === 0)
+    return '<p class="note">No site has x, y coordinates: give them with the run (--x, --y) or in the results file to draw a wafer map.</p>';
   const wafers = new Map<string, LotRow[]>();
   for (const r of have) {
     const w = r.wafer || '(no wafer)';
@@ -242,7 +284,9 @@ function waferMap(name: string, rows: LotRow[], outliers: Set<string>): string {
     const cell = Math.max(26, Math.min(60, Math.floor(420 / Math.max(cols, rws))));
     const W = cols * cell + 40;
     const H = rws * cell + 60;
-    const parts = [`<svg class="chart" xmlns="http://www.w3.org/2000/svg" width="${W}" height="${H}" viewBox="0 0 ${W} ${H}" role="img" aria-label="wafer ${esc(w)}">`];
+    const parts = [
+      `<svg class="chart" xmlns="http://www.w3.org/2000/svg" width="${W}" height="${H}" viewBox="0 0 ${W} ${H}" role="img" aria-label="wafer ${esc(w)}">`,
+    ];
     parts.push(`<text x="20" y="16" class="t">wafer ${esc(w)}</text>`);
     const cx = 20 + (cols * cell) / 2;
     const cy = 30 + (rws * cell) / 2;
@@ -257,9 +301,15 @@ function waferMap(name: string, rows: LotRow[], outliers: Set<string>): string {
       const fill = has ? sequential(t(v)) : '#eeeeee';
       const textColour = has && t(v) > 0.55 ? '#000' : has ? '#fff' : '#555';
       // (a style, not a fill attribute: the report's stylesheet sets the chart text colour)
-      parts.push(`<g><title>${esc(r.device)}${r.site ? ` @ ${esc(r.site)}` : ''} (${r.x}, ${r.y}): ${has ? esc(formatQuantity(v, unit, undefined, 4)) : 'no value'}${isOut ? ' — outlier' : ''}</title>`);
-      parts.push(`<rect class="site" x="${X + 1}" y="${Y + 1}" width="${cell - 2}" height="${cell - 2}" fill="${fill}" stroke="${isOut ? OKABE_ITO.vermillion : '#fff'}" stroke-width="${isOut ? 3 : 1}"${has ? '' : ' stroke-dasharray="2 2"'}/>`);
-      parts.push(`<text x="${X + cell / 2}" y="${Y + cell / 2}" text-anchor="middle" dominant-baseline="middle" style="fill:${textColour}" font-size="${cell < 34 ? 8 : 10}">${has ? esc(num(v * d.scale, 3)) : '—'}${isOut ? '!' : ''}</text></g>`);
+      parts.push(
+        `<g><title>${esc(r.device)}${r.site ? ` @ ${esc(r.site)}` : ''} (${r.x}, ${r.y}): ${has ? esc(formatQuantity(v, unit, undefined, 4)) : 'no value'}${isOut ? ' — outlier' : ''}</title>`,
+      );
+      parts.push(
+        `<rect class="site" x="${X + 1}" y="${Y + 1}" width="${cell - 2}" height="${cell - 2}" fill="${fill}" stroke="${isOut ? OKABE_ITO.vermillion : '#fff'}" stroke-width="${isOut ? 3 : 1}"${has ? '' : ' stroke-dasharray="2 2"'}/>`,
+      );
+      parts.push(
+        `<text x="${X + cell / 2}" y="${Y + cell / 2}" text-anchor="middle" dominant-baseline="middle" style="fill:${textColour}" font-size="${cell < 34 ? 8 : 10}">${has ? esc(num(v * d.scale, 3)) : '—'}${isOut ? '!' : ''}</text></g>`,
+      );
     }
     parts.push('</svg>');
     out.push(parts.join(''));
@@ -267,7 +317,9 @@ function waferMap(name: string, rows: LotRow[], outliers: Set<string>): string {
   // Colour bar.
   const bar = [`<svg class="chart" xmlns="http://www.w3.org/2000/svg" width="320" height="46" viewBox="0 0 320 46" role="img" aria-label="colour scale">`];
   for (let k = 0; k < 60; k++) bar.push(`<rect x="${10 + k * 5}" y="6" width="5.5" height="14" fill="${sequential(k / 59)}"/>`);
-  bar.push(`<text x="10" y="34">${esc(num(vlo * d.scale, 4))}</text><text x="310" y="34" text-anchor="end">${esc(num(vhi * d.scale, 4))} ${esc(d.unit)}</text></svg>`);
+  bar.push(
+    `<text x="10" y="34">${esc(num(vlo * d.scale, 4))}</text><text x="310" y="34" text-anchor="end">${esc(num(vhi * d.scale, 4))} ${esc(d.unit)}</text></svg>`,
+  );
   return `<div class="plots">${out.join('')}</div>${bar.join('')}<p class="note">Squares: sites, coloured from the lowest value (dark) to the highest (light) and labelled with the value; a thick vermillion border and "!" mark an outlier; dashed grey: no value.</p>`;
 }
 
@@ -279,8 +331,9 @@ function waferMap(name: string, rows: LotRow[], outliers: Set<string>): string {
 function weibullPlot(w: WeibullReport & { quantity: string }, values: number[], censored: boolean[], areaFactor: number[] | undefined): string {
   const d = displayUnit(w.scale.unit);
   const pts = w.points;
-  const Fs = [0.001, 0.002, 0.005, 0.01, 0.02, 0.05, 0.1, 0.2, 0.3, 0.5, 0.632, 0.8, 0.9, 0.95, 0.99, 0.999]
-    .filter((F) => F >= Math.min(pts[0]?.F ?? 0.01, 0.01) * 0.5 && F <= Math.max(pts[pts.length - 1]?.F ?? 0.99, 0.99));
+  const Fs = [0.001, 0.002, 0.005, 0.01, 0.02, 0.05, 0.1, 0.2, 0.3, 0.5, 0.632, 0.8, 0.9, 0.95, 0.99, 0.999].filter(
+    (F) => F >= Math.min(pts[0]?.F ?? 0.01, 0.01) * 0.5 && F <= Math.max(pts[pts.length - 1]?.F ?? 0.99, 0.99),
+  );
   const q = Fs.map((F) => weibullQuantile({ values, censored, areaFactor }, F, w.bounds.confidence, w.bounds.method));
   const pct = `${+(w.bounds.confidence * 100).toPrecision(3)} %`;
   const xs = [...pts.map((p) => p.x), ...q.map((p) => p.low), ...q.map((p) => p.high)].filter((v) => v > 0 && Number.isFinite(v)).map((v) => v * d.scale);
@@ -296,26 +349,58 @@ function weibullPlot(w: WeibullReport & { quantity: string }, values: number[], 
   const B = 46;
   const px = (v: number) => L + ((Math.log(v) - Math.log(xlo)) / (Math.log(xhi) - Math.log(xlo))) * (W - L - R);
   const py = (y: number) => H - B - ((y - ylo) / (yhi - ylo)) * (H - T - B);
-  const parts = [`<svg class="chart" xmlns="http://www.w3.org/2000/svg" width="${W}" height="${H}" viewBox="0 0 ${W} ${H}" role="img" aria-label="Weibull plot">`];
-  parts.push(`<text x="${L}" y="16" class="t">${esc(w.quantity)}: ● devices (median ranks) · solid: ML fit, β = ${+w.shape.value.toPrecision(3)}, η = ${esc(formatQuantity(w.scale.value, w.scale.unit, undefined, 4))} · dashed: ${pct} bounds</text>`);
+  const parts = [
+    `<svg class="chart" xmlns="http://www.w3.org/2000/svg" width="${W}" height="${H}" viewBox="0 0 ${W} ${H}" role="img" aria-label="Weibull plot">`,
+  ];
+  parts.push(
+    `<text x="${L}" y="16" class="t">${esc(w.quantity)}: ● devices (median ranks) · solid: ML fit, β = ${+w.shape.value.toPrecision(3)}, η = ${esc(formatQuantity(w.scale.value, w.scale.unit, undefined, 4))} · dashed: ${pct} bounds</text>`,
+  );
   parts.push(`<rect x="${L}" y="${T}" width="${W - L - R}" height="${H - T - B}" fill="none" stroke="#888"/>`);
   const xt = logTicks(xlo, xhi);
   const xl = formatLogTicks(xt);
   xt.forEach((t, k) => {
     const X = px(t).toFixed(1);
-    parts.push(`<line class="xtick" x1="${X}" y1="${T}" x2="${X}" y2="${H - B}" stroke="#e4e1d8"/><text x="${X}" y="${H - B + 14}" text-anchor="middle">${esc(xl[k])}</text>`);
+    parts.push(
+      `<line class="xtick" x1="${X}" y1="${T}" x2="${X}" y2="${H - B}" stroke="#e4e1d8"/><text x="${X}" y="${H - B + 14}" text-anchor="middle">${esc(xl[k])}</text>`,
+    );
   });
   for (const F of Fs) {
     const Y = py(weibullPlotY(F)).toFixed(1);
-    parts.push(`<line x1="${L}" y1="${Y}" x2="${W - R}" y2="${Y}" stroke="${F === 0.632 ? '#bbb' : '#e4e1d8'}"/><text x="${L - 4}" y="${Y}" text-anchor="end" dominant-baseline="middle">${+(F * 100).toPrecision(3)} %</text>`);
+    parts.push(
+      `<line x1="${L}" y1="${Y}" x2="${W - R}" y2="${Y}" stroke="${F === 0.632 ? '#bbb' : '#e4e1d8'}"/><text x="${L - 4}" y="${Y}" text-anchor="end" dominant-baseline="middle">${+(F * 100).toPrecision(3)} %</text>`,
+    );
   }
   parts.push(`<text x="${(L + W - R) / 2}" y="${H - 8}" text-anchor="middle" class="ax">${esc(w.quantity)} (${esc(d.unit)}), log scale</text>`);
-  parts.push(`<text transform="translate(14 ${(T + H - B) / 2}) rotate(-90)" text-anchor="middle" class="ax">fraction broken down F (on ln(−ln(1 − F)))</text>`);
-  const line = (xsv: number[], stroke: string, extra: string) => `<polyline fill="none" stroke="${stroke}" ${extra} points="${xsv.map((x, k) => `${px(x * d.scale).toFixed(1)},${py(weibullPlotY(Fs[k])).toFixed(1)}`).join(' ')}"/>`;
-  parts.push(line(q.map((p) => p.low), OKABE_ITO.sky, 'stroke-dasharray="5 4" stroke-width="1.4"'));
-  parts.push(line(q.map((p) => p.high), OKABE_ITO.sky, 'stroke-dasharray="5 4" stroke-width="1.4"'));
-  parts.push(line(q.map((p) => p.value), OKABE_ITO.black, 'stroke-width="2"'));
-  for (const p of pts) parts.push(`<circle class="device" cx="${px(p.x * d.scale).toFixed(1)}" cy="${py(weibullPlotY(p.F)).toFixed(1)}" r="3" fill="${OKABE_ITO.vermillion}"><title>${esc(formatQuantity(p.x, w.scale.unit, undefined, 4))}, F = ${p.F.toFixed(3)}</title></circle>`);
+  parts.push(
+    `<text transform="translate(14 ${(T + H - B) / 2}) rotate(-90)" text-anchor="middle" class="ax">fraction broken down F (on ln(−ln(1 − F)))</text>`,
+  );
+  const line = (xsv: number[], stroke: string, extra: string) =>
+    `<polyline fill="none" stroke="${stroke}" ${extra} points="${xsv.map((x, k) => `${px(x * d.scale).toFixed(1)},${py(weibullPlotY(Fs[k])).toFixed(1)}`).join(' ')}"/>`;
+  parts.push(
+    line(
+      q.map((p) => p.low),
+      OKABE_ITO.sky,
+      'stroke-dasharray="5 4" stroke-width="1.4"',
+    ),
+  );
+  parts.push(
+    line(
+      q.map((p) => p.high),
+      OKABE_ITO.sky,
+      'stroke-dasharray="5 4" stroke-width="1.4"',
+    ),
+  );
+  parts.push(
+    line(
+      q.map((p) => p.value),
+      OKABE_ITO.black,
+      'stroke-width="2"',
+    ),
+  );
+  for (const p of pts)
+    parts.push(
+      `<circle class="device" cx="${px(p.x * d.scale).toFixed(1)}" cy="${py(weibullPlotY(p.F)).toFixed(1)}" r="3" fill="${OKABE_ITO.vermillion}"><title>${esc(formatQuantity(p.x, w.scale.unit, undefined, 4))}, F = ${p.F.toFixed(3)}</title></circle>`,
+    );
   parts.push('</svg>');
   return parts.join('');
 }
@@ -333,12 +418,19 @@ table{border-collapse:collapse;font-variant-numeric:tabular-nums;font-size:.8rem
 @media print{body{margin:0}h2{page-break-after:avoid}}
 </style></head><body>`);
   out.push(`<h1>plumbline lot report: ${esc(a.description)}</h1>`);
-  out.push(`<p>${a.rows.length} device(s) from ${new Set(a.rows.map((r) => r.session)).size} session(s); wafers: ${esc([...new Set(a.rows.map((r) => r.wafer || '(none)'))].join(', '))}.</p>`);
-  out.push('<p class="caution">Breakdown tests destroy devices at high field and can leave hazardous voltages on fixtures. The cautions below record what the software saw; your lab\'s safety rules, the instrument\'s manual and licensed practice govern.</p>');
+  out.push(
+    `<p>${a.rows.length} device(s) from ${new Set(a.rows.map((r) => r.session)).size} session(s); wafers: ${esc([...new Set(a.rows.map((r) => r.wafer || '(none)'))].join(', '))}.</p>`,
+  );
+  out.push(
+    '<p class="caution">Breakdown tests destroy devices at high field and can leave hazardous voltages on fixtures. The cautions below record what the software saw; your lab\'s safety rules, the instrument\'s manual and licensed practice govern.</p>',
+  );
   // Cautions.
   out.push('<h2>Cautions</h2>');
   if (a.cautions.length === 0) out.push('<p class="note">No cautions were raised.</p>');
-  else out.push(`<table><tr><th>caution</th><th>times</th><th>sessions</th><th>first message</th></tr>${a.cautions.map((c) => `<tr><td>${esc(c.kind)}</td><td>${c.count}</td><td>${c.sessions}</td><td>${esc(c.message)}</td></tr>`).join('')}</table>`);
+  else
+    out.push(
+      `<table><tr><th>caution</th><th>times</th><th>sessions</th><th>first message</th></tr>${a.cautions.map((c) => `<tr><td>${esc(c.kind)}</td><td>${c.count}</td><td>${c.sessions}</td><td>${esc(c.message)}</td></tr>`).join('')}</table>`,
+    );
   if (a.problems.length) out.push(`<p class="note">Could not read: ${a.problems.map(esc).join('; ')}</p>`);
   // Devices table.
   const outKey = new Map<string, Set<string>>();
@@ -347,28 +439,37 @@ table{border-collapse:collapse;font-variant-numeric:tabular-nums;font-size:.8rem
   for (const p of a.parameters) out.push(`<th>${esc(p.name)}${displayUnit(p.unit).unit ? ` (${esc(displayUnit(p.unit).unit)})` : ''}</th>`);
   out.push('</tr>');
   for (const r of a.rows) {
-    out.push(`<tr><td>${esc(r.session)}</td><td>${esc(r.device)}</td><td>${esc(r.wafer)}</td><td>${esc(r.site)}</td><td>${r.x ?? '—'}, ${r.y ?? '—'}</td><td>${esc(r.outcome ?? '—')}</td>`);
+    out.push(
+      `<tr><td>${esc(r.session)}</td><td>${esc(r.device)}</td><td>${esc(r.wafer)}</td><td>${esc(r.site)}</td><td>${r.x ?? '—'}, ${r.y ?? '—'}</td><td>${esc(r.outcome ?? '—')}</td>`,
+    );
     for (const p of a.parameters) {
       const v = r.values[p.name];
       const f = displayUnit(p.unit).scale;
       const isOut = outKey.get(p.name)?.has(`${r.session}/${r.device}`);
-      out.push(`<td${isOut ? ' class="out"' : ''}>${v ? `${num(v.value * f, 5)}${v.stdErr !== undefined ? ` ± ${num(v.stdErr * f, 2)}` : ''}${isOut ? ' ◇ outlier' : ''}` : '—'}</td>`);
+      out.push(
+        `<td${isOut ? ' class="out"' : ''}>${v ? `${num(v.value * f, 5)}${v.stdErr !== undefined ? ` ± ${num(v.stdErr * f, 2)}` : ''}${isOut ? ' ◇ outlier' : ''}` : '—'}</td>`,
+      );
     }
     out.push('</tr>');
   }
-  out.push('</table><p class="note">Fitted parameters are those of each device\'s first complete sweep with a plausible fit (the device as found); ± one standard error. Outliers: |modified z| = |0.6745 (x − median)/MAD| &gt; 3.5 within the lot (Iglewicz &amp; Hoaglin 1993).</p>');
+  out.push(
+    '</table><p class="note">Fitted parameters are those of each device\'s first complete sweep with a plausible fit (the device as found); ± one standard error. Outliers: |modified z| = |0.6745 (x − median)/MAD| &gt; 3.5 within the lot (Iglewicz &amp; Hoaglin 1993).</p>',
+  );
   // Distributions.
   out.push('<h2>Distributions</h2>');
   for (const p of a.parameters) {
     if (!p.box) continue;
     const d = displayUnit(p.unit);
     out.push(boxStrip(p, a.rows));
-    out.push(`<p class="note">${esc(p.name)}: n = ${p.n}, median ${num(p.box.median * d.scale)} ${esc(d.unit)}, quartiles ${num(p.box.q1 * d.scale)} … ${num(p.box.q3 * d.scale)}${p.logScale ? '; spans more than a decade, so outliers are judged on ln(value)' : ''}${p.resolution !== null ? `; values sit on a grid of ${num(p.resolution * d.scale)} ${esc(d.unit)} (ties), so no spread below one step counts` : ''}${p.outliers.length ? `; outliers: ${p.outliers.map((q) => `${esc(q.device)} (z = ${q.z.toFixed(1)})`).join(', ')}` : ''}.</p>`);
+    out.push(
+      `<p class="note">${esc(p.name)}: n = ${p.n}, median ${num(p.box.median * d.scale)} ${esc(d.unit)}, quartiles ${num(p.box.q1 * d.scale)} … ${num(p.box.q3 * d.scale)}${p.logScale ? '; spans more than a decade, so outliers are judged on ln(value)' : ''}${p.resolution !== null ? `; values sit on a grid of ${num(p.resolution * d.scale)} ${esc(d.unit)} (ties), so no spread below one step counts` : ''}${p.outliers.length ? `; outliers: ${p.outliers.map((q) => `${esc(q.device)} (z = ${q.z.toFixed(1)})`).join(', ')}` : ''}.</p>`,
+    );
   }
   // Wafer map.
   const mapName = mapParameter(a, o.map);
   out.push(`<h2>Wafer map${mapName ? `: ${esc(mapName)}` : ''}</h2>`);
-  if (o.map !== undefined && !mapName) out.push(`<p class="note">No parameter named '${esc(o.map)}' in this lot (have: ${a.parameters.map((p) => esc(p.name)).join(', ')}).</p>`);
+  if (o.map !== undefined && !mapName)
+    out.push(`<p class="note">No parameter named '${esc(o.map)}' in this lot (have: ${a.parameters.map((p) => esc(p.name)).join(', ')}).</p>`);
   else if (mapName) out.push(waferMap(mapName, a.rows, outKey.get(mapName) ?? new Set()));
   // Weibull.
   out.push('<h2>Breakdown statistics</h2>');
@@ -386,7 +487,9 @@ table{border-collapse:collapse;font-variant-numeric:tabular-nums;font-size:.8rem
     for (const x of w.warnings) out.push(`<p class="caution">${esc(x)}</p>`);
   } else if (a.weibullError) out.push(`<p class="note">No Weibull fit: ${esc(a.weibullError)}</p>`);
   else out.push('<p class="note">No breakdown results in these sessions (ramp and constant-stress tests write them).</p>');
-  out.push(`<p class="note">Generated by plumbline on ${new Date().toISOString()}. Values in the trade's units (MV/cm, C/cm², cm², nm); files and JSON hold SI.</p></body></html>`);
+  out.push(
+    `<p class="note">Generated by plumbline on ${new Date().toISOString()}. Values in the trade's units (MV/cm, C/cm², cm², nm); files and JSON hold SI.</p></body></html>`,
+  );
   return out.join('\n');
 }
 
@@ -400,7 +503,9 @@ export function mapParameter(a: LotAnalysis, map: string | undefined): string | 
 export async function writeLotReport(source: LotSource, file: string, o: LotOptions = {}): Promise<LotAnalysis> {
   const a = await analyzeLot(source, o);
   if (o.map !== undefined && mapParameter(a, o.map) === undefined) {
-    throw new LotRequestError(`--map '${o.map}': no such parameter in this lot (have: ${a.parameters.map((p) => p.name).join(', ') || 'none'}; or field | voltage | charge | time for breakdown results)`);
+    throw new LotRequestError(
+      `--map '${o.map}': no such parameter in this lot (have: ${a.parameters.map((p) => p.name).join(', ') || 'none'}; or field | voltage | charge | time for breakdown results)`,
+    );
   }
   writeFileSync(file, renderLot(a, o));
   return a;

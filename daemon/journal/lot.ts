@@ -66,7 +66,8 @@ function stampOf(dir: string): Stamp {
 }
 
 const sameStamp = (a: Stamp, b: Stamp) =>
-  a.journal[0] === b.journal[0] && a.journal[1] === b.journal[1] &&
+  a.journal[0] === b.journal[0] &&
+  a.journal[1] === b.journal[1] &&
   (a.results === null ? b.results === null : b.results !== null && a.results[0] === b.results[0] && a.results[1] === b.results[1]);
 
 /** Reads one session's summary from its journal and results file (no cache). */
@@ -91,7 +92,13 @@ export function summarizeSession(dirIn: string): DeviceSummary {
  * A session's summary from its events (in sequence order; readings are not needed) and its results
  * rows: the one place the summary is made, whether the events come from a journal or an archive.
  */
-export function summarizeEvents(session: string, dir: string | null, events: Iterable<WireEvent>, results: readonly DeviceResult[], problems: readonly string[]): DeviceSummary {
+export function summarizeEvents(
+  session: string,
+  dir: string | null,
+  events: Iterable<WireEvent>,
+  results: readonly DeviceResult[],
+  problems: readonly string[],
+): DeviceSummary {
   let startedAt: string | null = null;
   let identity: DeviceIdentity = {};
   let inputs: Record<string, unknown> = {};
@@ -221,7 +228,10 @@ export class FolderLot implements LotSource {
   /** How many summaries came from the cache on the last read. */
   cachedCount = 0;
 
-  constructor(paths: readonly string[], private readonly opts: { cache?: boolean } = {}) {
+  constructor(
+    paths: readonly string[],
+    private readonly opts: { cache?: boolean } = {},
+  ) {
     this.dirs = expandSessionPaths(paths);
     this.description = this.dirs.length === 1 ? basename(this.dirs[0]) : `${this.dirs.length} sessions`;
   }
@@ -288,7 +298,12 @@ export interface BreakdownSample {
  * different areas are put on one reference area (`referenceArea`, else their median area) through
  * per-device area factors.
  */
-export function breakdownSample(rowsIn: readonly (DeviceResult & { session?: string })[], quantity: { key: keyof DeviceResult; unit: string; title: string; column: string }, referenceArea?: number, test?: string): BreakdownSample {
+export function breakdownSample(
+  rowsIn: readonly (DeviceResult & { session?: string })[],
+  quantity: { key: keyof DeviceResult; unit: string; title: string; column: string },
+  referenceArea?: number,
+  test?: string,
+): BreakdownSample {
   const rows = selectTest(rowsIn, test);
   const values: number[] = [];
   const censored: boolean[] = [];
@@ -339,14 +354,23 @@ export class LotRequestError extends Error {}
 export function selectTest<T extends DeviceResult>(rows: readonly T[], test: string | undefined): T[] {
   const counts = new Map<string, number>();
   for (const r of rows) counts.set(r.test, (counts.get(r.test) ?? 0) + 1);
-  const order = (k: string) => ((TEST_KINDS as readonly string[]).indexOf(k) + 1 || 99);
-  const held = [...counts].sort((a, b) => order(a[0]) - order(b[0]) || a[0].localeCompare(b[0])).map(([k, n]) => `${k} (${n})`).join(', ');
+  const order = (k: string) => (TEST_KINDS as readonly string[]).indexOf(k) + 1 || 99;
+  const held = [...counts]
+    .sort((a, b) => order(a[0]) - order(b[0]) || a[0].localeCompare(b[0]))
+    .map(([k, n]) => `${k} (${n})`)
+    .join(', ');
   if (test === 'all') return [...rows];
   if (test === undefined || test === '') {
-    if (counts.size > 1) throw new LotRequestError(`the results hold ${counts.size} kinds of test: ${held}; choose one with --test KIND (the page's lot view: ?test=KIND), or pool them with --test all`);
+    if (counts.size > 1)
+      throw new LotRequestError(
+        `the results hold ${counts.size} kinds of test: ${held}; choose one with --test KIND (the page's lot view: ?test=KIND), or pool them with --test all`,
+      );
     return [...rows];
   }
-  if (!counts.has(test)) throw new LotRequestError(`--test '${test}': ${rows.length ? `the results hold ${held}` : 'there are no results'}${(TEST_KINDS as readonly string[]).includes(test) ? '' : ` (kinds of test: ${TEST_KINDS.join(', ')}, or all)`}`);
+  if (!counts.has(test))
+    throw new LotRequestError(
+      `--test '${test}': ${rows.length ? `the results hold ${held}` : 'there are no results'}${(TEST_KINDS as readonly string[]).includes(test) ? '' : ` (kinds of test: ${TEST_KINDS.join(', ')}, or all)`}`,
+    );
   return rows.filter((r) => r.test === test);
 }
 
@@ -354,7 +378,10 @@ export function selectTest<T extends DeviceResult>(rows: readonly T[], test: str
  * The reference area and per-device area factors for devices of these areas: the given reference,
  * else the one area they share, else their median; devices without an area count as the reference.
  */
-export function referenceAreas(areas: readonly (number | undefined)[], referenceArea?: number): { area: number | undefined; areaFactor: number[] | undefined; notes: string[] } {
+export function referenceAreas(
+  areas: readonly (number | undefined)[],
+  referenceArea?: number,
+): { area: number | undefined; areaFactor: number[] | undefined; notes: string[] } {
   const notes: string[] = [];
   const known = areas.filter((a): a is number => a !== undefined && a > 0);
   if (known.length === 0) return { area: referenceArea, areaFactor: undefined, notes };
@@ -363,7 +390,7 @@ export function referenceAreas(areas: readonly (number | undefined)[], reference
   const area = referenceArea ?? (distinct.size === 1 ? known[0] : sorted[Math.floor((sorted.length - 1) / 2)]);
   if (distinct.size === 1 && known[0] === area && known.length === areas.length) return { area, areaFactor: undefined, notes };
   if (known.length < areas.length) notes.push(`${areas.length - known.length} device(s) without an area taken at the reference area`);
-  if (distinct.size > 1) notes.push(`devices of ${distinct.size} areas put on the reference area ${area.toPrecision(4)} m² by Poisson (weakest-link) area scaling`);
+  if (distinct.size > 1)
+    notes.push(`devices of ${distinct.size} areas put on the reference area ${area.toPrecision(4)} m² by Poisson (weakest-link) area scaling`);
   return { area, areaFactor: areas.map((a) => (a !== undefined && a > 0 ? a / area : 1)), notes };
 }
-

@@ -127,10 +127,13 @@ export function scanJournal(dir: string, onEvent: (e: WireEvent, line: number) =
     if (typeof x.e.t === 'number' && x.e.t > lastT) lastT = x.e.t;
     onEvent(x.e, x.line);
   };
-  const r = opts.readings === false ? { count: 0, tornBytes: 0 } : scanReadings(dir, (reading) => {
-    while (next < events.length && events[next].e.seq < reading.seq) emit(events[next++]);
-    emit({ e: reading, line: 0 });
-  });
+  const r =
+    opts.readings === false
+      ? { count: 0, tornBytes: 0 }
+      : scanReadings(dir, (reading) => {
+          while (next < events.length && events[next].e.seq < reading.seq) emit(events[next++]);
+          emit({ e: reading, line: 0 });
+        });
   while (next < events.length) emit(events[next++]);
   return { lines: lineNo, bad, tornTail, tornReadingBytes: r.tornBytes, readings: r.count, lastSeq, lastT };
 }
@@ -178,7 +181,8 @@ export interface RecoveryReport {
 }
 
 /** What to do when a daemon died with the output on (an instrument keeps its output state; common practice). */
-export const OUTPUT_MAY_BE_ON = 'nothing turned it off when the daemon stopped, and a source-measure unit keeps its output state on its own. Check the instrument (its front panel) and turn the output off there before touching the probes or the fixture.';
+export const OUTPUT_MAY_BE_ON =
+  'nothing turned it off when the daemon stopped, and a source-measure unit keeps its output state on its own. Check the instrument (its front panel) and turn the output off there before touching the probes or the fixture.';
 
 /**
  * Closes a session a dead process left open: terminates a torn last line (so the next append starts
@@ -216,7 +220,15 @@ export function recoverSession(dir: string): RecoveryReport {
   const tornLines = scan.bad.length;
   if (ended && !scan.tornTail && scan.tornReadingBytes === 0) {
     rmSync(join(dir, LOCK_FILE), { force: true });
-    return { dir, recovered: false, tornLines, badLines: scan.bad, closedSweep: null, addedRunEnd: false, message: 'session was closed properly; nothing to recover' };
+    return {
+      dir,
+      recovered: false,
+      tornLines,
+      badLines: scan.bad,
+      closedSweep: null,
+      addedRunEnd: false,
+      message: 'session was closed properly; nothing to recover',
+    };
   }
   if (scan.tornTail) {
     const fd = openSync(join(dir, JOURNAL_FILE), 'a');
@@ -234,18 +246,37 @@ export function recoverSession(dir: string): RecoveryReport {
   if (scan.tornTail) parts.push('the torn last line was skipped');
   if (scan.tornReadingBytes > 0) parts.push(`an incomplete last reading record (${scan.tornReadingBytes} of ${RECORD_BYTES} bytes) was dropped`);
   if (tornLines > (scan.tornTail ? 1 : 0)) parts.push(`${tornLines} damaged line(s) skipped`);
-  if (closedSweep !== null) parts.push(whole ? `sweep ${closedSweep} closed: all ${planned} planned points were journaled` : `sweep ${closedSweep} marked incomplete after ${pointsInOpen} of ${planned} points`);
+  if (closedSweep !== null)
+    parts.push(
+      whole
+        ? `sweep ${closedSweep} closed: all ${planned} planned points were journaled`
+        : `sweep ${closedSweep} marked incomplete after ${pointsInOpen} of ${planned} points`,
+    );
   if (!ended) parts.push('run marked interrupted');
   if (outputMayBeOn) parts.push(`THE INSTRUMENT'S OUTPUT MAY STILL BE ON: ${OUTPUT_MAY_BE_ON}`);
   const message = `recovered: ${parts.join('; ')}`;
   w.event({ type: 'recovery', tornLines, closedSweep, addedRunEnd: !ended, message });
   if (outputMayBeOn) w.event({ type: 'caution', kind: 'recovery', message: `The daemon stopped while this run had the output on: ${OUTPUT_MAY_BE_ON}` });
   if (closedSweep !== null) {
-    w.event(whole
-      ? { type: 'sweep-end', sweep: closedSweep, points: pointsInOpen, complete: true, note: 'closed on recovery: every planned point was journaled before the daemon stopped' }
-      : { type: 'sweep-end', sweep: closedSweep, points: pointsInOpen, complete: false, note: 'the daemon stopped mid-sweep (recovered on the next start)' });
+    w.event(
+      whole
+        ? {
+            type: 'sweep-end',
+            sweep: closedSweep,
+            points: pointsInOpen,
+            complete: true,
+            note: 'closed on recovery: every planned point was journaled before the daemon stopped',
+          }
+        : { type: 'sweep-end', sweep: closedSweep, points: pointsInOpen, complete: false, note: 'the daemon stopped mid-sweep (recovered on the next start)' },
+    );
   }
-  if (!ended) w.event({ type: 'run-end', outcome: 'interrupted', reason: 'the daemon stopped without closing the session (crash, kill or power loss)', sweeps: maxSweep });
+  if (!ended)
+    w.event({
+      type: 'run-end',
+      outcome: 'interrupted',
+      reason: 'the daemon stopped without closing the session (crash, kill or power loss)',
+      sweeps: maxSweep,
+    });
   w.close();
   rmSync(join(dir, LOCK_FILE), { force: true });
   return { dir, recovered: true, tornLines, badLines: scan.bad, closedSweep, addedRunEnd: !ended, outputMayBeOn, message };
@@ -253,5 +284,7 @@ export function recoverSession(dir: string): RecoveryReport {
 
 /** Recovers every unfinished session under a data directory (the start-up pass). */
 export function recoverAll(dataDir: string): RecoveryReport[] {
-  return listSessions(dataDir).map((id) => recoverSession(join(dataDir, id))).filter((r) => r.recovered);
+  return listSessions(dataDir)
+    .map((id) => recoverSession(join(dataDir, id)))
+    .filter((r) => r.recovered);
 }

@@ -34,8 +34,14 @@ function settingsOf(raw: unknown): AnalysisSettings | null {
 }
 
 /** One sweep fitted with the given settings (what the live chain does at a sweep's end). */
-export function fitSweep(data: { x: number[]; y: number[]; compliance: number[] }, a: AnalysisSettings, complianceLimit: number | undefined): { fit: FitSummary | null; error: string | null; solar?: SolarSummary } {
-  const solar = a.solar ? { solar: solarSummary(data, { temperature: a.inputs.temperature, area: a.inputs.area, irradiance: a.solar.irradiance, complianceLimit }) } : {};
+export function fitSweep(
+  data: { x: number[]; y: number[]; compliance: number[] },
+  a: AnalysisSettings,
+  complianceLimit: number | undefined,
+): { fit: FitSummary | null; error: string | null; solar?: SolarSummary } {
+  const solar = a.solar
+    ? { solar: solarSummary(data, { temperature: a.inputs.temperature, area: a.inputs.area, irradiance: a.solar.irradiance, complianceLimit }) }
+    : {};
   try {
     return { fit: summarizeFit(analyze(data, { model: a.model, inputs: a.inputs, window: a.window, complianceLimit, regimes: false })), error: null, ...solar };
   } catch (e) {
@@ -48,7 +54,19 @@ export function viewSweep(data: { x: number[]; y: number[]; compliance: number[]
   try {
     return plotView(data, { model: a.model, inputs: a.inputs, window: a.window, complianceLimit });
   } catch (e) {
-    return { model: a.model, axes: { x: { label: 'x', unit: '', kind: 'linear' }, y: { label: 'y', unit: '', kind: 'linear' } }, x: [], y: [], bias: [], inWindow: [], residual: [], line: null, window: null, regimes: [], error: (e as Error).message };
+    return {
+      model: a.model,
+      axes: { x: { label: 'x', unit: '', kind: 'linear' }, y: { label: 'y', unit: '', kind: 'linear' } },
+      x: [],
+      y: [],
+      bias: [],
+      inWindow: [],
+      residual: [],
+      line: null,
+      window: null,
+      regimes: [],
+      error: (e as Error).message,
+    };
   }
 }
 
@@ -72,7 +90,16 @@ export function sweepDetail(dir: string, sweep: number): SweepDetail | undefined
   const r = x.readSweep(sweep);
   const a = settingsOf(s.analysis);
   const data = { x: r.v, y: r.i, compliance: r.flags.map((f) => f & 1) };
-  return { sweep, readings: r.rows, complete: s.complete, fit: s.fit, error: s.fitError, solar: s.solar, analysis: a, view: a ? viewSweep(data, a, x.complianceLimit) : null };
+  return {
+    sweep,
+    readings: r.rows,
+    complete: s.complete,
+    fit: s.fit,
+    error: s.fitError,
+    solar: s.solar,
+    analysis: a,
+    view: a ? viewSweep(data, a, x.complianceLimit) : null,
+  };
 }
 
 /** One sweep's view with other settings, without recording anything. */

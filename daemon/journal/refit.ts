@@ -43,7 +43,7 @@ export function refitSession(dir: string, override: Partial<Pick<FitRequest, 'mo
   const given = override.inputs ?? {};
   const request: FitRequest = {
     model: override.model ?? base.model ?? 'ohmic',
-    window: override.window ?? (override.model !== undefined && override.model !== base.model ? 'auto' : base.window ?? 'auto'),
+    window: override.window ?? (override.model !== undefined && override.model !== base.model ? 'auto' : (base.window ?? 'auto')),
     inputs: { ...(base.inputs ?? {}), ...given },
     complianceLimit: s.complianceLimit,
   };
@@ -58,7 +58,8 @@ export function refitSession(dir: string, override: Partial<Pick<FitRequest, 'mo
         if (t !== undefined) T = { value: t, source: 'note' };
       }
     }
-    T ??= request.inputs?.temperature !== undefined ? { value: request.inputs.temperature, source: sourceOf('temperature') } : { value: 300, source: 'default' };
+    T ??=
+      request.inputs?.temperature !== undefined ? { value: request.inputs.temperature, source: sourceOf('temperature') } : { value: 300, source: 'default' };
     try {
       const r = analyze({ x: sw.v, y: sw.i, compliance: sw.c, breakdown: sw.b }, { ...request, inputs: { ...request.inputs, temperature: T.value } });
       return { sweep: sw.sweep, complete: sw.complete, temperature: T, fit: summarizeFit(r), error: null, warnings: r.warnings };
@@ -77,7 +78,10 @@ export function refitSession(dir: string, override: Partial<Pick<FitRequest, 'mo
   } catch {
     /* a missing required input: every sweep carries the error */
   }
-  const stamp = new Date().toISOString().replace(/[-:]/g, '').replace(/\.\d+Z$/, 'Z');
+  const stamp = new Date()
+    .toISOString()
+    .replace(/[-:]/g, '')
+    .replace(/\.\d+Z$/, 'Z');
   const file = out ?? join(s.dir, `refit-${request.model}-${stamp}.json`);
   const result = { session: s.id, request, inputs, sweeps, file };
   writeFileSync(file, `${JSON.stringify(result, null, 2)}\n`);

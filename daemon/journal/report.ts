@@ -38,7 +38,11 @@ function settingsOf(raw: unknown): AnalysisSettings | undefined {
 }
 
 function describeWindow(w: AnalysisSettings['window']): string {
-  return typeof w === 'object' ? `${w.from !== undefined ? num(w.from) : '−∞'} … ${w.to !== undefined ? num(w.to) : '∞'} V` : w === 'auto' ? 'automatic' : 'all points';
+  return typeof w === 'object'
+    ? `${w.from !== undefined ? num(w.from) : '−∞'} … ${w.to !== undefined ? num(w.to) : '∞'} V`
+    : w === 'auto'
+      ? 'automatic'
+      : 'all points';
 }
 
 function describeAnalysis(a: AnalysisSettings | undefined): string {
@@ -48,7 +52,10 @@ function describeAnalysis(a: AnalysisSettings | undefined): string {
 
 /** Rows of a two-column table (name, value), skipping absent values. */
 function table(rows: [string, string | undefined][]): string {
-  return `<table class="kv">${rows.filter(([, v]) => v !== undefined && v !== '').map(([k, v]) => `<tr><th>${esc(k)}</th><td>${esc(v)}</td></tr>`).join('')}</table>`;
+  return `<table class="kv">${rows
+    .filter(([, v]) => v !== undefined && v !== '')
+    .map(([k, v]) => `<tr><th>${esc(k)}</th><td>${esc(v)}</td></tr>`)
+    .join('')}</table>`;
 }
 
 /** A table of figures (name, number and unit), each row marked with the key it came from. */
@@ -74,13 +81,22 @@ function breakdownSection(s: SessionData): string {
   const crit = numberRows(r.numbers, 'criterion');
   const pace = numberRows(r.numbers, 'pace');
   out.push('<div class="settings">');
-  out.push(`<div><h3>Result</h3>${figureTable([{ key: 'outcome', label: 'outcome', text: r.outcome, unit: '' }, ...(criterion ? [{ key: 'criterion', label: 'criterion', text: criterion, unit: '' }] : []), ...resultFigureRows(r)], 'test-result')}</div>`);
-  out.push(`<div><h3>Numbers of the criterion${criterion ? ` (${esc(criterion)})` : ''}</h3>${crit.length ? figureTable(crit, 'criterion') : '<p class="note">None recorded.</p>'}${pace.length ? `<h3>Pace of the test</h3>${figureTable(pace, 'pace')}` : ''}</div>`);
+  out.push(
+    `<div><h3>Result</h3>${figureTable([{ key: 'outcome', label: 'outcome', text: r.outcome, unit: '' }, ...(criterion ? [{ key: 'criterion', label: 'criterion', text: criterion, unit: '' }] : []), ...resultFigureRows(r)], 'test-result')}</div>`,
+  );
+  out.push(
+    `<div><h3>Numbers of the criterion${criterion ? ` (${esc(criterion)})` : ''}</h3>${crit.length ? figureTable(crit, 'criterion') : '<p class="note">None recorded.</p>'}${pace.length ? `<h3>Pace of the test</h3>${figureTable(pace, 'pace')}` : ''}</div>`,
+  );
   out.push('</div>');
-  const missing = [r.result.breakdownField === undefined ? 'no field without the film thickness' : '', r.result.chargeToBreakdown === undefined ? 'no charge per area without the device area' : ''].filter(Boolean);
+  const missing = [
+    r.result.breakdownField === undefined ? 'no field without the film thickness' : '',
+    r.result.chargeToBreakdown === undefined ? 'no charge per area without the device area' : '',
+  ].filter(Boolean);
   if (missing.length && typeof r.result.breakdownVoltage === 'number') out.push(`<p class="note">${esc(missing.join('; '))}.</p>`);
   const where = deviceLine(r.result);
-  out.push(`<p class="note">${where ? `${esc(where)}. ` : ''}The same figures in SI, full precision, are one row of device-results.csv beside the journal. Breakdown tests follow the wafer-level procedures of JEDEC JESD35-A.</p>`);
+  out.push(
+    `<p class="note">${where ? `${esc(where)}. ` : ''}The same figures in SI, full precision, are one row of device-results.csv beside the journal. Breakdown tests follow the wafer-level procedures of JEDEC JESD35-A.</p>`,
+  );
   return out.join('');
 }
 
@@ -93,7 +109,14 @@ function planTable(plan: Record<string, unknown> | null | undefined): string {
     ['sweep', typeof plan.description === 'string' ? plan.description : undefined],
     ['kind', typeof plan.kind === 'string' ? plan.kind : undefined],
     // A current ramp forces currents: its range is in amperes.
-    ['from … to', n('start') !== undefined && n('stop') !== undefined ? `${num(n('start'))} … ${num(n('stop'))} ${plan.kind === 'current-ramp' ? 'A' : 'V'}` : values ? `${values.length} listed levels, ${num(Math.min(...values))} … ${num(Math.max(...values))} V` : undefined],
+    [
+      'from … to',
+      n('start') !== undefined && n('stop') !== undefined
+        ? `${num(n('start'))} … ${num(n('stop'))} ${plan.kind === 'current-ramp' ? 'A' : 'V'}`
+        : values
+          ? `${values.length} listed levels, ${num(Math.min(...values))} … ${num(Math.max(...values))} V`
+          : undefined,
+    ],
     ['points per sweep', n('points') !== undefined ? String(n('points')) : undefined],
     ['step', n('step') !== undefined ? formatQuantity(n('step') as number, 'V') : undefined],
     ['steps per decade', n('stepsPerDecade') !== undefined ? String(n('stepsPerDecade')) : undefined],
@@ -129,7 +152,7 @@ function driftTable(d: Record<string, unknown> | null | undefined): string {
   const ewma = d.method !== 'cusum';
   return table([
     ['watch', d.enabled === false ? 'off' : 'on'],
-    ['parameter charted', typeof d.parameter === 'string' ? d.parameter : 'the model\'s first parameter'],
+    ['parameter charted', typeof d.parameter === 'string' ? d.parameter : "the model's first parameter"],
     ['chart', ewma ? 'EWMA (NIST/SEMATECH e-Handbook §6.3.2.4)' : 'tabular CUSUM (NIST/SEMATECH e-Handbook §6.3.2.3)'],
     ['baseline sweeps', n('baseline')],
     ['λ (EWMA weight)', ewma ? n('lambda') : undefined],
@@ -185,8 +208,17 @@ function measuredSeries(sw: SweepData, color: string, label?: string): SvgSeries
   const neg = sw.i.map((_i, k) => k).filter((k) => sw.i[k] < 0 && !sw.c[k]);
   const comp = sw.i.map((_i, k) => k).filter((k) => sw.c[k]);
   const out: SvgSeries[] = [{ x: sw.v, y, color, marker: 'dot', line: true, label }];
-  if (neg.length) out.push({ x: neg.map((k) => sw.v[k]), y: neg.map((k) => -sw.i[k]), color: OKABE_ITO.vermillion, marker: 'cross', line: false, label: 'negative current' });
-  if (comp.length) out.push({ x: comp.map((k) => sw.v[k]), y: comp.map((k) => Math.abs(sw.i[k])), color: OKABE_ITO.black, marker: 'square', line: false, label: 'at compliance' });
+  if (neg.length)
+    out.push({ x: neg.map((k) => sw.v[k]), y: neg.map((k) => -sw.i[k]), color: OKABE_ITO.vermillion, marker: 'cross', line: false, label: 'negative current' });
+  if (comp.length)
+    out.push({
+      x: comp.map((k) => sw.v[k]),
+      y: comp.map((k) => Math.abs(sw.i[k])),
+      color: OKABE_ITO.black,
+      marker: 'square',
+      line: false,
+      label: 'at compliance',
+    });
   return out;
 }
 
@@ -212,37 +244,41 @@ function linearizedCharts(v: PlotView, model: string): { charts: string[]; hidde
   const inK = sel(true);
   const outK = sel(false);
   const band = v.window ? [{ x0: v.window.x[0] * dx.scale, x1: v.window.x[1] * dx.scale, color: 'rgba(86,180,233,0.15)' }] : [];
-  const charts = [svgChart({
-    title: `${model}: ● in the window, ○ outside, line: fit`,
-    xLabel: axisLabel(v.axes.x),
-    yLabel: axisLabel(v.axes.y),
-    xLog: xlog,
-    yLog: ylog,
-    bands: band,
-    series: [
-      { x: outK.map((k) => xs[k]), y: outK.map((k) => ys[k]), color: OKABE_ITO.orange, marker: 'ring', line: false, label: 'outside window' },
-      { x: inK.map((k) => xs[k]), y: inK.map((k) => ys[k]), color: OKABE_ITO.blue, marker: 'dot', line: false, label: 'in window' },
-      ...(v.line ? [{ x: v.line.x.map((x) => x * dx.scale), y: v.line.y.map((y) => y * dy.scale), color: OKABE_ITO.black, width: 2, label: 'fit' }] : []),
-    ],
-  })];
+  const charts = [
+    svgChart({
+      title: `${model}: ● in the window, ○ outside, line: fit`,
+      xLabel: axisLabel(v.axes.x),
+      yLabel: axisLabel(v.axes.y),
+      xLog: xlog,
+      yLog: ylog,
+      bands: band,
+      series: [
+        { x: outK.map((k) => xs[k]), y: outK.map((k) => ys[k]), color: OKABE_ITO.orange, marker: 'ring', line: false, label: 'outside window' },
+        { x: inK.map((k) => xs[k]), y: inK.map((k) => ys[k]), color: OKABE_ITO.blue, marker: 'dot', line: false, label: 'in window' },
+        ...(v.line ? [{ x: v.line.x.map((x) => x * dx.scale), y: v.line.y.map((y) => y * dy.scale), color: OKABE_ITO.black, width: 2, label: 'fit' }] : []),
+      ],
+    }),
+  ];
   // Residuals: ln units on log plots, the y quantity's unit on linear ones.
   const r = v.residual.map((x) => (x === null ? null : ylog ? x : x * dy.scale));
   const rin = inK.filter((k) => r[k] !== null);
   const rout = outK.filter((k) => r[k] !== null);
   if (rin.length + rout.length > 0) {
-    charts.push(svgChart({
-      title: 'residuals of the fit',
-      height: 200,
-      xLabel: axisLabel(v.axes.x),
-      yLabel: ylog ? 'ln residual' : axisLabel({ label: 'residual', unit: v.axes.y.unit }),
-      xLog: xlog,
-      bands: band,
-      hlines: [{ y: 0, color: '#1b1b1b', dash: '1 0' }],
-      series: [
-        { x: rout.map((k) => xs[k]), y: rout.map((k) => r[k]), color: OKABE_ITO.orange, marker: 'ring', line: false, label: 'outside window' },
-        { x: rin.map((k) => xs[k]), y: rin.map((k) => r[k]), color: OKABE_ITO.blue, marker: 'dot', line: false, label: 'in window' },
-      ],
-    }));
+    charts.push(
+      svgChart({
+        title: 'residuals of the fit',
+        height: 200,
+        xLabel: axisLabel(v.axes.x),
+        yLabel: ylog ? 'ln residual' : axisLabel({ label: 'residual', unit: v.axes.y.unit }),
+        xLog: xlog,
+        bands: band,
+        hlines: [{ y: 0, color: '#1b1b1b', dash: '1 0' }],
+        series: [
+          { x: rout.map((k) => xs[k]), y: rout.map((k) => r[k]), color: OKABE_ITO.orange, marker: 'ring', line: false, label: 'outside window' },
+          { x: rin.map((k) => xs[k]), y: rin.map((k) => r[k]), color: OKABE_ITO.blue, marker: 'dot', line: false, label: 'in window' },
+        ],
+      }),
+    );
   }
   return { charts, hidden };
 }
@@ -259,7 +295,9 @@ function solarChart(sw: SweepData, s: SolarSummary): string {
     series: [
       { x: keep.map((k) => sw.v[k]), y: keep.map((k) => sign * sw.i[k]), color: OKABE_ITO.blue, marker: 'dot', line: false, label: 'measured' },
       ...(s.curve ? [{ x: [...s.curve.v], y: [...s.curve.i], color: OKABE_ITO.black, width: 2, label: 'single-diode fit' }] : []),
-      ...(f.vmp && f.imp ? [{ x: [f.vmp.value], y: [f.imp.value], color: OKABE_ITO.vermillion, marker: 'square' as const, line: false, label: 'maximum power' }] : []),
+      ...(f.vmp && f.imp
+        ? [{ x: [f.vmp.value], y: [f.imp.value], color: OKABE_ITO.vermillion, marker: 'square' as const, line: false, label: 'maximum power' }]
+        : []),
     ],
   });
 }
@@ -304,9 +342,13 @@ table.kv th{font-weight:600;color:#444;width:16rem}.settings{display:grid;grid-t
 @media print{body{margin:0}h2{page-break-after:avoid}}
 </style></head><body>`);
   out.push(`<h1>plumbline session report: ${esc(s.id)}</h1>`);
-  out.push(`<p>Started ${esc(se?.startedAt ?? 'unknown')}; source: ${esc(se?.source.detail ?? 'unknown')}${se?.source.control === false ? ' (watched; plumbline did not control the instrument)' : ''}; instrument: ${esc(se?.instrument ?? 'unknown')}.<br>`);
+  out.push(
+    `<p>Started ${esc(se?.startedAt ?? 'unknown')}; source: ${esc(se?.source.detail ?? 'unknown')}${se?.source.control === false ? ' (watched; plumbline did not control the instrument)' : ''}; instrument: ${esc(se?.instrument ?? 'unknown')}.<br>`,
+  );
   out.push(`Ended: <b>${esc(s.runEnd?.outcome ?? 'not ended')}</b>${s.runEnd ? ` — ${esc(s.runEnd.reason)}` : ''}. ${n} sweep(s).</p>`);
-  out.push('<p class="caution">Cautions and decisions below record what the software saw. They do not replace your lab\'s safety rules, the instrument\'s manual or licensed practice.</p>');
+  out.push(
+    '<p class="caution">Cautions and decisions below record what the software saw. They do not replace your lab\'s safety rules, the instrument\'s manual or licensed practice.</p>',
+  );
   out.push(breakdownSection(s));
   // Settings, as tables in the trade's units.
   out.push('<h2>Settings</h2><div class="settings">');
@@ -317,47 +359,79 @@ table.kv th{font-weight:600;color:#444;width:16rem}.settings{display:grid;grid-t
   const dev = deviceRows(s.device as Record<string, unknown> | null);
   if (dev.length) {
     const corrected = s.annotations.some((a) => a.device);
-    out.push(`<div><h3>Device under test</h3>${figureTable(dev, 'device')}${corrected ? '<p class="note">With the corrections made in notes after the start (later values win).</p>' : ''}</div>`);
+    out.push(
+      `<div><h3>Device under test</h3>${figureTable(dev, 'device')}${corrected ? '<p class="note">With the corrections made in notes after the start (later values win).</p>' : ''}</div>`,
+    );
   }
   out.push('</div>');
   if (s.timelineSettings.length) {
     out.push('<h3>Analysis changes during the session</h3><table><tr><th>t (s)</th><th>from</th><th>settings from then on</th></tr>');
-    for (const e of s.timelineSettings) out.push(`<tr><td>${(e.t / 1000).toFixed(3)}</td><td>${esc(e.source)}</td><td>${esc(describeAnalysis(settingsOf(e.analysis)))}</td></tr>`);
+    for (const e of s.timelineSettings)
+      out.push(`<tr><td>${(e.t / 1000).toFixed(3)}</td><td>${esc(e.source)}</td><td>${esc(describeAnalysis(settingsOf(e.analysis)))}</td></tr>`);
     out.push('</table>');
   }
-  if (s.badLines.length) out.push(`<p class="note">${s.badLines.length} damaged journal line(s) were skipped: ${s.badLines.map((b) => `line ${b.line} (${esc(b.problem)})`).join('; ')}.</p>`);
+  if (s.badLines.length)
+    out.push(
+      `<p class="note">${s.badLines.length} damaged journal line(s) were skipped: ${s.badLines.map((b) => `line ${b.line} (${esc(b.problem)})`).join('; ')}.</p>`,
+    );
   // Annotations.
   out.push('<h2>Notes</h2>');
   if (s.annotations.length === 0) out.push('<p class="note">No notes.</p>');
-  else out.push(`<ul>${s.annotations.map((a) => `<li>${a.sweep !== undefined ? `sweep ${a.sweep}: ` : 'session: '}${esc(a.text)}${a.tags.length ? ` <span class="note">[${a.tags.map(esc).join(', ')}]</span>` : ''}</li>`).join('')}</ul>`);
+  else
+    out.push(
+      `<ul>${s.annotations.map((a) => `<li>${a.sweep !== undefined ? `sweep ${a.sweep}: ` : 'session: '}${esc(a.text)}${a.tags.length ? ` <span class="note">[${a.tags.map(esc).join(', ')}]</span>` : ''}</li>`).join('')}</ul>`,
+    );
   // Timeline.
   out.push('<h2>Cautions and decisions</h2>');
   if (s.timeline.length === 0) out.push('<p class="note">None.</p>');
   else {
     out.push('<table><tr><th>t (s)</th><th>event</th><th>text</th></tr>');
     for (const e of s.timeline) {
-      const what = e.type === 'caution' ? `caution: ${e.kind}` : e.type === 'decision' ? `decision: ${e.action}` : e.type === 'output' ? `output ${e.on ? 'on' : 'off'}${e.queried ? (e.confirmed ? ' (confirmed by the instrument)' : ' (NOT confirmed)') : e.sent === false ? ' (could not be sent)' : ' (sent)'}` : e.type;
-      const text = e.type === 'caution' ? e.message : e.type === 'decision' || e.type === 'output' || e.type === 'run-end' ? e.reason : e.type === 'recovery' ? e.message : '';
+      const what =
+        e.type === 'caution'
+          ? `caution: ${e.kind}`
+          : e.type === 'decision'
+            ? `decision: ${e.action}`
+            : e.type === 'output'
+              ? `output ${e.on ? 'on' : 'off'}${e.queried ? (e.confirmed ? ' (confirmed by the instrument)' : ' (NOT confirmed)') : e.sent === false ? ' (could not be sent)' : ' (sent)'}`
+              : e.type;
+      const text =
+        e.type === 'caution'
+          ? e.message
+          : e.type === 'decision' || e.type === 'output' || e.type === 'run-end'
+            ? e.reason
+            : e.type === 'recovery'
+              ? e.message
+              : '';
       out.push(`<tr><td>${(e.t / 1000).toFixed(3)}</td><td>${esc(what)}</td><td>${esc(text)}</td></tr>`);
     }
     out.push('</table>');
   }
   // Overview of all sweeps.
   out.push('<h2>All sweeps</h2>');
-  out.push(svgChart({
-    width: 900,
-    height: 360,
-    title: `|I| against V, ${n} sweep(s): colour from the first (dark) to the last (light); ✕ negative current, □ at compliance`,
-    xLabel: 'bias V (V)',
-    yLabel: '|I| (A)',
-    yLog: true,
-    // Curves as lines; a sweep of a single reading (a breakdown test's use-condition check) as a dot.
-    series: s.sweeps.flatMap((sw, k) => measuredSeries(sw, sweepColour(k, n), `sweep ${sw.sweep}`).map((x, j) => (j === 0 && x.y.filter((y) => y !== null).length > 1 ? { ...x, marker: 'none' as const } : x))),
-  }));
+  out.push(
+    svgChart({
+      width: 900,
+      height: 360,
+      title: `|I| against V, ${n} sweep(s): colour from the first (dark) to the last (light); ✕ negative current, □ at compliance`,
+      xLabel: 'bias V (V)',
+      yLabel: '|I| (A)',
+      yLog: true,
+      // Curves as lines; a sweep of a single reading (a breakdown test's use-condition check) as a dot.
+      series: s.sweeps.flatMap((sw, k) =>
+        measuredSeries(sw, sweepColour(k, n), `sweep ${sw.sweep}`).map((x, j) =>
+          j === 0 && x.y.filter((y) => y !== null).length > 1 ? { ...x, marker: 'none' as const } : x,
+        ),
+      ),
+    }),
+  );
   // Parameter trends, in display units, with the drift chart of the charted parameter.
   const names = new Map<string, string>();
   for (const sw of s.sweeps) for (const [k, p] of Object.entries(sw.fit?.parameters ?? {})) if (!names.has(k)) names.set(k, p.unit);
-  const drift = s.sweeps.map((sw) => sw.drift).filter((d): d is Drift => d !== null).sort((a, b) => a.sweep - b.sweep);
+  const drift = s.sweeps
+    .map((sw) => sw.drift)
+    .filter((d): d is Drift => d !== null)
+    .sort((a, b) => a.sweep - b.sweep);
   const breaks = driftBreaks(drift, restarts(s));
   out.push('<h2>Parameters across sweeps</h2><div class="plots">');
   if (names.size === 0) out.push('<p class="note">No fitted parameters.</p>');
@@ -377,7 +451,15 @@ table.kv th{font-weight:600;color:#444;width:16rem}.settings{display:grid;grid-t
     if (ewma) {
       // One line per baseline: no line runs across a break.
       const cut = new Set(breaks.map((b) => b.sweep));
-      const seg = (pick: (d: Drift) => number | null) => mine.flatMap((d, k) => (k > 0 && cut.has(d.sweep) ? [{ x: d.sweep - 0.5, y: null }, { x: d.sweep, y: pick(d) }] : [{ x: d.sweep, y: pick(d) }]));
+      const seg = (pick: (d: Drift) => number | null) =>
+        mine.flatMap((d, k) =>
+          k > 0 && cut.has(d.sweep)
+            ? [
+                { x: d.sweep - 0.5, y: null },
+                { x: d.sweep, y: pick(d) },
+              ]
+            : [{ x: d.sweep, y: pick(d) }],
+        );
       const line = (pick: (d: Drift) => number | null, color: string, dash: string | undefined, label: string, marker?: 'dot') => {
         const pts = seg((d) => (pick(d) === null ? null : (pick(d) as number) * du.scale));
         series.push({ x: pts.map((p) => p.x), y: pts.map((p) => p.y), color, dash, label, marker });
@@ -387,28 +469,40 @@ table.kv th{font-weight:600;color:#444;width:16rem}.settings{display:grid;grid-t
       line((d) => d.lower, OKABE_ITO.vermillion, '6 4', 'lower limit');
     }
     const label = du.unit ? `${parameterLabel(name)} (${du.unit})` : parameterLabel(name);
-    out.push(svgChart({
-      width: 900,
-      title: `${parameterLabel(name)}${du.unit ? ` (${du.unit})` : ''}: value ● ± 2σ (dotted)${ewma ? '; EWMA ● (black) and its control limits (dashed)' : ''}${breaks.length && mine.length ? '; vertical dashes: a new drift baseline' : ''}`,
-      xLabel: 'sweep',
-      xInteger: true,
-      yLabel: label,
-      series,
-      vlines: mine.length ? breaks.map((b) => ({ x: b.sweep - 0.5, color: '#1b1b1b', label: `new baseline (${b.reason})` })) : [],
-    }));
+    out.push(
+      svgChart({
+        width: 900,
+        title: `${parameterLabel(name)}${du.unit ? ` (${du.unit})` : ''}: value ● ± 2σ (dotted)${ewma ? '; EWMA ● (black) and its control limits (dashed)' : ''}${breaks.length && mine.length ? '; vertical dashes: a new drift baseline' : ''}`,
+        xLabel: 'sweep',
+        xInteger: true,
+        yLabel: label,
+        series,
+        vlines: mine.length ? breaks.map((b) => ({ x: b.sweep - 0.5, color: '#1b1b1b', label: `new baseline (${b.reason})` })) : [],
+      }),
+    );
   }
   out.push('</div>');
   // A solar cell's figures of merit.
   const solar = s.sweeps.filter((sw) => sw.solar && Object.keys(sw.solar.figures).length);
   if (solar.length) {
     const keys = [...new Set(solar.flatMap((sw) => Object.keys(sw.solar?.figures ?? {})))];
-    const ref = (solar[0].solar as SolarSummary);
-    out.push(`<h2>Solar cell: figures of merit</h2><p class="note">From local least-squares fits of each measured curve (± one standard uncertainty); G = ${num(ref.irradiance)} W/m²${ref.area !== null ? `, area ${formatQuantity(ref.area, 'm^2')}` : ''}, T = ${num(ref.temperature.value)} K${ref.temperature.assumed ? ' (assumed)' : ''}; currents in the generator convention. Standard test conditions are 1000 W/m², 25 °C, AM1.5G (IEC 60904-3; measurement per IEC 60904-1).</p>`);
-    out.push(`<table><tr><th>sweep</th>${keys.map((k) => `<th>${esc(parameterLabel(k))}${displayUnit(ref.figures[k]?.unit ?? '', k).unit ? ` (${esc(displayUnit(ref.figures[k]?.unit ?? '', k).unit)})` : ''}</th>`).join('')}<th>single-diode fit</th></tr>`);
+    const ref = solar[0].solar as SolarSummary;
+    out.push(
+      `<h2>Solar cell: figures of merit</h2><p class="note">From local least-squares fits of each measured curve (± one standard uncertainty); G = ${num(ref.irradiance)} W/m²${ref.area !== null ? `, area ${formatQuantity(ref.area, 'm^2')}` : ''}, T = ${num(ref.temperature.value)} K${ref.temperature.assumed ? ' (assumed)' : ''}; currents in the generator convention. Standard test conditions are 1000 W/m², 25 °C, AM1.5G (IEC 60904-3; measurement per IEC 60904-1).</p>`,
+    );
+    out.push(
+      `<table><tr><th>sweep</th>${keys.map((k) => `<th>${esc(parameterLabel(k))}${displayUnit(ref.figures[k]?.unit ?? '', k).unit ? ` (${esc(displayUnit(ref.figures[k]?.unit ?? '', k).unit)})` : ''}</th>`).join('')}<th>single-diode fit</th></tr>`,
+    );
     for (const sw of solar) {
       const f = sw.solar as SolarSummary;
       const m = f.model?.parameters ?? {};
-      out.push(`<tr><td>${sw.sweep}</td>${keys.map((k) => `<td>${f.figures[k] ? esc(formatParameter(f.figures[k], k).text) : '—'}</td>`).join('')}<td>${esc(Object.entries(m).map(([k, p]) => `${parameterLabel(k)} ${formatParameterText(p, k)}`).join('; '))}</td></tr>`);
+      out.push(
+        `<tr><td>${sw.sweep}</td>${keys.map((k) => `<td>${f.figures[k] ? esc(formatParameter(f.figures[k], k).text) : '—'}</td>`).join('')}<td>${esc(
+          Object.entries(m)
+            .map(([k, p]) => `${parameterLabel(k)} ${formatParameterText(p, k)}`)
+            .join('; '),
+        )}</td></tr>`,
+      );
     }
     out.push('</table>');
   }
@@ -421,21 +515,31 @@ table.kv th{font-weight:600;color:#444;width:16rem}.settings{display:grid;grid-t
   out.push('<th>R²</th><th>drift</th><th>notes</th></tr>');
   for (const sw of s.sweeps) {
     const f = sw.fit;
-    out.push(`<tr><td>${sw.sweep}${sw.label ? ` <span class="note">${esc(sw.label)}</span>` : ''}</td><td>${sw.v.length}</td><td>${sw.complete === null ? '—' : sw.complete ? 'yes' : 'no'}</td><td>${esc(f?.model ?? '—')}</td><td>${f ? `${num(f.window.from, 4)} … ${num(f.window.to, 4)}` : esc(sw.fitError ?? '—')}</td>`);
+    out.push(
+      `<tr><td>${sw.sweep}${sw.label ? ` <span class="note">${esc(sw.label)}</span>` : ''}</td><td>${sw.v.length}</td><td>${sw.complete === null ? '—' : sw.complete ? 'yes' : 'no'}</td><td>${esc(f?.model ?? '—')}</td><td>${f ? `${num(f.window.from, 4)} … ${num(f.window.to, 4)}` : esc(sw.fitError ?? '—')}</td>`,
+    );
     for (const [name] of names) {
       const p = f?.parameters[name];
       out.push(`<td>${p ? esc(formatParameter(p, name).text) : '—'}</td>`);
     }
-    out.push(`<td>${f ? f.line.r2.toFixed(5) : '—'}</td><td>${esc(sw.drift?.state ?? '—')}</td><td>${esc(sw.annotations.map((a) => a.text).join('; '))}</td></tr>`);
+    out.push(
+      `<td>${f ? f.line.r2.toFixed(5) : '—'}</td><td>${esc(sw.drift?.state ?? '—')}</td><td>${esc(sw.annotations.map((a) => a.text).join('; '))}</td></tr>`,
+    );
   }
   out.push('</table>');
   // Re-analyses made on the page, kept beside the journal.
   if (reanalyses.length) {
-    out.push('<h2>Re-analyses</h2><p class="note">Fits made again with other settings after the run (the page, or POST /api/sessions/…/reanalyze), kept in reanalysis.jsonl beside the journal; the journal\'s own fits above are unchanged.</p>');
+    out.push(
+      '<h2>Re-analyses</h2><p class="note">Fits made again with other settings after the run (the page, or POST /api/sessions/…/reanalyze), kept in reanalysis.jsonl beside the journal; the journal\'s own fits above are unchanged.</p>',
+    );
     out.push('<table><tr><th>when</th><th>settings</th><th>sweep</th><th>result</th></tr>');
     for (const r of reanalyses.slice(-50)) {
       for (const f of r.fits) {
-        const res = f.fit ? Object.entries(f.fit.parameters).map(([k, p]) => `${parameterLabel(k)} ${formatParameterText(p, k)}`).join('; ') || 'line only' : `no fit: ${f.error ?? ''}`;
+        const res = f.fit
+          ? Object.entries(f.fit.parameters)
+              .map(([k, p]) => `${parameterLabel(k)} ${formatParameterText(p, k)}`)
+              .join('; ') || 'line only'
+          : `no fit: ${f.error ?? ''}`;
         out.push(`<tr><td>${esc(r.at)}</td><td>${esc(describeAnalysis(settingsOf(r.analysis)))}</td><td>${f.sweep}</td><td>${esc(res)}</td></tr>`);
       }
     }
@@ -447,13 +551,26 @@ table.kv th{font-weight:600;color:#444;width:16rem}.settings{display:grid;grid-t
   if (shown.length < n) out.push(`<p class="note">The last ${shown.length} of ${n} sweeps are drawn one by one; the overview and the table hold them all.</p>`);
   for (const sw of shown) {
     const notes: string[] = [];
-    out.push(`<div class="sweep"><h3>Sweep ${sw.sweep}${sw.label ? `: ${esc(sw.label)}` : ''}${sw.complete === false ? ' (incomplete)' : ''}</h3><div class="plots">`);
-    out.push(svgChart({ title: 'measured: ✕ negative current (as |I|), □ at compliance', xLabel: 'bias V (V)', yLabel: '|I| (A)', yLog: true, series: measuredSeries(sw, OKABE_ITO.blue) }));
+    out.push(
+      `<div class="sweep"><h3>Sweep ${sw.sweep}${sw.label ? `: ${esc(sw.label)}` : ''}${sw.complete === false ? ' (incomplete)' : ''}</h3><div class="plots">`,
+    );
+    out.push(
+      svgChart({
+        title: 'measured: ✕ negative current (as |I|), □ at compliance',
+        xLabel: 'bias V (V)',
+        yLabel: '|I| (A)',
+        yLog: true,
+        series: measuredSeries(sw, OKABE_ITO.blue),
+      }),
+    );
     // The sweep is drawn with the settings its recorded fit was made with.
     const a = settingsOf(sw.analysis) ?? analysis;
     if (a) {
       try {
-        const v = plotView({ x: sw.v, y: sw.i, compliance: sw.c, breakdown: sw.b }, { model: a.model, inputs: a.inputs, window: a.window, complianceLimit: s.complianceLimit });
+        const v = plotView(
+          { x: sw.v, y: sw.i, compliance: sw.c, breakdown: sw.b },
+          { model: a.model, inputs: a.inputs, window: a.window, complianceLimit: s.complianceLimit },
+        );
         const { charts, hidden } = linearizedCharts(v, a.model);
         out.push(...charts);
         if (hidden) notes.push(`${hidden} transformable point(s) far from the fit window are not drawn in the linearized plot`);
@@ -463,13 +580,27 @@ table.kv th{font-weight:600;color:#444;width:16rem}.settings{display:grid;grid-t
     }
     if (sw.solar && Object.keys(sw.solar.figures).length) out.push(solarChart(sw, sw.solar));
     out.push('</div>');
-    if (sw.fit) out.push(`<p class="note">${Object.entries(sw.fit.parameters).map(([k, p]) => `${esc(parameterLabel(k))} = ${esc(formatParameterText(p, k))}`).join('; ')}${Object.keys(sw.fit.parameters).length ? '; ' : ''}R² ${sw.fit.line.r2.toFixed(6)}; ${sw.fit.line.n} points in the window (${esc(describeAnalysis(a))}).${sw.fit.warnings.length ? ` Warnings: ${sw.fit.warnings.map(esc).join('; ')}` : ''}</p>`);
+    if (sw.fit)
+      out.push(
+        `<p class="note">${Object.entries(sw.fit.parameters)
+          .map(([k, p]) => `${esc(parameterLabel(k))} = ${esc(formatParameterText(p, k))}`)
+          .join(
+            '; ',
+          )}${Object.keys(sw.fit.parameters).length ? '; ' : ''}R² ${sw.fit.line.r2.toFixed(6)}; ${sw.fit.line.n} points in the window (${esc(describeAnalysis(a))}).${sw.fit.warnings.length ? ` Warnings: ${sw.fit.warnings.map(esc).join('; ')}` : ''}</p>`,
+      );
     else if (sw.fitError) out.push(`<p class="note">No fit: ${esc(sw.fitError)}</p>`);
-    if (sw.solar) out.push(`<p class="note">Solar cell: ${Object.entries(sw.solar.figures).map(([k, p]) => `${esc(parameterLabel(k))} ${esc(formatParameterText(p, k))}`).join('; ')}.${sw.solar.warnings.length ? ` Warnings: ${sw.solar.warnings.map(esc).join('; ')}` : ''}</p>`);
+    if (sw.solar)
+      out.push(
+        `<p class="note">Solar cell: ${Object.entries(sw.solar.figures)
+          .map(([k, p]) => `${esc(parameterLabel(k))} ${esc(formatParameterText(p, k))}`)
+          .join('; ')}.${sw.solar.warnings.length ? ` Warnings: ${sw.solar.warnings.map(esc).join('; ')}` : ''}</p>`,
+      );
     if (notes.length) out.push(`<p class="note">${notes.map(esc).join('; ')}.</p>`);
     out.push('</div>');
   }
-  out.push(`<p class="note">Generated by plumbline from ${esc(s.dir)} on ${new Date().toISOString()}. Shown in the trade's units (nm, cm², MV/cm, A/cm², cm/MV, eV); the journal and every export keep SI.</p></body></html>`);
+  out.push(
+    `<p class="note">Generated by plumbline from ${esc(s.dir)} on ${new Date().toISOString()}. Shown in the trade's units (nm, cm², MV/cm, A/cm², cm/MV, eV); the journal and every export keep SI.</p></body></html>`,
+  );
   return out.join('\n');
 }
 

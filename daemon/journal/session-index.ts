@@ -104,62 +104,66 @@ export class SessionIndex {
   private build(): void {
     // Events first (journal.jsonl), folded per sweep.
     let adaptive: Ev<'adaptive-sweep'>[] = [];
-    const scan = scanJournal(this.dir, (e) => {
-      switch (e.type) {
-        case 'session':
-          this.session = e;
-          this.analysis = e.analysis;
-          this.complianceLimit = (e.plan as { compliance?: number } | null)?.compliance;
-          this.events.push(e);
-          break;
-        case 'settings':
-          this.analysis = e.analysis;
-          this.events.push(e);
-          break;
-        case 'sweep-start':
-          this.record(e.sweep);
-          break;
-        case 'sweep-end': {
-          const s = this.record(e.sweep);
-          s.complete = e.complete;
-          s.analysis = this.analysis;
-          break;
-        }
-        case 'fit':
-          if (e.final) {
+    const scan = scanJournal(
+      this.dir,
+      (e) => {
+        switch (e.type) {
+          case 'session':
+            this.session = e;
+            this.analysis = e.analysis;
+            this.complianceLimit = (e.plan as { compliance?: number } | null)?.compliance;
+            this.events.push(e);
+            break;
+          case 'settings':
+            this.analysis = e.analysis;
+            this.events.push(e);
+            break;
+          case 'sweep-start':
+            this.record(e.sweep);
+            break;
+          case 'sweep-end': {
             const s = this.record(e.sweep);
-            s.fit = e.fit;
-            s.fitError = e.error ?? null;
-            s.solar = e.solar ?? null;
+            s.complete = e.complete;
             s.analysis = this.analysis;
+            break;
           }
-          break;
-        case 'drift':
-          this.drift.push(e);
-          break;
-        case 'ranking':
-          this.ranking = e;
-          break;
-        case 'run-end':
-          this.runEnd = e;
-          this.events.push(e);
-          break;
-        case 'caution':
-        case 'decision':
-        case 'output':
-        case 'annotation':
-        case 'recovery':
-        case 'test-result':
-          this.events.push(e);
-          break;
-        case 'adaptive-sweep':
-          adaptive.push(e);
-          if (adaptive.length > 2 * ADAPTIVE_KEPT) adaptive = adaptive.slice(-ADAPTIVE_KEPT);
-          break;
-        default:
-          break;
-      }
-    }, { readings: false });
+          case 'fit':
+            if (e.final) {
+              const s = this.record(e.sweep);
+              s.fit = e.fit;
+              s.fitError = e.error ?? null;
+              s.solar = e.solar ?? null;
+              s.analysis = this.analysis;
+            }
+            break;
+          case 'drift':
+            this.drift.push(e);
+            break;
+          case 'ranking':
+            this.ranking = e;
+            break;
+          case 'run-end':
+            this.runEnd = e;
+            this.events.push(e);
+            break;
+          case 'caution':
+          case 'decision':
+          case 'output':
+          case 'annotation':
+          case 'recovery':
+          case 'test-result':
+            this.events.push(e);
+            break;
+          case 'adaptive-sweep':
+            adaptive.push(e);
+            if (adaptive.length > 2 * ADAPTIVE_KEPT) adaptive = adaptive.slice(-ADAPTIVE_KEPT);
+            break;
+          default:
+            break;
+        }
+      },
+      { readings: false },
+    );
     this.events.push(...adaptive.slice(-ADAPTIVE_KEPT));
     this.bad = scan.bad;
     this.lastSeq = scan.lastSeq;

@@ -72,7 +72,8 @@ export function svgChart(c: SvgChart): string {
       y1 = Math.max(y1, b);
     }
   }
-  if (!Number.isFinite(x0)) return `<svg class="chart" width="${W}" height="${H}" role="img"><text x="${W / 2}" y="${H / 2}" text-anchor="middle">no data to plot</text></svg>`;
+  if (!Number.isFinite(x0))
+    return `<svg class="chart" width="${W}" height="${H}" role="img"><text x="${W / 2}" y="${H / 2}" text-anchor="middle">no data to plot</text></svg>`;
   if (c.yLog) {
     y0 = Math.floor(y0);
     y1 = Math.max(y0 + 1, Math.ceil(y1));
@@ -91,12 +92,17 @@ export function svgChart(c: SvgChart): string {
   const px = (a: number) => L + ((a - x0) / (x1 - x0)) * (W - L - R);
   const py = (b: number) => H - B - ((b - y0) / (y1 - y0)) * (H - T - B);
   const parts: string[] = [];
-  parts.push(`<svg class="chart" xmlns="http://www.w3.org/2000/svg" width="${W}" height="${H}" viewBox="0 0 ${W} ${H}" role="img"${c.title ? ` aria-label="${esc(c.title)}"` : ''}>`);
+  parts.push(
+    `<svg class="chart" xmlns="http://www.w3.org/2000/svg" width="${W}" height="${H}" viewBox="0 0 ${W} ${H}" role="img"${c.title ? ` aria-label="${esc(c.title)}"` : ''}>`,
+  );
   if (c.title) parts.push(`<text x="${L}" y="16" class="t">${esc(c.title)}</text>`);
   for (const b of c.bands ?? []) {
     const a = px(fx(b.x0));
     const z = px(fx(b.x1));
-    if (Number.isFinite(a) && Number.isFinite(z)) parts.push(`<rect x="${Math.min(a, z).toFixed(1)}" y="${T}" width="${Math.abs(z - a).toFixed(1)}" height="${H - T - B}" fill="${b.color}" stroke="#0072B2" stroke-dasharray="4 3"/>`);
+    if (Number.isFinite(a) && Number.isFinite(z))
+      parts.push(
+        `<rect x="${Math.min(a, z).toFixed(1)}" y="${T}" width="${Math.abs(z - a).toFixed(1)}" height="${H - T - B}" fill="${b.color}" stroke="#0072B2" stroke-dasharray="4 3"/>`,
+      );
   }
   // Axes and ticks.
   // Ticks in value space (log axes: decades, or 1-2-5 steps on narrow ranges), labelled so that no
@@ -115,15 +121,22 @@ export function svgChart(c: SvgChart): string {
   let xticks = ticks(x0, x1, Boolean(c.xLog));
   if (c.xInteger && !c.xLog) {
     const whole = xticks.filter((t) => Math.abs(t.at - Math.round(t.at)) < 1e-9);
-    xticks = whole.length >= 2 ? whole.map((t) => ({ at: t.at, label: String(Math.round(t.at)) })) : Array.from({ length: Math.floor(x1) - Math.ceil(x0) + 1 }, (_x, k) => ({ at: Math.ceil(x0) + k, label: String(Math.ceil(x0) + k) }));
+    xticks =
+      whole.length >= 2
+        ? whole.map((t) => ({ at: t.at, label: String(Math.round(t.at)) }))
+        : Array.from({ length: Math.floor(x1) - Math.ceil(x0) + 1 }, (_x, k) => ({ at: Math.ceil(x0) + k, label: String(Math.ceil(x0) + k) }));
   }
   for (const t of xticks) {
     const X = px(t.at).toFixed(1);
-    parts.push(`<line x1="${X}" y1="${T}" x2="${X}" y2="${H - B}" stroke="#e4e1d8"/><text x="${X}" y="${H - B + 14}" text-anchor="middle">${esc(t.label)}</text>`);
+    parts.push(
+      `<line x1="${X}" y1="${T}" x2="${X}" y2="${H - B}" stroke="#e4e1d8"/><text x="${X}" y="${H - B + 14}" text-anchor="middle">${esc(t.label)}</text>`,
+    );
   }
   for (const t of ticks(y0, y1, Boolean(c.yLog))) {
     const Y = py(t.at).toFixed(1);
-    parts.push(`<line x1="${L}" y1="${Y}" x2="${W - R}" y2="${Y}" stroke="#e4e1d8"/><text x="${L - 4}" y="${Y}" text-anchor="end" dominant-baseline="middle">${esc(t.label)}</text>`);
+    parts.push(
+      `<line x1="${L}" y1="${Y}" x2="${W - R}" y2="${Y}" stroke="#e4e1d8"/><text x="${L - 4}" y="${Y}" text-anchor="end" dominant-baseline="middle">${esc(t.label)}</text>`,
+    );
   }
   parts.push(`<text x="${(L + W - R) / 2}" y="${H - 8}" text-anchor="middle" class="ax">${esc(c.xLabel)}</text>`);
   parts.push(`<text transform="translate(14 ${(T + H - B) / 2}) rotate(-90)" text-anchor="middle" class="ax">${esc(c.yLabel)}</text>`);
@@ -133,17 +146,23 @@ export function svgChart(c: SvgChart): string {
     const xb = px(fx(r.x1));
     const ya = py(fy(r.y0));
     const yb = py(fy(r.y1));
-    if ([xa, xb, ya, yb].every(Number.isFinite)) parts.push(`<rect x="${Math.min(xa, xb).toFixed(1)}" y="${Math.min(ya, yb).toFixed(1)}" width="${Math.abs(xb - xa).toFixed(1)}" height="${Math.abs(yb - ya).toFixed(1)}" fill="${r.fill}" stroke="${r.stroke}" stroke-dasharray="5 3"/>`);
+    if ([xa, xb, ya, yb].every(Number.isFinite))
+      parts.push(
+        `<rect x="${Math.min(xa, xb).toFixed(1)}" y="${Math.min(ya, yb).toFixed(1)}" width="${Math.abs(xb - xa).toFixed(1)}" height="${Math.abs(yb - ya).toFixed(1)}" fill="${r.fill}" stroke="${r.stroke}" stroke-dasharray="5 3"/>`,
+      );
   }
   for (const v of c.vlines ?? []) {
     const X = px(fx(v.x));
     if (!Number.isFinite(X)) continue;
-    parts.push(`<line x1="${X.toFixed(1)}" y1="${T}" x2="${X.toFixed(1)}" y2="${H - B}" stroke="${v.color}" stroke-dasharray="${v.dash ?? '3 3'}" stroke-width="1.4"/>`);
+    parts.push(
+      `<line x1="${X.toFixed(1)}" y1="${T}" x2="${X.toFixed(1)}" y2="${H - B}" stroke="${v.color}" stroke-dasharray="${v.dash ?? '3 3'}" stroke-width="1.4"/>`,
+    );
     if (v.label) parts.push(`<text x="${(X + 3).toFixed(1)}" y="${T + 11}">${esc(v.label)}</text>`);
   }
   for (const h of c.hlines ?? []) {
     const Y = py(fy(h.y));
-    if (Number.isFinite(Y)) parts.push(`<line x1="${L}" y1="${Y.toFixed(1)}" x2="${W - R}" y2="${Y.toFixed(1)}" stroke="${h.color}" stroke-dasharray="${h.dash ?? '6 4'}"/>`);
+    if (Number.isFinite(Y))
+      parts.push(`<line x1="${L}" y1="${Y.toFixed(1)}" x2="${W - R}" y2="${Y.toFixed(1)}" stroke="${h.color}" stroke-dasharray="${h.dash ?? '6 4'}"/>`);
   }
   for (const s of c.series) {
     const pts: string[] = [];
@@ -160,16 +179,24 @@ export function svgChart(c: SvgChart): string {
       pts.push(`${X.toFixed(1)},${Y.toFixed(1)}`);
       if (s.marker === 'dot') marks.push(`<circle cx="${X.toFixed(1)}" cy="${Y.toFixed(1)}" r="2.6" fill="${s.color}"/>`);
       else if (s.marker === 'ring') marks.push(`<circle cx="${X.toFixed(1)}" cy="${Y.toFixed(1)}" r="2.6" fill="#fff" stroke="${s.color}"/>`);
-      else if (s.marker === 'cross') marks.push(`<path d="M${(X - 3).toFixed(1)},${(Y - 3).toFixed(1)}l6,6m0,-6l-6,6" stroke="${s.color}" stroke-width="1.4" fill="none"/>`);
-      else if (s.marker === 'square') marks.push(`<rect x="${(X - 3).toFixed(1)}" y="${(Y - 3).toFixed(1)}" width="6" height="6" fill="#fff" stroke="${s.color}" stroke-width="1.4"/>`);
+      else if (s.marker === 'cross')
+        marks.push(`<path d="M${(X - 3).toFixed(1)},${(Y - 3).toFixed(1)}l6,6m0,-6l-6,6" stroke="${s.color}" stroke-width="1.4" fill="none"/>`);
+      else if (s.marker === 'square')
+        marks.push(`<rect x="${(X - 3).toFixed(1)}" y="${(Y - 3).toFixed(1)}" width="6" height="6" fill="#fff" stroke="${s.color}" stroke-width="1.4"/>`);
     }
     if (s.line !== false) {
-      const runs = pts.join(' ').split('M').map((r) => r.trim()).filter((r) => r.includes(' ') || r.includes(','));
-      for (const r of runs) parts.push(`<polyline class="series" data-label="${esc(s.label ?? '')}" fill="none" stroke="${s.color}" stroke-width="${s.width ?? 1.4}"${s.dash ? ` stroke-dasharray="${s.dash}"` : ''} points="${r}"/>`);
+      const runs = pts
+        .join(' ')
+        .split('M')
+        .map((r) => r.trim())
+        .filter((r) => r.includes(' ') || r.includes(','));
+      for (const r of runs)
+        parts.push(
+          `<polyline class="series" data-label="${esc(s.label ?? '')}" fill="none" stroke="${s.color}" stroke-width="${s.width ?? 1.4}"${s.dash ? ` stroke-dasharray="${s.dash}"` : ''} points="${r}"/>`,
+        );
     }
     parts.push(...marks);
   }
   parts.push('</g></svg>');
   return parts.join('');
 }
-

@@ -45,17 +45,27 @@ export function temperatureSeries(dir: string, o: { model?: string; quantity?: s
       return;
     }
     try {
-      const r = analyze({ x: sw.v, y: sw.i, compliance: sw.c, breakdown: sw.b }, {
-        model,
-        window: o.model !== undefined && o.model !== base.model ? 'auto' : base.window ?? 'auto',
-        inputs: { ...(base.inputs ?? {}), temperature: T },
-        complianceLimit: s.complianceLimit,
-      });
+      const r = analyze(
+        { x: sw.v, y: sw.i, compliance: sw.c, breakdown: sw.b },
+        {
+          model,
+          window: o.model !== undefined && o.model !== base.model ? 'auto' : (base.window ?? 'auto'),
+          inputs: { ...(base.inputs ?? {}), temperature: T },
+          complianceLimit: s.complianceLimit,
+        },
+      );
       if (quantity === 'intercept') {
-        points.push({ sweep: sw.sweep, temperature: T, value: r.line.intercept, stdErr: r.line.interceptStdErr, y: seriesPoint(T, r.line.intercept, r.line.interceptStdErr, true) });
+        points.push({
+          sweep: sw.sweep,
+          temperature: T,
+          value: r.line.intercept,
+          stdErr: r.line.interceptStdErr,
+          y: seriesPoint(T, r.line.intercept, r.line.interceptStdErr, true),
+        });
       } else {
         const p = r.parameters[quantity];
-        if (!p) throw new AnalysisError('BAD_INPUT', `model ${model} has no parameter '${quantity}' (it has ${Object.keys(r.parameters).join(', ') || 'none'})`);
+        if (!p)
+          throw new AnalysisError('BAD_INPUT', `model ${model} has no parameter '${quantity}' (it has ${Object.keys(r.parameters).join(', ') || 'none'})`);
         if (!(p.value > 0)) throw new AnalysisError('BAD_INPUT', `${quantity} = ${p.value} is not positive: no logarithm`);
         points.push({ sweep: sw.sweep, temperature: T, value: p.value, stdErr: p.stdErr, y: seriesPoint(T, p.value, p.stdErr, false) });
       }
@@ -70,12 +80,15 @@ export function temperatureSeries(dir: string, o: { model?: string; quantity?: s
   let plausible = true;
   if (e.value < 0) {
     plausible = false;
-    warnings.push(`the activation energy ${e.value.toPrecision(3)} eV is negative: the ${quantity} grows as the temperature falls, so it is not a thermally activated ${quantity === 'intercept' && MEANING[model] ? MEANING[model].split(' (')[0] : 'quantity'}; check the temperatures (notes "T = … K" or --temperatures), the model and the fit window`);
+    warnings.push(
+      `the activation energy ${e.value.toPrecision(3)} eV is negative: the ${quantity} grows as the temperature falls, so it is not a thermally activated ${quantity === 'intercept' && MEANING[model] ? MEANING[model].split(' (')[0] : 'quantity'}; check the temperatures (notes "T = … K" or --temperatures), the model and the fit window`,
+    );
   } else if (e.value < 2 * e.stdErr) {
     warnings.push(`the activation energy ${e.value.toPrecision(3)} ± ${e.stdErr.toPrecision(2)} eV is not distinguishable from zero (less than 2σ)`);
   }
   const temps = points.map((p) => p.temperature);
-  if (temps.length && Math.max(...temps) / Math.min(...temps) < 1.1) warnings.push(`the temperatures span only ${Math.min(...temps)}–${Math.max(...temps)} K: 1/T changes by less than 10 %, so the slope is poorly determined`);
+  if (temps.length && Math.max(...temps) / Math.min(...temps) < 1.1)
+    warnings.push(`the temperatures span only ${Math.min(...temps)}–${Math.max(...temps)} K: 1/T changes by less than 10 %, so the slope is poorly determined`);
   if (skipped.length) warnings.push(`${skipped.length} sweep(s) left out (see skipped)`);
   return {
     warnings,
@@ -83,7 +96,7 @@ export function temperatureSeries(dir: string, o: { model?: string; quantity?: s
     session: s.id,
     model,
     quantity,
-    meaning: quantity === 'intercept' ? MEANING[model] ?? `activation energy of the ${model} intercept` : `activation energy of ${quantity}`,
+    meaning: quantity === 'intercept' ? (MEANING[model] ?? `activation energy of the ${model} intercept`) : `activation energy of ${quantity}`,
     points,
     skipped,
     result,

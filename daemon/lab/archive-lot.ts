@@ -31,15 +31,21 @@ const SUMMARY_EVENTS = ['session', 'annotation', 'settings', 'sweep-end', 'fit',
 
 function checkTime(value: string | undefined, option: string): string | undefined {
   if (value === undefined) return undefined;
-  if (!Number.isFinite(Date.parse(value))) throw new ArchiveSelectionError(`${option} '${value}': expected a date or time, e.g. 2026-12-01 or 2026-12-01T08:00:00Z`);
+  if (!Number.isFinite(Date.parse(value)))
+    throw new ArchiveSelectionError(`${option} '${value}': expected a date or time, e.g. 2026-12-01 or 2026-12-01T08:00:00Z`);
   return new Date(Date.parse(value)).toISOString();
 }
 
 export class ArchiveLot implements LotSource {
   readonly description: string;
 
-  constructor(private readonly url: string, private readonly selection: ArchiveSelection) {
-    const parts = Object.entries(selection).filter(([, v]) => v !== undefined).map(([k, v]) => `${k} ${v}`);
+  constructor(
+    private readonly url: string,
+    private readonly selection: ArchiveSelection,
+  ) {
+    const parts = Object.entries(selection)
+      .filter(([, v]) => v !== undefined)
+      .map(([k, v]) => `${k} ${v}`);
     this.description = `the archive${parts.length ? ` (${parts.join(', ')})` : ''}`;
     checkTime(selection.from, '--from');
     checkTime(selection.to, '--to');
@@ -80,12 +86,16 @@ export class ArchiveLot implements LotSource {
       }
       return sessions.rows.map((r) => {
         const events = bySession.get(r.id) ?? [];
-        const results = events.filter((e): e is Extract<WireEvent, { type: 'test-result' }> => e.type === 'test-result').map((e) => e.result as unknown as DeviceResult);
+        const results = events
+          .filter((e): e is Extract<WireEvent, { type: 'test-result' }> => e.type === 'test-result')
+          .map((e) => e.result as unknown as DeviceResult);
         const problems: string[] = [];
         const committed = parseMultirange(r.committed);
         const last = Math.max(Number(r.known_last), committed.at(-1)?.[1] ?? 0);
         if (committed.length !== 1 || committed[0][0] !== 1 || committed[0][1] < last) {
-          problems.push(`the archive holds seq ${committed.map(([a, b]) => `${a}–${b}`).join(', ') || 'nothing'} of ${last}: not all of this session is archived yet`);
+          problems.push(
+            `the archive holds seq ${committed.map(([a, b]) => `${a}–${b}`).join(', ') || 'nothing'} of ${last}: not all of this session is archived yet`,
+          );
         }
         // Session ids are unique per station; the station is kept in the name only when it is needed.
         return summarizeEvents(r.session, null, events, results, problems);

@@ -61,7 +61,11 @@ export async function materializeSessions(url: string, selection: ArchiveSelecti
       let events = 0;
       try {
         for (let after = -1; ; ) {
-          const ev = await c.query<{ seq: string; body: unknown }>('SELECT seq, body FROM events WHERE session_id = $1 AND seq > $2 ORDER BY seq LIMIT $3', [r.id, after, CHUNK]);
+          const ev = await c.query<{ seq: string; body: unknown }>('SELECT seq, body FROM events WHERE session_id = $1 AND seq > $2 ORDER BY seq LIMIT $3', [
+            r.id,
+            after,
+            CHUNK,
+          ]);
           if (ev.rows.length === 0) break;
           writeSync(jfd, ev.rows.map((e) => `${JSON.stringify(e.body)}\n`).join(''));
           events += ev.rows.length;

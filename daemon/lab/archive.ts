@@ -93,7 +93,15 @@ export class Archive {
   async start(): Promise<void> {
     this.store = await ArchiveStore.open(this.options.postgres, (l) => this.log(l));
     for (const s of await this.store.incomplete()) {
-      this.progress.set(`${s.station}/${s.session}`, { station: s.station, session: s.session, committed: s.committed, knownLast: s.knownLast, startedAt: s.startedAt, gapSince: undefined, lastRequest: 0 });
+      this.progress.set(`${s.station}/${s.session}`, {
+        station: s.station,
+        session: s.session,
+        committed: s.committed,
+        knownLast: s.knownLast,
+        startedAt: s.startedAt,
+        gapSince: undefined,
+        lastRequest: 0,
+      });
     }
     const { prefix } = this.addr;
     const clientId = this.options.clientId ?? 'plumbline-archive';
@@ -113,12 +121,16 @@ export class Archive {
     });
     this.client = c;
     c.handleMessage = (packet, callback) => {
-      void this.onMessage(packet.topic, packet.payload as Buffer).then(() => callback(), (e) => callback(e as Error));
+      void this.onMessage(packet.topic, packet.payload as Buffer).then(
+        () => callback(),
+        (e) => callback(e as Error),
+      );
     };
     c.on('error', (e) => this.log(`archive: broker ${this.addr.display}: ${e.message}`));
     let lostLogged = false;
     c.on('close', () => {
-      if (!this.closed && !lostLogged) this.log(`archive: lost the broker ${this.addr.display}; reconnecting (unacknowledged batches stay queued for this archive)`);
+      if (!this.closed && !lostLogged)
+        this.log(`archive: lost the broker ${this.addr.display}; reconnecting (unacknowledged batches stay queued for this archive)`);
       lostLogged = true;
     });
     const subscribed = new Promise<void>((resolve, reject) => {
@@ -159,7 +171,8 @@ export class Archive {
     let batch: ReturnType<typeof decodeBatch>;
     try {
       batch = decodeBatch(payload);
-      if (batch.header.station !== t.station || batch.header.session !== t.session) throw new BatchError(`batch names ${batch.header.station}/${batch.header.session} but came on ${topic}`);
+      if (batch.header.station !== t.station || batch.header.session !== t.session)
+        throw new BatchError(`batch names ${batch.header.station}/${batch.header.session} but came on ${topic}`);
     } catch (e) {
       this.stats.badMessages++;
       this.log(`archive: skipped a message on ${topic}: ${(e as Error).message}`);
@@ -187,14 +200,23 @@ export class Archive {
           }
         }
         const k = this.key(header.station, header.session);
-        const p = this.progress.get(k) ?? { station: header.station, session: header.session, committed: [], knownLast: 0, startedAt: null, gapSince: undefined, lastRequest: 0 };
+        const p = this.progress.get(k) ?? {
+          station: header.station,
+          session: header.session,
+          committed: [],
+          knownLast: 0,
+          startedAt: null,
+          gapSince: undefined,
+          lastRequest: 0,
+        };
         p.committed = [...r.committed];
         p.knownLast = Math.max(p.knownLast, header.to);
         p.startedAt = r.startedAt;
         this.progress.set(k, p);
         return;
       } catch (e) {
-        if (attempt === 0 || attempt % 20 === 0) this.log(`archive: cannot write ${header.station}/${header.session} seq ${header.from}–${header.to} (${redactUrl((e as Error).message)}); retrying`);
+        if (attempt === 0 || attempt % 20 === 0)
+          this.log(`archive: cannot write ${header.station}/${header.session} seq ${header.from}–${header.to} (${redactUrl((e as Error).message)}); retrying`);
         await new Promise((r) => setTimeout(r, Math.min(200 * 2 ** attempt, 5000)));
       }
     }
@@ -245,7 +267,9 @@ export class Archive {
       p.lastRequest = now;
       this.stats.replayRequests++;
       const ranges = missing.slice(0, 32);
-      this.log(`archive: ${p.station}/${p.session} lacks seq ${ranges.map(([a, b]) => (a === b ? `${a}` : `${a}–${b}`)).join(', ')}; asking the station to publish them again`);
+      this.log(
+        `archive: ${p.station}/${p.session} lacks seq ${ranges.map(([a, b]) => (a === b ? `${a}` : `${a}–${b}`)).join(', ')}; asking the station to publish them again`,
+      );
       c.publish(topics.replay(this.addr.prefix, p.station), JSON.stringify({ session: p.session, ranges }), { qos: 1 });
     }
   }

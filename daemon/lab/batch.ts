@@ -66,7 +66,13 @@ export function decodeBatch(msg: Buffer): { header: BatchHeader; records: Buffer
   } catch (e) {
     throw new BatchError(`batch header is not JSON: ${(e as Error).message}`);
   }
-  if (header.v !== 1 || typeof header.from !== 'number' || typeof header.to !== 'number' || !Array.isArray(header.events) || typeof header.session !== 'string') {
+  if (
+    header.v !== 1 ||
+    typeof header.from !== 'number' ||
+    typeof header.to !== 'number' ||
+    !Array.isArray(header.events) ||
+    typeof header.session !== 'string'
+  ) {
     throw new BatchError('batch header lacks v, from, to, session or events');
   }
   const records = msg.subarray(8 + h);

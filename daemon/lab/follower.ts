@@ -72,7 +72,11 @@ export class JournalFollower {
    * @param after  hand out sequence numbers after this one (0: from the start)
    * @param maxReadings  readings per chunk at most (bounds memory: maxReadings × 56 bytes)
    */
-  constructor(readonly dir: string, after = 0, maxReadings = 8192) {
+  constructor(
+    readonly dir: string,
+    after = 0,
+    maxReadings = 8192,
+  ) {
     this.rbuf = Buffer.allocUnsafe(maxReadings * RECORD_BYTES);
     this.next = after + 1;
     this.seekReadings(after);

@@ -50,7 +50,17 @@ export async function importSession(store: ArchiveStore, dir: string, station?: 
   let holes = 0;
   for (let c = f.poll(!live); c; c = f.poll(!live)) {
     const r = await store.writeBatch(
-      { v: 1, station: st, session, from: c.from, to: c.to, readings: c.readings, events: c.events.map((e) => e.event) as never, ...(c.holes.length ? { holes: c.holes } : {}), sentAt: Date.now() },
+      {
+        v: 1,
+        station: st,
+        session,
+        from: c.from,
+        to: c.to,
+        readings: c.readings,
+        events: c.events.map((e) => e.event) as never,
+        ...(c.holes.length ? { holes: c.holes } : {}),
+        sentAt: Date.now(),
+      },
       c.records,
     );
     readings += c.readings;

@@ -61,7 +61,13 @@ export function forPage(s: StationStatus): StationStatus & { display?: Record<st
 
 /** Server → page messages. */
 export type LabMessage =
-  | { readonly kind: 'stations'; readonly broker: string; readonly connected: boolean; readonly stations: readonly StationStatus[]; readonly palette: typeof OKABE_ITO }
+  | {
+      readonly kind: 'stations';
+      readonly broker: string;
+      readonly connected: boolean;
+      readonly stations: readonly StationStatus[];
+      readonly palette: typeof OKABE_ITO;
+    }
   | { readonly kind: 'status'; readonly status: StationStatus }
   | { readonly kind: 'broker'; readonly connected: boolean };
 
@@ -152,7 +158,10 @@ export async function startLabServer(o: LabServerOptions): Promise<LabServer> {
       }
       if (fromQuery !== undefined) res.setHeader('Set-Cookie', `${COOKIE}=${encodeURIComponent(fromQuery)}; HttpOnly; SameSite=Strict; Path=/`);
     }
-    res.setHeader('Content-Security-Policy', "default-src 'self'; connect-src 'self'; img-src 'self' data:; style-src 'self'; script-src 'self'; frame-ancestors 'none'");
+    res.setHeader(
+      'Content-Security-Policy',
+      "default-src 'self'; connect-src 'self'; img-src 'self' data:; style-src 'self'; script-src 'self'; frame-ancestors 'none'",
+    );
     res.setHeader('X-Content-Type-Options', 'nosniff');
     next();
   });
@@ -177,7 +186,15 @@ export async function startLabServer(o: LabServerOptions): Promise<LabServer> {
       clients.add(ws);
       ws.on('error', () => ws.terminate());
       ws.on('close', () => clients.delete(ws));
-      ws.send(JSON.stringify({ kind: 'stations', broker: addr.display, connected, stations: [...stations.values()].map(forPage), palette: OKABE_ITO } satisfies LabMessage));
+      ws.send(
+        JSON.stringify({
+          kind: 'stations',
+          broker: addr.display,
+          connected,
+          stations: [...stations.values()].map(forPage),
+          palette: OKABE_ITO,
+        } satisfies LabMessage),
+      );
     });
   });
   await new Promise<void>((resolve, reject) => {

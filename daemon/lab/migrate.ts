@@ -29,7 +29,9 @@ export function migrations(dir = SCHEMA_DIR): Migration[] {
 export async function migrate(client: pg.ClientBase, dir = SCHEMA_DIR): Promise<number[]> {
   await client.query('SELECT pg_advisory_lock($1)', [LOCK_KEY]);
   try {
-    await client.query('CREATE TABLE IF NOT EXISTS plumbline_schema (version integer PRIMARY KEY, name text NOT NULL, applied_at timestamptz NOT NULL DEFAULT now())');
+    await client.query(
+      'CREATE TABLE IF NOT EXISTS plumbline_schema (version integer PRIMARY KEY, name text NOT NULL, applied_at timestamptz NOT NULL DEFAULT now())',
+    );
     const done = new Set((await client.query<{ version: number }>('SELECT version FROM plumbline_schema')).rows.map((r) => r.version));
     const applied: number[] = [];
     for (const m of migrations(dir)) {

@@ -266,7 +266,9 @@ export class LabPublisher {
       if (gen !== this.gen) return;
       if (!this.outageLogged && (!this.stopping || (!this.connected && lastError))) {
         const why = lastError ? ` (${lastError})` : '';
-        this.log(`publish: ${this.connected ? 'lost the broker' : 'cannot reach the broker'} ${this.addr.display}${why}; readings stay in the journal and are published when it is back`);
+        this.log(
+          `publish: ${this.connected ? 'lost the broker' : 'cannot reach the broker'} ${this.addr.display}${why}; readings stay in the journal and are published when it is back`,
+        );
         this.outageLogged = true;
       }
       this.connected = false;
@@ -396,7 +398,16 @@ export class LabPublisher {
     const gen = this.gen;
     const { station } = this.options;
     const msg = encodeBatch(
-      { station, session, from: chunk.from, to: chunk.to, readings: chunk.readings, ...(chunk.holes.length ? { holes: chunk.holes } : {}), ...(replay ? { replay: true } : {}), sentAt: Date.now() },
+      {
+        station,
+        session,
+        from: chunk.from,
+        to: chunk.to,
+        readings: chunk.readings,
+        ...(chunk.holes.length ? { holes: chunk.holes } : {}),
+        ...(replay ? { replay: true } : {}),
+        sentAt: Date.now(),
+      },
       chunk.events.map((e) => e.line),
       chunk.records,
     );

@@ -31,7 +31,15 @@ export interface PublishingHandle {
 export function startPublishing(o: PublishingOptions): PublishingHandle {
   const addr = parseBrokerUrl(o.url, '--publish');
   const station = checkName(o.station ?? defaultStationId(o.dataDir), 'station id');
-  const data = { url: o.url, station, name: o.name, dataDir: o.dataDir, page: o.page ?? null, tokenRequired: o.tokenRequired ?? false, since: o.since ?? Date.now() };
+  const data = {
+    url: o.url,
+    station,
+    name: o.name,
+    dataDir: o.dataDir,
+    page: o.page ?? null,
+    tokenRequired: o.tokenRequired ?? false,
+    since: o.since ?? Date.now(),
+  };
   let worker: Worker | undefined;
   let stopping = false;
   let result: ((r: { unsent: string[] }) => void) | undefined;

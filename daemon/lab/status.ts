@@ -36,7 +36,16 @@ export interface StationStatus {
     readonly output: { on: boolean; confirmed: boolean } | null;
   };
   /** The latest fit (final of the last sweep, or live). */
-  readonly fit: null | { sweep: number; final: boolean; model: string; title: string; parameters: FitSummary['parameters']; plausible: boolean; r2: number; warnings: readonly string[] };
+  readonly fit: null | {
+    sweep: number;
+    final: boolean;
+    model: string;
+    title: string;
+    parameters: FitSummary['parameters'];
+    plausible: boolean;
+    r2: number;
+    warnings: readonly string[];
+  };
   readonly drift: null | { sweep: number; parameter: string; state: string; statistic: number | null; lower: number | null; upper: number | null };
   /** The session's most recent cautions (newest last). */
   readonly cautions: readonly { kind: string; message: string; sweep?: number; seq: number }[];
@@ -55,7 +64,12 @@ export class StatusTracker {
   /** Changed since the last message. */
   dirty = true;
 
-  constructor(readonly station: string, readonly name: string, readonly page: string | null, readonly tokenRequired: boolean) {}
+  constructor(
+    readonly station: string,
+    readonly name: string,
+    readonly page: string | null,
+    readonly tokenRequired: boolean,
+  ) {}
 
   get currentSession(): string | null {
     return this.session?.id ?? null;
@@ -63,7 +77,22 @@ export class StatusTracker {
 
   /** Starts tracking a (new) session. */
   begin(id: string): void {
-    this.session = { id, startedAt: null, source: null, instrument: null, device: null, sweep: 0, sweeps: 0, point: 0, points: 0, eta: null, readings: 0, outcome: null, reason: null, output: null };
+    this.session = {
+      id,
+      startedAt: null,
+      source: null,
+      instrument: null,
+      device: null,
+      sweep: 0,
+      sweeps: 0,
+      point: 0,
+      points: 0,
+      eta: null,
+      readings: 0,
+      outcome: null,
+      reason: null,
+      output: null,
+    };
     this.fit = null;
     this.drift = null;
     this.cautions = [];
@@ -106,11 +135,28 @@ export class StatusTracker {
         break;
       case 'fit': {
         const f = e.fit as FitSummary | null;
-        if (f) this.fit = { sweep: e.sweep as number, final: e.final as boolean, model: f.model, title: f.title, parameters: f.parameters, plausible: f.plausible, r2: f.line.r2, warnings: f.warnings };
+        if (f)
+          this.fit = {
+            sweep: e.sweep as number,
+            final: e.final as boolean,
+            model: f.model,
+            title: f.title,
+            parameters: f.parameters,
+            plausible: f.plausible,
+            r2: f.line.r2,
+            warnings: f.warnings,
+          };
         break;
       }
       case 'drift':
-        this.drift = { sweep: e.sweep as number, parameter: e.parameter as string, state: e.state as string, statistic: e.statistic as number | null, lower: e.lower as number | null, upper: e.upper as number | null };
+        this.drift = {
+          sweep: e.sweep as number,
+          parameter: e.parameter as string,
+          state: e.state as string,
+          statistic: e.statistic as number | null,
+          lower: e.lower as number | null,
+          upper: e.upper as number | null,
+        };
         break;
       case 'caution':
         this.cautions.push({ kind: e.kind as string, message: e.message as string, ...(typeof e.sweep === 'number' ? { sweep: e.sweep } : {}), seq: e.seq });

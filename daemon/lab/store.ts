@@ -218,12 +218,35 @@ export class ArchiveStore {
         return undefined;
       case 'fit': {
         if (!e.final) return undefined;
-        const f = e.fit as { model: string; plausible: boolean; line: Record<string, number>; window: { from: number; to: number }; parameters: unknown; warnings: unknown } | null;
+        const f = e.fit as {
+          model: string;
+          plausible: boolean;
+          line: Record<string, number>;
+          window: { from: number; to: number };
+          parameters: unknown;
+          warnings: unknown;
+        } | null;
         await c.query(
           `INSERT INTO fits (session_id, seq, sweep, model, plausible, slope, slope_se, intercept, intercept_se, r2, n, window_from, window_to, parameters, warnings, error)
              VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, $15, $16) ON CONFLICT (session_id, seq) DO NOTHING`,
-          [id, e.seq, e.sweep, f?.model ?? null, f?.plausible ?? null, f?.line.slope ?? null, f?.line.slopeStdErr ?? null, f?.line.intercept ?? null, f?.line.interceptStdErr ?? null,
-            f?.line.r2 ?? null, f?.line.n ?? null, f?.window.from ?? null, f?.window.to ?? null, j(f?.parameters ?? null), j(f?.warnings ?? null), (e.error as string) ?? null],
+          [
+            id,
+            e.seq,
+            e.sweep,
+            f?.model ?? null,
+            f?.plausible ?? null,
+            f?.line.slope ?? null,
+            f?.line.slopeStdErr ?? null,
+            f?.line.intercept ?? null,
+            f?.line.interceptStdErr ?? null,
+            f?.line.r2 ?? null,
+            f?.line.n ?? null,
+            f?.window.from ?? null,
+            f?.window.to ?? null,
+            j(f?.parameters ?? null),
+            j(f?.warnings ?? null),
+            (e.error as string) ?? null,
+          ],
         );
         return undefined;
       }
@@ -260,6 +283,12 @@ export class ArchiveStore {
       `SELECT station, session, committed::text, known_last, extract(epoch FROM started_at) * 1000 AS started FROM sessions
         WHERE NOT (committed @> int8range(1, greatest(known_last, coalesce(upper(committed) - 1, 0)) + 1))`,
     );
-    return r.rows.map((x) => ({ station: x.station, session: x.session, committed: parseMultirange(x.committed), knownLast: Number(x.known_last), startedAt: x.started === null ? null : Number(x.started) }));
+    return r.rows.map((x) => ({
+      station: x.station,
+      session: x.session,
+      committed: parseMultirange(x.committed),
+      knownLast: Number(x.known_last),
+      startedAt: x.started === null ? null : Number(x.started),
+    }));
   }
 }

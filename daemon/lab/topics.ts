@@ -51,7 +51,8 @@ export function parseBrokerUrl(text: string, setting = '--mqtt', env: NodeJS.Pro
   const port = u.port || (u.protocol === 'mqtts:' ? '8883' : '1883');
   if (/[#?+]/.test(text.replace(/^[a-z]+:\/\/[^/]*/i, ''))) throw new LabConfigError(`${setting}: the topic prefix may not contain '#', '+' or '?'`);
   const prefix = decodeURIComponent(u.pathname.replace(/^\/+|\/+$/g, '')) || 'plumbline';
-  if (/[#+]/.test(prefix) || prefix.split('/').some((p) => p === '')) throw new LabConfigError(`${setting}: topic prefix '${prefix}' may not contain '#', '+' or empty levels`);
+  if (/[#+]/.test(prefix) || prefix.split('/').some((p) => p === ''))
+    throw new LabConfigError(`${setting}: topic prefix '${prefix}' may not contain '#', '+' or empty levels`);
   const username = u.username ? decodeURIComponent(u.username) : env.PLUMBLINE_MQTT_USERNAME || undefined;
   const password = u.password ? decodeURIComponent(u.password) : env.PLUMBLINE_MQTT_PASSWORD || undefined;
   const server = `${u.protocol}//${u.hostname.includes(':') ? `[${u.hostname.replace(/^\[|\]$/g, '')}]` : u.hostname}:${port}`;
@@ -60,9 +61,7 @@ export function parseBrokerUrl(text: string, setting = '--mqtt', env: NodeJS.Pro
 
 /** A URL with its password replaced by ***, for messages (mqtt:// and postgres:// alike). */
 export function redactUrl(text: string): string {
-  return text
-    .replace(/(\/\/[^/@:\s]*):[^@/\s]*@/g, '$1:***@')
-    .replace(/([?&]password=)[^&\s]*/gi, '$1***');
+  return text.replace(/(\/\/[^/@:\s]*):[^@/\s]*@/g, '$1:***@').replace(/([?&]password=)[^&\s]*/gi, '$1***');
 }
 
 /** Removes every occurrence of the given secrets from a message. */
@@ -89,7 +88,10 @@ export const topics = {
 };
 
 /** Splits a topic of the tree into its parts; undefined for topics outside it. */
-export function parseTopic(prefix: string, topic: string): { station: string; kind: 'status' | 'replay' } | { station: string; session: string; kind: 'data' | 'events' } | undefined {
+export function parseTopic(
+  prefix: string,
+  topic: string,
+): { station: string; kind: 'status' | 'replay' } | { station: string; session: string; kind: 'data' | 'events' } | undefined {
   if (!topic.startsWith(`${prefix}/station/`)) return undefined;
   const rest = topic.slice(prefix.length + '/station/'.length).split('/');
   if (rest.length === 2 && (rest[1] === 'status' || rest[1] === 'replay')) return { station: rest[0], kind: rest[1] };

@@ -62,7 +62,15 @@ export function summarizeFit(r: FitReport): FitSummary {
     model: r.model,
     title: r.title,
     window: r.window,
-    line: { slope: r.line.slope, slopeStdErr: r.line.slopeStdErr, intercept: r.line.intercept, interceptStdErr: r.line.interceptStdErr, r2: r.line.r2, residualStdDev: r.line.residualStdDev, n: r.line.n },
+    line: {
+      slope: r.line.slope,
+      slopeStdErr: r.line.slopeStdErr,
+      intercept: r.line.intercept,
+      interceptStdErr: r.line.interceptStdErr,
+      r2: r.line.r2,
+      residualStdDev: r.line.residualStdDev,
+      n: r.line.n,
+    },
     axes: {
       x: { label: r.axes.x.label, unit: r.axes.x.unit, kind: r.axes.x.kind },
       y: { label: r.axes.y.label, unit: r.axes.y.unit, kind: r.axes.y.kind },
@@ -193,24 +201,52 @@ export class LiveChain {
     // An over-range voltage reads as ±Infinity: it is flagged, not taken for a hazardous bias.
     if (!this.hazardSeen && Number.isFinite(v) && Math.abs(v) > this.options.hazardVoltage) {
       this.hazardSeen = true;
-      this.emit({ type: 'caution', kind: 'hazard-voltage', sweep: this.sweep, numbers: { voltage: v, hazardVoltage: this.options.hazardVoltage }, message: `The output is above ${this.options.hazardVoltage} V. Follow your lab's high-voltage rules: interlocked fixture, hands off the probes and the device while the output is on.` });
+      this.emit({
+        type: 'caution',
+        kind: 'hazard-voltage',
+        sweep: this.sweep,
+        numbers: { voltage: v, hazardVoltage: this.options.hazardVoltage },
+        message: `The output is above ${this.options.hazardVoltage} V. Follow your lab's high-voltage rules: interlocked fixture, hands off the probes and the device while the output is on.`,
+      });
     }
     if (compliance && !this.complianceSeen) {
       this.complianceSeen = true;
-      const at = programmed !== undefined && Math.abs(programmed - v) > 1e-3 * Math.max(1, Math.abs(programmed)) ? `${programmed.toPrecision(4)} V programmed (${v.toPrecision(4)} V measured)` : `${v.toPrecision(4)} V`;
-      this.emit({ type: 'caution', kind: 'compliance', sweep: this.sweep, numbers: { voltage: v, current: i, ...(programmed !== undefined ? { programmed } : {}) }, message: `Compliance reached at ${at}: the instrument no longer holds the programmed bias. Points at compliance are kept in the journal and left out of every fit.` });
+      const at =
+        programmed !== undefined && Math.abs(programmed - v) > 1e-3 * Math.max(1, Math.abs(programmed))
+          ? `${programmed.toPrecision(4)} V programmed (${v.toPrecision(4)} V measured)`
+          : `${v.toPrecision(4)} V`;
+      this.emit({
+        type: 'caution',
+        kind: 'compliance',
+        sweep: this.sweep,
+        numbers: { voltage: v, current: i, ...(programmed !== undefined ? { programmed } : {}) },
+        message: `Compliance reached at ${at}: the instrument no longer holds the programmed bias. Points at compliance are kept in the journal and left out of every fit.`,
+      });
     }
 
     if (verdict) {
       if (verdict.state === 'confirmed') {
-        const action = this.options.control === false
-          ? 'plumbline does not control this instrument: turn its output off with its own controls now'
-          : 'The output is being turned off';
-        this.emit({ type: 'caution', kind: 'breakdown-confirmed', sweep: this.sweep, numbers: verdict.numbers, message: `Breakdown: ${verdict.reason}. ${action}. Treat the device as broken; follow your lab's rules before touching the fixture.` });
+        const action =
+          this.options.control === false
+            ? 'plumbline does not control this instrument: turn its output off with its own controls now'
+            : 'The output is being turned off';
+        this.emit({
+          type: 'caution',
+          kind: 'breakdown-confirmed',
+          sweep: this.sweep,
+          numbers: verdict.numbers,
+          message: `Breakdown: ${verdict.reason}. ${action}. Treat the device as broken; follow your lab's rules before touching the fixture.`,
+        });
         decision = { action: 'abort', outcome: 'aborted-breakdown', reason: `breakdown confirmed in sweep ${this.sweep}: ${verdict.reason}` };
         this.emit({ type: 'decision', action: 'abort', reason: decision.reason, sweep: this.sweep, numbers: verdict.numbers });
       } else {
-        this.emit({ type: 'caution', kind: 'breakdown-suspected', sweep: this.sweep, numbers: verdict.numbers, message: `Possible breakdown: ${verdict.reason}.` });
+        this.emit({
+          type: 'caution',
+          kind: 'breakdown-suspected',
+          sweep: this.sweep,
+          numbers: verdict.numbers,
+          message: `Possible breakdown: ${verdict.reason}.`,
+        });
       }
     }
 
@@ -323,7 +359,12 @@ export class LiveChain {
     const s = this.analysis.solar;
     if (!s) return undefined;
     const inp = this.analysis.inputs;
-    return solarSummary(this.data(v, i, c), { temperature: inp.temperature, area: inp.area, irradiance: s.irradiance, complianceLimit: this.options.complianceLimit });
+    return solarSummary(this.data(v, i, c), {
+      temperature: inp.temperature,
+      area: inp.area,
+      irradiance: s.irradiance,
+      complianceLimit: this.options.complianceLimit,
+    });
   }
 
   private publishView(sweep: number, final: boolean, v: number[], i: number[], c: number[]): void {
@@ -387,23 +428,39 @@ export class LiveChain {
     const point = this.drift.add(p?.value, p?.stdErr);
     this.emit({ type: 'drift', sweep: this.sweep, parameter: name, value: p?.value ?? null, method: cfg.method, ...point });
     const numbers: Record<string, number> = {};
-    for (const [k, x] of Object.entries({ value: p?.value, statistic: point.statistic, center: point.center, lower: point.lower, upper: point.upper, sigma: point.sigma })) {
+    for (const [k, x] of Object.entries({
+      value: p?.value,
+      statistic: point.statistic,
+      center: point.center,
+      lower: point.lower,
+      upper: point.upper,
+      sigma: point.sigma,
+    })) {
       if (typeof x === 'number') numbers[k] = x;
     }
     // Words for people: the trade's unit, none for a dimensionless value (the numbers stay SI).
     const du = displayUnit(p?.unit ?? '', name);
     const unit = du.unit ? ` ${du.unit}` : '';
     const q = (x: number | null | undefined, digits: number) => formatNumber((x ?? Number.NaN) * du.scale, digits);
-    const stat = point.statistic === null ? '' : cfg.method === 'ewma'
-      ? `EWMA ${q(point.statistic, 5)}${unit} outside [${q(point.lower, 5)}, ${q(point.upper, 5)}]${unit}`
-      : `CUSUM ${q(point.statistic, 3)}${unit} beyond ±${q(point.upper, 3)}${unit}`;
+    const stat =
+      point.statistic === null
+        ? ''
+        : cfg.method === 'ewma'
+          ? `EWMA ${q(point.statistic, 5)}${unit} outside [${q(point.lower, 5)}, ${q(point.upper, 5)}]${unit}`
+          : `CUSUM ${q(point.statistic, 3)}${unit} beyond ±${q(point.upper, 3)}${unit}`;
     if (point.state === 'out-of-control') {
       const reason = `${name} drifted in sweep ${this.sweep}: ${stat} (baseline centre ${q(point.center, 5)}${unit}, σ ${q(point.sigma, 3)}${unit})`;
       this.emit({ type: 'caution', kind: 'drift-limit', sweep: this.sweep, numbers, message: `Drift: ${reason}.` });
       this.emit({ type: 'decision', action: cfg.action, reason, sweep: this.sweep, numbers });
       if (cfg.action !== 'warn') return { action: cfg.action, outcome: 'aborted-drift', reason };
     } else if (point.state === 'warning') {
-      this.emit({ type: 'caution', kind: 'drift-warning', sweep: this.sweep, numbers, message: `${name} is moving away from its baseline in sweep ${this.sweep} (beyond the warning line).` });
+      this.emit({
+        type: 'caution',
+        kind: 'drift-warning',
+        sweep: this.sweep,
+        numbers,
+        message: `${name} is moving away from its baseline in sweep ${this.sweep} (beyond the warning line).`,
+      });
     }
     return undefined;
   }

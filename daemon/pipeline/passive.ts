@@ -54,7 +54,12 @@ export interface PassiveStats {
 }
 
 /** Feeds a line source into the chain until the source ends or `stop()` is called. */
-export function feedPassive(source: LineSource, chain: LiveChain, mapping: ColumnMapping, where: string): { stats: PassiveStats; done: Promise<void>; stop(): void } {
+export function feedPassive(
+  source: LineSource,
+  chain: LiveChain,
+  mapping: ColumnMapping,
+  where: string,
+): { stats: PassiveStats; done: Promise<void>; stop(): void } {
   const mapper = new CsvRowMapper(mapping);
   const seg = new ReversalSegmenter();
   const stats: PassiveStats = { lines: 0, readings: 0, rejected: 0, sweeps: 0 };
@@ -65,7 +70,14 @@ export function feedPassive(source: LineSource, chain: LiveChain, mapping: Colum
     if (open) {
       chain.endSweep(true, note);
       // A temperature column tags the sweep (the mean over its readings) for the temperature series.
-      if (tN > 0) chain.emit({ type: 'annotation', text: `T = ${+(tSum / tN).toPrecision(6)} K (mean of the temperature column)`, tags: ['temperature'], sweep: stats.sweeps, source: 'watch' });
+      if (tN > 0)
+        chain.emit({
+          type: 'annotation',
+          text: `T = ${+(tSum / tN).toPrecision(6)} K (mean of the temperature column)`,
+          tags: ['temperature'],
+          sweep: stats.sweeps,
+          source: 'watch',
+        });
     }
     open = false;
     tSum = 0;

@@ -39,7 +39,10 @@ export async function runAdaptive(ctx: RunContext, plan: AdaptivePlan, figures: 
   let prior: SweepKnowledge | undefined;
   for (let s = 1; s <= plan.repeat; s++) {
     ctx.check();
-    const planner = new AdaptiveSweep({ start: plan.start, stop: plan.stop, maxPoints: plan.maxPoints, currentLimit: plan.currentLimit ?? 0.5 * plan.compliance, absoluteFloor: 1e-13 }, prior);
+    const planner = new AdaptiveSweep(
+      { start: plan.start, stop: plan.stop, maxPoints: plan.maxPoints, currentLimit: plan.currentLimit ?? 0.5 * plan.compliance, absoluteFloor: 1e-13 },
+      prior,
+    );
     let v = planner.first();
     if (Math.abs(v - src.present) > 1e-12) await src.rampTo(v);
     ctx.chain.startSweep(s, plan.maxPoints, `adaptive sweep ${s} of ${plan.repeat}`);
@@ -69,7 +72,9 @@ export async function runAdaptive(ctx: RunContext, plan: AdaptivePlan, figures: 
         const f = ctx.chain.fitSoFar().fit;
         if (f && Object.keys(f.parameters).length > 0 && !(plan.target.parameter in f.parameters)) {
           // A misspelt or foreign target would otherwise run every sweep to its point budget.
-          throw new PlanError(`plan: field 'target.parameter': '${plan.target.parameter}' is not a parameter of the ${f.model} fit (it gives ${Object.keys(f.parameters).join(', ')}); the run was stopped`);
+          throw new PlanError(
+            `plan: field 'target.parameter': '${plan.target.parameter}' is not a parameter of the ${f.model} fit (it gives ${Object.keys(f.parameters).join(', ')}); the run was stopped`,
+          );
         }
         const p = f?.parameters[plan.target.parameter];
         if (f && p && Number.isFinite(p.stdErr)) {

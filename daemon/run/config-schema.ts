@@ -29,7 +29,9 @@ export function planJsonSchema(description: string): Record<string, unknown> {
 export function stationJsonSchema(): Record<string, unknown> {
   const doc = json(stationSchema);
   const props = doc.properties as Record<string, unknown>;
-  props.plan = planJsonSchema('The default plan: a sweep (linear, log, list), an adaptive sweep, or a breakdown test (voltage-ramp, current-ramp, constant-voltage).');
+  props.plan = planJsonSchema(
+    'The default plan: a sweep (linear, log, list), an adaptive sweep, or a breakdown test (voltage-ramp, current-ramp, constant-voltage).',
+  );
   return { ...doc, title: 'plumbline station config', $id: 'https://plumbline.invalid/station.schema.json' };
 }
 

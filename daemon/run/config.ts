@@ -14,16 +14,18 @@ import { planSchema } from './plan.js';
 export const DEFAULT_CONFIG_FILE = join(projectRoot(), 'config', 'station.json');
 export const DEFAULT_PORT = 8470;
 
-const faultsSchema = z.object({
-  garbageEvery: z.number().int().positive().optional(),
-  dropTerminatorEvery: z.number().int().positive().optional(),
-  slowReplyMs: z.number().min(0).optional(),
-  disconnectAfterReadings: z.number().int().positive().optional(),
-  readDelayMs: z.number().min(0).optional(),
-  hangAfterReadings: z.number().int().positive().optional(),
-  strayAfterReadings: z.number().int().positive().optional(),
-  readingReply: z.string().optional(),
-}).strict();
+const faultsSchema = z
+  .object({
+    garbageEvery: z.number().int().positive().optional(),
+    dropTerminatorEvery: z.number().int().positive().optional(),
+    slowReplyMs: z.number().min(0).optional(),
+    disconnectAfterReadings: z.number().int().positive().optional(),
+    readDelayMs: z.number().min(0).optional(),
+    hangAfterReadings: z.number().int().positive().optional(),
+    strayAfterReadings: z.number().int().positive().optional(),
+    readingReply: z.string().optional(),
+  })
+  .strict();
 
 const terminatorName = z.enum(['lf', 'crlf', 'cr']);
 
@@ -38,33 +40,39 @@ const linkOverrides = {
 };
 
 export const instrumentSchema = z.discriminatedUnion('kind', [
-  z.object({
-    kind: z.literal('simulator'),
-    scenario: z.string().default('oxide-fn'),
-    /** Wait the integration time per reading as a real instrument does. */
-    realTime: z.boolean().default(true),
-    seed: z.number().int().default(7),
-    faults: faultsSchema.optional(),
-  }).strict(),
-  z.object({
-    kind: z.literal('tcp'),
-    host: z.string().min(1),
-    port: z.number().int().min(1).max(65535).default(5025),
-    ...linkOverrides,
-  }).strict(),
-  z.object({
-    kind: z.literal('serial'),
-    path: z.string().min(1),
-    baudRate: z.number().int().positive().max(4000000).default(9600),
-    dataBits: z.union([z.literal(5), z.literal(6), z.literal(7), z.literal(8)]).default(8),
-    parity: z.enum(['none', 'even', 'odd', 'mark', 'space']).default('none'),
-    stopBits: z.union([z.literal(1), z.literal(1.5), z.literal(2)]).default(1),
-    /** Hardware flow control (RTS/CTS). */
-    rtscts: z.boolean().default(false),
-    /** Software flow control (XON/XOFF, bytes 0x11/0x13 in the data: ASCII replies only). */
-    xonxoff: z.boolean().default(false),
-    ...linkOverrides,
-  }).strict(),
+  z
+    .object({
+      kind: z.literal('simulator'),
+      scenario: z.string().default('oxide-fn'),
+      /** Wait the integration time per reading as a real instrument does. */
+      realTime: z.boolean().default(true),
+      seed: z.number().int().default(7),
+      faults: faultsSchema.optional(),
+    })
+    .strict(),
+  z
+    .object({
+      kind: z.literal('tcp'),
+      host: z.string().min(1),
+      port: z.number().int().min(1).max(65535).default(5025),
+      ...linkOverrides,
+    })
+    .strict(),
+  z
+    .object({
+      kind: z.literal('serial'),
+      path: z.string().min(1),
+      baudRate: z.number().int().positive().max(4000000).default(9600),
+      dataBits: z.union([z.literal(5), z.literal(6), z.literal(7), z.literal(8)]).default(8),
+      parity: z.enum(['none', 'even', 'odd', 'mark', 'space']).default('none'),
+      stopBits: z.union([z.literal(1), z.literal(1.5), z.literal(2)]).default(1),
+      /** Hardware flow control (RTS/CTS). */
+      rtscts: z.boolean().default(false),
+      /** Software flow control (XON/XOFF, bytes 0x11/0x13 in the data: ASCII replies only). */
+      xonxoff: z.boolean().default(false),
+      ...linkOverrides,
+    })
+    .strict(),
 ]);
 
 export type InstrumentConfig = z.infer<typeof instrumentSchema>;
@@ -72,55 +80,68 @@ export type InstrumentConfig = z.infer<typeof instrumentSchema>;
 /** The dialect the built-in simulated instrument speaks. */
 export const SIMULATOR_DIALECT = 'protection-trip';
 
-export const stationSchema = z.object({
-  /** The JSON Schema editors check the file against (config/station.schema.json). */
-  $schema: z.string().optional(),
-  name: z.string().default('station'),
-  instrument: instrumentSchema,
-  /**
-   * The instrument's dialect: a name in config/dialects/ or a .json file. Required for a serial or
-   * TCP instrument (which command tree it speaks is a choice, not a default); the simulator speaks
-   * protection-trip unless told otherwise.
-   */
-  dialect: z.string().min(1).optional(),
-  /** Reply timeout for each query, ms (default: the dialect's). */
-  timeoutMs: z.number().int().min(10).max(600000).optional(),
-  limits: limitsSchema,
-  /** Default plan (a simulator scenario supplies one when absent). */
-  plan: planSchema.optional(),
-  /** Default analysis (a simulator scenario supplies one when absent). */
-  analysis: analysisSchema.optional(),
-  drift: driftSchema.default(driftSchema.parse({})),
-  breakdown: breakdownSchema.default(breakdownSchema.parse({})),
-  server: z.object({
-    host: z.string().default('127.0.0.1'),
-    port: z.number().int().min(0).max(65535).default(DEFAULT_PORT),
-    /** Required for every request when the server listens beyond loopback, and for control requests whenever it is set. */
-    token: z.string().min(16).optional(),
-    /** Host names the page may be reached by beyond loopback (besides this machine's own name and addresses). */
-    allowedHosts: z.array(z.string().min(1)).max(64).default([]),
-  }).strict().default({ host: '127.0.0.1', port: DEFAULT_PORT, allowedHosts: [] }),
-  /** Folder under which each run creates its session folder. */
-  data: z.string().default('plumbline-data'),
-  /**
-   * Publish this station's sessions to an MQTT broker (mqtt://HOST:PORT[/PREFIX]), read from the
-   * journal; `station` is its id in topic names (default: host name and data folder name).
-   */
-  publish: z.object({
-    url: z.string().min(1),
-    station: z.string().regex(/^[A-Za-z0-9._-]{1,80}$/, 'use 1–80 letters, digits, ".", "_" or "-"').optional(),
-  }).strict().optional(),
-  /** `serve` starts the default plan as soon as it is up (the demo). */
-  autostart: z.boolean().default(false),
-}).strict().superRefine((c, ctx) => {
-  if (c.instrument.kind !== 'simulator' && c.dialect === undefined) {
-    ctx.addIssue({
-      code: 'custom',
-      path: ['dialect'],
-      message: 'name the dialect your instrument speaks: protection-trip or protection-status (config/dialects/, described in the README under "Dialects"), or the path of a .json dialect of your own',
-    });
-  }
-});
+export const stationSchema = z
+  .object({
+    /** The JSON Schema editors check the file against (config/station.schema.json). */
+    $schema: z.string().optional(),
+    name: z.string().default('station'),
+    instrument: instrumentSchema,
+    /**
+     * The instrument's dialect: a name in config/dialects/ or a .json file. Required for a serial or
+     * TCP instrument (which command tree it speaks is a choice, not a default); the simulator speaks
+     * protection-trip unless told otherwise.
+     */
+    dialect: z.string().min(1).optional(),
+    /** Reply timeout for each query, ms (default: the dialect's). */
+    timeoutMs: z.number().int().min(10).max(600000).optional(),
+    limits: limitsSchema,
+    /** Default plan (a simulator scenario supplies one when absent). */
+    plan: planSchema.optional(),
+    /** Default analysis (a simulator scenario supplies one when absent). */
+    analysis: analysisSchema.optional(),
+    drift: driftSchema.default(driftSchema.parse({})),
+    breakdown: breakdownSchema.default(breakdownSchema.parse({})),
+    server: z
+      .object({
+        host: z.string().default('127.0.0.1'),
+        port: z.number().int().min(0).max(65535).default(DEFAULT_PORT),
+        /** Required for every request when the server listens beyond loopback, and for control requests whenever it is set. */
+        token: z.string().min(16).optional(),
+        /** Host names the page may be reached by beyond loopback (besides this machine's own name and addresses). */
+        allowedHosts: z.array(z.string().min(1)).max(64).default([]),
+      })
+      .strict()
+      .default({ host: '127.0.0.1', port: DEFAULT_PORT, allowedHosts: [] }),
+    /** Folder under which each run creates its session folder. */
+    data: z.string().default('plumbline-data'),
+    /**
+     * Publish this station's sessions to an MQTT broker (mqtt://HOST:PORT[/PREFIX]), read from the
+     * journal; `station` is its id in topic names (default: host name and data folder name).
+     */
+    publish: z
+      .object({
+        url: z.string().min(1),
+        station: z
+          .string()
+          .regex(/^[A-Za-z0-9._-]{1,80}$/, 'use 1–80 letters, digits, ".", "_" or "-"')
+          .optional(),
+      })
+      .strict()
+      .optional(),
+    /** `serve` starts the default plan as soon as it is up (the demo). */
+    autostart: z.boolean().default(false),
+  })
+  .strict()
+  .superRefine((c, ctx) => {
+    if (c.instrument.kind !== 'simulator' && c.dialect === undefined) {
+      ctx.addIssue({
+        code: 'custom',
+        path: ['dialect'],
+        message:
+          'name the dialect your instrument speaks: protection-trip or protection-status (config/dialects/, described in the README under "Dialects"), or the path of a .json dialect of your own',
+      });
+    }
+  });
 
 /** The dialect a config uses. */
 export function dialectOf(config: StationConfig): string {

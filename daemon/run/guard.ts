@@ -21,34 +21,49 @@ import { sweepValues } from './plan.js';
 export const MAX_RAMP_STEPS = 10000;
 export const MAX_RAMP_SECONDS = 600;
 
-export const limitsSchema = z.object({
-  /** Largest |V| the station may source, V. */
-  maxVoltage: z.number().positive().finite(),
-  /** Largest compliance current, A. */
-  maxCompliance: z.number().positive().finite(),
-  /** Largest |V| × compliance, W. */
-  maxPower: z.number().positive().finite(),
-  /** Above this |V| the page and the CLI show the high-voltage caution, V (common practice: 30 V). */
-  hazardVoltage: z.number().positive().finite().default(30),
-  /** Largest step the source takes when moving between levels outside a sweep, V (at least 1 mV). */
-  rampStep: z.number().min(1e-3, 'must be at least 0.001 V (a smaller step makes a ramp that never ends with the output on)').finite().default(1),
-  /** Wait per ramp step, s. */
-  rampDelay: z.number().min(0).max(10).default(0.01),
-}).strict().superRefine((l, ctx) => {
-  // A ramp across the whole range must end in reasonable time with the output on.
-  const steps = l.maxVoltage / l.rampStep;
-  if (steps > MAX_RAMP_STEPS) {
-    ctx.addIssue({ code: 'custom', path: ['rampStep'], message: `${l.rampStep} V makes ${Math.ceil(steps)} steps from 0 to maxVoltage = ${l.maxVoltage} V; at most ${MAX_RAMP_STEPS} are allowed (raise rampStep)` });
-  } else if (steps * l.rampDelay > MAX_RAMP_SECONDS) {
-    ctx.addIssue({ code: 'custom', path: ['rampDelay'], message: `a ramp from 0 to maxVoltage = ${l.maxVoltage} V would take ${Math.round(steps * l.rampDelay)} s (${Math.ceil(steps)} steps × ${l.rampDelay} s); at most ${MAX_RAMP_SECONDS} s are allowed` });
-  }
-});
+export const limitsSchema = z
+  .object({
+    /** Largest |V| the station may source, V. */
+    maxVoltage: z.number().positive().finite(),
+    /** Largest compliance current, A. */
+    maxCompliance: z.number().positive().finite(),
+    /** Largest |V| × compliance, W. */
+    maxPower: z.number().positive().finite(),
+    /** Above this |V| the page and the CLI show the high-voltage caution, V (common practice: 30 V). */
+    hazardVoltage: z.number().positive().finite().default(30),
+    /** Largest step the source takes when moving between levels outside a sweep, V (at least 1 mV). */
+    rampStep: z.number().min(1e-3, 'must be at least 0.001 V (a smaller step makes a ramp that never ends with the output on)').finite().default(1),
+    /** Wait per ramp step, s. */
+    rampDelay: z.number().min(0).max(10).default(0.01),
+  })
+  .strict()
+  .superRefine((l, ctx) => {
+    // A ramp across the whole range must end in reasonable time with the output on.
+    const steps = l.maxVoltage / l.rampStep;
+    if (steps > MAX_RAMP_STEPS) {
+      ctx.addIssue({
+        code: 'custom',
+        path: ['rampStep'],
+        message: `${l.rampStep} V makes ${Math.ceil(steps)} steps from 0 to maxVoltage = ${l.maxVoltage} V; at most ${MAX_RAMP_STEPS} are allowed (raise rampStep)`,
+      });
+    } else if (steps * l.rampDelay > MAX_RAMP_SECONDS) {
+      ctx.addIssue({
+        code: 'custom',
+        path: ['rampDelay'],
+        message: `a ramp from 0 to maxVoltage = ${l.maxVoltage} V would take ${Math.round(steps * l.rampDelay)} s (${Math.ceil(steps)} steps × ${l.rampDelay} s); at most ${MAX_RAMP_SECONDS} s are allowed`,
+      });
+    }
+  });
 
 export type Limits = z.infer<typeof limitsSchema>;
 
 export class GuardError extends Error {
   readonly code = 'GUARD';
-  constructor(message: string, readonly setting: string, readonly numbers: Record<string, number>) {
+  constructor(
+    message: string,
+    readonly setting: string,
+    readonly numbers: Record<string, number>,
+  ) {
     super(message);
   }
 }
@@ -59,7 +74,10 @@ const show = (x: number) => String(+x.toPrecision(6));
 export function checkLevel(limits: Limits, v: number, compliance: number, where = 'bias'): void {
   if (!Number.isFinite(v)) throw new GuardError(`${where} ${v} is not a number`, 'voltage', { voltage: v });
   if (Math.abs(v) > limits.maxVoltage) {
-    throw new GuardError(`${where} = ${show(v)} V exceeds the station limit maxVoltage = ${show(limits.maxVoltage)} V`, 'maxVoltage', { voltage: v, maxVoltage: limits.maxVoltage });
+    throw new GuardError(`${where} = ${show(v)} V exceeds the station limit maxVoltage = ${show(limits.maxVoltage)} V`, 'maxVoltage', {
+      voltage: v,
+      maxVoltage: limits.maxVoltage,
+    });
   }
   if (Math.abs(v) * compliance > limits.maxPower) {
     throw new GuardError(
@@ -71,9 +89,13 @@ export function checkLevel(limits: Limits, v: number, compliance: number, where 
 }
 
 export function checkCompliance(limits: Limits, compliance: number): void {
-  if (!(compliance > 0) || !Number.isFinite(compliance)) throw new GuardError(`compliance ${compliance} A must be a positive number`, 'compliance', { compliance });
+  if (!(compliance > 0) || !Number.isFinite(compliance))
+    throw new GuardError(`compliance ${compliance} A must be a positive number`, 'compliance', { compliance });
   if (compliance > limits.maxCompliance) {
-    throw new GuardError(`plan compliance = ${show(compliance)} A exceeds the station limit maxCompliance = ${show(limits.maxCompliance)} A`, 'maxCompliance', { compliance, maxCompliance: limits.maxCompliance });
+    throw new GuardError(`plan compliance = ${show(compliance)} A exceeds the station limit maxCompliance = ${show(limits.maxCompliance)} A`, 'maxCompliance', {
+      compliance,
+      maxCompliance: limits.maxCompliance,
+    });
   }
 }
 
@@ -81,10 +103,18 @@ export function checkCompliance(limits: Limits, compliance: number): void {
 export function checkCurrentLevel(limits: Limits, i: number, voltageLimit: number, where = 'current'): void {
   if (!Number.isFinite(i)) throw new GuardError(`${where} ${i} is not a number`, 'current', { current: i });
   if (Math.abs(i) > limits.maxCompliance) {
-    throw new GuardError(`${where} = ${show(i)} A exceeds the station limit maxCompliance = ${show(limits.maxCompliance)} A (the most current the station may drive)`, 'maxCompliance', { current: i, maxCompliance: limits.maxCompliance });
+    throw new GuardError(
+      `${where} = ${show(i)} A exceeds the station limit maxCompliance = ${show(limits.maxCompliance)} A (the most current the station may drive)`,
+      'maxCompliance',
+      { current: i, maxCompliance: limits.maxCompliance },
+    );
   }
   if (Math.abs(i) * voltageLimit > limits.maxPower) {
-    throw new GuardError(`${where} = ${show(i)} A at the ${show(voltageLimit)} V voltage limit could deliver ${show(Math.abs(i) * voltageLimit)} W, above the station limit maxPower = ${show(limits.maxPower)} W`, 'maxPower', { current: i, voltageLimit, maxPower: limits.maxPower });
+    throw new GuardError(
+      `${where} = ${show(i)} A at the ${show(voltageLimit)} V voltage limit could deliver ${show(Math.abs(i) * voltageLimit)} W, above the station limit maxPower = ${show(limits.maxPower)} W`,
+      'maxPower',
+      { current: i, voltageLimit, maxPower: limits.maxPower },
+    );
   }
 }
 
@@ -106,7 +136,11 @@ export function checkPlan(limits: Limits, plan: Plan): void {
   switch (plan.kind) {
     case 'current-ramp':
       if (plan.voltageLimit > limits.maxVoltage) {
-        throw new GuardError(`plan voltageLimit = ${show(plan.voltageLimit)} V exceeds the station limit maxVoltage = ${show(limits.maxVoltage)} V`, 'maxVoltage', { voltageLimit: plan.voltageLimit, maxVoltage: limits.maxVoltage });
+        throw new GuardError(
+          `plan voltageLimit = ${show(plan.voltageLimit)} V exceeds the station limit maxVoltage = ${show(limits.maxVoltage)} V`,
+          'maxVoltage',
+          { voltageLimit: plan.voltageLimit, maxVoltage: limits.maxVoltage },
+        );
       }
       checkCurrentLevel(limits, plan.start, plan.voltageLimit, 'plan start');
       checkCurrentLevel(limits, plan.stop, plan.voltageLimit, 'plan stop');
@@ -153,7 +187,11 @@ export class GuardedSource {
    * a simulated instrument that answers at once (--fast) lets the time pass on its own clock
    * instead, so its ramps still step by rampStep with rampDelay between steps, at no cost.
    */
-  constructor(readonly driver: SmuDriver, readonly limits: Limits, private readonly settle: (s: number) => Promise<void> = wallClockWait) {}
+  constructor(
+    readonly driver: SmuDriver,
+    readonly limits: Limits,
+    private readonly settle: (s: number) => Promise<void> = wallClockWait,
+  ) {}
 
   get isOn(): boolean {
     return this.on;
@@ -200,7 +238,10 @@ export class GuardedSource {
    */
   async configureCurrent(voltageLimit: number, nplc?: number): Promise<void> {
     if (!(voltageLimit > 0) || voltageLimit > this.limits.maxVoltage) {
-      throw new GuardError(`voltage limit = ${show(voltageLimit)} V exceeds the station limit maxVoltage = ${show(this.limits.maxVoltage)} V`, 'maxVoltage', { voltageLimit, maxVoltage: this.limits.maxVoltage });
+      throw new GuardError(`voltage limit = ${show(voltageLimit)} V exceeds the station limit maxVoltage = ${show(this.limits.maxVoltage)} V`, 'maxVoltage', {
+        voltageLimit,
+        maxVoltage: this.limits.maxVoltage,
+      });
     }
     if (this.on) throw new GuardError('changing to current sourcing with the output on is refused', 'mode', {});
     await this.driver.configureCurrentSource({ voltageLimit, nplc });

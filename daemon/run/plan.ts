@@ -12,49 +12,52 @@
 import { statfsSync } from 'node:fs';
 import { z } from 'zod';
 
-export const sweepPlanSchema = z.object({
-  kind: z.enum(['linear', 'log', 'list']).default('linear'),
-  /** Start and stop bias, V (linear and log). */
-  start: z.number().finite().optional(),
-  stop: z.number().finite().optional(),
-  /** Points per direction (linear and log). */
-  points: z.number().int().min(2).max(100000).optional(),
-  /** Bias values for a list sweep, V. */
-  values: z.array(z.number().finite()).min(1).max(100000).optional(),
-  /** Out and back: the sweep returns to its start. */
-  dual: z.boolean().default(false),
-  /** Number of sweeps. */
-  repeat: z.number().int().min(1).max(1000000).default(1),
-  /** Wait between sweeps, s (the source rests at 0 V). */
-  dwell: z.number().min(0).max(86400).default(0),
-  /** Settling delay after each step before the reading, s. */
-  delay: z.number().min(0).max(3600).default(0),
-  /** Integration time in power-line cycles. */
-  nplc: z.number().min(0.001).max(100).optional(),
-  /** Current compliance, A. */
-  compliance: z.number().positive().finite(),
-  /**
-   * Who paces the points: 'station' (default) sets each level and reads it, one exchange per point;
-   * 'instrument' loads a block of levels into the instrument, which steps through them itself,
-   * and the station fetches the block's readings (needs a dialect with instrument-paced templates).
-   */
-  pacing: z.enum(['station', 'instrument']).default('station'),
-  /** Points per block in instrument-paced mode (default: the whole sweep, up to the instrument's list size). */
-  blockPoints: z.number().int().min(1).max(100000).optional(),
-  /** Run a plan whose journal would not fit on the data folder's disk (refused otherwise). */
-  overrideDiskCheck: z.boolean().default(false),
-}).strict().superRefine((p, ctx) => {
-  if (p.kind === 'list') {
-    if (!p.values) ctx.addIssue({ code: 'custom', path: ['values'], message: 'a list sweep needs values' });
-    return;
-  }
-  for (const k of ['start', 'stop', 'points'] as const) {
-    if (p[k] === undefined) ctx.addIssue({ code: 'custom', path: [k], message: `a ${p.kind} sweep needs ${k}` });
-  }
-  if (p.kind === 'log' && p.start !== undefined && p.stop !== undefined && !(p.start * p.stop > 0)) {
-    ctx.addIssue({ code: 'custom', path: ['start'], message: 'a log sweep needs start and stop of the same sign, neither zero' });
-  }
-});
+export const sweepPlanSchema = z
+  .object({
+    kind: z.enum(['linear', 'log', 'list']).default('linear'),
+    /** Start and stop bias, V (linear and log). */
+    start: z.number().finite().optional(),
+    stop: z.number().finite().optional(),
+    /** Points per direction (linear and log). */
+    points: z.number().int().min(2).max(100000).optional(),
+    /** Bias values for a list sweep, V. */
+    values: z.array(z.number().finite()).min(1).max(100000).optional(),
+    /** Out and back: the sweep returns to its start. */
+    dual: z.boolean().default(false),
+    /** Number of sweeps. */
+    repeat: z.number().int().min(1).max(1000000).default(1),
+    /** Wait between sweeps, s (the source rests at 0 V). */
+    dwell: z.number().min(0).max(86400).default(0),
+    /** Settling delay after each step before the reading, s. */
+    delay: z.number().min(0).max(3600).default(0),
+    /** Integration time in power-line cycles. */
+    nplc: z.number().min(0.001).max(100).optional(),
+    /** Current compliance, A. */
+    compliance: z.number().positive().finite(),
+    /**
+     * Who paces the points: 'station' (default) sets each level and reads it, one exchange per point;
+     * 'instrument' loads a block of levels into the instrument, which steps through them itself,
+     * and the station fetches the block's readings (needs a dialect with instrument-paced templates).
+     */
+    pacing: z.enum(['station', 'instrument']).default('station'),
+    /** Points per block in instrument-paced mode (default: the whole sweep, up to the instrument's list size). */
+    blockPoints: z.number().int().min(1).max(100000).optional(),
+    /** Run a plan whose journal would not fit on the data folder's disk (refused otherwise). */
+    overrideDiskCheck: z.boolean().default(false),
+  })
+  .strict()
+  .superRefine((p, ctx) => {
+    if (p.kind === 'list') {
+      if (!p.values) ctx.addIssue({ code: 'custom', path: ['values'], message: 'a list sweep needs values' });
+      return;
+    }
+    for (const k of ['start', 'stop', 'points'] as const) {
+      if (p[k] === undefined) ctx.addIssue({ code: 'custom', path: [k], message: `a ${p.kind} sweep needs ${k}` });
+    }
+    if (p.kind === 'log' && p.start !== undefined && p.stop !== undefined && !(p.start * p.stop > 0)) {
+      ctx.addIssue({ code: 'custom', path: ['start'], message: 'a log sweep needs start and stop of the same sign, neither zero' });
+    }
+  });
 
 export type SweepPlan = z.infer<typeof sweepPlanSchema>;
 
@@ -70,18 +73,20 @@ const useCheck = {
   useCurrentLimit: z.number().positive().finite().default(1e-6),
 };
 
-const rampCriteria = z.object({
-  /** |I| rising by this factor or more from one step to the next is a current jump (hard breakdown). */
-  currentJump: z.number().min(1.5).default(10),
-  /** The local slope of ln|I| against V rising to this multiple of its recent median (a soft breakdown); 0 turns it off. */
-  slopeFactor: z.number().min(0).default(3),
-  /** Steps in that recent median. */
-  slopeWindow: z.number().int().min(2).max(100).default(5),
-  /** |I| at or above this is breakdown, A (default: the compliance). */
-  currentLimit: z.number().positive().finite().optional(),
-  /** Below this current the ratio and slope tests are not applied (the noise floor), A. */
-  floor: z.number().positive().finite().default(1e-10),
-}).strict();
+const rampCriteria = z
+  .object({
+    /** |I| rising by this factor or more from one step to the next is a current jump (hard breakdown). */
+    currentJump: z.number().min(1.5).default(10),
+    /** The local slope of ln|I| against V rising to this multiple of its recent median (a soft breakdown); 0 turns it off. */
+    slopeFactor: z.number().min(0).default(3),
+    /** Steps in that recent median. */
+    slopeWindow: z.number().int().min(2).max(100).default(5),
+    /** |I| at or above this is breakdown, A (default: the compliance). */
+    currentLimit: z.number().positive().finite().optional(),
+    /** Below this current the ratio and slope tests are not applied (the noise floor), A. */
+    floor: z.number().positive().finite().default(1e-10),
+  })
+  .strict();
 
 /**
  * A ramp or an adaptive sweep climbs away from zero: a stop nearer zero than the start, or across
@@ -91,112 +96,167 @@ const rampCriteria = z.object({
 function outward(p: { start: number; stop: number }, ctx: z.RefinementCtx): void {
   if (p.start === p.stop) ctx.addIssue({ code: 'custom', path: ['stop'], message: 'must differ from start' });
   else if (p.start * p.stop < 0 || Math.abs(p.stop) < Math.abs(p.start)) {
-    ctx.addIssue({ code: 'custom', path: ['stop'], message: `${p.stop} V is nearer zero than start ${p.start} V or of the other sign: this plan climbs from start away from zero (sweep each polarity as its own plan)` });
+    ctx.addIssue({
+      code: 'custom',
+      path: ['stop'],
+      message: `${p.stop} V is nearer zero than start ${p.start} V or of the other sign: this plan climbs from start away from zero (sweep each polarity as its own plan)`,
+    });
   }
 }
 
 /** A current limit of a plan must sit below the instrument's compliance, or the compliance fires first. */
 function belowCompliance(limit: number | undefined, compliance: number, path: (string | number)[], ctx: z.RefinementCtx): void {
-  if (limit !== undefined && limit > compliance) ctx.addIssue({ code: 'custom', path, message: `${limit} A is above the compliance ${compliance} A: the instrument would clamp the current first; set it at or below the compliance` });
+  if (limit !== undefined && limit > compliance)
+    ctx.addIssue({
+      code: 'custom',
+      path,
+      message: `${limit} A is above the compliance ${compliance} A: the instrument would clamp the current first; set it at or below the compliance`,
+    });
 }
 
-export const adaptivePlanSchema = z.object({
-  kind: z.literal('adaptive'),
-  /** First and last bias of the range the sweep may cover, V. */
-  start: z.number().finite().default(0),
-  stop: z.number().finite(),
-  /** The most readings a sweep may take. */
-  maxPoints: z.number().int().min(8).max(100000),
-  compliance: z.number().positive().finite(),
-  /** The sweep stops when the current reaches this, A (default: half the compliance). */
-  currentLimit: z.number().positive().finite().optional(),
-  /** Stop each sweep when this fitted parameter's total standard error (statistical and window) reaches stdErr (in the parameter's unit). */
-  target: z.object({ parameter: z.string().min(1), stdErr: z.number().positive().finite() }).strict(),
-  repeat: z.number().int().min(1).max(1000000).default(1),
-  dwell: z.number().min(0).max(86400).default(0),
-  delay: z.number().min(0).max(3600).default(0),
-  nplc: z.number().min(0.001).max(100).optional(),
-  overrideDiskCheck: z.boolean().default(false),
-}).strict().superRefine((p, ctx) => {
-  outward(p, ctx);
-  belowCompliance(p.currentLimit, p.compliance, ['currentLimit'], ctx);
-});
-
-export const voltageRampPlanSchema = z.object({
-  kind: z.literal('voltage-ramp'),
-  /** First level of the ramp, V. */
-  start: z.number().finite().default(0),
-  /** The most the ramp goes to, V (the test ends as "survived" there). */
-  stop: z.number().finite(),
-  /** Voltage step, V (its sign follows stop − start). */
-  step: z.number().positive().finite(),
-  /** Time at each step, s (the ramp rate is step / stepTime). */
-  stepTime: z.number().min(0.001).max(3600),
-  /** The instrument's current compliance, A. */
-  compliance: z.number().positive().finite(),
-  nplc: z.number().min(0.001).max(100).optional(),
-  ...useCheck,
-  criteria: rampCriteria.default(rampCriteria.parse({})),
-  overrideDiskCheck: z.boolean().default(false),
-}).strict().superRefine((p, ctx) => {
-  outward(p, ctx);
-  belowCompliance(p.criteria.currentLimit, p.compliance, ['criteria', 'currentLimit'], ctx);
-  if (p.criteria.floor >= p.compliance) ctx.addIssue({ code: 'custom', path: ['criteria', 'floor'], message: `${p.criteria.floor} A is not below the compliance ${p.compliance} A: no reading could be judged` });
-  if (Math.abs(p.stop - p.start) / p.step > 1e6) ctx.addIssue({ code: 'custom', path: ['step'], message: 'makes more than a million steps' });
-});
-
-export const currentRampPlanSchema = z.object({
-  kind: z.literal('current-ramp'),
-  /** First forced current, A (its sign gives the polarity). */
-  start: z.number().finite().refine((x) => x !== 0, 'must not be zero'),
-  /** The most the ramp forces, A. */
-  stop: z.number().finite(),
-  /** Logarithmic steps per decade of current. */
-  stepsPerDecade: z.number().int().min(1).max(1000).default(10),
-  /** Time at each step, s. */
-  stepTime: z.number().min(0.001).max(3600),
-  /** The instrument's voltage compliance while forcing current, V. */
-  voltageLimit: z.number().positive().finite(),
-  nplc: z.number().min(0.001).max(100).optional(),
-  ...useCheck,
-  criteria: z.object({
-    /** The voltage falling by this fraction of its highest value so far is a collapse (breakdown). */
-    voltageDrop: z.number().min(0.01).max(0.99).default(0.1),
-  }).strict().default({ voltageDrop: 0.1 }),
-  overrideDiskCheck: z.boolean().default(false),
-}).strict().superRefine((p, ctx) => {
-  if (!(p.start * p.stop > 0) || Math.abs(p.stop) <= Math.abs(p.start)) ctx.addIssue({ code: 'custom', path: ['stop'], message: 'must have the sign of start and a larger magnitude' });
-});
-
-export const constantStressPlanSchema = z.object({
-  kind: z.literal('constant-voltage'),
-  /** Stress bias, V. */
-  stress: z.number().finite().refine((x) => x !== 0, 'must not be zero'),
-  /** Longest stress, s (the device then "survived"). */
-  duration: z.number().positive().max(30 * 86400),
-  /** Time between current readings under stress, s. */
-  sampleEvery: z.number().min(0.001).max(3600),
-  compliance: z.number().positive().finite(),
-  nplc: z.number().min(0.001).max(100).optional(),
-  /** A short low-field sweep every `every` s of stress, to watch the leakage grow (stress-induced leakage). */
-  sense: z.object({
-    start: z.number().finite(),
+export const adaptivePlanSchema = z
+  .object({
+    kind: z.literal('adaptive'),
+    /** First and last bias of the range the sweep may cover, V. */
+    start: z.number().finite().default(0),
     stop: z.number().finite(),
-    points: z.number().int().min(2).max(10000),
-    every: z.number().positive(),
-  }).strict().optional(),
-  ...useCheck,
-  criteria: z.object({
-    currentJump: z.number().min(1.5).default(10),
+    /** The most readings a sweep may take. */
+    maxPoints: z.number().int().min(8).max(100000),
+    compliance: z.number().positive().finite(),
+    /** The sweep stops when the current reaches this, A (default: half the compliance). */
     currentLimit: z.number().positive().finite().optional(),
-    floor: z.number().positive().finite().default(1e-10),
-  }).strict().default({ currentJump: 10, floor: 1e-10 }),
-  overrideDiskCheck: z.boolean().default(false),
-}).strict().superRefine((p, ctx) => {
-  belowCompliance(p.criteria.currentLimit, p.compliance, ['criteria', 'currentLimit'], ctx);
-  if (p.criteria.floor >= p.compliance) ctx.addIssue({ code: 'custom', path: ['criteria', 'floor'], message: `${p.criteria.floor} A is not below the compliance ${p.compliance} A: no reading could be judged` });
-  if (p.sense && p.sense.every < p.sampleEvery) ctx.addIssue({ code: 'custom', path: ['sense', 'every'], message: `${p.sense.every} s is shorter than sampleEvery ${p.sampleEvery} s: sense sweeps are checked between stress readings` });
-});
+    /** Stop each sweep when this fitted parameter's total standard error (statistical and window) reaches stdErr (in the parameter's unit). */
+    target: z.object({ parameter: z.string().min(1), stdErr: z.number().positive().finite() }).strict(),
+    repeat: z.number().int().min(1).max(1000000).default(1),
+    dwell: z.number().min(0).max(86400).default(0),
+    delay: z.number().min(0).max(3600).default(0),
+    nplc: z.number().min(0.001).max(100).optional(),
+    overrideDiskCheck: z.boolean().default(false),
+  })
+  .strict()
+  .superRefine((p, ctx) => {
+    outward(p, ctx);
+    belowCompliance(p.currentLimit, p.compliance, ['currentLimit'], ctx);
+  });
+
+export const voltageRampPlanSchema = z
+  .object({
+    kind: z.literal('voltage-ramp'),
+    /** First level of the ramp, V. */
+    start: z.number().finite().default(0),
+    /** The most the ramp goes to, V (the test ends as "survived" there). */
+    stop: z.number().finite(),
+    /** Voltage step, V (its sign follows stop − start). */
+    step: z.number().positive().finite(),
+    /** Time at each step, s (the ramp rate is step / stepTime). */
+    stepTime: z.number().min(0.001).max(3600),
+    /** The instrument's current compliance, A. */
+    compliance: z.number().positive().finite(),
+    nplc: z.number().min(0.001).max(100).optional(),
+    ...useCheck,
+    criteria: rampCriteria.default(rampCriteria.parse({})),
+    overrideDiskCheck: z.boolean().default(false),
+  })
+  .strict()
+  .superRefine((p, ctx) => {
+    outward(p, ctx);
+    belowCompliance(p.criteria.currentLimit, p.compliance, ['criteria', 'currentLimit'], ctx);
+    if (p.criteria.floor >= p.compliance)
+      ctx.addIssue({
+        code: 'custom',
+        path: ['criteria', 'floor'],
+        message: `${p.criteria.floor} A is not below the compliance ${p.compliance} A: no reading could be judged`,
+      });
+    if (Math.abs(p.stop - p.start) / p.step > 1e6) ctx.addIssue({ code: 'custom', path: ['step'], message: 'makes more than a million steps' });
+  });
+
+export const currentRampPlanSchema = z
+  .object({
+    kind: z.literal('current-ramp'),
+    /** First forced current, A (its sign gives the polarity). */
+    start: z
+      .number()
+      .finite()
+      .refine((x) => x !== 0, 'must not be zero'),
+    /** The most the ramp forces, A. */
+    stop: z.number().finite(),
+    /** Logarithmic steps per decade of current. */
+    stepsPerDecade: z.number().int().min(1).max(1000).default(10),
+    /** Time at each step, s. */
+    stepTime: z.number().min(0.001).max(3600),
+    /** The instrument's voltage compliance while forcing current, V. */
+    voltageLimit: z.number().positive().finite(),
+    nplc: z.number().min(0.001).max(100).optional(),
+    ...useCheck,
+    criteria: z
+      .object({
+        /** The voltage falling by this fraction of its highest value so far is a collapse (breakdown). */
+        voltageDrop: z.number().min(0.01).max(0.99).default(0.1),
+      })
+      .strict()
+      .default({ voltageDrop: 0.1 }),
+    overrideDiskCheck: z.boolean().default(false),
+  })
+  .strict()
+  .superRefine((p, ctx) => {
+    if (!(p.start * p.stop > 0) || Math.abs(p.stop) <= Math.abs(p.start))
+      ctx.addIssue({ code: 'custom', path: ['stop'], message: 'must have the sign of start and a larger magnitude' });
+  });
+
+export const constantStressPlanSchema = z
+  .object({
+    kind: z.literal('constant-voltage'),
+    /** Stress bias, V. */
+    stress: z
+      .number()
+      .finite()
+      .refine((x) => x !== 0, 'must not be zero'),
+    /** Longest stress, s (the device then "survived"). */
+    duration: z
+      .number()
+      .positive()
+      .max(30 * 86400),
+    /** Time between current readings under stress, s. */
+    sampleEvery: z.number().min(0.001).max(3600),
+    compliance: z.number().positive().finite(),
+    nplc: z.number().min(0.001).max(100).optional(),
+    /** A short low-field sweep every `every` s of stress, to watch the leakage grow (stress-induced leakage). */
+    sense: z
+      .object({
+        start: z.number().finite(),
+        stop: z.number().finite(),
+        points: z.number().int().min(2).max(10000),
+        every: z.number().positive(),
+      })
+      .strict()
+      .optional(),
+    ...useCheck,
+    criteria: z
+      .object({
+        currentJump: z.number().min(1.5).default(10),
+        currentLimit: z.number().positive().finite().optional(),
+        floor: z.number().positive().finite().default(1e-10),
+      })
+      .strict()
+      .default({ currentJump: 10, floor: 1e-10 }),
+    overrideDiskCheck: z.boolean().default(false),
+  })
+  .strict()
+  .superRefine((p, ctx) => {
+    belowCompliance(p.criteria.currentLimit, p.compliance, ['criteria', 'currentLimit'], ctx);
+    if (p.criteria.floor >= p.compliance)
+      ctx.addIssue({
+        code: 'custom',
+        path: ['criteria', 'floor'],
+        message: `${p.criteria.floor} A is not below the compliance ${p.compliance} A: no reading could be judged`,
+      });
+    if (p.sense && p.sense.every < p.sampleEvery)
+      ctx.addIssue({
+        code: 'custom',
+        path: ['sense', 'every'],
+        message: `${p.sense.every} s is shorter than sampleEvery ${p.sampleEvery} s: sense sweeps are checked between stress readings`,
+      });
+  });
 
 export type AdaptivePlan = z.infer<typeof adaptivePlanSchema>;
 export type VoltageRampPlan = z.infer<typeof voltageRampPlanSchema>;
@@ -208,13 +268,16 @@ export type Plan = SweepPlan | AdaptivePlan | StressPlan;
 export const PLAN_KINDS = ['linear', 'log', 'list', 'adaptive', 'voltage-ramp', 'current-ramp', 'constant-voltage'] as const;
 
 /** Any plan object (zod), for configs and request bodies; `parsePlan` gives the error that names the field. */
-export const planSchema = z.unknown().superRefine((raw, ctx) => {
-  try {
-    parsePlan(raw);
-  } catch (e) {
-    ctx.addIssue({ code: 'custom', message: (e as Error).message.replace(/^plan: /, '') });
-  }
-}).transform((raw) => parsePlan(raw));
+export const planSchema = z
+  .unknown()
+  .superRefine((raw, ctx) => {
+    try {
+      parsePlan(raw);
+    } catch (e) {
+      ctx.addIssue({ code: 'custom', message: (e as Error).message.replace(/^plan: /, '') });
+    }
+  })
+  .transform((raw) => parsePlan(raw));
 
 export function isStressPlan(p: Plan): p is StressPlan {
   return p.kind === 'voltage-ramp' || p.kind === 'current-ramp' || p.kind === 'constant-voltage';
@@ -230,11 +293,16 @@ export function parsePlan(raw: unknown, where = 'plan'): Plan {
   if (kind !== undefined && !(PLAN_KINDS as readonly unknown[]).includes(kind)) {
     throw new PlanError(`${where}: field 'kind': '${String(kind)}' is not a plan kind (${PLAN_KINDS.join(', ')})`);
   }
-  const schema = kind === 'adaptive' ? adaptivePlanSchema
-    : kind === 'voltage-ramp' ? voltageRampPlanSchema
-    : kind === 'current-ramp' ? currentRampPlanSchema
-    : kind === 'constant-voltage' ? constantStressPlanSchema
-    : sweepPlanSchema;
+  const schema =
+    kind === 'adaptive'
+      ? adaptivePlanSchema
+      : kind === 'voltage-ramp'
+        ? voltageRampPlanSchema
+        : kind === 'current-ramp'
+          ? currentRampPlanSchema
+          : kind === 'constant-voltage'
+            ? constantStressPlanSchema
+            : sweepPlanSchema;
   const r = (schema as z.ZodType<Plan>).safeParse(raw);
   if (!r.success) {
     const i = r.error.issues[0];
@@ -347,5 +415,7 @@ export function checkPlanSize(p: Plan, dataDir: string): void {
   const { sweeps, pointsPerSweep } = planShape(p);
   const gib = (b: number) => (b >= 1e9 ? `${(b / 1e9).toPrecision(3)} GB` : `${(b / 1e6).toPrecision(3)} MB`);
   const field = p.kind === 'constant-voltage' ? 'duration' : p.kind === 'voltage-ramp' ? 'step' : p.kind === 'current-ramp' ? 'stepsPerDecade' : 'repeat';
-  throw new PlanError(`plan: field '${field}': ${sweeps} sweep(s) × ${pointsPerSweep} points would write about ${gib(need)} of journal, more than the ${gib(free)} free under ${dataDir}; shorten the plan, free space, or set "overrideDiskCheck": true in the plan ('plumbline run --override-disk-check')`);
+  throw new PlanError(
+    `plan: field '${field}': ${sweeps} sweep(s) × ${pointsPerSweep} points would write about ${gib(need)} of journal, more than the ${gib(free)} free under ${dataDir}; shorten the plan, free space, or set "overrideDiskCheck": true in the plan ('plumbline run --override-disk-check')`,
+  );
 }

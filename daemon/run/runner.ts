@@ -73,11 +73,20 @@ export class RunController {
   /** The first journal failure (the run goes on to turn the output off without it). */
   private journalError: Error | undefined;
 
-  constructor(readonly source: GuardedSource, readonly chain: LiveChain, readonly plan: Plan, readonly device?: DeviceIdentity, readonly sessionId = 'session') {
+  constructor(
+    readonly source: GuardedSource,
+    readonly chain: LiveChain,
+    readonly plan: Plan,
+    readonly device?: DeviceIdentity,
+    readonly sessionId = 'session',
+  ) {
     // A line nobody asked for means every later reply would land on the wrong query.
     source.driver.session.onStray = (line) => {
       if (this.finished || this.aborting) return;
-      this.abort(`out of step: the instrument sent '${line.slice(0, 120)}' with no query waiting for it (an extra reply line, or a reply to an earlier command)`, 'instrument-fault');
+      this.abort(
+        `out of step: the instrument sent '${line.slice(0, 120)}' with no query waiting for it (an extra reply line, or a reply to an earlier command)`,
+        'instrument-fault',
+      );
     };
   }
 
@@ -103,7 +112,11 @@ export class RunController {
     this.offSent = this.source.emergencyOff(reason);
     if (outcome === 'aborted-user') this.record({ type: 'decision', action: 'abort', reason });
     else if (outcome === 'instrument-fault' || outcome === 'journal-fault') {
-      this.record({ type: 'caution', kind: outcome, message: `${outcome === 'journal-fault' ? 'The journal could not be written' : 'Instrument fault'}: ${reason}. Output off was sent at once; check the instrument's front panel before touching the fixture.` });
+      this.record({
+        type: 'caution',
+        kind: outcome,
+        message: `${outcome === 'journal-fault' ? 'The journal could not be written' : 'Instrument fault'}: ${reason}. Output off was sent at once; check the instrument's front panel before touching the fixture.`,
+      });
     }
     this.wake?.();
   }
@@ -186,13 +199,23 @@ export class RunController {
           message: `${outcome === 'guard-refused' ? 'The safety guard refused a command' : outcome === 'journal-fault' ? 'The journal could not be written' : 'Instrument fault'}: ${reason}. Output off was sent at once; check the instrument's front panel before touching the fixture.`,
         });
       }
-      this.record({ type: 'output', on: false, sent: offSent, confirmed: false, reason: offSent ? `output off sent after: ${reason}` : `output off could NOT be sent (the connection is gone) after: ${reason}` });
+      this.record({
+        type: 'output',
+        on: false,
+        sent: offSent,
+        confirmed: false,
+        reason: offSent ? `output off sent after: ${reason}` : `output off could NOT be sent (the connection is gone) after: ${reason}`,
+      });
     }
     // The instrument's own word on its output.
     const check = await this.source.confirmOff();
     this.record({ type: 'output', on: false, sent: offSent ?? false, queried: true, confirmed: check.confirmed, reason: check.detail });
     if (!check.confirmed) {
-      this.record({ type: 'caution', kind: 'output-unconfirmed', message: `The instrument did not confirm that its output is off: ${check.detail}. Treat the terminals as live; check the instrument's front panel and turn the output off there before touching the fixture.` });
+      this.record({
+        type: 'caution',
+        kind: 'output-unconfirmed',
+        message: `The instrument did not confirm that its output is off: ${check.detail}. Treat the terminals as live; check the instrument's front panel and turn the output off there before touching the fixture.`,
+      });
     }
     if (this.journalError && outcome !== 'journal-fault') {
       outcome = 'journal-fault';
@@ -225,7 +248,11 @@ export class RunController {
     await this.source.outputOn();
     this.check();
     this.chain.emit({ type: 'output', on: true, sent: true, queried: true, confirmed: true, reason: 'run started (the instrument reports its output on)' });
-    this.chain.emit({ type: 'caution', kind: 'output-on', message: 'Output on. The device terminals are live: keep hands off the probes and the fixture, and follow your lab\'s safety rules.' });
+    this.chain.emit({
+      type: 'caution',
+      kind: 'output-on',
+      message: "Output on. The device terminals are live: keep hands off the probes and the fixture, and follow your lab's safety rules.",
+    });
   }
 
   private async sweepBody(plan: SweepPlan): Promise<{ outcome: RunOutcome; reason: string }> {
@@ -335,19 +362,20 @@ export class RunController {
   /** The device-results row of a breakdown test beside the journal (an aborted test is "invalid"). */
   private writeResults(outcome: RunOutcome, reason: string): void {
     const dir = this.chain.options.journal.dir;
-    const r: DeviceResult = this.testResult && outcome === 'completed'
-      ? this.testResult
-      : {
-          device: this.device?.device ?? this.sessionId,
-          wafer: this.device?.wafer,
-          site: this.device?.site,
-          x: this.device?.x,
-          y: this.device?.y,
-          test: this.plan.kind,
-          outcome: 'invalid',
-          criterion: outcome,
-          tags: this.device?.tags,
-        };
+    const r: DeviceResult =
+      this.testResult && outcome === 'completed'
+        ? this.testResult
+        : {
+            device: this.device?.device ?? this.sessionId,
+            wafer: this.device?.wafer,
+            site: this.device?.site,
+            x: this.device?.x,
+            y: this.device?.y,
+            test: this.plan.kind,
+            outcome: 'invalid',
+            criterion: outcome,
+            tags: this.device?.tags,
+          };
     if (!this.testResult || outcome !== 'completed') this.testResult = r;
     this.safely(() => writeDeviceResults(dir, [r]));
     void reason;

@@ -37,18 +37,22 @@ rxjsConfig.onUnhandledError = (err: unknown) => {
   const now = performance.now();
   if (now - lastReport < 10_000) return;
   lastReport = now;
-  process.stderr.write(`plumbline: a subscriber of the event stream failed (${subscriberErrors} time(s) so far; the run is not affected): ${(err as Error)?.stack ?? String(err)}\n`);
+  process.stderr.write(
+    `plumbline: a subscriber of the event stream failed (${subscriberErrors} time(s) so far; the run is not affected): ${(err as Error)?.stack ?? String(err)}\n`,
+  );
 };
 
 const TERMINATOR = { lf: '\n', crlf: '\r\n', cr: '\r' } as const;
 
 export class StationError extends Error {
-  constructor(message: string, readonly status = 409) {
+  constructor(
+    message: string,
+    readonly status = 409,
+  ) {
     super(message);
     this.name = 'StationError';
   }
 }
-
 
 export interface RunHandle {
   readonly session: string;
@@ -77,7 +81,11 @@ export class Station {
    * `received`, `applied`; tests read them). Few by default: they are kept long enough to age into
    * the old generation, and a long run would carry them.
    */
-  constructor(readonly config: StationConfig, readonly dataDir: string, private readonly options: { simulatorRecords?: number } = {}) {
+  constructor(
+    readonly config: StationConfig,
+    readonly dataDir: string,
+    private readonly options: { simulatorRecords?: number } = {},
+  ) {
     if (config.instrument.kind === 'simulator') {
       this.scenario = findScenario(config.instrument.scenario);
     }
@@ -101,9 +109,18 @@ export class Station {
 
   /** The plan used when a run is started without one. */
   defaultPlan(repeat?: number): Plan {
-    const base = this.config.plan ?? (this.scenario
-      ? { kind: 'linear', start: this.scenario.sweep.start, stop: this.scenario.sweep.stop, points: this.scenario.sweep.points, compliance: this.scenario.sweep.compliance, repeat: 10 }
-      : undefined);
+    const base =
+      this.config.plan ??
+      (this.scenario
+        ? {
+            kind: 'linear',
+            start: this.scenario.sweep.start,
+            stop: this.scenario.sweep.stop,
+            points: this.scenario.sweep.points,
+            compliance: this.scenario.sweep.compliance,
+            repeat: 10,
+          }
+        : undefined);
     if (!base) throw new StationError('no plan given and the station config has no default plan', 400);
     return parsePlan({ ...base, ...(repeat !== undefined ? { repeat } : {}) }, 'default plan');
   }
@@ -134,7 +151,11 @@ export class Station {
    * watch`, and the page benchmark): the same chain, journal and page, with no control of the
    * instrument. The caller feeds `chain.startSweep / reading / endSweep` and ends with `close`.
    */
-  openPassive(label: string, detail: string, options: { sweeps?: number; pointsPerSweep?: number; complianceLimit?: number } = {}): { chain: LiveChain; session: string; dir: string; close(outcome: RunOutcome, reason: string): void } {
+  openPassive(
+    label: string,
+    detail: string,
+    options: { sweeps?: number; pointsPerSweep?: number; complianceLimit?: number } = {},
+  ): { chain: LiveChain; session: string; dir: string; close(outcome: RunOutcome, reason: string): void } {
     if (this.running) throw new StationError(`a run is in progress (session ${this.current?.session})`);
     const { chain, id, dir } = this.newSession(label, {
       complianceLimit: options.complianceLimit,
@@ -153,7 +174,11 @@ export class Station {
       drift: this.config.drift,
       limits: this.config.limits,
     });
-    chain.emit({ type: 'caution', kind: 'passive-source', message: `Readings come from ${detail}. plumbline does not control this instrument: it cannot turn the output off or abort the sweep; use the instrument's own controls.` });
+    chain.emit({
+      type: 'caution',
+      kind: 'passive-source',
+      message: `Readings come from ${detail}. plumbline does not control this instrument: it cannot turn the output off or abort the sweep; use the instrument's own controls.`,
+    });
     this.passive = true;
     return {
       chain,
@@ -167,7 +192,10 @@ export class Station {
     };
   }
 
-  private newSession(label: string, o: { complianceLimit?: number; sweeps: number; pointsPerSweep: number; control?: boolean; watches?: boolean }): { chain: LiveChain; id: string; dir: string } {
+  private newSession(
+    label: string,
+    o: { complianceLimit?: number; sweeps: number; pointsPerSweep: number; control?: boolean; watches?: boolean },
+  ): { chain: LiveChain; id: string; dir: string } {
     const { writer, id } = JournalWriter.create(this.dataDir, label);
     const dir = join(this.dataDir, id);
     const watches = o.watches ?? true;
@@ -220,7 +248,13 @@ export class Station {
     let detail: string;
     if (ic.kind === 'simulator') {
       const scenario = this.scenario as Scenario;
-      this.sim ??= new SimulatedSmu({ device: scenario.device, seed: ic.seed, realTime: ic.realTime, faults: ic.faults, recordLimit: this.options.simulatorRecords ?? 1_000 });
+      this.sim ??= new SimulatedSmu({
+        device: scenario.device,
+        seed: ic.seed,
+        realTime: ic.realTime,
+        faults: ic.faults,
+        recordLimit: this.options.simulatorRecords ?? 1_000,
+      });
       const [client, inst] = duplexPair();
       attachInstrument(this.sim, inst);
       stream = client;
@@ -229,10 +263,19 @@ export class Station {
       stream = await openTcp(ic.host, ic.port, timeoutMs);
       detail = `TCP ${ic.host}:${ic.port}`;
     } else {
-      stream = await openSerial({ path: ic.path, baudRate: ic.baudRate, dataBits: ic.dataBits, parity: ic.parity, stopBits: ic.stopBits, rtscts: ic.rtscts, xonxoff: ic.xonxoff });
+      stream = await openSerial({
+        path: ic.path,
+        baudRate: ic.baudRate,
+        dataBits: ic.dataBits,
+        parity: ic.parity,
+        stopBits: ic.stopBits,
+        rtscts: ic.rtscts,
+        xonxoff: ic.xonxoff,
+      });
       detail = `serial ${ic.path} at ${ic.baudRate} baud, ${ic.dataBits}${ic.parity[0].toUpperCase()}${ic.stopBits}${ic.rtscts ? ', RTS/CTS' : ''}${ic.xonxoff ? ', XON/XOFF' : ''}`;
     }
-    const link: { writeTerminator?: keyof typeof TERMINATOR; readTerminator?: 'lf' | 'crlf' | 'cr'; commandDelayMs?: number } = ic.kind === 'simulator' ? {} : ic;
+    const link: { writeTerminator?: keyof typeof TERMINATOR; readTerminator?: 'lf' | 'crlf' | 'cr'; commandDelayMs?: number } =
+      ic.kind === 'simulator' ? {} : ic;
     const session = new ScpiSession(stream, {
       timeoutMs,
       terminator: link.writeTerminator ? TERMINATOR[link.writeTerminator] : dialect.terminator,
@@ -258,7 +301,9 @@ export class Station {
   async startRun(options: { plan?: unknown; analysis?: unknown; label?: string; device?: unknown } = {}): Promise<RunHandle> {
     if (this.running) throw new StationError(`a run is in progress (session ${this.current?.session ?? '(starting)'}); stop or abort it first`);
     // A plan (file or request) may carry the device under test beside its sweep settings.
-    const { device: planDevice, ...planRest } = (typeof options.plan === 'object' && options.plan !== null && !Array.isArray(options.plan) ? options.plan : {}) as { device?: unknown };
+    const { device: planDevice, ...planRest } = (
+      typeof options.plan === 'object' && options.plan !== null && !Array.isArray(options.plan) ? options.plan : {}
+    ) as { device?: unknown };
     const plan = options.plan === undefined ? this.defaultPlan() : parsePlan(planDevice === undefined ? options.plan : planRest, 'plan');
     checkPlan(this.config.limits, plan);
     const device = this.parseDevice(planDevice, options.device);
@@ -276,11 +321,22 @@ export class Station {
       throw new StationError(`station config: ${(e as Error).message}`, 400);
     }
     if (plan.kind === 'current-ramp' && !dialect.commands.sourceCurrent) {
-      throw new StationError(`plan: field 'kind': a current ramp forces current, and the dialect '${dialect.name}' has no current-sourcing commands (sourceCurrentMode, sourceCurrent, voltageCompliance)`, 400);
+      throw new StationError(
+        `plan: field 'kind': a current ramp forces current, and the dialect '${dialect.name}' has no current-sourcing commands (sourceCurrentMode, sourceCurrent, voltageCompliance)`,
+        400,
+      );
     }
     if ((plan.kind === 'linear' || plan.kind === 'log' || plan.kind === 'list') && plan.pacing === 'instrument') {
-      if (!dialect.paced) throw new StationError(`plan: field 'pacing': the dialect '${dialect.name}' has no instrument-paced templates ("paced"); use pacing "station" or a dialect that has them (protection-status)`, 400);
-      if (plan.blockPoints !== undefined && plan.blockPoints > dialect.paced.maxPoints) throw new StationError(`plan: field 'blockPoints': ${plan.blockPoints} is more than the ${dialect.paced.maxPoints} levels the dialect '${dialect.name}' says the instrument's list holds`, 400);
+      if (!dialect.paced)
+        throw new StationError(
+          `plan: field 'pacing': the dialect '${dialect.name}' has no instrument-paced templates ("paced"); use pacing "station" or a dialect that has them (protection-status)`,
+          400,
+        );
+      if (plan.blockPoints !== undefined && plan.blockPoints > dialect.paced.maxPoints)
+        throw new StationError(
+          `plan: field 'blockPoints': ${plan.blockPoints} is more than the ${dialect.paced.maxPoints} levels the dialect '${dialect.name}' says the instrument's list holds`,
+          400,
+        );
     }
     this.starting = true;
     let link: Awaited<ReturnType<Station['connect']>> | undefined;
@@ -289,14 +345,20 @@ export class Station {
       try {
         link = await this.connect(dialect);
       } catch (e) {
-        throw new StationError(`cannot reach the instrument (${this.describeInstrument()}): ${(e as Error).message}; check the cable or address, and that nothing else holds the port`, 502);
+        throw new StationError(
+          `cannot reach the instrument (${this.describeInstrument()}): ${(e as Error).message}; check the cable or address, and that nothing else holds the port`,
+          502,
+        );
       }
       const { driver, session, detail } = link;
       let idn: string;
       try {
         idn = await driver.identify();
       } catch (e) {
-        throw new StationError(`the instrument did not answer '${dialect.commands.identify}' (${(e as Error).message}); check the connection and the dialect's terminators`, 502);
+        throw new StationError(
+          `the instrument did not answer '${dialect.commands.identify}' (${(e as Error).message}); check the connection and the dialect's terminators`,
+          502,
+        );
       }
       const label = options.label ?? this.scenario?.name ?? 'run';
       let created: ReturnType<Station['newSession']>;
@@ -305,10 +367,18 @@ export class Station {
         // A breakdown test judges breakdown by its own criteria (and destroys the device on
         // purpose); the live breakdown and drift watches are for sweeps of devices meant to survive.
         const stress = isStressPlan(plan);
-        created = this.newSession(label, { complianceLimit: planCompliance(plan), sweeps: shape.sweeps, pointsPerSweep: shape.pointsPerSweep, ...(stress ? { watches: false } : {}) });
+        created = this.newSession(label, {
+          complianceLimit: planCompliance(plan),
+          sweeps: shape.sweeps,
+          pointsPerSweep: shape.pointsPerSweep,
+          ...(stress ? { watches: false } : {}),
+        });
       } catch (e) {
         const err = e as NodeJS.ErrnoException;
-        throw new StationError(`cannot create the session folder under ${this.dataDir}: ${err.code === 'ENOSPC' ? 'no space left on the disk' : err.message}`, err.code === 'ENOSPC' ? 507 : 500);
+        throw new StationError(
+          `cannot create the session folder under ${this.dataDir}: ${err.code === 'ENOSPC' ? 'no space left on the disk' : err.message}`,
+          err.code === 'ENOSPC' ? 507 : 500,
+        );
       }
       const { chain, id, dir } = created;
       chain.emit({
@@ -345,14 +415,17 @@ export class Station {
       // A journal that cannot be written stops the run at once (even between readings).
       chain.options.journal.onError = (err) => controller.abort(err.message, 'journal-fault');
       this.controller = controller;
-      const done = controller.execute().then((r) => {
-        this.last = { session: id, outcome: r.outcome, reason: r.reason, outputOffConfirmed: r.outputOffConfirmed };
-        return r;
-      }).finally(() => {
-        session.close();
-        this.controller = undefined;
-        this.chain = undefined;
-      });
+      const done = controller
+        .execute()
+        .then((r) => {
+          this.last = { session: id, outcome: r.outcome, reason: r.reason, outputOffConfirmed: r.outputOffConfirmed };
+          return r;
+        })
+        .finally(() => {
+          session.close();
+          this.controller = undefined;
+          this.chain = undefined;
+        });
       return { session: id, dir, plan, done };
     } catch (e) {
       link?.session.close();
@@ -400,7 +473,7 @@ export class Station {
   }
 
   abort(reason = 'abort requested'): void {
-    if (this.passive) throw new StationError('this session watches a passive source: plumbline cannot turn that instrument\'s output off; use its own controls');
+    if (this.passive) throw new StationError("this session watches a passive source: plumbline cannot turn that instrument's output off; use its own controls");
     if (!this.controller) throw new StationError('no run in progress');
     this.controller.abort(reason);
   }
@@ -425,7 +498,14 @@ export class Station {
     const target = a.session ?? this.current?.session ?? listSessions(this.dataDir)[0];
     if (!target) throw new StationError('no session to annotate yet', 404);
     const device = a.device === undefined ? undefined : this.parseDevice(undefined, a.device);
-    const ev = { type: 'annotation' as const, text: a.text, tags: a.tags ?? [], ...(a.sweep !== undefined ? { sweep: a.sweep } : {}), source, ...(device ? { device } : {}) };
+    const ev = {
+      type: 'annotation' as const,
+      text: a.text,
+      tags: a.tags ?? [],
+      ...(a.sweep !== undefined ? { sweep: a.sweep } : {}),
+      source,
+      ...(device ? { device } : {}),
+    };
     if (this.chain && this.current?.session === target) return this.chain.emit(ev);
     if (!listSessions(this.dataDir).includes(target)) throw new StationError(`no session '${target}' under ${this.dataDir}`, 404);
     return annotateFolder(join(this.dataDir, target), ev);
@@ -445,7 +525,10 @@ export class Station {
 }
 
 /** Appends an annotation to a session folder (after its run, or from another process). */
-export function annotateFolder(dir: string, ev: { type: 'annotation'; text: string; tags: string[]; sweep?: number; source: string; device?: DeviceIdentity }): WireEvent {
+export function annotateFolder(
+  dir: string,
+  ev: { type: 'annotation'; text: string; tags: string[]; sweep?: number; source: string; device?: DeviceIdentity },
+): WireEvent {
   const scan = scanJournal(dir, () => undefined);
   const w = JournalWriter.append(dir, scan.lastSeq, scan.lastT);
   try {

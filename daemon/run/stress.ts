@@ -14,7 +14,14 @@
  */
 import { writeFileSync } from 'node:fs';
 import { join } from 'node:path';
-import { chargeToBreakdown, CurrentRampJudge, staircaseChargeToBreakdown, StressJudge, VoltageRampJudge, type BreakdownVerdict } from '../analysis/breakdown-tests.js';
+import {
+  chargeToBreakdown,
+  CurrentRampJudge,
+  staircaseChargeToBreakdown,
+  StressJudge,
+  VoltageRampJudge,
+  type BreakdownVerdict,
+} from '../analysis/breakdown-tests.js';
 import { DEVICE_RESULTS_FILE, formatDeviceResults, type DeviceIdentity, type DeviceResult, type Outcome } from '../../protocols/device-results.js';
 import type { NewEvent } from '../../protocols/wire.js';
 import type { Measurement } from '../instrument/smu-driver.js';
@@ -117,7 +124,10 @@ class Series {
   edgeUncertainty = 0;
   private last: number;
 
-  constructor(start: number, readonly staircase: boolean) {
+  constructor(
+    start: number,
+    readonly staircase: boolean,
+  ) {
     this.last = start;
   }
 
@@ -161,7 +171,12 @@ export class StressTest {
   private leakageBefore: number | undefined;
   private leakageAfter: number | undefined;
 
-  constructor(readonly ctx: RunContext, readonly plan: StressPlan, readonly device: DeviceIdentity, readonly sessionId: string) {}
+  constructor(
+    readonly ctx: RunContext,
+    readonly plan: StressPlan,
+    readonly device: DeviceIdentity,
+    readonly sessionId: string,
+  ) {}
 
   private get limits() {
     return this.ctx.source.limits;
@@ -179,7 +194,11 @@ export class StressTest {
   /** The device's area and thickness: the device identity's, else the analysis inputs'. */
   private geometry(): { area?: number; thickness?: number; temperature?: number } {
     const inputs = this.ctx.chain.settings.inputs as { area?: number; thickness?: number; temperature?: number };
-    return { area: this.device.area ?? inputs.area, thickness: this.device.thickness ?? inputs.thickness, temperature: this.device.temperature ?? inputs.temperature };
+    return {
+      area: this.device.area ?? inputs.area,
+      thickness: this.device.thickness ?? inputs.thickness,
+      temperature: this.device.temperature ?? inputs.temperature,
+    };
   }
 
   async run(): Promise<StressOutcome> {
@@ -187,12 +206,17 @@ export class StressTest {
     this.ctx.record({
       type: 'caution',
       kind: 'destructive-test',
-      message: 'This test drives the device to breakdown on purpose: high fields, currents up to the limits, and a device that is destroyed at the end. The station\'s hard limits still apply and the output goes off the moment breakdown is confirmed; keep hands off the probes and the fixture, and follow your lab\'s safety rules.',
+      message:
+        "This test drives the device to breakdown on purpose: high fields, currents up to the limits, and a device that is destroyed at the end. The station's hard limits still apply and the output goes off the moment breakdown is confirmed; keep hands off the probes and the fixture, and follow your lab's safety rules.",
     });
     if (p.useVoltage !== undefined) {
       this.leakageBefore = await this.useCheck('use-condition check before the test');
       if (Math.abs(this.leakageBefore) > p.useCurrentLimit) {
-        return this.finish('initial-failure', undefined, `the device already conducts ${g(Math.abs(this.leakageBefore))} A at the ${p.useVoltage} V use condition (limit ${p.useCurrentLimit} A): an initial failure, not stressed`);
+        return this.finish(
+          'initial-failure',
+          undefined,
+          `the device already conducts ${g(Math.abs(this.leakageBefore))} A at the ${p.useVoltage} V use condition (limit ${p.useCurrentLimit} A): an initial failure, not stressed`,
+        );
       }
     }
     let verdict: BreakdownVerdict | undefined;
@@ -220,7 +244,11 @@ export class StressTest {
         time: hold.slice(0, k + 1).reduce((a, b) => a + b, 0),
         // The breakdown moment is known only to lie between the last intact reading and the one
         // that showed it: half that interval's charge is the estimate's own uncertainty.
-        numbers: { ...verdict.numbers, ...this.achievedRate(series).numbers, ...(area && k > 0 ? { chargeUncertainty: (0.5 * Math.abs(series.i[k - 1]) * (series.t[k] - series.t[k - 1]) + series.edgeUncertainty) / area } : {}) },
+        numbers: {
+          ...verdict.numbers,
+          ...this.achievedRate(series).numbers,
+          ...(area && k > 0 ? { chargeUncertainty: (0.5 * Math.abs(series.i[k - 1]) * (series.t[k] - series.t[k - 1]) + series.edgeUncertainty) / area } : {}),
+        },
       });
     }
     // The end of the ramp or of the stress time without breakdown: the device survived (censored).
@@ -228,13 +256,18 @@ export class StressTest {
     const vmax = n ? Math.max(...(p.kind === 'current-ramp' ? series.v : series.set).map(Math.abs)) : 0;
     const holds = series.holds();
     const q = chargeToBreakdown(holds, series.i, n);
-    return this.finish('survived', p.kind === 'constant-voltage' ? 'end-of-stress' : 'end-of-ramp', `no breakdown: the device held to the end of the ${p.kind === 'constant-voltage' ? `stress (${g(p.duration)} s)` : 'ramp'}`, {
-      voltage: vmax,
-      field: thickness ? vmax / thickness : undefined,
-      charge: area ? q / area : undefined,
-      time: last >= 0 ? holds.reduce((a, b) => a + b, 0) : undefined,
-      ...this.achievedRate(series),
-    });
+    return this.finish(
+      'survived',
+      p.kind === 'constant-voltage' ? 'end-of-stress' : 'end-of-ramp',
+      `no breakdown: the device held to the end of the ${p.kind === 'constant-voltage' ? `stress (${g(p.duration)} s)` : 'ramp'}`,
+      {
+        voltage: vmax,
+        field: thickness ? vmax / thickness : undefined,
+        charge: area ? q / area : undefined,
+        time: last >= 0 ? holds.reduce((a, b) => a + b, 0) : undefined,
+        ...this.achievedRate(series),
+      },
+    );
   }
 
   /**
@@ -247,7 +280,13 @@ export class StressTest {
     if (p.kind === 'constant-voltage' || n < 2) return {};
     const period = (series.tSet[n - 1] - series.tSet[0]) / (n - 1);
     if (!(period > 0)) return {};
-    return { numbers: { stepPeriod: period, plannedStepPeriod: p.stepTime, ...(p.kind === 'voltage-ramp' ? { rampRate: p.step / period, plannedRampRate: p.step / p.stepTime } : {}) } };
+    return {
+      numbers: {
+        stepPeriod: period,
+        plannedStepPeriod: p.stepTime,
+        ...(p.kind === 'voltage-ramp' ? { rampRate: p.step / period, plannedRampRate: p.step / p.stepTime } : {}),
+      },
+    };
   }
 
   /** One reading at the use voltage (voltage sourcing at the plan's compliance); output off after. */
@@ -276,7 +315,13 @@ export class StressTest {
   private async offAtBreakdown(verdict: BreakdownVerdict): Promise<void> {
     const sent = await this.ctx.source.outputOff();
     this.ctx.record({ type: 'output', on: false, sent, confirmed: false, reason: `breakdown confirmed (${verdict.criterion})` });
-    this.ctx.record({ type: 'caution', kind: 'breakdown-confirmed', sweep: this.sweep, numbers: verdict.numbers, message: `Breakdown (${verdict.criterion}): ${verdict.reason}. The output was turned off. The device is destroyed; follow your lab's rules before touching the fixture.` });
+    this.ctx.record({
+      type: 'caution',
+      kind: 'breakdown-confirmed',
+      sweep: this.sweep,
+      numbers: verdict.numbers,
+      message: `Breakdown (${verdict.criterion}): ${verdict.reason}. The output was turned off. The device is destroyed; follow your lab's rules before touching the fixture.`,
+    });
   }
 
   private async voltageRamp(p: VoltageRampPlan): Promise<{ verdict?: BreakdownVerdict; series: Series; tStart: number }> {
@@ -284,7 +329,14 @@ export class StressTest {
     await src.configure(p.compliance, p.nplc);
     this.ctx.check();
     await src.outputOn();
-    this.ctx.record({ type: 'output', on: true, sent: true, queried: true, confirmed: true, reason: 'voltage ramp started (the instrument reports its output on)' });
+    this.ctx.record({
+      type: 'output',
+      on: true,
+      sent: true,
+      queried: true,
+      confirmed: true,
+      reason: 'voltage ramp started (the instrument reports its output on)',
+    });
     const dir = Math.sign(p.stop - p.start);
     const steps = Math.floor(Math.abs(p.stop - p.start) / p.step + 1e-9);
     // Rounded to 12 significant digits: 9.6 V goes to the instrument as 9.6, not 9.600000000000001.
@@ -302,7 +354,10 @@ export class StressTest {
       const tSet = this.now();
       await this.ctx.sleep(pace.holdAfterSet(tSet));
       this.ctx.check();
-      const m = await pace.measure(() => src.measure(), () => this.now());
+      const m = await pace.measure(
+        () => src.measure(),
+        () => this.now(),
+      );
       if (!m.reading) {
         this.ctx.take(m, v);
         continue;
@@ -329,7 +384,14 @@ export class StressTest {
     await src.configureCurrent(p.voltageLimit, p.nplc);
     this.ctx.check();
     await src.outputOn();
-    this.ctx.record({ type: 'output', on: true, sent: true, queried: true, confirmed: true, reason: 'current ramp started (the instrument reports its output on)' });
+    this.ctx.record({
+      type: 'output',
+      on: true,
+      sent: true,
+      queried: true,
+      confirmed: true,
+      reason: 'current ramp started (the instrument reports its output on)',
+    });
     const decades = Math.log10(Math.abs(p.stop / p.start));
     const n = Math.ceil(decades * p.stepsPerDecade - 1e-9);
     const levels = Array.from({ length: n + 1 }, (_, k) => (k === n ? p.stop : p.start * 10 ** (k / p.stepsPerDecade)));
@@ -345,7 +407,10 @@ export class StressTest {
       const tSet = this.now();
       await this.ctx.sleep(pace.holdAfterSet(tSet));
       this.ctx.check();
-      const m = await pace.measure(() => src.measure(), () => this.now());
+      const m = await pace.measure(
+        () => src.measure(),
+        () => this.now(),
+      );
       if (!m.reading) {
         this.ctx.take(m, i);
         continue;
@@ -377,13 +442,23 @@ export class StressTest {
     await src.configure(p.compliance, p.nplc);
     this.ctx.check();
     await src.outputOn();
-    this.ctx.record({ type: 'output', on: true, sent: true, queried: true, confirmed: true, reason: 'constant-voltage stress started (the instrument reports its output on)' });
+    this.ctx.record({
+      type: 'output',
+      on: true,
+      sent: true,
+      queried: true,
+      confirmed: true,
+      reason: 'constant-voltage stress started (the instrument reports its output on)',
+    });
     const judge = new StressJudge(p.criteria, p.compliance);
     let stressTime = 0;
     let nextSense = p.sense ? p.sense.every : Infinity;
     let segmentOpen = false;
     const openSegment = (): void => {
-      this.startSweep(Math.max(1, Math.ceil(Math.min(p.duration - stressTime, nextSense - stressTime) / p.sampleEvery)), `stress at ${p.stress} V from ${g(stressTime)} s`);
+      this.startSweep(
+        Math.max(1, Math.ceil(Math.min(p.duration - stressTime, nextSense - stressTime) / p.sampleEvery)),
+        `stress at ${p.stress} V from ${g(stressTime)} s`,
+      );
       segmentOpen = true;
     };
     // Stress time is taken from the instrument's own clock when its readings carry one (the
@@ -483,7 +558,12 @@ export class StressTest {
     return first !== undefined && last !== undefined ? { first, last } : undefined;
   }
 
-  private finish(outcome: Outcome, criterion: string | undefined, reason: string, at: { voltage?: number; field?: number; charge?: number; time?: number; numbers?: Readonly<Record<string, number>> } = {}): StressOutcome {
+  private finish(
+    outcome: Outcome,
+    criterion: string | undefined,
+    reason: string,
+    at: { voltage?: number; field?: number; charge?: number; time?: number; numbers?: Readonly<Record<string, number>> } = {},
+  ): StressOutcome {
     const { area, thickness, temperature } = this.geometry();
     const result: DeviceResult = {
       device: this.device.device ?? this.sessionId,
@@ -505,7 +585,14 @@ export class StressTest {
       leakageAfter: this.leakageAfter,
       tags: this.device.tags,
     };
-    this.ctx.record({ type: 'test-result', test: result.test, outcome, reason, result: result as unknown as Record<string, unknown>, ...(at.numbers ? { numbers: at.numbers } : {}) });
+    this.ctx.record({
+      type: 'test-result',
+      test: result.test,
+      outcome,
+      reason,
+      result: result as unknown as Record<string, unknown>,
+      ...(at.numbers ? { numbers: at.numbers } : {}),
+    });
     return { result, reason };
   }
 }

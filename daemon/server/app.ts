@@ -61,7 +61,6 @@ export class ServerConfigError extends Error {
   readonly code = 'BAD_CONFIG';
 }
 
-
 export function tokenMatches(given: string | undefined, token: string): boolean {
   if (given === undefined) return false;
   const a = Buffer.from(given);
@@ -157,9 +156,11 @@ export async function startServer(station: Station, options: ServerOptions): Pro
     const fromQuery = typeof req.query.token === 'string' ? req.query.token : undefined;
     const given = bearer(req) ?? fromQuery ?? cookieToken(req);
     if (!tokenMatches(given, token)) {
-      res.status(401).json({ error: control
-        ? 'control request without the station token refused (send Authorization: Bearer <token>)'
-        : 'this station needs its token for every request: open the page as http://HOST:PORT/?token=<token>, or send Authorization: Bearer <token>' });
+      res.status(401).json({
+        error: control
+          ? 'control request without the station token refused (send Authorization: Bearer <token>)'
+          : 'this station needs its token for every request: open the page as http://HOST:PORT/?token=<token>, or send Authorization: Bearer <token>',
+      });
       return;
     }
     // Once a browser has shown the token, a same-site cookie carries it to the page's own files.
@@ -228,7 +229,8 @@ export async function startServer(station: Station, options: ServerOptions): Pro
     res.json(a);
   });
   app.get('/lot', async (req, res) => {
-    if (listSessions(station.dataDir).length === 0) return void res.type('html').send('<!doctype html><meta charset="utf-8"><title>plumbline lot</title><p>No sessions in the data folder yet.</p>');
+    if (listSessions(station.dataDir).length === 0)
+      return void res.type('html').send('<!doctype html><meta charset="utf-8"><title>plumbline lot</title><p>No sessions in the data folder yet.</p>');
     const o = lotQuery(req);
     res.type('html').send(renderLot(await analyzeLot(new FolderLot([station.dataDir]), o), o));
   });
@@ -251,7 +253,8 @@ export async function startServer(station: Station, options: ServerOptions): Pro
     if (sweep !== undefined && !Number.isInteger(sweep)) throw new StationError(`query 'sweep': expected an integer, got '${String(req.query.sweep)}'`, 400);
     const rows: number[][] = [];
     scanJournal(dir, (e) => {
-      if (e.type === 'reading' && (sweep === undefined || e.sweep === sweep) && rows.length < 2_000_000) rows.push([e.seq, e.sweep, e.k, e.t, e.v, e.i, e.flags]);
+      if (e.type === 'reading' && (sweep === undefined || e.sweep === sweep) && rows.length < 2_000_000)
+        rows.push([e.seq, e.sweep, e.k, e.t, e.v, e.i, e.flags]);
     });
     res.json({ fields: ['seq', 'sweep', 'k', 't', 'v', 'i', 'flags'], rows });
   });
@@ -264,7 +267,8 @@ export async function startServer(station: Station, options: ServerOptions): Pro
   };
   app.get('/api/sessions/:id/overview', (req, res) => {
     const last = req.query.last === undefined ? OVERVIEW_SWEEPS : Number(req.query.last);
-    if (!Number.isInteger(last) || last < 1 || last > 200) throw new StationError(`query 'last': expected a whole number from 1 to 200, got '${String(req.query.last)}'`, 400);
+    if (!Number.isInteger(last) || last < 1 || last > 200)
+      throw new StationError(`query 'last': expected a whole number from 1 to 200, got '${String(req.query.last)}'`, 400);
     res.json(sessionOverview(sessionDir(req.params.id), last));
   });
   app.get('/api/sessions/:id/sweeps/:sweep', (req, res) => {
@@ -377,7 +381,8 @@ export async function startServer(station: Station, options: ServerOptions): Pro
       sub.unsubscribe();
       viewSub.unsubscribe();
       hub.close();
-      if (e.code === 'EADDRINUSE') reject(new ServerConfigError(`port ${options.port} on ${host} is already in use (another plumbline serve?): give --port, or 0 for any free port`));
+      if (e.code === 'EADDRINUSE')
+        reject(new ServerConfigError(`port ${options.port} on ${host} is already in use (another plumbline serve?): give --port, or 0 for any free port`));
       else if (e.code === 'EACCES') reject(new ServerConfigError(`no permission to listen on ${host}:${options.port}: use a port above 1023`));
       else if (e.code === 'EADDRNOTAVAIL') reject(new ServerConfigError(`server.host '${host}' is not an address of this machine`));
       else reject(e);

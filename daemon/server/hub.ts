@@ -48,7 +48,10 @@ export class Hub {
   private readonly heartbeat: NodeJS.Timeout;
   readonly stats: HubStats = { clients: 0, lagging: 0, batches: 0, events: 0, gaps: 0, dropped: 0 };
 
-  constructor(private readonly snapshot: () => Snapshot, private readonly onMessage?: (msg: unknown, ws: WebSocket) => void) {
+  constructor(
+    private readonly snapshot: () => Snapshot,
+    private readonly onMessage?: (msg: unknown, ws: WebSocket) => void,
+  ) {
     this.heartbeat = setInterval(() => {
       for (const c of this.clients) {
         if (!c.alive) {
@@ -192,6 +195,7 @@ export function encodeBatch(batch: readonly WireEvent[]): string {
     n++;
   }
   if (stride > 1 && last && readings[readings.length - 1][0] !== last.seq) readings.push(packReading(last as Extract<WireEvent, { type: 'reading' }>));
-  const msg: ServerMessage = stride > 1 ? { kind: 'events', events, readings, thinned: { readings: count, sent: readings.length } } : { kind: 'events', events, readings };
+  const msg: ServerMessage =
+    stride > 1 ? { kind: 'events', events, readings, thinned: { readings: count, sent: readings.length } } : { kind: 'events', events, readings };
   return JSON.stringify(msg);
 }

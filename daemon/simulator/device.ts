@@ -59,7 +59,10 @@ export class SimulatedDevice {
   readonly endurance: number;
   breakdown: BreakdownRecord | undefined;
 
-  constructor(readonly spec: DeviceSpec, seed = 1) {
+  constructor(
+    readonly spec: DeviceSpec,
+    seed = 1,
+  ) {
     this.mech = getMechanism(spec.mechanism === 'single-diode' ? 'diode' : spec.mechanism);
     this.inputs = resolveInputs(this.mech, spec.inputs);
     this.params = { ...spec.params };

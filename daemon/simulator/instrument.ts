@@ -64,7 +64,10 @@ const DEFAULT_INSTRUMENT: InstrumentSpec = { gain: 5e-4, rangeOffset: 2e-4, minR
 type Handler = (arg: string | undefined, query: boolean) => string | undefined | Promise<string | undefined>;
 
 class ScpiError extends Error {
-  constructor(readonly code: number, text: string) {
+  constructor(
+    readonly code: number,
+    text: string,
+  ) {
     super(text);
   }
 }
@@ -284,8 +287,14 @@ export class SimulatedSmu {
     this.on(':MEASure[:CURRent][:DC]', read);
     this.on(':FORMat:ELEMents', (a, q) => {
       if (q) return this.elements.join(',');
-      const els = (a ?? '').split(',').map((x) => x.trim().toUpperCase().replace(/^(VOLT)AGE$|^(CURR)ENT$|^(STAT)US$/, '$1$2$3'));
-      if (els.length === 0 || els.some((e) => e !== 'VOLT' && e !== 'CURR' && e !== 'TIME' && e !== 'STAT')) throw new ScpiError(-224, 'Illegal parameter value');
+      const els = (a ?? '').split(',').map((x) =>
+        x
+          .trim()
+          .toUpperCase()
+          .replace(/^(VOLT)AGE$|^(CURR)ENT$|^(STAT)US$/, '$1$2$3'),
+      );
+      if (els.length === 0 || els.some((e) => e !== 'VOLT' && e !== 'CURR' && e !== 'TIME' && e !== 'STAT'))
+        throw new ScpiError(-224, 'Illegal parameter value');
       this.elements = els as ('VOLT' | 'CURR' | 'TIME' | 'STAT')[];
       return undefined;
     });
@@ -441,7 +450,15 @@ export class SimulatedSmu {
   private formatReading(v: number, i: number): string {
     const t = (this.wearAt - this.clockZero) / 1000;
     return this.elements
-      .map((e) => (e === 'VOLT' ? formatScpiNumber(v) : e === 'CURR' ? formatScpiNumber(i) : e === 'TIME' ? formatScpiNumber(t) : String(this.tripped ? SimulatedSmu.STATUS_COMPLIANCE : 0)))
+      .map((e) =>
+        e === 'VOLT'
+          ? formatScpiNumber(v)
+          : e === 'CURR'
+            ? formatScpiNumber(i)
+            : e === 'TIME'
+              ? formatScpiNumber(t)
+              : String(this.tripped ? SimulatedSmu.STATUS_COMPLIANCE : 0),
+      )
       .join(',');
   }
 

@@ -11,40 +11,56 @@ import { projectRoot } from '../../protocols/project-root.js';
 export const SCENARIO_DIR = join(projectRoot(), 'config', 'scenarios');
 
 const numberRecord = z.record(z.string(), z.number());
-export const scenarioSchema = z.object({
-  name: z.string().regex(/^[a-z0-9-]+$/),
-  description: z.string().min(1),
-  device: z.object({
-    mechanism: z.string(),
-    params: numberRecord,
-    inputs: z.object({
-      thickness: z.number().positive().optional(),
-      area: z.number().positive().optional(),
-      temperature: z.number().positive().optional(),
-      massRatio: z.number().positive().optional(),
-      permittivity: z.number().positive().optional(),
-      refractiveIndex: z.number().positive().optional(),
-      flatBand: z.number().optional(),
-      richardson: z.number().positive().optional(),
-    }).strict(),
-    polarity: z.enum(['symmetric', 'raw']).optional(),
-    leakageResistance: z.number().positive().optional(),
-    drift: z.object({ parameter: z.string(), perReading: z.number() }).optional(),
-    breakdownField: z.number().positive().optional(),
-    brokenResistance: z.number().positive().optional(),
-    wearout: z.object({
-      shape: z.number().positive(),
-      chargeScale: z.number().positive(),
-      referenceField: z.number().positive(),
-      fieldAcceleration: z.number().min(0),
-      referenceArea: z.number().positive(),
-    }).strict().optional(),
-  }).strict(),
-  /** Suggested sweep for demos and `plumbline run`. */
-  sweep: z.object({ start: z.number(), stop: z.number(), points: z.number().int().min(2), compliance: z.number().positive() }).strict(),
-  /** Suggested analysis for the live fit. */
-  analysis: z.object({ model: z.string(), from: z.number().optional(), to: z.number().optional(), solar: z.object({ irradiance: z.number().positive().optional() }).strict().optional() }).strict(),
-}).strict();
+export const scenarioSchema = z
+  .object({
+    name: z.string().regex(/^[a-z0-9-]+$/),
+    description: z.string().min(1),
+    device: z
+      .object({
+        mechanism: z.string(),
+        params: numberRecord,
+        inputs: z
+          .object({
+            thickness: z.number().positive().optional(),
+            area: z.number().positive().optional(),
+            temperature: z.number().positive().optional(),
+            massRatio: z.number().positive().optional(),
+            permittivity: z.number().positive().optional(),
+            refractiveIndex: z.number().positive().optional(),
+            flatBand: z.number().optional(),
+            richardson: z.number().positive().optional(),
+          })
+          .strict(),
+        polarity: z.enum(['symmetric', 'raw']).optional(),
+        leakageResistance: z.number().positive().optional(),
+        drift: z.object({ parameter: z.string(), perReading: z.number() }).optional(),
+        breakdownField: z.number().positive().optional(),
+        brokenResistance: z.number().positive().optional(),
+        wearout: z
+          .object({
+            shape: z.number().positive(),
+            chargeScale: z.number().positive(),
+            referenceField: z.number().positive(),
+            fieldAcceleration: z.number().min(0),
+            referenceArea: z.number().positive(),
+          })
+          .strict()
+          .optional(),
+      })
+      .strict(),
+    /** Suggested sweep for demos and `plumbline run`. */
+    sweep: z.object({ start: z.number(), stop: z.number(), points: z.number().int().min(2), compliance: z.number().positive() }).strict(),
+    /** Suggested analysis for the live fit. */
+    analysis: z
+      .object({
+        model: z.string(),
+        from: z.number().optional(),
+        to: z.number().optional(),
+        solar: z.object({ irradiance: z.number().positive().optional() }).strict().optional(),
+      })
+      .strict(),
+  })
+  .strict();
 
 export type Scenario = z.infer<typeof scenarioSchema>;
 

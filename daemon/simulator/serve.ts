@@ -29,26 +29,28 @@ export function attachInstrument(smu: SimulatedSmu, stream: Duplex, framing: Lin
   framer.on('data', (line: string) => {
     smu.received.push({ line, at: performance.timeOrigin + performance.now(), repliesSent: smu.repliesSent });
     if (smu.received.length > smu.recordLimit) smu.received.splice(0, smu.recordLimit >> 1);
-    chain = chain.then(async () => {
-      // Yield to the event loop once per command, as a real link does: a controller on an in-process
-      // pair would otherwise run on microtasks alone and starve its own timers and sockets.
-      await new Promise((r) => setImmediate(r));
-      const reply = await smu.handleLine(line);
-      if (reply === undefined || stream.destroyed) return;
-      if (smu.slowReplyMs > 0) await new Promise((r) => setTimeout(r, smu.slowReplyMs));
-      const isReading = /READ\?|MEAS|FETC/i.test(line);
-      const framed = smu.frame(reply, isReading);
-      const bytes = eol === '\n' ? framed.bytes : framed.bytes.replace(/\n/g, eol);
-      const disconnect = framed.disconnect;
-      stream.write(bytes, 'latin1');
-      smu.repliesSent++;
-      if (disconnect) {
-        stream.destroy();
-        smu.onDisconnect?.();
-      }
-    }).catch((e: unknown) => {
-      process.stderr.write(`simulated instrument: ${(e as Error).message}\n`);
-    });
+    chain = chain
+      .then(async () => {
+        // Yield to the event loop once per command, as a real link does: a controller on an in-process
+        // pair would otherwise run on microtasks alone and starve its own timers and sockets.
+        await new Promise((r) => setImmediate(r));
+        const reply = await smu.handleLine(line);
+        if (reply === undefined || stream.destroyed) return;
+        if (smu.slowReplyMs > 0) await new Promise((r) => setTimeout(r, smu.slowReplyMs));
+        const isReading = /READ\?|MEAS|FETC/i.test(line);
+        const framed = smu.frame(reply, isReading);
+        const bytes = eol === '\n' ? framed.bytes : framed.bytes.replace(/\n/g, eol);
+        const disconnect = framed.disconnect;
+        stream.write(bytes, 'latin1');
+        smu.repliesSent++;
+        if (disconnect) {
+          stream.destroy();
+          smu.onDisconnect?.();
+        }
+      })
+      .catch((e: unknown) => {
+        process.stderr.write(`simulated instrument: ${(e as Error).message}\n`);
+      });
   });
   stream.on('error', () => stream.destroy());
 }

@@ -8,7 +8,14 @@
  * scaling, η ∝ A^(−1/β), Wu & Suñé 2009).
  */
 import { describe, expect, it } from 'vitest';
-import { chargeToBreakdown, CurrentRampJudge, heldCharge, staircaseChargeToBreakdown, StressJudge, VoltageRampJudge } from '../../daemon/analysis/breakdown-tests.js';
+import {
+  chargeToBreakdown,
+  CurrentRampJudge,
+  heldCharge,
+  staircaseChargeToBreakdown,
+  StressJudge,
+  VoltageRampJudge,
+} from '../../daemon/analysis/breakdown-tests.js';
 import { chargeScaleAt, unitWeibull } from '../../daemon/analysis/wearout.js';
 import { AdaptiveSweep } from '../../daemon/analysis/adaptive-sweep.js';
 import { fowlerNordheim } from '../../daemon/analysis/mechanisms/fowler-nordheim.js';
@@ -105,7 +112,11 @@ describe('charge to breakdown on a staircase, timed by the level changes', () =>
 
 describe('wear-out model', () => {
   it('the unit Weibull variate is the inverse of F(x) = 1 − exp(−x^β)', () => {
-    for (const [beta, u] of [[2, 0.5], [1.3, 0.9], [5, 0.01]]) {
+    for (const [beta, u] of [
+      [2, 0.5],
+      [1.3, 0.9],
+      [5, 0.01],
+    ]) {
       const x = unitWeibull(beta, u);
       expect(1 - Math.exp(-(x ** beta))).toBeCloseTo(u, 12);
     }

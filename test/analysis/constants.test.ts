@@ -1,11 +1,5 @@
 import { describe, it } from 'vitest';
-import {
-  BOLTZMANN_EV_PER_K,
-  FN_A_A_EV_PER_V2,
-  FN_B_EV32_V_PER_NM,
-  RICHARDSON_FREE_A_PER_M2_K2,
-  thermalVoltage,
-} from '../../daemon/analysis/constants.js';
+import { BOLTZMANN_EV_PER_K, FN_A_A_EV_PER_V2, FN_B_EV32_V_PER_NM, RICHARDSON_FREE_A_PER_M2_K2, thermalVoltage } from '../../daemon/analysis/constants.js';
 import { expectRelClose } from '../helpers/reference.js';
 
 describe('constants derived from CODATA 2018', () => {

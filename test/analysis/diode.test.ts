@@ -24,8 +24,14 @@ import { diodeCurrentNewton, singleDiodeExplicit } from '../../daemon/analysis/d
 import { lambertW0, lambertWExp } from '../../daemon/analysis/lambert-w.js';
 import { seededNormal } from '../../daemon/analysis/random.js';
 
-const RTC_V = [-0.2057, -0.1291, -0.0588, 0.0057, 0.0646, 0.1185, 0.1678, 0.2132, 0.2545, 0.2924, 0.3269, 0.3585, 0.3873, 0.4137, 0.4373, 0.459, 0.4784, 0.496, 0.5119, 0.5265, 0.5398, 0.5521, 0.5633, 0.5736, 0.5833, 0.59];
-const RTC_I = [0.764, 0.762, 0.7605, 0.7605, 0.76, 0.759, 0.757, 0.757, 0.7555, 0.754, 0.7505, 0.7465, 0.7385, 0.728, 0.7065, 0.6755, 0.632, 0.573, 0.499, 0.413, 0.3165, 0.212, 0.1035, -0.01, -0.123, -0.21];
+const RTC_V = [
+  -0.2057, -0.1291, -0.0588, 0.0057, 0.0646, 0.1185, 0.1678, 0.2132, 0.2545, 0.2924, 0.3269, 0.3585, 0.3873, 0.4137, 0.4373, 0.459, 0.4784, 0.496, 0.5119,
+  0.5265, 0.5398, 0.5521, 0.5633, 0.5736, 0.5833, 0.59,
+];
+const RTC_I = [
+  0.764, 0.762, 0.7605, 0.7605, 0.76, 0.759, 0.757, 0.757, 0.7555, 0.754, 0.7505, 0.7465, 0.7385, 0.728, 0.7065, 0.6755, 0.632, 0.573, 0.499, 0.413, 0.3165,
+  0.212, 0.1035, -0.01, -0.123, -0.21,
+];
 const T_RTC = 273.15 + 33;
 
 describe('Lambert W', () => {
@@ -43,7 +49,13 @@ describe('Lambert W', () => {
   });
 
   it('single-diode current: the explicit Lambert-W form equals the Newton solution of the implicit equation', () => {
-    const c = { photocurrent: 0.76078, diodes: [{ i0: 3.2302e-7, n: 1.48118 }], seriesResistance: 0.036377, shuntResistance: 53.7185, vt: thermalVoltage(T_RTC) };
+    const c = {
+      photocurrent: 0.76078,
+      diodes: [{ i0: 3.2302e-7, n: 1.48118 }],
+      seriesResistance: 0.036377,
+      shuntResistance: 53.7185,
+      vt: thermalVoltage(T_RTC),
+    };
     for (const v of RTC_V) expect(Math.abs(singleDiodeExplicit(v, c) - diodeCurrentNewton(v, c))).toBeLessThan(1e-14);
     // A real module-sized argument: θ = exp(>1000) would overflow without the log form.
     const big = { ...c, shuntResistance: 1e6, seriesResistance: 1e-3 };
@@ -246,16 +258,21 @@ describe('long curves and cells of one or two diodes (invented cells, 2 µA nois
     const p = two.parameters;
     const vt = thermalVoltage(T);
     const at = 0.5 + 0.5 * 0.0305;
-    const sum = p.saturationCurrent1.value * Math.exp(at / (p.idealityFactor1.value * vt)) + p.saturationCurrent2.value * Math.exp(at / (p.idealityFactor2.value * vt));
+    const sum =
+      p.saturationCurrent1.value * Math.exp(at / (p.idealityFactor1.value * vt)) + p.saturationCurrent2.value * Math.exp(at / (p.idealityFactor2.value * vt));
     const single = one.parameters.saturationCurrent.value * Math.exp(at / (one.parameters.idealityFactor.value * vt));
     expect(Math.abs(sum / single - 1)).toBeLessThan(0.01);
   });
 
   it('a two-diode cell (diffusion n = 1.05 and recombination n = 1.9): both diodes back within 3σ', () => {
-    const truth = [{ i0: 2e-11, n: 1.05 }, { i0: 5e-8, n: 1.9 }];
+    const truth = [
+      { i0: 2e-11, n: 1.05 },
+      { i0: 5e-8, n: 1.9 },
+    ];
     const r = fitDiode(cell(1000, truth, 6), 'double-diode', req);
     const p = r.parameters;
-    const within = (k: string, x: number) => expect(Math.abs(p[k].value - x), `${k} = ${p[k].value} ± ${p[k].stdErr} (true ${x})`).toBeLessThan(3 * p[k].stdErr);
+    const within = (k: string, x: number) =>
+      expect(Math.abs(p[k].value - x), `${k} = ${p[k].value} ± ${p[k].stdErr} (true ${x})`).toBeLessThan(3 * p[k].stdErr);
     within('idealityFactor1', 1.05);
     within('idealityFactor2', 1.9);
     within('saturationCurrent1', 2e-11);

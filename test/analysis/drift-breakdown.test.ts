@@ -67,7 +67,7 @@ describe('EWMA (NIST/SEMATECH §6.3.2.4)', () => {
   });
 });
 
-describe('breakdown watch: each reading against the sweep\'s own trend (signatures: common practice)', () => {
+describe("breakdown watch: each reading against the sweep's own trend (signatures: common practice)", () => {
   const inputs = resolveInputs(fowlerNordheim, { thickness: 7e-9, area: 1e-8, massRatio: 0.42 });
   const fn = (v: number) => fowlerNordheim.forward(v, { barrierHeight: 3.1 }, inputs) * 1e-8;
   // The trend plot of Fowler–Nordheim: ln(J/E²) against 1/E (Lenzlinger & Snow 1969).
@@ -93,7 +93,13 @@ describe('breakdown watch: each reading against the sweep\'s own trend (signatur
   it('a current leaving the noise floor (an ohmic layer turning on in one step) raises nothing', () => {
     const w = new BreakdownWatch({ ...DEFAULT_BREAKDOWN, floor: 1e-14 }, 1e-2);
     w.setNoiseFloor(2e-13);
-    const readings: [number, number][] = [[0, 1e-13], [0.1, 3e-9], [0.2, 6.1e-9], [0.3, 9e-9], [0.4, 1.21e-8]];
+    const readings: [number, number][] = [
+      [0, 1e-13],
+      [0.1, 3e-9],
+      [0.2, 6.1e-9],
+      [0.3, 9e-9],
+      [0.4, 1.21e-8],
+    ];
     for (const [v, i] of readings) expect(w.add(v, i, false, v > 0 ? { x: Math.log(v), y: Math.log(i) } : undefined)).toBeUndefined();
   });
 

@@ -23,17 +23,20 @@ function fitStrd(name: string, start: 'start1' | 'start2', geodesic = false) {
   return {
     d,
     names,
-    result: levenbergMarquardt({
-      n: d.x.length,
-      p0: names.map((k) => (d[start] as Record<string, number>)[k]),
-      residuals: (p, r) => {
-        for (let j = 0; j < names.length; j++) scope[names[j]] = p[j];
-        for (let i = 0; i < d.x.length; i++) {
-          scope.x = d.x[i];
-          r[i] = (expr.evaluate(scope) as number) - d.y[i];
-        }
+    result: levenbergMarquardt(
+      {
+        n: d.x.length,
+        p0: names.map((k) => (d[start] as Record<string, number>)[k]),
+        residuals: (p, r) => {
+          for (let j = 0; j < names.length; j++) scope[names[j]] = p[j];
+          for (let i = 0; i < d.x.length; i++) {
+            scope.x = d.x[i];
+            r[i] = (expr.evaluate(scope) as number) - d.y[i];
+          }
+        },
       },
-    }, { geodesic }),
+      { geodesic },
+    ),
   };
 }
 

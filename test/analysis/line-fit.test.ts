@@ -36,7 +36,10 @@ describe.skipIf(!HAVE_STRD)('straight-line fit against NIST StRD certified value
 
   it('Norris shifted by 1e6 in x still gives the certified slope to 9 digits (centred sums)', () => {
     const d = loadStrd('Norris');
-    const f = fitLine(d.x.map((v) => v + 1e6), d.y);
+    const f = fitLine(
+      d.x.map((v) => v + 1e6),
+      d.y,
+    );
     expect(lre(f.slope, d.certified.params.B1.value)).toBeGreaterThanOrEqual(9);
   });
 });
@@ -67,7 +70,9 @@ describe('weighted least squares', () => {
     const sig = [0.1, 0.2, 0.1, 0.3, 0.2];
     const w = sig.map((s) => 1 / (s * s));
     const f = fitLine(x, y, { weights: w, absoluteWeights: true });
-    let S = 0, Sx = 0, Sxx = 0;
+    let S = 0,
+      Sx = 0,
+      Sxx = 0;
     for (let i = 0; i < x.length; i++) {
       S += w[i];
       Sx += w[i] * x[i];

@@ -51,7 +51,11 @@ describe('synthetic recovery: forward model → noisy data → fit → known par
 
   it('fowler-nordheim: φ = 3.2 eV, m_r = 0.42, 1 % noise → φ within 3σ and 0.5 %', () => {
     const v = sweep(7, 11, 41);
-    const i = withNoise(v.map((x) => fowlerNordheim(x / d, 3.2, 0.42) * area), 0.01, 11);
+    const i = withNoise(
+      v.map((x) => fowlerNordheim(x / d, 3.2, 0.42) * area),
+      0.01,
+      11,
+    );
     const r = analyze({ x: v, y: i }, { model: 'fowler-nordheim', inputs: { thickness: d, area, massRatio: 0.42 } });
     const p = r.parameters.barrierHeight;
     expect(Math.abs(p.value - 3.2)).toBeLessThan(3 * p.stdErr + 1e-9);
@@ -62,7 +66,11 @@ describe('synthetic recovery: forward model → noisy data → fit → known par
 
   it('poole-frenkel: ε_r = 4 (Si3N4, n = 2) recovered; plausibility note against n²', () => {
     const v = sweep(2, 10, 41);
-    const i = withNoise(v.map((x) => pooleFrenkel(x / d, 1e-2, 1.3, 4, 300) * area), 0.01, 12);
+    const i = withNoise(
+      v.map((x) => pooleFrenkel(x / d, 1e-2, 1.3, 4, 300) * area),
+      0.01,
+      12,
+    );
     const r = analyze({ x: v, y: i }, { model: 'poole-frenkel', inputs: { thickness: d, area, temperature: 300, refractiveIndex: 2 } });
     const p = r.parameters.relativePermittivity;
     expect(Math.abs(p.value - 4)).toBeLessThan(3 * p.stdErr);
@@ -72,7 +80,11 @@ describe('synthetic recovery: forward model → noisy data → fit → known par
 
   it('schottky: ε_r = 2.13 and φ_B = 1.0 eV from slope and intercept', () => {
     const v = sweep(1, 8, 36);
-    const i = withNoise(v.map((x) => schottkyEmission(x / d, 1.0, 2.13, 350, 1.2e6) * area), 0.01, 13);
+    const i = withNoise(
+      v.map((x) => schottkyEmission(x / d, 1.0, 2.13, 350, 1.2e6) * area),
+      0.01,
+      13,
+    );
     const r = analyze({ x: v, y: i }, { model: 'schottky', inputs: { thickness: d, area, temperature: 350, richardson: 1.2e6, refractiveIndex: 1.46 } });
     const eps = r.parameters.relativePermittivity;
     const phi = r.parameters.barrierHeight;
@@ -83,7 +95,11 @@ describe('synthetic recovery: forward model → noisy data → fit → known par
 
   it('hopping: a = 1.5 nm', () => {
     const v = sweep(2, 10, 41);
-    const i = withNoise(v.map((x) => hopping(x / d, 1e-3, 1.5e-9, 300) * area), 0.01, 14);
+    const i = withNoise(
+      v.map((x) => hopping(x / d, 1e-3, 1.5e-9, 300) * area),
+      0.01,
+      14,
+    );
     const r = analyze({ x: v, y: i }, { model: 'hopping', inputs: { thickness: d, area, temperature: 300 } });
     const p = r.parameters.hoppingDistance;
     expect(Math.abs(p.value - 1.5e-9)).toBeLessThan(3 * p.stdErr);
@@ -92,7 +108,11 @@ describe('synthetic recovery: forward model → noisy data → fit → known par
 
   it('trap-assisted-tunneling: φ_t = 1.2 eV', () => {
     const v = sweep(3, 9, 31);
-    const i = withNoise(v.map((x) => trapAssistedTunnelling(x / d, 1e2, 1.2, 0.5) * area), 0.01, 15);
+    const i = withNoise(
+      v.map((x) => trapAssistedTunnelling(x / d, 1e2, 1.2, 0.5) * area),
+      0.01,
+      15,
+    );
     const r = analyze({ x: v, y: i }, { model: 'trap-assisted-tunneling', inputs: { thickness: d, area, massRatio: 0.5 } });
     const p = r.parameters.trapEnergy;
     expect(Math.abs(p.value - 1.2)).toBeLessThan(3 * p.stdErr);
@@ -100,10 +120,14 @@ describe('synthetic recovery: forward model → noisy data → fit → known par
 
   it('diode: n = 1.3, I0 = 1e-12 A above 3kT/q', () => {
     const v = sweep(0.15, 0.5, 36);
-    const i = withNoise(v.map((x) => shockley(x, 1e-12, 1.3, 300)), 0.01, 16);
+    const i = withNoise(
+      v.map((x) => shockley(x, 1e-12, 1.3, 300)),
+      0.01,
+      16,
+    );
     const r = analyze({ x: v, y: i }, { model: 'diode', inputs: { temperature: 300 } });
     expect(Math.abs(r.parameters.idealityFactor.value - 1.3)).toBeLessThan(3 * r.parameters.idealityFactor.stdErr);
-    expect(Math.abs(Math.log(r.parameters.saturationCurrent.value / 1e-12))).toBeLessThan(3 * r.parameters.saturationCurrent.stdErr / 1e-12 + 0.05);
+    expect(Math.abs(Math.log(r.parameters.saturationCurrent.value / 1e-12))).toBeLessThan((3 * r.parameters.saturationCurrent.stdErr) / 1e-12 + 0.05);
   });
 
   it('sclc: μ = 1e-8 m²/Vs with ε_r = 3; exponent 2; ohmic→SCLC transition at 8σd²/(9ε₀ε_r μ)', () => {
@@ -111,7 +135,11 @@ describe('synthetic recovery: forward model → noisy data → fit → known par
     const sigma = 1e-6; // S/m
     const v = Float64Array.from({ length: 60 }, (_, k) => 10 ** (-2 + (3 * k) / 59));
     const j = v.map((x) => mottGurney(x, 1e-8, 3, dd) + (sigma * x) / dd);
-    const i = withNoise(j.map((x) => x * area), 0.005, 17);
+    const i = withNoise(
+      j.map((x) => x * area),
+      0.005,
+      17,
+    );
     const vtr = (8 * sigma * dd * dd) / (9 * VACUUM_PERMITTIVITY_F_PER_M * 3 * 1e-8);
     const r = analyze({ x: v, y: i }, { model: 'sclc', inputs: { thickness: dd, area, permittivity: 3 }, window: { from: 3, to: 10 } });
     expect(Math.abs(r.parameters.exponent.value - 2)).toBeLessThan(0.1);
@@ -124,7 +152,11 @@ describe('synthetic recovery: forward model → noisy data → fit → known par
 
   it('ohmic: R = 1 MΩ, conductivity = d/(R·A)', () => {
     const v = sweep(-1, 1, 21);
-    const i = withNoise(v.map((x) => x / 1e6), 0.005, 18);
+    const i = withNoise(
+      v.map((x) => x / 1e6),
+      0.005,
+      18,
+    );
     const r = analyze({ x: v, y: i }, { model: 'ohmic', inputs: { thickness: d, area } });
     expectRelClose(r.parameters.resistance.value, 1e6, 0.01);
     expectRelClose(r.parameters.conductivity.value, d / (1e6 * area), 0.01);
@@ -141,7 +173,11 @@ describe('Poole–Frenkel versus Schottky, told apart by n² (Chiu 2014: the low
   it('PF data read as Schottky give ε_r four times too small and fail the n² check', () => {
     const d = 20e-9;
     const v = sweep(4, 16, 41);
-    const i = withNoise(v.map((x) => pooleFrenkel(x / d, 1e-2, 1.0, 2.13, 300) * 1e-8), 0.005, 21);
+    const i = withNoise(
+      v.map((x) => pooleFrenkel(x / d, 1e-2, 1.0, 2.13, 300) * 1e-8),
+      0.005,
+      21,
+    );
     const inputs = { thickness: d, area: 1e-8, temperature: 300, refractiveIndex: 1.46 };
     const pf = analyze({ x: v, y: i }, { model: 'poole-frenkel', inputs });
     const sc = analyze({ x: v, y: i }, { model: 'schottky', inputs });

@@ -44,7 +44,7 @@ describe('robust statistics', () => {
     expect(b.lowWhisker).toBe(1.17e9); // Tukey's whisker stops short of the 0.41e9 failure
   });
 
-  it('finds the grid of a ramp\'s levels, and no grid in continuous values', () => {
+  it("finds the grid of a ramp's levels, and no grid in continuous values", () => {
     // Breakdown voltages read on a ramp of 0.1 V steps: sums of 0.1 carry float error.
     const levels = [9.6, 9.6, 9.700000000000001, 9.6, 9.5, 9.799999999999999, 9.6, 9.6];
     const q = gridResolution(levels);

@@ -156,7 +156,10 @@ describe('maximum likelihood against scipy.stats.weibull_min (floc = 0)', () => 
   });
 
   it('Lieblein & Zelen (1956) ball bearings: the ML estimates Lawless quotes (û = 4.405, b̂ = 0.476; from memory)', () => {
-    const x = [17.88, 28.92, 33.0, 41.52, 42.12, 45.6, 48.48, 51.84, 51.96, 54.12, 55.56, 67.8, 68.64, 68.64, 68.88, 84.12, 93.12, 98.64, 105.12, 105.84, 127.92, 128.04, 173.4];
+    const x = [
+      17.88, 28.92, 33.0, 41.52, 42.12, 45.6, 48.48, 51.84, 51.96, 54.12, 55.56, 67.8, 68.64, 68.64, 68.88, 84.12, 93.12, 98.64, 105.12, 105.84, 127.92, 128.04,
+      173.4,
+    ];
     const f = fitWeibull({ values: x });
     // Extreme-value parameters of ln x: u = ln η, b = 1/β.
     expect(Math.log(f.scale)).toBeCloseTo(4.405, 3);
@@ -208,7 +211,9 @@ describe('confidence bounds', () => {
     const lr = count(20, 1000, Infinity, 1000, 'likelihood-ratio');
     const lrCens = count(20, 500, 1.2e9, 5000, 'likelihood-ratio');
     const fisher = count(20, 1000, Infinity, 1000, 'fisher');
-    console.log(`coverage of 90 % bounds, 20 devices: LR β ${lr.shape} η ${lr.scale}; LR censored at η (≈37 % survive) β ${lrCens.shape} η ${lrCens.scale}; Fisher β ${fisher.shape} η ${fisher.scale}`);
+    console.log(
+      `coverage of 90 % bounds, 20 devices: LR β ${lr.shape} η ${lr.scale}; LR censored at η (≈37 % survive) β ${lrCens.shape} η ${lrCens.scale}; Fisher β ${fisher.shape} η ${fisher.scale}`,
+    );
     // Binomial SD of a 1,000-lot proportion at 0.9 is 0.0095: ±3 SD, plus the known small-sample
     // shortfall of asymptotic bounds (Meeker & Escobar 1998, §8.4).
     for (const v of [lr.shape, lr.scale]) {
@@ -225,7 +230,7 @@ describe('confidence bounds', () => {
 });
 
 describe('median ranks', () => {
-  it('complete samples: Bernard\'s closed form (i − 0.3)/(n + 0.4), in increasing x', () => {
+  it("complete samples: Bernard's closed form (i − 0.3)/(n + 0.4), in increasing x", () => {
     const l = lot(12, 3, 10, 42);
     const pts = medianRankPoints(l);
     const sorted = [...l.values].sort((a, b) => a - b);
@@ -235,7 +240,7 @@ describe('median ranks', () => {
     });
   });
 
-  it('Bernard\'s approximation is within 0.4 % (absolute) of the exact median rank (the median of Beta(i, n − i + 1), scipy)', () => {
+  it("Bernard's approximation is within 0.4 % (absolute) of the exact median rank (the median of Beta(i, n − i + 1), scipy)", () => {
     const exact = runScipy<number[][]>(
       'import json,sys\nfrom scipy import stats\nd=json.load(sys.stdin)\nprint(json.dumps([[float(stats.beta.ppf(0.5,i,n-i+1)) for i in range(1,n+1)] for n in d]))',
       [5, 10, 20, 50],
@@ -243,7 +248,7 @@ describe('median ranks', () => {
     [5, 10, 20, 50].forEach((n, k) => exact[k].forEach((m, i) => expect(Math.abs(bernardRank(i + 1, n) - m)).toBeLessThan(0.004)));
   });
 
-  it('with survivors: Johnson\'s adjusted order numbers (increment = (n + 1 − previous)/(1 + units beyond))', () => {
+  it("with survivors: Johnson's adjusted order numbers (increment = (n + 1 − previous)/(1 + units beyond))", () => {
     // 10 F, 20 S, 30 F, 40 S, 50 F (n = 5). By Johnson's increment form: 1; 1 + 5/4 = 2.25;
     // 2.25 + 3.75/2 = 4.125.
     const pts = medianRankPoints({ values: [30, 10, 50, 20, 40], censored: [0, 0, 0, 1, 1] });
@@ -312,7 +317,7 @@ describe('area scaling', () => {
 });
 
 describe('goodness of fit and bent plots', () => {
-  it('the modified Anderson–Darling statistic\'s 95th percentile under a fitted Weibull matches D\'Agostino & Stephens (1986) Table 4.17: 0.757 (value from memory; checked here by simulation)', () => {
+  it("the modified Anderson–Darling statistic's 95th percentile under a fitted Weibull matches D'Agostino & Stephens (1986) Table 4.17: 0.757 (value from memory; checked here by simulation)", () => {
     const stats: number[] = [];
     for (let s = 0; s < 2000; s++) {
       const l = lot(20, 4, 10, 9000 + s);

@@ -28,38 +28,123 @@ const CASES: Case[] = [
   {
     name: 'Fowler–Nordheim, 7 nm oxide, 0 → 10 V, leakage 1e13 Ω, compliance 1 mA',
     spec: { device: fn, thickness: 7e-9, area: 1e-8, leakage: 1e13, bias: linearBias(0, 10, 101), relative: 0.02, floor: 1e-13, compliance: 1e-3 },
-    model: 'fowler-nordheim', inputs: { thickness: 7e-9, area: 1e-8, massRatio: 0.42 }, key: 'barrierHeight', truth: 3.1, tol: 0.05, floorVisible: true,
+    model: 'fowler-nordheim',
+    inputs: { thickness: 7e-9, area: 1e-8, massRatio: 0.42 },
+    key: 'barrierHeight',
+    truth: 3.1,
+    tol: 0.05,
+    floorVisible: true,
   },
   {
     name: 'Poole–Frenkel, 20 nm nitride (n = 2), 0 → 15 V',
-    spec: { device: { kind: 'poole-frenkel', prefactor: 1e-2, trapDepth: 1.0, permittivity: 4 }, thickness: 20e-9, area: 1e-8, leakage: 1e15, bias: linearBias(0, 15, 101), relative: 0.02, floor: 1e-13, compliance: 1e-3 },
-    model: 'poole-frenkel', inputs: { thickness: 20e-9, area: 1e-8, refractiveIndex: 2 }, key: 'relativePermittivity', truth: 4, tol: 0.1, relative: true, floorVisible: true,
+    spec: {
+      device: { kind: 'poole-frenkel', prefactor: 1e-2, trapDepth: 1.0, permittivity: 4 },
+      thickness: 20e-9,
+      area: 1e-8,
+      leakage: 1e15,
+      bias: linearBias(0, 15, 101),
+      relative: 0.02,
+      floor: 1e-13,
+      compliance: 1e-3,
+    },
+    model: 'poole-frenkel',
+    inputs: { thickness: 20e-9, area: 1e-8, refractiveIndex: 2 },
+    key: 'relativePermittivity',
+    truth: 4,
+    tol: 0.1,
+    relative: true,
+    floorVisible: true,
   },
   {
     name: 'Schottky emission, 12 nm high-k at 350 K: barrier from the intercept',
-    spec: { device: { kind: 'schottky', barrier: 0.9, permittivity: 4, richardson: 1.2017e6 }, thickness: 12e-9, area: 1e-8, temperature: 350, leakage: 1e14, bias: linearBias(0, 5, 51), relative: 0.02, floor: 1e-13, compliance: 1e-3 },
-    model: 'schottky', inputs: { thickness: 12e-9, area: 1e-8, temperature: 350, refractiveIndex: 2 }, key: 'barrierHeight', truth: 0.9, tol: 0.05,
+    spec: {
+      device: { kind: 'schottky', barrier: 0.9, permittivity: 4, richardson: 1.2017e6 },
+      thickness: 12e-9,
+      area: 1e-8,
+      temperature: 350,
+      leakage: 1e14,
+      bias: linearBias(0, 5, 51),
+      relative: 0.02,
+      floor: 1e-13,
+      compliance: 1e-3,
+    },
+    model: 'schottky',
+    inputs: { thickness: 12e-9, area: 1e-8, temperature: 350, refractiveIndex: 2 },
+    key: 'barrierHeight',
+    truth: 0.9,
+    tol: 0.05,
   },
   {
     name: 'trap-assisted tunnelling through 1.2 eV traps, strong leakage (1e12 Ω)',
-    spec: { device: { kind: 'trap-assisted-tunneling', prefactor: 100, trapEnergy: 1.2, massRatio: 0.5 }, thickness: 10e-9, area: 1e-8, leakage: 1e12, bias: linearBias(0, 9, 91), relative: 0.02, floor: 1e-13, compliance: 1e-3 },
-    model: 'trap-assisted-tunneling', inputs: { thickness: 10e-9, area: 1e-8, massRatio: 0.5 }, key: 'trapEnergy', truth: 1.2, tol: 0.05, floorVisible: true,
+    spec: {
+      device: { kind: 'trap-assisted-tunneling', prefactor: 100, trapEnergy: 1.2, massRatio: 0.5 },
+      thickness: 10e-9,
+      area: 1e-8,
+      leakage: 1e12,
+      bias: linearBias(0, 9, 91),
+      relative: 0.02,
+      floor: 1e-13,
+      compliance: 1e-3,
+    },
+    model: 'trap-assisted-tunneling',
+    inputs: { thickness: 10e-9, area: 1e-8, massRatio: 0.5 },
+    key: 'trapEnergy',
+    truth: 1.2,
+    tol: 0.05,
+    floorVisible: true,
   },
   {
     name: 'hopping over 2 nm, 50 nm film',
-    spec: { device: { kind: 'hopping', prefactor: 1e-3, distance: 2e-9 }, thickness: 50e-9, area: 1e-8, leakage: 1e13, bias: linearBias(0, 10, 101), relative: 0.02, floor: 1e-13, compliance: 1e-3 },
-    model: 'hopping', inputs: { thickness: 50e-9, area: 1e-8 }, key: 'hoppingDistance', truth: 2e-9, tol: 0.1, relative: true,
+    spec: {
+      device: { kind: 'hopping', prefactor: 1e-3, distance: 2e-9 },
+      thickness: 50e-9,
+      area: 1e-8,
+      leakage: 1e13,
+      bias: linearBias(0, 10, 101),
+      relative: 0.02,
+      floor: 1e-13,
+      compliance: 1e-3,
+    },
+    model: 'hopping',
+    inputs: { thickness: 50e-9, area: 1e-8 },
+    key: 'hoppingDistance',
+    truth: 2e-9,
+    tol: 0.1,
+    relative: true,
   },
   {
     name: 'dark diode −1 → 0.8 V with 2 Ω series and 100 MΩ shunt, clipped at 10 mA',
-    spec: { device: { kind: 'diode', saturationCurrent: 1e-12, ideality: 1.2, series: 2, shunt: 1e8 }, bias: linearBias(-1, 0.8, 181), relative: 0.02, floor: 1e-13, compliance: 1e-2 },
-    model: 'diode', inputs: { temperature: 300 }, key: 'idealityFactor', truth: 1.2, tol: 0.05,
+    spec: {
+      device: { kind: 'diode', saturationCurrent: 1e-12, ideality: 1.2, series: 2, shunt: 1e8 },
+      bias: linearBias(-1, 0.8, 181),
+      relative: 0.02,
+      floor: 1e-13,
+      compliance: 1e-2,
+    },
+    model: 'diode',
+    inputs: { temperature: 300 },
+    key: 'idealityFactor',
+    truth: 1.2,
+    tol: 0.05,
   },
   {
     name: 'ohmic → space-charge-limited, 100 nm organic layer, linear 0 → 10 V sweep',
     // σ = 3e-5 S/m puts the transition at 8σd²/(9ε₀ε_rμ) = 1.0 V, inside the sweep.
-    spec: { device: { kind: 'sclc', mobility: 1e-8, permittivity: 3, conductivity: 3e-5 }, thickness: 1e-7, area: 1e-8, bias: linearBias(0, 10, 101), relative: 0.02, floor: 1e-13, compliance: 1e-2 },
-    model: 'sclc', inputs: { thickness: 1e-7, area: 1e-8, permittivity: 3 }, key: 'mobility', truth: 1e-8, tol: 0.3, relative: true,
+    spec: {
+      device: { kind: 'sclc', mobility: 1e-8, permittivity: 3, conductivity: 3e-5 },
+      thickness: 1e-7,
+      area: 1e-8,
+      bias: linearBias(0, 10, 101),
+      relative: 0.02,
+      floor: 1e-13,
+      compliance: 1e-2,
+    },
+    model: 'sclc',
+    inputs: { thickness: 1e-7, area: 1e-8, permittivity: 3 },
+    key: 'mobility',
+    truth: 1e-8,
+    tol: 0.3,
+    relative: true,
   },
 ];
 
@@ -102,7 +187,12 @@ describe('whole sweeps, no window given: every mechanism lands within tolerance 
 
 describe('branches and polarity', () => {
   it('a film with a different barrier at each electrode: each branch analysed and the difference said', () => {
-    const s = wholeSweep({ ...CASES[0].spec, bias: linearBias(-10, 10, 201), negativeDevice: { kind: 'fowler-nordheim', barrier: 2.8, massRatio: 0.42 }, seed: 3 });
+    const s = wholeSweep({
+      ...CASES[0].spec,
+      bias: linearBias(-10, 10, 201),
+      negativeDevice: { kind: 'fowler-nordheim', barrier: 2.8, massRatio: 0.42 },
+      seed: 3,
+    });
     const r = analyze({ x: s.v, y: s.i }, { model: 'fowler-nordheim', inputs: CASES[0].inputs });
     expect(r.branches.length).toBe(2);
     const pos = r.branches.find((b) => b.polarity === 'positive');
@@ -148,7 +238,16 @@ describe('compliance clipping without a flag', () => {
 describe('a wrong answer is never silent', () => {
   it('trap-assisted tunnelling asked of a film that only leaks: implausible, with the reason (not 0.1 eV passed as fine)', () => {
     // An ohmic film (1e12 Ω) and nothing else.
-    const s = wholeSweep({ device: { kind: 'hopping', prefactor: 1e-30, distance: 1e-10 }, thickness: 10e-9, area: 1e-8, leakage: 1e12, bias: linearBias(0, 9, 91), relative: 0.02, floor: 1e-13, seed: 1 });
+    const s = wholeSweep({
+      device: { kind: 'hopping', prefactor: 1e-30, distance: 1e-10 },
+      thickness: 10e-9,
+      area: 1e-8,
+      leakage: 1e12,
+      bias: linearBias(0, 9, 91),
+      relative: 0.02,
+      floor: 1e-13,
+      seed: 1,
+    });
     const r = analyze({ x: s.v, y: s.i }, { model: 'trap-assisted-tunneling', inputs: { thickness: 10e-9, area: 1e-8, massRatio: 0.5 } });
     expect(r.plausible).toBe(false);
     expect(r.warnings.join(' ')).toMatch(/no faster than an ohmic leakage|no range|not determined/);
@@ -171,7 +270,7 @@ describe('a wrong answer is never silent', () => {
   it('an ohmic + V² mixture whose V² part is not V² (log–log slope 2.6, traps filling) fails the slope check with its own uncertainty', () => {
     // J = σV/d + K·V^2.6: a trap-limited power law, not Mott–Gurney.
     const v = linearBias(0.05, 10, 100);
-    const i = Float64Array.from(v, (x, k) => (3e-7 * x / 1e-7 + 3e-5 * x ** 2.6) * 1e-8 * (1 + 0.01 * Math.sin(13 * k)));
+    const i = Float64Array.from(v, (x, k) => ((3e-7 * x) / 1e-7 + 3e-5 * x ** 2.6) * 1e-8 * (1 + 0.01 * Math.sin(13 * k)));
     const r = analyze({ x: v, y: i }, { model: 'sclc', inputs: { thickness: 1e-7, area: 1e-8, permittivity: 3 }, window: 'all' });
     expect(r.plausible).toBe(false);
     expect(r.warnings.join(' ')).toMatch(/log–log slope|regime change|bend/);

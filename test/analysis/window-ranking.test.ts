@@ -37,7 +37,11 @@ describe('automatic window', () => {
     const d = 7e-9;
     const v = sweep(0.1, 9, 90);
     // Leakage 5e13 Ω in parallel; 1 % relative noise, no floor.
-    const i = withNoise(v.map((x) => fowlerNordheim(x / d, 3.1, 0.42) * 1e-8 + 2e-14 * x), 0.01, 9);
+    const i = withNoise(
+      v.map((x) => fowlerNordheim(x / d, 3.1, 0.42) * 1e-8 + 2e-14 * x),
+      0.01,
+      9,
+    );
     const r = analyze({ x: v, y: i }, { model: 'fowler-nordheim', inputs: { thickness: d, area: 1e-8, massRatio: 0.42 } });
     expect(r.window.mode).toBe('auto');
     expect(r.window.to).toBeCloseTo(9, 6);
@@ -72,7 +76,11 @@ describe('mechanism ranking', () => {
   const area = 1e-8;
   it('Fowler–Nordheim data rank Fowler–Nordheim first', () => {
     const v = sweep(7, 11, 41);
-    const i = withNoise(v.map((x) => fowlerNordheim(x / d, 3.2, 0.42) * area), 0.01, 31);
+    const i = withNoise(
+      v.map((x) => fowlerNordheim(x / d, 3.2, 0.42) * area),
+      0.01,
+      31,
+    );
     const r = rankMechanisms({ x: v, y: i }, { inputs: { thickness: d, area, massRatio: 0.42 } });
     expect(r.ranking[0].model).toBe('fowler-nordheim');
     expect(r.ranking[0].score).toBeGreaterThan(0.9);
@@ -80,7 +88,11 @@ describe('mechanism ranking', () => {
   });
   it('Poole–Frenkel data with n known rank Poole–Frenkel above Schottky (n² check)', () => {
     const v = sweep(4, 16, 41);
-    const i = withNoise(v.map((x) => pooleFrenkel(x / 20e-9, 1e-2, 1.0, 2.13, 300) * area), 0.01, 32);
+    const i = withNoise(
+      v.map((x) => pooleFrenkel(x / 20e-9, 1e-2, 1.0, 2.13, 300) * area),
+      0.01,
+      32,
+    );
     const r = rankMechanisms({ x: v, y: i }, { inputs: { thickness: 20e-9, area, temperature: 300, refractiveIndex: 1.46 } });
     const order = r.ranking.map((e) => e.model);
     expect(order.indexOf('poole-frenkel')).toBeLessThan(order.indexOf('schottky'));
@@ -88,7 +100,11 @@ describe('mechanism ranking', () => {
   });
   it('Schottky data with n known rank Schottky above Poole–Frenkel', () => {
     const v = sweep(1, 8, 41);
-    const i = withNoise(v.map((x) => schottkyEmission(x / d, 0.9, 2.13, 300, 1.2e6) * area), 0.01, 33);
+    const i = withNoise(
+      v.map((x) => schottkyEmission(x / d, 0.9, 2.13, 300, 1.2e6) * area),
+      0.01,
+      33,
+    );
     const r = rankMechanisms({ x: v, y: i }, { inputs: { thickness: d, area, temperature: 300, refractiveIndex: 1.46 } });
     const order = r.ranking.map((e) => e.model);
     expect(order.indexOf('schottky')).toBeLessThan(order.indexOf('poole-frenkel'));
@@ -103,19 +119,127 @@ describe('mechanism ranking', () => {
 });
 
 describe('ranking whole sweeps (test/helpers/whole-sweep.ts), no window given', () => {
-  const fnSpec = { device: { kind: 'fowler-nordheim', barrier: 3.1, massRatio: 0.42 } as const, thickness: 7e-9, area: 1e-8, leakage: 1e13, relative: 0.02, floor: 1e-13, compliance: 1e-3 };
+  const fnSpec = {
+    device: { kind: 'fowler-nordheim', barrier: 3.1, massRatio: 0.42 } as const,
+    thickness: 7e-9,
+    area: 1e-8,
+    leakage: 1e13,
+    relative: 0.02,
+    floor: 1e-13,
+    compliance: 1e-3,
+  };
   const cases: [string, Omit<SweepSpec, 'seed'>, Record<string, number>][] = [
     ['fowler-nordheim', { ...fnSpec, bias: linearBias(0, 10, 101) }, { thickness: 7e-9, area: 1e-8, massRatio: 0.42, refractiveIndex: 1.46 }],
     ['fowler-nordheim', { ...fnSpec, bias: linearBias(-10, 10, 201) }, { thickness: 7e-9, area: 1e-8, massRatio: 0.42, refractiveIndex: 1.46 }],
     ['fowler-nordheim', { ...fnSpec, bias: linearBias(0, 10, 21) }, { thickness: 7e-9, area: 1e-8, massRatio: 0.42, refractiveIndex: 1.46 }],
-    ['poole-frenkel', { device: { kind: 'poole-frenkel', prefactor: 1e-2, trapDepth: 1.0, permittivity: 4 }, thickness: 20e-9, area: 1e-8, leakage: 1e15, bias: linearBias(0, 15, 76), relative: 0.02, floor: 1e-13, compliance: 1e-3 }, { thickness: 20e-9, area: 1e-8, refractiveIndex: 2 }],
-    ['poole-frenkel', { device: { kind: 'poole-frenkel', prefactor: 1e-2, trapDepth: 1.0, permittivity: 2.13 }, thickness: 20e-9, area: 1e-8, leakage: 1e14, bias: linearBias(-16, 16, 161), relative: 0.01, floor: 1e-13, compliance: 1e-3 }, { thickness: 20e-9, area: 1e-8, refractiveIndex: 1.46 }],
-    ['schottky', { device: { kind: 'schottky', barrier: 0.9, permittivity: 4, richardson: 1.2017e6 }, thickness: 12e-9, area: 1e-8, temperature: 350, leakage: 1e14, bias: linearBias(0, 5, 51), relative: 0.02, floor: 1e-13, compliance: 1e-3 }, { thickness: 12e-9, area: 1e-8, temperature: 350, refractiveIndex: 2 }],
-    ['trap-assisted-tunneling', { device: { kind: 'trap-assisted-tunneling', prefactor: 100, trapEnergy: 1.2, massRatio: 0.5 }, thickness: 10e-9, area: 1e-8, leakage: 1e14, bias: linearBias(0, 9, 91), relative: 0.02, floor: 1e-13, compliance: 1e-3 }, { thickness: 10e-9, area: 1e-8, massRatio: 0.5 }],
-    ['hopping', { device: { kind: 'hopping', prefactor: 1e-3, distance: 2e-9 }, thickness: 50e-9, area: 1e-8, leakage: 1e13, bias: linearBias(0, 10, 101), relative: 0.02, floor: 1e-13, compliance: 1e-3 }, { thickness: 50e-9, area: 1e-8 }],
-    ['diode', { device: { kind: 'diode', saturationCurrent: 1e-12, ideality: 1.2, series: 2, shunt: 1e8 }, bias: linearBias(-1, 0.8, 181), relative: 0.02, floor: 1e-13, compliance: 1e-2 }, { temperature: 300 }],
-    ['sclc', { device: { kind: 'sclc', mobility: 1e-8, permittivity: 3, conductivity: 3e-5 }, thickness: 1e-7, area: 1e-8, bias: linearBias(0, 10, 101), relative: 0.02, floor: 1e-13, compliance: 1e-2 }, { thickness: 1e-7, area: 1e-8, permittivity: 3 }],
-    ['ohmic', { device: { kind: 'hopping', prefactor: 1e-30, distance: 1e-10 }, thickness: 50e-9, area: 1e-8, leakage: 1e9, bias: linearBias(-2, 2, 81), relative: 0.01, floor: 1e-13 }, { thickness: 50e-9, area: 1e-8 }],
+    [
+      'poole-frenkel',
+      {
+        device: { kind: 'poole-frenkel', prefactor: 1e-2, trapDepth: 1.0, permittivity: 4 },
+        thickness: 20e-9,
+        area: 1e-8,
+        leakage: 1e15,
+        bias: linearBias(0, 15, 76),
+        relative: 0.02,
+        floor: 1e-13,
+        compliance: 1e-3,
+      },
+      { thickness: 20e-9, area: 1e-8, refractiveIndex: 2 },
+    ],
+    [
+      'poole-frenkel',
+      {
+        device: { kind: 'poole-frenkel', prefactor: 1e-2, trapDepth: 1.0, permittivity: 2.13 },
+        thickness: 20e-9,
+        area: 1e-8,
+        leakage: 1e14,
+        bias: linearBias(-16, 16, 161),
+        relative: 0.01,
+        floor: 1e-13,
+        compliance: 1e-3,
+      },
+      { thickness: 20e-9, area: 1e-8, refractiveIndex: 1.46 },
+    ],
+    [
+      'schottky',
+      {
+        device: { kind: 'schottky', barrier: 0.9, permittivity: 4, richardson: 1.2017e6 },
+        thickness: 12e-9,
+        area: 1e-8,
+        temperature: 350,
+        leakage: 1e14,
+        bias: linearBias(0, 5, 51),
+        relative: 0.02,
+        floor: 1e-13,
+        compliance: 1e-3,
+      },
+      { thickness: 12e-9, area: 1e-8, temperature: 350, refractiveIndex: 2 },
+    ],
+    [
+      'trap-assisted-tunneling',
+      {
+        device: { kind: 'trap-assisted-tunneling', prefactor: 100, trapEnergy: 1.2, massRatio: 0.5 },
+        thickness: 10e-9,
+        area: 1e-8,
+        leakage: 1e14,
+        bias: linearBias(0, 9, 91),
+        relative: 0.02,
+        floor: 1e-13,
+        compliance: 1e-3,
+      },
+      { thickness: 10e-9, area: 1e-8, massRatio: 0.5 },
+    ],
+    [
+      'hopping',
+      {
+        device: { kind: 'hopping', prefactor: 1e-3, distance: 2e-9 },
+        thickness: 50e-9,
+        area: 1e-8,
+        leakage: 1e13,
+        bias: linearBias(0, 10, 101),
+        relative: 0.02,
+        floor: 1e-13,
+        compliance: 1e-3,
+      },
+      { thickness: 50e-9, area: 1e-8 },
+    ],
+    [
+      'diode',
+      {
+        device: { kind: 'diode', saturationCurrent: 1e-12, ideality: 1.2, series: 2, shunt: 1e8 },
+        bias: linearBias(-1, 0.8, 181),
+        relative: 0.02,
+        floor: 1e-13,
+        compliance: 1e-2,
+      },
+      { temperature: 300 },
+    ],
+    [
+      'sclc',
+      {
+        device: { kind: 'sclc', mobility: 1e-8, permittivity: 3, conductivity: 3e-5 },
+        thickness: 1e-7,
+        area: 1e-8,
+        bias: linearBias(0, 10, 101),
+        relative: 0.02,
+        floor: 1e-13,
+        compliance: 1e-2,
+      },
+      { thickness: 1e-7, area: 1e-8, permittivity: 3 },
+    ],
+    [
+      'ohmic',
+      {
+        device: { kind: 'hopping', prefactor: 1e-30, distance: 1e-10 },
+        thickness: 50e-9,
+        area: 1e-8,
+        leakage: 1e9,
+        bias: linearBias(-2, 2, 81),
+        relative: 0.01,
+        floor: 1e-13,
+      },
+      { thickness: 50e-9, area: 1e-8 },
+    ],
   ];
   for (const [truth, spec, inputs] of cases) {
     it(`${truth} first (${spec.bias.length} points, ${spec.bias[0]} → ${spec.bias[spec.bias.length - 1]} V)`, () => {

@@ -79,7 +79,10 @@ async function run(scenario: string, plan: unknown, seed: number): Promise<{ res
     complianceLimit: sc.sweep.compliance,
     hazardVoltage: 30,
   });
-  const source = new GuardedSource(new SmuDriver(session, loadDialect('protection-trip')), limitsSchema.parse({ maxVoltage: 20, maxCompliance: 0.01, maxPower: 1, rampDelay: 0 }));
+  const source = new GuardedSource(
+    new SmuDriver(session, loadDialect('protection-trip')),
+    limitsSchema.parse({ maxVoltage: 20, maxCompliance: 0.01, maxPower: 1, rampDelay: 0 }),
+  );
   const result = await new RunController(source, chain, parsePlan(plan)).execute();
   session.close();
   if (result.outcome !== 'completed') process.stdout.write(`  (${scenario}: the run ended ${result.outcome}: ${result.reason})\n`);
@@ -118,11 +121,30 @@ export async function fixedRun(c: Case, n: number, seed: number): Promise<Outcom
 /** One adaptive sweep over the scenario's range to the target error. */
 export async function adaptiveRun(c: Case, stdErr: number, seed: number, extra: Record<string, unknown> = {}): Promise<Outcome | undefined> {
   const sc = findScenario(c.scenario);
-  const { result, dir } = await run(c.scenario, { kind: 'adaptive', start: sc.sweep.start, stop: sc.sweep.stop, maxPoints: 400, compliance: sc.sweep.compliance, target: { parameter: c.parameter, stdErr }, ...extra }, seed);
+  const { result, dir } = await run(
+    c.scenario,
+    {
+      kind: 'adaptive',
+      start: sc.sweep.start,
+      stop: sc.sweep.stop,
+      maxPoints: 400,
+      compliance: sc.sweep.compliance,
+      target: { parameter: c.parameter, stdErr },
+      ...extra,
+    },
+    seed,
+  );
   const j = fromJournal(dir, c.parameter);
   const a = result.adaptive;
   if (!a || !j.fit) return undefined;
-  return { readings: j.readings, peak: a.maxAbsBias, charge: j.charge, ...j.fit, plausible: j.plausible, stopReason: a.sweeps[a.sweeps.length - 1]?.stopReason };
+  return {
+    readings: j.readings,
+    peak: a.maxAbsBias,
+    charge: j.charge,
+    ...j.fit,
+    plausible: j.plausible,
+    stopReason: a.sweeps[a.sweeps.length - 1]?.stopReason,
+  };
 }
 
 const median = (xs: number[]): number => {
@@ -171,7 +193,9 @@ export async function benchAdaptive(): Promise<void> {
       const o = await adaptiveRun(c, base.target, s);
       if (o) ad.push(o);
     }
-    process.stdout.write(`${c.scenario} ${c.parameter} to ±${base.target.toPrecision(2)} (median error of its usual ${sc.sweep.points}-point sweep; device ${truth})\n`);
+    process.stdout.write(
+      `${c.scenario} ${c.parameter} to ±${base.target.toPrecision(2)} (median error of its usual ${sc.sweep.points}-point sweep; device ${truth})\n`,
+    );
     if (ad.length === 0) {
       process.stdout.write('  adaptive  gave no fit\n');
       continue;
@@ -184,14 +208,34 @@ export async function benchAdaptive(): Promise<void> {
     const aQ = median(ad.map((o) => o.charge));
     const fQ = median(fx.map((o) => o.charge));
     const zs = ad.map((o) => ((o.value - truth) / o.stdErr).toFixed(1)).join(' ');
-    process.stdout.write(`  adaptive  ${String(aR).padStart(4)} readings (${ad.map((o) => o.readings).join(' ')}), ≤ ${aPeak.toPrecision(3)} V, ${e2(aQ)} C, ±${e2(median(ad.map((o) => o.stdErr)))}; target reached ${reached}/${ad.length}, within tolerance ${inTol}/${ad.length}, within 2σ of the device ${covered}/${ad.length} (z: ${zs})\n`);
-    process.stdout.write(`  fixed     ${String(base.points).padStart(4)} readings, ≤ ${Math.abs(sc.sweep.stop).toPrecision(3)} V, ${e2(fQ)} C, ±${e2(medianErr(base.runs))}\n`);
+    process.stdout.write(
+      `  adaptive  ${String(aR).padStart(4)} readings (${ad.map((o) => o.readings).join(' ')}), ≤ ${aPeak.toPrecision(3)} V, ${e2(aQ)} C, ±${e2(median(ad.map((o) => o.stdErr)))}; target reached ${reached}/${ad.length}, within tolerance ${inTol}/${ad.length}, within 2σ of the device ${covered}/${ad.length} (z: ${zs})\n`,
+    );
+    process.stdout.write(
+      `  fixed     ${String(base.points).padStart(4)} readings, ≤ ${Math.abs(sc.sweep.stop).toPrecision(3)} V, ${e2(fQ)} C, ±${e2(medianErr(base.runs))}\n`,
+    );
     // A run of three sweeps: the later ones reuse the first's floor, onset and top.
-    const rep = await run(c.scenario, { kind: 'adaptive', start: sc.sweep.start, stop: sc.sweep.stop, maxPoints: 400, compliance: sc.sweep.compliance, repeat: 3, target: { parameter: c.parameter, stdErr: base.target } }, SEEDS[0]);
+    const rep = await run(
+      c.scenario,
+      {
+        kind: 'adaptive',
+        start: sc.sweep.start,
+        stop: sc.sweep.stop,
+        maxPoints: 400,
+        compliance: sc.sweep.compliance,
+        repeat: 3,
+        target: { parameter: c.parameter, stdErr: base.target },
+      },
+      SEEDS[0],
+    );
     rmSync(rep.dir, { recursive: true, force: true });
     const sw = rep.result.adaptive?.sweeps ?? [];
-    process.stdout.write(`  3 sweeps (seed ${SEEDS[0]}): ${sw.map((x) => `${x.readings} readings${x.parameter ? ` ±${e2(x.parameter.stdErr)}` : ''} (${x.stopReason})`).join(', ')}\n`);
+    process.stdout.write(
+      `  3 sweeps (seed ${SEEDS[0]}): ${sw.map((x) => `${x.readings} readings${x.parameter ? ` ±${e2(x.parameter.stdErr)}` : ''} (${x.stopReason})`).join(', ')}\n`,
+    );
     const caveat = reached < ad.length ? `; the target was reached in only ${reached} of ${ad.length} sweeps, so the ratio flatters the adaptive plan` : '';
-    process.stdout.write(`  ${(base.points / aR).toFixed(1)}× fewer readings, peak ${aPeak <= Math.abs(sc.sweep.stop) + 1e-9 ? 'not higher' : 'HIGHER'}, ${(fQ / Math.max(aQ, 1e-300)).toFixed(1)}× less charge   (goal ≥ 3×, peak not higher)${caveat}\n`);
+    process.stdout.write(
+      `  ${(base.points / aR).toFixed(1)}× fewer readings, peak ${aPeak <= Math.abs(sc.sweep.stop) + 1e-9 ? 'not higher' : 'HIGHER'}, ${(fQ / Math.max(aQ, 1e-300)).toFixed(1)}× less charge   (goal ≥ 3×, peak not higher)${caveat}\n`,
+    );
   }
 }

@@ -30,7 +30,12 @@ export function benchAnalysis(): void {
     x[k] = k * 1e-3;
     y[k] = 1 + 2 * x[k] + 0.01 * normal();
   }
-  report('batch line fit, 1e6 points (median of 15)', medianMs(() => fitLine(x, y), 15), 'ms', '<= 5 ms');
+  report(
+    'batch line fit, 1e6 points (median of 15)',
+    medianMs(() => fitLine(x, y), 15),
+    'ms',
+    '<= 5 ms',
+  );
 
   const acc = new LineAccumulator();
   const t0 = process.hrtime.bigint();
@@ -52,10 +57,19 @@ export function benchAnalysis(): void {
     const fit = medianMs(() => analyze({ x: s.v, y: s.i }, { model: 'fowler-nordheim', inputs, regimes: false }), repeats);
     report(`default fit (floor, branches, automatic window), ${label} points`, fit, 'ms', m === 1_000_000 ? '<= 1000 ms' : undefined);
     const rank = medianMs(() => rankMechanisms({ x: s.v, y: s.i }, { inputs }), repeats);
-    report(`mechanism ranking (every mechanism, own window), ${label} points`, rank, 'ms', m === 1_000_000 ? '<= 1000 ms' : m === 1_000 ? '<= 10 ms' : undefined);
+    report(
+      `mechanism ranking (every mechanism, own window), ${label} points`,
+      rank,
+      'ms',
+      m === 1_000_000 ? '<= 1000 ms' : m === 1_000 ? '<= 10 ms' : undefined,
+    );
   }
   const small = wholeSweep(1000, normal);
   const lx = small.v.map((b) => 8e-9 / b).slice(1);
   const ly = small.i.map((c, k) => Math.log(Math.abs(c) / (small.v[k] / 8e-9) ** 2)).slice(1);
-  report('regime segmentation, 1000 points', medianMs(() => segmentLine(lx.reverse(), ly.reverse()), 9), 'ms');
+  report(
+    'regime segmentation, 1000 points',
+    medianMs(() => segmentLine(lx.reverse(), ly.reverse()), 9),
+    'ms',
+  );
 }

@@ -77,14 +77,17 @@ export function benchCli(): void {
     const preload = join(dir, 'maxrss.mjs');
     writeFileSync(preload, "process.on('exit', () => process.stderr.write('maxrss ' + process.resourceUsage().maxRSS + '\\n'));\n");
     const py = join(dir, 'polyfit.py');
-    writeFileSync(py, [
-      'import resource, sys',
-      'import numpy as np, pandas as pd',
-      'd = pd.read_csv(sys.argv[1])',
-      'slope, intercept = np.polyfit(d.iloc[:, 0].to_numpy(), d.iloc[:, 1].to_numpy(), 1)',
-      'print(repr(slope), repr(intercept))',
-      "print('maxrss', resource.getrusage(resource.RUSAGE_SELF).ru_maxrss, file=sys.stderr)",
-    ].join('\n'));
+    writeFileSync(
+      py,
+      [
+        'import resource, sys',
+        'import numpy as np, pandas as pd',
+        'd = pd.read_csv(sys.argv[1])',
+        'slope, intercept = np.polyfit(d.iloc[:, 0].to_numpy(), d.iloc[:, 1].to_numpy(), 1)',
+        'print(repr(slope), repr(intercept))',
+        "print('maxrss', resource.getrusage(resource.RUSAGE_SELF).ru_maxrss, file=sys.stderr)",
+      ].join('\n'),
+    );
 
     const missing = ensurePandas();
     const ours: Run[] = [];
@@ -94,12 +97,26 @@ export function benchCli(): void {
       if (!missing) theirs.push(timed(PYTHON, [py, csv]));
     }
     const slope = JSON.parse(ours[0].stdout).line.slope as number;
-    report('plumbline fit, 1e6-row CSV (whole process, median of 5)', median(ours.map((r) => r.seconds)), `s; peak RSS ${median(ours.map((r) => r.maxRssMB)).toFixed(0)} MB`, 'faster than pandas + numpy');
+    report(
+      'plumbline fit, 1e6-row CSV (whole process, median of 5)',
+      median(ours.map((r) => r.seconds)),
+      `s; peak RSS ${median(ours.map((r) => r.maxRssMB)).toFixed(0)} MB`,
+      'faster than pandas + numpy',
+    );
     if (missing) process.stdout.write(`  pandas + numpy comparison skipped: ${missing}\n`);
     else {
       const theirSlope = Number(theirs[0].stdout.trim().split(/\s+/)[0]);
-      report('pandas.read_csv + numpy.polyfit, same file', median(theirs.map((r) => r.seconds)), `s; peak RSS ${median(theirs.map((r) => r.maxRssMB)).toFixed(0)} MB`);
-      report('  ratio plumbline / pandas (time)', median(ours.map((r) => r.seconds)) / median(theirs.map((r) => r.seconds)), `× (slopes agree to ${Math.abs(slope / theirSlope - 1).toExponential(1)})`, '< 1');
+      report(
+        'pandas.read_csv + numpy.polyfit, same file',
+        median(theirs.map((r) => r.seconds)),
+        `s; peak RSS ${median(theirs.map((r) => r.maxRssMB)).toFixed(0)} MB`,
+      );
+      report(
+        '  ratio plumbline / pandas (time)',
+        median(ours.map((r) => r.seconds)) / median(theirs.map((r) => r.seconds)),
+        `× (slopes agree to ${Math.abs(slope / theirSlope - 1).toExponential(1)})`,
+        '< 1',
+      );
     }
 
     const small = join(dir, 'small.csv');

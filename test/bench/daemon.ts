@@ -47,7 +47,7 @@ export function feed(chain: LiveChain, n: number, per: number, from = 0): void {
     const p = k % per;
     if (p === 0) chain.startSweep(Math.floor(k / per) + 1, per, '');
     const v = 0.01 * p;
-    chain.reading(v, v / 1e4 * (1 + 1e-3 * Math.sin(k)), false, false);
+    chain.reading(v, (v / 1e4) * (1 + 1e-3 * Math.sin(k)), false, false);
     if (p === per - 1) chain.endSweep(true);
   }
 }
@@ -120,7 +120,10 @@ async function abortWithReadingInFlight(): Promise<{ median: number; max: number
     const socket = await openTcp('127.0.0.1', (server.address() as AddressInfo).port);
     const session = new ScpiSession(socket, { timeoutMs: 5000 });
     const chain = makeChain(dir, 46);
-    const source = new GuardedSource(new SmuDriver(session, loadDialect('protection-trip')), limitsSchema.parse({ maxVoltage: 20, maxCompliance: 0.01, maxPower: 1, rampDelay: 0 }));
+    const source = new GuardedSource(
+      new SmuDriver(session, loadDialect('protection-trip')),
+      limitsSchema.parse({ maxVoltage: 20, maxCompliance: 0.01, maxPower: 1, rampDelay: 0 }),
+    );
     const c = new RunController(source, chain, parsePlan({ start: 0, stop: 9, points: 46, compliance: 1e-3 }));
     const done = c.execute();
     while (smu.received.filter((r) => r.line === ':READ?').length < 2) await new Promise((r) => setTimeout(r, 5));
@@ -145,7 +148,15 @@ async function viewers(): Promise<{ rate: number; lagging: number; dropped: numb
   const dir = mkdtempSync(join(tmpdir(), 'plumbline-bench-'));
   const chain = makeChain(dir, 1000);
   const recent = new RecentEvents();
-  const hub = new Hub(() => ({ station: { control: true, hazardVoltage: 30, limits: {} }, running: true, session: 'bench', lastSeq: recent.lastSeq, events: recent.nonReadings(), readings: recent.readings(), views: [] }));
+  const hub = new Hub(() => ({
+    station: { control: true, hazardVoltage: 30, limits: {} },
+    running: true,
+    session: 'bench',
+    lastSeq: recent.lastSeq,
+    events: recent.nonReadings(),
+    readings: recent.readings(),
+    views: [],
+  }));
   chain.events$.subscribe((e) => {
     recent.add(e);
     hub.publish(e);
@@ -184,11 +195,16 @@ export async function benchDaemon(): Promise<void> {
   report('abort decision → output-off bytes at the instrument', a.median, `ms median (max ${a.max.toFixed(2)})`, '≤ 5');
   const f = await abortWithReadingInFlight();
   report('abort → output-off bytes, 1 s reading in flight (TCP)', f.median, `ms median (max ${f.max.toFixed(2)}, ${f.trials} of 5 trials in flight)`, '≤ 5');
-  const rss = spawnSync(process.execPath, ['--max-old-space-size=512', fileURLToPath(new URL('./rss.js', import.meta.url))], { encoding: 'utf8', timeout: 300_000 });
+  const rss = spawnSync(process.execPath, ['--max-old-space-size=512', fileURLToPath(new URL('./rss.js', import.meta.url))], {
+    encoding: 'utf8',
+    timeout: 300_000,
+  });
   const m = /rss (\d+(?:\.\d+)?) MB after (\d+) readings in (\d+(?:\.\d+)?) s/.exec(rss.stdout);
   if (m) report(`RSS after ${Number(m[2]).toExponential(0)} readings (chain + journal, child)`, Number(m[1]), `MB (${m[3]} s)`, '≤ 150');
   else process.stdout.write(`RSS benchmark failed: ${rss.stdout}${rss.stderr}\n`);
   const v = await viewers();
   report('acquisition with 50 ws viewers + 1 stalled client', v.rate / 1e6, 'M readings/s');
-  process.stdout.write(`${''.padEnd(52)} (viewers got ${v.messages} messages, ${(v.received / 1e6).toFixed(0)} MB; the stalled one skipped ${v.dropped} events, ${v.lagging} lagging)\n`);
+  process.stdout.write(
+    `${''.padEnd(52)} (viewers got ${v.messages} messages, ${(v.received / 1e6).toFixed(0)} MB; the stalled one skipped ${v.dropped} events, ${v.lagging} lagging)\n`,
+  );
 }

@@ -40,7 +40,19 @@ function median(fn: () => unknown, warm: number, runs: number): number {
 export function benchDiode(): void {
   const vt = thermalVoltage(T);
   const cells: [string, DiodeCircuit][] = [
-    ['two-diode cell', { photocurrent: 0.035, diodes: [{ i0: 2e-11, n: 1.05 }, { i0: 5e-8, n: 1.9 }], seriesResistance: 0.8, shuntResistance: 2000, vt }],
+    [
+      'two-diode cell',
+      {
+        photocurrent: 0.035,
+        diodes: [
+          { i0: 2e-11, n: 1.05 },
+          { i0: 5e-8, n: 1.9 },
+        ],
+        seriesResistance: 0.8,
+        shuntResistance: 2000,
+        vt,
+      },
+    ],
     ['one-diode cell', { photocurrent: 0.035, diodes: [{ i0: 3e-10, n: 1.3 }], seriesResistance: 0.5, shuntResistance: 1500, vt }],
     ['one-diode cell, n = 1', { photocurrent: 0.035, diodes: [{ i0: 1e-12, n: 1 }], seriesResistance: 0.3, shuntResistance: 800, vt }],
     ['dark diode', { photocurrent: 0, diodes: [{ i0: 3e-10, n: 1.3 }], seriesResistance: 0.5, shuntResistance: 1500, vt }],
@@ -59,8 +71,17 @@ export function benchDiode(): void {
     const req = { temperature: T, illuminated: true };
     const ms = median(() => fitDiode(data, 'single-diode', req), n <= 10_000 ? 3 : 1, n <= 10_000 ? 9 : n <= 100_000 ? 3 : 1);
     if (n === 1_000) first = ms / n;
-    report(`single-diode fit, ${n.toExponential(0)} points`, ms, `ms; ${((1000 * ms) / n).toFixed(2)} µs per point (×${(ms / n / first).toFixed(2)} the 1e3 figure)`, 'linear in N');
+    report(
+      `single-diode fit, ${n.toExponential(0)} points`,
+      ms,
+      `ms; ${((1000 * ms) / n).toFixed(2)} µs per point (×${(ms / n / first).toFixed(2)} the 1e3 figure)`,
+      'linear in N',
+    );
   }
   const big = sweep(cells[0][1], 100_000);
-  report('two-diode fit, 1e5 points: two-diode cell', median(() => fitDiode(big, 'double-diode', { temperature: T, illuminated: true }), 1, 1), 'ms');
+  report(
+    'two-diode fit, 1e5 points: two-diode cell',
+    median(() => fitDiode(big, 'double-diode', { temperature: T, illuminated: true }), 1, 1),
+    'ms',
+  );
 }

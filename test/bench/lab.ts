@@ -76,7 +76,11 @@ export async function benchLab(): Promise<void> {
 
     // Live: ten stations at once.
     const t0 = performance.now();
-    await Promise.all(Array.from({ length: STATIONS }, (_, k) => run(['run', '--scenario', 'oxide-fn', '--fast', '--plan', plan, '--data', join(root, `st-${k}`), '--publish', url, '--station', `st-${k}`], true)));
+    await Promise.all(
+      Array.from({ length: STATIONS }, (_, k) =>
+        run(['run', '--scenario', 'oxide-fn', '--fast', '--plan', plan, '--data', join(root, `st-${k}`), '--publish', url, '--station', `st-${k}`], true),
+      ),
+    );
     const journals = Array.from({ length: STATIONS }, (_, k) => join(root, `st-${k}`, readdirSync(join(root, `st-${k}`)).find((d) => /^\d{8}-/.test(d))!));
     let total = 0;
     for (const dir of journals) {
@@ -102,7 +106,8 @@ export async function benchLab(): Promise<void> {
       return startPublishing({ url, station: `again-${k}`, name: `again-${k}`, dataDir: join(root, `again-${k}`), log: () => undefined });
     });
     await new Promise((r) => setTimeout(r, 3000));
-    for (let k = 0; k < STATIONS; k++) cpSync(join(root, `st-${k}`), join(root, `again-${k}`), { recursive: true, filter: (f) => !f.endsWith('published.json') });
+    for (let k = 0; k < STATIONS; k++)
+      cpSync(join(root, `st-${k}`), join(root, `again-${k}`), { recursive: true, filter: (f) => !f.endsWith('published.json') });
     // Timed from the first batch committed to the last (the publishers' start-up is not the path's speed).
     const span = await archived(archive, 2 * total, 180_000, 'catch-up archived');
     const catchUp = total / ((span.last - span.first) / 1000);

@@ -12,12 +12,39 @@ import { report } from './timing.js';
 function writeLot(dataDir: string, sessions: number): void {
   for (let s = 0; s < sessions; s++) {
     const { writer, id } = JournalWriter.create(dataDir, `dev${s}`);
-    writer.event({ type: 'session', id, startedAt: new Date().toISOString(), source: { kind: 'bench', detail: '', control: true }, instrument: 'bench', plan: null, analysis: { model: 'fowler-nordheim', window: 'auto', inputs: {} }, drift: null, limits: null, device: { device: `D${s}`, wafer: 'W1', x: s % 20, y: Math.floor(s / 20) } } as never);
+    writer.event({
+      type: 'session',
+      id,
+      startedAt: new Date().toISOString(),
+      source: { kind: 'bench', detail: '', control: true },
+      instrument: 'bench',
+      plan: null,
+      analysis: { model: 'fowler-nordheim', window: 'auto', inputs: {} },
+      drift: null,
+      limits: null,
+      device: { device: `D${s}`, wafer: 'W1', x: s % 20, y: Math.floor(s / 20) },
+    } as never);
     for (let sw = 1; sw <= 20; sw++) {
       writer.event({ type: 'sweep-start', sweep: sw, planned: 200, label: '' });
       for (let k = 0; k < 200; k++) writer.reading(sw, k, k * 0.05, 1e-12 * Math.exp(k * 0.1), 0);
       writer.event({ type: 'sweep-end', sweep: sw, points: 200, complete: true });
-      writer.event({ type: 'fit', sweep: sw, final: true, fit: { model: 'fowler-nordheim', title: 'FN', window: { from: 5, to: 9, mode: 'auto' }, line: { slope: -1, slopeStdErr: 0.01, intercept: 1, interceptStdErr: 0.1, r2: 0.999, residualStdDev: 0.01, n: 40 }, axes: { x: { label: '', unit: '', kind: 'linear' }, y: { label: '', unit: '', kind: 'log' } }, parameters: { barrierHeight: { value: 3.1 + s * 1e-4, stdErr: 0.01, unit: 'eV' } }, plausible: true, warnings: [], points: { used: 40, excluded: 0, reasons: {} }, regimes: [] } });
+      writer.event({
+        type: 'fit',
+        sweep: sw,
+        final: true,
+        fit: {
+          model: 'fowler-nordheim',
+          title: 'FN',
+          window: { from: 5, to: 9, mode: 'auto' },
+          line: { slope: -1, slopeStdErr: 0.01, intercept: 1, interceptStdErr: 0.1, r2: 0.999, residualStdDev: 0.01, n: 40 },
+          axes: { x: { label: '', unit: '', kind: 'linear' }, y: { label: '', unit: '', kind: 'log' } },
+          parameters: { barrierHeight: { value: 3.1 + s * 1e-4, stdErr: 0.01, unit: 'eV' } },
+          plausible: true,
+          warnings: [],
+          points: { used: 40, excluded: 0, reasons: {} },
+          regimes: [],
+        },
+      });
     }
     writer.event({ type: 'run-end', outcome: 'completed', reason: 'bench', sweeps: 20 });
     writer.close();

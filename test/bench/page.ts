@@ -17,14 +17,30 @@ import { report } from './timing.js';
 
 export async function benchPage(): Promise<void> {
   const dir = mkdtempSync(join(tmpdir(), 'plumbline-bench-page-'));
-  const station = new Station(parseConfig({
-    instrument: { kind: 'simulator', scenario: 'oxide-fn', realTime: false },
-    limits: { maxVoltage: 20, maxCompliance: 0.01, maxPower: 0.1 },
-    analysis: { model: 'ohmic', window: 'all' },
-    drift: { enabled: false },
-  }, 'bench'), dir);
+  const station = new Station(
+    parseConfig(
+      {
+        instrument: { kind: 'simulator', scenario: 'oxide-fn', realTime: false },
+        limits: { maxVoltage: 20, maxCompliance: 0.01, maxPower: 0.1 },
+        analysis: { model: 'ohmic', window: 'all' },
+        drift: { enabled: false },
+      },
+      'bench',
+    ),
+    dir,
+  );
   const srv = await startServer(station, { host: '127.0.0.1', port: 0 });
-  const browser = await chromium.launch({ executablePath: '/usr/bin/chromium', args: ['--disable-gpu', '--disable-background-networking', '--disable-component-update', '--no-first-run', '--disable-sync', '--enable-precise-memory-info'] });
+  const browser = await chromium.launch({
+    executablePath: '/usr/bin/chromium',
+    args: [
+      '--disable-gpu',
+      '--disable-background-networking',
+      '--disable-component-update',
+      '--no-first-run',
+      '--disable-sync',
+      '--enable-precise-memory-info',
+    ],
+  });
   try {
     const page = await browser.newPage({ viewport: { width: 1600, height: 1200 } });
     await page.goto(srv.url);
@@ -87,13 +103,19 @@ export async function benchPage(): Promise<void> {
       times.sort((a, b) => a - b);
       const store = new pl.Store();
       store.reset('bench');
-      for (let n = 0; n < 1_000_000; n++) store.applyEvent({ type: 'reading', seq: n + 1, sweep: Math.floor(n / 2000) + 1, k: n % 2000, t: n, v: 0.005 * (n % 2000), i: 1e-9 * n, flags: 0 });
+      for (let n = 0; n < 1_000_000; n++)
+        store.applyEvent({ type: 'reading', seq: n + 1, sweep: Math.floor(n / 2000) + 1, k: n % 2000, t: n, v: 0.005 * (n % 2000), i: 1e-9 * n, flags: 0 });
       (globalThis as any).__benchStore = store;
       (globalThis as any).gc?.();
-      return { redraw: times[7], heap: (performance as any).memory?.usedJSHeapSize as number | undefined, kept: [...store.sweeps.values()].reduce((a: number, s: any) => a + s.v.length, 0) };
+      return {
+        redraw: times[7],
+        heap: (performance as any).memory?.usedJSHeapSize as number | undefined,
+        kept: [...store.sweeps.values()].reduce((a: number, s: any) => a + s.v.length, 0),
+      };
     });
     report('page: redraw, 100 sweeps × 2000 points (log axis)', r.redraw, 'ms median (one reading more, update and draw)', '≤ 16');
-    if (r.heap !== undefined) report('page: JS heap after 1e6 points through the store', r.heap / 2 ** 20, `MB after GC (${r.kept} points kept: the last 100 sweeps)`);
+    if (r.heap !== undefined)
+      report('page: JS heap after 1e6 points through the store', r.heap / 2 ** 20, `MB after GC (${r.kept} points kept: the last 100 sweeps)`);
     await page.close();
     await benchOpenSessions(browser, srv.url, dir);
   } finally {
@@ -116,15 +138,43 @@ function writeSession(dataDir: string, sweeps: number, points: number): string {
   const i0 = v.map((x) => fowlerNordheim(x / d, 3.1, 0.42) * 1e-8 + 1e-13);
   const analysis = { model: 'fowler-nordheim', window: { from: 5, to: 9 }, inputs: { thickness: d, area: 1e-8, massRatio: 0.42 } };
   const fit = summarizeFit(analyze({ x: v, y: i0 }, { ...analysis, regimes: false }));
-  writer.event({ type: 'session', id, startedAt: new Date().toISOString(), source: { kind: 'simulator', detail: 'benchmark', control: true }, instrument: 'bench', plan: { kind: 'linear', start: 0, stop: 9, points, repeat: sweeps, compliance: 1e-3 }, analysis, drift: {}, limits: {} });
+  writer.event({
+    type: 'session',
+    id,
+    startedAt: new Date().toISOString(),
+    source: { kind: 'simulator', detail: 'benchmark', control: true },
+    instrument: 'bench',
+    plan: { kind: 'linear', start: 0, stop: 9, points, repeat: sweeps, compliance: 1e-3 },
+    analysis,
+    drift: {},
+    limits: {},
+  });
   for (let s = 1; s <= sweeps; s++) {
     writer.event({ type: 'sweep-start', sweep: s, planned: points, label: '' });
     const f = 1 + 1e-4 * Math.sin(s);
     for (let k = 0; k < points; k++) writer.reading(s, k, v[k], i0[k] * f, 0);
     writer.event({ type: 'sweep-end', sweep: s, points, complete: true });
     const phi = fit.parameters.barrierHeight;
-    writer.event({ type: 'fit', sweep: s, final: true, fit: { ...fit, parameters: { barrierHeight: { ...phi, value: phi.value * (1 + 1e-5 * Math.sin(s)) } } } });
-    writer.event({ type: 'drift', sweep: s, parameter: 'barrierHeight', value: phi.value, method: 'ewma', phase: s <= 3 ? 'baseline' : 'monitor', statistic: phi.value, center: phi.value, lower: phi.value - 0.01, upper: phi.value + 0.01, sigma: 0.003, state: s <= 3 ? 'baseline' : 'in-control' });
+    writer.event({
+      type: 'fit',
+      sweep: s,
+      final: true,
+      fit: { ...fit, parameters: { barrierHeight: { ...phi, value: phi.value * (1 + 1e-5 * Math.sin(s)) } } },
+    });
+    writer.event({
+      type: 'drift',
+      sweep: s,
+      parameter: 'barrierHeight',
+      value: phi.value,
+      method: 'ewma',
+      phase: s <= 3 ? 'baseline' : 'monitor',
+      statistic: phi.value,
+      center: phi.value,
+      lower: phi.value - 0.01,
+      upper: phi.value + 0.01,
+      sigma: 0.003,
+      state: s <= 3 ? 'baseline' : 'in-control',
+    });
   }
   writer.event({ type: 'run-end', outcome: 'completed', reason: 'benchmark', sweeps });
   writer.close();
@@ -142,19 +192,30 @@ async function benchOpenSessions(browser: import('playwright-core').Browser, url
     const page = await browser.newPage({ viewport: { width: 1600, height: 1200 } });
     await page.goto(url);
     await page.waitForFunction(() => (globalThis as any).document.querySelector('#conn')?.getAttribute('data-state') === 'live');
-    const open = () => page.evaluate(async (sid) => {
-      const g = globalThis as any;
-      const t0 = performance.now();
-      await g.__plumbline.openSession(sid);
-      // The render runs on the next animation frame; the one after it has painted.
-      await new Promise((r) => g.requestAnimationFrame(() => g.requestAnimationFrame(r)));
-      const ms = performance.now() - t0;
-      g.gc?.();
-      return { ms, heap: (performance as any).memory?.usedJSHeapSize as number | undefined, sweeps: g.__plumbline.store.allSweeps.length, kept: g.__plumbline.store.sweeps.size };
-    }, id);
+    const open = () =>
+      page.evaluate(async (sid) => {
+        const g = globalThis as any;
+        const t0 = performance.now();
+        await g.__plumbline.openSession(sid);
+        // The render runs on the next animation frame; the one after it has painted.
+        await new Promise((r) => g.requestAnimationFrame(() => g.requestAnimationFrame(r)));
+        const ms = performance.now() - t0;
+        g.gc?.();
+        return {
+          ms,
+          heap: (performance as any).memory?.usedJSHeapSize as number | undefined,
+          sweeps: g.__plumbline.store.allSweeps.length,
+          kept: g.__plumbline.store.sweeps.size,
+        };
+      }, id);
     const cold = await open();
     const warm = await open();
-    report(`page: open a past session of ${sweeps} sweeps × 100 points`, cold.ms, `ms cold, ${warm.ms.toFixed(0)} ms again (${cold.sweeps} sweeps listed, ${cold.kept} drawn + envelope)`, '≤ 2000');
+    report(
+      `page: open a past session of ${sweeps} sweeps × 100 points`,
+      cold.ms,
+      `ms cold, ${warm.ms.toFixed(0)} ms again (${cold.sweeps} sweeps listed, ${cold.kept} drawn + envelope)`,
+      '≤ 2000',
+    );
     if (warm.heap !== undefined) report(`page: JS heap with that session open (${sweeps} sweeps)`, warm.heap / 2 ** 20, 'MB after GC', 'bounded');
     await page.close();
   }

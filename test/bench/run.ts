@@ -22,7 +22,7 @@ await benchProtocols();
 process.stdout.write('\ndaemon: live chain, journal, abort, websocket\n');
 await benchDaemon();
 benchStationRun();
-process.stdout.write('\nadaptive against fixed sweeps (to the error each scenario\'s usual sweep reaches)\n');
+process.stdout.write("\nadaptive against fixed sweeps (to the error each scenario's usual sweep reaches)\n");
 await benchAdaptive();
 process.stdout.write('\nlots: many sessions\n');
 await benchLot();

@@ -26,12 +26,19 @@ export function benchStationRun(): void {
     const cfg = join(dir, 'station.json');
     writeFileSync(cfg, JSON.stringify(config));
     const preload = join(dir, 'memory.cjs');
-    writeFileSync(preload, "process.on('exit', () => { global.gc?.(); const m = process.memoryUsage(); process.stderr.write('memory ' + JSON.stringify({ rss: m.rss, heap: m.heapUsed, peak: process.resourceUsage().maxRSS * 1024 }) + '\\n'); });\n");
+    writeFileSync(
+      preload,
+      "process.on('exit', () => { global.gc?.(); const m = process.memoryUsage(); process.stderr.write('memory ' + JSON.stringify({ rss: m.rss, heap: m.heapUsed, peak: process.resourceUsage().maxRSS * 1024 }) + '\\n'); });\n",
+    );
     for (const sweeps of [500, 20_000]) {
       const plan = join(dir, `plan-${sweeps}.json`);
       writeFileSync(plan, JSON.stringify({ start: 0, stop: 9, points: 10, compliance: 1e-3, repeat: sweeps }));
       const t0 = performance.now();
-      const r = spawnSync(process.execPath, ['--expose-gc', '--require', preload, CLI, 'run', '--config', cfg, '--plan', plan, '--fast', '--json', '--data', join(dir, 'data')], { encoding: 'utf8', timeout: 1_800_000, maxBuffer: 1 << 24 });
+      const r = spawnSync(
+        process.execPath,
+        ['--expose-gc', '--require', preload, CLI, 'run', '--config', cfg, '--plan', plan, '--fast', '--json', '--data', join(dir, 'data')],
+        { encoding: 'utf8', timeout: 1_800_000, maxBuffer: 1 << 24 },
+      );
       const s = (performance.now() - t0) / 1000;
       const m = /memory (\{.*\})/.exec(r.stderr);
       const out = r.stdout.trim() ? (JSON.parse(r.stdout.trim().split('\n').at(-1) as string) as { outcome: string; sweeps: number }) : undefined;
@@ -42,7 +49,12 @@ export function benchStationRun(): void {
       const mem = JSON.parse(m[1]) as { rss: number; heap: number; peak: number };
       const mb = (x: number) => (x / 2 ** 20).toFixed(0);
       report(`run --fast, ${sweeps} sweeps of 10 points: time per sweep`, (1000 * s) / sweeps, `ms (whole process ${s.toFixed(1)} s)`);
-      report(`  memory at the end (after GC)`, mem.rss / 2 ** 20, `MB RSS, heap ${mb(mem.heap)} MB, peak RSS ${mb(mem.peak)} MB`, sweeps === 20_000 ? 'flat: as after 500' : undefined);
+      report(
+        `  memory at the end (after GC)`,
+        mem.rss / 2 ** 20,
+        `MB RSS, heap ${mb(mem.heap)} MB, peak RSS ${mb(mem.peak)} MB`,
+        sweeps === 20_000 ? 'flat: as after 500' : undefined,
+      );
       rmSync(join(dir, 'data'), { recursive: true, force: true });
     }
   } finally {

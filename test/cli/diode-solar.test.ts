@@ -13,8 +13,14 @@ import { thermalVoltage } from '../../daemon/analysis/constants.js';
 import { runCli, tempFile } from '../helpers/cli.js';
 import { PROJECT_ROOT } from '../helpers/reference.js';
 
-const V = [-0.2057, -0.1291, -0.0588, 0.0057, 0.0646, 0.1185, 0.1678, 0.2132, 0.2545, 0.2924, 0.3269, 0.3585, 0.3873, 0.4137, 0.4373, 0.459, 0.4784, 0.496, 0.5119, 0.5265, 0.5398, 0.5521, 0.5633, 0.5736, 0.5833, 0.59];
-const I = [0.764, 0.762, 0.7605, 0.7605, 0.76, 0.759, 0.757, 0.757, 0.7555, 0.754, 0.7505, 0.7465, 0.7385, 0.728, 0.7065, 0.6755, 0.632, 0.573, 0.499, 0.413, 0.3165, 0.212, 0.1035, -0.01, -0.123, -0.21];
+const V = [
+  -0.2057, -0.1291, -0.0588, 0.0057, 0.0646, 0.1185, 0.1678, 0.2132, 0.2545, 0.2924, 0.3269, 0.3585, 0.3873, 0.4137, 0.4373, 0.459, 0.4784, 0.496, 0.5119,
+  0.5265, 0.5398, 0.5521, 0.5633, 0.5736, 0.5833, 0.59,
+];
+const I = [
+  0.764, 0.762, 0.7605, 0.7605, 0.76, 0.759, 0.757, 0.757, 0.7555, 0.754, 0.7505, 0.7465, 0.7385, 0.728, 0.7065, 0.6755, 0.632, 0.573, 0.499, 0.413, 0.3165,
+  0.212, 0.1035, -0.01, -0.123, -0.21,
+];
 // As an SMU records an illuminated cell: current into the device positive (load convention).
 const smuCsv = tempFile('rtc.csv', `V,I\n${V.map((v, k) => `${v},${-I[k]}`).join('\n')}\n`);
 const genCsv = tempFile('rtc-gen.csv', `V,I\n${V.map((v, k) => `${v},${I[k]}`).join('\n')}\n`);
@@ -32,7 +38,9 @@ describe('plumbline fit with the diode models', () => {
 
   it('the same cell read with --convention generator from a generator-convention file gives the same fit', () => {
     const a = JSON.parse(runCli(['fit', smuCsv, '--model', 'single-diode', '--illuminated', '--temperature', '306.15 K', '--json']).stdout);
-    const b = JSON.parse(runCli(['fit', genCsv, '--model', 'single-diode', '--illuminated', '--temperature', '306.15 K', '--convention', 'generator', '--json']).stdout);
+    const b = JSON.parse(
+      runCli(['fit', genCsv, '--model', 'single-diode', '--illuminated', '--temperature', '306.15 K', '--convention', 'generator', '--json']).stdout,
+    );
     expect(b.rmse).toBeCloseTo(a.rmse, 12);
     expect(b.parameters.idealityFactor.value).toBeCloseTo(a.parameters.idealityFactor.value, 8);
   });
@@ -41,7 +49,15 @@ describe('plumbline fit with the diode models', () => {
     const r = runCli(['fit', smuCsv, '--model', 'double-diode', '--illuminated', '--temperature', '33 degC', '--objective', 'implicit', '--json']);
     expect(r.code, r.stderr).toBe(0);
     const j = JSON.parse(r.stdout);
-    expect(Object.keys(j.parameters)).toEqual(['photocurrent', 'saturationCurrent1', 'idealityFactor1', 'saturationCurrent2', 'idealityFactor2', 'seriesResistance', 'shuntResistance']);
+    expect(Object.keys(j.parameters)).toEqual([
+      'photocurrent',
+      'saturationCurrent1',
+      'idealityFactor1',
+      'saturationCurrent2',
+      'idealityFactor2',
+      'seriesResistance',
+      'shuntResistance',
+    ]);
     expect(j.rmseImplicit).toBeCloseTo(9.8248e-4, 7);
   });
 
@@ -63,7 +79,6 @@ describe('plumbline fit with the diode models', () => {
     expect(j.parameters.barrierHeight.value).toBeCloseTo(0.7, 3);
     expect(j.parameters.barrierHeight.unit).toBe('eV');
   });
-
 });
 
 describe('plumbline solar', () => {
@@ -108,12 +123,25 @@ describe('plumbline solar', () => {
 describe('the whole path: simulator → journal → export → fit', () => {
   // Not an outside reference (the simulator uses the same forward model): a check that nothing on
   // the way — driver, journal, export, CSV reading, conventions — loses or bends the data.
-  it('the solar-cell scenario\'s invented cell comes back from an exported session within 3σ', () => {
+  it("the solar-cell scenario's invented cell comes back from an exported session within 3σ", () => {
     const dir = mkdtempSync(join(tmpdir(), 'plumbline-solar-'));
     expect(runCli(['run', '--scenario', 'solar-cell', '--sweeps', '1', '--fast', '--data', join(dir, 'd')]).code).toBe(0);
     const session = join(dir, 'd', readdirSync(join(dir, 'd'))[0]);
     expect(runCli(['export', session, '--out', join(dir, 'x')]).code).toBe(0);
-    const r = runCli(['fit', join(dir, 'x', 'points.csv'), '--x', 'voltage_V', '--y', 'current_A', '--model', 'single-diode', '--illuminated', '--temperature', '298.15 K', '--json']);
+    const r = runCli([
+      'fit',
+      join(dir, 'x', 'points.csv'),
+      '--x',
+      'voltage_V',
+      '--y',
+      'current_A',
+      '--model',
+      'single-diode',
+      '--illuminated',
+      '--temperature',
+      '298.15 K',
+      '--json',
+    ]);
     expect(r.code, r.stderr).toBe(0);
     const p = JSON.parse(r.stdout).parameters;
     const truth = JSON.parse(readFileSync(join(PROJECT_ROOT, 'config', 'scenarios', 'solar-cell.json'), 'utf8')).device.params;

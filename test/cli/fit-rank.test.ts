@@ -43,7 +43,9 @@ describe('plumbline fit with physics and units', () => {
   const csv = `bias_V,current_A\n${v.map((x) => `${x},${fowlerNordheim(x / d, 3.2, 0.42) * 1e-8}`).join('\n')}\n`;
   it('units in quantities: "10 nm" and "1e-4 cm^2" give the same result as bare SI numbers', () => {
     const file = tempFile('fn.csv', csv);
-    const a = JSON.parse(runCli(['fit', file, '--model', 'fowler-nordheim', '--thickness', '10 nm', '--area', '1e-4 cm^2', '--mass-ratio', '0.42', '--json']).stdout);
+    const a = JSON.parse(
+      runCli(['fit', file, '--model', 'fowler-nordheim', '--thickness', '10 nm', '--area', '1e-4 cm^2', '--mass-ratio', '0.42', '--json']).stdout,
+    );
     const b = JSON.parse(runCli(['fit', file, '--model', 'fowler-nordheim', '--thickness', '1e-8', '--area', '1e-8', '--mass-ratio', '0.42', '--json']).stdout);
     // Noise-free Fowler–Nordheim data (Forbes constants) give the barrier back exactly.
     expect(a.parameters.barrierHeight.value).toBeCloseTo(3.2, 9);
@@ -128,7 +130,16 @@ describe('text columns that are not used', () => {
 });
 
 describe('whole sweeps from the command line, no window given (test/helpers/whole-sweep.ts)', () => {
-  const spec = { device: { kind: 'fowler-nordheim', barrier: 3.1, massRatio: 0.42 } as const, thickness: 7e-9, area: 1e-8, leakage: 1e13, bias: linearBias(-10, 10, 201), relative: 0.02, floor: 1e-13, compliance: 1e-3 };
+  const spec = {
+    device: { kind: 'fowler-nordheim', barrier: 3.1, massRatio: 0.42 } as const,
+    thickness: 7e-9,
+    area: 1e-8,
+    leakage: 1e13,
+    bias: linearBias(-10, 10, 201),
+    relative: 0.02,
+    floor: 1e-13,
+    compliance: 1e-3,
+  };
   const args = ['--thickness', '7 nm', '--area', '1e-4 cm^2', '--mass-ratio', '0.42'];
   it('fit: the barrier of each branch within 0.05 eV, the floor reported, every exclusion named', () => {
     const file = tempFile('fn-whole.csv', toCsv(wholeSweep({ ...spec, seed: 11 })));
@@ -178,7 +189,13 @@ describe('files with a sweep column (an exported points.csv): pooling is never s
 });
 
 describe('window flags on the nonlinear diode models', () => {
-  const d = wholeSweep({ device: { kind: 'diode', saturationCurrent: 1e-12, ideality: 1.2, series: 2, shunt: 1e8 }, bias: linearBias(-0.5, 0.7, 121), relative: 0.01, floor: 1e-13, seed: 3 });
+  const d = wholeSweep({
+    device: { kind: 'diode', saturationCurrent: 1e-12, ideality: 1.2, series: 2, shunt: 1e8 },
+    bias: linearBias(-0.5, 0.7, 121),
+    relative: 0.01,
+    floor: 1e-13,
+    seed: 3,
+  });
   it('--auto is refused with the reason; --from/--to restrict the readings fitted and are counted', () => {
     const file = tempFile('diode.csv', toCsv(d));
     const auto = runCli(['fit', file, '--model', 'single-diode', '--temperature', '300 K', '--auto']);

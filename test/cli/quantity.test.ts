@@ -60,18 +60,52 @@ describe('quantities with units: our reader against mathjs units', () => {
     }
     expect(read).toBe((UNITS.length * PREFIXES.length + 1) * 5); // all read by our own reader
     // Offsets apply only to a single underived temperature unit (mathjs Unit.to).
-    for (const [text, kind] of [['5 degC A/(m^2 degC^3)', 'richardson'], ['5 degC^1', 'temperature'], ['-273.15 degC', 'temperature'], ['2 K degC/K', 'temperature']] as const) {
+    for (const [text, kind] of [
+      ['5 degC A/(m^2 degC^3)', 'richardson'],
+      ['5 degC^1', 'temperature'],
+      ['-273.15 degC', 'temperature'],
+      ['2 K degC/K', 'temperature'],
+    ] as const) {
       expect(readQuantity(text), text).toBeDefined();
       expect(ours(text, kind), text).toBe(byMathjs(text, kind));
     }
   });
 
-  const token = fc.constantFrom('m', 'cm', 'nm', 'um', 'mm', 'km', 'V', 'mV', 'kV', 'A', 'mA', 'uA', 'nA', 'pA', 'K', 'mK', 'degC', 'eV', 'meV', 'W', 'mW', 'kg', 's', 'Hz', 'inch', 'degF', 'ohm', 'in');
+  const token = fc.constantFrom(
+    'm',
+    'cm',
+    'nm',
+    'um',
+    'mm',
+    'km',
+    'V',
+    'mV',
+    'kV',
+    'A',
+    'mA',
+    'uA',
+    'nA',
+    'pA',
+    'K',
+    'mK',
+    'degC',
+    'eV',
+    'meV',
+    'W',
+    'mW',
+    'kg',
+    's',
+    'Hz',
+    'inch',
+    'degF',
+    'ohm',
+    'in',
+  );
   const term = fc.tuple(token, fc.constantFrom('', '^2', '^-2', '^ 2', '^3', '^0.5', '^-1')).map(([t, p]) => t + p);
   const joiner = fc.constantFrom(' ', '*', '/', ' / ', ' * ', '');
-  const expr = fc.array(fc.tuple(joiner, term, fc.boolean()), { minLength: 1, maxLength: 4 }).map((parts) =>
-    parts.map(([j, t, paren], k) => (k === 0 ? '' : j) + (paren ? `(${t})` : t)).join(''),
-  );
+  const expr = fc
+    .array(fc.tuple(joiner, term, fc.boolean()), { minLength: 1, maxLength: 4 })
+    .map((parts) => parts.map(([j, t, paren], k) => (k === 0 ? '' : j) + (paren ? `(${t})` : t)).join(''));
   const value = fc.oneof(
     fc.double({ noNaN: true, noDefaultInfinity: true }).map(String),
     fc.integer({ min: -1000, max: 1000 }).map(String),
@@ -89,7 +123,21 @@ describe('quantities with units: our reader against mathjs units', () => {
   });
 
   it('the forms in the README and the usual ones are read without mathjs', () => {
-    for (const text of ['8 nm', '20nm', '1e-4 cm^2', '1e-8 m^2', '300 K', '25 degC', '-0.9 V', '1 mA', '1e-12 A', '1000 W/m^2', '112 A/(cm^2 K^2)', '120 A/(m^2 K^2)', '3.1 eV']) {
+    for (const text of [
+      '8 nm',
+      '20nm',
+      '1e-4 cm^2',
+      '1e-8 m^2',
+      '300 K',
+      '25 degC',
+      '-0.9 V',
+      '1 mA',
+      '1e-12 A',
+      '1000 W/m^2',
+      '112 A/(cm^2 K^2)',
+      '120 A/(m^2 K^2)',
+      '3.1 eV',
+    ]) {
       expect(readQuantity(text), text).toBeDefined();
     }
     const script = [
@@ -102,7 +150,10 @@ describe('quantities with units: our reader against mathjs units', () => {
       `console.log(JSON.stringify({ later: Object.keys(createRequire(import.meta.url).cache).some((k) => k.includes('mathjs')) }));`,
     ].join('\n');
     const r = spawnSync(process.execPath, ['--input-type=module', '-e', script], { encoding: 'utf8', cwd: PROJECT_ROOT });
-    const [first, second] = r.stdout.trim().split('\n').map((l) => JSON.parse(l));
+    const [first, second] = r.stdout
+      .trim()
+      .split('\n')
+      .map((l) => JSON.parse(l));
     expect(first).toEqual({ v: [8e-9, byMathjs('1e-4 cm^2', 'area'), 298.15], loaded: false });
     expect(second).toEqual({ later: true }); // inches: mathjs is asked
   });

@@ -30,11 +30,13 @@ suite('run: a sweep fit line', () => {
   });
 
   it('an implausible fit says NOT PLAUSIBLE and prints every warning; a missing uncertainty is named', () => {
-    const text = describe(fitEvent({
-      parameters: { barrierHeight: { value: 61.3, stdErr: null as unknown as number, unit: 'eV' } },
-      plausible: false,
-      warnings: ['barrier height = 61.3 eV is outside the plausible range 0.3–6 eV', 'the points scatter more than the noise allows'],
-    })) as string;
+    const text = describe(
+      fitEvent({
+        parameters: { barrierHeight: { value: 61.3, stdErr: null as unknown as number, unit: 'eV' } },
+        plausible: false,
+        warnings: ['barrier height = 61.3 eV is outside the plausible range 0.3–6 eV', 'the points scatter more than the noise allows'],
+      }),
+    ) as string;
     const lines = text.split('\n');
     expect(lines[0]).toMatch(/barrierHeight = 61\.3\d* eV \(uncertainty not determined\) — NOT PLAUSIBLE$/);
     expect(lines.slice(1)).toEqual([

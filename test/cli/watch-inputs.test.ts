@@ -9,11 +9,14 @@ import { describe, expect, it } from 'vitest';
 import { runCli } from '../helpers/cli.js';
 import { tempDir } from '../helpers/daemon.js';
 
-describe('watch with the device\'s inputs', () => {
+describe("watch with the device's inputs", () => {
   it('uses --thickness, --area and --temperature and says so', () => {
     const data = join(tempDir(), 'data');
     const csv = `V,I\n${Array.from({ length: 10 }, (_x, k) => `${k * 0.1},${k * 1e-9}`).join('\n')}\n`;
-    const r = runCli(['watch', '-', '--no-page', '--model', 'poole-frenkel', '--thickness', '20 nm', '--area', '1e-4 cm^2', '--temperature', '350 K', '--data', data], csv);
+    const r = runCli(
+      ['watch', '-', '--no-page', '--model', 'poole-frenkel', '--thickness', '20 nm', '--area', '1e-4 cm^2', '--temperature', '350 K', '--data', data],
+      csv,
+    );
     expect(r.code, r.stderr).toBe(0);
     const out = r.stdout + r.stderr;
     expect(out).toMatch(/analysis: poole-frenkel; inputs thickness 20 nm, area 1e-4 cm², temperature 350 K from the options/);

@@ -20,7 +20,7 @@ function draws(n: number, shape: number, scale: number, seed: number): number[] 
 }
 
 describe('plumbline weibull', () => {
-  it('a CSV with one value per device and a survivor column: the --json object has the fixed shape and the analysis\'s numbers', () => {
+  it("a CSV with one value per device and a survivor column: the --json object has the fixed shape and the analysis's numbers", () => {
     const x = draws(25, 9, 1.1e9, 5);
     const cens = x.map((v) => v > 1.2e9);
     const file = tempFile('ebd.csv', `device,E_bd,survived\n${x.map((v, k) => `d${k},${Math.min(v, 1.2e9)},${cens[k] ? 1 : 0}`).join('\n')}\n`);
@@ -40,7 +40,7 @@ describe('plumbline weibull', () => {
     expect(j.points).toHaveLength(direct.failures);
   });
 
-  it('the invented example lot: text in the trade\'s units, the early-failure warning, area scaling through β', () => {
+  it("the invented example lot: text in the trade's units, the early-failure warning, area scaling through β", () => {
     const r = runCli(['weibull', EXAMPLE, '--to-area', '1 cm^2']);
     expect(r.code).toBe(0);
     expect(r.stdout).toMatch(/29 device\(s\), 28 broke down, 1 survived/);
@@ -59,7 +59,13 @@ describe('plumbline weibull', () => {
   it('session folders and data folders: the per-device results beside the journals', () => {
     const data = mkdtempSync(join(tmpdir(), 'plumbline-wb-'));
     const x = draws(12, 10, 1.2e9, 8);
-    x.forEach((v, k) => writeSession(data, { label: `dev${k}`, device: { device: `D${k}`, wafer: 'W1', area: 1e-8 }, results: [{ device: `D${k}`, test: 'voltage-ramp', outcome: 'breakdown', breakdownField: v, chargeToBreakdown: v * 1e-9, area: 1e-8 }] }));
+    x.forEach((v, k) =>
+      writeSession(data, {
+        label: `dev${k}`,
+        device: { device: `D${k}`, wafer: 'W1', area: 1e-8 },
+        results: [{ device: `D${k}`, test: 'voltage-ramp', outcome: 'breakdown', breakdownField: v, chargeToBreakdown: v * 1e-9, area: 1e-8 }],
+      }),
+    );
     const a = JSON.parse(runCli(['weibull', data, '--json']).stdout);
     const direct = analyzeWeibull({ values: x }, { unit: 'V/m' });
     expect(a.n).toBe(12);
@@ -76,8 +82,12 @@ describe('plumbline weibull', () => {
     const data = mkdtempSync(join(tmpdir(), 'plumbline-wbk-'));
     const ramp = draws(10, 12, 1.2e9, 21);
     const cvs = draws(6, 30, 0.9e9, 22);
-    ramp.forEach((v, k) => writeSession(data, { label: `r${k}`, results: [{ device: `R${k}`, test: 'voltage-ramp', outcome: 'breakdown', breakdownField: v }] }));
-    cvs.forEach((v, k) => writeSession(data, { label: `c${k}`, results: [{ device: `C${k}`, test: 'constant-voltage', outcome: 'breakdown', breakdownField: v }] }));
+    ramp.forEach((v, k) =>
+      writeSession(data, { label: `r${k}`, results: [{ device: `R${k}`, test: 'voltage-ramp', outcome: 'breakdown', breakdownField: v }] }),
+    );
+    cvs.forEach((v, k) =>
+      writeSession(data, { label: `c${k}`, results: [{ device: `C${k}`, test: 'constant-voltage', outcome: 'breakdown', breakdownField: v }] }),
+    );
     let r = runCli(['weibull', data]);
     expect(r.code).toBe(2);
     expect(r.stdout).toBe('');
@@ -135,12 +145,14 @@ describe('plumbline lot', () => {
   it('writes the report and reads the summaries from the cache the second time', () => {
     const data = mkdtempSync(join(tmpdir(), 'plumbline-lotcli-'));
     const x = draws(9, 10, 1.2e9, 3);
-    x.forEach((v, k) => writeSession(data, {
-      label: `s${k}`,
-      device: { device: `D${k}`, wafer: 'W1', site: `S${k}`, x: k % 3, y: Math.floor(k / 3), area: 1e-8 },
-      fits: [{ params: { barrierHeight: [3.1 + 0.01 * k, 0.01, 'eV'] } }],
-      results: [{ device: `D${k}`, test: 'voltage-ramp', outcome: 'breakdown', breakdownField: v }],
-    }));
+    x.forEach((v, k) =>
+      writeSession(data, {
+        label: `s${k}`,
+        device: { device: `D${k}`, wafer: 'W1', site: `S${k}`, x: k % 3, y: Math.floor(k / 3), area: 1e-8 },
+        fits: [{ params: { barrierHeight: [3.1 + 0.01 * k, 0.01, 'eV'] } }],
+        results: [{ device: `D${k}`, test: 'voltage-ramp', outcome: 'breakdown', breakdownField: v }],
+      }),
+    );
     const out = join(data, 'lot.html');
     let r = runCli(['lot', data, '--out', out]);
     expect(r.code).toBe(0);

@@ -89,11 +89,25 @@ function chargeWithin(dir: string, measured: number | undefined, truth: number) 
 }
 
 describe('voltage ramp to breakdown', () => {
-  it('finds the breakdown, turns the output off at once, and gives Q_bd and E_bd within 5 % of the device\'s own', async () => {
+  it("finds the breakdown, turns the output off at once, and gives Q_bd and E_bd within 5 % of the device's own", async () => {
     const { inst, devices } = await instruments((n) => new SimulatedSmu({ device: WEAROUT.device, seed: 40 + n, realTime: false }));
     const dir = tempDir();
-    const plan = { kind: 'voltage-ramp', start: 7.5, stop: 12, step: 0.02, stepTime: 0.02, compliance: 0.01, useVoltage: 1, useCurrentLimit: 1e-6, device: { device: 'PL11-A1', wafer: 'PL-11', site: 'A1' } };
-    const res = await runPlan(dir, { instrument: inst, limits: LIMITS, analysis: { model: 'fowler-nordheim', window: 'auto', inputs: WEAROUT.device.inputs } }, plan);
+    const plan = {
+      kind: 'voltage-ramp',
+      start: 7.5,
+      stop: 12,
+      step: 0.02,
+      stepTime: 0.02,
+      compliance: 0.01,
+      useVoltage: 1,
+      useCurrentLimit: 1e-6,
+      device: { device: 'PL11-A1', wafer: 'PL-11', site: 'A1' },
+    };
+    const res = await runPlan(
+      dir,
+      { instrument: inst, limits: LIMITS, analysis: { model: 'fowler-nordheim', window: 'auto', inputs: WEAROUT.device.inputs } },
+      plan,
+    );
     const smu = devices[0];
     const truth = smu.device.breakdown;
     expect(truth, 'the device broke').toBeDefined();
@@ -110,7 +124,10 @@ describe('voltage ramp to breakdown', () => {
     // step when it broke between a reading and the next level (it is only seen at a reading).
     const log = smu.log;
     const offAfterRamp = log.findIndex((l, k) => l === ':OUTP OFF' && log.slice(0, k).filter((x) => x === ':OUTP ON').length === 2);
-    const ramp = log.slice(0, offAfterRamp).filter((l) => l.startsWith(':SOUR:VOLT ')).map((l) => Number(l.split(' ')[1]));
+    const ramp = log
+      .slice(0, offAfterRamp)
+      .filter((l) => l.startsWith(':SOUR:VOLT '))
+      .map((l) => Number(l.split(' ')[1]));
     expect(Math.max(...ramp)).toBeCloseTo(row.breakdownVoltage!, 9);
     expect(Math.max(...ramp) - truth!.voltage).toBeGreaterThanOrEqual(-1e-9);
     expect(Math.max(...ramp) - truth!.voltage).toBeLessThanOrEqual(plan.step + 1e-9);
@@ -169,11 +186,16 @@ describe('ramp rate', () => {
 });
 
 describe('current ramp to breakdown', () => {
-  it('forces rising currents until the voltage collapses; Q_bd within 5 % of the device\'s own', async () => {
+  it("forces rising currents until the voltage collapses; Q_bd within 5 % of the device's own", async () => {
     const { inst, devices } = await instruments(() => new SimulatedSmu({ device: WEAROUT.device, seed: 77, realTime: false }));
     const dir = tempDir();
     const plan = { kind: 'current-ramp', start: 1e-6, stop: 1e-2, stepsPerDecade: 40, stepTime: 0.02, voltageLimit: 14 };
-    const cfg = writeConfig(dir, { instrument: inst, limits: LIMITS, plan, analysis: { model: 'fowler-nordheim', window: 'auto', inputs: WEAROUT.device.inputs } });
+    const cfg = writeConfig(dir, {
+      instrument: inst,
+      limits: LIMITS,
+      plan,
+      analysis: { model: 'fowler-nordheim', window: 'auto', inputs: WEAROUT.device.inputs },
+    });
     const r = await runCliAsync(['run', '--config', cfg, '--data', join(dir, 'data'), '--json']);
     expect(r.code, r.stderr).toBe(0);
     const res = JSON.parse(r.stdout);
@@ -204,14 +226,27 @@ describe('current ramp to breakdown', () => {
 });
 
 describe('constant-voltage stress', () => {
-  it('holds the stress, senses in between, and finds the breakdown; Q_bd within 5 % of the device\'s own', async () => {
+  it("holds the stress, senses in between, and finds the breakdown; Q_bd within 5 % of the device's own", async () => {
     const { inst, devices } = await instruments(() => new SimulatedSmu({ device: WEAROUT.device, seed: 12, realTime: false }));
     const dir = tempDir();
-    const plan = { kind: 'constant-voltage', stress: 9, duration: 30, sampleEvery: 0.03, compliance: 0.01, sense: { start: 0, stop: 2, points: 5, every: 0.2 } };
+    const plan = {
+      kind: 'constant-voltage',
+      stress: 9,
+      duration: 30,
+      sampleEvery: 0.03,
+      compliance: 0.01,
+      sense: { start: 0, stop: 2, points: 5, every: 0.2 },
+    };
     // One step between the stress and the sense sweep: the charge passed on the way (not measured,
     // so not counted) stays negligible.
     // The status-word dialect's readings carry the instrument's own time, which the stress clock uses.
-    const cfg = writeConfig(dir, { instrument: inst, dialect: 'protection-status', limits: { ...LIMITS, rampStep: 10 }, plan, analysis: { model: 'fowler-nordheim', window: 'auto', inputs: WEAROUT.device.inputs } });
+    const cfg = writeConfig(dir, {
+      instrument: inst,
+      dialect: 'protection-status',
+      limits: { ...LIMITS, rampStep: 10 },
+      plan,
+      analysis: { model: 'fowler-nordheim', window: 'auto', inputs: WEAROUT.device.inputs },
+    });
     const r = await runCliAsync(['run', '--config', cfg, '--data', join(dir, 'data'), '--json']);
     expect(r.code, r.stderr).toBe(0);
     const res = JSON.parse(r.stdout);
@@ -221,14 +256,16 @@ describe('constant-voltage stress', () => {
     expect(row).toMatchObject({ test: 'constant-voltage', outcome: 'breakdown', breakdownVoltage: 9 });
     chargeWithin(res.dir, row.chargeToBreakdown, truth!.charge);
     // The sense sweeps are journaled as their own sweeps between stress intervals.
-    const labels = events(res.dir).filter((e) => e.type === 'sweep-start').map((e) => (e.type === 'sweep-start' ? e.label : ''));
+    const labels = events(res.dir)
+      .filter((e) => e.type === 'sweep-start')
+      .map((e) => (e.type === 'sweep-start' ? e.label : ''));
     expect(labels.filter((l) => l.startsWith('sense sweep')).length).toBeGreaterThan(0);
     expect(devices[0].output).toBe(false);
   });
 });
 
 describe('a lot ramped to breakdown, then weibull', () => {
-  it('30 devices through the station; the Weibull fit of Q_bd brackets the simulator\'s shape and scale', async () => {
+  it("30 devices through the station; the Weibull fit of Q_bd brackets the simulator's shape and scale", async () => {
     // No field acceleration: then the charge a device passes before it breaks is its own Weibull
     // draw whatever the ramp, so the simulator's β and η are the truth the fit must bracket.
     const spec = { ...WEAROUT.device, wearout: { shape: 2, chargeScale: 2000, referenceField: 1.4e9, fieldAcceleration: 0, referenceArea: 1e-8 } };
@@ -239,7 +276,15 @@ describe('a lot ramped to breakdown, then weibull', () => {
     const d = await startDaemon(['--config', cfg, '--data', data]);
     cleanups.push(() => d.stop());
     for (let n = 1; n <= 30; n++) {
-      const plan = { kind: 'voltage-ramp', start: 7, stop: 13, step: 0.05, stepTime: 0.005, compliance: 0.01, device: { device: `D${n}`, wafer: 'PL-11', site: `S${n}` } };
+      const plan = {
+        kind: 'voltage-ramp',
+        start: 7,
+        stop: 13,
+        step: 0.05,
+        stepTime: 0.005,
+        compliance: 0.01,
+        device: { device: `D${n}`, wafer: 'PL-11', site: `S${n}` },
+      };
       const start = await api(d.url, 'POST', '/api/run', { plan });
       expect(start.status, JSON.stringify(start.json)).toBe(201);
       for (let k = 0; k < 2000 && (await api(d.url, 'GET', '/api/status')).json.running; k++) await new Promise((res) => setTimeout(res, 20));

@@ -116,7 +116,8 @@ describe('kill -9 at random moments', () => {
       const planned = new Map<number, number>();
       for (const e of events) {
         if (e.type === 'sweep-start') planned.set(e.sweep, e.planned);
-        if (e.type === 'sweep-end') expect(e.complete, `sweep ${e.sweep} of ${s}: ${e.points} of ${planned.get(e.sweep)} points`).toBe(e.points >= (planned.get(e.sweep) ?? Infinity));
+        if (e.type === 'sweep-end')
+          expect(e.complete, `sweep ${e.sweep} of ${s}: ${e.points} of ${planned.get(e.sweep)} points`).toBe(e.points >= (planned.get(e.sweep) ?? Infinity));
       }
       const x = exportSession(dir, join(dir, 'export'));
       expect(x.readings).toBe(events.filter((e) => e.type === 'reading').length);
@@ -171,7 +172,9 @@ describe('instrument disconnect mid-sweep (loopback TCP)', () => {
     smu.clearFaults();
     const second = await api(daemon.url, 'POST', '/api/run', {});
     expect(second.status, JSON.stringify(second.json)).toBe(201);
-    const end2 = await viewer.waitFor((e) => e.type === 'run-end' && e.seq > 1 && viewer.events.some((s) => s.type === 'session' && s.type === 'session' && s.id === second.json.session));
+    const end2 = await viewer.waitFor(
+      (e) => e.type === 'run-end' && e.seq > 1 && viewer.events.some((s) => s.type === 'session' && s.type === 'session' && s.id === second.json.session),
+    );
     expect(end2.type === 'run-end' && end2.outcome).toBe('completed');
     viewer.close();
   });

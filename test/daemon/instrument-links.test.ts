@@ -48,7 +48,12 @@ describe('a reading that carries its status word', () => {
     const smu = new SimulatedSmu({ device: findScenario('oxide-fn').device, seed: 3, realTime: false });
     const dir = tempDir();
     // 1 nA compliance: the upper part of the sweep is clipped.
-    const cfg = writeConfig(dir, { instrument: await pty(smu), dialect: 'protection-status', plan: { start: 0, stop: 9, points: 46, compliance: 1e-9, repeat: 1 }, analysis: FN });
+    const cfg = writeConfig(dir, {
+      instrument: await pty(smu),
+      dialect: 'protection-status',
+      plan: { start: 0, stop: 9, points: 46, compliance: 1e-9, repeat: 1 },
+      analysis: FN,
+    });
     const r = await runCliAsync(['run', '--config', cfg, '--data', join(dir, 'data'), '--json']);
     expect(r.code, r.stderr).toBe(0);
     const res = JSON.parse(r.stdout);
@@ -75,7 +80,12 @@ describe('terminators', () => {
       const file = join(dir, 'my-smu.json');
       writeFileSync(file, JSON.stringify({ ...base, name: 'my-smu', terminator: v.write, readTerminator: v.read }));
       const smu = new SimulatedSmu({ device: findScenario('oxide-fn').device, seed: 4, realTime: false });
-      const cfg = writeConfig(dir, { instrument: await pty(smu, { readTerminator: v.read, writeTerminator: v.write }), dialect: file, plan: { start: 0, stop: 9, points: 10, compliance: 1e-3, repeat: 2 }, analysis: FN });
+      const cfg = writeConfig(dir, {
+        instrument: await pty(smu, { readTerminator: v.read, writeTerminator: v.write }),
+        dialect: file,
+        plan: { start: 0, stop: 9, points: 10, compliance: 1e-3, repeat: 2 },
+        analysis: FN,
+      });
       const r = await runCliAsync(['run', '--config', cfg, '--data', join(dir, 'data'), '--json']);
       expect(r.code, r.stderr + r.stdout).toBe(0);
       expect(smu.log.filter((l) => l === ':READ?')).toHaveLength(20);
@@ -162,7 +172,11 @@ describe('instrument-paced sweeps', () => {
   it('a dialect without instrument-paced templates refuses the plan, naming the field', async () => {
     const smu = new SimulatedSmu({ device: findScenario('oxide-fn').device, seed: 7, realTime: false });
     const dir = tempDir();
-    const cfg = writeConfig(dir, { instrument: await pty(smu), dialect: 'protection-trip', plan: { start: 0, stop: 9, points: 10, compliance: 1e-3, pacing: 'instrument' } });
+    const cfg = writeConfig(dir, {
+      instrument: await pty(smu),
+      dialect: 'protection-trip',
+      plan: { start: 0, stop: 9, points: 10, compliance: 1e-3, pacing: 'instrument' },
+    });
     const r = await runCliAsync(['run', '--config', cfg, '--data', join(dir, 'data')]);
     expect(r.code).toBe(2);
     expect(r.stderr).toMatch(/field 'pacing'.*no instrument-paced templates/);
@@ -197,7 +211,9 @@ describe('watch on line streams', () => {
     cleanups.push(() => void socat.kill());
     await waitUntil(() => existsSync(pair.a) && existsSync(pair.b), 'socat to make the pty pair', 5000);
     const data = join(tempDir(), 'data');
-    const w = spawn(process.execPath, [CLI, 'watch', `serial:${pair.b}`, '--baud', '115200', '--no-page', '--model', 'ohmic', '--data', data], { stdio: ['ignore', 'pipe', 'pipe'] });
+    const w = spawn(process.execPath, [CLI, 'watch', `serial:${pair.b}`, '--baud', '115200', '--no-page', '--model', 'ohmic', '--data', data], {
+      stdio: ['ignore', 'pipe', 'pipe'],
+    });
     let out = '';
     w.stdout.on('data', (x) => (out += String(x)));
     w.stderr.on('data', (x) => (out += String(x)));
@@ -207,13 +223,17 @@ describe('watch on line streams', () => {
     await new Promise<void>((res, rej) => dev.open((e) => (e ? rej(e) : res())));
     await new Promise<void>((res) => dev.write(rows(100, '\n'), () => dev.drain(() => res())));
     const session = /session (\S+)/.exec(out)?.[1] as string;
-    await waitUntil(() => {
-      try {
-        return journal(join(data, session)).filter((e) => e.type === 'reading').length === 100;
-      } catch {
-        return false;
-      }
-    }, '100 readings journaled', 15_000);
+    await waitUntil(
+      () => {
+        try {
+          return journal(join(data, session)).filter((e) => e.type === 'reading').length === 100;
+        } catch {
+          return false;
+        }
+      },
+      '100 readings journaled',
+      15_000,
+    );
     w.kill('SIGINT');
     await new Promise((r) => w.once('exit', r));
     await new Promise<void>((res) => dev.close(() => res()));

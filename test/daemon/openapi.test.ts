@@ -20,11 +20,14 @@ const ajv = new Ajv2020({ strict: false, allErrors: true });
 const checked = new Set<string>();
 
 beforeAll(async () => {
-  const config = parseConfig({
-    instrument: { kind: 'simulator', scenario: 'oxide-fn', realTime: false, seed: 1 },
-    limits: { maxVoltage: 12, maxCompliance: 2e-3, maxPower: 1.5e-2, rampDelay: 0, rampStep: 2 },
-    drift: { enabled: false },
-  }, 'test config');
+  const config = parseConfig(
+    {
+      instrument: { kind: 'simulator', scenario: 'oxide-fn', realTime: false, seed: 1 },
+      limits: { maxVoltage: 12, maxCompliance: 2e-3, maxPower: 1.5e-2, rampDelay: 0, rampStep: 2 },
+      drift: { enabled: false },
+    },
+    'test config',
+  );
   srv = await startServer(new Station(config, join(tempDir(), 'data')), { host: '127.0.0.1', port: 0 });
   url = srv.url.replace(/\/$/, '');
   doc = await (await fetch(`${url}/api/openapi.json`)).json();
@@ -32,7 +35,13 @@ beforeAll(async () => {
 afterAll(() => srv?.close());
 
 /** Calls a route and checks the reply against the document; returns the JSON (or text). */
-async function call(method: string, path: string, template: string, body?: unknown, headers: Record<string, string> = {}): Promise<{ status: number; json: any }> {
+async function call(
+  method: string,
+  path: string,
+  template: string,
+  body?: unknown,
+  headers: Record<string, string> = {},
+): Promise<{ status: number; json: any }> {
   const r = await fetch(url + path, {
     method,
     headers: { ...(body !== undefined ? { 'content-type': 'application/json' } : {}), ...headers },
@@ -68,12 +77,20 @@ describe('the OpenAPI document', () => {
     }
     const documented = new Set(Object.entries(doc.paths).flatMap(([p, ops]) => Object.keys(ops).map((m) => `${m} ${p}`)));
     routes.delete('get /'); // the page's own files (express.static), not the API
-    expect([...routes].filter((r) => !documented.has(r)), 'routes missing from daemon/server/api-spec.ts').toEqual([]);
-    expect([...documented].filter((r) => !routes.has(r)), 'documented routes the server does not have').toEqual([]);
+    expect(
+      [...routes].filter((r) => !documented.has(r)),
+      'routes missing from daemon/server/api-spec.ts',
+    ).toEqual([]);
+    expect(
+      [...documented].filter((r) => !routes.has(r)),
+      'documented routes the server does not have',
+    ).toEqual([]);
   });
 
-  it('a run request\'s plan is described by the plan kinds\' own schemas: a good plan of each kind validates, a plan with an unknown field does not', () => {
-    const body = (doc.paths['/api/run'].post as unknown as { requestBody: { content: Record<string, { schema: object }> } }).requestBody.content['application/json'].schema;
+  it("a run request's plan is described by the plan kinds' own schemas: a good plan of each kind validates, a plan with an unknown field does not", () => {
+    const body = (doc.paths['/api/run'].post as unknown as { requestBody: { content: Record<string, { schema: object }> } }).requestBody.content[
+      'application/json'
+    ].schema;
     const validate = ajv.compile(body);
     const plans = [
       { start: 0, stop: 5, points: 6, compliance: 1e-3 },
@@ -113,9 +130,14 @@ describe('the OpenAPI document', () => {
     expect((await call('GET', `/api/sessions/${id}/overview?last=0`, '/api/sessions/{id}/overview')).status).toBe(400);
     expect((await call('GET', `/api/sessions/${id}/sweeps/2`, '/api/sessions/{id}/sweeps/{sweep}')).json.readings).toHaveLength(10);
     expect((await call('GET', `/api/sessions/${id}/sweeps/9`, '/api/sessions/{id}/sweeps/{sweep}')).status).toBe(404);
-    const re = await call('POST', `/api/sessions/${id}/reanalyze`, '/api/sessions/{id}/reanalyze', { analysis: { model: 'ohmic', window: 'auto' }, sweeps: [1, 2] });
+    const re = await call('POST', `/api/sessions/${id}/reanalyze`, '/api/sessions/{id}/reanalyze', {
+      analysis: { model: 'ohmic', window: 'auto' },
+      sweeps: [1, 2],
+    });
     expect(re.json.fits.map((f: { sweep: number }) => f.sweep)).toEqual([1, 2]);
-    expect((await call('POST', `/api/sessions/${id}/reanalyze`, '/api/sessions/{id}/reanalyze', { analysis: { model: 'no-such' }, sweeps: [1] })).status).toBe(400);
+    expect((await call('POST', `/api/sessions/${id}/reanalyze`, '/api/sessions/{id}/reanalyze', { analysis: { model: 'no-such' }, sweeps: [1] })).status).toBe(
+      400,
+    );
     expect((await call('GET', `/api/sessions/${id}/sweeps/0/view`, '/api/sessions/{id}/sweeps/{sweep}/view')).status).toBe(400);
     expect((await call('POST', `/api/sessions/${id}/export`, '/api/sessions/{id}/export', {})).json.readings).toBe(20);
     await call('GET', '/api/analysis', '/api/analysis');

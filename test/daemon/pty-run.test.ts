@@ -9,7 +9,7 @@
  * baseline values) recomputed here from the journaled per-sweep barrier heights, with σ from the
  * baseline's moving range / 1.128 (common practice) floored as the station config states.
  */
-import { spawn, } from 'node:child_process';
+import { spawn } from 'node:child_process';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { scanJournal } from '../../daemon/journal/reader.js';
@@ -21,7 +21,6 @@ import { CLI } from '../helpers/cli.js';
 import { api, startDaemon, tempDir, Viewer, writeConfig, type DaemonProcess } from '../helpers/daemon.js';
 
 // socat comes from Debian's packages; the test command's setup step installs it when missing.
-
 
 function ptyConfig(dir: string, path: string, extra: Record<string, unknown> = {}) {
   return writeConfig(dir, { instrument: { kind: 'serial', path, baudRate: 115200 }, ...extra });
@@ -55,7 +54,15 @@ describe('daemon over a real pty', () => {
     dir = tempDir();
     smu = new SimulatedSmu({ device: findScenario('oxide-fn').device, seed: 11, realTime: false });
     pty = await servePty(smu);
-    daemon = await startDaemon(['--config', ptyConfig(dir, pty.clientPath, { plan: { start: 0, stop: 9, points: 46, compliance: 1e-3, repeat: 3 }, analysis: { model: 'fowler-nordheim', window: { from: 5, to: 9 }, inputs: { thickness: 7e-9, area: 1e-8, massRatio: 0.42 } } }), '--data', join(dir, 'data')]);
+    daemon = await startDaemon([
+      '--config',
+      ptyConfig(dir, pty.clientPath, {
+        plan: { start: 0, stop: 9, points: 46, compliance: 1e-3, repeat: 3 },
+        analysis: { model: 'fowler-nordheim', window: { from: 5, to: 9 }, inputs: { thickness: 7e-9, area: 1e-8, massRatio: 0.42 } },
+      }),
+      '--data',
+      join(dir, 'data'),
+    ]);
   });
   afterAll(async () => {
     await daemon?.stop();

@@ -15,7 +15,7 @@ beforeAll(async () => {
 });
 afterAll(() => d?.stop());
 
-describe('the README\'s Python client', () => {
+describe("the README's Python client", () => {
   it('starts a run, waits for it, and reads the export with pandas', () => {
     const readme = readFileSync(join(PROJECT_ROOT, 'README.md'), 'utf8');
     const m = /<!-- python-client -->\s*```python\n([\s\S]*?)```\s*<!-- \/python-client -->/.exec(readme);

@@ -305,7 +305,7 @@ describe('a run with no usable reading', () => {
     expect(smu.output).toBe(false);
   });
 
-  it('all replies the not-a-number value: rejected with the parser\'s reason, and the run is an instrument fault', async () => {
+  it("all replies the not-a-number value: rejected with the parser's reason, and the run is an instrument fault", async () => {
     const smu = simulator({ readingReply: '9.91E37,9.91E37' });
     const dir = tempDir();
     const cfg = writeConfig(dir, { instrument: await tcpInstrument(smu), plan: { ...PLAN, points: 10, repeat: 1 }, analysis: FN });

@@ -18,12 +18,15 @@ const TOKEN = 'a-long-station-token-0123456789';
 const LIMITS = { maxVoltage: 12, maxCompliance: 2e-3, maxPower: 1.5e-2, rampDelay: 0, rampStep: 2 };
 
 function station(extra: Record<string, unknown> = {}) {
-  const config = parseConfig({
-    instrument: { kind: 'simulator', scenario: 'oxide-fn', realTime: false, seed: 1 },
-    limits: LIMITS,
-    drift: { enabled: false },
-    ...extra,
-  }, 'test config');
+  const config = parseConfig(
+    {
+      instrument: { kind: 'simulator', scenario: 'oxide-fn', realTime: false, seed: 1 },
+      limits: LIMITS,
+      drift: { enabled: false },
+      ...extra,
+    },
+    'test config',
+  );
   // The property test reads every line its runs sent: keep them all.
   return new Station(config, join(tempDir(), 'data'), { simulatorRecords: 200_000 });
 }
@@ -77,15 +80,19 @@ describe('security rules', () => {
     const url = srv.url.replace(/\/$/, '');
     const { WebSocket } = await import('ws');
     const foreign = new WebSocket(`${url.replace('http', 'ws')}/ws?token=${TOKEN}`, { origin: 'http://elsewhere.example' });
-    await expect(new Promise((res, rej) => {
-      foreign.once('open', res);
-      foreign.once('unexpected-response', (_q, r) => rej(new Error(String(r.statusCode))));
-    })).rejects.toThrow('403');
+    await expect(
+      new Promise((res, rej) => {
+        foreign.once('open', res);
+        foreign.once('unexpected-response', (_q, r) => rej(new Error(String(r.statusCode))));
+      }),
+    ).rejects.toThrow('403');
     const noToken = new WebSocket(`${url.replace('http', 'ws')}/ws`, { origin: url });
-    await expect(new Promise((res, rej) => {
-      noToken.once('open', res);
-      noToken.once('unexpected-response', (_q, r) => rej(new Error(String(r.statusCode))));
-    })).rejects.toThrow('401');
+    await expect(
+      new Promise((res, rej) => {
+        noToken.once('open', res);
+        noToken.once('unexpected-response', (_q, r) => rej(new Error(String(r.statusCode))));
+      }),
+    ).rejects.toThrow('401');
     const good = new WebSocket(`${url.replace('http', 'ws')}/ws?token=${TOKEN}`, { origin: url });
     const first = await new Promise<string>((res, rej) => {
       good.once('message', (d) => res(String(d)));
@@ -205,7 +212,9 @@ describe('hard limits on the wire (property test)', () => {
       fc.constant({ method: 'POST', path: '/api/run/stop', body: {} as unknown }),
       fc.constant({ method: 'POST', path: '/api/run/abort', body: {} as unknown }),
       fc.jsonValue().map((j) => ({ method: 'POST', path: '/api/run', body: { plan: j } as unknown })),
-      fc.constantFrom('ohmic', 'fowler-nordheim', 'schottky').map((m) => ({ method: 'PUT', path: '/api/analysis', body: { model: m, inputs: { thickness: 1e-8 } } as unknown })),
+      fc
+        .constantFrom('ohmic', 'fowler-nordheim', 'schottky')
+        .map((m) => ({ method: 'PUT', path: '/api/analysis', body: { model: m, inputs: { thickness: 1e-8 } } as unknown })),
     );
     try {
       await fc.assert(
@@ -213,7 +222,9 @@ describe('hard limits on the wire (property test)', () => {
           for (const c of cmds) {
             const t0 = Date.now();
             const r = await api(url, c.method, c.path, c.body).catch((e: Error) => {
-              throw new Error(`${c.method} ${c.path} ${JSON.stringify(c.body).slice(0, 200)} failed after ${Date.now() - t0} ms: ${e.message}; running=${st.running}`);
+              throw new Error(
+                `${c.method} ${c.path} ${JSON.stringify(c.body).slice(0, 200)} failed after ${Date.now() - t0} ms: ${e.message}; running=${st.running}`,
+              );
             });
             if (Date.now() - t0 > 3000) console.error(`slow: ${c.method} ${c.path} ${JSON.stringify(c.body).slice(0, 200)} took ${Date.now() - t0} ms`);
             expect(r.status, JSON.stringify(r.json)).toBeLessThan(500);

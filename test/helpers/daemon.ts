@@ -13,12 +13,15 @@ export function tempDir(prefix = 'plumbline-daemon-'): string {
 
 export function writeConfig(dir: string, config: Record<string, unknown>): string {
   const file = join(dir, 'station.json');
-  writeFileSync(file, JSON.stringify({
-    dialect: 'protection-trip',
-    limits: { maxVoltage: 20, maxCompliance: 0.01, maxPower: 0.1, rampDelay: 0 },
-    server: { host: '127.0.0.1', port: 0 },
-    ...config,
-  }));
+  writeFileSync(
+    file,
+    JSON.stringify({
+      dialect: 'protection-trip',
+      limits: { maxVoltage: 20, maxCompliance: 0.01, maxPower: 0.1, rampDelay: 0 },
+      server: { host: '127.0.0.1', port: 0 },
+      ...config,
+    }),
+  );
   return file;
 }
 
@@ -62,7 +65,13 @@ export function startDaemon(args: string[]): Promise<DaemonProcess> {
   });
 }
 
-export async function api(url: string, method: string, path: string, body?: unknown, headers: Record<string, string> = {}): Promise<{ status: number; json: any }> {
+export async function api(
+  url: string,
+  method: string,
+  path: string,
+  body?: unknown,
+  headers: Record<string, string> = {},
+): Promise<{ status: number; json: any }> {
   const r = await fetch(url + path, {
     // A request that hangs fails the test with its path instead of stalling it.
     signal: AbortSignal.timeout(15_000),
@@ -94,9 +103,11 @@ export class Viewer {
       const m = JSON.parse(String(data)) as ServerMessage;
       this.messages.push(m);
       const evs: WireEvent[] =
-        m.kind === 'snapshot' ? [...m.snapshot.events, ...m.snapshot.readings.map(unpackReading)]
-        : m.kind === 'events' ? [...m.events, ...m.readings.map(unpackReading)]
-        : [];
+        m.kind === 'snapshot'
+          ? [...m.snapshot.events, ...m.snapshot.readings.map(unpackReading)]
+          : m.kind === 'events'
+            ? [...m.events, ...m.readings.map(unpackReading)]
+            : [];
       evs.sort((a, b) => a.seq - b.seq);
       for (const e of evs) {
         if (e.type === 'session') this.lastSeq = 0;

@@ -15,7 +15,7 @@ export function scipyPython(): string {
     const r = spawnSync(py, ['-c', 'import scipy'], { stdio: 'ignore' });
     if (r.status === 0) return (found = py);
   }
-  throw new Error('no python3 with scipy: run `npm test` (its setup installs Debian\'s python3-scipy) or `apt-get install python3-scipy`');
+  throw new Error("no python3 with scipy: run `npm test` (its setup installs Debian's python3-scipy) or `apt-get install python3-scipy`");
 }
 
 export function runScipy<T>(code: string, input: unknown): T {

@@ -41,7 +41,9 @@ function which(paths: string[]): string | undefined {
 function pgBin(): string | undefined {
   const root = '/usr/lib/postgresql';
   if (!existsSync(root)) return undefined;
-  const majors = readdirSync(root).filter((v) => existsSync(join(root, v, 'bin', 'initdb'))).sort((a, b) => Number(b) - Number(a));
+  const majors = readdirSync(root)
+    .filter((v) => existsSync(join(root, v, 'bin', 'initdb')))
+    .sort((a, b) => Number(b) - Number(a));
   return majors.length ? join(root, majors[0], 'bin') : undefined;
 }
 
@@ -140,10 +142,14 @@ export async function startMosquitto(options: { user?: { name: string; password:
     c.stdout?.on('data', (d) => (out += String(d)));
     c.stderr?.on('data', (d) => (out += String(d)));
     c.once('exit', () => children.delete(c.pid!));
-    await waitFor(async () => {
-      if (c.exitCode !== null) throw new Error(`mosquitto exited (${c.exitCode}): ${out}`);
-      return portOpen(port);
-    }, 10_000, `mosquitto on port ${port}`);
+    await waitFor(
+      async () => {
+        if (c.exitCode !== null) throw new Error(`mosquitto exited (${c.exitCode}): ${out}`);
+        return portOpen(port);
+      },
+      10_000,
+      `mosquitto on port ${port}`,
+    );
   };
   const end = (signal: NodeJS.Signals) =>
     new Promise<void>((resolve) => {
@@ -188,7 +194,8 @@ export async function startPostgres(): Promise<Database> {
   const dir = mkdtempSync(join(tmpdir(), 'plumbline-pg-'));
   const data = join(dir, 'data');
   const port = 20000 + Math.floor(Math.random() * 20000);
-  const asUser = (cmd: string, args: string[]) => (isRoot ? spawnSync('runuser', ['-u', 'postgres', '--', cmd, ...args], { encoding: 'utf8' }) : spawnSync(cmd, args, { encoding: 'utf8' }));
+  const asUser = (cmd: string, args: string[]) =>
+    isRoot ? spawnSync('runuser', ['-u', 'postgres', '--', cmd, ...args], { encoding: 'utf8' }) : spawnSync(cmd, args, { encoding: 'utf8' });
   if (isRoot) {
     const uid = Number(spawnSync('id', ['-u', 'postgres'], { encoding: 'utf8' }).stdout.trim());
     const gid = Number(spawnSync('id', ['-g', 'postgres'], { encoding: 'utf8' }).stdout.trim());
@@ -198,12 +205,16 @@ export async function startPostgres(): Promise<Database> {
   if (init.status !== 0) throw new Error(`initdb failed: ${init.stderr}`);
   const opts = `-c listen_addresses='' -k ${dir} -p ${port} -c shared_buffers=32MB -c max_connections=20 -c fsync=on -c max_wal_size=256MB`;
   const start = asUser(join(bin, 'pg_ctl'), ['-D', data, '-l', join(dir, 'server.log'), '-w', '-t', '30', '-o', opts, 'start']);
-  if (start.status !== 0) throw new Error(`pg_ctl start failed: ${start.stderr}${existsSync(join(dir, 'server.log')) ? readFileSync(join(dir, 'server.log'), 'utf8') : ''}`);
+  if (start.status !== 0)
+    throw new Error(`pg_ctl start failed: ${start.stderr}${existsSync(join(dir, 'server.log')) ? readFileSync(join(dir, 'server.log'), 'utf8') : ''}`);
   const pid = Number.parseInt(readFileSync(join(data, 'postmaster.pid'), 'utf8'), 10);
   children.add(pid);
   const psqlBin = join(bin, 'psql');
   const psql = (sql: string, db = 'plumbline') => {
-    const r = spawnSync(psqlBin, ['-h', dir, '-p', String(port), '-U', 'postgres', '-d', db, '-X', '-A', '-t', '-v', 'ON_ERROR_STOP=1', '-c', sql], { encoding: 'utf8', maxBuffer: 1 << 28 });
+    const r = spawnSync(psqlBin, ['-h', dir, '-p', String(port), '-U', 'postgres', '-d', db, '-X', '-A', '-t', '-v', 'ON_ERROR_STOP=1', '-c', sql], {
+      encoding: 'utf8',
+      maxBuffer: 1 << 28,
+    });
     if (r.status !== 0) throw new Error(`psql: ${r.stderr}`);
     return r.stdout.trim();
   };

@@ -67,20 +67,29 @@ export function readChart(svg: string, log: { x?: boolean; y?: boolean } = {}): 
   const xLabel = /<text x="[\d.]+" y="[\d.]+" text-anchor="middle" class="ax">([^<]*)<\/text>/.exec(svg)?.[1] ?? '';
   const yLabel = /rotate\(-90\)" text-anchor="middle" class="ax">([^<]*)<\/text>/.exec(svg)?.[1] ?? '';
   const xt = [...svg.matchAll(/<text x="([\d.]+)" y="[\d.]+" text-anchor="middle">([^<]*)<\/text>/g)].map((m) => ({ px: num(m[1]), value: tickValue(m[2]) }));
-  const yt = [...svg.matchAll(/<text x="[\d.]+" y="([\d.]+)" text-anchor="end" dominant-baseline="middle">([^<]*)<\/text>/g)].map((m) => ({ px: num(m[1]), value: tickValue(m[2]) }));
+  const yt = [...svg.matchAll(/<text x="[\d.]+" y="([\d.]+)" text-anchor="end" dominant-baseline="middle">([^<]*)<\/text>/g)].map((m) => ({
+    px: num(m[1]),
+    value: tickValue(m[2]),
+  }));
   const x = axis(xt, log.x ?? looksLog(xt.map((t) => t.value)));
   const y = axis(yt, log.y ?? looksLog(yt.map((t) => t.value)));
   const markers: ReadChart['markers'] = [];
-  const at = (shape: ReadChart['markers'][number]['shape'], color: string, px: number, py: number) => markers.push({ shape, color, px, py, x: x.value(px), y: y.value(py) });
-  for (const m of svg.matchAll(/<circle cx="([-\d.]+)" cy="([-\d.]+)" r="2.6" fill="([^"]+)"( stroke="([^"]+)")?\/>/g)) at(m[4] ? 'ring' : 'dot', m[5] ?? m[3], num(m[1]), num(m[2]));
-  for (const m of svg.matchAll(/<rect x="([-\d.]+)" y="([-\d.]+)" width="6" height="6" fill="#fff" stroke="([^"]+)"/g)) at('square', m[3], num(m[1]) + 3, num(m[2]) + 3);
+  const at = (shape: ReadChart['markers'][number]['shape'], color: string, px: number, py: number) =>
+    markers.push({ shape, color, px, py, x: x.value(px), y: y.value(py) });
+  for (const m of svg.matchAll(/<circle cx="([-\d.]+)" cy="([-\d.]+)" r="2.6" fill="([^"]+)"( stroke="([^"]+)")?\/>/g))
+    at(m[4] ? 'ring' : 'dot', m[5] ?? m[3], num(m[1]), num(m[2]));
+  for (const m of svg.matchAll(/<rect x="([-\d.]+)" y="([-\d.]+)" width="6" height="6" fill="#fff" stroke="([^"]+)"/g))
+    at('square', m[3], num(m[1]) + 3, num(m[2]) + 3);
   for (const m of svg.matchAll(/<path d="M([-\d.]+),([-\d.]+)l6,6m0,-6l-6,6" stroke="([^"]+)"/g)) at('cross', m[3], num(m[1]) + 3, num(m[2]) + 3);
   const lines = [...svg.matchAll(/<polyline class="series" data-label="([^"]*)"[^>]* points="([^"]*)"\/>/g)].map((m) => ({
     label: m[1],
-    points: m[2].trim().split(/\s+/).map((p) => {
-      const [px, py] = p.split(',').map(num);
-      return { px, py, x: x.value(px), y: y.value(py) };
-    }),
+    points: m[2]
+      .trim()
+      .split(/\s+/)
+      .map((p) => {
+        const [px, py] = p.split(',').map(num);
+        return { px, py, x: x.value(px), y: y.value(py) };
+      }),
   }));
   return { title, xLabel, yLabel, x, y, markers, lines };
 }

@@ -112,7 +112,7 @@ export function deviceCurrent(dev: Device, b: number, spec: Pick<SweepSpec, 'thi
       j = dev.prefactor * Math.exp((Q * dev.distance * E) / kT);
       break;
     case 'sclc':
-      j = (dev.conductivity * b) / d + (9 / 8) * EPS0 * dev.permittivity * dev.mobility * (b * b) / d ** 3;
+      j = (dev.conductivity * b) / d + ((9 / 8) * EPS0 * dev.permittivity * dev.mobility * (b * b)) / d ** 3;
       break;
   }
   return j * A;
@@ -147,7 +147,7 @@ export function wholeSweep(spec: SweepSpec): Sweep {
     if (spec.device.kind === 'diode') cur = deviceCurrent(spec.device, b, spec);
     else if (b !== 0) {
       const dev = b < 0 && spec.negativeDevice ? spec.negativeDevice : spec.device;
-      cur = Math.sign(b) * deviceCurrent(dev, Math.abs(b), spec) * (b < 0 ? spec.negativeScale ?? 1 : 1);
+      cur = Math.sign(b) * deviceCurrent(dev, Math.abs(b), spec) * (b < 0 ? (spec.negativeScale ?? 1) : 1);
     }
     if (spec.leakage) cur += b / spec.leakage;
     truth[k] = cur;

@@ -20,7 +20,17 @@ function tmp(): string {
 
 function writeSession(data: string, sweeps: number, points: number, close = true, planned = points) {
   const { writer, id } = JournalWriter.create(data, 'unit');
-  writer.event({ type: 'session', id, startedAt: new Date().toISOString(), source: { kind: 'test', detail: '', control: false }, instrument: 'x', plan: {}, analysis: {}, drift: {}, limits: {} });
+  writer.event({
+    type: 'session',
+    id,
+    startedAt: new Date().toISOString(),
+    source: { kind: 'test', detail: '', control: false },
+    instrument: 'x',
+    plan: {},
+    analysis: {},
+    drift: {},
+    limits: {},
+  });
   const sent: { v: number; i: number }[] = [];
   for (let s = 1; s <= sweeps; s++) {
     writer.event({ type: 'sweep-start', sweep: s, planned, label: '' });
@@ -126,10 +136,22 @@ describe('journal', () => {
     expect(meta.timeline.at(-1).type).toBe('run-end');
   });
 
-  it('export names every column\'s unit: readable tags in the header, each row\'s line units, and a units map in session.json', () => {
+  it("export names every column's unit: readable tags in the header, each row's line units, and a units map in session.json", () => {
     // Tags as the units read (SI symbols, BIPM SI Brochure 2019); no tag for dimensionless values.
-    expect(['m^2/(V*s)', 'eV', '', '1', 'V/m', 'A/m^2', 'm', 'm^-3', 'A/(m^2*K^2)', 'ohm*m', 'K', 'V^-1'].map(csvUnitTag))
-      .toEqual(['m2_per_V_s', 'eV', '', '', 'V_per_m', 'A_per_m2', 'm', 'per_m3', 'A_per_m2_K2', 'ohm_m', 'K', 'per_V']);
+    expect(['m^2/(V*s)', 'eV', '', '1', 'V/m', 'A/m^2', 'm', 'm^-3', 'A/(m^2*K^2)', 'ohm*m', 'K', 'V^-1'].map(csvUnitTag)).toEqual([
+      'm2_per_V_s',
+      'eV',
+      '',
+      '',
+      'V_per_m',
+      'A_per_m2',
+      'm',
+      'per_m3',
+      'A_per_m2_K2',
+      'ohm_m',
+      'K',
+      'per_V',
+    ]);
     const data = tmp();
     const dir = writeLotSession(data, {
       label: 'units',
@@ -142,7 +164,8 @@ describe('journal', () => {
     exportSession(dir, out);
     const lines = readFileSync(join(out, 'sweeps.csv'), 'utf8').trim().split('\n');
     const head = lines[0].split(',');
-    for (const c of ['window_from_V', 'window_to_V', 'slope_unit', 'intercept_unit', 'barrierHeight_eV', 'mobility_m2_per_V_s', 'idealityFactor']) expect(head).toContain(c);
+    for (const c of ['window_from_V', 'window_to_V', 'slope_unit', 'intercept_unit', 'barrierHeight_eV', 'mobility_m2_per_V_s', 'idealityFactor'])
+      expect(head).toContain(c);
     expect(head.some((h) => /_1$|m2Vs/.test(h))).toBe(false);
     const row = lines[1].split(',');
     // The helper's fits are Fowler–Nordheim plots: ln(J/E²) against 1/E in m/V.
@@ -157,8 +180,15 @@ describe('journal', () => {
     expect(meta.columns['sweeps.csv'].slope).toBe('1/(m/V)');
     expect(meta.columns['points.csv'].current_A).toBe('A');
     // A real Fowler–Nordheim plot (its axes as the mechanism declares them) and a linear one.
-    expect(lineUnits({ x: { label: '1/E', unit: 'm/V', kind: 'linear' }, y: { label: 'J/E²', unit: 'A/m^2/(V/m)^2', kind: 'log' } }))
-      .toEqual({ slope: '1/(m/V)', intercept: 'ln(A/m^2/(V/m)^2)', residual: '' });
-    expect(lineUnits({ x: { label: 'V', unit: 'V', kind: 'linear' }, y: { label: 'I', unit: 'A', kind: 'linear' } })).toEqual({ slope: 'A/V', intercept: 'A', residual: 'A' });
+    expect(lineUnits({ x: { label: '1/E', unit: 'm/V', kind: 'linear' }, y: { label: 'J/E²', unit: 'A/m^2/(V/m)^2', kind: 'log' } })).toEqual({
+      slope: '1/(m/V)',
+      intercept: 'ln(A/m^2/(V/m)^2)',
+      residual: '',
+    });
+    expect(lineUnits({ x: { label: 'V', unit: 'V', kind: 'linear' }, y: { label: 'I', unit: 'A', kind: 'linear' } })).toEqual({
+      slope: 'A/V',
+      intercept: 'A',
+      residual: 'A',
+    });
   });
 });

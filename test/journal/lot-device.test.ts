@@ -10,7 +10,12 @@ import { readSummary } from '../../daemon/journal/lot.js';
 import { runCli } from '../helpers/cli.js';
 import { api, startDaemon, tempDir, type DaemonProcess } from '../helpers/daemon.js';
 
-const sessionEvent = (dir: string) => JSON.parse(readFileSync(join(dir, 'journal.jsonl'), 'utf8').split('\n').find((l) => l.includes('"type":"session"')) as string);
+const sessionEvent = (dir: string) =>
+  JSON.parse(
+    readFileSync(join(dir, 'journal.jsonl'), 'utf8')
+      .split('\n')
+      .find((l) => l.includes('"type":"session"')) as string,
+  );
 const onlySession = (data: string) => join(data, readdirSync(data).filter((d) => !d.endsWith('.json'))[0]);
 
 describe('device identity', () => {
@@ -19,7 +24,34 @@ describe('device identity', () => {
 
   it('run --wafer/--site/--x/--y/--area…: journaled, used by the live fit, exported; annotate corrects it; the lot sees the correction', () => {
     const data = tempDir();
-    const r = runCli(['run', '--scenario', 'oxide-fn', '--sweeps', '1', '--fast', '--data', data, '--device', 'C4-cap', '--wafer', 'W07', '--site', 'C4', '--x', '3', '--y', '-2', '--area', '1e-4 cm^2', '--thickness', '7 nm', '--device-tag', 'lot A', '--device-tag', 'ramp']);
+    const r = runCli([
+      'run',
+      '--scenario',
+      'oxide-fn',
+      '--sweeps',
+      '1',
+      '--fast',
+      '--data',
+      data,
+      '--device',
+      'C4-cap',
+      '--wafer',
+      'W07',
+      '--site',
+      'C4',
+      '--x',
+      '3',
+      '--y',
+      '-2',
+      '--area',
+      '1e-4 cm^2',
+      '--thickness',
+      '7 nm',
+      '--device-tag',
+      'lot A',
+      '--device-tag',
+      'ramp',
+    ]);
     expect(r.code, r.stderr).toBe(0);
     const dir = onlySession(data);
     const s = sessionEvent(dir);
@@ -43,7 +75,10 @@ describe('device identity', () => {
   it('a plan file carries the device; command-line options override its fields; bad values name the file or option', () => {
     const data = tempDir();
     const plan = join(data, 'plan.json');
-    writeFileSync(plan, JSON.stringify({ kind: 'linear', start: 0, stop: 5, points: 11, compliance: 1e-3, device: { wafer: 'W09', site: 'A1', x: 1, y: 2, area: 1e-8 } }));
+    writeFileSync(
+      plan,
+      JSON.stringify({ kind: 'linear', start: 0, stop: 5, points: 11, compliance: 1e-3, device: { wafer: 'W09', site: 'A1', x: 1, y: 2, area: 1e-8 } }),
+    );
     const r = runCli(['run', '--scenario', 'oxide-fn', '--fast', '--data', data, '--plan', plan, '--site', 'A2']);
     expect(r.code, r.stderr).toBe(0);
     expect(sessionEvent(onlySession(data)).device).toEqual({ wafer: 'W09', site: 'A2', x: 1, y: 2, area: 1e-8 });
@@ -65,7 +100,10 @@ describe('device identity', () => {
     const bad = await api(daemon.url, 'POST', '/api/run', { device: { wafer: 'W1', colour: 'red' } });
     expect(bad.status).toBe(400);
     expect(JSON.stringify(bad.json)).toMatch(/device\.colour: unknown field/);
-    const ok = await api(daemon.url, 'POST', '/api/run', { plan: { kind: 'linear', start: 0, stop: 9, points: 46, compliance: 1e-3 }, device: { wafer: 'W1', site: 'B2', x: 0, y: 1 } });
+    const ok = await api(daemon.url, 'POST', '/api/run', {
+      plan: { kind: 'linear', start: 0, stop: 9, points: 46, compliance: 1e-3 },
+      device: { wafer: 'W1', site: 'B2', x: 0, y: 1 },
+    });
     expect(ok.status).toBe(201);
     for (let k = 0; k < 200 && (await api(daemon.url, 'GET', '/api/status')).json.running; k++) await new Promise((r) => setTimeout(r, 50));
     const dir = join(data, ok.json.session);

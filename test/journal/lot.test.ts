@@ -19,7 +19,25 @@ import { writeSession } from '../helpers/lot.js';
 const tmp = () => mkdtempSync(join(tmpdir(), 'plumbline-lot-'));
 
 const ROWS: DeviceResult[] = [
-  { device: 'D1', wafer: 'W07', site: 'C3', x: 0, y: 0, test: 'voltage-ramp', outcome: 'breakdown', criterion: 'current-jump', breakdownVoltage: 8.05, breakdownField: 1.15e9, chargeToBreakdown: 0.41, area: 1e-8, thickness: 7e-9, temperature: 298.15, leakageBefore: 1.2e-12, leakageAfter: 3.4e-11, tags: ['lot A', 'edge'] },
+  {
+    device: 'D1',
+    wafer: 'W07',
+    site: 'C3',
+    x: 0,
+    y: 0,
+    test: 'voltage-ramp',
+    outcome: 'breakdown',
+    criterion: 'current-jump',
+    breakdownVoltage: 8.05,
+    breakdownField: 1.15e9,
+    chargeToBreakdown: 0.41,
+    area: 1e-8,
+    thickness: 7e-9,
+    temperature: 298.15,
+    leakageBefore: 1.2e-12,
+    leakageAfter: 3.4e-11,
+    tags: ['lot A', 'edge'],
+  },
   { device: 'D2, "spare"', test: 'voltage-ramp', outcome: 'survived', criterion: 'max-voltage', breakdownVoltage: 9, breakdownField: 9 / 7e-9 },
   { device: 'D3', test: 'voltage-ramp', outcome: 'initial-failure' },
 ];
@@ -33,11 +51,15 @@ describe('per-device results file', () => {
     expect(parseDeviceResults(text, 'r.csv')).toEqual(ROWS);
   });
 
-  it('reads as plain CSV outside our code (python\'s csv module): header, units row, one row per device', () => {
+  it("reads as plain CSV outside our code (python's csv module): header, units row, one row per device", () => {
     const dir = tmp();
     const f = join(dir, DEVICE_RESULTS_FILE);
     writeFileSync(f, formatDeviceResults(ROWS));
-    const r = spawnSync(scipyPython(), ['-c', 'import csv,sys,json; rows=list(csv.DictReader(open(sys.argv[1]))); print(json.dumps([rows[0], rows[1], rows[2]["outcome"], len(rows)]))', f], { encoding: 'utf8' });
+    const r = spawnSync(
+      scipyPython(),
+      ['-c', 'import csv,sys,json; rows=list(csv.DictReader(open(sys.argv[1]))); print(json.dumps([rows[0], rows[1], rows[2]["outcome"], len(rows)]))', f],
+      { encoding: 'utf8' },
+    );
     const [units, first, outcome3, n] = JSON.parse(r.stdout);
     expect(units.breakdown_field).toBe('V/m');
     expect(Number(first.breakdown_field)).toBe(1.15e9);
@@ -48,15 +70,19 @@ describe('per-device results file', () => {
 
   it('bad files are named by file, line and column; other units are refused, not misread', () => {
     const base = formatDeviceResults(ROWS.slice(0, 1)).split('\n');
-    expect(() => parseDeviceResults([base[0], base[1].replace('V/m', 'MV/cm'), base[2]].join('\n'), 'r.csv')).toThrow(/r\.csv, line 2, column 'breakdown_field': unit 'MV\/cm'/);
-    expect(() => parseDeviceResults([base[0], base[1], base[2].replace('breakdown,', 'exploded,')].join('\n'), 'r.csv')).toThrow(/line 3, column 'outcome': 'exploded'/);
+    expect(() => parseDeviceResults([base[0], base[1].replace('V/m', 'MV/cm'), base[2]].join('\n'), 'r.csv')).toThrow(
+      /r\.csv, line 2, column 'breakdown_field': unit 'MV\/cm'/,
+    );
+    expect(() => parseDeviceResults([base[0], base[1], base[2].replace('breakdown,', 'exploded,')].join('\n'), 'r.csv')).toThrow(
+      /line 3, column 'outcome': 'exploded'/,
+    );
     expect(() => parseDeviceResults([base[0], base[1], base[2].replace('8.05', '8,05')].join('\n'), 'r.csv')).toThrow(/line 3: expected 18 fields/);
     expect(() => parseDeviceResults('wafer,site\nW1,A1\n', 'r.csv')).toThrow(/no 'device' column/);
   });
 });
 
 describe('lot reader and cache', () => {
-  it('summarises a session: identity (edited later by an annotation), the first plausible complete sweep\'s fit, cautions, results', () => {
+  it("summarises a session: identity (edited later by an annotation), the first plausible complete sweep's fit, cautions, results", () => {
     const data = tmp();
     const dir = writeSession(data, {
       label: 'd1',
@@ -67,7 +93,10 @@ describe('lot reader and cache', () => {
         { params: { barrierHeight: [3.12, 0.01, 'eV'] } },
         { params: { barrierHeight: [3.2, 0.01, 'eV'] } },
       ],
-      cautions: [{ kind: 'compliance', message: 'at compliance' }, { kind: 'compliance', message: 'again' }],
+      cautions: [
+        { kind: 'compliance', message: 'at compliance' },
+        { kind: 'compliance', message: 'again' },
+      ],
       results: ROWS.slice(0, 1),
     });
     const s1 = readSummary(dir);
@@ -157,13 +186,17 @@ describe('lot report', () => {
     const data = tmp();
     const barriers = [3.11, 3.13, 3.12, 3.1, 3.14, 3.12, 3.13, 2.6, 3.11];
     const fields = [1.12e9, 1.18e9, 1.15e9, 1.2e9, 1.09e9, 1.16e9, 1.22e9, 0.55e9, 1.14e9];
-    barriers.forEach((b, k) => writeSession(data, {
-      label: `site${k}`,
-      device: { device: `D${k}`, wafer: k < 5 ? 'W07' : 'W08', site: `S${k}`, x: k % 3, y: Math.floor(k / 3), area: 1e-8, thickness: 7e-9 },
-      fits: [{ params: { barrierHeight: [b, 0.01, 'eV'] } }],
-      results: [{ device: `D${k}`, test: 'voltage-ramp', outcome: k === 4 ? 'survived' : 'breakdown', breakdownField: fields[k], breakdownVoltage: fields[k] * 7e-9 }],
-      cautions: k !== 4 ? [{ kind: 'breakdown-confirmed', message: 'breakdown confirmed; output turned off' }] : [],
-    }));
+    barriers.forEach((b, k) =>
+      writeSession(data, {
+        label: `site${k}`,
+        device: { device: `D${k}`, wafer: k < 5 ? 'W07' : 'W08', site: `S${k}`, x: k % 3, y: Math.floor(k / 3), area: 1e-8, thickness: 7e-9 },
+        fits: [{ params: { barrierHeight: [b, 0.01, 'eV'] } }],
+        results: [
+          { device: `D${k}`, test: 'voltage-ramp', outcome: k === 4 ? 'survived' : 'breakdown', breakdownField: fields[k], breakdownVoltage: fields[k] * 7e-9 },
+        ],
+        cautions: k !== 4 ? [{ kind: 'breakdown-confirmed', message: 'breakdown confirmed; output turned off' }] : [],
+      }),
+    );
     const a = await analyzeLot(new FolderLot([data]));
     expect(a.rows).toHaveLength(9);
     const bh = a.parameters.find((p) => p.name === 'barrierHeight');
@@ -187,12 +220,14 @@ describe('lot report', () => {
     expect(html).not.toMatch(/<script/);
   });
 
-  it('breakdown voltages tied on a ramp\'s 0.1 V levels: neighbours one step away are not outliers, a far one is', async () => {
+  it("breakdown voltages tied on a ramp's 0.1 V levels: neighbours one step away are not outliers, a far one is", async () => {
     // Twelve of sixteen devices broke down on the same level: the MAD is 0, so without the grid
     // every other device would be "infinitely" far (Iglewicz & Hoaglin's M divides by the MAD).
     const data = tmp();
     const volts = [...Array(12).fill(8.1), 8.0, 8.2, 8.200000000000001, 5.3];
-    volts.forEach((v, k) => writeSession(data, { label: `g${k}`, results: [{ device: `G${k}`, test: 'voltage-ramp', outcome: 'breakdown', breakdownVoltage: v }] }));
+    volts.forEach((v, k) =>
+      writeSession(data, { label: `g${k}`, results: [{ device: `G${k}`, test: 'voltage-ramp', outcome: 'breakdown', breakdownVoltage: v }] }),
+    );
     const a = await analyzeLot(new FolderLot([data]), { quantity: 'voltage' });
     const p = a.parameters.find((q) => q.name === 'breakdown voltage');
     expect(p?.resolution).toBeCloseTo(0.1, 9);
@@ -204,7 +239,9 @@ describe('lot report', () => {
     const data = tmp();
     // Fields 11.6 … 12.4 MV/cm (bounds reach about 10 … 13): a single 1-2-5 log tick falls inside.
     const fields = Array.from({ length: 12 }, (_, k) => 1.16e9 + k * 0.0075e9);
-    fields.forEach((f, k) => writeSession(data, { label: `n${k}`, results: [{ device: `N${k}`, test: 'voltage-ramp', outcome: 'breakdown', breakdownField: f }] }));
+    fields.forEach((f, k) =>
+      writeSession(data, { label: `n${k}`, results: [{ device: `N${k}`, test: 'voltage-ramp', outcome: 'breakdown', breakdownField: f }] }),
+    );
     const html = renderLot(await analyzeLot(new FolderLot([data])), {});
     const weibull = html.slice(html.indexOf('aria-label="Weibull plot"'));
     const xLabels = [...weibull.matchAll(/<line class="xtick"[^>]*\/><text[^>]*>([^<]+)<\/text>/g)].map((m) => m[1]);

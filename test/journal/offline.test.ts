@@ -28,7 +28,7 @@ function simulatedSession(scenario: string, sweeps: number): string {
 }
 
 describe('refit', () => {
-  it('with the session\'s own settings, refit results equal the live results', () => {
+  it("with the session's own settings, refit results equal the live results", () => {
     const dir = simulatedSession('nitride-pf', 3);
     const r = runCli(['refit', dir, '--json']);
     expect(r.code, r.stderr).toBe(0);
@@ -59,7 +59,17 @@ describe('temperature series', () => {
     const data = join(tempDir(), 'data');
     const { writer, id } = JournalWriter.create(data, 'pf-temperatures');
     const inputs = { thickness: 2e-8, area: 1e-8, refractiveIndex: 2 };
-    writer.event({ type: 'session', id, startedAt: new Date().toISOString(), source: { kind: 'test', detail: 'forward model', control: false }, instrument: '-', plan: null, analysis: { model: 'poole-frenkel', window: { from: 4, to: 12 }, inputs }, drift: {}, limits: {} });
+    writer.event({
+      type: 'session',
+      id,
+      startedAt: new Date().toISOString(),
+      source: { kind: 'test', detail: 'forward model', control: false },
+      instrument: '-',
+      plan: null,
+      analysis: { model: 'poole-frenkel', window: { from: 4, to: 12 }, inputs },
+      drift: {},
+      limits: {},
+    });
     const normal = seededNormal(9);
     const temps = [300, 325, 350, 375, 400];
     temps.forEach((T, s) => {
@@ -104,7 +114,17 @@ describe('temperature from a column (watch mode)', () => {
       hazardVoltage: 30,
       control: false,
     });
-    chain.emit({ type: 'session', id, startedAt: new Date().toISOString(), source: { kind: 'passive', detail: 'test', control: false }, instrument: '-', plan: null, analysis: { model: 'poole-frenkel', window: { from: 4, to: 12 }, inputs }, drift: {}, limits: {} });
+    chain.emit({
+      type: 'session',
+      id,
+      startedAt: new Date().toISOString(),
+      source: { kind: 'passive', detail: 'test', control: false },
+      instrument: '-',
+      plan: null,
+      analysis: { model: 'poole-frenkel', window: { from: 4, to: 12 }, inputs },
+      drift: {},
+      limits: {},
+    });
     const source = new EventEmitter() as LineSource;
     source.stop = async () => undefined;
     const feed = feedPassive(source, chain, { voltage: 'V', current: 'I', temperature: 'T_chuck' }, 'test.csv');
@@ -141,7 +161,10 @@ describe('report', () => {
     const html = readFileSync(out, 'utf8');
     expect(html).not.toMatch(/<script|<link|src="http|href="http/);
     const sweeps = loadSession(dir).sweeps.length;
-    const browser = await chromium.launch({ executablePath: '/usr/bin/chromium', args: ['--disable-gpu', '--disable-background-networking', '--no-first-run'] });
+    const browser = await chromium.launch({
+      executablePath: '/usr/bin/chromium',
+      args: ['--disable-gpu', '--disable-background-networking', '--no-first-run'],
+    });
     try {
       const page = await browser.newPage();
       const requests: string[] = [];

@@ -20,7 +20,17 @@ const fn = { model: 'fowler-nordheim', window: { from: 5, to: 9 }, inputs: { thi
 function session(sweeps: number, points: number): string {
   const data = join(tempDir(), 'data');
   const { writer, id } = JournalWriter.create(data, 'view');
-  writer.event({ type: 'session', id, startedAt: new Date().toISOString(), source: { kind: 'simulator', detail: 'test', control: true }, instrument: 'test', plan: { compliance: 1e-3 }, analysis: fn, drift: {}, limits: {} });
+  writer.event({
+    type: 'session',
+    id,
+    startedAt: new Date().toISOString(),
+    source: { kind: 'simulator', detail: 'test', control: true },
+    instrument: 'test',
+    plan: { compliance: 1e-3 },
+    analysis: fn,
+    drift: {},
+    limits: {},
+  });
   for (let s = 1; s <= sweeps; s++) {
     if (s === 21) writer.event({ type: 'settings', analysis: { ...fn, model: 'trap-assisted-tunneling' }, source: 'api' });
     writer.event({ type: 'sweep-start', sweep: s, planned: points, label: '' });
@@ -71,7 +81,10 @@ describe('session index and overview', () => {
   });
 
   it('re-analysis is kept beside the journal and leaves the journal as it was', () => {
-    const hash = (f: string) => createHash('sha256').update(readFileSync(join(dir, f))).digest('hex');
+    const hash = (f: string) =>
+      createHash('sha256')
+        .update(readFileSync(join(dir, f)))
+        .digest('hex');
     const before = [hash('journal.jsonl'), hash('readings.f64')];
     const r = reanalyze(dir, { ...fn, window: { from: 7, to: 9 } }, [3, 4], [4]);
     expect(r.fits.map((f) => f.sweep)).toEqual([3, 4]);
@@ -81,7 +94,10 @@ describe('session index and overview', () => {
     expect(r.fits[1].fit?.parameters.barrierHeight.value).toBeCloseTo(3.104, 1);
     expect(r.views[0].view.window?.bias[0]).toBeCloseTo(7.2, 9);
     expect([hash('journal.jsonl'), hash('readings.f64')]).toEqual(before);
-    const kept = readFileSync(join(dir, REANALYSIS_FILE), 'utf8').trim().split('\n').map((l) => JSON.parse(l));
+    const kept = readFileSync(join(dir, REANALYSIS_FILE), 'utf8')
+      .trim()
+      .split('\n')
+      .map((l) => JSON.parse(l));
     expect(kept.at(-1).analysis.window).toEqual({ from: 7, to: 9 });
     expect(kept.at(-1).fits[1].fit.parameters.barrierHeight.value).toBe(r.fits[1].fit?.parameters.barrierHeight.value);
   });

@@ -19,7 +19,17 @@ function session(temps: number[], noted = temps): string {
   const data = join(tempDir(), 'data');
   const { writer, id } = JournalWriter.create(data, 'pf-temperatures');
   const inputs = { thickness: 2e-8, area: 1e-8, refractiveIndex: 2, temperature: 300 };
-  writer.event({ type: 'session', id, startedAt: new Date().toISOString(), source: { kind: 'test', detail: 'forward model', control: false }, instrument: '-', plan: null, analysis: { model: 'poole-frenkel', window: { from: 4, to: 12 }, inputs }, drift: {}, limits: {} });
+  writer.event({
+    type: 'session',
+    id,
+    startedAt: new Date().toISOString(),
+    source: { kind: 'test', detail: 'forward model', control: false },
+    instrument: '-',
+    plan: null,
+    analysis: { model: 'poole-frenkel', window: { from: 4, to: 12 }, inputs },
+    drift: {},
+    limits: {},
+  });
   const normal = seededNormal(5);
   temps.forEach((T, s) => {
     writer.event({ type: 'sweep-start', sweep: s + 1, planned: 41, label: '' });
@@ -52,7 +62,7 @@ describe('refit', () => {
     expect(given.sweeps.every((s) => s.temperature.value === 320 && s.temperature.source === 'given')).toBe(true);
   });
 
-  it('the command prints the inputs it used and each fit\'s warnings', () => {
+  it("the command prints the inputs it used and each fit's warnings", () => {
     const dir = session([300, 350, 400]);
     const r = runCli(['refit', dir, '--model', 'schottky', '--out', join(tempDir(), 'r.json')]);
     expect(r.code, r.stderr).toBe(0);

@@ -28,18 +28,35 @@ describe('report of a session with a vanishing uncertainty', () => {
   it('finishes and draws the trend (it used to loop without end)', () => {
     const data = join(tempDir(), 'data');
     const { writer, id } = JournalWriter.create(data, 'narrow');
-    writer.event({ type: 'session', id, startedAt: new Date().toISOString(), source: { kind: 'simulator', detail: 'test', control: true }, instrument: 'test', plan: null, analysis: { model: 'ohmic', window: 'all', inputs: {} }, drift: { enabled: false }, limits: {} });
+    writer.event({
+      type: 'session',
+      id,
+      startedAt: new Date().toISOString(),
+      source: { kind: 'simulator', detail: 'test', control: true },
+      instrument: 'test',
+      plan: null,
+      analysis: { model: 'ohmic', window: 'all', inputs: {} },
+      drift: { enabled: false },
+      limits: {},
+    });
     for (let s = 1; s <= 3; s++) {
       writer.event({ type: 'sweep-start', sweep: s, planned: 3, label: `sweep ${s}` });
       for (let k = 0; k < 3; k++) writer.reading(s, k, k + 1, (k + 1) * 1e-6, 0);
       writer.event({
-        type: 'fit', sweep: s, final: true,
+        type: 'fit',
+        sweep: s,
+        final: true,
         fit: {
-          model: 'ohmic', title: 'Ohmic', window: { from: 1, to: 3, mode: 'all' },
+          model: 'ohmic',
+          title: 'Ohmic',
+          window: { from: 1, to: 3, mode: 'all' },
           line: { slope: 1e-6, slopeStdErr: 1e-24, intercept: 0, interceptStdErr: 1e-24, r2: 1, residualStdDev: 0, n: 3 },
           axes: { x: { label: 'V', unit: 'V', kind: 'linear' }, y: { label: 'I', unit: 'A', kind: 'linear' } },
           parameters: { resistance: { value: 1e6, stdErr: 5e-11, unit: 'ohm' } },
-          plausible: true, warnings: [], points: { used: 3, excluded: 0, reasons: {} }, regimes: [],
+          plausible: true,
+          warnings: [],
+          points: { used: 3, excluded: 0, reasons: {} },
+          regimes: [],
         },
       });
       writer.event({ type: 'sweep-end', sweep: s, points: 3, complete: true });

@@ -34,7 +34,17 @@ const drift = { enabled: true, method: 'ewma', baseline: 2, lambda: 0.2, L: 3, w
 function session(sweeps: number, modelChangeAt?: number): string {
   const data = join(tempDir(), 'data');
   const { writer, id } = JournalWriter.create(data, 'report');
-  writer.event({ type: 'session', id, startedAt: new Date().toISOString(), source: { kind: 'simulator', detail: 'test', control: true }, instrument: 'test', plan: { kind: 'linear', start: 0, stop: 9.5, points: 40, repeat: sweeps, compliance: 1e-3, description: 'linear 0 → 9.5 V' }, analysis: fn, drift, limits });
+  writer.event({
+    type: 'session',
+    id,
+    startedAt: new Date().toISOString(),
+    source: { kind: 'simulator', detail: 'test', control: true },
+    instrument: 'test',
+    plan: { kind: 'linear', start: 0, stop: 9.5, points: 40, repeat: sweeps, compliance: 1e-3, description: 'linear 0 → 9.5 V' },
+    analysis: fn,
+    drift,
+    limits,
+  });
   let analysis: { model: string; window: unknown; inputs: Record<string, number> } = fn;
   let monitor = 0;
   for (let s = 1; s <= sweeps; s++) {
@@ -64,7 +74,20 @@ function session(sweeps: number, modelChangeAt?: number): string {
     const p = fit.parameters[name];
     monitor++;
     const base = monitor <= 2;
-    writer.event({ type: 'drift', sweep: s, parameter: name, value: p.value, method: 'ewma', phase: base ? 'baseline' : 'monitor', statistic: p.value, center: p.value, lower: base ? null : p.value - 0.05, upper: base ? null : p.value + 0.05, sigma: 0.01, state: base ? 'baseline' : 'in-control' });
+    writer.event({
+      type: 'drift',
+      sweep: s,
+      parameter: name,
+      value: p.value,
+      method: 'ewma',
+      phase: base ? 'baseline' : 'monitor',
+      statistic: p.value,
+      center: p.value,
+      lower: base ? null : p.value - 0.05,
+      upper: base ? null : p.value + 0.05,
+      sigma: 0.01,
+      state: base ? 'baseline' : 'in-control',
+    });
   }
   writer.event({ type: 'run-end', outcome: 'completed', reason: 'test', sweeps });
   writer.close();
@@ -77,7 +100,7 @@ function yLabels(svg: string): string[] {
 }
 
 describe('the session report', () => {
-  it('tabulates each sweep\'s parameters as the journal holds them, in the trade\'s units', () => {
+  it("tabulates each sweep's parameters as the journal holds them, in the trade's units", () => {
     const dir = session(4);
     const html = renderReport(loadSession(dir));
     const s = loadSession(dir);
@@ -158,12 +181,15 @@ function figures(html: string, cls: string): Map<string, { label: string; text: 
   const t = new RegExp(`<table class="kv ${cls}">([\\s\\S]*?)</table>`).exec(html);
   if (!t) throw new Error(`no table '${cls}' in the report`);
   const out = new Map<string, { label: string; text: string; unit: string }>();
-  for (const m of t[1].matchAll(/<tr data-figure="([^"]+)"><th>([^<]*)<\/th><td><span class="num">([^<]*)<\/span>(?: <span class="unit">([^<]*)<\/span>)?<\/td><\/tr>/g)) out.set(m[1], { label: m[2], text: m[3], unit: m[4] ?? '' });
+  for (const m of t[1].matchAll(
+    /<tr data-figure="([^"]+)"><th>([^<]*)<\/th><td><span class="num">([^<]*)<\/span>(?: <span class="unit">([^<]*)<\/span>)?<\/td><\/tr>/g,
+  ))
+    out.set(m[1], { label: m[2], text: m[3], unit: m[4] ?? '' });
   return out;
 }
 
 describe('what the report plots, read back off its axes', () => {
-  it('the linearized plot holds the journal\'s readings in cm/MV and (A/cm²)/(MV/cm)², and the fit line is the journal\'s', () => {
+  it("the linearized plot holds the journal's readings in cm/MV and (A/cm²)/(MV/cm)², and the fit line is the journal's", () => {
     const s = loadSession(session(1));
     const html = renderReport(s);
     const sw = s.sweeps[0];
@@ -184,7 +210,11 @@ describe('what the report plots, read back off its axes', () => {
     const dots = c.markers.filter((m) => m.shape === 'dot');
     expect(dots).toHaveLength(sw.fit?.line.n as number);
     expect(inWindow).toHaveLength(dots.length);
-    for (const k of inWindow) expect(near(k).map((m) => m.shape), `reading ${k} at ${sw.v[k]} V`).toEqual(['dot']);
+    for (const k of inWindow)
+      expect(
+        near(k).map((m) => m.shape),
+        `reading ${k} at ${sw.v[k]} V`,
+      ).toEqual(['dot']);
     // The compliance reading (the top one) is on no plot of the mechanism: the bias was not held.
     const top = sw.c.indexOf(1);
     expect(near(top)).toEqual([]);
@@ -198,7 +228,7 @@ describe('what the report plots, read back off its axes', () => {
     }
   });
 
-  it('each sweep\'s barrier height across sweeps sits at the journal\'s value in eV', () => {
+  it("each sweep's barrier height across sweeps sits at the journal's value in eV", () => {
     const s = loadSession(session(4));
     const html = renderReport(s);
     const trend = charts(html.slice(html.indexOf('<h2>Parameters across sweeps</h2>')))[0];
@@ -206,7 +236,8 @@ describe('what the report plots, read back off its axes', () => {
     expect(c.yLabel).toBe('barrier height φ_B (eV)');
     const values = c.lines.find((l) => l.label === 'barrierHeight')?.points ?? [];
     expect(values.map((p) => Math.round(p.x))).toEqual(s.sweeps.map((sw) => sw.sweep));
-    for (const [k, p] of values.entries()) expect(Math.abs(p.py - c.y.pixel(s.sweeps[k].fit?.parameters.barrierHeight.value as number))).toBeLessThanOrEqual(0.15);
+    for (const [k, p] of values.entries())
+      expect(Math.abs(p.py - c.y.pixel(s.sweeps[k].fit?.parameters.barrierHeight.value as number))).toBeLessThanOrEqual(0.15);
   });
 
   it('a space-charge-limited film: J/V in (A/cm²)/V on the plot, mobility in cm²/(V·s) on its trend and in the table', () => {
@@ -216,7 +247,17 @@ describe('what the report plots, read back off its axes', () => {
     const sclcSettings = { model: 'sclc', window: 'all', inputs: { thickness: th, area: ar, permittivity: 3 } };
     const data = join(tempDir(), 'data');
     const { writer, id } = JournalWriter.create(data, 'sclc');
-    writer.event({ type: 'session', id, startedAt: new Date().toISOString(), source: { kind: 'simulator', detail: 'test', control: true }, instrument: 'test', plan: { kind: 'linear', start: 0.2, stop: 5, points: 25, repeat: 2, compliance: 1e-2 }, analysis: sclcSettings, drift, limits });
+    writer.event({
+      type: 'session',
+      id,
+      startedAt: new Date().toISOString(),
+      source: { kind: 'simulator', detail: 'test', control: true },
+      instrument: 'test',
+      plan: { kind: 'linear', start: 0.2, stop: 5, points: 25, repeat: 2, compliance: 1e-2 },
+      analysis: sclcSettings,
+      drift,
+      limits,
+    });
     for (let sweep = 1; sweep <= 2; sweep++) {
       writer.event({ type: 'sweep-start', sweep, planned: 25, label: '' });
       const v: number[] = [];
@@ -224,7 +265,7 @@ describe('what the report plots, read back off its axes', () => {
       for (let k = 0; k < 25; k++) {
         const bias = 0.2 * (k + 1);
         const mu = 1e-8 * (1 + 0.01 * sweep);
-        const current = (1e-6 * bias / th + mottGurney(bias, mu, 3, th)) * ar * (k % 2 ? 1.001 : 0.999);
+        const current = ((1e-6 * bias) / th + mottGurney(bias, mu, 3, th)) * ar * (k % 2 ? 1.001 : 0.999);
         writer.reading(sweep, k, bias, current, 0);
         v.push(bias);
         i.push(current);
@@ -244,7 +285,10 @@ describe('what the report plots, read back off its axes', () => {
     // J/V in (A/cm²)/V = (I/area)/V · 1e-4: every reading, where its SI values put it.
     for (let k = 0; k < sw.v.length; k++) {
       const y = (sw.i[k] / ar / sw.v[k]) * 1e-4;
-      expect(c.markers.some((m) => Math.abs(m.px - c.x.pixel(sw.v[k])) <= 0.15 && Math.abs(m.py - c.y.pixel(y)) <= 0.15), `reading at ${sw.v[k]} V`).toBe(true);
+      expect(
+        c.markers.some((m) => Math.abs(m.px - c.x.pixel(sw.v[k])) <= 0.15 && Math.abs(m.py - c.y.pixel(y)) <= 0.15),
+        `reading at ${sw.v[k]} V`,
+      ).toBe(true);
     }
     // Mobility: 1 m²/(V·s) = 1e4 cm²/(V·s).
     const trend = charts(html.slice(html.indexOf('<h2>Parameters across sweeps</h2>')))[0];
@@ -252,7 +296,8 @@ describe('what the report plots, read back off its axes', () => {
     expect(t.yLabel).toBe('mobility μ (cm²/(V·s))');
     const mu = t.lines.find((l) => l.label === 'mobility')?.points ?? [];
     expect(mu).toHaveLength(2);
-    for (const [k, p] of mu.entries()) expect(Math.abs(p.py - t.y.pixel((s.sweeps[k].fit?.parameters.mobility.value as number) * 1e4))).toBeLessThanOrEqual(0.15);
+    for (const [k, p] of mu.entries())
+      expect(Math.abs(p.py - t.y.pixel((s.sweeps[k].fit?.parameters.mobility.value as number) * 1e4))).toBeLessThanOrEqual(0.15);
     const results = html.slice(html.indexOf('<h2>Results</h2>'), html.indexOf('<h2>Each sweep</h2>'));
     expect(results).toContain('mobility μ (cm²/(V·s))');
     const head = [...results.matchAll(/<th>([^<]*)<\/th>/g)].map((m) => m[1]);
@@ -268,13 +313,29 @@ describe('what the report plots, read back off its axes', () => {
     // A dual sweep 0 → 8 → 0 V whose two top readings are at compliance, the bias collapsed.
     const data = join(tempDir(), 'data');
     const { writer, id } = JournalWriter.create(data, 'comp');
-    writer.event({ type: 'session', id, startedAt: new Date().toISOString(), source: { kind: 'simulator', detail: 'test', control: true }, instrument: 'test', plan: { kind: 'linear', start: 0, stop: 8, points: 17, dual: true, repeat: 1, compliance: 1e-3 }, analysis: fn, drift, limits });
+    writer.event({
+      type: 'session',
+      id,
+      startedAt: new Date().toISOString(),
+      source: { kind: 'simulator', detail: 'test', control: true },
+      instrument: 'test',
+      plan: { kind: 'linear', start: 0, stop: 8, points: 17, dual: true, repeat: 1, compliance: 1e-3 },
+      analysis: fn,
+      drift,
+      limits,
+    });
     writer.event({ type: 'sweep-start', sweep: 1, planned: 33, label: '' });
     const levels = [...Array.from({ length: 17 }, (_x, k) => 0.5 * k), ...Array.from({ length: 16 }, (_x, k) => 7.5 - 0.5 * k)];
     const top = new Set([15, 16, 17]);
     levels.forEach((bias, k) => {
       const atLimit = top.has(k);
-      writer.reading(1, k, atLimit ? 2.1 + 0.1 * k - 1.5 : bias, atLimit ? 1e-3 : 1e-12 + fowlerNordheim(Math.max(bias, 0.1) / d, 3.1, 0.42) * 1e-8, atLimit ? 1 : 0);
+      writer.reading(
+        1,
+        k,
+        atLimit ? 2.1 + 0.1 * k - 1.5 : bias,
+        atLimit ? 1e-3 : 1e-12 + fowlerNordheim(Math.max(bias, 0.1) / d, 3.1, 0.42) * 1e-8,
+        atLimit ? 1 : 0,
+      );
     });
     writer.event({ type: 'sweep-end', sweep: 1, points: 33, complete: true });
     writer.event({ type: 'run-end', outcome: 'completed', reason: 'test', sweeps: 1 });
@@ -289,8 +350,12 @@ describe('what the report plots, read back off its axes', () => {
       expect(squares).toHaveLength(top.size);
       for (const k of top) {
         const p = at(k);
-        expect(squares.some((m) => Math.abs(m.px - p.px) <= 0.15 && Math.abs(m.py - p.py) <= 0.15), `compliance reading ${k}`).toBe(true);
-        for (const l of c.lines) for (const q of l.points) expect(Math.hypot(q.px - p.px, q.py - p.py), `a line vertex on compliance reading ${k}`).toBeGreaterThan(0.5);
+        expect(
+          squares.some((m) => Math.abs(m.px - p.px) <= 0.15 && Math.abs(m.py - p.py) <= 0.15),
+          `compliance reading ${k}`,
+        ).toBe(true);
+        for (const l of c.lines)
+          for (const q of l.points) expect(Math.hypot(q.px - p.px, q.py - p.py), `a line vertex on compliance reading ${k}`).toBeGreaterThan(0.5);
       }
       // The curve: two runs, the readings before and after the compliance block, each in journal order.
       const runs = c.lines.filter((l) => l.label === 'sweep 1' || l.label === '');
@@ -300,16 +365,53 @@ describe('what the report plots, read back off its axes', () => {
         ks.forEach((k, j) => expect(Math.hypot(pts[j].px - at(k).px, pts[j].py - at(k).py)).toBeLessThanOrEqual(0.2));
       };
       expectRun([...Array(15).keys()], runs[0].points);
-      expectRun(Array.from({ length: 15 }, (_x, j) => 18 + j), runs[1].points);
+      expectRun(
+        Array.from({ length: 15 }, (_x, j) => 18 + j),
+        runs[1].points,
+      );
     }
   });
 });
 
 describe('the report of a breakdown test', () => {
-  it('a voltage ramp on the simulated wearing-out oxide: the device, and the result in V, MV/cm, C/cm² and A as the journal holds it in SI', { timeout: 60_000 }, () => {
+  it('a voltage ramp on the simulated wearing-out oxide: the device, and the result in V, MV/cm, C/cm² and A as the journal holds it in SI', {
+    timeout: 60_000,
+  }, () => {
     const data = join(tempDir(), 'data');
-    const plan = tempFile('ramp.json', JSON.stringify({ kind: 'voltage-ramp', start: 0, stop: 15, step: 0.1, stepTime: 0.02, compliance: 1e-2, useVoltage: 1, useCurrentLimit: 1e-6 }));
-    const run = runCli(['run', '--scenario', 'oxide-wearout', '--fast', '--plan', plan, '--data', data, '--device', 'R7-C4', '--wafer', 'W07', '--site', 'C4', '--x', '3', '--y', '-2', '--area', '1e-4 cm^2', '--thickness', '7 nm', '--temperature', '300 K', '--device-tag', 'ramp', '--device-tag', 'lot 7']);
+    const plan = tempFile(
+      'ramp.json',
+      JSON.stringify({ kind: 'voltage-ramp', start: 0, stop: 15, step: 0.1, stepTime: 0.02, compliance: 1e-2, useVoltage: 1, useCurrentLimit: 1e-6 }),
+    );
+    const run = runCli([
+      'run',
+      '--scenario',
+      'oxide-wearout',
+      '--fast',
+      '--plan',
+      plan,
+      '--data',
+      data,
+      '--device',
+      'R7-C4',
+      '--wafer',
+      'W07',
+      '--site',
+      'C4',
+      '--x',
+      '3',
+      '--y',
+      '-2',
+      '--area',
+      '1e-4 cm^2',
+      '--thickness',
+      '7 nm',
+      '--temperature',
+      '300 K',
+      '--device-tag',
+      'ramp',
+      '--device-tag',
+      'lot 7',
+    ]);
     expect(run.code, run.stderr).toBe(0);
     const dir = join(data, readdirSync(data)[0]);
     const s = loadSession(dir);
@@ -334,7 +436,14 @@ describe('the report of a breakdown test', () => {
     const res = figures(html, 'test-result');
     expect(res.get('outcome')?.text).toBe('breakdown');
     expect(res.get('criterion')?.text).toBe(r.criterion);
-    const si: Record<string, [string, number]> = { breakdownVoltage: ['V', 1], breakdownField: ['MV/cm', 1e8], chargeToBreakdown: ['C/cm²', 1e4], timeToBreakdown: ['s', 1], leakageBefore: ['A', 1], leakageAfter: ['A', 1] };
+    const si: Record<string, [string, number]> = {
+      breakdownVoltage: ['V', 1],
+      breakdownField: ['MV/cm', 1e8],
+      chargeToBreakdown: ['C/cm²', 1e4],
+      timeToBreakdown: ['s', 1],
+      leakageBefore: ['A', 1],
+      leakageAfter: ['A', 1],
+    };
     for (const [key, [unit, toSI]] of Object.entries(si)) {
       const row = res.get(key);
       expect(row, key).toBeDefined();
@@ -348,7 +457,10 @@ describe('the report of a breakdown test', () => {
     expect(Math.abs((q.u as number) * 1e4 - (tr?.numbers?.chargeUncertainty as number))).toBeLessThanOrEqual(q.half * 1e4);
     // The criterion's numbers: the bias and current at which it fired.
     const crit = figures(html, 'criterion');
-    for (const [key, unit] of [['voltage', 'V'], ['current', 'A']]) {
+    for (const [key, unit] of [
+      ['voltage', 'V'],
+      ['current', 'A'],
+    ]) {
       const row = crit.get(key);
       expect(row?.unit).toBe(unit);
       const shown = printed(row?.text as string);
@@ -365,8 +477,27 @@ describe('the report of a breakdown test without a result', () => {
   it('a current ramp that gave no result: its range in amperes, no figures, and the device as corrected by a later note', () => {
     const data = join(tempDir(), 'data');
     const { writer, id } = JournalWriter.create(data, 'cramp');
-    const plan = { kind: 'current-ramp', start: 1e-9, stop: 1e-2, stepsPerDecade: 10, stepTime: 0.1, voltageLimit: 14, description: 'current ramp 1 nA → 10 mA' };
-    writer.event({ type: 'session', id, startedAt: new Date().toISOString(), source: { kind: 'simulator', detail: 'test', control: true }, instrument: 'test', plan, analysis: fn, drift, limits, device: { device: 'K1', wafer: 'W07', site: 'C4', x: 3, y: -2, thickness: 7e-9 } });
+    const plan = {
+      kind: 'current-ramp',
+      start: 1e-9,
+      stop: 1e-2,
+      stepsPerDecade: 10,
+      stepTime: 0.1,
+      voltageLimit: 14,
+      description: 'current ramp 1 nA → 10 mA',
+    };
+    writer.event({
+      type: 'session',
+      id,
+      startedAt: new Date().toISOString(),
+      source: { kind: 'simulator', detail: 'test', control: true },
+      instrument: 'test',
+      plan,
+      analysis: fn,
+      drift,
+      limits,
+      device: { device: 'K1', wafer: 'W07', site: 'C4', x: 3, y: -2, thickness: 7e-9 },
+    });
     writer.event({ type: 'annotation', text: 'wrong site on the prober', tags: [], source: 'cli', device: { site: 'D5', x: 4, y: 1, tags: ['reprobed'] } });
     writer.event({ type: 'run-end', outcome: 'aborted', reason: 'stopped by the operator', sweeps: 0 });
     writer.close();

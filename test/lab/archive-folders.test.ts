@@ -26,7 +26,7 @@ beforeAll(async () => {
 afterAll(() => db?.stop());
 
 describe('archived sessions read as folders', () => {
-  it('export from the archive is byte for byte the folder\'s export', () => {
+  it("export from the archive is byte for byte the folder's export", () => {
     const into = tempDir('plumbline-from-archive-');
     const a = runCli(['export', '--postgres', db.url, '--session', session, '--into', into, '--json']);
     expect(a.code, a.stderr).toBe(0);
@@ -38,7 +38,10 @@ describe('archived sessions read as folders', () => {
     // sweeps.csv: the same columns and values (the archive keeps events as JSON objects, whose key
     // order — hence the order of the parameter columns — is not data).
     const byColumn = (file: string) => {
-      const [head, ...rows] = readFileSync(file, 'utf8').trim().split('\n').map((l) => l.split(','));
+      const [head, ...rows] = readFileSync(file, 'utf8')
+        .trim()
+        .split('\n')
+        .map((l) => l.split(','));
       return rows.map((r) => Object.fromEntries(head.map((h, k) => [h, r[k]])));
     };
     expect(byColumn(join(fromArchive.outDir, 'sweeps.csv'))).toEqual(byColumn(join(fromFolder.outDir, 'sweeps.csv')));

@@ -28,16 +28,56 @@ describe('weibull and lot from the archive', () => {
       const tags = k % 3 === 0 ? ['hot'] : [];
       const { writer, id } = JournalWriter.create(data, `dev-${k}`);
       const device = { device: `D${k}`, wafer, site: `S${k}`, x: k % 4, y: Math.floor(k / 4), area: 1e-8, thickness: 7e-9, tags };
-      writer.event({ type: 'session', id, startedAt: new Date(Date.UTC(2026, 11, 1 + (k % 4), 8)).toISOString(), source: { kind: 'simulator', detail: 'lot', control: true }, instrument: 'sim', plan: { repeat: 1 }, analysis: { model: 'fowler-nordheim', inputs: {} }, drift: {}, limits: {}, device } as never);
+      writer.event({
+        type: 'session',
+        id,
+        startedAt: new Date(Date.UTC(2026, 11, 1 + (k % 4), 8)).toISOString(),
+        source: { kind: 'simulator', detail: 'lot', control: true },
+        instrument: 'sim',
+        plan: { repeat: 1 },
+        analysis: { model: 'fowler-nordheim', inputs: {} },
+        drift: {},
+        limits: {},
+        device,
+      } as never);
       writer.event({ type: 'sweep-start', sweep: 1, planned: 3, label: 'up' });
       for (let i = 0; i < 3; i++) writer.reading(1, i, i, 1e-12 * (i + 1), 0);
       writer.event({ type: 'sweep-end', sweep: 1, points: 3, complete: true });
       const phi = 3.1 + 0.02 * Math.sin(k);
-      writer.event({ type: 'fit', sweep: 1, final: true, fit: { model: 'fowler-nordheim', title: 'FN', window: { from: 5, to: 9, mode: 'auto' }, line: { slope: -1, slopeStdErr: 0.01, intercept: 0, interceptStdErr: 0.1, r2: 0.999, residualStdDev: 0.01, n: 20 }, axes: {} as never, parameters: { barrierHeight: { value: phi, stdErr: 0.003, unit: 'eV' } }, plausible: true, warnings: [], points: { used: 20, excluded: 0, reasons: {} }, regimes: [] } });
+      writer.event({
+        type: 'fit',
+        sweep: 1,
+        final: true,
+        fit: {
+          model: 'fowler-nordheim',
+          title: 'FN',
+          window: { from: 5, to: 9, mode: 'auto' },
+          line: { slope: -1, slopeStdErr: 0.01, intercept: 0, interceptStdErr: 0.1, r2: 0.999, residualStdDev: 0.01, n: 20 },
+          axes: {} as never,
+          parameters: { barrierHeight: { value: phi, stdErr: 0.003, unit: 'eV' } },
+          plausible: true,
+          warnings: [],
+          points: { used: 20, excluded: 0, reasons: {} },
+          regimes: [],
+        },
+      });
       // Breakdown field from a Weibull (β 8, η 12 MV/cm); the last device of each wafer survived.
       const field = 1.2e9 * (-Math.log(1 - uniform())) ** (1 / 8);
       const survived = k === 9 || k === 15;
-      const result: DeviceResult = { device: `D${k}`, wafer, site: `S${k}`, x: k % 4, y: Math.floor(k / 4), test: 'voltage-ramp', outcome: survived ? 'survived' : 'breakdown', breakdownField: survived ? 1.3e9 : field, breakdownVoltage: (survived ? 1.3e9 : field) * 7e-9, area: 1e-8, thickness: 7e-9, tags };
+      const result: DeviceResult = {
+        device: `D${k}`,
+        wafer,
+        site: `S${k}`,
+        x: k % 4,
+        y: Math.floor(k / 4),
+        test: 'voltage-ramp',
+        outcome: survived ? 'survived' : 'breakdown',
+        breakdownField: survived ? 1.3e9 : field,
+        breakdownVoltage: (survived ? 1.3e9 : field) * 7e-9,
+        area: 1e-8,
+        thickness: 7e-9,
+        tags,
+      };
       writer.event({ type: 'test-result', test: 'voltage-ramp', outcome: result.outcome, reason: 'invented lot', result: result as never });
       writer.event({ type: 'run-end', outcome: 'completed', reason: 'done', sweeps: 1 });
       writer.close();

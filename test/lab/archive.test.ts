@@ -47,13 +47,18 @@ describe('archive writer (PostgreSQL)', () => {
     // seq 1–100 and 201–300 first (a gap), then 1–100 again, then 51–250 (overlapping both sides).
     await store.writeBatch(header('s-order', 1, 100, 100), records(1, 100, v));
     const gap = await store.writeBatch(header('s-order', 201, 300, 100), records(201, 100, v));
-    expect(gap.committed).toEqual([[1, 100], [201, 300]]);
+    expect(gap.committed).toEqual([
+      [1, 100],
+      [201, 300],
+    ]);
     const dup = await store.writeBatch(header('s-order', 1, 100, 100), records(1, 100, v));
     expect(dup).toMatchObject({ duplicate: true, readingsInserted: 0 });
     const overlap = await store.writeBatch(header('s-order', 51, 250, 200), records(51, 200, v));
     expect(overlap.readingsInserted).toBe(100);
     expect(overlap.committed).toEqual([[1, 300]]);
-    const rows = db.psql("SELECT count(*), count(DISTINCT seq), min(seq), max(seq) FROM readings r JOIN sessions s ON s.id = r.session_id WHERE s.session = 's-order'");
+    const rows = db.psql(
+      "SELECT count(*), count(DISTINCT seq), min(seq), max(seq) FROM readings r JOIN sessions s ON s.id = r.session_id WHERE s.session = 's-order'",
+    );
     expect(rows).toBe('300|300|1|300');
     expect(db.psql("SELECT readings FROM sessions WHERE session = 's-order'")).toBe('300');
   });
@@ -64,20 +69,53 @@ describe('archive writer (PostgreSQL)', () => {
     const rec = records(1, special.length, (seq) => special[seq - 1]);
     rec.writeUInt32LE(0x7ff80123, 5 * RECORD_BYTES + 40 + 4); // a NaN with a payload
     await store.writeBatch(header('s-bits', 1, special.length, special.length), rec);
-    const hex = db.psql("SELECT encode(float8send(current_a), 'hex') FROM readings r JOIN sessions s ON s.id = r.session_id WHERE s.session = 's-bits' ORDER BY seq").split('\n');
-    const want = special.map((_, r) => Buffer.from(rec.subarray(r * RECORD_BYTES + 40, r * RECORD_BYTES + 48)).reverse().toString('hex'));
+    const hex = db
+      .psql("SELECT encode(float8send(current_a), 'hex') FROM readings r JOIN sessions s ON s.id = r.session_id WHERE s.session = 's-bits' ORDER BY seq")
+      .split('\n');
+    const want = special.map((_, r) =>
+      Buffer.from(rec.subarray(r * RECORD_BYTES + 40, r * RECORD_BYTES + 48))
+        .reverse()
+        .toString('hex'),
+    );
     expect(hex).toEqual(want);
   });
 
   it('fills sessions, sweeps and fits from the events, and imports a journal folder idempotently', async () => {
     const data = mkdtempSync(join(tmpdir(), 'plumbline-import-'));
     const { writer, id } = JournalWriter.create(data, 'import');
-    writer.event({ type: 'session', id, startedAt: '2026-12-02T03:15:00.000Z', source: { kind: 'simulator', detail: 'x', control: true }, instrument: 'sim', plan: { repeat: 2 }, analysis: {}, drift: {}, limits: {}, device: { wafer: 'W7', site: 'C3' } } as never);
+    writer.event({
+      type: 'session',
+      id,
+      startedAt: '2026-12-02T03:15:00.000Z',
+      source: { kind: 'simulator', detail: 'x', control: true },
+      instrument: 'sim',
+      plan: { repeat: 2 },
+      analysis: {},
+      drift: {},
+      limits: {},
+      device: { wafer: 'W7', site: 'C3' },
+    } as never);
     for (let sweep = 1; sweep <= 2; sweep++) {
       writer.event({ type: 'sweep-start', sweep, planned: 50, label: 'up' });
       for (let k = 0; k < 50; k++) writer.reading(sweep, k, k * 0.1, k * 1e-10, 0);
       writer.event({ type: 'sweep-end', sweep, points: 50, complete: true });
-      writer.event({ type: 'fit', sweep, final: true, fit: { model: 'ohmic', title: 'Ohmic', window: { from: 0, to: 5, mode: 'auto' }, line: { slope: 1e-9, slopeStdErr: 1e-12, intercept: 0, interceptStdErr: 1e-13, r2: 1, residualStdDev: 0, n: 50 }, axes: {} as never, parameters: { resistance: { value: 1e9, stdErr: 1e6, unit: 'Ω' } }, plausible: true, warnings: [], points: { used: 50, excluded: 0, reasons: {} }, regimes: [] } });
+      writer.event({
+        type: 'fit',
+        sweep,
+        final: true,
+        fit: {
+          model: 'ohmic',
+          title: 'Ohmic',
+          window: { from: 0, to: 5, mode: 'auto' },
+          line: { slope: 1e-9, slopeStdErr: 1e-12, intercept: 0, interceptStdErr: 1e-13, r2: 1, residualStdDev: 0, n: 50 },
+          axes: {} as never,
+          parameters: { resistance: { value: 1e9, stdErr: 1e6, unit: 'Ω' } },
+          plausible: true,
+          warnings: [],
+          points: { used: 50, excluded: 0, reasons: {} },
+          regimes: [],
+        },
+      });
     }
     writer.event({ type: 'annotation', text: 'probed site C4, not C3', tags: [], source: 'test', device: { site: 'C4' } } as never);
     writer.event({ type: 'run-end', outcome: 'completed', reason: 'done', sweeps: 2 });
@@ -88,7 +126,9 @@ describe('archive writer (PostgreSQL)', () => {
     const again = await importSession(store, dir, 'imp');
     expect(again).toMatchObject({ readings: 100, readingsInserted: 0, eventsInserted: 0 });
     // The annotation's correction of the site wins over the session event's.
-    expect(db.psql(`SELECT outcome, wafer, site, started_at = '2026-12-02T03:15:00Z', committed FROM sessions WHERE station = 'imp'`)).toBe('completed|W7|C4|t|{[1,110)}');
+    expect(db.psql(`SELECT outcome, wafer, site, started_at = '2026-12-02T03:15:00Z', committed FROM sessions WHERE station = 'imp'`)).toBe(
+      'completed|W7|C4|t|{[1,110)}',
+    );
     expect(db.psql("SELECT count(*) FROM sweeps w JOIN sessions s ON s.id = w.session_id WHERE s.station = 'imp' AND complete AND points = 50")).toBe('2');
     expect(db.psql("SELECT parameter, value, unit FROM fit_parameters WHERE station = 'imp' ORDER BY sweep LIMIT 1")).toBe('resistance|1000000000|Ω');
   });

@@ -26,7 +26,11 @@ const ARTIFACTS = join(PROJECT_ROOT, 'test-artifacts');
 mkdirSync(ARTIFACTS, { recursive: true });
 const procs = new Set<ChildProcess>();
 
-function start(args: string[], ready: RegExp, env: NodeJS.ProcessEnv = process.env): Promise<{ proc: ChildProcess; out: () => string; match: RegExpExecArray; stop(): Promise<void> }> {
+function start(
+  args: string[],
+  ready: RegExp,
+  env: NodeJS.ProcessEnv = process.env,
+): Promise<{ proc: ChildProcess; out: () => string; match: RegExpExecArray; stop(): Promise<void> }> {
   const proc = spawn(process.execPath, [CLI, ...args], { stdio: ['ignore', 'pipe', 'pipe'], env });
   procs.add(proc);
   let out = '';
@@ -69,16 +73,19 @@ async function until<T>(f: () => Promise<T | undefined> | T | undefined, timeout
 
 function stationConfig(dir: string, name: string, token: string): string {
   const file = join(dir, `${name}.json`);
-  writeFileSync(file, JSON.stringify({
-    name,
-    instrument: { kind: 'simulator', scenario: 'oxide-fn', realTime: false, seed: 3 },
-    limits: { maxVoltage: 20, maxCompliance: 0.01, maxPower: 0.1, rampDelay: 0 },
-    plan: { start: 0, stop: 9, points: 91, compliance: 1e-3, repeat: 4 },
-    analysis: { model: 'fowler-nordheim', window: { from: 5, to: 9 }, inputs: { thickness: 7e-9, massRatio: 0.42 } },
-    drift: { action: 'warn' },
-    server: { host: '127.0.0.1', port: 0, token },
-    autostart: true,
-  }));
+  writeFileSync(
+    file,
+    JSON.stringify({
+      name,
+      instrument: { kind: 'simulator', scenario: 'oxide-fn', realTime: false, seed: 3 },
+      limits: { maxVoltage: 20, maxCompliance: 0.01, maxPower: 0.1, rampDelay: 0 },
+      plan: { start: 0, stop: 9, points: 91, compliance: 1e-3, repeat: 4 },
+      analysis: { model: 'fowler-nordheim', window: { from: 5, to: 9 }, inputs: { thickness: 7e-9, massRatio: 0.42 } },
+      drift: { action: 'warn' },
+      server: { host: '127.0.0.1', port: 0, token },
+      autostart: true,
+    }),
+  );
   return file;
 }
 
@@ -86,7 +93,10 @@ describe('lab overview page', () => {
   let broker: Broker;
   let browser: Browser;
   beforeAll(async () => {
-    [broker, browser] = await Promise.all([startMosquitto(), chromium.launch({ executablePath: '/usr/bin/chromium', args: ['--disable-gpu', '--disable-background-networking', '--no-first-run'] })]);
+    [broker, browser] = await Promise.all([
+      startMosquitto(),
+      chromium.launch({ executablePath: '/usr/bin/chromium', args: ['--disable-gpu', '--disable-background-networking', '--no-first-run'] }),
+    ]);
   }, 60_000);
   afterAll(async () => {
     for (const p of procs) p.kill('SIGKILL');
@@ -98,11 +108,16 @@ describe('lab overview page', () => {
     const root = tempDir('plumbline-labpage-');
     const lab = `${broker.url}/lab`;
     const token = 'station-token-0123456789';
-    const stations = await Promise.all(['probe-a', 'probe-b'].map(async (name) => {
-      const data = join(root, name);
-      const s = await start(['serve', '--config', stationConfig(root, name, token), '--data', data, '--publish', lab, '--station', name], /page\s+(http:\/\/\S+)/);
-      return { name, data, url: s.match[1].replace(/\/$/, ''), proc: s };
-    }));
+    const stations = await Promise.all(
+      ['probe-a', 'probe-b'].map(async (name) => {
+        const data = join(root, name);
+        const s = await start(
+          ['serve', '--config', stationConfig(root, name, token), '--data', data, '--publish', lab, '--station', name],
+          /page\s+(http:\/\/\S+)/,
+        );
+        return { name, data, url: s.match[1].replace(/\/$/, ''), proc: s };
+      }),
+    );
     // Both first runs end before the lab page exists: it must learn of them from retained messages.
     await until(() => stations.every((s) => /run ended/.test(s.proc.out())), 60_000, 'first runs end');
     const labProc = await start(['lab', '--mqtt', lab, '--port', '0'], /page\s+(http:\/\/\S+)/);
@@ -138,7 +153,13 @@ describe('lab overview page', () => {
     }
 
     // A new run on probe-a, started with its token: the page follows it live.
-    const r = await api(stations[0].url, 'POST', '/api/run', { plan: { start: 0, stop: 9, points: 91, compliance: 1e-3, repeat: 3 } }, { authorization: `Bearer ${token}` });
+    const r = await api(
+      stations[0].url,
+      'POST',
+      '/api/run',
+      { plan: { start: 0, stop: 9, points: 91, compliance: 1e-3, repeat: 3 } },
+      { authorization: `Bearer ${token}` },
+    );
     expect(r.status).toBe(201);
     const card = page.locator('section.card[data-station="probe-a"]');
     await expect.poll(async () => (await card.innerText()).includes(`session ${r.json.session}`), { timeout: 20_000 }).toBe(true);
@@ -156,7 +177,7 @@ describe('lab overview page', () => {
     await stations[0].proc.stop();
   }, 180_000);
 
-  it('keeps the station server\'s rules: Host, Origin, token, loopback', async () => {
+  it("keeps the station server's rules: Host, Origin, token, loopback", async () => {
     const token = 'lab-token-abcdefghijkl';
     const srv = await startLabServer({ mqtt: `${broker.url}/lab`, host: '127.0.0.1', port: 0, token });
     try {
@@ -169,10 +190,13 @@ describe('lab overview page', () => {
       expect((await fetch(`${base}/api/stations`, { headers: { cookie } })).status).toBe(200);
       // fetch() will not send another Host; a raw request does, as a DNS-rebinding page's would.
       const foreignHost = await new Promise<number>((resolve, reject) => {
-        const q = request({ host: '127.0.0.1', port: srv.port, path: '/api/stations', headers: { host: 'evil.example', authorization: `Bearer ${token}` } }, (res) => {
-          res.resume();
-          resolve(res.statusCode ?? 0);
-        });
+        const q = request(
+          { host: '127.0.0.1', port: srv.port, path: '/api/stations', headers: { host: 'evil.example', authorization: `Bearer ${token}` } },
+          (res) => {
+            res.resume();
+            resolve(res.statusCode ?? 0);
+          },
+        );
         q.on('error', reject);
         q.end();
       });
@@ -199,7 +223,7 @@ describe('lab overview page', () => {
     expect(r.stderr).toMatch(/beyond loopback: give --token/);
   });
 
-  it('never prints the broker\'s or the database\'s password', async () => {
+  it("never prints the broker's or the database's password", async () => {
     const secret = 'S3cret-pass-word-77';
     const locked = await startMosquitto({ user: { name: 'station', password: secret } });
     const db = await startPostgres();

@@ -29,7 +29,7 @@ describe('private services', () => {
   it('the throwaway cluster answers SQL over its Unix socket only', async () => {
     const c = new pg.Client({ connectionString: db.url });
     await c.connect();
-    const r = await c.query('SELECT 6 * 7 AS x, current_setting(\'listen_addresses\') AS l');
+    const r = await c.query("SELECT 6 * 7 AS x, current_setting('listen_addresses') AS l");
     expect(r.rows[0]).toEqual({ x: 42, l: '' });
     await c.end();
   });

@@ -23,10 +23,12 @@ function start(args: string[], ready?: RegExp): Promise<{ proc: ChildProcess; ou
   let out = '';
   proc.stdout!.on('data', (d) => (out += String(d)));
   proc.stderr!.on('data', (d) => (out += String(d)));
-  const exited = new Promise<number | null>((r) => proc.once('exit', (code) => {
+  const exited = new Promise<number | null>((r) =>
+    proc.once('exit', (code) => {
       procs.delete(proc);
       r(code);
-    }));
+    }),
+  );
   if (!ready) return Promise.resolve({ proc, out: () => out, exited });
   return new Promise((resolve, reject) => {
     const t = setTimeout(() => reject(new Error(`not ready: ${args.join(' ')}: ${out}`)), 30_000);
@@ -74,27 +76,42 @@ describe('three stations → broker → archive → PostgreSQL', () => {
     const stations: { data: string; run: Awaited<ReturnType<typeof start>> }[] = [];
     // Each instrument's device with the sweep its scenario suggests (config/scenarios).
     const devices = [
-      { scenario: 'oxide-fn', sweep: { start: 0, stop: 9, points: 91, compliance: 1e-3 }, analysis: { model: 'fowler-nordheim', window: { from: 5, to: 9 }, inputs: { thickness: 7e-9, massRatio: 0.42 } } },
-      { scenario: 'nitride-pf', sweep: { start: 0, stop: 12, points: 61, compliance: 1e-3 }, analysis: { model: 'poole-frenkel', window: { from: 3, to: 12 }, inputs: { thickness: 2e-8 } } },
-      { scenario: 'organic-sclc', sweep: { start: 0, stop: 10, points: 101, compliance: 1e-2 }, analysis: { model: 'sclc', window: { from: 3, to: 10 }, inputs: { thickness: 1e-7 } } },
+      {
+        scenario: 'oxide-fn',
+        sweep: { start: 0, stop: 9, points: 91, compliance: 1e-3 },
+        analysis: { model: 'fowler-nordheim', window: { from: 5, to: 9 }, inputs: { thickness: 7e-9, massRatio: 0.42 } },
+      },
+      {
+        scenario: 'nitride-pf',
+        sweep: { start: 0, stop: 12, points: 61, compliance: 1e-3 },
+        analysis: { model: 'poole-frenkel', window: { from: 3, to: 12 }, inputs: { thickness: 2e-8 } },
+      },
+      {
+        scenario: 'organic-sclc',
+        sweep: { start: 0, stop: 10, points: 101, compliance: 1e-2 },
+        analysis: { model: 'sclc', window: { from: 3, to: 10 }, inputs: { thickness: 1e-7 } },
+      },
     ];
     for (let s = 0; s < 3; s++) {
       const port = await freePort();
       await start(['sim', '--tcp', String(port), '--scenario', devices[s].scenario, '--seed', String(s + 1)], /simulated SMU/);
       const data = join(root, `station-${s}`);
       const config = join(root, `station-${s}.json`);
-      writeFileSync(config, JSON.stringify({
-        name: `test station ${s}`,
-        instrument: { kind: 'tcp', host: '127.0.0.1', port },
-        dialect: 'protection-trip',
-        limits: { maxVoltage: 20, maxCompliance: 0.01, maxPower: 0.1, rampDelay: 0 },
-        // No integration wait: the instrument answers as fast as the link allows (full rate).
-        plan: { ...devices[s].sweep, nplc: 0.01, repeat: 600 },
-        analysis: devices[s].analysis,
-        drift: { action: 'warn' },
-        server: { host: '127.0.0.1', port: 0 },
-        autostart: true,
-      }));
+      writeFileSync(
+        config,
+        JSON.stringify({
+          name: `test station ${s}`,
+          instrument: { kind: 'tcp', host: '127.0.0.1', port },
+          dialect: 'protection-trip',
+          limits: { maxVoltage: 20, maxCompliance: 0.01, maxPower: 0.1, rampDelay: 0 },
+          // No integration wait: the instrument answers as fast as the link allows (full rate).
+          plan: { ...devices[s].sweep, nplc: 0.01, repeat: 600 },
+          analysis: devices[s].analysis,
+          drift: { action: 'warn' },
+          server: { host: '127.0.0.1', port: 0 },
+          autostart: true,
+        }),
+      );
       const run = await start(['serve', '--config', config, '--data', data, '--publish', lab, '--station', `st-${s}`], /demo run started/);
       stations.push({ data, run });
     }
@@ -116,7 +133,11 @@ describe('three stations → broker → archive → PostgreSQL', () => {
     await new Promise((r) => setTimeout(r, 1000));
     await broker.restart();
 
-    await until(() => running() === 0, 120_000, () => stations.map((s) => s.run.out().slice(-300)).join('\n'));
+    await until(
+      () => running() === 0,
+      120_000,
+      () => stations.map((s) => s.run.out().slice(-300)).join('\n'),
+    );
     for (const s of stations) expect(s.run.out()).toMatch(/run ended: completed/);
 
     // What the journals hold, read independently of the publisher.
@@ -131,14 +152,30 @@ describe('three stations → broker → archive → PostgreSQL', () => {
       return { station: `st-${i}`, id, readings, events };
     });
     const total = journals.reduce((a, j) => a + j.readings.length, 0);
-    await until(() => count() >= total, 90_000, () => `all ${total} readings archived (have ${count()}); sessions: ${db.psql('SELECT station, committed, known_last FROM sessions')}\narchive: ${archive.out().slice(-800)}\nstations: ${stations.map((s) => s.run.out().split('\n').filter((l) => /publish|broker/.test(l)).join('\n')).join('\n')}`);
+    await until(
+      () => count() >= total,
+      90_000,
+      () =>
+        `all ${total} readings archived (have ${count()}); sessions: ${db.psql('SELECT station, committed, known_last FROM sessions')}\narchive: ${archive.out().slice(-800)}\nstations: ${stations
+          .map((s) =>
+            s.run
+              .out()
+              .split('\n')
+              .filter((l) => /publish|broker/.test(l))
+              .join('\n'),
+          )
+          .join('\n')}`,
+    );
     await new Promise((r) => setTimeout(r, 1500)); // anything late would show up as extra rows
 
     for (const j of journals) {
       const sid = db.psql(`SELECT id FROM sessions WHERE station = '${j.station}' AND session = '${j.id}'`);
       expect(sid, `${j.station} session row`).not.toBe('');
       // Exactly once: as many rows as journaled readings, each seq once, values bit for bit.
-      const rows = db.psql(`SELECT seq, sweep, k, t_ms, voltage_v, current_a, flags FROM readings WHERE session_id = ${sid} ORDER BY seq`).split('\n').map((l) => l.split('|').map(Number));
+      const rows = db
+        .psql(`SELECT seq, sweep, k, t_ms, voltage_v, current_a, flags FROM readings WHERE session_id = ${sid} ORDER BY seq`)
+        .split('\n')
+        .map((l) => l.split('|').map(Number));
       expect(rows.length).toBe(j.readings.length);
       for (let n = 0; n < rows.length; n++) {
         const r = j.readings[n];

@@ -13,7 +13,8 @@ import { tempDir } from '../helpers/daemon.js';
 import { PROJECT_ROOT } from '../helpers/reference.js';
 
 const FILES: Record<string, string> = {
-  'daemon/analysis/good.ts': "import { fitLine } from './line-fit.js';\nimport type { EvalFunction } from 'mathjs';\nexport const g = [fitLine] as unknown as EvalFunction[];\n",
+  'daemon/analysis/good.ts':
+    "import { fitLine } from './line-fit.js';\nimport type { EvalFunction } from 'mathjs';\nexport const g = [fitLine] as unknown as EvalFunction[];\n",
   'daemon/analysis/bad-static.ts': "import { openTcp } from '../../protocols/transport.js';\nexport const a = openTcp;\n",
   'daemon/analysis/bad-dynamic.ts': 'export async function f() {\n  return import("node:fs");\n}\n',
   'daemon/analysis/bad-quoted.ts': 'import { GuardedSource } from "../run/guard.js";\nexport const b = GuardedSource;\n',
@@ -23,7 +24,8 @@ const FILES: Record<string, string> = {
   'web/src/bad-daemon.ts': "import { analyze } from '../../daemon/analysis/analyze.js';\nexport const h = analyze;\n",
   'web/src/bad-protocol.ts': "import { openTcp } from '../../protocols/transport.js';\nexport const k = openTcp;\n",
   'protocols/good.ts': "import { FLAG } from './wire.js';\nexport const m = FLAG;\n",
-  'protocols/bad.ts': "import { startServer } from '../daemon/server/app.js';\nimport { RunController } from '../daemon/run/runner.js';\nexport const n = [startServer, RunController];\n",
+  'protocols/bad.ts':
+    "import { startServer } from '../daemon/server/app.js';\nimport { RunController } from '../daemon/run/runner.js';\nexport const n = [startServer, RunController];\n",
 };
 
 describe('layering rules', () => {
@@ -35,7 +37,11 @@ describe('layering rules', () => {
       writeFileSync(join(dir, f), text);
     }
     const bin = join(PROJECT_ROOT, 'node_modules', '.bin', 'biome');
-    const r = spawnSync(bin, ['lint', '--reporter=json', '--max-diagnostics=200', '--only=style/noRestrictedImports', '--only=correctness/noNodejsModules', '.'], { cwd: dir, encoding: 'utf8' });
+    const r = spawnSync(
+      bin,
+      ['lint', '--reporter=json', '--max-diagnostics=200', '--only=style/noRestrictedImports', '--only=correctness/noNodejsModules', '.'],
+      { cwd: dir, encoding: 'utf8' },
+    );
     const report = JSON.parse(r.stdout) as { diagnostics: { category: string; location: { path: string | { file: string } } }[] };
     const hits = report.diagnostics.map((d) => `${typeof d.location.path === 'string' ? d.location.path : d.location.path.file} ${d.category}`);
     const files = new Set(hits.map((h) => h.split(' ')[0].replace(/^\.\//, '')));

@@ -11,7 +11,17 @@ import type { WireEvent } from '../../protocols/wire.js';
 function* session(sweeps: number): Generator<WireEvent> {
   let seq = 0;
   const ev = (e: object) => ({ seq: ++seq, t: seq, ...e }) as unknown as WireEvent;
-  yield ev({ type: 'session', id: 's', startedAt: '', source: { kind: 'simulator', detail: '', control: true }, instrument: 'sim', plan: null, analysis: {}, drift: {}, limits: {} });
+  yield ev({
+    type: 'session',
+    id: 's',
+    startedAt: '',
+    source: { kind: 'simulator', detail: '', control: true },
+    instrument: 'sim',
+    plan: null,
+    analysis: {},
+    drift: {},
+    limits: {},
+  });
   yield ev({ type: 'output', on: true, confirmed: true, reason: 'run started' });
   yield ev({ type: 'caution', kind: 'output-on', message: 'terminals live' });
   for (let s = 1; s <= sweeps; s++) {
@@ -53,7 +63,7 @@ describe('the snapshot buffer (RecentEvents)', () => {
     expect(most).toBeGreaterThan(100 * 3 + 2_000);
   });
 
-  it('keeps the session\'s own events, the last 100 sweeps whole, 2,000 drift points, the first caution of each kind and the latest progress, in order', () => {
+  it("keeps the session's own events, the last 100 sweeps whole, 2,000 drift points, the first caution of each kind and the latest progress, in order", () => {
     const sweeps = 20_000;
     const { recent, last } = fill(sweeps);
     const ev = recent.nonReadings();

@@ -32,7 +32,13 @@ interface Run {
   cautions: { kind: string; sweep?: number; message: string }[];
 }
 
-async function runScenario(name: string, sweeps: number, seed: number, plan?: Record<string, unknown>, during?: (chain: LiveChain, e: WireEvent) => void): Promise<Run & { drift: { sweep: number; parameter: string; phase: string }[] }> {
+async function runScenario(
+  name: string,
+  sweeps: number,
+  seed: number,
+  plan?: Record<string, unknown>,
+  during?: (chain: LiveChain, e: WireEvent) => void,
+): Promise<Run & { drift: { sweep: number; parameter: string; phase: string }[] }> {
   const sc = findScenario(name);
   const smu = new SimulatedSmu({ device: sc.device, seed, realTime: false });
   const [client, inst] = duplexPair();
@@ -52,10 +58,14 @@ async function runScenario(name: string, sweeps: number, seed: number, plan?: Re
   chain.events$.subscribe((e: WireEvent) => {
     during?.(chain, e);
     if (e.type === 'drift') run.drift.push({ sweep: e.sweep, parameter: e.parameter, phase: e.phase });
-    if (e.type === 'fit' && e.final && e.fit) run.fits.push({ sweep: e.sweep, parameters: e.fit.parameters, plausible: e.fit.plausible, warnings: e.fit.warnings });
+    if (e.type === 'fit' && e.final && e.fit)
+      run.fits.push({ sweep: e.sweep, parameters: e.fit.parameters, plausible: e.fit.plausible, warnings: e.fit.warnings });
     if (e.type === 'caution') run.cautions.push({ kind: e.kind, sweep: e.sweep, message: e.message });
   });
-  const source = new GuardedSource(new SmuDriver(session, loadDialect('protection-trip')), limitsSchema.parse({ maxVoltage: 20, maxCompliance: 1, maxPower: 1, rampDelay: 0 }));
+  const source = new GuardedSource(
+    new SmuDriver(session, loadDialect('protection-trip')),
+    limitsSchema.parse({ maxVoltage: 20, maxCompliance: 1, maxPower: 1, rampDelay: 0 }),
+  );
   const { start, stop, points, compliance } = sc.sweep;
   const c = new RunController(source, chain, parsePlan({ start, stop, points, compliance, repeat: sweeps, ...plan }));
   const r = await c.execute();
@@ -94,7 +104,9 @@ describe('built-in scenarios, live, with the default analysis', () => {
           const err = check.relative ? p.value / check.truth - 1 : p.value - check.truth;
           return Math.abs(err) > check.tol;
         });
-        const shown = run.fits.map((f) => `${f.sweep}: ${f.parameters[check.key]?.value.toPrecision(4)}${f.plausible ? '' : ` (implausible: ${f.warnings.join('; ')})`}`).join(', ');
+        const shown = run.fits
+          .map((f) => `${f.sweep}: ${f.parameters[check.key]?.value.toPrecision(4)}${f.plausible ? '' : ` (implausible: ${f.warnings.join('; ')})`}`)
+          .join(', ');
         expect(off.length, `${check.key}: ${shown}`).toBeLessThanOrEqual(1);
       }
     });
@@ -110,7 +122,8 @@ describe('built-in scenarios, live, with the default analysis', () => {
     // The breakdown watch follows the sweep on the mechanism's own plot; after a switch from
     // ln(J/E²) against 1/E to ln(J/E) against √E the old trend must not be extrapolated into the new.
     const run = await runScenario('oxide-fn', 3, 4, undefined, (chain, e) => {
-      if (e.type === 'reading' && e.sweep === 2 && e.k === 60) chain.setAnalysis(analysisSchema.parse({ model: 'poole-frenkel', inputs: findScenario('oxide-fn').device.inputs }), 'test');
+      if (e.type === 'reading' && e.sweep === 2 && e.k === 60)
+        chain.setAnalysis(analysisSchema.parse({ model: 'poole-frenkel', inputs: findScenario('oxide-fn').device.inputs }), 'test');
     });
     expect(run.outcome).toBe('completed');
     expect(run.cautions.filter((c) => c.kind.startsWith('breakdown')).map((c) => c.message)).toEqual([]);
@@ -118,7 +131,8 @@ describe('built-in scenarios, live, with the default analysis', () => {
 
   it('a change of model mid-run starts a new drift baseline (a trap energy is never charted against a barrier)', async () => {
     const run = await runScenario('oxide-fn', 9, 9, undefined, (chain, e) => {
-      if (e.type === 'sweep-start' && e.sweep === 4) chain.setAnalysis(analysisSchema.parse({ model: 'trap-assisted-tunneling', inputs: findScenario('oxide-fn').device.inputs }), 'test');
+      if (e.type === 'sweep-start' && e.sweep === 4)
+        chain.setAnalysis(analysisSchema.parse({ model: 'trap-assisted-tunneling', inputs: findScenario('oxide-fn').device.inputs }), 'test');
     });
     expect(run.outcome).toBe('completed');
     const after = run.drift.filter((d) => d.sweep >= 4);

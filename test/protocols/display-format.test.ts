@@ -7,7 +7,17 @@
 import { evaluate, unit } from 'mathjs';
 import { describe, expect, it } from 'vitest';
 import { RESULT_COLUMNS } from '../../protocols/device-results.js';
-import { axisLabel, displayUnit, formatInputs, formatParameterText, fromDisplay, INPUTS, prettyUnit, RESULT_FIGURES, toDisplay } from '../../protocols/display-units.js';
+import {
+  axisLabel,
+  displayUnit,
+  formatInputs,
+  formatParameterText,
+  fromDisplay,
+  INPUTS,
+  prettyUnit,
+  RESULT_FIGURES,
+  toDisplay,
+} from '../../protocols/display-units.js';
 import { formatLogTick, formatLogTicks, formatMeasurement, formatNumber, formatTicks, logTicks, niceTicks } from '../../protocols/number-format.js';
 
 describe('formatNumber', () => {
@@ -40,7 +50,12 @@ describe('formatMeasurement (GUM rounding)', () => {
     expect(formatMeasurement(1.234567, Number.NaN)).toBe('1.2346');
   });
   it('the printed value is within half a unit of its last digit of the true value', () => {
-    for (const [v, s] of [[3.14172, 0.0123], [7.77e-8, 2.2e-10], [1234.5678, 3.21], [-0.000567, 0.0000123]]) {
+    for (const [v, s] of [
+      [3.14172, 0.0123],
+      [7.77e-8, 2.2e-10],
+      [1234.5678, 3.21],
+      [-0.000567, 0.0000123],
+    ]) {
       const t = formatMeasurement(v, s);
       const m = /^\(?(-?[\d.]+) ± ([\d.]+)\)?(?:e(-?\d+))?$/.exec(t);
       expect(m, t).not.toBeNull();
@@ -48,7 +63,7 @@ describe('formatMeasurement (GUM rounding)', () => {
       const shown = Number(m?.[1]) * scale;
       const decimals = (m?.[1].split('.')[1] ?? '').length;
       expect(Math.abs(shown - v), `${t} for ${v}`).toBeLessThanOrEqual(0.5 * 10 ** -decimals * scale * (1 + 1e-9));
-      expect(Number(m?.[2]) * scale / s).toBeCloseTo(1, 1);
+      expect((Number(m?.[2]) * scale) / s).toBeCloseTo(1, 1);
     }
   });
 });
@@ -65,7 +80,13 @@ describe('ticks', () => {
   });
   it('a label always reads as its tick (2.5 is never shown as 3)', () => {
     expect(formatTicks([0, 2.5, 5, 7.5, 10])).toEqual(['0.0', '2.5', '5.0', '7.5', '10.0']);
-    for (const [a, b] of [[0, 10], [3.09999, 3.10001], [1e-25, 1.7e-25], [-0.37, 0.41], [0.95, 1.05]]) {
+    for (const [a, b] of [
+      [0, 10],
+      [3.09999, 3.10001],
+      [1e-25, 1.7e-25],
+      [-0.37, 0.41],
+      [0.95, 1.05],
+    ]) {
       const t = niceTicks(a, b);
       const l = formatTicks(t);
       const step = t[1] - t[0];
@@ -77,7 +98,13 @@ describe('ticks', () => {
   it('niceTicks gives at least three ticks on any range with width', () => {
     expect(niceTicks(0, 10)).toEqual([0, 2, 4, 6, 8, 10]);
     expect(niceTicks(-1, 1)).toEqual([-1, -0.5, 0, 0.5, 1]);
-    for (const [a, b] of [[0.95, 1.05], [1e-25, 1.7e-25], [3.1, 3.11], [-2e-3, 1e-3]]) expect(niceTicks(a, b).length, `${a}…${b}`).toBeGreaterThanOrEqual(3);
+    for (const [a, b] of [
+      [0.95, 1.05],
+      [1e-25, 1.7e-25],
+      [3.1, 3.11],
+      [-2e-3, 1e-3],
+    ])
+      expect(niceTicks(a, b).length, `${a}…${b}`).toBeGreaterThanOrEqual(3);
   });
   it('log ticks: decades, or 1-2-5 steps when fewer than three decades fit', () => {
     expect(logTicks(1e-12, 1e-3)).toEqual([1e-12, 1e-10, 1e-8, 1e-6, 1e-4]);
@@ -131,7 +158,9 @@ describe('display units', () => {
     expect(formatParameterText({ value: 3.4e-8, stdErr: 0.2e-8, unit: 'm^2/(V*s)' })).toBe('(3.40 ± 0.20)e-4 cm²/(V·s)');
     expect(formatParameterText({ value: 352, stdErr: 4, unit: 'A/m^2' }, 'jsc')).toBe('35.20 ± 0.40 mA/cm²');
     expect(formatParameterText({ value: 0.1873, stdErr: 0.0012, unit: '' }, 'efficiency')).toBe('18.73 ± 0.12 %');
-    expect(formatInputs({ thickness: 7e-9, area: 1e-8, temperature: { value: 300, assumed: true } })).toBe('thickness 7 nm, area 1e-4 cm², temperature 300 K (assumed)');
+    expect(formatInputs({ thickness: 7e-9, area: 1e-8, temperature: { value: 300, assumed: true } })).toBe(
+      'thickness 7 nm, area 1e-4 cm², temperature 300 K (assumed)',
+    );
     expect(fromDisplay(toDisplay(7e-9, INPUTS.thickness.si), INPUTS.thickness.si)).toBeCloseTo(7e-9, 20);
     expect(axisLabel({ label: '1/E', unit: 'm/V' })).toBe('1/E (cm/MV)');
     expect(axisLabel({ label: 'x', unit: '' })).toBe('x');
@@ -139,7 +168,7 @@ describe('display units', () => {
 });
 
 describe('breakdown-test figures', () => {
-  it('carry the SI unit of their device-results.csv column and show in the trade\'s units', () => {
+  it("carry the SI unit of their device-results.csv column and show in the trade's units", () => {
     for (const [key, f] of Object.entries(RESULT_FIGURES)) {
       expect(RESULT_COLUMNS.find((c) => c.key === key)?.unit, key).toBe(f.si);
     }

@@ -136,7 +136,9 @@ describe('property-based fuzzing of the reading parser and framer (fast-check)',
   it('random bytes, huge lines and arbitrary chunk splits: framing equals splitting the whole text', async () => {
     await fc.assert(
       fc.asyncProperty(
-        fc.array(fc.oneof(fc.string({ maxLength: 40 }), fc.constant('\n'), fc.constant('\r\n'), fc.string({ minLength: 100, maxLength: 300 })), { maxLength: 30 }),
+        fc.array(fc.oneof(fc.string({ maxLength: 40 }), fc.constant('\n'), fc.constant('\r\n'), fc.string({ minLength: 100, maxLength: 300 })), {
+          maxLength: 30,
+        }),
         fc.array(fc.integer({ min: 1, max: 50 }), { minLength: 1, maxLength: 10 }),
         async (pieces, cuts) => {
           const text = pieces.join('');
@@ -151,7 +153,9 @@ describe('property-based fuzzing of the reading parser and framer (fast-check)',
           const max = 120;
           const got = await frame(chunks, max);
           const parts = text.split('\n');
-          const expected = parts.filter((p, idx) => (idx < parts.length - 1 || p.length > 0) && p.length <= max).map((p) => (p.endsWith('\r') ? p.slice(0, -1) : p));
+          const expected = parts
+            .filter((p, idx) => (idx < parts.length - 1 || p.length > 0) && p.length <= max)
+            .map((p) => (p.endsWith('\r') ? p.slice(0, -1) : p));
           const expectedOverlong = parts.filter((p) => p.length > max).length;
           expect(got.lines).toEqual(expected);
           expect(got.overlong).toBe(expectedOverlong);

@@ -39,7 +39,9 @@ describe('plans', () => {
     expect(() => parsePlan({ ...adaptive, start: 10, stop: 0 })).toThrow(/field 'stop'/);
     expect(() => parsePlan({ ...adaptive, currentLimit: 2e-3 })).toThrow(/field 'currentLimit'/);
     const stress = { kind: 'constant-voltage', stress: 8, duration: 100, sampleEvery: 5, compliance: 1e-3 };
-    expect(() => parsePlan({ ...stress, sense: { start: 0, stop: 2, points: 5, every: 1 } })).toThrow(/field 'sense.every': 1 s is shorter than sampleEvery 5 s/);
+    expect(() => parsePlan({ ...stress, sense: { start: 0, stop: 2, points: 5, every: 1 } })).toThrow(
+      /field 'sense.every': 1 s is shorter than sampleEvery 5 s/,
+    );
     expect(() => parsePlan({ ...stress, criteria: { currentLimit: 1 } })).toThrow(/field 'criteria.currentLimit'/);
   });
 
@@ -72,7 +74,7 @@ describe('guard', () => {
 });
 
 describe('the default station and the demo scenarios', () => {
-  it('every scenario\'s suggested sweep passes the default station\'s hard limits (npm start -- --scenario NAME works)', async () => {
+  it("every scenario's suggested sweep passes the default station's hard limits (npm start -- --scenario NAME works)", async () => {
     const { loadConfig } = await import('../../daemon/run/config.js');
     const { listScenarios } = await import('../../daemon/simulator/scenarios.js');
     const station = loadConfig();

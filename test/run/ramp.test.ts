@@ -57,11 +57,17 @@ describe('ramps', () => {
   it('the built-in simulator in fast mode: between sweeps it receives the ramp down in 1 V steps, and the waits pass on its clock', async () => {
     const limits = { maxVoltage: 12, maxCompliance: 2e-3, maxPower: 1.5e-2, rampStep: 1, rampDelay: 0.05 };
     const run = async (realTime: boolean) => {
-      const st = new Station(parseConfig({
-        instrument: { kind: 'simulator', scenario: 'oxide-fn', realTime, seed: 1 },
-        limits,
-        drift: { enabled: false },
-      }, 'test'), join(tempDir(), 'data'));
+      const st = new Station(
+        parseConfig(
+          {
+            instrument: { kind: 'simulator', scenario: 'oxide-fn', realTime, seed: 1 },
+            limits,
+            drift: { enabled: false },
+          },
+          'test',
+        ),
+        join(tempDir(), 'data'),
+      );
       const h = await st.startRun({ plan: { start: 0, stop: 9, points: 10, compliance: 1e-3, repeat: 3 } });
       const r = await h.done;
       expect(r.outcome).toBe('completed');

@@ -35,7 +35,10 @@ async function runAndAbortAfter(ticks: number) {
     breakdown: breakdownSchema.parse({}),
     hazardVoltage: 30,
   });
-  const source = new GuardedSource(new SmuDriver(session, loadDialect('protection-trip')), limitsSchema.parse({ maxVoltage: 20, maxCompliance: 0.01, maxPower: 1, rampDelay: 0 }));
+  const source = new GuardedSource(
+    new SmuDriver(session, loadDialect('protection-trip')),
+    limitsSchema.parse({ maxVoltage: 20, maxCompliance: 0.01, maxPower: 1, rampDelay: 0 }),
+  );
   const c = new RunController(source, chain, parsePlan({ start: 0, stop: 5, points: 6, repeat: 2, compliance: 1e-3 }));
   const done = c.execute();
   for (let k = 0; k < ticks; k++) await new Promise((r) => setImmediate(r));

@@ -10,13 +10,19 @@ import { Station } from '../../daemon/run/station.js';
 import type { WireEvent } from '../../protocols/wire.js';
 import { tempDir } from '../helpers/daemon.js';
 
-describe('the station\'s event stream', () => {
+describe("the station's event stream", () => {
   it('a throwing subscriber does not reach the run; two sessions arrive on one stream', async () => {
-    const st = new Station(parseConfig({
-      instrument: { kind: 'simulator', scenario: 'oxide-fn', realTime: false, seed: 1 },
-      limits: { maxVoltage: 12, maxCompliance: 2e-3, maxPower: 1.5e-2, rampDelay: 0, rampStep: 2 },
-      drift: { enabled: false },
-    }, 'test'), join(tempDir(), 'data'));
+    const st = new Station(
+      parseConfig(
+        {
+          instrument: { kind: 'simulator', scenario: 'oxide-fn', realTime: false, seed: 1 },
+          limits: { maxVoltage: 12, maxCompliance: 2e-3, maxPower: 1.5e-2, rampDelay: 0, rampStep: 2 },
+          drift: { enabled: false },
+        },
+        'test',
+      ),
+      join(tempDir(), 'data'),
+    );
     let thrown = 0;
     st.events$.subscribe(() => {
       thrown++;

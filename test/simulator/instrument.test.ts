@@ -217,11 +217,11 @@ describe('illuminated solar cell scenario (single-diode model, implicit equation
     await driver.configure({ compliance: 0.5 });
     await driver.outputOn();
     await driver.setVoltage(0);
-    const isc = -(((await driver.measure()).reading?.i) ?? 0);
+    const isc = -((await driver.measure()).reading?.i ?? 0);
     // At V = 0 with tiny R_s: I ≈ I_ph (0.14 A) within the instrument accuracy.
     expect(Math.abs(isc - 0.14) / 0.14).toBeLessThan(0.01);
     await driver.setVoltage(0.5);
-    const i = -(((await driver.measure()).reading?.i) ?? 0);
+    const i = -((await driver.measure()).reading?.i ?? 0);
     // Residual of the single-diode equation with series and shunt resistance (Shockley 1949 with
     // lumped R_s and R_sh, as in Sze & Ng, Physics of Semiconductor Devices, 3rd ed. 2007, ch. 14) at the measured point.
     const vt = 0.025692579; // kT/q at 298.15 K (CODATA 2018)

@@ -97,7 +97,7 @@ describe('live page in headless Chromium', () => {
     await daemon?.stop();
   });
 
-  it('shows a run end to end: the charts hold the streamed points, the parameters are the daemon\'s, in the trade\'s units', async () => {
+  it("shows a run end to end: the charts hold the streamed points, the parameters are the daemon's, in the trade's units", async () => {
     const { page, errors } = await openPage(browser, daemon.url);
     // Idle: nothing to stop or abort.
     expect(await page.isDisabled('#abort')).toBe(true);
@@ -154,7 +154,10 @@ describe('live page in headless Chromium', () => {
   it('after the run, a dragged window re-fits the sweep on screen; the journal keeps its fits', async () => {
     const { page, errors } = await openPage(browser, daemon.url);
     await page.waitForFunction(() => (window as any).__plumbline.store.views.size > 0 && (window as any).__plumbline.charts.lin.plot);
-    const journalFits = () => readFileSync(join(data, firstSession, 'journal.jsonl'), 'utf8').split('\n').filter((l) => l.includes('"type":"fit"')).length;
+    const journalFits = () =>
+      readFileSync(join(data, firstSession, 'journal.jsonl'), 'utf8')
+        .split('\n')
+        .filter((l) => l.includes('"type":"fit"')).length;
     const fitsBefore = journalFits();
     const before = await shownParameter(page, 'barrierHeight');
     const windowBefore = await page.evaluate(() => (window as any).__plumbline.charts.lin.view.window.bias);
@@ -176,7 +179,10 @@ describe('live page in headless Chromium', () => {
     expect(re.fit.line.n).toBeLessThan(40);
     expect(await page.textContent('#params-source')).toMatch(/Re-analysis .* journal's fits are unchanged/);
     // Kept beside the journal; the journal itself gained no fit.
-    const kept = readFileSync(join(data, firstSession, 'reanalysis.jsonl'), 'utf8').trim().split('\n').map((l) => JSON.parse(l));
+    const kept = readFileSync(join(data, firstSession, 'reanalysis.jsonl'), 'utf8')
+      .trim()
+      .split('\n')
+      .map((l) => JSON.parse(l));
     expect(kept.at(-1).fits.find((f: any) => f.sweep === 3).fit.parameters.barrierHeight.value).toBe(re.fit.parameters.barrierHeight.value);
     expect(journalFits()).toBe(fitsBefore);
     await snap(page, 'page-drag-after-run.png');
@@ -233,7 +239,9 @@ describe('live page in headless Chromium', () => {
   it('Esc typed in a text field never aborts; Esc outside one turns the output off at once', async () => {
     const { page } = await openPage(browser, daemon.url);
     await startFromPage(page, { start: '0', stop: '9', points: '200', repeat: '1000', compliance: '0.001' });
-    await page.waitForFunction(() => (window as any).__plumbline.store.readingCount > 300 && (window as any).__plumbline.store.outputOn, undefined, { timeout: 30_000 });
+    await page.waitForFunction(() => (window as any).__plumbline.store.readingCount > 300 && (window as any).__plumbline.store.outputOn, undefined, {
+      timeout: 30_000,
+    });
     expect(await page.locator('.caution[data-kind="output on"]').count()).toBe(1);
     expect(await page.isDisabled('#abort')).toBe(false);
     // A note being typed: Esc leaves the field and says how to abort; the run goes on.
@@ -267,7 +275,11 @@ describe('live page in headless Chromium', () => {
 
   it('a model change during the run starts a new baseline, drawn as a break', async () => {
     // The run starts on Fowler–Nordheim (an earlier test left the station on another model).
-    const fn = await api(daemon.url, 'PUT', '/api/analysis', { model: 'fowler-nordheim', window: { from: 5, to: 9 }, inputs: { thickness: 7e-9, area: 1e-8, massRatio: 0.42 } });
+    const fn = await api(daemon.url, 'PUT', '/api/analysis', {
+      model: 'fowler-nordheim',
+      window: { from: 5, to: 9 },
+      inputs: { thickness: 7e-9, area: 1e-8, massRatio: 0.42 },
+    });
     expect(fn.status).toBe(200);
     const { page, errors } = await openPage(browser, daemon.url);
     // Long sweeps and many of them, so the change lands in the middle of the run (a fast simulator
@@ -275,22 +287,31 @@ describe('live page in headless Chromium', () => {
     const before = await page.evaluate(() => (window as any).__plumbline.store.session);
     await startFromPage(page, { start: '0', stop: '9', points: '100', repeat: '2000', compliance: '0.001' });
     // Two sweeps of the new run on the first baseline (the page holds the previous session until the new one starts).
-    await page.waitForFunction((old) => {
-      const s = (window as any).__plumbline.store;
-      return s.session !== old && s.drift.filter((d: any) => d.parameter === 'barrierHeight').length >= 2;
-    }, before, { timeout: 120_000 });
+    await page.waitForFunction(
+      (old) => {
+        const s = (window as any).__plumbline.store;
+        return s.session !== old && s.drift.filter((d: any) => d.parameter === 'barrierHeight').length >= 2;
+      },
+      before,
+      { timeout: 120_000 },
+    );
     await page.selectOption('#model-select', 'poole-frenkel');
     await page.fill('#analysis-form [name="from"]', '');
     await page.fill('#analysis-form [name="to"]', '');
     await page.click('#analysis-apply');
-    await page.waitForFunction(() => (window as any).__plumbline.store.drift.some((d: any) => d.parameter === 'relativePermittivity'), undefined, { timeout: 120_000 });
+    await page.waitForFunction(() => (window as any).__plumbline.store.drift.some((d: any) => d.parameter === 'relativePermittivity'), undefined, {
+      timeout: 120_000,
+    });
     await page.waitForTimeout(200);
     const drawn = await page.evaluate(() => {
       const s = (window as any).__plumbline.store;
       const d = (window as any).__plumbline.charts.drift;
       return { breaks: d.breaks, sweeps: d.drawnSweeps, drift: s.drift.map((x: any) => ({ sweep: x.sweep, parameter: x.parameter })), y: d.plot.axes[1].label };
     });
-    const first = drawn.drift.filter((d: any) => d.parameter === 'relativePermittivity').map((d: any) => d.sweep).sort((a: number, b: number) => a - b)[0];
+    const first = drawn.drift
+      .filter((d: any) => d.parameter === 'relativePermittivity')
+      .map((d: any) => d.sweep)
+      .sort((a: number, b: number) => a - b)[0];
     expect(drawn.breaks.at(-1)).toMatchObject({ sweep: first, reason: 'now relativePermittivity' });
     // Only the new baseline's parameter is plotted (a permittivity is never charted against a barrier).
     expect(drawn.sweeps.every((s: number) => s >= first)).toBe(true);
@@ -341,7 +362,6 @@ describe('drift on the page', () => {
     await snap(page, 'page-drift.png');
     await page.close();
   });
-
 });
 
 describe('a station other than the default', () => {
@@ -356,7 +376,7 @@ describe('a station other than the default', () => {
     await daemon?.stop();
   });
 
-  it('the forms hold the station\'s own plan, limits and analysis', async () => {
+  it("the forms hold the station's own plan, limits and analysis", async () => {
     const { page, errors } = await openPage(browser, daemon.url);
     const status = (await api(daemon.url, 'GET', '/api/status')).json;
     const value = (sel: string) => page.inputValue(sel);
@@ -371,7 +391,7 @@ describe('a station other than the default', () => {
     // An empty compliance says which field and what it needs, not schema text.
     await page.fill('#plan-form [name="compliance"]', '');
     await page.click('#run-start');
-    expect(await page.textContent("#control-msg")).toMatch(/^compliance \(A\): enter the current limit .*at most 1 A/);
+    expect(await page.textContent('#control-msg')).toMatch(/^compliance \(A\): enter the current limit .*at most 1 A/);
     expect((await api(daemon.url, 'GET', '/api/status')).json.running).toBe(false);
     await snap(page, 'page-solar-station-forms.png');
     expect(errors).toEqual([]);

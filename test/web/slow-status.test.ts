@@ -43,7 +43,9 @@ describe('page with a late station status', () => {
     });
     await page.goto(daemon.url);
     // The session is drawn while the status is still on its way.
-    await page.waitForFunction(() => (window as any).__plumbline?.store.session !== null && (window as any).__plumbline.store.allSweeps.length > 0, undefined, { timeout: 20_000 });
+    await page.waitForFunction(() => (window as any).__plumbline?.store.session !== null && (window as any).__plumbline.store.allSweeps.length > 0, undefined, {
+      timeout: 20_000,
+    });
     const modelsEarly = await page.evaluate(() => (document.querySelector('#model-select') as HTMLSelectElement).options.length);
     expect(modelsEarly).toBe(0);
     // Then the status arrives and the form is filled with the session's thickness (7 nm for this scenario's film).

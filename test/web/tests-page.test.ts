@@ -26,7 +26,9 @@ describe('breakdown tests and adaptive sweeps on the page', () => {
     await daemon?.stop();
   });
 
-  it('an adaptive sweep from the Run form: its fields, checked before sending, and each sweep\'s figures as the daemon journaled them', { timeout: 90_000 }, async () => {
+  it("an adaptive sweep from the Run form: its fields, checked before sending, and each sweep's figures as the daemon journaled them", {
+    timeout: 90_000,
+  }, async () => {
     const { page, errors } = await openPage(browser, daemon.url);
     await page.selectOption('#plan-form [name="kind"]', 'adaptive');
     // Only the adaptive sweep's fields; no destructive-test caution.
@@ -40,14 +42,33 @@ describe('breakdown tests and adaptive sweeps on the page', () => {
     await page.click('#run-start');
     expect(await page.textContent('#control-msg')).toBe('most points per sweep: enter a value');
     expect((await api(daemon.url, 'GET', '/api/status')).json.running).toBe(false);
-    for (const [k, v] of Object.entries({ start: '0', stop: '10', maxPoints: '200', repeat: '3', compliance: '0.001', targetParameter: 'barrierHeight', targetStdErr: '0.005' })) await page.fill(`#plan-form [name="${k}"]`, v);
+    for (const [k, v] of Object.entries({
+      start: '0',
+      stop: '10',
+      maxPoints: '200',
+      repeat: '3',
+      compliance: '0.001',
+      targetParameter: 'barrierHeight',
+      targetStdErr: '0.005',
+    }))
+      await page.fill(`#plan-form [name="${k}"]`, v);
     await page.click('#run-start');
-    await page.waitForFunction(() => (window as any).__plumbline.store.runEnd !== null && (window as any).__plumbline.store.adaptive.length === 3, undefined, { timeout: 60_000 });
+    await page.waitForFunction(() => (window as any).__plumbline.store.runEnd !== null && (window as any).__plumbline.store.adaptive.length === 3, undefined, {
+      timeout: 60_000,
+    });
     await page.waitForTimeout(300);
     const session = await page.evaluate(() => (window as any).__plumbline.store.session);
     const events = (await api(daemon.url, 'GET', `/api/sessions/${session}`)).json.events as any[];
     // The plan the daemon ran is the form's, in SI.
-    expect(events[0].plan).toMatchObject({ kind: 'adaptive', start: 0, stop: 10, maxPoints: 200, repeat: 3, compliance: 1e-3, target: { parameter: 'barrierHeight', stdErr: 0.005 } });
+    expect(events[0].plan).toMatchObject({
+      kind: 'adaptive',
+      start: 0,
+      stop: 10,
+      maxPoints: 200,
+      repeat: 3,
+      compliance: 1e-3,
+      target: { parameter: 'barrierHeight', stdErr: 0.005 },
+    });
     const figures = events.filter((e) => e.type === 'adaptive-sweep');
     expect(figures).toHaveLength(3);
     for (const f of figures) {
@@ -69,7 +90,9 @@ describe('breakdown tests and adaptive sweeps on the page', () => {
     await page.close();
   });
 
-  it('a voltage ramp to breakdown from the Run form: station defaults, checks, the caution before and during the test, and its result in MV/cm and C/cm²', { timeout: 90_000 }, async () => {
+  it('a voltage ramp to breakdown from the Run form: station defaults, checks, the caution before and during the test, and its result in MV/cm and C/cm²', {
+    timeout: 90_000,
+  }, async () => {
     const status = (await api(daemon.url, 'GET', '/api/status')).json;
     const { page, errors } = await openPage(browser, daemon.url);
     await page.selectOption('#plan-form [name="kind"]', 'voltage-ramp');
@@ -86,7 +109,19 @@ describe('breakdown tests and adaptive sweeps on the page', () => {
     expect(await page.inputValue('#plan-form [name="rampStop"]')).toBe('');
     expect(await page.isVisible('#plan-form [name="points"]')).toBe(false);
     // Beyond the station's limit: named, nothing sent.
-    for (const [k, v] of Object.entries({ rampStop: '25', step: '0.1', stepTime: '0.02', testCompliance: '0.01', useVoltage: '1', device: 'PL11-B2', wafer: 'PL-11', site: 'B2', x: '2', y: '-1' })) await page.fill(`#plan-form [name="${k}"]`, v);
+    for (const [k, v] of Object.entries({
+      rampStop: '25',
+      step: '0.1',
+      stepTime: '0.02',
+      testCompliance: '0.01',
+      useVoltage: '1',
+      device: 'PL11-B2',
+      wafer: 'PL-11',
+      site: 'B2',
+      x: '2',
+      y: '-1',
+    }))
+      await page.fill(`#plan-form [name="${k}"]`, v);
     await page.click('#run-start');
     expect(await page.textContent('#control-msg')).toBe(`ramp at most to (V): 25 V is beyond the station limit of ±${status.limits.maxVoltage} V`);
     await page.fill('#plan-form [name="rampStop"]', '15');
@@ -109,7 +144,9 @@ describe('breakdown tests and adaptive sweeps on the page', () => {
     expect(drift.drawn.filter((n) => !drift.mine.includes(n))).toEqual([]);
     if (drift.mine.length === 0) expect(drift.plot).toBe(false);
     await snap(page, 'page-voltage-ramp-running.png');
-    await page.waitForFunction(() => (window as any).__plumbline.store.runEnd !== null && (window as any).__plumbline.store.testResult !== null, undefined, { timeout: 60_000 });
+    await page.waitForFunction(() => (window as any).__plumbline.store.runEnd !== null && (window as any).__plumbline.store.testResult !== null, undefined, {
+      timeout: 60_000,
+    });
     await page.waitForTimeout(300);
     const session = await page.evaluate(() => (window as any).__plumbline.store.session);
     const events = (await api(daemon.url, 'GET', `/api/sessions/${session}`)).json.events as any[];
@@ -155,14 +192,18 @@ describe('breakdown tests and adaptive sweeps on the page', () => {
     await page.close();
   });
 
-  it('sweeps with no fit (one-reading use-condition checks; a destroyed device with no point on the plot) draw without a page or console error', { timeout: 90_000 }, async () => {
+  it('sweeps with no fit (one-reading use-condition checks; a destroyed device with no point on the plot) draw without a page or console error', {
+    timeout: 90_000,
+  }, async () => {
     const { page, errors } = await openPage(browser, daemon.url);
     const r = await api(daemon.url, 'POST', '/api/run', {
       plan: { kind: 'voltage-ramp', start: 0, stop: 15, step: 0.25, stepTime: 0.02, compliance: 1e-2, useVoltage: 1 },
       device: { device: 'NF1' },
     });
     expect(r.status).toBe(201);
-    await page.waitForFunction((id) => (window as any).__plumbline.store.session === id && (window as any).__plumbline.store.runEnd !== null, r.json.session, { timeout: 60_000 });
+    await page.waitForFunction((id) => (window as any).__plumbline.store.session === id && (window as any).__plumbline.store.runEnd !== null, r.json.session, {
+      timeout: 60_000,
+    });
     await page.waitForTimeout(300);
     // The journal holds sweeps whose final fit is null: the checks at the use voltage.
     const events = (await api(daemon.url, 'GET', `/api/sessions/${r.json.session}`)).json.events as any[];
@@ -181,11 +222,17 @@ describe('breakdown tests and adaptive sweeps on the page', () => {
     // point at all and there is no fit.
     const after = await api(daemon.url, 'POST', '/api/run', { plan: { kind: 'linear', start: 0.5, stop: 2, points: 11, repeat: 2, compliance: 1e-3 } });
     expect(after.status).toBe(201);
-    await page.waitForFunction((id) => (window as any).__plumbline.store.session === id && (window as any).__plumbline.store.runEnd !== null, after.json.session, { timeout: 30_000 });
+    await page.waitForFunction(
+      (id) => (window as any).__plumbline.store.session === id && (window as any).__plumbline.store.runEnd !== null,
+      after.json.session,
+      { timeout: 30_000 },
+    );
     await page.waitForTimeout(300);
     // Following the latest sweep: the reason is said, and no plot of an earlier session stands
     // under this sweep's title.
-    const fit2 = (await api(daemon.url, 'GET', `/api/sessions/${after.json.session}`)).json.events.find((e: any) => e.type === 'fit' && e.final && e.sweep === 2);
+    const fit2 = (await api(daemon.url, 'GET', `/api/sessions/${after.json.session}`)).json.events.find(
+      (e: any) => e.type === 'fit' && e.final && e.sweep === 2,
+    );
     expect(fit2.fit).toBeNull();
     expect(await page.textContent('#lin-error')).toBe(`Sweep 2: ${fit2.error}.`);
     expect(await page.isVisible('#lin-error')).toBe(true);

@@ -10,7 +10,10 @@ import { displayUnit } from '../../protocols/display-units.js';
 import { formatLogTicks, formatTicks, logTicks, niceTicks } from '../../protocols/number-format.js';
 import type { PlotViewData } from '../../protocols/wire.js';
 
-export const linearSplits = (count = 5) => (_u: uPlot, _axis: number, min: number, max: number): number[] => niceTicks(min, max, count);
+export const linearSplits =
+  (count = 5) =>
+  (_u: uPlot, _axis: number, min: number, max: number): number[] =>
+    niceTicks(min, max, count);
 export const linearValues = (_u: uPlot, splits: number[]): string[] => formatTicks(splits);
 export const logSplits = (_u: uPlot, _axis: number, min: number, max: number): number[] => logTicks(min, max);
 export const logValues = (_u: uPlot, splits: number[]): string[] => formatLogTicks(splits);

@@ -144,45 +144,53 @@ export class RawChart {
       this.plot?.destroy();
       this.el.textContent = '';
       const series: uPlot.Series[] = [{}];
-      keys.forEach((k, n) => series.push({
-        label: `sweep ${k}`,
-        stroke: sweepColour(n, keys.length),
-        width: 1.5,
-        points: { show: false },
-        paths: uPlot.paths.linear?.(),
-      } as uPlot.Series));
+      keys.forEach((k, n) =>
+        series.push({
+          label: `sweep ${k}`,
+          stroke: sweepColour(n, keys.length),
+          width: 1.5,
+          points: { show: false },
+          paths: uPlot.paths.linear?.(),
+        } as uPlot.Series),
+      );
       series.push({ label: 'envelope low', stroke: 'transparent', paths: () => null, points: { show: false } } as uPlot.Series);
       series.push({ label: 'envelope high', stroke: 'transparent', paths: () => null, points: { show: false } } as uPlot.Series);
       const nSweeps = keys.length;
-      this.plot = new uPlot({
-        mode: 2,
-        ...size(this.el, 340),
-        legend: { show: false },
-        cursor: { drag: { x: true, y: true, setScale: true } },
-        scales: { x: { time: false, range: linearRange }, y: log ? { distr: 3, range: logRange } : { range: linearRange } },
-        hooks: {
-          drawClear: [(u: uPlot) => this.drawEnvelope(u)],
-          draw: [(u: uPlot) => {
-            // Small dots on the readings while they are few enough to tell apart; lines beyond.
-            let total = 0;
-            for (const c of this.cache.values()) total += c.n;
-            for (let n = 0; n < nSweeps; n++) {
-              const c = this.cache.get(keys[n]);
-              if (!c) continue;
-              if (total <= DOT_LIMIT) drawPoints(u, (u.data[n + 1] as unknown as [number[]])[0], c.y, 'dot', sweepColour(n, nSweeps), 1.6);
-              if (c.negX.length) drawPoints(u, c.negX, c.negY, 'cross', OKABE_ITO.vermillion);
-              if (c.compX.length) drawPoints(u, c.compX, c.compY, 'square', OKABE_ITO.black);
-            }
-          }],
+      this.plot = new uPlot(
+        {
+          mode: 2,
+          ...size(this.el, 340),
+          legend: { show: false },
+          cursor: { drag: { x: true, y: true, setScale: true } },
+          scales: { x: { time: false, range: linearRange }, y: log ? { distr: 3, range: logRange } : { range: linearRange } },
+          hooks: {
+            drawClear: [(u: uPlot) => this.drawEnvelope(u)],
+            draw: [
+              (u: uPlot) => {
+                // Small dots on the readings while they are few enough to tell apart; lines beyond.
+                let total = 0;
+                for (const c of this.cache.values()) total += c.n;
+                for (let n = 0; n < nSweeps; n++) {
+                  const c = this.cache.get(keys[n]);
+                  if (!c) continue;
+                  if (total <= DOT_LIMIT) drawPoints(u, (u.data[n + 1] as unknown as [number[]])[0], c.y, 'dot', sweepColour(n, nSweeps), 1.6);
+                  if (c.negX.length) drawPoints(u, c.negX, c.negY, 'cross', OKABE_ITO.vermillion);
+                  if (c.compX.length) drawPoints(u, c.compX, c.compY, 'square', OKABE_ITO.black);
+                }
+              },
+            ],
+          },
+          axes: [
+            { label: 'bias V (V)', stroke: '#1b1b1b', splits: linearSplits(), values: linearValues },
+            log
+              ? { label: '|I| (A)', stroke: '#1b1b1b', size: 78, splits: logSplits, values: logValues }
+              : { label: 'I (A)', stroke: '#1b1b1b', size: 78, splits: linearSplits(), values: linearValues },
+          ],
+          series,
         },
-        axes: [
-          { label: 'bias V (V)', stroke: '#1b1b1b', splits: linearSplits(), values: linearValues },
-          log
-            ? { label: '|I| (A)', stroke: '#1b1b1b', size: 78, splits: logSplits, values: logValues }
-            : { label: 'I (A)', stroke: '#1b1b1b', size: 78, splits: linearSplits(), values: linearValues },
-        ],
-        series,
-      }, data as unknown as uPlot.AlignedData, this.el);
+        data as unknown as uPlot.AlignedData,
+        this.el,
+      );
     } else {
       this.plot.setData(data as unknown as uPlot.AlignedData);
     }
@@ -242,7 +250,11 @@ export class LinearizedChart {
   /** Whole curve, or (default) the fit window with a margin: the axes then follow the window's points. */
   wholeCurve = false;
 
-  constructor(private readonly el: HTMLElement, private readonly residEl: HTMLElement, private readonly onWindow: (from: number, to: number) => void) {}
+  constructor(
+    private readonly el: HTMLElement,
+    private readonly residEl: HTMLElement,
+    private readonly onWindow: (from: number, to: number) => void,
+  ) {}
 
   update(view: PlotViewData | undefined, under: PlotViewData | null = null): void {
     this.view = view ?? null;
@@ -260,7 +272,16 @@ export class LinearizedChart {
       return;
     }
     const split = (v: DisplayView | null) => {
-      const o = { inX: [] as number[], inY: [] as number[], outX: [] as number[], outY: [] as number[], rInX: [] as number[], rInY: [] as number[], rOutX: [] as number[], rOutY: [] as number[] };
+      const o = {
+        inX: [] as number[],
+        inY: [] as number[],
+        outX: [] as number[],
+        outY: [] as number[],
+        rInX: [] as number[],
+        rInY: [] as number[],
+        rOutX: [] as number[],
+        rOutY: [] as number[],
+      };
       if (!v) return o;
       for (let k = 0; k < v.x.length; k++) {
         const win = v.inWindow[k] === 1;
@@ -301,88 +322,113 @@ export class LinearizedChart {
       const xAxis: uPlot.Axis = xlog
         ? { label: axisText(ref.axes.x.label, ref.xUnit), stroke: '#1b1b1b', splits: logSplits, values: logValues }
         : { label: axisText(ref.axes.x.label, ref.xUnit), stroke: '#1b1b1b', splits: linearSplits(), values: linearValues };
-      this.plot = new uPlot({
-        mode: 2,
-        ...size(this.el, 320),
-        legend: { show: false },
-        cursor: { drag: { x: true, y: false, setScale: false } },
-        select: { show: true, left: 0, top: 0, width: 0, height: 0 },
-        scales: { x: xlog ? { time: false, distr: 3, range: logRange } : { time: false, range: linearRange }, y: ylog ? { distr: 3, range: logRange } : { range: linearRange } },
-        axes: [
-          xAxis,
-          ylog
-            ? { label: axisText(ref.axes.y.label, ref.yUnit), stroke: '#1b1b1b', size: 80, splits: logSplits, values: logValues }
-            : { label: axisText(ref.axes.y.label, ref.yUnit), stroke: '#1b1b1b', size: 80, splits: linearSplits(), values: linearValues },
-        ],
-        series,
-        hooks: {
-          drawClear: [(u: uPlot) => this.drawWindow(u)],
-          draw: [(u: uPlot) => {
-            const d = u.data as unknown as [null, ...[number[], number[]][]];
-            // The previous sweep first, dimmed; then the live points over it.
-            if (this.under) {
-              drawPoints(u, d[5][0], d[5][1], 'ring', '#8a8a8a', 3, 0.55);
-              drawPoints(u, d[4][0], d[4][1], 'dot', '#8a8a8a', 3, 0.55);
-              if (this.under.line) drawSegment(u, this.under.line.x, this.under.line.y, '#6b6b6b', 2, [5, 4], 0.8);
-            }
-            drawPoints(u, d[2][0], d[2][1], 'ring', OKABE_ITO.orange, 3.5);
-            drawPoints(u, d[1][0], d[1][1], 'dot', OKABE_ITO.blue, 3.5);
-            // The fit line again, on top of the points.
-            const l = this.shown?.line;
-            if (l) drawSegment(u, l.x, l.y, OKABE_ITO.black, 2);
-          }],
-          setSelect: [(u: uPlot) => {
-            if (u.select.width < 4) return;
-            const x0 = u.posToVal(u.select.left, 'x');
-            const x1 = u.posToVal(u.select.left + u.select.width, 'x');
-            u.setSelect({ left: 0, top: 0, width: 0, height: 0 }, false);
-            this.selected(Math.min(x0, x1), Math.max(x0, x1));
-          }],
+      this.plot = new uPlot(
+        {
+          mode: 2,
+          ...size(this.el, 320),
+          legend: { show: false },
+          cursor: { drag: { x: true, y: false, setScale: false } },
+          select: { show: true, left: 0, top: 0, width: 0, height: 0 },
+          scales: {
+            x: xlog ? { time: false, distr: 3, range: logRange } : { time: false, range: linearRange },
+            y: ylog ? { distr: 3, range: logRange } : { range: linearRange },
+          },
+          axes: [
+            xAxis,
+            ylog
+              ? { label: axisText(ref.axes.y.label, ref.yUnit), stroke: '#1b1b1b', size: 80, splits: logSplits, values: logValues }
+              : { label: axisText(ref.axes.y.label, ref.yUnit), stroke: '#1b1b1b', size: 80, splits: linearSplits(), values: linearValues },
+          ],
+          series,
+          hooks: {
+            drawClear: [(u: uPlot) => this.drawWindow(u)],
+            draw: [
+              (u: uPlot) => {
+                const d = u.data as unknown as [null, ...[number[], number[]][]];
+                // The previous sweep first, dimmed; then the live points over it.
+                if (this.under) {
+                  drawPoints(u, d[5][0], d[5][1], 'ring', '#8a8a8a', 3, 0.55);
+                  drawPoints(u, d[4][0], d[4][1], 'dot', '#8a8a8a', 3, 0.55);
+                  if (this.under.line) drawSegment(u, this.under.line.x, this.under.line.y, '#6b6b6b', 2, [5, 4], 0.8);
+                }
+                drawPoints(u, d[2][0], d[2][1], 'ring', OKABE_ITO.orange, 3.5);
+                drawPoints(u, d[1][0], d[1][1], 'dot', OKABE_ITO.blue, 3.5);
+                // The fit line again, on top of the points.
+                const l = this.shown?.line;
+                if (l) drawSegment(u, l.x, l.y, OKABE_ITO.black, 2);
+              },
+            ],
+            setSelect: [
+              (u: uPlot) => {
+                if (u.select.width < 4) return;
+                const x0 = u.posToVal(u.select.left, 'x');
+                const x1 = u.posToVal(u.select.left + u.select.width, 'x');
+                u.setSelect({ left: 0, top: 0, width: 0, height: 0 }, false);
+                this.selected(Math.min(x0, x1), Math.max(x0, x1));
+              },
+            ],
+          },
         },
-      }, data as unknown as uPlot.AlignedData, this.el);
-      this.resid = new uPlot({
-        mode: 2,
-        ...size(this.residEl, 170),
-        legend: { show: false },
-        cursor: { drag: { x: false, y: false } },
-        scales: { x: xlog ? { time: false, distr: 3, range: logRange } : { time: false, range: linearRange }, y: { range: (_u, min, max) => { const r = Math.max(Math.abs(min), Math.abs(max)) * 1.15 || 1; return [-r, r]; } } },
-        axes: [
-          { ...xAxis },
-          { label: ylog ? 'ln residual' : axisText('residual', ref.yUnit), stroke: '#1b1b1b', size: 80, splits: linearSplits(4), values: linearValues },
-        ],
-        series: [
-          {},
-          { label: 'in window', stroke: OKABE_ITO.blue, ...hidden },
-          { label: 'outside', stroke: OKABE_ITO.orange, ...hidden },
-          { label: 'previous, in window', stroke: '#999', ...hidden },
-          { label: 'previous, outside', stroke: '#999', ...hidden },
-        ],
-        hooks: {
-          draw: [(u: uPlot) => {
-            const y0 = u.valToPos(0, 'y', true);
-            u.ctx.save();
-            u.ctx.strokeStyle = '#1b1b1b';
-            u.ctx.beginPath();
-            u.ctx.moveTo(u.bbox.left, y0);
-            u.ctx.lineTo(u.bbox.left + u.bbox.width, y0);
-            u.ctx.stroke();
-            u.ctx.restore();
-            const d = u.data as unknown as [null, ...[number[], number[]][]];
-            if (this.under) {
-              drawPoints(u, d[4][0], d[4][1], 'ring', '#8a8a8a', 2.5, 0.55);
-              drawPoints(u, d[3][0], d[3][1], 'dot', '#8a8a8a', 2.5, 0.55);
-            }
-            drawPoints(u, d[2][0], d[2][1], 'ring', OKABE_ITO.orange, 3);
-            drawPoints(u, d[1][0], d[1][1], 'dot', OKABE_ITO.blue, 3);
-          }],
+        data as unknown as uPlot.AlignedData,
+        this.el,
+      );
+      this.resid = new uPlot(
+        {
+          mode: 2,
+          ...size(this.residEl, 170),
+          legend: { show: false },
+          cursor: { drag: { x: false, y: false } },
+          scales: {
+            x: xlog ? { time: false, distr: 3, range: logRange } : { time: false, range: linearRange },
+            y: {
+              range: (_u, min, max) => {
+                const r = Math.max(Math.abs(min), Math.abs(max)) * 1.15 || 1;
+                return [-r, r];
+              },
+            },
+          },
+          axes: [
+            { ...xAxis },
+            { label: ylog ? 'ln residual' : axisText('residual', ref.yUnit), stroke: '#1b1b1b', size: 80, splits: linearSplits(4), values: linearValues },
+          ],
+          series: [
+            {},
+            { label: 'in window', stroke: OKABE_ITO.blue, ...hidden },
+            { label: 'outside', stroke: OKABE_ITO.orange, ...hidden },
+            { label: 'previous, in window', stroke: '#999', ...hidden },
+            { label: 'previous, outside', stroke: '#999', ...hidden },
+          ],
+          hooks: {
+            draw: [
+              (u: uPlot) => {
+                const y0 = u.valToPos(0, 'y', true);
+                u.ctx.save();
+                u.ctx.strokeStyle = '#1b1b1b';
+                u.ctx.beginPath();
+                u.ctx.moveTo(u.bbox.left, y0);
+                u.ctx.lineTo(u.bbox.left + u.bbox.width, y0);
+                u.ctx.stroke();
+                u.ctx.restore();
+                const d = u.data as unknown as [null, ...[number[], number[]][]];
+                if (this.under) {
+                  drawPoints(u, d[4][0], d[4][1], 'ring', '#8a8a8a', 2.5, 0.55);
+                  drawPoints(u, d[3][0], d[3][1], 'dot', '#8a8a8a', 2.5, 0.55);
+                }
+                drawPoints(u, d[2][0], d[2][1], 'ring', OKABE_ITO.orange, 3);
+                drawPoints(u, d[1][0], d[1][1], 'dot', OKABE_ITO.blue, 3);
+              },
+            ],
+          },
         },
-      }, rdata as unknown as uPlot.AlignedData, this.residEl);
+        rdata as unknown as uPlot.AlignedData,
+        this.residEl,
+      );
       this.key = key;
     } else {
       this.plot.setData(data as unknown as uPlot.AlignedData);
       this.resid?.setData(rdata as unknown as uPlot.AlignedData);
     }
-    this.focus(main?.window ? main : dim?.window ? dim : main ?? dim);
+    this.focus(main?.window ? main : dim?.window ? dim : (main ?? dim));
   }
 
   /** Removes the plots (they are built again, with the next view's axes, by the next update). */
@@ -500,10 +546,14 @@ export function driftSegments(drift: readonly Drift[], restarts: readonly number
   for (const p of d) {
     const prev = cur.at(-1);
     const settings = prev !== undefined && restarts.some((r) => r > prev.seq && r < p.seq);
-    const restart = prev !== undefined && (settings || p.parameter !== prev.parameter || p.method !== prev.method || (p.phase === 'baseline' && prev.phase === 'monitor'));
+    const restart =
+      prev !== undefined && (settings || p.parameter !== prev.parameter || p.method !== prev.method || (p.phase === 'baseline' && prev.phase === 'monitor'));
     if (restart && prev) {
       out.push({ points: cur, breaks: [] });
-      breaks.push({ sweep: p.sweep, reason: p.parameter !== prev.parameter ? `now ${p.parameter}` : p.method !== prev.method ? `now ${p.method.toUpperCase()}` : 'analysis changed' });
+      breaks.push({
+        sweep: p.sweep,
+        reason: p.parameter !== prev.parameter ? `now ${p.parameter}` : p.method !== prev.method ? `now ${p.method.toUpperCase()}` : 'analysis changed',
+      });
       cur = [];
     }
     cur.push(p);
@@ -575,46 +625,52 @@ export class DriftChart {
     if (!this.plot || key !== this.key) {
       this.plot?.destroy();
       this.el.textContent = '';
-      this.plot = new uPlot({
-        ...size(this.el, 200),
-        legend: { show: false },
-        scales: { x: { time: false, range: () => this.xRange }, y: { range: linearRange } },
-        axes: [
-          { label: 'sweep', stroke: '#1b1b1b', splits: (_u, _a, min, max) => intTicks(min, max), values: (_u, v) => v.map((x) => String(Math.round(x))) },
-          { label: yLabel, stroke: '#1b1b1b', size: 72, splits: linearSplits(4), values: linearValues },
-        ],
-        series: [
-          {},
-          { label: ref.parameter, stroke: OKABE_ITO.blue, points: { show: true, size: 7 }, width: 1 },
-          { label: cusum ? 'CUSUM' : 'EWMA', stroke: OKABE_ITO.black, width: 2, points: { show: true, size: 5 } },
-          { label: 'upper limit', stroke: OKABE_ITO.vermillion, dash: [6, 4], width: 1.5, points: { show: false } },
-          { label: 'lower limit', stroke: OKABE_ITO.vermillion, dash: [6, 4], width: 1.5, points: { show: false } },
-        ],
-        hooks: {
-          draw: [(u: uPlot) => {
-            const ctx = u.ctx;
-            for (const b of this.breaks) {
-              const x = u.valToPos(b.sweep - 0.5, 'x', true);
-              if (x < u.bbox.left || x > u.bbox.left + u.bbox.width) continue;
-              ctx.save();
-              ctx.strokeStyle = '#1b1b1b';
-              ctx.setLineDash([3 * devicePixelRatio, 3 * devicePixelRatio]);
-              ctx.lineWidth = 1.5 * devicePixelRatio;
-              ctx.beginPath();
-              ctx.moveTo(x, u.bbox.top);
-              ctx.lineTo(x, u.bbox.top + u.bbox.height);
-              ctx.stroke();
-              ctx.setLineDash([]);
-              ctx.fillStyle = '#1b1b1b';
-              ctx.textAlign = 'left';
-              ctx.textBaseline = 'top';
-              ctx.font = `${11 * devicePixelRatio}px system-ui, sans-serif`;
-              ctx.fillText(`new baseline (${b.reason})`, x + 4 * devicePixelRatio, u.bbox.top + 3 * devicePixelRatio);
-              ctx.restore();
-            }
-          }],
+      this.plot = new uPlot(
+        {
+          ...size(this.el, 200),
+          legend: { show: false },
+          scales: { x: { time: false, range: () => this.xRange }, y: { range: linearRange } },
+          axes: [
+            { label: 'sweep', stroke: '#1b1b1b', splits: (_u, _a, min, max) => intTicks(min, max), values: (_u, v) => v.map((x) => String(Math.round(x))) },
+            { label: yLabel, stroke: '#1b1b1b', size: 72, splits: linearSplits(4), values: linearValues },
+          ],
+          series: [
+            {},
+            { label: ref.parameter, stroke: OKABE_ITO.blue, points: { show: true, size: 7 }, width: 1 },
+            { label: cusum ? 'CUSUM' : 'EWMA', stroke: OKABE_ITO.black, width: 2, points: { show: true, size: 5 } },
+            { label: 'upper limit', stroke: OKABE_ITO.vermillion, dash: [6, 4], width: 1.5, points: { show: false } },
+            { label: 'lower limit', stroke: OKABE_ITO.vermillion, dash: [6, 4], width: 1.5, points: { show: false } },
+          ],
+          hooks: {
+            draw: [
+              (u: uPlot) => {
+                const ctx = u.ctx;
+                for (const b of this.breaks) {
+                  const x = u.valToPos(b.sweep - 0.5, 'x', true);
+                  if (x < u.bbox.left || x > u.bbox.left + u.bbox.width) continue;
+                  ctx.save();
+                  ctx.strokeStyle = '#1b1b1b';
+                  ctx.setLineDash([3 * devicePixelRatio, 3 * devicePixelRatio]);
+                  ctx.lineWidth = 1.5 * devicePixelRatio;
+                  ctx.beginPath();
+                  ctx.moveTo(x, u.bbox.top);
+                  ctx.lineTo(x, u.bbox.top + u.bbox.height);
+                  ctx.stroke();
+                  ctx.setLineDash([]);
+                  ctx.fillStyle = '#1b1b1b';
+                  ctx.textAlign = 'left';
+                  ctx.textBaseline = 'top';
+                  ctx.font = `${11 * devicePixelRatio}px system-ui, sans-serif`;
+                  ctx.fillText(`new baseline (${b.reason})`, x + 4 * devicePixelRatio, u.bbox.top + 3 * devicePixelRatio);
+                  ctx.restore();
+                }
+              },
+            ],
+          },
         },
-      }, data as uPlot.AlignedData, this.el);
+        data as uPlot.AlignedData,
+        this.el,
+      );
       this.key = key;
     } else this.plot.setData(data as uPlot.AlignedData);
   }
@@ -651,43 +707,49 @@ export class SolarChart {
     const data = [null, [mv, mi], [curve.v, curve.i]];
     if (!this.plot) {
       this.el.textContent = '';
-      this.plot = new uPlot({
-        mode: 2,
-        ...size(this.el, 260),
-        legend: { show: false },
-        cursor: { drag: { x: true, y: true, setScale: true } },
-        scales: { x: { time: false, range: linearRange }, y: { range: linearRange } },
-        axes: [
-          { label: 'bias V (V)', stroke: '#1b1b1b', splits: linearSplits(), values: linearValues },
-          { label: 'delivered current I (A)', stroke: '#1b1b1b', size: 78, splits: linearSplits(), values: linearValues },
-        ],
-        series: [
-          {},
-          { label: 'measured', stroke: OKABE_ITO.blue, paths: () => null, points: { show: false } },
-          { label: 'single-diode fit', stroke: OKABE_ITO.black, width: 2, points: { show: false } },
-        ],
-        hooks: {
-          draw: [(u: uPlot) => {
-            const d = u.data as unknown as [null, [number[], (number | null)[]]];
-            drawPoints(u, d[1][0], d[1][1], 'dot', OKABE_ITO.blue, 2.5);
-            const f = this.solar?.figures;
-            if (!f?.vmp || !f.imp) return;
-            const ctx = u.ctx;
-            const x0 = u.valToPos(0, 'x', true);
-            const y0 = u.valToPos(0, 'y', true);
-            const x1 = u.valToPos(f.vmp.value, 'x', true);
-            const y1 = u.valToPos(f.imp.value, 'y', true);
-            ctx.save();
-            ctx.fillStyle = 'rgba(230, 159, 0, 0.15)';
-            ctx.strokeStyle = OKABE_ITO.orange;
-            ctx.setLineDash([5 * devicePixelRatio, 3 * devicePixelRatio]);
-            ctx.fillRect(Math.min(x0, x1), Math.min(y0, y1), Math.abs(x1 - x0), Math.abs(y1 - y0));
-            ctx.strokeRect(Math.min(x0, x1), Math.min(y0, y1), Math.abs(x1 - x0), Math.abs(y1 - y0));
-            ctx.restore();
-            drawPoints(u, [f.vmp.value], [f.imp.value], 'square', OKABE_ITO.vermillion, 5);
-          }],
+      this.plot = new uPlot(
+        {
+          mode: 2,
+          ...size(this.el, 260),
+          legend: { show: false },
+          cursor: { drag: { x: true, y: true, setScale: true } },
+          scales: { x: { time: false, range: linearRange }, y: { range: linearRange } },
+          axes: [
+            { label: 'bias V (V)', stroke: '#1b1b1b', splits: linearSplits(), values: linearValues },
+            { label: 'delivered current I (A)', stroke: '#1b1b1b', size: 78, splits: linearSplits(), values: linearValues },
+          ],
+          series: [
+            {},
+            { label: 'measured', stroke: OKABE_ITO.blue, paths: () => null, points: { show: false } },
+            { label: 'single-diode fit', stroke: OKABE_ITO.black, width: 2, points: { show: false } },
+          ],
+          hooks: {
+            draw: [
+              (u: uPlot) => {
+                const d = u.data as unknown as [null, [number[], (number | null)[]]];
+                drawPoints(u, d[1][0], d[1][1], 'dot', OKABE_ITO.blue, 2.5);
+                const f = this.solar?.figures;
+                if (!f?.vmp || !f.imp) return;
+                const ctx = u.ctx;
+                const x0 = u.valToPos(0, 'x', true);
+                const y0 = u.valToPos(0, 'y', true);
+                const x1 = u.valToPos(f.vmp.value, 'x', true);
+                const y1 = u.valToPos(f.imp.value, 'y', true);
+                ctx.save();
+                ctx.fillStyle = 'rgba(230, 159, 0, 0.15)';
+                ctx.strokeStyle = OKABE_ITO.orange;
+                ctx.setLineDash([5 * devicePixelRatio, 3 * devicePixelRatio]);
+                ctx.fillRect(Math.min(x0, x1), Math.min(y0, y1), Math.abs(x1 - x0), Math.abs(y1 - y0));
+                ctx.strokeRect(Math.min(x0, x1), Math.min(y0, y1), Math.abs(x1 - x0), Math.abs(y1 - y0));
+                ctx.restore();
+                drawPoints(u, [f.vmp.value], [f.imp.value], 'square', OKABE_ITO.vermillion, 5);
+              },
+            ],
+          },
         },
-      }, data as unknown as uPlot.AlignedData, this.el);
+        data as unknown as uPlot.AlignedData,
+        this.el,
+      );
     } else this.plot.setData(data as unknown as uPlot.AlignedData);
   }
 }

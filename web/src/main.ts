@@ -134,7 +134,8 @@ function render(): void {
   const live = liveStore;
   const source = live.sessionEvent?.source;
   const passive = Boolean(live.running && source && !source.control) || live.station?.control === false;
-  $('station-name').textContent = passive && source ? `watching ${source.detail}` : status ? (status.scenario ? `simulator: ${status.scenario}` : status.instrument) : 'station';
+  $('station-name').textContent =
+    passive && source ? `watching ${source.detail}` : status ? (status.scenario ? `simulator: ${status.scenario}` : status.instrument) : 'station';
   $('session-id').textContent = s.session ?? 'no session';
   $('readonly-badge').hidden = !s.readOnly;
   $('back-live').hidden = !s.readOnly;
@@ -143,7 +144,9 @@ function render(): void {
     ? `session ${s.session}: ${s.allSweeps.length} sweeps, ${s.runEnd ? `ended: ${s.runEnd.outcome}` : 'not ended'}`
     : s.running && p
       ? `sweep ${p.sweep} of ${p.sweeps || '?'} · point ${p.point} of ${p.points || '?'}${p.eta !== null ? ` · about ${Math.ceil(p.eta)} s left` : ''}`
-      : s.runEnd ? `run ended: ${s.runEnd.outcome} — ${s.runEnd.reason}` : 'idle';
+      : s.runEnd
+        ? `run ended: ${s.runEnd.outcome} — ${s.runEnd.reason}`
+        : 'idle';
   // Controls act only when they can: abort and stop while a run this station controls is on.
   const control = !passive && (status?.control ?? true);
   const canStop = live.running && control;
@@ -151,18 +154,25 @@ function render(): void {
   ($('run-stop') as HTMLButtonElement).disabled = !canStop;
   ($('run-start') as HTMLButtonElement).disabled = live.running || !control;
   // The fields of the other plan kinds stay disabled (hidden, and not read).
-  for (const el of ($('plan-form') as HTMLFormElement).elements) if (el.id !== 'run-stop' && el.id !== 'run-start') (el as HTMLInputElement).disabled = !control || Boolean(el.closest('label')?.hidden);
+  for (const el of ($('plan-form') as HTMLFormElement).elements)
+    if (el.id !== 'run-stop' && el.id !== 'run-start') (el as HTMLInputElement).disabled = !control || Boolean(el.closest('label')?.hidden);
   $('analysis-scope').textContent = s.readOnly
     ? '— re-analyses this past session (kept beside its journal)'
-    : live.running ? (control ? '— applies to the run from now on (journaled)' : '— applies to the watched readings from now on')
-      : s.session ? '— re-analyses the session on screen and becomes the station\'s setting for the next run' : '— the station\'s setting for the next run';
+    : live.running
+      ? control
+        ? '— applies to the run from now on (journaled)'
+        : '— applies to the watched readings from now on'
+      : s.session
+        ? "— re-analyses the session on screen and becomes the station's setting for the next run"
+        : "— the station's setting for the next run";
   // Each panel is redrawn only when what it shows has changed (a frame carries new readings most
   // of the time, and nothing else).
   if (changed('cautions', s, s.cautions.length, s.outputOn, s.readOnly, s.sessionEvent, s.running)) renderCautions($('cautions'), s);
   if (changed('test', s, s.testResult, s.sessionEvent, s.running)) $('test-panel').hidden = !renderTestPanel($('test-title'), $('test-result'), s);
   if (changed('adaptive', s, s.adaptive.length)) $('adaptive-panel').hidden = !renderAdaptive($('adaptive'), s.adaptive);
   raw.update(s.sweeps, ($('raw-log') as HTMLInputElement).checked, s.envelope);
-  $('raw-note').textContent = `Colour runs from the first sweep shown (dark) to the latest (light)${s.envelope ? `; grey band: every one of the ${s.allSweeps.length} sweeps (smallest to largest current at each bias)` : ''}. ✕ marks negative current (plotted as |I|), □ marks readings at compliance.`;
+  $('raw-note').textContent =
+    `Colour runs from the first sweep shown (dark) to the latest (light)${s.envelope ? `; grey band: every one of the ${s.allSweeps.length} sweeps (smallest to largest current at each bias)` : ''}. ✕ marks negative current (plotted as |I|), □ marks readings at compliance.`;
   if (s.sessionEvent && s.readingCount > 0) {
     // Point-to-pixel latency of the newest reading (the benchmark reads these; same machine clock).
     latency.push(Date.now() - (Date.parse(s.sessionEvent.startedAt) + s.lastReadingT));
@@ -214,7 +224,11 @@ function renderLinearized(s: Store, cur: number): void {
   const err = $('lin-error');
   // Why there is no line: the view's reason, or (no view: the daemon could not map a single reading
   // onto the mechanism's plot) the fit's.
-  const e = main?.error ?? (main && !main.line ? 'no fit line' : undefined) ?? (!main && !s.isLive(cur) ? (re?.fits.get(cur)?.error ?? s.fitErrors.get(cur)) : undefined) ?? undefined;
+  const e =
+    main?.error ??
+    (main && !main.line ? 'no fit line' : undefined) ??
+    (!main && !s.isLive(cur) ? (re?.fits.get(cur)?.error ?? s.fitErrors.get(cur)) : undefined) ??
+    undefined;
   err.hidden = !e || (s.isLive(cur) && under !== null);
   err.textContent = e ? `Sweep ${cur}: ${e}.` : '';
   if (e && !main && !under) $('lin-empty').hidden = true;
@@ -232,25 +246,35 @@ function renderParamsPanel(s: Store, cur: number): void {
     src.textContent = `Re-analysis of ${new Date(re.at).toLocaleTimeString()} (kept beside the journal in reanalysis.jsonl; the journal's fits are unchanged): ${describeAnalysis(re.analysis)}`;
     src.dataset.source = 'reanalysis';
     const c = re.fits.get(cur);
-    renderParams($('params'), [
-      { title: `sweep ${cur}`, fit: c?.fit },
-      ...(prev !== undefined ? [{ title: `sweep ${prev}`, fit: re.fits.get(prev)?.fit }] : []),
-    ], c?.error ? `No fit of sweep ${cur}: ${c.error}` : 'No fit.');
+    renderParams(
+      $('params'),
+      [{ title: `sweep ${cur}`, fit: c?.fit }, ...(prev !== undefined ? [{ title: `sweep ${prev}`, fit: re.fits.get(prev)?.fit }] : [])],
+      c?.error ? `No fit of sweep ${cur}: ${c.error}` : 'No fit.',
+    );
     renderFitNotes($('fit-warnings'), c?.fit);
     return;
   }
   const final = s.finalFits.has(cur);
   const live = s.isLive(cur);
   const fit: FitSummary | null | undefined = s.finalFits.get(cur) ?? (s.liveFit?.sweep === cur ? s.liveFit.fit : undefined);
-  const state = final ? (s.ended.get(cur) === false ? ' (cut short)' : '') : live ? ' (live)' : s.liveFit?.sweep === cur ? ' (cut short: last interim fit)' : '';
+  const state = final
+    ? s.ended.get(cur) === false
+      ? ' (cut short)'
+      : ''
+    : live
+      ? ' (live)'
+      : s.liveFit?.sweep === cur
+        ? ' (cut short: last interim fit)'
+        : '';
   const prevSweep = [...s.finalFits.keys()].filter((k) => k < cur).sort((a, b) => b - a)[0];
   const a = final ? s.fitAnalysis.get(cur) : s.analysis;
   src.textContent = !s.session ? 'No session yet.' : `${live ? 'Live fits (journaled)' : 'Recorded fits (journal)'}: ${describeAnalysis(a ?? null)}`;
   src.dataset.source = 'journal';
-  renderParams($('params'), [
-    { title: `sweep ${cur}${state}`, fit },
-    ...(prevSweep !== undefined ? [{ title: `sweep ${prevSweep}`, fit: s.finalFits.get(prevSweep) }] : []),
-  ], s.fitErrors.get(cur) ? `No fit of sweep ${cur}: ${s.fitErrors.get(cur)}` : cur ? `No fit of sweep ${cur} yet.` : 'No fit yet.');
+  renderParams(
+    $('params'),
+    [{ title: `sweep ${cur}${state}`, fit }, ...(prevSweep !== undefined ? [{ title: `sweep ${prevSweep}`, fit: s.finalFits.get(prevSweep) }] : [])],
+    s.fitErrors.get(cur) ? `No fit of sweep ${cur}: ${s.fitErrors.get(cur)}` : cur ? `No fit of sweep ${cur} yet.` : 'No fit yet.',
+  );
   renderFitNotes($('fit-warnings'), fit);
 }
 
@@ -311,7 +335,7 @@ function renderDrift(s: Store): void {
   $('drift-state').textContent = d
     ? `sweep ${d.sweep}: ${d.state.replace(/-/g, ' ')}${br ? ` · baseline restarted at sweep ${br.sweep} (${br.reason})` : ''}`
     : s.finalFits.size >= 2 && [...s.finalFits.values()].every((f) => !f || Object.keys(f.parameters).length === 0)
-      ? 'nothing to chart: this model\'s fits have no physical parameter'
+      ? "nothing to chart: this model's fits have no physical parameter"
       : 'charted once the baseline sweeps are in';
 }
 
@@ -340,7 +364,10 @@ function refillForms(s: Store): void {
   if (!a || !status || key === filledFrom || f.contains(document.activeElement)) return;
   filledFrom = key;
   fillAnalysis(f, a);
-  markInputs($('input-fields'), status?.models.find((m) => m.id === a.model));
+  markInputs(
+    $('input-fields'),
+    status?.models.find((m) => m.id === a.model),
+  );
   void s;
 }
 
@@ -365,7 +392,9 @@ async function applyAnalysis(a: AnalysisSettings, what: string): Promise<void> {
       return;
     }
     await reanalyse(s, settings);
-    say(`${what}: sweeps ${[...(s.reanalysis?.fits.keys() ?? [])].join(', ')} re-analysed with ${settings.model}${s.readOnly ? '' : ' (also the station\'s setting for the next run)'}; the results are kept beside the journal, which is unchanged.`);
+    say(
+      `${what}: sweeps ${[...(s.reanalysis?.fits.keys() ?? [])].join(', ')} re-analysed with ${settings.model}${s.readOnly ? '' : " (also the station's setting for the next run)"}; the results are kept beside the journal, which is unchanged.`,
+    );
   } catch (e) {
     say(`${what}: ${(e as Error).message}`, true);
   }
@@ -376,11 +405,20 @@ async function reanalyse(s: Store, a: AnalysisSettings): Promise<void> {
   if (!s.session || !cur) return;
   const idx = s.allSweeps.indexOf(cur);
   const prev = idx > 0 ? s.allSweeps[idx - 1] : undefined;
-  const r = await call('POST', `/api/sessions/${encodeURIComponent(s.session)}/reanalyze`, { analysis: a, sweeps: prev !== undefined ? [prev, cur] : [cur], views: [cur] });
+  const r = await call('POST', `/api/sessions/${encodeURIComponent(s.session)}/reanalyze`, {
+    analysis: a,
+    sweeps: prev !== undefined ? [prev, cur] : [cur],
+    views: [cur],
+  });
   s.reanalysis = {
     at: r.at,
     analysis: r.analysis,
-    fits: new Map((r.fits as { sweep: number; fit: FitSummary | null; error: string | null; solar?: SolarSummary }[]).map((f) => [f.sweep, { fit: f.fit, error: f.error, solar: f.solar ?? null }])),
+    fits: new Map(
+      (r.fits as { sweep: number; fit: FitSummary | null; error: string | null; solar?: SolarSummary }[]).map((f) => [
+        f.sweep,
+        { fit: f.fit, error: f.error, solar: f.solar ?? null },
+      ]),
+    ),
     views: new Map((r.views as { sweep: number; view: PlotViewData }[]).map((v) => [v.sweep, v.view])),
   };
   s.dirty = true;
@@ -414,17 +452,24 @@ async function loadStatus(): Promise<void> {
 
 $('model-select').addEventListener('change', () => {
   const id = $<HTMLSelectElement>('model-select').value;
-  markInputs($('input-fields'), status?.models.find((m) => m.id === id));
+  markInputs(
+    $('input-fields'),
+    status?.models.find((m) => m.id === id),
+  );
 });
 
 // ---- the Run form: plan kinds, breakdown tests -----------------------------------------------
 const KIND_HINTS: Record<string, string> = {
   linear: 'Equal bias steps from start to stop, repeated; out and back returns to the start.',
   log: 'Bias steps evenly spaced in log |V| from start to stop (both of one sign), repeated.',
-  adaptive: 'Each next bias is chosen from what has been measured: coarse steps at the noise floor, fine ones in the regime. A sweep stops once the target parameter\'s standard error is reached, at the current limit or compliance, at the end of the range, or after its most points.',
-  'voltage-ramp': 'Voltage steps held for the time per step until breakdown (a current jump, the I–V slope rising, or the breakdown current) or the end of the ramp.',
-  'current-ramp': 'Forced currents rising in steps per decade, the voltage kept below its limit, until the voltage collapses (breakdown). Needs an instrument dialect that can source current.',
-  'constant-voltage': 'The stress bias held and read at intervals until breakdown (a current jump or the breakdown current) or the longest stress; optional sense sweeps watch the leakage grow.',
+  adaptive:
+    "Each next bias is chosen from what has been measured: coarse steps at the noise floor, fine ones in the regime. A sweep stops once the target parameter's standard error is reached, at the current limit or compliance, at the end of the range, or after its most points.",
+  'voltage-ramp':
+    'Voltage steps held for the time per step until breakdown (a current jump, the I–V slope rising, or the breakdown current) or the end of the ramp.',
+  'current-ramp':
+    'Forced currents rising in steps per decade, the voltage kept below its limit, until the voltage collapses (breakdown). Needs an instrument dialect that can source current.',
+  'constant-voltage':
+    'The stress bias held and read at intervals until breakdown (a current jump or the breakdown current) or the longest stress; optional sense sweeps watch the leakage grow.',
 };
 
 /** Parameters (name → SI unit) of the recent fits with the station's model: the adaptive target's choices. */
@@ -500,9 +545,11 @@ $('plan-form').addEventListener('submit', (ev) => {
     if (kind === 'adaptive') {
       const known = knownParameters();
       const name = String((plan.target as { parameter: string }).parameter);
-      if (known.size && !known.has(name)) throw new Error(`target parameter: '${name}' is not a parameter of the ${status?.analysis.model} fits (${[...known.keys()].join(', ')})`);
+      if (known.size && !known.has(name))
+        throw new Error(`target parameter: '${name}' is not a parameter of the ${status?.analysis.model} fits (${[...known.keys()].join(', ')})`);
     }
-    if (isDestructive(kind) && !ack.checked) throw new Error('This breakdown test destroys the device: read the caution above the Start button and tick its box to start it.');
+    if (isDestructive(kind) && !ack.checked)
+      throw new Error('This breakdown test destroys the device: read the caution above the Start button and tick its box to start it.');
   } catch (e) {
     say((e as Error).message, true);
     return;
@@ -511,20 +558,32 @@ $('plan-form').addEventListener('submit', (ev) => {
   const text = (name: string) => (f.elements.namedItem(name) as HTMLInputElement).value.trim();
   const num = (name: string) => (text(name) === '' ? undefined : Number(text(name)));
   const device = Object.fromEntries(
-    [['device', text('device') || undefined], ['wafer', text('wafer') || undefined], ['site', text('site') || undefined], ['x', num('x')], ['y', num('y')]].filter(([, v]) => v !== undefined),
+    [
+      ['device', text('device') || undefined],
+      ['wafer', text('wafer') || undefined],
+      ['site', text('site') || undefined],
+      ['x', num('x')],
+      ['y', num('y')],
+    ].filter(([, v]) => v !== undefined),
   );
   backToLive();
   // Each breakdown test is confirmed on its own: the box is cleared once one starts.
-  call('POST', '/api/run', Object.keys(device).length ? { plan, device } : { plan }).then((r) => {
-    ack.checked = false;
-    say(`Run started: ${r.session}`);
-  }).catch((e: Error) => say(e.message, true));
+  call('POST', '/api/run', Object.keys(device).length ? { plan, device } : { plan })
+    .then((r) => {
+      ack.checked = false;
+      say(`Run started: ${r.session}`);
+    })
+    .catch((e: Error) => say(e.message, true));
 });
 $('run-stop').addEventListener('click', () => {
-  call('POST', '/api/run/stop', { reason: 'stop requested from the page' }).then(() => say('The run stops after this sweep.')).catch((e: Error) => say(e.message, true));
+  call('POST', '/api/run/stop', { reason: 'stop requested from the page' })
+    .then(() => say('The run stops after this sweep.'))
+    .catch((e: Error) => say(e.message, true));
 });
 function abort(): void {
-  call('POST', '/api/run/abort', { reason: 'abort from the page' }).then(() => say('Aborted: output off sent.')).catch((e: Error) => say(e.message, true));
+  call('POST', '/api/run/abort', { reason: 'abort from the page' })
+    .then(() => say('Aborted: output off sent.'))
+    .catch((e: Error) => say(e.message, true));
 }
 $('abort').addEventListener('click', abort);
 document.addEventListener('keydown', (e) => {
@@ -572,13 +631,22 @@ $('note-form').addEventListener('submit', (ev) => {
   ev.preventDefault();
   const f = ev.target as HTMLFormElement;
   const text = (f.elements.namedItem('text') as HTMLInputElement).value;
-  const tags = (f.elements.namedItem('tags') as HTMLInputElement).value.split(',').map((t) => t.trim()).filter(Boolean);
+  const tags = (f.elements.namedItem('tags') as HTMLInputElement).value
+    .split(',')
+    .map((t) => t.trim())
+    .filter(Boolean);
   const sw = (f.elements.namedItem('sweep') as HTMLInputElement).value.trim();
-  call('POST', '/api/annotations', { text, tags, ...(sw !== '' ? { sweep: Number(sw) } : {}), ...(viewStore.readOnly && viewStore.session ? { session: viewStore.session } : {}) })
+  call('POST', '/api/annotations', {
+    text,
+    tags,
+    ...(sw !== '' ? { sweep: Number(sw) } : {}),
+    ...(viewStore.readOnly && viewStore.session ? { session: viewStore.session } : {}),
+  })
     .then(() => {
       say('Note added to the journal.');
       f.reset();
-    }).catch((e: Error) => say(e.message, true));
+    })
+    .catch((e: Error) => say(e.message, true));
 });
 $('lin-whole').addEventListener('change', () => {
   lin.wholeCurve = ($('lin-whole') as HTMLInputElement).checked;
@@ -714,6 +782,7 @@ loadStatus().catch((e: Error) => say(`status: ${e.message}`, true));
 loadSessions().catch(() => undefined);
 setInterval(() => void loadSessions().catch(() => undefined), 10_000);
 window.addEventListener('resize', () => {
-  for (const p of [raw.plot, lin.plot, lin.resid, drift.plot, solarChart.plot]) p?.setSize({ width: Math.max(300, (p.root.parentElement as HTMLElement).clientWidth), height: p.height });
+  for (const p of [raw.plot, lin.plot, lin.resid, drift.plot, solarChart.plot])
+    p?.setSize({ width: Math.max(300, (p.root.parentElement as HTMLElement).clientWidth), height: p.height });
 });
 connect();

@@ -33,7 +33,7 @@ export function renderCautions(box: HTMLElement, s: Store): void {
   if (s.outputOn && !s.readOnly) {
     const hv = s.cautions.find((c) => c.kind === 'hazard-voltage');
     if (hv) add('danger', 'high voltage', hv.message);
-    else add('warning', 'output on', 'The output is on: the device terminals are live. Hands off the probes and the fixture; follow your lab\'s safety rules.');
+    else add('warning', 'output on', "The output is on: the device terminals are live. Hands off the probes and the fixture; follow your lab's safety rules.");
   }
   const latest = new Map<string, Extract<WireEvent, { type: 'caution' }>>();
   for (const c of s.cautions) latest.set(c.kind, c);
@@ -58,7 +58,12 @@ export function renderCautions(box: HTMLElement, s: Store): void {
 export function describeAnalysis(a: AnalysisSettings | null | undefined): string {
   if (!a) return 'settings not recorded';
   const w = a.window;
-  const win = typeof w === 'object' ? `window ${w.from !== undefined ? formatNumber(w.from) : '−∞'} … ${w.to !== undefined ? formatNumber(w.to) : '∞'} V` : w === 'auto' ? 'automatic window' : 'all points';
+  const win =
+    typeof w === 'object'
+      ? `window ${w.from !== undefined ? formatNumber(w.from) : '−∞'} … ${w.to !== undefined ? formatNumber(w.to) : '∞'} V`
+      : w === 'auto'
+        ? 'automatic window'
+        : 'all points';
   const inputs = formatInputs(a.inputs ?? {});
   return `${a.model} · ${win}${inputs ? ` · ${inputs}` : ''}${a.solar ? ` · solar cell${a.solar.irradiance !== undefined ? ` at ${formatNumber(a.solar.irradiance)} W/m²` : ''}` : ''}`;
 }

@@ -67,31 +67,172 @@ export const PLAN_FIELDS: readonly PlanField[] = [
   { name: 'repeat', path: 'repeat', kinds: SWEEPS, label: 'sweeps', unit: '', required: true, integer: true, min: 1 },
   { name: 'compliance', path: 'compliance', kinds: SWEEPS, label: 'compliance', unit: 'A', required: true, positive: true, compliance: true },
   { name: 'dual', path: 'dual', kinds: SWEEP, label: 'out and back', unit: '', checkbox: true },
-  { name: 'targetParameter', path: 'target.parameter', kinds: ['adaptive'], label: 'target parameter', unit: '', required: true, text: true, title: 'the fitted parameter whose standard error ends each sweep (the live fit\'s names, e.g. barrierHeight)' },
-  { name: 'targetStdErr', path: 'target.stdErr', kinds: ['adaptive'], label: 'target standard error', unit: '', required: true, positive: true, title: 'each sweep stops once the parameter\'s total standard error is this small' },
-  { name: 'currentLimit', path: 'currentLimit', kinds: ['adaptive'], label: 'stop at current', unit: 'A', positive: true, title: 'a sweep stops when the current reaches this (default: half the compliance)' },
+  {
+    name: 'targetParameter',
+    path: 'target.parameter',
+    kinds: ['adaptive'],
+    label: 'target parameter',
+    unit: '',
+    required: true,
+    text: true,
+    title: "the fitted parameter whose standard error ends each sweep (the live fit's names, e.g. barrierHeight)",
+  },
+  {
+    name: 'targetStdErr',
+    path: 'target.stdErr',
+    kinds: ['adaptive'],
+    label: 'target standard error',
+    unit: '',
+    required: true,
+    positive: true,
+    title: "each sweep stops once the parameter's total standard error is this small",
+  },
+  {
+    name: 'currentLimit',
+    path: 'currentLimit',
+    kinds: ['adaptive'],
+    label: 'stop at current',
+    unit: 'A',
+    positive: true,
+    title: 'a sweep stops when the current reaches this (default: half the compliance)',
+  },
   { name: 'rampStart', path: 'start', kinds: ['voltage-ramp'], label: 'ramp from', unit: 'V', required: true, level: 'voltage' },
-  { name: 'rampStop', path: 'stop', kinds: ['voltage-ramp'], label: 'ramp at most to', unit: 'V', required: true, level: 'voltage', title: 'the device "survived" if it reaches this intact' },
+  {
+    name: 'rampStop',
+    path: 'stop',
+    kinds: ['voltage-ramp'],
+    label: 'ramp at most to',
+    unit: 'V',
+    required: true,
+    level: 'voltage',
+    title: 'the device "survived" if it reaches this intact',
+  },
   { name: 'step', path: 'step', kinds: ['voltage-ramp'], label: 'step', unit: 'V', required: true, positive: true },
-  { name: 'currentStart', path: 'start', kinds: ['current-ramp'], label: 'first current', unit: 'A', required: true, nonzero: true, level: 'current', title: 'its sign gives the polarity' },
+  {
+    name: 'currentStart',
+    path: 'start',
+    kinds: ['current-ramp'],
+    label: 'first current',
+    unit: 'A',
+    required: true,
+    nonzero: true,
+    level: 'current',
+    title: 'its sign gives the polarity',
+  },
   { name: 'currentStop', path: 'stop', kinds: ['current-ramp'], label: 'most current', unit: 'A', required: true, nonzero: true, level: 'current' },
-  { name: 'stepsPerDecade', path: 'stepsPerDecade', kinds: ['current-ramp'], label: 'steps per decade', unit: '', required: true, integer: true, min: 1, max: 1000 },
+  {
+    name: 'stepsPerDecade',
+    path: 'stepsPerDecade',
+    kinds: ['current-ramp'],
+    label: 'steps per decade',
+    unit: '',
+    required: true,
+    integer: true,
+    min: 1,
+    max: 1000,
+  },
   { name: 'stepTime', path: 'stepTime', kinds: ['voltage-ramp', 'current-ramp'], label: 'time per step', unit: 's', required: true, positive: true },
   { name: 'voltageLimit', path: 'voltageLimit', kinds: ['current-ramp'], label: 'voltage limit', unit: 'V', required: true, positive: true, level: 'voltage' },
   { name: 'stress', path: 'stress', kinds: ['constant-voltage'], label: 'stress', unit: 'V', required: true, nonzero: true, level: 'voltage' },
-  { name: 'duration', path: 'duration', kinds: ['constant-voltage'], label: 'longest stress', unit: 's', required: true, positive: true, title: 'the device "survived" if it holds this long' },
+  {
+    name: 'duration',
+    path: 'duration',
+    kinds: ['constant-voltage'],
+    label: 'longest stress',
+    unit: 's',
+    required: true,
+    positive: true,
+    title: 'the device "survived" if it holds this long',
+  },
   { name: 'sampleEvery', path: 'sampleEvery', kinds: ['constant-voltage'], label: 'read every', unit: 's', required: true, positive: true },
-  { name: 'testCompliance', path: 'compliance', kinds: ['voltage-ramp', 'constant-voltage'], label: 'compliance', unit: 'A', required: true, positive: true, compliance: true },
-  { name: 'currentJump', path: 'criteria.currentJump', kinds: ['voltage-ramp', 'constant-voltage'], label: 'breakdown: current jump ×', unit: '', min: 1.5, title: '|I| rising by this factor from one reading to the next is a hard breakdown' },
-  { name: 'slopeFactor', path: 'criteria.slopeFactor', kinds: ['voltage-ramp'], label: 'breakdown: slope rise ×', unit: '', min: 0, title: 'the slope of ln|I| against V rising to this multiple of its recent median is a soft breakdown (0: off)' },
-  { name: 'breakdownCurrent', path: 'criteria.currentLimit', kinds: ['voltage-ramp', 'constant-voltage'], label: 'breakdown: current at least', unit: 'A', positive: true, title: 'default: the compliance' },
-  { name: 'voltageDrop', path: 'criteria.voltageDrop', kinds: ['current-ramp'], label: 'breakdown: voltage falls by', unit: '%', scale: 100, min: 1, max: 99, title: 'the voltage falling by this share of its highest value is a collapse (breakdown)' },
-  { name: 'senseStart', path: 'sense.start', kinds: ['constant-voltage'], label: 'sense sweep from', unit: 'V', level: 'voltage', group: 'sense', title: 'an optional low-field sweep now and then, to watch the leakage grow' },
+  {
+    name: 'testCompliance',
+    path: 'compliance',
+    kinds: ['voltage-ramp', 'constant-voltage'],
+    label: 'compliance',
+    unit: 'A',
+    required: true,
+    positive: true,
+    compliance: true,
+  },
+  {
+    name: 'currentJump',
+    path: 'criteria.currentJump',
+    kinds: ['voltage-ramp', 'constant-voltage'],
+    label: 'breakdown: current jump ×',
+    unit: '',
+    min: 1.5,
+    title: '|I| rising by this factor from one reading to the next is a hard breakdown',
+  },
+  {
+    name: 'slopeFactor',
+    path: 'criteria.slopeFactor',
+    kinds: ['voltage-ramp'],
+    label: 'breakdown: slope rise ×',
+    unit: '',
+    min: 0,
+    title: 'the slope of ln|I| against V rising to this multiple of its recent median is a soft breakdown (0: off)',
+  },
+  {
+    name: 'breakdownCurrent',
+    path: 'criteria.currentLimit',
+    kinds: ['voltage-ramp', 'constant-voltage'],
+    label: 'breakdown: current at least',
+    unit: 'A',
+    positive: true,
+    title: 'default: the compliance',
+  },
+  {
+    name: 'voltageDrop',
+    path: 'criteria.voltageDrop',
+    kinds: ['current-ramp'],
+    label: 'breakdown: voltage falls by',
+    unit: '%',
+    scale: 100,
+    min: 1,
+    max: 99,
+    title: 'the voltage falling by this share of its highest value is a collapse (breakdown)',
+  },
+  {
+    name: 'senseStart',
+    path: 'sense.start',
+    kinds: ['constant-voltage'],
+    label: 'sense sweep from',
+    unit: 'V',
+    level: 'voltage',
+    group: 'sense',
+    title: 'an optional low-field sweep now and then, to watch the leakage grow',
+  },
   { name: 'senseStop', path: 'sense.stop', kinds: ['constant-voltage'], label: 'sense sweep to', unit: 'V', level: 'voltage', group: 'sense' },
   { name: 'sensePoints', path: 'sense.points', kinds: ['constant-voltage'], label: 'sense points', unit: '', integer: true, min: 2, group: 'sense' },
-  { name: 'senseEvery', path: 'sense.every', kinds: ['constant-voltage'], label: 'sense every', unit: 's', positive: true, group: 'sense', title: 'seconds of stress between sense sweeps' },
-  { name: 'useVoltage', path: 'useVoltage', kinds: TESTS, label: 'use-condition check at', unit: 'V', level: 'voltage', title: 'optional: one reading at the use voltage before and after the test (leakage before and after)' },
-  { name: 'useCurrentLimit', path: 'useCurrentLimit', kinds: TESTS, label: 'initial failure above', unit: 'A', positive: true, title: 'a device drawing more than this at the use voltage before the test is not stressed' },
+  {
+    name: 'senseEvery',
+    path: 'sense.every',
+    kinds: ['constant-voltage'],
+    label: 'sense every',
+    unit: 's',
+    positive: true,
+    group: 'sense',
+    title: 'seconds of stress between sense sweeps',
+  },
+  {
+    name: 'useVoltage',
+    path: 'useVoltage',
+    kinds: TESTS,
+    label: 'use-condition check at',
+    unit: 'V',
+    level: 'voltage',
+    title: 'optional: one reading at the use voltage before and after the test (leakage before and after)',
+  },
+  {
+    name: 'useCurrentLimit',
+    path: 'useCurrentLimit',
+    kinds: TESTS,
+    label: 'initial failure above',
+    unit: 'A',
+    positive: true,
+    title: 'a device drawing more than this at the use voltage before the test is not stressed',
+  },
 ];
 
 const field = (f: HTMLFormElement, name: string) => f.elements.namedItem(name) as HTMLInputElement | null;
@@ -214,7 +355,8 @@ export function fillPlan(f: HTMLFormElement, st: StationStatus): void {
     } else if (d.compliance || d.level === 'current') el.max = String(L.maxCompliance);
   }
   const hint = f.querySelector('#limits-hint');
-  if (hint) hint.textContent = `Station limits: |V| ≤ ${formatNumber(L.maxVoltage)} V, compliance ≤ ${formatNumber(L.maxCompliance)} A, |V| × compliance ≤ ${formatNumber(L.maxPower)} W${L.hazardVoltage !== undefined ? `; caution above ${formatNumber(L.hazardVoltage)} V` : ''}. The daemon refuses anything beyond them.`;
+  if (hint)
+    hint.textContent = `Station limits: |V| ≤ ${formatNumber(L.maxVoltage)} V, compliance ≤ ${formatNumber(L.maxCompliance)} A, |V| × compliance ≤ ${formatNumber(L.maxPower)} W${L.hazardVoltage !== undefined ? `; caution above ${formatNumber(L.hazardVoltage)} V` : ''}. The daemon refuses anything beyond them.`;
 }
 
 /** Sets the unit shown beside the adaptive target's standard error (the parameter's display unit). */
@@ -251,7 +393,8 @@ export function readPlan(f: HTMLFormElement, st: StationStatus | null, target: {
       groups.set(d.group, g);
     }
     if (raw === '') {
-      if (d.required && d.compliance) throw new Error(`${what}: enter the current limit the instrument holds${L ? ` (at most ${formatNumber(L.maxCompliance)} A, the station limit)` : ''}`);
+      if (d.required && d.compliance)
+        throw new Error(`${what}: enter the current limit the instrument holds${L ? ` (at most ${formatNumber(L.maxCompliance)} A, the station limit)` : ''}`);
       if (d.required) throw new Error(`${what}: enter a value`);
       continue;
     }
@@ -266,9 +409,12 @@ export function readPlan(f: HTMLFormElement, st: StationStatus | null, target: {
     if (d.nonzero && v === 0) throw new Error(`${what}: must not be zero`);
     if (d.min !== undefined && v < d.min) throw new Error(`${what}: at least ${d.min}, got ${raw}`);
     if (d.max !== undefined && v > d.max) throw new Error(`${what}: at most ${d.max}, got ${raw}`);
-    if (L && d.compliance && v > L.maxCompliance) throw new Error(`${what}: ${formatNumber(v)} A is above the station limit of ${formatNumber(L.maxCompliance)} A`);
-    if (L && d.level === 'voltage' && Math.abs(v) > L.maxVoltage) throw new Error(`${what}: ${formatNumber(v)} V is beyond the station limit of ±${formatNumber(L.maxVoltage)} V`);
-    if (L && d.level === 'current' && Math.abs(v) > L.maxCompliance) throw new Error(`${what}: ${formatNumber(v)} A is beyond the most current the station may drive, ${formatNumber(L.maxCompliance)} A`);
+    if (L && d.compliance && v > L.maxCompliance)
+      throw new Error(`${what}: ${formatNumber(v)} A is above the station limit of ${formatNumber(L.maxCompliance)} A`);
+    if (L && d.level === 'voltage' && Math.abs(v) > L.maxVoltage)
+      throw new Error(`${what}: ${formatNumber(v)} V is beyond the station limit of ±${formatNumber(L.maxVoltage)} V`);
+    if (L && d.level === 'current' && Math.abs(v) > L.maxCompliance)
+      throw new Error(`${what}: ${formatNumber(v)} A is beyond the most current the station may drive, ${formatNumber(L.maxCompliance)} A`);
     shown[d.name] = v;
     const scale = d.name === 'targetStdErr' && target ? target.scale : (d.scale ?? 1);
     set(plan, d.path, v / scale);
@@ -283,10 +429,14 @@ export function readPlan(f: HTMLFormElement, st: StationStatus | null, target: {
       const v = shown[d.name];
       if (v === undefined) continue;
       if (d.level === 'voltage' && compliance !== undefined && Math.abs(v) * compliance > L.maxPower) {
-        throw new Error(`${labelText(d)}: ${formatNumber(v)} V at the ${formatNumber(compliance)} A compliance could deliver ${formatNumber(Math.abs(v) * compliance)} W, above the station limit of ${formatNumber(L.maxPower)} W`);
+        throw new Error(
+          `${labelText(d)}: ${formatNumber(v)} V at the ${formatNumber(compliance)} A compliance could deliver ${formatNumber(Math.abs(v) * compliance)} W, above the station limit of ${formatNumber(L.maxPower)} W`,
+        );
       }
       if (d.level === 'current' && typeof plan.voltageLimit === 'number' && Math.abs(v) * plan.voltageLimit > L.maxPower) {
-        throw new Error(`${labelText(d)}: ${formatNumber(v)} A at the ${formatNumber(plan.voltageLimit)} V voltage limit could deliver ${formatNumber(Math.abs(v) * plan.voltageLimit)} W, above the station limit of ${formatNumber(L.maxPower)} W`);
+        throw new Error(
+          `${labelText(d)}: ${formatNumber(v)} A at the ${formatNumber(plan.voltageLimit)} V voltage limit could deliver ${formatNumber(Math.abs(v) * plan.voltageLimit)} W, above the station limit of ${formatNumber(L.maxPower)} W`,
+        );
       }
     }
   }
@@ -294,8 +444,10 @@ export function readPlan(f: HTMLFormElement, st: StationStatus | null, target: {
   const startName = kind === 'voltage-ramp' ? 'rampStart' : 'start';
   const stopName = kind === 'voltage-ramp' ? 'rampStop' : 'stop';
   const fieldOf = (name: string) => labelText(PLAN_FIELDS.find((d) => d.name === name) as PlanField);
-  if ((kind === 'adaptive' || kind === 'voltage-ramp') && plan.start === plan.stop) throw new Error(`${fieldOf(stopName)}: must differ from ${fieldOf(startName)}`);
-  if (kind === 'log' && !((plan.start as number) * (plan.stop as number) > 0)) throw new Error(`${fieldOf('start')}: a log sweep needs start and stop of the same sign, neither zero`);
+  if ((kind === 'adaptive' || kind === 'voltage-ramp') && plan.start === plan.stop)
+    throw new Error(`${fieldOf(stopName)}: must differ from ${fieldOf(startName)}`);
+  if (kind === 'log' && !((plan.start as number) * (plan.stop as number) > 0))
+    throw new Error(`${fieldOf('start')}: a log sweep needs start and stop of the same sign, neither zero`);
   if (kind === 'current-ramp' && (!((plan.start as number) * (plan.stop as number) > 0) || Math.abs(plan.stop as number) <= Math.abs(plan.start as number))) {
     throw new Error(`${fieldOf('currentStop')}: must have the sign of the first current and a larger magnitude`);
   }

@@ -48,7 +48,15 @@ export function renderTestPanel(title: HTMLElement, box: HTMLElement, s: Store):
   if (typeof plan?.description === 'string') box.append(el('p', `${plan.description}.`, 'source'));
   const r = s.testResult;
   if (!r) {
-    box.append(el('p', s.running && !s.readOnly ? 'Under test: the result appears here when the test ends (breakdown, or the end of the ramp or of the stress time).' : 'No result recorded: the test ended before it gave one.', 'hint'));
+    box.append(
+      el(
+        'p',
+        s.running && !s.readOnly
+          ? 'Under test: the result appears here when the test ends (breakdown, or the end of the ramp or of the stress time).'
+          : 'No result recorded: the test ended before it gave one.',
+        'hint',
+      ),
+    );
     return true;
   }
   const out = el('p', '', 'outcome');
@@ -62,7 +70,14 @@ export function renderTestPanel(title: HTMLElement, box: HTMLElement, s: Store):
   const pace = numberRows(r.numbers, 'pace');
   if (table.rows.length) box.append(table);
   const missing = ['breakdownField', 'chargeToBreakdown'].filter((k) => r.result[k] === undefined && typeof r.result.breakdownVoltage === 'number');
-  if (missing.length) box.append(el('p', 'The field needs the film thickness and the charge per area the device area: give them in the Analysis form (or with the device) before the test.', 'hint'));
+  if (missing.length)
+    box.append(
+      el(
+        'p',
+        'The field needs the film thickness and the charge per area the device area: give them in the Analysis form (or with the device) before the test.',
+        'hint',
+      ),
+    );
   if (pace.length) box.append(el('p', pace.map(rowText).join(' · '), 'source'));
   const where = deviceLine(r.result);
   if (where) box.append(el('p', `${where}. One row of device-results.csv beside the journal.`, 'source'));
@@ -84,7 +99,8 @@ export function renderAdaptive(box: HTMLElement, sweeps: readonly Adaptive[]): b
   const pUnit = unit ? displayUnit(unit.unit, unit.name).unit : '';
   const table = el('table', '', 'params adaptive');
   const head = table.insertRow();
-  for (const h of ['sweep', 'readings', 'max |V| (V)', 'charge (C)', name ? `${parameterLabel(name)}${pUnit ? ` (${pUnit})` : ''}` : 'target', 'stopped']) head.append(el('th', h));
+  for (const h of ['sweep', 'readings', 'max |V| (V)', 'charge (C)', name ? `${parameterLabel(name)}${pUnit ? ` (${pUnit})` : ''}` : 'target', 'stopped'])
+    head.append(el('th', h));
   for (const a of shown) {
     const r = table.insertRow();
     r.dataset.sweep = String(a.sweep);
@@ -98,6 +114,13 @@ export function renderAdaptive(box: HTMLElement, sweeps: readonly Adaptive[]): b
     r.insertCell().textContent = a.stopReason.replace(/-/g, ' ');
   }
   const total = sweeps.reduce((n, a) => n + a.readings, 0);
-  box.append(el('p', `${sweeps.length} adaptive sweep(s), ${total} readings in all${sweeps.length > ADAPTIVE_ROWS ? `; the newest ${ADAPTIVE_ROWS} shown` : ''}. Each stops once the target's standard error is reached (target reached), at the current limit or compliance, at the end of the range (bias limit) or after its most points (point budget).`, 'source'), table);
+  box.append(
+    el(
+      'p',
+      `${sweeps.length} adaptive sweep(s), ${total} readings in all${sweeps.length > ADAPTIVE_ROWS ? `; the newest ${ADAPTIVE_ROWS} shown` : ''}. Each stops once the target's standard error is reached (target reached), at the current limit or compliance, at the end of the range (bias limit) or after its most points (point budget).`,
+      'source',
+    ),
+    table,
+  );
   return true;
 }

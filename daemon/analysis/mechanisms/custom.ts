@@ -47,7 +47,10 @@ export function customMechanism(spec: CustomSpec): Mechanism {
 /** Identifier a column can be called by in an expression (header made safe), plus c1, c2 …. */
 export function columnIdentifiers(headers: readonly string[]): string[][] {
   return headers.map((h, k) => {
-    const safe = h.trim().replace(/[^A-Za-z0-9_]/g, '_').replace(/^([0-9])/, '_$1');
+    const safe = h
+      .trim()
+      .replace(/[^A-Za-z0-9_]/g, '_')
+      .replace(/^([0-9])/, '_$1');
     return safe && safe !== `c${k + 1}` ? [safe, `c${k + 1}`] : [`c${k + 1}`];
   });
 }

@@ -10,10 +10,7 @@ import { currentUnit, field, fmt, inRange, param, type Extraction, type Mechanis
 
 /** Fowler–Nordheim current density, A/m², at field E (V/m), barrier φ (eV), mass ratio m_r. */
 export function fowlerNordheim(e: number, barrierHeight: number, massRatio: number): number {
-  return (
-    (FN_A_A_EV_PER_V2 / (massRatio * barrierHeight)) * e * e *
-    Math.exp((-FN_B_EV32_V_PER_M * Math.sqrt(massRatio) * barrierHeight ** 1.5) / e)
-  );
+  return (FN_A_A_EV_PER_V2 / (massRatio * barrierHeight)) * e * e * Math.exp((-FN_B_EV32_V_PER_M * Math.sqrt(massRatio) * barrierHeight ** 1.5) / e);
 }
 
 /** Barrier (eV) from an FN or trap-assisted-tunnelling slope (V/m) and mass ratio, with its error. */

@@ -40,4 +40,3 @@ export const ohmic: Mechanism = {
       ? p.conductivity * (v / inputs.thickness) * (inputs.area ?? 1) // I = σ·E·A
       : v / p.resistance,
 };
-

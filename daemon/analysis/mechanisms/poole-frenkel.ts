@@ -45,7 +45,9 @@ export function checkAgainstIndex(
     return true;
   }
   if (staticPermittivity !== undefined && eps > n2 && eps <= staticPermittivity * 1.1) {
-    warnings.push(`ε_r = ${fmt(eps)} ± ${fmt(epsStdErr)} lies between n² = ${fmt(n2)} and the static ε_r = ${fmt(staticPermittivity)}: partly relaxed lattice, or a window that is not pure emission`);
+    warnings.push(
+      `ε_r = ${fmt(eps)} ± ${fmt(epsStdErr)} lies between n² = ${fmt(n2)} and the static ε_r = ${fmt(staticPermittivity)}: partly relaxed lattice, or a window that is not pure emission`,
+    );
     return true;
   }
   const near = Math.abs(eps * other.factor - n2) <= 0.3 * n2;
@@ -57,7 +59,7 @@ export function checkAgainstIndex(
 
 export function pooleFrenkel(e: number, prefactor: number, trapDepth: number, permittivity: number, temperature: number): number {
   const kt = (BOLTZMANN_J_PER_K * temperature) / Q; // eV
-  return prefactor * e * Math.exp((-trapDepth) / kt + rootFieldSlope(permittivity, temperature, 1) * Math.sqrt(e));
+  return prefactor * e * Math.exp(-trapDepth / kt + rootFieldSlope(permittivity, temperature, 1) * Math.sqrt(e));
 }
 
 export const pooleFrenkelMechanism: Mechanism = {
@@ -88,7 +90,9 @@ export const pooleFrenkelMechanism: Mechanism = {
     }
     const eps = permittivityFromRootFieldSlope(line.slope, line.slopeStdErr, inputs.temperature, 1);
     let plausible = inRange(warnings, 'dynamic permittivity', eps.value, 1, 30, '');
-    plausible = checkAgainstIndex(eps.value, eps.stdErr, inputs.refractiveIndex, inputs.permittivity, warnings, notes, { name: 'Schottky emission', factor: 0.25 }) && plausible;
+    plausible =
+      checkAgainstIndex(eps.value, eps.stdErr, inputs.refractiveIndex, inputs.permittivity, warnings, notes, { name: 'Schottky emission', factor: 0.25 }) &&
+      plausible;
     return { parameters: { relativePermittivity: param(eps.value, eps.stdErr, '1') }, warnings, plausible, notes };
   },
   forward: (v, p, inp) => pooleFrenkel(field(v, inp), p.prefactor, p.trapDepth, p.relativePermittivity, inp.temperature),

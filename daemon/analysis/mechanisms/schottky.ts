@@ -10,8 +10,7 @@ import { checkAgainstIndex, permittivityFromRootFieldSlope, rootFieldSlope } fro
 
 export function schottkyEmission(e: number, barrierHeight: number, permittivity: number, temperature: number, richardson: number): number {
   const kt = (BOLTZMANN_J_PER_K * temperature) / Q; // eV
-  return richardson * temperature * temperature *
-    Math.exp(-barrierHeight / kt + rootFieldSlope(permittivity, temperature, 4) * Math.sqrt(e));
+  return richardson * temperature * temperature * Math.exp(-barrierHeight / kt + rootFieldSlope(permittivity, temperature, 4) * Math.sqrt(e));
 }
 
 export const schottkyMechanism: Mechanism = {
@@ -44,7 +43,9 @@ export const schottkyMechanism: Mechanism = {
     const eps = permittivityFromRootFieldSlope(line.slope, line.slopeStdErr, inputs.temperature, 4);
     parameters.relativePermittivity = param(eps.value, eps.stdErr, '1');
     let plausible = inRange(warnings, 'dynamic permittivity', eps.value, 1, 30, '');
-    plausible = checkAgainstIndex(eps.value, eps.stdErr, inputs.refractiveIndex, inputs.permittivity, warnings, notes, { name: 'Poole–Frenkel emission', factor: 4 }) && plausible;
+    plausible =
+      checkAgainstIndex(eps.value, eps.stdErr, inputs.refractiveIndex, inputs.permittivity, warnings, notes, { name: 'Poole–Frenkel emission', factor: 4 }) &&
+      plausible;
     if (inputs.area !== undefined) {
       const kt = (BOLTZMANN_J_PER_K * inputs.temperature) / Q;
       const phi = kt * (Math.log(inputs.richardson) - line.intercept);

@@ -16,7 +16,7 @@ import { currentUnit, fmt, param, type Extraction, type Mechanism, type Paramete
 
 /** Mott–Gurney current density, A/m², for bias V (V), mobility μ (m²/(V·s)), ε_r and d (m). */
 export function mottGurney(v: number, mobility: number, permittivity: number, thickness: number): number {
-  return (9 / 8) * VACUUM_PERMITTIVITY_F_PER_M * permittivity * mobility * (v * v) / (thickness ** 3);
+  return ((9 / 8) * VACUUM_PERMITTIVITY_F_PER_M * permittivity * mobility * (v * v)) / thickness ** 3;
 }
 
 export const sclc: Mechanism = {
@@ -86,7 +86,7 @@ export const sclc: Mechanism = {
         ys.push(Math.log(mg));
         // σ(ln mg) = σ_J/mg = σ_y·V/mg, σ_y = 1/√w.
         const w = used.w ? used.w[k] : 1;
-        ws.push(w > 0 ? (mg * mg) / (v * v) * w : 0);
+        ws.push(w > 0 ? ((mg * mg) / (v * v)) * w : 0);
       }
     }
     if (xs.length >= 4) {
@@ -94,7 +94,9 @@ export const sclc: Mechanism = {
         const f = fitLine(xs, ys, { weights: ws });
         parameters.exponent = param(f.slope, f.slopeStdErr, '1');
         if (Math.abs(f.slope - 2) > 3 * f.slopeStdErr + 0.05) {
-          warnings.push(`the log–log slope of the space-charge-limited part is ${fmt(f.slope)} ± ${fmt(f.slopeStdErr)}, not 2: not trap-free Mott–Gurney (traps filling, a field-dependent mobility or an injection barrier)`);
+          warnings.push(
+            `the log–log slope of the space-charge-limited part is ${fmt(f.slope)} ± ${fmt(f.slopeStdErr)}, not 2: not trap-free Mott–Gurney (traps filling, a field-dependent mobility or an injection barrier)`,
+          );
           plausible = false;
         } else {
           notes.push(`log–log slope of the space-charge-limited part ${fmt(f.slope)} ± ${fmt(f.slopeStdErr)}: consistent with 2`);

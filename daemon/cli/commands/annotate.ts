@@ -6,30 +6,42 @@ import type { Command } from 'commander';
 import { deviceLine } from '../../../protocols/breakdown-display.js';
 import { readDevice, withDeviceOptions, type DeviceOptions } from '../device.js';
 import { UsageError } from '../usage.js';
-import { daemonModules, } from '../station-common.js';
+import { daemonModules } from '../station-common.js';
 
 export function registerAnnotate(program: Command): void {
-  withDeviceOptions(program
-    .command('annotate')
-    .description('add a note (free text and tags) to a session, or to one of its sweeps; with device options, correct the session\'s device identity (wafer, site, x, y, area …)')
-    .argument('<session-dir>', 'a session folder')
-    .option('--text <text>', 'the note (required unless device options are given)')
-    .option('--tag <tag...>', 'tags (repeatable)')
-    .option('--sweep <n>', 'the sweep the note is about (default: the whole session)'))
-    .action(async (dir: string, o: DeviceOptions & { text?: string; tag?: string[]; sweep?: string }) => {
-      const { liveLockHolder, annotateFolder } = await daemonModules();
-      const holder = liveLockHolder(resolve(dir));
-      if (holder !== undefined) throw new UsageError(`${dir} is being written by the running daemon (pid ${holder}); annotate through its API: POST /api/annotations`);
-      let sweep: number | undefined;
-      if (o.sweep !== undefined) {
-        sweep = Number(o.sweep);
-        if (!Number.isInteger(sweep) || sweep < 1) throw new UsageError(`--sweep '${o.sweep}': expected a sweep number ≥ 1`);
-      }
-      const device = await readDevice(o);
-      if (o.text === undefined && device === undefined) throw new UsageError('give --text (the note), device options (--wafer, --site, --x, --y, --area …), or both');
-      if (o.text !== undefined && o.text.trim() === '') throw new UsageError('--text is empty');
-      const text = o.text ?? `device identity corrected: ${deviceLine(device as Record<string, unknown> | undefined)}`;
-      const e = annotateFolder(resolve(dir), { type: 'annotation', text, tags: o.tag ?? [], ...(sweep !== undefined ? { sweep } : {}), source: 'cli', ...(device ? { device } : {}) });
-      process.stdout.write(`annotation ${e.seq} added to ${dir}\n`);
+  withDeviceOptions(
+    program
+      .command('annotate')
+      .description(
+        "add a note (free text and tags) to a session, or to one of its sweeps; with device options, correct the session's device identity (wafer, site, x, y, area …)",
+      )
+      .argument('<session-dir>', 'a session folder')
+      .option('--text <text>', 'the note (required unless device options are given)')
+      .option('--tag <tag...>', 'tags (repeatable)')
+      .option('--sweep <n>', 'the sweep the note is about (default: the whole session)'),
+  ).action(async (dir: string, o: DeviceOptions & { text?: string; tag?: string[]; sweep?: string }) => {
+    const { liveLockHolder, annotateFolder } = await daemonModules();
+    const holder = liveLockHolder(resolve(dir));
+    if (holder !== undefined)
+      throw new UsageError(`${dir} is being written by the running daemon (pid ${holder}); annotate through its API: POST /api/annotations`);
+    let sweep: number | undefined;
+    if (o.sweep !== undefined) {
+      sweep = Number(o.sweep);
+      if (!Number.isInteger(sweep) || sweep < 1) throw new UsageError(`--sweep '${o.sweep}': expected a sweep number ≥ 1`);
+    }
+    const device = await readDevice(o);
+    if (o.text === undefined && device === undefined)
+      throw new UsageError('give --text (the note), device options (--wafer, --site, --x, --y, --area …), or both');
+    if (o.text !== undefined && o.text.trim() === '') throw new UsageError('--text is empty');
+    const text = o.text ?? `device identity corrected: ${deviceLine(device as Record<string, unknown> | undefined)}`;
+    const e = annotateFolder(resolve(dir), {
+      type: 'annotation',
+      text,
+      tags: o.tag ?? [],
+      ...(sweep !== undefined ? { sweep } : {}),
+      source: 'cli',
+      ...(device ? { device } : {}),
     });
+    process.stdout.write(`annotation ${e.seq} added to ${dir}\n`);
+  });
 }

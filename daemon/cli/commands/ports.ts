@@ -18,7 +18,13 @@ export function registerPorts(program: Command): void {
       if (r.warning) process.stderr.write(`plumbline ports: ${r.warning}\n`);
       if (r.ports.length === 0) process.stdout.write('no serial ports found\n');
       for (const p of r.ports) {
-        const about = [p.manufacturer, p.serialNumber ? `serial number ${p.serialNumber}` : undefined, p.vendorId ? `USB ${p.vendorId}:${p.productId ?? '?'}` : undefined].filter(Boolean).join(', ');
+        const about = [
+          p.manufacturer,
+          p.serialNumber ? `serial number ${p.serialNumber}` : undefined,
+          p.vendorId ? `USB ${p.vendorId}:${p.productId ?? '?'}` : undefined,
+        ]
+          .filter(Boolean)
+          .join(', ');
         process.stdout.write(`${p.byId ?? p.path}${p.byId ? `  (${p.path})` : ''}${about ? `  ${about}` : ''}\n`);
       }
     });

@@ -3,7 +3,7 @@
  */
 import { resolve } from 'node:path';
 import type { Command } from 'commander';
-import { daemonModules, } from '../station-common.js';
+import { daemonModules } from '../station-common.js';
 
 export function registerRecover(program: Command): void {
   program

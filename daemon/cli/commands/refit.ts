@@ -8,53 +8,65 @@ import { formatInputs, formatParameterText } from '../../../protocols/display-un
 import { formatNumber } from '../../../protocols/number-format.js';
 
 export function registerRefit(program: Command): void {
-  withArchiveSessions(program
-    .command('refit')
-    .description('analyse every sweep of a session again with another model, window or inputs (the journal is not changed; results go to a new file)')
-    .argument('[session-dir]', 'a session folder')
-    .option('--model <id>', 'model (default: the session\'s)')
-    .option('--from <V>', 'fit window start, V')
-    .option('--to <V>', 'fit window end, V')
-    .option('--auto', 'choose the fit window automatically')
-    .option('--thickness <q>', 'film thickness, e.g. "8 nm"')
-    .option('--area <q>', 'device area, e.g. "1e-4 cm^2"')
-    .option('--temperature <q>', 'temperature, e.g. "300 K"')
-    .option('--mass-ratio <r>', 'tunnelling effective-mass ratio m*/m0')
-    .option('--permittivity <r>', 'relative permittivity (static)')
-    .option('--refractive-index <r>', 'refractive index')
-    .option('--flat-band <q>', 'flat-band voltage, e.g. "-0.9 V"')
-    .option('--richardson <q>', 'Richardson constant, e.g. "120 A/(cm^2 K^2)"')
-    .option('--out <file>', 'results file (default SESSION_DIR/refit-MODEL-TIME.json)')
-    .option('--json', 'print one JSON object'), false)
-    .action(async (dir: string | undefined, o: Record<string, string | boolean | undefined>) => {
-      const [d] = await sessionDirs(dir, o as ArchiveSessionOptions, true);
-      const { refitSession } = await import('../../journal/refit.js');
-      const { readInputs, readWindow } = await import('../inputs.js');
-      const inputs = Object.fromEntries(Object.entries(readInputs(o as never)).filter(([, v]) => v !== undefined));
-      const window = o.auto || o.from !== undefined || o.to !== undefined ? readWindow(o as never) : undefined;
-      const r = refitSession(d, { model: o.model as string | undefined, window, inputs }, o.out !== undefined ? resolve(String(o.out)) : undefined);
-      if (o.json) {
-        process.stdout.write(`${JSON.stringify(r)}\n`);
-        return;
-      }
-      process.stdout.write(`refit of ${r.sweeps.length} sweep(s) with model ${r.request.model} → ${r.file}\n`);
-      // Which inputs were used, and from where (the options, the session's settings, or defaults).
-      const words = { given: 'given', session: 'the session\'s', default: 'assumed', note: 'from the sweep\'s note' } as const;
-      const used = Object.entries(r.inputs).filter(([k]) => k !== 'temperature').map(([k, v]) => `${formatInputs({ [k]: v.value })} (${words[v.source]})`);
-      const temps = new Map<string, number>();
-      for (const sw of r.sweeps) temps.set(words[sw.temperature.source], (temps.get(words[sw.temperature.source]) ?? 0) + 1);
-      if ('temperature' in r.inputs || [...temps.keys()].some((k) => k !== 'assumed')) {
-        used.push(`temperature ${[...temps.entries()].map(([src, n]) => `${src} for ${n} sweep(s)`).join(', ')}`);
-      }
-      if (used.length) process.stdout.write(`inputs: ${used.join('; ')}\n`);
-      for (const sw of r.sweeps) {
-        const p = sw.fit ? Object.entries(sw.fit.parameters).slice(0, 3).map(([k, v]) => `${k} ${formatParameterText(v, k)}`).join(', ') : `no fit: ${sw.error}`;
-        const t = sw.temperature.source === 'note' ? ` (T = ${formatNumber(sw.temperature.value, 5)} K from its note)` : '';
-        process.stdout.write(`  sweep ${String(sw.sweep).padStart(3)}: ${p}${t}\n`);
-      }
-      // Warnings once each, with the sweeps they concern.
-      const warned = new Map<string, number[]>();
-      for (const sw of r.sweeps) for (const w of sw.warnings) warned.set(w, [...(warned.get(w) ?? []), sw.sweep]);
-      for (const [w, list] of warned) process.stdout.write(`warning (sweep${list.length > 1 ? 's' : ''} ${list.length > 6 ? `${list.slice(0, 5).join(', ')} … ${list.at(-1)}` : list.join(', ')}): ${w}\n`);
-    });
+  withArchiveSessions(
+    program
+      .command('refit')
+      .description('analyse every sweep of a session again with another model, window or inputs (the journal is not changed; results go to a new file)')
+      .argument('[session-dir]', 'a session folder')
+      .option('--model <id>', "model (default: the session's)")
+      .option('--from <V>', 'fit window start, V')
+      .option('--to <V>', 'fit window end, V')
+      .option('--auto', 'choose the fit window automatically')
+      .option('--thickness <q>', 'film thickness, e.g. "8 nm"')
+      .option('--area <q>', 'device area, e.g. "1e-4 cm^2"')
+      .option('--temperature <q>', 'temperature, e.g. "300 K"')
+      .option('--mass-ratio <r>', 'tunnelling effective-mass ratio m*/m0')
+      .option('--permittivity <r>', 'relative permittivity (static)')
+      .option('--refractive-index <r>', 'refractive index')
+      .option('--flat-band <q>', 'flat-band voltage, e.g. "-0.9 V"')
+      .option('--richardson <q>', 'Richardson constant, e.g. "120 A/(cm^2 K^2)"')
+      .option('--out <file>', 'results file (default SESSION_DIR/refit-MODEL-TIME.json)')
+      .option('--json', 'print one JSON object'),
+    false,
+  ).action(async (dir: string | undefined, o: Record<string, string | boolean | undefined>) => {
+    const [d] = await sessionDirs(dir, o as ArchiveSessionOptions, true);
+    const { refitSession } = await import('../../journal/refit.js');
+    const { readInputs, readWindow } = await import('../inputs.js');
+    const inputs = Object.fromEntries(Object.entries(readInputs(o as never)).filter(([, v]) => v !== undefined));
+    const window = o.auto || o.from !== undefined || o.to !== undefined ? readWindow(o as never) : undefined;
+    const r = refitSession(d, { model: o.model as string | undefined, window, inputs }, o.out !== undefined ? resolve(String(o.out)) : undefined);
+    if (o.json) {
+      process.stdout.write(`${JSON.stringify(r)}\n`);
+      return;
+    }
+    process.stdout.write(`refit of ${r.sweeps.length} sweep(s) with model ${r.request.model} → ${r.file}\n`);
+    // Which inputs were used, and from where (the options, the session's settings, or defaults).
+    const words = { given: 'given', session: "the session's", default: 'assumed', note: "from the sweep's note" } as const;
+    const used = Object.entries(r.inputs)
+      .filter(([k]) => k !== 'temperature')
+      .map(([k, v]) => `${formatInputs({ [k]: v.value })} (${words[v.source]})`);
+    const temps = new Map<string, number>();
+    for (const sw of r.sweeps) temps.set(words[sw.temperature.source], (temps.get(words[sw.temperature.source]) ?? 0) + 1);
+    if ('temperature' in r.inputs || [...temps.keys()].some((k) => k !== 'assumed')) {
+      used.push(`temperature ${[...temps.entries()].map(([src, n]) => `${src} for ${n} sweep(s)`).join(', ')}`);
+    }
+    if (used.length) process.stdout.write(`inputs: ${used.join('; ')}\n`);
+    for (const sw of r.sweeps) {
+      const p = sw.fit
+        ? Object.entries(sw.fit.parameters)
+            .slice(0, 3)
+            .map(([k, v]) => `${k} ${formatParameterText(v, k)}`)
+            .join(', ')
+        : `no fit: ${sw.error}`;
+      const t = sw.temperature.source === 'note' ? ` (T = ${formatNumber(sw.temperature.value, 5)} K from its note)` : '';
+      process.stdout.write(`  sweep ${String(sw.sweep).padStart(3)}: ${p}${t}\n`);
+    }
+    // Warnings once each, with the sweeps they concern.
+    const warned = new Map<string, number[]>();
+    for (const sw of r.sweeps) for (const w of sw.warnings) warned.set(w, [...(warned.get(w) ?? []), sw.sweep]);
+    for (const [w, list] of warned)
+      process.stdout.write(
+        `warning (sweep${list.length > 1 ? 's' : ''} ${list.length > 6 ? `${list.slice(0, 5).join(', ')} … ${list.at(-1)}` : list.join(', ')}): ${w}\n`,
+      );
+  });
 }

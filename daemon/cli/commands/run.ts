@@ -5,25 +5,46 @@
 import type { Command } from 'commander';
 import { readDevice, withDeviceOptions, type DeviceOptions } from '../device.js';
 import { UsageError } from '../usage.js';
-import { daemonModules, describe, guardProcess, PUBLISH_HELP, readJson, STATION_HELP, startPublishing, stationConfig, type PublishOptions, type StationOptions } from '../station-common.js';
+import {
+  daemonModules,
+  describe,
+  guardProcess,
+  PUBLISH_HELP,
+  readJson,
+  STATION_HELP,
+  startPublishing,
+  stationConfig,
+  type PublishOptions,
+  type StationOptions,
+} from '../station-common.js';
 
 export function registerRun(program: Command): void {
-  withDeviceOptions(program
-    .command('run')
-    .description('run a sweep plan headless: progress on the terminal, a session folder under --data, exit code by outcome')
-    .option('--config <file>', 'station config (default config/station.json: the built-in simulated instrument)')
-    .option('--plan <file>', 'sweep plan JSON (default: the config\'s plan, or the scenario\'s)')
-    .option('--sweeps <n>', 'number of sweeps (overrides the plan\'s repeat)')
-    .option('--scenario <name>', 'use the built-in simulated instrument with this scenario (plumbline sim --list)')
-    .option('--model <id>', 'live-fit model (default: the config\'s or the scenario\'s)')
-    .option('--data <dir>', 'folder under which the run creates its session folder (default: the config\'s, plumbline-data)')
-    .option('--fast', 'simulated instrument: answer at once, and let every wait (ramp delays, point delays, a breakdown test\'s step and sampling times) pass on its own clock')
-    .option('--json', 'print one JSON object at the end instead of the progress text')
-    .option('--publish <url>', PUBLISH_HELP)
-    .option('--station <id>', STATION_HELP)
-    .option('--override-disk-check', 'run a plan whose journal would not fit in the free disk space (refused otherwise)')
-    .addHelpText('after', '\nA plan file may also carry the device under test: {"kind": …, "device": {"wafer": "W07", "site": "C4", "x": 3, "y": -2, "area": 1e-8}} (SI); the options above override its fields.\nExit codes: 0 completed or stopped, 2 bad input, 3 aborted by the user, 4 aborted by drift, 5 aborted by breakdown, 6 instrument fault (no usable reading, replies out of step, no answer), 7 refused by the safety guard, 9 the journal could not be written (disk full), 10 internal error.'))
-    .action(async (o: StationOptions & DeviceOptions & PublishOptions & { plan?: string; sweeps?: string; model?: string; json?: boolean; overrideDiskCheck?: boolean }) => {
+  withDeviceOptions(
+    program
+      .command('run')
+      .description('run a sweep plan headless: progress on the terminal, a session folder under --data, exit code by outcome')
+      .option('--config <file>', 'station config (default config/station.json: the built-in simulated instrument)')
+      .option('--plan <file>', "sweep plan JSON (default: the config's plan, or the scenario's)")
+      .option('--sweeps <n>', "number of sweeps (overrides the plan's repeat)")
+      .option('--scenario <name>', 'use the built-in simulated instrument with this scenario (plumbline sim --list)')
+      .option('--model <id>', "live-fit model (default: the config's or the scenario's)")
+      .option('--data <dir>', "folder under which the run creates its session folder (default: the config's, plumbline-data)")
+      .option(
+        '--fast',
+        "simulated instrument: answer at once, and let every wait (ramp delays, point delays, a breakdown test's step and sampling times) pass on its own clock",
+      )
+      .option('--json', 'print one JSON object at the end instead of the progress text')
+      .option('--publish <url>', PUBLISH_HELP)
+      .option('--station <id>', STATION_HELP)
+      .option('--override-disk-check', 'run a plan whose journal would not fit in the free disk space (refused otherwise)')
+      .addHelpText(
+        'after',
+        '\nA plan file may also carry the device under test: {"kind": …, "device": {"wafer": "W07", "site": "C4", "x": 3, "y": -2, "area": 1e-8}} (SI); the options above override its fields.\nExit codes: 0 completed or stopped, 2 bad input, 3 aborted by the user, 4 aborted by drift, 5 aborted by breakdown, 6 instrument fault (no usable reading, replies out of step, no answer), 7 refused by the safety guard, 9 the journal could not be written (disk full), 10 internal error.',
+      ),
+  ).action(
+    async (
+      o: StationOptions & DeviceOptions & PublishOptions & { plan?: string; sweeps?: string; model?: string; json?: boolean; overrideDiskCheck?: boolean },
+    ) => {
       const config = await stationConfig(o);
       const { dataDir, Station, EXIT_CODE, describePlan } = await daemonModules();
       const data = dataDir(config, o.data);
@@ -47,7 +68,10 @@ export function registerRun(program: Command): void {
         plan = plan === undefined ? { ...station.defaultPlan(n) } : { ...(plan as object), repeat: n };
       }
       if (o.overrideDiskCheck) plan = { ...((plan ?? station.defaultPlan()) as object), overrideDiskCheck: true };
-      const analysis = o.model !== undefined ? { ...station.analysisSettings, model: o.model, ...(o.model !== station.analysisSettings.model ? { window: 'auto' } : {}) } : undefined;
+      const analysis =
+        o.model !== undefined
+          ? { ...station.analysisSettings, model: o.model, ...(o.model !== station.analysisSettings.model ? { window: 'auto' } : {}) }
+          : undefined;
       const device = await readDevice(o);
       const pub = await startPublishing(config, data, o, null);
       const leaving = guardProcess(station, async () => void (await pub?.stop(1000)), { signal: EXIT_CODE.interrupted, error: EXIT_CODE['internal-error'] });
@@ -88,18 +112,25 @@ export function registerRun(program: Command): void {
       }
       if (!o.json) {
         process.stdout.write(`session ${h.session}\n  folder ${h.dir}\n  plan: ${describePlan(h.plan)}\n`);
-        process.stdout.write('CAUTION: on a real station the output can reach hazardous voltages. Follow your lab\'s safety rules; these software limits do not replace the instrument\'s interlock.\n');
+        process.stdout.write(
+          "CAUTION: on a real station the output can reach hazardous voltages. Follow your lab's safety rules; these software limits do not replace the instrument's interlock.\n",
+        );
       }
       const result = await h.done;
       if (o.json) process.stdout.write(`${JSON.stringify({ session: h.session, dir: h.dir, ...result, cautions })}\n`);
-      else process.stdout.write(`${progressShown ? '\n' : ''}run ended: ${result.outcome} — ${result.reason} (${result.sweeps} sweep(s) finished)\nexport it: plumbline export ${h.dir}\n`);
+      else
+        process.stdout.write(
+          `${progressShown ? '\n' : ''}run ended: ${result.outcome} — ${result.reason} (${result.sweeps} sweep(s) finished)\nexport it: plumbline export ${h.dir}\n`,
+        );
       if (leaving()) return; // a signal or error ended the run: its handler finishes and exits
       // The journal is closed: hand the broker what it has not got yet (a broker that is down costs
       // a few seconds here, nothing more; the rest goes out on the next start).
       const left = await pub?.stop(5000);
-      if (left && left.unsent.length > 0) process.stderr.write(`publish: not everything reached the broker; it is published on the next start with --publish\n`);
+      if (left && left.unsent.length > 0)
+        process.stderr.write(`publish: not everything reached the broker; it is published on the next start with --publish\n`);
       // Exit explicitly: the journal is closed and the output is off; a serial port's native poller
       // can otherwise keep the event loop alive after close (seen with socat ptys).
       process.exit(EXIT_CODE[result.outcome]);
-    });
+    },
+  );
 }

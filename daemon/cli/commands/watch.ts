@@ -5,18 +5,20 @@
 import type { Command } from 'commander';
 import { UsageError } from '../usage.js';
 import { Log } from '../log.js';
-import { daemonModules, describe, PUBLISH_HELP, serialSettings, STATION_HELP, startPublishing, stationConfig, type PublishOptions, } from '../station-common.js';
+import { daemonModules, describe, PUBLISH_HELP, serialSettings, STATION_HELP, startPublishing, stationConfig, type PublishOptions } from '../station-common.js';
 
 export function registerWatch(program: Command): void {
   program
     .command('watch')
-    .description('follow readings another program produces — a CSV it is writing, standard input, a TCP or serial line stream — segment sweeps, and run the live chain, journal and page on them, with no control of the instrument')
+    .description(
+      'follow readings another program produces — a CSV it is writing, standard input, a TCP or serial line stream — segment sweeps, and run the live chain, journal and page on them, with no control of the instrument',
+    )
     .argument('<source>', 'the CSV being written; - for standard input; tcp://HOST:PORT; or serial:PATH (e.g. serial:/dev/ttyUSB0)')
     .option('--voltage <col>', 'voltage column, by header name or 1-based position (default: the first)')
     .option('--current <col>', 'current column (default: the second)')
     .option('--compliance-column <col>', 'column flagging readings at compliance (non-zero)')
     .option('--temperature-column <col>', 'column with the device temperature in K: each sweep gets a note "T = … K" (for plumbline tseries)')
-    .option('--model <id>', 'live-fit model (default: the config\'s)')
+    .option('--model <id>', "live-fit model (default: the config's)")
     .option('--thickness <q>', 'film thickness, e.g. "8 nm" (the live fit\'s input; default: the config\'s)')
     .option('--area <q>', 'device area, e.g. "1e-4 cm^2"')
     .option('--temperature <q>', 'temperature, e.g. "300 K" or "25 degC"')
@@ -26,8 +28,8 @@ export function registerWatch(program: Command): void {
     .option('--flat-band <q>', 'flat-band voltage, e.g. "-0.9 V"')
     .option('--richardson <q>', 'Richardson constant, e.g. "120 A/(cm^2 K^2)"')
     .option('--config <file>', 'station config (analysis, drift, server, data settings)')
-    .option('--data <dir>', 'folder for the session folder (default: the config\'s, plumbline-data)')
-    .option('--port <n>', 'serve the page on this port (default: the config\'s; 0 = any free port)')
+    .option('--data <dir>', "folder for the session folder (default: the config's, plumbline-data)")
+    .option('--port <n>', "serve the page on this port (default: the config's; 0 = any free port)")
     .option('--no-page', 'do not serve the page')
     .option('--baud <n>', 'serial: baud rate', '9600')
     .option('--data-bits <n>', 'serial: 5, 6, 7 or 8', '8')
@@ -40,82 +42,133 @@ export function registerWatch(program: Command): void {
     .option('--read-terminator <t>', 'serial and TCP: what ends a line: lf (a trailing CR is dropped), crlf or cr', 'lf')
     .option('--publish <url>', PUBLISH_HELP)
     .option('--station <id>', STATION_HELP)
-    .action(async (spec: string, o: PublishOptions & { voltage?: string; current?: string; complianceColumn?: string; temperatureColumn?: string; model?: string; config?: string; data?: string; port?: string; page: boolean; baud: string; dataBits: string; parity: string; stopBits: string; rtscts?: boolean; xonxoff?: boolean; readTerminator: string; quiet?: boolean; verbose?: boolean }) => {
-      const log = Log.from(o);
-      const config = await stationConfig({ config: o.config });
-      const { dataDir, Station, startServer } = await daemonModules();
-      const { feedPassive } = await import('../../pipeline/passive.js');
-      const { fileLines, streamLines, tcpLines, serialLines, parseSourceSpec } = await import('../../../protocols/line-source.js');
-      const { existsSync } = await import('node:fs');
-      let src: ReturnType<typeof parseSourceSpec>;
-      try {
-        src = parseSourceSpec(spec);
-      } catch (e) {
-        throw new UsageError((e as Error).message);
-      }
-      if (!['lf', 'crlf', 'cr'].includes(o.readTerminator)) throw new UsageError(`--read-terminator '${o.readTerminator}': expected lf, crlf or cr`);
-      const term = o.readTerminator as 'lf' | 'crlf' | 'cr';
-      const serial = src.kind === 'serial' ? serialSettings(src.path, o) : undefined;
-      if (src.kind === 'file' && !existsSync(src.path)) throw new UsageError(`${src.path}: no such file (watch follows a file that exists; create it first, even empty)`);
-      const station = new Station(config, dataDir(config, o.data));
-      for (const r of station.recovered) log.notice(`journal ${r.dir}: ${r.message}`);
-      // Another program's data: the fit window is found automatically unless the config fixes one.
-      // The device's inputs from the options override the config's (named in the notice below).
-      const { readInputs } = await import('../inputs.js');
-      const given = Object.fromEntries(Object.entries(readInputs(o as never)).filter(([, v]) => v !== undefined));
-      const analysis = station.setAnalysis({ ...station.analysisSettings, ...(o.model !== undefined ? { model: o.model } : {}), inputs: { ...station.analysisSettings.inputs, ...given }, window: config.analysis?.window ?? 'auto' }, 'cli');
-      const { formatInputs } = await import('../../../protocols/display-units.js');
-      const fromConfig = Object.fromEntries(Object.entries(analysis.inputs).filter(([k]) => !(k in given)));
-      log.notice(`analysis: ${analysis.model}; inputs ${formatInputs(given) || 'none'} from the options${Object.keys(fromConfig).length ? `, ${formatInputs(fromConfig)} from the ${o.config ? 'config' : 'default station config'}` : ''} (give --thickness, --area, --temperature … for this device)`);
-      let srv: Awaited<ReturnType<typeof startServer>> | undefined;
-      if (o.page) {
-        const port = o.port !== undefined ? Number(o.port) : config.server.port;
-        if (!Number.isInteger(port) || port < 0 || port > 65535) throw new UsageError(`--port '${o.port}': expected a port number`);
-        srv = await startServer(station, { host: config.server.host, port, token: config.server.token, allowedHosts: config.server.allowedHosts });
-      }
-      const where = src.kind === 'stdin' ? 'standard input' : src.kind === 'tcp' ? `TCP ${src.host}:${src.port}` : src.kind === 'serial' ? `serial ${src.path}` : src.path;
-      let source: import('../../../protocols/line-source.js').LineSource;
-      try {
-        source = src.kind === 'stdin' ? streamLines(process.stdin, 65536, term)
-          : src.kind === 'tcp' ? await tcpLines(src.host, src.port, term)
-          : src.kind === 'serial' ? await serialLines(serial!, term)
-          : await fileLines(src.path);
-      } catch (e) {
-        await srv?.close();
-        throw new UsageError(`cannot open ${where}: ${(e as Error).message}`);
-      }
-      const pub = await startPublishing(config, dataDir(config, o.data), o, srv?.url ?? null);
-      const passive = station.openPassive('watch', where);
-      const feed = feedPassive(source, passive.chain, { voltage: o.voltage, current: o.current, compliance: o.complianceColumn, temperature: o.temperatureColumn }, where);
-      log.notice(`watching ${where} → session ${passive.session}`);
-      log.notice(`folder ${passive.dir}`);
-      if (srv) log.notice(`page  ${srv.url}`);
-      log.notice('plumbline does not control this instrument; Ctrl-C stops watching.');
-      station.events$.subscribe({
-        next: (e) => {
-          if (e.type === 'caution' && e.kind !== 'passive-source') log.warn(`CAUTION [${e.kind}] ${e.message}`);
-          else if (e.type === 'rejected') log.warn(`skipped: ${e.reason}`);
-          else if (log.threshold === 'debug') {
-            const line = describe(e);
-            if (line) log.debug(line.trim());
-          }
+    .action(
+      async (
+        spec: string,
+        o: PublishOptions & {
+          voltage?: string;
+          current?: string;
+          complianceColumn?: string;
+          temperatureColumn?: string;
+          model?: string;
+          config?: string;
+          data?: string;
+          port?: string;
+          page: boolean;
+          baud: string;
+          dataBits: string;
+          parity: string;
+          stopBits: string;
+          rtscts?: boolean;
+          xonxoff?: boolean;
+          readTerminator: string;
+          quiet?: boolean;
+          verbose?: boolean;
         },
-        error: () => undefined,
-      });
-      let closed = false;
-      const close = async (why: string) => {
-        if (closed) return;
-        closed = true;
-        feed.stop();
-        passive.close('completed', why);
-        await srv?.close();
-        await pub?.stop(3000);
-        log.notice(`stopped: ${why}; ${feed.stats.readings} readings in ${feed.stats.sweeps} sweep(s), ${feed.stats.rejected} row(s) skipped`);
-        process.exit(0);
-      };
-      process.on('SIGINT', () => void close('interrupted (SIGINT)'));
-      process.on('SIGTERM', () => void close('terminated (SIGTERM)'));
-      await feed.done;
-      await close('the source ended');
-    });
+      ) => {
+        const log = Log.from(o);
+        const config = await stationConfig({ config: o.config });
+        const { dataDir, Station, startServer } = await daemonModules();
+        const { feedPassive } = await import('../../pipeline/passive.js');
+        const { fileLines, streamLines, tcpLines, serialLines, parseSourceSpec } = await import('../../../protocols/line-source.js');
+        const { existsSync } = await import('node:fs');
+        let src: ReturnType<typeof parseSourceSpec>;
+        try {
+          src = parseSourceSpec(spec);
+        } catch (e) {
+          throw new UsageError((e as Error).message);
+        }
+        if (!['lf', 'crlf', 'cr'].includes(o.readTerminator)) throw new UsageError(`--read-terminator '${o.readTerminator}': expected lf, crlf or cr`);
+        const term = o.readTerminator as 'lf' | 'crlf' | 'cr';
+        const serial = src.kind === 'serial' ? serialSettings(src.path, o) : undefined;
+        if (src.kind === 'file' && !existsSync(src.path))
+          throw new UsageError(`${src.path}: no such file (watch follows a file that exists; create it first, even empty)`);
+        const station = new Station(config, dataDir(config, o.data));
+        for (const r of station.recovered) log.notice(`journal ${r.dir}: ${r.message}`);
+        // Another program's data: the fit window is found automatically unless the config fixes one.
+        // The device's inputs from the options override the config's (named in the notice below).
+        const { readInputs } = await import('../inputs.js');
+        const given = Object.fromEntries(Object.entries(readInputs(o as never)).filter(([, v]) => v !== undefined));
+        const analysis = station.setAnalysis(
+          {
+            ...station.analysisSettings,
+            ...(o.model !== undefined ? { model: o.model } : {}),
+            inputs: { ...station.analysisSettings.inputs, ...given },
+            window: config.analysis?.window ?? 'auto',
+          },
+          'cli',
+        );
+        const { formatInputs } = await import('../../../protocols/display-units.js');
+        const fromConfig = Object.fromEntries(Object.entries(analysis.inputs).filter(([k]) => !(k in given)));
+        log.notice(
+          `analysis: ${analysis.model}; inputs ${formatInputs(given) || 'none'} from the options${Object.keys(fromConfig).length ? `, ${formatInputs(fromConfig)} from the ${o.config ? 'config' : 'default station config'}` : ''} (give --thickness, --area, --temperature … for this device)`,
+        );
+        let srv: Awaited<ReturnType<typeof startServer>> | undefined;
+        if (o.page) {
+          const port = o.port !== undefined ? Number(o.port) : config.server.port;
+          if (!Number.isInteger(port) || port < 0 || port > 65535) throw new UsageError(`--port '${o.port}': expected a port number`);
+          srv = await startServer(station, { host: config.server.host, port, token: config.server.token, allowedHosts: config.server.allowedHosts });
+        }
+        const where =
+          src.kind === 'stdin'
+            ? 'standard input'
+            : src.kind === 'tcp'
+              ? `TCP ${src.host}:${src.port}`
+              : src.kind === 'serial'
+                ? `serial ${src.path}`
+                : src.path;
+        let source: import('../../../protocols/line-source.js').LineSource;
+        try {
+          source =
+            src.kind === 'stdin'
+              ? streamLines(process.stdin, 65536, term)
+              : src.kind === 'tcp'
+                ? await tcpLines(src.host, src.port, term)
+                : src.kind === 'serial'
+                  ? await serialLines(serial!, term)
+                  : await fileLines(src.path);
+        } catch (e) {
+          await srv?.close();
+          throw new UsageError(`cannot open ${where}: ${(e as Error).message}`);
+        }
+        const pub = await startPublishing(config, dataDir(config, o.data), o, srv?.url ?? null);
+        const passive = station.openPassive('watch', where);
+        const feed = feedPassive(
+          source,
+          passive.chain,
+          { voltage: o.voltage, current: o.current, compliance: o.complianceColumn, temperature: o.temperatureColumn },
+          where,
+        );
+        log.notice(`watching ${where} → session ${passive.session}`);
+        log.notice(`folder ${passive.dir}`);
+        if (srv) log.notice(`page  ${srv.url}`);
+        log.notice('plumbline does not control this instrument; Ctrl-C stops watching.');
+        station.events$.subscribe({
+          next: (e) => {
+            if (e.type === 'caution' && e.kind !== 'passive-source') log.warn(`CAUTION [${e.kind}] ${e.message}`);
+            else if (e.type === 'rejected') log.warn(`skipped: ${e.reason}`);
+            else if (log.threshold === 'debug') {
+              const line = describe(e);
+              if (line) log.debug(line.trim());
+            }
+          },
+          error: () => undefined,
+        });
+        let closed = false;
+        const close = async (why: string) => {
+          if (closed) return;
+          closed = true;
+          feed.stop();
+          passive.close('completed', why);
+          await srv?.close();
+          await pub?.stop(3000);
+          log.notice(`stopped: ${why}; ${feed.stats.readings} readings in ${feed.stats.sweeps} sweep(s), ${feed.stats.rejected} row(s) skipped`);
+          process.exit(0);
+        };
+        process.on('SIGINT', () => void close('interrupted (SIGINT)'));
+        process.on('SIGTERM', () => void close('terminated (SIGTERM)'));
+        await feed.done;
+        await close('the source ended');
+      },
+    );
 }
