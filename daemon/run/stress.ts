@@ -289,6 +289,12 @@ export class StressTest {
     };
   }
 
+  /** Turns the output on (the driver confirms it with the instrument's own query) and journals it. */
+  private async outputOn(what: string): Promise<void> {
+    await this.ctx.source.outputOn();
+    this.ctx.record({ type: 'output', on: true, sent: true, queried: true, confirmed: true, reason: `${what} (the instrument reports its output on)` });
+  }
+
   /** One reading at the use voltage (voltage sourcing at the plan's compliance); output off after. */
   private async useCheck(label: string): Promise<number> {
     const p = this.plan;
@@ -296,8 +302,7 @@ export class StressTest {
     const v = p.useVoltage as number;
     await src.configure(useCheckCompliance(this.limits, p), p.nplc);
     this.ctx.check();
-    await src.outputOn();
-    this.ctx.record({ type: 'output', on: true, sent: true, queried: true, confirmed: true, reason: `${label} (the instrument reports its output on)` });
+    await this.outputOn(label);
     this.startSweep(1, label);
     await src.rampTo(v);
     await this.ctx.sleep(0.01);
@@ -328,15 +333,7 @@ export class StressTest {
     const src = this.ctx.source;
     await src.configure(p.compliance, p.nplc);
     this.ctx.check();
-    await src.outputOn();
-    this.ctx.record({
-      type: 'output',
-      on: true,
-      sent: true,
-      queried: true,
-      confirmed: true,
-      reason: 'voltage ramp started (the instrument reports its output on)',
-    });
+    await this.outputOn('voltage ramp started');
     const dir = Math.sign(p.stop - p.start);
     const steps = Math.floor(Math.abs(p.stop - p.start) / p.step + 1e-9);
     // Rounded to 12 significant digits: 9.6 V goes to the instrument as 9.6, not 9.600000000000001.
@@ -383,15 +380,7 @@ export class StressTest {
     const src = this.ctx.source;
     await src.configureCurrent(p.voltageLimit, p.nplc);
     this.ctx.check();
-    await src.outputOn();
-    this.ctx.record({
-      type: 'output',
-      on: true,
-      sent: true,
-      queried: true,
-      confirmed: true,
-      reason: 'current ramp started (the instrument reports its output on)',
-    });
+    await this.outputOn('current ramp started');
     const decades = Math.log10(Math.abs(p.stop / p.start));
     const n = Math.ceil(decades * p.stepsPerDecade - 1e-9);
     const levels = Array.from({ length: n + 1 }, (_, k) => (k === n ? p.stop : p.start * 10 ** (k / p.stepsPerDecade)));
@@ -441,15 +430,7 @@ export class StressTest {
     const src = this.ctx.source;
     await src.configure(p.compliance, p.nplc);
     this.ctx.check();
-    await src.outputOn();
-    this.ctx.record({
-      type: 'output',
-      on: true,
-      sent: true,
-      queried: true,
-      confirmed: true,
-      reason: 'constant-voltage stress started (the instrument reports its output on)',
-    });
+    await this.outputOn('constant-voltage stress started');
     const judge = new StressJudge(p.criteria, p.compliance);
     let stressTime = 0;
     let nextSense = p.sense ? p.sense.every : Infinity;
