@@ -218,7 +218,7 @@ function boxStrip(p: ParameterStats, rows: LotRow[]): string {
     `<svg class="chart" xmlns="http://www.w3.org/2000/svg" width="${W}" height="${H}" viewBox="0 0 ${W} ${H}" role="img" aria-label="${esc(p.name)} distribution">`,
   ];
   parts.push(
-    `<text x="${L}" y="16" class="t">${esc(p.name)}${d.unit ? ` (${esc(d.unit)})` : ''}: box = quartiles, bar = median, whiskers to 1.5 IQR; ● devices, ◇ outliers (|robust z| &gt; ${OUTLIER_Z})</text>`,
+    `<text x="8" y="16" class="t">${esc(p.name)}${d.unit ? ` (${esc(d.unit)})` : ''} · box: quartiles · bar: median · whiskers: 1.5 IQR · ● device · ◇ outlier (|z| &gt; ${OUTLIER_Z})</text>`,
   );
   let k = 0;
   for (const [g, pts] of groups) {
