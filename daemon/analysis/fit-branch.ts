@@ -28,7 +28,7 @@ import { fitJoint, jointY, type JointData, type JointResult } from './joint-fit.
 import { fitLine, type LineFit } from './line-fit.js';
 import { fmt, type Extraction, type FitPoints, type Mechanism, type ParameterValue, type ResolvedInputs } from './mechanism.js';
 import { evalNumber, type compileCustom } from './mechanisms/custom.js';
-import { REASONS, sortedOrder, type Branch, type SweepClasses, type SweepData } from './sweep-points.js';
+import { EXCLUDED, REASONS, sortedOrder, type Branch, type SweepClasses, type SweepData } from './sweep-points.js';
 import { MIN_WINDOW_POINTS, searchWindow, testRun, type Admissible, type WindowTest } from './window.js';
 import { WindowMoments } from './window-moments.js';
 import { selectInPlace } from './select.js';
@@ -107,12 +107,15 @@ function mapPoints(
   let order: Int32Array;
   if (branch) order = branch.index;
   else {
-    const idx: number[] = [];
-    for (let k = 0; k < data.x.length; k++) {
-      const e = classes.excluded[k];
-      if (e === undefined || (e === REASONS.zeroBias && mech.bias !== 'magnitude')) idx.push(k);
+    const ex = classes.excluded;
+    const zeroToo = mech.bias !== 'magnitude';
+    const idx = new Int32Array(ex.length);
+    let m = 0;
+    for (let k = 0; k < ex.length; k++) {
+      const e = ex[k];
+      if (e === EXCLUDED.none || (e === EXCLUDED.zeroBias && zeroToo)) idx[m++] = k;
     }
-    order = Int32Array.from(idx);
+    order = idx.subarray(0, m);
   }
   const n = order.length;
   const signed = new Float64Array(n);

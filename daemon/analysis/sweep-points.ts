@@ -26,6 +26,11 @@ export const REASONS = {
   outsideWindow: 'outside the fit window',
 } as const;
 
+/** Codes of the sweep-wide exclusions in SweepClasses.excluded. */
+export const EXCLUDED = { none: 0, notFinite: 1, breakdown: 2, compliance: 3, zeroBias: 4 } as const;
+/** The reason counted for each code of EXCLUDED. */
+export const EXCLUSION_REASONS: readonly string[] = ['', REASONS.notFinite, REASONS.breakdown, REASONS.compliance, REASONS.zeroBias];
+
 export interface SweepData {
   readonly x: ArrayLike<number>;
   readonly y: ArrayLike<number>;
@@ -49,8 +54,8 @@ export interface SweepClasses {
   readonly noise: NoiseModel;
   /** Notes on the floor estimate or detected compliance, for the report. */
   readonly notes: string[];
-  /** Per reading: 0 usable, else an exclusion reason that holds for every mechanism. */
-  readonly excluded: (string | undefined)[];
+  /** Per reading: 0 (EXCLUDED.none) usable, else the code of an exclusion that holds for every mechanism (its text: EXCLUSION_REASONS[code]). */
+  readonly excluded: Uint8Array;
   readonly reasons: Record<string, number>;
   readonly positive: Branch;
   readonly negative: Branch;
@@ -94,6 +99,7 @@ export function sortedOrder(keys: ArrayLike<number>, idx: Int32Array): Int32Arra
     k = j + 1;
     if (k < n) starts.push(k);
   }
+  if (starts.length === 1) return a;
   let runs = starts.concat([n]);
   let b = new Int32Array(n);
   while (runs.length > 2) {
@@ -122,38 +128,43 @@ export function sortedOrder(keys: ArrayLike<number>, idx: Int32Array): Int32Arra
 export function classifySweep(data: SweepData, options: ClassifyOptions = {}): SweepClasses {
   const n = data.x.length;
   if (data.y.length !== n) throw new AnalysisError('BAD_INPUT', `x and y columns differ in length (${n}, ${data.y.length})`);
+  const x = data.x;
+  const y = data.y;
   const vfb = options.flatBand ?? 0;
   const limit = options.complianceLimit;
-  const excluded: (string | undefined)[] = new Array(n);
-  const reasons: Record<string, number> = {};
-  const count = (r: string) => (reasons[r] = (reasons[r] ?? 0) + 1);
+  const flagged = data.compliance;
+  const broken = data.breakdown;
+  const excluded = new Uint8Array(n);
+  const absBias = new Float64Array(n);
   let maxBias = 0;
   for (let k = 0; k < n; k++) {
-    const b = Math.abs(data.x[k] - vfb);
-    if (Number.isFinite(b) && b > maxBias) maxBias = b;
+    const b = Math.abs(x[k] - vfb);
+    absBias[k] = b;
+    if (b > maxBias && Number.isFinite(b)) maxBias = b;
   }
   const zeroTol = 1e-4 * maxBias;
+  const complianceAt = limit === undefined ? Infinity : 0.99 * limit;
   const notes: string[] = [];
+  // Exclusions that hold for every mechanism, and branch membership by the sign of the bias: the
+  // positive branch fills `members` from the front, the negative one from the back.
+  const members = new Int32Array(n);
+  let np = 0;
+  let nn = 0;
   for (let k = 0; k < n; k++) {
-    const v = data.x[k];
-    const i = data.y[k];
-    if (!Number.isFinite(v) || !Number.isFinite(i)) excluded[k] = REASONS.notFinite;
-    else if (data.breakdown?.[k]) excluded[k] = REASONS.breakdown;
-    else if (data.compliance?.[k] || (limit !== undefined && Math.abs(i) >= 0.99 * limit)) excluded[k] = REASONS.compliance;
-    else if (Math.abs(v - vfb) <= zeroTol) excluded[k] = REASONS.zeroBias;
+    const v = x[k];
+    const i = y[k];
+    let code: number = EXCLUDED.none;
+    if (!Number.isFinite(v) || !Number.isFinite(i)) code = EXCLUDED.notFinite;
+    else if (broken?.[k]) code = EXCLUDED.breakdown;
+    else if (flagged?.[k] || Math.abs(i) >= complianceAt) code = EXCLUDED.compliance;
+    else if (absBias[k] <= zeroTol) code = EXCLUDED.zeroBias;
+    if (code !== EXCLUDED.none) excluded[k] = code;
+    else if (v - vfb > 0) members[np++] = k;
+    else members[n - 1 - nn++] = k;
   }
-  // Branch membership by the sign of the bias.
-  const pos: number[] = [];
-  const neg: number[] = [];
-  for (let k = 0; k < n; k++) {
-    if (excluded[k] !== undefined) continue;
-    if (data.x[k] - vfb > 0) pos.push(k);
-    else neg.push(k);
-  }
-  const absBias = new Float64Array(n);
-  for (let k = 0; k < n; k++) absBias[k] = Math.abs(data.x[k] - vfb);
-  const posIdx = sortedOrder(absBias, Int32Array.from(pos));
-  const negIdx = sortedOrder(absBias, Int32Array.from(neg));
+  const negMembers = members.subarray(n - nn).reverse();
+  const posIdx = sortedOrder(absBias, members.subarray(0, np));
+  const negIdx = sortedOrder(absBias, negMembers);
   // Compliance that no flag or limit told us about: a current pinned at its largest value over the
   // highest biases of a branch (an SMU at its limit reads the limit while the bias it is asked for rises).
   for (const [idx, name] of [
@@ -163,23 +174,34 @@ export function classifySweep(data: SweepData, options: ClassifyOptions = {}): S
     if (options.detectCompliance === false) break;
     const pinned = detectPinned(data, idx, absBias);
     if (pinned.length) {
-      for (const k of pinned) excluded[k] = REASONS.compliance;
-      const level = Math.abs(data.y[pinned[0]]);
+      for (const k of pinned) excluded[k] = EXCLUDED.compliance;
+      const level = Math.abs(y[pinned[0]]);
       notes.push(
         `${pinned.length} reading${pinned.length > 1 ? 's' : ''} at the top of the ${name} branch ${pinned.length > 1 ? 'are' : 'is'} pinned at ${level.toPrecision(4)} A (the branch's largest current, held while the bias rises or read as a round value): taken as compliance (no compliance column or --compliance given)`,
       );
     }
   }
-  for (let k = 0; k < n; k++) if (excluded[k] !== undefined) count(excluded[k] as string);
-  // Noise floor from the null readings: zero bias, and each branch from zero bias up to its last
-  // reading against the bias (while at least a fifth of the readings so far are against it).
+  // Counted by reason, the reasons in the order they first occur in the sweep. Noise floor from the
+  // null readings: zero bias, and each branch from zero bias up to its last reading against the
+  // bias (while at least a fifth of the readings so far are against it).
+  const counts = new Int32Array(EXCLUSION_REASONS.length);
+  const firstAt = new Int32Array(EXCLUSION_REASONS.length).fill(-1);
   const zero: number[] = [];
   const low: number[] = [];
   let signal = 0;
   for (let k = 0; k < n; k++) {
-    if (excluded[k] === REASONS.zeroBias) zero.push(data.y[k]);
-    else if (excluded[k] === undefined) signal = Math.max(signal, Math.abs(data.y[k]));
+    const code = excluded[k];
+    if (code === EXCLUDED.none) {
+      const a = Math.abs(y[k]);
+      if (a > signal) signal = a;
+      continue;
+    }
+    if (counts[code]++ === 0) firstAt[code] = k;
+    if (code === EXCLUDED.zeroBias) zero.push(y[k]);
   }
+  const reasons: Record<string, number> = {};
+  const codes = [...counts.keys()].filter((c) => counts[c] > 0).sort((a, b) => firstAt[a] - firstAt[b]);
+  for (const c of codes) reasons[EXCLUSION_REASONS[c]] = counts[c];
   for (const [idx, sign] of [
     [posIdx, 1],
     [negIdx, -1],
@@ -190,16 +212,16 @@ export function classifySweep(data: SweepData, options: ClassifyOptions = {}): S
     const all: number[] = [];
     for (let j = 0; j < idx.length; j++) {
       const k = idx[j];
-      if (excluded[k] !== undefined) continue;
+      if (excluded[k] !== EXCLUDED.none) continue;
       seen++;
-      if (data.y[k] * sign < 0) {
+      if (y[k] * sign < 0) {
         against++;
-        all.push(data.y[k]);
+        all.push(y[k]);
         if (against >= 0.1 * seen) last = j;
       }
     }
     const before = low.length;
-    for (let j = 0; j <= last; j++) if (excluded[idx[j]] === undefined) low.push(data.y[idx[j]]);
+    for (let j = 0; j <= last; j++) if (excluded[idx[j]] === EXCLUDED.none) low.push(y[idx[j]]);
     // Too few in the run from zero bias: the readings against the bias alone.
     if (low.length - before < 3 && all.length >= 3) {
       // No spread into splice: a long noisy floor holds more readings than a call has arguments.
@@ -215,23 +237,25 @@ export function classifySweep(data: SweepData, options: ClassifyOptions = {}): S
     const r: number[] = [];
     const lowest: number[] = [];
     for (const idx of [posIdx, negIdx]) {
-      // The low plateau: the first readings of the branch whose |I| stays within 30× the smallest.
-      const all = Array.from(idx).filter((k) => excluded[k] === undefined);
+      // The low plateau: the first readings of the branch whose |I| stays within 30× the smallest
+      // of its first eight usable readings.
+      const first: number[] = [];
+      for (let j = 0; j < idx.length && first.length < 8; j++) if (excluded[idx[j]] === EXCLUDED.none) first.push(idx[j]);
       let min = Infinity;
-      for (const k of all.slice(0, 8)) min = Math.min(min, Math.abs(data.y[k]) || Infinity);
+      for (const k of first) min = Math.min(min, Math.abs(y[k]) || Infinity);
       const ks: number[] = [];
-      for (const k of all) {
-        if (ks.length >= 8 || !(Math.abs(data.y[k]) <= 30 * min)) break;
+      for (const k of first) {
+        if (!(Math.abs(y[k]) <= 30 * min)) break;
         ks.push(k);
       }
       lowest.push(...ks);
       for (let j = 1; j + 1 < ks.length; j++) {
         const [a, b, c] = [ks[j - 1], ks[j], ks[j + 1]];
-        const span = data.x[c] - data.x[a];
+        const span = x[c] - x[a];
         if (!(span !== 0)) continue;
-        const f = (data.x[b] - data.x[a]) / span;
-        const interp = data.y[a] + f * (data.y[c] - data.y[a]);
-        r.push((data.y[b] - interp) / Math.sqrt(1 + f * f + (1 - f) * (1 - f)));
+        const f = (x[b] - x[a]) / span;
+        const interp = y[a] + f * (y[c] - y[a]);
+        r.push((y[b] - interp) / Math.sqrt(1 + f * f + (1 - f) * (1 - f)));
       }
     }
     if (r.length >= 3) {
@@ -239,7 +263,7 @@ export function classifySweep(data: SweepData, options: ClassifyOptions = {}): S
       const sigma = Math.sqrt(med / 0.454936423119572);
       // A scatter of a few percent of the currents themselves is their relative noise, not a floor;
       // residuals all of one sign are the bend of a smooth curve, not noise.
-      const cur = lowest.map((k) => Math.abs(data.y[k])).sort((a, b) => a - b);
+      const cur = lowest.map((k) => Math.abs(y[k])).sort((a, b) => a - b);
       let plus = 0;
       for (const e of r) if (e > 0) plus++;
       const mixed = Math.min(plus, r.length - plus) >= 0.25 * r.length;
@@ -268,18 +292,19 @@ export function classifySweep(data: SweepData, options: ClassifyOptions = {}): S
   const branch = (sign: 1 | -1, idx: Int32Array): Branch => {
     let signal = 0;
     let maxCurrent = 0;
-    for (const k of idx) {
-      if (excluded[k] !== undefined) continue;
-      const s = data.y[k] * sign;
+    // Kept in place: idx is this function's own array.
+    let m = 0;
+    for (let j = 0; j < idx.length; j++) {
+      const k = idx[j];
+      if (excluded[k] !== EXCLUDED.none) continue;
+      idx[m++] = k;
+      const s = y[k] * sign;
       if (s > level && s > 0) {
         signal++;
         if (s > maxCurrent) maxCurrent = s;
       }
     }
-    let m = 0;
-    const kept = new Int32Array(idx.length);
-    for (let j = 0; j < idx.length; j++) if (excluded[idx[j]] === undefined) kept[m++] = idx[j];
-    return { sign, index: kept.slice(0, m), signal, maxCurrent };
+    return { sign, index: idx.slice(0, m), signal, maxCurrent };
   };
   return { noise, notes, excluded, reasons, positive: branch(1, posIdx), negative: branch(-1, negIdx), zeroTol };
 }

@@ -2,14 +2,14 @@
  * Command-line options shared by the analysis commands (fit, rank, later refit): physical inputs
  * with units, window, accuracy model, compliance limit, and the CSV columns to read.
  */
-import { readFileSync } from 'node:fs';
 import { createRequire } from 'node:module';
 import type { Command } from 'commander';
 import type { AccuracySpec } from '../analysis/accuracy.js';
 import type { IVData, WindowRequest } from '../analysis/analyze.js';
 import type { Inputs } from '../analysis/mechanism.js';
 import { columnIdentifiers, setExpressionEngine } from '../analysis/mechanisms/custom.js';
-import { columnIndex, CsvError, parseCsvTable, requireNumeric, type CsvTable } from '../../protocols/csv-table.js';
+import { readCsvTable } from '../../protocols/csv-file.js';
+import { columnIndex, CsvError, requireNumeric, type CsvTable } from '../../protocols/csv-table.js';
 import { parseQuantity, QuantityError } from '../quantity.js';
 import { UsageError } from './usage.js';
 
@@ -112,13 +112,8 @@ export function readCompliance(o: AnalysisOptions): number | undefined {
  * are to be pooled (--all-sweeps): pooling is never silent. `notes` says what was chosen.
  */
 export function loadData(file: string, o: AnalysisOptions): { table: CsvTable; data: IVData; notes: string[] } {
-  let text: string;
-  try {
-    text = readFileSync(file, 'utf8');
-  } catch (e) {
-    throw new CsvError(file, undefined, undefined, `cannot read the file (${(e as NodeJS.ErrnoException).code ?? (e as Error).message})`);
-  }
-  const table = parseCsvTable(text, file);
+  // Read as bytes: numbers are scanned in place, no string of the whole file is made.
+  const table = readCsvTable(file);
   // Without --x/--y: a column named as a bias (voltage_V, voltage, bias, V) and one named as a
   // current (current_A, current, I), as our export and most instrument files name them; else the
   // first two columns.
