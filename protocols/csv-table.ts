@@ -107,9 +107,25 @@ export function parseCsvTable(input: string | Uint8Array, file: string, minColum
     if (NUMBER.test(h)) throw new CsvError(file, headerAt, h, 'the first row looks like data; a header row with column names is required');
   });
 
-  // Room for every remaining line (grown if the estimate falls short, trimmed at the end).
-  let capacity = Math.max(16, Math.ceil((size - pos) / 8));
+  // Room for every remaining line, from the shortest mean line length of three samples (the start,
+  // the middle and near the end), with a margin; grown by half should that fall short. At the end
+  // the columns are views of these arrays when they are mostly filled.
+  let perLine = Infinity;
+  for (const at of [pos, pos + ((size - pos) >> 1), pos + Math.floor(0.9 * (size - pos))]) {
+    let from = at;
+    if (from > pos) from = lineEnd(bytes, from) + 1;
+    let to = from;
+    let sampled = 0;
+    while (sampled < 64 && to < size) {
+      to = lineEnd(bytes, to) + 1;
+      sampled++;
+    }
+    if (sampled > 0) perLine = Math.min(perLine, (Math.min(to, size) - from) / sampled);
+  }
+  // A data line holds at least a digit per field, the delimiters and the line break.
   const width = headers.length;
+  const most = Math.ceil((size - pos) / (2 * width)) + 16;
+  let capacity = Math.min(most, Math.max(16, Math.ceil((1.15 * (size - pos)) / (Number.isFinite(perLine) ? perLine : 8)) + 64));
   let cols = headers.map(() => new Float64Array(capacity));
   let lines = new Int32Array(capacity);
   const firstText: CsvTable['firstText'] = headers.map(() => undefined);

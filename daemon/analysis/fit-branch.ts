@@ -118,9 +118,6 @@ function mapPoints(
     order = idx.subarray(0, m);
   }
   const n = order.length;
-  const signed = new Float64Array(n);
-  for (let j = 0; j < n; j++) signed[j] = data.y[order[j]] * (branch?.sign ?? 1) * (mech.bias === 'raw' ? Math.sign(data.y[order[j]]) || 1 : 1);
-  const smooth = runningMedian(signed);
   const x = new Float64Array(n);
   const y = new Float64Array(n);
   const v = new Float64Array(n);
@@ -128,6 +125,16 @@ function mapPoints(
   const cur = new Float64Array(n);
   const t = new Float64Array(n);
   const ref = new Float64Array(n);
+  // The signed currents and their running median live in `ref` and `t` until the loop below
+  // overwrites them: it writes position m ≤ j after reading position j, and reads only ahead.
+  const signed = ref;
+  const rawSign = mech.bias === 'raw';
+  const bs = branch?.sign ?? 1;
+  for (let j = 0; j < n; j++) {
+    const i = data.y[order[j]];
+    signed[j] = i * bs * (rawSign ? Math.sign(i) || 1 : 1);
+  }
+  const smooth = runningMedian(signed, t);
   let m = 0;
   const sign = branch?.sign ?? 1;
   const cols = request.columns ?? {};
@@ -135,6 +142,7 @@ function mapPoints(
     const k = order[j];
     const rawX = data.x[k];
     const rawY = data.y[k];
+    const sm = smooth[j];
     let xx: number;
     let yy: number;
     let bias = rawX;
@@ -159,7 +167,7 @@ function mapPoints(
       if (mech.bias === 'magnitude') {
         bias = (rawX - inputs.flatBand) * sign;
         j0 = rawY * sign;
-        if (log && (smooth[j] <= level || Math.abs(rawY) <= 0.5 * level)) {
+        if (log && (sm <= level || Math.abs(rawY) <= 0.5 * level)) {
           count(REASONS.floor);
           continue;
         }
@@ -172,7 +180,7 @@ function mapPoints(
           count(REASONS.nonPositiveTemperature);
           continue;
         }
-      } else if (log && mech.current && (Math.abs(smooth[j]) <= level || Math.abs(rawY) <= 0.5 * level)) {
+      } else if (log && mech.current && (Math.abs(sm) <= level || Math.abs(rawY) <= 0.5 * level)) {
         count(REASONS.floor);
         continue;
       }
@@ -201,7 +209,7 @@ function mapPoints(
     raw[m] = rawX;
     cur[m] = rawY;
     t[m] = tt;
-    ref[m] = Math.max(Math.abs(smooth[j]), Math.abs(rawY) * 0.5, Number.MIN_VALUE);
+    ref[m] = Math.max(Math.abs(sm), Math.abs(rawY) * 0.5, Number.MIN_VALUE);
     m++;
   }
   const cut = (a: Float64Array) => a.subarray(0, m);
@@ -209,10 +217,14 @@ function mapPoints(
   // Sort by x ascending (a branch in |bias| order is monotone in x: reversed when x falls with bias).
   const xRisesWithBias = m < 2 || p.x[m - 1] >= p.x[0];
   let descending = true;
-  for (let k = 1; k < m && descending; k++) if (p.x[k] > p.x[k - 1]) descending = false;
+  let ascending = true;
+  for (let k = 1; k < m && (descending || ascending); k++) {
+    if (p.x[k] > p.x[k - 1]) descending = false;
+    else if (p.x[k] < p.x[k - 1]) ascending = false;
+  }
   if (descending && m > 1) {
     for (const a of [p.x, p.y, p.v, p.raw, p.current, p.t, p.ref]) a.reverse();
-  } else {
+  } else if (!ascending) {
     const ident = new Int32Array(m);
     for (let k = 0; k < m; k++) ident[k] = k;
     const ord = sortedOrder(p.x, ident);
@@ -460,7 +472,10 @@ function jointLine(j: JointResult, absolute: boolean, p: Points, s: number, e: n
 }
 
 function jointData(p: Points, diode: boolean): JointData {
-  return { x: p.x, y: p.y, w: p.w, v: p.v, t: p.t, current: p.current.map(Math.abs), diode };
+  const c = p.current;
+  const current = new Float64Array(c.length);
+  for (let k = 0; k < c.length; k++) current[k] = Math.abs(c[k]);
+  return { x: p.x, y: p.y, w: p.w, v: p.v, t: p.t, current, diode };
 }
 
 /** Starting leakage from the low-bias points' excess over the line, and series resistance from the top. */
@@ -504,10 +519,11 @@ interface Candidate {
 /** Model values of y for every point, from a plain line or a joint fit. */
 function modelValues(p: Points, c: { a: number; b: number; joint?: JointResult }, diode: boolean): Float64Array {
   const out = new Float64Array(p.x.length);
-  const d = jointData(p, diode);
-  for (let k = 0; k < p.x.length; k++) {
-    out[k] = c.joint ? jointY(d, k, c.joint.a, c.joint.b, c.joint.g, c.joint.rs) : c.a + c.b * p.x[k];
-  }
+  const j = c.joint;
+  if (j) {
+    const d = jointData(p, diode);
+    for (let k = 0; k < p.x.length; k++) out[k] = jointY(d, k, j.a, j.b, j.g, j.rs);
+  } else for (let k = 0; k < p.x.length; k++) out[k] = c.a + c.b * p.x[k];
   return out;
 }
 

@@ -177,11 +177,10 @@ export function noiseFromAccuracy(spec: AccuracySpec, estimatedFloor: number | u
  * 5-point running median of currents along the bias order. Whether a reading stands above the floor,
  * and how much it weighs, are judged on it rather than on the reading itself, so that a reading's own
  * noise does not decide whether it enters or how much it counts (which would bias what is kept).
+ * `out` (of the same length, not `values` itself) receives the result when given.
  */
-export function runningMedian(values: ArrayLike<number>): Float64Array {
+export function runningMedian(values: ArrayLike<number>, out = new Float64Array(values.length)): Float64Array {
   const n = values.length;
-  const out = new Float64Array(n);
-  const buf = [0, 0, 0, 0, 0];
   for (let j = 0; j < n; j++) {
     if (j < 2 || j > n - 3) {
       // At the ends the window would hold the neighbours on one side only: on a rising curve that
@@ -189,20 +188,55 @@ export function runningMedian(values: ArrayLike<number>): Float64Array {
       out[j] = values[j];
       continue;
     }
-    const a = j - 2;
-    const b = j + 2;
-    const m = b - a + 1;
-    // Insertion sort of at most five values.
-    for (let q = 0; q < m; q++) {
-      const x = values[a + q];
-      let r = q - 1;
-      while (r >= 0 && buf[r] > x) {
-        buf[r + 1] = buf[r];
-        r--;
-      }
-      buf[r + 1] = x;
-    }
-    out[j] = m % 2 ? buf[m >> 1] : 0.5 * (buf[(m >> 1) - 1] + buf[m >> 1]);
+    const a = values[j - 2];
+    const b = values[j - 1];
+    const c = values[j];
+    const d = values[j + 1];
+    const e = values[j + 2];
+    const m = median5(a, b, c, d, e);
+    const sum = a + b + c + d + e;
+    // A NaN among them, or a zero that may be +0 or −0: the sort decides what stands in the middle.
+    out[j] = m !== 0 && sum === sum ? m : sortedMiddle(values, j - 2);
   }
   return out;
+}
+
+/**
+ * The middle of five values (no NaN) by at most six comparisons: with the pairs ordered, p ≤ q and
+ * r ≤ s, the smaller of p and r lies below three others and cannot be the median, which is then
+ * the second smallest of the four values left.
+ */
+function median5(a: number, b: number, c: number, d: number, e: number): number {
+  let p = a < b ? a : b;
+  let q = a < b ? b : a;
+  let r = c < d ? c : d;
+  let s = c < d ? d : c;
+  if (r < p) {
+    const t = p;
+    const u = q;
+    p = r;
+    q = s;
+    r = t;
+    s = u;
+  }
+  // Drop p; the second smallest of q, e and the ordered pair r ≤ s.
+  const lo = e < q ? e : q;
+  const hi = e < q ? q : e;
+  if (lo < r) return hi < r ? hi : r;
+  return lo < s ? lo : s;
+}
+
+/** The middle of values[a…a+4] as the stable insertion sort orders them. */
+function sortedMiddle(values: ArrayLike<number>, a: number): number {
+  const buf = [0, 0, 0, 0, 0];
+  for (let q = 0; q < 5; q++) {
+    const x = values[a + q];
+    let r = q - 1;
+    while (r >= 0 && buf[r] > x) {
+      buf[r + 1] = buf[r];
+      r--;
+    }
+    buf[r + 1] = x;
+  }
+  return buf[2];
 }

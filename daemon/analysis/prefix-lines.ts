@@ -17,12 +17,11 @@ export interface RunFit {
 }
 
 export class PrefixLines {
-  private readonly s1: Float64Array;
-  private readonly sx: Float64Array;
-  private readonly sy: Float64Array;
-  private readonly sxx: Float64Array;
-  private readonly sxy: Float64Array;
-  private readonly syy: Float64Array;
+  /**
+   * Prefix sums of u, v, u², uv and v² of the scaled data, interleaved: the sums over the first i
+   * points start at 5i. (The count of a run is end − start + 1 itself.)
+   */
+  private readonly s: Float64Array;
   private readonly cx: number;
   private readonly cy: number;
   private readonly kx: number;
@@ -46,55 +45,65 @@ export class PrefixLines {
       if (y[i] < minY) minY = y[i];
       if (y[i] > maxY) maxY = y[i];
     }
-    this.cx = n ? mx / n : 0;
-    this.cy = n ? my / n : 0;
-    this.kx = maxX > minX ? (maxX - minX) / 2 : 1;
-    this.ky = maxY > minY ? (maxY - minY) / 2 : 1;
-    const mk = () => new Float64Array(n + 1);
-    this.s1 = mk();
-    this.sx = mk();
-    this.sy = mk();
-    this.sxx = mk();
-    this.sxy = mk();
-    this.syy = mk();
-    for (let i = 0; i < n; i++) {
-      const u = (x[i] - this.cx) / this.kx;
-      const v = (y[i] - this.cy) / this.ky;
-      this.s1[i + 1] = this.s1[i] + 1;
-      this.sx[i + 1] = this.sx[i] + u;
-      this.sy[i + 1] = this.sy[i] + v;
-      this.sxx[i + 1] = this.sxx[i] + u * u;
-      this.sxy[i + 1] = this.sxy[i] + u * v;
-      this.syy[i + 1] = this.syy[i] + v * v;
+    const cx = n ? mx / n : 0;
+    const cy = n ? my / n : 0;
+    const kx = maxX > minX ? (maxX - minX) / 2 : 1;
+    const ky = maxY > minY ? (maxY - minY) / 2 : 1;
+    this.cx = cx;
+    this.cy = cy;
+    this.kx = kx;
+    this.ky = ky;
+    const s = new Float64Array(5 * (n + 1));
+    this.s = s;
+    let su = 0;
+    let sv = 0;
+    let suu = 0;
+    let suv = 0;
+    let svv = 0;
+    for (let i = 0, o = 5; i < n; i++, o += 5) {
+      const u = (x[i] - cx) / kx;
+      const v = (y[i] - cy) / ky;
+      su += u;
+      sv += v;
+      suu += u * u;
+      suv += u * v;
+      svv += v * v;
+      s[o] = su;
+      s[o + 1] = sv;
+      s[o + 2] = suu;
+      s[o + 3] = suv;
+      s[o + 4] = svv;
     }
   }
 
   /** Residual sum of squares of the fit of points start..end inclusive, without allocating. */
   sse(start: number, end: number): number {
-    const a = start;
-    const b = end + 1;
-    const n = b - a;
-    const su = this.sx[b] - this.sx[a];
-    const sv = this.sy[b] - this.sy[a];
-    const cuu = Math.max(0, this.sxx[b] - this.sxx[a] - (su * su) / n);
-    const cuv = this.sxy[b] - this.sxy[a] - (su * sv) / n;
-    const cvv = Math.max(0, this.syy[b] - this.syy[a] - (sv * sv) / n);
+    const s = this.s;
+    const a = 5 * start;
+    const b = 5 * (end + 1);
+    const n = end + 1 - start;
+    const su = s[b] - s[a];
+    const sv = s[b + 1] - s[a + 1];
+    const cuu = Math.max(0, s[b + 2] - s[a + 2] - (su * su) / n);
+    const cuv = s[b + 3] - s[a + 3] - (su * sv) / n;
+    const cvv = Math.max(0, s[b + 4] - s[a + 4] - (sv * sv) / n);
     const sseUV = cuu > 0 ? Math.max(0, cvv - (cuv * cuv) / cuu) : cvv;
     return sseUV * this.ky * this.ky;
   }
 
   /** Fit of points start..end inclusive (end − start ≥ 1). */
   fit(start: number, end: number): RunFit {
-    const a = start;
-    const b = end + 1;
-    const n = this.s1[b] - this.s1[a];
-    const su = this.sx[b] - this.sx[a];
-    const sv = this.sy[b] - this.sy[a];
+    const s = this.s;
+    const a = 5 * start;
+    const b = 5 * (end + 1);
+    const n = end + 1 - start;
+    const su = s[b] - s[a];
+    const sv = s[b + 1] - s[a + 1];
     const mu = su / n;
     const mv = sv / n;
-    const cuu = Math.max(0, this.sxx[b] - this.sxx[a] - su * mu);
-    const cuv = this.sxy[b] - this.sxy[a] - su * mv;
-    const cvv = Math.max(0, this.syy[b] - this.syy[a] - sv * mv);
+    const cuu = Math.max(0, s[b + 2] - s[a + 2] - su * mu);
+    const cuv = s[b + 3] - s[a + 3] - su * mv;
+    const cvv = Math.max(0, s[b + 4] - s[a + 4] - sv * mv);
     const slopeUV = cuu > 0 ? cuv / cuu : 0;
     const sseUV = Math.max(0, cvv - slopeUV * cuv);
     const slope = (slopeUV * this.ky) / this.kx;
