@@ -196,7 +196,7 @@ export function runningMedian(values: ArrayLike<number>, out = new Float64Array(
     const m = median5(a, b, c, d, e);
     const sum = a + b + c + d + e;
     // A NaN among them, or a zero that may be +0 or −0: the sort decides what stands in the middle.
-    out[j] = m !== 0 && sum === sum ? m : sortedMiddle(values, j - 2);
+    out[j] = m !== 0 && !Number.isNaN(sum) ? m : sortedMiddle(values, j - 2);
   }
   return out;
 }
@@ -207,10 +207,10 @@ export function runningMedian(values: ArrayLike<number>, out = new Float64Array(
  * the second smallest of the four values left.
  */
 function median5(a: number, b: number, c: number, d: number, e: number): number {
-  let p = a < b ? a : b;
-  let q = a < b ? b : a;
-  let r = c < d ? c : d;
-  let s = c < d ? d : c;
+  let p = Math.min(a, b);
+  let q = Math.max(a, b);
+  let r = Math.min(c, d);
+  let s = Math.max(c, d);
   if (r < p) {
     const t = p;
     const u = q;
@@ -220,10 +220,9 @@ function median5(a: number, b: number, c: number, d: number, e: number): number 
     s = u;
   }
   // Drop p; the second smallest of q, e and the ordered pair r ≤ s.
-  const lo = e < q ? e : q;
-  const hi = e < q ? q : e;
-  if (lo < r) return hi < r ? hi : r;
-  return lo < s ? lo : s;
+  const lo = Math.min(e, q);
+  const hi = Math.max(e, q);
+  return lo < r ? Math.min(hi, r) : Math.min(lo, s);
 }
 
 /** The middle of values[a…a+4] as the stable insertion sort orders them. */
