@@ -102,37 +102,43 @@ export function scanDecimal(bytes: Uint8Array, start: number, limit: number, at:
     c = ++i < limit ? bytes[i] : -1;
   }
   // Significant digits: the first 15 in `head`, up to 4 more in `tail` (`tailDigits` of them).
+  // Leading zeros are digits but not significant; after the first other digit every one is.
   let head = 0;
   let tail = 0;
   let tailDigits = 0;
   let significant = 0;
   let digits = 0;
   let exponent = 0;
+  while (c === ZERO) {
+    digits++;
+    c = ++i < limit ? bytes[i] : -1;
+  }
   while (c >= ZERO && c <= NINE) {
-    const d = c - ZERO;
-    if (significant > 0 || d !== 0) {
-      if (significant < 15) head = head * 10 + d;
-      else if (significant < 19) {
-        tail = tail * 10 + d;
-        tailDigits++;
-      }
-      significant++;
+    if (significant < 15) head = head * 10 + (c - ZERO);
+    else if (significant < 19) {
+      tail = tail * 10 + (c - ZERO);
+      tailDigits++;
     }
+    significant++;
     digits++;
     c = ++i < limit ? bytes[i] : -1;
   }
   if (c === DOT) {
     c = ++i < limit ? bytes[i] : -1;
-    while (c >= ZERO && c <= NINE) {
-      const d = c - ZERO;
-      if (significant > 0 || d !== 0) {
-        if (significant < 15) head = head * 10 + d;
-        else if (significant < 19) {
-          tail = tail * 10 + d;
-          tailDigits++;
-        }
-        significant++;
+    if (significant === 0) {
+      while (c === ZERO) {
+        exponent--;
+        digits++;
+        c = ++i < limit ? bytes[i] : -1;
       }
+    }
+    while (c >= ZERO && c <= NINE) {
+      if (significant < 15) head = head * 10 + (c - ZERO);
+      else if (significant < 19) {
+        tail = tail * 10 + (c - ZERO);
+        tailDigits++;
+      }
+      significant++;
       exponent--;
       digits++;
       c = ++i < limit ? bytes[i] : -1;

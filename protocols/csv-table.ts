@@ -132,23 +132,6 @@ export function parseCsvTable(input: string | Uint8Array, file: string, minColum
   const sep = delimiter.charCodeAt(0);
   const at: ScanCursor = { end: 0 };
   let rows = 0;
-  const textLine = (start: number, end: number) => {
-    const line = decodeLine(bytes, start, end);
-    const t = line.trim();
-    if (t === '' || t.startsWith('#')) return;
-    const fields = splitFields(line, delimiter);
-    if (fields.length !== width) {
-      throw new CsvError(file, lineNo, undefined, `expected ${width} fields (${headers.join(', ')}), found ${fields.length}`);
-    }
-    for (let k = 0; k < width; k++) {
-      const v = parseNumberField(fields[k]);
-      if (Number.isNaN(v) && firstText[k] === undefined) firstText[k] = { line: lineNo, text: fields[k].trim() };
-      cols[k][rows] = v;
-    }
-    lines[rows++] = lineNo;
-  };
-  /** A blank byte inside a line (the delimiter is a field boundary even when it is a tab). */
-  const blank = (c: number) => c !== sep && isAsciiBlank(c) && c !== NEWLINE;
 
   while (pos < size) {
     lineNo++;
@@ -172,10 +155,11 @@ export function parseCsvTable(input: string | Uint8Array, file: string, minColum
     let slow = bytes[j] >= 128;
     while (!slow) {
       const fieldStart = i;
-      while (i < size && blank(bytes[i])) i++;
+      // Blanks inside a line (the delimiter is a field boundary even when it is a tab).
+      while (i < size && isFieldBlank(bytes[i], sep)) i++;
       let v = scanDecimal(bytes, i, size, at);
       i = at.end;
-      while (i < size && blank(bytes[i])) i++;
+      while (i < size && isFieldBlank(bytes[i], sep)) i++;
       let c = i < size ? bytes[i] : NEWLINE;
       if (c !== sep && c !== NEWLINE) v = Number.NaN;
       if (Number.isNaN(v)) {
@@ -194,7 +178,7 @@ export function parseCsvTable(input: string | Uint8Array, file: string, minColum
     }
     if (slow) {
       const end = lineEnd(bytes, i);
-      textLine(start, end);
+      if (textRow(bytes, start, end, delimiter, headers, file, lineNo, cols, rows, firstText)) lines[rows++] = lineNo;
       pos = end + 1;
       continue;
     }
@@ -206,6 +190,43 @@ export function parseCsvTable(input: string | Uint8Array, file: string, minColum
   // Keep the arrays when they are mostly full; copy when comment lines left much of them empty.
   const trim = <T extends Float64Array | Int32Array>(a: T): T => (rows > capacity / 2 ? a.subarray(0, rows) : a.slice(0, rows)) as T;
   return { file, headers, columns: cols.map(trim), lines: trim(lines), firstText };
+}
+
+/**
+ * A line that needs decoding (a double quote or a non-ASCII byte), split as text into row `row`:
+ * false for a blank or comment line. (Not a closure of the byte loop: its counters stay in registers.)
+ */
+function textRow(
+  bytes: Uint8Array,
+  start: number,
+  end: number,
+  delimiter: string,
+  headers: string[],
+  file: string,
+  lineNo: number,
+  cols: Float64Array[],
+  row: number,
+  firstText: CsvTable['firstText'],
+): boolean {
+  const line = decodeLine(bytes, start, end);
+  const t = line.trim();
+  if (t === '' || t.startsWith('#')) return false;
+  const fields = splitFields(line, delimiter);
+  const width = headers.length;
+  if (fields.length !== width) {
+    throw new CsvError(file, lineNo, undefined, `expected ${width} fields (${headers.join(', ')}), found ${fields.length}`);
+  }
+  for (let k = 0; k < width; k++) {
+    const v = parseNumberField(fields[k]);
+    if (Number.isNaN(v) && firstText[k] === undefined) firstText[k] = { line: lineNo, text: fields[k].trim() };
+    cols[k][row] = v;
+  }
+  return true;
+}
+
+/** A blank byte inside a line: not the delimiter (a tab may be one), not the line break. */
+function isFieldBlank(c: number, sep: number): boolean {
+  return c !== sep && c !== NEWLINE && isAsciiBlank(c);
 }
 
 /** Index of the newline ending the line that starts at `from` (or the end of the bytes). */
