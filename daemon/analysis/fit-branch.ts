@@ -120,8 +120,12 @@ function mapPoints(
   const n = order.length;
   const x = new Float64Array(n);
   const y = new Float64Array(n);
-  const v = new Float64Array(n);
+  const sign = branch?.sign ?? 1;
+  // The bias as the mechanism sees it is the reading's own when no flat-band shift or sign flip
+  // applies: one array then serves for both.
+  const sameBias = !!request.custom || mech.bias !== 'magnitude' || (sign === 1 && inputs.flatBand === 0);
   const raw = new Float64Array(n);
+  const v = sameBias ? raw : new Float64Array(n);
   const cur = new Float64Array(n);
   const t = new Float64Array(n);
   const ref = new Float64Array(n);
@@ -136,7 +140,6 @@ function mapPoints(
   }
   const smooth = runningMedian(signed, t);
   let m = 0;
-  const sign = branch?.sign ?? 1;
   const cols = request.columns ?? {};
   for (let j = 0; j < n; j++) {
     const k = order[j];
@@ -213,7 +216,8 @@ function mapPoints(
     m++;
   }
   const cut = (a: Float64Array) => a.subarray(0, m);
-  let p: Points = { x: cut(x), y: cut(y), w: new Float64Array(m), v: cut(v), raw: cut(raw), current: cut(cur), t: cut(t), ref: cut(ref) };
+  const rawCut = cut(raw);
+  let p: Points = { x: cut(x), y: cut(y), w: new Float64Array(m), v: v === raw ? rawCut : cut(v), raw: rawCut, current: cut(cur), t: cut(t), ref: cut(ref) };
   // Sort by x ascending (a branch in |bias| order is monotone in x: reversed when x falls with bias).
   const xRisesWithBias = m < 2 || p.x[m - 1] >= p.x[0];
   let descending = true;
@@ -223,7 +227,7 @@ function mapPoints(
     else if (p.x[k] < p.x[k - 1]) ascending = false;
   }
   if (descending && m > 1) {
-    for (const a of [p.x, p.y, p.v, p.raw, p.current, p.t, p.ref]) a.reverse();
+    for (const a of new Set([p.x, p.y, p.v, p.raw, p.current, p.t, p.ref])) a.reverse();
   } else if (!ascending) {
     const ident = new Int32Array(m);
     for (let k = 0; k < m; k++) ident[k] = k;
@@ -504,9 +508,9 @@ function startTerms(p: Points, s: number, e: number, a: number, b: number, diode
 
 /** Straightness of the residuals y − model over s..e. */
 function residualTest(p: Points, model: Float64Array, s: number, e: number): WindowTest {
-  const r = new Float64Array(p.x.length);
-  for (let k = s; k <= e; k++) r[k] = p.y[k] - model[k];
-  const m = new WindowMoments(p.x.subarray(s, e + 1), r.subarray(s, e + 1), p.w.subarray(s, e + 1));
+  const r = new Float64Array(e - s + 1);
+  for (let k = s; k <= e; k++) r[k - s] = p.y[k] - model[k];
+  const m = new WindowMoments(p.x.subarray(s, e + 1), r, p.w.subarray(s, e + 1));
   return testRun(m, 0, e - s);
 }
 

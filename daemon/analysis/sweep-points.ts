@@ -78,9 +78,14 @@ export interface ClassifyOptions {
  * the data (a sweep is one run, out-and-back two), so sorted or reversed input costs O(n).
  */
 export function sortedOrder(keys: ArrayLike<number>, idx: Int32Array): Int32Array {
-  const n = idx.length;
-  if (n < 2) return idx;
-  let a = Int32Array.from(idx);
+  return idx.length < 2 ? idx : sortInPlace(keys, Int32Array.from(idx));
+}
+
+/** As sortedOrder, rearranging `a` itself (the result is `a` or a buffer of the same length). */
+function sortInPlace(keys: ArrayLike<number>, input: Int32Array): Int32Array {
+  let a: Int32Array = input;
+  const n = a.length;
+  if (n < 2) return a;
   // Find runs; reverse strictly descending ones.
   const starts: number[] = [0];
   let k = 0;
@@ -101,7 +106,7 @@ export function sortedOrder(keys: ArrayLike<number>, idx: Int32Array): Int32Arra
   }
   if (starts.length === 1) return a;
   let runs = starts.concat([n]);
-  let b = new Int32Array(n);
+  let b: Int32Array = new Int32Array(n);
   while (runs.length > 2) {
     const next: number[] = [0];
     for (let r = 0; r + 1 < runs.length; r += 2) {
@@ -136,35 +141,19 @@ export function classifySweep(data: SweepData, options: ClassifyOptions = {}): S
   const broken = data.breakdown;
   const excluded = new Uint8Array(n);
   const absBias = new Float64Array(n);
-  let maxBias = 0;
-  for (let k = 0; k < n; k++) {
-    const b = Math.abs(x[k] - vfb);
-    absBias[k] = b;
-    if (b > maxBias && Number.isFinite(b)) maxBias = b;
-  }
+  const maxBias = biasMagnitudes(x, vfb, absBias);
   const zeroTol = 1e-4 * maxBias;
   const complianceAt = limit === undefined ? Infinity : 0.99 * limit;
   const notes: string[] = [];
   // Exclusions that hold for every mechanism, and branch membership by the sign of the bias: the
   // positive branch fills `members` from the front, the negative one from the back.
   const members = new Int32Array(n);
-  let np = 0;
-  let nn = 0;
-  for (let k = 0; k < n; k++) {
-    const v = x[k];
-    const i = y[k];
-    let code: number = EXCLUDED.none;
-    if (!Number.isFinite(v) || !Number.isFinite(i)) code = EXCLUDED.notFinite;
-    else if (broken?.[k]) code = EXCLUDED.breakdown;
-    else if (flagged?.[k] || Math.abs(i) >= complianceAt) code = EXCLUDED.compliance;
-    else if (absBias[k] <= zeroTol) code = EXCLUDED.zeroBias;
-    if (code !== EXCLUDED.none) excluded[k] = code;
-    else if (v - vfb > 0) members[np++] = k;
-    else members[n - 1 - nn++] = k;
-  }
+  const split = sortReadings(x, y, vfb, zeroTol, complianceAt, data.compliance, data.breakdown, absBias, excluded, members);
+  const np = split[0];
+  const nn = split[1];
   const negMembers = members.subarray(n - nn).reverse();
-  const posIdx = sortedOrder(absBias, members.subarray(0, np));
-  const negIdx = sortedOrder(absBias, negMembers);
+  const posIdx = sortInPlace(absBias, members.subarray(0, np));
+  const negIdx = sortInPlace(absBias, negMembers);
   // Compliance that no flag or limit told us about: a current pinned at its largest value over the
   // highest biases of a branch (an SMU at its limit reads the limit while the bias it is asked for rises).
   for (const [idx, name] of [
@@ -188,17 +177,7 @@ export function classifySweep(data: SweepData, options: ClassifyOptions = {}): S
   const firstAt = new Int32Array(EXCLUSION_REASONS.length).fill(-1);
   const zero: number[] = [];
   const low: number[] = [];
-  let signal = 0;
-  for (let k = 0; k < n; k++) {
-    const code = excluded[k];
-    if (code === EXCLUDED.none) {
-      const a = Math.abs(y[k]);
-      if (a > signal) signal = a;
-      continue;
-    }
-    if (counts[code]++ === 0) firstAt[code] = k;
-    if (code === EXCLUDED.zeroBias) zero.push(y[k]);
-  }
+  const signal = tally(excluded, y, counts, firstAt, zero);
   const reasons: Record<string, number> = {};
   const codes = [...counts.keys()].filter((c) => counts[c] > 0).sort((a, b) => firstAt[a] - firstAt[b]);
   for (const c of codes) reasons[EXCLUSION_REASONS[c]] = counts[c];
@@ -289,24 +268,99 @@ export function classifySweep(data: SweepData, options: ClassifyOptions = {}): S
     };
   }
   const level = floorLevel(noise);
-  const branch = (sign: 1 | -1, idx: Int32Array): Branch => {
-    let signal = 0;
-    let maxCurrent = 0;
-    // Kept in place: idx is this function's own array.
-    let m = 0;
-    for (let j = 0; j < idx.length; j++) {
-      const k = idx[j];
-      if (excluded[k] !== EXCLUDED.none) continue;
-      idx[m++] = k;
-      const s = y[k] * sign;
-      if (s > level && s > 0) {
-        signal++;
-        if (s > maxCurrent) maxCurrent = s;
-      }
-    }
-    return { sign, index: idx.slice(0, m), signal, maxCurrent };
+  return {
+    noise,
+    notes,
+    excluded,
+    reasons,
+    positive: branchOf(1, posIdx, excluded, y, level),
+    negative: branchOf(-1, negIdx, excluded, y, level),
+    zeroTol,
   };
-  return { noise, notes, excluded, reasons, positive: branch(1, posIdx), negative: branch(-1, negIdx), zeroTol };
+}
+
+// The passes over every reading are small functions of their own: V8 optimises a small function
+// quickly, where a long loop inside a large one runs unoptimised (allocating a heap number per
+// arithmetic result) until the whole function has been compiled for that loop.
+
+/** |bias| of every reading into `out`; returns the largest finite one. */
+function biasMagnitudes(x: ArrayLike<number>, vfb: number, out: Float64Array): number {
+  let maxBias = 0;
+  for (let k = 0; k < out.length; k++) {
+    const b = Math.abs(x[k] - vfb);
+    out[k] = b;
+    if (b > maxBias && Number.isFinite(b)) maxBias = b;
+  }
+  return maxBias;
+}
+
+/**
+ * The exclusion code of every reading into `excluded`; the usable ones into `members`, positive
+ * bias from the front, negative from the back (returns the two counts).
+ */
+function sortReadings(
+  x: ArrayLike<number>,
+  y: ArrayLike<number>,
+  vfb: number,
+  zeroTol: number,
+  complianceAt: number,
+  flagged: ArrayLike<number> | undefined,
+  broken: ArrayLike<number> | undefined,
+  absBias: Float64Array,
+  excluded: Uint8Array,
+  members: Int32Array,
+): [number, number] {
+  const n = excluded.length;
+  let np = 0;
+  let nn = 0;
+  for (let k = 0; k < n; k++) {
+    const v = x[k];
+    const i = y[k];
+    let code: number = EXCLUDED.none;
+    if (!Number.isFinite(v) || !Number.isFinite(i)) code = EXCLUDED.notFinite;
+    else if (broken?.[k]) code = EXCLUDED.breakdown;
+    else if (flagged?.[k] || Math.abs(i) >= complianceAt) code = EXCLUDED.compliance;
+    else if (absBias[k] <= zeroTol) code = EXCLUDED.zeroBias;
+    if (code !== EXCLUDED.none) excluded[k] = code;
+    else if (v - vfb > 0) members[np++] = k;
+    else members[n - 1 - nn++] = k;
+  }
+  return [np, nn];
+}
+
+/** Counts each exclusion code and where it first occurs, collects the zero-bias currents; returns the largest usable |I|. */
+function tally(excluded: Uint8Array, y: ArrayLike<number>, counts: Int32Array, firstAt: Int32Array, zero: number[]): number {
+  let signal = 0;
+  for (let k = 0; k < excluded.length; k++) {
+    const code = excluded[k];
+    if (code === EXCLUDED.none) {
+      const a = Math.abs(y[k]);
+      if (a > signal) signal = a;
+      continue;
+    }
+    if (counts[code]++ === 0) firstAt[code] = k;
+    if (code === EXCLUDED.zeroBias) zero.push(y[k]);
+  }
+  return signal;
+}
+
+/** A branch from its readings in |bias| order: the usable ones (compacted in `idx` itself, then copied), and its signal. */
+function branchOf(sign: 1 | -1, idx: Int32Array, excluded: Uint8Array, y: ArrayLike<number>, level: number): Branch {
+  let signal = 0;
+  let maxCurrent = 0;
+  let m = 0;
+  for (let j = 0; j < idx.length; j++) {
+    const k = idx[j];
+    if (excluded[k] !== EXCLUDED.none) continue;
+    idx[m++] = k;
+    const s = y[k] * sign;
+    if (s > level && s > 0) {
+      signal++;
+      if (s > maxCurrent) maxCurrent = s;
+    }
+  }
+  // A view when little was dropped (the usual case), else a copy that lets the rest go.
+  return { sign, index: m > 0.9 * idx.length ? idx.subarray(0, m) : idx.slice(0, m), signal, maxCurrent };
 }
 
 function detectPinned(data: SweepData, idx: Int32Array, absBias: Float64Array): number[] {
