@@ -72,12 +72,13 @@ function fallback(bytes: Uint8Array, start: number, end: number): number {
   return Number(s);
 }
 
-/** Where the last `scanDecimal` stopped. */
+/** Where the last scan stopped, and (for `scanInto`) the value it read. */
 export interface ScanCursor {
   end: number;
+  value: number;
 }
 
-const cursor: ScanCursor = { end: 0 };
+const cursor: ScanCursor = { end: 0, value: 0 };
 
 /**
  * The number written in bytes[start, end) (already trimmed of blanks), or NaN when the field is
@@ -94,6 +95,15 @@ export function parseDecimal(bytes: Uint8Array, start: number, end: number): num
  * where the reading stopped, which the caller treats as text).
  */
 export function scanDecimal(bytes: Uint8Array, start: number, limit: number, at: ScanCursor): number {
+  scanInto(bytes, start, limit, at);
+  return at.value;
+}
+
+/**
+ * As scanDecimal, the value left in `at.value` (a double field updated in place: a number returned
+ * from a call that is not inlined is a new heap object, one per field of a million-row file).
+ */
+export function scanInto(bytes: Uint8Array, start: number, limit: number, at: ScanCursor): void {
   let i = start;
   let negative = false;
   let c = i < limit ? bytes[i] : -1;
@@ -146,7 +156,8 @@ export function scanDecimal(bytes: Uint8Array, start: number, limit: number, at:
   }
   if (digits === 0) {
     at.end = i;
-    return Number.NaN;
+    at.value = Number.NaN;
+    return;
   }
   if (c === LOWER_E || c === UPPER_E) {
     c = ++i < limit ? bytes[i] : -1;
@@ -163,15 +174,20 @@ export function scanDecimal(bytes: Uint8Array, start: number, limit: number, at:
       c = ++i < limit ? bytes[i] : -1;
     }
     at.end = i;
-    if (expDigits === 0) return Number.NaN;
+    if (expDigits === 0) {
+      at.value = Number.NaN;
+      return;
+    }
     exponent += expNegative ? -e : e;
   }
   at.end = i;
-  if (significant === 0) return negative ? -0 : 0;
+  if (significant === 0) {
+    at.value = negative ? -0 : 0;
+    return;
+  }
   // value = (the significant digits as an integer) · 10^exponent
   const v = significant > 19 ? Number.NaN : value(head, tail, tailDigits, exponent);
-  if (Number.isNaN(v)) return fallback(bytes, start, i);
-  return negative ? -v : v;
+  at.value = Number.isNaN(v) ? fallback(bytes, start, i) : negative ? -v : v;
 }
 
 /** head · 10^tailDigits + tail, times 10^q, correctly rounded; NaN when it cannot be decided here. */

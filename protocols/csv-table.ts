@@ -3,7 +3,7 @@
  * Comma, semicolon or tab separated (taken from the header line); lines starting with '#' and
  * blank lines are skipped. Every error names the file, the line and the column.
  */
-import { isAsciiBlank, type ScanCursor, scanDecimal } from './csv-scan.js';
+import { isAsciiBlank, type ScanCursor, scanInto } from './csv-scan.js';
 
 export class CsvError extends Error {
   readonly code = 'CSV_MALFORMED';
@@ -130,7 +130,7 @@ export function parseCsvTable(input: string | Uint8Array, file: string, minColum
   let lines = new Int32Array(capacity);
   const firstText: CsvTable['firstText'] = headers.map(() => undefined);
   const sep = delimiter.charCodeAt(0);
-  const at: ScanCursor = { end: 0 };
+  const at: ScanCursor = { end: 0, value: 0 };
   let rows = 0;
 
   while (pos < size) {
@@ -157,7 +157,8 @@ export function parseCsvTable(input: string | Uint8Array, file: string, minColum
       const fieldStart = i;
       // Blanks inside a line (the delimiter is a field boundary even when it is a tab).
       while (i < size && isFieldBlank(bytes[i], sep)) i++;
-      let v = scanDecimal(bytes, i, size, at);
+      scanInto(bytes, i, size, at);
+      let v = at.value;
       i = at.end;
       while (i < size && isFieldBlank(bytes[i], sep)) i++;
       let c = i < size ? bytes[i] : NEWLINE;

@@ -366,12 +366,13 @@ function branchOf(sign: 1 | -1, idx: Int32Array, excluded: Uint8Array, y: ArrayL
 function detectPinned(data: SweepData, idx: Int32Array, absBias: Float64Array): number[] {
   const m = idx.length;
   if (m < 3) return [];
+  const y = data.y;
   let top = 0;
-  for (const k of idx) top = Math.max(top, Math.abs(data.y[k]));
+  for (let j = 0; j < m; j++) top = Math.max(top, Math.abs(y[idx[j]]));
   if (!(top > 0)) return [];
   const tol = 2e-3 * top;
   const near: number[] = [];
-  for (let j = 0; j < m; j++) if (top - Math.abs(data.y[idx[j]]) <= tol) near.push(j);
+  for (let j = 0; j < m; j++) if (top - Math.abs(y[idx[j]]) <= tol) near.push(j);
   // They must be the highest biases of the branch.
   const first = near[0];
   for (let j = first; j < m; j++) if (top - Math.abs(data.y[idx[j]]) > tol) return [];
@@ -386,7 +387,7 @@ function detectPinned(data: SweepData, idx: Int32Array, absBias: Float64Array): 
   const v0 = Math.abs(data.y[ks[0]]);
   if (!round(v0) || ks.some((k) => Math.abs(data.y[k]) !== v0)) return [];
   let fine = 0;
-  for (const k of idx) if (!round(Math.abs(data.y[k]))) fine++;
+  for (let j = 0; j < m; j++) if (!round(Math.abs(y[idx[j]]))) fine++;
   return fine >= 0.8 * (m - ks.length) ? ks : [];
 }
 
