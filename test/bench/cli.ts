@@ -42,6 +42,8 @@ export function ensurePandas(): string | undefined {
 interface Run {
   seconds: number;
   maxRssMB: number;
+  /** User + system CPU time of the process, s (steadier than wall time on a shared machine). */
+  cpuSeconds: number;
   stdout: string;
 }
 
@@ -52,7 +54,8 @@ function timed(cmd: string, args: string[]): Run {
   const seconds = (performance.now() - t0) / 1000;
   if (r.status !== 0) throw new Error(`${cmd} ${args.join(' ')} exited ${r.status}: ${r.stderr}`);
   const m = /maxrss (\d+)/.exec(r.stderr);
-  return { seconds, maxRssMB: m ? Number(m[1]) / 1024 : Number.NaN, stdout: r.stdout };
+  const c = /cpu (\d+)/.exec(r.stderr);
+  return { seconds, maxRssMB: m ? Number(m[1]) / 1024 : Number.NaN, cpuSeconds: c ? Number(c[1]) / 1e6 : Number.NaN, stdout: r.stdout };
 }
 
 function median(xs: number[]): number {
@@ -75,7 +78,10 @@ export function benchCli(): void {
     const csv = join(dir, 'sweep-1e6.csv');
     writeFileSync(csv, parts.join(''));
     const preload = join(dir, 'maxrss.mjs');
-    writeFileSync(preload, "process.on('exit', () => process.stderr.write('maxrss ' + process.resourceUsage().maxRSS + '\\n'));\n");
+    writeFileSync(
+      preload,
+      "process.on('exit', () => { const u = process.resourceUsage(); process.stderr.write('maxrss ' + u.maxRSS + '\\ncpu ' + (u.userCPUTime + u.systemCPUTime) + '\\n'); });\n",
+    );
     const py = join(dir, 'polyfit.py');
     writeFileSync(
       py,
@@ -85,7 +91,9 @@ export function benchCli(): void {
         'd = pd.read_csv(sys.argv[1])',
         'slope, intercept = np.polyfit(d.iloc[:, 0].to_numpy(), d.iloc[:, 1].to_numpy(), 1)',
         'print(repr(slope), repr(intercept))',
-        "print('maxrss', resource.getrusage(resource.RUSAGE_SELF).ru_maxrss, file=sys.stderr)",
+        'ru = resource.getrusage(resource.RUSAGE_SELF)',
+        "print('maxrss', ru.ru_maxrss, file=sys.stderr)",
+        "print('cpu', int((ru.ru_utime + ru.ru_stime) * 1e6), file=sys.stderr)",
       ].join('\n'),
     );
 
@@ -100,7 +108,7 @@ export function benchCli(): void {
     report(
       'plumbline fit, 1e6-row CSV (whole process, median of 5)',
       median(ours.map((r) => r.seconds)),
-      `s; peak RSS ${median(ours.map((r) => r.maxRssMB)).toFixed(0)} MB`,
+      `s; peak RSS ${median(ours.map((r) => r.maxRssMB)).toFixed(0)} MB; CPU ${median(ours.map((r) => r.cpuSeconds)).toFixed(2)} s`,
       'faster than pandas + numpy',
     );
     if (missing) process.stdout.write(`  pandas + numpy comparison skipped: ${missing}\n`);
@@ -109,7 +117,7 @@ export function benchCli(): void {
       report(
         'pandas.read_csv + numpy.polyfit, same file',
         median(theirs.map((r) => r.seconds)),
-        `s; peak RSS ${median(theirs.map((r) => r.maxRssMB)).toFixed(0)} MB`,
+        `s; peak RSS ${median(theirs.map((r) => r.maxRssMB)).toFixed(0)} MB; CPU ${median(theirs.map((r) => r.cpuSeconds)).toFixed(2)} s`,
       );
       report(
         '  ratio plumbline / pandas (time)',
