@@ -224,7 +224,8 @@ export class StressTest {
     if (p.kind === 'voltage-ramp') ({ verdict, series } = await this.voltageRamp(p));
     else if (p.kind === 'current-ramp') ({ verdict, series } = await this.currentRamp(p));
     else ({ verdict, series } = await this.constantStress(p));
-    if (p.useVoltage !== undefined) this.leakageAfter = await this.useCheck('use-condition check after the test');
+    // Never on again after a breakdown whose output-off the instrument did not confirm.
+    if (p.useVoltage !== undefined && this.offConfirmed !== false) this.leakageAfter = await this.useCheck('use-condition check after the test');
     const { area, thickness } = this.geometry();
     const n = series.t.length;
     if (verdict) {
@@ -316,18 +317,35 @@ export class StressTest {
     return m.reading?.i ?? Number.NaN;
   }
 
-  /** Output off at once (no ramp down): breakdown was confirmed. */
+  /**
+   * Output off at once (no ramp down): breakdown was confirmed. The instrument is then asked whether
+   * its output is off; only when it says so may the check after the test turn it on again, and the
+   * caution says that it will.
+   */
   private async offAtBreakdown(verdict: BreakdownVerdict): Promise<void> {
-    const sent = await this.ctx.source.outputOff();
+    const src = this.ctx.source;
+    const sent = await src.outputOff();
     this.ctx.record({ type: 'output', on: false, sent, confirmed: false, reason: `breakdown confirmed (${verdict.criterion})` });
+    const check = await src.confirmOff();
+    this.offConfirmed = check.confirmed;
+    this.ctx.record({ type: 'output', on: false, sent, queried: true, confirmed: check.confirmed, reason: check.detail });
+    const after =
+      this.plan.useVoltage === undefined
+        ? ''
+        : check.confirmed
+          ? ` The output goes on once more, at the use voltage ${this.plan.useVoltage} V, for the check after the test, and off again: keep away from the fixture until the run has ended.`
+          : ' The instrument did not confirm that its output is off, so the check after the test is skipped.';
     this.ctx.record({
       type: 'caution',
       kind: 'breakdown-confirmed',
       sweep: this.sweep,
       numbers: verdict.numbers,
-      message: `Breakdown (${verdict.criterion}): ${verdict.reason}. The output was turned off. The device is destroyed; follow your lab's rules before touching the fixture.`,
+      message: `Breakdown (${verdict.criterion}): ${verdict.reason}. The output was turned off${check.confirmed ? ' (the instrument confirms it)' : ''}. The device is destroyed.${after} Follow your lab's rules before touching the fixture.`,
     });
   }
+
+  /** Whether the instrument confirmed its output off at breakdown (undefined: no breakdown yet). */
+  private offConfirmed: boolean | undefined;
 
   private async voltageRamp(p: VoltageRampPlan): Promise<{ verdict?: BreakdownVerdict; series: Series; tStart: number }> {
     const src = this.ctx.source;
