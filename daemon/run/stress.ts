@@ -15,6 +15,7 @@
 import { writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import {
+  biasHeldAtCompliance,
   chargeToBreakdown,
   CurrentRampJudge,
   staircaseChargeToBreakdown,
@@ -254,13 +255,16 @@ export class StressTest {
     }
     // The end of the ramp or of the stress time without breakdown: the device survived (censored).
     const last = n - 1;
+    const held = this.heldAtCompliance;
     const vmax = n ? Math.max(...(p.kind === 'current-ramp' ? series.v : series.set).map(Math.abs)) : 0;
     const holds = series.holds();
     const q = chargeToBreakdown(holds, series.i, n);
     return this.finish(
       'survived',
-      p.kind === 'constant-voltage' ? 'end-of-stress' : 'end-of-ramp',
-      `no breakdown: the device held to the end of the ${p.kind === 'constant-voltage' ? `stress (${g(p.duration)} s)` : 'ramp'}`,
+      held ? 'compliance-held' : p.kind === 'constant-voltage' ? 'end-of-stress' : 'end-of-ramp',
+      held
+        ? `no breakdown seen: the current reached the ${g(Math.abs(held.current))} A compliance at ${g(held.programmed)} V with the bias held (${g(held.measured)} V measured), so the ramp ends there; raise the compliance to ramp further`
+        : `no breakdown: the device held to the end of the ${p.kind === 'constant-voltage' ? `stress (${g(p.duration)} s)` : 'ramp'}`,
       {
         voltage: vmax,
         field: thickness ? vmax / thickness : undefined,
@@ -344,6 +348,9 @@ export class StressTest {
     });
   }
 
+  /** A voltage ramp that reached compliance with the bias held (no breakdown; the ramp ended there). */
+  private heldAtCompliance: { programmed: number; measured: number; current: number } | undefined;
+
   /** Whether the instrument confirmed its output off at breakdown (undefined: no breakdown yet). */
   private offConfirmed: boolean | undefined;
 
@@ -378,6 +385,13 @@ export class StressTest {
         continue;
       }
       series.add(this.now(), m.reading.v, m.reading.i, v, tSet);
+      // At compliance with the bias held, the current limit is the end of what this ramp can show:
+      // the device has not broken down (it is right-censored at this level).
+      if (m.compliance && biasHeldAtCompliance(v, m.reading.v)) {
+        this.ctx.take(m, v);
+        this.heldAtCompliance = { programmed: v, measured: m.reading.v, current: m.reading.i };
+        break;
+      }
       // Judged against the applied (programmed) bias: at compliance the measured one collapses.
       const verdict = judge.add(v, m.reading.i, m.compliance);
       this.ctx.take(m, v, verdict !== undefined);
