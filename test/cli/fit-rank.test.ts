@@ -191,6 +191,15 @@ describe('whole sweeps from the command line, no window given (test/helpers/whol
     expect(out.branches.length).toBe(2);
     expect(Object.keys(out.points.reasons)).toEqual(expect.arrayContaining(['zero bias', 'at the noise floor', 'other polarity (analysed as its own branch)']));
   });
+  it('fit text says NOT PLAUSIBLE on its last line when the analysis marks the fit so (a thickness given in metres by mistake)', () => {
+    const file = tempFile('fn-whole.csv', toCsv(wholeSweep({ ...spec, seed: 11 })));
+    const good = runCli(['fit', file, '--model', 'fowler-nordheim', ...args]);
+    expect(good.stdout).not.toMatch(/NOT PLAUSIBLE/);
+    const r = runCli(['fit', file, '--model', 'fowler-nordheim', '--thickness', '7', '--area', '1e-4 cm^2', '--mass-ratio', '0.42']);
+    expect(r.code, r.stderr).toBe(0);
+    expect(r.stdout.trim().split('\n').at(-1)).toMatch(/^NOT PLAUSIBLE: /);
+    expect(r.stdout).toMatch(/warning: .*outside the plausible range/);
+  });
   it('rank: Fowler–Nordheim first, weights summing to 1', () => {
     const file = tempFile('fn-whole.csv', toCsv(wholeSweep({ ...spec, seed: 12 })));
     const r = runCli(['rank', file, ...args, '--refractive-index', '1.46', '--json']);

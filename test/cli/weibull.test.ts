@@ -141,7 +141,7 @@ describe('plumbline weibull', () => {
     expect(r.code).toBe(1);
     expect(r.stderr).toMatch(/at least two devices that broke down; got 1 of 2/);
     r = runCli(['weibull', EXAMPLE, '--to-area', '1 cm']);
-    expect(r.stderr).toMatch(/--to-area '1 cm': expected a area/);
+    expect(r.stderr).toMatch(/--to-area '1 cm': expected an area/);
   });
 });
 
