@@ -71,7 +71,10 @@ withAnalysisOptions(
   program
     .command('fit')
     .description('fit one conduction mechanism to an I-V CSV and extract its physical parameters')
-    .argument('<file>', 'CSV with a header row; x = first column (V, or K for arrhenius), y = second (A)')
+    .argument(
+      '<file>',
+      'CSV with a header row; x = the bias column (named voltage, bias or V; else the first; K for arrhenius), y = the current column (named current or I; else the next); units in headers are read',
+    )
     .requiredOption('--model <id>', `mechanism: ${MODEL_IDS.join(', ')}; or a diode model: ${DIODE_MODELS.join(', ')}`)
     .option('--illuminated', 'diode models: fit a photocurrent (an illuminated solar cell)')
     .option('--convention <c>', 'diode models: how the file signs the current: load (into the device positive, as an SMU records it) or generator', 'load')

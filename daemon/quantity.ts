@@ -61,7 +61,10 @@ export function parseQuantity(text: string, kind: QuantityKind, setting: string)
   if (own !== undefined) {
     const si = target(ref.si);
     if (!sameDimensions(own.dims, si.dims))
-      throw new QuantityError(setting, `${setting} '${text}': expected a ${kind} (e.g. "${ref.example}")${celsiusHint(kind, t)}`);
+      throw new QuantityError(
+        setting,
+        `${setting} '${text}': expected ${/^[aeiou]/.test(kind) ? 'an' : 'a'} ${kind} (e.g. "${ref.example}")${celsiusHint(kind, t)}`,
+      );
     const v = valueIn(own, si);
     if (!Number.isFinite(v)) throw new QuantityError(setting, `${setting} '${text}': not a finite value`);
     return v;
@@ -76,7 +79,10 @@ export function parseQuantity(text: string, kind: QuantityKind, setting: string)
     );
   }
   if (!u.equalBase(unit(`1 ${ref.si}`))) {
-    throw new QuantityError(setting, `${setting} '${text}': expected a ${kind} (e.g. "${ref.example}")${celsiusHint(kind, t)}`);
+    throw new QuantityError(
+      setting,
+      `${setting} '${text}': expected ${/^[aeiou]/.test(kind) ? 'an' : 'a'} ${kind} (e.g. "${ref.example}")${celsiusHint(kind, t)}`,
+    );
   }
   const v = u.toNumber(ref.si);
   if (!Number.isFinite(v)) throw new QuantityError(setting, `${setting} '${text}': not a finite value`);

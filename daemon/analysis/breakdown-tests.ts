@@ -36,6 +36,17 @@ export interface VoltageRampCriteria {
 const g = (x: number) => x.toPrecision(3);
 
 /**
+ * At compliance, whether the source still held the bias: the measured voltage within `drop` (a
+ * tenth by default, common practice) of the programmed one. A broken film lets the bias collapse
+ * (JEDEC JESD35-A counts compliance with a collapsing bias as breakdown); a healthy film whose
+ * tunnelling current merely reached the limit keeps it, and that is the end of what the ramp can
+ * show, not a breakdown.
+ */
+export function biasHeldAtCompliance(programmed: number, measured: number, drop = 0.1): boolean {
+  return Number.isFinite(measured) && Math.abs(measured) >= (1 - drop) * Math.abs(programmed);
+}
+
+/**
  * Judges a voltage ramp (or any rising staircase of bias) one reading at a time. The slope test
  * compares the local slope d ln|I|/dV with the median of the previous `slopeWindow` slopes: a
  * tunnelling or emission current has a slope that falls smoothly as the bias rises, so a slope that

@@ -63,6 +63,8 @@ export function formatFit(r: FitReport): string {
   }
   for (const n of r.notes) out.push(`note:       ${n}`);
   for (const w of r.warnings) out.push(`warning:    ${w}`);
+  // A wrong answer is never silent: the last line says so when the analysis marks the fit implausible.
+  if (!r.plausible) out.push('NOT PLAUSIBLE: the parameters above do not describe this device as fitted (see the warnings)');
   return out.join('\n');
 }
 

@@ -38,8 +38,14 @@ export interface AnalysisOptions {
 /** Adds the shared options to a command. */
 export function withAnalysisOptions(cmd: Command): Command {
   return cmd
-    .option('--x <col>', 'x column, by header name or 1-based position (default: a column named voltage_V, voltage, bias or V, else the first)')
-    .option('--y <col>', 'y column (default: a column named current_A, current or I, else the second)')
+    .option(
+      '--x <col>',
+      'x column, by header name or 1-based position (default: a column named voltage, bias or V, with or without a unit such as _V or (mV), else the first); a unit in the header is converted to V',
+    )
+    .option(
+      '--y <col>',
+      'y column (default: a column named current or I, with or without a unit such as _A or (mA), else the next one); a unit in the header is converted to A',
+    )
     .option('--from <x>', "fit window start, in the x column's own values")
     .option('--to <x>', "fit window end, in the x column's own values")
     .option('--auto', 'choose the fit window automatically (the default for mechanisms of the current)')
@@ -106,6 +112,20 @@ export function readCompliance(o: AnalysisOptions): number | undefined {
   return o.compliance === undefined ? undefined : parseQuantity(o.compliance, 'current', '--compliance');
 }
 
+/** Scale to SI of the bias and current units a header may carry (common instrument-file units). */
+const VOLTAGE_UNITS: Readonly<Record<string, number>> = { V: 1, mV: 1e-3, uV: 1e-6, µV: 1e-6, kV: 1e3 };
+const CURRENT_UNITS: Readonly<Record<string, number>> = { A: 1, mA: 1e-3, uA: 1e-6, µA: 1e-6, nA: 1e-9, pA: 1e-12, fA: 1e-15 };
+
+/** A header's name and unit: "Current (mA)", "I [mA]" and "I_mA" give name and unit; "current" gives the name alone. */
+export function headerUnit(header: string): { name: string; unit?: string } {
+  const h = header.trim();
+  const br = /^(.*?)\s*[([]\s*([^()[\]]+?)\s*[)\]]$/.exec(h);
+  if (br) return { name: br[1], unit: br[2] };
+  const us = /^(.*?)_([A-Za-zµ]+)$/.exec(h);
+  if (us && (VOLTAGE_UNITS[us[2]] !== undefined || CURRENT_UNITS[us[2]] !== undefined)) return { name: us[1], unit: us[2] };
+  return { name: h };
+}
+
 /**
  * Loads the CSV and picks x, y and an optional compliance column. A file with a `sweep` column
  * holding more than one sweep (an exported points.csv) must say which one (--sweep N) or that they
@@ -117,11 +137,11 @@ export function loadData(file: string, o: AnalysisOptions): { table: CsvTable; d
   // Without --x/--y: a column named as a bias (voltage_V, voltage, bias, V) and one named as a
   // current (current_A, current, I), as our export and most instrument files name them; else the
   // first two columns.
-  const named = (re: RegExp) => table.headers.findIndex((h) => re.test(h.trim()));
-  const xDefault = named(/^(voltage(_V)?|bias(_V)?|V)$/i);
-  const yDefault = named(/^(current(_A)?|I)$/i);
+  const named = (re: RegExp) => table.headers.findIndex((h) => re.test(headerUnit(h).name));
+  const xDefault = named(/^(voltage|bias|V)$/i);
+  const yDefault = named(/^(current|I)$/i);
   const xi = o.x !== undefined ? columnIndex(table, o.x, '--x') : Math.max(xDefault, 0);
-  const yi = o.y !== undefined ? columnIndex(table, o.y, '--y') : yDefault >= 0 ? yDefault : 1;
+  const yi = o.y !== undefined ? columnIndex(table, o.y, '--y') : yDefault >= 0 ? yDefault : xi === 1 && table.headers.length > 2 ? 2 : 1;
   const ci = table.headers.findIndex((h) => /^compliance$/i.test(h));
   const si = table.headers.findIndex((h) => /^sweep$/i.test(h));
   // Only the columns in use must be numbers (an exported points.csv carries a text session column).
@@ -168,11 +188,28 @@ export function loadData(file: string, o: AnalysisOptions): { table: CsvTable; d
   }
   const pick = (a: Float64Array) => (keep ? Float64Array.from(keep, (k) => a[k]) : a);
   if (keep) for (const id of Object.keys(columns)) columns[id] = pick(columns[id]);
+  // A unit in a header (Current (mA), I_mA, V [mV]) is read: the values go to the analysis in SI.
+  // A bias column in amperes or a current column in volts is refused: the columns are swapped.
+  const scaled = (k: number, role: 'bias' | 'current'): Float64Array => {
+    const h = table.headers[k];
+    const { unit } = headerUnit(h);
+    if (unit === undefined) return pick(table.columns[k]);
+    const own = role === 'bias' ? VOLTAGE_UNITS : CURRENT_UNITS;
+    const other = role === 'bias' ? CURRENT_UNITS : VOLTAGE_UNITS;
+    if (own[unit] === undefined && other[unit] !== undefined) {
+      throw new CsvError(file, undefined, h, `the ${role} column is in ${unit}: are x and y swapped? name them with --x (bias) and --y (current)`);
+    }
+    const f = own[unit];
+    if (f === undefined || f === 1) return pick(table.columns[k]);
+    notes.push(`column '${h}' read in ${unit} and converted to ${role === 'bias' ? 'V' : 'A'}`);
+    return Float64Array.from(pick(table.columns[k]), (v) => v * f);
+  };
+  notes.push(`columns used: x = '${table.headers[xi]}', y = '${table.headers[yi]}'`);
   return {
     table,
     data: {
-      x: pick(table.columns[xi]),
-      y: pick(table.columns[yi]),
+      x: scaled(xi, 'bias'),
+      y: scaled(yi, 'current'),
       compliance: ci >= 0 && ci !== xi && ci !== yi ? pick(table.columns[ci]) : undefined,
       columns,
     },

@@ -10,8 +10,7 @@ import type { StationConfig } from '../run/config.js';
 import type { Station } from '../run/station.js';
 import { UsageError } from './usage.js';
 import { numberRows, resultFigureRows, rowText } from '../../protocols/breakdown-display.js';
-import { formatParameterText } from '../../protocols/display-units.js';
-import { formatNumber } from '../../protocols/number-format.js';
+import { formatParameterText, formatQuantity } from '../../protocols/display-units.js';
 
 // The daemon's modules (express, ws, serialport, rxjs) load only when a station command runs, so
 // `plumbline fit` and friends keep their short start-up.
@@ -147,7 +146,11 @@ export function guardProcess(station: Station, onExit: () => Promise<void> | voi
   return () => exiting;
 }
 
+/** The unit of each fitted parameter as the fits of this process's run gave it (drift lines carry none). */
+const parameterUnits = new Map<string, string>();
+
 export function describe(e: WireEvent): string | undefined {
+  if (e.type === 'fit' && e.fit) for (const [k, v] of Object.entries(e.fit.parameters)) parameterUnits.set(k, v.unit);
   switch (e.type) {
     case 'caution':
       return `CAUTION [${e.kind}] ${e.message}`;
@@ -166,7 +169,12 @@ export function describe(e: WireEvent): string | undefined {
     case 'drift':
       return e.state === 'baseline' || e.state === 'no-value'
         ? undefined
-        : `         drift of ${e.parameter}: ${e.state} (${e.method} ${formatNumber(e.statistic ?? Number.NaN, 5)}, limits ${formatNumber(e.lower ?? Number.NaN, 5)} … ${formatNumber(e.upper ?? Number.NaN, 5)})`;
+        : (() => {
+            // In the parameter's display unit, as the fit line above it (mobility in cm²/(V·s), not m²/(V·s)).
+            const u = parameterUnits.get(e.parameter) ?? '';
+            const q = (x: number | null) => formatQuantity(x ?? Number.NaN, u, e.parameter, 5);
+            return `         drift of ${e.parameter}: ${e.state} (${e.method} ${q(e.statistic)}, limits ${q(e.lower)} … ${q(e.upper)})`;
+          })();
     case 'output':
       if (e.queried) {
         if (e.on) return `output ON, confirmed by the instrument — ${e.reason}`;

@@ -56,6 +56,14 @@ function genericSample(
   };
 }
 
+/** The SI units breakdown values come in (what --unit may name); the text output shows them in the trade's units. */
+const SI_UNITS = ['V/m', 'V', 'C/m^2', 's', 'A', 'A/m^2', 'C'];
+
+function checkUnit(unit: string | undefined): string | undefined {
+  if (unit === undefined || SI_UNITS.includes(unit.replace(/\s+/g, ''))) return unit?.replace(/\s+/g, '');
+  throw new UsageError(`--unit '${unit}': give the SI unit the values are in (${SI_UNITS.join(', ')}); the text output shows V/m as MV/cm and C/m^2 as C/cm²`);
+}
+
 function isResultsHeader(text: string): boolean {
   const first = text.split(/\r?\n/).find((l) => l.trim() !== '' && !l.trim().startsWith('#')) ?? '';
   const h = splitFields(first, detectDelimiter(first)).map((x) => x.trim().toLowerCase());
@@ -108,7 +116,7 @@ export async function gatherSample(inputs: string[], o: WeibullCliOptions, refer
       throw new CsvError(f, undefined, undefined, `cannot read the file (${(e as NodeJS.ErrnoException).code ?? (e as Error).message})`);
     }
     if (isResultsHeader(text)) rows.push(...parseDeviceResults(text, f).map((r) => ({ ...r, session: f })));
-    else generic.push(genericSample(f, text, o.quantity, o.unit));
+    else generic.push(genericSample(f, text, o.quantity, checkUnit(o.unit)));
   }
   if (rows.length && generic.length) throw new UsageError('mix of results files (or session folders) and plain value CSVs: analyse them separately');
   if (rows.length) {

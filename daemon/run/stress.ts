@@ -15,6 +15,7 @@
 import { writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import {
+  biasHeldAtCompliance,
   chargeToBreakdown,
   CurrentRampJudge,
   staircaseChargeToBreakdown,
@@ -224,7 +225,8 @@ export class StressTest {
     if (p.kind === 'voltage-ramp') ({ verdict, series } = await this.voltageRamp(p));
     else if (p.kind === 'current-ramp') ({ verdict, series } = await this.currentRamp(p));
     else ({ verdict, series } = await this.constantStress(p));
-    if (p.useVoltage !== undefined) this.leakageAfter = await this.useCheck('use-condition check after the test');
+    // Never on again after a breakdown whose output-off the instrument did not confirm.
+    if (p.useVoltage !== undefined && this.offConfirmed !== false) this.leakageAfter = await this.useCheck('use-condition check after the test');
     const { area, thickness } = this.geometry();
     const n = series.t.length;
     if (verdict) {
@@ -253,13 +255,16 @@ export class StressTest {
     }
     // The end of the ramp or of the stress time without breakdown: the device survived (censored).
     const last = n - 1;
+    const held = this.heldAtCompliance;
     const vmax = n ? Math.max(...(p.kind === 'current-ramp' ? series.v : series.set).map(Math.abs)) : 0;
     const holds = series.holds();
     const q = chargeToBreakdown(holds, series.i, n);
     return this.finish(
       'survived',
-      p.kind === 'constant-voltage' ? 'end-of-stress' : 'end-of-ramp',
-      `no breakdown: the device held to the end of the ${p.kind === 'constant-voltage' ? `stress (${g(p.duration)} s)` : 'ramp'}`,
+      held ? 'compliance-held' : p.kind === 'constant-voltage' ? 'end-of-stress' : 'end-of-ramp',
+      held
+        ? `no breakdown seen: the current reached the ${g(Math.abs(held.current))} A compliance at ${g(held.programmed)} V with the bias held (${g(held.measured)} V measured), so the ramp ends there; raise the compliance to ramp further`
+        : `no breakdown: the device held to the end of the ${p.kind === 'constant-voltage' ? `stress (${g(p.duration)} s)` : 'ramp'}`,
       {
         voltage: vmax,
         field: thickness ? vmax / thickness : undefined,
@@ -316,18 +321,38 @@ export class StressTest {
     return m.reading?.i ?? Number.NaN;
   }
 
-  /** Output off at once (no ramp down): breakdown was confirmed. */
+  /**
+   * Output off at once (no ramp down): breakdown was confirmed. The instrument is then asked whether
+   * its output is off; only when it says so may the check after the test turn it on again, and the
+   * caution says that it will.
+   */
   private async offAtBreakdown(verdict: BreakdownVerdict): Promise<void> {
-    const sent = await this.ctx.source.outputOff();
+    const src = this.ctx.source;
+    const sent = await src.outputOff();
     this.ctx.record({ type: 'output', on: false, sent, confirmed: false, reason: `breakdown confirmed (${verdict.criterion})` });
+    const check = await src.confirmOff();
+    this.offConfirmed = check.confirmed;
+    this.ctx.record({ type: 'output', on: false, sent, queried: true, confirmed: check.confirmed, reason: check.detail });
+    const after =
+      this.plan.useVoltage === undefined
+        ? ''
+        : check.confirmed
+          ? ` The output goes on once more, at the use voltage ${this.plan.useVoltage} V, for the check after the test, and off again: keep away from the fixture until the run has ended.`
+          : ' The instrument did not confirm that its output is off, so the check after the test is skipped.';
     this.ctx.record({
       type: 'caution',
       kind: 'breakdown-confirmed',
       sweep: this.sweep,
       numbers: verdict.numbers,
-      message: `Breakdown (${verdict.criterion}): ${verdict.reason}. The output was turned off. The device is destroyed; follow your lab's rules before touching the fixture.`,
+      message: `Breakdown (${verdict.criterion}): ${verdict.reason}. The output was turned off${check.confirmed ? ' (the instrument confirms it)' : ''}. The device is destroyed.${after} Follow your lab's rules before touching the fixture.`,
     });
   }
+
+  /** A voltage ramp that reached compliance with the bias held (no breakdown; the ramp ended there). */
+  private heldAtCompliance: { programmed: number; measured: number; current: number } | undefined;
+
+  /** Whether the instrument confirmed its output off at breakdown (undefined: no breakdown yet). */
+  private offConfirmed: boolean | undefined;
 
   private async voltageRamp(p: VoltageRampPlan): Promise<{ verdict?: BreakdownVerdict; series: Series; tStart: number }> {
     const src = this.ctx.source;
@@ -360,6 +385,13 @@ export class StressTest {
         continue;
       }
       series.add(this.now(), m.reading.v, m.reading.i, v, tSet);
+      // At compliance with the bias held, the current limit is the end of what this ramp can show:
+      // the device has not broken down (it is right-censored at this level).
+      if (m.compliance && biasHeldAtCompliance(v, m.reading.v)) {
+        this.ctx.take(m, v);
+        this.heldAtCompliance = { programmed: v, measured: m.reading.v, current: m.reading.i };
+        break;
+      }
       // Judged against the applied (programmed) bias: at compliance the measured one collapses.
       const verdict = judge.add(v, m.reading.i, m.compliance);
       this.ctx.take(m, v, verdict !== undefined);

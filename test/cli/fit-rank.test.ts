@@ -120,12 +120,47 @@ describe('text columns that are not used', () => {
     expect(named.code, named.stderr).toBe(0);
     expect(JSON.parse(named.stdout).parameters.resistance.value).toBeCloseTo(1000, 9);
     // A file whose default column holds text says which columns there are to choose from.
-    const g = tempFile('runs.csv', `run,bias_mV,amps\n${[0, 1, 2].map((v) => `A,${v},${v / 1000}`).join('\n')}\n`);
+    const g = tempFile('runs.csv', `run,volts,amps\n${[0, 1, 2].map((v) => `A,${v},${v / 1000}`).join('\n')}\n`);
     const bad = runCli(['fit', g, '--model', 'ohmic']);
     expect(bad.code).toBe(2);
-    expect(bad.stderr).toMatch(/line 2, column 'run': 'A' is not a number: name the columns to use with --x and --y \(columns: run, bias_mV, amps\)/);
+    expect(bad.stderr).toMatch(/line 2, column 'run': 'A' is not a number: name the columns to use with --x and --y \(columns: run, volts, amps\)/);
     const picked = runCli(['fit', g, '--x', 'run', '--y', 'amps', '--model', 'ohmic']);
     expect(picked.stderr).toMatch(/line 2, column 'run': 'A' is not a number$/m);
+  });
+
+  it('units in the headers are read: a current in mA and a bias in mV give the same fit as the file in A and V; swapped columns are refused', () => {
+    // Ohmic by construction, 1 kΩ (worked by hand): I = V / 1000.
+    const volts = [0.5, 1, 1.5, 2, 2.5, 3];
+    const si = tempFile('si.csv', `voltage_V,current_A\n${volts.map((v) => `${v},${v / 1000}`).join('\n')}\n`);
+    const ref = JSON.parse(runCli(['fit', si, '--model', 'ohmic', '--json']).stdout).parameters.resistance.value;
+    expect(ref).toBeCloseTo(1000, 9);
+    for (const [name, text] of [
+      ['ma.csv', `Voltage (V),Current (mA)\n${volts.map((v) => `${v},${v}`).join('\n')}\n`],
+      ['mv.csv', `I [uA],bias_mV\n${volts.map((v) => `${v * 1000},${v * 1000}`).join('\n')}\n`],
+    ] as const) {
+      const r = runCli(['fit', tempFile(name, text), '--model', 'ohmic', '--json']);
+      expect(r.code, r.stderr).toBe(0);
+      const j = JSON.parse(r.stdout);
+      expect(j.parameters.resistance.value).toBeCloseTo(1000, 6);
+      expect(j.notes.join(' ')).toMatch(/read in (mA|uA|mV) and converted to/);
+    }
+    const text = runCli(['fit', tempFile('order.csv', `Current (A),Voltage (V)\n${volts.map((v) => `${v / 1000},${v}`).join('\n')}\n`), '--model', 'ohmic']);
+    expect(text.code, text.stderr).toBe(0);
+    expect(text.stdout).toMatch(/columns used: x = 'Voltage \(V\)', y = 'Current \(A\)'/);
+    const swapped = runCli(['fit', tempFile('sw.csv', `a,b\n${volts.map((v) => `${v},${v}`).join('\n')}\n`), '--x', 'b', '--y', 'a', '--model', 'ohmic']);
+    expect(swapped.code).toBe(0); // no units given: nothing to check
+    const wrong = runCli([
+      'fit',
+      tempFile('wr.csv', `I (A),V (V)\n${volts.map((v) => `${v / 1000},${v}`).join('\n')}\n`),
+      '--x',
+      'I (A)',
+      '--y',
+      'V (V)',
+      '--model',
+      'ohmic',
+    ]);
+    expect(wrong.code).toBe(2);
+    expect(wrong.stderr).toMatch(/column 'I \(A\)': the bias column is in A: are x and y swapped\?/);
   });
 });
 
@@ -155,6 +190,15 @@ describe('whole sweeps from the command line, no window given (test/helpers/whol
     expect(out.noise.floor / 1e-13).toBeLessThan(2);
     expect(out.branches.length).toBe(2);
     expect(Object.keys(out.points.reasons)).toEqual(expect.arrayContaining(['zero bias', 'at the noise floor', 'other polarity (analysed as its own branch)']));
+  });
+  it('fit text says NOT PLAUSIBLE on its last line when the analysis marks the fit so (a thickness given in metres by mistake)', () => {
+    const file = tempFile('fn-whole.csv', toCsv(wholeSweep({ ...spec, seed: 11 })));
+    const good = runCli(['fit', file, '--model', 'fowler-nordheim', ...args]);
+    expect(good.stdout).not.toMatch(/NOT PLAUSIBLE/);
+    const r = runCli(['fit', file, '--model', 'fowler-nordheim', '--thickness', '7', '--area', '1e-4 cm^2', '--mass-ratio', '0.42']);
+    expect(r.code, r.stderr).toBe(0);
+    expect(r.stdout.trim().split('\n').at(-1)).toMatch(/^NOT PLAUSIBLE: /);
+    expect(r.stdout).toMatch(/warning: .*outside the plausible range/);
   });
   it('rank: Fowler–Nordheim first, weights summing to 1', () => {
     const file = tempFile('fn-whole.csv', toCsv(wholeSweep({ ...spec, seed: 12 })));

@@ -33,7 +33,7 @@ function byMathjs(text: string, kind: Exclude<QuantityKind, 'number'>): number |
   } catch (e) {
     return `--q '${text}': not a quantity mathjs understands (${(e as Error).message}); e.g. "${ref.example}"`;
   }
-  if (!u.equalBase(unit(`1 ${ref.si}`))) return `--q '${text}': expected a ${kind} (e.g. "${ref.example}")`;
+  if (!u.equalBase(unit(`1 ${ref.si}`))) return `--q '${text}': expected ${/^[aeiou]/.test(kind) ? 'an' : 'a'} ${kind} (e.g. "${ref.example}")`;
   const v = u.toNumber(ref.si);
   return Number.isFinite(v) ? v : `--q '${text}': not a finite value`;
 }

@@ -44,4 +44,25 @@ suite('run: a sweep fit line', () => {
       '         warning: the points scatter more than the noise allows',
     ]);
   });
+
+  it('a drift line is in the unit of the fit line above it (mobility in cm²/(V·s); 1 m² = 1e4 cm²)', () => {
+    describe(fitEvent({ model: 'sclc', parameters: { mobility: { value: 1e-8, stdErr: 1e-11, unit: 'm^2/(V*s)' } } }));
+    const text = describe({
+      type: 'drift',
+      seq: 2,
+      t: 0,
+      sweep: 6,
+      parameter: 'mobility',
+      value: 1e-8,
+      method: 'ewma',
+      phase: 'monitor',
+      statistic: 1.0001e-8,
+      center: 1e-8,
+      lower: 9.9868e-9,
+      upper: 1.0016e-8,
+      sigma: 1e-11,
+      state: 'in-control',
+    } as WireEvent) as string;
+    expect(text.trim()).toBe('drift of mobility: in-control (ewma 1.0001e-4 cm²/(V·s), limits 9.9868e-5 cm²/(V·s) … 1.0016e-4 cm²/(V·s))');
+  });
 });

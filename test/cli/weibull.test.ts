@@ -128,6 +128,10 @@ describe('plumbline weibull', () => {
     r = runCli(['weibull', neg, '--quantity', 'E']);
     expect(r.code).toBe(2);
     expect(r.stderr).toMatch(/n\.csv, line 3, column 'E': -3 is not a positive value/);
+    const vals = tempFile('u.csv', 'E\n1.1e9\n1.2e9\n1.3e9\n');
+    r = runCli(['weibull', vals, '--quantity', 'E', '--unit', 'MV/cm']);
+    expect(r.code).toBe(2);
+    expect(r.stderr).toMatch(/--unit 'MV\/cm': give the SI unit the values are in \(V\/m, V, C\/m\^2, s/);
     r = runCli(['weibull', EXAMPLE, '--confidence', '1.2']);
     expect(r.stderr).toMatch(/--confidence '1.2'/);
     r = runCli(['weibull', '/no/such/dir']);
@@ -137,7 +141,7 @@ describe('plumbline weibull', () => {
     expect(r.code).toBe(1);
     expect(r.stderr).toMatch(/at least two devices that broke down; got 1 of 2/);
     r = runCli(['weibull', EXAMPLE, '--to-area', '1 cm']);
-    expect(r.stderr).toMatch(/--to-area '1 cm': expected a area/);
+    expect(r.stderr).toMatch(/--to-area '1 cm': expected an area/);
   });
 });
 

@@ -139,8 +139,19 @@ describe('voltage ramp to breakdown', () => {
     // journal says so, and says it went off before the next: what the instrument did, in order.
     const outputs = ev.filter((e) => e.type === 'output').map((e) => (e.type === 'output' && e.on ? 'on' : 'off'));
     expect(outputs.filter((o) => o === 'on')).toHaveLength(3);
-    expect(outputs.join(' ')).toMatch(/^on off on off on off( off)*$/);
+    expect(outputs.join(' ')).toMatch(/^on off on off off on off( off)*$/); // breakdown: off sent, then confirmed
     expect(log.filter((l) => l === ':OUTP ON')).toHaveLength(3);
+    // At breakdown the output goes off and the instrument is asked whether it is off before the
+    // check after the test may turn it on again; the breakdown caution says that it will.
+    const lastOn = log.lastIndexOf(':OUTP ON');
+    const beforeLastOn = log.slice(offAfterRamp, lastOn);
+    expect(beforeLastOn).toContain(':OUTP?');
+    const offAtBd = ev.findIndex((e) => e.type === 'output' && !e.on && /breakdown confirmed/.test(e.reason ?? ''));
+    expect(ev[offAtBd + 1]).toMatchObject({ type: 'output', on: false, queried: true, confirmed: true });
+    const bdCaution = ev.find((e) => e.type === 'caution' && e.kind === 'breakdown-confirmed');
+    expect(bdCaution?.type === 'caution' && bdCaution.message).toMatch(
+      /the instrument confirms it.*goes on once more, at the use voltage 1 V, for the check after the test/,
+    );
     const tr = ev.find((e) => e.type === 'test-result');
     expect(tr?.type === 'test-result' && tr.outcome).toBe('breakdown');
     expect(smu.output).toBe(false);

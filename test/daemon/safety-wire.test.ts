@@ -361,6 +361,19 @@ describe('errors keep their real reason', () => {
     const r2 = await runCliAsync(['run', '--config', big, '--data', join(dir, 'data')]);
     expect(r2.code).toBe(2);
     expect(r2.stderr).toMatch(/field 'repeat': 1000000 sweep\(s\) × 100000 points would write about .* of journal, more than the .* free/);
+    // A plan beyond the station's limits is the guard's refusal (exit 7, as documented), with the
+    // one JSON object a script expects.
+    const high = writeConfig(dir, {
+      instrument: inst,
+      limits: { maxVoltage: 20, maxCompliance: 0.01, maxPower: 0.1 },
+      plan: { start: 0, stop: 25, points: 11, compliance: 1e-3 },
+    });
+    const r3 = await runCliAsync(['run', '--config', high, '--data', join(dir, 'data'), '--json']);
+    expect(r3.code).toBe(7);
+    expect(JSON.parse(r3.stdout)).toMatchObject({
+      outcome: 'guard-refused',
+      reason: expect.stringMatching(/refused by the safety guard: plan stop = 25 V exceeds the station limit maxVoltage = 20 V/),
+    });
     expect(smu.log).toEqual([]);
   });
 });

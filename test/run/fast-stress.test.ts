@@ -13,11 +13,11 @@ import { Station } from '../../daemon/run/station.js';
 import type { WireEvent } from '../../protocols/wire.js';
 import { tempDir } from '../helpers/daemon.js';
 
-async function runTest(plan: Record<string, unknown>) {
+async function runTest(plan: Record<string, unknown>, scenario = 'oxide-wearout') {
   const st = new Station(
     parseConfig(
       {
-        instrument: { kind: 'simulator', scenario: 'oxide-wearout', realTime: false, seed: 3 },
+        instrument: { kind: 'simulator', scenario, realTime: false, seed: 3 },
         limits: { maxVoltage: 20, maxCompliance: 0.02, maxPower: 0.5, rampStep: 10 },
       },
       'test',
@@ -74,5 +74,23 @@ describe('breakdown tests on a fast simulator', () => {
     const t = result.result.timeToBreakdown as number;
     expect(t).toBeGreaterThanOrEqual(truth.time - 1e-6);
     expect(t - truth.time).toBeLessThanOrEqual(0.5 + 0.05);
+  });
+
+  it('a healthy film whose tunnelling current reaches the compliance with the bias held has not broken down: the ramp ends there, survived', async () => {
+    // oxide-fn has no breakdown in its physics: its Fowler–Nordheim current simply grows until the
+    // source limits it. Compliance with the bias held is not a breakdown criterion (JEDEC JESD35-A
+    // counts compliance only with the bias collapsing).
+    const { r, events, sim, result } = await runTest({ kind: 'voltage-ramp', start: 0, stop: 16, step: 0.1, stepTime: 0.05, compliance: 1e-3 }, 'oxide-fn');
+    expect(r.outcome).toBe('completed');
+    if (result?.type !== 'test-result') throw new Error('no test result');
+    expect(result.outcome).toBe('survived');
+    expect(result.result.criterion).toBe('compliance-held');
+    expect(result.reason).toMatch(/no breakdown seen: the current reached the .* A compliance at [\d.]+ V with the bias held/);
+    expect(events.some((e) => e.type === 'caution' && e.kind === 'breakdown-confirmed')).toBe(false);
+    // The ramp went no higher than the level that reached compliance, and the output is off.
+    const levels = sim.log.filter((l) => l.startsWith(':SOUR:VOLT ')).map((l) => Number(l.split(' ')[1]));
+    expect(Math.max(...levels)).toBeCloseTo(result.result.breakdownVoltage as number, 9);
+    expect(Math.max(...levels)).toBeLessThan(16);
+    expect(sim.output).toBe(false);
   });
 });

@@ -39,7 +39,7 @@ export function registerRun(program: Command): void {
       .option('--override-disk-check', 'run a plan whose journal would not fit in the free disk space (refused otherwise)')
       .addHelpText(
         'after',
-        '\nA plan file may also carry the device under test: {"kind": …, "device": {"wafer": "W07", "site": "C4", "x": 3, "y": -2, "area": 1e-8}} (SI); the options above override its fields.\nExit codes: 0 completed or stopped, 2 bad input, 3 aborted by the user, 4 aborted by drift, 5 aborted by breakdown, 6 instrument fault (no usable reading, replies out of step, no answer), 7 refused by the safety guard, 9 the journal could not be written (disk full), 10 internal error.',
+        '\nA plan file may also carry the device under test: {"kind": …, "device": {"wafer": "W07", "site": "C4", "x": 3, "y": -2, "area": 1e-8}} (SI); the options above override its fields.\nExit codes: 0 completed or stopped, 2 bad input, 3 aborted by the user, 4 aborted by drift, 5 aborted by breakdown, 6 instrument fault (no usable reading, replies out of step, no answer), 7 refused by the safety guard (a plan beyond the station limits too), 8 interrupted (a signal), 9 the journal could not be written (disk full), 10 internal error.',
       ),
   ).action(
     async (
@@ -107,6 +107,14 @@ export function registerRun(program: Command): void {
         if ((e as { status?: number }).status === 502) {
           process.stderr.write(`plumbline run: ${(e as Error).message}\n`);
           process.exit(EXIT_CODE['instrument-fault']);
+        }
+        // A plan beyond the station's limits is refused by the guard before anything is sent.
+        const { GuardError } = await import('../../run/guard.js');
+        if (e instanceof GuardError) {
+          const reason = `refused by the safety guard: ${e.message}`;
+          if (o.json) process.stdout.write(`${JSON.stringify({ outcome: 'guard-refused', reason, cautions })}\n`);
+          process.stderr.write(`plumbline run: ${reason}\n`);
+          process.exit(EXIT_CODE['guard-refused']);
         }
         throw e;
       }
