@@ -826,19 +826,14 @@ export function fitBranch(
  */
 function superOhmicTest(mech: Mechanism, inputs: ResolvedInputs, p: Points): Admissible | undefined {
   if (!mech.superOhmic || mech.yKind !== 'log') return undefined;
-  const n = p.x.length;
-  const off = new Float64Array(n);
-  const lnV = new Float64Array(n);
-  for (let k = 0; k < n; k++) {
-    off[k] = mech.lnOffset ? mech.lnOffset(p.v[k], inputs) : 0;
-    lnV[k] = Math.log(p.v[k]);
-  }
+  // Only the run's two ends enter: computed there, not for every point of a long curve.
+  const off = (k: number) => (mech.lnOffset ? mech.lnOffset(p.v[k], inputs) : 0);
   const slope = (s: number, e: number, b: number) => {
     // Ends of the run in bias (x is monotone in bias, so they are the run's ends).
     const lo = p.v[s] < p.v[e] ? s : e;
     const hi = lo === s ? e : s;
-    const dl = lnV[hi] - lnV[lo];
-    return dl > 0 ? (b * (p.x[hi] - p.x[lo]) + off[hi] - off[lo]) / dl : Infinity;
+    const dl = Math.log(p.v[hi]) - Math.log(p.v[lo]);
+    return dl > 0 ? (b * (p.x[hi] - p.x[lo]) + off(hi) - off(lo)) / dl : Infinity;
   };
   return {
     ok: (s, e, _a, b) => slope(s, e, b) >= 1.2,
