@@ -91,7 +91,16 @@ export function readJson(file: string, what: string): unknown {
   try {
     return JSON.parse(text);
   } catch (e) {
-    throw new UsageError(`${what} ${file}: not valid JSON: ${(e as Error).message}`);
+    // Say where, as a person counts: line and column (JSON.parse gives a character position).
+    const msg = (e as Error).message;
+    const pos = /at position (\d+)/.exec(msg);
+    let where = '';
+    if (pos) {
+      const before = text.slice(0, Number(pos[1]));
+      const line = before.split('\n').length;
+      where = `line ${line}, column ${Number(pos[1]) - before.lastIndexOf('\n')}: `;
+    }
+    throw new UsageError(`${what} ${file}, ${where}not valid JSON: ${msg}`);
   }
 }
 

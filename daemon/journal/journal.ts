@@ -125,7 +125,8 @@ export class JournalWriter {
    * Sequence numbers continue from `lastSeq`; t continues from the session's last time.
    */
   static append(dir: string, lastSeq: number, lastT: number): JournalWriter {
-    if (!existsSync(join(dir, JOURNAL_FILE))) throw new JournalError(`${dir}: no ${JOURNAL_FILE} here; is this a session folder?`);
+    if (!existsSync(join(dir, JOURNAL_FILE)))
+      throw new JournalError(existsSync(dir) ? `${dir}: no ${JOURNAL_FILE} here; is this a session folder?` : `${dir}: no such folder`);
     return new JournalWriter(dir, lastSeq, performance.now() - lastT, false);
   }
 

@@ -82,7 +82,7 @@ function scanReadings(dir: string, on: (r: ReadingEvent) => void): { count: numb
  */
 export function scanJournal(dir: string, onEvent: (e: WireEvent, line: number) => void, opts: { readings?: boolean } = {}): ScanResult {
   const file = join(dir, JOURNAL_FILE);
-  if (!existsSync(file)) throw new JournalError(`${dir}: no ${JOURNAL_FILE} here; is this a session folder?`);
+  if (!existsSync(file)) throw new JournalError(existsSync(dir) ? `${dir}: no ${JOURNAL_FILE} here; is this a session folder?` : `${dir}: no such folder`);
   // Events are few (a handful per sweep); they are read first and interleaved with the readings.
   const events: { e: WireEvent; line: number }[] = [];
   const fd = openSync(file, 'r');

@@ -237,7 +237,13 @@ export class StressTest {
       // programs the voltage; at breakdown the measured one collapses); for a current ramp the
       // highest voltage the device held before the collapse.
       const vbd = p.kind === 'current-ramp' ? Math.max(...series.v.slice(0, Math.max(1, k)).map(Math.abs)) : Math.abs(series.set[k]);
-      return this.finish('breakdown', verdict.criterion, `breakdown (${verdict.criterion}): ${verdict.reason}`, {
+      // Broken at the first reading: the breakdown lies somewhere before it, so the time and charge
+      // to breakdown are only upper bounds.
+      const first =
+        k === 0
+          ? ` — at the first reading, so t_bd and Q_bd are upper bounds (${(hold[0] ?? 0) > 0 ? `the device broke within the first ${g(hold[0])} s` : 'the device broke as the bias was brought to the stress level'})`
+          : '';
+      return this.finish('breakdown', verdict.criterion, `breakdown (${verdict.criterion}): ${verdict.reason}${first}`, {
         ...this.achievedRate(series),
         voltage: vbd,
         field: thickness ? vbd / thickness : undefined,

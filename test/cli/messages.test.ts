@@ -1,6 +1,6 @@
 /**
  * Messages a newcomer meets: a temperature typed as "25 C" (which reads as 25 coulomb) says how to
- * write degrees Celsius.
+ * write degrees Celsius; a broken plan file says where; a missing folder is called missing.
  */
 import { describe, expect, it } from 'vitest';
 import { runCli, tempFile } from '../helpers/cli.js';
@@ -17,4 +17,14 @@ describe('messages', () => {
       expect(r.stderr).toMatch(/--temperature .*for degrees Celsius write "25 degC"/);
     });
   }
+
+  it('a plan file that is not valid JSON names its line and column; a folder that does not exist is said to be missing', () => {
+    const plan = tempFile('bad-plan.json', '{ "kind": "linear",\n  "start": 0, stop: 1 }\n');
+    const r = runCli(['run', '--scenario', 'oxide-fn', '--fast', '--plan', plan]);
+    expect(r.code).toBe(2);
+    expect(r.stderr).toMatch(/bad-plan\.json, line 2, column 15: not valid JSON/);
+    const rep = runCli(['report', '/no/such/session']);
+    expect(rep.code).toBe(2);
+    expect(rep.stderr).toMatch(/\/no\/such\/session: no such folder/);
+  });
 });

@@ -93,4 +93,12 @@ describe('breakdown tests on a fast simulator', () => {
     expect(Math.max(...levels)).toBeLessThan(16);
     expect(sim.output).toBe(false);
   });
+
+  it('a stress the device does not survive to its first reading reports t_bd and Q_bd as upper bounds', async () => {
+    // 12 V on the 7 nm film (17 MV/cm) breaks it at once.
+    const { result } = await runTest({ kind: 'constant-voltage', stress: 12, duration: 100, sampleEvery: 1, compliance: 0.01 });
+    if (result?.type !== 'test-result') throw new Error('no test result');
+    expect(result.outcome).toBe('breakdown');
+    expect(result.reason).toMatch(/at the first reading, so t_bd and Q_bd are upper bounds/);
+  });
 });
