@@ -153,6 +153,8 @@ export type WireEvent =
       readonly sweep: number;
       readonly parameter: string;
       readonly value: number | null;
+      /** The parameter's SI unit (as its fit gives it); the statistic and limits are in it too. */
+      readonly unit?: string;
       readonly method: 'ewma' | 'cusum';
       readonly phase: 'baseline' | 'monitor';
       /** EWMA z, or the larger CUSUM sum (in the parameter's units). */

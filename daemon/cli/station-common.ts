@@ -155,11 +155,7 @@ export function guardProcess(station: Station, onExit: () => Promise<void> | voi
   return () => exiting;
 }
 
-/** The unit of each fitted parameter as the fits of this process's run gave it (drift lines carry none). */
-const parameterUnits = new Map<string, string>();
-
 export function describe(e: WireEvent): string | undefined {
-  if (e.type === 'fit' && e.fit) for (const [k, v] of Object.entries(e.fit.parameters)) parameterUnits.set(k, v.unit);
   switch (e.type) {
     case 'caution':
       return `CAUTION [${e.kind}] ${e.message}`;
@@ -180,7 +176,7 @@ export function describe(e: WireEvent): string | undefined {
         ? undefined
         : (() => {
             // In the parameter's display unit, as the fit line above it (mobility in cm²/(V·s), not m²/(V·s)).
-            const u = parameterUnits.get(e.parameter) ?? '';
+            const u = e.unit ?? '';
             const q = (x: number | null) => formatQuantity(x ?? Number.NaN, u, e.parameter, 5);
             return `         drift of ${e.parameter}: ${e.state} (${e.method} ${q(e.statistic)}, limits ${q(e.lower)} … ${q(e.upper)})`;
           })();

@@ -426,7 +426,7 @@ export class LiveChain {
     this.driftParameter = name;
     const p = fit?.parameters[name];
     const point = this.drift.add(p?.value, p?.stdErr);
-    this.emit({ type: 'drift', sweep: this.sweep, parameter: name, value: p?.value ?? null, method: cfg.method, ...point });
+    this.emit({ type: 'drift', sweep: this.sweep, parameter: name, value: p?.value ?? null, ...(p ? { unit: p.unit } : {}), method: cfg.method, ...point });
     const numbers: Record<string, number> = {};
     for (const [k, x] of Object.entries({
       value: p?.value,

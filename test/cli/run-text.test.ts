@@ -46,7 +46,6 @@ suite('run: a sweep fit line', () => {
   });
 
   it('a drift line is in the unit of the fit line above it (mobility in cm²/(V·s); 1 m² = 1e4 cm²)', () => {
-    describe(fitEvent({ model: 'sclc', parameters: { mobility: { value: 1e-8, stdErr: 1e-11, unit: 'm^2/(V*s)' } } }));
     const text = describe({
       type: 'drift',
       seq: 2,
@@ -54,6 +53,7 @@ suite('run: a sweep fit line', () => {
       sweep: 6,
       parameter: 'mobility',
       value: 1e-8,
+      unit: 'm^2/(V*s)',
       method: 'ewma',
       phase: 'monitor',
       statistic: 1.0001e-8,
