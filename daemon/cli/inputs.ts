@@ -113,8 +113,16 @@ export function readCompliance(o: AnalysisOptions): number | undefined {
 }
 
 /** Scale to SI of the bias and current units a header may carry (common instrument-file units). */
-const VOLTAGE_UNITS: Readonly<Record<string, number>> = { V: 1, mV: 1e-3, uV: 1e-6, µV: 1e-6, kV: 1e3 };
-const CURRENT_UNITS: Readonly<Record<string, number>> = { A: 1, mA: 1e-3, uA: 1e-6, µA: 1e-6, nA: 1e-9, pA: 1e-12, fA: 1e-15 };
+const PREFIXED = /^[fpnuµmk]?[AV]$/;
+
+/**
+ * The scale of a bias (V) or current (A) unit with an SI prefix, by the project's quantity reader;
+ * undefined for any other unit. 'µ' is read as 'u'.
+ */
+function unitScale(unit: string, kind: 'voltage' | 'current'): number | undefined {
+  if (!PREFIXED.test(unit) || !unit.endsWith(kind === 'voltage' ? 'V' : 'A')) return undefined;
+  return parseQuantity(`1 ${unit.replace('µ', 'u')}`, kind, unit);
+}
 
 /** A header's name and unit: "Current (mA)", "I [mA]" and "I_mA" give name and unit; "current" gives the name alone. */
 export function headerUnit(header: string): { name: string; unit?: string } {
@@ -122,7 +130,7 @@ export function headerUnit(header: string): { name: string; unit?: string } {
   const br = /^(.*?)\s*[([]\s*([^()[\]]+?)\s*[)\]]$/.exec(h);
   if (br) return { name: br[1], unit: br[2] };
   const us = /^(.*?)_([A-Za-zµ]+)$/.exec(h);
-  if (us && (VOLTAGE_UNITS[us[2]] !== undefined || CURRENT_UNITS[us[2]] !== undefined)) return { name: us[1], unit: us[2] };
+  if (us && PREFIXED.test(us[2])) return { name: us[1], unit: us[2] };
   return { name: h };
 }
 
@@ -194,12 +202,11 @@ export function loadData(file: string, o: AnalysisOptions): { table: CsvTable; d
     const h = table.headers[k];
     const { unit } = headerUnit(h);
     if (unit === undefined) return pick(table.columns[k]);
-    const own = role === 'bias' ? VOLTAGE_UNITS : CURRENT_UNITS;
-    const other = role === 'bias' ? CURRENT_UNITS : VOLTAGE_UNITS;
-    if (own[unit] === undefined && other[unit] !== undefined) {
+    const kind = role === 'bias' ? 'voltage' : 'current';
+    const f = unitScale(unit, kind);
+    if (f === undefined && unitScale(unit, kind === 'voltage' ? 'current' : 'voltage') !== undefined) {
       throw new CsvError(file, undefined, h, `the ${role} column is in ${unit}: are x and y swapped? name them with --x (bias) and --y (current)`);
     }
-    const f = own[unit];
     if (f === undefined || f === 1) return pick(table.columns[k]);
     notes.push(`column '${h}' read in ${unit} and converted to ${role === 'bias' ? 'V' : 'A'}`);
     return Float64Array.from(pick(table.columns[k]), (v) => v * f);
