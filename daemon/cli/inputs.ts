@@ -158,7 +158,9 @@ export function loadData(file: string, o: AnalysisOptions): { table: CsvTable; d
     [yi, o.y === undefined ? '--y' : ''],
   ] as const) {
     const t = table.firstText[k];
-    if (t && option)
+    // A column chosen by default whose first value is text is the wrong column: say which there are.
+    // A bad cell further down is just a bad cell (requireNumeric below names it).
+    if (t && option && t.line === table.lines[0])
       throw new CsvError(
         file,
         t.line,

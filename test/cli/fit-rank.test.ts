@@ -124,6 +124,10 @@ describe('text columns that are not used', () => {
     const bad = runCli(['fit', g, '--model', 'ohmic']);
     expect(bad.code).toBe(2);
     expect(bad.stderr).toMatch(/line 2, column 'run': 'A' is not a number: name the columns to use with --x and --y \(columns: run, volts, amps\)/);
+    // A bad cell further down a rightly chosen column is named as such, without the column hint.
+    const cell = runCli(['fit', tempFile('cell.csv', 'Voltage (V),Current (mA)\n0.5,0.5\n1,1\n2,abc\n'), '--model', 'ohmic']);
+    expect(cell.code).toBe(2);
+    expect(cell.stderr).toMatch(/line 4, column 'Current \(mA\)': 'abc' is not a number$/m);
     const picked = runCli(['fit', g, '--x', 'run', '--y', 'amps', '--model', 'ohmic']);
     expect(picked.stderr).toMatch(/line 2, column 'run': 'A' is not a number$/m);
   });
