@@ -5,6 +5,7 @@
  * single-diode fit and — seeded from it — the double-diode fit; Cheung–Cheung on its own; solar
  * figures of merit. All currents in A, voltages in V, resistances in Ω, temperatures in K.
  */
+import { invertSmall } from './small-matrix.js';
 import { REASONS, describeReasons, type IVData } from './analyze.js';
 import { MIN_RELATIVE, relativeFromScatter, runningMedian } from './noise-floor.js';
 import { classifySweep } from './sweep-points.js';
@@ -736,26 +737,6 @@ function dpoly(c: number[], u: number): number {
   let s = 0;
   for (let j = c.length - 1; j >= 1; j--) s = s * u + j * c[j];
   return s;
-}
-
-/** Inverse of a small matrix (Gauss–Jordan); undefined when singular. */
-function invertSmall(a: number[][]): number[][] | undefined {
-  const n = a.length;
-  const m = a.map((r, k) => [...r, ...Array.from({ length: n }, (_x, j) => (j === k ? 1 : 0))]);
-  for (let col = 0; col < n; col++) {
-    let piv = col;
-    for (let r = col + 1; r < n; r++) if (Math.abs(m[r][col]) > Math.abs(m[piv][col])) piv = r;
-    if (!(Math.abs(m[piv][col]) > 0)) return undefined;
-    [m[col], m[piv]] = [m[piv], m[col]];
-    const p = m[col][col];
-    for (let j = 0; j < 2 * n; j++) m[col][j] /= p;
-    for (let r = 0; r < n; r++) {
-      if (r === col) continue;
-      const f = m[r][col];
-      for (let j = 0; j < 2 * n; j++) m[r][j] -= f * m[col][j];
-    }
-  }
-  return m.map((r) => r.slice(n));
 }
 
 /** gᵀ C g. */

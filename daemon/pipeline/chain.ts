@@ -154,6 +154,18 @@ export class LiveChain {
     return this.analysis;
   }
 
+  /**
+   * The fit's x axis as a function of the bias (the mechanism's own, of |V − flat band|) and whether
+   * its fits hold a leakage term: what an adaptive sweep needs to place its readings. Undefined for
+   * models that are not a mechanism of the current on a log axis.
+   */
+  fitAxis(): { axis: (v: number) => number; leakage: boolean } | undefined {
+    const mech = this.mech;
+    if (!(mech.current && mech.yKind === 'log' && mech.bias === 'magnitude')) return undefined;
+    const inputs = this.inputs;
+    return { axis: (v) => mech.x(Math.abs(v - inputs.flatBand), inputs), leakage: !!mech.leakage };
+  }
+
   /** Journal, then broadcast. */
   emit(e: NewEvent): WireEvent {
     const full = this.options.journal.event(e);

@@ -40,7 +40,14 @@ export async function runAdaptive(ctx: RunContext, plan: AdaptivePlan, figures: 
   for (let s = 1; s <= plan.repeat; s++) {
     ctx.check();
     const planner = new AdaptiveSweep(
-      { start: plan.start, stop: plan.stop, maxPoints: plan.maxPoints, currentLimit: plan.currentLimit ?? 0.5 * plan.compliance, absoluteFloor: 1e-13 },
+      {
+        start: plan.start,
+        stop: plan.stop,
+        maxPoints: plan.maxPoints,
+        currentLimit: plan.currentLimit ?? 0.5 * plan.compliance,
+        absoluteFloor: 1e-13,
+        ...ctx.chain.fitAxis(),
+      },
       prior,
     );
     let v = planner.first();

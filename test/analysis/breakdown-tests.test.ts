@@ -144,7 +144,8 @@ describe('adaptive sweep plan', () => {
     expect(p.inRegime).toBe(true);
     expect('next' in r && r.next).toBeCloseTo(2.2, 12);
     expect(p.add(2.2, 2e-3, false)).toEqual({ stop: 'current-limit' });
-    expect(p.knowledge()).toEqual({ onset: 2, floor: 2e-13, quietFloor: 1e-13 });
+    // The floor's σ for the fill's weights: the RMS of the two readings before the onset.
+    expect(p.knowledge()).toEqual({ onset: 2, floor: 2e-13, floorSigma: Math.sqrt((1e-26 + 4e-26) / 2) });
     // The next sweep starts a fine step below the onset, in fine steps.
     const q = new AdaptiveSweep({ start: 0, stop: 12, maxPoints: 100, currentLimit: 1e-3 }, p.knowledge());
     expect(q.first()).toBeCloseTo(1.8, 12);
@@ -177,11 +178,13 @@ describe('adaptive sweep plan', () => {
     }
   });
 
-  it('once the top is reached short of the target, readings alternate between the two ends of the regime, inside them', () => {
+  it('once the top is reached short of the target, the fill keeps to two levels inside the regime: the top and one far below it', () => {
     // The same Fowler–Nordheim film (Fowler & Nordheim 1928; Lenzlinger & Snow 1969) over 0–9 V with
-    // a limit it never reaches: the up-leg ends at 9 V, then the fill takes the ends in turn.
+    // a limit it never reaches: the up-leg ends at 9 V, then the fill. Its axis is 1/V (the
+    // Fowler–Nordheim plot's); a c-optimal design for the slope of a two-parameter line has two
+    // support points (Elfving 1952, Ann. Math. Statist. 23, 255).
     const current = (V: number) => (V <= 0 ? 0 : 1e-8 * fowlerNordheim(V / 7e-9, 3.1, 0.42)) + 1e-13;
-    const p = new AdaptiveSweep({ start: 0, stop: 9, maxPoints: 200, currentLimit: 5e-4, absoluteFloor: 1e-13 });
+    const p = new AdaptiveSweep({ start: 0, stop: 9, maxPoints: 200, currentLimit: 5e-4, absoluteFloor: 1e-13, axis: (v) => 1 / v });
     const levels: number[] = [];
     let v = p.first();
     let r: ReturnType<AdaptiveSweep['add']> = { next: v };
@@ -199,13 +202,18 @@ describe('adaptive sweep plan', () => {
     const fill = levels.slice(top + 1);
     expect(fill.length).toBeGreaterThanOrEqual(8);
     const mid = 0.5 * (onset + 9);
-    fill.forEach((x, k) => {
-      // Even readings at the low end, odd ones at the top; all within the regime already read.
-      expect(k % 2 === 0 ? x < mid : x > mid, `fill reading ${k} at ${x} V`).toBe(true);
-      expect(x).toBeGreaterThan(onset);
+    const high = fill.filter((x) => x > mid);
+    const low = fill.filter((x) => x <= mid);
+    // Both levels used about equally, each spread over no more than one fine step.
+    expect(high.length / fill.length).toBeGreaterThan(0.35);
+    expect(low.length / fill.length).toBeGreaterThan(0.35);
+    expect(Math.max(...high) - Math.min(...high)).toBeLessThanOrEqual(p.fine);
+    expect(Math.max(...low) - Math.min(...low)).toBeLessThanOrEqual(p.fine);
+    for (const x of fill) {
+      expect(x, 'inside the regime already read').toBeGreaterThanOrEqual(onset);
       expect(x).toBeLessThan(9);
-    });
-    // Each end's levels are distinct (the noise estimate from neighbours needs distinct biases).
+    }
+    // The levels are distinct (the noise estimate from neighbours needs distinct biases).
     expect(new Set(fill).size).toBe(fill.length);
   });
 

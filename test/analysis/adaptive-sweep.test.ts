@@ -1,0 +1,131 @@
+/**
+ * Where an adaptive sweep puts its readings (daemon/analysis/adaptive-sweep.ts), on devices whose
+ * current is known exactly, so every decision can be checked by hand:
+ *  - the fall in the slope's variance one more reading brings, by the rank-one update, against the
+ *    slope's variance computed directly from the inverted information matrix by mathjs (a
+ *    general-purpose reference library);
+ *  - for a plain line the greedy c-optimal fill settles on two levels, the top and one far below it
+ *    (a c-optimal design for one coefficient of a two-parameter model has two support points:
+ *    Elfving 1952, Ann. Math. Statist. 23, 255; for equal noise they are the two ends — Box, Hunter
+ *    & Hunter 2005, Statistics for Experimenters: var(b) = σ²/Σ(x − x̄)²);
+ *  - with a leakage term beside the line the lower level moves up (the lowest currents then pin
+ *    the leakage rather than the slope);
+ *  - a later sweep starts at the earlier low end and never goes above the earlier top.
+ */
+import { inv } from 'mathjs';
+import { describe, expect, it } from 'vitest';
+import { AdaptiveSweep, Information, type AdaptiveSettings } from '../../daemon/analysis/adaptive-sweep.js';
+
+/** var(b) = (M⁻¹)₁₁ by mathjs for rows f with weights w. */
+function slopeVariance(rows: { f: number[]; w: number }[]): number {
+  const p = rows[0].f.length;
+  const m = Array.from({ length: p }, () => new Array(p).fill(0));
+  for (const r of rows) for (let a = 0; a < p; a++) for (let b = 0; b < p; b++) m[a][b] += r.w * r.f[a] * r.f[b];
+  return (inv(m) as number[][])[1][1];
+}
+
+/** Drives a planner over a device: returns every level it read, in order. */
+function drive(planner: AdaptiveSweep, current: (v: number) => number, stopAfter = 200): number[] {
+  const levels: number[] = [];
+  let v = planner.first();
+  for (let k = 0; k < stopAfter; k++) {
+    levels.push(v);
+    const step = planner.add(v, current(v), false);
+    if ('stop' in step) break;
+    v = step.next;
+  }
+  return levels;
+}
+
+describe('the information an adaptive sweep weighs its next reading by', () => {
+  it('the rank-one fall in var(b) equals the difference of the directly inverted matrices (mathjs)', () => {
+    // Rows of a line with a leakage column over a made-up spread of levels (scale differences of a
+    // real field axis and V/I included: x in V/m, V/I in Ω).
+    const rows = [5, 5.5, 6, 7, 8, 9].map((v) => ({
+      f: [1, v * 1e8, v / (1e-12 * Math.exp(2.5 * v))],
+      w: 1 / (1e-3 + 1e-13 / (1e-12 * Math.exp(2.5 * v))) ** 2,
+    }));
+    const info = new Information(true);
+    for (const r of rows) info.add(r);
+    const before = slopeVariance(rows);
+    for (const extra of [
+      { f: [1, 5.2e8, 5.2 / (1e-12 * Math.exp(13))], w: 2e5 },
+      { f: [1, 8.8e8, 8.8 / (1e-12 * Math.exp(22))], w: 1e6 },
+    ]) {
+      const after = slopeVariance([...rows, extra]);
+      expect(after).toBeLessThan(before);
+      // The information object scales its columns by the first row's magnitudes, so its slope is
+      // b·x₀ and its variance var(b)·x₀².
+      const x0 = rows[0].f[1];
+      const fall = info.slopeGain(extra) / (x0 * x0);
+      expect(Math.abs(fall - (before - after)) / (before - after)).toBeLessThan(1e-6);
+    }
+    // A singular matrix (one row) gives no gain rather than a wrong one.
+    const single = new Information(false);
+    single.add({ f: [1, 2], w: 1 });
+    expect(single.slopeGain({ f: [1, 3], w: 1 })).toBe(0);
+  });
+});
+
+describe('where the fill puts its readings', () => {
+  // ln I = −30 + 2.5·V (A): off a 1e-13 A floor near 1 V, 0.5 mA limit near 9 V; the range ends at 8 V.
+  const current = (v: number) => (v <= 0 ? 1e-14 : Math.exp(-30 + 2.5 * v));
+  const base: AdaptiveSettings = { start: 0, stop: 8, maxPoints: 200, currentLimit: 5e-4, absoluteFloor: 1e-13 };
+
+  /** The fill's readings (after the top, 8 V, is first reached) and the levels they cluster around. */
+  function fillOf(leakage: boolean): { fill: number[]; clusters: number[]; fine: number } {
+    const p = new AdaptiveSweep({ ...base, leakage });
+    const levels = drive(p, current);
+    expect(p.stopReason).toBe('bias-limit');
+    const fill = levels.slice(levels.indexOf(8) + 1);
+    const clusters: number[] = [];
+    for (const v of fill) if (!clusters.some((c) => Math.abs(c - v) <= p.fine + 1e-9)) clusters.push(v);
+    return { fill, clusters: clusters.sort((x, y) => x - y), fine: p.fine };
+  }
+
+  it('a plain line: the fill keeps to two levels, the top and one below it (Elfving: a c-optimal design for one coefficient of a two-parameter line needs two support points)', () => {
+    const { fill, clusters, fine } = fillOf(false);
+    expect(fill.length).toBeGreaterThan(20);
+    expect(clusters.length).toBe(2);
+    expect(Math.abs(clusters[1] - 8)).toBeLessThanOrEqual(fine);
+    // Far below the top, but not down where the 1e-13 A floor swamps the reading (I = 1.5e-11 A at 2 V).
+    expect(clusters[0]).toBeLessThan(5);
+    expect(current(clusters[0])).toBeGreaterThan(100 * 1e-13);
+    // Both used, about equally; no level above the range; the levels are distinct.
+    const atTop = fill.filter((v) => Math.abs(v - 8) <= fine + 1e-9).length;
+    expect(atTop / fill.length).toBeGreaterThan(0.35);
+    expect(atTop / fill.length).toBeLessThan(0.65);
+    expect(Math.max(...fill)).toBeLessThanOrEqual(8);
+    expect(new Set(fill.map((v) => v.toFixed(9))).size).toBeGreaterThan(fill.length * 0.8);
+  });
+
+  it('with a leakage term beside the line the lower fill level moves up: the lowest currents go to pin the leakage, not the slope', () => {
+    const plain = fillOf(false);
+    const leaky = fillOf(true);
+    // The bulk of the leaky fill's lower readings sit above the plain fill's lower level.
+    const lower = (f: { fill: number[] }) => f.fill.filter((v) => v < 7).sort((x, y) => x - y);
+    const mid = (xs: number[]) => xs[xs.length >> 1];
+    expect(mid(lower(leaky))).toBeGreaterThan(mid(lower(plain)) + 0.5);
+  });
+
+  it('a later sweep starts at the earlier low end and never goes above the earlier top', () => {
+    // A 10 µA limit: the first sweep's top is the current limit (near 4.0 V), below the range's end.
+    const settings = { ...base, currentLimit: 1e-5, leakage: true };
+    const first = new AdaptiveSweep(settings);
+    const l1 = drive(first, current);
+    expect(first.stopReason).toBe('current-limit');
+    const known = first.knowledge();
+    expect(known?.top).toBeDefined();
+    expect(known?.low).toBeDefined();
+    const top = known?.top as number;
+    expect(current(top)).toBeLessThan(1e-5);
+    const later = new AdaptiveSweep(settings, known);
+    expect(later.first()).toBe(known?.low);
+    const l2 = drive(later, current);
+    expect(Math.max(...l2)).toBeLessThanOrEqual(top + 1e-12);
+    // Straight to the regime: far fewer readings before the fill than the first sweep's climb.
+    const climb = (ls: number[]) => ls.findIndex((v) => Math.abs(v - top) < 1e-12);
+    expect(climb(l2)).toBeGreaterThan(0);
+    expect(climb(l2)).toBeLessThan(climb(l1));
+  });
+});
