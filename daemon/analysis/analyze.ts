@@ -158,6 +158,30 @@ export function resolveInputs(mech: Mechanism, inputs: Inputs = {}): ResolvedInp
   };
 }
 
+/**
+ * Where the inputs of a thin-film or junction I–V sample lie (our bounds, common practice: films
+ * from a monolayer to a thick slab, pads from a nanowire contact to a whole wafer, cryostat to
+ * furnace), with how to write each in its trade's unit. Inputs are SI: a value far outside its
+ * range is most often a unit left off ("7" for 7 nm is 7 m).
+ */
+const INPUT_RANGE: Partial<Record<InputName, { lo: number; hi: number; what: string; si: string; show: (v: number) => string; example: string }>> = {
+  thickness: { lo: 1e-10, hi: 1e-3, what: '0.1 nm – 1 mm', si: 'metres', show: (v) => `${fmt(v)} m`, example: '"8 nm"' },
+  area: { lo: 1e-14, hi: 1e-2, what: '0.01 µm² – 100 cm²', si: 'm²', show: (v) => `${fmt(v)} m²`, example: '"1e-4 cm^2"' },
+  temperature: { lo: 1, hi: 1500, what: '1 K – 1500 K', si: 'kelvin', show: (v) => `${fmt(v)} K`, example: '"300 K" or "25 degC"' },
+};
+
+/** Warnings for inputs the model uses that lie far outside where such samples are (see INPUT_RANGE). */
+export function oddInputs(inputs: Inputs, used: readonly InputName[]): string[] {
+  const out: string[] = [];
+  for (const k of new Set(used)) {
+    const r = INPUT_RANGE[k];
+    const v = inputs[k];
+    if (!r || v === undefined || (v >= r.lo && v <= r.hi)) continue;
+    out.push(`${k} ${r.show(v)} is outside ${r.what}, where such samples lie: inputs are in SI (${r.si}): check its unit (e.g. ${r.example})`);
+  }
+  return out;
+}
+
 function describeInput(k: InputName): string {
   const d: Record<InputName, string> = {
     thickness: 'film thickness (--thickness, e.g. "8 nm")',
@@ -333,7 +357,9 @@ export function analyzeDetailed(data: IVData, request: FitRequest): DetailedFit 
     plausible: fit.plausible,
     warnings: fit.warnings,
   }));
+  const odd = oddInputs(inputs, [...mech.requires, ...mech.uses]);
   const warnings = [
+    ...odd,
     ...inputs.assumed.map((k) => ASSUMED_TEXT[k]).filter((s): s is string => !!s),
     ...classes.notes.filter((n) => /too large to be noise/.test(n)),
     ...primary.warnings,
@@ -386,7 +412,7 @@ export function analyzeDetailed(data: IVData, request: FitRequest): DetailedFit 
     parameters: primary.parameters,
     warnings,
     notes,
-    plausible: primary.plausible,
+    plausible: primary.plausible && odd.length === 0,
     inputs: reportedInputs,
     regimes: request.regimes === false ? [] : findRegimes(primary.all),
     noise: {

@@ -65,11 +65,30 @@ export function withAnalysisOptions(cmd: Command): Command {
     .option('--json', 'print exactly one JSON object');
 }
 
+/** A value written without a unit. */
+const BARE = /^\s*[-+]?(\d+\.?\d*|\.\d+)(e[-+]?\d+)?\s*$/i;
+
+/**
+ * A bare number is read in SI, so "--thickness 7" is 7 m: refused, with the unit it most likely
+ * meant, when the value is far beyond any film or pad (the bounds of the fit's own input check).
+ */
+function bareCheck(text: string | undefined, value: number | undefined, name: string, max: number, unit: string, guess: string): void {
+  if (text === undefined || value === undefined || !BARE.test(text) || value <= max) return;
+  throw new QuantityError(
+    name,
+    `${name} '${text.trim()}': a bare number is read in ${unit} (${text.trim()} ${unit === 'metres' ? 'm' : 'm^2'}), far beyond any sample measured this way; did you mean "${text.trim()} ${guess}"? Write the unit, e.g. ${name} "${text.trim()} ${guess}"`,
+  );
+}
+
 export function readInputs(o: AnalysisOptions): Inputs {
   const q = (v: string | undefined, kind: Parameters<typeof parseQuantity>[1], name: string) => (v === undefined ? undefined : parseQuantity(v, kind, name));
+  const thickness = q(o.thickness, 'length', '--thickness');
+  const area = q(o.area, 'area', '--area');
+  bareCheck(o.thickness, thickness, '--thickness', 1e-3, 'metres', 'nm');
+  bareCheck(o.area, area, '--area', 1e-2, 'square metres', 'um^2');
   return {
-    thickness: q(o.thickness, 'length', '--thickness'),
-    area: q(o.area, 'area', '--area'),
+    thickness,
+    area,
     temperature: q(o.temperature, 'temperature', '--temperature'),
     massRatio: q(o.massRatio, 'number', '--mass-ratio'),
     permittivity: q(o.permittivity, 'number', '--permittivity'),

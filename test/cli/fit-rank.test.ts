@@ -195,14 +195,29 @@ describe('whole sweeps from the command line, no window given (test/helpers/whol
     expect(out.branches.length).toBe(2);
     expect(Object.keys(out.points.reasons)).toEqual(expect.arrayContaining(['zero bias', 'at the noise floor', 'other polarity (analysed as its own branch)']));
   });
-  it('fit text says NOT PLAUSIBLE on its last line when the analysis marks the fit so (a thickness given in metres by mistake)', () => {
+  it('fit text says NOT PLAUSIBLE on its last line when the analysis marks the fit so (a thickness in metres by mistake), and says which input is off', () => {
     const file = tempFile('fn-whole.csv', toCsv(wholeSweep({ ...spec, seed: 11 })));
     const good = runCli(['fit', file, '--model', 'fowler-nordheim', ...args]);
-    expect(good.stdout).not.toMatch(/NOT PLAUSIBLE/);
-    const r = runCli(['fit', file, '--model', 'fowler-nordheim', '--thickness', '7', '--area', '1e-4 cm^2', '--mass-ratio', '0.42']);
+    expect(good.stdout).not.toMatch(/NOT PLAUSIBLE|outside 0\.1 nm/);
+    const r = runCli(['fit', file, '--model', 'fowler-nordheim', '--thickness', '7 m', '--area', '1e-4 cm^2', '--mass-ratio', '0.42']);
     expect(r.code, r.stderr).toBe(0);
     expect(r.stdout.trim().split('\n').at(-1)).toMatch(/^NOT PLAUSIBLE: /);
+    expect(r.stdout).toMatch(/warning: +thickness 7 m is outside 0\.1 nm – 1 mm.*SI \(metres\)/);
     expect(r.stdout).toMatch(/warning: .*outside the plausible range/);
+    // A thickness of 2 µm is a thick film but a film: no input warning (its barrier may still be off).
+    const thick = JSON.parse(runCli(['fit', file, '--model', 'fowler-nordheim', '--thickness', '2 um', '--area', '1e-4 cm^2', '--json']).stdout);
+    expect(thick.warnings.join(' ')).not.toMatch(/thickness .* is outside/);
+  });
+  it('a bare number far beyond any film is refused with the unit it most likely meant (exit 2)', () => {
+    const file = tempFile('fn-whole.csv', toCsv(wholeSweep({ ...spec, seed: 11 })));
+    const r = runCli(['fit', file, '--model', 'fowler-nordheim', '--thickness', '7', '--area', '1e-4 cm^2']);
+    expect(r.code).toBe(2);
+    expect(r.stderr).toMatch(/--thickness '7': a bare number is read in metres \(7 m\).*did you mean "7 nm"/);
+    const a = runCli(['fit', file, '--model', 'fowler-nordheim', '--thickness', '7 nm', '--area', '100']);
+    expect(a.code).toBe(2);
+    expect(a.stderr).toMatch(/--area '100': a bare number is read in square metres.*"100 um\^2"/);
+    // Bare SI numbers that are sensible stay accepted.
+    expect(runCli(['fit', file, '--model', 'fowler-nordheim', '--thickness', '7e-9', '--area', '1e-8']).code).toBe(0);
   });
   it('rank: Fowler–Nordheim first, weights summing to 1', () => {
     const file = tempFile('fn-whole.csv', toCsv(wholeSweep({ ...spec, seed: 12 })));
