@@ -15,7 +15,18 @@ import { rankMechanisms } from './analysis/ranking.js';
 import { CsvError } from '../protocols/csv-table.js';
 import { formatDiode, formatFit, formatRanking, formatSolar } from './cli/format.js';
 import { cheung, fitDiode, solarFiguresWithUncertainty, type Convention } from './analysis/diode-fit.js';
-import { type AnalysisOptions, enableExpressions, loadData, readAccuracy, readCompliance, readInputs, readWindow, withAnalysisOptions } from './cli/inputs.js';
+import {
+  type AnalysisOptions,
+  enableExpressions,
+  loadData,
+  mergeInputs,
+  readAccuracy,
+  readCompliance,
+  readInputs,
+  readWindow,
+  recordedAnalysis,
+  withAnalysisOptions,
+} from './cli/inputs.js';
 import { QuantityError } from './quantity.js';
 import { registerSim } from './cli/sim.js';
 import { registerStation } from './cli/station.js';
@@ -47,7 +58,7 @@ function print(json: boolean | undefined, obj: unknown, text: () => string): voi
 }
 
 interface FitOptions extends AnalysisOptions {
-  model: string;
+  model?: string;
   xExpr?: string;
   yExpr?: string;
   yAxis?: string;
@@ -75,7 +86,10 @@ withAnalysisOptions(
       '<file>',
       'CSV with a header row; x = the bias column (named voltage, bias or V; else the first; K for arrhenius), y = the current column (named current or I; else the next); units in headers are read',
     )
-    .requiredOption('--model <id>', `mechanism: ${MODEL_IDS.join(', ')}; or a diode model: ${DIODE_MODELS.join(', ')}`)
+    .option(
+      '--model <id>',
+      `mechanism: ${MODEL_IDS.join(', ')}; or a diode model: ${DIODE_MODELS.join(', ')} (an exported points.csv: default the model its station used, from the session.json beside it)`,
+    )
     .option('--illuminated', 'diode models: fit a photocurrent (an illuminated solar cell)')
     .option('--convention <c>', 'diode models: how the file signs the current: load (into the device positive, as an SMU records it) or generator', 'load')
     .option(
@@ -87,16 +101,20 @@ withAnalysisOptions(
     .option('--y-expr <expr>', 'custom model: y as a mathjs expression over the columns')
     .option('--y-axis <kind>', 'custom model: log (fit ln y) or linear', 'linear'),
 ).action((file: string, o: FitOptions) => {
-  const { data, notes } = loadData(file, o);
-  if (DIODE_MODELS.includes(o.model)) {
+  const { data, notes, firstSeq } = loadData(file, o);
+  const recorded = recordedAnalysis(file, firstSeq, o.allSweeps === true);
+  const model = o.model ?? recorded?.model;
+  if (model === undefined) throw new UsageError(`--model: name the mechanism to fit (${MODEL_IDS.join(', ')}; or ${DIODE_MODELS.join(', ')})`);
+  if (o.model === undefined) notes.push(`model ${model}: the one the station used (${recorded?.source})`);
+  const inputs = mergeInputs(readInputs(o), recorded, notes);
+  if (DIODE_MODELS.includes(model)) {
     if (o.objective !== 'current' && o.objective !== 'implicit')
       throw new QuantityError('--objective', `--objective '${o.objective}': expected current or implicit`);
     if (o.auto)
       throw new UsageError(
-        `--auto: the ${o.model} model is fitted over the whole curve (every usable reading, or --from/--to); an automatic window belongs to the linearized models (the semilog diode is --model diode)`,
+        `--auto: the ${model} model is fitted over the whole curve (every usable reading, or --from/--to); an automatic window belongs to the linearized models (the semilog diode is --model diode)`,
       );
     const win = readWindow(o);
-    const inputs = readInputs(o);
     const req = {
       temperature: inputs.temperature,
       illuminated: o.illuminated ?? false,
@@ -107,21 +125,23 @@ withAnalysisOptions(
       objective: o.objective as 'current' | 'implicit',
       window: typeof win === 'object' ? win : undefined,
     };
-    const report = o.model === 'cheung' ? cheung(data, req) : fitDiode(data, o.model as 'single-diode' | 'double-diode', req);
+    const report = model === 'cheung' ? cheung(data, req) : fitDiode(data, model as 'single-diode' | 'double-diode', req);
     report.notes.push(...notes);
     if (typeof win === 'object') report.notes.push(`fitted on the readings from ${win.from ?? '−∞'} to ${win.to ?? '∞'} V`);
     print(o.json, report, () => formatDiode(report));
     return;
   }
-  if (o.model === 'custom') enableExpressions();
+  if (model === 'custom') enableExpressions();
   if (o.yAxis !== 'log' && o.yAxis !== 'linear') throw new QuantityError('--y-axis', `--y-axis '${o.yAxis}': expected log or linear`);
+  // The window the station used, when this is its model and none is given here.
+  const window = readWindow(o, model === 'arrhenius') ?? (recorded && recorded.model === model ? recorded.window : undefined);
   const report = analyze(data, {
-    model: o.model,
-    inputs: readInputs(o),
-    window: readWindow(o, o.model === 'arrhenius'),
+    model: model,
+    inputs,
+    window,
     accuracy: readAccuracy(o),
     complianceLimit: readCompliance(o),
-    custom: o.model === 'custom' && o.xExpr !== undefined && o.yExpr !== undefined ? { x: o.xExpr, y: o.yExpr, yAxis: o.yAxis } : undefined,
+    custom: model === 'custom' && o.xExpr !== undefined && o.yExpr !== undefined ? { x: o.xExpr, y: o.yExpr, yAxis: o.yAxis } : undefined,
   });
   report.notes.push(...notes);
   print(o.json, report, () => formatFit(report));
@@ -133,9 +153,10 @@ withAnalysisOptions(
     .description('fit every applicable mechanism to the same points and rank them')
     .argument('<file>', 'CSV with a header row; x = bias (V), y = current (A)'),
 ).action((file: string, o: AnalysisOptions) => {
-  const { data, notes } = loadData(file, o);
+  const { data, notes, firstSeq } = loadData(file, o);
+  const inputs = mergeInputs(readInputs(o), recordedAnalysis(file, firstSeq, o.allSweeps === true), notes);
   const ranking = rankMechanisms(data, {
-    inputs: readInputs(o),
+    inputs,
     window: readWindow(o),
     accuracy: readAccuracy(o),
     complianceLimit: readCompliance(o),

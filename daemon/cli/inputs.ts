@@ -2,7 +2,9 @@
  * Command-line options shared by the analysis commands (fit, rank, later refit): physical inputs
  * with units, window, accuracy model, compliance limit, and the CSV columns to read.
  */
+import { existsSync, readFileSync } from 'node:fs';
 import { createRequire } from 'node:module';
+import { dirname, join, resolve } from 'node:path';
 import type { Command } from 'commander';
 import type { AccuracySpec } from '../analysis/accuracy.js';
 import type { IVData, WindowRequest } from '../analysis/analyze.js';
@@ -158,7 +160,7 @@ export function headerUnit(header: string): { name: string; unit?: string } {
  * holding more than one sweep (an exported points.csv) must say which one (--sweep N) or that they
  * are to be pooled (--all-sweeps): pooling is never silent. `notes` says what was chosen.
  */
-export function loadData(file: string, o: AnalysisOptions): { table: CsvTable; data: IVData; notes: string[] } {
+export function loadData(file: string, o: AnalysisOptions): { table: CsvTable; data: IVData; notes: string[]; firstSeq?: number } {
   // Read as bytes: numbers are scanned in place, no string of the whole file is made.
   const table = readCsvTable(file);
   // Without --x/--y: a column named as a bias (voltage_V, voltage, bias, V) and one named as a
@@ -233,8 +235,11 @@ export function loadData(file: string, o: AnalysisOptions): { table: CsvTable; d
     return Float64Array.from(pick(table.columns[k]), (v) => v * f);
   };
   notes.push(`columns used: x = '${table.headers[xi]}', y = '${table.headers[yi]}'`);
+  const qi = table.headers.findIndex((h) => /^seq$/i.test(h));
+  const seqs = qi >= 0 && !table.firstText[qi] ? pick(table.columns[qi]) : undefined;
   return {
     table,
+    firstSeq: seqs && seqs.length > 0 ? seqs[0] : undefined,
     data: {
       x: scaled(xi, 'bias'),
       y: scaled(yi, 'current'),
@@ -248,4 +253,96 @@ export function loadData(file: string, o: AnalysisOptions): { table: CsvTable; d
 /** Loads mathjs (slow to import) only for the custom model. */
 export function enableExpressions(): void {
   setExpressionEngine(createRequire(import.meta.url)('mathjs') as typeof import('mathjs'));
+}
+
+/** The analysis a station recorded for an exported file: its model, window and inputs (SI). */
+export interface RecordedAnalysis {
+  readonly model?: string;
+  readonly window?: WindowRequest;
+  readonly inputs: Inputs;
+  /** The session.json it came from. */
+  readonly source: string;
+  readonly notes: string[];
+}
+
+const INPUT_KEYS = ['thickness', 'area', 'temperature', 'massRatio', 'permittivity', 'refractiveIndex', 'flatBand', 'richardson'] as const;
+
+/**
+ * An exported points.csv sits beside the session.json of its export: the model, window and inputs
+ * the station analysed it with are read from there, so a fit of the export needs no retyping (an
+ * option on the command line takes precedence). The settings in force for a sweep are the
+ * session's first ones, changed by every settings change journaled before the sweep's first reading
+ * (the file's `seq` column). Anything else beside the file is left alone, with a note.
+ */
+export function recordedAnalysis(file: string, firstSeq?: number, pooled = false): RecordedAnalysis | undefined {
+  const source = join(dirname(resolve(file)), 'session.json');
+  if (!existsSync(source)) return undefined;
+  const notUsed = (why: string): RecordedAnalysis => ({ inputs: {}, source, notes: [`${source} beside the file was not used: ${why}`] });
+  let meta: unknown;
+  try {
+    meta = JSON.parse(readFileSync(source, 'utf8'));
+  } catch (e) {
+    return notUsed(`not readable as JSON (${(e as Error).message})`);
+  }
+  const m = meta as { format?: unknown; sessionEvent?: { analysis?: unknown }; settingChanges?: unknown };
+  if (typeof m.format !== 'string' || !m.format.startsWith('plumbline session export')) return notUsed('not a session export of this program');
+  let analysis = m.sessionEvent?.analysis as { model?: unknown; window?: unknown; inputs?: unknown } | undefined;
+  const changes = Array.isArray(m.settingChanges) ? (m.settingChanges as { seq?: unknown; analysis?: unknown }[]) : [];
+  const notes: string[] = [];
+  if (changes.length > 0 && (firstSeq === undefined || pooled)) {
+    notes.push(`the session's analysis settings changed ${changes.length} time(s): its first settings are used; give the inputs on the command line to choose`);
+  } else {
+    for (const c of changes)
+      if (typeof c.seq === 'number' && c.seq < (firstSeq as number) && c.analysis && typeof c.analysis === 'object') analysis = c.analysis as typeof analysis;
+  }
+  if (!analysis || typeof analysis !== 'object') return notUsed('it records no analysis settings');
+  const inputs: Record<string, number> = {};
+  const given = (analysis.inputs ?? {}) as Record<string, unknown>;
+  for (const k of INPUT_KEYS) if (typeof given[k] === 'number' && Number.isFinite(given[k])) inputs[k] = given[k] as number;
+  const w = analysis.window as { from?: unknown; to?: unknown } | string | undefined;
+  const window: WindowRequest | undefined =
+    w === 'auto' || w === 'all'
+      ? w
+      : w && typeof w === 'object'
+        ? { from: typeof w.from === 'number' ? w.from : undefined, to: typeof w.to === 'number' ? w.to : undefined }
+        : undefined;
+  return { model: typeof analysis.model === 'string' ? analysis.model : undefined, window, inputs, source, notes };
+}
+
+/** An input in the trade's unit, for notes. */
+function showInput(k: string, v: number): string {
+  switch (k) {
+    case 'thickness':
+      return `thickness ${+(v * 1e9).toPrecision(6)} nm`;
+    case 'area':
+      return `area ${+(v * 1e4).toPrecision(6)} cm²`;
+    case 'temperature':
+      return `temperature ${+v.toPrecision(6)} K`;
+    case 'flatBand':
+      return `flat band ${+v.toPrecision(6)} V`;
+    case 'richardson':
+      return `Richardson constant ${+(v * 1e-4).toPrecision(6)} A/(cm² K²)`;
+    case 'massRatio':
+      return `mass ratio ${+v.toPrecision(6)}`;
+    default:
+      return `${k} ${+v.toPrecision(6)}`;
+  }
+}
+
+/**
+ * The inputs for an analysis: those given as options, over those recorded with an exported file
+ * (recordedAnalysis); a note says which recorded ones were taken.
+ */
+export function mergeInputs(given: Inputs, recorded: RecordedAnalysis | undefined, notes: string[]): Inputs {
+  if (!recorded) return given;
+  notes.push(...recorded.notes);
+  const taken = Object.entries(recorded.inputs).filter(([k]) => given[k as keyof Inputs] === undefined);
+  if (taken.length > 0) {
+    notes.push(
+      `inputs recorded with the session (${recorded.source}): ${taken.map(([k, v]) => showInput(k, v)).join(', ')}; an option given here takes precedence`,
+    );
+  }
+  const out: Record<string, number | undefined> = { ...Object.fromEntries(taken) };
+  for (const [k, v] of Object.entries(given)) if (v !== undefined) out[k] = v;
+  return out as Inputs;
 }

@@ -1,4 +1,8 @@
+import { mkdirSync, mkdtempSync, readdirSync, readFileSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
+import { recordedAnalysis } from '../../daemon/cli/inputs.js';
 import { fowlerNordheim } from '../../daemon/analysis/mechanisms/fowler-nordheim.js';
 import { runCli, tempFile } from '../helpers/cli.js';
 import { HAVE_STRD, loadStrd, lre } from '../helpers/reference.js';
@@ -269,5 +273,69 @@ describe('window flags on the nonlinear diode models', () => {
     const out = JSON.parse(win.stdout);
     expect(out.points.reasons['outside the fit window']).toBe(55);
     expect(Math.abs(out.parameters.idealityFactor.value - 1.2)).toBeLessThan(0.05);
+  });
+});
+
+describe('fitting an exported session: the settings recorded beside it', () => {
+  // Not an outside reference (the simulator uses the same forward model): a check that the export's
+  // session.json carries the station's model and inputs to an offline fit. The barrier of a
+  // Fowler–Nordheim fit scales as m_r^(−1/3) (Lenzlinger & Snow 1969), so leaving out the recorded
+  // mass ratio 0.42 (0.5 assumed) would move 3.1 eV to about 2.93 eV.
+  it('a fit of points.csv with no model or inputs uses the ones its station used; options still take precedence', () => {
+    const dir = mkdtempSync(join(tmpdir(), 'plumbline-export-fit-'));
+    expect(runCli(['run', '--scenario', 'oxide-fn', '--sweeps', '2', '--fast', '--data', join(dir, 'd')]).code).toBe(0);
+    const session = join(dir, 'd', readdirSync(join(dir, 'd'))[0]);
+    expect(runCli(['export', session, '--out', join(dir, 'x')]).code).toBe(0);
+    const points = join(dir, 'x', 'points.csv');
+    const r = runCli(['fit', points, '--sweep', '2', '--json']);
+    expect(r.code, r.stderr).toBe(0);
+    const out = JSON.parse(r.stdout);
+    expect(out.model).toBe('fowler-nordheim');
+    expect(out.inputs.massRatio).toEqual({ value: 0.42, assumed: false });
+    expect(out.inputs.thickness.value).toBe(7e-9);
+    const b = out.parameters.barrierHeight;
+    expect(Math.abs(b.value - 3.1), `${b.value} ± ${b.stdErr}`).toBeLessThan(3 * b.stdErr);
+    expect(out.notes.join('\n')).toMatch(/inputs recorded with the session \(.*session\.json\): thickness 7 nm, area 0\.0001 cm², mass ratio 0\.42/);
+    // An option wins over the record.
+    const o = JSON.parse(runCli(['fit', points, '--sweep', '2', '--mass-ratio', '0.5', '--json']).stdout);
+    expect(o.parameters.barrierHeight.value).toBeCloseTo(3.1 * (0.42 / 0.5) ** (1 / 3), 2);
+    // Without the session.json beside it, the model must be named.
+    const alone = join(dir, 'alone.csv');
+    writeFileSync(alone, readFileSync(points));
+    const n = runCli(['fit', alone, '--sweep', '2']);
+    expect(n.code).toBe(2);
+    expect(n.stderr).toMatch(/--model: name the mechanism/);
+    // A session.json that is not an export of ours is left alone, with a note.
+    const other = join(dir, 'other');
+    mkdirSync(other);
+    writeFileSync(join(other, 'points.csv'), readFileSync(points));
+    writeFileSync(join(other, 'session.json'), '{"format": "someone else"}');
+    const f = JSON.parse(runCli(['fit', join(other, 'points.csv'), '--sweep', '2', '--model', 'fowler-nordheim', '--thickness', '7 nm', '--json']).stdout);
+    expect(f.notes.join('\n')).toMatch(/session\.json beside the file was not used: not a session export of this program/);
+    expect(f.inputs.massRatio.assumed).toBe(true);
+  }, 60_000);
+
+  it('the settings in force for a sweep: the first ones, changed by every settings change journaled before its first reading', () => {
+    const dir = mkdtempSync(join(tmpdir(), 'plumbline-export-settings-'));
+    const meta = {
+      format: 'plumbline session export 1',
+      sessionEvent: { analysis: { model: 'fowler-nordheim', window: 'auto', inputs: { thickness: 7e-9, massRatio: 0.42 } } },
+      settingChanges: [
+        { seq: 100, type: 'settings', analysis: { model: 'fowler-nordheim', window: { from: 5, to: 9 }, inputs: { thickness: 8e-9, massRatio: 0.5 } } },
+      ],
+    };
+    writeFileSync(join(dir, 'session.json'), JSON.stringify(meta));
+    const file = join(dir, 'points.csv');
+    expect(recordedAnalysis(file, 50)?.inputs).toEqual({ thickness: 7e-9, massRatio: 0.42 });
+    const later = recordedAnalysis(file, 150);
+    expect(later?.inputs).toEqual({ thickness: 8e-9, massRatio: 0.5 });
+    expect(later?.window).toEqual({ from: 5, to: 9 });
+    // Pooled sweeps across a change: the first settings, and a note saying so.
+    const pooled = recordedAnalysis(file, 50, true);
+    expect(pooled?.inputs).toEqual({ thickness: 7e-9, massRatio: 0.42 });
+    expect(pooled?.notes.join(' ')).toMatch(/changed 1 time\(s\): its first settings are used/);
+    // A broken session.json is named, not fatal.
+    writeFileSync(join(dir, 'session.json'), '{"format": "plumbline session export 1", ');
+    expect(recordedAnalysis(file, 50)?.notes.join(' ')).toMatch(/not readable as JSON/);
   });
 });
