@@ -135,7 +135,8 @@ export function guardProcess(station: Station, onExit: () => Promise<void> | voi
   const leave = async (why: string, code: number, outcome: 'interrupted' | 'internal-error') => {
     if (exiting) return;
     exiting = true;
-    process.stderr.write(`\nplumbline: ${why}; turning the output off\n`);
+    // Only a run drives the output; with none running nothing is sent, and the message says so.
+    process.stderr.write(`\nplumbline: ${why}; ${station.running ? 'turning the output off' : 'no run in progress (the station sends nothing to the instrument)'}\n`);
     try {
       await station.emergencyStop(why, outcome);
       await onExit();

@@ -43,3 +43,32 @@ describe('daemon log lines', () => {
     expect(lines.some((l) => / WARN +CAUTION \[output-on\]/.test(l))).toBe(true);
   });
 });
+
+describe('the message when the daemon is stopped by a signal', () => {
+  const stopped = async (): Promise<{ code: number | null; out: string }> => {
+    const p = d as DaemonProcess;
+    const exit = new Promise<number | null>((r) => p.proc.once('exit', (c) => r(c)));
+    p.proc.kill('SIGTERM');
+    const code = await exit;
+    d = undefined;
+    return { code, out: p.output() };
+  };
+
+  it('idle: says nothing is sent to the instrument (no run, no output to turn off); exit 143', async () => {
+    d = await startDaemon(['--scenario', 'oxide-fn', '--fast', '--no-autostart', '--data', join(tempDir(), 'data')]);
+    const { code, out } = await stopped();
+    expect(code).toBe(143);
+    expect(out).toMatch(/terminated \(SIGTERM\); no run in progress \(the station sends nothing to the instrument\)/);
+    expect(out).not.toMatch(/turning the output off/);
+  });
+
+  it('during a run: says the output is being turned off, and the run ends interrupted', async () => {
+    d = await startDaemon(['--scenario', 'oxide-fn', '--no-autostart', '--data', join(tempDir(), 'data')]);
+    expect((await api(d.url, 'POST', '/api/run', { plan: { start: 0, stop: 9, points: 91, compliance: 1e-3, repeat: 50 } })).status).toBe(201);
+    for (let k = 0; k < 200 && !/CAUTION \[output-on\]/.test(d.output()); k++) await new Promise((r) => setTimeout(r, 20));
+    const { code, out } = await stopped();
+    expect(code).toBe(143);
+    expect(out).toMatch(/terminated \(SIGTERM\); turning the output off/);
+    expect(out).toMatch(/run ended: interrupted/);
+  });
+});
