@@ -378,7 +378,8 @@ export function fitDiode(data: IVData, model: DiodeModel, req: DiodeRequest = {}
     }
   }
   const excluded = Object.values(p.reasons).reduce((a, b) => a + b, 0);
-  if (p.v.length < 6) throw new AnalysisError('TOO_FEW_POINTS', `${p.v.length} usable points; excluded: ${describeReasons(p.reasons)}`);
+  if (p.v.length < 6)
+    throw new AnalysisError('TOO_FEW_POINTS', `${p.v.length} usable point${p.v.length === 1 ? '' : 's'}; excluded: ${describeReasons(p.reasons)}`);
   const start = illuminated ? illuminatedStart(p, vt) : darkStart(p, vt);
   // Dark curves span decades: each reading weighted by its noise (floor and relative part), so the
   // low-current points count as much as they deserve; illuminated curves are fitted on absolute
@@ -614,7 +615,7 @@ export function solarFigures(data: IVData, req: DiodeRequest & { irradiance?: nu
   const p = points(data, req);
   const { v, i } = p;
   const warnings: string[] = [];
-  if (v.length < 3) throw new AnalysisError('TOO_FEW_POINTS', `${v.length} usable points`);
+  if (v.length < 3) throw new AnalysisError('TOO_FEW_POINTS', `${v.length} usable point${v.length === 1 ? '' : 's'}`);
   const isc = interpolateAt(v, i, 0);
   const voc = crossing(v, i);
   if (isc === undefined) throw new AnalysisError('BAD_INPUT', 'the curve does not span V = 0: no short-circuit current');

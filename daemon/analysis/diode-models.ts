@@ -317,7 +317,8 @@ export function fitDiodeModel(
   const n = v.length;
   const lay = layout(options.model, options.illuminated);
   const m = lay.names.length;
-  if (n < m + 1) throw new AnalysisError('TOO_FEW_POINTS', `${n} usable points cannot determine the ${m} parameters of the ${options.model} model`);
+  if (n < m + 1)
+    throw new AnalysisError('TOO_FEW_POINTS', `${n} usable point${n === 1 ? '' : 's'} cannot determine the ${m} parameters of the ${options.model} model`);
   const vt = thermalVoltage(options.temperature);
   let vmax = 0;
   for (let k = 0; k < n; k++) vmax = Math.max(vmax, v[k]);

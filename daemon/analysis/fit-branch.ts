@@ -578,7 +578,10 @@ export function fitBranch(
   const { p, xRisesWithBias } = mapPoints(mech, inputs, data, classes, branch, request, reasons);
   const n = p.x.length;
   if (n < 3) {
-    throw new AnalysisError('TOO_FEW_POINTS', `model '${mech.id}' has ${n} usable points of ${data.x.length}; excluded: ${describe(reasons)}`);
+    throw new AnalysisError(
+      'TOO_FEW_POINTS',
+      `model '${mech.id}' has ${n} usable point${n === 1 ? '' : 's'} of ${data.x.length}; excluded: ${describe(reasons)}`,
+    );
   }
   let xmin = Infinity;
   let xmax = -Infinity;
@@ -624,7 +627,7 @@ export function fitBranch(
     if (first < 0 || last - first + 1 < 3) {
       throw new AnalysisError(
         'TOO_FEW_POINTS',
-        `the fit window ${fmt(lo)} to ${fmt(hi)} holds ${first < 0 ? 0 : last - first + 1} usable points of this ${branch ? `${branch.sign > 0 ? 'positive' : 'negative'} branch` : 'curve'}; a line needs at least 3 (excluded: ${describe(reasons)})`,
+        `the fit window ${fmt(lo)} to ${fmt(hi)} holds ${first < 0 ? 0 : last - first + 1} usable point${first >= 0 && last === first ? '' : 's'} of this ${branch ? `${branch.sign > 0 ? 'positive' : 'negative'} branch` : 'curve'}; a line needs at least 3 (excluded: ${describe(reasons)})`,
         'window',
       );
     }
@@ -640,7 +643,7 @@ export function fitBranch(
     }
     if (nq < MIN_WINDOW_POINTS) {
       searchPassed = false;
-      searchFailure = `only ${nq} usable points`;
+      searchFailure = `only ${nq} usable point${nq === 1 ? '' : 's'}`;
     } else {
       const search = { slopeSign: mech.slopeSign, admissible: superOhmicTest(mech, inputs, q) };
       // A current that outgrows ohmic leakage dominates at the top of the branch: the window is

@@ -71,14 +71,17 @@ export function formatFit(r: FitReport): string {
 export function formatRanking(r: Ranking): string {
   const out: string[] = [];
   out.push(`points: ${r.points.used} common points of the ${r.branch} branch, ${r.points.excluded} excluded (${describeReasons(r.points.reasons)})`);
-  out.push(`${pad('#', 3)}${pad('model', 26)}${pad('weight', 8)}${pad('ΔAICc', 9)}${pad('plausible', 10)}parameters`);
+  // ΔAICc of a hopeless model runs to 10⁹ and more: three figures are enough there, and the
+  // column is as wide as its longest entry, so the columns after it stay aligned.
+  const aicc = r.ranking.map((e) => (Math.abs(e.deltaAicc) < 1e5 ? e.deltaAicc.toFixed(1) : e.deltaAicc.toExponential(2)));
+  const wa = Math.max(7, ...aicc.map((a) => a.length + 2));
+  const wm = Math.max(26, ...r.ranking.map((e) => e.model.length + 2));
+  out.push(`${pad('#', 3)}${pad('model', wm)}${pad('weight', 8)}${pad('ΔAICc', wa)}${pad('plausible', 10)}parameters`);
   r.ranking.forEach((e, k) => {
     const params = Object.entries(e.parameters)
       .map(([n, p]) => `${n} ${formatParameterText(p, n)}`)
       .join('; ');
-    out.push(
-      `${pad(String(k + 1), 3)}${pad(e.model, 26)}${pad(e.score.toFixed(3), 8)}${pad(e.deltaAicc.toFixed(1), 9)}${pad(e.plausible ? 'yes' : 'no', 10)}${params}`,
-    );
+    out.push(`${pad(String(k + 1), 3)}${pad(e.model, wm)}${pad(e.score.toFixed(3), 8)}${pad(aicc[k], wa)}${pad(e.plausible ? 'yes' : 'no', 10)}${params}`);
     for (const why of e.reasons) out.push(`     - ${why}`);
   });
   for (const s of r.skipped) out.push(`skipped ${s.model}: ${s.reason}`);

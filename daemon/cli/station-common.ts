@@ -136,7 +136,9 @@ export function guardProcess(station: Station, onExit: () => Promise<void> | voi
     if (exiting) return;
     exiting = true;
     // Only a run drives the output; with none running nothing is sent, and the message says so.
-    process.stderr.write(`\nplumbline: ${why}; ${station.running ? 'turning the output off' : 'no run in progress (the station sends nothing to the instrument)'}\n`);
+    process.stderr.write(
+      `\nplumbline: ${why}; ${station.running ? 'turning the output off' : 'no run in progress (the station sends nothing to the instrument)'}\n`,
+    );
     try {
       await station.emergencyStop(why, outcome);
       await onExit();

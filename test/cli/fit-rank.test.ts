@@ -223,6 +223,21 @@ describe('whole sweeps from the command line, no window given (test/helpers/whol
     // Bare SI numbers that are sensible stay accepted.
     expect(runCli(['fit', file, '--model', 'fowler-nordheim', '--thickness', '7e-9', '--area', '1e-8']).code).toBe(0);
   });
+  it("rank text: the columns stay aligned when a hopeless model's ΔAICc runs to 10⁹ (three figures there)", () => {
+    const file = tempFile('fn-whole.csv', toCsv(wholeSweep({ ...spec, seed: 12 })));
+    const r = runCli(['rank', file, ...args, '--refractive-index', '1.46']);
+    expect(r.code, r.stderr).toBe(0);
+    const lines = r.stdout.split('\n');
+    const header = lines.find((l) => l.startsWith('#  model')) as string;
+    const col = header.indexOf('plausible');
+    const rows = lines.filter((l) => /^\d+ +[a-z-]+ +\d\.\d{3} /.test(l));
+    expect(rows.length).toBeGreaterThan(4);
+    for (const row of rows) expect(row.slice(col, col + 4), row).toMatch(/^(yes|no) /);
+    expect(
+      rows.some((row) => /\de\+\d/.test(row)),
+      'some ΔAICc in exponent form',
+    ).toBe(true);
+  });
   it('rank: Fowler–Nordheim first, weights summing to 1', () => {
     const file = tempFile('fn-whole.csv', toCsv(wholeSweep({ ...spec, seed: 12 })));
     const r = runCli(['rank', file, ...args, '--refractive-index', '1.46', '--json']);
