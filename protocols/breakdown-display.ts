@@ -69,6 +69,9 @@ export interface TestResultLike {
 export function resultFigureRows(r: TestResultLike): FigureRow[] {
   const broke = r.outcome === 'breakdown';
   const rows: FigureRow[] = [];
+  // The figures are magnitudes, as the standard states them; the polarity says which way the stress went.
+  const pol = r.result.polarity;
+  if (pol === 'positive' || pol === 'negative') rows.push({ key: 'polarity', label: 'polarity of the stress', text: pol, unit: '' });
   for (const [key, f] of Object.entries(RESULT_FIGURES)) {
     const v = r.result[key];
     if (typeof v !== 'number' || !Number.isFinite(v)) continue;

@@ -17,6 +17,10 @@
  *   wafer, site         text  where it sits; x, y: the site's position on the wafer map (die
  *                             column and row, or mm from the centre; any consistent grid)
  *   test                text  voltage-ramp | current-ramp | constant-voltage | constant-current
+ *   polarity            text  positive | negative: the sign of the stress (the bias the gate was
+ *                             driven to). Breakdown under the two polarities is not one population
+ *                             (charge injected from the other electrode), so readers keep them apart.
+ *                             Files without the column are read as of unknown polarity.
  *   outcome             text  breakdown — the device broke down (a failure);
  *                             survived — it reached the end of the test intact (right-censored:
  *                               the breakdown columns then hold the value it reached);
@@ -71,6 +75,8 @@ export const TEST_KINDS = ['voltage-ramp', 'current-ramp', 'constant-voltage', '
 export type TestKind = (typeof TEST_KINDS)[number];
 export type Outcome = 'breakdown' | 'survived' | 'initial-failure' | 'invalid';
 export const OUTCOMES: readonly Outcome[] = ['breakdown', 'survived', 'initial-failure', 'invalid'];
+export type Polarity = 'positive' | 'negative';
+export const POLARITIES: readonly Polarity[] = ['positive', 'negative'];
 
 export interface DeviceResult {
   readonly device: string;
@@ -79,6 +85,7 @@ export interface DeviceResult {
   readonly x?: number;
   readonly y?: number;
   readonly test: string;
+  readonly polarity?: Polarity;
   readonly outcome: Outcome;
   readonly criterion?: string;
   readonly breakdownVoltage?: number;
@@ -107,6 +114,7 @@ export const RESULT_COLUMNS: readonly Column[] = [
   { name: 'x', key: 'x', unit: '', kind: 'number' },
   { name: 'y', key: 'y', unit: '', kind: 'number' },
   { name: 'test', key: 'test', unit: '', kind: 'text' },
+  { name: 'polarity', key: 'polarity', unit: '', kind: 'text' },
   { name: 'outcome', key: 'outcome', unit: '', kind: 'text' },
   { name: 'criterion', key: 'criterion', unit: '', kind: 'text' },
   { name: 'breakdown_voltage', key: 'breakdownVoltage', unit: 'V', kind: 'number' },
@@ -213,6 +221,8 @@ export function parseDeviceResults(text: string, file: string): DeviceResult[] {
     if (typeof row.device !== 'string') throw new CsvError(file, line.n, 'device', 'empty device name');
     if (!OUTCOMES.includes(row.outcome as Outcome))
       throw new CsvError(file, line.n, 'outcome', `'${row.outcome ?? ''}': expected one of ${OUTCOMES.join(', ')}`);
+    if (row.polarity !== undefined && !POLARITIES.includes(row.polarity as Polarity))
+      throw new CsvError(file, line.n, 'polarity', `'${row.polarity}': expected positive or negative (or an empty cell: not known)`);
     if (row.test === undefined) row.test = '';
     rows.push(row as unknown as DeviceResult);
   }

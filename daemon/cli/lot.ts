@@ -37,7 +37,7 @@ export function registerLot(program: Command): void {
       .option('--quantity <name>', 'breakdown quantity for the Weibull plot: field | voltage | charge | time', 'field')
       .option(
         '--test <kind>',
-        'the kind of test whose results the Weibull plot takes (voltage-ramp | current-ramp | constant-voltage | constant-current), or all to pool them; needed when the lot holds several',
+        'the kind of test whose results the Weibull plot takes (voltage-ramp | current-ramp | constant-voltage | constant-current, optionally /positive or /negative), or all to pool them; needed when the lot holds several kinds or both polarities',
       )
       .option('--area <q>', 'reference area for the Weibull scale when devices differ, e.g. "1e-4 cm^2"')
       .option('--confidence <c>', 'two-sided confidence of the Weibull bounds', '0.9')
@@ -52,8 +52,8 @@ export function registerLot(program: Command): void {
     const source = (await archiveLot(o, dirs)) ?? new FolderLot(dirs, { cache: o.cache });
     const file = resolve(o.out ?? 'lot.html');
     const t0 = performance.now();
-    if (o.test !== undefined && o.test !== 'all' && !(TEST_KINDS as readonly string[]).includes(o.test))
-      throw new UsageError(`--test '${o.test}': expected one of ${TEST_KINDS.join(', ')}, or all`);
+    if (o.test !== undefined && o.test !== 'all' && !(TEST_KINDS as readonly string[]).includes(o.test.split('/')[0]))
+      throw new UsageError(`--test '${o.test}': expected one of ${TEST_KINDS.join(', ')} (optionally /positive or /negative), or all`);
     if (!resultQuantity(o.quantity ?? 'field')) throw new UsageError(`--quantity '${o.quantity}': expected ${Object.keys(RESULT_QUANTITIES).join(' | ')}`);
     let a: Awaited<ReturnType<typeof writeLotReport>>;
     try {

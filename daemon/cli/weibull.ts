@@ -209,7 +209,7 @@ export function registerWeibull(program: Command): void {
       .option('--quantity <name>', `results: ${Object.keys(RESULT_QUANTITIES).join(' | ')} (default field); other CSVs: the column with the values`)
       .option(
         '--test <kind>',
-        'results: the kind of test to analyse (voltage-ramp | current-ramp | constant-voltage | constant-current), or all to pool them; needed when the results hold several',
+        'results: the kind of test to analyse (voltage-ramp | current-ramp | constant-voltage | constant-current, optionally /positive or /negative), or all to pool them; needed when the results hold several kinds or both polarities',
       )
       .option('--area <q>', 'device area (or the reference area when devices differ), e.g. "1e-4 cm^2"')
       .option('--to-area <q>', 'scale η to this area through β (Poisson area scaling), e.g. "1 cm^2"')

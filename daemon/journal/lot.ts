@@ -10,7 +10,15 @@
  */
 import { existsSync, readFileSync, statSync, writeFileSync } from 'node:fs';
 import { basename, join, resolve } from 'node:path';
-import { DEVICE_RESULTS_FILE, mergeIdentity, parseDeviceResults, TEST_KINDS, type DeviceIdentity, type DeviceResult } from '../../protocols/device-results.js';
+import {
+  DEVICE_RESULTS_FILE,
+  mergeIdentity,
+  parseDeviceResults,
+  POLARITIES,
+  TEST_KINDS,
+  type DeviceIdentity,
+  type DeviceResult,
+} from '../../protocols/device-results.js';
 import type { ParameterFigure, WireEvent } from '../../protocols/wire.js';
 import { JOURNAL_FILE, JournalError, liveLockHolder } from './journal.js';
 import { listSessions, scanJournal } from './reader.js';
@@ -346,10 +354,13 @@ export function breakdownSample(
 export class LotRequestError extends Error {}
 
 /**
- * The rows of one kind of test. Breakdown values of different tests do not come from one
- * distribution (a ramp's breakdown field grows with its ramp rate, a constant-voltage stress sets
- * the field and measures time; JEDEC JESD35-A treats them as separate tests), so rows of several
- * kinds are refused unless one kind is chosen, or 'all' pools them on purpose.
+ * The rows of one kind of test, of one polarity. Breakdown values of different tests do not come
+ * from one distribution (a ramp's breakdown field grows with its ramp rate, a constant-voltage
+ * stress sets the field and measures time; JEDEC JESD35-A treats them as separate tests), nor do
+ * those of the two polarities (charge injected from one electrode or the other), so rows of several
+ * kinds or both polarities are refused unless one is chosen — `KIND` or `KIND/positive`,
+ * `KIND/negative` — or 'all' pools everything on purpose. Rows of unknown polarity (files written
+ * before the polarity column) go with either.
  */
 export function selectTest<T extends DeviceResult>(rows: readonly T[], test: string | undefined): T[] {
   const counts = new Map<string, number>();
@@ -360,18 +371,37 @@ export function selectTest<T extends DeviceResult>(rows: readonly T[], test: str
     .map(([k, n]) => `${k} (${n})`)
     .join(', ');
   if (test === 'all') return [...rows];
-  if (test === undefined || test === '') {
+  const [kind, polarity] = test === undefined || test === '' ? [undefined, undefined] : test.split('/', 2);
+  if (polarity !== undefined && !(POLARITIES as readonly string[]).includes(polarity))
+    throw new LotRequestError(`--test '${test}': the polarity after '/' is positive or negative`);
+  let chosen: T[];
+  if (kind === undefined) {
     if (counts.size > 1)
       throw new LotRequestError(
         `the results hold ${counts.size} kinds of test: ${held}; choose one with --test KIND (the page's lot view: ?test=KIND), or pool them with --test all`,
       );
-    return [...rows];
+    chosen = [...rows];
+  } else {
+    if (!counts.has(kind))
+      throw new LotRequestError(
+        `--test '${test}': ${rows.length ? `the results hold ${held}` : 'there are no results'}${(TEST_KINDS as readonly string[]).includes(kind) ? '' : ` (kinds of test: ${TEST_KINDS.join(', ')}, or all)`}`,
+      );
+    chosen = rows.filter((r) => r.test === kind);
   }
-  if (!counts.has(test))
+  if (polarity !== undefined) {
+    const out = chosen.filter((r) => r.polarity === undefined || r.polarity === polarity);
+    if (out.length === 0) throw new LotRequestError(`--test '${test}': no ${kind} results of ${polarity} polarity`);
+    return out;
+  }
+  const byPolarity = new Map<string, number>();
+  for (const r of chosen) if (r.polarity) byPolarity.set(r.polarity, (byPolarity.get(r.polarity) ?? 0) + 1);
+  if (byPolarity.size > 1) {
+    const k = kind ?? chosen[0]?.test ?? 'KIND';
     throw new LotRequestError(
-      `--test '${test}': ${rows.length ? `the results hold ${held}` : 'there are no results'}${(TEST_KINDS as readonly string[]).includes(test) ? '' : ` (kinds of test: ${TEST_KINDS.join(', ')}, or all)`}`,
+      `the ${k} results hold both polarities: ${[...byPolarity].map(([p, n]) => `${p} (${n})`).join(', ')}; choose one with --test ${k}/positive or --test ${k}/negative (the page's lot view: ?test=${k}/positive), or pool them with --test all`,
     );
-  return rows.filter((r) => r.test === test);
+  }
+  return chosen;
 }
 
 /**

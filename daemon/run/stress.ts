@@ -23,7 +23,14 @@ import {
   VoltageRampJudge,
   type BreakdownVerdict,
 } from '../analysis/breakdown-tests.js';
-import { DEVICE_RESULTS_FILE, formatDeviceResults, type DeviceIdentity, type DeviceResult, type Outcome } from '../../protocols/device-results.js';
+import {
+  DEVICE_RESULTS_FILE,
+  formatDeviceResults,
+  type DeviceIdentity,
+  type DeviceResult,
+  type Outcome,
+  type Polarity,
+} from '../../protocols/device-results.js';
 import type { NewEvent } from '../../protocols/wire.js';
 import type { Measurement } from '../instrument/smu-driver.js';
 import type { Decision, LiveChain } from '../pipeline/chain.js';
@@ -577,6 +584,13 @@ export class StressTest {
     return first !== undefined && last !== undefined ? { first, last } : undefined;
   }
 
+  /** The sign of the stress: where a ramp climbs to, or the held bias. */
+  private polarity(): Polarity {
+    const p = this.plan;
+    const s = p.kind === 'constant-voltage' ? p.stress : p.kind === 'current-ramp' ? p.start : p.stop;
+    return s < 0 ? 'negative' : 'positive';
+  }
+
   private finish(
     outcome: Outcome,
     criterion: string | undefined,
@@ -591,6 +605,7 @@ export class StressTest {
       x: this.device.x,
       y: this.device.y,
       test: TEST_OF[this.plan.kind],
+      polarity: this.polarity(),
       outcome,
       criterion,
       breakdownVoltage: at.voltage,

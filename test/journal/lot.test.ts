@@ -9,7 +9,7 @@ import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
 import { analyzeWeibull } from '../../daemon/analysis/weibull.js';
 import { JournalWriter, LOCK_FILE } from '../../daemon/journal/journal.js';
-import { breakdownSample, expandSessionPaths, FolderLot, lotResults, readSummary, SUMMARY_FILE } from '../../daemon/journal/lot.js';
+import { breakdownSample, expandSessionPaths, FolderLot, lotResults, readSummary, selectTest, SUMMARY_FILE } from '../../daemon/journal/lot.js';
 import { analyzeLot, renderLot } from '../../daemon/journal/lot-report.js';
 import { scanJournal } from '../../daemon/journal/reader.js';
 import { DEVICE_RESULTS_FILE, formatDeviceResults, parseDeviceResults, RESULT_QUANTITIES, type DeviceResult } from '../../protocols/device-results.js';
@@ -38,7 +38,15 @@ const ROWS: DeviceResult[] = [
     leakageAfter: 3.4e-11,
     tags: ['lot A', 'edge'],
   },
-  { device: 'D2, "spare"', test: 'voltage-ramp', outcome: 'survived', criterion: 'max-voltage', breakdownVoltage: 9, breakdownField: 9 / 7e-9 },
+  {
+    device: 'D2, "spare"',
+    test: 'voltage-ramp',
+    polarity: 'negative',
+    outcome: 'survived',
+    criterion: 'max-voltage',
+    breakdownVoltage: 9,
+    breakdownField: 9 / 7e-9,
+  },
   { device: 'D3', test: 'voltage-ramp', outcome: 'initial-failure' },
 ];
 
@@ -47,7 +55,7 @@ describe('per-device results file', () => {
     const text = formatDeviceResults(ROWS);
     const lines = text.split('\n');
     expect(lines[0].split(',')).toContain('breakdown_field');
-    expect(lines[1]).toBe(',,,,,,,,V,V/m,C/m^2,s,m^2,m,K,A,A,');
+    expect(lines[1]).toBe(',,,,,,,,,V,V/m,C/m^2,s,m^2,m,K,A,A,');
     expect(parseDeviceResults(text, 'r.csv')).toEqual(ROWS);
   });
 
@@ -76,7 +84,7 @@ describe('per-device results file', () => {
     expect(() => parseDeviceResults([base[0], base[1], base[2].replace('breakdown,', 'exploded,')].join('\n'), 'r.csv')).toThrow(
       /line 3, column 'outcome': 'exploded'/,
     );
-    expect(() => parseDeviceResults([base[0], base[1], base[2].replace('8.05', '8,05')].join('\n'), 'r.csv')).toThrow(/line 3: expected 18 fields/);
+    expect(() => parseDeviceResults([base[0], base[1], base[2].replace('8.05', '8,05')].join('\n'), 'r.csv')).toThrow(/line 3: expected 19 fields/);
     expect(() => parseDeviceResults('wafer,site\nW1,A1\n', 'r.csv')).toThrow(/no 'device' column/);
   });
 });
@@ -119,7 +127,7 @@ describe('lot reader and cache', () => {
     expect(lotResults([s2.summary])[0]).toMatchObject({ site: 'B3', x: 1, y: 3, device: 'D1' });
     // A changed results file also rebuilds.
     expect(readSummary(dir).cached).toBe(true);
-    appendFileSync(join(dir, DEVICE_RESULTS_FILE), 'D9,,,,,,survived,,,1.3e9,,,,,,,,\n');
+    appendFileSync(join(dir, DEVICE_RESULTS_FILE), 'D9,,,,,,,survived,,,1.3e9,,,,,,,,\n');
     const s3 = readSummary(dir);
     expect(s3.cached).toBe(false);
     expect(s3.summary.results).toHaveLength(2);
@@ -251,5 +259,31 @@ describe('lot report', () => {
     const strip = [...html.matchAll(/<text class="xtick"[^>]*>([^<]+)<\/text>/g)].map((m) => m[1]);
     expect(strip.length).toBeGreaterThanOrEqual(3);
     expect(new Set(strip).size).toBe(strip.length);
+  });
+});
+
+describe('results of the two polarities are not pooled unasked', () => {
+  const mk = (device: string, polarity?: 'positive' | 'negative'): DeviceResult => ({
+    device,
+    test: 'voltage-ramp',
+    outcome: 'breakdown',
+    ...(polarity ? { polarity } : {}),
+  });
+  const rows = [mk('P1', 'positive'), mk('P2', 'positive'), mk('N1', 'negative'), mk('U1')];
+  it('both polarities: refused with the choices; KIND/POLARITY picks one (rows of unknown polarity go with either); all pools', () => {
+    expect(() => selectTest(rows, undefined)).toThrow(
+      /voltage-ramp results hold both polarities: positive \(2\), negative \(1\); choose one with --test voltage-ramp\/positive/,
+    );
+    expect(() => selectTest(rows, 'voltage-ramp')).toThrow(/both polarities/);
+    expect(selectTest(rows, 'voltage-ramp/positive').map((r) => r.device)).toEqual(['P1', 'P2', 'U1']);
+    expect(selectTest(rows, 'voltage-ramp/negative').map((r) => r.device)).toEqual(['N1', 'U1']);
+    expect(selectTest(rows, 'all')).toHaveLength(4);
+    expect(() => selectTest(rows, 'voltage-ramp/sideways')).toThrow(/positive or negative/);
+    // One polarity (and unknowns): nothing to choose.
+    expect(selectTest([mk('P1', 'positive'), mk('U1')], undefined)).toHaveLength(2);
+    // A polarity cell that is neither is refused with its line.
+    expect(() => parseDeviceResults('device,test,polarity,outcome\nD1,voltage-ramp,up,breakdown\n', 'r.csv')).toThrow(
+      /r\.csv, line 2.*polarity.*'up': expected positive or negative/,
+    );
   });
 });
