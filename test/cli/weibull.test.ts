@@ -114,7 +114,9 @@ describe('plumbline weibull', () => {
     expect(r.stdout).toMatch(/Weibull breakdown field: β = [\d.]+, η = [\d.]+ MV\/cm \(6 breakdowns, 0 survived\)/);
     r = runCli(['lot', data, '--out', out, '--test', 'cvs']);
     expect(r.code).toBe(2);
-    expect(r.stderr).toMatch(/--test 'cvs': expected one of voltage-ramp, current-ramp, constant-voltage, constant-current \(optionally \/positive or \/negative\), or all/);
+    expect(r.stderr).toMatch(
+      /--test 'cvs': expected one of voltage-ramp, current-ramp, constant-voltage, constant-current \(optionally \/positive or \/negative\), or all/,
+    );
   });
 
   it('bad input says what and where, exit 2', () => {
