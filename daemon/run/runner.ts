@@ -186,19 +186,13 @@ export class RunController {
       if (!this.offSent) this.offSent = this.source.emergencyOff((e as Error).message);
       offSent = await this.offSent;
       // Once an abort has begun, whatever else fails (a cancelled command, a refused level) is its consequence.
-      if (e instanceof AbortSignalled || this.aborting) {
+      const aborted = e instanceof AbortSignalled || this.aborting;
+      if (aborted) {
         outcome = this.abortOutcome;
         reason = this.abortReason ?? (e as Error).message;
-        if (this.sweepOpen) this.safely(() => this.chain.endSweep(false, `aborted: ${reason}`));
-      } else {
-        ({ outcome, reason } = this.classify(e as Error));
-        if (this.sweepOpen) this.safely(() => this.chain.endSweep(false, `ended by: ${reason}`));
-        this.record({
-          type: 'caution',
-          kind: outcome === 'journal-fault' ? 'journal-fault' : 'instrument-fault',
-          message: `${outcome === 'guard-refused' ? 'The safety guard refused a command' : outcome === 'journal-fault' ? 'The journal could not be written' : 'Instrument fault'}: ${reason}. Output off was sent at once; check the instrument's front panel before touching the fixture.`,
-        });
-      }
+      } else ({ outcome, reason } = this.classify(e as Error));
+      // The journal records the output off where it happened: before the interrupted sweep is
+      // closed and fitted (a fit takes its time; the output did not wait for it).
       this.record({
         type: 'output',
         on: false,
@@ -206,6 +200,16 @@ export class RunController {
         confirmed: false,
         reason: offSent ? `output off sent after: ${reason}` : `output off could NOT be sent (the connection is gone) after: ${reason}`,
       });
+      if (aborted) {
+        if (this.sweepOpen) this.safely(() => this.chain.endSweep(false, `aborted: ${reason}`));
+      } else {
+        if (this.sweepOpen) this.safely(() => this.chain.endSweep(false, `ended by: ${reason}`));
+        this.record({
+          type: 'caution',
+          kind: outcome === 'journal-fault' ? 'journal-fault' : 'instrument-fault',
+          message: `${outcome === 'guard-refused' ? 'The safety guard refused a command' : outcome === 'journal-fault' ? 'The journal could not be written' : 'Instrument fault'}: ${reason}. Output off was sent at once; check the instrument's front panel before touching the fixture.`,
+        });
+      }
     }
     // The instrument's own word on its output.
     const check = await this.source.confirmOff();

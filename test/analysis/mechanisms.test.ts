@@ -76,6 +76,10 @@ describe('synthetic recovery: forward model → noisy data → fit → known par
     expect(Math.abs(p.value - 4)).toBeLessThan(3 * p.stdErr);
     expect(r.plausible).toBe(true);
     expect(r.notes.join(' ')).toMatch(/agrees with n²/);
+    // Without the refractive index the check cannot be made, and the fit says so.
+    const u = analyze({ x: v, y: i }, { model: 'poole-frenkel', inputs: { thickness: d, area, temperature: 300 } });
+    expect(u.notes.join(' ')).toMatch(/ε_r = [34]\.\d+ ± \S+ is not checked against n² \(no refractive index given/);
+    expect(u.notes.join(' ')).not.toMatch(/agrees with n²/);
   });
 
   it('schottky: ε_r = 2.13 and φ_B = 1.0 eV from slope and intercept', () => {

@@ -196,6 +196,29 @@ describe("the operator's terminal goes away", () => {
     expect(receivedAfter(smu, ':OUTP OFF').filter((l) => l.startsWith(':SOUR:VOLT') || l === ':OUTP ON')).toEqual([]);
     expect(c.out()).toMatch(/run ended: interrupted — the terminal closed \(SIGHUP\)/);
   });
+  it('Ctrl-C (SIGINT) mid-sweep: exit 8, the output off at the instrument before the interrupted sweep is fitted, nothing sourced after it', async () => {
+    const smu = simulator({ readDelayMs: 20 });
+    const dir = tempDir();
+    const data = join(dir, 'data');
+    const cfg = writeConfig(dir, { instrument: await tcpInstrument(smu), plan: { ...PLAN, repeat: 100 }, analysis: FN });
+    const c = runChild(cfg, data);
+    // Mid-sweep: past the first sweep and a few readings into a later one.
+    await waitUntil(() => smu.received.filter((r) => r.line === ':READ?').length >= PLAN.points + 10, 'a second sweep under way');
+    c.p.kill('SIGINT');
+    expect(await c.exited).toBe(8);
+    expect(smu.output).toBe(false);
+    expect(receivedAfter(smu, ':OUTP OFF').filter((l) => l.startsWith(':SOUR:VOLT') || l === ':OUTP ON')).toEqual([]);
+    expect(c.out()).toMatch(/interrupted \(SIGINT\); turning the output off/);
+    // The journal: the output-off record comes before any fit of the interrupted sweep's readings
+    // (the fit, which takes its time, waits; the output does not).
+    const session = /session (\S+)/.exec(c.out())?.[1] as string;
+    const ev = journal(join(data, session));
+    const off = ev.find((e) => e.type === 'output' && !e.on);
+    expect(off, 'an output-off record').toBeDefined();
+    const last = Math.max(...ev.filter((e) => e.type === 'reading').map((e) => (e as Extract<WireEvent, { type: 'reading' }>).sweep));
+    const lateFits = ev.filter((e) => e.type === 'fit' && e.final && e.sweep === last);
+    for (const f of lateFits) expect(f.seq, `final fit of sweep ${last}`).toBeGreaterThan((off as WireEvent).seq);
+  });
 });
 
 describe('abort while a reading is in flight', () => {

@@ -37,7 +37,12 @@ export function checkAgainstIndex(
   notes: string[],
   other: { name: string; factor: number },
 ): boolean {
-  if (n === undefined) return true;
+  if (n === undefined) {
+    notes.push(
+      `ε_r = ${fmt(eps)} ± ${fmt(epsStdErr)} is not checked against n² (no refractive index given, --refractive-index): that agreement is the usual test that the current is this emission and not ${other.name} or tunnelling`,
+    );
+    return true;
+  }
   const n2 = n * n;
   const agrees = (e: number, se: number) => Math.abs(e - n2) <= Math.max(0.15 * n2, 2 * se);
   if (agrees(eps, epsStdErr)) {
