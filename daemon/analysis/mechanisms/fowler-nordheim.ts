@@ -3,8 +3,17 @@
  * Forbes' form, Appl. Phys. Lett. 89, 113122, 2006):
  *   J = a/(m_r·φ)·E²·exp(−b·√m_r·φ^{3/2}/E),  a = q³/(8πh), b = (8π/3)√(2m₀)/(qh).
  * ln(J/E²) against 1/E is straight with slope −b√m_r φ^{3/2}, so φ = (−slope/(b√m_r))^{2/3}.
- * The intercept in principle gives m_r·φ but depends on the effective area; it is not used.
+ * The intercept in principle gives m_r·φ but depends on the effective area; it is not used for a
+ * parameter. It is used as a check (our own rule, on the prefactor's consistency): with the given
+ * area, the intercept implies a prefactor that should be near a/(m_r·φ) for the fitted φ. A wrong
+ * thickness moves the two apart — given d too large by k, φ falls by k^(2/3) and the implied
+ * prefactor rises about k^(4/3) times over the expected one (k = 10: 21×) — as does a wrong area or
+ * another mechanism; the image force and temperature change the prefactor by much less (Lenzlinger
+ * & Snow 1969). More than 10× either way is a warning.
  */
+
+/** Ratio between the prefactor an FN line's intercept implies and a/(m_r·φ), beyond which a warning is given. */
+const PREFACTOR_RATIO = 10;
 import { FN_A_A_EV_PER_V2, FN_B_EV32_V_PER_M } from '../constants.js';
 import { currentUnit, field, fmt, inRange, param, type Extraction, type Mechanism } from '../mechanism.js';
 
@@ -48,6 +57,14 @@ export const fowlerNordheimMechanism: Mechanism = {
     const b = barrierFromTunnellingSlope(line.slope, line.slopeStdErr, inputs.massRatio);
     const plausible = inRange(warnings, 'barrier height', b.value, 0.3, 6, 'eV');
     notes.push(`barrier ${fmt(b.value)} eV for m* / m0 = ${fmt(inputs.massRatio)}`);
+    if (inputs.area !== undefined && plausible) {
+      // ln of the prefactor the line implies, against ln a/(m_r φ) (both A/V², J in A/m²).
+      const ratio = Math.exp(line.intercept - Math.log(FN_A_A_EV_PER_V2 / (inputs.massRatio * b.value)));
+      const said = `the intercept implies a prefactor ${fmt(ratio)} times the Fowler–Nordheim value a/(m* φ) for this barrier and area`;
+      if (ratio > PREFACTOR_RATIO || ratio < 1 / PREFACTOR_RATIO)
+        warnings.push(`${said}: check the thickness and the area (a thickness ten times too large gives about 21×, ten times too small an implausible barrier), or whether the current is Fowler–Nordheim tunnelling`);
+      else notes.push(said);
+    }
     return { parameters: { barrierHeight: param(b.value, b.stdErr, 'eV') }, warnings, plausible, notes };
   },
   forward: (v, p, inp) => fowlerNordheim(field(v, inp), p.barrierHeight, inp.massRatio),
