@@ -29,6 +29,8 @@ export interface VoltageRampCriteria {
   readonly currentJump: number;
   readonly slopeFactor: number;
   readonly slopeWindow: number;
+  /** Bias span each local slope is taken over, V (default 0.1). */
+  readonly slopeSpan?: number;
   readonly currentLimit?: number;
   readonly floor: number;
 }
@@ -51,10 +53,14 @@ export function biasHeldAtCompliance(programmed: number, measured: number, drop 
  * compares the local slope d ln|I|/dV with the median of the previous `slopeWindow` slopes: a
  * tunnelling or emission current has a slope that falls smoothly as the bias rises, so a slope that
  * suddenly triples marks a new conduction path (a soft breakdown); the jump test catches the hard
- * breakdown that a decade step in one reading means.
+ * breakdown that a decade step in one reading means. Each local slope is taken from the newest
+ * reading at least `slopeSpan` below (the previous one when the steps are coarser), so that fine
+ * steps do not turn reading noise into slope.
  */
 export class VoltageRampJudge {
   private prev: { v: number; i: number } | undefined;
+  /** Readings above the floor, for the slope's base (pruned to what the span needs). */
+  private readonly history: { v: number; i: number }[] = [];
   private readonly slopes: number[] = [];
   private n = 0;
 
@@ -94,9 +100,21 @@ export class VoltageRampJudge {
         numbers: { voltage: v, current: i, previous: p.i, ratio },
       };
     }
-    const dv = v - p.v;
-    if (c.slopeFactor > 0 && dv !== 0) {
-      const s = Math.log(a / p.i) / Math.abs(dv);
+    // The slope's base: the newest earlier reading at least slopeSpan below this one.
+    const span = c.slopeSpan ?? 0.1;
+    this.history.push({ v, i: a });
+    let base: { v: number; i: number } | undefined;
+    for (let j = this.history.length - 2; j >= 0; j--) {
+      if (Math.abs(v - this.history[j].v) >= span - 1e-12) {
+        base = this.history[j];
+        // Older readings are never needed again: the next base is at least this one.
+        if (j > 0) this.history.splice(0, j);
+        break;
+      }
+    }
+    const dv = base ? v - base.v : 0;
+    if (c.slopeFactor > 0 && base && dv !== 0) {
+      const s = Math.log(a / base.i) / Math.abs(dv);
       if (this.slopes.length >= c.slopeWindow) {
         const recent = this.slopes.slice(-c.slopeWindow).sort((x, y) => x - y);
         const med = recent[recent.length >> 1];

@@ -81,6 +81,12 @@ const rampCriteria = z
     slopeFactor: z.number().min(0).default(3),
     /** Steps in that recent median. */
     slopeWindow: z.number().int().min(2).max(100).default(5),
+    /**
+     * Bias span over which each local slope is taken, V: from the reading at least this far below.
+     * Steps much finer than it would otherwise make the slope of two neighbouring readings mostly
+     * their noise (0.5 % noise over 1 mV is 7 /V, the size of a tunnelling current's own slope).
+     */
+    slopeSpan: z.number().positive().finite().default(0.1),
     /** |I| at or above this is breakdown, A (default: the compliance). */
     currentLimit: z.number().positive().finite().optional(),
     /** Below this current the ratio and slope tests are not applied (the noise floor), A. */

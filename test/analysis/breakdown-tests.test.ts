@@ -19,6 +19,7 @@ import {
 import { chargeScaleAt, unitWeibull } from '../../daemon/analysis/wearout.js';
 import { AdaptiveSweep } from '../../daemon/analysis/adaptive-sweep.js';
 import { fowlerNordheim } from '../../daemon/analysis/mechanisms/fowler-nordheim.js';
+import { seededNormal } from '../../daemon/analysis/random.js';
 
 const CRITERIA = { currentJump: 10, slopeFactor: 3, slopeWindow: 5, floor: 1e-10 };
 
@@ -57,6 +58,35 @@ describe('voltage ramp', () => {
     for (let V = 2; V <= 20 && !verdict; V += 0.1) verdict = j.add(V, 1e-3 * V * V * Math.exp(-B / V), false);
     expect(verdict?.criterion).toBe('current-limit');
     expect(1e-3 * (verdict?.numbers.voltage ?? 0) ** 2 * Math.exp(-B / (verdict?.numbers.voltage ?? 1))).toBeGreaterThanOrEqual(1e-4);
+  });
+
+  it('fine steps: the slope is taken over slopeSpan, so reading noise is not a soft breakdown; a real step still is', () => {
+    // A 7 nm film's Fowler–Nordheim current (Fowler & Nordheim 1928; Forbes 2006 constants), 1 mV
+    // steps from 5 V, each reading with 0.5 % noise (a source-measure unit's gain term, common
+    // practice). Neighbouring readings' slope is then mostly noise: 0.5 %·√2 / 1 mV ≈ 7 /V against
+    // the current's own ≈ 7 /V near 5.5 V. The slope over 0.1 V keeps the noise near 0.07 /V.
+    const normal = seededNormal(5);
+    const fn = (V: number) => 1e-8 * fowlerNordheim(V / 7e-9, 3.1, 0.42);
+    const run = (span: number | undefined, step?: { at: number; factor: number }) => {
+      const j = new VoltageRampJudge({ ...CRITERIA, ...(span !== undefined ? { slopeSpan: span } : {}), currentLimit: 1e-4 }, 1e-2);
+      for (let k = 0; k <= 4000; k++) {
+        const V = 5 + 0.001 * k;
+        const i = fn(V) * (step && V >= step.at ? step.factor : 1) * (1 + 0.005 * normal());
+        const verdict = j.add(V, i, false);
+        if (verdict) return { ...verdict, V };
+      }
+      return undefined;
+    };
+    // Taken between neighbours (a span finer than the step), the noise trips the test early.
+    expect(run(1e-6)?.criterion).toBe('slope-change');
+    // Over the default 0.1 V: nothing until the current level (1e-4 A, near 8.9 V).
+    const clean = run(undefined);
+    expect(clean?.criterion).toBe('current-limit');
+    // A soft breakdown — the current ×3 at 6 V (ln 3 over one 1 mV step) — still fires as a slope change there.
+    const soft = run(undefined, { at: 6, factor: 3 });
+    expect(soft?.criterion).toBe('slope-change');
+    expect(soft?.V).toBeGreaterThanOrEqual(6);
+    expect(soft?.V).toBeLessThan(6.01);
   });
 
   it('readings under the floor never trigger the ratio tests; compliance always does', () => {

@@ -62,7 +62,9 @@ export const fowlerNordheimMechanism: Mechanism = {
       const ratio = Math.exp(line.intercept - Math.log(FN_A_A_EV_PER_V2 / (inputs.massRatio * b.value)));
       const said = `the intercept implies a prefactor ${fmt(ratio)} times the Fowler–Nordheim value a/(m* φ) for this barrier and area`;
       if (ratio > PREFACTOR_RATIO || ratio < 1 / PREFACTOR_RATIO)
-        warnings.push(`${said}: check the thickness and the area (a thickness ten times too large gives about 21×, ten times too small an implausible barrier), or whether the current is Fowler–Nordheim tunnelling`);
+        warnings.push(
+          `${said}: check the thickness and the area (a thickness ten times too large gives about 21×, ten times too small an implausible barrier), or whether the current is Fowler–Nordheim tunnelling`,
+        );
       else notes.push(said);
     }
     return { parameters: { barrierHeight: param(b.value, b.stdErr, 'eV') }, warnings, plausible, notes };
