@@ -263,6 +263,13 @@ export function parseDeviceIdentity(raw: unknown, where = 'device'): DeviceIdent
     } else {
       const unit = k === 'area' ? 'm^2' : k === 'thickness' ? 'm' : 'K';
       if (typeof v !== 'number' || !(v > 0) || !Number.isFinite(v)) throw new DeviceIdentityError(`${f}: expected a positive number in ${unit} (SI)`);
+      // Far beyond any film, pad or probe station: most often a unit left off (7 for 7 nm is 7 m).
+      const [lo, hi, where] =
+        k === 'area' ? [1e-14, 1e-2, '0.01 µm² – 100 cm²'] : k === 'thickness' ? [1e-10, 1e-3, '0.1 nm – 1 mm'] : [1, 1500, '1 K – 1500 K'];
+      if (v < lo || v > hi)
+        throw new DeviceIdentityError(
+          `${f}: ${v} ${unit} is outside ${where}, where such devices lie; the value is in ${unit} (SI) — was it given in another unit?`,
+        );
       out[k] = v;
     }
   }

@@ -74,7 +74,7 @@ const BARE = /^\s*[-+]?(\d+\.?\d*|\.\d+)(e[-+]?\d+)?\s*$/i;
  * A bare number is read in SI, so "--thickness 7" is 7 m: refused, with the unit it most likely
  * meant, when the value is far beyond any film or pad (the bounds of the fit's own input check).
  */
-function bareCheck(text: string | undefined, value: number | undefined, name: string, max: number, unit: string, guess: string): void {
+export function bareCheck(text: string | undefined, value: number | undefined, name: string, max: number, unit: string, guess: string): void {
   if (text === undefined || value === undefined || !BARE.test(text) || value <= max) return;
   throw new QuantityError(
     name,

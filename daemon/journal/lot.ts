@@ -270,8 +270,18 @@ export function lotResults(devices: readonly DeviceSummary[]): LotResult[] {
     const names = new Set(d.results.map((r) => r.device));
     for (const r of d.results) {
       const id = names.size === 1 ? d.identity : {};
+      // Figures the test derived from the geometry follow a corrected thickness or area: the field
+      // is (V − V_FB)/d and the charge ∫I dt/A, so each scales by the old value over the new.
+      const derived: { breakdownField?: number; chargeToBreakdown?: number } = {};
+      if (id.thickness !== undefined && r.thickness !== undefined && r.breakdownField !== undefined && id.thickness !== r.thickness)
+        derived.breakdownField = (r.breakdownField * r.thickness) / id.thickness;
+      else if (id.thickness !== undefined && r.thickness === undefined && r.breakdownField === undefined && r.breakdownVoltage !== undefined)
+        derived.breakdownField = r.breakdownVoltage / id.thickness;
+      if (id.area !== undefined && r.area !== undefined && r.chargeToBreakdown !== undefined && id.area !== r.area)
+        derived.chargeToBreakdown = (r.chargeToBreakdown * r.area) / id.area;
       out.push({
         ...r,
+        ...derived,
         ...(id.wafer !== undefined ? { wafer: id.wafer } : {}),
         ...(id.site !== undefined ? { site: id.site } : {}),
         ...(id.x !== undefined ? { x: id.x } : {}),

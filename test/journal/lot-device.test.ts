@@ -86,6 +86,14 @@ describe('device identity', () => {
     let b = runCli(['run', '--scenario', 'oxide-fn', '--fast', '--data', data, '--plan', plan]);
     expect(b.code).toBe(2);
     expect(b.stderr).toMatch(/plan\.json: device\.area: expected a positive number in m\^2/);
+    // A thickness in nanometres written as if it were SI (7 → 7 m): refused before anything is sent.
+    writeFileSync(plan, JSON.stringify({ kind: 'linear', start: 0, stop: 5, points: 11, compliance: 1e-3, device: { thickness: 7 } }));
+    b = runCli(['run', '--scenario', 'oxide-fn', '--fast', '--data', data, '--plan', plan]);
+    expect(b.code).toBe(2);
+    expect(b.stderr).toMatch(/plan\.json: device\.thickness: 7 m is outside 0\.1 nm – 1 mm/);
+    b = runCli(['run', '--scenario', 'oxide-fn', '--fast', '--data', data, '--thickness', '7']);
+    expect(b.code).toBe(2);
+    expect(b.stderr).toMatch(/--thickness '7': a bare number is read in metres.*"7 nm"/);
     b = runCli(['run', '--scenario', 'oxide-fn', '--fast', '--data', data, '--x', 'left']);
     expect(b.code).toBe(2);
     expect(b.stderr).toMatch(/--x 'left': expected a number/);

@@ -287,3 +287,29 @@ describe('results of the two polarities are not pooled unasked', () => {
     );
   });
 });
+
+describe('a corrected identity corrects the figures derived from it', () => {
+  it('a thickness or area corrected by an annotation rescales E_bd = (V − V_FB)/d and Q_bd = ∫I dt/A in the lot', () => {
+    const data = tmp();
+    // The test ran with the thickness given as 70 nm and the area as 1e-7 m² by mistake.
+    const wrong: DeviceResult = { ...ROWS[0], thickness: 7e-8, area: 1e-7, breakdownField: 8.05 / 7e-8, chargeToBreakdown: 0.041 };
+    const dir = writeSession(data, { label: 'd1', device: { device: 'D1', thickness: 7e-8, area: 1e-7 }, fits: [], results: [wrong] });
+    expect(lotResults([readSummary(dir).summary])[0].breakdownField).toBeCloseTo(8.05 / 7e-8, 0);
+    const scan = scanJournal(dir, () => undefined);
+    const w = JournalWriter.append(dir, scan.lastSeq, scan.lastT);
+    w.event({
+      type: 'annotation',
+      text: 'thickness and area from the process sheet',
+      tags: ['device'],
+      source: 'test',
+      device: { thickness: 7e-9, area: 1e-8 },
+    } as never);
+    w.close();
+    const r = lotResults([readSummary(dir).summary])[0];
+    expect(r.thickness).toBe(7e-9);
+    expect(r.breakdownField as number).toBeCloseTo(8.05 / 7e-9, 0);
+    expect(r.chargeToBreakdown as number).toBeCloseTo(0.41, 12);
+    // Unchanged where nothing was corrected: the voltage and the time.
+    expect(r.breakdownVoltage).toBe(8.05);
+  });
+});
