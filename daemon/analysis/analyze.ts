@@ -15,6 +15,7 @@ import { fmt } from './mechanism.js';
 import { compileCustom, customMechanism, type CustomSpec } from './mechanisms/custom.js';
 import { getMechanism } from './mechanisms/index.js';
 import { floorLevel, type NoiseModel } from './noise-floor.js';
+import { fitLine } from './line-fit.js';
 import { segmentLine } from './segmentation.js';
 import { chooseBranches, classifySweep, REASONS, type Branch, type SweepClasses } from './sweep-points.js';
 
@@ -180,6 +181,30 @@ export function oddInputs(inputs: Inputs, used: readonly InputName[]): string[] 
     out.push(`${k} ${r.show(v)} is outside ${r.what}, where such samples lie: inputs are in SI (${r.si}): check its unit (e.g. ${r.example})`);
   }
   return out;
+}
+
+/**
+ * The parameters a model's fit gives, learned by running its extraction once on a small straight
+ * line of the slope sign the mechanism expects (what a plan can be checked against before a run
+ * starts). Undefined when that cannot tell (a model whose extraction needs real data, or none).
+ */
+export function parameterNames(model: string, inputs: Inputs = {}): string[] | undefined {
+  try {
+    const mech = getMechanism(model);
+    const resolved = resolveInputs(mech, inputs);
+    const sign = mech.slopeSign ?? 1;
+    const x = Float64Array.from([1, 2, 3, 4]);
+    const y = Float64Array.from(x, (v) => sign * v + 0.01 * (v % 2));
+    const line = fitLine(x, y);
+    const pts: FitPoints = { x, y, w: Float64Array.from(x, () => 1), v: x, raw: x, current: Float64Array.from(x, (v) => 1e-9 * v) };
+    const names = Object.keys(mech.extract({ line, used: pts, all: pts, inputs: resolved }).parameters);
+    // The terms fitted beside the line, when the data carry them (fit-branch.ts).
+    if (mech.leakage) names.push('leakageResistance');
+    if (mech.series) names.push('seriesResistance');
+    return names.length > 0 ? names : undefined;
+  } catch {
+    return undefined;
+  }
 }
 
 function describeInput(k: InputName): string {

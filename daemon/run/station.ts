@@ -15,6 +15,7 @@ import { SmuDriver } from '../instrument/smu-driver.js';
 import { JournalWriter } from '../journal/journal.js';
 import { listSessions, recoverAll, scanJournal, type RecoveryReport } from '../journal/reader.js';
 import type { PlotView } from '../analysis/plot.js';
+import { parameterNames } from '../analysis/analyze.js';
 import { LiveChain } from '../pipeline/chain.js';
 import { RecentEvents } from '../pipeline/recent.js';
 import { analysisSchema, type AnalysisSettings, zodMessage } from '../pipeline/settings.js';
@@ -314,6 +315,15 @@ export class Station {
       analysis = { ...analysis, inputs: { ...analysis.inputs, ...Object.fromEntries(Object.entries(given).filter(([, v]) => v !== undefined)) } };
     }
     checkPlanSize(plan, this.dataDir);
+    if (plan.kind === 'adaptive') {
+      // A target the model does not give would sweep to the point budget: refused before the output goes on.
+      const names = parameterNames(analysis.model, analysis.inputs);
+      if (names && !names.includes(plan.target.parameter))
+        throw new StationError(
+          `plan: field 'target.parameter': '${plan.target.parameter}' is not a parameter of the ${analysis.model} fit (it gives ${names.join(', ')})`,
+          400,
+        );
+    }
     let dialect: Dialect;
     try {
       dialect = loadDialect(dialectOf(this.config));

@@ -361,18 +361,27 @@ describe('adaptive sweeps', () => {
     expect(ev).toHaveLength(3);
   });
 
-  it('a target the fit does not give is refused as soon as the first fit shows it (exit 7), with the output off', async () => {
+  it('a target the fit does not give is refused before anything is sent (exit 2, naming the field and what the fit gives)', async () => {
     const sc = findScenario('oxide-fn');
     const { inst, devices } = await instruments(() => new SimulatedSmu({ device: sc.device, seed: 6, realTime: false }));
     const dir = tempDir();
     const plan = { kind: 'adaptive', start: 0, stop: 10, maxPoints: 200, compliance: 1e-3, repeat: 3, target: { parameter: 'barierHeight', stdErr: 0.01 } };
     const cfg = writeConfig(dir, { instrument: inst, plan, analysis: { model: 'fowler-nordheim', window: 'auto', inputs: sc.device.inputs } });
     const r = await runCliAsync(['run', '--config', cfg, '--data', join(dir, 'data'), '--json']);
-    expect(r.code, r.stderr).toBe(7);
-    const res = JSON.parse(r.stdout);
-    expect(res.reason).toMatch(/field 'target.parameter': 'barierHeight' is not a parameter of the fowler-nordheim fit \(it gives barrierHeight[^)]*\)/);
-    expect(devices[0].output).toBe(false);
-    // Stopped in the first sweep, long before its 200-point budget.
-    expect(devices[0].log.filter((l) => l === ':READ?').length).toBeLessThan(60);
+    expect(r.code, r.stdout).toBe(2);
+    expect(r.stderr + r.stdout).toMatch(
+      /field 'target.parameter': 'barierHeight' is not a parameter of the fowler-nordheim fit \(it gives barrierHeight, leakageResistance\)/,
+    );
+    // Nothing reached the instrument: refused before it was even opened (no output on, no reading).
+    expect(devices.flatMap((d) => d.log.filter((l) => l === ':OUTP ON' || l === ':READ?'))).toEqual([]);
+    expect(devices.every((d) => !d.output)).toBe(true);
+    // A term fitted beside the line is a target the plan may name.
+    const ok = writeConfig(dir, {
+      instrument: inst,
+      plan: { ...plan, repeat: 1, maxPoints: 30, target: { parameter: 'leakageResistance', stdErr: 1 } },
+      analysis: { model: 'fowler-nordheim', window: 'auto', inputs: sc.device.inputs },
+    });
+    const r2 = await runCliAsync(['run', '--config', ok, '--data', join(dir, 'data2'), '--json']);
+    expect(r2.stderr).not.toMatch(/is not a parameter/);
   });
 });
