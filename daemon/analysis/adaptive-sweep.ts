@@ -55,13 +55,14 @@ const GOLDEN = (Math.sqrt(5) - 1) / 2;
  */
 const ASSUMED_GAIN = 1e-3;
 
-export type StopReason = 'target-reached' | 'current-limit' | 'compliance' | 'bias-limit' | 'point-budget';
+export type StopReason = 'target-reached' | 'current-limit' | 'compliance' | 'bias-limit' | 'earlier-top' | 'point-budget';
 
 export const STOP_MEANING: Record<StopReason, string> = {
   'target-reached': 'the parameter reached its target standard error',
   'current-limit': "the current reached the plan's current limit",
   compliance: 'the instrument reached its compliance',
   'bias-limit': 'the bias reached the end of the range',
+  'earlier-top': 'the bias reached the highest level an earlier sweep needed (a later sweep goes no higher)',
   'point-budget': 'the sweep used all of its points',
 };
 
@@ -323,7 +324,22 @@ export class AdaptiveSweep {
     const quiet = this.floorSigma();
     // A later sweep's onset is where it started; the regime's own start stays the earliest one seen.
     const onset = this.prior && (this.prior.onset - this.onset) * this.dir < 0 ? this.prior.onset : this.onset;
-    const ends = this.ends ?? (this.prior?.top !== undefined ? { low: this.prior.low, top: this.prior.top, why: this.prior.topReason } : undefined);
+    // The top a later sweep may not pass: the fill's, an earlier sweep's, or — when the target was
+    // reached on the way up — the highest level this sweep read (the stress shown to be enough).
+    // Only levels whose reading stayed below the current limit count.
+    let highest: number | undefined;
+    for (let k = 0; k < this.v.length; k++) {
+      if (!(Math.abs(this.i[k]) < this.settings.currentLimit)) continue;
+      if (highest === undefined || (this.v[k] - highest) * this.dir > 0) highest = this.v[k];
+    }
+    const limited = this.stopped === 'current-limit' || this.stopped === 'compliance';
+    const ends =
+      this.ends ??
+      (this.prior?.top !== undefined
+        ? { low: this.prior.low, top: this.prior.top, why: this.prior.topReason }
+        : highest !== undefined
+          ? { low: undefined, top: highest, why: (limited ? 'current-limit' : 'earlier-top') as StopReason }
+          : undefined);
     return {
       onset,
       floor: this.floor,

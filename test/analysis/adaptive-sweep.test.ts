@@ -108,6 +108,26 @@ describe('where the fill puts its readings', () => {
     expect(mid(lower(leaky))).toBeGreaterThan(mid(lower(plain)) + 0.5);
   });
 
+  it('a first sweep that met its target on the way up: later sweeps go no higher than it went', () => {
+    const first = new AdaptiveSweep({ ...base, leakage: true });
+    let v = first.first();
+    // Nine readings: up to 4.1 V of the 8 V range, short of the top.
+    for (let k = 0; k < 9; k++) {
+      const r = first.add(v, current(v), false);
+      if ('stop' in r) break;
+      v = r.next;
+    }
+    first.targetReached();
+    const known = first.knowledge();
+    expect(known?.top).toBeDefined();
+    expect(known?.topReason).toBe('earlier-top');
+    expect(known?.top as number).toBeLessThan(5);
+    const later = new AdaptiveSweep({ ...base, leakage: true }, known);
+    const l2 = drive(later, current);
+    expect(Math.max(...l2)).toBeLessThanOrEqual((known?.top as number) + 1e-12);
+    expect(later.stopReason).toBe('earlier-top');
+  });
+
   it('a later sweep starts at the earlier low end and never goes above the earlier top', () => {
     // A 10 µA limit: the first sweep's top is the current limit (near 4.0 V), below the range's end.
     const settings = { ...base, currentLimit: 1e-5, leakage: true };

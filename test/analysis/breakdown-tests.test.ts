@@ -175,7 +175,8 @@ describe('adaptive sweep plan', () => {
     expect('next' in r && r.next).toBeCloseTo(2.2, 12);
     expect(p.add(2.2, 2e-3, false)).toEqual({ stop: 'current-limit' });
     // The floor's σ for the fill's weights: the RMS of the two readings before the onset.
-    expect(p.knowledge()).toEqual({ onset: 2, floor: 2e-13, floorSigma: Math.sqrt((1e-26 + 4e-26) / 2) });
+    // The top a later sweep may not pass: the highest level read below the limit (2 V; the limit came at once, no fill).
+    expect(p.knowledge()).toEqual({ onset: 2, floor: 2e-13, floorSigma: Math.sqrt((1e-26 + 4e-26) / 2), top: 2, topReason: 'current-limit' });
     // The next sweep starts a fine step below the onset, in fine steps.
     const q = new AdaptiveSweep({ start: 0, stop: 12, maxPoints: 100, currentLimit: 1e-3 }, p.knowledge());
     expect(q.first()).toBeCloseTo(1.8, 12);
