@@ -221,28 +221,48 @@ export function loadData(file: string, o: AnalysisOptions): { table: CsvTable; d
   if (keep) for (const id of Object.keys(columns)) columns[id] = pick(columns[id]);
   // A unit in a header (Current (mA), I_mA, V [mV]) is read: the values go to the analysis in SI.
   // A bias column in amperes or a current column in volts is refused: the columns are swapped.
+  // SCPI's special values (IEEE 488.2 / SCPI: 9.91e37 not a number, ±9.9e37 over range), as an
+  // instrument's own file may hold them, are not readings: they become NaN (left out as 'not a
+  // finite number') and are counted in a note, before any unit scaling could disguise them.
+  let special = 0;
+  const readings = (k: number): Float64Array => {
+    const a = pick(table.columns[k]);
+    let out: Float64Array | undefined;
+    for (let j = 0; j < a.length; j++) {
+      if (Math.abs(a[j]) >= 9.8e37) {
+        out ??= Float64Array.from(a);
+        out[j] = Number.NaN;
+        special++;
+      }
+    }
+    return out ?? a;
+  };
   const scaled = (k: number, role: 'bias' | 'current'): Float64Array => {
     const h = table.headers[k];
     const { unit } = headerUnit(h);
-    if (unit === undefined) return pick(table.columns[k]);
+    if (unit === undefined) return readings(k);
     const kind = role === 'bias' ? 'voltage' : 'current';
     const f = unitScale(unit, kind);
     if (f === undefined && unitScale(unit, kind === 'voltage' ? 'current' : 'voltage') !== undefined) {
       throw new CsvError(file, undefined, h, `the ${role} column is in ${unit}: are x and y swapped? name them with --x (bias) and --y (current)`);
     }
-    if (f === undefined || f === 1) return pick(table.columns[k]);
+    if (f === undefined || f === 1) return readings(k);
     notes.push(`column '${h}' read in ${unit} and converted to ${role === 'bias' ? 'V' : 'A'}`);
-    return Float64Array.from(pick(table.columns[k]), (v) => v * f);
+    return Float64Array.from(readings(k), (v) => v * f);
   };
   notes.push(`columns used: x = '${table.headers[xi]}', y = '${table.headers[yi]}'`);
   const qi = table.headers.findIndex((h) => /^seq$/i.test(h));
   const seqs = qi >= 0 && !table.firstText[qi] ? pick(table.columns[qi]) : undefined;
+  const x = scaled(xi, 'bias');
+  const y = scaled(yi, 'current');
+  if (special > 0)
+    notes.push(`${special} value(s) were the SCPI over-range or not-a-number codes (±9.9e37, 9.91e37): not readings, left out as 'not a finite number'`);
   return {
     table,
     firstSeq: seqs && seqs.length > 0 ? seqs[0] : undefined,
     data: {
-      x: scaled(xi, 'bias'),
-      y: scaled(yi, 'current'),
+      x,
+      y,
       compliance: ci >= 0 && ci !== xi && ci !== yi ? pick(table.columns[ci]) : undefined,
       columns,
     },

@@ -80,6 +80,12 @@ export async function sessionDirs(dir: string | undefined, o: ArchiveSessionOpti
   if (o.postgres === undefined) {
     if (given.length > 0) throw new UsageError(`--${given[0]} reads from the archive: give --postgres URL too`);
     if (dir === undefined) throw new UsageError('give a session folder, or --postgres URL with --session NAME');
+    const { statSync } = await import('node:fs');
+    const st = statSync(resolve(dir), { throwIfNoEntry: false });
+    if (st?.isFile())
+      throw new UsageError(
+        `${dir} is a file, not a session folder (a folder holding journal.jsonl, e.g. plumbline-data/<session>); to analyse a CSV use plumbline fit or rank`,
+      );
     return [resolve(dir)];
   }
   if (dir !== undefined) throw new UsageError('give a session folder or --postgres, not both');

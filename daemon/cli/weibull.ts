@@ -224,6 +224,11 @@ export function registerWeibull(program: Command): void {
     const bounds = readBounds(o.bounds);
     const area = o.area !== undefined ? parseQuantity(o.area, 'area', '--area') : undefined;
     const toArea = o.toArea !== undefined ? parseQuantity(o.toArea, 'area', '--to-area') : undefined;
+    {
+      const { bareCheck } = await import('./inputs.js');
+      bareCheck(o.area, area, '--area', 1e-2, 'square metres', 'cm^2');
+      bareCheck(o.toArea, toArea, '--to-area', 1e-2, 'square metres', 'cm^2');
+    }
     const s = await gatherSample(inputs, o, area);
     if (toArea !== undefined && s.area === undefined)
       throw new UsageError("--to-area needs the devices' area: give --area (or an area column / device area in the sessions)");

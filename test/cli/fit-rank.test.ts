@@ -238,6 +238,23 @@ describe('whole sweeps from the command line, no window given (test/helpers/whol
       'some ΔAICc in exponent form',
     ).toBe(true);
   });
+  it('the SCPI codes for over range and not a number (±9.9e37, 9.91e37) in a file are not readings: left out, counted, the fit unchanged', () => {
+    const sweep = wholeSweep({ ...spec, seed: 13 });
+    const clean = JSON.parse(runCli(['fit', tempFile('fn-clean.csv', toCsv(sweep)), '--model', 'fowler-nordheim', ...args, '--json']).stdout);
+    const lines = toCsv(sweep).trim().split('\n');
+    const k = lines.length - 5;
+    // Two readings of the high-field end replaced by the codes an instrument's own file may carry.
+    lines[k] = `${lines[k].split(',')[0]},9.91e37`;
+    lines[k + 1] = `${lines[k + 1].split(',')[0]},9.9E+37`;
+    const r = runCli(['fit', tempFile('fn-codes.csv', `${lines.join('\n')}\n`), '--model', 'fowler-nordheim', ...args, '--json']);
+    expect(r.code, r.stderr).toBe(0);
+    const out = JSON.parse(r.stdout);
+    expect(out.notes.join(' ')).toMatch(/2 value\(s\) were the SCPI over-range or not-a-number codes/);
+    expect(out.points.reasons['not a finite number']).toBe(2);
+    expect(out.plausible).toBe(true);
+    const b = out.parameters.barrierHeight;
+    expect(Math.abs(b.value - clean.parameters.barrierHeight.value)).toBeLessThan(3 * b.stdErr);
+  });
   it('rank: Fowler–Nordheim first, weights summing to 1', () => {
     const file = tempFile('fn-whole.csv', toCsv(wholeSweep({ ...spec, seed: 12 })));
     const r = runCli(['rank', file, ...args, '--refractive-index', '1.46', '--json']);

@@ -18,6 +18,15 @@ describe('messages', () => {
     });
   }
 
+  it('a CSV given where a session folder is expected is called a file, with what to use instead (exit 2, no stack trace)', () => {
+    for (const cmd of ['export', 'report']) {
+      const r = runCli([cmd, file]);
+      expect(r.code, cmd).toBe(2);
+      expect(r.stderr).toMatch(/iv\.csv is a file, not a session folder .*plumbline fit or rank/);
+      expect(r.stderr).not.toMatch(/ENOTDIR|at \w+ \(/);
+    }
+  });
+
   it('a plan file that is not valid JSON names its line and column; a folder that does not exist is said to be missing', () => {
     const plan = tempFile('bad-plan.json', '{ "kind": "linear",\n  "start": 0, stop: 1 }\n');
     const r = runCli(['run', '--scenario', 'oxide-fn', '--fast', '--plan', plan]);

@@ -130,6 +130,10 @@ describe('plumbline weibull', () => {
     r = runCli(['weibull', neg, '--quantity', 'E']);
     expect(r.code).toBe(2);
     expect(r.stderr).toMatch(/n\.csv, line 3, column 'E': -3 is not a positive value/);
+    // A bare area is m²: "--to-area 1" would scale to a square metre.
+    r = runCli(['weibull', neg, '--quantity', 'E', '--to-area', '1']);
+    expect(r.code).toBe(2);
+    expect(r.stderr).toMatch(/--to-area '1': a bare number is read in square metres.*"1 cm\^2"/);
     const vals = tempFile('u.csv', 'E\n1.1e9\n1.2e9\n1.3e9\n');
     r = runCli(['weibull', vals, '--quantity', 'E', '--unit', 'MV/cm']);
     expect(r.code).toBe(2);

@@ -56,7 +56,12 @@ export const sclc: Mechanism = {
       const k = (8 * thickness ** 3) / (9 * VACUUM_PERMITTIVITY_F_PER_M * permittivity);
       parameters.mobility = param(k * s, k * line.slopeStdErr, 'm^2/(V*s)');
     } else {
-      warnings.push('mobility needs area, thickness and permittivity');
+      const missing = [
+        area === undefined ? 'area' : '',
+        thickness === undefined ? 'thickness' : '',
+        permittivity === undefined ? 'permittivity (--permittivity)' : '',
+      ].filter(Boolean);
+      warnings.push(`mobility needs the ${missing.join(', ')} as well`);
     }
     if (area !== undefined && thickness !== undefined) {
       parameters.conductivity = param(c * thickness, line.interceptStdErr * thickness, 'S/m');
