@@ -14,6 +14,8 @@
  * nominal run length says).
  */
 
+import { studentTQuantile } from './student-t.js';
+
 export interface DriftSettings {
   readonly method: 'ewma' | 'cusum';
   /** Number of sweeps in the Phase-I baseline (≥ 2). */
@@ -125,10 +127,44 @@ export class DriftChart {
     return { phase: 'monitor', statistic: this.cPlus >= this.cMinus ? this.cPlus : -this.cMinus, center: 0, lower: -H, upper: H, sigma: this.sigma, state };
   }
 
+  /**
+   * A trend through the baseline sweeps, when there is one: the least-squares slope of the values
+   * against the sweep number, per sweep, with its standard error from the larger of the scatter
+   * about the line and the fits' own errors; set when the slope lies beyond the two-sided 99 % point
+   * of Student's t with n − 2 degrees of freedom (and at least 3 standard errors; four baseline
+   * sweeps at least). Limits are only meaningful from an in-control
+   * baseline (phase I of a control chart: Montgomery, Introduction to Statistical Quality Control,
+   * 7th ed. 2013, §5.4 — from memory); a trending one widens them and the watch reacts late.
+   */
+  baselineTrend: { slope: number; stdErr: number; sweeps: number } | undefined;
+
+  private trendOf(vals: readonly number[], meanSe: number): { slope: number; stdErr: number; sweeps: number } | undefined {
+    const n = vals.length;
+    if (n < 4) return undefined;
+    const mx = (n - 1) / 2;
+    const my = vals.reduce((a, b) => a + b, 0) / n;
+    let sxx = 0;
+    let sxy = 0;
+    for (let k = 0; k < n; k++) {
+      sxx += (k - mx) ** 2;
+      sxy += (k - mx) * (vals[k] - my);
+    }
+    const slope = sxy / sxx;
+    let sse = 0;
+    for (let k = 0; k < n; k++) sse += (vals[k] - my - slope * (k - mx)) ** 2;
+    const s = Math.max(Math.sqrt(sse / (n - 2)), meanSe);
+    const stdErr = s / Math.sqrt(sxx);
+    // Beyond the two-sided 99 % point of Student's t for n − 2 degrees of freedom (at least 3):
+    // with five baseline sweeps the scatter is known from three, and a plain 3σ would cry wolf.
+    const limit = Math.max(3, studentTQuantile(0.99, n - 2));
+    return stdErr > 0 && Math.abs(slope) >= limit * stdErr ? { slope, stdErr, sweeps: n } : undefined;
+  }
+
   private closeBaseline(): void {
     const vals = this.base.map((b) => b.value);
     this.mu = vals.reduce((a, b) => a + b, 0) / vals.length;
     const meanSe = this.base.reduce((a, b) => a + b.stdErr, 0) / this.base.length;
+    this.baselineTrend = this.trendOf(vals, meanSe);
     this.sigma = Math.max(movingRangeSigma(vals), meanSe, this.settings.minRelativeSigma * Math.abs(this.mu), Number.MIN_VALUE);
     this.z = this.mu;
   }

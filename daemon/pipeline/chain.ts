@@ -460,6 +460,18 @@ export class LiveChain {
         : cfg.method === 'ewma'
           ? `EWMA ${q(point.statistic, 5)}${unit} outside [${q(point.lower, 5)}, ${q(point.upper, 5)}]${unit}`
           : `CUSUM ${q(point.statistic, 3)}${unit} beyond ±${q(point.upper, 3)}${unit}`;
+    const trend = this.drift.baselineTrend;
+    if (trend && point.phase === 'baseline' && point.center !== null) {
+      // The baseline just closed on sweeps that trend: the limits it sets are wide.
+      const first = this.sweep - trend.sweeps + 1;
+      this.emit({
+        type: 'caution',
+        kind: 'drift-warning',
+        sweep: this.sweep,
+        numbers: { slope: trend.slope, slopeStdErr: trend.stdErr },
+        message: `${name} trends through the baseline sweeps ${first}–${this.sweep}: ${trend.slope > 0 ? '+' : ''}${q(trend.slope, 3)}${unit} per sweep (${formatNumber(Math.abs(trend.slope / trend.stdErr), 2)} standard errors). The drift limits built on a moving baseline are wide and the watch may react late: the device may still be settling (let it, then start the baseline again), or the trend is the drift.`,
+      });
+    }
     if (point.state === 'out-of-control') {
       const reason = `${name} drifted in sweep ${this.sweep}: ${stat} (baseline centre ${q(point.center, 5)}${unit}, σ ${q(point.sigma, 3)}${unit})`;
       this.emit({ type: 'caution', kind: 'drift-limit', sweep: this.sweep, numbers, message: `Drift: ${reason}.` });

@@ -12,6 +12,9 @@ import { BreakdownWatch, DEFAULT_BREAKDOWN } from '../../daemon/analysis/breakdo
 import { DEFAULT_DRIFT, DriftChart, ewmaSigma, ewmaStep, movingRangeSigma } from '../../daemon/analysis/drift.js';
 import { fowlerNordheimMechanism as fowlerNordheim } from '../../daemon/analysis/mechanisms/fowler-nordheim.js';
 import { resolveInputs, transformPoint } from '../../daemon/analysis/analyze.js';
+import { seededNormal } from '../../daemon/analysis/random.js';
+import { studentTQuantile, studentTTwoSided } from '../../daemon/analysis/student-t.js';
+import { runScipy } from '../helpers/scipy.js';
 
 describe('EWMA (NIST/SEMATECH §6.3.2.4)', () => {
   it('reproduces the recursion on the handbook example series (values from memory; z by hand)', () => {
@@ -136,5 +139,44 @@ describe("breakdown watch: each reading against the sweep's own trend (signature
     expect(w.add(6.3, 5e-4, false)?.state).toBe('suspected'); // 5.4 decades above 1.2e-9 within three steps
     const w2 = new BreakdownWatch(DEFAULT_BREAKDOWN, 1e-3);
     for (const i of [1e-15, 3e-13, 2e-15, 8e-14, 1e-15, 9e-11]) expect(w2.add(1, i, false)).toBeUndefined();
+  });
+});
+
+describe("Student's t and the baseline's trend", () => {
+  it('P(|T| < t) and its quantile agree with scipy.stats.t (a general-purpose reference library) for 1–40 degrees of freedom', () => {
+    const cases: [number, number][] = [];
+    for (const nu of [1, 2, 3, 4, 5, 7, 8, 13, 40]) for (const t of [0.3, 1, 2.5, 6]) cases.push([t, nu]);
+    const asked: [number, number][] = [
+      [0.95, 3],
+      [0.99, 3],
+      [0.99, 8],
+      [0.9, 1],
+      [0.999, 20],
+    ];
+    const ours = asked.map(([p, nu]) => [studentTQuantile(p, nu), nu]);
+    // scipy's P(|T| < t) at our quantiles (its own ppf is good to about 1e-8 here; the CDF to ~1e-15).
+    const ref = runScipy<{ cdf: number[]; at: number[] }>(
+      'import json,sys\nfrom scipy.stats import t\nd=json.load(sys.stdin)\nf=lambda x,n: float(2*t.cdf(x,n)-1)\nprint(json.dumps({"cdf":[f(x,n) for x,n in d["c"]],"at":[f(x,n) for x,n in d["q"]]}))',
+      { c: cases, q: ours },
+    );
+    cases.forEach(([t, nu], k) => expect(studentTTwoSided(t, nu), `t ${t}, ν ${nu}`).toBeCloseTo(ref.cdf[k], 12));
+    asked.forEach(([p], k) => expect(ref.at[k], `quantile ${p}, ν ${asked[k][1]}`).toBeCloseTo(p, 12));
+  });
+
+  it('a baseline that climbs is called a trend; a flat one with the scatter its errors state seldom is (about the 1 % the test allows)', () => {
+    const normal = seededNormal(17);
+    const make = (slope: number) => {
+      const c = new DriftChart({ ...DEFAULT_DRIFT, baseline: 5 });
+      for (let k = 0; k < 5; k++) c.add(3.1 + slope * k + 2e-4 * normal(), 2e-4);
+      return c.baselineTrend;
+    };
+    // The trapping oxide's figures: +0.036 eV per sweep against 2e-4 eV errors.
+    const t = make(0.036);
+    expect(t).toBeDefined();
+    expect(t?.slope as number).toBeCloseTo(0.036, 3);
+    expect(t?.sweeps).toBe(5);
+    let alarms = 0;
+    for (let r = 0; r < 2000; r++) if (make(0)) alarms++;
+    expect(alarms / 2000).toBeLessThan(0.02);
   });
 });
