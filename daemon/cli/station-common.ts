@@ -171,8 +171,18 @@ export function describe(e: WireEvent): string | undefined {
         .slice(0, 3)
         .map(([k, v]) => `${k} = ${formatParameterText(v, k)}${v.stdErr === null || !Number.isFinite(v.stdErr) ? ' (uncertainty not determined)' : ''}`);
       // A wrong answer is never silent: an implausible fit says so, with every warning.
-      const head = `sweep ${e.sweep}: ${e.fit.model} fit on ${e.fit.line.n} points, ${p.join(', ')}${e.fit.plausible ? '' : ' — NOT PLAUSIBLE'}`;
-      return [head, ...e.fit.warnings.map((w) => `         warning: ${w}`)].join('\n');
+      const head = `sweep ${e.sweep}: ${e.fit.model} fit on ${e.fit.line.n} points${p.length ? `, ${p.join(', ')}` : ''}${e.fit.plausible ? '' : ' — NOT PLAUSIBLE'}`;
+      const lines = [head, ...e.fit.warnings.map((w) => `         warning: ${w}`)];
+      // An illuminated cell (analysis option solar): its figures of merit, in the trade's units.
+      if (e.solar) {
+        const figs = Object.entries(e.solar.figures)
+          .filter(([, v]) => v && Number.isFinite(v.value))
+          .map(([k, v]) => `${k} ${formatParameterText(v, k)}`);
+        if (figs.length) lines.push(`         solar cell: ${figs.join(', ')}`);
+        if (e.solar.error) lines.push(`         solar cell: no figures (${e.solar.error})`);
+        for (const w of e.solar.warnings) lines.push(`         warning: ${w}`);
+      }
+      return lines.join('\n');
     }
     case 'drift':
       return e.state === 'baseline' || e.state === 'no-value'

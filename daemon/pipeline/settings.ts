@@ -78,8 +78,63 @@ export const breakdownSchema = z
 
 export type BreakdownConfig = z.infer<typeof breakdownSchema>;
 
-/** First zod issue as "where: field 'a.b': message". */
-export function zodMessage(error: z.ZodError, where: string): string {
+/** Edit distance (Levenshtein), for "did you mean". */
+function editDistance(a: string, b: string): number {
+  const d = Array.from({ length: b.length + 1 }, (_, j) => j);
+  for (let i = 1; i <= a.length; i++) {
+    let prev = d[0];
+    d[0] = i;
+    for (let j = 1; j <= b.length; j++) {
+      const t = d[j];
+      d[j] = Math.min(d[j] + 1, d[j - 1] + 1, prev + (a[i - 1].toLowerCase() === b[j - 1].toLowerCase() ? 0 : 1));
+      prev = t;
+    }
+  }
+  return d[b.length];
+}
+
+/** The value at a path of a raw JSON object (undefined when absent). */
+function at(raw: unknown, path: readonly PropertyKey[]): unknown {
+  let v = raw;
+  for (const k of path) {
+    if (typeof v !== 'object' || v === null) return undefined;
+    v = (v as Record<PropertyKey, unknown>)[k];
+  }
+  return v;
+}
+
+/** The keys an object schema knows (for "did you mean"), at a path of nested objects. */
+function knownKeys(schema: z.ZodType | undefined, path: readonly PropertyKey[]): string[] {
+  let s = schema as unknown as { shape?: Record<string, unknown> } | undefined;
+  for (const k of path) {
+    const next = s?.shape?.[String(k)] as { shape?: Record<string, unknown>; unwrap?: () => unknown } | undefined;
+    s = (next?.shape ? next : (next?.unwrap?.() as typeof s)) ?? undefined;
+  }
+  return Object.keys(s?.shape ?? {});
+}
+
+/**
+ * First zod issue as "where: field 'a.b': message", in words a person acts on: a missing field is
+ * called missing, a quantity written as text ("1 mA") is told to be a JSON number in SI units, an
+ * unknown key gets the known one it most likely meant. `raw` is the input that failed; `schema`
+ * the object schema, for the known keys.
+ */
+export function zodMessage(error: z.ZodError, where: string, raw?: unknown, schema?: z.ZodType): string {
   const i = error.issues[0];
-  return `${where}: field '${i.path.join('.') || '(root)'}': ${i.message}`;
+  const field = i.path.join('.') || '(root)';
+  if (i.code === 'invalid_type' && raw !== undefined) {
+    const v = at(raw, i.path);
+    if (v === undefined) return `${where}: field '${field}': missing (${i.expected === 'number' ? 'a number, in SI units' : `expected ${i.expected}`})`;
+    if (typeof v === 'string' && i.expected === 'number')
+      return `${where}: field '${field}': '${v}' is text; plans and configs are JSON with numbers in SI units (V, A, s, m, m², K): write the number, e.g. 0.001 for 1 mA`;
+  }
+  if (i.code === 'unrecognized_keys') {
+    const keys = knownKeys(schema, i.path);
+    const hints = i.keys.map((k) => {
+      const best = keys.map((c) => ({ c, d: editDistance(k, c) })).sort((a, b) => a.d - b.d)[0];
+      return best && best.d <= 2 ? `'${k}' (did you mean '${best.c}'?)` : `'${k}'`;
+    });
+    return `${where}: field '${field}': unknown field ${hints.join(', ')}${keys.length ? ` (known: ${keys.join(', ')})` : ''}`;
+  }
+  return `${where}: field '${field}': ${i.message}`;
 }

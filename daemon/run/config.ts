@@ -156,7 +156,7 @@ export class ConfigError extends Error {
 
 export function parseConfig(raw: unknown, where: string): StationConfig {
   const r = stationSchema.safeParse(raw);
-  if (!r.success) throw new ConfigError(zodMessage(r.error, where));
+  if (!r.success) throw new ConfigError(zodMessage(r.error, where, raw, stationSchema));
   return r.data;
 }
 

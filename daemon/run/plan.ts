@@ -11,6 +11,7 @@
  */
 import { statfsSync } from 'node:fs';
 import { z } from 'zod';
+import { zodMessage } from '../pipeline/settings.js';
 
 export const sweepPlanSchema = z
   .object({
@@ -310,10 +311,7 @@ export function parsePlan(raw: unknown, where = 'plan'): Plan {
             ? constantStressPlanSchema
             : sweepPlanSchema;
   const r = (schema as z.ZodType<Plan>).safeParse(raw);
-  if (!r.success) {
-    const i = r.error.issues[0];
-    throw new PlanError(`${where}: field '${i.path.join('.') || '(root)'}': ${i.message}`);
-  }
+  if (!r.success) throw new PlanError(zodMessage(r.error, where, raw, schema as z.ZodType));
   return r.data;
 }
 

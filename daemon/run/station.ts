@@ -459,7 +459,7 @@ export class Station {
 
   parseAnalysis(raw: unknown): AnalysisSettings {
     const r = analysisSchema.safeParse(raw);
-    if (!r.success) throw new StationError(zodMessage(r.error, 'analysis'), 400);
+    if (!r.success) throw new StationError(zodMessage(r.error, 'analysis', raw, analysisSchema), 400);
     return r.data;
   }
 

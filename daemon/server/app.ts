@@ -180,7 +180,7 @@ export async function startServer(station: Station, options: ServerOptions): Pro
 
   const body = <T>(schema: z.ZodType<T>, req: Request): T => {
     const r = schema.safeParse(req.body ?? {});
-    if (!r.success) throw new StationError(zodMessage(r.error, 'request body'), 400);
+    if (!r.success) throw new StationError(zodMessage(r.error, 'request body', req.body ?? {}, schema), 400);
     return r.data;
   };
   const sessionDir = (id: string) => {

@@ -125,7 +125,11 @@ describe('the whole path: simulator → journal → export → fit', () => {
   // the way — driver, journal, export, CSV reading, conventions — loses or bends the data.
   it("the solar-cell scenario's invented cell comes back from an exported session within 3σ", () => {
     const dir = mkdtempSync(join(tmpdir(), 'plumbline-solar-'));
-    expect(runCli(['run', '--scenario', 'solar-cell', '--sweeps', '1', '--fast', '--data', join(dir, 'd')]).code).toBe(0);
+    const run = runCli(['run', '--scenario', 'solar-cell', '--sweeps', '1', '--fast', '--data', join(dir, 'd')]);
+    expect(run.code).toBe(0);
+    // The run's own text gives the figures of merit in the trade's units, and no dangling comma.
+    expect(run.stdout).toMatch(/solar cell: isc [\d.]+ ± [\d.]+ A, jsc [\d.]+ ± [\d.]+ mA\/cm², voc [\d.]+ ± [\d.]+ V, .*fillFactor [\d.]+ ± [\d.]+/);
+    expect(run.stdout).not.toMatch(/points, \n/);
     const session = join(dir, 'd', readdirSync(join(dir, 'd'))[0]);
     expect(runCli(['export', session, '--out', join(dir, 'x')]).code).toBe(0);
     const r = runCli([

@@ -27,6 +27,24 @@ describe('messages', () => {
     }
   });
 
+  it('plan mistakes in words a person acts on: a missing field, a quantity written as text, a misspelt key (with the one meant)', () => {
+    const cases: [unknown, RegExp][] = [
+      [{ start: 0, stop: 5, points: 11 }, /plan\.json: field 'compliance': missing \(a number, in SI units\)/],
+      [{ start: 0, stop: 5, points: 11, compliance: '1 mA' }, /field 'compliance': '1 mA' is text; .*write the number, e\.g\. 0\.001 for 1 mA/],
+      [{ start: 0, stop: 5, pionts: 11, compliance: 1e-3 }, /unknown field 'pionts' \(did you mean 'points'\?\)/],
+      [
+        { kind: 'voltage-ramp', stop: 5, step: 0.1, stepTime: 0.1, compliance: 1e-3, criteria: { slopeFactr: 3 } },
+        /field 'criteria': unknown field 'slopeFactr' \(did you mean 'slopeFactor'\?\)/,
+      ],
+    ];
+    for (const [plan, re] of cases) {
+      const f = tempFile('plan.json', JSON.stringify(plan));
+      const r = runCli(['run', '--scenario', 'oxide-fn', '--fast', '--plan', f]);
+      expect(r.code, JSON.stringify(plan)).toBe(2);
+      expect(r.stderr).toMatch(re);
+    }
+  });
+
   it('a plan file that is not valid JSON names its line and column; a folder that does not exist is said to be missing', () => {
     const plan = tempFile('bad-plan.json', '{ "kind": "linear",\n  "start": 0, stop: 1 }\n');
     const r = runCli(['run', '--scenario', 'oxide-fn', '--fast', '--plan', plan]);
