@@ -389,24 +389,43 @@ export class LiveChain {
     }
   }
 
-  private publishRanking(): void {
+  /** The sweep of the last ranking published, and the last complete sweep the interval skipped. */
+  private rankedSweep = 0;
+  private rankingSkipped: { sweep: number; v: number[]; i: number[]; c: number[] } | undefined;
+
+  private publishRanking(force = false, data = { sweep: this.sweep, v: this.v, i: this.i, c: this.c }): void {
     const now = performance.now();
-    if (this.v.length > RANKING_MAX_POINTS || now - this.lastRankingAt < RANKING_INTERVAL_MS || atOneBias(this.v)) return;
+    if (data.v.length > RANKING_MAX_POINTS || atOneBias(data.v)) return;
+    if (!force && now - this.lastRankingAt < RANKING_INTERVAL_MS) {
+      // Too soon after the last one (fast sweeps): kept, so the run's last sweep is ranked at its end.
+      this.rankingSkipped = data;
+      return;
+    }
     this.lastRankingAt = now;
+    this.rankedSweep = data.sweep;
+    this.rankingSkipped = undefined;
     try {
-      const r = rankMechanisms(this.data(this.v, this.i, this.c), {
+      const r = rankMechanisms(this.data(data.v, data.i, data.c), {
         inputs: this.analysis.inputs,
         window: this.analysis.window,
         complianceLimit: this.options.complianceLimit,
       });
       this.emit({
         type: 'ranking',
-        sweep: this.sweep,
+        sweep: data.sweep,
         ranking: r.ranking.map((e) => ({ model: e.model, title: e.title, score: e.score, deltaAicc: e.deltaAicc, plausible: e.plausible, reasons: e.reasons })),
         warnings: r.warnings,
       });
     } catch {
       /* too few points for any mechanism: no ranking for this sweep */
+    }
+  }
+
+  private safeRanking(data: { sweep: number; v: number[]; i: number[]; c: number[] }): void {
+    try {
+      this.publishRanking(true, data);
+    } catch {
+      /* a ranking is never worth failing the run's end over */
     }
   }
 
@@ -522,6 +541,9 @@ export class LiveChain {
   }
 
   end(outcome: RunOutcome, reason: string): void {
+    // The page and the journal end on the ranking of the run's last complete sweep, not an earlier one.
+    const skipped = this.rankingSkipped;
+    if (skipped && skipped.sweep > this.rankedSweep) this.safeRanking(skipped);
     this.emit({ type: 'run-end', outcome, reason, sweeps: this.sweepsDone });
     this.options.journal.close();
     if (!this.options.events) this.events$.complete();
