@@ -180,6 +180,11 @@ describe('breakdown tests and adaptive sweeps on the page', () => {
     await page.waitForTimeout(100);
     expect(await page.textContent('#sweep-count')).toMatch(/sweep 1: use-condition check before the test/);
     await page.evaluate(() => (window as any).__plumbline.pickSweep(null));
+    await page.waitForTimeout(100);
+    // With the result in, the page shows the ramp's curve, not the one-reading check after it.
+    const ramp = events.find((e) => e.type === 'sweep-start' && /^voltage ramp/.test(e.label)).sweep;
+    expect(await page.evaluate(() => (window as any).__plumbline.store.currentSweep())).toBe(ramp);
+    expect(await page.textContent('#sweep-count')).toMatch(new RegExp(`the test's curve; .*sweep ${ramp}: voltage ramp`));
     await snap(page, 'page-voltage-ramp-result.png');
     // Opened later from the journal, the session shows the same result.
     const before = await page.textContent('#test-panel');

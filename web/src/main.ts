@@ -351,7 +351,8 @@ function renderPicker(s: Store, cur: number): void {
   // The daemon's name for the sweep when it says more than its number (a breakdown test's phases).
   const label = s.labels.get(cur);
   const what = label && !/^sweep \d/.test(label) ? ` · sweep ${cur}: ${label}` : '';
-  $('sweep-count').textContent = n ? `${s.shownSweep === null ? 'following the latest' : 'picked'}; sweeps ${s.allSweeps[0]}–${s.allSweeps.at(-1)}${what}` : '';
+  const how = s.shownSweep !== null ? 'picked' : cur !== s.latestSweep() ? "the test's curve" : 'following the latest';
+  $('sweep-count').textContent = n ? `${how}; sweeps ${s.allSweeps[0]}–${s.allSweeps.at(-1)}${what}` : '';
 }
 
 let filledFrom = '';

@@ -269,9 +269,28 @@ export class Store {
     return Math.max(m, this.allSweeps.at(-1) ?? 0);
   }
 
-  /** The sweep the panels show: the one picked, or the latest. */
+  /**
+   * The sweep the panels show: the one picked, or the latest — except that once a breakdown test
+   * has its result, the latest sweep with a curve (more than one bias: the ramp, not the
+   * one-reading use-condition check after it) is the one worth seeing.
+   */
   currentSweep(): number {
-    return this.shownSweep ?? this.latestSweep();
+    if (this.shownSweep !== null) return this.shownSweep;
+    const latest = this.latestSweep();
+    if (!this.testResult) return latest;
+    for (let k = this.allSweeps.length - 1; k >= 0; k--) {
+      const n = this.allSweeps[k];
+      const pts = this.sweeps.get(n);
+      if (!pts || pts.v.length < 2) continue;
+      let lo = Infinity;
+      let hi = -Infinity;
+      for (const v of pts.v) {
+        lo = Math.min(lo, v);
+        hi = Math.max(hi, v);
+      }
+      if (hi - lo > 1e-6 * Math.max(1, Math.abs(hi))) return n;
+    }
+    return latest;
   }
 
   /** Whether a sweep is still being measured (no end seen while the run goes on). */
