@@ -786,7 +786,9 @@ export function fitBranch(
   const mainKey = Object.keys(extraction.parameters)[0];
   const main = mainKey !== undefined ? parameters[mainKey] : undefined;
   if (main && !(main.stdErr <= 0.5 * Math.abs(main.value))) {
-    warnings.push(`${mainKey} is not determined by these data (${fmt(main.value)} ± ${fmt(main.stdErr)} ${main.unit})`);
+    warnings.push(
+      `${mainKey} is not determined by these data (${fmt(main.value)} ± ${fmt(main.stdErr)}${main.unit && main.unit !== '1' ? ` ${main.unit}` : ''})`,
+    );
     plausible = false;
   }
   if (used.x.length < 5) warnings.push(`only ${used.x.length} points in the window; at least 5 are advised`);

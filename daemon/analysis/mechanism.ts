@@ -168,5 +168,10 @@ export function inRange(warnings: string[], what: string, value: number, lo: num
 /** Four significant digits, for messages. */
 export function fmt(v: number): string {
   if (!Number.isFinite(v)) return String(v);
+  // A million and up in powers of ten (5.546e8, not 554600000): digits a reader need not count.
+  if (Math.abs(v) >= 1e6) {
+    const [m, e] = v.toExponential(3).split('e');
+    return `${Number(m)}e${Number(e)}`;
+  }
   return Number(v.toPrecision(4)).toString();
 }

@@ -38,7 +38,9 @@ export function formatFit(r: FitReport): string {
   out.push(
     `noise:      floor ${nz.floorSource === 'not reached' ? 'not reached' : `${num(nz.floor, 3)} A (${nz.floorSource}; readings below ${num(nz.floorLevel, 3)} A left out of log plots)`}, relative ${num(100 * nz.relative, 3)} % (${nz.relativeSource})`,
   );
-  out.push(`window:     ${num(r.window.from)} to ${num(r.window.to)} in the x column (${r.window.mode})`);
+  // The x column's unit: volts, kelvin for an Arrhenius plot, the column's own for a custom model.
+  const xu = r.model === 'arrhenius' ? ' K' : r.model === 'custom' ? '' : ' V';
+  out.push(`window:     ${num(r.window.from)} to ${num(r.window.to)}${xu} in the x column (${r.window.mode})`);
   const L = r.line;
   out.push(`line:       slope ${num(L.slope, 7)} ± ${num(L.slopeStdErr, 3)}, intercept ${num(L.intercept, 7)} ± ${num(L.interceptStdErr, 3)}`);
   out.push(`            R² ${L.r2.toFixed(6)}, residual SD ${num(L.residualStdDev, 4)}${L.chi2Reduced !== null ? `, χ²/dof ${num(L.chi2Reduced, 4)}` : ''}`);
@@ -59,7 +61,7 @@ export function formatFit(r: FitReport): string {
   if (Object.keys(r.inputs).length) out.push(`inputs:     ${formatInputs(r.inputs)}`);
   if (r.regimes.length > 1) {
     out.push('regimes:');
-    for (const g of r.regimes) out.push(`  ${num(g.from)} to ${num(g.to)}: slope ${num(g.slope)} (${g.n} points)`);
+    for (const g of r.regimes) out.push(`  ${num(g.from)} to ${num(g.to)}${xu}: slope ${num(g.slope)} on the plot's axes (${g.n} points)`);
   }
   for (const n of r.notes) out.push(`note:       ${n}`);
   for (const w of r.warnings) out.push(`warning:    ${w}`);
