@@ -3,6 +3,7 @@
  * forward model with known parameters and 1–2 % noise, fitted back. Check values are the ones in the
  * formulas of the sources named, computed from CODATA 2018 values.
  */
+import { fmt } from '../../daemon/analysis/mechanism.js';
 import { describe, expect, it } from 'vitest';
 import { analyze, resolveInputs } from '../../daemon/analysis/analyze.js';
 import { BOLTZMANN_EV_PER_K, VACUUM_PERMITTIVITY_F_PER_M } from '../../daemon/analysis/constants.js';
@@ -219,5 +220,15 @@ describe('plausibility warnings', () => {
     expect(inRange(w, 'barrier height', 61.3, 0.3, 6, 'eV')).toBe(false);
     expect(inRange(w, 'barrier height', 3.1, 0.3, 6, 'eV')).toBe(true);
     expect(w).toEqual(['ideality factor = 0.8796 is outside the plausible range 1–5', 'barrier height = 61.3 eV is outside the plausible range 0.3–6 eV']);
+  });
+});
+
+describe('numbers in messages', () => {
+  it('four significant figures; a million and up in powers of ten', () => {
+    expect(fmt(3.14159)).toBe('3.142');
+    expect(fmt(0.000123456)).toBe('0.0001235');
+    expect(fmt(554600000)).toBe('5.546e8');
+    expect(fmt(-2.5974e15)).toBe('-2.597e15');
+    expect(fmt(999999)).toBe('1000000');
   });
 });

@@ -61,6 +61,8 @@ describe('plumbline fit with physics and units', () => {
     const r = runCli(['fit', file, '--model', 'fowler-nordheim', '--thickness', '10 nm', '--mass-ratio', '0.42']);
     expect(r.code).toBe(0);
     expect(r.stdout).toMatch(/barrierHeight\s+3\.2\d* ± .* eV/);
+    // Every number with its unit: the window in the x column's volts.
+    expect(r.stdout).toMatch(/window: +7 to 11 V in the x column/);
   });
   it('a missing input names the setting', () => {
     const file = tempFile('fn.csv', csv);
