@@ -225,7 +225,8 @@ describe('plausibility warnings', () => {
 
 describe('numbers in messages', () => {
   it('four significant figures; a million and up in powers of ten', () => {
-    expect(fmt(3.14159)).toBe('3.142');
+    expect(fmt(3.14)).toBe('3.14');
+    expect(fmt(1.234567)).toBe('1.235');
     expect(fmt(0.000123456)).toBe('0.0001235');
     expect(fmt(554600000)).toBe('5.546e8');
     expect(fmt(-2.5974e15)).toBe('-2.597e15');
