@@ -104,6 +104,8 @@ export type CautionKind =
   | 'breakdown-suspected'
   | 'breakdown-confirmed'
   | 'drift-warning'
+  /** The drift watch's baseline sweeps themselves trend (their limits are wide). */
+  | 'drift-baseline-trend'
   | 'drift-limit'
   | 'instrument-fault'
   | 'journal-fault'

@@ -485,7 +485,7 @@ export class LiveChain {
       const first = this.sweep - trend.sweeps + 1;
       this.emit({
         type: 'caution',
-        kind: 'drift-warning',
+        kind: 'drift-baseline-trend',
         sweep: this.sweep,
         numbers: { slope: trend.slope, slopeStdErr: trend.stdErr },
         message: `${name} trends through the baseline sweeps ${first}–${this.sweep}: ${trend.slope > 0 ? '+' : ''}${q(trend.slope, 3)}${unit} per sweep (${formatNumber(Math.abs(trend.slope / trend.stdErr), 2)} standard errors). The drift limits built on a moving baseline are wide and the watch may react late: the device may still be settling (let it, then start the baseline again), or the trend is the drift.`,

@@ -27,7 +27,7 @@ describe('a baseline that trends', () => {
   it('the trapping oxide: a caution at the end of the baseline names the climb per sweep; the stable oxide: none', () => {
     const trap = cautions('oxide-fn-trapping').filter((c) => /trends through the baseline/.test(c.message));
     expect(trap).toHaveLength(1);
-    expect(trap[0].kind).toBe('drift-warning');
+    expect(trap[0].kind).toBe('drift-baseline-trend');
     expect(trap[0].message).toMatch(/barrierHeight trends through the baseline sweeps 1–5: \+0\.0\d+ eV per sweep/);
     expect(trap[0].numbers?.slope).toBeGreaterThan(0);
     expect(cautions('oxide-fn').filter((c) => /trends through the baseline/.test(c.message))).toEqual([]);

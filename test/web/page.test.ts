@@ -357,6 +357,10 @@ describe('drift on the page', () => {
     const st = await pageState(page);
     expect(st.runEnd?.outcome).toBe('aborted-drift');
     expect(await page.textContent('.caution[data-kind="drift limit"]')).toMatch(/barrierHeight drifted/);
+    // The baseline itself climbed (charge trapped every sweep): its own caution stays beside the drift warnings.
+    expect(await page.textContent('.caution[data-kind="baseline trend"]')).toMatch(
+      /barrierHeight trends through the baseline sweeps 1–5: \+0\.0\d+ eV per sweep/,
+    );
     // The drift chart holds one point per finished sweep, labelled with the parameter and its unit.
     const chart = await page.evaluate(() => {
       const d = (window as any).__plumbline.charts.drift;

@@ -45,6 +45,7 @@ export function renderCautions(box: HTMLElement, s: Store): void {
     ['drift-limit', 'danger', 'drift limit'],
     ['breakdown-suspected', 'warning', 'breakdown suspected'],
     ['drift-warning', 'warning', 'drift warning'],
+    ['drift-baseline-trend', 'warning', 'baseline trend'],
     ['compliance', 'warning', 'compliance'],
     ['recovery', 'warning', 'recovered'],
   ];
