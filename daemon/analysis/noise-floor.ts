@@ -79,10 +79,14 @@ export function estimateFloor(zero: number[], low: number[], signal: number): { 
     return {
       sigma: robust(zero),
       n: zero.length,
-      note: `readings against the bias are too large to be noise (up to ${fmtA(big)}): the floor comes from the zero-bias readings alone`,
+      note: `readings against the bias are too large to be noise (up to ${fmtA(big)}: a photocurrent, a built-in field or an offset?): the floor comes from the zero-bias readings alone`,
     };
   }
-  return { sigma: 0, n: 0, note: `readings against the bias are too large to be noise (up to ${fmtA(big)}); the floor could not be estimated` };
+  return {
+    sigma: 0,
+    n: 0,
+    note: `readings against the bias are too large to be noise (up to ${fmtA(big)}: a photocurrent, a built-in field or an offset?); the floor could not be estimated`,
+  };
 }
 
 function fmtA(a: number): string {
