@@ -265,12 +265,22 @@ function waferMap(name: string, rows: LotRow[], outliers: Set<string>): string {
     if (!wafers.has(w)) wafers.set(w, []);
     wafers.get(w)?.push(r);
   }
-  const vals = have.map((r) => r.values[name]?.value).filter((v): v is number => v !== undefined && Number.isFinite(v));
+  const siteValue = (r: LotRow) => r.values[name]?.value;
+  const finite = (v: number | undefined): v is number => v !== undefined && Number.isFinite(v);
+  const vals = have.map(siteValue).filter(finite);
+  // The colour scale spans the sites that are not outliers: one far value would otherwise squeeze
+  // the real spread into a single colour. Outliers (marked) take the scale's end colour.
+  const inliers = have
+    .filter((r) => !outliers.has(`${r.session}/${r.device}`))
+    .map(siteValue)
+    .filter(finite);
+  const scaleVals = inliers.length >= 2 ? inliers : vals;
+  const clamped = scaleVals.length < vals.length;
   const unit = have.find((r) => r.values[name])?.values[name].unit ?? '';
   const d = displayUnit(unit);
-  const vlo = Math.min(...vals);
-  const vhi = Math.max(...vals);
-  const t = (v: number) => (vhi > vlo ? (v - vlo) / (vhi - vlo) : 0.5);
+  const vlo = Math.min(...scaleVals);
+  const vhi = Math.max(...scaleVals);
+  const t = (v: number) => (vhi > vlo ? Math.min(1, Math.max(0, (v - vlo) / (vhi - vlo))) : 0.5);
   const out: string[] = [];
   for (const [w, rs] of wafers) {
     const xs = rs.map((r) => r.x as number);
@@ -320,7 +330,7 @@ function waferMap(name: string, rows: LotRow[], outliers: Set<string>): string {
   bar.push(
     `<text x="10" y="34">${esc(num(vlo * d.scale, 4))}</text><text x="310" y="34" text-anchor="end">${esc(num(vhi * d.scale, 4))} ${esc(d.unit)}</text></svg>`,
   );
-  return `<div class="plots">${out.join('')}</div>${bar.join('')}<p class="note">Squares: sites, coloured from the lowest value (dark) to the highest (light) and labelled with the value; a thick vermillion border and "!" mark an outlier; dashed grey: no value.</p>`;
+  return `<div class="plots">${out.join('')}</div>${bar.join('')}<p class="note">Squares: sites, coloured from the lowest value (dark) to the highest (light) and labelled with the value; a thick vermillion border and "!" mark an outlier${clamped ? ' (the colour scale spans the other sites; an outlier beyond it takes its end colour)' : ''}; dashed grey: no value.</p>`;
 }
 
 /**
@@ -414,7 +424,7 @@ h1{font-size:1.4rem}h2{font-size:1.15rem;margin-top:1.6rem;border-bottom:1px sol
 table{border-collapse:collapse;font-variant-numeric:tabular-nums;font-size:.8rem}td,th{border-bottom:1px solid #ddd;padding:.15rem .4rem;text-align:left;vertical-align:top}
 .chart text{font-size:10px;fill:#333}.chart .t{font-size:12px;font-weight:600}.chart .ax{font-size:11px}
 .note{color:#555;font-size:.85rem}.caution{border:2px solid #7a1010;background:#fde3de;padding:.4rem .6rem;margin:.6rem 0}
-.out{font-weight:700;color:#8a2b00}.plots{display:flex;flex-wrap:wrap;gap:.5rem}
+.out{font-weight:700;color:#8a2b00}.nw{white-space:nowrap}.plots{display:flex;flex-wrap:wrap;gap:.5rem}
 @media print{body{margin:0}h2{page-break-after:avoid}}
 </style></head><body>`);
   out.push(`<h1>plumbline lot report: ${esc(a.description)}</h1>`);
@@ -440,7 +450,7 @@ table{border-collapse:collapse;font-variant-numeric:tabular-nums;font-size:.8rem
   out.push('</tr>');
   for (const r of a.rows) {
     out.push(
-      `<tr><td>${esc(r.session)}</td><td>${esc(r.device)}</td><td>${esc(r.wafer)}</td><td>${esc(r.site)}</td><td>${r.x ?? '—'}, ${r.y ?? '—'}</td><td>${esc(r.outcome ?? '—')}</td>`,
+      `<tr><td>${esc(r.session)}</td><td>${esc(r.device)}</td><td>${esc(r.wafer)}</td><td>${esc(r.site)}</td><td class="nw">${r.x ?? '—'}, ${r.y ?? '—'}</td><td>${esc(r.outcome ?? '—')}</td>`,
     );
     for (const p of a.parameters) {
       const v = r.values[p.name];

@@ -220,6 +220,9 @@ describe('lot report', () => {
     expect(html).toContain('wafer W07');
     expect(html).toContain('wafer W08');
     expect(html).toMatch(/2\.6 ± 0\.01 ◇ outlier/);
+    // The colour scale spans the other sites (3.1–3.14 eV), not the outlier's 2.6 eV, and says so.
+    expect(html).toMatch(/<text x="10" y="34">3\.1<\/text><text x="310" y="34" text-anchor="end">3\.14 eV<\/text>/);
+    expect(html).toMatch(/the colour scale spans the other sites/);
     expect(html).toContain(`${+direct.shape.value.toPrecision(4)} (90 %`);
     expect(html).toMatch(/breakdown field \(MV\/cm\)/);
     expect(html).toContain('11.5'); // 1.15e9 V/m = 11.5 MV/cm in the table
