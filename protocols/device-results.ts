@@ -40,6 +40,7 @@
  *   leakage_after       A     the same after the test (stress-induced leakage)
  *   tags                text  free tags, separated by ';'
  */
+import { INPUT_RANGE } from '../daemon/analysis/analyze.js';
 import { CsvError, splitFields } from './csv-table.js';
 
 export const DEVICE_RESULTS_FILE = 'device-results.csv';
@@ -263,12 +264,11 @@ export function parseDeviceIdentity(raw: unknown, where = 'device'): DeviceIdent
     } else {
       const unit = k === 'area' ? 'm^2' : k === 'thickness' ? 'm' : 'K';
       if (typeof v !== 'number' || !(v > 0) || !Number.isFinite(v)) throw new DeviceIdentityError(`${f}: expected a positive number in ${unit} (SI)`);
-      // Far beyond any film, pad or probe station: most often a unit left off (7 for 7 nm is 7 m).
-      const [lo, hi, where] =
-        k === 'area' ? [1e-14, 1e-2, '0.01 µm² – 100 cm²'] : k === 'thickness' ? [1e-10, 1e-3, '0.1 nm – 1 mm'] : [1, 1500, '1 K – 1500 K'];
-      if (v < lo || v > hi)
+      // Beyond where such samples lie (the fit's own input ranges): most often a unit left off (7 for 7 nm is 7 m).
+      const r = INPUT_RANGE[k as 'area' | 'thickness' | 'temperature'];
+      if (v < r.lo || v > r.hi)
         throw new DeviceIdentityError(
-          `${f}: ${v} ${unit} is outside ${where}, where such devices lie; the value is in ${unit} (SI) — was it given in another unit?`,
+          `${f}: ${v} ${unit} is outside ${r.what}, where such devices lie; the value is in ${unit} (SI) — was it given in another unit?`,
         );
       out[k] = v;
     }

@@ -365,6 +365,8 @@ export class Information {
   private readonly m: number[][];
   private readonly scale: number[];
   private rows = 0;
+  /** M⁻¹, kept until the next reading changes M (every candidate of one choice shares it). */
+  private inverse: number[][] | undefined | null = null;
 
   constructor(leakage: boolean) {
     const p = leakage ? 3 : 2;
@@ -378,11 +380,13 @@ export class Information {
     this.rows++;
     const f = r.f.map((x, j) => x / this.scale[j]);
     for (let a = 0; a < p; a++) for (let b = 0; b < p; b++) this.m[a][b] += r.w * f[a] * f[b];
+    this.inverse = null;
   }
 
   /** w·(M⁻¹f)_b² / (1 + w·fᵀM⁻¹f): the fall in var(b) one reading with row f brings (0 when M is singular). */
   slopeGain(r: { f: number[]; w: number }): number {
-    const inv = invertSmall(this.m);
+    if (this.inverse === null) this.inverse = invertSmall(this.m);
+    const inv = this.inverse;
     if (!inv) return 0;
     const p = this.m.length;
     const f = r.f.map((x, j) => x / this.scale[j]);

@@ -165,20 +165,22 @@ export function resolveInputs(mech: Mechanism, inputs: Inputs = {}): ResolvedInp
  * furnace), with how to write each in its trade's unit. Inputs are SI: a value far outside its
  * range is most often a unit left off ("7" for 7 nm is 7 m).
  */
-const INPUT_RANGE: Partial<Record<InputName, { lo: number; hi: number; what: string; si: string; show: (v: number) => string; example: string }>> = {
-  thickness: { lo: 1e-10, hi: 1e-3, what: '0.1 nm – 1 mm', si: 'metres', show: (v) => `${fmt(v)} m`, example: '"8 nm"' },
-  area: { lo: 1e-14, hi: 1e-2, what: '0.01 µm² – 100 cm²', si: 'm²', show: (v) => `${fmt(v)} m²`, example: '"1e-4 cm^2"' },
-  temperature: { lo: 1, hi: 1500, what: '1 K – 1500 K', si: 'kelvin', show: (v) => `${fmt(v)} K`, example: '"300 K" or "25 degC"' },
+export const INPUT_RANGE: Readonly<
+  Record<'thickness' | 'area' | 'temperature', { lo: number; hi: number; what: string; si: string; symbol: string; example: string }>
+> = {
+  thickness: { lo: 1e-10, hi: 1e-3, what: '0.1 nm – 1 mm', si: 'metres', symbol: 'm', example: '"8 nm"' },
+  area: { lo: 1e-14, hi: 1e-2, what: '0.01 µm² – 100 cm²', si: 'square metres', symbol: 'm²', example: '"1e-4 cm^2"' },
+  temperature: { lo: 1, hi: 1500, what: '1 K – 1500 K', si: 'kelvin', symbol: 'K', example: '"300 K" or "25 degC"' },
 };
 
 /** Warnings for inputs the model uses that lie far outside where such samples are (see INPUT_RANGE). */
 export function oddInputs(inputs: Inputs, used: readonly InputName[]): string[] {
   const out: string[] = [];
   for (const k of new Set(used)) {
-    const r = INPUT_RANGE[k];
+    const r = (INPUT_RANGE as Partial<Record<InputName, (typeof INPUT_RANGE)['area']>>)[k];
     const v = inputs[k];
     if (!r || v === undefined || (v >= r.lo && v <= r.hi)) continue;
-    out.push(`${k} ${r.show(v)} is outside ${r.what}, where such samples lie: inputs are in SI (${r.si}): check its unit (e.g. ${r.example})`);
+    out.push(`${k} ${fmt(v)} ${r.symbol} is outside ${r.what}, where such samples lie: inputs are in SI (${r.si}): check its unit (e.g. ${r.example})`);
   }
   return out;
 }

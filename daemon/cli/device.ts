@@ -50,8 +50,8 @@ export async function readDevice(o: DeviceOptions): Promise<DeviceIdentity | und
     const { bareCheck } = await import('./inputs.js');
     if (o.area !== undefined) raw.area = parseQuantity(o.area, 'area', '--area');
     if (o.thickness !== undefined) raw.thickness = parseQuantity(o.thickness, 'length', '--thickness');
-    bareCheck(o.thickness, raw.thickness as number | undefined, '--thickness', 1e-3, 'metres', 'nm');
-    bareCheck(o.area, raw.area as number | undefined, '--area', 1e-2, 'square metres', 'um^2');
+    bareCheck(o.thickness, raw.thickness as number | undefined, '--thickness', 'thickness', 'nm');
+    bareCheck(o.area, raw.area as number | undefined, '--area', 'area', 'um^2');
     if (o.temperature !== undefined) raw.temperature = parseQuantity(o.temperature, 'temperature', '--temperature');
   }
   if (o.deviceTag !== undefined) raw.tags = o.deviceTag;

@@ -7,7 +7,7 @@ import { createRequire } from 'node:module';
 import { dirname, join, resolve } from 'node:path';
 import type { Command } from 'commander';
 import type { AccuracySpec } from '../analysis/accuracy.js';
-import type { IVData, WindowRequest } from '../analysis/analyze.js';
+import { INPUT_RANGE, type IVData, type WindowRequest } from '../analysis/analyze.js';
 import type { Inputs } from '../analysis/mechanism.js';
 import { columnIdentifiers, setExpressionEngine } from '../analysis/mechanisms/custom.js';
 import { readCsvTable } from '../../protocols/csv-file.js';
@@ -72,13 +72,15 @@ const BARE = /^\s*[-+]?(\d+\.?\d*|\.\d+)(e[-+]?\d+)?\s*$/i;
 
 /**
  * A bare number is read in SI, so "--thickness 7" is 7 m: refused, with the unit it most likely
- * meant, when the value is far beyond any film or pad (the bounds of the fit's own input check).
+ * meant, when the value is beyond where such samples lie (the fit's own input ranges, INPUT_RANGE).
  */
-export function bareCheck(text: string | undefined, value: number | undefined, name: string, max: number, unit: string, guess: string): void {
-  if (text === undefined || value === undefined || !BARE.test(text) || value <= max) return;
+export function bareCheck(text: string | undefined, value: number | undefined, name: string, input: 'thickness' | 'area', guess: string): void {
+  const r = INPUT_RANGE[input];
+  if (text === undefined || value === undefined || !BARE.test(text) || value <= r.hi) return;
+  const t = text.trim();
   throw new QuantityError(
     name,
-    `${name} '${text.trim()}': a bare number is read in ${unit} (${text.trim()} ${unit === 'metres' ? 'm' : 'm^2'}), far beyond any sample measured this way; did you mean "${text.trim()} ${guess}"? Write the unit, e.g. ${name} "${text.trim()} ${guess}"`,
+    `${name} '${t}': a bare number is read in ${r.si} (${t} ${r.symbol}), far beyond any sample measured this way; did you mean "${t} ${guess}"? Write the unit, e.g. ${name} "${t} ${guess}"`,
   );
 }
 
@@ -86,8 +88,8 @@ export function readInputs(o: AnalysisOptions): Inputs {
   const q = (v: string | undefined, kind: Parameters<typeof parseQuantity>[1], name: string) => (v === undefined ? undefined : parseQuantity(v, kind, name));
   const thickness = q(o.thickness, 'length', '--thickness');
   const area = q(o.area, 'area', '--area');
-  bareCheck(o.thickness, thickness, '--thickness', 1e-3, 'metres', 'nm');
-  bareCheck(o.area, area, '--area', 1e-2, 'square metres', 'um^2');
+  bareCheck(o.thickness, thickness, '--thickness', 'thickness', 'nm');
+  bareCheck(o.area, area, '--area', 'area', 'um^2');
   return {
     thickness,
     area,

@@ -49,7 +49,7 @@ export function registerLot(program: Command): void {
     const { writeLotReport } = await import('../journal/lot-report.js');
     const { parseQuantity } = await import('../quantity.js');
     const area = o.area !== undefined ? parseQuantity(o.area, 'area', '--area') : undefined;
-    (await import('./inputs.js')).bareCheck(o.area, area, '--area', 1e-2, 'square metres', 'cm^2');
+    (await import('./inputs.js')).bareCheck(o.area, area, '--area', 'area', 'cm^2');
     const source = (await archiveLot(o, dirs)) ?? new FolderLot(dirs, { cache: o.cache });
     const file = resolve(o.out ?? 'lot.html');
     const t0 = performance.now();

@@ -226,8 +226,8 @@ export function registerWeibull(program: Command): void {
     const toArea = o.toArea !== undefined ? parseQuantity(o.toArea, 'area', '--to-area') : undefined;
     {
       const { bareCheck } = await import('./inputs.js');
-      bareCheck(o.area, area, '--area', 1e-2, 'square metres', 'cm^2');
-      bareCheck(o.toArea, toArea, '--to-area', 1e-2, 'square metres', 'cm^2');
+      bareCheck(o.area, area, '--area', 'area', 'cm^2');
+      bareCheck(o.toArea, toArea, '--to-area', 'area', 'cm^2');
     }
     const s = await gatherSample(inputs, o, area);
     if (toArea !== undefined && s.area === undefined)
