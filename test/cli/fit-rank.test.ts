@@ -257,6 +257,22 @@ describe('whole sweeps from the command line, no window given (test/helpers/whol
     const b = out.parameters.barrierHeight;
     expect(Math.abs(b.value - clean.parameters.barrierHeight.value)).toBeLessThan(3 * b.stdErr);
   });
+  it('the Fowler–Nordheim intercept against a/(m* φ): near 1 with the right thickness; a thickness 10× too large gives k^(4/3) ≈ 21.5 and a warning', () => {
+    // J = a/(m_r φ)·E²·exp(−b√m_r φ^1.5/E) (Fowler & Nordheim 1928; Forbes 2006 constants): with E
+    // read k times too small, the fitted φ falls by k^(2/3) and the intercept rises by 2 ln k, so the
+    // implied prefactor over a/(m_r φ_fit) is k²/k^(2/3) = k^(4/3).
+    const file = tempFile('fn-pref.csv', toCsv(wholeSweep({ ...spec, seed: 14 })));
+    const good = JSON.parse(runCli(['fit', file, '--model', 'fowler-nordheim', ...args, '--json']).stdout);
+    const ratio = (t: string) => Number(/implies a prefactor ([\d.e+-]+) times/.exec(t)?.[1]);
+    expect(ratio(good.notes.join(' '))).toBeCloseTo(1, 1);
+    expect(good.warnings.join(' ')).not.toMatch(/implies a prefactor/);
+    const thick = JSON.parse(
+      runCli(['fit', file, '--model', 'fowler-nordheim', '--thickness', '70 nm', '--area', '1e-4 cm^2', '--mass-ratio', '0.42', '--json']).stdout,
+    );
+    const w = thick.warnings.join(' ');
+    expect(ratio(w) / 10 ** (4 / 3)).toBeCloseTo(1, 1);
+    expect(w).toMatch(/check the thickness and the area/);
+  });
   it('rank: Fowler–Nordheim first, weights summing to 1', () => {
     const file = tempFile('fn-whole.csv', toCsv(wholeSweep({ ...spec, seed: 12 })));
     const r = runCli(['rank', file, ...args, '--refractive-index', '1.46', '--json']);
