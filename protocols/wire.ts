@@ -49,6 +49,8 @@ export interface ParameterFigure {
   readonly value: number;
   readonly stdErr: number;
   readonly unit: string;
+  /** The statistical part of stdErr (the rest is the window choice's), where the fit gives it. */
+  readonly statStdErr?: number;
 }
 
 /** What a fit publishes (a trimmed FitReport from daemon/analysis). */

@@ -13,24 +13,32 @@
  *    the current limit, so the limit is approached, not jumped past (the steps shrink near it);
  *  - after every point in the regime the caller fits the sweep so far and reports the target
  *    parameter's standard error; the sweep stops once it is at or below the target (run/adaptive.ts
- *    asks for three regime readings in a row that meet it, so a chance low error does not stop it);
+ *    asks for three regime readings in a row that meet it, at least ten regime readings, and the
+ *    error `predictedSlopeError` says the same readings give with a typical instrument's noise to
+ *    meet it too, so a chance low error or a noise level misread from a handful of readings does
+ *    not stop it);
  *  - when the top is reached (the end of the range, or the current limit) before the target is met,
  *    each further reading goes where it shrinks the slope's variance most: the greedy sequential
  *    c-optimal design (Fedorov 1972, Theory of Optimal Experiments; Atkinson, Donev & Tobias 2007,
  *    Optimum Experimental Designs, with SAS — chapters not checked). The fit the station makes is
  *    the mechanism's line, ln I = a + b·x, plus a leakage current G·V held alongside it (for the
  *    mechanisms that carry one); near G = 0 its information matrix M = Σ w·f·fᵀ has rows
- *    f = (1, x, V/I) — (1, x) without leakage — and weights w = 1/σ²(ln I), σ = g + floor/|I| with
- *    the floor the RMS of the readings before the onset. A reading with row f
- *    lowers var(b) = (M⁻¹)_bb by w·(M⁻¹f)_b² / (1 + w·fᵀM⁻¹f) (Sherman–Morrison), and the level that
- *    lowers it most is read next. For a plain line this settles on two levels, the top and one far
- *    below it where the floor does not yet swamp the reading (two support points: Elfving 1952,
+ *    f = (1, x, V/I) — (1, x) without leakage — and weights w = 1/σ²(ln I), σ = g + (o·R + floor)/|I|
+ *    with R the autorange decade that reads the current and the floor a robust RMS of the readings
+ *    before the onset (see ASSUMED_GAIN). A reading with row f lowers var(b) = (M⁻¹)_bb by
+ *    w·(M⁻¹f)_b² / (1 + w·fᵀM⁻¹f) (Sherman–Morrison), and the level that lowers it most is read
+ *    next. For a plain line and equal relative noise this settles on two levels, the top and one
+ *    far below it where the floor does not yet swamp the reading (two support points: Elfving 1952,
  *    Ann. Math. Statist. 23, 255; with equal noise the two ends — Box, Hunter & Hunter 2005,
  *    Statistics for Experimenters); with the leakage term the lower level moves up, since the
- *    lowest currents then go to pin G rather than the slope. Candidates are the regime levels already read, whose currents are known; each
- *    choice is spread over one fine step (just below the top at the top) so the levels stay
- *    distinct and the noise estimate from neighbouring readings still works. Downward moves are
- *    free; upward ones go only to levels already read below the current limit. The fill ends
+ *    lowest currents then go to pin G rather than the slope. Candidates are the regime levels
+ *    already read, whose currents are known, and on an autoranging instrument the band just below
+ *    each decade's top (45–90 % of it) that the readings span, placed by joining the readings in
+ *    ln|I|: there the range's offset weighs least, so the fill reads at the top of a decade rather
+ *    than just past it. Each choice of a level is spread over one fine step (just below the top at
+ *    the top), and each choice of a band over the band, so the readings stay distinct and the noise
+ *    estimate from neighbouring readings still works. Downward moves are free; upward ones go only
+ *    to levels (and bands) below the highest level read under the current limit. The fill ends
  *    after twice as many readings as a fine-step return leg over the regime would take;
  *  - compliance or the point budget end the sweep at once; every stop says why;
  *  - later sweeps of the same run reuse what the first learned (the floor, where the regime starts,
@@ -40,6 +48,7 @@
  *    stress an earlier sweep showed to be enough is not exceeded.
  */
 
+import { robustRms } from './noise-floor.js';
 import { invertSmall } from './small-matrix.js';
 
 /** Growth of the step from one regime point to the next. */
@@ -49,11 +58,34 @@ const GROWTH_KNOWN = 2;
 /** The golden ratio's fractional part, for evenly spread offsets. */
 const GOLDEN = (Math.sqrt(5) - 1) / 2;
 /**
- * Relative noise of a reading assumed when placing the fill (0.1 % of reading: the gain term of a
- * source-measure unit's accuracy, common practice on data sheets). The fit estimates its own; this
- * only decides where readings go.
+ * The noise of a current reading assumed when placing the fill: σ_I = g·|I| + o·R, the "% of reading
+ * + offset of the range" form in which source-measure units state their accuracy, with R the range
+ * in use (common practice on data sheets; the figures — 0.05 % of reading, 0.02 % of the range —
+ * are typical of them, from memory). The station sets the instrument to autorange, and autoranging
+ * steps in decades, so a current just below a decade's top is read on that range (σ/I ≈ g + o) and
+ * one just above it on the next (σ/I ≈ g + 10·o): up to three times the noise, ten times less
+ * information, for nearly the same bias. The fit estimates the noise it uses from the readings; these
+ * figures only decide where the readings go.
  */
-const ASSUMED_GAIN = 1e-3;
+const ASSUMED_GAIN = 5e-4;
+const ASSUMED_RANGE_OFFSET = 2e-4;
+/** The band of a decade the fill aims at: currents between these fractions of the decade's top. */
+const BAND_LOW = 0.45;
+const BAND_HIGH = 0.9;
+
+/** The autorange decade that reads a current: the smallest power of ten at or above it, A. */
+export function rangeOf(a: number): number {
+  const r = 10 ** Math.ceil(Math.log10(a));
+  return r < a * (1 - 1e-12) ? r * 10 : r;
+}
+
+/** A level the fill may read at: a level already read, or a band just below a decade's top (currents lo…hi, A). */
+interface Candidate {
+  readonly v: number;
+  /** The current expected there, A. */
+  readonly a: number;
+  readonly band?: { readonly lo: number; readonly hi: number };
+}
 
 export type StopReason = 'target-reached' | 'current-limit' | 'compliance' | 'bias-limit' | 'earlier-top' | 'point-budget';
 
@@ -78,6 +110,12 @@ export interface AdaptiveSettings {
   readonly axis?: (v: number) => number;
   /** The fit holds a leakage conductance alongside the line (default false). */
   readonly leakage?: boolean;
+  /**
+   * The instrument's current offset as a fraction of the range it reads on (default
+   * ASSUMED_RANGE_OFFSET, for an autoranging instrument); 0 for one held on a single range, where
+   * no part of a decade reads better than another.
+   */
+  readonly rangeOffset?: number;
 }
 
 /** What one sweep learned, for the next one. */
@@ -86,7 +124,7 @@ export interface SweepKnowledge {
   readonly onset: number;
   /** The floor current, A. */
   readonly floor: number;
-  /** σ of a reading at the floor: the RMS of the readings before the onset (what the fill's weights use), A. */
+  /** σ of a reading at the floor: the robust RMS of the readings before the onset (what the fill's weights use), A. */
   readonly floorSigma?: number;
   /** The low end the fill used, V. */
   readonly low?: number;
@@ -105,7 +143,7 @@ export class AdaptiveSweep {
   private floor: number | undefined;
   private onset: number | undefined;
   private stopped: StopReason | undefined;
-  private filling: { high: number; cands: number[]; uses: number[]; info: Information; left: number; why: StopReason } | undefined;
+  private filling: { high: number; cands: Candidate[]; uses: number[]; info: Information; left: number; why: StopReason } | undefined;
   /** The fill's ends once chosen, for the next sweep. */
   private ends: { low: number; top: number; why: StopReason } | undefined;
 
@@ -221,30 +259,97 @@ export class AdaptiveSweep {
     // A regime of one level (the limit came at once) has no range to fill.
     if ((top - this.onset) * this.dir <= 0) return this.end(why);
     const k0 = this.v.indexOf(this.onset);
-    const info = new Information(this.settings.leakage ?? false);
-    const cands: number[] = [];
+    const info = this.information();
+    const cands: Candidate[] = [];
     for (let k = k0; k < this.v.length; k++) {
       const a = Math.abs(this.i[k]);
       if (!(a > 0) || a >= this.settings.currentLimit) continue;
-      info.add(this.row(this.v[k], a));
       // Candidates: distinct regime levels at or below the top, with the current read there.
       const above = (this.v[k] - top) * this.dir > 1e-12;
       const below = (this.v[k] - this.lowest) * this.dir < -1e-12;
-      if (!above && !below && !cands.some((c) => Math.abs(c - this.v[k]) < 1e-12)) cands.push(this.v[k]);
+      if (!above && !below && !cands.some((c) => Math.abs(c.v - this.v[k]) < 1e-12)) cands.push({ v: this.v[k], a: this.currentAt(this.v[k]) });
     }
     if (cands.length < 2) return this.end(why);
-    this.ends = { low: cands.reduce((m, c) => ((c - m) * this.dir < 0 ? c : m), top), top, why };
+    this.ends = { low: cands.reduce((m, c) => ((c.v - m) * this.dir < 0 ? c.v : m), top), top, why };
+    cands.push(...this.bands(top));
     const left = Math.max(4, Math.round((2 * Math.abs(top - this.onset)) / this.fine));
     this.filling = { high: top, cands, uses: cands.map(() => 0), info, left, why };
     return this.fill();
   }
 
+  /** The information matrix of the regime's readings so far. */
+  private information(leakage = this.settings.leakage ?? false): Information {
+    const info = new Information(leakage);
+    const k0 = this.onset !== undefined ? this.v.indexOf(this.onset) : this.v.length;
+    for (let k = k0; k < this.v.length; k++) {
+      const a = Math.abs(this.i[k]);
+      if (a > 0 && a < this.settings.currentLimit) info.add(this.row(this.v[k], a));
+    }
+    return info;
+  }
+
+  /**
+   * The slope's standard error that the regime's readings so far would give if each carried the
+   * noise assumed for placing the fill (ASSUMED_GAIN, ASSUMED_RANGE_OFFSET, the floor), in the fit's
+   * own units (undefined before three regime readings, or when they cannot fix a slope). `leakage`:
+   * whether the fit holds a leakage term beside its line.
+   */
+  predictedSlopeError(leakage: boolean): number | undefined {
+    if (this.regimePoints < 3) return undefined;
+    return this.information(leakage && (this.settings.leakage ?? false)).slopeError();
+  }
+
   /** A reading's row of the information matrix and its weight (see the header). */
   private row(v: number, a: number): { f: number[]; w: number } {
     const floor = Math.max(this.floorSigma() ?? this.floor ?? 0, this.settings.absoluteFloor ?? 0);
-    const sigma = ASSUMED_GAIN + floor / a;
+    const sigma = ASSUMED_GAIN + (this.rangeOffset * rangeOf(a) + floor) / a;
     const x = this.settings.axis ? this.settings.axis(v) : v;
     return { f: this.settings.leakage ? [1, x, Math.abs(v) / a] : [1, x], w: 1 / (sigma * sigma) };
+  }
+
+  /**
+   * The bands just below each decade's top that the regime's readings span (from the lowest regime
+   * level to the top): there a reading is taken on the lower range, with the least offset.
+   */
+  private bands(top: number): Candidate[] {
+    if (!(this.rangeOffset > 0)) return [];
+    const lowA = this.currentAt(this.lowest);
+    const topA = this.currentAt(top);
+    if (!(lowA > 0) || !(topA > lowA)) return [];
+    const out: Candidate[] = [];
+    for (let d = rangeOf(lowA / BAND_LOW); BAND_HIGH * d <= topA; d *= 10) {
+      const lo = BAND_LOW * d;
+      const hi = BAND_HIGH * d;
+      const mid = Math.sqrt(lo * hi);
+      const v = this.biasFor(mid, top);
+      if (v !== undefined) out.push({ v, a: mid, band: { lo, hi } });
+    }
+    return out;
+  }
+
+  /**
+   * The bias at which the regime's readings, joined by straight lines in ln|I| (in bias order), first
+   * reach the current `a`, at or below `top` (undefined when they do not).
+   */
+  private biasFor(a: number, top: number): number | undefined {
+    const k0 = this.onset !== undefined ? this.v.indexOf(this.onset) : 0;
+    const pts: [number, number][] = [];
+    for (let k = k0; k < this.v.length; k++) {
+      const c = Math.abs(this.i[k]);
+      if (c > 0 && c < this.settings.currentLimit && (this.v[k] - top) * this.dir <= 1e-12) pts.push([this.v[k] * this.dir, Math.log(c)]);
+    }
+    pts.sort((p, q) => p[0] - q[0]);
+    const t = Math.log(a);
+    for (let j = 1; j < pts.length; j++) {
+      const [x0, y0] = pts[j - 1];
+      const [x1, y1] = pts[j];
+      if (y0 <= t && t <= y1 && y1 > y0 && x1 > x0) return (x0 + ((t - y0) / (y1 - y0)) * (x1 - x0)) * this.dir;
+    }
+    return undefined;
+  }
+
+  private get rangeOffset(): number {
+    return this.settings.rangeOffset ?? ASSUMED_RANGE_OFFSET;
   }
 
   /** The current read at a level (the last reading there), A. */
@@ -260,17 +365,23 @@ export class AdaptiveSweep {
     let best = -1;
     let gain = -Infinity;
     for (let c = 0; c < f.cands.length; c++) {
-      const g = f.info.slopeGain(this.row(f.cands[c], this.currentAt(f.cands[c])));
+      const g = f.info.slopeGain(this.row(f.cands[c].v, f.cands[c].a));
       if (g > gain) {
         gain = g;
         best = c;
       }
     }
     if (best < 0) return this.end(f.why);
-    const at = f.cands[best];
+    const cand = f.cands[best];
+    const at = cand.v;
     // Offsets follow the golden-ratio sequence frac(n·φ), which fills an interval evenly whatever
     // the count (Weyl 1916), so the readings around a chosen level stay distinct.
     const u = (++f.uses[best] * GOLDEN) % 1;
+    if (cand.band) {
+      // Within the band, evenly in ln I, at the bias the readings so far say gives that current.
+      const v = this.biasFor(cand.band.lo * (cand.band.hi / cand.band.lo) ** u, f.high);
+      if (v !== undefined) return { next: v };
+    }
     const atTop = Math.abs(at - f.high) < 1e-12;
     const inside = (x: number) => (this.dir > 0 ? x >= this.lowest && x <= f.high : x <= this.lowest && x >= f.high);
     if (atTop) return { next: f.high - this.dir * this.fine * u };
@@ -308,14 +419,14 @@ export class AdaptiveSweep {
     return this.stopped;
   }
 
-  /** The RMS of the first sweep's readings before the onset (σ of a floor reading), A. */
+  /** σ of a floor reading, from the first sweep's readings before the onset, A. */
   private floorSigma(): number | undefined {
     if (this.prior) return this.prior.floorSigma;
     const k0 = this.onset !== undefined ? this.v.indexOf(this.onset) : this.v.length;
     if (k0 < 1) return undefined;
-    let ss = 0;
-    for (let k = 0; k < k0; k++) ss += this.i[k] * this.i[k];
-    return Math.sqrt(ss / k0);
+    // Robust (the fit's floor estimate takes the same form), so the last readings before the
+    // onset, already carrying a little signal, do not raise it.
+    return robustRms(this.i.slice(0, k0));
   }
 
   /** What this sweep learned (the earlier knowledge when it never left the floor). */
@@ -381,6 +492,13 @@ export class Information {
     const f = r.f.map((x, j) => x / this.scale[j]);
     for (let a = 0; a < p; a++) for (let b = 0; b < p; b++) this.m[a][b] += r.w * f[a] * f[b];
     this.inverse = null;
+  }
+
+  /** √(M⁻¹)_bb: the slope's standard error, in the slope's units (undefined when M is singular). */
+  slopeError(): number | undefined {
+    if (this.inverse === null) this.inverse = invertSmall(this.m);
+    const v = this.inverse?.[1][1];
+    return v !== undefined && v > 0 ? Math.sqrt(v) / this.scale[1] : undefined;
   }
 
   /** w·(M⁻¹f)_b² / (1 + w·fᵀM⁻¹f): the fall in var(b) one reading with row f brings (0 when M is singular). */

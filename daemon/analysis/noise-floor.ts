@@ -53,6 +53,13 @@ export function floorLevel(noise: Pick<NoiseModel, 'floor'>): number {
   return FLOOR_MULTIPLE * noise.floor;
 }
 
+/** √(median(x²)/0.4549): the RMS of zero-mean normal values, robust against a few large ones. */
+export function robustRms(vals: ArrayLike<number>): number {
+  const s = new Float64Array(vals.length);
+  for (let k = 0; k < vals.length; k++) s[k] = vals[k] * vals[k];
+  return Math.sqrt(medianInPlace(s) / CHI2_1_MEDIAN);
+}
+
 /**
  * Robust RMS of the null readings, √(median(I²)/0.4549), or undefined when fewer than three exist.
  * `zero` holds the zero-bias readings; `low` the readings of each branch from zero bias up to the
@@ -63,21 +70,15 @@ export function floorLevel(noise: Pick<NoiseModel, 'floor'>): number {
  * readings count.
  */
 export function estimateFloor(zero: number[], low: number[], signal: number): { sigma: number; n: number; note?: string } | undefined {
-  const robust = (vals: number[]) => {
-    const s = new Float64Array(vals.length);
-    for (let k = 0; k < vals.length; k++) s[k] = vals[k] * vals[k];
-    const med = medianInPlace(s);
-    return Math.sqrt(med / CHI2_1_MEDIAN);
-  };
   const all = zero.concat(low);
   if (all.length < 3) return undefined;
-  const s = robust(all);
+  const s = robustRms(all);
   if (!(s > 0.01 * signal) || signal === 0) return { sigma: s, n: all.length };
   let big = 0;
   for (const c of low) big = Math.max(big, Math.abs(c));
   if (zero.length >= 3) {
     return {
-      sigma: robust(zero),
+      sigma: robustRms(zero),
       n: zero.length,
       note: `readings against the bias are too large to be noise (up to ${fmtA(big)}: a photocurrent, a built-in field or an offset?): the floor comes from the zero-bias readings alone`,
     };

@@ -32,6 +32,15 @@ const MIN_REGIME_POINTS = 5;
  * 50 %; three checks restore about 95 % and 68 %, for two or three readings more.
  */
 const TARGET_CHECKS = 3;
+/**
+ * Fewest regime readings behind a fit that may stop the sweep. The fit takes its noise level from
+ * the readings' own scatter; from a handful of readings that estimate is loose (its relative spread
+ * is about 1/√(2ν) for ν residual degrees of freedom, and a χ² of 3 degrees of freedom falls below
+ * a ninth of its mean one time in twenty), and a sweep that stops at the first low draw states an
+ * error several times too small: on the simulated oxide one sweep stopped at 7 regime readings,
+ * 7.7 stated σ from the device's own barrier.
+ */
+const MIN_STOP_POINTS = 10;
 
 export async function runAdaptive(ctx: RunContext, plan: AdaptivePlan, figures: AdaptiveSweepFigures[]): Promise<{ outcome: RunOutcome; reason: string }> {
   const src = ctx.source;
@@ -86,8 +95,14 @@ export async function runAdaptive(ctx: RunContext, plan: AdaptivePlan, figures: 
         const p = f?.parameters[plan.target.parameter];
         if (f && p && Number.isFinite(p.stdErr)) {
           parameter = { name: plan.target.parameter, value: p.value, stdErr: p.stdErr, unit: p.unit };
-          met = p.stdErr <= plan.target.stdErr && f.plausible ? met + 1 : 0;
-          if (met >= TARGET_CHECKS) {
+          // The fit's error rests on the noise it reads from the sweep's own scatter, which a few
+          // readings can make look several times too small: the error the same readings give with
+          // a typical instrument's noise (the figures that place the fill) must meet the target too.
+          const slope = planner.predictedSlopeError('leakageResistance' in f.parameters);
+          const perSlope = f.line.slopeStdErr > 0 ? (p.statStdErr ?? p.stdErr) / f.line.slopeStdErr : Number.NaN;
+          const predicted = slope !== undefined && Number.isFinite(perSlope) ? slope * perSlope : 0;
+          met = p.stdErr <= plan.target.stdErr && predicted <= plan.target.stdErr && f.plausible ? met + 1 : 0;
+          if (met >= TARGET_CHECKS && planner.regimePoints >= MIN_STOP_POINTS) {
             planner.targetReached();
             break;
           }

@@ -10,11 +10,15 @@
  *    & Hunter 2005, Statistics for Experimenters: var(b) = σ²/Σ(x − x̄)²);
  *  - with a leakage term beside the line the lower level moves up (the lowest currents then pin
  *    the leakage rather than the slope);
- *  - a later sweep starts at the earlier low end and never goes above the earlier top.
+ *  - a later sweep starts at the earlier low end and never goes above the earlier top;
+ *  - on an autoranging instrument, whose offset is a fraction of the range in use (the "% of
+ *    reading + offset" accuracy form of source-measure unit data sheets, common practice), the fill
+ *    reads just below a decade's top rather than just above it, and the slope's variance of the
+ *    readings taken — computed by mathjs with that noise form — is smaller than a range-blind fill's.
  */
 import { inv } from 'mathjs';
 import { describe, expect, it } from 'vitest';
-import { AdaptiveSweep, Information, type AdaptiveSettings } from '../../daemon/analysis/adaptive-sweep.js';
+import { AdaptiveSweep, Information, rangeOf, type AdaptiveSettings } from '../../daemon/analysis/adaptive-sweep.js';
 
 /** var(b) = (M⁻¹)₁₁ by mathjs for rows f with weights w. */
 function slopeVariance(rows: { f: number[]; w: number }[]): number {
@@ -70,7 +74,8 @@ describe('the information an adaptive sweep weighs its next reading by', () => {
 describe('where the fill puts its readings', () => {
   // ln I = −30 + 2.5·V (A): off a 1e-13 A floor near 1 V, 0.5 mA limit near 9 V; the range ends at 8 V.
   const current = (v: number) => (v <= 0 ? 1e-14 : Math.exp(-30 + 2.5 * v));
-  const base: AdaptiveSettings = { start: 0, stop: 8, maxPoints: 200, currentLimit: 5e-4, absoluteFloor: 1e-13 };
+  // An instrument held on one range (rangeOffset 0): the noise is the same fraction of every reading.
+  const base: AdaptiveSettings = { start: 0, stop: 8, maxPoints: 200, currentLimit: 5e-4, absoluteFloor: 1e-13, rangeOffset: 0 };
 
   /** The fill's readings (after the top, 8 V, is first reached) and the levels they cluster around. */
   function fillOf(leakage: boolean): { fill: number[]; clusters: number[]; fine: number } {
@@ -147,5 +152,46 @@ describe('where the fill puts its readings', () => {
     const climb = (ls: number[]) => ls.findIndex((v) => Math.abs(v - top) < 1e-12);
     expect(climb(l2)).toBeGreaterThan(0);
     expect(climb(l2)).toBeLessThan(climb(l1));
+  });
+});
+
+describe('an autoranging instrument: the fill reads where the range in use reads best', () => {
+  it('the range of a current is the decade at or above it', () => {
+    expect(rangeOf(7e-5)).toBeCloseTo(1e-4, 18);
+    expect(rangeOf(1e-4)).toBeCloseTo(1e-4, 18);
+    expect(rangeOf(1.2e-4)).toBeCloseTo(1e-3, 17);
+    expect(rangeOf(3e-12)).toBeCloseTo(1e-11, 25);
+  });
+
+  // ln I = −30 + 2.5·V (A) over 0–8.5 V: the top, 1.6e-4 A, sits just above the 1e-4 A decade,
+  // where an autoranging instrument reads on the 1 mA range. The noise of a reading, for the
+  // independent check: σ/I = 0.05 % + 0.02 % of the range in use (a typical data-sheet form).
+  const current = (v: number) => (v <= 0 ? 1e-14 : Math.exp(-30 + 2.5 * v));
+  const sigmaRel = (a: number) => 5e-4 + (2e-4 * rangeOf(a)) / a;
+  const settings: AdaptiveSettings = { start: 0, stop: 8.5, maxPoints: 200, currentLimit: 5e-4, absoluteFloor: 1e-13, leakage: false };
+
+  /** The first 40 readings after the top: the fill. */
+  function fill(rangeOffset?: number): number[] {
+    const p = new AdaptiveSweep({ ...settings, ...(rangeOffset !== undefined ? { rangeOffset } : {}) });
+    const levels = drive(p, current, 200);
+    const top = levels.indexOf(8.5);
+    expect(top).toBeGreaterThan(0);
+    return levels.slice(0, top + 41);
+  }
+  /** Share of a set of levels whose current lies in the lower 45 % of its decade (read on the range above). */
+  const lowInDecade = (ls: number[]) => ls.filter((v) => current(v) / rangeOf(current(v)) < 0.45).length / ls.length;
+
+  it('keeps the fill out of the bottom of a decade, and its readings pin the slope better (mathjs)', () => {
+    const aware = fill();
+    const blind = fill(0);
+    const fa = aware.slice(aware.indexOf(8.5) + 1);
+    const fb = blind.slice(blind.indexOf(8.5) + 1);
+    expect(lowInDecade(fb)).toBeGreaterThan(0.3);
+    expect(lowInDecade(fa)).toBeLessThan(0.1);
+    // The same count of readings each (climb + 40 fill readings): var(b) of the line ln I = a + b·V
+    // with the autoranging noise above, by mathjs.
+    const rows = (ls: number[]) => ls.filter((v) => current(v) > 2e-12).map((v) => ({ f: [1, v], w: 1 / sigmaRel(current(v)) ** 2 }));
+    expect(aware.length).toBe(blind.length);
+    expect(slopeVariance(rows(aware))).toBeLessThan(0.7 * slopeVariance(rows(blind)));
   });
 });

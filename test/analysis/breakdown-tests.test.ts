@@ -174,9 +174,16 @@ describe('adaptive sweep plan', () => {
     expect(p.inRegime).toBe(true);
     expect('next' in r && r.next).toBeCloseTo(2.2, 12);
     expect(p.add(2.2, 2e-3, false)).toEqual({ stop: 'current-limit' });
-    // The floor's σ for the fill's weights: the RMS of the two readings before the onset.
+    // The floor's σ for the fill's weights: the robust RMS √(median I²/0.4549) of the two readings
+    // before the onset (0.4549 the median of χ²₁).
     // The top a later sweep may not pass: the highest level read below the limit (2 V; the limit came at once, no fill).
-    expect(p.knowledge()).toEqual({ onset: 2, floor: 2e-13, floorSigma: Math.sqrt((1e-26 + 4e-26) / 2), top: 2, topReason: 'current-limit' });
+    expect(p.knowledge()).toEqual({
+      onset: 2,
+      floor: 2e-13,
+      floorSigma: Math.sqrt((0.5 * (1e-26 + 4e-26)) / 0.454936423119572),
+      top: 2,
+      topReason: 'current-limit',
+    });
     // The next sweep starts a fine step below the onset, in fine steps.
     const q = new AdaptiveSweep({ start: 0, stop: 12, maxPoints: 100, currentLimit: 1e-3 }, p.knowledge());
     expect(q.first()).toBeCloseTo(1.8, 12);
@@ -215,7 +222,7 @@ describe('adaptive sweep plan', () => {
     // Fowler–Nordheim plot's); a c-optimal design for the slope of a two-parameter line has two
     // support points (Elfving 1952, Ann. Math. Statist. 23, 255).
     const current = (V: number) => (V <= 0 ? 0 : 1e-8 * fowlerNordheim(V / 7e-9, 3.1, 0.42)) + 1e-13;
-    const p = new AdaptiveSweep({ start: 0, stop: 9, maxPoints: 200, currentLimit: 5e-4, absoluteFloor: 1e-13, axis: (v) => 1 / v });
+    const p = new AdaptiveSweep({ start: 0, stop: 9, maxPoints: 200, currentLimit: 5e-4, absoluteFloor: 1e-13, axis: (v) => 1 / v, rangeOffset: 0 });
     const levels: number[] = [];
     let v = p.first();
     let r: ReturnType<AdaptiveSweep['add']> = { next: v };
