@@ -32,15 +32,6 @@ const MIN_REGIME_POINTS = 5;
  * 50 %; three checks restore about 95 % and 68 %, for two or three readings more.
  */
 const TARGET_CHECKS = 3;
-/**
- * Fewest regime readings behind a fit that may stop the sweep. The fit takes its noise level from
- * the readings' own scatter; from a handful of readings that estimate is loose (its relative spread
- * is about 1/√(2ν) for ν residual degrees of freedom, and a χ² of 3 degrees of freedom falls below
- * a ninth of its mean one time in twenty), and a sweep that stops at the first low draw states an
- * error several times too small: on the simulated oxide one sweep stopped at 7 regime readings,
- * 7.7 stated σ from the device's own barrier.
- */
-const MIN_STOP_POINTS = 10;
 
 export async function runAdaptive(ctx: RunContext, plan: AdaptivePlan, figures: AdaptiveSweepFigures[]): Promise<{ outcome: RunOutcome; reason: string }> {
   const src = ctx.source;
@@ -102,7 +93,7 @@ export async function runAdaptive(ctx: RunContext, plan: AdaptivePlan, figures: 
           const perSlope = f.line.slopeStdErr > 0 ? (p.statStdErr ?? p.stdErr) / f.line.slopeStdErr : Number.NaN;
           const predicted = slope !== undefined && Number.isFinite(perSlope) ? slope * perSlope : 0;
           met = p.stdErr <= plan.target.stdErr && predicted <= plan.target.stdErr && f.plausible ? met + 1 : 0;
-          if (met >= TARGET_CHECKS && planner.regimePoints >= MIN_STOP_POINTS) {
+          if (met >= TARGET_CHECKS) {
             planner.targetReached();
             break;
           }
