@@ -8,7 +8,10 @@
  *  - once the current leaves the floor (twenty times the floor seen in the first two readings — the
  *    larger, unless the second is already a hundred times the first — or an absolute floor), fine
  *    steps — a sixtieth of the range, or coarser when the point budget is too small — growing by
- *    60 % per point up to a sixth of the range, so the regime is crossed in a few readings;
+ *    60 % per point up to a sixth of the range, so the regime is crossed in a few readings; on an
+ *    autoranging instrument, once two regime readings give a secant of ln|I|, each step instead
+ *    aims at 85 % of the next decade's top (see `stepToBand`), so the climb's readings too are
+ *    taken where their range reads best, about one per decade;
  *  - no step is longer than the one the last two readings' secant (of ln|I| against V) says reaches
  *    the current limit, so the limit is approached, not jumped past (the steps shrink near it);
  *  - after every point in the regime the caller fits the sweep so far and reports the target
@@ -209,6 +212,8 @@ export class AdaptiveSweep {
     const inRegime = this.onset !== undefined || this.prior !== undefined;
     const m = this.onset !== undefined ? this.regimePoints - 1 : this.v.length - 1;
     let step = inRegime ? Math.min(this.span / 6, this.fine * GROWTH ** Math.max(0, m)) : this.coarse;
+    const toBand = top === undefined && this.regimePoints >= 2 ? this.stepToBand(v, a) : undefined;
+    if (toBand !== undefined) step = Math.min(this.span / 6, Math.max(0.25 * this.fine, toBand));
     if (top !== undefined) {
       // Known ground: the steps double up to a quarter of the way left, and stop at the top.
       step = Math.min(Math.max(this.coarse, Math.abs(top - this.entry()) / 4), this.fine * GROWTH_KNOWN ** Math.max(0, this.regimePoints - 1));
@@ -229,6 +234,24 @@ export class AdaptiveSweep {
       return atEnd ? this.startFill(v, 'bias-limit') : { next: s.stop };
     }
     return { next };
+  }
+
+  /**
+   * On an autoranging instrument, the step that the secant of the last two regime readings says
+   * carries the current into the next band just below a decade's top (aimed at 85 % of the decade:
+   * the secant overestimates the rise of a curve that bends over, so the reading lands lower, inside
+   * the band rather than just past the decade). Undefined without a rising secant.
+   */
+  private stepToBand(v: number, a: number): number | undefined {
+    if (!(this.rangeOffset > 0)) return undefined;
+    const k = this.v.length - 1;
+    const a0 = Math.abs(this.i[k - 1]);
+    const dv = (v - this.v[k - 1]) * this.dir;
+    if (!(a0 > 0) || !(a > a0) || !(dv > 0)) return undefined;
+    const slope = Math.log(a / a0) / dv;
+    const d = rangeOf(a);
+    const aim = a < BAND_LOW * d ? 0.85 * d : 8.5 * d;
+    return Math.log(aim / a) / slope;
   }
 
   /** The level read before the last one that stayed below the current limit. */

@@ -27,11 +27,3 @@ export function estimateNoise(x: Numbers, y: Numbers): number {
   // For a normal variable, median(|e|) = 0.6745σ.
   return median / 0.6744897501960817;
 }
-
-/** Upper 99 % point of χ² with ν degrees of freedom (Wilson–Hilferty approximation). */
-export function chiSquare99(nu: number): number {
-  const z = 2.3263478740408408;
-  const c = 2 / (9 * nu);
-  const t = 1 - c + z * Math.sqrt(c);
-  return nu * t * t * t;
-}

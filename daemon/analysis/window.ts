@@ -67,11 +67,6 @@ export interface Admissible {
 export const MIN_WINDOW_POINTS = 5;
 const Z_CURVATURE = 3.2905267314919255;
 
-/** Upper 99 % point of χ² with ν degrees of freedom (Wilson–Hilferty approximation). */
-export function chiSquare99(nu: number): number {
-  return chiSquareUpper(nu, 2.3263478740408408);
-}
-
 /** Upper point of χ² with ν degrees of freedom for a normal quantile z (Wilson–Hilferty 1931). */
 export function chiSquareUpper(nu: number, z: number): number {
   const c = 2 / (9 * nu);
