@@ -208,7 +208,9 @@ export function describe(e: WireEvent): string | undefined {
       return [`${e.test}: ${e.outcome} — ${e.reason}`, ...lines].join('\n');
     }
     case 'adaptive-sweep':
-      return `sweep ${e.sweep}: ${e.readings} readings, up to ${e.maxAbsBias.toPrecision(4)} V, ${e.charge.toPrecision(3)} C passed; ${e.parameter ? `${e.parameter.name} = ${e.parameter.value.toPrecision(5)} ± ${e.parameter.stdErr.toPrecision(2)} ${e.parameter.unit}; ` : ''}stopped: ${e.stopReason}`;
+      // The same number forms as the fit lines ("1.39e-6 C", "3.09988 ± 0.00015 eV"), not toPrecision's
+      // "0.00000139".
+      return `sweep ${e.sweep}: ${e.readings} readings, up to ${e.maxAbsBias.toPrecision(4)} V, ${formatQuantity(e.charge, 'C', undefined, 3)} passed; ${e.parameter ? `${e.parameter.name} = ${formatParameterText(e.parameter, e.parameter.name)}; ` : ''}stopped: ${e.stopReason}`;
     case 'recovery':
       return `journal: ${e.message}`;
     default:

@@ -236,6 +236,28 @@ describe('compliance clipping without a flag', () => {
 });
 
 describe('a wrong answer is never silent', () => {
+  it('a mechanism that holds over a decade of a curve spanning eight: implausible, naming the decades (Poole–Frenkel and hopping on a Fowler–Nordheim oxide, Fowler–Nordheim on a Poole–Frenkel nitride)', () => {
+    // Common practice: a conduction mechanism is believed when its line holds over several decades
+    // of current. The right mechanisms hold over 5–9 decades of these sweeps; a wrong one finds a
+    // straight piece of about one decade with a reasonable-looking parameter.
+    for (const seed of [1, 2, 3]) {
+      const oxide = wholeSweep({ ...CASES[0].spec, seed });
+      for (const model of ['poole-frenkel', 'hopping']) {
+        const r = analyze({ x: oxide.v, y: oxide.i }, { model, inputs: { thickness: 7e-9, area: 1e-8 } });
+        const what = `${model}, seed ${seed}: ${r.warnings.join('; ')}`;
+        expect(r.plausible, what).toBe(false);
+        expect(r.warnings.join(' '), what).toMatch(/line holds over [0-9.]+ decades of current of the [0-9.]+ this branch shows above its noise floor/);
+      }
+      const nitride = wholeSweep({ ...CASES[1].spec, seed });
+      const f = analyze({ x: nitride.v, y: nitride.i }, { model: 'fowler-nordheim', inputs: { thickness: 20e-9, area: 1e-8 } });
+      expect(f.plausible, f.warnings.join('; ')).toBe(false);
+      // The right mechanisms on the same sweeps stay plausible, with no such warning.
+      const right = analyze({ x: oxide.v, y: oxide.i }, { model: 'fowler-nordheim', inputs: CASES[0].inputs });
+      expect(right.plausible).toBe(true);
+      expect(right.warnings.join(' ')).not.toMatch(/line holds over/);
+    }
+  });
+
   it('trap-assisted tunnelling asked of a film that only leaks: implausible, with the reason (not 0.1 eV passed as fine)', () => {
     // An ohmic film (1e12 Ω) and nothing else.
     const s = wholeSweep({

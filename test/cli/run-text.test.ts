@@ -66,3 +66,24 @@ suite('run: a sweep fit line', () => {
     expect(text.trim()).toBe('drift of mobility: in-control (ewma 1.0001e-4 cm²/(V·s), limits 9.9868e-5 cm²/(V·s) … 1.0016e-4 cm²/(V·s))');
   });
 });
+
+suite('run: an adaptive sweep line', () => {
+  it('the charge in the exponent form the fit lines use (1.39e-6 C, not 0.00000139 C) and the parameter as the fit line shows it', () => {
+    const ev = {
+      type: 'adaptive-sweep',
+      seq: 2,
+      t: 0,
+      sweep: 2,
+      readings: 19,
+      maxAbsBias: 9,
+      charge: 1.39e-6,
+      parameter: { name: 'barrierHeight', value: 3.10012, stdErr: 0.00018, unit: 'eV' },
+      stopReason: 'target-reached',
+    } as unknown as WireEvent;
+    const text = describe(ev) as string;
+    expect(text).toBe('sweep 2: 19 readings, up to 9.000 V, 1.39e-6 C passed; barrierHeight = 3.10012 ± 0.00018 eV; stopped: target-reached');
+    // The same digits as the sweep's fit line.
+    const fit = describe(fitEvent({ parameters: { barrierHeight: { value: 3.10012, stdErr: 0.00018, unit: 'eV' } } })) as string;
+    expect(fit.endsWith('barrierHeight = 3.10012 ± 0.00018 eV')).toBe(true);
+  });
+});
