@@ -10,8 +10,9 @@
  *    steps — a sixtieth of the range, or coarser when the point budget is too small — growing by
  *    60 % per point up to a sixth of the range, so the regime is crossed in a few readings; on an
  *    autoranging instrument, once two regime readings give a secant of ln|I|, each step instead
- *    aims at 85 % of the next decade's top (see `stepToBand`), so the climb's readings too are
- *    taken where their range reads best, about one per decade;
+ *    aims at 85 % of the next decade's top (see `stepToBand`; never more than twice the growing
+ *    step, so a shallow secant — a leakage still dominating — does not send the bias far up at
+ *    once), so the climb's readings too are taken where their range reads best;
  *  - no step is longer than the one the last two readings' secant (of ln|I| against V) says reaches
  *    the current limit, so the limit is approached, not jumped past (the steps shrink near it);
  *  - after every point in the regime the caller fits the sweep so far and reports the target
@@ -213,7 +214,7 @@ export class AdaptiveSweep {
     const m = this.onset !== undefined ? this.regimePoints - 1 : this.v.length - 1;
     let step = inRegime ? Math.min(this.span / 6, this.fine * GROWTH ** Math.max(0, m)) : this.coarse;
     const toBand = top === undefined && this.regimePoints >= 2 ? this.stepToBand(v, a) : undefined;
-    if (toBand !== undefined) step = Math.min(this.span / 6, Math.max(0.25 * this.fine, toBand));
+    if (toBand !== undefined) step = Math.min(2 * step, this.span / 6, Math.max(0.25 * this.fine, toBand));
     if (top !== undefined) {
       // Known ground: the steps double up to a quarter of the way left, and stop at the top.
       step = Math.min(Math.max(this.coarse, Math.abs(top - this.entry()) / 4), this.fine * GROWTH_KNOWN ** Math.max(0, this.regimePoints - 1));
@@ -447,7 +448,8 @@ export class AdaptiveSweep {
     const k0 = this.onset !== undefined ? this.v.indexOf(this.onset) : this.v.length;
     if (k0 < 1) return undefined;
     // Robust (the fit's floor estimate takes the same form), so the last readings before the
-    // onset, already carrying a little signal, do not raise it.
+    // onset, already carrying a little signal, do not raise it. Of one or two readings it is
+    // median-unbiased (median I²/0.4549 has σ² as its median), not mean-unbiased as an RMS is.
     return robustRms(this.i.slice(0, k0));
   }
 

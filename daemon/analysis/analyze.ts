@@ -16,7 +16,7 @@ import { compileCustom, customMechanism, type CustomSpec } from './mechanisms/cu
 import { getMechanism } from './mechanisms/index.js';
 import { floorLevel, type NoiseModel } from './noise-floor.js';
 import { fitLine } from './line-fit.js';
-import { segmentLine } from './segmentation.js';
+import { REGIME_SEGMENTS, segmentLine } from './segmentation.js';
 import { chooseBranches, classifySweep, REASONS, type Branch, type SweepClasses } from './sweep-points.js';
 
 export { REASONS } from './sweep-points.js';
@@ -296,7 +296,7 @@ function rawRange(p: FitPoints): { from: number; to: number } {
 /** Segments the whole linearized curve into regimes (only where there are enough points). */
 export function findRegimes(all: FitPoints): Regime[] {
   if (all.x.length < 12) return [];
-  const seg = segmentLine(all.x, all.y, { minPoints: 5, maxSegments: 5 });
+  const seg = segmentLine(all.x, all.y, REGIME_SEGMENTS);
   return seg.segments
     .map((s) => {
       let lo = Infinity;

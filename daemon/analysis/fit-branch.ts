@@ -32,6 +32,7 @@ import { EXCLUDED, REASONS, sortedOrder, type Branch, type SweepClasses, type Sw
 import { MIN_WINDOW_POINTS, searchWindow, testRun, type Admissible, type WindowTest } from './window.js';
 import { WindowMoments } from './window-moments.js';
 import { selectInPlace } from './select.js';
+import { REGIME_SEGMENTS, segmentLine } from './segmentation.js';
 
 export type WindowMode = 'all' | 'manual' | 'auto';
 
@@ -824,9 +825,14 @@ export function fitBranch(
       sLo = Math.min(sLo, a);
       sHi = Math.max(sHi, a);
     }
-    const wd = Math.log10(hi / lo);
     const sd = Math.log10(sHi / sLo);
-    if (request.mode === 'auto' && (wd < SHORT_WINDOW_DECADES || wd < SHORT_WINDOW_SHARE * sd) && sd - wd >= UNEXPLAINED_DECADES) {
+    const short = (d: number) => (d < SHORT_WINDOW_DECADES || d < SHORT_WINDOW_SHARE * sd) && sd - d >= UNEXPLAINED_DECADES;
+    let wd = Math.log10(hi / lo);
+    // A short pick inside a longer straight regime of the same plot (a diode's recombination
+    // region, say, where the search settled on part of it) is the search's choice, not a sign of the
+    // wrong mechanism: the regime the window lies in counts.
+    if (request.mode === 'auto' && short(wd)) wd = Math.max(wd, regimeDecades(all, fs, fe));
+    if (request.mode === 'auto' && short(wd)) {
       warnings.push(
         `the ${mech.title.split(',')[0]} line holds over ${wd.toFixed(2)} decades of current of the ${sd.toFixed(1)} this branch shows above its noise floor: most of the curve is something else (another mechanism, a leakage, several regimes); compare mechanisms (plumbline rank) or give the window`,
       );
@@ -852,6 +858,31 @@ export function fitBranch(
     noise,
     test,
   };
+}
+
+/**
+ * Decades of current spanned by the regime (REGIME_SEGMENTS, the cut the report's regimes use) that
+ * shares the most points with the window fs..fe (0 when the curve is too short to cut).
+ */
+function regimeDecades(all: FitPoints, fs: number, fe: number): number {
+  if (all.x.length < 12) return 0;
+  let best = 0;
+  let decades = 0;
+  for (const s of segmentLine(all.x, all.y, REGIME_SEGMENTS).segments) {
+    const shared = Math.min(fe, s.end) - Math.max(fs, s.start) + 1;
+    if (shared <= best) continue;
+    let lo = Infinity;
+    let hi = -Infinity;
+    for (let k = s.start; k <= s.end; k++) {
+      const a = Math.abs(all.current[k]);
+      if (!(a > 0)) continue;
+      lo = Math.min(lo, a);
+      hi = Math.max(hi, a);
+    }
+    best = shared;
+    decades = hi > lo ? Math.log10(hi / lo) : 0;
+  }
+  return decades;
 }
 
 /**

@@ -44,6 +44,9 @@ export interface SegmentOptions {
   readonly maxSegments?: number;
 }
 
+/** How a whole linearized curve is cut into the regimes a report lists (and the fit's checks consult). */
+export const REGIME_SEGMENTS: SegmentOptions = { minPoints: 5, maxSegments: 5 };
+
 /** x must be sorted ascending. */
 export function segmentLine(x: Numbers, y: Numbers, options: SegmentOptions = {}): Segmentation {
   const n = x.length;

@@ -37,6 +37,9 @@ export async function runAdaptive(ctx: RunContext, plan: AdaptivePlan, figures: 
   const src = ctx.source;
   const journal = ctx.chain.options.journal;
   let prior: SweepKnowledge | undefined;
+  // The planner's information is that of ln|I| against the mechanism's axis: its predicted error
+  // means something only for those fits (not for ohmic, space-charge or custom lines).
+  const axis = ctx.chain.fitAxis();
   for (let s = 1; s <= plan.repeat; s++) {
     ctx.check();
     const planner = new AdaptiveSweep(
@@ -46,7 +49,7 @@ export async function runAdaptive(ctx: RunContext, plan: AdaptivePlan, figures: 
         maxPoints: plan.maxPoints,
         currentLimit: plan.currentLimit ?? 0.5 * plan.compliance,
         absoluteFloor: 1e-13,
-        ...ctx.chain.fitAxis(),
+        ...axis,
       },
       prior,
     );
@@ -91,7 +94,7 @@ export async function runAdaptive(ctx: RunContext, plan: AdaptivePlan, figures: 
           // a typical instrument's noise (the figures that place the fill) must meet the target too.
           const slope = planner.predictedSlopeError('leakageResistance' in f.parameters);
           const perSlope = f.line.slopeStdErr > 0 ? (p.statStdErr ?? p.stdErr) / f.line.slopeStdErr : Number.NaN;
-          const predicted = slope !== undefined && Number.isFinite(perSlope) ? slope * perSlope : 0;
+          const predicted = axis && slope !== undefined && Number.isFinite(perSlope) ? slope * perSlope : 0;
           met = p.stdErr <= plan.target.stdErr && predicted <= plan.target.stdErr && f.plausible ? met + 1 : 0;
           if (met >= TARGET_CHECKS) {
             planner.targetReached();

@@ -7,7 +7,7 @@
  */
 import { describe, expect, it } from 'vitest';
 import { analyze, type FitReport } from '../../daemon/analysis/analyze.js';
-import { linearBias, wholeSweep, type Device, type SweepSpec } from '../helpers/whole-sweep.js';
+import { linearBias, normals, PHYSICAL, wholeSweep, type Device, type SweepSpec } from '../helpers/whole-sweep.js';
 
 interface Case {
   readonly name: string;
@@ -256,6 +256,25 @@ describe('a wrong answer is never silent', () => {
       expect(right.plausible).toBe(true);
       expect(right.warnings.join(' ')).not.toMatch(/line holds over/);
     }
+  });
+
+  it('the right mechanism on a curve of two regimes is not called implausible when the window search settles on part of one (two-diode silicon junction, n = 2 below n = 1)', () => {
+    // Two-diode model (Sah, Noyce & Shockley 1957): recombination current with n = 2 under the
+    // diffusion current with n = 1, plus a 1 GΩ shunt; 0.05 % noise and a 1e-13 A floor.
+    const { Q, KB } = PHYSICAL;
+    const vt = (KB * 300) / Q;
+    const noise = normals(11);
+    const v = linearBias(0, 0.8, 161);
+    const i = v.map((b) => {
+      const c = 1e-15 * Math.expm1(b / vt) + 1e-10 * Math.expm1(b / (2 * vt)) + b / 1e9;
+      return c + (5e-4 * Math.abs(c) + 1e-13) * noise();
+    });
+    const r = analyze({ x: v, y: i }, { model: 'diode', inputs: { temperature: 300 } });
+    expect(r.warnings.join(' ')).not.toMatch(/line holds over/);
+    expect(r.plausible, r.warnings.join('; ')).toBe(true);
+    // Whichever regime it reports, its ideality is one of the two.
+    const n = r.parameters.idealityFactor.value;
+    expect(Math.min(Math.abs(n - 1), Math.abs(n - 2)), `n = ${n}`).toBeLessThan(0.2);
   });
 
   it('trap-assisted tunnelling asked of a film that only leaks: implausible, with the reason (not 0.1 eV passed as fine)', () => {

@@ -27,6 +27,7 @@ import { analysisSchema, breakdownSchema, driftSchema } from '../../daemon/pipel
 import { GuardedSource, limitsSchema } from '../../daemon/run/guard.js';
 import { parsePlan } from '../../daemon/run/plan.js';
 import { RunController, type RunResult } from '../../daemon/run/runner.js';
+import type { DeviceSpec } from '../../daemon/simulator/device.js';
 import { SimulatedSmu } from '../../daemon/simulator/instrument.js';
 import { findScenario } from '../../daemon/simulator/scenarios.js';
 import { attachInstrument } from '../../daemon/simulator/serve.js';
@@ -64,8 +65,17 @@ export interface Outcome {
   readonly stopReason?: string;
 }
 
-export async function run(scenario: string, plan: unknown, seed: number): Promise<{ result: RunResult; dir: string }> {
-  const sc = findScenario(scenario);
+/** One run of `plan` on a scenario's device (or on `device`, with the analysis `model`, when given). */
+export async function run(
+  scenario: string,
+  plan: unknown,
+  seed: number,
+  own?: { device: DeviceSpec; model: string; compliance: number },
+): Promise<{ result: RunResult; dir: string }> {
+  const found = findScenario(scenario);
+  const sc = own
+    ? { ...found, device: own.device, analysis: { ...found.analysis, model: own.model }, sweep: { ...found.sweep, compliance: own.compliance } }
+    : found;
   const dir = mkdtempSync(join(tmpdir(), 'plumbline-bench-adaptive-'));
   const smu = new SimulatedSmu({ device: sc.device, seed, realTime: false });
   const [client, inst] = duplexPair();

@@ -68,6 +68,20 @@ describe('adaptive sweeps against the fixed sweep on every insulator scenario', 
     expect(a.stdErr).toBeGreaterThan(1e-4);
   }, 60_000);
 
+  it('a line of the current itself (a 1 MΩ resistor, ohmic): the sweep stops when the resistance is pinned, well before the range ends', async () => {
+    // I = V/R (Ohm's law): the fit's slope is 1/R in A/V, not a slope of ln I, so the planner's
+    // ln I information says nothing about it; the stop rests on the fit's error alone.
+    const device = { mechanism: 'ohmic', params: { resistance: 1e6 }, inputs: {} };
+    const plan = { kind: 'adaptive', start: 0, stop: 10, maxPoints: 200, compliance: 1e-3, target: { parameter: 'resistance', stdErr: 1000 } };
+    const { result, dir } = await run('oxide-fn', plan, 1, { device, model: 'ohmic', compliance: 1e-3 });
+    rmSync(dir, { recursive: true, force: true });
+    const sw = result.adaptive?.sweeps[0];
+    expect(sw?.stopReason).toBe('target-reached');
+    expect(sw?.parameter?.stdErr).toBeLessThanOrEqual(1000);
+    expect(Math.abs((sw?.parameter?.value as number) - 1e6)).toBeLessThanOrEqual(3 * (sw?.parameter?.stdErr as number));
+    expect(sw?.readings).toBeLessThan(60);
+  }, 60_000);
+
   it('later sweeps start where the first found the regime, stay at or below its top and reach the target', async () => {
     const c = CASES.find((k) => k.scenario === 'nitride-pf') as (typeof CASES)[number];
     const sc = findScenario(c.scenario);
