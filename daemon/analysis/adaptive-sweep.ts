@@ -460,8 +460,10 @@ export class AdaptiveSweep {
     // A later sweep's onset is where it started; the regime's own start stays the earliest one seen.
     const onset = this.prior && (this.prior.onset - this.onset) * this.dir < 0 ? this.prior.onset : this.onset;
     // The top a later sweep may not pass: the fill's, an earlier sweep's, or — when the target was
-    // reached on the way up — the highest level this sweep read (the stress shown to be enough).
-    // Only levels whose reading stayed below the current limit count.
+    // reached on the way up, or a limit stopped the climb — the highest level this sweep read (the
+    // stress shown to be enough, or all the device takes). Only levels whose reading stayed below
+    // the current limit count. A sweep that ran out of points on the way up sets no top: where it
+    // stopped says nothing about the device.
     let highest: number | undefined;
     for (let k = 0; k < this.v.length; k++) {
       if (!(Math.abs(this.i[k]) < this.settings.currentLimit)) continue;
@@ -472,8 +474,8 @@ export class AdaptiveSweep {
       this.ends ??
       (this.prior?.top !== undefined
         ? { low: this.prior.low, top: this.prior.top, why: this.prior.topReason }
-        : highest !== undefined
-          ? { low: undefined, top: highest, why: (limited ? 'current-limit' : 'earlier-top') as StopReason }
+        : highest !== undefined && (limited || this.stopped === 'target-reached' || this.stopped === 'bias-limit')
+          ? { low: undefined, top: highest, why: (limited ? 'current-limit' : this.stopped === 'bias-limit' ? 'bias-limit' : 'earlier-top') as StopReason }
           : undefined);
     return {
       onset,

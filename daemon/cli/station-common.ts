@@ -210,7 +210,7 @@ export function describe(e: WireEvent): string | undefined {
     case 'adaptive-sweep':
       // The same number forms as the fit lines ("1.39e-6 C", "3.09988 ± 0.00015 eV"), not toPrecision's
       // "0.00000139".
-      return `sweep ${e.sweep}: ${e.readings} readings, up to ${e.maxAbsBias.toPrecision(4)} V, ${formatQuantity(e.charge, 'C', undefined, 3)} passed; ${e.parameter ? `${e.parameter.name} = ${formatParameterText(e.parameter, e.parameter.name)}; ` : ''}stopped: ${e.stopReason}`;
+      return `sweep ${e.sweep}: ${e.readings} readings, |bias| up to ${e.maxAbsBias.toPrecision(4)} V, ${formatQuantity(e.charge, 'C', undefined, 3)} passed; ${e.parameter ? `${e.parameter.name} = ${formatParameterText(e.parameter, e.parameter.name)}; ` : ''}stopped: ${e.stopReason}`;
     case 'recovery':
       return `journal: ${e.message}`;
     default:

@@ -62,53 +62,62 @@ export async function runAdaptive(ctx: RunContext, plan: AdaptivePlan, figures: 
     let last = journal.now();
     let parameter: AdaptiveSweepFigures['parameter'] = null;
     let met = 0;
-    for (;;) {
-      ctx.check();
-      await src.step(v);
-      if (plan.delay > 0) await ctx.sleep(plan.delay);
-      ctx.check();
-      const m = await src.measure();
-      ctx.take(m, v);
-      const now = journal.now();
-      const hold = (now - last) / 1000;
-      last = now;
-      readings++;
-      maxAbsBias = Math.max(maxAbsBias, Math.abs(v));
-      const r = m.reading;
-      if (r && Number.isFinite(r.i)) charge += Math.abs(r.i) * hold;
-      // The planner steps from the programmed level (the measured one carries the instrument's noise).
-      const step = planner.add(v, r && Number.isFinite(r.i) ? r.i : 0, m.compliance);
-      if (planner.inRegime && planner.regimePoints >= MIN_REGIME_POINTS) {
-        const f = ctx.chain.fitSoFar().fit;
-        if (f && Object.keys(f.parameters).length > 0 && !(plan.target.parameter in f.parameters)) {
-          // A misspelt or foreign target would otherwise run every sweep to its point budget.
-          throw new PlanError(
-            `plan: field 'target.parameter': '${plan.target.parameter}' is not a parameter of the ${f.model} fit (it gives ${Object.keys(f.parameters).join(', ')}); the run was stopped`,
-          );
-        }
-        const p = f?.parameters[plan.target.parameter];
-        if (f && p && Number.isFinite(p.stdErr)) {
-          parameter = { name: plan.target.parameter, value: p.value, stdErr: p.stdErr, unit: p.unit };
-          // The fit's error rests on the noise it reads from the sweep's own scatter, which a few
-          // readings can make look several times too small: the error the same readings give with
-          // a typical instrument's noise (the figures that place the fill) must meet the target too.
-          const slope = planner.predictedSlopeError('leakageResistance' in f.parameters);
-          const perSlope = f.line.slopeStdErr > 0 ? (p.statStdErr ?? p.stdErr) / f.line.slopeStdErr : Number.NaN;
-          const predicted = axis && slope !== undefined && Number.isFinite(perSlope) ? slope * perSlope : 0;
-          met = p.stdErr <= plan.target.stdErr && predicted <= plan.target.stdErr && f.plausible ? met + 1 : 0;
-          if (met >= TARGET_CHECKS) {
-            planner.targetReached();
-            break;
+    try {
+      for (;;) {
+        ctx.check();
+        await src.step(v);
+        if (plan.delay > 0) await ctx.sleep(plan.delay);
+        ctx.check();
+        const m = await src.measure();
+        ctx.take(m, v);
+        const now = journal.now();
+        const hold = (now - last) / 1000;
+        last = now;
+        readings++;
+        maxAbsBias = Math.max(maxAbsBias, Math.abs(v));
+        const r = m.reading;
+        if (r && Number.isFinite(r.i)) charge += Math.abs(r.i) * hold;
+        // The planner steps from the programmed level (the measured one carries the instrument's noise).
+        const step = planner.add(v, r && Number.isFinite(r.i) ? r.i : 0, m.compliance);
+        if (planner.inRegime && planner.regimePoints >= MIN_REGIME_POINTS) {
+          const f = ctx.chain.fitSoFar().fit;
+          if (f && Object.keys(f.parameters).length > 0 && !(plan.target.parameter in f.parameters)) {
+            // A misspelt or foreign target would otherwise run every sweep to its point budget.
+            throw new PlanError(
+              `plan: field 'target.parameter': '${plan.target.parameter}' is not a parameter of the ${f.model} fit (it gives ${Object.keys(f.parameters).join(', ')}); the run was stopped`,
+            );
+          }
+          const p = f?.parameters[plan.target.parameter];
+          if (f && p && Number.isFinite(p.stdErr)) {
+            parameter = { name: plan.target.parameter, value: p.value, stdErr: p.stdErr, unit: p.unit };
+            // The fit's error rests on the noise it reads from the sweep's own scatter, which a few
+            // readings can make look several times too small: the error the same readings give with
+            // a typical instrument's noise (the figures that place the fill) must meet the target too.
+            const slope = planner.predictedSlopeError('leakageResistance' in f.parameters);
+            const perSlope = f.line.slopeStdErr > 0 ? (p.statStdErr ?? p.stdErr) / f.line.slopeStdErr : Number.NaN;
+            const predicted = axis && slope !== undefined && Number.isFinite(perSlope) ? slope * perSlope : 0;
+            met = p.stdErr <= plan.target.stdErr && predicted <= plan.target.stdErr && f.plausible ? met + 1 : 0;
+            if (met >= TARGET_CHECKS) {
+              planner.targetReached();
+              break;
+            }
           }
         }
+        if ('stop' in step) break;
+        v = step.next;
       }
-      if ('stop' in step) break;
-      v = step.next;
+    } catch (e) {
+      // An abort (drift, breakdown, the operator) cut the sweep: its readings still count in the
+      // run's figures. Nothing is written here: the output goes off first.
+      figures.push({ sweep: s, readings, maxAbsBias, charge, parameter, stopReason: 'interrupted' });
+      throw e;
     }
     const stopReason = planner.stopReason ?? 'point-budget';
-    const decision = ctx.endSweep(`stopped: ${STOP_MEANING[stopReason]}`);
     const fig: AdaptiveSweepFigures = { sweep: s, readings, maxAbsBias, charge, parameter, stopReason };
+    // In the run's figures before the sweep's end is judged: a drift or breakdown abort there
+    // throws, and the sweep's readings must still count.
     figures.push(fig);
+    const decision = ctx.endSweep(`stopped: ${STOP_MEANING[stopReason]}`);
     ctx.record({ type: 'adaptive-sweep', ...fig });
     prior = planner.knowledge();
     if (decision === 'stop') return { outcome: 'stopped', reason: `stopped after sweep ${s}` };

@@ -371,7 +371,7 @@ export function sweepValues(p: SweepPlan): number[] {
 export function describePlan(p: Plan): string {
   switch (p.kind) {
     case 'adaptive':
-      return `adaptive ${p.start} V → ${p.stop} V, at most ${p.maxPoints} points per sweep, until ${p.target.parameter} is known to ±${p.target.stdErr} × ${p.repeat} sweep(s); compliance ${p.compliance} A`;
+      return `adaptive ${p.start} V → ${p.stop} V, at most ${p.maxPoints} points per sweep, until ${p.target.parameter} is known to ±${p.target.stdErr} (its SI unit: eV for energies, m for lengths) × ${p.repeat} sweep(s); compliance ${p.compliance} A`;
     case 'voltage-ramp':
       return `voltage ramp ${p.start} V → ${p.stop} V in ${p.step} V steps of ${p.stepTime} s (${(p.step / p.stepTime).toPrecision(3)} V/s) to breakdown; compliance ${p.compliance} A${p.useVoltage !== undefined ? `; use-condition check at ${p.useVoltage} V before and after` : ''}`;
     case 'current-ramp':

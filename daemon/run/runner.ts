@@ -202,6 +202,8 @@ export class RunController {
       });
       if (aborted) {
         if (this.sweepOpen) this.safely(() => this.chain.endSweep(false, `aborted: ${reason}`));
+        // An adaptive sweep the abort cut (or ended at its close) is journaled now, the output off.
+        for (const f of this.adaptive.slice(this.adaptiveJournaled)) this.safely(() => this.record({ type: 'adaptive-sweep', ...f }));
       } else {
         if (this.sweepOpen) this.safely(() => this.chain.endSweep(false, `ended by: ${reason}`));
         this.record({
@@ -330,6 +332,8 @@ export class RunController {
 
   /** Each adaptive sweep's figures (readings, largest bias, charge, parameter, why it stopped). */
   readonly adaptive: AdaptiveSweepFigures[] = [];
+  /** How many of them are journaled (an abort journals the rest once the output is off). */
+  private adaptiveJournaled = 0;
 
   private async adaptiveBody(plan: AdaptivePlan): Promise<{ outcome: RunOutcome; reason: string }> {
     await this.powerUp(plan.compliance, plan.nplc);
@@ -351,7 +355,10 @@ export class RunController {
         }
         return d;
       },
-      record: (e) => this.record(e),
+      record: (e) => {
+        if (e.type === 'adaptive-sweep') this.adaptiveJournaled++;
+        this.record(e);
+      },
       endSweep: (note) => {
         const d = this.chain.endSweep(true, note);
         if (d?.action === 'abort') {

@@ -214,3 +214,21 @@ describe('an autoranging instrument: the fill reads where the range in use reads
     expect(slopeVariance(rows(aware.slice(0, n)))).toBeLessThan(0.7 * slopeVariance(rows(blind.slice(0, n))));
   });
 });
+
+describe('a first sweep that ran out of points on the way up', () => {
+  it('sets no top for later sweeps: where the budget ended says nothing about the device', () => {
+    const current = (v: number) => (v <= 0 ? 1e-14 : Math.exp(-30 + 2.5 * v));
+    const settings: AdaptiveSettings = { start: 0, stop: 8, maxPoints: 8, currentLimit: 5e-4, absoluteFloor: 1e-13 };
+    const first = new AdaptiveSweep(settings);
+    const l1 = drive(first, current);
+    expect(first.stopReason).toBe('point-budget');
+    expect(Math.max(...l1)).toBeLessThan(8);
+    const known = first.knowledge();
+    expect(known?.top).toBeUndefined();
+    // The next sweep may climb past where the first one's budget ran out.
+    const later = new AdaptiveSweep({ ...settings, maxPoints: 40 }, known);
+    const l2 = drive(later, current);
+    expect(Math.max(...l2)).toBeGreaterThan(Math.max(...l1));
+    expect(later.stopReason).not.toBe('earlier-top');
+  });
+});

@@ -272,6 +272,16 @@ describe('whole sweeps from the command line, no window given (test/helpers/whol
     const w = thick.warnings.join(' ');
     expect(ratio(w) / 10 ** (4 / 3)).toBeCloseTo(1, 1);
     expect(w).toMatch(/check the thickness and the area/);
+    // 21× is an input to check, not a wrong mechanism: the fit stays plausible.
+    expect(thick.plausible).toBe(true);
+    // An area 10⁶ times the device's puts the prefactor 10⁶ off, beyond any plausible input error
+    // together (10 × thickness ≈ 21×, 100 × area): not plausible, saying so.
+    const far = JSON.parse(
+      runCli(['fit', file, '--model', 'fowler-nordheim', '--thickness', '7 nm', '--area', '100 cm^2', '--mass-ratio', '0.42', '--json']).stdout,
+    );
+    expect(ratio(far.warnings.join(' '))).toBeLessThan(1e-4);
+    expect(far.warnings.join(' ')).toMatch(/not Fowler–Nordheim tunnelling/);
+    expect(far.plausible).toBe(false);
   });
   it('rank: Fowler–Nordheim first, weights summing to 1', () => {
     const file = tempFile('fn-whole.csv', toCsv(wholeSweep({ ...spec, seed: 12 })));

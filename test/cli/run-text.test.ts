@@ -81,7 +81,7 @@ suite('run: an adaptive sweep line', () => {
       stopReason: 'target-reached',
     } as unknown as WireEvent;
     const text = describe(ev) as string;
-    expect(text).toBe('sweep 2: 19 readings, up to 9.000 V, 1.39e-6 C passed; barrierHeight = 3.10012 ± 0.00018 eV; stopped: target-reached');
+    expect(text).toBe('sweep 2: 19 readings, |bias| up to 9.000 V, 1.39e-6 C passed; barrierHeight = 3.10012 ± 0.00018 eV; stopped: target-reached');
     // The same digits as the sweep's fit line.
     const fit = describe(fitEvent({ parameters: { barrierHeight: { value: 3.10012, stdErr: 0.00018, unit: 'eV' } } })) as string;
     expect(fit.endsWith('barrierHeight = 3.10012 ± 0.00018 eV')).toBe(true);

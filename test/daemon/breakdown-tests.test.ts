@@ -361,6 +361,25 @@ describe('adaptive sweeps', () => {
     expect(ev).toHaveLength(3);
   });
 
+  it('a run the drift watch aborts keeps the aborted sweep in its figures: readings and charge as the instrument served them', async () => {
+    // The trapping oxide's barrier rises with every reading: the drift watch ends the run after its
+    // baseline. The last sweep's figures count as every other's.
+    const sc = findScenario('oxide-fn-trapping');
+    const { inst, devices } = await instruments(() => new SimulatedSmu({ device: sc.device, seed: 7, realTime: false }));
+    const dir = tempDir();
+    const plan = { kind: 'adaptive', start: 0, stop: 9, maxPoints: 200, compliance: 1e-3, repeat: 15, target: { parameter: 'barrierHeight', stdErr: 0.001 } };
+    const cfg = writeConfig(dir, { instrument: inst, plan, analysis: { model: 'fowler-nordheim', window: 'auto', inputs: sc.device.inputs } });
+    const r = await runCliAsync(['run', '--config', cfg, '--data', join(dir, 'data'), '--json']);
+    const res = JSON.parse(r.stdout);
+    expect(res.outcome, r.stderr).toBe('aborted-drift');
+    const a = res.adaptive;
+    const sweeps = new Set(events(res.dir).flatMap((e) => (e.type === 'reading' ? [e.sweep] : [])));
+    expect(a.sweeps).toHaveLength(sweeps.size);
+    expect(a.readings).toBe(devices[0].log.filter((l) => l === ':READ?').length);
+    // The journal holds every sweep's figures too (the cut one journaled once the output was off).
+    expect(events(res.dir).filter((e) => e.type === 'adaptive-sweep')).toHaveLength(sweeps.size);
+  });
+
   it('a target the fit does not give is refused before anything is sent (exit 2, naming the field and what the fit gives)', async () => {
     const sc = findScenario('oxide-fn');
     const { inst, devices } = await instruments(() => new SimulatedSmu({ device: sc.device, seed: 6, realTime: false }));

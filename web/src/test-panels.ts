@@ -110,14 +110,17 @@ export function renderAdaptive(box: HTMLElement, sweeps: readonly Adaptive[]): b
     r.insertCell().textContent = formatNumber(a.charge, 3);
     const p = r.insertCell();
     p.className = 'num';
-    p.textContent = a.parameter ? formatParameter(a.parameter, a.parameter.name).text : '—';
+    // Value and "± error" each kept whole: in the narrow panel the cell wraps between them only.
+    const [value, err] = (a.parameter ? formatParameter(a.parameter, a.parameter.name).text : '—').split(' ± ');
+    p.append(el('span', value, 'whole'));
+    if (err !== undefined) p.append(' ', el('span', `± ${err}`, 'whole'));
     r.insertCell().textContent = a.stopReason.replace(/-/g, ' ');
   }
   const total = sweeps.reduce((n, a) => n + a.readings, 0);
   box.append(
     el(
       'p',
-      `${sweeps.length} adaptive sweep(s), ${total} readings in all${sweeps.length > ADAPTIVE_ROWS ? `; the newest ${ADAPTIVE_ROWS} shown` : ''}. Each stops once the target's standard error is reached (target reached), at the current limit or compliance, at the end of the range (bias limit) or after its most points (point budget).`,
+      `${sweeps.length} adaptive sweep(s), ${total} readings in all${sweeps.length > ADAPTIVE_ROWS ? `; the newest ${ADAPTIVE_ROWS} shown` : ''}. Each stops once the target's standard error is reached (target reached), at the current limit or compliance, at the end of the range (bias limit), at the highest level an earlier sweep needed (earlier top) or after its most points (point budget); a sweep cut by an abort is marked interrupted.`,
       'source',
     ),
     table,

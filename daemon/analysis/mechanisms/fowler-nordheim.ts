@@ -9,11 +9,15 @@
  * thickness moves the two apart — given d too large by k, φ falls by k^(2/3) and the implied
  * prefactor rises about k^(4/3) times over the expected one (k = 10: 21×) — as does a wrong area or
  * another mechanism; the image force and temperature change the prefactor by much less (Lenzlinger
- * & Snow 1969). More than 10× either way is a warning.
+ * & Snow 1969). More than 10× either way is a warning; more than 10⁴ — beyond a thickness ten times
+ * off and an area a hundred times off together (about 2,000×) — makes the fit implausible: the
+ * current is then not Fowler–Nordheim tunnelling.
  */
 
 /** Ratio between the prefactor an FN line's intercept implies and a/(m_r·φ), beyond which a warning is given. */
 const PREFACTOR_RATIO = 10;
+/** Beyond this ratio no plausible error in the inputs explains the prefactor: not FN tunnelling. */
+const PREFACTOR_IMPLAUSIBLE = 1e4;
 import { FN_A_A_EV_PER_V2, FN_B_EV32_V_PER_M } from '../constants.js';
 import { currentUnit, field, fmt, inRange, param, type Extraction, type Mechanism } from '../mechanism.js';
 
@@ -55,13 +59,18 @@ export const fowlerNordheimMechanism: Mechanism = {
       return { parameters: {}, warnings, plausible: false, notes };
     }
     const b = barrierFromTunnellingSlope(line.slope, line.slopeStdErr, inputs.massRatio);
-    const plausible = inRange(warnings, 'barrier height', b.value, 0.3, 6, 'eV');
+    let plausible = inRange(warnings, 'barrier height', b.value, 0.3, 6, 'eV');
     notes.push(`barrier ${fmt(b.value)} eV for m* / m0 = ${fmt(inputs.massRatio)}`);
     if (inputs.area !== undefined && plausible) {
       // ln of the prefactor the line implies, against ln a/(m_r φ) (both A/V², J in A/m²).
       const ratio = Math.exp(line.intercept - Math.log(FN_A_A_EV_PER_V2 / (inputs.massRatio * b.value)));
       const said = `the intercept implies a prefactor ${fmt(ratio)} times the Fowler–Nordheim value a/(m* φ) for this barrier and area`;
-      if (ratio > PREFACTOR_RATIO || ratio < 1 / PREFACTOR_RATIO)
+      if (ratio > PREFACTOR_IMPLAUSIBLE || ratio < 1 / PREFACTOR_IMPLAUSIBLE) {
+        warnings.push(
+          `${said}: more than a thickness ten times off (about 21×) and an area a hundred times off (100×) explain together: the current is not Fowler–Nordheim tunnelling, or the area is far from the device's`,
+        );
+        plausible = false;
+      } else if (ratio > PREFACTOR_RATIO || ratio < 1 / PREFACTOR_RATIO)
         warnings.push(
           `${said}: check the thickness and the area (a thickness ten times too large gives about 21×, ten times too small an implausible barrier), or whether the current is Fowler–Nordheim tunnelling`,
         );
