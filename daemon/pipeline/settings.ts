@@ -136,5 +136,15 @@ export function zodMessage(error: z.ZodError, where: string, raw?: unknown, sche
     });
     return `${where}: field '${field}': unknown field ${hints.join(', ')}${keys.length ? ` (known: ${keys.join(', ')})` : ''}`;
   }
+  if ((i.code === 'too_small' || i.code === 'too_big') && raw !== undefined) {
+    // Numbers out of their range, said in words with the value given ("-1 is too small: it must be
+    // more than 0"), not the validator's own wording.
+    const v = at(raw, i.path);
+    const bound = i.code === 'too_small' ? i.minimum : i.maximum;
+    if (typeof v === 'number' && (typeof bound === 'number' || typeof bound === 'bigint')) {
+      const word = i.code === 'too_small' ? (i.inclusive ? 'at least' : 'more than') : i.inclusive ? 'at most' : 'less than';
+      return `${where}: field '${field}': ${v} is too ${i.code === 'too_small' ? 'small' : 'large'}: it must be ${word} ${bound}`;
+    }
+  }
   return `${where}: field '${field}': ${i.message}`;
 }

@@ -27,7 +27,7 @@ describe('messages', () => {
     }
   });
 
-  it('plan mistakes in words a person acts on: a missing field, a quantity written as text, a misspelt key (with the one meant)', () => {
+  it('plan mistakes in words a person acts on: a missing field, a quantity written as text, a misspelt key (with the one meant), a number out of its range', () => {
     const cases: [unknown, RegExp][] = [
       [{ start: 0, stop: 5, points: 11 }, /plan\.json: field 'compliance': missing \(a number, in SI units\)/],
       [{ start: 0, stop: 5, points: 11, compliance: '1 mA' }, /field 'compliance': '1 mA' is text; .*write the number, e\.g\. 0\.001 for 1 mA/],
@@ -36,6 +36,11 @@ describe('messages', () => {
         { kind: 'voltage-ramp', stop: 5, step: 0.1, stepTime: 0.1, compliance: 1e-3, criteria: { slopeFactr: 3 } },
         /field 'criteria': unknown field 'slopeFactr' \(did you mean 'slopeFactor'\?\)/,
       ],
+      [
+        { kind: 'adaptive', start: 0, stop: 9, maxPoints: 200, compliance: 1e-3, target: { parameter: 'barrierHeight', stdErr: -1 } },
+        /field 'target\.stdErr': -1 is too small: it must be more than 0/,
+      ],
+      [{ start: 0, stop: 5, points: 1, compliance: 1e-3 }, /field 'points': 1 is too small: it must be at least 2/],
     ];
     for (const [plan, re] of cases) {
       const f = tempFile('plan.json', JSON.stringify(plan));

@@ -181,7 +181,7 @@ export class RawChart {
             ],
           },
           axes: [
-            { label: 'bias V (V)', stroke: '#1b1b1b', splits: linearSplits(), values: linearValues },
+            { label: 'bias (V)', stroke: '#1b1b1b', splits: linearSplits(), values: linearValues },
             log
               ? { label: '|I| (A)', stroke: '#1b1b1b', size: 78, splits: logSplits, values: logValues }
               : { label: 'I (A)', stroke: '#1b1b1b', size: 78, splits: linearSplits(), values: linearValues },
@@ -715,7 +715,7 @@ export class SolarChart {
           cursor: { drag: { x: true, y: true, setScale: true } },
           scales: { x: { time: false, range: linearRange }, y: { range: linearRange } },
           axes: [
-            { label: 'bias V (V)', stroke: '#1b1b1b', splits: linearSplits(), values: linearValues },
+            { label: 'bias (V)', stroke: '#1b1b1b', splits: linearSplits(), values: linearValues },
             { label: 'delivered current I (A)', stroke: '#1b1b1b', size: 78, splits: linearSplits(), values: linearValues },
           ],
           series: [
