@@ -136,9 +136,9 @@ export function zodMessage(error: z.ZodError, where: string, raw?: unknown, sche
     });
     return `${where}: field '${field}': unknown field ${hints.join(', ')}${keys.length ? ` (known: ${keys.join(', ')})` : ''}`;
   }
-  if ((i.code === 'too_small' || i.code === 'too_big') && raw !== undefined) {
+  if ((i.code === 'too_small' || i.code === 'too_big') && raw !== undefined && /^Too (small|big)/.test(i.message)) {
     // Numbers out of their range, said in words with the value given ("-1 is too small: it must be
-    // more than 0"), not the validator's own wording.
+    // more than 0"), not the validator's own wording (a schema's own message is kept).
     const v = at(raw, i.path);
     const bound = i.code === 'too_small' ? i.minimum : i.maximum;
     if (typeof v === 'number' && (typeof bound === 'number' || typeof bound === 'bigint')) {

@@ -78,6 +78,20 @@ describe('breakdown tests and adaptive sweeps on the page', () => {
       expect(cells[5]).toBe(f.stopReason.replace(/-/g, ' '));
     }
     expect(await page.textContent('#adaptive table th:nth-child(5)')).toBe('barrier height φ_B (eV)');
+    // The current plot joins an adaptive sweep's readings in bias order, not in the order taken
+    // (its fill goes back and forth between levels); an up-down sweep keeps its order. Checked on
+    // the page's own chart with readings taken 0, 8, 2, 9, 3 V.
+    const drawn = await page.evaluate(() => {
+      const raw = (window as any).__plumbline.charts.raw;
+      const sweep = { v: [0, 8, 2, 9, 3], i: [1e-13, 1e-5, 1e-11, 1e-4, 1e-10], flags: [0, 0, 0, 0, 0] };
+      const x = (byBias: boolean) => {
+        raw.update(new Map([[1, sweep]]), true, null, byBias);
+        return Array.from(raw.data[1][0]) as number[];
+      };
+      return { adaptive: x(true), other: x(false) };
+    });
+    expect(drawn.adaptive).toEqual([0, 2, 3, 8, 9]);
+    expect(drawn.other).toEqual([0, 8, 2, 9, 3]);
     expect(await page.locator('#cautions .caution[data-kind="destructive test"]').count()).toBe(0);
     await snap(page, 'page-adaptive-sweep.png');
     // Opened later from the journal, the session shows the same figures.

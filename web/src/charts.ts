@@ -125,14 +125,28 @@ export class RawChart {
     return c;
   }
 
-  update(sweeps: Map<number, SweepPoints>, log: boolean, envelope: Envelope | null = null): void {
+  /**
+   * `byBias`: draw each sweep's readings in bias order rather than in the order taken (an adaptive
+   * sweep goes back and forth between levels; joined in time order its curve would zigzag). Up-down
+   * sweeps keep their order, so their two legs stay apart.
+   */
+  update(sweeps: Map<number, SweepPoints>, log: boolean, envelope: Envelope | null = null, byBias = false): void {
     if (log !== this.log) this.cache.clear();
     this.log = log;
     this.envelope = envelope;
     const keys = [...sweeps.keys()].sort((a, b) => a - b);
     for (const k of this.cache.keys()) if (!sweeps.has(k)) this.cache.delete(k);
     const data: [null, ...[number[], (number | null)[]][]] = [null];
-    for (const k of keys) data.push([(sweeps.get(k) as SweepPoints).v, this.sweepArrays(k, sweeps.get(k) as SweepPoints, log).y]);
+    for (const k of keys) {
+      const s = sweeps.get(k) as SweepPoints;
+      const y = this.sweepArrays(k, s, log).y;
+      if (!byBias) {
+        data.push([s.v, y]);
+        continue;
+      }
+      const order = Array.from(s.v, (_, j) => j).sort((a, b) => s.v[a] - s.v[b]);
+      data.push([order.map((j) => s.v[j]), order.map((j) => y[j])]);
+    }
     // The envelope as two invisible series, so the axes take it in.
     const ev = envelope?.v ?? [];
     const eLo = envelope ? (log ? envelope.lo : envelope.min) : [];
@@ -173,7 +187,8 @@ export class RawChart {
                 for (let n = 0; n < nSweeps; n++) {
                   const c = this.cache.get(keys[n]);
                   if (!c) continue;
-                  if (total <= DOT_LIMIT) drawPoints(u, (u.data[n + 1] as unknown as [number[]])[0], c.y, 'dot', sweepColour(n, nSweeps), 1.6);
+                  const d = u.data[n + 1] as unknown as [number[], (number | null)[]];
+                  if (total <= DOT_LIMIT) drawPoints(u, d[0], d[1], 'dot', sweepColour(n, nSweeps), 1.6);
                   if (c.negX.length) drawPoints(u, c.negX, c.negY, 'cross', OKABE_ITO.vermillion);
                   if (c.compX.length) drawPoints(u, c.compX, c.compY, 'square', OKABE_ITO.black);
                 }

@@ -170,7 +170,7 @@ function render(): void {
   if (changed('cautions', s, s.cautions.length, s.outputOn, s.readOnly, s.sessionEvent, s.running)) renderCautions($('cautions'), s);
   if (changed('test', s, s.testResult, s.sessionEvent, s.running)) $('test-panel').hidden = !renderTestPanel($('test-title'), $('test-result'), s);
   if (changed('adaptive', s, s.adaptive.length)) $('adaptive-panel').hidden = !renderAdaptive($('adaptive'), s.adaptive);
-  raw.update(s.sweeps, ($('raw-log') as HTMLInputElement).checked, s.envelope);
+  raw.update(s.sweeps, ($('raw-log') as HTMLInputElement).checked, s.envelope, (s.sessionEvent?.plan as { kind?: string } | undefined)?.kind === 'adaptive');
   $('raw-note').textContent =
     `Colour runs from the first sweep shown (dark) to the latest (light)${s.envelope ? `; grey band: every one of the ${s.allSweeps.length} sweeps (smallest to largest current at each bias)` : ''}. ✕ marks negative current (plotted as |I|), □ marks readings at compliance.`;
   if (s.sessionEvent && s.readingCount > 0) {
