@@ -41,6 +41,8 @@ describe('breakdown tests and adaptive sweeps on the page', () => {
     await page.fill('#plan-form [name="maxPoints"]', '');
     await page.click('#run-start');
     expect(await page.textContent('#control-msg')).toBe('most points per sweep: enter a value');
+    // Said just under the Run form, beside its Start button (not at the foot of the panel).
+    expect(await page.evaluate(() => document.getElementById('control-msg')?.previousElementSibling?.id)).toBe('plan-form');
     expect((await api(daemon.url, 'GET', '/api/status')).json.running).toBe(false);
     for (const [k, v] of Object.entries({
       start: '0',

@@ -44,8 +44,10 @@ async function call(method: string, path: string, body?: unknown): Promise<Json>
   return json;
 }
 
-function say(text: string, error = false): void {
+/** The control message; `near` (a form) moves it just under that form, beside the button pressed. */
+function say(text: string, error = false, near?: HTMLElement): void {
   const el = $('control-msg');
+  if (near && el.previousElementSibling !== near) near.after(el);
   el.textContent = text;
   el.className = error ? 'error' : '';
 }
@@ -397,7 +399,7 @@ async function applyAnalysis(a: AnalysisSettings, what: string): Promise<void> {
       `${what}: sweeps ${[...(s.reanalysis?.fits.keys() ?? [])].join(', ')} re-analysed with ${settings.model}${s.readOnly ? '' : " (also the station's setting for the next run)"}; the results are kept beside the journal, which is unchanged.`,
     );
   } catch (e) {
-    say(`${what}: ${(e as Error).message}`, true);
+    say(`${what}: ${(e as Error).message}`, true, $('analysis-form'));
   }
 }
 
@@ -552,7 +554,7 @@ $('plan-form').addEventListener('submit', (ev) => {
     if (isDestructive(kind) && !ack.checked)
       throw new Error('This breakdown test destroys the device: read the caution above the Start button and tick its box to start it.');
   } catch (e) {
-    say((e as Error).message, true);
+    say((e as Error).message, true, f);
     return;
   }
   // The device under test (journaled with the session; used by the lot view and weibull).
@@ -572,9 +574,9 @@ $('plan-form').addEventListener('submit', (ev) => {
   call('POST', '/api/run', Object.keys(device).length ? { plan, device } : { plan })
     .then((r) => {
       ack.checked = false;
-      say(`Run started: ${r.session}`);
+      say(`Run started: ${r.session}`, false, f);
     })
-    .catch((e: Error) => say(e.message, true));
+    .catch((e: Error) => say(e.message, true, f));
 });
 $('run-stop').addEventListener('click', () => {
   call('POST', '/api/run/stop', { reason: 'stop requested from the page' })
@@ -644,10 +646,10 @@ $('note-form').addEventListener('submit', (ev) => {
     ...(viewStore.readOnly && viewStore.session ? { session: viewStore.session } : {}),
   })
     .then(() => {
-      say('Note added to the journal.');
+      say('Note added to the journal.', false, f);
       f.reset();
     })
-    .catch((e: Error) => say(e.message, true));
+    .catch((e: Error) => say(e.message, true, f));
 });
 $('lin-whole').addEventListener('change', () => {
   lin.wholeCurve = ($('lin-whole') as HTMLInputElement).checked;
