@@ -244,12 +244,8 @@ export class AdaptiveSweep {
    * the band rather than just past the decade). Undefined without a rising secant.
    */
   private stepToBand(v: number, a: number): number | undefined {
-    if (!(this.rangeOffset > 0)) return undefined;
-    const k = this.v.length - 1;
-    const a0 = Math.abs(this.i[k - 1]);
-    const dv = (v - this.v[k - 1]) * this.dir;
-    if (!(a0 > 0) || !(a > a0) || !(dv > 0)) return undefined;
-    const slope = Math.log(a / a0) / dv;
+    const slope = this.rangeOffset > 0 ? this.secant(v, a) : undefined;
+    if (slope === undefined) return undefined;
     const d = rangeOf(a);
     const aim = a < BAND_LOW * d ? 0.85 * d : 8.5 * d;
     return Math.log(aim / a) / slope;
@@ -263,13 +259,18 @@ export class AdaptiveSweep {
 
   /** Bias left before the secant of the last two readings reaches the current limit, V (Infinity when it does not rise). */
   private roomToLimit(v: number, a: number): number {
+    const slope = this.secant(v, a);
+    return slope === undefined ? Infinity : Math.log(this.settings.currentLimit / a) / slope;
+  }
+
+  /** The rise of ln|I| per volt between the last two readings (v, a the last), or undefined when it does not rise. */
+  private secant(v: number, a: number): number | undefined {
     const k = this.v.length - 1;
-    if (k < 1) return Infinity;
+    if (k < 1) return undefined;
     const a0 = Math.abs(this.i[k - 1]);
     const dv = (v - this.v[k - 1]) * this.dir;
-    if (!(a0 > 0) || !(a > a0) || !(dv > 0)) return Infinity;
-    const slope = Math.log(a / a0) / dv;
-    return Math.log(this.settings.currentLimit / a) / slope;
+    if (!(a0 > 0) || !(a > a0) || !(dv > 0)) return undefined;
+    return Math.log(a / a0) / dv;
   }
 
   /**

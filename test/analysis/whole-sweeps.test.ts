@@ -199,6 +199,9 @@ describe('branches and polarity', () => {
     const neg = r.branches.find((b) => b.polarity === 'negative');
     expect(Math.abs((pos?.parameters.barrierHeight.value ?? 0) - 3.1)).toBeLessThan(0.05);
     expect(Math.abs((neg?.parameters.barrierHeight.value ?? 0) - 2.8)).toBeLessThan(0.05);
+    // Both branches are the right mechanism over their whole regime: neither is called implausible.
+    expect(pos?.plausible, pos?.warnings.join('; ')).toBe(true);
+    expect(neg?.plausible, neg?.warnings.join('; ')).toBe(true);
     expect(r.notes.join(' ')).toMatch(/both polarities carry signal/);
     expect(r.warnings.join(' ')).toMatch(/two branches give different barrierHeight/);
     // The zero-bias reading belongs to neither branch.

@@ -332,16 +332,21 @@ describe('a lot ramped to breakdown, then weibull', () => {
   }, 180_000);
 });
 
+/** An adaptive plan run by the built CLI on a scenario's device over the real station path. */
+async function adaptiveStation(scenario: string, seed: number, plan: Record<string, unknown>) {
+  const sc = findScenario(scenario);
+  const { inst, devices } = await instruments(() => new SimulatedSmu({ device: sc.device, seed, realTime: false }));
+  const dir = tempDir();
+  const cfg = writeConfig(dir, { instrument: inst, plan, analysis: { model: 'fowler-nordheim', window: 'auto', inputs: sc.device.inputs } });
+  const r = await runCliAsync(['run', '--config', cfg, '--data', join(dir, 'data'), '--json']);
+  return { sc, devices, r, res: JSON.parse(r.stdout) };
+}
+
 describe('adaptive sweeps', () => {
   it('pins the barrier to its target with far fewer readings than the fixed sweep, and reports the figures', async () => {
-    const sc = findScenario('oxide-fn');
-    const { inst, devices } = await instruments(() => new SimulatedSmu({ device: sc.device, seed: 5, realTime: false }));
-    const dir = tempDir();
     const plan = { kind: 'adaptive', start: 0, stop: 10, maxPoints: 200, compliance: 1e-3, repeat: 3, target: { parameter: 'barrierHeight', stdErr: 0.01 } };
-    const cfg = writeConfig(dir, { instrument: inst, plan, analysis: { model: 'fowler-nordheim', window: 'auto', inputs: sc.device.inputs } });
-    const r = await runCliAsync(['run', '--config', cfg, '--data', join(dir, 'data'), '--json']);
+    const { sc, devices, r, res } = await adaptiveStation('oxide-fn', 5, plan);
     expect(r.code, r.stderr).toBe(0);
-    const res = JSON.parse(r.stdout);
     const a = res.adaptive;
     expect(a.sweeps).toHaveLength(3);
     for (const s of a.sweeps) {
@@ -364,14 +369,12 @@ describe('adaptive sweeps', () => {
   it('a run the drift watch aborts keeps the aborted sweep in its figures: readings and charge as the instrument served them', async () => {
     // The trapping oxide's barrier rises with every reading: the drift watch ends the run after its
     // baseline. The last sweep's figures count as every other's.
-    const sc = findScenario('oxide-fn-trapping');
-    const { inst, devices } = await instruments(() => new SimulatedSmu({ device: sc.device, seed: 7, realTime: false }));
-    const dir = tempDir();
     const plan = { kind: 'adaptive', start: 0, stop: 9, maxPoints: 200, compliance: 1e-3, repeat: 15, target: { parameter: 'barrierHeight', stdErr: 0.001 } };
-    const cfg = writeConfig(dir, { instrument: inst, plan, analysis: { model: 'fowler-nordheim', window: 'auto', inputs: sc.device.inputs } });
-    const r = await runCliAsync(['run', '--config', cfg, '--data', join(dir, 'data'), '--json']);
-    const res = JSON.parse(r.stdout);
+    const { devices, r, res } = await adaptiveStation('oxide-fn-trapping', 7, plan);
     expect(res.outcome, r.stderr).toBe('aborted-drift');
+    // At the instrument's end of the wire: output off, OUTP OFF the last output command it got.
+    expect(devices[0].output).toBe(false);
+    expect(devices[0].log.filter((l) => l === ':OUTP ON' || l === ':OUTP OFF').at(-1)).toBe(':OUTP OFF');
     const a = res.adaptive;
     const sweeps = new Set(events(res.dir).flatMap((e) => (e.type === 'reading' ? [e.sweep] : [])));
     expect(a.sweeps).toHaveLength(sweeps.size);
