@@ -17,9 +17,9 @@
  *    the current limit, so the limit is approached, not jumped past (the steps shrink near it);
  *  - after every point in the regime the caller fits the sweep so far and reports the target
  *    parameter's standard error; the sweep stops once it is at or below the target (run/adaptive.ts
- *    asks for three regime readings in a row that meet it, and the error `predictedSlopeError`
- *    says the same readings give with a typical instrument's noise to meet it too, so a chance low
- *    error or a noise level misread from a handful of readings does not stop it);
+ *    asks the error `predictedSlopeError` says the same readings give with a typical instrument's
+ *    noise to meet it too, so a chance low error or a noise level misread from a handful of
+ *    readings does not stop it);
  *  - when the top is reached (the end of the range, or the current limit) before the target is met,
  *    each further reading goes where it shrinks the slope's variance most: the greedy sequential
  *    c-optimal design (Fedorov 1972, Theory of Optimal Experiments; Atkinson, Donev & Tobias 2007,
