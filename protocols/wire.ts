@@ -65,6 +65,12 @@ export interface FitSummary {
   readonly warnings: readonly string[];
   readonly points: { used: number; excluded: number; reasons: Record<string, number> };
   readonly regimes: readonly { from: number; to: number; slope: number; intercept: number; n: number }[];
+  /**
+   * The noise the readings were weighed with: floor σ (A), where it came from ('readings',
+   * 'earlier sweeps' of the same run, 'accuracy', 'not reached') and the relative part (fraction).
+   * Absent in journals written before it was recorded.
+   */
+  readonly noise?: { readonly floor: number; readonly floorSource: string; readonly relative: number };
 }
 
 /**

@@ -57,6 +57,11 @@ export interface FitRequest {
   readonly eachBranch?: boolean;
   /** A classification made earlier for the same data and settings (ranking reuses one). */
   readonly classes?: SweepClasses;
+  /**
+   * The noise floor earlier sweeps of the same run measured (σ, A, and how many null readings it
+   * rests on): used when this sweep has no null readings of its own (zero bias, against the bias).
+   */
+  readonly knownFloor?: { readonly sigma: number; readonly readings: number };
 }
 
 export interface Regime {
@@ -327,7 +332,13 @@ export function analyzeDetailed(data: IVData, request: FitRequest): DetailedFit 
   const custom = request.model === 'custom' && request.custom ? compileCustom(request.custom) : undefined;
   const classes =
     request.classes ??
-    classifySweep(data, { flatBand: inputs.flatBand, complianceLimit: request.complianceLimit, accuracy: request.accuracy, detectCompliance: !!mech.current });
+    classifySweep(data, {
+      flatBand: inputs.flatBand,
+      complianceLimit: request.complianceLimit,
+      accuracy: request.accuracy,
+      detectCompliance: !!mech.current,
+      knownFloor: request.knownFloor,
+    });
   const win = request.window ?? defaultWindow(mech);
   const mode: WindowMode = win === 'auto' ? 'auto' : win === 'all' ? 'all' : 'manual';
   const manual = typeof win === 'object' ? win : undefined;

@@ -31,7 +31,7 @@ export interface NoiseModel {
   /** Relative σ, fraction of reading. */
   readonly relative: number;
   /** Where the floor came from. */
-  readonly floorSource: 'readings' | 'accuracy' | 'not reached';
+  readonly floorSource: 'readings' | 'earlier sweeps' | 'accuracy' | 'not reached';
   /** Readings the floor was estimated from (zero bias and against the bias). */
   readonly floorReadings: number;
   readonly relativeSource: 'scatter' | 'accuracy';

@@ -71,6 +71,8 @@ export interface ClassifyOptions {
   readonly relative?: number;
   /** Look for a current pinned at compliance that no flag marks (default true: the y column is a current). */
   readonly detectCompliance?: boolean;
+  /** The floor earlier sweeps of the same run measured (σ, A, from `readings` null readings); see FitRequest. */
+  readonly knownFloor?: { readonly sigma: number; readonly readings: number };
 }
 
 /**
@@ -208,6 +210,17 @@ export function classifySweep(data: SweepData, options: ClassifyOptions = {}): S
   }
   let est = estimateFloor(zero, low, signal);
   if (est?.note) notes.push(est.note);
+  const known = options.knownFloor;
+  let earlier = false;
+  if (!est && known && known.sigma > 0 && known.readings >= 3) {
+    // A sweep that starts where the current already flows (a later sweep of an adaptive plan) reads
+    // no null readings of its own; the instrument's floor is the one its earlier sweeps measured.
+    est = { sigma: known.sigma, n: known.readings };
+    earlier = true;
+    notes.push(
+      `this sweep reads no current at zero bias or against it: the noise floor (${known.sigma.toPrecision(3)} A) is the one earlier sweeps of the run measured`,
+    );
+  }
   if (!est) {
     // Too few readings against the bias or at zero bias: the scatter of the lowest-bias readings
     // about the straight interpolation of their neighbours (a leakage there is nearly linear in V).
@@ -260,7 +273,7 @@ export function classifySweep(data: SweepData, options: ClassifyOptions = {}): S
     noise = {
       floor: est?.sigma ?? 0,
       relative: options.relative ?? MIN_RELATIVE,
-      floorSource: est && est.sigma > 0 ? 'readings' : 'not reached',
+      floorSource: est && est.sigma > 0 ? (earlier ? 'earlier sweeps' : 'readings') : 'not reached',
       floorReadings: est?.n ?? 0,
       relativeSource: 'scatter',
     };

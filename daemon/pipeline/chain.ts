@@ -80,6 +80,7 @@ export function summarizeFit(r: FitReport): FitSummary {
     warnings: r.warnings,
     points: r.points,
     regimes: r.regimes,
+    noise: { floor: r.noise.floor, floorSource: r.noise.floorSource, relative: r.noise.relative },
   };
 }
 
@@ -127,6 +128,10 @@ export class LiveChain {
   /** Squares of recent null readings (zero bias, against the bias) and the largest |I| seen, for the floor. */
   private readonly nulls: number[] = [];
   private maxCurrent = 0;
+  /** Whether a null reading flowed against the bias, and the signs of the zero-bias ones. */
+  private readonly noiseSigns = { against: false, plus: false, minus: false };
+  /** The floor those null readings give (see noteNull; a fit uses it once the currents seen dwarf it). */
+  private nullFloor: { sigma: number; readings: number } | undefined;
   private complianceSeen = false;
   private hazardSeen = false;
   private lastFitAt = 0;
@@ -196,8 +201,8 @@ export class LiveChain {
     let flags = (compliance ? FLAG.compliance : 0) | (overflow ? FLAG.overflow : 0) | (voltageOverflow ? FLAG.voltageOverflow : 0);
     // The breakdown watch judges before the reading is journaled, so that its flag goes with it.
     let verdict: ReturnType<BreakdownWatch['add']> | undefined;
+    this.noteNull(v, i, flags);
     if (this.breakdown) {
-      this.noteNull(v, i, flags);
       verdict = this.breakdown.add(v, i, compliance, this.trendPoint(v, i));
     }
     if (brokeDown || verdict?.state === 'confirmed') flags |= FLAG.breakdown;
@@ -298,8 +303,11 @@ export class LiveChain {
 
   /**
    * Readings at zero bias or against the bias carry no signal (a passive film, a dark diode): their
-   * robust RMS is the noise floor the breakdown watch ignores. Skipped when they are large compared
-   * with the currents seen (a photocurrent or a built-in field makes them real).
+   * robust RMS is the noise floor the breakdown watch ignores, and the floor a later sweep's fit
+   * uses when it reads none of its own. Skipped when they are large compared with the currents seen
+   * (a photocurrent or a built-in field makes them real). For the fit, the floor must also show
+   * itself as noise: a reading against the bias, or zero-bias readings of both signs (a device whose
+   * zero-bias current is steady and of one sign carries a current there, not noise).
    */
   private noteNull(v: number, i: number, flags: number): void {
     if (flags !== 0 || !Number.isFinite(v) || !Number.isFinite(i)) return;
@@ -308,10 +316,16 @@ export class LiveChain {
     if (!(Math.abs(b) <= 1e-4 * Math.max(1, Math.abs(v)) || i * b < 0)) return;
     this.nulls.push(i * i);
     if (this.nulls.length > 256) this.nulls.shift();
+    if (i * b < 0) this.noiseSigns.against = true;
+    else if (i > 0) this.noiseSigns.plus = true;
+    else if (i < 0) this.noiseSigns.minus = true;
     if (this.nulls.length < 3) return;
     const sq = Float64Array.from(this.nulls).sort();
     const m = sq.length >> 1;
     const sigma = Math.sqrt((sq.length % 2 ? sq[m] : 0.5 * (sq[m - 1] + sq[m])) / 0.454936423119572);
+    // Also the floor for a later sweep's fit that reads no null readings of its own.
+    const n = this.noiseSigns;
+    if (n.against || (n.plus && n.minus)) this.nullFloor = { sigma, readings: sq.length };
     if (sigma <= 0.01 * this.maxCurrent) this.breakdown?.setNoiseFloor(sigma);
   }
 
@@ -337,7 +351,15 @@ export class LiveChain {
 
   /** The run's analysis settings as a fit request. */
   private request(regimes: boolean): FitRequest {
-    return { model: this.analysis.model, inputs: this.analysis.inputs, window: this.analysis.window, complianceLimit: this.options.complianceLimit, regimes };
+    return {
+      model: this.analysis.model,
+      inputs: this.analysis.inputs,
+      window: this.analysis.window,
+      complianceLimit: this.options.complianceLimit,
+      regimes,
+      // Trusted only once the currents seen dwarf it (as for the breakdown watch).
+      ...(this.nullFloor && this.nullFloor.sigma <= 0.01 * this.maxCurrent ? { knownFloor: this.nullFloor } : {}),
+    };
   }
 
   private fitNow(v: number[], i: number[], c: number[], regimes = true, quick = false): { fit: FitSummary | null; error?: string; report?: FitReport } {

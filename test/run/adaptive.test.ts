@@ -14,6 +14,7 @@
 import { describe, expect, it } from 'vitest';
 import { findScenario } from '../../daemon/simulator/scenarios.js';
 import { rmSync } from 'node:fs';
+import { scanJournal } from '../../daemon/journal/reader.js';
 import { adaptivePlan, adaptiveRun, CASES, fixedBaseline, run, withinTolerance } from '../bench/adaptive.js';
 
 const SEED = 2;
@@ -99,5 +100,28 @@ describe('adaptive sweeps against the fixed sweep on every insulator scenario', 
       // No climb from the floor: fewer readings than the fixed sweep's.
       expect(later.readings).toBeLessThan((base as NonNullable<typeof base>).points);
     }
+  }, 60_000);
+
+  it('a later sweep that reads no current at zero bias or against it is weighed with the floor its first sweep measured', async () => {
+    // The trap-assisted film's currents (6 pA to 0.9 nA) all sit on the simulated instrument's
+    // lowest range, whose offset (0.02 % of 1 nA = 2e-13 A, its data sheet in instrument.ts) is the floor.
+    const c = CASES.find((k) => k.scenario === 'oxide-tat') as (typeof CASES)[number];
+    const { result, dir } = await run(c.scenario, { ...adaptivePlan(c, 4.4e-4), repeat: 2 }, SEED);
+    const finals = new Map<number, { floorSource: string; floor: number; stdErr: number }>();
+    scanJournal(dir, (e) => {
+      if (e.type === 'fit' && e.final && e.fit?.noise) {
+        finals.set(e.sweep, { ...e.fit.noise, stdErr: e.fit.parameters[c.parameter].stdErr });
+      }
+    });
+    rmSync(dir, { recursive: true, force: true });
+    expect(result.adaptive?.sweeps.length).toBe(2);
+    const first = finals.get(1);
+    const later = finals.get(2);
+    expect(first?.floorSource).toBe('readings');
+    expect(later?.floorSource).toBe('earlier sweeps');
+    expect((later?.floor ?? 0) / 2e-13).toBeGreaterThan(0.5);
+    expect((later?.floor ?? 0) / 2e-13).toBeLessThan(2);
+    // Without it the later sweep's error came out 2.5× the first's (1.03e-3 against 4.1e-4 eV).
+    expect(later?.stdErr ?? Infinity).toBeLessThan(1.5 * (first?.stdErr ?? 0));
   }, 60_000);
 });
