@@ -325,6 +325,68 @@ export function defaultWindow(mech: Mechanism): 'auto' | 'all' {
   return mech.current ? 'auto' : 'all';
 }
 
+/**
+ * The conduction mechanisms of a film that compete for the same curve: each is a straight line on
+ * its own plot (ln J, ln J/E or ln J/E² against 1/E, √E or E), so a curve straight on one is bent on
+ * the others, and the one that holds the curve over the most decades is the common-practice reading.
+ */
+const FILM_MECHANISMS = ['fowler-nordheim', 'poole-frenkel', 'schottky', 'trap-assisted-tunneling', 'hopping'];
+/** Below this share of the branch's decades, an automatic window is compared with the other film mechanisms. */
+const COMPARE_SHARE = 0.6;
+
+function decadesOf(current: ArrayLike<number>): number {
+  let lo = Infinity;
+  let hi = -Infinity;
+  for (let k = 0; k < current.length; k++) {
+    const a = Math.abs(current[k]);
+    if (!(a > 0)) continue;
+    lo = Math.min(lo, a);
+    hi = Math.max(hi, a);
+  }
+  return hi > lo ? Math.log10(hi / lo) : 0;
+}
+
+/**
+ * A film mechanism whose automatic window holds only part of the branch is asked whether another
+ * film mechanism's line holds the same readings and far more: at least two decades more and half
+ * as many again, over a window that covers nine tenths of this one's bias range. Then the curve is
+ * the other mechanism's, and this one found a nearly straight piece of a bent plot (Poole–Frenkel
+ * on a Fowler–Nordheim oxide, trap-assisted tunnelling on one: their plots bend too gently for the
+ * noise to show over two or three decades). Returns the warning, or undefined. The other fits are
+ * quick ones (no window-choice uncertainty), made only when this window is short.
+ */
+function betterMechanism(
+  mech: Mechanism,
+  fit: BranchFit,
+  data: IVData,
+  request: FitRequest,
+  classes: SweepClasses,
+  branch: Branch | undefined,
+  base: Parameters<typeof fitBranch>[5],
+): string | undefined {
+  if (!FILM_MECHANISMS.includes(mech.id)) return undefined;
+  const own = decadesOf(fit.used.current);
+  if (own >= COMPARE_SHARE * decadesOf(fit.all.current)) return undefined;
+  const mine = rawRange(fit.used);
+  for (const id of FILM_MECHANISMS) {
+    if (id === mech.id) continue;
+    let other: BranchFit;
+    const alt = getMechanism(id);
+    try {
+      other = fitBranch(alt, resolveInputs(alt, request.inputs), data, classes, branch, { ...base, quick: true }, { ...classes.reasons });
+    } catch {
+      continue;
+    }
+    const theirs = decadesOf(other.used.current);
+    const r = rawRange(other.used);
+    const shared = Math.min(r.to, mine.to) - Math.max(r.from, mine.from);
+    if (theirs >= own + 2 && theirs >= 1.5 * own && shared >= 0.9 * (mine.to - mine.from)) {
+      return `the ${alt.title.split(',')[0]} line holds these readings and more: ${theirs.toFixed(1)} decades of current against this line's ${own.toFixed(1)}; the curve is read better as ${alt.title.split(',')[0]} (compare mechanisms with plumbline rank)`;
+    }
+  }
+  return undefined;
+}
+
 /** As analyze, with the points and the fit behind the report. */
 export function analyzeDetailed(data: IVData, request: FitRequest): DetailedFit {
   const mech = request.model === 'custom' ? customMechanism(request.custom ?? missingCustom()) : getMechanism(request.model);
@@ -376,7 +438,9 @@ export function analyzeDetailed(data: IVData, request: FitRequest): DetailedFit 
       if (other.index.length) reasons[analysed ? REASONS.otherBranch : REASONS.oppositePolarity] = other.index.length;
     }
     try {
-      fits.push({ fit: fitBranch(mech, inputs, data, classes, b, base, reasons), branch: b });
+      const fit = fitBranch(mech, inputs, data, classes, b, base, reasons);
+      const better = mode === 'auto' ? betterMechanism(mech, fit, data, request, classes, b, base) : undefined;
+      fits.push({ fit: better ? { ...fit, plausible: false, warnings: [...fit.warnings, better] } : fit, branch: b });
     } catch (e) {
       if (!(e instanceof AnalysisError) || (q === 0 && list.length === 1)) throw e;
       failures.push(`${b && b.sign > 0 ? 'positive' : 'negative'} branch: ${e.message}`);
