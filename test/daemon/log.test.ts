@@ -28,11 +28,10 @@ async function runOnce(args: string[]): Promise<string[]> {
 }
 
 describe('daemon log lines', () => {
-  it('every line has its time and level; --verbose shows the fits and the output changes', async () => {
+  it('every line has its time and level; --verbose shows the fits', async () => {
     const lines = await runOnce(['--verbose']);
     for (const l of lines) expect(l).toMatch(LINE);
     expect(lines.some((l) => / DEBUG +sweep 1: fowler-nordheim fit/.test(l))).toBe(true);
-    expect(lines.some((l) => / DEBUG +output off, confirmed by the instrument/.test(l))).toBe(true);
     expect(lines.some((l) => / NOTICE +run ended: completed/.test(l))).toBe(true);
   });
 
@@ -41,6 +40,9 @@ describe('daemon log lines', () => {
     expect(lines.filter((l) => / (DEBUG|INFO) /.test(l))).toEqual([]);
     expect(lines.some((l) => / NOTICE +page +http/.test(l))).toBe(true);
     expect(lines.some((l) => / WARN +CAUTION \[output-on\]/.test(l))).toBe(true);
+    // Whether the output went off, and whether the instrument said so, at every log level.
+    expect(lines.some((l) => / NOTICE +output ON, confirmed by the instrument/.test(l))).toBe(true);
+    expect(lines.some((l) => / NOTICE +output off, confirmed by the instrument/.test(l))).toBe(true);
   });
 });
 
@@ -69,6 +71,7 @@ describe('the message when the daemon is stopped by a signal', () => {
     const { code, out } = await stopped();
     expect(code).toBe(143);
     expect(out).toMatch(/terminated \(SIGTERM\); turning the output off/);
+    expect(out).toMatch(/NOTICE +output off, confirmed by the instrument/);
     expect(out).toMatch(/run ended: interrupted/);
   });
 });

@@ -272,6 +272,9 @@ describe('live page in headless Chromium', () => {
     expect((await api(daemon.url, 'GET', '/api/status')).json.running).toBe(false);
     await page.waitForTimeout(150);
     expect(await page.locator('.caution[data-kind="output on"]').count()).toBe(0);
+    // Said in so many words: the output is off, and the instrument confirmed it.
+    await page.waitForSelector('.caution[data-kind="output off"]', { timeout: 5_000 });
+    expect(await page.textContent('.caution[data-kind="output off"]')).toMatch(/output is off, confirmed by the instrument: .*OUTP\?/);
     expect(await page.isDisabled('#abort')).toBe(true);
     // The interrupted sweep is not called live any more.
     expect(await page.textContent('#params')).not.toMatch(/\(live\)/);

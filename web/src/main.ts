@@ -169,7 +169,7 @@ function render(): void {
         : "— the station's setting for the next run";
   // Each panel is redrawn only when what it shows has changed (a frame carries new readings most
   // of the time, and nothing else).
-  if (changed('cautions', s, s.cautions.length, s.outputOn, s.readOnly, s.sessionEvent, s.running)) renderCautions($('cautions'), s);
+  if (changed('cautions', s, s.cautions.length, s.outputOn, s.lastOutput, s.readOnly, s.sessionEvent, s.running)) renderCautions($('cautions'), s);
   if (changed('test', s, s.testResult, s.sessionEvent, s.running)) $('test-panel').hidden = !renderTestPanel($('test-title'), $('test-result'), s);
   if (changed('adaptive', s, s.adaptive.length)) $('adaptive-panel').hidden = !renderAdaptive($('adaptive'), s.adaptive);
   raw.update(s.sweeps, ($('raw-log') as HTMLInputElement).checked, s.envelope, (s.sessionEvent?.plan as { kind?: string } | undefined)?.kind === 'adaptive');

@@ -34,6 +34,11 @@ export function renderCautions(box: HTMLElement, s: Store): void {
     const hv = s.cautions.find((c) => c.kind === 'hazard-voltage');
     if (hv) add('danger', 'high voltage', hv.message);
     else add('warning', 'output on', "The output is on: the device terminals are live. Hands off the probes and the fixture; follow your lab's safety rules.");
+  } else if (s.lastOutput && !s.lastOutput.on && !s.readOnly) {
+    // Said in so many words once a run has turned it off, with what the instrument answered.
+    const o = s.lastOutput;
+    // (An unconfirmed one has its own danger caution from the daemon, above.)
+    if (o.queried && o.confirmed) add('info', 'output off', `The output is off, confirmed by the instrument: ${o.reason}.`);
   }
   const latest = new Map<string, Extract<WireEvent, { type: 'caution' }>>();
   for (const c of s.cautions) latest.set(c.kind, c);

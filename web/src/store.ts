@@ -68,6 +68,8 @@ export class Store {
   ranking: Ev<'ranking'> | null = null;
   progress: Ev<'progress'> | null = null;
   outputOn = false;
+  /** The last output event: after a run, the page says the output is off and whether the instrument confirmed it. */
+  lastOutput: Extract<WireEvent, { type: 'output' }> | null = null;
   cautions: Ev<'caution'>[] = [];
   runEnd: Ev<'run-end'> | null = null;
   /** A breakdown test's result (its last, should a session hold more than one). */
@@ -108,6 +110,7 @@ export class Store {
     this.ranking = null;
     this.progress = null;
     this.outputOn = false;
+    this.lastOutput = null;
     this.cautions = [];
     this.runEnd = null;
     this.testResult = null;
@@ -242,6 +245,7 @@ export class Store {
         return;
       case 'output':
         this.outputOn = e.on;
+        this.lastOutput = e;
         break;
       case 'caution':
         this.cautions.push(e);

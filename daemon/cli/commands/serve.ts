@@ -64,6 +64,12 @@ export function registerServe(program: Command): void {
             if (e.type === 'session') log.notice(`session ${e.id} started`);
             else if (e.type === 'run-end') log.notice(`run ended: ${e.outcome} — ${e.reason}`);
             else if (e.type === 'caution') log.warn(`CAUTION [${e.kind}] ${e.message}`);
+            else if (e.type === 'output') {
+              // Whether the output went off, and whether the instrument said so, at every log level.
+              const line = describe(e) ?? '';
+              if (e.on || (e.queried && e.confirmed)) log.notice(line);
+              else log.warn(line);
+            }
             else if (log.threshold === 'debug') {
               const line = describe(e);
               if (line) log.debug(line.trim());
