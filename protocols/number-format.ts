@@ -56,6 +56,9 @@ export function formatMeasurement(value: number, stdErr: number | null | undefin
   const big = Math.max(Math.abs(value), err);
   // An uncertainty far below the value's own precision (noise-free data): both written plainly.
   if (value !== 0 && exponentOf(value) - q + 1 > 10) return `${formatNumber(value, 10)} ± ${formatNumber(err, 2)}`;
+  // An uncertainty thousands of times the value (a parameter the data do not determine): rounded to
+  // the uncertainty's place the value would read 0.0; each is written in its own form instead.
+  if (value !== 0 && err > 1000 * Math.abs(value)) return `${formatNumber(value, 4)} ± ${formatNumber(err, 2)}`;
   if (big >= FIXED_LO && big < FIXED_HI && -q <= 8) {
     const dec = Math.max(0, -q);
     const v = Math.round(value / 10 ** q) * 10 ** q;

@@ -45,6 +45,10 @@ describe('formatMeasurement (GUM rounding)', () => {
     expect(formatMeasurement(2.5e-12, 3.3e-11)).toBe('(0.3 ± 3.3)e-11');
     expect(formatMeasurement(4.2e6, 1.1e5)).toBe('(4.20 ± 0.11)e6');
   });
+  it('an uncertainty thousands of times the value (not determined) does not round the value to zero', () => {
+    expect(formatMeasurement(3.986, 2.367e56)).toBe('3.986 ± 2.4e56');
+    expect(formatMeasurement(-1.5e-9, 4e-5)).toBe('-1.5e-9 ± 4e-5');
+  });
   it('prints the value alone without a usable uncertainty', () => {
     expect(formatMeasurement(1.234567, 0)).toBe('1.2346');
     expect(formatMeasurement(1.234567, Number.NaN)).toBe('1.2346');
