@@ -178,6 +178,11 @@ export class LiveChain {
     return full;
   }
 
+  /** The number of the sweep under way (or the last one), 0 before the first. */
+  get sweepNumber(): number {
+    return this.sweep;
+  }
+
   startSweep(n: number, planned: number, label: string): void {
     this.sweep = n;
     this.k = 0;

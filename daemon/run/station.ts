@@ -516,7 +516,13 @@ export class Station {
       source,
       ...(device ? { device } : {}),
     };
-    if (this.chain && this.current?.session === target) return this.chain.emit(ev);
+    if (this.chain && this.current?.session === target) {
+      const now = this.chain.sweepNumber;
+      if (a.sweep !== undefined && a.sweep > now) {
+        throw new StationError(`sweep ${a.sweep}: the running session is at sweep ${now}; a note is for a sweep already started`, 400);
+      }
+      return this.chain.emit(ev);
+    }
     if (!listSessions(this.dataDir).includes(target)) throw new StationError(`no session '${target}' under ${this.dataDir}`, 404);
     return annotateFolder(join(this.dataDir, target), ev);
   }
@@ -539,7 +545,13 @@ export function annotateFolder(
   dir: string,
   ev: { type: 'annotation'; text: string; tags: string[]; sweep?: number; source: string; device?: DeviceIdentity },
 ): WireEvent {
-  const scan = scanJournal(dir, () => undefined);
+  const sweeps = new Set<number>();
+  const scan = scanJournal(dir, (e) => void (e.type === 'sweep-start' && sweeps.add(e.sweep)));
+  if (ev.sweep !== undefined && !sweeps.has(ev.sweep)) {
+    const list = [...sweeps].sort((x, y) => x - y);
+    const has = list.length === 0 ? 'has no sweeps' : list.length === list[list.length - 1] ? `has sweeps 1–${list.length}` : `has sweeps ${list.join(', ')}`;
+    throw new StationError(`sweep ${ev.sweep}: the session in ${dir} ${has}; nothing was added`, 400);
+  }
   const w = JournalWriter.append(dir, scan.lastSeq, scan.lastT);
   try {
     return w.event(ev);

@@ -155,6 +155,12 @@ describe('report', () => {
     const dir = simulatedSession('oxide-fn-trapping', 8); // the drift watch stops it at sweep 5
     const a = runCli(['annotate', dir, '--sweep', '2', '--text', 'probe re-landed', '--tag', 'setup']);
     expect(a.code, a.stderr).toBe(0);
+    // A sweep the session does not hold is refused, naming the sweeps it has; nothing is written.
+    const before = readFileSync(join(dir, 'journal.jsonl'), 'utf8');
+    const bad = runCli(['annotate', dir, '--sweep', '9', '--text', 'x']);
+    expect(bad.code).toBe(2);
+    expect(bad.stderr).toMatch(/--sweep: sweep 9: the session in .* has sweeps 1–\d+; nothing was added/);
+    expect(readFileSync(join(dir, 'journal.jsonl'), 'utf8')).toBe(before);
     const out = join(tempDir(), 'report.html');
     const r = runCli(['report', dir, '--out', out]);
     expect(r.code, r.stderr).toBe(0);

@@ -34,14 +34,21 @@ export function registerAnnotate(program: Command): void {
       throw new UsageError('give --text (the note), device options (--wafer, --site, --x, --y, --area …), or both');
     if (o.text !== undefined && o.text.trim() === '') throw new UsageError('--text is empty');
     const text = o.text ?? `device identity corrected: ${deviceLine(device as Record<string, unknown> | undefined)}`;
-    const e = annotateFolder(resolve(dir), {
-      type: 'annotation',
-      text,
-      tags: o.tag ?? [],
-      ...(sweep !== undefined ? { sweep } : {}),
-      source: 'cli',
-      ...(device ? { device } : {}),
-    });
+    let e: ReturnType<typeof annotateFolder>;
+    try {
+      e = annotateFolder(resolve(dir), {
+        type: 'annotation',
+        text,
+        tags: o.tag ?? [],
+        ...(sweep !== undefined ? { sweep } : {}),
+        source: 'cli',
+        ...(device ? { device } : {}),
+      });
+    } catch (err) {
+      // A sweep the session does not hold: the user's mistake, said as such.
+      if ((err as { status?: number }).status === 400) throw new UsageError(`--sweep: ${(err as Error).message}`);
+      throw err;
+    }
     process.stdout.write(`annotation ${e.seq} added to ${dir}\n`);
   });
 }
