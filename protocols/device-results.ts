@@ -32,6 +32,9 @@
  *   breakdown_voltage   V     the bias at breakdown (or reached)
  *   breakdown_field     V/m   breakdown_voltage over the thickness (flat-band corrected if known)
  *   charge_to_breakdown C/m^2 ∫J dt up to breakdown
+ *   charge_to_breakdown_uncertainty C/m^2  its standard uncertainty: the breakdown moment lies
+ *                             between the last intact reading and the one that showed it, so half
+ *                             that interval's charge (and half of any stress pause's edges)
  *   time_to_breakdown   s     from the start of stress to breakdown
  *   area                m^2   device area
  *   thickness           m     film thickness
@@ -92,6 +95,7 @@ export interface DeviceResult {
   readonly breakdownVoltage?: number;
   readonly breakdownField?: number;
   readonly chargeToBreakdown?: number;
+  readonly chargeToBreakdownUncertainty?: number;
   readonly timeToBreakdown?: number;
   readonly area?: number;
   readonly thickness?: number;
@@ -121,6 +125,7 @@ export const RESULT_COLUMNS: readonly Column[] = [
   { name: 'breakdown_voltage', key: 'breakdownVoltage', unit: 'V', kind: 'number' },
   { name: 'breakdown_field', key: 'breakdownField', unit: 'V/m', kind: 'number' },
   { name: 'charge_to_breakdown', key: 'chargeToBreakdown', unit: 'C/m^2', kind: 'number' },
+  { name: 'charge_to_breakdown_uncertainty', key: 'chargeToBreakdownUncertainty', unit: 'C/m^2', kind: 'number' },
   { name: 'time_to_breakdown', key: 'timeToBreakdown', unit: 's', kind: 'number' },
   { name: 'area', key: 'area', unit: 'm^2', kind: 'number' },
   { name: 'thickness', key: 'thickness', unit: 'm', kind: 'number' },

@@ -611,6 +611,7 @@ export class StressTest {
       breakdownVoltage: at.voltage,
       breakdownField: at.field,
       chargeToBreakdown: at.charge,
+      chargeToBreakdownUncertainty: at.numbers?.chargeUncertainty,
       timeToBreakdown: at.time,
       area,
       thickness,

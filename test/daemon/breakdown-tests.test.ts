@@ -114,6 +114,10 @@ describe('voltage ramp to breakdown', () => {
     const row = results(res.dir).rows[0];
     expect(row).toMatchObject({ device: 'PL11-A1', wafer: 'PL-11', test: 'voltage-ramp', outcome: 'breakdown' });
     chargeWithin(res.dir, row.chargeToBreakdown, truth!.charge);
+    // The results file carries Q_bd's stated uncertainty too, as the journal's test result states it.
+    const result = events(res.dir).find((e) => e.type === 'test-result');
+    expect(row.chargeToBreakdownUncertainty).toBeGreaterThan(0);
+    expect(row.chargeToBreakdownUncertainty).toBe(result?.type === 'test-result' ? result.numbers?.chargeUncertainty : Number.NaN);
     within(row.breakdownField, truth!.field, 0.05);
     within(row.breakdownVoltage, truth!.voltage, 0.01);
     // Leakage at the use condition: a few hundred fA before, the broken film's 5 mA after (1 V / 200 Ω).
