@@ -188,7 +188,7 @@ function formatReport(r: WeibullReport, s: BreakdownSample): string {
   if (r.bend)
     lines.push(`  bend test: best two-branch split after ${r.bend.lower} failures, p = ${r.bend.pValue.toPrecision(2)} (${r.bend.bootstrap} simulated lots)`);
   for (const n of s.notes) lines.push(`  note: ${n}`);
-  for (const w of r.warnings) lines.push(`  WARNING: ${w}`);
+  for (const w of [...(s.warnings ?? []), ...r.warnings]) lines.push(`  WARNING: ${w}`);
   lines.push('  Weibull plot (median ranks, Bernard): x, F, ln(−ln(1−F))');
   for (const p of r.points)
     lines.push(`    ${formatQuantity(p.x, r.scale.unit, undefined, 6).padStart(16)}  ${p.F.toFixed(4)}  ${Math.log(-Math.log1p(-p.F)).toFixed(4)}`);
@@ -236,7 +236,7 @@ export function registerWeibull(program: Command): void {
       { values: s.values, censored: s.censored, areaFactor: s.areaFactor },
       { confidence, bounds, unit: s.unit, area: s.area, toArea, display: (v) => formatQuantity(v, s.unit, undefined, 4) },
     );
-    const report = { ...r, quantity: s.title, notes: s.notes };
+    const report = { ...r, quantity: s.title, notes: s.notes, warnings: [...(s.warnings ?? []), ...r.warnings] };
     if (o.json) process.stdout.write(`${JSON.stringify(report)}\n`);
     else process.stdout.write(`${formatReport(r, s)}\n`);
   });

@@ -151,14 +151,11 @@ export async function analyzeLot(source: LotSource, o: LotOptions = {}): Promise
     try {
       const s: BreakdownSample = breakdownSample(results, q, o.area, o.test);
       sample = s;
-      weibull = {
-        ...analyzeWeibull(
-          { values: s.values, censored: s.censored, areaFactor: s.areaFactor },
-          { confidence: o.confidence ?? 0.9, unit: s.unit, area: s.area, display: (v) => formatQuantity(v, s.unit, undefined, 4) },
-        ),
-        quantity: s.title,
-        notes: s.notes,
-      };
+      const fit = analyzeWeibull(
+        { values: s.values, censored: s.censored, areaFactor: s.areaFactor },
+        { confidence: o.confidence ?? 0.9, unit: s.unit, area: s.area, display: (v) => formatQuantity(v, s.unit, undefined, 4) },
+      );
+      weibull = { ...fit, warnings: [...(s.warnings ?? []), ...fit.warnings], quantity: s.title, notes: s.notes };
     } catch (e) {
       weibullError = (e as Error).message;
     }

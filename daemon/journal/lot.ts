@@ -307,6 +307,8 @@ export interface BreakdownSample {
   readonly unit: string;
   readonly title: string;
   readonly notes: string[];
+  /** What makes the sample doubtful (a device identity counted more than once). */
+  readonly warnings?: string[];
 }
 
 /**
@@ -328,9 +330,19 @@ export function breakdownSample(
   const areas: (number | undefined)[] = [];
   const labels: string[] = [];
   const notes: string[] = [];
+  const warnings: string[] = [];
   let initial = 0;
   let invalid = 0;
   let missing = 0;
+  // A device is destroyed once: the same identity in several rows is one device counted again (a
+  // simulated device re-run with the same seed, a copied results file) or a naming slip.
+  const seen = new Map<string, number>();
+  for (const r of rows) {
+    if (r.outcome === 'initial-failure' || r.outcome === 'invalid') continue;
+    const id = [r.wafer ?? '', r.site ?? '', r.device].join('\u0000');
+    seen.set(id, (seen.get(id) ?? 0) + 1);
+  }
+  const repeated = [...seen.entries()].filter(([, n]) => n > 1);
   for (const r of rows) {
     if (r.outcome === 'initial-failure') {
       initial++;
@@ -350,6 +362,15 @@ export function breakdownSample(
     areas.push(r.area);
     labels.push(r.session ? `${r.session}/${r.device}` : r.device);
   }
+  if (repeated.length) {
+    const shown = repeated.slice(0, 3).map(([id, n]) => {
+      const [wafer, site, device] = id.split('\u0000');
+      return `${device}${wafer ? ` (wafer ${wafer}${site ? `, site ${site}` : ''})` : ''} ×${n}`;
+    });
+    warnings.push(
+      `${repeated.length} device identit${repeated.length === 1 ? 'y appears' : 'ies appear'} in more than one result (${shown.join(', ')}${repeated.length > 3 ? ', …' : ''}): a device breaks down once, so these are counted more than once or misnamed; correct the identity (plumbline annotate --device …) or leave the copies out`,
+    );
+  }
   const kinds = new Set(rows.map((r) => r.test));
   if (kinds.size > 1) notes.push(`${kinds.size} kinds of test pooled (${[...kinds].join(', ')}), as asked`);
   if (initial) notes.push(`${initial} initial failure(s) (failed at the use condition before the test) left out of the fit; count them as yield loss`);
@@ -357,7 +378,7 @@ export function breakdownSample(
   if (missing) notes.push(`${missing} device(s) without a ${quantity.title} (${quantity.column}) left out`);
   const a = referenceAreas(areas, referenceArea);
   notes.push(...a.notes);
-  return { values, censored, areaFactor: a.areaFactor, area: a.area, labels, unit: quantity.unit, title: quantity.title, notes };
+  return { values, censored, areaFactor: a.areaFactor, area: a.area, labels, unit: quantity.unit, title: quantity.title, notes, warnings };
 }
 
 /** What was asked of a lot cannot be done (several kinds of test pooled unasked, an unknown kind or map parameter); the message names the option. */

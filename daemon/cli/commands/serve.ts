@@ -69,8 +69,7 @@ export function registerServe(program: Command): void {
               const line = describe(e) ?? '';
               if (e.on || (e.queried && e.confirmed)) log.notice(line);
               else log.warn(line);
-            }
-            else if (log.threshold === 'debug') {
+            } else if (log.threshold === 'debug') {
               const line = describe(e);
               if (line) log.debug(line.trim());
             }
