@@ -6,7 +6,7 @@
 // they are absent.
 // Uses only Node built-ins, because it runs before any dependency exists.
 import { spawnSync } from 'node:child_process';
-import { existsSync, readdirSync, statSync } from 'node:fs';
+import { existsSync, readdirSync, statSync, writeFileSync } from 'node:fs';
 import { dirname, join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 
@@ -95,8 +95,27 @@ if (wantSystem) {
   }
 }
 
-// 3. compile (incremental, so a second run costs little)
-console.error('plumbline setup: compiling the daemon and the page (a few seconds the first time) ...');
-run(process.execPath, [join(root, 'node_modules', 'typescript', 'bin', 'tsc'), '-p', 'tsconfig.json']);
-// 4. the page (web/ → dist/web)
-run(process.execPath, [join(root, 'web', 'build.mjs')]);
+// 3. compile, and 4. build the page (web/ → dist/web) — skipped when nothing changed since the last
+// build: a stamp written after it is newer than every source file and build setting.
+function newest(p) {
+  let st;
+  try {
+    st = statSync(p);
+  } catch {
+    return -1;
+  }
+  if (!st.isDirectory()) return st.mtimeMs;
+  let m = st.mtimeMs;
+  for (const e of readdirSync(p)) if (e !== 'node_modules' && e !== 'dist') m = Math.max(m, newest(join(p, e)));
+  return m;
+}
+const buildStamp = join(root, 'dist', '.build-stamp');
+const sources = ['daemon', 'protocols', 'test', 'web', 'tsconfig.json', 'package.json', 'package-lock.json'].map((p) => newest(join(root, p)));
+if (mtime(buildStamp) > Math.max(...sources)) {
+  console.error('plumbline setup: the build is up to date');
+} else {
+  console.error('plumbline setup: compiling the daemon and the page (a few seconds the first time) ...');
+  run(process.execPath, [join(root, 'node_modules', 'typescript', 'bin', 'tsc'), '-p', 'tsconfig.json']);
+  run(process.execPath, [join(root, 'web', 'build.mjs')]);
+  writeFileSync(buildStamp, `${new Date().toISOString()}\n`);
+}
