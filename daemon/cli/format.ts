@@ -3,7 +3,7 @@ import type { FitReport } from '../analysis/analyze.js';
 import { describeReasons } from '../analysis/analyze.js';
 import type { Ranking } from '../analysis/ranking.js';
 import type { DiodeReport, SolarReport } from '../analysis/diode-fit.js';
-import { axisLabel, displayUnit, formatInputs, formatParameterText } from '../../protocols/display-units.js';
+import { axisLabel, displayUnit, formatInputs, formatParameterText, prettyUnit } from '../../protocols/display-units.js';
 import { formatNumber } from '../../protocols/number-format.js';
 
 /** Numbers in text output: the formatter the page and the report use too. */
@@ -26,6 +26,25 @@ function withParts(p: { value: number; stdErr: number; unit: string; statStdErr?
   return `${text} (statistical ± ${num(p.statStdErr * scale, 2)}, window ± ${num(p.windowStdErr * scale, 2)})`;
 }
 
+/** "1/V", "V/m" (the inverse of m/V), "1/(A/m^2)": one over an SI unit, printed. */
+function inverse(u: string): string {
+  if (u === '' || u === '1') return '';
+  const m = /^([^/()*^]+)\/([^/()*^]+)$/.exec(u);
+  return prettyUnit(m ? `${m[2]}/${m[1]}` : /^[A-Za-z]+(\^\d+)?$/.test(u) ? `1/${u}` : `1/(${u})`);
+}
+
+/** SI units of the fitted line's slope, intercept and y (each with a leading space, or empty). */
+function lineUnits(x: string, y: string, logY: boolean): { slope: string; intercept: string; y: string } {
+  const sp = (t: string) => (t ? ` ${t}` : '');
+  const xi = inverse(x);
+  const yu = y === '1' ? '' : prettyUnit(y);
+  if (logY) return { slope: sp(xi), intercept: yu ? ` (ln of ${yu})` : '', y: '' };
+  const xs = x === '1' ? '' : x;
+  const simple = (u: string) => /^[A-Za-z]+(\^\d+)?$/.test(u);
+  const per = !xs ? yu : prettyUnit(`${y === '1' ? '1' : simple(y) ? y : `(${y})`}/${simple(xs) ? xs : `(${xs})`}`);
+  return { slope: sp(per), intercept: sp(yu), y: sp(yu) };
+}
+
 export function formatFit(r: FitReport): string {
   const out: string[] = [];
   out.push(`${r.title}  [model ${r.model}]`);
@@ -42,8 +61,15 @@ export function formatFit(r: FitReport): string {
   const xu = r.model === 'arrhenius' ? ' K' : r.model === 'custom' ? '' : ' V';
   out.push(`window:     ${num(r.window.from)} to ${num(r.window.to)}${xu} in the x column (${r.window.mode})`);
   const L = r.line;
-  out.push(`line:       slope ${num(L.slope, 7)} ± ${num(L.slopeStdErr, 3)}, intercept ${num(L.intercept, 7)} ± ${num(L.interceptStdErr, 3)}`);
-  out.push(`            R² ${L.r2.toFixed(6)}, residual SD ${num(L.residualStdDev, 4)}${L.chi2Reduced !== null ? `, χ²/dof ${num(L.chi2Reduced, 4)}` : ''}`);
+  const u = lineUnits(r.axes.x.unit, r.axes.y.unit, r.axes.y.kind === 'log');
+  out.push(
+    `line:       slope ${num(L.slope, 7)} ± ${num(L.slopeStdErr, 3)}${u.slope}, intercept ${num(L.intercept, 7)} ± ${num(L.interceptStdErr, 3)}${u.intercept}`,
+  );
+  // Weighted residuals are in units of each reading's own σ; unweighted ones in y's unit.
+  const sd = L.chi2Reduced !== null ? ' σ (weighted residuals)' : u.y;
+  out.push(
+    `            R² ${L.r2.toFixed(6)}, residual SD ${num(L.residualStdDev, 4)}${sd}${L.chi2Reduced !== null ? `, χ²/dof ${num(L.chi2Reduced, 4)}` : ''}`,
+  );
   const params = Object.entries(r.parameters);
   if (params.length) {
     out.push('parameters:');

@@ -63,6 +63,12 @@ describe('plumbline fit with physics and units', () => {
     expect(r.stdout).toMatch(/barrierHeight\s+3\.2\d* ± .* eV/);
     // Every number with its unit: the window in the x column's volts.
     expect(r.stdout).toMatch(/window: +7 to 11 V in the x column/);
+    // The line's slope and intercept in their SI units: d ln(I/E²)/d(1/E) in V/m (no area given),
+    // the intercept a logarithm of A/(V/m)²; weighted residuals in units of each reading's σ.
+    expect(r.stdout).toMatch(/line: +slope -[\d.e]+ ± [\d.e-]+ V\/m, intercept -?[\d.]+ ± [\d.e-]+ \(ln of A\/\(V\/m\)²\)/);
+    expect(r.stdout).toMatch(/residual SD [\d.e-]+ σ \(weighted residuals\)/);
+    const lin = runCli(['fit', file, '--model', 'ohmic']);
+    expect(lin.stdout).toMatch(/line: +slope -?[\d.e-]+ ± [\d.e-]+ A\/V, intercept -?[\d.e-]+ ± [\d.e-]+ A/);
   });
   it('a missing input names the setting', () => {
     const file = tempFile('fn.csv', csv);
