@@ -253,10 +253,26 @@ function latin1(bytes: Uint8Array, start: number, end: number): string {
   return s;
 }
 
+/** Units an instrument export writes in a row of their own under the header. */
+const UNIT_CELL = /^\(?\[?(?:[fpnuµmkM]?(?:A|V|s|Ω|ohm|Ohm|W|S|F|Hz)|K|°C|C|%|A\/cm\^?2|A\/m\^?2)\]?\)?$/;
+
+/**
+ * Why a cell is not a number, in the words that help: a decimal comma, or a units row under the
+ * header (the first data row, every cell of it a unit), else plainly.
+ */
+export function notNumberText(table: CsvTable, text: string, line: number): string {
+  if (/^[+-]?\d*,\d+(?:[eE][+-]?\d+)?$/.test(text.trim()))
+    return `'${text}' is written with a decimal comma: numbers are read with a decimal point ('${text.trim().replace(',', '.')}'); save the file with points (columns may stay separated by ';')`;
+  const unitsRow = table.firstText.every((f) => f !== undefined && f.line === line && UNIT_CELL.test(f.text.trim()));
+  if (line === table.lines[0] && unitsRow)
+    return `'${text}' looks like a units row under the header: put each unit in its column's name instead (e.g. 'I (A)', 'V (V)') and delete line ${line}`;
+  return `'${text}' is not a number`;
+}
+
 /** Throws, naming the file, line and column, if column k holds a cell that is not a number. */
 export function requireNumeric(table: CsvTable, k: number): void {
   const t = table.firstText[k];
-  if (t) throw new CsvError(table.file, t.line, table.headers[k], `'${t.text}' is not a number`);
+  if (t) throw new CsvError(table.file, t.line, table.headers[k], notNumberText(table, t.text, t.line));
 }
 
 /** Finds a column by header name (case-insensitive) or 1-based position. */

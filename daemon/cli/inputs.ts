@@ -11,7 +11,7 @@ import { INPUT_RANGE, type IVData, type WindowRequest } from '../analysis/analyz
 import type { Inputs } from '../analysis/mechanism.js';
 import { columnIdentifiers, setExpressionEngine } from '../analysis/mechanisms/custom.js';
 import { readCsvTable } from '../../protocols/csv-file.js';
-import { columnIndex, CsvError, requireNumeric, type CsvTable } from '../../protocols/csv-table.js';
+import { columnIndex, CsvError, notNumberText, requireNumeric, type CsvTable } from '../../protocols/csv-table.js';
 import { parseQuantity, QuantityError } from '../quantity.js';
 import { UsageError } from './usage.js';
 
@@ -183,13 +183,17 @@ export function loadData(file: string, o: AnalysisOptions): { table: CsvTable; d
     const t = table.firstText[k];
     // A column chosen by default whose first value is text is the wrong column: say which there are.
     // A bad cell further down is just a bad cell (requireNumeric below names it).
-    if (t && option && t.line === table.lines[0])
+    if (t && option && t.line === table.lines[0]) {
+      // A decimal comma or a units row is not the wrong column: say what it is.
+      const why = notNumberText(table, t.text, t.line);
+      if (why !== `'${t.text}' is not a number`) throw new CsvError(file, t.line, table.headers[k], why);
       throw new CsvError(
         file,
         t.line,
         table.headers[k],
         `'${t.text}' is not a number: name the columns to use with --x and --y (columns: ${table.headers.join(', ')})`,
       );
+    }
   }
   for (const k of [xi, yi, ...(ci >= 0 ? [ci] : []), ...(si >= 0 && si !== xi && si !== yi ? [si] : [])]) requireNumeric(table, k);
   const columns: Record<string, Float64Array> = {};

@@ -98,6 +98,18 @@ describe('malformed CSV: non-zero exit, the message names file, line and column'
     expect(r.stdout).toBe('');
     expect(r.stderr).toContain(`${file}, line 3, column 'I': 'abc' is not a number`);
   });
+  it('a decimal comma and a units row under the header are named as such, not as the wrong column', () => {
+    const semi = tempFile('semi.csv', 'V;I\n0,1000;1,2e-9\n0,2000;3,4e-9\n');
+    const a = runCli(['fit', semi, '--model', 'diode']);
+    expect(a.code).toBe(2);
+    expect(a.stderr).toContain(`${semi}, line 2, column 'V': '0,1000' is written with a decimal comma: numbers are read with a decimal point ('0.1000')`);
+    const units = tempFile('units.csv', 'V,I\nV,A\n0.1,1e-9\n0.2,3e-9\n');
+    const b = runCli(['fit', units, '--model', 'diode']);
+    expect(b.code).toBe(2);
+    expect(b.stderr).toContain(
+      `${units}, line 2, column 'V': 'V' looks like a units row under the header: put each unit in its column's name instead (e.g. 'I (A)', 'V (V)') and delete line 2`,
+    );
+  });
   it('a row with too few fields', () => {
     const file = tempFile('short.csv', '# comment line\nV,I\n0.1,1e-9\n0.2\n');
     const r = runCli(['fit', file, '--model', 'linear']);
