@@ -70,6 +70,8 @@ export class Station {
   private views = new Map<number, { sweep: number; final: boolean; view: PlotView }>();
   readonly scenario: Scenario | undefined;
   private sim: SimulatedSmu | undefined;
+  /** The seed of the simulated device now on the chuck (see connect). */
+  private simSeed: number | undefined;
   private controller: RunController | undefined;
   private chain: LiveChain | undefined;
   private current: { session: string; dir: string } | undefined;
@@ -242,20 +244,30 @@ export class Station {
     return this.current?.session;
   }
 
-  private async connect(dialect: Dialect): Promise<{ driver: SmuDriver; session: ScpiSession; detail: string }> {
+  private async connect(dialect: Dialect, device?: DeviceIdentity): Promise<{ driver: SmuDriver; session: ScpiSession; detail: string }> {
     const ic = this.config.instrument;
     const timeoutMs = this.config.timeoutMs ?? dialect.timeoutMs;
     let stream: Duplex;
     let detail: string;
     if (ic.kind === 'simulator') {
       const scenario = this.scenario as Scenario;
-      this.sim ??= new SimulatedSmu({
-        device: scenario.device,
-        seed: ic.seed,
-        realTime: ic.realTime,
-        faults: ic.faults,
-        recordLimit: this.options.simulatorRecords ?? 1_000,
-      });
+      // A named device under test is a device of its own on the simulated chuck: its seed mixes the
+      // station's with the identity (wafer, site, device), so a lot of named devices spreads as a
+      // real one does (its own Weibull-drawn charge to breakdown) and a name comes back the same.
+      // Runs without a name keep the one device the station's seed makes.
+      const who =
+        device && (device.device !== undefined || device.site !== undefined) ? [device.wafer ?? '', device.site ?? '', device.device ?? ''].join('/') : '';
+      const seed = who ? mixSeed(ic.seed, who) : ic.seed;
+      if (!this.sim || this.simSeed !== seed) {
+        this.sim = new SimulatedSmu({
+          device: scenario.device,
+          seed,
+          realTime: ic.realTime,
+          faults: ic.faults,
+          recordLimit: this.options.simulatorRecords ?? 1_000,
+        });
+        this.simSeed = seed;
+      }
       const [client, inst] = duplexPair();
       attachInstrument(this.sim, inst);
       stream = client;
@@ -353,7 +365,7 @@ export class Station {
     try {
       this.analysis = analysis;
       try {
-        link = await this.connect(dialect);
+        link = await this.connect(dialect, device);
       } catch (e) {
         throw new StationError(
           `cannot reach the instrument (${this.describeInstrument()}): ${(e as Error).message}; check the cable or address, and that nothing else holds the port`,
@@ -538,6 +550,13 @@ export class Station {
       views: [...this.views.values()],
     };
   }
+}
+
+/** A seed from the station's seed and a device's name: FNV-1a over the name's UTF-16 units, folded into it. */
+function mixSeed(seed: number, name: string): number {
+  let h = 0x811c9dc5 ^ (seed >>> 0);
+  for (let k = 0; k < name.length; k++) h = Math.imul(h ^ name.charCodeAt(k), 0x01000193) >>> 0;
+  return h >>> 0 || 1;
 }
 
 /** Appends an annotation to a session folder (after its run, or from another process). */

@@ -123,4 +123,30 @@ describe('a breakdown test of negative polarity', () => {
     expect(b).toBeDefined();
     expect(Math.abs((b?.value as number) - 3.1)).toBeLessThanOrEqual(3 * (b?.stdErr as number));
   });
+
+  it('each named device is a device of its own on the simulated chuck (its own Weibull-drawn endurance); a name comes back the same', async () => {
+    const st = new Station(
+      parseConfig(
+        {
+          instrument: { kind: 'simulator', scenario: 'oxide-wearout', realTime: false, seed: 3 },
+          limits: { maxVoltage: 20, maxCompliance: 0.02, maxPower: 0.5, rampStep: 10 },
+        },
+        'test',
+      ),
+      join(tempDir(), 'data'),
+    );
+    const plan = { kind: 'voltage-ramp', start: 0, stop: 15, step: 0.1, stepTime: 0.1, compliance: 0.01 };
+    const endurance = async (device?: Record<string, unknown>) => {
+      const h = await st.startRun({ plan: { ...plan, ...(device ? { device } : {}) } });
+      await h.done;
+      return st.simulator?.device.endurance as number;
+    };
+    const a = await endurance({ device: 'D1', wafer: 'W1', site: 'A1' });
+    const b = await endurance({ device: 'D2', wafer: 'W1', site: 'A2' });
+    const again = await endurance({ device: 'D1', wafer: 'W1', site: 'A1' });
+    const unnamed = await endurance();
+    expect(b).not.toBe(a);
+    expect(again).toBe(a);
+    expect(unnamed).not.toBe(a);
+  }, 30_000);
 });
