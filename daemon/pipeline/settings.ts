@@ -125,8 +125,12 @@ export function zodMessage(error: z.ZodError, where: string, raw?: unknown, sche
   if (i.code === 'invalid_type' && raw !== undefined) {
     const v = at(raw, i.path);
     if (v === undefined) return `${where}: field '${field}': missing (${i.expected === 'number' ? 'a number, in SI units' : `expected ${i.expected}`})`;
-    if (typeof v === 'string' && i.expected === 'number')
-      return `${where}: field '${field}': '${v}' is text; plans and configs are JSON with numbers in SI units (V, A, s, m, m², K): write the number, e.g. 0.001 for 1 mA`;
+    if (typeof v === 'string' && i.expected === 'number') {
+      // An adaptive target's error is in its parameter's unit, not a current's.
+      const example =
+        field === 'target.stdErr' ? "in the parameter's SI unit, e.g. 0.0005 for 0.5 meV (eV for energies, m for lengths)" : 'e.g. 0.001 for 1 mA';
+      return `${where}: field '${field}': '${v}' is text; plans and configs are JSON with numbers in SI units (V, A, s, m, m², K, eV): write the number, ${example}`;
+    }
   }
   if (i.code === 'unrecognized_keys') {
     const keys = knownKeys(schema, i.path);

@@ -254,10 +254,11 @@ export class Station {
       // A named device under test is a device of its own on the simulated chuck: its seed mixes the
       // station's with the identity (wafer, site, device), so a lot of named devices spreads as a
       // real one does (its own Weibull-drawn charge to breakdown) and a name comes back the same.
-      // Runs without a name keep the one device the station's seed makes.
+      // A run without a name stays on the device on the chuck (at first, the one the station's seed
+      // makes): the probe has not moved, and a destroyed device stays destroyed.
       const who =
         device && (device.device !== undefined || device.site !== undefined) ? [device.wafer ?? '', device.site ?? '', device.device ?? ''].join('/') : '';
-      const seed = who ? mixSeed(ic.seed, who) : ic.seed;
+      const seed = who ? mixSeed(ic.seed, who) : (this.simSeed ?? ic.seed);
       if (!this.sim || this.simSeed !== seed) {
         this.sim = new SimulatedSmu({
           device: scenario.device,

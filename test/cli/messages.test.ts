@@ -41,6 +41,15 @@ describe('messages', () => {
         /field 'target\.stdErr': -1 is too small: it must be more than 0/,
       ],
       [{ start: 0, stop: 5, points: 1, compliance: 1e-3 }, /field 'points': 1 is too small: it must be at least 2/],
+      // A target's error in its parameter's unit, not a current's; a misspelt target named with the file.
+      [
+        { kind: 'adaptive', start: 0, stop: 9, maxPoints: 200, compliance: 1e-3, target: { parameter: 'barrierHeight', stdErr: '0.5 meV' } },
+        /plan\.json: field 'target\.stdErr': '0\.5 meV' is text; .*in the parameter's SI unit, e\.g\. 0\.0005 for 0\.5 meV/,
+      ],
+      [
+        { kind: 'adaptive', start: 0, stop: 9, maxPoints: 200, compliance: 1e-3, target: { parameter: 'barrierHieght', stdErr: 5e-4 } },
+        /plan\.json: field 'target\.parameter': 'barrierHieght' is not a parameter of the fowler-nordheim fit \(it gives barrierHeight/,
+      ],
     ];
     for (const [plan, re] of cases) {
       const f = tempFile('plan.json', JSON.stringify(plan));
@@ -48,6 +57,13 @@ describe('messages', () => {
       expect(r.code, JSON.stringify(plan)).toBe(2);
       expect(r.stderr).toMatch(re);
     }
+    // Beyond the station's limits: the guard's refusal names the plan file and the station setting.
+    const high = tempFile('plan.json', JSON.stringify({ start: 0, stop: 50, points: 11, compliance: 1e-3 }));
+    const g = runCli(['run', '--scenario', 'oxide-fn', '--fast', '--plan', high]);
+    expect(g.code).toBe(7);
+    expect(g.stderr).toMatch(
+      /refused by the safety guard: .*plan\.json: plan stop = 50 V exceeds the station limit maxVoltage = 20 V \(station setting 'maxVoltage'\)/,
+    );
   });
 
   it('a plan file that is not valid JSON names its line and column; a folder that does not exist is said to be missing', () => {

@@ -144,9 +144,10 @@ describe('a breakdown test of negative polarity', () => {
     const a = await endurance({ device: 'D1', wafer: 'W1', site: 'A1' });
     const b = await endurance({ device: 'D2', wafer: 'W1', site: 'A2' });
     const again = await endurance({ device: 'D1', wafer: 'W1', site: 'A1' });
+    // Without a name the probe has not moved: the device just measured.
     const unnamed = await endurance();
     expect(b).not.toBe(a);
     expect(again).toBe(a);
-    expect(unnamed).not.toBe(a);
+    expect(unnamed).toBe(a);
   }, 30_000);
 });

@@ -111,11 +111,13 @@ export function registerRun(program: Command): void {
         // A plan beyond the station's limits is refused by the guard before anything is sent.
         const { GuardError } = await import('../../run/guard.js');
         if (e instanceof GuardError) {
-          const reason = `refused by the safety guard: ${e.message}`;
+          const reason = `refused by the safety guard: ${o.plan !== undefined ? `${o.plan}: ` : ''}${e.message} (station setting '${e.setting}')`;
           if (o.json) process.stdout.write(`${JSON.stringify({ outcome: 'guard-refused', reason, cautions })}\n`);
           process.stderr.write(`plumbline run: ${reason}\n`);
           process.exit(EXIT_CODE['guard-refused']);
         }
+        // A plan the station refuses names the plan file, as the plan's own checks do.
+        if (o.plan !== undefined && e instanceof Error && e.message.startsWith('plan: ')) e.message = `${o.plan}: ${e.message.slice(6)}`;
         throw e;
       }
       if (!o.json) {
