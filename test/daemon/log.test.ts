@@ -43,6 +43,8 @@ describe('daemon log lines', () => {
     // Whether the output went off, and whether the instrument said so, at every log level.
     expect(lines.some((l) => / NOTICE +output ON, confirmed by the instrument/.test(l))).toBe(true);
     expect(lines.some((l) => / NOTICE +output off, confirmed by the instrument/.test(l))).toBe(true);
+    // The normal sequence (command sent, then confirmed) raises no warning about the output.
+    expect(lines.filter((l) => / WARN +output/.test(l))).toEqual([]);
   });
 });
 

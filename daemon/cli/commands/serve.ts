@@ -67,8 +67,10 @@ export function registerServe(program: Command): void {
             else if (e.type === 'output') {
               // Whether the output went off, and whether the instrument said so, at every log level.
               const line = describe(e) ?? '';
-              if (e.on || (e.queried && e.confirmed)) log.notice(line);
-              else log.warn(line);
+              // A command that could not be sent, or an instrument that does not confirm it, is a warning;
+              // the command on its way before the instrument's answer is not.
+              if (e.sent === false || (e.queried && !e.confirmed)) log.warn(line);
+              else log.notice(line);
             } else if (log.threshold === 'debug') {
               const line = describe(e);
               if (line) log.debug(line.trim());
