@@ -170,8 +170,10 @@ describe('breakdown tests and adaptive sweeps on the page', () => {
     expect(events[0].device).toMatchObject({ device: 'PL11-B2', wafer: 'PL-11', site: 'B2', x: 2, y: -1 });
     const caution = events.find((e) => e.type === 'caution' && e.kind === 'destructive-test');
     expect(during).toContain(caution.message);
-    // The run is over: the caution of a test in progress is gone; the result is shown.
+    // The run is over: the caution of a test in progress is gone; the result is shown, and the
+    // message under the Start button says how the run ended, not that it started.
     expect(await page.locator('#cautions .caution[data-kind="destructive test"]').count()).toBe(0);
+    expect(await page.textContent('#control-msg')).toMatch(/^Run ended: completed — /);
     expect(await page.isChecked('#plan-form [name="acknowledge"]')).toBe(false);
     const tr = events.find((e) => e.type === 'test-result');
     expect(tr.outcome).toBe('breakdown');

@@ -80,6 +80,12 @@ function connect(): void {
       void loadSessions().catch(() => undefined);
       void loadStatus().catch(() => undefined);
     }
+    // "Run started" under the Start button is old news once the run has ended: say how it ended.
+    const end = liveStore.runEnd;
+    if (end && end !== ended) {
+      const el = $('control-msg');
+      if (el.textContent?.startsWith('Run started: ')) el.textContent = `Run ended: ${end.outcome} — ${end.reason}`;
+    }
     if (msg.kind === 'gap') setConn('resync');
     else if (msg.kind === 'snapshot') setConn('live');
     schedule();
