@@ -771,6 +771,12 @@ export function fitBranch(
   } else if (!test.passed && request.mode !== 'auto') {
     warnings.push(`the window spans a regime change or the mechanism does not describe it: ${test.failure}`);
     plausible = false;
+  } else if (!test.passed && request.mode === 'auto') {
+    // The search judged the window on its selection points; the fit made on every point of it must
+    // pass the same test (on a diode, an ohmic line through 0.48–0.58 V passed the search and then
+    // missed its own readings by χ²/dof 476).
+    warnings.push(`the automatic window does not follow the mechanism's line within the noise: ${test.failure}`);
+    plausible = false;
   }
   if (mech.current && request.mode === 'manual' && classes.noise.floor > 0 && branch) {
     // Readings of this branch inside the window that sit at the floor.

@@ -316,6 +316,21 @@ describe('a wrong answer is never silent', () => {
     }
   });
 
+  it('an ohmic line asked of a diode: its automatic window misses its own readings, and says so (it passed in 9 of 10 draws before)', () => {
+    for (let seed = 1; seed <= 10; seed++) {
+      const s = wholeSweep({
+        device: { kind: 'diode', saturationCurrent: 2e-11, ideality: 1.6, series: 3, shunt: 1e12 },
+        bias: linearBias(0, 0.7, 60),
+        relative: 1e-3,
+        floor: 1e-13,
+        seed,
+      });
+      const r = analyze({ x: s.v, y: s.i }, { model: 'ohmic' });
+      expect(r.plausible, `seed ${seed}: ${r.warnings.join('; ')}`).toBe(false);
+      expect(r.warnings.join(' ')).toMatch(/the automatic window does not follow the mechanism's line within the noise: χ² [\d.]+ for \d+ degrees of freedom/);
+    }
+  });
+
   it('the right mechanism on a curve of two regimes is not called implausible when the window search settles on part of one (two-diode silicon junction, n = 2 below n = 1)', () => {
     // Two-diode model (Sah, Noyce & Shockley 1957): recombination current with n = 2 under the
     // diffusion current with n = 1, plus a 1 GΩ shunt; 0.05 % noise and a 1e-13 A floor.
