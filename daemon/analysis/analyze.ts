@@ -9,7 +9,7 @@
 import type { AccuracySpec } from './accuracy.js';
 import { RICHARDSON_FREE_A_PER_M2_K2 } from './constants.js';
 import { AnalysisError } from './errors.js';
-import { describe, fitBranch, type BranchFit, type WindowMode } from './fit-branch.js';
+import { decadesOf, describe, fitBranch, type BranchFit, type WindowMode } from './fit-branch.js';
 import type { AxisSpec, FitPoints, Inputs, InputName, Mechanism, ParameterValue, ResolvedInputs } from './mechanism.js';
 import { fmt } from './mechanism.js';
 import { compileCustom, customMechanism, type CustomSpec } from './mechanisms/custom.js';
@@ -333,18 +333,6 @@ export function defaultWindow(mech: Mechanism): 'auto' | 'all' {
 const FILM_MECHANISMS = ['fowler-nordheim', 'poole-frenkel', 'schottky', 'trap-assisted-tunneling', 'hopping'];
 /** Below this share of the branch's decades, an automatic window is compared with the other film mechanisms. */
 const COMPARE_SHARE = 0.6;
-
-function decadesOf(current: ArrayLike<number>): number {
-  let lo = Infinity;
-  let hi = -Infinity;
-  for (let k = 0; k < current.length; k++) {
-    const a = Math.abs(current[k]);
-    if (!(a > 0)) continue;
-    lo = Math.min(lo, a);
-    hi = Math.max(hi, a);
-  }
-  return hi > lo ? Math.log10(hi / lo) : 0;
-}
 
 /**
  * A film mechanism whose automatic window holds only part of the branch is asked whether another

@@ -823,40 +823,26 @@ export function fitBranch(
   }
   if (used.x.length < 5) warnings.push(`only ${used.x.length} points in the window; at least 5 are advised`);
   if (mech.yKind === 'log' && mech.current) {
-    let lo = Infinity;
-    let hi = -Infinity;
-    for (let k = 0; k < used.current.length; k++) {
-      const a = Math.abs(used.current[k]);
-      lo = Math.min(lo, a);
-      hi = Math.max(hi, a);
-    }
-    if (hi / lo < 10 && request.mode === 'auto') {
+    const inWindow = decadesOf(used.current);
+    if (inWindow < 1 && request.mode === 'auto') {
       // Less than a decade tells one smooth mechanism from another no better than the noise does
       // (on the simulated trap-assisted film, Schottky and hopping lines each found 0.77 decades).
       // Common practice asks a mechanism to hold over a decade or more; a window the user chose is
       // the user's call.
       warnings.push(
-        `the automatic window spans only ${Math.log10(hi / lo).toFixed(2)} decades of current: too little to tell this mechanism from another; at least one decade is needed (give the window to fit it anyway)`,
+        `the automatic window spans only ${inWindow.toFixed(2)} decades of current: too little to tell this mechanism from another; at least one decade is needed (give the window to fit it anyway)`,
       );
       plausible = false;
-    } else if (hi / lo < 10) warnings.push(`the window spans ${Math.log10(hi / lo).toFixed(2)} decades of current; one decade or more is advised`);
+    } else if (inWindow < 1) warnings.push(`the window spans ${inWindow.toFixed(2)} decades of current; one decade or more is advised`);
     // An automatic window that holds a short piece of a long curve: the mechanism describes a
     // decade or so where the branch shows many above its floor, so most of the curve is something
     // else. A wrong mechanism finds such a piece on almost any smooth curve (Poole–Frenkel on a
     // Fowler–Nordheim oxide: about 1 of 8 decades, with a plausible-looking ε_r; hopping: 2.4 of 9);
     // the right one, on the built-in devices, holds a third to all of them (3–8.6 decades). Common
     // practice asks a conduction mechanism to hold over several decades before it is believed.
-    let sLo = Infinity;
-    let sHi = -Infinity;
-    for (let k = 0; k < p.current.length; k++) {
-      const a = Math.abs(p.current[k]);
-      if (!(a > 0)) continue;
-      sLo = Math.min(sLo, a);
-      sHi = Math.max(sHi, a);
-    }
-    const sd = Math.log10(sHi / sLo);
+    const sd = decadesOf(p.current);
     const short = (d: number) => (d < SHORT_WINDOW_DECADES || d < SHORT_WINDOW_SHARE * sd) && sd - d >= UNEXPLAINED_DECADES;
-    let wd = Math.log10(hi / lo);
+    let wd = inWindow;
     // A short pick inside a longer straight regime of the same plot (a diode's recombination
     // region, say, where the search settled on part of it) is the search's choice, not a sign of the
     // wrong mechanism: the regime the window lies in counts.
@@ -889,6 +875,19 @@ export function fitBranch(
   };
 }
 
+/** Decades of current the nonzero |I| span (0 for fewer than two distinct ones). */
+export function decadesOf(current: ArrayLike<number>): number {
+  let lo = Infinity;
+  let hi = -Infinity;
+  for (let k = 0; k < current.length; k++) {
+    const a = Math.abs(current[k]);
+    if (!(a > 0)) continue;
+    lo = Math.min(lo, a);
+    hi = Math.max(hi, a);
+  }
+  return hi > lo ? Math.log10(hi / lo) : 0;
+}
+
 /**
  * Decades of current spanned by the regime (REGIME_SEGMENTS, the cut the report's regimes use) that
  * shares the most points with the window fs..fe (0 when the curve is too short to cut).
@@ -900,16 +899,8 @@ function regimeDecades(all: FitPoints, fs: number, fe: number): number {
   for (const s of segmentLine(all.x, all.y, REGIME_SEGMENTS).segments) {
     const shared = Math.min(fe, s.end) - Math.max(fs, s.start) + 1;
     if (shared <= best) continue;
-    let lo = Infinity;
-    let hi = -Infinity;
-    for (let k = s.start; k <= s.end; k++) {
-      const a = Math.abs(all.current[k]);
-      if (!(a > 0)) continue;
-      lo = Math.min(lo, a);
-      hi = Math.max(hi, a);
-    }
     best = shared;
-    decades = hi > lo ? Math.log10(hi / lo) : 0;
+    decades = decadesOf(all.current.subarray(s.start, s.end + 1));
   }
   return decades;
 }

@@ -11,6 +11,7 @@
 import { Subject } from 'rxjs';
 import { analyze, resolveInputs, transformPoint, type FitReport, type FitRequest, type IVData } from '../analysis/analyze.js';
 import { BreakdownWatch } from '../analysis/breakdown.js';
+import { robustRms } from '../analysis/noise-floor.js';
 import { DriftChart } from '../analysis/drift.js';
 import type { Mechanism, ResolvedInputs } from '../analysis/mechanism.js';
 import { getMechanism } from '../analysis/mechanisms/index.js';
@@ -125,7 +126,7 @@ export class LiveChain {
   private c: number[] = [];
   /** Polarity of the breakdown watch's current trend (a change restarts it). */
   private trendSign = 0;
-  /** Squares of recent null readings (zero bias, against the bias) and the largest |I| seen, for the floor. */
+  /** Recent null readings (zero bias, against the bias) and the largest |I| seen, for the floor. */
   private readonly nulls: number[] = [];
   private maxCurrent = 0;
   /** Whether a null reading flowed against the bias, and the signs of the zero-bias ones. */
@@ -319,18 +320,16 @@ export class LiveChain {
     const b = v - this.inputs.flatBand;
     if (Math.abs(i) > this.maxCurrent) this.maxCurrent = Math.abs(i);
     if (!(Math.abs(b) <= 1e-4 * Math.max(1, Math.abs(v)) || i * b < 0)) return;
-    this.nulls.push(i * i);
+    this.nulls.push(i);
     if (this.nulls.length > 256) this.nulls.shift();
     if (i * b < 0) this.noiseSigns.against = true;
     else if (i > 0) this.noiseSigns.plus = true;
     else if (i < 0) this.noiseSigns.minus = true;
     if (this.nulls.length < 3) return;
-    const sq = Float64Array.from(this.nulls).sort();
-    const m = sq.length >> 1;
-    const sigma = Math.sqrt((sq.length % 2 ? sq[m] : 0.5 * (sq[m - 1] + sq[m])) / 0.454936423119572);
+    const sigma = robustRms(this.nulls);
     // Also the floor for a later sweep's fit that reads no null readings of its own.
     const n = this.noiseSigns;
-    if (n.against || (n.plus && n.minus)) this.nullFloor = { sigma, readings: sq.length };
+    if (n.against || (n.plus && n.minus)) this.nullFloor = { sigma, readings: this.nulls.length };
     if (sigma <= 0.01 * this.maxCurrent) this.breakdown?.setNoiseFloor(sigma);
   }
 
