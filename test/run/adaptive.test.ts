@@ -5,8 +5,8 @@
  * fixed sweep over five noise seeds; the adaptive sweep must use fewer readings than that sweep and
  * no more than the fewest-point fixed sweep reaching the same error, go no higher in bias, and give
  * the parameter within the engineering tolerance of the simulated device's own value and within
- * 3 stated σ of it. The measured reductions (`npm run bench`, and 1.4–2.7× over fifteen seeds)
- * fall short of the 3× the design aimed at; here the summed readings must stay at least 1.4× fewer
+ * 3 stated σ of it. The measured reductions (`npm run bench`, fifteen seeds: 1.7–4.1× on the first
+ * sweep, 2.2–4.9× on later ones) fall short of the 3× the design aimed at on three of five films; here the summed readings must stay at least 1.4× fewer
  * (about 1.7× at this seed). Later sweeps of a run go straight to the regime learned by the first
  * and never above its top. A fit whose noise level, read from a handful of readings, comes out low
  * by chance does not stop a sweep.
@@ -18,6 +18,8 @@ import { scanJournal } from '../../daemon/journal/reader.js';
 import { adaptivePlan, adaptiveRun, CASES, fixedBaseline, run, withinTolerance } from '../bench/adaptive.js';
 
 const SEED = 2;
+/** The noise seeds the target and the fixed baseline are taken over here (the benchmark takes fifteen). */
+const FIVE_SEEDS = [1, 2, 3, 4, 5];
 
 describe('adaptive sweeps against the fixed sweep on every insulator scenario', () => {
   it('fewer readings, no higher bias, the parameter within tolerance of the device and honestly stated', async () => {
@@ -29,7 +31,7 @@ describe('adaptive sweeps against the fixed sweep on every insulator scenario', 
       const truth = sc.device.params[c.parameter];
       // The target: the median error of the usual sweep over five noise seeds; the fewest-point
       // fixed sweep whose median error reaches it.
-      const base = await fixedBaseline(c);
+      const base = await fixedBaseline(c, FIVE_SEEDS);
       expect(base, `${c.scenario}: the usual fixed sweep fits`).toBeDefined();
       const b = base as NonNullable<typeof base>;
       const a = await adaptiveRun(c, b.target, SEED);
@@ -86,7 +88,7 @@ describe('adaptive sweeps against the fixed sweep on every insulator scenario', 
   it('later sweeps start where the first found the regime, stay at or below its top and reach the target', async () => {
     const c = CASES.find((k) => k.scenario === 'nitride-pf') as (typeof CASES)[number];
     const sc = findScenario(c.scenario);
-    const base = await fixedBaseline(c);
+    const base = await fixedBaseline(c, FIVE_SEEDS);
     const target = (base as NonNullable<typeof base>).target;
     const { result, dir } = await run(c.scenario, { ...adaptivePlan(c, target), repeat: 3 }, SEED);
     rmSync(dir, { recursive: true, force: true });
