@@ -18,9 +18,11 @@ import {
   FLOOR_MULTIPLE,
   floorLevel,
   MIN_RELATIVE,
+  MIN_RELATIVE_READINGS,
   relativeFromResiduals,
   relativeFromScatter,
   runningMedian,
+  TYPICAL_RELATIVE,
   type NoiseModel,
 } from './noise-floor.js';
 import { AnalysisError } from './errors.js';
@@ -257,6 +259,7 @@ function weigh(mech: Mechanism, inputs: ResolvedInputs, p: Points, base: NoiseMo
     return base;
   }
   let g = base.relative;
+  let source = base.relativeSource;
   if (base.relativeSource !== 'accuracy') {
     // Every k-th point (at most ~8,000) is plenty to measure a scatter.
     const stride = Math.max(1, Math.floor(n / 8000));
@@ -287,8 +290,17 @@ function weigh(mech: Mechanism, inputs: ResolvedInputs, p: Points, base: NoiseMo
     }
     g = (c >= 5 ? relativeFromScatter(kx, ky, kq) : undefined) ?? relativeFromScatter(xs, ly, q) ?? 0.01;
     g = Math.max(g, MIN_RELATIVE);
+    // Readings where a typical relative noise would stand above the floor: with too few of them
+    // the scatter is the floor's and says nothing about the relative part, so a small figure read
+    // from it is not evidence of a quiet instrument.
+    let above = 0;
+    for (let j = 0; j < m; j++) if (q[j] < TYPICAL_RELATIVE) above++;
+    if (above < MIN_RELATIVE_READINGS && g < TYPICAL_RELATIVE) {
+      g = TYPICAL_RELATIVE;
+      source = 'typical';
+    }
   }
-  const noise: NoiseModel = { ...base, relative: g };
+  const noise: NoiseModel = { ...base, relative: g, relativeSource: source };
   setWeights(mech, inputs, p, noise);
   if (mech.yKind === 'log') {
     // ln of a noisy reading is biased low by σ²/(2I²) (second-order delta method): near the floor
@@ -326,7 +338,7 @@ function refineRelative(mech: Mechanism, inputs: ResolvedInputs, p: Points, nois
     q[k] = noise.floor / p.ref[s + k];
   }
   const g = Math.max(MIN_RELATIVE, relativeFromResiduals(r, q, f.dof));
-  const out: NoiseModel = { ...noise, relative: g };
+  const out: NoiseModel = { ...noise, relative: g, relativeSource: 'scatter' };
   setWeights(mech, inputs, p, out);
   return out;
 }
@@ -611,6 +623,11 @@ export function fitBranch(
   const diode = !!mech.series;
   const warnings: string[] = [];
   const notes: string[] = [];
+  if (noise.relativeSource === 'typical') {
+    notes.push(
+      `too few readings stand far enough above the noise floor to show the instrument's relative noise: ${100 * TYPICAL_RELATIVE} % of reading assumed, a typical figure (give the instrument's own with --accuracy, or take more readings above ${fmt(noise.floor / TYPICAL_RELATIVE)} A)`,
+    );
+  }
 
   // ---- window -------------------------------------------------------------------------------
   // Long curves choose their window on every k-th point (at most SELECT_MAX); the fit itself then

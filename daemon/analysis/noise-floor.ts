@@ -24,6 +24,20 @@ export const FLOOR_MULTIPLE = 5;
 const CHI2_1_MEDIAN = 0.454936423119572;
 /** The smallest relative noise assumed (0.01 % of reading): no instrument reads better. */
 export const MIN_RELATIVE = 1e-4;
+/**
+ * The relative noise taken when the readings cannot show their own: 0.1 % of reading, the order of
+ * the "% of reading" term source-measure unit data sheets state for their current ranges (common
+ * practice; the figure is from memory, and typical rather than any one instrument's).
+ */
+export const TYPICAL_RELATIVE = 1e-3;
+/**
+ * Fewest readings whose current is large enough that a typical relative noise would outweigh the
+ * floor (|I| > floor / TYPICAL_RELATIVE) for the relative noise to be read from the scatter. Below
+ * it the scatter is the floor's: the readings cannot tell a 0.01 % instrument from a 0.1 % one, and
+ * taking the smaller (the best any instrument reads) made a five-reading sweep of a 7 nm oxide state
+ * its barrier to ±0.4 meV where repeated sweeps scattered by ±1.6 meV.
+ */
+export const MIN_RELATIVE_READINGS = 6;
 
 export interface NoiseModel {
   /** σ of a reading at zero current, A (0 when no reading reached the floor and none was given). */
@@ -34,7 +48,8 @@ export interface NoiseModel {
   readonly floorSource: 'readings' | 'earlier sweeps' | 'accuracy' | 'not reached';
   /** Readings the floor was estimated from (zero bias and against the bias). */
   readonly floorReadings: number;
-  readonly relativeSource: 'scatter' | 'accuracy';
+  /** 'typical': too few readings above the floor to read it from the scatter, TYPICAL_RELATIVE taken. */
+  readonly relativeSource: 'scatter' | 'accuracy' | 'typical';
 }
 
 /** σ of a current reading, A. */
