@@ -34,7 +34,10 @@ export function registerLot(program: Command): void {
         '--map <parameter>',
         'parameter for the wafer map (a fitted parameter such as barrierHeight, or field | voltage | charge | time); default: the breakdown field, else the first parameter',
       )
-      .option('--quantity <name>', 'breakdown quantity for the Weibull plot: field | voltage | charge | time', 'field')
+      .option(
+        '--quantity <name>',
+        'breakdown quantity for the Weibull plot: field | voltage | charge | time (default: time for constant-voltage stress, charge for constant-current stress, field for ramps)',
+      )
       .option(
         '--test <kind>',
         'the kind of test whose results the Weibull plot takes (voltage-ramp | current-ramp | constant-voltage | constant-current, optionally /positive or /negative), or all to pool them; needed when the lot holds several kinds or both polarities',
@@ -55,7 +58,8 @@ export function registerLot(program: Command): void {
     const t0 = performance.now();
     if (o.test !== undefined && o.test !== 'all' && !(TEST_KINDS as readonly string[]).includes(o.test.split('/')[0]))
       throw new UsageError(`--test '${o.test}': expected one of ${TEST_KINDS.join(', ')} (optionally /positive or /negative), or all`);
-    if (!resultQuantity(o.quantity ?? 'field')) throw new UsageError(`--quantity '${o.quantity}': expected ${Object.keys(RESULT_QUANTITIES).join(' | ')}`);
+    if (o.quantity !== undefined && !resultQuantity(o.quantity))
+      throw new UsageError(`--quantity '${o.quantity}': expected ${Object.keys(RESULT_QUANTITIES).join(' | ')}`);
     let a: Awaited<ReturnType<typeof writeLotReport>>;
     try {
       a = await writeLotReport(source, file, { map: o.map, quantity: o.quantity, test: o.test, area, confidence: readConfidence(o.confidence) });

@@ -84,7 +84,7 @@ export interface WeibullCliOptions extends ArchiveSelectionOptions {
 
 /** Gathers the sample from the inputs (folders or files). */
 export async function gatherSample(inputs: string[], o: WeibullCliOptions, referenceArea: number | undefined): Promise<BreakdownSample> {
-  const { FolderLot, lotResults, breakdownSample, referenceAreas, LotRequestError } = await import('../journal/lot.js');
+  const { FolderLot, lotResults, breakdownSample, defaultQuantity, referenceAreas, LotRequestError } = await import('../journal/lot.js');
   const folders = inputs.filter((p) => {
     try {
       return statSync(p).isDirectory();
@@ -93,7 +93,6 @@ export async function gatherSample(inputs: string[], o: WeibullCliOptions, refer
     }
   });
   const files = inputs.filter((p) => !folders.includes(p));
-  const q = resultQuantity(o.quantity ?? 'field');
   const rows = [];
   const archive = await archiveLot(o, inputs);
   if (archive || folders.length) {
@@ -120,8 +119,9 @@ export async function gatherSample(inputs: string[], o: WeibullCliOptions, refer
   }
   if (rows.length && generic.length) throw new UsageError('mix of results files (or session folders) and plain value CSVs: analyse them separately');
   if (rows.length) {
-    if (!q) throw new UsageError(`--quantity '${o.quantity}': results hold ${Object.keys(RESULT_QUANTITIES).join(', ')} (or their column names)`);
     try {
+      const q = resultQuantity(o.quantity ?? defaultQuantity(rows, o.test));
+      if (!q) throw new UsageError(`--quantity '${o.quantity}': results hold ${Object.keys(RESULT_QUANTITIES).join(', ')} (or their column names)`);
       return breakdownSample(rows, q, referenceArea, o.test);
     } catch (e) {
       if (e instanceof LotRequestError) throw new UsageError(e.message);
@@ -206,7 +206,10 @@ export function registerWeibull(program: Command): void {
         '[input...]',
         'session folders or data folders (their device-results.csv), results files, or CSV files with one value per device (or --postgres with a selection)',
       )
-      .option('--quantity <name>', `results: ${Object.keys(RESULT_QUANTITIES).join(' | ')} (default field); other CSVs: the column with the values`)
+      .option(
+        '--quantity <name>',
+        `results: ${Object.keys(RESULT_QUANTITIES).join(' | ')} (default: time for constant-voltage stress, charge for constant-current stress, field for ramps); other CSVs: the column with the values`,
+      )
       .option(
         '--test <kind>',
         'results: the kind of test to analyse (voltage-ramp | current-ramp | constant-voltage | constant-current, optionally /positive or /negative), or all to pool them; needed when the results hold several kinds or both polarities',

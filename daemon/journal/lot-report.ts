@@ -12,7 +12,7 @@ import { OKABE_ITO, sequential } from '../../protocols/palette.js';
 import { formatLogTicks, formatTicks, logTicks, niceTicks } from '../../protocols/number-format.js';
 import { resultQuantity } from '../../protocols/device-results.js';
 import { displayUnit, formatQuantity } from '../../protocols/display-units.js';
-import { breakdownSample, LotRequestError, lotResults, type BreakdownSample, type DeviceSummary, type LotSource } from './lot.js';
+import { breakdownSample, defaultQuantity, LotRequestError, lotResults, type BreakdownSample, type DeviceSummary, type LotSource } from './lot.js';
 
 const esc = (s: unknown) => String(s).replace(/&/g, '&amp;').replace(/</g, '&lt;').replace(/>/g, '&gt;').replace(/"/g, '&quot;');
 const num = (v: number | undefined, d = 4) =>
@@ -21,7 +21,7 @@ const num = (v: number | undefined, d = 4) =>
 export interface LotOptions {
   /** Parameter (or breakdown quantity: field, voltage, charge, time) for the wafer map. */
   readonly map?: string;
-  /** Breakdown quantity for the Weibull plot (default field). */
+  /** Breakdown quantity for the Weibull plot (default: defaultQuantity's choice for the results' kind of test). */
   readonly quantity?: string;
   readonly confidence?: number;
   readonly area?: number;
@@ -145,10 +145,11 @@ export async function analyzeLot(source: LotSource, o: LotOptions = {}): Promise
   let weibull: LotAnalysis['weibull'] = null;
   let weibullError: string | null = null;
   let sample: BreakdownSample | null = null;
-  const q = resultQuantity(o.quantity ?? 'field');
   const results = lotResults(devices);
-  if (q && results.length) {
+  if (results.length) {
     try {
+      const q = resultQuantity(o.quantity ?? defaultQuantity(results, o.test));
+      if (!q) throw new LotRequestError(`--quantity '${o.quantity}': expected field, voltage, charge or time`);
       const s: BreakdownSample = breakdownSample(results, q, o.area, o.test);
       sample = s;
       const fit = analyzeWeibull(

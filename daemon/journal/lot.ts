@@ -20,6 +20,7 @@ import {
   type DeviceResult,
 } from '../../protocols/device-results.js';
 import type { ParameterFigure, WireEvent } from '../../protocols/wire.js';
+import { formatQuantity } from '../../protocols/display-units.js';
 import { JOURNAL_FILE, JournalError, liveLockHolder } from './journal.js';
 import { listSessions, scanJournal } from './reader.js';
 
@@ -373,12 +374,54 @@ export function breakdownSample(
   }
   const kinds = new Set(rows.map((r) => r.test));
   if (kinds.size > 1) notes.push(`${kinds.size} kinds of test pooled (${[...kinds].join(', ')}), as asked`);
+  if (quantity.key === 'timeToBreakdown' || quantity.key === 'chargeToBreakdown') {
+    const levels = stressLevels(rows.filter((r) => r.outcome === 'breakdown' || r.outcome === 'survived'));
+    if (levels.length > 1)
+      warnings.push(
+        `${levels.length} stress levels pooled (${levels.join(', ')}): the ${quantity.title} falls steeply as the stress rises, so values from several levels do not share one distribution (common practice: one Weibull per stress level, then a model across the levels); give only the sessions of one level`,
+      );
+  } else if (quantity.key === 'breakdownField' || quantity.key === 'breakdownVoltage') {
+    if (rows.length > 0 && rows.every((r) => r.test === 'constant-voltage'))
+      warnings.push(
+        `these are constant-voltage stress results: their ${quantity.title} is the stress the test held, not a property of the device; the failure time (--quantity time) or charge (--quantity charge) is what varies`,
+      );
+  }
   if (initial) notes.push(`${initial} initial failure(s) (failed at the use condition before the test) left out of the fit; count them as yield loss`);
   if (invalid) notes.push(`${invalid} invalid test(s) left out`);
   if (missing) notes.push(`${missing} device(s) without a ${quantity.title} (${quantity.column}) left out`);
   const a = referenceAreas(areas, referenceArea);
   notes.push(...a.notes);
   return { values, censored, areaFactor: a.areaFactor, area: a.area, labels, unit: quantity.unit, title: quantity.title, notes, warnings };
+}
+
+/**
+ * The quantity a Weibull analysis of these results takes when none is asked: the time to breakdown
+ * for constant-voltage stress and the charge to breakdown for constant-current stress (a held stress
+ * sets the field; what varies from device to device is how long, or how much charge, it takes —
+ * common practice), else the breakdown field of a ramp. Throws LotRequestError as selectTest does.
+ */
+export function defaultQuantity(rows: readonly DeviceResult[], test: string | undefined): string {
+  const kinds = new Set(selectTest(rows, test).map((r) => r.test));
+  if (kinds.size === 1 && kinds.has('constant-voltage')) return 'time';
+  if (kinds.size === 1 && kinds.has('constant-current')) return 'charge';
+  return 'field';
+}
+
+/**
+ * The distinct stress levels of constant-stress results, for display: the held voltage of a
+ * constant-voltage test (its breakdown voltage), the current density Q_bd/t_bd of a constant-current
+ * one; levels within 2 % of each other are one level.
+ */
+function stressLevels(rows: readonly DeviceResult[]): string[] {
+  const levels: { v: number; unit: string }[] = [];
+  for (const r of rows) {
+    let level: { v: number; unit: string } | undefined;
+    if (r.test === 'constant-voltage' && r.breakdownVoltage !== undefined) level = { v: Math.abs(r.breakdownVoltage), unit: 'V' };
+    else if (r.test === 'constant-current' && r.chargeToBreakdown && r.timeToBreakdown) level = { v: r.chargeToBreakdown / r.timeToBreakdown, unit: 'A/m^2' };
+    if (level && level.v > 0 && !levels.some((l) => l.unit === level.unit && Math.abs(l.v / level.v - 1) <= 0.02)) levels.push(level);
+  }
+  levels.sort((a, b) => a.unit.localeCompare(b.unit) || a.v - b.v);
+  return levels.map((l) => formatQuantity(l.v, l.unit, undefined, 4));
 }
 
 /** What was asked of a lot cannot be done (several kinds of test pooled unasked, an unknown kind or map parameter); the message names the option. */

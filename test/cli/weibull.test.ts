@@ -110,13 +110,57 @@ describe('plumbline weibull', () => {
     expect(r.code).toBe(0);
     expect(r.stdout).toMatch(/no Weibull fit: the results hold 2 kinds of test/);
     expect(readFileSync(out, 'utf8')).toMatch(/No Weibull fit: the results hold 2 kinds of test/);
-    r = runCli(['lot', data, '--out', out, '--test', 'constant-voltage']);
+    r = runCli(['lot', data, '--out', out, '--test', 'constant-voltage', '--quantity', 'field']);
     expect(r.stdout).toMatch(/Weibull breakdown field: β = [\d.]+, η = [\d.]+ MV\/cm \(6 breakdowns, 0 survived\)/);
     r = runCli(['lot', data, '--out', out, '--test', 'cvs']);
     expect(r.code).toBe(2);
     expect(r.stderr).toMatch(
       /--test 'cvs': expected one of voltage-ramp, current-ramp, constant-voltage, constant-current \(optionally \/positive or \/negative\), or all/,
     );
+  });
+
+  it('constant-voltage stress: the failure time by default, and a warning when stress levels are pooled or the held field is asked for', () => {
+    // A held stress sets the field; what varies from device to device is the time (or charge) to
+    // breakdown, and it falls steeply as the stress rises (common practice: one Weibull per level).
+    const data = mkdtempSync(join(tmpdir(), 'plumbline-wbc-'));
+    const at8 = draws(8, 1.5, 300, 31);
+    at8.forEach((t, k) =>
+      writeSession(data, {
+        label: `s8-${k}`,
+        results: [
+          {
+            device: `A${k}`,
+            test: 'constant-voltage',
+            outcome: 'breakdown',
+            breakdownVoltage: 8,
+            breakdownField: (8 / 7e-9) * (1 + 1e-4 * k),
+            timeToBreakdown: t,
+          },
+        ],
+      }),
+    );
+    let j = JSON.parse(runCli(['weibull', data, '--json']).stdout);
+    expect(j.n).toBe(8);
+    expect(j.scale.unit).toBe('s');
+    expect(j.shape.value).toBeCloseTo(analyzeWeibull({ values: at8 }).shape.value, 10);
+    expect(j.warnings.join(' ')).not.toMatch(/stress levels pooled/);
+    let r = runCli(['weibull', data]);
+    expect(r.stdout).toMatch(/Weibull analysis of time to breakdown: 8 device\(s\)/);
+    // The held field (equal but for the readback's scatter): not the default, warned about when asked for.
+    j = JSON.parse(runCli(['weibull', data, '--quantity', 'field', '--json']).stdout);
+    expect(j.warnings.join(' ')).toMatch(/constant-voltage stress results: their breakdown field is the stress the test held/);
+    // A second stress level in the same folder: pooled only with a warning naming both levels.
+    writeSession(data, {
+      label: 's75',
+      results: [{ device: 'B0', test: 'constant-voltage', outcome: 'breakdown', breakdownVoltage: 7.5, breakdownField: 7.5 / 7e-9, timeToBreakdown: 5000 }],
+    });
+    r = runCli(['weibull', data]);
+    expect(r.code).toBe(0);
+    expect(r.stdout).toMatch(/WARNING: 2 stress levels pooled \(7\.5 V, 8 V\): the time to breakdown falls steeply/);
+    const out = join(data, 'lot.html');
+    r = runCli(['lot', data, '--out', out]);
+    expect(r.code).toBe(0);
+    expect(r.stdout).toMatch(/Weibull time to breakdown: β = [\d.]+/);
   });
 
   it('bad input says what and where, exit 2', () => {
