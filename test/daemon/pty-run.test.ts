@@ -122,6 +122,9 @@ describe('run aborts over a real pty', () => {
       expect(r.code).toBe(4);
       const ev = journal(res.dir);
       const values = ev.filter((e) => e.type === 'fit' && e.final).map((e) => (e.type === 'fit' ? e.fit?.parameters.barrierHeight : undefined));
+      // --json carries every sweep's final fit, as journaled (a script sees what the text mode prints).
+      expect(res.fits.map((f: { parameters: { barrierHeight: unknown } }) => f.parameters.barrierHeight)).toEqual(values);
+      expect(res.fits.map((f: { sweep: number }) => f.sweep)).toEqual(values.map((_, k) => k + 1));
       // Independent EWMA over the journaled values.
       const x = values.map((p) => p?.value as number);
       const se = values.map((p) => p?.stdErr as number);

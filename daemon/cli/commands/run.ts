@@ -79,9 +79,13 @@ export function registerRun(program: Command): void {
       let progressShown = false;
       // Every caution of the run, for --json: a script must see what a person at the terminal sees.
       const cautions: { kind: string; sweep?: number; message: string }[] = [];
+      // And every sweep's final fit, as the text mode prints it: parameters in SI with their errors.
+      const fits: { sweep: number; model: string; plausible: boolean; parameters: Record<string, unknown>; warnings: readonly string[] }[] = [];
       station.events$.subscribe({
         next: (e) => {
           if (e.type === 'caution') cautions.push({ kind: e.kind, ...(e.sweep !== undefined ? { sweep: e.sweep } : {}), message: e.message });
+          if (e.type === 'fit' && e.final && e.fit)
+            fits.push({ sweep: e.sweep, model: e.fit.model, plausible: e.fit.plausible, parameters: e.fit.parameters, warnings: e.fit.warnings });
           if (o.json) return;
           if (e.type === 'progress') {
             const eta = e.eta === null ? '' : `, about ${Math.ceil(e.eta)} s left`;
@@ -127,7 +131,7 @@ export function registerRun(program: Command): void {
         );
       }
       const result = await h.done;
-      if (o.json) process.stdout.write(`${JSON.stringify({ session: h.session, dir: h.dir, ...result, cautions })}\n`);
+      if (o.json) process.stdout.write(`${JSON.stringify({ session: h.session, dir: h.dir, ...result, fits, cautions })}\n`);
       else
         process.stdout.write(
           `${progressShown ? '\n' : ''}run ended: ${result.outcome} — ${result.reason} (${result.sweeps} sweep(s) finished)\nexport it: plumbline export ${h.dir}\n`,
