@@ -89,6 +89,17 @@ export function estimateFloor(zero: number[], low: number[], signal: number): { 
   if (all.length < 3) return undefined;
   const s = robustRms(all);
   if (!(s > 0.01 * signal) || signal === 0) return { sigma: s, n: all.length };
+  // Readings of both signs in good measure (a fifth of them or more each way) scatter about zero:
+  // that is noise, whatever the sweep's largest current — a sweep that never leaves its floor (a
+  // sense sweep of an insulator at low bias) has no larger current to measure them against, and a
+  // photocurrent, a built-in field or an offset pushes them all one way.
+  let positive = 0;
+  let negative = 0;
+  for (const c of all) {
+    if (c > 0) positive++;
+    else if (c < 0) negative++;
+  }
+  if (all.length >= 5 && Math.min(positive, negative) >= 0.2 * all.length) return { sigma: s, n: all.length };
   let big = 0;
   for (const c of low) big = Math.max(big, Math.abs(c));
   if (zero.length >= 3) {

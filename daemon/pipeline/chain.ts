@@ -88,15 +88,18 @@ export function summarizeFit(r: FitReport): FitSummary {
 /**
  * Whether every reading sits at one bias (a constant-stress interval): no curve to fit, and the
  * analysis is skipped outright — a stress run's clock keeps running at the stress bias meanwhile.
+ * Readings at compliance or at breakdown (flags `c`) do not count: there the source no longer holds
+ * its bias, and the collapsed voltage of a breakdown would make a stress interval look like a sweep.
  */
-function atOneBias(v: readonly number[]): boolean {
-  if (v.length === 0) return true;
-  let lo = v[0];
-  let hi = v[0];
-  for (let k = 1; k < v.length; k++) {
+function atOneBias(v: readonly number[], c?: readonly number[]): boolean {
+  let lo = Infinity;
+  let hi = -Infinity;
+  for (let k = 0; k < v.length; k++) {
+    if (c && c[k] & (FLAG.compliance | FLAG.breakdown)) continue;
     if (v[k] < lo) lo = v[k];
-    else if (v[k] > hi) hi = v[k];
+    if (v[k] > hi) hi = v[k];
   }
+  if (!(hi >= lo)) return true;
   return hi - lo <= 1e-3 * Math.max(1, Math.abs(hi), Math.abs(lo));
 }
 
@@ -367,7 +370,7 @@ export class LiveChain {
   }
 
   private fitNow(v: number[], i: number[], c: number[], regimes = true, quick = false): { fit: FitSummary | null; error?: string; report?: FitReport } {
-    if (atOneBias(v)) return { fit: null, error: 'every reading is at one bias (a constant-stress interval): there is no current–voltage curve to fit' };
+    if (atOneBias(v, c)) return { fit: null, error: 'every reading is at one bias (a constant-stress interval): there is no current–voltage curve to fit' };
     try {
       const report = analyze(this.data(v, i, c), { ...this.request(regimes), quick });
       return { fit: summarizeFit(report), report };
@@ -406,7 +409,7 @@ export class LiveChain {
   }
 
   private publishView(sweep: number, final: boolean, v: number[], i: number[], c: number[]): void {
-    if (!(this.options.viewsWanted ? this.options.viewsWanted() : this.views$.observed) || atOneBias(v)) return;
+    if (!(this.options.viewsWanted ? this.options.viewsWanted() : this.views$.observed) || atOneBias(v, c)) return;
     try {
       const view = plotView(this.data(v, i, c), this.request(true));
       this.views$.next({ sweep, final, view });
@@ -421,7 +424,7 @@ export class LiveChain {
 
   private publishRanking(force = false, data = { sweep: this.sweep, v: this.v, i: this.i, c: this.c }): void {
     const now = performance.now();
-    if (data.v.length > RANKING_MAX_POINTS || atOneBias(data.v)) return;
+    if (data.v.length > RANKING_MAX_POINTS || atOneBias(data.v, data.c)) return;
     if (!force && now - this.lastRankingAt < RANKING_INTERVAL_MS) {
       // Too soon after the last one (fast sweeps): kept, so the run's last sweep is ranked at its end.
       this.rankingSkipped = data;

@@ -439,3 +439,29 @@ describe('space-charge-limited with an ohmic background (Mott & Gurney 1940; Lam
     expect(r.notes.join(' ')).toMatch(/consistent with 2/);
   });
 });
+
+describe('a sweep that never leaves its noise floor', () => {
+  it('a 0–2 V sense sweep of a 7 nm oxide: readings of either sign are noise, not "too large to be noise", and give the floor', async () => {
+    // At 2 V (2.9 MV/cm) Fowler–Nordheim current through 7 nm of oxide is far below any instrument
+    // (Fowler & Nordheim 1928; Lenzlinger & Snow 1969): every reading is the instrument's floor,
+    // of either sign. With nothing larger in the sweep, the largest reading is itself noise, so
+    // comparing the readings against the bias with it called them a photocurrent in every draw.
+    const { classifySweep } = await import('../../daemon/analysis/sweep-points.js');
+    let quiet = 0;
+    const floors: number[] = [];
+    for (let seed = 1; seed <= 10; seed++) {
+      const s = wholeSweep({ device: fn, thickness: 7e-9, area: 1e-8, bias: linearBias(0, 2, 11), relative: 0.02, floor: 2e-13, seed });
+      const c = classifySweep({ x: s.v, y: s.i });
+      if (!c.notes.some((n) => /too large to be noise/.test(n))) {
+        quiet++;
+        floors.push(c.noise.floor);
+      }
+    }
+    // Readings all of one sign (an offset, a photocurrent) are still called so; for 11 noise
+    // readings fewer than a fifth of one sign happens in 6.5 % of draws (binomial, p = ½).
+    expect(quiet).toBeGreaterThanOrEqual(8);
+    // The robust RMS of about ten readings scatters by a quarter or so: within 3× of the truth.
+    for (const f of floors) expect(f / 2e-13).toBeGreaterThan(1 / 3);
+    for (const f of floors) expect(f / 2e-13).toBeLessThan(3);
+  });
+});
