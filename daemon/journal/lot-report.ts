@@ -280,6 +280,17 @@ function waferMap(name: string, rows: LotRow[], outliers: Set<string>): string {
   const vhi = Math.max(...scaleVals);
   const t = (v: number) => (vhi > vlo ? Math.min(1, Math.max(0, (v - vlo) / (vhi - vlo))) : 0.5);
   const out: string[] = [];
+  // Devices given one position on one wafer are drawn on top of each other: say which.
+  const shared: string[] = [];
+  for (const [w, rs] of wafers) {
+    const at = new Map<string, string[]>();
+    for (const r of rs) {
+      const k = `${r.x}, ${r.y}`;
+      at.set(k, [...(at.get(k) ?? []), r.device]);
+    }
+    for (const [k, ds] of at)
+      if (ds.length > 1) shared.push(`${ds.length} devices at (${k}) on wafer ${w}: ${ds.slice(0, 4).join(', ')}${ds.length > 4 ? ', …' : ''}`);
+  }
   for (const [w, rs] of wafers) {
     const xs = rs.map((r) => r.x as number);
     const ys = rs.map((r) => r.y as number);
@@ -328,7 +339,10 @@ function waferMap(name: string, rows: LotRow[], outliers: Set<string>): string {
   bar.push(
     `<text x="10" y="34">${esc(num(vlo * d.scale, 4))}</text><text x="310" y="34" text-anchor="end">${esc(num(vhi * d.scale, 4))} ${esc(d.unit)}</text></svg>`,
   );
-  return `<div class="plots">${out.join('')}</div>${bar.join('')}<p class="note">Squares: sites, coloured from the lowest value (dark) to the highest (light) and labelled with the value; a thick vermillion border and "!" mark an outlier${clamped ? ' (the colour scale spans the other sites; an outlier beyond it takes its end colour)' : ''}; dashed grey: no value.</p>`;
+  const overlap = shared.length
+    ? `<p class="note warn">Only the last device drawn shows at a position several devices share — ${esc(shared.slice(0, 5).join('; '))}${shared.length > 5 ? `; and ${shared.length - 5} more` : ''}. Correct their x, y (plumbline annotate --device …, or the results file) to see each.</p>`
+    : '';
+  return `<div class="plots">${out.join('')}</div>${bar.join('')}${overlap}<p class="note">Squares: sites, coloured from the lowest value (dark) to the highest (light) and labelled with the value; a thick vermillion border and "!" mark an outlier${clamped ? ' (the colour scale spans the other sites; an outlier beyond it takes its end colour)' : ''}; dashed grey: no value.</p>`;
 }
 
 /**

@@ -234,6 +234,15 @@ describe('lot report', () => {
     // The Weibull plot: one marker per breakdown (the survivor is not plotted).
     expect(html.match(/<circle class="device"/g)).toHaveLength(8);
     expect(html).not.toMatch(/<script/);
+    expect(html).not.toMatch(/several devices share/);
+    // Two devices given one position: the map says so (one square would hide the other).
+    writeSession(data, {
+      label: 'site9',
+      device: { device: 'D9', wafer: 'W07', site: 'S9', x: 0, y: 0, area: 1e-8, thickness: 7e-9 },
+      fits: [{ params: { barrierHeight: [3.12, 0.01, 'eV'] } }],
+    });
+    const again = renderLot(await analyzeLot(new FolderLot([data])), { map: 'barrierHeight' });
+    expect(again).toMatch(/several devices share — 2 devices at \(0, 0\) on wafer W07: D[09], D[09]/);
   });
 
   it("breakdown voltages tied on a ramp's 0.1 V levels: neighbours one step away are not outliers, a far one is", async () => {
