@@ -31,10 +31,15 @@ export function registerRefit(program: Command): void {
   ).action(async (dir: string | undefined, o: Record<string, string | boolean | undefined>) => {
     const [d] = await sessionDirs(dir, o as ArchiveSessionOptions, true);
     const { refitSession } = await import('../../journal/refit.js');
-    const { readInputs, readWindow } = await import('../inputs.js');
+    const { readInputs, readWindow, WINDOW_OPTIONS } = await import('../inputs.js');
     const inputs = Object.fromEntries(Object.entries(readInputs(o as never)).filter(([, v]) => v !== undefined));
     const window = o.auto || o.from !== undefined || o.to !== undefined ? readWindow(o as never) : undefined;
-    const r = refitSession(d, { model: o.model as string | undefined, window, inputs }, o.out !== undefined ? resolve(String(o.out)) : undefined);
+    const r = refitSession(
+      d,
+      { model: o.model as string | undefined, window, inputs },
+      o.out !== undefined ? resolve(String(o.out)) : undefined,
+      WINDOW_OPTIONS,
+    );
     if (o.json) {
       process.stdout.write(`${JSON.stringify(r)}\n`);
       return;
