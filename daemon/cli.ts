@@ -24,6 +24,7 @@ import {
   readCompliance,
   readInputs,
   readWindow,
+  checkWindowSide,
   recordedAnalysis,
   withAnalysisOptions,
 } from './cli/inputs.js';
@@ -134,7 +135,9 @@ withAnalysisOptions(
   if (model === 'custom') enableExpressions();
   if (o.yAxis !== 'log' && o.yAxis !== 'linear') throw new QuantityError('--y-axis', `--y-axis '${o.yAxis}': expected log or linear`);
   // The window the station used, when this is its model and none is given here.
-  const window = readWindow(o, model === 'arrhenius') ?? (recorded && recorded.model === model ? recorded.window : undefined);
+  const given = readWindow(o, model === 'arrhenius');
+  checkWindowSide(model, given, inputs.flatBand);
+  const window = given ?? (recorded && recorded.model === model ? recorded.window : undefined);
   const report = analyze(data, {
     model: model,
     inputs,
@@ -155,9 +158,11 @@ withAnalysisOptions(
 ).action((file: string, o: AnalysisOptions) => {
   const { data, notes, firstSeq } = loadData(file, o);
   const inputs = mergeInputs(readInputs(o), recordedAnalysis(file, firstSeq, o.allSweeps === true), notes);
+  const window = readWindow(o);
+  checkWindowSide(undefined, window, inputs.flatBand);
   const ranking = rankMechanisms(data, {
     inputs,
-    window: readWindow(o),
+    window,
     accuracy: readAccuracy(o),
     complianceLimit: readCompliance(o),
   });
@@ -229,7 +234,7 @@ export async function main(argv: string[]): Promise<number> {
     }
     if (e instanceof AnalysisError) {
       process.stderr.write(`plumbline ${cmd}: ${e.message}${e.field ? ` [${e.field}]` : ''}\n`);
-      return e.code === 'UNKNOWN_MODEL' || e.code === 'MISSING_INPUT' || e.code === 'BAD_EXPRESSION' ? 2 : 1;
+      return e.code === 'UNKNOWN_MODEL' || e.code === 'MISSING_INPUT' || e.code === 'BAD_EXPRESSION' || e.code === 'BAD_WINDOW' ? 2 : 1;
     }
     process.stderr.write(`plumbline ${cmd}: unexpected error: ${(e as Error).stack ?? String(e)}\n`);
     return 1;

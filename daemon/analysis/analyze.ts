@@ -320,6 +320,49 @@ export function analyze(data: IVData, request: FitRequest): FitReport {
   return analyzeDetailed(data, request).report;
 }
 
+/** How a window's two ends are called where the window came from, and how to write one. */
+export interface WindowNames {
+  readonly from: string;
+  readonly to: string;
+  readonly write: (from: number, to: number) => string;
+}
+
+/** The settings' names (station config, the REST API, the page): the fields of `window`. */
+export const WINDOW_FIELDS: WindowNames = {
+  from: 'window.from',
+  to: 'window.to',
+  write: (from, to) => `"window": { "from": ${fmt(from)}, "to": ${fmt(to)} }`,
+};
+
+/**
+ * The one rule for a manual window against the branches: a mechanism read on one polarity (bias
+ * 'magnitude': each branch, V − V_FB of one sign, is fitted on its own, so that |V − V_FB| is the
+ * mechanism's bias) takes a window on one side of zero bias (of the flat band, when one is given).
+ * A window reaching from one branch into the other is not one window: it would be cut into a piece
+ * on each branch. Returns what is wrong, naming the settings as `names` calls them and what to give
+ * instead, or undefined when the window is fine. `mech` undefined: every mechanism ranked (all of
+ * them read one polarity).
+ */
+export function windowAcrossBranches(
+  mech: Pick<Mechanism, 'bias'> | undefined,
+  window: WindowRequest | undefined,
+  flatBand = 0,
+  names: WindowNames = WINDOW_FIELDS,
+): string | undefined {
+  if (typeof window !== 'object' || (mech !== undefined && mech.bias !== 'magnitude')) return undefined;
+  const lo = Math.min(window.from ?? -Infinity, window.to ?? Infinity) - flatBand;
+  const hi = Math.max(window.from ?? -Infinity, window.to ?? Infinity) - flatBand;
+  if (!(lo < 0 && hi > 0)) return undefined;
+  const ends = [lo, hi].filter(Number.isFinite).map(Math.abs);
+  const m = Math.max(...ends);
+  const span = `${window.from ?? '−∞'} to ${window.to ?? '∞'} V`;
+  const zero = flatBand === 0 ? 'zero bias' : `the flat band (${fmt(flatBand)} V)`;
+  return (
+    `${names.from}/${names.to}: the window ${span} spans ${zero}; a window must lie on one side of ${flatBand === 0 ? 'zero bias' : 'it'} (one branch: each polarity is fitted on its own), ` +
+    `e.g. ${names.write(flatBand + m / 2, flatBand + m)} or ${names.write(flatBand - m, flatBand - m / 2)}`
+  );
+}
+
 /** The default window of a mechanism: automatic for mechanisms of the current, all points otherwise. */
 export function defaultWindow(mech: Mechanism): 'auto' | 'all' {
   return mech.current ? 'auto' : 'all';
@@ -407,10 +450,10 @@ export function analyzeDetailed(data: IVData, request: FitRequest): DetailedFit 
   if (mech.bias !== 'magnitude' || custom) branches = [];
   else if (request.polarity !== undefined) branches = [request.polarity > 0 ? classes.positive : classes.negative];
   else if (manual) {
-    const lo = Math.min(manual.from ?? -Infinity, manual.to ?? Infinity) - inputs.flatBand;
+    const across = windowAcrossBranches(mech, manual, inputs.flatBand);
+    if (across) throw new AnalysisError('BAD_WINDOW', across, 'window');
     const hi = Math.max(manual.from ?? -Infinity, manual.to ?? Infinity) - inputs.flatBand;
-    if (hi > 0 && lo < 0) branches = chooseBranches(classes, !!mech.forwardOnly, 0);
-    else branches = [hi > 0 ? classes.positive : classes.negative];
+    branches = [hi > 0 ? classes.positive : classes.negative];
   } else branches = chooseBranches(classes, !!mech.forwardOnly);
   if (request.eachBranch === false || mech.forwardOnly) branches = branches.slice(0, 1);
 

@@ -1,5 +1,5 @@
 /** Coded errors raised by the analysis layer. The codes are stable and listed in DEVELOPERS.md. */
-export type AnalysisErrorCode = 'TOO_FEW_POINTS' | 'DEGENERATE_X' | 'BAD_INPUT' | 'MISSING_INPUT' | 'UNKNOWN_MODEL' | 'BAD_EXPRESSION';
+export type AnalysisErrorCode = 'TOO_FEW_POINTS' | 'DEGENERATE_X' | 'BAD_INPUT' | 'MISSING_INPUT' | 'UNKNOWN_MODEL' | 'BAD_EXPRESSION' | 'BAD_WINDOW';
 
 export class AnalysisError extends Error {
   readonly code: AnalysisErrorCode;

@@ -5,6 +5,7 @@ import type { Ranking } from '../analysis/ranking.js';
 import type { DiodeReport, SolarReport } from '../analysis/diode-fit.js';
 import { axisLabel, displayUnit, formatInputs, formatParameterText, prettyUnit } from '../../protocols/display-units.js';
 import { formatNumber } from '../../protocols/number-format.js';
+import type { FitSummary } from '../../protocols/wire.js';
 
 /** Numbers in text output: the formatter the page and the report use too. */
 export function num(v: number, digits = 5): string {
@@ -43,6 +44,26 @@ function lineUnits(x: string, y: string, logY: boolean): { slope: string; interc
   const simple = (u: string) => /^[A-Za-z]+(\^\d+)?$/.test(u);
   const per = !xs ? yu : prettyUnit(`${y === '1' ? '1' : simple(y) ? y : `(${y})`}/${simple(xs) ? xs : `(${xs})`}`);
   return { slope: sp(per), intercept: sp(yu), y: sp(yu) };
+}
+
+/**
+ * The last line under an implausible fit, wherever fits are printed (fit, refit): a wrong answer is
+ * never silent. `which` names the sweeps it concerns when there are several.
+ */
+export function notPlausibleLine(which?: string): string {
+  return `NOT PLAUSIBLE${which ? ` (${which})` : ''}: the parameters above do not describe this device as fitted (see the warnings)`;
+}
+
+/**
+ * One sweep's fit on one line, as `run` and `refit` print it: the model, the points fitted, the
+ * first three parameters (a missing uncertainty named) and " — NOT PLAUSIBLE" when the analysis
+ * marks the fit so; the warnings that say why follow it, as each command lays them out.
+ */
+export function formatSweepFit(label: string, fit: Pick<FitSummary, 'model' | 'line' | 'parameters' | 'plausible'>): string {
+  const p = Object.entries(fit.parameters)
+    .slice(0, 3)
+    .map(([k, v]) => `${k} = ${formatParameterText(v, k)}${v.stdErr === null || !Number.isFinite(v.stdErr) ? ' (uncertainty not determined)' : ''}`);
+  return `${label}: ${fit.model} fit on ${fit.line.n} points${p.length ? `, ${p.join(', ')}` : ''}${fit.plausible ? '' : ' — NOT PLAUSIBLE'}`;
 }
 
 export function formatFit(r: FitReport): string {
@@ -92,7 +113,7 @@ export function formatFit(r: FitReport): string {
   for (const n of r.notes) out.push(`note:       ${n}`);
   for (const w of r.warnings) out.push(`warning:    ${w}`);
   // A wrong answer is never silent: the last line says so when the analysis marks the fit implausible.
-  if (!r.plausible) out.push('NOT PLAUSIBLE: the parameters above do not describe this device as fitted (see the warnings)');
+  if (!r.plausible) out.push(notPlausibleLine());
   return out.join('\n');
 }
 

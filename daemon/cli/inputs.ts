@@ -7,8 +7,9 @@ import { createRequire } from 'node:module';
 import { dirname, join, resolve } from 'node:path';
 import type { Command } from 'commander';
 import type { AccuracySpec } from '../analysis/accuracy.js';
-import { INPUT_RANGE, type IVData, type WindowRequest } from '../analysis/analyze.js';
-import type { Inputs } from '../analysis/mechanism.js';
+import { INPUT_RANGE, type IVData, type WindowNames, type WindowRequest, windowAcrossBranches } from '../analysis/analyze.js';
+import { fmt, type Inputs } from '../analysis/mechanism.js';
+import { getMechanism, MODEL_IDS } from '../analysis/mechanisms/index.js';
 import { columnIdentifiers, setExpressionEngine } from '../analysis/mechanisms/custom.js';
 import { readCsvTable } from '../../protocols/csv-file.js';
 import { columnIndex, CsvError, notNumberText, requireNumeric, type CsvTable } from '../../protocols/csv-table.js';
@@ -116,6 +117,20 @@ export function readWindow(o: AnalysisOptions, xIsTemperature = false): WindowRe
     from: o.from === undefined ? undefined : parseQuantity(o.from, kind, '--from'),
     to: o.to === undefined ? undefined : parseQuantity(o.to, kind, '--to'),
   };
+}
+
+/** The command line's names for a window's ends. */
+export const WINDOW_OPTIONS: WindowNames = { from: '--from', to: '--to', write: (from, to) => `--from ${fmt(from)} --to ${fmt(to)}` };
+
+/**
+ * Refuses (exit 2) a --from/--to window that reaches across zero bias for a mechanism read on one
+ * polarity (windowAcrossBranches, the rule the settings and the fit apply too); `model` undefined:
+ * every ranked mechanism. Models the analysis does not know (the diode-curve fits) and the custom model (its x is any expression) are not checked.
+ */
+export function checkWindowSide(model: string | undefined, window: WindowRequest | undefined, flatBand: number | undefined): void {
+  if (model !== undefined && (!MODEL_IDS.includes(model) || model === 'custom')) return;
+  const across = windowAcrossBranches(model === undefined ? undefined : getMechanism(model), window, flatBand ?? 0, WINDOW_OPTIONS);
+  if (across) throw new UsageError(across);
 }
 
 export function readAccuracy(o: AnalysisOptions): AccuracySpec | undefined {

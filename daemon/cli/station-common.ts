@@ -9,6 +9,7 @@ import type { WireEvent } from '../../protocols/wire.js';
 import type { StationConfig } from '../run/config.js';
 import type { Station } from '../run/station.js';
 import { UsageError } from './usage.js';
+import { formatSweepFit } from './format.js';
 import { numberRows, resultFigureRows, rowText } from '../../protocols/breakdown-display.js';
 import { formatParameterText, formatQuantity } from '../../protocols/display-units.js';
 
@@ -167,11 +168,8 @@ export function describe(e: WireEvent): string | undefined {
     case 'fit': {
       if (!e.final) return undefined;
       if (!e.fit) return `sweep ${e.sweep}: no fit (${e.error})`;
-      const p = Object.entries(e.fit.parameters)
-        .slice(0, 3)
-        .map(([k, v]) => `${k} = ${formatParameterText(v, k)}${v.stdErr === null || !Number.isFinite(v.stdErr) ? ' (uncertainty not determined)' : ''}`);
       // A wrong answer is never silent: an implausible fit says so, with every warning.
-      const head = `sweep ${e.sweep}: ${e.fit.model} fit on ${e.fit.line.n} points${p.length ? `, ${p.join(', ')}` : ''}${e.fit.plausible ? '' : ' — NOT PLAUSIBLE'}`;
+      const head = formatSweepFit(`sweep ${e.sweep}`, e.fit);
       const lines = [head, ...e.fit.warnings.map((w) => `         warning: ${w}`)];
       // An illuminated cell (analysis option solar): its figures of merit, in the trade's units.
       if (e.solar) {

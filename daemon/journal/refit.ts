@@ -7,7 +7,8 @@
  */
 import { writeFileSync } from 'node:fs';
 import { join } from 'node:path';
-import { analyze, resolveInputs, type FitRequest } from '../analysis/analyze.js';
+import { analyze, resolveInputs, type FitRequest, WINDOW_FIELDS, type WindowNames, windowAcrossBranches } from '../analysis/analyze.js';
+import { AnalysisError } from '../analysis/errors.js';
 import { getMechanism } from '../analysis/mechanisms/index.js';
 import { temperatureFromText } from '../analysis/temperature-series.js';
 import type { FitSummary } from '../../protocols/wire.js';
@@ -36,8 +37,17 @@ export interface RefitResult {
   readonly file: string;
 }
 
-/** Refits every sweep; `override` replaces fields of the session's own analysis settings. */
-export function refitSession(dir: string, override: Partial<Pick<FitRequest, 'model' | 'window' | 'inputs'>>, out?: string): RefitResult {
+/**
+ * Refits every sweep; `override` replaces fields of the session's own analysis settings. A window
+ * given that reaches across zero bias is refused before any work (BAD_WINDOW), its ends called
+ * as `windowNames` says (the command line passes its options' names).
+ */
+export function refitSession(
+  dir: string,
+  override: Partial<Pick<FitRequest, 'model' | 'window' | 'inputs'>>,
+  out?: string,
+  windowNames: WindowNames = WINDOW_FIELDS,
+): RefitResult {
   const s = loadSession(dir);
   const base = (s.analysis ?? {}) as { model?: string; window?: FitRequest['window']; inputs?: FitRequest['inputs'] };
   const given = override.inputs ?? {};
@@ -48,6 +58,8 @@ export function refitSession(dir: string, override: Partial<Pick<FitRequest, 'mo
     complianceLimit: s.complianceLimit,
   };
   const mech = getMechanism(request.model); // an unknown model is refused before any work (UNKNOWN_MODEL)
+  const across = windowAcrossBranches(mech, override.window, request.inputs?.flatBand ?? 0, windowNames);
+  if (across) throw new AnalysisError('BAD_WINDOW', across, 'window');
   const sourceOf = (k: string): InputSource => (k in given ? 'given' : base.inputs && k in base.inputs ? 'session' : 'default');
   const sweeps: RefitSweep[] = s.sweeps.map((sw) => {
     let T: { value: number; source: InputSource } | undefined;

@@ -1,8 +1,9 @@
 /**
  * Passive sources into the live chain: lines another program writes (a growing CSV, stdin, a
  * serial or TCP stream) → readings (CsvRowMapper; malformed rows journaled as rejected with their
- * line number and skipped) → sweeps found from direction reversals of the bias → the same chain,
- * journal and page as a live run, with no control of the instrument.
+ * line number and skipped) → sweeps found from direction reversals of the bias and from steps of
+ * the temperature column → the same chain, journal and page as a live run, with no control of the
+ * instrument.
  */
 import { fromEvent, merge, map, takeUntil, type Subscription } from 'rxjs';
 import type { ColumnMapping } from '../../protocols/csv-rows.js';
@@ -40,9 +41,54 @@ export class ReversalSegmenter {
     return false;
   }
 
+  /** A new sweep was begun at v for another reason (a temperature step): its direction is not known yet. */
+  restartAt(v: number): void {
+    this.last = v;
+    this.dir = 0;
+  }
+
   reset(): void {
     this.last = undefined;
     this.dir = 0;
+  }
+}
+
+/** Kelvin: a temperature series is taken at set points several kelvin apart (common practice). */
+export const DEFAULT_TEMPERATURE_STEP = 2;
+
+/**
+ * Finds the reading at which the temperature column steps to a new set point: one further than
+ * `step` K from the mean of the open sweep's last few temperatures starts a new sweep. The bias
+ * alone cannot place the reading where a sweep turns: sweeps taken up at one temperature and down
+ * at the next (or out and back, the next starting where the last ended) repeat the turning bias,
+ * and that repeated reading belongs to the next temperature. A chuck wandering a few tenths of a
+ * kelvin about its set point, or drifting slowly through a sweep, starts nothing.
+ */
+export class TemperatureSteps {
+  private recent: number[] = [];
+
+  constructor(
+    readonly step = DEFAULT_TEMPERATURE_STEP,
+    readonly span = 5,
+  ) {}
+
+  /** Whether t has stepped away from the open sweep's temperatures (the first reading never has). */
+  stepped(t: number): boolean {
+    if (this.recent.length === 0) return false;
+    let sum = 0;
+    for (const x of this.recent) sum += x;
+    return Math.abs(t - sum / this.recent.length) > this.step;
+  }
+
+  /** Records t as the open sweep's; `fresh` when it is the first reading of a new sweep. */
+  add(t: number, fresh: boolean): void {
+    if (fresh) this.recent = [];
+    this.recent.push(t);
+    if (this.recent.length > this.span) this.recent.shift();
+  }
+
+  reset(): void {
+    this.recent = [];
   }
 }
 
@@ -59,9 +105,11 @@ export function feedPassive(
   chain: LiveChain,
   mapping: ColumnMapping,
   where: string,
+  temperatureStep = DEFAULT_TEMPERATURE_STEP,
 ): { stats: PassiveStats; done: Promise<void>; stop(): void } {
   const mapper = new CsvRowMapper(mapping);
   const seg = new ReversalSegmenter();
+  const temps = new TemperatureSteps(temperatureStep);
   const stats: PassiveStats = { lines: 0, readings: 0, rejected: 0, sweeps: 0 };
   let open = false;
   let tSum = 0;
@@ -106,6 +154,7 @@ export function feedPassive(
           endSweep(x.notice);
           mapper.reset();
           seg.reset();
+          temps.reset();
           chain.emit({ type: 'caution', kind: 'passive-source', message: x.notice });
           return;
         }
@@ -124,7 +173,11 @@ export function feedPassive(
           return;
         }
         if (r.kind !== 'reading') return;
-        if (seg.next(r.reading.v)) {
+        // Both rules see every reading; either one starts a sweep at this reading.
+        const stepped = r.temperature !== undefined && temps.stepped(r.temperature);
+        const turned = seg.next(r.reading.v);
+        if (stepped && !turned) seg.restartAt(r.reading.v);
+        if (stepped || turned) {
           endSweep();
           stats.sweeps++;
           chain.startSweep(stats.sweeps, 0, `sweep ${stats.sweeps} (from ${where})`);
@@ -132,6 +185,7 @@ export function feedPassive(
         }
         chain.reading(r.reading.v, r.reading.i, r.compliance, r.reading.overflow);
         if (r.temperature !== undefined) {
+          temps.add(r.temperature, tN === 0);
           tSum += r.temperature;
           tN++;
         }

@@ -5,7 +5,8 @@
 import { z } from 'zod';
 import { DEFAULT_BREAKDOWN } from '../analysis/breakdown.js';
 import { DEFAULT_DRIFT } from '../analysis/drift.js';
-import { MODEL_IDS } from '../analysis/mechanisms/index.js';
+import { windowAcrossBranches } from '../analysis/analyze.js';
+import { getMechanism, MODEL_IDS } from '../analysis/mechanisms/index.js';
 
 const positive = z.number().positive().finite();
 
@@ -41,7 +42,13 @@ export const analysisSchema = z
      */
     solar: z.object({ irradiance: positive.optional() }).strict().optional(),
   })
-  .strict();
+  .strict()
+  .superRefine((a, ctx) => {
+    // A window must lie on one branch: the same rule as the fit itself and the command line.
+    if (!MODEL_IDS.includes(a.model) || a.model === 'custom') return;
+    const across = windowAcrossBranches(getMechanism(a.model), a.window, a.inputs.flatBand ?? 0);
+    if (across) ctx.addIssue({ code: 'custom', path: ['window'], message: across });
+  });
 
 export type AnalysisSettings = z.infer<typeof analysisSchema>;
 

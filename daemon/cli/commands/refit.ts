@@ -4,8 +4,14 @@
 import { resolve } from 'node:path';
 import type { Command } from 'commander';
 import { sessionDirs, withArchiveSessions, type ArchiveSessionOptions } from '../lab.js';
-import { formatInputs, formatParameterText } from '../../../protocols/display-units.js';
+import { formatInputs } from '../../../protocols/display-units.js';
+import { formatSweepFit, notPlausibleLine } from '../format.js';
 import { formatNumber } from '../../../protocols/number-format.js';
+
+/** "sweep 2", "sweeps 1, 2, 3", "sweeps 1, 2, 3, 4, 5 … 40". */
+function sweepList(list: readonly number[]): string {
+  return `sweep${list.length > 1 ? 's' : ''} ${list.length > 6 ? `${list.slice(0, 5).join(', ')} … ${list.at(-1)}` : list.join(', ')}`;
+}
 
 export function registerRefit(program: Command): void {
   withArchiveSessions(
@@ -31,10 +37,15 @@ export function registerRefit(program: Command): void {
   ).action(async (dir: string | undefined, o: Record<string, string | boolean | undefined>) => {
     const [d] = await sessionDirs(dir, o as ArchiveSessionOptions, true);
     const { refitSession } = await import('../../journal/refit.js');
-    const { readInputs, readWindow } = await import('../inputs.js');
+    const { readInputs, readWindow, WINDOW_OPTIONS } = await import('../inputs.js');
     const inputs = Object.fromEntries(Object.entries(readInputs(o as never)).filter(([, v]) => v !== undefined));
     const window = o.auto || o.from !== undefined || o.to !== undefined ? readWindow(o as never) : undefined;
-    const r = refitSession(d, { model: o.model as string | undefined, window, inputs }, o.out !== undefined ? resolve(String(o.out)) : undefined);
+    const r = refitSession(
+      d,
+      { model: o.model as string | undefined, window, inputs },
+      o.out !== undefined ? resolve(String(o.out)) : undefined,
+      WINDOW_OPTIONS,
+    );
     if (o.json) {
       process.stdout.write(`${JSON.stringify(r)}\n`);
       return;
@@ -51,22 +62,19 @@ export function registerRefit(program: Command): void {
       used.push(`temperature ${[...temps.entries()].map(([src, n]) => `${src} for ${n} sweep(s)`).join(', ')}`);
     }
     if (used.length) process.stdout.write(`inputs: ${used.join('; ')}\n`);
+    // Each sweep as `run` prints its fits (formatSweepFit: the NOT PLAUSIBLE mark included).
     for (const sw of r.sweeps) {
-      const p = sw.fit
-        ? Object.entries(sw.fit.parameters)
-            .slice(0, 3)
-            .map(([k, v]) => `${k} ${formatParameterText(v, k)}`)
-            .join(', ')
-        : `no fit: ${sw.error}`;
+      const label = `  sweep ${String(sw.sweep).padStart(3)}`;
+      const p = sw.fit ? formatSweepFit(label, sw.fit) : `${label}: no fit: ${sw.error}`;
       const t = sw.temperature.source === 'note' ? ` (T = ${formatNumber(sw.temperature.value, 5)} K from its note)` : '';
-      process.stdout.write(`  sweep ${String(sw.sweep).padStart(3)}: ${p}${t}\n`);
+      process.stdout.write(`${p}${t}\n`);
     }
     // Warnings once each, with the sweeps they concern.
     const warned = new Map<string, number[]>();
     for (const sw of r.sweeps) for (const w of sw.warnings) warned.set(w, [...(warned.get(w) ?? []), sw.sweep]);
-    for (const [w, list] of warned)
-      process.stdout.write(
-        `warning (sweep${list.length > 1 ? 's' : ''} ${list.length > 6 ? `${list.slice(0, 5).join(', ')} … ${list.at(-1)}` : list.join(', ')}): ${w}\n`,
-      );
+    for (const [w, list] of warned) process.stdout.write(`warning (${sweepList(list)}): ${w}\n`);
+    // As fit's last line: the sweeps whose parameters do not describe the device, the warnings above saying why.
+    const implausible = r.sweeps.filter((sw) => sw.fit && !sw.fit.plausible).map((sw) => sw.sweep);
+    if (implausible.length) process.stdout.write(`${notPlausibleLine(sweepList(implausible))}\n`);
   });
 }

@@ -18,6 +18,10 @@ export function registerWatch(program: Command): void {
     .option('--current <col>', 'current column (default: the second)')
     .option('--compliance-column <col>', 'column flagging readings at compliance (non-zero)')
     .option('--temperature-column <col>', 'column with the device temperature in K: each sweep gets a note "T = … K" (for plumbline tseries)')
+    .option(
+      '--temperature-step <kelvin>',
+      "with --temperature-column: a reading this many kelvin from the sweep's recent temperatures starts a new sweep (default 2)",
+    )
     .option('--model <id>', "live-fit model (default: the config's)")
     .option('--thickness <q>', 'film thickness, e.g. "8 nm" (the live fit\'s input; default: the config\'s)')
     .option('--area <q>', 'device area, e.g. "1e-4 cm^2"')
@@ -50,6 +54,7 @@ export function registerWatch(program: Command): void {
           current?: string;
           complianceColumn?: string;
           temperatureColumn?: string;
+          temperatureStep?: string;
           model?: string;
           config?: string;
           data?: string;
@@ -69,7 +74,14 @@ export function registerWatch(program: Command): void {
         const log = Log.from(o);
         const config = await stationConfig({ config: o.config });
         const { dataDir, Station, startServer } = await daemonModules();
-        const { feedPassive } = await import('../../pipeline/passive.js');
+        const { feedPassive, DEFAULT_TEMPERATURE_STEP } = await import('../../pipeline/passive.js');
+        let temperatureStep = DEFAULT_TEMPERATURE_STEP;
+        if (o.temperatureStep !== undefined) {
+          temperatureStep = Number(o.temperatureStep);
+          if (o.temperatureStep.trim() === '' || !(temperatureStep > 0) || !Number.isFinite(temperatureStep))
+            throw new UsageError(`--temperature-step '${o.temperatureStep}': expected a positive number of kelvin, e.g. 2`);
+          if (o.temperatureColumn === undefined) throw new UsageError('--temperature-step needs --temperature-column (the column it watches)');
+        }
         const { fileLines, streamLines, tcpLines, serialLines, parseSourceSpec } = await import('../../../protocols/line-source.js');
         const { existsSync } = await import('node:fs');
         let src: ReturnType<typeof parseSourceSpec>;
@@ -138,6 +150,7 @@ export function registerWatch(program: Command): void {
           passive.chain,
           { voltage: o.voltage, current: o.current, compliance: o.complianceColumn, temperature: o.temperatureColumn },
           where,
+          temperatureStep,
         );
         log.notice(`watching ${where} → session ${passive.session}`);
         log.notice(`folder ${passive.dir}`);
