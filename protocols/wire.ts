@@ -115,6 +115,8 @@ export type CautionKind =
   /** The drift watch's baseline sweeps themselves trend (their limits are wide). */
   | 'drift-baseline-trend'
   | 'drift-limit'
+  /** The drift watch is on but the fit gives no parameter it can follow (or not the configured one). */
+  | 'drift-not-watched'
   | 'instrument-fault'
   | 'journal-fault'
   /** Output off was sent but the instrument did not confirm it. */

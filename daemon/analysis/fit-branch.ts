@@ -743,7 +743,8 @@ export function fitBranch(
 
   // ---- window-choice uncertainty --------------------------------------------------------------
   const qLine = q === p ? line : scaleLine(line, n / nq);
-  const windowErr = request.mode === 'all' || request.quick ? {} : windowSpread(mech, inputs, q, s, e, joint, diode, qLine, absolute, weighted, all);
+  const spread = request.mode === 'all' || request.quick ? undefined : windowSpread(mech, inputs, q, s, e, joint, diode, qLine, absolute, weighted, all);
+  const windowErr = spread?.parameters ?? {};
   const parameters: Record<string, ParameterValue> = {};
   for (const [k, v] of Object.entries(extraction.parameters)) {
     const u = windowErr[k] ?? 0;
@@ -830,9 +831,38 @@ export function fitBranch(
       plausible = false;
     }
   }
+  let zeroCurrent = false;
+  if (mech.current && mech.yKind === 'linear' && !mech.linearScale && used.raw.length > 0) {
+    // A line through the current itself (ohmic): its slope is the conductance, and an estimate
+    // less than twice its uncertainty is not distinguishable from zero (a 95 % test, common
+    // practice). The resistance, its reciprocal, hides that: its first-order error stays finite as
+    // the slope nears zero. Such a window holds the noise floor, not a resistance.
+    const se = Math.hypot(line.slopeStdErr, spread?.slope ?? 0);
+    if (!(Math.abs(line.slope) >= 2 * se)) {
+      let lo = Infinity;
+      let hi = -Infinity;
+      for (let k = 0; k < used.raw.length; k++) {
+        lo = Math.min(lo, used.raw[k]);
+        hi = Math.max(hi, used.raw[k]);
+      }
+      const offset = Math.abs(line.intercept) >= 2 * line.interceptStdErr;
+      const floor = classes.noise.floor > 0 ? ` (the noise floor: σ = ${fmt(classes.noise.floor)} A)` : ' (the noise floor)';
+      warnings.push(
+        `${
+          offset
+            ? `the current from ${fmt(lo)} to ${fmt(hi)} V does not change with the bias distinguishably from zero: it is an offset of ${fmt(line.intercept)} A`
+            : `the current from ${fmt(lo)} to ${fmt(hi)} V is indistinguishable from zero${floor}`
+        }: the slope ${fmt(line.slope)} ± ${fmt(se)} A/V is less than twice its uncertainty, so no resistance is measured there; give a window where the current rises above the floor (--from/--to, or the window on the page), or compare mechanisms (plumbline rank)`,
+      );
+      plausible = false;
+      zeroCurrent = true;
+    }
+  }
   const mainKey = Object.keys(extraction.parameters)[0];
   const main = mainKey !== undefined ? parameters[mainKey] : undefined;
-  if (main && !(main.stdErr <= 0.5 * Math.abs(main.value))) {
+  // An estimate under twice its uncertainty is not distinguishable from zero (a 95 % test, common
+  // practice); said above already when it is the current itself.
+  if (main && !zeroCurrent && !(main.stdErr <= 0.5 * Math.abs(main.value))) {
     warnings.push(
       `${mainKey} is not determined by these data (${fmt(main.value)} ± ${fmt(main.stdErr)}${main.unit && main.unit !== '1' ? ` ${main.unit}` : ''})`,
     );
@@ -1006,7 +1036,8 @@ function extendWithTerms(
 /**
  * Window-choice uncertainty of each parameter: ends moved by ±δ and ±2δ (δ = 5 % of the window's
  * points, at least one), each variant admissible (at least 5 points, straight within the noise),
- * fitted as a line on the data with the extra terms held at their fitted values.
+ * fitted as a line on the data with the extra terms held at their fitted values; and the same of
+ * the line's slope.
  */
 function windowSpread(
   mech: Mechanism,
@@ -1020,7 +1051,7 @@ function windowSpread(
   absolute: boolean,
   weighted: boolean,
   all: FitPoints,
-): Record<string, number> {
+): { parameters: Record<string, number>; slope: number } {
   const n = p.x.length;
   const len = e - s + 1;
   const delta = Math.max(1, Math.round(0.05 * len));
@@ -1037,7 +1068,7 @@ function windowSpread(
     return lineOf(l.intercept, l.slope, va, vb, cab, l.n, l.n - 2, l.chi2, l.meanX, l.intercept + l.slope * l.meanX, l.sxx, 1);
   };
   const ref = lineAt(s, e);
-  if (!ref) return {};
+  if (!ref) return { parameters: {}, slope: 0 };
   const quiet = (line: LineFit, a: number, b: number): Extraction | undefined => {
     try {
       return mech.extract({ line, used: pointsOf(p, a, b), all, inputs });
@@ -1046,8 +1077,10 @@ function windowSpread(
     }
   };
   const ex0 = quiet(ref, s, e);
-  if (!ex0) return {};
+  if (!ex0) return { parameters: {}, slope: 0 };
   const sums: Record<string, { d2: number; v: number; k: number }> = {};
+  // The line's own slope too (the same spread, before any parameter is made of it).
+  const slope = { d2: 0, v: 0, k: 0 };
   for (const [ds, de] of [
     [-delta, 0],
     [delta, 0],
@@ -1066,6 +1099,9 @@ function windowSpread(
     if (!l) continue;
     const ex = quiet(l, a, b);
     if (!ex) continue;
+    slope.d2 += (l.slope - ref.slope) ** 2;
+    slope.v += Math.abs(l.slopeStdErr ** 2 - ref.slopeStdErr ** 2);
+    slope.k++;
     for (const [k, v] of Object.entries(ex.parameters)) {
       const r = ex0.parameters[k];
       if (!r || !Number.isFinite(v.value) || !Number.isFinite(r.value)) continue;
@@ -1080,7 +1116,7 @@ function windowSpread(
     if (acc.k === 0) continue;
     out[k] = Math.sqrt(Math.max(0, (acc.d2 - acc.v) / acc.k));
   }
-  return out;
+  return { parameters: out, slope: slope.k ? Math.sqrt(Math.max(0, (slope.d2 - slope.v) / slope.k)) : 0 };
 }
 
 /** Median-based point-to-point scatter of y (model-free; x ascending). */

@@ -120,6 +120,8 @@ export class LiveChain {
   private drift: DriftChart | undefined;
   /** The parameter the drift chart's baseline belongs to (a new one restarts the baseline). */
   private driftParameter: string | undefined;
+  /** Whether the drift watch has said it has nothing to follow (once per model and inputs). */
+  private driftUnwatchedSaid = false;
   private readonly breakdown: BreakdownWatch | undefined;
   // Current sweep.
   private sweep = 0;
@@ -477,6 +479,7 @@ export class LiveChain {
   private chartDrift(fit: FitSummary | null): Decision | undefined {
     if (!this.drift) return undefined;
     const cfg = this.options.drift;
+    if (fit) this.checkDriftParameter(fit);
     const name = cfg.parameter ?? (fit ? Object.keys(fit.parameters)[0] : undefined);
     if (name === undefined) return undefined;
     if (this.driftParameter !== undefined && name !== this.driftParameter) {
@@ -537,6 +540,26 @@ export class LiveChain {
     return undefined;
   }
 
+  /**
+   * A drift watch that is on but has nothing to follow says so, once: the model's fit gives no
+   * parameter at all (a straight line through the raw columns), or not the one `drift.parameter`
+   * names. Otherwise the watch would do nothing in silence while the config says it guards the run.
+   */
+  private checkDriftParameter(fit: FitSummary): void {
+    if (this.driftUnwatchedSaid) return;
+    const cfg = this.options.drift;
+    const names = Object.keys(fit.parameters);
+    if (cfg.parameter === undefined ? names.length > 0 : names.includes(cfg.parameter)) return;
+    this.driftUnwatchedSaid = true;
+    const action = `action '${cfg.action}'`;
+    const model = `set the analysis model (--model, the page's Analysis form, or analysis.model in the station config)`;
+    const message =
+      cfg.parameter === undefined
+        ? `The drift watch is on (${action}) but the ${fit.model} fit gives no parameter to follow, so no drift is watched in this run. To watch drift, ${model} to one whose fit gives parameters, or turn the watch off (drift.enabled false in the station config).`
+        : `The drift watch follows '${cfg.parameter}' (drift.parameter in the station config, ${action}), but the ${fit.model} fit of sweep ${this.sweep} gives ${names.length ? names.map((n) => `'${n}'`).join(', ') : 'no parameter'}: '${cfg.parameter}' is not watched. Set drift.parameter to ${names.length ? 'one of these' : "a parameter the model's fit gives"}, or ${model} to one whose fit gives '${cfg.parameter}'.`;
+    this.emit({ type: 'caution', kind: 'drift-not-watched', sweep: this.sweep, message });
+  }
+
   /** Asks the run to stop after the current sweep. */
   requestStop(reason: string): void {
     this.stopRequested = { action: 'stop-after-sweep', outcome: 'stopped', reason };
@@ -551,6 +574,7 @@ export class LiveChain {
       // Another model, or other inputs to it: the charted values change meaning, so the baseline starts again.
       this.drift = new DriftChart(this.options.drift);
       this.driftParameter = undefined;
+      this.driftUnwatchedSaid = false;
     }
     this.analysis = a;
     this.mech = mech;

@@ -417,3 +417,21 @@ describe('fitting an exported session: the settings recorded beside it', () => {
     expect(recordedAnalysis(file, 50)?.notes.join(' ')).toMatch(/not readable as JSON/);
   });
 });
+
+describe('an ohmic line on the noise floor', () => {
+  it('demo on the simulated trap-assisted-tunnelling oxide: the ranking marks ohmic not plausible, saying the current there is indistinguishable from zero', () => {
+    // Below about 4.5 V this oxide's readings are the instrument's floor; the ohmic window search
+    // settles there with a conductance under twice its uncertainty (a 95 % test, common practice).
+    const r = runCli(['demo', '--scenario', 'oxide-tat']);
+    expect(r.code, r.stderr).toBe(0);
+    const lines = r.stdout.split('\n');
+    const row = lines.findIndex((l) => /^\d+ +ohmic /.test(l));
+    expect(row, r.stdout).toBeGreaterThan(0);
+    expect(lines[row]).toMatch(/^\d+ +ohmic +\S+ +\S+ +no /);
+    const reasons: string[] = [];
+    for (let k = row + 1; k < lines.length && lines[k].startsWith('     - '); k++) reasons.push(lines[k]);
+    expect(reasons.join('\n')).toMatch(/the current from [0-9.]+ to [0-9.]+ V is indistinguishable from zero \(the noise floor: σ = [0-9.e-]+ A\)/);
+    // The right mechanism stays on top, plausible.
+    expect(lines.find((l) => /^1 +/.test(l))).toMatch(/^1 +trap-assisted-tunneling +\S+ +\S+ +yes /);
+  });
+});

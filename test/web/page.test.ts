@@ -377,6 +377,34 @@ describe('drift on the page', () => {
   });
 });
 
+describe('a drift watch with nothing to follow, on the page', () => {
+  let browser: Browser;
+  let daemon: DaemonProcess;
+  beforeAll(async () => {
+    browser = await launch();
+    // The simulated solar cell's default analysis is a straight line, whose fit gives no parameter.
+    daemon = await startDaemon(['--scenario', 'solar-cell', '--fast', '--no-autostart', '--data', join(tempDir(), 'data')]);
+  });
+  afterAll(async () => {
+    await browser?.close();
+    await daemon?.stop();
+  });
+
+  it('the caution says so and the drift panel names the settings instead of waiting for a baseline', async () => {
+    const { page, errors } = await openPage(browser, daemon.url);
+    await startFromPage(page, { start: '-0.1', stop: '0.72', points: '83', repeat: '7', compliance: '0.5' });
+    await page.waitForFunction(() => (window as any).__plumbline.store.runEnd !== null, undefined, { timeout: 30_000 });
+    await page.waitForTimeout(200);
+    expect(await page.locator('.caution[data-kind="drift not watched"]').count()).toBe(1);
+    expect(await page.textContent('.caution[data-kind="drift not watched"]')).toMatch(/no drift is watched.*analysis model/);
+    const state = (await page.textContent('#drift-state')) ?? '';
+    expect(state).toMatch(/^not watched: .*analysis model/);
+    expect(state).not.toMatch(/charted once the baseline sweeps are in/);
+    expect(errors).toEqual([]);
+    await page.close();
+  }, 60_000);
+});
+
 describe('a station other than the default', () => {
   let browser: Browser;
   let daemon: DaemonProcess;

@@ -14,7 +14,7 @@ import { formatNumber } from '../../protocols/number-format.js';
 import { DriftChart, LinearizedChart, RawChart, SolarChart } from './charts.js';
 import { displayUnit, formatInputs } from '../../protocols/display-units.js';
 import { buildInputFields, fillAnalysis, markInputs, readAnalysis, type StationStatus } from './forms.js';
-import { describeAnalysis, renderCautions, renderFitNotes, renderParams, renderRanking, renderSolar } from './panels.js';
+import { describeAnalysis, driftNotWatched, renderCautions, renderFitNotes, renderParams, renderRanking, renderSolar } from './panels.js';
 import { buildPlanFields, fillKind, fillPlan, isDestructive, readPlan, setTargetUnit, showKind } from './plan-form.js';
 import { Store, type AnalysisSettings, type Envelope } from './store.js';
 import { renderAdaptive, renderTestPanel } from './test-panels.js';
@@ -175,7 +175,7 @@ function render(): void {
         : "— the station's setting for the next run";
   // Each panel is redrawn only when what it shows has changed (a frame carries new readings most
   // of the time, and nothing else).
-  if (changed('cautions', s, s.cautions.length, s.outputOn, s.lastOutput, s.readOnly, s.sessionEvent, s.running)) renderCautions($('cautions'), s);
+  if (changed('cautions', s, s.cautions.length, s.outputOn, s.lastOutput, s.readOnly, s.sessionEvent, s.running, s.drift)) renderCautions($('cautions'), s);
   if (changed('test', s, s.testResult, s.sessionEvent, s.running)) $('test-panel').hidden = !renderTestPanel($('test-title'), $('test-result'), s);
   if (changed('adaptive', s, s.adaptive.length)) $('adaptive-panel').hidden = !renderAdaptive($('adaptive'), s.adaptive);
   raw.update(s.sweeps, ($('raw-log') as HTMLInputElement).checked, s.envelope, (s.sessionEvent?.plan as { kind?: string } | undefined)?.kind === 'adaptive');
@@ -190,7 +190,7 @@ function render(): void {
   if (changed('params', s, cur, s.finalFits.get(cur), s.liveFit, s.reanalysis, s.running, s.ended.get(cur), s.analysis)) renderParamsPanel(s, cur);
   renderSolarPanel(s, cur);
   if (changed('ranking', s, s.ranking)) renderRanking($('ranking'), s.ranking);
-  if (changed('drift', s, s.drift)) renderDrift(s);
+  if (changed('drift', s, s.drift, s.cautions.length, s.finalFits.size)) renderDrift(s);
   renderPicker(s, cur);
   refillForms(s);
 }
@@ -340,11 +340,15 @@ function renderDrift(s: Store): void {
   const d = [...s.drift].sort((a, b) => a.sweep - b.sweep).at(-1);
   $('drift-title').textContent = d ? `Drift of ${d.parameter} (${d.method.toUpperCase()})` : 'Drift';
   const br = drift.breaks.at(-1);
-  $('drift-state').textContent = d
-    ? `sweep ${d.sweep}: ${d.state.replace(/-/g, ' ')}${br ? ` · baseline restarted at sweep ${br.sweep} (${br.reason})` : ''}`
-    : s.finalFits.size >= 2 && [...s.finalFits.values()].every((f) => !f || Object.keys(f.parameters).length === 0)
-      ? "nothing to chart: this model's fits have no physical parameter"
-      : 'charted once the baseline sweeps are in';
+  // The drift watch has nothing to follow: the daemon's words (which setting to change) take the place of the state.
+  const unwatched = driftNotWatched(s);
+  $('drift-state').textContent = unwatched
+    ? `not watched: ${unwatched.message}`
+    : d
+      ? `sweep ${d.sweep}: ${d.state.replace(/-/g, ' ')}${br ? ` · baseline restarted at sweep ${br.sweep} (${br.reason})` : ''}`
+      : s.finalFits.size >= 2 && [...s.finalFits.values()].every((f) => !f || Object.keys(f.parameters).length === 0)
+        ? "nothing to chart: this model's fits have no physical parameter"
+        : 'charted once the baseline sweeps are in';
 }
 
 let pickerKey = '';

@@ -9,6 +9,15 @@ import type { AnalysisSettings, Store } from './store.js';
 
 type Level = 'danger' | 'warning' | 'info';
 
+/**
+ * The daemon's word that the drift watch has nothing to follow, while it still holds: none once a
+ * value has been charted after it (the model or the drift parameter changed since).
+ */
+export function driftNotWatched(s: Store): Extract<WireEvent, { type: 'caution' }> | undefined {
+  const c = s.cautions.filter((x) => x.kind === 'drift-not-watched').at(-1);
+  return c && !s.drift.some((d) => d.seq > c.seq && d.value !== null) ? c : undefined;
+}
+
 export function renderCautions(box: HTMLElement, s: Store): void {
   box.textContent = '';
   const add = (level: Level, tag: string, text: string) => {
@@ -42,6 +51,9 @@ export function renderCautions(box: HTMLElement, s: Store): void {
   }
   const latest = new Map<string, Extract<WireEvent, { type: 'caution' }>>();
   for (const c of s.cautions) latest.set(c.kind, c);
+  const unwatched = driftNotWatched(s);
+  if (unwatched) latest.set(unwatched.kind, unwatched);
+  else latest.delete('drift-not-watched');
   const order: [string, Level, string][] = [
     ['breakdown-confirmed', 'danger', 'breakdown'],
     ['instrument-fault', 'danger', 'instrument fault'],
@@ -51,6 +63,7 @@ export function renderCautions(box: HTMLElement, s: Store): void {
     ['breakdown-suspected', 'warning', 'breakdown suspected'],
     ['drift-warning', 'warning', 'drift warning'],
     ['drift-baseline-trend', 'warning', 'baseline trend'],
+    ['drift-not-watched', 'warning', 'drift not watched'],
     ['compliance', 'warning', 'compliance'],
     ['recovery', 'warning', 'recovered'],
   ];
