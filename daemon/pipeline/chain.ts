@@ -139,6 +139,7 @@ export class LiveChain {
   /** The floor those null readings give (see noteNull; a fit uses it once the currents seen dwarf it). */
   private nullFloor: { sigma: number; readings: number } | undefined;
   private complianceSeen = false;
+  private sweepTemperature: number | undefined;
   private hazardSeen = false;
   private lastFitAt = 0;
   private lastProgressAt = 0;
@@ -197,6 +198,7 @@ export class LiveChain {
     this.c = [];
     this.trendSign = 0;
     this.complianceSeen = false;
+    this.sweepTemperature = undefined;
     this.breakdown?.reset();
     this.lastFitAt = performance.now();
     this.emit({ type: 'sweep-start', sweep: n, planned, label });
@@ -358,11 +360,26 @@ export class LiveChain {
     return { x: v, y: i, compliance: c.map((f) => f & FLAG.compliance), breakdown: c.map((f) => f & FLAG.breakdown) };
   }
 
+  /**
+   * The temperature of the sweep under way, K, when the data carry their own (a temperature column
+   * read by `watch`): its fits use it in place of the analysis setting's, which would put every sweep
+   * of a temperature series at one temperature (a Poole–Frenkel film's ε_r then drifts from 4.0 to
+   * 6.3 across 300–375 K while nothing in the film changed).
+   */
+  setSweepTemperature(t: number | undefined): void {
+    this.sweepTemperature = t !== undefined && t > 0 && Number.isFinite(t) ? t : undefined;
+  }
+
+  /** The analysis inputs for this sweep's fits: the settings', with the sweep's own temperature when it has one. */
+  private sweepInputs(): AnalysisSettings['inputs'] {
+    return this.sweepTemperature === undefined ? this.analysis.inputs : { ...this.analysis.inputs, temperature: this.sweepTemperature };
+  }
+
   /** The run's analysis settings as a fit request. */
   private request(regimes: boolean): FitRequest {
     return {
       model: this.analysis.model,
-      inputs: this.analysis.inputs,
+      inputs: this.sweepInputs(),
       window: this.analysis.window,
       complianceLimit: this.options.complianceLimit,
       regimes,
@@ -401,7 +418,7 @@ export class LiveChain {
   private solarNow(v: number[], i: number[], c: number[]): SolarSummary | undefined {
     const s = this.analysis.solar;
     if (!s) return undefined;
-    const inp = this.analysis.inputs;
+    const inp = this.sweepInputs();
     return solarSummary(this.data(v, i, c), {
       temperature: inp.temperature,
       area: inp.area,
@@ -437,7 +454,7 @@ export class LiveChain {
     this.rankingSkipped = undefined;
     try {
       const r = rankMechanisms(this.data(data.v, data.i, data.c), {
-        inputs: this.analysis.inputs,
+        inputs: this.sweepInputs(),
         window: this.analysis.window,
         complianceLimit: this.options.complianceLimit,
       });

@@ -183,12 +183,14 @@ export function feedPassive(
           chain.startSweep(stats.sweeps, 0, `sweep ${stats.sweeps} (from ${where})`);
           open = true;
         }
-        chain.reading(r.reading.v, r.reading.i, r.compliance, r.reading.overflow);
         if (r.temperature !== undefined) {
           temps.add(r.temperature, tN === 0);
           tSum += r.temperature;
           tN++;
+          // The sweep's fits take its own temperature (the mean so far), not the setting's.
+          chain.setSweepTemperature(tSum / tN);
         }
+        chain.reading(r.reading.v, r.reading.i, r.compliance, r.reading.overflow);
         stats.readings++;
       },
       error: () => finish(),

@@ -69,6 +69,13 @@ describe('watch: sweeps of a temperature series', () => {
       expect(events.filter((e) => e.type === 'sweep-end').map((e) => e.type === 'sweep-end' && e.points)).toEqual([51, 51, 51, 51]);
       const notes = events.filter((e) => e.type === 'annotation' && e.tags.includes('temperature'));
       expect(notes.map((e) => e.type === 'annotation' && Math.round(Number(/T = ([\d.]+) K/.exec(e.text)?.[1])))).toEqual(TEMPS);
+      // Each sweep's live fit uses its own temperature: ε_r is the film's 4.0 at every set point
+      // (at the setting's 300 K throughout it had climbed to 6.3 by 375 K).
+      const eps = events
+        .filter((e) => e.type === 'fit' && e.final)
+        .map((e) => (e.type === 'fit' ? (e.fit?.parameters.relativePermittivity?.value ?? Number.NaN) : Number.NaN));
+      expect(eps).toHaveLength(4);
+      for (const e of eps) expect(Math.abs(e / 4 - 1), `ε_r ${eps.join(', ')}`).toBeLessThan(0.02);
       const ts = runCli(['tseries', session, '--json']);
       expect(ts.code, ts.stderr).toBe(0);
       const ea = JSON.parse(ts.stdout).result.activationEnergy;
