@@ -9,6 +9,7 @@ import { analyzeWeibull, type BoundsMethod, type WeibullReport } from '../analys
 import { DEVICE_RESULTS_FILE, parseDeviceResults, resultQuantity, RESULT_QUANTITIES } from '../../protocols/device-results.js';
 import { columnIndex, CsvError, parseCsvTable, requireNumeric, splitFields, detectDelimiter } from '../../protocols/csv-table.js';
 import { UsageError } from './usage.js';
+import { readQuantity, sameDimensions, valueIn } from '../unit-parser.js';
 import type { BreakdownSample } from '../journal/lot.js';
 import { formatQuantity } from '../../protocols/display-units.js';
 import { archiveLot, withArchiveSelection, type ArchiveSelectionOptions } from './lab.js';
@@ -20,7 +21,7 @@ function genericSample(
   file: string,
   text: string,
   quantity: string | undefined,
-  unit: string | undefined,
+  unit: { si: string; factor: number } | undefined,
 ): Omit<BreakdownSample, 'area' | 'areaFactor' | 'notes'> & { areas: (number | undefined)[] } {
   const table = parseCsvTable(text, file, 1);
   const survivorCol = table.headers.findIndex((h) => SURVIVOR_COLUMNS.test(h));
@@ -41,7 +42,7 @@ function genericSample(
   const areas: (number | undefined)[] = [];
   table.columns[qi].forEach((v, k) => {
     if (!(v > 0)) throw new CsvError(file, table.lines[k], table.headers[qi], `${v} is not a positive value (Weibull values are > 0)`);
-    values.push(v);
+    values.push(v * (unit?.factor ?? 1));
     censored.push(survivorCol >= 0 && table.columns[survivorCol][k] !== 0);
     areas.push(areaCol >= 0 ? table.columns[areaCol][k] : undefined);
   });
@@ -51,17 +52,32 @@ function genericSample(
     censored,
     areas,
     labels: values.map((_, k) => `${file} line ${table.lines[k]}`),
-    unit: unit ?? q?.unit ?? '',
+    unit: unit?.si ?? q?.unit ?? '',
     title: q?.title ?? table.headers[qi],
   };
 }
 
-/** The SI units breakdown values come in (what --unit may name); the text output shows them in the trade's units. */
+/** The SI units breakdown values are held in; the text output shows them in the trade's units. */
 const SI_UNITS = ['V/m', 'V', 'C/m^2', 's', 'A', 'A/m^2', 'C'];
 
-function checkUnit(unit: string | undefined): string | undefined {
-  if (unit === undefined || SI_UNITS.includes(unit.replace(/\s+/g, ''))) return unit?.replace(/\s+/g, '');
-  throw new UsageError(`--unit '${unit}': give the SI unit the values are in (${SI_UNITS.join(', ')}); the text output shows V/m as MV/cm and C/m^2 as C/cm²`);
+/**
+ * The SI unit of the values and the factor that takes them there: --unit may name an SI unit or any
+ * unit of the same kind (MV/cm, C/cm^2, mA, h …), whose values are converted.
+ */
+function readUnit(unit: string | undefined): { si: string; factor: number } | undefined {
+  if (unit === undefined) return undefined;
+  const u = unit.replace(/\s+/g, '');
+  if (SI_UNITS.includes(u)) return { si: u, factor: 1 };
+  const q = readQuantity(`1 ${unit.trim()}`);
+  if (q) {
+    for (const si of SI_UNITS) {
+      const t = readQuantity(`1 ${si}`);
+      if (t && sameDimensions(q.dims, t.dims)) return { si, factor: valueIn(q, t) };
+    }
+  }
+  throw new UsageError(
+    `--unit '${unit}': not a unit of a breakdown value (a field, voltage, charge per area, time, current, current density or charge, e.g. MV/cm, V/m, C/cm^2, s)`,
+  );
 }
 
 function isResultsHeader(text: string): boolean {
@@ -115,7 +131,7 @@ export async function gatherSample(inputs: string[], o: WeibullCliOptions, refer
       throw new CsvError(f, undefined, undefined, `cannot read the file (${(e as NodeJS.ErrnoException).code ?? (e as Error).message})`);
     }
     if (isResultsHeader(text)) rows.push(...parseDeviceResults(text, f).map((r) => ({ ...r, session: f })));
-    else generic.push(genericSample(f, text, o.quantity, checkUnit(o.unit)));
+    else generic.push(genericSample(f, text, o.quantity, readUnit(o.unit)));
   }
   if (rows.length && generic.length) throw new UsageError('mix of results files (or session folders) and plain value CSVs: analyse them separately');
   if (rows.length) {
@@ -218,7 +234,7 @@ export function registerWeibull(program: Command): void {
       .option('--to-area <q>', 'scale η to this area through β (Poisson area scaling), e.g. "1 cm^2"')
       .option('--confidence <c>', 'two-sided confidence of the bounds', '0.9')
       .option('--bounds <method>', 'lr (likelihood ratio, default) or fisher (Fisher matrix)', 'lr')
-      .option('--unit <u>', 'plain CSVs: the SI unit of the values (V/m, C/m^2, s, V), for display')
+      .option('--unit <u>', 'plain CSVs: the unit of the values (e.g. MV/cm, V/m, C/cm^2, s, V); values in other than SI are converted')
       .option('--no-cache', 'session folders: read every journal again instead of the cached summaries')
       .option('--json', 'print exactly one JSON object'),
   ).action(async (inputs: string[], o: WeibullCliOptions) => {

@@ -178,10 +178,15 @@ describe('plumbline weibull', () => {
     r = runCli(['weibull', neg, '--quantity', 'E', '--to-area', '1']);
     expect(r.code).toBe(2);
     expect(r.stderr).toMatch(/--to-area '1': a bare number is read in square metres.*"1 cm\^2"/);
-    const vals = tempFile('u.csv', 'E\n1.1e9\n1.2e9\n1.3e9\n');
-    r = runCli(['weibull', vals, '--quantity', 'E', '--unit', 'MV/cm']);
+    // Values in the trade's unit are converted (1 MV/cm = 1e8 V/m): the same fit as in SI.
+    const si = JSON.parse(runCli(['weibull', tempFile('si.csv', 'E\n1.1e9\n1.2e9\n1.35e9\n'), '--quantity', 'E', '--unit', 'V/m', '--json']).stdout);
+    const mv = JSON.parse(runCli(['weibull', tempFile('mv.csv', 'E\n11\n12\n13.5\n'), '--quantity', 'E', '--unit', 'MV/cm', '--json']).stdout);
+    expect(mv.scale.unit).toBe('V/m');
+    expect(mv.scale.value / si.scale.value).toBeCloseTo(1, 9);
+    expect(mv.shape.value / si.shape.value).toBeCloseTo(1, 9);
+    r = runCli(['weibull', tempFile('u.csv', 'E\n1.1e9\n1.2e9\n1.3e9\n'), '--quantity', 'E', '--unit', 'kg']);
     expect(r.code).toBe(2);
-    expect(r.stderr).toMatch(/--unit 'MV\/cm': give the SI unit the values are in \(V\/m, V, C\/m\^2, s/);
+    expect(r.stderr).toMatch(/--unit 'kg': not a unit of a breakdown value/);
     r = runCli(['weibull', EXAMPLE, '--confidence', '1.2']);
     expect(r.stderr).toMatch(/--confidence '1.2'/);
     r = runCli(['weibull', '/no/such/dir']);
