@@ -51,6 +51,11 @@ export interface FitRequest {
    * uncertainty and no second window search; the sweep's final fit is always the full one.
    */
   readonly quick?: boolean;
+  /**
+   * The device is lit (a solar cell under its lamp): current against the bias near zero is the
+   * photocurrent it is measured for, said in a note rather than warned about.
+   */
+  readonly illuminated?: boolean;
   /** Analyse only this branch (+1 positive, −1 negative bias). */
   readonly polarity?: 1 | -1;
   /** Also analyse the other branch when it carries signal (default true). */
@@ -494,10 +499,10 @@ export function analyzeDetailed(data: IVData, request: FitRequest): DetailedFit 
   const warnings = [
     ...odd,
     ...inputs.assumed.map((k) => ASSUMED_TEXT[k]).filter((s): s is string => !!s),
-    ...classes.notes.filter((n) => /too large to be noise/.test(n)),
+    ...classes.notes.filter((n) => !request.illuminated && /too large to be noise/.test(n)),
     ...primary.warnings,
   ];
-  const notes = [...classes.notes.filter((n) => !/too large to be noise/.test(n)), ...primary.notes];
+  const notes = [...classes.notes.filter((n) => request.illuminated || !/too large to be noise/.test(n)), ...primary.notes];
   if (fits.length > 1) {
     const key = Object.keys(primary.parameters)[0];
     const describeOne = (f: BranchFit) => {

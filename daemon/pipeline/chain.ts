@@ -383,6 +383,7 @@ export class LiveChain {
       window: this.analysis.window,
       complianceLimit: this.options.complianceLimit,
       regimes,
+      ...(this.analysis.solar ? { illuminated: true } : {}),
       // Trusted only once the currents seen dwarf it (as for the breakdown watch).
       ...(this.nullFloor && this.nullFloor.sigma <= 0.01 * this.maxCurrent ? { knownFloor: this.nullFloor } : {}),
     };
