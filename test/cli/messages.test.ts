@@ -27,11 +27,22 @@ describe('messages', () => {
     }
   });
 
+  it('a misspelt scenario or plan kind is told the one meant (exit 2)', () => {
+    const r = runCli(['run', '--scenario', 'oxide-fnn', '--fast']);
+    expect(r.code).toBe(2);
+    expect(r.stderr).toMatch(/no scenario 'oxide-fnn' \(did you mean 'oxide-fn'\?\); known: /);
+    const f = tempFile('plan.json', JSON.stringify({ kind: 'adaptve', start: 0, stop: 9, maxPoints: 200, compliance: 1e-3 }));
+    const p = runCli(['run', '--scenario', 'oxide-fn', '--fast', '--plan', f]);
+    expect(p.code).toBe(2);
+    expect(p.stderr).toMatch(/field 'kind': 'adaptve' is not a plan kind \(did you mean 'adaptive'\?\)/);
+  });
+
   it('plan mistakes in words a person acts on: a missing field, a quantity written as text, a misspelt key (with the one meant), a number out of its range', () => {
     const cases: [unknown, RegExp][] = [
       [{ start: 0, stop: 5, points: 11 }, /plan\.json: field 'compliance': missing \(a number, in SI units\)/],
       [{ start: 0, stop: 5, points: 11, compliance: '1 mA' }, /field 'compliance': '1 mA' is text; .*write the number, e\.g\. 0\.001 for 1 mA/],
       [{ start: 0, stop: 5, pionts: 11, compliance: 1e-3 }, /unknown field 'pionts' \(did you mean 'points'\?\)/],
+      [{ start: 0, stop: 9, ponts: 91, compliance: 1e-3 }, /unknown field 'ponts' \(did you mean 'points'\?\)/],
       [
         { kind: 'voltage-ramp', stop: 5, step: 0.1, stepTime: 0.1, compliance: 1e-3, criteria: { slopeFactr: 3 } },
         /field 'criteria': unknown field 'slopeFactr' \(did you mean 'slopeFactor'\?\)/,
