@@ -117,7 +117,7 @@ describe('malformed CSV: non-zero exit, the message names file, line and column'
     expect(r.stderr).toContain('line 4: expected 2 fields (V, I), found 1');
   });
   it('a missing file and an unknown column', () => {
-    expect(runCli(['fit', '/nonexistent/x.csv', '--model', 'linear']).stderr).toMatch(/x\.csv: cannot read the file \(ENOENT\)/);
+    expect(runCli(['fit', '/nonexistent/x.csv', '--model', 'linear']).stderr).toMatch(/\/nonexistent\/x\.csv: the file does not exist; check the path/);
     const file = tempFile('ok.csv', 'V,I\n1,1\n2,2\n3,3.1\n');
     const r = runCli(['fit', file, '--model', 'linear', '--y', 'current']);
     expect(r.code).toBe(2);

@@ -3,7 +3,10 @@
  * write degrees Celsius; a broken plan file says where; a missing folder is called missing.
  */
 import { describe, expect, it } from 'vitest';
-import { runCli, tempFile } from '../helpers/cli.js';
+import { spawnSync } from 'node:child_process';
+import { existsSync } from 'node:fs';
+import { dirname, join } from 'node:path';
+import { CLI, runCli, tempFile } from '../helpers/cli.js';
 
 describe('messages', () => {
   const file = tempFile(
@@ -25,6 +28,30 @@ describe('messages', () => {
       expect(r.stderr).toMatch(/iv\.csv is a file, not a session folder .*plumbline fit or rank/);
       expect(r.stderr).not.toMatch(/ENOTDIR|at \w+ \(/);
     }
+  });
+
+  it('a path that does not exist is named and said not to exist, in one wording, by every command that reads one (exit 2); export makes nothing', () => {
+    const dir = dirname(file);
+    const cases: [string[], string][] = [
+      [['fit', join(dir, 'no.csv'), '--model', 'ohmic'], `${join(dir, 'no.csv')}: the file does not exist; check the path`],
+      [['rank', join(dir, 'no.csv')], `${join(dir, 'no.csv')}: the file does not exist; check the path`],
+      [['weibull', join(dir, 'no.csv')], `${join(dir, 'no.csv')}: the file or folder does not exist; check the path`],
+      [['run', '--scenario', 'oxide-fn', '--fast', '--plan', join(dir, 'no.json')], `plan ${join(dir, 'no.json')}: the file does not exist; check the path`],
+    ];
+    for (const cmd of ['export', 'report', 'recover', 'lot'])
+      cases.push([[cmd, join(dir, 'nope')], `${join(dir, 'nope')}: the folder does not exist; check the path`]);
+    for (const cmd of ['refit', 'tseries'])
+      cases.push([[cmd, join(dir, 'nope'), '--model', 'ohmic'], `${join(dir, 'nope')}: the folder does not exist; check the path`]);
+    for (const [args, message] of cases) {
+      const r = runCli(args);
+      expect(r.code, args.join(' ')).toBe(2);
+      expect(r.stderr, args.join(' ')).toContain(message);
+      expect(r.stderr).not.toMatch(/ENOENT|at \w+ \(/);
+    }
+    expect(existsSync(join(dir, 'nope'))).toBe(false);
+    // A relative path is shown as it was looked for.
+    const rel = spawnSync(process.execPath, [CLI, 'fit', 'no.csv', '--model', 'ohmic'], { cwd: dir, encoding: 'utf8' });
+    expect(rel.stderr).toContain(`no.csv: the file does not exist (looked for ${join(dir, 'no.csv')}); check the path`);
   });
 
   it('a misspelt scenario or plan kind is told the one meant (exit 2)', () => {
@@ -84,6 +111,6 @@ describe('messages', () => {
     expect(r.stderr).toMatch(/bad-plan\.json, line 2, column 15: not valid JSON/);
     const rep = runCli(['report', '/no/such/session']);
     expect(rep.code).toBe(2);
-    expect(rep.stderr).toMatch(/\/no\/such\/session: no such folder/);
+    expect(rep.stderr).toMatch(/\/no\/such\/session: the folder does not exist; check the path/);
   });
 });
