@@ -3,6 +3,7 @@ import { analyze } from './analysis/analyze.js';
 import { rankMechanisms } from './analysis/ranking.js';
 import { formatFit, formatRanking } from './cli/format.js';
 import { loadDialect } from '../protocols/dialect.js';
+import { formatFixed } from '../protocols/number-format.js';
 import { ScpiSession } from '../protocols/scpi-session.js';
 import { duplexPair } from '../protocols/transport.js';
 import { SmuDriver } from './instrument/smu-driver.js';
@@ -42,7 +43,7 @@ export async function runDemo(scenarioName = 'oxide-fn'): Promise<void> {
       comp.push(m.compliance ? 1 : 0);
       if (k % 15 === 0 || k === points - 1)
         out(
-          `  point ${String(k + 1).padStart(3)}/${points}  V = ${m.reading.v.toFixed(3)} V  I = ${m.reading.i.toExponential(3)} A${m.compliance ? '  (compliance)' : ''}\n`,
+          `  point ${String(k + 1).padStart(3)}/${points}  V = ${formatFixed(m.reading.v, 3)} V  I = ${m.reading.i.toExponential(3)} A${m.compliance ? '  (compliance)' : ''}\n`,
         );
     }
   } finally {

@@ -1,6 +1,7 @@
 /** A CSV table read from a file's bytes (no string of the whole file is made). */
 import { readFileSync } from 'node:fs';
 import { CsvError, type CsvTable, parseCsvTable } from './csv-table.js';
+import { fileProblem } from './file-problem.js';
 
 /** Reads and parses a CSV file; an unreadable file is a CsvError naming it. */
 export function readCsvTable(file: string, minColumns = 2): CsvTable {
@@ -8,7 +9,7 @@ export function readCsvTable(file: string, minColumns = 2): CsvTable {
   try {
     bytes = readFileSync(file);
   } catch (e) {
-    throw new CsvError(file, undefined, undefined, `cannot read the file (${(e as NodeJS.ErrnoException).code ?? (e as Error).message})`);
+    throw new CsvError(file, undefined, undefined, fileProblem(file, e));
   }
   return parseCsvTable(bytes, file, minColumns);
 }

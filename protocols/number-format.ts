@@ -27,6 +27,16 @@ function trim(s: string): string {
   return e === undefined ? t : `${t}e${e.replace(/^\+/, '')}`;
 }
 
+/**
+ * A number with `decimals` decimals (as toFixed), never a negative zero: a value that rounds to
+ * zero is written "0.000", not "-0.000" (a reading of -4 µV at 1 mV resolution is zero).
+ */
+export function formatFixed(x: number, decimals: number): string {
+  if (!Number.isFinite(x)) return finiteText(x);
+  const s = x.toFixed(decimals);
+  return /^-0(\.0*)?$/.test(s) ? s.slice(1) : s;
+}
+
 /** A number with `digits` significant digits (trailing zeros dropped). */
 export function formatNumber(x: number, digits = 4): string {
   if (!Number.isFinite(x)) return finiteText(x);
@@ -62,13 +72,13 @@ export function formatMeasurement(value: number, stdErr: number | null | undefin
   if (big >= FIXED_LO && big < FIXED_HI && -q <= 8) {
     const dec = Math.max(0, -q);
     const v = Math.round(value / 10 ** q) * 10 ** q;
-    return `${(v === 0 ? 0 : v).toFixed(dec)} ± ${err.toFixed(dec)}`;
+    return `${formatFixed(v, dec)} ± ${err.toFixed(dec)}`;
   }
   // One exponent for both: the larger magnitude's.
   const p = exponentOf(big);
   const dec = Math.min(15, Math.max(0, p - q));
   const scale = 10 ** p;
-  return `(${(value / scale).toFixed(dec)} ± ${(err / scale).toFixed(dec)})e${p}`;
+  return `(${formatFixed(value / scale, dec)} ± ${(err / scale).toFixed(dec)})e${p}`;
 }
 
 /**

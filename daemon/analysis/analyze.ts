@@ -163,7 +163,7 @@ export function resolveInputs(mech: Mechanism, inputs: Inputs = {}): ResolvedInp
     ...inputs,
     temperature: pick('temperature', 300),
     massRatio: pick('massRatio', 0.5),
-    flatBand: inputs.flatBand ?? 0,
+    flatBand: pick('flatBand', 0),
     richardson: pick('richardson', RICHARDSON_FREE_A_PER_M2_K2),
     assumed,
   };

@@ -9,6 +9,7 @@ import type { WireEvent } from '../../protocols/wire.js';
 import type { StationConfig } from '../run/config.js';
 import type { Station } from '../run/station.js';
 import { UsageError } from './usage.js';
+import { fileProblem } from '../../protocols/file-problem.js';
 import { formatSweepFit } from './format.js';
 import { numberRows, resultFigureRows, rowText } from '../../protocols/breakdown-display.js';
 import { formatParameterText, formatQuantity } from '../../protocols/display-units.js';
@@ -87,7 +88,7 @@ export function readJson(file: string, what: string): unknown {
   try {
     text = readFileSync(file, 'utf8');
   } catch (e) {
-    throw new UsageError(`${what} ${file}: cannot read: ${(e as Error).message}`);
+    throw new UsageError(`${what} ${file}: ${fileProblem(file, e)}`);
   }
   try {
     return JSON.parse(text);

@@ -10,6 +10,7 @@ import { DEVICE_RESULTS_FILE, parseDeviceResults, resultQuantity, RESULT_QUANTIT
 import { columnIndex, CsvError, parseCsvTable, requireNumeric, splitFields, detectDelimiter } from '../../protocols/csv-table.js';
 import { UsageError } from './usage.js';
 import { readQuantity, sameDimensions, valueIn } from '../unit-parser.js';
+import { fileProblem } from '../../protocols/file-problem.js';
 import type { BreakdownSample } from '../journal/lot.js';
 import { formatQuantity } from '../../protocols/display-units.js';
 import { archiveLot, withArchiveSelection, type ArchiveSelectionOptions } from './lab.js';
@@ -104,8 +105,8 @@ export async function gatherSample(inputs: string[], o: WeibullCliOptions, refer
   const folders = inputs.filter((p) => {
     try {
       return statSync(p).isDirectory();
-    } catch {
-      throw new UsageError(`${p}: no such file or folder`);
+    } catch (e) {
+      throw new UsageError(`${p}: ${fileProblem(p, e, 'file or folder')}`);
     }
   });
   const files = inputs.filter((p) => !folders.includes(p));
@@ -128,7 +129,7 @@ export async function gatherSample(inputs: string[], o: WeibullCliOptions, refer
     try {
       text = readFileSync(f, 'utf8');
     } catch (e) {
-      throw new CsvError(f, undefined, undefined, `cannot read the file (${(e as NodeJS.ErrnoException).code ?? (e as Error).message})`);
+      throw new CsvError(f, undefined, undefined, fileProblem(f, e));
     }
     if (isResultsHeader(text)) rows.push(...parseDeviceResults(text, f).map((r) => ({ ...r, session: f })));
     else generic.push(genericSample(f, text, o.quantity, readUnit(o.unit)));

@@ -7,6 +7,7 @@ import { basename, join, resolve } from 'node:path';
 import { FLAG, type FitSummary, type WireEvent } from '../../protocols/wire.js';
 import { DEVICE_RESULTS_FILE, mergeIdentity, type DeviceIdentity } from '../../protocols/device-results.js';
 import { scanJournal, type BadLine } from './reader.js';
+import { requireSessionFolder } from './journal.js';
 
 export const POINTS_HEADER = ['session', 'sweep', 'point', 'seq', 't_ms', 'voltage_V', 'current_A', 'compliance', 'overflow', 'voltage_overflow', 'breakdown'];
 
@@ -90,6 +91,7 @@ export interface ExportResult {
 export function exportSession(sessionDir: string, outDir = join(sessionDir, 'export')): ExportResult {
   const dir = resolve(sessionDir);
   const session = basename(dir);
+  requireSessionFolder(dir); // before the export folder is made: a mistyped path leaves nothing behind
   mkdirSync(outDir, { recursive: true });
   const pointsFile = join(outDir, 'points.csv');
   const fd = openSync(pointsFile, 'w');

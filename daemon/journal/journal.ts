@@ -18,6 +18,7 @@ import { closeSync, existsSync, fdatasync, fstatSync, ftruncateSync, mkdirSync, 
 import { endianness } from 'node:os';
 import { join } from 'node:path';
 import type { NewEvent, ReadingEvent, WireEvent } from '../../protocols/wire.js';
+import { notFound } from '../../protocols/file-problem.js';
 
 export const JOURNAL_FILE = 'journal.jsonl';
 export const READINGS_FILE = 'readings.f64';
@@ -69,6 +70,12 @@ export function newSessionId(dataDir: string, label: string, now = new Date()): 
   let id = `${stamp}-${safe}`;
   for (let n = 2; existsSync(join(dataDir, id)); n++) id = `${stamp}-${safe}-${n}`;
   return id;
+}
+
+/** Throws a JournalError naming `dir` unless it is a session folder (a folder holding the journal). */
+export function requireSessionFolder(dir: string): void {
+  if (existsSync(join(dir, JOURNAL_FILE))) return;
+  throw new JournalError(existsSync(dir) ? `${dir}: no ${JOURNAL_FILE} here; is this a session folder?` : `${dir}: ${notFound(dir, 'folder')}`);
 }
 
 export class JournalWriter {
@@ -125,8 +132,7 @@ export class JournalWriter {
    * Sequence numbers continue from `lastSeq`; t continues from the session's last time.
    */
   static append(dir: string, lastSeq: number, lastT: number): JournalWriter {
-    if (!existsSync(join(dir, JOURNAL_FILE)))
-      throw new JournalError(existsSync(dir) ? `${dir}: no ${JOURNAL_FILE} here; is this a session folder?` : `${dir}: no such folder`);
+    requireSessionFolder(dir);
     return new JournalWriter(dir, lastSeq, performance.now() - lastT, false);
   }
 

@@ -23,6 +23,7 @@ import type { ParameterFigure, WireEvent } from '../../protocols/wire.js';
 import { formatQuantity } from '../../protocols/display-units.js';
 import { JOURNAL_FILE, JournalError, liveLockHolder } from './journal.js';
 import { listSessions, scanJournal } from './reader.js';
+import { notFound } from '../../protocols/file-problem.js';
 
 export const SUMMARY_FILE = 'device-summary.json';
 /** Bumped whenever the summary's shape or meaning changes, so old caches are rebuilt. */
@@ -217,7 +218,7 @@ export function expandSessionPaths(paths: readonly string[]): string[] {
   const out: string[] = [];
   for (const p of paths) {
     const abs = resolve(p);
-    if (!existsSync(abs)) throw new JournalError(`${p}: no such folder`);
+    if (!existsSync(abs)) throw new JournalError(`${p}: ${notFound(p, 'folder')}`);
     if (existsSync(join(abs, JOURNAL_FILE))) {
       out.push(abs);
       continue;

@@ -6,7 +6,7 @@
 import { closeSync, existsSync, ftruncateSync, openSync, readdirSync, readSync, rmSync, statSync, writeSync } from 'node:fs';
 import { join } from 'node:path';
 import type { ReadingEvent, WireEvent } from '../../protocols/wire.js';
-import { JOURNAL_FILE, JournalError, JournalWriter, LOCK_FILE, liveLockHolder, READINGS_FILE, RECORD_BYTES, RECORD_FIELDS } from './journal.js';
+import { JOURNAL_FILE, JournalWriter, LOCK_FILE, liveLockHolder, READINGS_FILE, RECORD_BYTES, RECORD_FIELDS, requireSessionFolder } from './journal.js';
 
 export interface BadLine {
   readonly line: number;
@@ -82,7 +82,7 @@ function scanReadings(dir: string, on: (r: ReadingEvent) => void): { count: numb
  */
 export function scanJournal(dir: string, onEvent: (e: WireEvent, line: number) => void, opts: { readings?: boolean } = {}): ScanResult {
   const file = join(dir, JOURNAL_FILE);
-  if (!existsSync(file)) throw new JournalError(existsSync(dir) ? `${dir}: no ${JOURNAL_FILE} here; is this a session folder?` : `${dir}: no such folder`);
+  requireSessionFolder(dir);
   // Events are few (a handful per sweep); they are read first and interleaved with the readings.
   const events: { e: WireEvent; line: number }[] = [];
   const fd = openSync(file, 'r');

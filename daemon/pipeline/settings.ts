@@ -3,6 +3,7 @@
  * the analysis (model, window, inputs), the drift watch and the breakdown watch.
  */
 import { z } from 'zod';
+import { didYouMean } from '../../protocols/did-you-mean.js';
 import { DEFAULT_BREAKDOWN } from '../analysis/breakdown.js';
 import { DEFAULT_DRIFT } from '../analysis/drift.js';
 import { windowAcrossBranches } from '../analysis/analyze.js';
@@ -85,21 +86,6 @@ export const breakdownSchema = z
 
 export type BreakdownConfig = z.infer<typeof breakdownSchema>;
 
-/** Edit distance (Levenshtein), for "did you mean". */
-function editDistance(a: string, b: string): number {
-  const d = Array.from({ length: b.length + 1 }, (_, j) => j);
-  for (let i = 1; i <= a.length; i++) {
-    let prev = d[0];
-    d[0] = i;
-    for (let j = 1; j <= b.length; j++) {
-      const t = d[j];
-      d[j] = Math.min(d[j] + 1, d[j - 1] + 1, prev + (a[i - 1].toLowerCase() === b[j - 1].toLowerCase() ? 0 : 1));
-      prev = t;
-    }
-  }
-  return d[b.length];
-}
-
 /** The value at a path of a raw JSON object (undefined when absent). */
 function at(raw: unknown, path: readonly PropertyKey[]): unknown {
   let v = raw;
@@ -141,10 +127,7 @@ export function zodMessage(error: z.ZodError, where: string, raw?: unknown, sche
   }
   if (i.code === 'unrecognized_keys') {
     const keys = knownKeys(schema, i.path);
-    const hints = i.keys.map((k) => {
-      const best = keys.map((c) => ({ c, d: editDistance(k, c) })).sort((a, b) => a.d - b.d)[0];
-      return best && best.d <= 2 ? `'${k}' (did you mean '${best.c}'?)` : `'${k}'`;
-    });
+    const hints = i.keys.map((k) => `'${k}'${didYouMean(k, keys)}`);
     return `${where}: field '${field}': unknown field ${hints.join(', ')}${keys.length ? ` (known: ${keys.join(', ')})` : ''}`;
   }
   if ((i.code === 'too_small' || i.code === 'too_big') && raw !== undefined && /^Too (small|big)/.test(i.message)) {

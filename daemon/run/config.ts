@@ -7,6 +7,7 @@ import { readFileSync } from 'node:fs';
 import { isAbsolute, join, resolve } from 'node:path';
 import { z } from 'zod';
 import { projectRoot } from '../../protocols/project-root.js';
+import { fileProblem } from '../../protocols/file-problem.js';
 import { analysisSchema, breakdownSchema, driftSchema, zodMessage } from '../pipeline/settings.js';
 import { limitsSchema } from './guard.js';
 import { planSchema } from './plan.js';
@@ -165,7 +166,7 @@ export function loadConfig(file = DEFAULT_CONFIG_FILE): StationConfig {
   try {
     text = readFileSync(file, 'utf8');
   } catch (e) {
-    throw new ConfigError(`${file}: cannot read: ${(e as Error).message}`);
+    throw new ConfigError(`${file}: ${fileProblem(file, e)}`);
   }
   let raw: unknown;
   try {

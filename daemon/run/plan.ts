@@ -12,6 +12,7 @@
 import { statfsSync } from 'node:fs';
 import { z } from 'zod';
 import { zodMessage } from '../pipeline/settings.js';
+import { didYouMean } from '../../protocols/did-you-mean.js';
 
 export const sweepPlanSchema = z
   .object({
@@ -298,7 +299,9 @@ export function isSweepPlan(p: Plan): p is SweepPlan {
 export function parsePlan(raw: unknown, where = 'plan'): Plan {
   const kind = typeof raw === 'object' && raw !== null && !Array.isArray(raw) ? (raw as { kind?: unknown }).kind : undefined;
   if (kind !== undefined && !(PLAN_KINDS as readonly unknown[]).includes(kind)) {
-    throw new PlanError(`${where}: field 'kind': '${String(kind)}' is not a plan kind (${PLAN_KINDS.join(', ')})`);
+    throw new PlanError(
+      `${where}: field 'kind': '${String(kind)}' is not a plan kind${typeof kind === 'string' ? didYouMean(kind, PLAN_KINDS) : ''} (${PLAN_KINDS.join(', ')})`,
+    );
   }
   const schema =
     kind === 'adaptive'

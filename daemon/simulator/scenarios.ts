@@ -7,6 +7,7 @@ import { readdirSync, readFileSync } from 'node:fs';
 import { basename, join } from 'node:path';
 import { z } from 'zod';
 import { projectRoot } from '../../protocols/project-root.js';
+import { didYouMean } from '../../protocols/did-you-mean.js';
 
 export const SCENARIO_DIR = join(projectRoot(), 'config', 'scenarios');
 
@@ -93,6 +94,9 @@ export function listScenarios(dir = SCENARIO_DIR): Scenario[] {
 export function findScenario(name: string, dir = SCENARIO_DIR): Scenario {
   const all = listScenarios(dir);
   const s = all.find((k) => k.name === name || basename(name, '.json') === k.name);
-  if (!s) throw new ScenarioError(`no scenario '${name}'; known: ${all.map((k) => k.name).join(', ')}`);
+  if (!s) {
+    const names = all.map((k) => k.name);
+    throw new ScenarioError(`no scenario '${name}'${didYouMean(basename(name, '.json'), names)}; known: ${names.join(', ')}`);
+  }
   return s;
 }

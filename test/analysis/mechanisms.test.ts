@@ -211,6 +211,10 @@ describe('points that cannot enter a transform are counted by reason', () => {
   it('missing required input names the setting', () => {
     expect(() => resolveInputs(getMechanism('fowler-nordheim'), {})).toThrowError(/thickness/);
   });
+  it('every default applied to an input the model uses is listed as assumed, the flat band (0 V) too', () => {
+    expect(resolveInputs(getMechanism('fowler-nordheim'), { thickness: 7e-9 }).assumed.sort()).toEqual(['flatBand', 'massRatio']);
+    expect(resolveInputs(getMechanism('fowler-nordheim'), { thickness: 7e-9, flatBand: 0 }).assumed).toEqual(['massRatio']);
+  });
 });
 
 describe('plausibility warnings', () => {

@@ -70,6 +70,17 @@ describe('plumbline fit with physics and units', () => {
     const lin = runCli(['fit', file, '--model', 'ohmic']);
     expect(lin.stdout).toMatch(/line: +slope -?[\d.e-]+ ± [\d.e-]+ A\/V, intercept -?[\d.e-]+ ± [\d.e-]+ A/);
   });
+  it('an input not given is reported as assumed with the default used; one given is not', () => {
+    const file = tempFile('fn.csv', csv);
+    const a = JSON.parse(runCli(['fit', file, '--model', 'fowler-nordheim', '--thickness', '10 nm', '--json']).stdout);
+    expect(a.inputs.flatBand).toEqual({ value: 0, assumed: true });
+    expect(a.inputs.massRatio).toEqual({ value: 0.5, assumed: true });
+    expect(a.inputs.thickness.assumed).toBe(false);
+    const text = runCli(['fit', file, '--model', 'fowler-nordheim', '--thickness', '10 nm']).stdout;
+    expect(text).toMatch(/inputs: .*flat band V_FB 0 V \(assumed\)/);
+    const given = JSON.parse(runCli(['fit', file, '--model', 'fowler-nordheim', '--thickness', '10 nm', '--flat-band', '0 V', '--json']).stdout);
+    expect(given.inputs.flatBand).toEqual({ value: 0, assumed: false });
+  });
   it('a missing input names the setting', () => {
     const file = tempFile('fn.csv', csv);
     const r = runCli(['fit', file, '--model', 'fowler-nordheim']);
@@ -117,7 +128,7 @@ describe('malformed CSV: non-zero exit, the message names file, line and column'
     expect(r.stderr).toContain('line 4: expected 2 fields (V, I), found 1');
   });
   it('a missing file and an unknown column', () => {
-    expect(runCli(['fit', '/nonexistent/x.csv', '--model', 'linear']).stderr).toMatch(/x\.csv: cannot read the file \(ENOENT\)/);
+    expect(runCli(['fit', '/nonexistent/x.csv', '--model', 'linear']).stderr).toMatch(/\/nonexistent\/x\.csv: the file does not exist; check the path/);
     const file = tempFile('ok.csv', 'V,I\n1,1\n2,2\n3,3.1\n');
     const r = runCli(['fit', file, '--model', 'linear', '--y', 'current']);
     expect(r.code).toBe(2);

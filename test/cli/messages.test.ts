@@ -3,7 +3,10 @@
  * write degrees Celsius; a broken plan file says where; a missing folder is called missing.
  */
 import { describe, expect, it } from 'vitest';
-import { runCli, tempFile } from '../helpers/cli.js';
+import { spawnSync } from 'node:child_process';
+import { existsSync } from 'node:fs';
+import { dirname, join } from 'node:path';
+import { CLI, runCli, tempFile } from '../helpers/cli.js';
 
 describe('messages', () => {
   const file = tempFile(
@@ -27,11 +30,46 @@ describe('messages', () => {
     }
   });
 
+  it('a path that does not exist is named and said not to exist, in one wording, by every command that reads one (exit 2); export makes nothing', () => {
+    const dir = dirname(file);
+    const cases: [string[], string][] = [
+      [['fit', join(dir, 'no.csv'), '--model', 'ohmic'], `${join(dir, 'no.csv')}: the file does not exist; check the path`],
+      [['rank', join(dir, 'no.csv')], `${join(dir, 'no.csv')}: the file does not exist; check the path`],
+      [['weibull', join(dir, 'no.csv')], `${join(dir, 'no.csv')}: the file or folder does not exist; check the path`],
+      [['run', '--scenario', 'oxide-fn', '--fast', '--plan', join(dir, 'no.json')], `plan ${join(dir, 'no.json')}: the file does not exist; check the path`],
+    ];
+    for (const cmd of ['export', 'report', 'recover', 'lot'])
+      cases.push([[cmd, join(dir, 'nope')], `${join(dir, 'nope')}: the folder does not exist; check the path`]);
+    for (const cmd of ['refit', 'tseries'])
+      cases.push([[cmd, join(dir, 'nope'), '--model', 'ohmic'], `${join(dir, 'nope')}: the folder does not exist; check the path`]);
+    for (const [args, message] of cases) {
+      const r = runCli(args);
+      expect(r.code, args.join(' ')).toBe(2);
+      expect(r.stderr, args.join(' ')).toContain(message);
+      expect(r.stderr).not.toMatch(/ENOENT|at \w+ \(/);
+    }
+    expect(existsSync(join(dir, 'nope'))).toBe(false);
+    // A relative path is shown as it was looked for.
+    const rel = spawnSync(process.execPath, [CLI, 'fit', 'no.csv', '--model', 'ohmic'], { cwd: dir, encoding: 'utf8' });
+    expect(rel.stderr).toContain(`no.csv: the file does not exist (looked for ${join(dir, 'no.csv')}); check the path`);
+  });
+
+  it('a misspelt scenario or plan kind is told the one meant (exit 2)', () => {
+    const r = runCli(['run', '--scenario', 'oxide-fnn', '--fast']);
+    expect(r.code).toBe(2);
+    expect(r.stderr).toMatch(/no scenario 'oxide-fnn' \(did you mean 'oxide-fn'\?\); known: /);
+    const f = tempFile('plan.json', JSON.stringify({ kind: 'adaptve', start: 0, stop: 9, maxPoints: 200, compliance: 1e-3 }));
+    const p = runCli(['run', '--scenario', 'oxide-fn', '--fast', '--plan', f]);
+    expect(p.code).toBe(2);
+    expect(p.stderr).toMatch(/field 'kind': 'adaptve' is not a plan kind \(did you mean 'adaptive'\?\)/);
+  });
+
   it('plan mistakes in words a person acts on: a missing field, a quantity written as text, a misspelt key (with the one meant), a number out of its range', () => {
     const cases: [unknown, RegExp][] = [
       [{ start: 0, stop: 5, points: 11 }, /plan\.json: field 'compliance': missing \(a number, in SI units\)/],
       [{ start: 0, stop: 5, points: 11, compliance: '1 mA' }, /field 'compliance': '1 mA' is text; .*write the number, e\.g\. 0\.001 for 1 mA/],
       [{ start: 0, stop: 5, pionts: 11, compliance: 1e-3 }, /unknown field 'pionts' \(did you mean 'points'\?\)/],
+      [{ start: 0, stop: 9, ponts: 91, compliance: 1e-3 }, /unknown field 'ponts' \(did you mean 'points'\?\)/],
       [
         { kind: 'voltage-ramp', stop: 5, step: 0.1, stepTime: 0.1, compliance: 1e-3, criteria: { slopeFactr: 3 } },
         /field 'criteria': unknown field 'slopeFactr' \(did you mean 'slopeFactor'\?\)/,
@@ -73,6 +111,6 @@ describe('messages', () => {
     expect(r.stderr).toMatch(/bad-plan\.json, line 2, column 15: not valid JSON/);
     const rep = runCli(['report', '/no/such/session']);
     expect(rep.code).toBe(2);
-    expect(rep.stderr).toMatch(/\/no\/such\/session: no such folder/);
+    expect(rep.stderr).toMatch(/\/no\/such\/session: the folder does not exist; check the path/);
   });
 });

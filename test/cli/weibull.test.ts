@@ -190,7 +190,7 @@ describe('plumbline weibull', () => {
     r = runCli(['weibull', EXAMPLE, '--confidence', '1.2']);
     expect(r.stderr).toMatch(/--confidence '1.2'/);
     r = runCli(['weibull', '/no/such/dir']);
-    expect(r.stderr).toMatch(/\/no\/such\/dir: no such file or folder/);
+    expect(r.stderr).toMatch(/\/no\/such\/dir: the file or folder does not exist; check the path/);
     const one = tempFile('o.csv', 'E,survived\n1e9,0\n2e9,1\n');
     r = runCli(['weibull', one, '--quantity', 'E']);
     expect(r.code).toBe(1);
@@ -236,6 +236,6 @@ describe('plumbline lot', () => {
     expect(r.stderr).toMatch(/--quantity 'fields': expected field \| voltage \| charge \| time/);
     r = runCli(['lot', join(data, 'nothing-here'), '--out', out]);
     expect(r.code).toBe(2);
-    expect(r.stderr).toMatch(/nothing-here: no such folder/);
+    expect(r.stderr).toMatch(/nothing-here: the folder does not exist; check the path/);
   });
 });

@@ -160,7 +160,7 @@ describe('lot reader and cache', () => {
     writeSession(data, { label: 'b' });
     expect(expandSessionPaths([data])).toHaveLength(2);
     expect(expandSessionPaths([data, a])).toHaveLength(2);
-    expect(() => expandSessionPaths([join(data, 'nope')])).toThrow(/nope: no such folder/);
+    expect(() => expandSessionPaths([join(data, 'nope')])).toThrow(/nope: the folder does not exist; check the path/);
     expect(() => expandSessionPaths([tmp()])).toThrow(/neither a session folder/);
     const lot = new FolderLot([data]);
     expect(await lot.devices()).toHaveLength(2);

@@ -18,7 +18,16 @@ import {
   RESULT_FIGURES,
   toDisplay,
 } from '../../protocols/display-units.js';
-import { formatLogTick, formatLogTicks, formatMeasurement, formatNumber, formatTicks, logTicks, niceTicks } from '../../protocols/number-format.js';
+import {
+  formatFixed,
+  formatLogTick,
+  formatLogTicks,
+  formatMeasurement,
+  formatNumber,
+  formatTicks,
+  logTicks,
+  niceTicks,
+} from '../../protocols/number-format.js';
 
 describe('formatNumber', () => {
   it('writes plain decimals from 1e-3 to 1e5 and exponents outside', () => {
@@ -69,6 +78,18 @@ describe('formatMeasurement (GUM rounding)', () => {
       expect(Math.abs(shown - v), `${t} for ${v}`).toBeLessThanOrEqual(0.5 * 10 ** -decimals * scale * (1 + 1e-9));
       expect((Number(m?.[2]) * scale) / s).toBeCloseTo(1, 1);
     }
+  });
+});
+
+describe('no negative zero', () => {
+  it('a value that rounds to zero is written without a sign (common practice: -0.000 reads as a reading below zero)', () => {
+    expect(formatFixed(-0.00004, 3)).toBe('0.000');
+    expect(formatFixed(-0, 3)).toBe('0.000');
+    expect(formatFixed(-0.4, 0)).toBe('0');
+    expect(formatFixed(-0.0006, 3)).toBe('-0.001');
+    expect(formatFixed(1.5, 3)).toBe('1.500');
+    expect(formatMeasurement(-4e-12, 5e-10)).toBe('(0.0 ± 5.0)e-10');
+    expect(formatMeasurement(-0.004, 0.5)).toBe('0.00 ± 0.50');
   });
 });
 

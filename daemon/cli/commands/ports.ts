@@ -2,6 +2,28 @@
  * `plumbline ports`: the serial ports of this machine.
  */
 import type { Command } from 'commander';
+import type { SerialPortInfo } from '../../../protocols/transport.js';
+
+/**
+ * The text of a port listing: `out` for stdout, `err` for stderr. A scan that could not run says
+ * so with its reason and lists only the ports found without it (it never claims none were found);
+ * a scan that ran and found nothing says that alone.
+ */
+export function describePorts(r: { ports: readonly SerialPortInfo[]; warning?: string }): { out: string; err: string } {
+  const err = r.warning ? `plumbline ports: ${r.warning}\n` : '';
+  if (r.ports.length === 0) return { out: r.warning ? '' : 'no serial ports found\n', err };
+  const lines = r.ports.map((p) => {
+    const about = [
+      p.manufacturer,
+      p.serialNumber ? `serial number ${p.serialNumber}` : undefined,
+      p.vendorId ? `USB ${p.vendorId}:${p.productId ?? '?'}` : undefined,
+    ]
+      .filter(Boolean)
+      .join(', ');
+    return `${p.byId ?? p.path}${p.byId ? `  (${p.path})` : ''}${about ? `  ${about}` : ''}\n`;
+  });
+  return { out: lines.join(''), err };
+}
 
 export function registerPorts(program: Command): void {
   program
@@ -15,17 +37,8 @@ export function registerPorts(program: Command): void {
         process.stdout.write(`${JSON.stringify(r)}\n`);
         return;
       }
-      if (r.warning) process.stderr.write(`plumbline ports: ${r.warning}\n`);
-      if (r.ports.length === 0) process.stdout.write('no serial ports found\n');
-      for (const p of r.ports) {
-        const about = [
-          p.manufacturer,
-          p.serialNumber ? `serial number ${p.serialNumber}` : undefined,
-          p.vendorId ? `USB ${p.vendorId}:${p.productId ?? '?'}` : undefined,
-        ]
-          .filter(Boolean)
-          .join(', ');
-        process.stdout.write(`${p.byId ?? p.path}${p.byId ? `  (${p.path})` : ''}${about ? `  ${about}` : ''}\n`);
-      }
+      const { out, err } = describePorts(r);
+      process.stderr.write(err);
+      process.stdout.write(out);
     });
 }

@@ -1,8 +1,11 @@
 /**
  * `plumbline recover`: close sessions a crashed daemon left open.
  */
+import { existsSync } from 'node:fs';
 import { resolve } from 'node:path';
 import type { Command } from 'commander';
+import { notFound } from '../../../protocols/file-problem.js';
+import { UsageError } from '../usage.js';
 import { daemonModules } from '../station-common.js';
 
 export function registerRecover(program: Command): void {
@@ -14,6 +17,7 @@ export function registerRecover(program: Command): void {
     .action(async (dir: string, o: { json?: boolean }) => {
       const { recoverSession, recoverAll } = await daemonModules();
       const abs = resolve(dir);
+      if (!existsSync(abs)) throw new UsageError(`${dir}: ${notFound(dir, 'folder')}`);
       let reports: import('../../journal/reader.js').RecoveryReport[];
       try {
         reports = [recoverSession(abs)];

@@ -4,6 +4,7 @@
  */
 import type { Command } from 'commander';
 import { UsageError } from '../usage.js';
+import { notFound } from '../../../protocols/file-problem.js';
 import { Log } from '../log.js';
 import { daemonModules, describe, PUBLISH_HELP, serialSettings, STATION_HELP, startPublishing, stationConfig, type PublishOptions } from '../station-common.js';
 
@@ -94,7 +95,7 @@ export function registerWatch(program: Command): void {
         const term = o.readTerminator as 'lf' | 'crlf' | 'cr';
         const serial = src.kind === 'serial' ? serialSettings(src.path, o) : undefined;
         if (src.kind === 'file' && !existsSync(src.path))
-          throw new UsageError(`${src.path}: no such file (watch follows a file that exists; create it first, even empty)`);
+          throw new UsageError(`${src.path}: ${notFound(src.path)} (watch follows a file that exists: create it first, even empty)`);
         const station = new Station(config, dataDir(config, o.data));
         for (const r of station.recovered) log.notice(`journal ${r.dir}: ${r.message}`);
         // Another program's data: the fit window is found automatically unless the config fixes one.
