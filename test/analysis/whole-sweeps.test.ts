@@ -24,6 +24,15 @@ interface Case {
 }
 
 const fn: Device = { kind: 'fowler-nordheim', barrier: 3.1, massRatio: 0.42 };
+/** A 10 nm oxide leaking through 1.2 eV traps (trap-assisted tunnelling), 0 → 9 V in 0.1 V steps. */
+const tatOxide = (o: { leakage: number; relative: number; floor: number; compliance?: number; seed: number }) =>
+  wholeSweep({
+    device: { kind: 'trap-assisted-tunneling', prefactor: 100, trapEnergy: 1.2, massRatio: 0.5 },
+    thickness: 1e-8,
+    area: 1e-8,
+    bias: linearBias(0, 9, 91),
+    ...o,
+  });
 const CASES: Case[] = [
   {
     name: 'Fowler–Nordheim, 7 nm oxide, 0 → 10 V, leakage 1e13 Ω, compliance 1 mA',
@@ -380,17 +389,7 @@ describe('a wrong answer is never silent', () => {
     // 0 → 9 V: its current spans under three decades above the floor, too few for the decades-share
     // rule; the wrong mechanisms each find a straight piece of under one decade.
     for (let seed = 1; seed <= 10; seed++) {
-      const s = wholeSweep({
-        device: { kind: 'trap-assisted-tunneling', prefactor: 100, trapEnergy: 1.2, massRatio: 0.5 },
-        thickness: 1e-8,
-        area: 1e-8,
-        leakage: 1e14,
-        bias: linearBias(0, 9, 91),
-        relative: 1e-3,
-        floor: 1e-13,
-        compliance: 1e-3,
-        seed,
-      });
+      const s = tatOxide({ leakage: 1e14, relative: 1e-3, floor: 1e-13, compliance: 1e-3, seed });
       const inputs = { thickness: 1e-8, area: 1e-8, massRatio: 0.5, temperature: 300 };
       for (const model of ['schottky', 'hopping', 'poole-frenkel', 'power-law']) {
         const r = analyze({ x: s.v, y: s.i }, { model, inputs });
@@ -410,16 +409,7 @@ describe('a wrong answer is never silent', () => {
     // The resistance, 1/slope, with its first-order error, had let 6 of these 20 draws' 13 such fits pass.
     let floorFits = 0;
     for (let seed = 1; seed <= 20; seed++) {
-      const s = wholeSweep({
-        device: { kind: 'trap-assisted-tunneling', prefactor: 100, trapEnergy: 1.2, massRatio: 0.5 },
-        thickness: 1e-8,
-        area: 1e-8,
-        leakage: 1e14,
-        bias: linearBias(0, 9, 91),
-        relative: 2e-3,
-        floor: 2e-13,
-        seed,
-      });
+      const s = tatOxide({ leakage: 1e14, relative: 2e-3, floor: 2e-13, seed });
       const r = analyze({ x: s.v, y: s.i }, { model: 'ohmic', inputs: { thickness: 1e-8, area: 1e-8 } });
       const c = r.parameters.conductivity;
       const what = `seed ${seed}: conductivity ${c.value} ± ${c.stdErr}, window ${r.window.from}–${r.window.to} V: ${r.warnings.join('; ')}`;
@@ -437,16 +427,7 @@ describe('a wrong answer is never silent', () => {
   it('ohmic lines that measure a current stay plausible: a leakage above the floor, a 1 MΩ resistor (Ohm’s law)', () => {
     for (let seed = 1; seed <= 10; seed++) {
       for (const leakage of [1e12, 1e13]) {
-        const s = wholeSweep({
-          device: { kind: 'trap-assisted-tunneling', prefactor: 100, trapEnergy: 1.2, massRatio: 0.5 },
-          thickness: 1e-8,
-          area: 1e-8,
-          leakage,
-          bias: linearBias(0, 9, 91),
-          relative: 0.02,
-          floor: 1e-13,
-          seed,
-        });
+        const s = tatOxide({ leakage, relative: 0.02, floor: 1e-13, seed });
         const r = analyze({ x: s.v, y: s.i }, { model: 'ohmic', inputs: { thickness: 1e-8, area: 1e-8 } });
         expect(r.plausible, `${leakage} Ω, seed ${seed}: ${r.warnings.join('; ')}`).toBe(true);
         expect(r.warnings.join(' ')).not.toMatch(/indistinguishable from zero/);

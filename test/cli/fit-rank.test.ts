@@ -6,7 +6,7 @@ import { recordedAnalysis } from '../../daemon/cli/inputs.js';
 import { fowlerNordheim } from '../../daemon/analysis/mechanisms/fowler-nordheim.js';
 import { runCli, tempFile } from '../helpers/cli.js';
 import { HAVE_STRD, loadStrd, lre } from '../helpers/reference.js';
-import { linearBias, toCsv, wholeSweep } from '../helpers/whole-sweep.js';
+import { FN_OXIDE_BOTH_POLARITIES, linearBias, toCsv, wholeSweep } from '../helpers/whole-sweep.js';
 
 function norrisCsv(): string {
   const d = loadStrd('Norris');
@@ -204,16 +204,7 @@ describe('text columns that are not used', () => {
 });
 
 describe('whole sweeps from the command line, no window given (test/helpers/whole-sweep.ts)', () => {
-  const spec = {
-    device: { kind: 'fowler-nordheim', barrier: 3.1, massRatio: 0.42 } as const,
-    thickness: 7e-9,
-    area: 1e-8,
-    leakage: 1e13,
-    bias: linearBias(-10, 10, 201),
-    relative: 0.02,
-    floor: 1e-13,
-    compliance: 1e-3,
-  };
+  const spec = FN_OXIDE_BOTH_POLARITIES;
   const args = ['--thickness', '7 nm', '--area', '1e-4 cm^2', '--mass-ratio', '0.42'];
   it('fit: the barrier of each branch within 0.05 eV, the floor reported, every exclusion named', () => {
     const file = tempFile('fn-whole.csv', toCsv(wholeSweep({ ...spec, seed: 11 })));

@@ -10,18 +10,9 @@ import { analyze } from '../../daemon/analysis/analyze.js';
 import { AnalysisError } from '../../daemon/analysis/errors.js';
 import { analysisSchema, zodMessage } from '../../daemon/pipeline/settings.js';
 import { runCli, tempFile } from '../helpers/cli.js';
-import { linearBias, toCsv, wholeSweep } from '../helpers/whole-sweep.js';
+import { FN_OXIDE_BOTH_POLARITIES, toCsv, wholeSweep } from '../helpers/whole-sweep.js';
 
-const spec = {
-  device: { kind: 'fowler-nordheim', barrier: 3.1, massRatio: 0.42 } as const,
-  thickness: 7e-9,
-  area: 1e-8,
-  leakage: 1e13,
-  bias: linearBias(-10, 10, 201),
-  relative: 0.02,
-  floor: 1e-13,
-  compliance: 1e-3,
-};
+const spec = FN_OXIDE_BOTH_POLARITIES;
 const args = ['--model', 'fowler-nordheim', '--thickness', '7 nm', '--area', '1e-4 cm^2', '--mass-ratio', '0.42'];
 
 describe('a fit window across zero bias', () => {

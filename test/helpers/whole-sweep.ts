@@ -167,6 +167,22 @@ export function linearBias(from: number, to: number, n: number): Float64Array {
   return Float64Array.from({ length: n }, (_, k) => from + ((to - from) * k) / (n - 1));
 }
 
+/**
+ * A whole sweep of a 7 nm oxide, both polarities (−10 → 10 V), as the command-line tests read it:
+ * Fowler–Nordheim tunnelling over a 3.1 eV barrier (effective mass 0.42 m₀), a 1e13 Ω leakage, 2 % noise,
+ * a 1e-13 A floor and a 1 mA compliance. Add a seed.
+ */
+export const FN_OXIDE_BOTH_POLARITIES: Omit<SweepSpec, 'seed'> = {
+  device: { kind: 'fowler-nordheim', barrier: 3.1, massRatio: 0.42 },
+  thickness: 7e-9,
+  area: 1e-8,
+  leakage: 1e13,
+  bias: linearBias(-10, 10, 201),
+  relative: 0.02,
+  floor: 1e-13,
+  compliance: 1e-3,
+};
+
 /** Sweep data as a CSV text (header V,I), compliance column optional. */
 export function toCsv(s: Sweep, withCompliance = false): string {
   const rows = Array.from(s.v, (x, k) => (withCompliance ? `${x},${s.i[k]},${s.compliance[k]}` : `${x},${s.i[k]}`));
