@@ -81,6 +81,23 @@ async function dragWindow(page: Page, from: number, to: number): Promise<void> {
   await page.mouse.up();
 }
 
+/**
+ * A browser and a daemon of the built CLI with these arguments (on a fresh data folder), for the
+ * tests of one describe block: started before them, closed after.
+ */
+function browserAndDaemon(args: string[]): { browser: Browser; daemon: DaemonProcess } {
+  const both = {} as { browser: Browser; daemon: DaemonProcess };
+  beforeAll(async () => {
+    both.browser = await launch();
+    both.daemon = await startDaemon([...args, '--fast', '--no-autostart', '--data', join(tempDir(), 'data')]);
+  });
+  afterAll(async () => {
+    await both.browser?.close();
+    await both.daemon?.stop();
+  });
+  return both;
+}
+
 describe('live page in headless Chromium', () => {
   let browser: Browser;
   let daemon: DaemonProcess;
@@ -341,19 +358,10 @@ describe('live page in headless Chromium', () => {
 });
 
 describe('drift on the page', () => {
-  let browser: Browser;
-  let daemon: DaemonProcess;
-  beforeAll(async () => {
-    browser = await launch();
-    daemon = await startDaemon(['--scenario', 'oxide-fn-trapping', '--fast', '--no-autostart', '--data', join(tempDir(), 'data')]);
-  });
-  afterAll(async () => {
-    await browser?.close();
-    await daemon?.stop();
-  });
+  const ctx = browserAndDaemon(['--scenario', 'oxide-fn-trapping']);
 
   it('a drifting device shows the drift caution and the run ends on it', async () => {
-    const { page } = await openPage(browser, daemon.url);
+    const { page } = await openPage(ctx.browser, ctx.daemon.url);
     await startFromPage(page, { start: '0', stop: '9', points: '91', repeat: '12', compliance: '0.001' });
     await page.waitForSelector('.caution[data-kind="drift limit"]', { timeout: 30_000 });
     await page.waitForFunction(() => (window as any).__plumbline.store.runEnd !== null, undefined, { timeout: 10_000 });
@@ -378,20 +386,11 @@ describe('drift on the page', () => {
 });
 
 describe('a drift watch with nothing to follow, on the page', () => {
-  let browser: Browser;
-  let daemon: DaemonProcess;
-  beforeAll(async () => {
-    browser = await launch();
-    // The simulated solar cell's default analysis is a straight line, whose fit gives no parameter.
-    daemon = await startDaemon(['--scenario', 'solar-cell', '--fast', '--no-autostart', '--data', join(tempDir(), 'data')]);
-  });
-  afterAll(async () => {
-    await browser?.close();
-    await daemon?.stop();
-  });
+  // The simulated solar cell's default analysis is a straight line, whose fit gives no parameter.
+  const ctx = browserAndDaemon(['--scenario', 'solar-cell']);
 
   it('the caution says so and the drift panel names the settings instead of waiting for a baseline', async () => {
-    const { page, errors } = await openPage(browser, daemon.url);
+    const { page, errors } = await openPage(ctx.browser, ctx.daemon.url);
     await startFromPage(page, { start: '-0.1', stop: '0.72', points: '83', repeat: '7', compliance: '0.5' });
     await page.waitForFunction(() => (window as any).__plumbline.store.runEnd !== null, undefined, { timeout: 30_000 });
     await page.waitForTimeout(200);
@@ -406,20 +405,11 @@ describe('a drift watch with nothing to follow, on the page', () => {
 });
 
 describe('a station other than the default', () => {
-  let browser: Browser;
-  let daemon: DaemonProcess;
-  beforeAll(async () => {
-    browser = await launch();
-    daemon = await startDaemon(['--scenario', 'solar-cell', '--fast', '--no-autostart', '--data', join(tempDir(), 'data')]);
-  });
-  afterAll(async () => {
-    await browser?.close();
-    await daemon?.stop();
-  });
+  const ctx = browserAndDaemon(['--scenario', 'solar-cell']);
 
   it("the forms hold the station's own plan, limits and analysis", async () => {
-    const { page, errors } = await openPage(browser, daemon.url);
-    const status = (await api(daemon.url, 'GET', '/api/status')).json;
+    const { page, errors } = await openPage(ctx.browser, ctx.daemon.url);
+    const status = (await api(ctx.daemon.url, 'GET', '/api/status')).json;
     const value = (sel: string) => page.inputValue(sel);
     expect(Number(await value('#plan-form [name="start"]'))).toBe(status.plan.start);
     expect(Number(await value('#plan-form [name="stop"]'))).toBe(status.plan.stop);
@@ -433,20 +423,20 @@ describe('a station other than the default', () => {
     await page.fill('#plan-form [name="compliance"]', '');
     await page.click('#run-start');
     expect(await page.textContent('#control-msg')).toMatch(/^compliance \(A\): enter the current limit .*at most 1 A/);
-    expect((await api(daemon.url, 'GET', '/api/status')).json.running).toBe(false);
+    expect((await api(ctx.daemon.url, 'GET', '/api/status')).json.running).toBe(false);
     await snap(page, 'page-solar-station-forms.png');
     expect(errors).toEqual([]);
     await page.close();
   });
 
   it('an illuminated cell shows its figures of merit and single-diode fit with uncertainties', async () => {
-    const { page, errors } = await openPage(browser, daemon.url);
+    const { page, errors } = await openPage(ctx.browser, ctx.daemon.url);
     await startFromPage(page, { repeat: '2', compliance: '0.5' });
     await page.waitForFunction(() => (window as any).__plumbline.store.runEnd !== null, undefined, { timeout: 60_000 });
     await page.waitForSelector('#solar-panel:not([hidden])');
     await page.waitForTimeout(200);
     const st = await pageState(page);
-    const events = (await api(daemon.url, 'GET', `/api/sessions/${st.session}`)).json.events as any[];
+    const events = (await api(ctx.daemon.url, 'GET', `/api/sessions/${st.session}`)).json.events as any[];
     const solar = events.filter((e) => e.type === 'fit' && e.final && e.sweep === 2)[0].solar;
     // What the page prints is the daemon's figure, rounded as the CLI and the report round it.
     for (const key of ['isc', 'jsc', 'voc', 'pmax', 'fillFactor', 'efficiency']) {
