@@ -37,7 +37,12 @@ export interface LotRow {
   readonly site: string;
   readonly x: number | undefined;
   readonly y: number | undefined;
-  readonly values: Record<string, { value: number; stdErr?: number; unit: string }>;
+  /**
+   * `censored`: a breakdown quantity of a device that survived its test — the value it reached, a
+   * lower bound on its breakdown value, not a breakdown value (shown as "> value", kept out of the
+   * distributions and the outlier test; the Weibull fit takes it as right-censored).
+   */
+  readonly values: Record<string, { value: number; stdErr?: number; unit: string; censored?: boolean }>;
   readonly outcome: string | null;
 }
 
@@ -50,6 +55,8 @@ export interface ParameterStats {
   /** The grid step the values sit on (ties on a ramp's levels), which floors the MAD; else null. */
   readonly resolution: number | null;
   readonly box: ReturnType<typeof boxSummary> | null;
+  /** Devices that survived the test: their values are lower bounds, left out of n, the box and the outlier test. */
+  readonly survivors: number;
   /** Devices with |modified z| > 3.5 (Iglewicz & Hoaglin 1993). */
   readonly outliers: readonly { session: string; device: string; value: number; z: number }[];
 }
@@ -100,7 +107,7 @@ export function lotRows(devices: readonly DeviceSummary[]): LotRow[] {
       const values = { ...params };
       for (const [key, title] of Object.entries(BREAKDOWN_KEYS)) {
         const v = r[key as keyof typeof r];
-        if (typeof v === 'number') values[title] = { value: v, unit: BREAKDOWN_UNITS[key] };
+        if (typeof v === 'number') values[title] = { value: v, unit: BREAKDOWN_UNITS[key], ...(r.outcome === 'survived' ? { censored: true } : {}) };
       }
       rows.push({
         session: d.session,
@@ -124,7 +131,8 @@ export async function analyzeLot(source: LotSource, o: LotOptions = {}): Promise
   for (const r of rows) for (const [k, v] of Object.entries(r.values)) if (!names.has(k)) names.set(k, v.unit);
   const parameters: ParameterStats[] = [];
   for (const [name, unit] of names) {
-    const have = rows.filter((r) => r.values[name] && Number.isFinite(r.values[name].value));
+    const have = rows.filter((r) => r.values[name] && Number.isFinite(r.values[name].value) && !r.values[name].censored);
+    const survivors = rows.filter((r) => r.values[name]?.censored).length;
     const vals = have.map((r) => r.values[name].value);
     // Quantities spanning decades (charge to breakdown, leakage) are compared on a log scale.
     const log = vals.length > 0 && vals.every((v) => v > 0) && Math.max(...vals) / Math.min(...vals) > 10;
@@ -139,6 +147,7 @@ export async function analyzeLot(source: LotSource, o: LotOptions = {}): Promise
       logScale: log,
       resolution: resolution ?? null,
       box: vals.length ? boxSummary(vals) : null,
+      survivors,
       outliers: have.map((r, k) => ({ session: r.session, device: r.device, value: vals[k], z: z[k] })).filter((q) => Math.abs(q.z) > OUTLIER_Z),
     });
   }
@@ -190,7 +199,7 @@ function boxStrip(p: ParameterStats, rows: LotRow[]): string {
   const outKeys = new Set(p.outliers.map((o) => `${o.session}/${o.device}`));
   for (const r of rows) {
     const v = r.values[p.name];
-    if (!v || !Number.isFinite(v.value)) continue;
+    if (!v || !Number.isFinite(v.value) || v.censored) continue;
     const g = r.wafer || '(no wafer)';
     if (!groups.has(g)) groups.set(g, []);
     groups.get(g)?.push({ v: v.value * d.scale, out: outKeys.has(`${r.session}/${r.device}`), label: `${r.device}${r.site ? ` @ ${r.site}` : ''}` });
@@ -263,7 +272,7 @@ function waferMap(name: string, rows: LotRow[], outliers: Set<string>): string {
     if (!wafers.has(w)) wafers.set(w, []);
     wafers.get(w)?.push(r);
   }
-  const siteValue = (r: LotRow) => r.values[name]?.value;
+  const siteValue = (r: LotRow) => (r.values[name]?.censored ? undefined : r.values[name]?.value);
   const finite = (v: number | undefined): v is number => v !== undefined && Number.isFinite(v);
   const vals = have.map(siteValue).filter(finite);
   // The colour scale spans the sites that are not outliers: one far value would otherwise squeeze
@@ -314,20 +323,23 @@ function waferMap(name: string, rows: LotRow[], outliers: Set<string>): string {
       const X = 20 + ((r.x as number) - x0) * cell;
       // y grows upwards on a wafer map.
       const Y = 30 + (y1 - (r.y as number)) * cell;
-      const v = r.values[name]?.value;
+      const raw = r.values[name]?.value;
+      // A survivor's value is a lower bound: drawn like a site without a value, labelled "> value".
+      const bound = r.values[name]?.censored && raw !== undefined && Number.isFinite(raw) ? raw : undefined;
+      const v = bound === undefined ? raw : undefined;
       const has = v !== undefined && Number.isFinite(v);
       const isOut = outliers.has(`${r.session}/${r.device}`);
       const fill = has ? sequential(t(v)) : '#eeeeee';
       const textColour = has && t(v) > 0.55 ? '#000' : has ? '#fff' : '#555';
       // (a style, not a fill attribute: the report's stylesheet sets the chart text colour)
       parts.push(
-        `<g><title>${esc(r.device)}${r.site ? ` @ ${esc(r.site)}` : ''} (${r.x}, ${r.y}): ${has ? esc(formatQuantity(v, unit, undefined, 4)) : 'no value'}${isOut ? ' — outlier' : ''}</title>`,
+        `<g><title>${esc(r.device)}${r.site ? ` @ ${esc(r.site)}` : ''} (${r.x}, ${r.y}): ${has ? esc(formatQuantity(v, unit, undefined, 4)) : bound !== undefined ? `survived, beyond ${esc(formatQuantity(bound, unit, undefined, 4))}` : 'no value'}${isOut ? ' — outlier' : ''}</title>`,
       );
       parts.push(
         `<rect class="site" x="${X + 1}" y="${Y + 1}" width="${cell - 2}" height="${cell - 2}" fill="${fill}" stroke="${isOut ? OKABE_ITO.vermillion : '#fff'}" stroke-width="${isOut ? 3 : 1}"${has ? '' : ' stroke-dasharray="2 2"'}/>`,
       );
       parts.push(
-        `<text x="${X + cell / 2}" y="${Y + cell / 2}" text-anchor="middle" dominant-baseline="middle" style="fill:${textColour}" font-size="${cell < 34 ? 8 : 10}">${has ? esc(num(v * d.scale, 3)) : '—'}${isOut ? '!' : ''}</text></g>`,
+        `<text x="${X + cell / 2}" y="${Y + cell / 2}" text-anchor="middle" dominant-baseline="middle" style="fill:${textColour}" font-size="${cell < 34 ? 8 : 10}">${has ? esc(num(v * d.scale, 3)) : bound !== undefined ? `&gt;${esc(num(bound * d.scale, 3))}` : '—'}${isOut ? '!' : ''}</text></g>`,
       );
     }
     parts.push('</svg>');
@@ -469,7 +481,7 @@ table{border-collapse:collapse;font-variant-numeric:tabular-nums;font-size:.8rem
       const f = displayUnit(p.unit).scale;
       const isOut = outKey.get(p.name)?.has(`${r.session}/${r.device}`);
       out.push(
-        `<td${isOut ? ' class="out"' : ''}>${v ? `${num(v.value * f, 5)}${v.stdErr !== undefined ? ` ± ${num(v.stdErr * f, 2)}` : ''}${isOut ? ' ◇ outlier' : ''}` : '—'}</td>`,
+        `<td${isOut ? ' class="out"' : ''}>${v ? `${v.censored ? '&gt; ' : ''}${num(v.value * f, 5)}${v.stdErr !== undefined ? ` ± ${num(v.stdErr * f, 2)}` : ''}${isOut ? ' ◇ outlier' : ''}` : '—'}</td>`,
       );
     }
     out.push('</tr>');
@@ -484,7 +496,7 @@ table{border-collapse:collapse;font-variant-numeric:tabular-nums;font-size:.8rem
     const d = displayUnit(p.unit);
     out.push(boxStrip(p, a.rows));
     out.push(
-      `<p class="note">${esc(p.name)}: n = ${p.n}, median ${num(p.box.median * d.scale)} ${esc(d.unit)}, quartiles ${num(p.box.q1 * d.scale)} … ${num(p.box.q3 * d.scale)}${p.logScale ? '; spans more than a decade, so outliers are judged on ln(value)' : ''}${p.resolution !== null ? `; values sit on a grid of ${num(p.resolution * d.scale)} ${esc(d.unit)} (ties), so no spread below one step counts` : ''}${p.outliers.length ? `; outliers: ${p.outliers.map((q) => `${esc(q.device)} (z = ${q.z.toFixed(1)})`).join(', ')}` : ''}.</p>`,
+      `<p class="note">${esc(p.name)}: n = ${p.n}${p.survivors ? ` (${p.survivors} survivor${p.survivors === 1 ? '' : 's'} left out: their values are lower bounds)` : ''}, median ${num(p.box.median * d.scale)} ${esc(d.unit)}, quartiles ${num(p.box.q1 * d.scale)} … ${num(p.box.q3 * d.scale)}${p.logScale ? '; spans more than a decade, so outliers are judged on ln(value)' : ''}${p.resolution !== null ? `; values sit on a grid of ${num(p.resolution * d.scale)} ${esc(d.unit)} (ties), so no spread below one step counts` : ''}${p.outliers.length ? `; outliers: ${p.outliers.map((q) => `${esc(q.device)} (z = ${q.z.toFixed(1)})`).join(', ')}` : ''}.</p>`,
     );
   }
   // Wafer map.

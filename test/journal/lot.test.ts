@@ -195,6 +195,38 @@ describe('lot reader and cache', () => {
 });
 
 describe('lot report', () => {
+  it('a device that survived its ramp: its value is a lower bound, shown as "> value", not a breakdown and never an outlier', async () => {
+    // A survivor reached its value without breaking down: the value bounds its breakdown value from
+    // below (right-censored data, IEC 61649), so it is no draw of the breakdown distribution.
+    const data = mkdtempSync(join(tmpdir(), 'plumbline-lot-surv-'));
+    const fields = [1.12e9, 1.18e9, 1.15e9, 1.2e9, 1.09e9, 1.16e9, 1.22e9, 1.14e9];
+    fields.forEach((f, k) =>
+      writeSession(data, {
+        label: `b${k}`,
+        device: { device: `D${k}`, wafer: 'W1', site: `S${k}`, x: k % 3, y: Math.floor(k / 3) },
+        results: [{ device: `D${k}`, test: 'voltage-ramp', outcome: 'breakdown', breakdownField: f, breakdownVoltage: f * 7e-9 }],
+      }),
+    );
+    // A ramp stopped at 2 V (2.86 MV/cm) on purpose: the device held.
+    writeSession(data, {
+      label: 'held',
+      device: { device: 'H1', wafer: 'W1', site: 'S9', x: 2, y: 2 },
+      results: [{ device: 'H1', test: 'voltage-ramp', outcome: 'survived', breakdownField: 2 / 7e-9, breakdownVoltage: 2 }],
+    });
+    const a = await analyzeLot(new FolderLot([data]));
+    const field = a.parameters.find((p) => p.name === 'breakdown field');
+    expect(field?.n).toBe(8);
+    expect(field?.survivors).toBe(1);
+    expect(field?.outliers).toEqual([]);
+    expect(field?.box?.median).toBeCloseTo(1.155e9, -3);
+    expect(a.weibull?.censored).toBe(1);
+    const html = renderLot(a, { map: 'field' });
+    expect(html).toMatch(/&gt; 2\.8571/);
+    expect(html).toMatch(/1 survivor left out: their values are lower bounds/);
+    expect(html).toMatch(/survived, beyond 2\.857 MV\/cm/);
+    expect(html).not.toMatch(/◇ outlier<\/td>/);
+  });
+
   it('flags the outlier site, maps every site, fits the breakdown fields and shows them', async () => {
     const data = tmp();
     const barriers = [3.11, 3.13, 3.12, 3.1, 3.14, 3.12, 3.13, 2.6, 3.11];
