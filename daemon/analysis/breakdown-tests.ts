@@ -143,12 +143,20 @@ export class CurrentRampJudge {
   private vmax = 0;
   private n = 0;
 
-  constructor(readonly voltageDrop: number) {}
+  /**
+   * `voltageFloor`: a fall counts only once the device has held at least this voltage — below it the
+   * readings are the instrument's offset on a device that already conducts, and microvolts "falling"
+   * by a tenth are noise, not a breakdown.
+   */
+  constructor(
+    readonly voltageDrop: number,
+    readonly voltageFloor = 0,
+  ) {}
 
   add(v: number, i: number): BreakdownVerdict | undefined {
     const k = this.n++;
     const a = Math.abs(v);
-    if (this.vmax > 0 && a < (1 - this.voltageDrop) * this.vmax) {
+    if (this.vmax > 0 && this.vmax >= this.voltageFloor && a < (1 - this.voltageDrop) * this.vmax) {
       return {
         criterion: 'voltage-collapse',
         index: k,

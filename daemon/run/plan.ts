@@ -200,9 +200,15 @@ export const currentRampPlanSchema = z
       .object({
         /** The voltage falling by this fraction of its highest value so far is a collapse (breakdown). */
         voltageDrop: z.number().min(0.01).max(0.99).default(0.1),
+        /**
+         * V: the voltage the device must hold before a fall counts as a collapse (our default, 0.1 V:
+         * an intact film needs volts to pass even a nanoampere); a device below it at the first
+         * level already conducts — an initial failure, not stressed further.
+         */
+        voltageFloor: z.number().positive().finite().default(0.1),
       })
       .strict()
-      .default({ voltageDrop: 0.1 }),
+      .default({ voltageDrop: 0.1, voltageFloor: 0.1 }),
     overrideDiskCheck: z.boolean().default(false),
   })
   .strict()

@@ -230,8 +230,16 @@ export class StressTest {
     let verdict: BreakdownVerdict | undefined;
     let series: Series;
     if (p.kind === 'voltage-ramp') ({ verdict, series } = await this.voltageRamp(p));
-    else if (p.kind === 'current-ramp') ({ verdict, series } = await this.currentRamp(p));
-    else ({ verdict, series } = await this.constantStress(p));
+    else if (p.kind === 'current-ramp') {
+      const r = await this.currentRamp(p);
+      if (r.shorted)
+        return this.finish(
+          'initial-failure',
+          undefined,
+          `the device held only ${g(Math.abs(r.shorted.voltage))} V at the first current level (${g(r.shorted.current)} A), below the ${p.criteria.voltageFloor} V it must hold before its voltage can collapse (criteria.voltageFloor): it already conducts — an initial failure, not stressed`,
+        );
+      ({ verdict, series } = r);
+    } else ({ verdict, series } = await this.constantStress(p));
     // Never on again after a breakdown whose output-off the instrument did not confirm.
     if (p.useVoltage !== undefined && this.offConfirmed !== false) this.leakageAfter = await this.useCheck('use-condition check after the test');
     const { area, thickness } = this.geometry();
@@ -421,7 +429,9 @@ export class StressTest {
     return { series, tStart };
   }
 
-  private async currentRamp(p: CurrentRampPlan): Promise<{ verdict?: BreakdownVerdict; series: Series; tStart: number }> {
+  private async currentRamp(
+    p: CurrentRampPlan,
+  ): Promise<{ verdict?: BreakdownVerdict; series: Series; tStart: number; shorted?: { voltage: number; current: number } }> {
     const src = this.ctx.source;
     await src.configureCurrent(p.voltageLimit, p.nplc);
     this.ctx.check();
@@ -429,7 +439,7 @@ export class StressTest {
     const decades = Math.log10(Math.abs(p.stop / p.start));
     const n = Math.ceil(decades * p.stepsPerDecade - 1e-9);
     const levels = Array.from({ length: n + 1 }, (_, k) => (k === n ? p.stop : p.start * 10 ** (k / p.stepsPerDecade)));
-    const judge = new CurrentRampJudge(p.criteria.voltageDrop);
+    const judge = new CurrentRampJudge(p.criteria.voltageDrop, p.criteria.voltageFloor);
     this.startSweep(levels.length, `current ramp ${p.start} → ${p.stop} A, ${p.stepsPerDecade} steps per decade`);
     const tStart = this.now();
     const series = new Series(tStart, true);
@@ -453,6 +463,13 @@ export class StressTest {
       series.add(this.now(), m.reading.v, m.reading.i, i, tSet);
       const verdict = judge.add(m.reading.v, m.reading.i);
       this.ctx.take(m, i, verdict !== undefined);
+      if (series.t.length === 1 && Math.abs(m.reading.v) < p.criteria.voltageFloor) {
+        // Already conducting at the first level: nothing left to break. The output goes off.
+        this.ctx.chain.endSweep(false, `the device held only ${g(Math.abs(m.reading.v))} V at ${g(i)} A: it already conducts`);
+        await src.stepCurrent(0);
+        await src.outputOff();
+        return { series, tStart, shorted: { voltage: m.reading.v, current: i } };
+      }
       if (verdict) {
         const at = { ...verdict, index: series.t.length - 1 };
         await this.offAtBreakdown(at);

@@ -156,3 +156,37 @@ describe('a breakdown test of negative polarity', () => {
     expect(unnamed).toBe(a);
   }, 30_000);
 });
+
+describe('a current ramp on a device that already conducts', () => {
+  it('is an initial failure at the first level, not a "collapse" of microvolts, and the output goes off', async () => {
+    // The film on the chuck is broken first by a voltage ramp; a current ramp then finds a short:
+    // microvolts at a nanoampere, whose noise "falling by a tenth" had been taken for a breakdown.
+    const st = new Station(
+      parseConfig(
+        {
+          instrument: { kind: 'simulator', scenario: 'oxide-wearout', realTime: false, seed: 3 },
+          limits: { maxVoltage: 20, maxCompliance: 0.02, maxPower: 0.5, rampStep: 10 },
+        },
+        'test',
+      ),
+      join(tempDir(), 'data'),
+    );
+    const first = await st.startRun({ plan: { kind: 'voltage-ramp', start: 0, stop: 15, step: 0.1, stepTime: 0.1, compliance: 0.01 } });
+    await first.done;
+    expect(st.simulator?.device.breakdown).toBeDefined();
+    const h = await st.startRun({ plan: { kind: 'current-ramp', start: 1e-9, stop: 1e-3, stepTime: 0.05, voltageLimit: 14 } });
+    const r = await h.done;
+    expect(r.outcome).toBe('completed');
+    const events: WireEvent[] = [];
+    let readings = 0;
+    scanJournal(h.dir, (e) => (e.type === 'reading' ? void readings++ : void events.push(e)));
+    const result = events.find((e) => e.type === 'test-result');
+    if (result?.type !== 'test-result') throw new Error('no test result');
+    expect(result.outcome).toBe('initial-failure');
+    expect(result.reason).toMatch(/held only .* V at the first current level .* it already conducts/);
+    expect(readings).toBe(1);
+    // At the instrument: the output was turned off and left off.
+    const outputs = (st.simulator?.log ?? []).filter((l) => /^:OUTP(:STAT)? /.test(l));
+    expect(outputs[outputs.length - 1]).toMatch(/OFF|0$/);
+  });
+});
