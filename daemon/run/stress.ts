@@ -178,6 +178,8 @@ export class StressTest {
   private sweep = 0;
   private leakageBefore: number | undefined;
   private leakageAfter: number | undefined;
+  /** Why the leakage after the test is left empty (its reading was clipped at compliance), for the result's reason. */
+  private afterNote: string | undefined;
 
   constructor(
     readonly ctx: RunContext,
@@ -218,7 +220,7 @@ export class StressTest {
         "This test drives the device to breakdown on purpose: high fields, currents up to the limits, and a device that is destroyed at the end. The station's hard limits still apply and the output goes off the moment breakdown is confirmed; keep hands off the probes and the fixture, and follow your lab's safety rules.",
     });
     if (p.useVoltage !== undefined) {
-      this.leakageBefore = await this.useCheck('use-condition check before the test');
+      this.leakageBefore = (await this.useCheck('use-condition check before the test')).current;
       if (Math.abs(this.leakageBefore) > p.useCurrentLimit) {
         return this.finish(
           'initial-failure',
@@ -241,7 +243,14 @@ export class StressTest {
       ({ verdict, series } = r);
     } else ({ verdict, series } = await this.constantStress(p));
     // Never on again after a breakdown whose output-off the instrument did not confirm.
-    if (p.useVoltage !== undefined && this.offConfirmed !== false) this.leakageAfter = await this.useCheck('use-condition check after the test');
+    if (p.useVoltage !== undefined && this.offConfirmed !== false) {
+      const after = await this.useCheck('use-condition check after the test');
+      if (after.atCompliance) {
+        // A clipped reading is the compliance, not the device's current at the use voltage: the
+        // source could not hold the bias. The leakage is at least that much; no value is recorded.
+        this.afterNote = `the use-condition check after the test reached the compliance (${g(Math.abs(after.current))} A, the bias held at ${g(after.measuredBias)} V of ${p.useVoltage} V): the device conducts at least that much there, so leakage_after is left empty`;
+      } else this.leakageAfter = after.current;
+    }
     const { area, thickness } = this.geometry();
     const n = series.t.length;
     if (verdict) {
@@ -322,7 +331,7 @@ export class StressTest {
   }
 
   /** One reading at the use voltage (voltage sourcing at the plan's compliance); output off after. */
-  private async useCheck(label: string): Promise<number> {
+  private async useCheck(label: string): Promise<{ current: number; atCompliance: boolean; measuredBias: number }> {
     const p = this.plan;
     const src = this.ctx.source;
     const v = p.useVoltage as number;
@@ -339,7 +348,7 @@ export class StressTest {
     await src.rampTo(0);
     const sent = await src.outputOff();
     this.ctx.record({ type: 'output', on: false, sent, confirmed: false, reason: `${label} done` });
-    return m.reading?.i ?? Number.NaN;
+    return { current: m.reading?.i ?? Number.NaN, atCompliance: m.compliance, measuredBias: m.reading?.v ?? Number.NaN };
   }
 
   /**
@@ -637,6 +646,7 @@ export class StressTest {
       leakageAfter: this.leakageAfter,
       tags: this.device.tags,
     };
+    if (this.afterNote) reason = `${reason}; ${this.afterNote}`;
     this.ctx.record({
       type: 'test-result',
       test: result.test,

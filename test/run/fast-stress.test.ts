@@ -190,3 +190,19 @@ describe('a current ramp on a device that already conducts', () => {
     expect(outputs[outputs.length - 1]).toMatch(/OFF|0$/);
   });
 });
+
+describe('the use-condition check after a breakdown', () => {
+  it('a reading clipped at compliance is not recorded as the leakage after: left empty, and the result says why', async () => {
+    // After breakdown the film conducts: at 2 V it draws more than the check's compliance, the
+    // source cannot hold the bias, and the reading is the compliance itself, not a leakage.
+    const { result } = await runTest(
+      { kind: 'voltage-ramp', start: 0, stop: 12, step: 0.05, stepTime: 0.05, compliance: 0.001, useVoltage: 2 },
+      'oxide-breakdown',
+    );
+    if (result?.type !== 'test-result') throw new Error('no test result');
+    expect(result.outcome).toBe('breakdown');
+    expect(result.result.leakageBefore).toBeDefined();
+    expect(result.result.leakageAfter).toBeUndefined();
+    expect(result.reason).toMatch(/the use-condition check after the test reached the compliance .* leakage_after is left empty/);
+  });
+});
