@@ -14,6 +14,7 @@
  */
 import { existsSync, readFileSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
+import { STOP_MEANING, type StopReason } from '../analysis/adaptive-sweep.js';
 import { plotView, type PlotView } from '../analysis/plot.js';
 import { analysisSchema, type AnalysisSettings } from '../pipeline/settings.js';
 import { deviceLine, deviceRows, type FigureRow, numberRows, OUTCOME_LABELS, resultFigureRows, TEST_TITLES } from '../../protocols/breakdown-display.js';
@@ -98,6 +99,20 @@ function breakdownSection(s: SessionData): string {
     `<p class="note">${where ? `${esc(where)}. ` : ''}The same figures in SI, full precision, are one row of device-results.csv beside the journal. Breakdown tests follow the wafer-level procedures of JEDEC JESD35-A.</p>`,
   );
   return out.join('');
+}
+
+/** An adaptive plan's sweeps: readings, the largest |bias|, the charge passed, the parameter reached and why each stopped. */
+function adaptiveSection(s: SessionData): string {
+  if (s.adaptive.length === 0) return '';
+  const rows = s.adaptive.map((a) => {
+    const p = a.parameter;
+    const value = p ? formatParameterText({ value: p.value, stdErr: p.stdErr, unit: p.unit }, p.name) : '—';
+    const why = STOP_MEANING[a.stopReason as StopReason] ?? a.stopReason;
+    return `<tr><td>${a.sweep}</td><td>${a.readings}</td><td>${esc(formatQuantity(a.maxAbsBias, 'V', undefined, 4))}</td><td>${esc(formatQuantity(a.charge, 'C', undefined, 3))}</td><td>${esc(value)}</td><td>${esc(why)}</td></tr>`;
+  });
+  const total = s.adaptive.reduce((n, a) => n + a.readings, 0);
+  const name = s.adaptive.find((a) => a.parameter)?.parameter?.name;
+  return `<h2>Adaptive sweeps</h2><table><tr><th>sweep</th><th>readings</th><th>largest |V|</th><th>charge ∫|I|dt</th><th>${esc(name ? parameterLabel(name) : 'parameter')}</th><th>stopped because</th></tr>${rows.join('')}</table><p class="note">${total} readings in all; each sweep chose its own levels and stopped once the target was met or a limit reached.</p>`;
 }
 
 function planTable(plan: Record<string, unknown> | null | undefined): string {
@@ -350,6 +365,7 @@ table.kv th{font-weight:600;color:#444;width:16rem}.settings{display:grid;grid-t
     '<p class="caution">Cautions and decisions below record what the software saw. They do not replace your lab\'s safety rules, the instrument\'s manual or licensed practice.</p>',
   );
   out.push(breakdownSection(s));
+  out.push(adaptiveSection(s));
   // Settings, as tables in the trade's units.
   out.push('<h2>Settings</h2><div class="settings">');
   out.push(`<div><h3>Sweep plan</h3>${planTable(plan)}</div>`);

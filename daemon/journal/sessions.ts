@@ -46,6 +46,8 @@ export interface SessionData {
   readonly runEnd: Extract<WireEvent, { type: 'run-end' }> | null;
   /** A breakdown test's result (the last `test-result` event), or null. */
   readonly testResult: Extract<WireEvent, { type: 'test-result' }> | null;
+  /** An adaptive plan's figures per sweep (`adaptive-sweep` events), in order; empty for other plans. */
+  readonly adaptive: Extract<WireEvent, { type: 'adaptive-sweep' }>[];
   /** The device under test: the session's device metadata with later corrections in notes applied (later values win). */
   readonly device: DeviceIdentity | null;
   readonly badLines: BadLine[];
@@ -70,6 +72,7 @@ export function loadSession(dirIn: string): SessionData {
   const timelineSettings: SessionData['timelineSettings'] = [];
   let runEnd: SessionData['runEnd'] = null;
   let testResult: SessionData['testResult'] = null;
+  const adaptive: SessionData['adaptive'] = [];
   let device: DeviceIdentity | null = null;
   const scan = scanJournal(dir, (e) => {
     switch (e.type) {
@@ -116,6 +119,9 @@ export function loadSession(dirIn: string): SessionData {
       case 'test-result':
         testResult = e;
         break;
+      case 'adaptive-sweep':
+        adaptive.push(e);
+        break;
       case 'run-end':
         runEnd = e;
         timeline.push(e);
@@ -142,6 +148,7 @@ export function loadSession(dirIn: string): SessionData {
     timelineSettings,
     runEnd,
     testResult,
+    adaptive,
     device,
     badLines: scan.bad,
   };

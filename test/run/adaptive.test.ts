@@ -16,6 +16,8 @@ import { findScenario } from '../../daemon/simulator/scenarios.js';
 import { rmSync } from 'node:fs';
 import { scanJournal } from '../../daemon/journal/reader.js';
 import { adaptivePlan, adaptiveRun, CASES, fixedBaseline, run, withinTolerance } from '../bench/adaptive.js';
+import { renderReport } from '../../daemon/journal/report.js';
+import { loadSession } from '../../daemon/journal/sessions.js';
 
 const SEED = 2;
 /** The noise seeds the target and the fixed baseline are taken over here (the benchmark takes fifteen). */
@@ -148,5 +150,22 @@ describe('adaptive sweeps against the fixed sweep on every insulator scenario', 
     expect(Math.max(...sw.map((x) => x.readings))).toBeLessThan(15);
     expect(errs[10] / sd, `median stated ${errs[10]} eV against a spread of ${sd} eV`).toBeGreaterThan(0.6);
     expect(values.filter((v, k) => Math.abs(v - truth) <= 2 * (sw[k].parameter?.stdErr as number)).length).toBeGreaterThanOrEqual(17);
+  }, 60_000);
+
+  it('the session report shows each adaptive sweep: readings, largest |V|, charge, the parameter reached and why it stopped', async () => {
+    const c = CASES.find((k) => k.scenario === 'oxide-fn') as (typeof CASES)[number];
+    const { result, dir } = await run(c.scenario, { ...adaptivePlan(c, 0.002), repeat: 2 }, SEED);
+    const html = renderReport(loadSession(dir));
+    rmSync(dir, { recursive: true, force: true });
+    const sw = result.adaptive?.sweeps ?? [];
+    expect(sw).toHaveLength(2);
+    expect(html).toContain('<h2>Adaptive sweeps</h2>');
+    for (const x of sw) {
+      expect(html).toContain(`<tr><td>${x.sweep}</td><td>${x.readings}</td>`);
+      expect(x.stopReason).toBe('target-reached');
+    }
+    expect(html).toMatch(/the parameter reached its target standard error/);
+    expect(html).toMatch(/3\.\d+ ± 0\.\d+ eV/);
+    expect(html).toContain(`${sw[0].readings + sw[1].readings} readings in all`);
   }, 60_000);
 });
