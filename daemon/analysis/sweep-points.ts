@@ -419,3 +419,21 @@ export function chooseBranches(c: SweepClasses, forwardOnly: boolean, minSignal 
   if (p.maxCurrent > 10 * q.maxCurrent) return [p, q];
   return q.signal > 1.1 * p.signal ? [q, p] : [p, q];
 }
+
+/**
+ * Whether every reading sits at one bias (a constant-stress interval): no current–voltage curve to
+ * fit or draw against the bias. Readings `skip` names (at compliance or at breakdown) do not count:
+ * there the source no longer holds its bias, and the collapsed voltage of a breakdown would make a
+ * stress interval look like a sweep.
+ */
+export function atOneBias(v: ArrayLike<number>, skip?: (k: number) => boolean): boolean {
+  let lo = Infinity;
+  let hi = -Infinity;
+  for (let k = 0; k < v.length; k++) {
+    if (skip?.(k)) continue;
+    if (v[k] < lo) lo = v[k];
+    if (v[k] > hi) hi = v[k];
+  }
+  if (!(hi >= lo)) return true;
+  return hi - lo <= 1e-3 * Math.max(1, Math.abs(hi), Math.abs(lo));
+}

@@ -16,6 +16,7 @@ import { existsSync, readFileSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { STOP_MEANING, type StopReason } from '../analysis/adaptive-sweep.js';
 import { plotView, type PlotView } from '../analysis/plot.js';
+import { atOneBias } from '../analysis/sweep-points.js';
 import { analysisSchema, type AnalysisSettings } from '../pipeline/settings.js';
 import { deviceLine, deviceRows, type FigureRow, numberRows, OUTCOME_LABELS, resultFigureRows, TEST_TITLES } from '../../protocols/breakdown-display.js';
 import { axisLabel, displayUnit, formatInputs, formatParameter, formatParameterText, formatQuantity, parameterLabel } from '../../protocols/display-units.js';
@@ -218,16 +219,16 @@ function driftBreaks(points: Drift[], restartSeqs: Set<number>): { sweep: number
 }
 
 /** The measured curve with the page's marks: ✕ negative current (as |I|), □ at compliance. */
-function measuredSeries(sw: SweepData, color: string, label?: string): SvgSeries[] {
+function measuredSeries(sw: SweepData, color: string, label?: string, x: readonly number[] = sw.v): SvgSeries[] {
   const y = sw.i.map((i, k) => (sw.c[k] ? null : Math.abs(i) > 0 ? Math.abs(i) : null));
   const neg = sw.i.map((_i, k) => k).filter((k) => sw.i[k] < 0 && !sw.c[k]);
   const comp = sw.i.map((_i, k) => k).filter((k) => sw.c[k]);
-  const out: SvgSeries[] = [{ x: sw.v, y, color, marker: 'dot', line: true, label }];
+  const out: SvgSeries[] = [{ x, y, color, marker: 'dot', line: true, label }];
   if (neg.length)
-    out.push({ x: neg.map((k) => sw.v[k]), y: neg.map((k) => -sw.i[k]), color: OKABE_ITO.vermillion, marker: 'cross', line: false, label: 'negative current' });
+    out.push({ x: neg.map((k) => x[k]), y: neg.map((k) => -sw.i[k]), color: OKABE_ITO.vermillion, marker: 'cross', line: false, label: 'negative current' });
   if (comp.length)
     out.push({
-      x: comp.map((k) => sw.v[k]),
+      x: comp.map((k) => x[k]),
       y: comp.map((k) => Math.abs(sw.i[k])),
       color: OKABE_ITO.black,
       marker: 'square',
@@ -570,17 +571,34 @@ table.kv th{font-weight:600;color:#444;width:16rem}.settings{display:grid;grid-t
     out.push(
       `<div class="sweep"><h3>Sweep ${sw.sweep}${sw.label ? `: ${esc(sw.label)}` : ''}${sw.complete === false ? ' (incomplete)' : ''}</h3><div class="plots">`,
     );
+    // A stretch held at one bias (a constant-stress interval) is drawn against time: against the
+    // bias it would be a column of points on an axis a millivolt wide.
+    const held = sw.v.length > 1 && atOneBias(sw.v, (k) => sw.c[k] === 1 || sw.b[k] === 1);
+    const heldAt = held ? sw.v.find((_v, k) => !sw.c[k] && !sw.b[k]) : undefined;
     out.push(
-      svgChart({
-        title: 'measured: ✕ negative current (as |I|), □ at compliance',
-        xLabel: 'bias V (V)',
-        yLabel: '|I| (A)',
-        yLog: true,
-        series: measuredSeries(sw, OKABE_ITO.blue),
-      }),
+      held
+        ? svgChart({
+            title: `held at ${formatQuantity(heldAt ?? sw.v[0], 'V', undefined, 4)}: current against time; ✕ negative current (as |I|), □ at compliance`,
+            xLabel: 'time since the interval began (s)',
+            yLabel: '|I| (A)',
+            yLog: true,
+            series: measuredSeries(
+              sw,
+              OKABE_ITO.blue,
+              undefined,
+              sw.t.map((t) => (t - sw.t[0]) / 1000),
+            ),
+          })
+        : svgChart({
+            title: 'measured: ✕ negative current (as |I|), □ at compliance',
+            xLabel: 'bias V (V)',
+            yLabel: '|I| (A)',
+            yLog: true,
+            series: measuredSeries(sw, OKABE_ITO.blue),
+          }),
     );
     // The sweep is drawn with the settings its recorded fit was made with.
-    const a = settingsOf(sw.analysis) ?? analysis;
+    const a = held ? undefined : (settingsOf(sw.analysis) ?? analysis);
     if (a) {
       try {
         const v = plotView(

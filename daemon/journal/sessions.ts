@@ -17,6 +17,8 @@ export interface SweepData {
   readonly c: number[];
   /** 1 at the reading that showed a confirmed breakdown. */
   readonly b: number[];
+  /** When each reading was taken, ms since the session started (the journal's clock). */
+  readonly t: number[];
   /** What the sweep is, as the run named it at its start ("use-condition check before the test"; '' for a plain sweep). */
   label: string;
   complete: boolean | null;
@@ -59,7 +61,22 @@ export function loadSession(dirIn: string): SessionData {
   const sweep = (n: number) => {
     let s = sweeps.get(n);
     if (!s) {
-      s = { sweep: n, v: [], i: [], c: [], b: [], label: '', complete: null, fit: null, fitError: null, solar: null, analysis, drift: null, annotations: [] };
+      s = {
+        sweep: n,
+        v: [],
+        i: [],
+        c: [],
+        b: [],
+        t: [],
+        label: '',
+        complete: null,
+        fit: null,
+        fitError: null,
+        solar: null,
+        analysis,
+        drift: null,
+        annotations: [],
+      };
       sweeps.set(n, s);
     }
     return s;
@@ -82,6 +99,7 @@ export function loadSession(dirIn: string): SessionData {
         s.i.push(e.i);
         s.c.push(e.flags & FLAG.compliance ? 1 : 0);
         s.b.push(e.flags & FLAG.breakdown ? 1 : 0);
+        s.t.push(e.t);
         break;
       }
       case 'session':

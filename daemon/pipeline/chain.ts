@@ -12,6 +12,7 @@ import { Subject } from 'rxjs';
 import { analyze, resolveInputs, transformPoint, type FitReport, type FitRequest, type IVData } from '../analysis/analyze.js';
 import { BreakdownWatch } from '../analysis/breakdown.js';
 import { robustRms } from '../analysis/noise-floor.js';
+import { atOneBias } from '../analysis/sweep-points.js';
 import { DriftChart } from '../analysis/drift.js';
 import type { Mechanism, ResolvedInputs } from '../analysis/mechanism.js';
 import { getMechanism } from '../analysis/mechanisms/index.js';
@@ -85,23 +86,11 @@ export function summarizeFit(r: FitReport): FitSummary {
   };
 }
 
-/**
- * Whether every reading sits at one bias (a constant-stress interval): no curve to fit, and the
- * analysis is skipped outright — a stress run's clock keeps running at the stress bias meanwhile.
- * Readings at compliance or at breakdown (flags `c`) do not count: there the source no longer holds
- * its bias, and the collapsed voltage of a breakdown would make a stress interval look like a sweep.
- */
-function atOneBias(v: readonly number[], c?: readonly number[]): boolean {
-  let lo = Infinity;
-  let hi = -Infinity;
-  for (let k = 0; k < v.length; k++) {
-    if (c && c[k] & (FLAG.compliance | FLAG.breakdown)) continue;
-    if (v[k] < lo) lo = v[k];
-    if (v[k] > hi) hi = v[k];
-  }
-  if (!(hi >= lo)) return true;
-  return hi - lo <= 1e-3 * Math.max(1, Math.abs(hi), Math.abs(lo));
-}
+/** Readings whose bias the source did not hold (at compliance, or at breakdown), from the reading flags. */
+const unheld =
+  (c: readonly number[]) =>
+  (k: number): boolean =>
+    (c[k] & (FLAG.compliance | FLAG.breakdown)) !== 0;
 
 /** Ranking runs at a sweep's end at most this often, and on sweeps up to this many points. */
 const RANKING_INTERVAL_MS = 1000;
@@ -390,7 +379,8 @@ export class LiveChain {
   }
 
   private fitNow(v: number[], i: number[], c: number[], regimes = true, quick = false): { fit: FitSummary | null; error?: string; report?: FitReport } {
-    if (atOneBias(v, c)) return { fit: null, error: 'every reading is at one bias (a constant-stress interval): there is no current–voltage curve to fit' };
+    if (atOneBias(v, unheld(c)))
+      return { fit: null, error: 'every reading is at one bias (a constant-stress interval): there is no current–voltage curve to fit' };
     try {
       const report = analyze(this.data(v, i, c), { ...this.request(regimes), quick });
       return { fit: summarizeFit(report), report };
@@ -429,7 +419,7 @@ export class LiveChain {
   }
 
   private publishView(sweep: number, final: boolean, v: number[], i: number[], c: number[]): void {
-    if (!(this.options.viewsWanted ? this.options.viewsWanted() : this.views$.observed) || atOneBias(v, c)) return;
+    if (!(this.options.viewsWanted ? this.options.viewsWanted() : this.views$.observed) || atOneBias(v, unheld(c))) return;
     try {
       const view = plotView(this.data(v, i, c), this.request(true));
       this.views$.next({ sweep, final, view });
@@ -444,7 +434,7 @@ export class LiveChain {
 
   private publishRanking(force = false, data = { sweep: this.sweep, v: this.v, i: this.i, c: this.c }): void {
     const now = performance.now();
-    if (data.v.length > RANKING_MAX_POINTS || atOneBias(data.v, data.c)) return;
+    if (data.v.length > RANKING_MAX_POINTS || atOneBias(data.v, unheld(data.c))) return;
     if (!force && now - this.lastRankingAt < RANKING_INTERVAL_MS) {
       // Too soon after the last one (fast sweeps): kept, so the run's last sweep is ranked at its end.
       this.rankingSkipped = data;

@@ -8,6 +8,8 @@
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
 import { scanJournal } from '../../daemon/journal/reader.js';
+import { renderReport } from '../../daemon/journal/report.js';
+import { loadSession } from '../../daemon/journal/sessions.js';
 import { parseConfig } from '../../daemon/run/config.js';
 import { Station } from '../../daemon/run/station.js';
 import type { WireEvent } from '../../protocols/wire.js';
@@ -204,5 +206,31 @@ describe('the use-condition check after a breakdown', () => {
     expect(result.result.leakageBefore).toBeDefined();
     expect(result.result.leakageAfter).toBeUndefined();
     expect(result.reason).toMatch(/the use-condition check after the test reached the compliance .* leakage_after is left empty/);
+  });
+});
+
+describe('the session report of a constant-voltage stress', () => {
+  it('draws each stress interval as current against time, and each sense sweep against the bias', async () => {
+    const st = new Station(
+      parseConfig(
+        {
+          instrument: { kind: 'simulator', scenario: 'oxide-wearout', realTime: false, seed: 3 },
+          limits: { maxVoltage: 20, maxCompliance: 0.02, maxPower: 0.5, rampStep: 10 },
+        },
+        'test',
+      ),
+      join(tempDir(), 'data'),
+    );
+    const h = await st.startRun({
+      plan: { kind: 'constant-voltage', stress: 7, duration: 120, sampleEvery: 1, compliance: 0.01, sense: { start: 0, stop: 2, points: 5, every: 60 } },
+    });
+    await h.done;
+    const html = renderReport(loadSession(h.dir));
+    // Two stress intervals (before and after the sense sweep at 60 s), each against time.
+    expect(html.match(/held at 7 V: current against time/g)?.length).toBeGreaterThanOrEqual(2);
+    expect(html).toContain('time since the interval began (s)');
+    // The sense sweep (0 → 2 V) is a current–voltage curve, drawn against the bias.
+    expect(html).toMatch(/Sweep \d+: sense sweep 0 → 2 V/);
+    expect(html).toContain('bias V (V)');
   });
 });
