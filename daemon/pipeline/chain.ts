@@ -17,6 +17,7 @@ import type { Mechanism, ResolvedInputs } from '../analysis/mechanism.js';
 import { getMechanism } from '../analysis/mechanisms/index.js';
 import { plotView, type PlotView } from '../analysis/plot.js';
 import { solarSummary } from '../analysis/solar-live.js';
+import { OUTPUT_BEING_TURNED_OFF } from '../../protocols/caution-words.js';
 import { displayUnit } from '../../protocols/display-units.js';
 import { formatNumber } from '../../protocols/number-format.js';
 import { rankMechanisms } from '../analysis/ranking.js';
@@ -259,7 +260,7 @@ export class LiveChain {
         const action =
           this.options.control === false
             ? 'plumbline does not control this instrument: turn its output off with its own controls now'
-            : 'The output is being turned off';
+            : OUTPUT_BEING_TURNED_OFF;
         this.emit({
           type: 'caution',
           kind: 'breakdown-confirmed',

@@ -31,6 +31,7 @@ import {
   type Outcome,
   type Polarity,
 } from '../../protocols/device-results.js';
+import { checkAfterTestSentence } from '../../protocols/caution-words.js';
 import type { NewEvent } from '../../protocols/wire.js';
 import type { Measurement } from '../instrument/smu-driver.js';
 import type { Decision, LiveChain } from '../pipeline/chain.js';
@@ -350,7 +351,7 @@ export class StressTest {
       this.plan.useVoltage === undefined
         ? ''
         : check.confirmed
-          ? ` The output goes on once more, at the use voltage ${this.plan.useVoltage} V, for the check after the test, and off again: keep away from the fixture until the run has ended.`
+          ? checkAfterTestSentence(this.plan.useVoltage)
           : ' The instrument did not confirm that its output is off, so the check after the test is skipped.';
     this.ctx.record({
       type: 'caution',
