@@ -417,6 +417,26 @@ describe('a breakdown on the page, after the run has ended', () => {
     await page.close();
   });
 
+  it('the sweep opened read-only from the Sessions list shows how the output ended, from the journal', async () => {
+    const { page, errors } = await openPage(ctx.browser, ctx.daemon.url);
+    await page.click(`#sessions button:text-is("${sweepSession}")`);
+    await page.waitForFunction(() => (window as any).__plumbline.store.readOnly === true);
+    await page.waitForTimeout(200);
+    const events = (await api(ctx.daemon.url, 'GET', `/api/sessions/${sweepSession}`)).json.events as any[];
+    const end = events.filter((e) => e.type === 'output').at(-1);
+    expect(end).toMatchObject({ on: false, queried: true, confirmed: true });
+    // As the live view showed it at the end: ℹ OUTPUT OFF, with the instrument's answer.
+    expect(await page.locator('.caution[data-kind="output off"]').count()).toBe(1);
+    expect(await page.textContent('.caution[data-kind="output off"]')).toBe(
+      `ℹ output offThe run ended with the output off, confirmed by the instrument: ${end.reason}.`,
+    );
+    expect(await page.textContent('.caution[data-kind="breakdown"]')).toMatch(/The output was turned off; confirmed by the instrument\./);
+    expect(await page.locator('.caution[data-kind="compliance"]').count()).toBe(1);
+    await snap(page, 'page-breakdown-read-only.png');
+    expect(errors).toEqual([]);
+    await page.close();
+  });
+
   it('a destructive test with a check after it: once ended, its caution no longer says the output goes on once more', async () => {
     const { page, errors } = await openPage(ctx.browser, ctx.daemon.url);
     const r = await api(ctx.daemon.url, 'POST', '/api/run', {

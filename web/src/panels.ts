@@ -58,6 +58,23 @@ export function renderCautions(box: HTMLElement, s: Store): void {
     const o = s.lastOutput;
     // (An unconfirmed one has its own danger caution from the daemon, above.)
     if (o.queried && o.confirmed) add('info', 'output off', `The output is off, confirmed by the instrument: ${o.reason}.`);
+  } else if (s.lastOutput && s.readOnly) {
+    // A past session: how the output ended, from the journal's last output record.
+    const o = s.lastOutput;
+    if (o.on)
+      add(
+        'warning',
+        'output on at the end',
+        `The journal's last output record has the output on (${o.reason}): no output off was journaled after it. An instrument keeps its output state on its own; check its front panel before touching the fixture, and follow your lab's safety rules.`,
+      );
+    else if (o.queried && o.confirmed) add('info', 'output off', `The run ended with the output off, confirmed by the instrument: ${o.reason}.`);
+    else if (!o.queried)
+      add(
+        'info',
+        'output off',
+        `The journal's last output record: output off ${o.sent === false ? 'could NOT be sent' : 'sent'} (${o.reason}); the instrument was not asked to confirm it.`,
+      );
+    // (An off the instrument did not confirm has its own danger caution in the journal, below.)
   }
   const latest = new Map<string, Extract<WireEvent, { type: 'caution' }>>();
   for (const c of s.cautions) latest.set(c.kind, c);
