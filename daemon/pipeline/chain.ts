@@ -18,6 +18,7 @@ import type { Mechanism, ResolvedInputs } from '../analysis/mechanism.js';
 import { getMechanism } from '../analysis/mechanisms/index.js';
 import { plotView, type PlotView } from '../analysis/plot.js';
 import { solarSummary } from '../analysis/solar-live.js';
+import { OUTPUT_BEING_TURNED_OFF } from '../../protocols/caution-words.js';
 import { displayUnit } from '../../protocols/display-units.js';
 import { formatNumber } from '../../protocols/number-format.js';
 import { rankMechanisms } from '../analysis/ranking.js';
@@ -135,6 +136,10 @@ export class LiveChain {
   private readonly t0 = performance.now();
   private readonly tp = { x: 0, y: 0, bias: 0 };
   private lastFinal: { sweep: number; v: number[]; i: number[]; c: number[] } | undefined;
+  /** The points the sweep under way was planned to hold (0: not said). */
+  private planned = 0;
+  /** Seconds the run has left by its plan's own timing, when the run can say (a breakdown test). */
+  private remaining: (() => number | null) | undefined;
   private stopRequested: Decision | undefined;
   sweepsDone = 0;
   readings = 0;
@@ -179,8 +184,18 @@ export class LiveChain {
     return this.sweep;
   }
 
+  /**
+   * Where the progress events' time left comes from: the run's own plan (a breakdown test's phases
+   * differ in length, so the pace of the readings so far says little). Without it, the pace of the
+   * readings so far across sweeps of the plan's shape.
+   */
+  setRemaining(f: (() => number | null) | undefined): void {
+    this.remaining = f;
+  }
+
   startSweep(n: number, planned: number, label: string): void {
     this.sweep = n;
+    this.planned = Math.max(planned, 0);
     this.k = 0;
     this.v = [];
     this.i = [];
@@ -248,7 +263,7 @@ export class LiveChain {
         const action =
           this.options.control === false
             ? 'plumbline does not control this instrument: turn its output off with its own controls now'
-            : 'The output is being turned off';
+            : OUTPUT_BEING_TURNED_OFF;
         this.emit({
           type: 'caution',
           kind: 'breakdown-confirmed',
@@ -339,9 +354,12 @@ export class LiveChain {
     const done = (this.sweep - 1) * per + this.k;
     const total = sweeps * per;
     const elapsed = (now - this.t0) / 1000;
-    // An estimate only while the plan's shape holds (a test's sweeps differ in length; a stress ends early).
-    const eta = total > 0 && done > 0 && done <= total ? (elapsed / done) * (total - done) : null;
-    this.emit({ type: 'progress', sweep: this.sweep, sweeps: Math.max(sweeps, this.sweep), point: this.k, points: Math.max(per, this.k), eta });
+    // From the plan's own timing when the run gives it; else from the pace so far, only while the
+    // plan's shape holds (every sweep of the same length).
+    const eta = this.remaining ? this.remaining() : total > 0 && done > 0 && done <= total ? (elapsed / done) * (total - done) : null;
+    // The points of this sweep (a stress interval, a ramp), not the longest sweep of the plan.
+    const points = Math.max(this.planned || per, this.k);
+    this.emit({ type: 'progress', sweep: this.sweep, sweeps: Math.max(sweeps, this.sweep), point: this.k, points, eta });
   }
 
   /** A sweep's readings as analysis data (compliance and breakdown from the flag bits). */

@@ -336,12 +336,34 @@ export function planShape(p: Plan): { sweeps: number; pointsPerSweep: number } {
     case 'constant-voltage': {
       // A sense sweep at each multiple of sense.every short of the duration, and a stress segment
       // before each and after the last.
-      const senses = p.sense ? Math.max(0, Math.ceil(p.duration / p.sense.every) - 1) : 0;
+      const senses = senseSweeps(p);
       return { sweeps: 2 * senses + 1 + useChecks(p), pointsPerSweep: Math.max(Math.ceil(p.duration / p.sampleEvery) + 1, p.sense?.points ?? 0) };
     }
     default:
       return { sweeps: p.repeat, pointsPerSweep: sweepValues(p).length };
   }
+}
+
+/** The levels a voltage ramp sets, V: start, then every step towards stop, and stop itself. */
+export function voltageRampLevels(p: VoltageRampPlan): number[] {
+  const dir = Math.sign(p.stop - p.start);
+  const steps = Math.floor(Math.abs(p.stop - p.start) / p.step + 1e-9);
+  // Rounded to 12 significant digits: 9.6 V goes to the instrument as 9.6, not 9.600000000000001.
+  const levels = Array.from({ length: steps + 1 }, (_, k) => Number((p.start + dir * k * p.step).toPrecision(12)));
+  if (Math.abs(levels[levels.length - 1] - p.stop) > 1e-9) levels.push(p.stop);
+  return levels;
+}
+
+/** The currents a current ramp forces, A: stepsPerDecade to a decade from start, and stop itself. */
+export function currentRampLevels(p: CurrentRampPlan): number[] {
+  const decades = Math.log10(Math.abs(p.stop / p.start));
+  const n = Math.ceil(decades * p.stepsPerDecade - 1e-9);
+  return Array.from({ length: n + 1 }, (_, k) => (k === n ? p.stop : p.start * 10 ** (k / p.stepsPerDecade)));
+}
+
+/** The sense sweeps of a constant-voltage stress: one at each multiple of sense.every short of the duration. */
+export function senseSweeps(p: ConstantStressPlan): number {
+  return p.sense ? Math.max(0, Math.ceil(p.duration / p.sense.every) - 1) : 0;
 }
 
 /** The one-reading sweeps of a test's use-condition check, before and after. */

@@ -31,12 +31,14 @@ import {
   type Outcome,
   type Polarity,
 } from '../../protocols/device-results.js';
+import { checkAfterTestSentence } from '../../protocols/caution-words.js';
 import type { NewEvent } from '../../protocols/wire.js';
 import type { Measurement } from '../instrument/smu-driver.js';
 import type { Decision, LiveChain } from '../pipeline/chain.js';
 import type { GuardedSource } from './guard.js';
 import { useCheckCompliance } from './guard.js';
-import type { ConstantStressPlan, CurrentRampPlan, StressPlan, VoltageRampPlan } from './plan.js';
+import { testRemaining, type TestMoment } from './eta.js';
+import { currentRampLevels, voltageRampLevels, type ConstantStressPlan, type CurrentRampPlan, type StressPlan, type VoltageRampPlan } from './plan.js';
 
 /** What a stress test needs from the run that hosts it. */
 export interface RunContext {
@@ -180,6 +182,8 @@ export class StressTest {
   private leakageAfter: number | undefined;
   /** Why the leakage after the test is left empty (its reading was clipped at compliance), for the result's reason. */
   private afterNote: string | undefined;
+  /** Where the test stands, for the time it has left (run/eta.ts). */
+  private at: TestMoment = { phase: 'before' };
 
   constructor(
     readonly ctx: RunContext,
@@ -213,6 +217,8 @@ export class StressTest {
 
   async run(): Promise<StressOutcome> {
     const p = this.plan;
+    // The progress events' time left: the plan's own timing from where the test stands.
+    this.ctx.chain.setRemaining(() => testRemaining(p, this.at));
     this.ctx.record({
       type: 'caution',
       kind: 'destructive-test',
@@ -242,6 +248,7 @@ export class StressTest {
         );
       ({ verdict, series } = r);
     } else ({ verdict, series } = await this.constantStress(p));
+    this.at = { phase: 'after' };
     // Never on again after a breakdown whose output-off the instrument did not confirm.
     if (p.useVoltage !== undefined && this.offConfirmed !== false) {
       const after = await this.useCheck('use-condition check after the test');
@@ -367,7 +374,7 @@ export class StressTest {
       this.plan.useVoltage === undefined
         ? ''
         : check.confirmed
-          ? ` The output goes on once more, at the use voltage ${this.plan.useVoltage} V, for the check after the test, and off again: keep away from the fixture until the run has ended.`
+          ? checkAfterTestSentence(this.plan.useVoltage)
           : ' The instrument did not confirm that its output is off, so the check after the test is skipped.';
     this.ctx.record({
       type: 'caution',
@@ -389,20 +396,17 @@ export class StressTest {
     await src.configure(p.compliance, p.nplc);
     this.ctx.check();
     await this.outputOn('voltage ramp started');
-    const dir = Math.sign(p.stop - p.start);
-    const steps = Math.floor(Math.abs(p.stop - p.start) / p.step + 1e-9);
-    // Rounded to 12 significant digits: 9.6 V goes to the instrument as 9.6, not 9.600000000000001.
-    const levels = Array.from({ length: steps + 1 }, (_, k) => Number((p.start + dir * k * p.step).toPrecision(12)));
-    if (Math.abs(levels[levels.length - 1] - p.stop) > 1e-9) levels.push(p.stop);
+    const levels = voltageRampLevels(p);
     if (Math.abs(levels[0]) > p.step) await src.rampTo(levels[0]);
     const judge = new VoltageRampJudge(p.criteria, p.compliance);
     this.startSweep(levels.length, `voltage ramp ${p.start} → ${p.stop} V at ${g(p.step / p.stepTime)} V/s`);
     const tStart = this.now();
     const series = new Series(tStart, true);
     const pace = new StepPacer(p.stepTime);
-    for (const v of levels) {
+    for (const [k, v] of levels.entries()) {
       this.ctx.check();
       await src.step(v);
+      this.at = { phase: 'ramp', set: k + 1 };
       const tSet = this.now();
       await this.ctx.sleep(pace.holdAfterSet(tSet));
       this.ctx.check();
@@ -445,18 +449,17 @@ export class StressTest {
     await src.configureCurrent(p.voltageLimit, p.nplc);
     this.ctx.check();
     await this.outputOn('current ramp started');
-    const decades = Math.log10(Math.abs(p.stop / p.start));
-    const n = Math.ceil(decades * p.stepsPerDecade - 1e-9);
-    const levels = Array.from({ length: n + 1 }, (_, k) => (k === n ? p.stop : p.start * 10 ** (k / p.stepsPerDecade)));
+    const levels = currentRampLevels(p);
     const judge = new CurrentRampJudge(p.criteria.voltageDrop, p.criteria.voltageFloor);
     this.startSweep(levels.length, `current ramp ${p.start} → ${p.stop} A, ${p.stepsPerDecade} steps per decade`);
     const tStart = this.now();
     const series = new Series(tStart, true);
     const pace = new StepPacer(p.stepTime);
     let limited = false;
-    for (const i of levels) {
+    for (const [k, i] of levels.entries()) {
       this.ctx.check();
       await src.stepCurrent(i);
+      this.at = { phase: 'ramp', set: k + 1 };
       const tSet = this.now();
       await this.ctx.sleep(pace.holdAfterSet(tSet));
       this.ctx.check();
@@ -506,9 +509,15 @@ export class StressTest {
     let stressTime = 0;
     let nextSense = p.sense ? p.sense.every : Infinity;
     let segmentOpen = false;
+    // Sense sweeps done and the seconds they took together (the time left counts those to come at their mean).
+    const sensed = { done: 0, seconds: 0 };
+    const mark = (): void => {
+      this.at = { phase: 'stress', stressTime, sensesDone: sensed.done, senseSeconds: sensed.seconds };
+    };
     const openSegment = (): void => {
+      // The reading at the stress's start, then one every sampleEvery to the next sense sweep or the end.
       this.startSweep(
-        Math.max(1, Math.ceil(Math.min(p.duration - stressTime, nextSense - stressTime) / p.sampleEvery)),
+        1 + Math.max(0, Math.ceil(Math.min(p.duration - stressTime, nextSense - stressTime) / p.sampleEvery - 1e-9)),
         `stress at ${p.stress} V from ${g(stressTime)} s`,
       );
       segmentOpen = true;
@@ -531,6 +540,7 @@ export class StressTest {
       const t = clock(m);
       series.resume(t);
       if (!m.reading) {
+        mark();
         this.ctx.take(m, p.stress);
         return undefined;
       }
@@ -538,6 +548,7 @@ export class StressTest {
       if (after !== undefined) series.edge(series.t.length - 1, t - after);
       stressTime += after !== undefined ? 0.5 * Math.max(0, t - after) : 0;
       const verdict = judge.add(stressTime, m.reading.i, m.compliance);
+      mark();
       this.ctx.take(m, p.stress, verdict !== undefined);
       return verdict;
     };
@@ -555,6 +566,7 @@ export class StressTest {
       this.ctx.check();
       const m = await src.measure();
       if (!m.reading) {
+        mark();
         this.ctx.take(m, p.stress);
         continue;
       }
@@ -562,20 +574,24 @@ export class StressTest {
       series.add(t, m.reading.v, m.reading.i, p.stress);
       stressTime += t - series.tSet[series.tSet.length - 1];
       const verdict = judge.add(stressTime, m.reading.i, m.compliance);
+      mark();
       this.ctx.take(m, p.stress, verdict !== undefined);
       if (verdict) return broke(verdict);
       if (p.sense && stressTime >= nextSense && stressTime < p.duration) {
         this.ctx.chain.endSweep(true);
         segmentOpen = false;
-        const sensed = await this.senseSweep(p, clock);
+        const t0 = this.now();
+        const sense = await this.senseSweep(p, clock);
+        sensed.done++;
+        sensed.seconds += Math.max(0, this.now() - t0);
         // The stress was still on for part of the gap before the sense sweep's first reading.
-        if (sensed) {
-          series.edge(series.t.length - 1, sensed.first - series.t[series.t.length - 1]);
-          stressTime += 0.5 * Math.max(0, sensed.first - series.t[series.t.length - 1]);
+        if (sense) {
+          series.edge(series.t.length - 1, sense.first - series.t[series.t.length - 1]);
+          stressTime += 0.5 * Math.max(0, sense.first - series.t[series.t.length - 1]);
         }
         nextSense += p.sense.every;
         // The time spent sensing is not stress: the stress clock resumes at the next segment's first reading.
-        v0 = await startSegment(sensed?.last);
+        v0 = await startSegment(sense?.last);
         if (v0) return broke(v0);
       }
     }

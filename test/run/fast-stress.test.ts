@@ -110,6 +110,59 @@ describe('breakdown tests on a fast simulator', () => {
   });
 });
 
+describe("a breakdown test's progress: the time left from the plan's own timing", () => {
+  const progress = (events: WireEvent[]) => events.filter((e): e is Extract<WireEvent, { type: 'progress' }> => e.type === 'progress');
+
+  it('a voltage ramp with use-condition checks: the levels to come × the step time, the points of the phase under way', async () => {
+    // 0 → 15 V in 0.1 V steps of 0.1 s: 151 levels, 15.1 s of ramp (worked out in test/run/eta.test.ts).
+    const { events } = await runTest({ kind: 'voltage-ramp', start: 0, stop: 15, step: 0.1, stepTime: 0.1, compliance: 0.01, useVoltage: 1 });
+    const labels = new Map(events.flatMap((e) => (e.type === 'sweep-start' ? [[e.sweep, e.label] as const] : [])));
+    const ps = progress(events);
+    expect(ps.length).toBeGreaterThan(0);
+    for (const p of ps) {
+      const label = labels.get(p.sweep) ?? '';
+      if (label.startsWith('use-condition check before')) {
+        expect(p.points).toBe(1);
+        expect(p.eta).toBeCloseTo(15.1, 9);
+      } else if (label.startsWith('voltage ramp')) {
+        expect(p.points).toBe(151);
+        expect(p.eta).toBeCloseTo((151 - p.point) * 0.1, 9);
+      } else expect(p.eta).toBe(0);
+    }
+  });
+
+  it('a constant-voltage stress with sense sweeps: the stress time the duration has left, the points of the interval, no jumps', async () => {
+    // 300 s at 7 V (the film holds) sampled every second, a sense sweep every 100 s: an interval is
+    // the reading at its start and 100 more, not the 301 readings of the whole stress.
+    const { events, result } = await runTest({
+      kind: 'constant-voltage',
+      stress: 7,
+      duration: 300,
+      sampleEvery: 1,
+      compliance: 0.01,
+      sense: { start: 0, stop: 2, points: 5, every: 100 },
+    });
+    if (result?.type !== 'test-result') throw new Error('no test result');
+    expect(result.outcome).toBe('survived');
+    const labels = new Map(events.flatMap((e) => (e.type === 'sweep-start' ? [[e.sweep, e.label] as const] : [])));
+    const ps = progress(events);
+    expect(ps.some((p) => /^stress at/.test(labels.get(p.sweep) ?? ''))).toBe(true);
+    for (const p of ps) {
+      const label = labels.get(p.sweep) ?? '';
+      const from = /^stress at 7 V from ([\d.]+) s$/.exec(label);
+      if (from) {
+        expect(p.points).toBe(101);
+        // Readings a second of stress apart on the simulator's clock, the interval's first at its
+        // start: within half a sampling interval (command times add to the clock).
+        expect(Math.abs((p.eta as number) - (300 - Number(from[1]) - (p.point - 1)))).toBeLessThan(0.5);
+      } else expect(p.points).toBe(5);
+    }
+    // The estimate only falls as the test goes on.
+    const etas = ps.map((p) => p.eta as number);
+    for (let k = 1; k < etas.length; k++) expect(etas[k]).toBeLessThanOrEqual(etas[k - 1] + 1e-9);
+  });
+});
+
 describe('a breakdown test of negative polarity', () => {
   it('a voltage ramp to −15 V: the ramp sweep gets its live fit, the results row says negative, Q_bd the device’s own', async () => {
     const { r, events, sim, result } = await runTest({ kind: 'voltage-ramp', start: 0, stop: -15, step: 0.1, stepTime: 0.1, compliance: 0.01 });

@@ -385,6 +385,81 @@ describe('drift on the page', () => {
   });
 });
 
+describe('a breakdown on the page, after the run has ended', () => {
+  // A weak 7 nm oxide that breaks down near 8.75 V and stays shorted.
+  const ctx = browserAndDaemon(['--scenario', 'oxide-breakdown']);
+  let sweepSession = '';
+
+  /** The text of the breakdown caution on the page, once the run on screen has ended. */
+  async function breakdownCaution(page: Page): Promise<string> {
+    await page.waitForFunction(() => (window as any).__plumbline.store.runEnd !== null, undefined, { timeout: 30_000 });
+    await page.waitForTimeout(200);
+    expect(await page.locator('.caution[data-kind="breakdown"]').count()).toBe(1);
+    return (await page.textContent('.caution[data-kind="breakdown"]')) ?? '';
+  }
+
+  it('a sweep through breakdown: with the output confirmed off, the caution no longer says it is being turned off', async () => {
+    const { page, errors } = await openPage(ctx.browser, ctx.daemon.url);
+    await startFromPage(page, { start: '0', stop: '12', points: '121', repeat: '1', compliance: '0.001' });
+    const text = await breakdownCaution(page);
+    sweepSession = (await pageState(page)).session as string;
+    const events = (await api(ctx.daemon.url, 'GET', `/api/sessions/${sweepSession}`)).json.events as any[];
+    const end = events.filter((e) => e.type === 'output').at(-1);
+    expect(end).toMatchObject({ on: false, queried: true, confirmed: true });
+    // The journal keeps the words of the moment; the page, after the end, reads them in the past.
+    expect(events.find((e) => e.type === 'caution' && e.kind === 'breakdown-confirmed').message).toMatch(/The output is being turned off\./);
+    expect(text).not.toMatch(/is being turned off/);
+    expect(text).toMatch(/The output was turned off; confirmed by the instrument\./);
+    // The rest of the caution is the daemon's, the lab's rules included.
+    expect(text).toMatch(/Treat the device as broken; follow your lab's rules before touching the fixture\./);
+    await snap(page, 'page-breakdown-ended.png');
+    expect(errors).toEqual([]);
+    await page.close();
+  });
+
+  it('the sweep opened read-only from the Sessions list shows how the output ended, from the journal', async () => {
+    const { page, errors } = await openPage(ctx.browser, ctx.daemon.url);
+    await page.click(`#sessions button:text-is("${sweepSession}")`);
+    await page.waitForFunction(() => (window as any).__plumbline.store.readOnly === true);
+    await page.waitForTimeout(200);
+    const events = (await api(ctx.daemon.url, 'GET', `/api/sessions/${sweepSession}`)).json.events as any[];
+    const end = events.filter((e) => e.type === 'output').at(-1);
+    expect(end).toMatchObject({ on: false, queried: true, confirmed: true });
+    // As the live view showed it at the end: ℹ OUTPUT OFF, with the instrument's answer.
+    expect(await page.locator('.caution[data-kind="output off"]').count()).toBe(1);
+    expect(await page.textContent('.caution[data-kind="output off"]')).toBe(
+      `ℹ output offThe run ended with the output off, confirmed by the instrument: ${end.reason}.`,
+    );
+    expect(await page.textContent('.caution[data-kind="breakdown"]')).toMatch(/The output was turned off; confirmed by the instrument\./);
+    expect(await page.locator('.caution[data-kind="compliance"]').count()).toBe(1);
+    await snap(page, 'page-breakdown-read-only.png');
+    expect(errors).toEqual([]);
+    await page.close();
+  });
+
+  it('a destructive test with a check after it: once ended, its caution no longer says the output goes on once more', async () => {
+    const { page, errors } = await openPage(ctx.browser, ctx.daemon.url);
+    const r = await api(ctx.daemon.url, 'POST', '/api/run', {
+      plan: { kind: 'voltage-ramp', start: 0, stop: 12, step: 0.1, stepTime: 0.05, compliance: 0.001, useVoltage: 1 },
+      // A device of its own (the sweep before left the one on the chuck shorted).
+      device: { device: 'PL09-A5' },
+    });
+    expect(r.status).toBe(201);
+    await page.waitForFunction((id) => (window as any).__plumbline.store.session === id, r.json.session, { timeout: 10_000 });
+    const text = await breakdownCaution(page);
+    const events = (await api(ctx.daemon.url, 'GET', `/api/sessions/${r.json.session}`)).json.events as any[];
+    expect(events.find((e) => e.type === 'caution' && e.kind === 'breakdown-confirmed').message).toMatch(/The output goes on once more/);
+    expect(events.filter((e) => e.type === 'output').at(-1)).toMatchObject({ on: false, queried: true, confirmed: true });
+    expect(text).not.toMatch(/goes on once more|keep away from the fixture until the run has ended/);
+    expect(text).toMatch(
+      /The check after the test at the use voltage 1 V came next; the run has ended since\. The output was turned off; confirmed by the instrument\./,
+    );
+    expect(text).toMatch(/Follow your lab's rules before touching the fixture\./);
+    expect(errors).toEqual([]);
+    await page.close();
+  });
+});
+
 describe('a drift watch with nothing to follow, on the page', () => {
   // The simulated solar cell's default analysis is a straight line, whose fit gives no parameter.
   const ctx = browserAndDaemon(['--scenario', 'solar-cell']);

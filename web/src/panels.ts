@@ -2,6 +2,7 @@
  * The text panels: cautions, fitted parameters (with where they came from), the mechanism ranking.
  * Numbers go through the shared formatter and display units, as in the CLI and the report.
  */
+import { settledCaution } from '../../protocols/caution-words.js';
 import { formatInputs, formatParameter, parameterLabel } from '../../protocols/display-units.js';
 import { formatNumber } from '../../protocols/number-format.js';
 import type { FitSummary, SolarSummary, WireEvent } from '../../protocols/wire.js';
@@ -16,6 +17,15 @@ type Level = 'danger' | 'warning' | 'info';
 export function driftNotWatched(s: Store): Extract<WireEvent, { type: 'caution' }> | undefined {
   const c = s.cautions.filter((x) => x.kind === 'drift-not-watched').at(-1);
   return c && !s.drift.some((d) => d.seq > c.seq && d.value !== null) ? c : undefined;
+}
+
+/**
+ * How the output ended the run, once it has ended: the last output event, when it is the
+ * instrument's answer to the output query (the runner asks it after every run).
+ */
+export function outputAtEnd(s: Store): Extract<WireEvent, { type: 'output' }> | undefined {
+  const o = s.lastOutput;
+  return !s.running && s.runEnd && o && !o.on && o.queried ? o : undefined;
 }
 
 export function renderCautions(box: HTMLElement, s: Store): void {
@@ -48,6 +58,23 @@ export function renderCautions(box: HTMLElement, s: Store): void {
     const o = s.lastOutput;
     // (An unconfirmed one has its own danger caution from the daemon, above.)
     if (o.queried && o.confirmed) add('info', 'output off', `The output is off, confirmed by the instrument: ${o.reason}.`);
+  } else if (s.lastOutput && s.readOnly) {
+    // A past session: how the output ended, from the journal's last output record.
+    const o = s.lastOutput;
+    if (o.on)
+      add(
+        'warning',
+        'output on at the end',
+        `The journal's last output record has the output on (${o.reason}): no output off was journaled after it. An instrument keeps its output state on its own; check its front panel before touching the fixture, and follow your lab's safety rules.`,
+      );
+    else if (o.queried && o.confirmed) add('info', 'output off', `The run ended with the output off, confirmed by the instrument: ${o.reason}.`);
+    else if (!o.queried)
+      add(
+        'info',
+        'output off',
+        `The journal's last output record: output off ${o.sent === false ? 'could NOT be sent' : 'sent'} (${o.reason}); the instrument was not asked to confirm it.`,
+      );
+    // (An off the instrument did not confirm has its own danger caution in the journal, below.)
   }
   const latest = new Map<string, Extract<WireEvent, { type: 'caution' }>>();
   for (const c of s.cautions) latest.set(c.kind, c);
@@ -67,9 +94,15 @@ export function renderCautions(box: HTMLElement, s: Store): void {
     ['compliance', 'warning', 'compliance'],
     ['recovery', 'warning', 'recovered'],
   ];
+  // Once the run has ended and the instrument has answered its output query, a caution that spoke
+  // of the output being turned off (or going on again for the check after a test) is read in the
+  // past, with that answer: it must not go on saying that something is under way.
+  const end = outputAtEnd(s);
   for (const [kind, level, tag] of order) {
     const c = latest.get(kind);
-    if (c) add(level, tag, `${c.sweep !== undefined ? `sweep ${c.sweep}: ` : ''}${c.message}`);
+    if (!c) continue;
+    const message = end && end.seq > c.seq ? settledCaution(c.message, end) : c.message;
+    add(level, tag, `${c.sweep !== undefined ? `sweep ${c.sweep}: ` : ''}${message}`);
   }
 }
 
