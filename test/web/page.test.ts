@@ -458,6 +458,22 @@ describe('a breakdown on the page, after the run has ended', () => {
     expect(errors).toEqual([]);
     await page.close();
   });
+
+  it('a constant-voltage stress: the drift panel says no sweep was fitted, not that the model has no parameter', async () => {
+    const { page, errors } = await openPage(ctx.browser, ctx.daemon.url);
+    const r = await api(ctx.daemon.url, 'POST', '/api/run', {
+      plan: { kind: 'constant-voltage', stress: 5, duration: 120, sampleEvery: 1, compliance: 0.001, sense: { start: 0, stop: 2, points: 5, every: 60 } },
+      device: { device: 'PL09-A6' },
+    });
+    expect(r.status).toBe(201);
+    await page.waitForFunction((id) => (window as any).__plumbline.store.session === id, r.json.session, { timeout: 10_000 });
+    await page.waitForFunction(() => (window as any).__plumbline.store.runEnd !== null, undefined, { timeout: 30_000 });
+    await page.waitForTimeout(200);
+    // The Fowler–Nordheim model has a parameter; the stress intervals are simply not sweeps.
+    expect(await page.textContent('#drift-state')).toMatch(/^nothing to chart: no sweep of this run gave a parameter/);
+    expect(errors).toEqual([]);
+    await page.close();
+  });
 });
 
 describe('a drift watch with nothing to follow, on the page', () => {

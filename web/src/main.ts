@@ -347,7 +347,9 @@ function renderDrift(s: Store): void {
     : d
       ? `sweep ${d.sweep}: ${d.state.replace(/-/g, ' ')}${br ? ` · baseline restarted at sweep ${br.sweep} (${br.reason})` : ''}`
       : s.finalFits.size >= 2 && [...s.finalFits.values()].every((f) => !f || Object.keys(f.parameters).length === 0)
-        ? "nothing to chart: this model's fits have no physical parameter"
+        ? [...s.finalFits.values()].some((f) => !f)
+          ? 'nothing to chart: no sweep of this run gave a parameter (a stress held at one bias, or a sweep at the noise floor, is not fitted)'
+          : "nothing to chart: this model's fits have no physical parameter"
         : 'charted once the baseline sweeps are in';
 }
 
