@@ -15,8 +15,9 @@ import { Station } from '../../daemon/run/station.js';
 import type { WireEvent } from '../../protocols/wire.js';
 import { tempDir } from '../helpers/daemon.js';
 
-async function runTest(plan: Record<string, unknown>, scenario = 'oxide-wearout') {
-  const st = new Station(
+/** A station on the fast simulator (seed 3) with a fresh data folder. */
+function fastStation(scenario = 'oxide-wearout'): Station {
+  return new Station(
     parseConfig(
       {
         instrument: { kind: 'simulator', scenario, realTime: false, seed: 3 },
@@ -26,6 +27,10 @@ async function runTest(plan: Record<string, unknown>, scenario = 'oxide-wearout'
     ),
     join(tempDir(), 'data'),
   );
+}
+
+async function runTest(plan: Record<string, unknown>, scenario = 'oxide-wearout') {
+  const st = fastStation(scenario);
   const h = await st.startRun({ plan });
   const r = await h.done;
   const events: WireEvent[] = [];
@@ -185,16 +190,7 @@ describe('a breakdown test of negative polarity', () => {
   });
 
   it('each named device is a device of its own on the simulated chuck (its own Weibull-drawn endurance); a name comes back the same', async () => {
-    const st = new Station(
-      parseConfig(
-        {
-          instrument: { kind: 'simulator', scenario: 'oxide-wearout', realTime: false, seed: 3 },
-          limits: { maxVoltage: 20, maxCompliance: 0.02, maxPower: 0.5, rampStep: 10 },
-        },
-        'test',
-      ),
-      join(tempDir(), 'data'),
-    );
+    const st = fastStation();
     const plan = { kind: 'voltage-ramp', start: 0, stop: 15, step: 0.1, stepTime: 0.1, compliance: 0.01 };
     const endurance = async (device?: Record<string, unknown>) => {
       const h = await st.startRun({ plan: { ...plan, ...(device ? { device } : {}) } });
@@ -216,16 +212,7 @@ describe('a current ramp on a device that already conducts', () => {
   it('is an initial failure at the first level, not a "collapse" of microvolts, and the output goes off', async () => {
     // The film on the chuck is broken first by a voltage ramp; a current ramp then finds a short:
     // microvolts at a nanoampere, whose noise "falling by a tenth" had been taken for a breakdown.
-    const st = new Station(
-      parseConfig(
-        {
-          instrument: { kind: 'simulator', scenario: 'oxide-wearout', realTime: false, seed: 3 },
-          limits: { maxVoltage: 20, maxCompliance: 0.02, maxPower: 0.5, rampStep: 10 },
-        },
-        'test',
-      ),
-      join(tempDir(), 'data'),
-    );
+    const st = fastStation();
     const first = await st.startRun({ plan: { kind: 'voltage-ramp', start: 0, stop: 15, step: 0.1, stepTime: 0.1, compliance: 0.01 } });
     await first.done;
     expect(st.simulator?.device.breakdown).toBeDefined();
@@ -264,16 +251,7 @@ describe('the use-condition check after a breakdown', () => {
 
 describe('the session report of a constant-voltage stress', () => {
   it('draws each stress interval as current against time, and each sense sweep against the bias', async () => {
-    const st = new Station(
-      parseConfig(
-        {
-          instrument: { kind: 'simulator', scenario: 'oxide-wearout', realTime: false, seed: 3 },
-          limits: { maxVoltage: 20, maxCompliance: 0.02, maxPower: 0.5, rampStep: 10 },
-        },
-        'test',
-      ),
-      join(tempDir(), 'data'),
-    );
+    const st = fastStation();
     const h = await st.startRun({
       plan: { kind: 'constant-voltage', stress: 7, duration: 120, sampleEvery: 1, compliance: 0.01, sense: { start: 0, stop: 2, points: 5, every: 60 } },
     });
