@@ -312,7 +312,13 @@ export class Station {
    * The instrument is claimed before the first await, so of two requests arriving together exactly
    * one starts a run and the other gets 409.
    */
-  async startRun(options: { plan?: unknown; analysis?: unknown; label?: string; device?: unknown } = {}): Promise<RunHandle> {
+  /**
+   * Starts a run. `acknowledgeDestructive: false` refuses a breakdown test (voltage or current ramp,
+   * constant-voltage stress: it destroys the device at high field) before anything reaches the
+   * instrument; the API passes it from its request body, so a script must say it knows. Left out
+   * (the CLI, where a person named the plan file), no acknowledgement is asked.
+   */
+  async startRun(options: { plan?: unknown; analysis?: unknown; label?: string; device?: unknown; acknowledgeDestructive?: boolean } = {}): Promise<RunHandle> {
     if (this.running) throw new StationError(`a run is in progress (session ${this.current?.session ?? '(starting)'}); stop or abort it first`);
     // A plan (file or request) may carry the device under test beside its sweep settings.
     const { device: planDevice, ...planRest } = (
@@ -320,6 +326,11 @@ export class Station {
     ) as { device?: unknown };
     const plan = options.plan === undefined ? this.defaultPlan() : parsePlan(planDevice === undefined ? options.plan : planRest, 'plan');
     checkPlan(this.config.limits, plan);
+    if (options.acknowledgeDestructive === false && isStressPlan(plan))
+      throw new StationError(
+        `body: field 'acknowledgeDestructive': this plan (${describePlan(plan)}) stresses the film until it breaks down, destroying the device, at high voltage; read the README's breakdown-test cautions, follow your lab's safety rules, and send "acknowledgeDestructive": true with the plan to start it`,
+        400,
+      );
     const device = this.parseDevice(planDevice, options.device);
     let analysis = options.analysis !== undefined ? this.parseAnalysis(options.analysis) : this.analysis;
     // The device's own area, thickness and temperature are the live fit's inputs for this run.

@@ -34,6 +34,12 @@ export const runBody = z
     analysis: z.unknown().optional().describe('Analysis settings for the live fit: {model, window, inputs}.'),
     label: z.string().max(40).optional().describe('Part of the session id.'),
     device: z.unknown().optional().describe('The device under test: {device, wafer, site, x, y, area, thickness, temperature, tags} (SI).'),
+    acknowledgeDestructive: z
+      .boolean()
+      .optional()
+      .describe(
+        'Must be true for a breakdown test (voltage-ramp, current-ramp, constant-voltage): it destroys the device at high field. Without it such a plan is refused (400) before anything is sent to the instrument.',
+      ),
   })
   .strict();
 
@@ -201,7 +207,7 @@ export const ROUTES: readonly RouteSpec[] = [
     summary: "Start a run (one per instrument): the plan is checked against the station's limits and the free disk before anything is sent.",
     responses: {
       201: { description: 'The run started.', schema: runReply },
-      400: E('A bad plan, a limit it breaks, or a bad body.'),
+      400: E("A bad plan, a limit it breaks, a breakdown test without 'acknowledgeDestructive': true, or a bad body."),
       409: E('A run is already in progress.'),
       415: E('The body is not JSON.'),
       502: E('The instrument cannot be reached or does not answer.'),

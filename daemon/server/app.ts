@@ -302,7 +302,13 @@ export async function startServer(station: Station, options: ServerOptions): Pro
   });
   app.post('/api/run', async (req, res) => {
     const b = body(runBody, req);
-    const h = await station.startRun({ plan: b.plan, analysis: b.analysis, label: b.label, device: b.device });
+    const h = await station.startRun({
+      plan: b.plan,
+      analysis: b.analysis,
+      label: b.label,
+      device: b.device,
+      acknowledgeDestructive: b.acknowledgeDestructive === true,
+    });
     h.done.catch(() => undefined);
     res.status(201).json({ session: h.session, plan: h.plan });
   });

@@ -279,6 +279,38 @@ describe('constant-voltage stress', () => {
   });
 });
 
+describe('the API asks for an acknowledgement before a breakdown test', () => {
+  it('a ramp without "acknowledgeDestructive": true is refused naming the field, and the instrument receives no source command', async () => {
+    const { inst, devices } = await instruments((n) => new SimulatedSmu({ device: WEAROUT.device, seed: 500 + n, realTime: false }));
+    const dir = tempDir();
+    const cfg = writeConfig(dir, { instrument: inst, limits: LIMITS, analysis: { model: 'fowler-nordheim', window: 'auto', inputs: WEAROUT.device.inputs } });
+    const d = await startDaemon(['--config', cfg, '--data', join(dir, 'data')]);
+    cleanups.push(() => d.stop());
+    const plan = { kind: 'voltage-ramp', start: 7, stop: 13, step: 0.05, stepTime: 0.005, compliance: 0.01 };
+    for (const body of [{ plan }, { plan, acknowledgeDestructive: false }]) {
+      const r = await api(d.url, 'POST', '/api/run', body);
+      expect(r.status).toBe(400);
+      expect(r.json.error).toMatch(/field 'acknowledgeDestructive'.*voltage ramp 7 V → 13 V.*destroying the device/);
+    }
+    // A string is not an acknowledgement: the body's schema refuses it.
+    expect((await api(d.url, 'POST', '/api/run', { plan, acknowledgeDestructive: 'yes' })).status).toBe(400);
+    // At the instrument's end of the wire: nothing was sourced and no output went on.
+    const sent = devices.flatMap((x) => x.received.map((r) => r.line));
+    expect(sent.filter((l) => /:SOUR|OUTP(UT)?(:STAT(E)?)? +(ON|1)/i.test(l))).toEqual([]);
+    expect(devices.every((x) => !x.output)).toBe(true);
+    expect((await api(d.url, 'GET', '/api/status')).json.running).toBe(false);
+    // A sweep needs no acknowledgement; the same ramp with it runs to breakdown and ends with the output off.
+    const sweep = await api(d.url, 'POST', '/api/run', { plan: { kind: 'linear', start: 0, stop: 2, points: 5, compliance: 1e-3 } });
+    expect(sweep.status, JSON.stringify(sweep.json)).toBe(201);
+    for (let k = 0; k < 500 && (await api(d.url, 'GET', '/api/status')).json.running; k++) await new Promise((res) => setTimeout(res, 20));
+    const ramp = await api(d.url, 'POST', '/api/run', { plan, acknowledgeDestructive: true });
+    expect(ramp.status, JSON.stringify(ramp.json)).toBe(201);
+    for (let k = 0; k < 2000 && (await api(d.url, 'GET', '/api/status')).json.running; k++) await new Promise((res) => setTimeout(res, 20));
+    expect(devices.at(-1)?.device.breakdown).toBeDefined();
+    expect(devices.every((x) => !x.output)).toBe(true);
+  }, 60_000);
+});
+
 describe('a lot ramped to breakdown, then weibull', () => {
   it("30 devices through the station; the Weibull fit of Q_bd brackets the simulator's shape and scale", async () => {
     // No field acceleration: then the charge a device passes before it breaks is its own Weibull
@@ -300,7 +332,7 @@ describe('a lot ramped to breakdown, then weibull', () => {
         compliance: 0.01,
         device: { device: `D${n}`, wafer: 'PL-11', site: `S${n}` },
       };
-      const start = await api(d.url, 'POST', '/api/run', { plan });
+      const start = await api(d.url, 'POST', '/api/run', { plan, acknowledgeDestructive: true });
       expect(start.status, JSON.stringify(start.json)).toBe(201);
       for (let k = 0; k < 2000 && (await api(d.url, 'GET', '/api/status')).json.running; k++) await new Promise((res) => setTimeout(res, 20));
     }

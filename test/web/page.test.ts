@@ -440,6 +440,7 @@ describe('a breakdown on the page, after the run has ended', () => {
   it('a destructive test with a check after it: once ended, its caution no longer says the output goes on once more', async () => {
     const { page, errors } = await openPage(ctx.browser, ctx.daemon.url);
     const r = await api(ctx.daemon.url, 'POST', '/api/run', {
+      acknowledgeDestructive: true,
       plan: { kind: 'voltage-ramp', start: 0, stop: 12, step: 0.1, stepTime: 0.05, compliance: 0.001, useVoltage: 1 },
       // A device of its own (the sweep before left the one on the chuck shorted).
       device: { device: 'PL09-A5' },
@@ -462,6 +463,7 @@ describe('a breakdown on the page, after the run has ended', () => {
   it('a constant-voltage stress: the drift panel says no sweep was fitted, not that the model has no parameter', async () => {
     const { page, errors } = await openPage(ctx.browser, ctx.daemon.url);
     const r = await api(ctx.daemon.url, 'POST', '/api/run', {
+      acknowledgeDestructive: true,
       plan: { kind: 'constant-voltage', stress: 5, duration: 120, sampleEvery: 1, compliance: 0.001, sense: { start: 0, stop: 2, points: 5, every: 60 } },
       device: { device: 'PL09-A6' },
     });

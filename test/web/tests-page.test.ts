@@ -220,6 +220,7 @@ describe('breakdown tests and adaptive sweeps on the page', () => {
   }, async () => {
     const { page, errors } = await openPage(browser, daemon.url);
     const r = await api(daemon.url, 'POST', '/api/run', {
+      acknowledgeDestructive: true,
       plan: { kind: 'voltage-ramp', start: 0, stop: 15, step: 0.25, stepTime: 0.02, compliance: 1e-2, useVoltage: 1 },
       device: { device: 'NF1' },
     });

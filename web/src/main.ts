@@ -583,7 +583,9 @@ $('plan-form').addEventListener('submit', (ev) => {
   );
   backToLive();
   // Each breakdown test is confirmed on its own: the box is cleared once one starts.
-  call('POST', '/api/run', Object.keys(device).length ? { plan, device } : { plan })
+  // The box ticked is the acknowledgement the daemon asks of every breakdown test.
+  const destroys = isDestructive(String(plan.kind)) ? { acknowledgeDestructive: true } : {};
+  call('POST', '/api/run', Object.keys(device).length ? { plan, device, ...destroys } : { plan, ...destroys })
     .then((r) => {
       ack.checked = false;
       say(`Run started: ${r.session}`, false, f);
