@@ -837,14 +837,25 @@ export function fitBranch(
     // less than twice its uncertainty is not distinguishable from zero (a 95 % test, common
     // practice). The resistance, its reciprocal, hides that: its first-order error stays finite as
     // the slope nears zero. Such a window holds the noise floor, not a resistance.
+    // A slope just past 2σ can still be the floor: the window search keeps the best-looking of many
+    // stretches. So the line must also rise across its window by at least three times the floor's σ,
+    // the limit of detection of analytical practice (IUPAC; Long & Winefordner 1983).
     const se = Math.hypot(line.slopeStdErr, spread?.slope ?? 0);
-    if (!(Math.abs(line.slope) >= 2 * se)) {
-      let lo = Infinity;
-      let hi = -Infinity;
-      for (let k = 0; k < used.raw.length; k++) {
-        lo = Math.min(lo, used.raw[k]);
-        hi = Math.max(hi, used.raw[k]);
-      }
+    let lo = Infinity;
+    let hi = -Infinity;
+    for (let k = 0; k < used.raw.length; k++) {
+      lo = Math.min(lo, used.raw[k]);
+      hi = Math.max(hi, used.raw[k]);
+    }
+    const rise = Math.abs(line.slope) * (hi - lo);
+    const floorSigma = classes.noise.floor;
+    if (Math.abs(line.slope) >= 2 * se && floorSigma > 0 && rise < 3 * floorSigma) {
+      warnings.push(
+        `the current from ${fmt(lo)} to ${fmt(hi)} V changes by only ${fmt(rise)} A, under three times the noise floor (σ = ${fmt(floorSigma)} A, the limit of detection): no resistance is measured there; give a window where the current rises above the floor (--from/--to, or the window on the page), or compare mechanisms (plumbline rank)`,
+      );
+      plausible = false;
+      zeroCurrent = true;
+    } else if (!(Math.abs(line.slope) >= 2 * se)) {
       const offset = Math.abs(line.intercept) >= 2 * line.interceptStdErr;
       const floor = classes.noise.floor > 0 ? ` (the noise floor: σ = ${fmt(classes.noise.floor)} A)` : ' (the noise floor)';
       warnings.push(
