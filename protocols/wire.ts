@@ -150,7 +150,18 @@ export type WireEvent =
       /** The device under test (wafer, site, x, y, area m², thickness m, temperature K, tags). */
       readonly device?: DeviceIdentity;
     })
-  | (Stamped & { readonly type: 'sweep-start'; readonly sweep: number; readonly planned: number; readonly label: string })
+  | (Stamped & {
+      readonly type: 'sweep-start';
+      readonly sweep: number;
+      readonly planned: number;
+      readonly label: string;
+      /**
+       * A constant-voltage stress interval: every reading at this bias (V), the stress time (s)
+       * already accumulated when it opened. Its readings are a current against time, not a curve
+       * against the bias. Absent for sweeps (and in journals written before it existed).
+       */
+      readonly held?: { readonly bias: number; readonly stressTime: number };
+    })
   | (Stamped & { readonly type: 'sweep-end'; readonly sweep: number; readonly points: number; readonly complete: boolean; readonly note?: string })
   | (Stamped & {
       readonly type: 'fit';

@@ -193,7 +193,7 @@ export class LiveChain {
     this.remaining = f;
   }
 
-  startSweep(n: number, planned: number, label: string): void {
+  startSweep(n: number, planned: number, label: string, held?: { bias: number; stressTime: number }): void {
     this.sweep = n;
     this.planned = Math.max(planned, 0);
     this.k = 0;
@@ -205,7 +205,7 @@ export class LiveChain {
     this.sweepTemperature = undefined;
     this.breakdown?.reset();
     this.lastFitAt = performance.now();
-    this.emit({ type: 'sweep-start', sweep: n, planned, label });
+    this.emit({ type: 'sweep-start', sweep: n, planned, label, ...(held ? { held } : {}) });
     this.sweepInProgress = true;
   }
 

@@ -200,9 +200,9 @@ export class StressTest {
     return this.ctx.chain.options.journal.now() / 1000;
   }
 
-  private startSweep(points: number, label: string): void {
+  private startSweep(points: number, label: string, held?: { bias: number; stressTime: number }): void {
     this.sweep++;
-    this.ctx.chain.startSweep(this.sweep, points, label);
+    this.ctx.chain.startSweep(this.sweep, points, label, held);
   }
 
   /** The device's area and thickness: the device identity's, else the analysis inputs'. */
@@ -519,6 +519,7 @@ export class StressTest {
       this.startSweep(
         1 + Math.max(0, Math.ceil(Math.min(p.duration - stressTime, nextSense - stressTime) / p.sampleEvery - 1e-9)),
         `stress at ${p.stress} V from ${g(stressTime)} s`,
+        { bias: p.stress, stressTime },
       );
       segmentOpen = true;
     };

@@ -460,7 +460,7 @@ describe('a breakdown on the page, after the run has ended', () => {
     await page.close();
   });
 
-  it('a constant-voltage stress: the drift panel says no sweep was fitted, not that the model has no parameter', async () => {
+  it('a constant-voltage stress: held intervals drawn against stress time from the journal; the drift panel says no sweep was fitted', async () => {
     const { page, errors } = await openPage(ctx.browser, ctx.daemon.url);
     const r = await api(ctx.daemon.url, 'POST', '/api/run', {
       acknowledgeDestructive: true,
@@ -473,6 +473,42 @@ describe('a breakdown on the page, after the run has ended', () => {
     await page.waitForTimeout(200);
     // The Fowler–Nordheim model has a parameter; the stress intervals are simply not sweeps.
     expect(await page.textContent('#drift-state')).toMatch(/^nothing to chart: no sweep of this run gave a parameter/);
+    // A held interval, picked, is drawn as current against stress time in the linearized panel's
+    // place: the journal's readings, each at the stress time journaled when its interval opened
+    // plus the time since the interval's first reading.
+    const events = (await api(ctx.daemon.url, 'GET', `/api/sessions/${r.json.session}`)).json.events as any[];
+    const held = events.filter((e) => e.type === 'sweep-start' && e.held);
+    const sense = events.filter((e) => e.type === 'sweep-start' && !e.held);
+    expect(held.length).toBeGreaterThanOrEqual(2);
+    expect(sense.length).toBeGreaterThanOrEqual(1);
+    expect(held[0].held).toEqual({ bias: 5, stressTime: 0 });
+    // The second interval opens after 60 s of stress (one sense sweep in between, not counted).
+    expect(Math.abs(held[1].held.stressTime - 60)).toBeLessThan(2);
+    await page.evaluate((n) => (window as any).__plumbline.pickSweep(n), held[1].sweep);
+    await page.waitForTimeout(300);
+    expect(await page.isVisible('#held-chart')).toBe(true);
+    expect(await page.isVisible('#lin-chart')).toBe(false);
+    expect(await page.textContent('#lin-title')).toBe(`Stress at 5 V: current against stress time, sweep ${held[1].sweep}`);
+    expect(await page.textContent('#held-note')).toMatch(/every reading at 5 V, so there is no current–voltage curve to fit\. The \d+ held intervals/);
+    const readings = (await api(ctx.daemon.url, 'GET', `/api/sessions/${r.json.session}/readings?sweep=${held[1].sweep}`)).json.rows as number[][];
+    const drawn = await page.evaluate((k) => {
+      const u = (window as any).__plumbline.charts.held.plot;
+      const d = u.data[k + 1];
+      return { x: Array.from(d[0]) as number[], y: Array.from(d[1]) as (number | null)[], xLabel: u.axes[0].label };
+    }, held.indexOf(held[1]));
+    expect(drawn.xLabel).toBe('stress time (s)');
+    expect(drawn.x.length).toBe(readings.length);
+    readings.forEach((rd, k) => {
+      expect(drawn.x[k]).toBeCloseTo(held[1].held.stressTime + (rd[3] - readings[0][3]) / 1000, 6);
+      // A reading at compliance is marked, not joined (the bias was not held there).
+      if (rd[6] & 1) expect(drawn.y[k]).toBeNull();
+      else expect(drawn.y[k]).toBe(Math.abs(rd[5]));
+    });
+    // A sense sweep, picked, is a curve against the bias again.
+    await page.evaluate((n) => (window as any).__plumbline.pickSweep(n), sense[0].sweep);
+    await page.waitForTimeout(300);
+    expect(await page.isVisible('#held-chart')).toBe(false);
+    expect(await page.textContent('#lin-title')).toMatch(/^Linearized: /);
     expect(errors).toEqual([]);
     await page.close();
   });

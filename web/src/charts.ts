@@ -99,7 +99,11 @@ export class RawChart {
   private log = true;
   data: [null, ...[number[], (number | null)[]][]] = [null];
 
-  constructor(private readonly el: HTMLElement) {}
+  /** `xLabel`: the x axis (the bias; the stress chart passes stress time in the points' `v`). */
+  constructor(
+    private readonly el: HTMLElement,
+    private readonly xLabel = 'bias (V)',
+  ) {}
 
   private sweepArrays(k: number, s: SweepPoints, log: boolean): RawCache {
     let c = this.cache.get(k);
@@ -196,7 +200,7 @@ export class RawChart {
             ],
           },
           axes: [
-            { label: 'bias (V)', stroke: '#1b1b1b', splits: linearSplits(), values: linearValues },
+            { label: this.xLabel, stroke: '#1b1b1b', splits: linearSplits(), values: linearValues },
             log
               ? { label: '|I| (A)', stroke: '#1b1b1b', size: 78, splits: logSplits, values: logValues }
               : { label: 'I (A)', stroke: '#1b1b1b', size: 78, splits: linearSplits(), values: linearValues },

@@ -16,7 +16,7 @@ import { displayUnit, formatInputs } from '../../protocols/display-units.js';
 import { buildInputFields, fillAnalysis, markInputs, readAnalysis, type StationStatus } from './forms.js';
 import { describeAnalysis, driftNotWatched, renderCautions, renderFitNotes, renderParams, renderRanking, renderSolar } from './panels.js';
 import { buildPlanFields, fillKind, fillPlan, isDestructive, readPlan, setTargetUnit, showKind } from './plan-form.js';
-import { Store, type AnalysisSettings, type Envelope } from './store.js';
+import { Store, type AnalysisSettings, type Envelope, type SweepPoints } from './store.js';
 import { renderAdaptive, renderTestPanel } from './test-panels.js';
 
 const $ = <T extends HTMLElement = HTMLElement>(id: string) => document.getElementById(id) as T;
@@ -54,6 +54,8 @@ function say(text: string, error = false, near?: HTMLElement): void {
 
 // ---- charts -------------------------------------------------------------------------------
 const raw = new RawChart($('raw-chart'));
+/** A constant-voltage stress's held intervals: current against stress time, in the linearized panel's place. */
+const heldChart = new RawChart($('held-chart'), 'stress time (s)');
 const lin = new LinearizedChart($('lin-chart'), $('resid-chart'), (from, to) => {
   const a = shownAnalysis();
   if (!a) return;
@@ -204,7 +206,49 @@ function changed(name: string, ...values: unknown[]): boolean {
   return true;
 }
 
+/**
+ * The held intervals of a constant-voltage stress the page holds, each reading at the stress time
+ * it was taken (the stress time when its interval opened, as the daemon journaled it, plus the time
+ * since the interval's first reading), for the current-against-time chart.
+ */
+function heldSeries(s: Store): Map<number, SweepPoints> {
+  const out = new Map<number, SweepPoints>();
+  for (const [n, h] of s.held) {
+    const p = s.sweeps.get(n);
+    if (!p || p.t.length === 0) continue;
+    const t0 = p.t[0];
+    out.set(n, { v: p.t.map((t) => h.stressTime + (t - t0) / 1000), i: p.i, flags: p.flags, t: p.t });
+  }
+  return out;
+}
+
+/** Whether the sweep shown is a held interval: then the panel draws current against stress time. */
+function renderHeld(s: Store, cur: number): boolean {
+  const h = s.held.get(cur);
+  const on = h !== undefined && s.sweeps.has(cur);
+  for (const id of ['lin-chart', 'resid-chart', 'lin-note', 'lin-hint']) $(id).hidden = on;
+  ($('lin-whole').parentElement as HTMLElement).hidden = on;
+  $('held-chart').hidden = !on;
+  $('held-note').hidden = !on;
+  if (!on || !h) return false;
+  const shown = heldSeries(s);
+  if (changed('held', s, cur, ...[...shown.values()].map((p) => p.v.length), ($('raw-log') as HTMLInputElement).checked))
+    heldChart.update(shown, ($('raw-log') as HTMLInputElement).checked);
+  $('lin-title').textContent = `Stress at ${formatNumber(h.bias, 4)} V: current against stress time, sweep ${cur}`;
+  $('lin-empty').hidden = true;
+  $('lin-error').hidden = true;
+  const n = shown.size;
+  $('held-note').textContent =
+    `A constant-voltage stress interval: every reading at ${formatNumber(h.bias, 4)} V, so there is no current–voltage curve to fit. ${
+      n > 1
+        ? `The ${n} held intervals the page holds are drawn on one stress-time axis (the time of sense sweeps not counted), colour running from the first (dark) to the latest (light).`
+        : 'Its readings are drawn against the stress time.'
+    } ✕ marks negative current (plotted as |I|), □ marks readings at compliance.`;
+  return true;
+}
+
 function renderLinearized(s: Store, cur: number): void {
+  if (renderHeld(s, cur)) return;
   const re = s.reanalysis;
   let main: PlotViewData | undefined;
   let under: PlotViewData | null = null;
@@ -693,6 +737,7 @@ async function pickSweep(n: number | null): Promise<void> {
         pts.v = d.readings.map((r: number[]) => r[4]);
         pts.i = d.readings.map((r: number[]) => r[5]);
         pts.flags = d.readings.map((r: number[]) => r[6]);
+        pts.t = d.readings.map((r: number[]) => r[3]);
       }
       if (d.solar) s.finalSolar.set(n, d.solar);
       if (d.fit !== undefined && (d.complete !== null || d.fit)) {
@@ -790,7 +835,7 @@ $('back-live').addEventListener('click', backToLive);
     return viewStore;
   },
   live: liveStore,
-  charts: { raw, lin, drift, solar: solarChart },
+  charts: { raw, lin, drift, solar: solarChart, held: heldChart },
   openSession,
   pickSweep,
 };
@@ -799,7 +844,7 @@ loadStatus().catch((e: Error) => say(`status: ${e.message}`, true));
 loadSessions().catch(() => undefined);
 setInterval(() => void loadSessions().catch(() => undefined), 10_000);
 window.addEventListener('resize', () => {
-  for (const p of [raw.plot, lin.plot, lin.resid, drift.plot, solarChart.plot])
+  for (const p of [raw.plot, lin.plot, lin.resid, drift.plot, solarChart.plot, heldChart.plot])
     p?.setSize({ width: Math.max(300, (p.root.parentElement as HTMLElement).clientWidth), height: p.height });
 });
 connect();

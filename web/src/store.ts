@@ -10,6 +10,8 @@ export interface SweepPoints {
   v: number[];
   i: number[];
   flags: number[];
+  /** When each reading was taken (ms from the session's start). */
+  t: number[];
 }
 
 type Ev<T extends WireEvent['type']> = Extract<WireEvent, { type: T }>;
@@ -62,6 +64,8 @@ export class Store {
   viewFinal = new Set<number>();
   /** What each sweep is, as the daemon named it at its start ("use-condition check before the test", "adaptive sweep 2 of 5"). */
   labels = new Map<number, string>();
+  /** Constant-voltage stress intervals: the bias held and the stress time (s) when each opened. */
+  held = new Map<number, { bias: number; stressTime: number }>();
   /** Sweeps that ended (sweep-end seen), with whether they were complete. */
   ended = new Map<number, boolean>();
   drift: Ev<'drift'>[] = [];
@@ -106,6 +110,7 @@ export class Store {
     this.viewFinal = new Set();
     this.ended = new Map();
     this.labels = new Map();
+    this.held = new Map();
     this.drift = [];
     this.ranking = null;
     this.progress = null;
@@ -181,7 +186,7 @@ export class Store {
   sweepPoints(n: number): SweepPoints {
     let s = this.sweeps.get(n);
     if (!s) {
-      s = { v: [], i: [], flags: [] };
+      s = { v: [], i: [], flags: [], t: [] };
       this.sweeps.set(n, s);
       if (!this.allSweeps.length || this.allSweeps[this.allSweeps.length - 1] < n) this.allSweeps.push(n);
       if (this.sweeps.size > KEPT_SWEEPS) {
@@ -198,6 +203,7 @@ export class Store {
     s.v.push(r[4]);
     s.i.push(r[5]);
     s.flags.push(r[6]);
+    s.t.push(r[3]);
     this.readingCount++;
     this.lastReadingT = r[3];
   }
@@ -219,6 +225,7 @@ export class Store {
       case 'sweep-start':
         this.sweepPoints(e.sweep);
         if (e.label) this.labels.set(e.sweep, e.label);
+        if (e.held) this.held.set(e.sweep, e.held);
         break;
       case 'sweep-end':
         this.ended.set(e.sweep, e.complete);
