@@ -27,6 +27,11 @@ export interface Measurement {
 /** The instrument's replies no longer belong to the queries they answer. */
 export class OutOfStepError extends ScpiReplyError {}
 
+/** The instrument did not confirm that its output went off when asked (a breakdown test stops there). */
+export class OutputUnconfirmedError extends Error {
+  readonly code = 'OUTPUT_UNCONFIRMED';
+}
+
 /** A level or output-on command after the output was turned off for good. */
 export class FencedError extends Error {
   readonly code = 'FENCED';

@@ -10,7 +10,7 @@
  */
 import { ScpiDisconnectError, ScpiInstrumentError, ScpiReplyError, ScpiTimeoutError } from '../../protocols/scpi-session.js';
 import type { NewEvent, RunOutcome } from '../../protocols/wire.js';
-import { FencedError, type Measurement } from '../instrument/smu-driver.js';
+import { FencedError, OutputUnconfirmedError, type Measurement } from '../instrument/smu-driver.js';
 import { JournalWriteError } from '../journal/journal.js';
 import type { Decision, LiveChain } from '../pipeline/chain.js';
 import { GuardError, type GuardedSource } from './guard.js';
@@ -425,7 +425,13 @@ export class RunController {
     if (e instanceof GuardError) return { outcome: 'guard-refused', reason: e.message };
     if (e instanceof PlanError) return { outcome: 'guard-refused', reason: e.message };
     if (e instanceof ScpiReplyError) return { outcome: 'instrument-fault', reason: `out of step: ${e.message}` };
-    if (e instanceof ScpiTimeoutError || e instanceof ScpiDisconnectError || e instanceof ScpiInstrumentError || e instanceof FencedError) {
+    if (
+      e instanceof ScpiTimeoutError ||
+      e instanceof ScpiDisconnectError ||
+      e instanceof ScpiInstrumentError ||
+      e instanceof FencedError ||
+      e instanceof OutputUnconfirmedError
+    ) {
       return { outcome: 'instrument-fault', reason: e.message };
     }
     // Anything else is a defect of ours: say so rather than blaming the instrument.

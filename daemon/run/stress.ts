@@ -33,7 +33,7 @@ import {
 } from '../../protocols/device-results.js';
 import { checkAfterTestSentence } from '../../protocols/caution-words.js';
 import type { NewEvent } from '../../protocols/wire.js';
-import type { Measurement } from '../instrument/smu-driver.js';
+import { OutputUnconfirmedError, type Measurement, type OffCheck } from '../instrument/smu-driver.js';
 import type { Decision, LiveChain } from '../pipeline/chain.js';
 import type { GuardedSource } from './guard.js';
 import { useCheckCompliance } from './guard.js';
@@ -353,8 +353,7 @@ export class StressTest {
     this.ctx.take(m, v);
     this.ctx.chain.endSweep(true);
     await src.rampTo(0);
-    const sent = await src.outputOff();
-    this.ctx.record({ type: 'output', on: false, sent, confirmed: false, reason: `${label} done` });
+    await this.offBetweenPhases(`${label} done`);
     return { current: m.reading?.i ?? Number.NaN, atCompliance: m.compliance, measuredBias: m.reading?.v ?? Number.NaN };
   }
 
@@ -364,12 +363,8 @@ export class StressTest {
    * caution says that it will.
    */
   private async offAtBreakdown(verdict: BreakdownVerdict): Promise<void> {
-    const src = this.ctx.source;
-    const sent = await src.outputOff();
-    this.ctx.record({ type: 'output', on: false, sent, confirmed: false, reason: `breakdown confirmed (${verdict.criterion})` });
-    const check = await src.confirmOff();
+    const check = await this.offAndAsk(`breakdown confirmed (${verdict.criterion})`);
     this.offConfirmed = check.confirmed;
-    this.ctx.record({ type: 'output', on: false, sent, queried: true, confirmed: check.confirmed, reason: check.detail });
     const after =
       this.plan.useVoltage === undefined
         ? ''
@@ -383,6 +378,30 @@ export class StressTest {
       numbers: verdict.numbers,
       message: `Breakdown (${verdict.criterion}): ${verdict.reason}. The output was turned off${check.confirmed ? ' (the instrument confirms it)' : ''}. The device is destroyed.${after} Follow your lab's rules before touching the fixture.`,
     });
+  }
+
+  /**
+   * Output off, then the instrument asked whether it is off; both journaled (the sent command, then
+   * the instrument's answer).
+   */
+  private async offAndAsk(reason: string): Promise<OffCheck> {
+    const src = this.ctx.source;
+    const sent = await src.outputOff();
+    this.ctx.record({ type: 'output', on: false, sent, confirmed: false, reason });
+    const check = await src.confirmOff();
+    this.ctx.record({ type: 'output', on: false, sent, queried: true, confirmed: check.confirmed, reason: check.detail });
+    return check;
+  }
+
+  /**
+   * Output off between the phases of a test (after a use-condition check, at the end of a ramp or a
+   * stress), confirmed by the instrument. The test goes on to its next phase (which turns the output
+   * on again) only when the instrument says its output is off: an instrument that cannot say so is
+   * not trusted with the rest of a destructive test, and the run ends as an instrument fault.
+   */
+  private async offBetweenPhases(reason: string): Promise<void> {
+    const check = await this.offAndAsk(reason);
+    if (!check.confirmed) throw new OutputUnconfirmedError(`after '${reason}' the output was turned off, but ${check.detail}`);
   }
 
   /** A voltage ramp that reached compliance with the bias held (no breakdown; the ramp ended there). */
@@ -438,7 +457,7 @@ export class StressTest {
     }
     this.ctx.chain.endSweep(true);
     await src.rampTo(0);
-    await src.outputOff();
+    await this.offBetweenPhases('the voltage ramp ended without breakdown');
     return { series, tStart };
   }
 
@@ -479,7 +498,7 @@ export class StressTest {
         // Already conducting at the first level: nothing left to break. The output goes off.
         this.ctx.chain.endSweep(false, `the device held only ${g(Math.abs(m.reading.v))} V at ${g(i)} A: it already conducts`);
         await src.stepCurrent(0);
-        await src.outputOff();
+        await this.offBetweenPhases('the device already conducts at the first current level');
         return { series, tStart, shorted: { voltage: m.reading.v, current: i } };
       }
       if (verdict) {
@@ -496,7 +515,7 @@ export class StressTest {
     }
     this.ctx.chain.endSweep(!limited, limited ? 'the voltage limit was reached: the ramp could not force more current' : undefined);
     await src.stepCurrent(0);
-    await src.outputOff();
+    await this.offBetweenPhases(limited ? 'the current ramp reached its voltage limit' : 'the current ramp ended without breakdown');
     return { series, tStart };
   }
 
@@ -598,7 +617,7 @@ export class StressTest {
     }
     if (segmentOpen) this.ctx.chain.endSweep(true);
     await src.rampTo(0);
-    await src.outputOff();
+    await this.offBetweenPhases('the constant-voltage stress ended without breakdown');
     return { series, tStart, stressTime };
   }
 

@@ -42,6 +42,8 @@ export interface Faults {
   readonly strayAfterReadings?: number;
   /** Answer every reading with this text instead (e.g. "+9.9E37,+9.9E37": over range; "9.91E37,9.91E37": not a number). */
   readonly readingReply?: string;
+  /** A sticking output relay: from the n-th output-off command on (1 = the first), the output stays on. */
+  readonly stuckOutputFromOff?: number;
 }
 
 export interface SimOptions {
@@ -82,6 +84,8 @@ export class SimulatedSmu {
   private readonly commands: { pat: HeaderPattern; fn: Handler }[] = [];
   private readonly errors: { code: number; text: string }[] = [];
   private replies = 0;
+  /** Output-off commands received (for the sticking-relay fault). */
+  private offsReceived = 0;
   private readingsServed = 0;
   output = false;
   level = 0;
@@ -271,6 +275,7 @@ export class SimulatedSmu {
     this.on(':OUTPut[:STATe]', (a, q) => {
       if (q) return this.output ? '1' : '0';
       const on = this.bool(a);
+      if (!on && this.faults.stuckOutputFromOff !== undefined && ++this.offsReceived >= this.faults.stuckOutputFromOff) return undefined;
       this.wear(() => (this.output = on));
       if (!this.output) {
         this.tripped = false;

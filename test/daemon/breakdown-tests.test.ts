@@ -143,7 +143,9 @@ describe('voltage ramp to breakdown', () => {
     // journal says so, and says it went off before the next: what the instrument did, in order.
     const outputs = ev.filter((e) => e.type === 'output').map((e) => (e.type === 'output' && e.on ? 'on' : 'off'));
     expect(outputs.filter((o) => o === 'on')).toHaveLength(3);
-    expect(outputs.join(' ')).toMatch(/^on off on off off on off( off)*$/); // breakdown: off sent, then confirmed
+    // Each off between phases (after the check before, at breakdown, after the check after) is the
+    // off sent, then the instrument's answer; the run's end adds its own answer.
+    expect(outputs.join(' ')).toMatch(/^on off off on off off on off off( off)*$/);
     expect(log.filter((l) => l === ':OUTP ON')).toHaveLength(3);
     // At breakdown the output goes off and the instrument is asked whether it is off before the
     // check after the test may turn it on again; the breakdown caution says that it will.
@@ -172,6 +174,64 @@ describe('voltage ramp to breakdown', () => {
     const row = results(JSON.parse(r.stdout).dir).rows[0];
     expect(row.outcome).toBe('initial-failure');
     expect(Math.max(...devices[0].applied)).toBeLessThanOrEqual(1 + 1e-9);
+  });
+});
+
+describe('output off between the phases of a test, asked of the instrument', () => {
+  const plan = { kind: 'voltage-ramp', start: 6, stop: 12, step: 0.02, stepTime: 0.005, compliance: 0.01, useVoltage: 1, useCurrentLimit: 1e-6 };
+
+  it('after each use-condition check the output query follows the output off on the wire, and the journal records the answer', async () => {
+    const { inst, devices } = await instruments(() => new SimulatedSmu({ device: WEAROUT.device, seed: 4, realTime: false }));
+    const dir = tempDir();
+    const res = await runPlan(dir, { instrument: inst, limits: LIMITS }, plan);
+    const lines = devices[0].received.map((r) => r.line);
+    // Every output off that turned an output off (an ON came since the last OFF; the opening
+    // commands of each phase send one more to an output already off) is followed by the query.
+    const offs: number[] = [];
+    let on = false;
+    lines.forEach((l, k) => {
+      if (l === ':OUTP ON') on = true;
+      if (l === ':OUTP OFF' && on) {
+        offs.push(k);
+        on = false;
+      }
+    });
+    // Before the test, at breakdown, after the test.
+    expect(offs.length).toBeGreaterThanOrEqual(3);
+    for (const k of offs) expect(lines.slice(k + 1, k + 4), `after the OUTP OFF at line ${k}: ${lines.slice(k - 3, k + 6).join(' | ')}`).toContain(':OUTP?');
+    const ev = events(res.dir).filter((e) => e.type === 'output' && !e.on);
+    const checks = ev.filter((e) => e.type === 'output' && /use-condition check/.test(e.reason));
+    expect(checks.length).toBe(2);
+    for (const c of checks) {
+      const next = ev[ev.indexOf(c) + 1];
+      expect(next).toMatchObject({ on: false, queried: true, confirmed: true });
+    }
+    expect(devices[0].output).toBe(false);
+  });
+
+  it('a sticking output relay after the check before the test: the ramp is not started, the run ends as an instrument fault with the caution', async () => {
+    const { inst, devices } = await instruments(
+      () => new SimulatedSmu({ device: WEAROUT.device, seed: 4, realTime: false, faults: { stuckOutputFromOff: 1 } }),
+    );
+    const dir = tempDir();
+    const cfg = writeConfig(dir, { instrument: inst, limits: LIMITS, plan });
+    const r = await runCliAsync(['run', '--config', cfg, '--data', join(dir, 'data'), '--json']);
+    expect(r.code).toBe(6);
+    const out = JSON.parse(r.stdout);
+    expect(out.outcome).toBe('instrument-fault');
+    expect(out.reason).toMatch(/after 'use-condition check before the test done' the output was turned off, but the instrument reports its output ON/);
+    expect(out.outputOffConfirmed).toBe(false);
+    // At the instrument: nothing above the use voltage was applied, and no output on followed the off.
+    expect(Math.max(...devices[0].applied)).toBeLessThanOrEqual(1 + 1e-9);
+    const lines = devices[0].received.map((r) => r.line);
+    const firstOn = lines.indexOf(':OUTP ON');
+    expect(firstOn).toBeGreaterThan(0);
+    const off = lines.indexOf(':OUTP OFF', firstOn);
+    expect(off).toBeGreaterThan(firstOn);
+    expect(lines.slice(off)).not.toContain(':OUTP ON');
+    const ev = events(out.dir);
+    expect(ev.some((e) => e.type === 'caution' && e.kind === 'output-unconfirmed' && /front panel/.test(e.message))).toBe(true);
+    expect(results(out.dir).rows[0].outcome).toBe('invalid');
   });
 });
 
