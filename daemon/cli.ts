@@ -10,7 +10,7 @@ import { Command, CommanderError } from 'commander';
 import { projectRoot } from '../protocols/project-root.js';
 import { analyze } from './analysis/analyze.js';
 import { AnalysisError } from './analysis/errors.js';
-import { MODEL_IDS } from './analysis/mechanisms/index.js';
+import { MODEL_IDS, unknownModelMessage } from './analysis/mechanisms/index.js';
 import { rankMechanisms } from './analysis/ranking.js';
 import { CsvError } from '../protocols/csv-table.js';
 import { formatDiode, formatFit, formatRanking, formatSolar } from './cli/format.js';
@@ -106,6 +106,10 @@ withAnalysisOptions(
   const recorded = recordedAnalysis(file, firstSeq, o.allSweeps === true);
   const model = o.model ?? recorded?.model;
   if (model === undefined) throw new UsageError(`--model: name the mechanism to fit (${MODEL_IDS.join(', ')}; or ${DIODE_MODELS.join(', ')})`);
+  if (!MODEL_IDS.includes(model) && !DIODE_MODELS.includes(model))
+    throw new UsageError(
+      `${o.model !== undefined ? '--model' : `model (${recorded?.source})`}: ${unknownModelMessage(model, [...MODEL_IDS, ...DIODE_MODELS])}`,
+    );
   if (o.model === undefined) notes.push(`model ${model}: the one the station used (${recorded?.source})`);
   const inputs = mergeInputs(readInputs(o), recorded, notes);
   if (DIODE_MODELS.includes(model)) {

@@ -10,7 +10,7 @@ import type { AccuracySpec } from './accuracy.js';
 import { RICHARDSON_FREE_A_PER_M2_K2 } from './constants.js';
 import { AnalysisError } from './errors.js';
 import { decadesOf, describe, fitBranch, type BranchFit, type WindowMode } from './fit-branch.js';
-import type { AxisSpec, FitPoints, Inputs, InputName, Mechanism, ParameterValue, ResolvedInputs } from './mechanism.js';
+import type { AxisSpec, DataColumns, FitPoints, Inputs, InputName, Mechanism, ParameterValue, ResolvedInputs } from './mechanism.js';
 import { fmt } from './mechanism.js';
 import { compileCustom, customMechanism, type CustomSpec } from './mechanisms/custom.js';
 import { getMechanism } from './mechanisms/index.js';
@@ -44,6 +44,8 @@ export interface FitRequest {
   /** Readings with |I| ≥ 0.99·limit are treated as at compliance (common practice). */
   readonly complianceLimit?: number;
   readonly custom?: CustomSpec;
+  /** What the data's two columns are, when known (a station's readings: READING_COLUMNS); labels raw-column axes. */
+  readonly columns?: DataColumns;
   /** Search the whole curve for regimes (default true; the live chain's fits skip it). */
   readonly regimes?: boolean;
   /**
@@ -546,7 +548,7 @@ export function analyzeDetailed(data: IVData, request: FitRequest): DetailedFit 
       chi2Reduced: L.chi2Reduced,
       n: L.n,
     },
-    axes: mech.axes(inputs),
+    axes: mech.axes(inputs, request.columns),
     parameters: primary.parameters,
     warnings,
     notes,

@@ -47,6 +47,19 @@ export interface AxisSpec {
   readonly kind: AxisKind;
 }
 
+/**
+ * What a dataset's own two columns hold, when the caller knows it: a mechanism of raw columns
+ * (`linear`) labels its axes with them. A file's columns may hold anything, so `fit` leaves this
+ * out and those axes carry no unit; a station's readings are `READING_COLUMNS`.
+ */
+export interface DataColumns {
+  readonly x: { readonly label: string; readonly unit: string };
+  readonly y: { readonly label: string; readonly unit: string };
+}
+
+/** A source-measure unit's readings as a station records them: the bias in V, the current in A. */
+export const READING_COLUMNS: DataColumns = { x: { label: 'V', unit: 'V' }, y: { label: 'I', unit: 'A' } };
+
 export interface ParameterValue {
   readonly value: number;
   /** One standard uncertainty: the statistical and window-choice parts added in quadrature. */
@@ -126,7 +139,8 @@ export interface Mechanism {
   readonly superOhmic?: boolean;
   /** For linear mechanisms: y = J / linearScale(bias) (e.g. J/V for space-charge-limited current). */
   linearScale?(bias: number, inputs: ResolvedInputs): number;
-  axes(inputs: ResolvedInputs): { x: AxisSpec; y: AxisSpec };
+  /** The plot's axes; `columns`, when known, says what the data's raw columns are (see DataColumns). */
+  axes(inputs: ResolvedInputs, columns?: DataColumns): { x: AxisSpec; y: AxisSpec };
   /** x coordinate from the bias (after the bias mode is applied). */
   x(bias: number, inputs: ResolvedInputs): number;
   /**

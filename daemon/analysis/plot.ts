@@ -34,7 +34,7 @@ export interface PlotView {
 export function plotView(data: IVData, request: FitRequest): PlotView {
   const mech = getMechanism(request.model);
   const inputs = resolveInputs(mech, request.inputs);
-  const axes = mech.axes(inputs);
+  const axes = mech.axes(inputs, request.columns);
   const dx = (x: number) => (axes.x.kind === 'log' ? Math.exp(x) : x);
   const dy = (y: number) => (axes.y.kind === 'log' ? Math.exp(y) : y);
   let detailed: DetailedFit;

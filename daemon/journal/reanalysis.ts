@@ -8,6 +8,7 @@ import { appendFileSync } from 'node:fs';
 import { basename, join } from 'node:path';
 import { analyze } from '../analysis/analyze.js';
 import { plotView, type PlotView } from '../analysis/plot.js';
+import { READING_COLUMNS } from '../analysis/mechanism.js';
 import type { FitSummary, PackedReading, SolarSummary, WireEvent } from '../../protocols/wire.js';
 import { solarSummary } from '../analysis/solar-live.js';
 import { summarizeFit } from '../pipeline/chain.js';
@@ -43,7 +44,11 @@ export function fitSweep(
     ? { solar: solarSummary(data, { temperature: a.inputs.temperature, area: a.inputs.area, irradiance: a.solar.irradiance, complianceLimit }) }
     : {};
   try {
-    return { fit: summarizeFit(analyze(data, { model: a.model, inputs: a.inputs, window: a.window, complianceLimit, regimes: false })), error: null, ...solar };
+    return {
+      fit: summarizeFit(analyze(data, { model: a.model, columns: READING_COLUMNS, inputs: a.inputs, window: a.window, complianceLimit, regimes: false })),
+      error: null,
+      ...solar,
+    };
   } catch (e) {
     return { fit: null, error: (e as Error).message, ...solar };
   }
@@ -52,7 +57,7 @@ export function fitSweep(
 /** The linearized view of one sweep with the given settings (an error is carried in the view). */
 export function viewSweep(data: { x: number[]; y: number[]; compliance: number[] }, a: AnalysisSettings, complianceLimit: number | undefined): PlotView {
   try {
-    return plotView(data, { model: a.model, inputs: a.inputs, window: a.window, complianceLimit });
+    return plotView(data, { model: a.model, columns: READING_COLUMNS, inputs: a.inputs, window: a.window, complianceLimit });
   } catch (e) {
     return {
       model: a.model,

@@ -10,6 +10,7 @@ import { join } from 'node:path';
 import { analyze, resolveInputs, type FitRequest, WINDOW_FIELDS, type WindowNames, windowAcrossBranches } from '../analysis/analyze.js';
 import { AnalysisError } from '../analysis/errors.js';
 import { getMechanism } from '../analysis/mechanisms/index.js';
+import { READING_COLUMNS } from '../analysis/mechanism.js';
 import { temperatureFromText } from '../analysis/temperature-series.js';
 import type { FitSummary } from '../../protocols/wire.js';
 import { summarizeFit } from '../pipeline/chain.js';
@@ -73,7 +74,10 @@ export function refitSession(
     T ??=
       request.inputs?.temperature !== undefined ? { value: request.inputs.temperature, source: sourceOf('temperature') } : { value: 300, source: 'default' };
     try {
-      const r = analyze({ x: sw.v, y: sw.i, compliance: sw.c, breakdown: sw.b }, { ...request, inputs: { ...request.inputs, temperature: T.value } });
+      const r = analyze(
+        { x: sw.v, y: sw.i, compliance: sw.c, breakdown: sw.b },
+        { ...request, columns: READING_COLUMNS, inputs: { ...request.inputs, temperature: T.value } },
+      );
       return { sweep: sw.sweep, complete: sw.complete, temperature: T, fit: summarizeFit(r), error: null, warnings: r.warnings };
     } catch (e) {
       return { sweep: sw.sweep, complete: sw.complete, temperature: T, fit: null, error: (e as Error).message, warnings: [] };

@@ -16,6 +16,7 @@ import { existsSync, readFileSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { STOP_MEANING, type StopReason } from '../analysis/adaptive-sweep.js';
 import { plotView, type PlotView } from '../analysis/plot.js';
+import { READING_COLUMNS } from '../analysis/mechanism.js';
 import { atOneBias } from '../analysis/sweep-points.js';
 import { analysisSchema, type AnalysisSettings } from '../pipeline/settings.js';
 import { deviceLine, deviceRows, type FigureRow, numberRows, OUTCOME_LABELS, resultFigureRows, TEST_TITLES } from '../../protocols/breakdown-display.js';
@@ -603,7 +604,7 @@ table.kv th{font-weight:600;color:#444;width:16rem}.settings{display:grid;grid-t
       try {
         const v = plotView(
           { x: sw.v, y: sw.i, compliance: sw.c, breakdown: sw.b },
-          { model: a.model, inputs: a.inputs, window: a.window, complianceLimit: s.complianceLimit },
+          { model: a.model, columns: READING_COLUMNS, inputs: a.inputs, window: a.window, complianceLimit: s.complianceLimit },
         );
         const { charts, hidden } = linearizedCharts(v, a.model);
         out.push(...charts);

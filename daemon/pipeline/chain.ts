@@ -14,7 +14,7 @@ import { BreakdownWatch } from '../analysis/breakdown.js';
 import { robustRms } from '../analysis/noise-floor.js';
 import { atOneBias } from '../analysis/sweep-points.js';
 import { DriftChart } from '../analysis/drift.js';
-import type { Mechanism, ResolvedInputs } from '../analysis/mechanism.js';
+import { type Mechanism, READING_COLUMNS, type ResolvedInputs } from '../analysis/mechanism.js';
 import { getMechanism } from '../analysis/mechanisms/index.js';
 import { plotView, type PlotView } from '../analysis/plot.js';
 import { solarSummary } from '../analysis/solar-live.js';
@@ -386,6 +386,7 @@ export class LiveChain {
   private request(regimes: boolean): FitRequest {
     return {
       model: this.analysis.model,
+      columns: READING_COLUMNS,
       inputs: this.sweepInputs(),
       window: this.analysis.window,
       complianceLimit: this.options.complianceLimit,

@@ -3,11 +3,14 @@
  * the analysis (model, window, inputs), the drift watch and the breakdown watch.
  */
 import { z } from 'zod';
-import { didYouMean } from '../../protocols/did-you-mean.js';
+import { didYouMean } from '../analysis/did-you-mean.js';
 import { DEFAULT_BREAKDOWN } from '../analysis/breakdown.js';
 import { DEFAULT_DRIFT } from '../analysis/drift.js';
 import { windowAcrossBranches } from '../analysis/analyze.js';
-import { getMechanism, MODEL_IDS } from '../analysis/mechanisms/index.js';
+import { getMechanism, MODEL_IDS, unknownModelMessage } from '../analysis/mechanisms/index.js';
+
+/** The models a live chain fits (every one but `custom`, whose expressions only `fit` takes). */
+const LIVE_MODELS = MODEL_IDS.filter((m) => m !== 'custom');
 
 const positive = z.number().positive().finite();
 
@@ -32,9 +35,15 @@ export const windowSchema = z.union([
 
 export const analysisSchema = z
   .object({
-    model: z
-      .string()
-      .refine((m) => MODEL_IDS.includes(m) && m !== 'custom', { message: `expected one of ${MODEL_IDS.filter((m) => m !== 'custom').join(', ')}` }),
+    model: z.string().superRefine((m, ctx) => {
+      if (LIVE_MODELS.includes(m)) return;
+      // The custom model needs its expressions, which only `plumbline fit` takes.
+      const message =
+        m === 'custom'
+          ? `model 'custom' is for plumbline fit (--x-expr, --y-expr); choose one of: ${LIVE_MODELS.join(', ')}`
+          : unknownModelMessage(m, LIVE_MODELS);
+      ctx.addIssue({ code: 'custom', message });
+    }),
     window: windowSchema.default('auto'),
     inputs: inputsSchema.default({}),
     /**
@@ -46,7 +55,7 @@ export const analysisSchema = z
   .strict()
   .superRefine((a, ctx) => {
     // A window must lie on one branch: the same rule as the fit itself and the command line.
-    if (!MODEL_IDS.includes(a.model) || a.model === 'custom') return;
+    if (!LIVE_MODELS.includes(a.model)) return;
     const across = windowAcrossBranches(getMechanism(a.model), a.window, a.inputs.flatBand ?? 0);
     if (across) ctx.addIssue({ code: 'custom', path: ['window'], message: across });
   });

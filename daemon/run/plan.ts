@@ -12,7 +12,7 @@
 import { statfsSync } from 'node:fs';
 import { z } from 'zod';
 import { zodMessage } from '../pipeline/settings.js';
-import { didYouMean } from '../../protocols/did-you-mean.js';
+import { didYouMean } from '../analysis/did-you-mean.js';
 
 export const sweepPlanSchema = z
   .object({

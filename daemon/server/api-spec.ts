@@ -69,7 +69,17 @@ const statusReply = z.looseObject({
   control: z.boolean().describe('False while the station watches a passive source.'),
   lastRun: z.object({ session: z.string(), outcome: z.string(), reason: z.string(), outputOffConfirmed: z.boolean() }).nullable(),
   recovered: z.array(z.object({ dir: z.string(), message: z.string() })),
-  models: z.array(z.looseObject({ id: z.string(), title: z.string() })),
+  models: z.array(
+    z.looseObject({
+      id: z.string(),
+      title: z.string(),
+      parameters: z
+        .array(z.string())
+        .describe(
+          "The parameters its fit gives with the station's analysis inputs (empty when that cannot be told): what an adaptive sweep's target is checked against.",
+        ),
+    }),
+  ),
   plan: z.looseObject({ kind: z.string() }).nullable().describe("The station's default plan (what the page's forms start from)."),
   planDefaults: z
     .record(z.string(), z.record(z.string(), z.unknown()))

@@ -20,6 +20,7 @@ import { join } from 'node:path';
 import express, { type NextFunction, type Request, type Response } from 'express';
 import type { z } from 'zod';
 import { projectRoot } from '../../protocols/project-root.js';
+import { parameterNames } from '../analysis/analyze.js';
 import { MECHANISMS } from '../analysis/mechanisms/index.js';
 import { exportSession } from '../journal/export.js';
 import { FolderLot } from '../journal/lot.js';
@@ -210,7 +211,15 @@ export async function startServer(station: Station, options: ServerOptions): Pro
       lastRun: station.lastRun,
       recovered: station.recovered.map((r) => ({ dir: r.dir, message: r.message })),
       hub: hub.stats,
-      models: MECHANISMS.map((m) => ({ id: m.id, title: m.title, requires: m.requires, uses: m.uses })),
+      // With the parameters each fit gives (the station's inputs): the Run form's adaptive target
+      // offers these, and startRun checks a plan's target against the same list.
+      models: MECHANISMS.map((m) => ({
+        id: m.id,
+        title: m.title,
+        requires: m.requires,
+        uses: m.uses,
+        parameters: parameterNames(m.id, station.analysisSettings.inputs) ?? [],
+      })),
       // What the page's forms start from: the station's default plan (null when it has none).
       plan: defaultPlanOrNull(),
       // And, per plan kind, the values the station fills in for fields left out.

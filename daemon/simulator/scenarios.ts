@@ -7,7 +7,7 @@ import { readdirSync, readFileSync } from 'node:fs';
 import { basename, join } from 'node:path';
 import { z } from 'zod';
 import { projectRoot } from '../../protocols/project-root.js';
-import { didYouMean } from '../../protocols/did-you-mean.js';
+import { didYouMean } from '../analysis/did-you-mean.js';
 
 export const SCENARIO_DIR = join(projectRoot(), 'config', 'scenarios');
 

@@ -4,7 +4,7 @@
  */
 import { describe, expect, it } from 'vitest';
 import { spawnSync } from 'node:child_process';
-import { existsSync } from 'node:fs';
+import { existsSync, readdirSync } from 'node:fs';
 import { dirname, join } from 'node:path';
 import { CLI, runCli, tempFile } from '../helpers/cli.js';
 
@@ -62,6 +62,36 @@ describe('messages', () => {
     const p = runCli(['run', '--scenario', 'oxide-fn', '--fast', '--plan', f]);
     expect(p.code).toBe(2);
     expect(p.stderr).toMatch(/field 'kind': 'adaptve' is not a plan kind \(did you mean 'adaptive'\?\)/);
+  });
+
+  it('a misspelt model is told the one meant, by every command that takes --model (exit 2), naming the option or field', () => {
+    const dir = dirname(file);
+    const data = join(dir, 'data');
+    const run = runCli(['run', '--scenario', 'oxide-fn', '--fast', '--sweeps', '1', '--data', data]);
+    expect(run.code, run.stderr).toBe(0);
+    const session = join(data, readdirSync(data)[0]);
+    const cases: [string[], RegExp][] = [
+      [['fit', file, '--model', 'ohmc'], /--model: unknown model 'ohmc' \(did you mean 'ohmic'\?\); choose one of: .*fowler-nordheim/],
+      // fit also takes the diode models, and suggests among them.
+      [['fit', file, '--model', 'single-diod'], /--model: unknown model 'single-diod' \(did you mean 'single-diode'\?\)/],
+      [
+        ['run', '--scenario', 'oxide-fn', '--fast', '--model', 'fowler-nordhiem', '--data', data],
+        /field 'model': unknown model 'fowler-nordhiem' \(did you mean 'fowler-nordheim'\?\)/,
+      ],
+      [['watch', file, '--model', 'powerlaw', '--data', data], /field 'model': unknown model 'powerlaw' \(did you mean 'power-law'\?\)/],
+      [['refit', session, '--model', 'pool-frenkel'], /unknown model 'pool-frenkel' \(did you mean 'poole-frenkel'\?\).*\[model\]/],
+      [['tseries', session, '--model', 'schotky'], /unknown model 'schotky' \(did you mean 'schottky'\?\).*\[model\]/],
+    ];
+    for (const [args, re] of cases) {
+      const r = runCli(args);
+      expect(r.code, args.join(' ')).toBe(2);
+      expect(r.stderr, args.join(' ')).toMatch(re);
+    }
+    // Nothing close: no suggestion, the list still given.
+    const far = runCli(['fit', file, '--model', 'magic']);
+    expect(far.stderr).toMatch(/unknown model 'magic'; choose one of: /);
+    // Only the first run made a session.
+    expect(readdirSync(data)).toHaveLength(1);
   });
 
   it('plan mistakes in words a person acts on: a missing field, a quantity written as text, a misspelt key (with the one meant), a number out of its range', () => {

@@ -69,6 +69,10 @@ describe('security rules', () => {
     const r2 = await api(url, 'PUT', '/api/analysis', { model: 'no-such-model' }, auth);
     expect(r2.status).toBe(400);
     expect(r2.json.error).toMatch(/model/);
+    // A misspelt model: the field named and the model meant suggested.
+    const r2b = await api(url, 'PUT', '/api/analysis', { model: 'pool-frenkel' }, auth);
+    expect(r2b.status).toBe(400);
+    expect(r2b.json.error).toMatch(/field 'model': unknown model 'pool-frenkel' \(did you mean 'poole-frenkel'\?\)/);
     const r3 = await fetch(`${url}/api/run`, { method: 'POST', headers: { 'content-type': 'application/json', ...auth }, body: '{"plan": ' });
     expect(r3.status).toBe(400);
     const r4 = await api(url, 'POST', '/api/run', { plan: { start: 0, stop: 5, compliance: 1e-3 } }, auth);

@@ -218,6 +218,20 @@ describe('live page in headless Chromium', () => {
     expect(await page.locator('tr[data-param="relativePermittivity"] td.value .unit').count()).toBe(0);
     expect(await page.evaluate(() => (window as any).__plumbline.charts.lin.plot.axes[0].label)).toBe('√E ((MV/cm)^½)');
     await snap(page, 'page-model-change-after-run.png');
+
+    // A plain line through the readings has no physical parameter: its slope and intercept are
+    // shown, in the units of the readings it was fitted to (current against bias: A/V and A).
+    await page.selectOption('#model-select', 'linear');
+    await page.click('#analysis-apply');
+    await page.waitForFunction(() => (window as any).__plumbline.store.reanalysis?.analysis.model === 'linear', undefined, { timeout: 10_000 });
+    await page.waitForTimeout(200);
+    const line = await page.evaluate(() => (window as any).__plumbline.store.reanalysis.fits.get(3).fit);
+    expect(line.parameters).toEqual({});
+    expect(await page.textContent('tr[data-param="slope"] td.value .unit')).toBe(' A/V');
+    expect(await page.textContent('tr[data-param="intercept"] td.value .unit')).toBe(' A');
+    expect((await shownParameter(page, 'slope')).text).toBe(formatParameter({ value: line.line.slope, stdErr: line.line.slopeStdErr, unit: 'A/V' }).text);
+    const axes = await page.evaluate(() => (window as any).__plumbline.charts.lin.plot.axes.slice(0, 2).map((a: { label: string }) => a.label));
+    expect(axes).toEqual(['V (V)', 'I (A)']);
     expect(errors).toEqual([]);
     await page.close();
   });

@@ -44,16 +44,44 @@ describe('breakdown tests and adaptive sweeps on the page', () => {
     // Said just under the Run form, beside its Start button (not at the foot of the panel).
     expect(await page.evaluate(() => document.getElementById('control-msg')?.previousElementSibling?.id)).toBe('plan-form');
     expect((await api(daemon.url, 'GET', '/api/status')).json.running).toBe(false);
+    // The target is chosen from the parameters the Analysis form's model gives, as the daemon
+    // lists them (the same list it checks a plan against); another model, other choices.
+    const target = '#plan-form select[name="targetParameter"]';
+    const choices = () => page.$$eval(`${target} option`, (os) => os.map((o) => (o as HTMLOptionElement).value));
+    const daemonList = async (model: string) =>
+      ((await api(daemon.url, 'GET', '/api/status')).json.models as { id: string; parameters: string[] }[]).find((m) => m.id === model)?.parameters;
+    const fn = await daemonList('fowler-nordheim');
+    expect(fn).toContain('barrierHeight');
+    expect(await choices()).toEqual(fn);
+    expect(await page.inputValue(target)).toBe('barrierHeight');
+    await page.selectOption('#model-select', 'poole-frenkel');
+    await page.click('#analysis-apply');
+    await page.waitForFunction(
+      (t) => [...document.querySelectorAll(`${t} option`)].some((o) => (o as HTMLOptionElement).value === 'relativePermittivity'),
+      target,
+    );
+    expect(await choices()).toEqual(await daemonList('poole-frenkel'));
+    expect(await choices()).not.toContain('barrierHeight');
+    // A model with no parameter (a plain line) leaves nothing to aim at: said, and nothing starts.
+    await page.selectOption('#model-select', 'linear');
+    await page.click('#analysis-apply');
+    await page.waitForFunction((t) => (document.querySelector(t) as HTMLSelectElement).value === '', target);
+    await page.click('#run-start');
+    expect(await page.textContent('#control-msg')).toMatch(/^target parameter: the linear fit gives no parameter to aim at/);
+    expect((await api(daemon.url, 'GET', '/api/status')).json.running).toBe(false);
+    await page.selectOption('#model-select', 'fowler-nordheim');
+    await page.click('#analysis-apply');
+    await page.waitForFunction((t) => (document.querySelector(t) as HTMLSelectElement).value === 'barrierHeight', target);
     for (const [k, v] of Object.entries({
       start: '0',
       stop: '10',
       maxPoints: '200',
       repeat: '3',
       compliance: '0.001',
-      targetParameter: 'barrierHeight',
       targetStdErr: '0.005',
     }))
       await page.fill(`#plan-form [name="${k}"]`, v);
+    await page.selectOption(target, 'barrierHeight');
     await page.click('#run-start');
     await page.waitForFunction(() => (window as any).__plumbline.store.runEnd !== null && (window as any).__plumbline.store.adaptive.length === 3, undefined, {
       timeout: 60_000,

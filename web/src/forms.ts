@@ -19,7 +19,8 @@ export interface StationStatus {
   plan: ({ kind: string } & Record<string, unknown>) | null;
   /** Per plan kind, the values the station fills in for fields left out (SI). */
   planDefaults?: Record<string, Record<string, unknown>>;
-  models: { id: string; title: string; requires: string[]; uses: string[] }[];
+  /** Each model, with the parameters its fit gives with the station's inputs (the daemon's own list). */
+  models: { id: string; title: string; requires: string[]; uses: string[]; parameters?: string[] }[];
 }
 
 const field = (f: HTMLFormElement, name: string) => f.elements.namedItem(name) as HTMLInputElement;

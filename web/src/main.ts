@@ -15,7 +15,7 @@ import { DriftChart, LinearizedChart, RawChart, SolarChart } from './charts.js';
 import { displayUnit, formatInputs } from '../../protocols/display-units.js';
 import { buildInputFields, fillAnalysis, markInputs, readAnalysis, type StationStatus } from './forms.js';
 import { describeAnalysis, driftNotWatched, renderCautions, renderFitNotes, renderParams, renderRanking, renderSolar } from './panels.js';
-import { buildPlanFields, fillKind, fillPlan, isDestructive, readPlan, setTargetUnit, showKind } from './plan-form.js';
+import { buildPlanFields, fillKind, fillPlan, isDestructive, readPlan, setChoices, setTargetUnit, showKind } from './plan-form.js';
 import { Store, type AnalysisSettings, type Envelope, type SweepPoints } from './store.js';
 import { renderAdaptive, renderTestPanel } from './test-panels.js';
 
@@ -77,8 +77,11 @@ function connect(): void {
     const msg = JSON.parse(String(m.data)) as ServerMessage;
     const before = liveStore.session;
     const ended = liveStore.runEnd;
+    const analysis = liveStore.analysis;
     liveStore.applyMessage(msg);
-    if (liveStore.session !== before || liveStore.runEnd !== ended) {
+    // A new session, a run's end, or the station's analysis changed (from here, another page or
+    // the command line): the status — model, inputs, the Run form's choices — is read again.
+    if (liveStore.session !== before || liveStore.runEnd !== ended || liveStore.analysis !== analysis) {
       void loadSessions().catch(() => undefined);
       void loadStatus().catch(() => undefined);
     }
@@ -440,12 +443,16 @@ async function applyAnalysis(a: AnalysisSettings, what: string): Promise<void> {
   try {
     if (!s.readOnly && liveStore.running) {
       const r = await call('PUT', '/api/analysis', a);
+      await loadStatus(); // the station's model and inputs now: the Run form's target choices follow
       say(`${what}: applied to the run from now on (journaled, ${r.model}); the daemon re-fits the last finished sweep.`);
       if (s.shownSweep !== null) await reanalyse(s, r as AnalysisSettings);
       return;
     }
     let settings = a;
-    if (!s.readOnly) settings = (await call('PUT', '/api/analysis', a)) as AnalysisSettings;
+    if (!s.readOnly) {
+      settings = (await call('PUT', '/api/analysis', a)) as AnalysisSettings;
+      await loadStatus(); // the station's model and inputs now: the Run form's target choices follow
+    }
     if (!s.session) {
       say(`${what}: the station's analysis for the next run is ${settings.model}.`);
       return;
@@ -531,10 +538,15 @@ const KIND_HINTS: Record<string, string> = {
     'The stress bias held and read at intervals until breakdown (a current jump or the breakdown current) or the longest stress; optional sense sweeps watch the leakage grow.',
 };
 
-/** Parameters (name → SI unit) of the recent fits with the station's model: the adaptive target's choices. */
-function knownParameters(): Map<string, string> {
+/**
+ * The adaptive target's choices: the parameters the station's model gives — the daemon's list for
+ * its inputs (what it checks a plan against), then any more that recent fits with it carried —
+ * name → SI unit (null until a fit has shown it).
+ */
+function knownParameters(): Map<string, string | null> {
   const model = status?.analysis.model;
-  const out = new Map<string, string>();
+  const out = new Map<string, string | null>();
+  for (const k of status?.models.find((m) => m.id === model)?.parameters ?? []) out.set(k, null);
   for (const s of [liveStore, viewStore]) {
     for (const f of s.finalFits.values()) {
       if (!f || f.model !== model) continue;
@@ -546,9 +558,9 @@ function knownParameters(): Map<string, string> {
 
 /** The adaptive target's unit as shown, and the scale to the parameter's own unit; null when not known yet. */
 function targetUnit(f: HTMLFormElement): { unit: string; scale: number } | null {
-  const name = (f.elements.namedItem('targetParameter') as HTMLInputElement).value.trim();
+  const name = (f.elements.namedItem('targetParameter') as HTMLSelectElement).value;
   const si = knownParameters().get(name);
-  if (si === undefined) return null;
+  if (si === undefined || si === null) return null;
   const d = displayUnit(si, name);
   return { unit: d.unit, scale: d.scale };
 }
@@ -572,18 +584,8 @@ function kindChosen(): void {
   }
   $('kind-hint').textContent = hint;
   if (kind === 'adaptive') {
-    const known = knownParameters();
-    const list = document.getElementById('targetParameter-list');
-    if (list) {
-      list.textContent = '';
-      for (const k of known.keys()) {
-        const o = document.createElement('option');
-        o.value = k;
-        list.append(o);
-      }
-    }
-    const target = f.elements.namedItem('targetParameter') as HTMLInputElement;
-    if (target.value.trim() === '' && known.size) target.value = [...known.keys()][0];
+    const model = status?.analysis.model ?? 'this';
+    setChoices(f, 'targetParameter', [...knownParameters().keys()], `none: the ${model} fit gives no parameter`);
     setTargetUnit(f, targetUnit(f)?.unit ?? null);
   }
 }
@@ -599,6 +601,10 @@ $('plan-form').addEventListener('submit', (ev) => {
   let plan: Record<string, unknown>;
   const ack = f.elements.namedItem('acknowledge') as HTMLInputElement;
   try {
+    if ((f.elements.namedItem('kind') as HTMLSelectElement).value === 'adaptive' && knownParameters().size === 0)
+      throw new Error(
+        `target parameter: the ${status?.analysis.model} fit gives no parameter to aim at with the Analysis form's inputs: choose a model that does, or give its inputs`,
+      );
     plan = readPlan(f, status, targetUnit(f));
     const kind = String(plan.kind);
     if (kind === 'adaptive') {

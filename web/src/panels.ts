@@ -140,26 +140,29 @@ export interface ParamColumn {
   readonly fit: FitSummary | null | undefined;
 }
 
-/** The parameters table: one row per parameter, one column per fit (current sweep, previous). */
 /**
  * A fit's parameters; a mechanism without physical parameters (a straight line of raw columns)
- * shows its line's slope and intercept instead, in the axes' units.
+ * shows its line's slope and intercept instead, in the units of the axes the daemon gave it (a
+ * station's readings: A/V and A). Axes without a unit (raw columns of unknown meaning, or a fit
+ * journaled before the daemon labelled them) are said to be in the units of y and x, not given
+ * invented ones.
  */
-function figures(fit: FitSummary | null | undefined): Record<string, { value: number; stdErr: number; unit: string }> {
+export function lineFigures(fit: FitSummary | null | undefined): Record<string, { value: number; stdErr: number; unit: string }> {
   if (!fit) return {};
   if (Object.keys(fit.parameters).length) return fit.parameters;
-  const xu = fit.axes.x.unit;
-  const yu = fit.axes.y.unit;
-  if (fit.axes.y.kind === 'log') return {};
+  const { x, y } = fit.axes;
+  if (y.kind === 'log') return {};
+  const slope = x.unit && y.unit ? `${y.unit}/${x.unit}` : `(units of ${y.unit || y.label}/${x.unit || x.label})`;
   return {
-    slope: { value: fit.line.slope, stdErr: fit.line.slopeStdErr, unit: xu || yu ? `${yu || '1'}/${xu || '1'}` : '' },
-    intercept: { value: fit.line.intercept, stdErr: fit.line.interceptStdErr, unit: yu },
+    slope: { value: fit.line.slope, stdErr: fit.line.slopeStdErr, unit: slope },
+    intercept: { value: fit.line.intercept, stdErr: fit.line.interceptStdErr, unit: y.unit || `(units of ${y.label})` },
   };
 }
 
+/** The parameters table: one row per parameter, one column per fit (current sweep, previous). */
 export function renderParams(box: HTMLElement, cols: ParamColumn[], empty: string): void {
   box.textContent = '';
-  const names = [...new Set(cols.flatMap((c) => Object.keys(figures(c.fit))))];
+  const names = [...new Set(cols.flatMap((c) => Object.keys(lineFigures(c.fit))))];
   if (names.length === 0) {
     box.textContent = empty;
     return;
@@ -181,7 +184,7 @@ export function renderParams(box: HTMLElement, cols: ParamColumn[], empty: strin
     cols.forEach((col, k) => {
       const c = row.insertCell();
       c.className = k === 0 ? 'value' : '';
-      const p = figures(col.fit)[n];
+      const p = lineFigures(col.fit)[n];
       if (p) fillValue(c, p, n);
     });
   }

@@ -48,7 +48,8 @@ interface PlanField {
   /** A current compliance (A): at most the station's. */
   readonly compliance?: boolean;
   readonly checkbox?: boolean;
-  readonly text?: boolean;
+  /** One of a list the page fills in (a <select>): the adaptive target, from the model's parameters. */
+  readonly choice?: boolean;
   /** Fields of a group are given all together or not at all. */
   readonly group?: string;
   readonly title?: string;
@@ -74,8 +75,8 @@ export const PLAN_FIELDS: readonly PlanField[] = [
     label: 'target parameter',
     unit: '',
     required: true,
-    text: true,
-    title: "the fitted parameter whose standard error ends each sweep (the live fit's names, e.g. barrierHeight)",
+    choice: true,
+    title: "the fitted parameter whose standard error ends each sweep: one the Analysis form's model gives (the daemon checks the plan against it again)",
   },
   {
     name: 'targetStdErr',
@@ -267,6 +268,16 @@ export function buildPlanFields(f: HTMLFormElement, container: HTMLElement): voi
     label.dataset.field = d.name;
     label.dataset.kinds = d.kinds.join(' ');
     if (d.title) label.title = d.title;
+    const text = document.createElement('span');
+    text.textContent = labelText(d);
+    if (d.choice) {
+      // Its options come from the page (setChoices), as the analysis model changes.
+      const select = document.createElement('select');
+      select.name = d.name;
+      label.append(text, select);
+      container.append(label);
+      continue;
+    }
     const input = document.createElement('input');
     input.name = d.name;
     if (d.checkbox) {
@@ -274,18 +285,10 @@ export function buildPlanFields(f: HTMLFormElement, container: HTMLElement): voi
       input.type = 'checkbox';
       label.append(input, document.createTextNode(d.label));
     } else {
-      const text = document.createElement('span');
-      text.textContent = labelText(d);
-      input.type = d.text ? 'text' : 'number';
-      if (!d.text) input.step = d.integer ? '1' : 'any';
-      if (d.text) input.setAttribute('list', `${d.name}-list`);
+      input.type = 'number';
+      input.step = d.integer ? '1' : 'any';
       input.placeholder = d.required ? 'required' : 'optional';
       label.append(text, input);
-      if (d.text) {
-        const list = document.createElement('datalist');
-        list.id = `${d.name}-list`;
-        label.append(list);
-      }
     }
     container.append(label);
   }
@@ -296,7 +299,7 @@ export function showKind(f: HTMLFormElement, kind: string): void {
   for (const label of f.querySelectorAll<HTMLElement>('label[data-kinds]')) {
     const on = (label.dataset.kinds ?? '').split(' ').includes(kind);
     label.hidden = !on;
-    const input = label.querySelector('input') as HTMLInputElement;
+    const input = label.querySelector('input, select') as HTMLInputElement | HTMLSelectElement;
     input.disabled = !on;
   }
 }
@@ -319,6 +322,8 @@ export function fillKind(f: HTMLFormElement, st: StationStatus, kind: string, ov
       continue;
     }
     if (v === undefined || (!overwrite && input.value.trim() !== '')) continue;
+    // A choice not listed yet (its options come later) is chosen once it is (setChoices).
+    if (d.choice) input.dataset.preferred = String(v);
     input.value = typeof v === 'number' ? formatNumber(v * (d.scale ?? 1), 6) : String(v);
   }
 }
@@ -348,7 +353,7 @@ export function fillPlan(f: HTMLFormElement, st: StationStatus): void {
   const L = st.limits;
   for (const d of PLAN_FIELDS) {
     const el = field(f, d.name);
-    if (!el || d.checkbox || d.text) continue;
+    if (!el || d.checkbox || d.choice) continue;
     if (d.level === 'voltage') {
       el.max = String(L.maxVoltage);
       el.min = d.positive ? '0' : String(-L.maxVoltage);
@@ -357,6 +362,32 @@ export function fillPlan(f: HTMLFormElement, st: StationStatus): void {
   const hint = f.querySelector('#limits-hint');
   if (hint)
     hint.textContent = `Station limits: |V| ≤ ${formatNumber(L.maxVoltage)} V, compliance ≤ ${formatNumber(L.maxCompliance)} A, |V| × compliance ≤ ${formatNumber(L.maxPower)} W${L.hazardVoltage !== undefined ? `; caution above ${formatNumber(L.hazardVoltage)} V` : ''}. The daemon refuses anything beyond them.`;
+}
+
+/**
+ * Lists `names` as the choices of a choice field (the adaptive target: the model's parameters),
+ * keeping the one chosen while it is still listed, else choosing the first. With no names the field
+ * holds one empty placeholder, `none` saying why, and reads as not given.
+ */
+export function setChoices(f: HTMLFormElement, name: string, names: readonly string[], none: string): void {
+  const select = f.elements.namedItem(name) as HTMLSelectElement | null;
+  if (!select) return;
+  const was = select.value;
+  select.textContent = '';
+  for (const n of names) {
+    const o = document.createElement('option');
+    o.value = n;
+    o.textContent = n;
+    select.append(o);
+  }
+  if (names.length === 0) {
+    const o = document.createElement('option');
+    o.value = '';
+    o.textContent = none;
+    select.append(o);
+  }
+  const preferred = select.dataset.preferred ?? '';
+  select.value = names.includes(was) ? was : names.includes(preferred) ? preferred : (names[0] ?? '');
 }
 
 /** Sets the unit shown beside the adaptive target's standard error (the parameter's display unit). */
@@ -398,7 +429,7 @@ export function readPlan(f: HTMLFormElement, st: StationStatus | null, target: {
       if (d.required) throw new Error(`${what}: enter a value`);
       continue;
     }
-    if (d.text) {
+    if (d.choice) {
       set(plan, d.path, raw);
       continue;
     }

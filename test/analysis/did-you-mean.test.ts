@@ -1,6 +1,6 @@
 /** The close-match rule behind every "did you mean": edit distance ≤ 2, else one shared prefix. */
 import { describe, expect, it } from 'vitest';
-import { closestName, didYouMean, editDistance } from '../../protocols/did-you-mean.js';
+import { closestName, didYouMean, editDistance } from '../../daemon/analysis/did-you-mean.js';
 
 describe('did you mean', () => {
   it('edit distance counts insertions, deletions and substitutions', () => {
