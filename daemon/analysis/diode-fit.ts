@@ -8,10 +8,11 @@
 import { invertSmall } from './small-matrix.js';
 import { REASONS, describeReasons, type IVData } from './analyze.js';
 import { MIN_RELATIVE, relativeFromScatter, runningMedian } from './noise-floor.js';
-import { classifySweep } from './sweep-points.js';
+import { classifySweep, EXCLUDED, EXCLUSION_REASONS } from './sweep-points.js';
 import { RICHARDSON_FREE_A_PER_M2_K2, thermalVoltage } from './constants.js';
 import { fitDiodeModel, diodeCurrent, modelRmse, type DiodeModel, type DiodeStart, type FittedParameter } from './diode-models.js';
 import { AnalysisError } from './errors.js';
+import { idealityVerdict } from './mechanisms/diode.js';
 import { fitLine } from './line-fit.js';
 
 export type Convention = 'load' | 'generator';
@@ -48,6 +49,8 @@ export interface DiodeReport {
   readonly illuminated: boolean;
   readonly warnings: string[];
   readonly notes: string[];
+  /** False when a check on the fit failed (each failure is a warning). */
+  readonly plausible: boolean;
 }
 
 interface Points {
@@ -55,26 +58,32 @@ interface Points {
   /** Current in the generator convention. */
   i: number[];
   reasons: Record<string, number>;
+  /** What the sorting of the readings found (compliance detected in the readings themselves). */
+  notes: string[];
 }
 
-function points(data: IVData, req: DiodeRequest): Points {
+/**
+ * The readings to fit, in the generator convention and in order of bias. What is excluded for
+ * every analysis — not a number, showing breakdown, at compliance (flagged, at a given limit, or
+ * pinned at the top of a branch) — is decided by the whole-sweep classification (sweep-points.ts),
+ * the same rule the linearized models use. An illuminated cell is checked for a pinned current on
+ * its forward branch only: its reverse branch is the photocurrent, flat by nature.
+ */
+function points(data: IVData, req: DiodeRequest, illuminated: boolean): Points {
   const reasons: Record<string, number> = {};
   const count = (r: string) => (reasons[r] = (reasons[r] ?? 0) + 1);
   const sign = (req.convention ?? 'load') === 'load' ? -1 : 1;
   const lo = Math.min(req.window?.from ?? -Infinity, req.window?.to ?? Infinity);
   const hi = Math.max(req.window?.from ?? -Infinity, req.window?.to ?? Infinity);
+  const classes = classifySweep(data, { complianceLimit: req.complianceLimit, detectCompliance: illuminated ? 'positive' : true });
   const idx: number[] = [];
   for (let k = 0; k < data.x.length; k++) {
+    const code = classes.excluded[k];
+    if (code !== EXCLUDED.none && code !== EXCLUDED.zeroBias) {
+      count(EXCLUSION_REASONS[code]);
+      continue;
+    }
     const v = data.x[k];
-    const i = data.y[k];
-    if (!Number.isFinite(v) || !Number.isFinite(i)) {
-      count(REASONS.notFinite);
-      continue;
-    }
-    if (data.compliance?.[k] || (req.complianceLimit !== undefined && Math.abs(i) >= 0.99 * req.complianceLimit)) {
-      count(REASONS.compliance);
-      continue;
-    }
     if (v < lo || v > hi) {
       count(REASONS.outsideWindow);
       continue;
@@ -91,7 +100,7 @@ function points(data: IVData, req: DiodeRequest): Points {
     v[j] = data.x[idx[j]];
     i[j] = sign * data.y[idx[j]];
   }
-  return { v, i, reasons };
+  return { v, i, reasons, notes: classes.pinnedNotes };
 }
 
 /**
@@ -231,8 +240,10 @@ function darkStart(p: Points, vt: number): DiodeStart {
       lowI.push(-p.i[k]);
     }
   }
+  // A forward-only sweep may hold only one or two readings there: the shunt then starts high and
+  // the fit finds what the curve says of it (often only a bound).
   let rsh = 1e12;
-  if (lowV.length >= 2) {
+  if (lowV.length >= 3) {
     const g = fitLine(lowV, lowI);
     if (g.slope > 0) rsh = Math.max(1 / g.slope, 1);
   }
@@ -365,7 +376,7 @@ export function fitDiode(data: IVData, model: DiodeModel, req: DiodeRequest = {}
   const temperature = req.temperature ?? 300;
   const illuminated = req.illuminated ?? false;
   const vt = thermalVoltage(temperature);
-  const p = points(data, req);
+  const p = points(data, req, illuminated);
   if (!illuminated) {
     // In the dark the model current at zero bias is zero whatever the parameters: a reading there
     // is noise only (it says nothing and would be weighed against nothing).
@@ -479,13 +490,22 @@ export function fitDiode(data: IVData, model: DiodeModel, req: DiodeRequest = {}
   const warnings: string[] = [];
   if (req.temperature === undefined)
     warnings.push('temperature not given: 300 K assumed; the ideality factors are valid only with the temperature used (only n·T is measured)');
-  if (!fit.converged) warnings.push('the fit did not converge to the tolerances; treat the parameters with care');
-  for (const b of fit.atBound) warnings.push(`${b} ended on its bound: the data do not determine it`);
-  for (const [k, v] of Object.entries(fit.parameters)) {
-    if (!Number.isFinite(v.stdErr)) warnings.push(`${k}: no standard error (the parameters are not independently determined)`);
-    else if (v.stdErr > Math.abs(v.value)) warnings.push(`${k}: standard error larger than the value`);
+  const verdict = judgeDiodeFit(fit, noise !== undefined, p.v.length, temperature);
+  warnings.push(...verdict.warnings);
+  if (model === 'double-diode' && !verdict.plausible && verdict.warnings.some((x) => /(idealityFactor|saturationCurrent)[12]/.test(x)))
+    warnings.push('one of the two diodes is not determined: the curve shows one exponential (--model single-diode)');
+  if (!illuminated) {
+    // The diode fits take positive bias as forward: a device wired the other way round conducts at negative bias.
+    let pos = 0;
+    let neg = 0;
+    for (let k = 0; k < p.v.length; k++) {
+      if (p.v[k] > 0) pos = Math.max(pos, Math.abs(p.i[k]));
+      else neg = Math.max(neg, Math.abs(p.i[k]));
+    }
+    if (neg > 10 * pos)
+      warnings.push('the larger current flows at negative bias: these fits take positive bias as forward (is the device, or the bias, the other way round?)');
   }
-  const notes = [`ideality factors at T = ${temperature} K (kT/q = ${(vt * 1000).toFixed(4)} mV)`];
+  const notes = [...p.notes, `ideality factors at T = ${temperature} K (kT/q = ${(vt * 1000).toFixed(4)} mV)`, ...verdict.notes];
   if (noise)
     notes.push(
       `each reading weighted by its noise: floor ${noise.floor > 0 ? `${noise.floor.toPrecision(3)} A` : 'not reached'}, ${(100 * noise.relative).toPrecision(3)} % of reading`,
@@ -505,7 +525,68 @@ export function fitDiode(data: IVData, model: DiodeModel, req: DiodeRequest = {}
     illuminated,
     warnings,
     notes,
+    plausible: verdict.plausible,
   };
+}
+
+/** The parameters a diode fit is for: the ideality factors and saturation currents (the rest may be only bounds). */
+const MAIN_PARAMETER = /^(idealityFactor|saturationCurrent)/;
+
+/**
+ * Whether a single- or double-diode fit can be trusted, each failed check a warning: the fit
+ * converged; every ideality factor is one a diode can have (idealityVerdict, shared with the semilog
+ * model); the ideality factors and saturation currents are determined (a standard error, and the
+ * value at least twice it — the rule every mechanism's main parameter meets) and not on a bound; and,
+ * for a dark curve weighted by its noise, the residuals are of the size of that noise (reduced
+ * χ² below 4 or within 5 standard deviations of 1: a curve the model does not describe, such as two
+ * diodes fitted with one or readings clipped by a limit no one named, leaves residuals larger than
+ * its noise, and parameters biased beyond their errors). A series or shunt resistance the curve does
+ * not determine is reported as a bound (a note), not a failure: a forward-only sweep of a good
+ * diode rarely shows its shunt.
+ */
+function judgeDiodeFit(fit: ReturnType<typeof fitDiodeModel>, weighted: boolean, used: number, temperature: number) {
+  const warnings: string[] = [];
+  const notes: string[] = [];
+  let plausible = true;
+  const fail = (w: string) => {
+    warnings.push(w);
+    plausible = false;
+  };
+  if (!fit.converged) fail('the fit did not converge to the tolerances; treat the parameters with care');
+  for (const [k, v] of Object.entries(fit.parameters)) {
+    const main = MAIN_PARAMETER.test(k);
+    const onBound = fit.atBound.includes(k);
+    if (onBound) {
+      if (main) fail(`${k} ended on its bound: the data do not determine it`);
+      else
+        notes.push(`${k} ended on its bound (${v.value.toPrecision(3)} ${v.unit}): the curve does not determine it; the value is a bound, not a measurement`);
+      continue;
+    }
+    const undetermined = !Number.isFinite(v.stdErr)
+      ? 'no standard error (the parameters are not independently determined)'
+      : v.stdErr > 0.5 * Math.abs(v.value)
+        ? `standard error ${v.stdErr.toPrecision(2)}${v.unit ? ` ${v.unit}` : ''} is more than half the value`
+        : '';
+    if (!undetermined) continue;
+    if (main) fail(`${k}: ${undetermined}`);
+    else notes.push(`${k}: ${undetermined}: the curve hardly determines it`);
+  }
+  for (const [k, v] of Object.entries(fit.parameters)) {
+    if (!k.startsWith('idealityFactor')) continue;
+    const verdict = idealityVerdict(v.value, temperature, k);
+    if (verdict.warning) warnings.push(verdict.warning);
+    if (!verdict.plausible) plausible = false;
+  }
+  if (weighted) {
+    const dof = used - Object.keys(fit.parameters).length;
+    const reduced = dof > 0 ? fit.chi2 / dof : Number.NaN;
+    if (dof > 0 && reduced > 4 && reduced > 1 + 5 * Math.sqrt(2 / dof))
+      fail(
+        `the residuals are ${Math.sqrt(reduced).toPrecision(2)}× the noise the readings show (reduced χ² ${reduced.toPrecision(3)} on ${dof} degrees of freedom): the model does not describe this curve (another diode, a limit, a breakdown?), and the parameters may be off by more than their errors`,
+      );
+    else if (dof > 0) notes.push(`reduced χ² ${reduced.toPrecision(3)} on ${dof} degrees of freedom against the noise model`);
+  }
+  return { warnings, notes, plausible };
 }
 
 /**
@@ -518,7 +599,7 @@ export function fitDiode(data: IVData, model: DiodeModel, req: DiodeRequest = {}
 export function cheung(data: IVData, req: DiodeRequest = {}): DiodeReport {
   const temperature = req.temperature ?? 300;
   const vt = thermalVoltage(temperature);
-  const p = points(data, req);
+  const p = points(data, req, false);
   // Forward points, current as a positive number, sorted by V.
   const idx = p.v.map((_, k) => k).filter((k) => p.v[k] > 3 * vt && -p.i[k] > 0);
   const v = idx.map((k) => p.v[k]);
@@ -552,8 +633,9 @@ export function cheung(data: IVData, req: DiodeRequest = {}): DiodeReport {
     idealityFactor: { value: n, stdErr: nSe, unit: '' },
   };
   const warnings: string[] = [];
+  let plausible = true;
   const xr = extent(xs);
-  const notes: string[] = [`function 1 (dV/d ln I against I) on ${xs.length} points from ${xr.lo.toExponential(2)} to ${xr.hi.toExponential(2)} A`];
+  const notes: string[] = [...p.notes, `function 1 (dV/d ln I against I) on ${xs.length} points from ${xr.lo.toExponential(2)} to ${xr.hi.toExponential(2)} A`];
   if (req.temperature === undefined) warnings.push('temperature not given: 300 K assumed; n is valid only with the temperature used');
   if (req.area !== undefined) {
     const aStar = req.richardson ?? RICHARDSON_FREE_A_PER_M2_K2;
@@ -566,10 +648,18 @@ export function cheung(data: IVData, req: DiodeRequest = {}): DiodeReport {
     notes.push(
       `function 2 (H(I) against I) gives R_s = ${f2.slope.toPrecision(4)} Ω as a consistency check; A** = ${aStar} A m⁻² K⁻²${req.richardson === undefined ? ' (free-electron value assumed)' : ''}`,
     );
-    if (Math.abs(f2.slope - f1.slope) > 0.2 * Math.abs(f1.slope))
+    if (Math.abs(f2.slope - f1.slope) > 0.2 * Math.abs(f1.slope)) {
       warnings.push('the two Cheung functions disagree on R_s by more than 20 %: the bend-over region may hold another effect');
+      plausible = false;
+    }
   } else warnings.push('barrier height needs the device area (--area) and A** (--richardson)');
-  if (f1.slope <= 0) warnings.push('negative series resistance: the curve shows no series-resistance bend in the region used');
+  if (f1.slope <= 0) {
+    warnings.push('negative series resistance: the curve shows no series-resistance bend in the region used');
+    plausible = false;
+  }
+  const nVerdict = idealityVerdict(n, temperature);
+  if (nVerdict.warning) warnings.push(nVerdict.warning);
+  if (!nVerdict.plausible) plausible = false;
   return {
     model: 'cheung',
     title: 'Cheung–Cheung functions (dV/d ln I and H(I) against I)',
@@ -582,6 +672,7 @@ export function cheung(data: IVData, req: DiodeRequest = {}): DiodeReport {
     illuminated: false,
     warnings,
     notes,
+    plausible,
   };
 }
 
@@ -612,7 +703,7 @@ export interface SolarReport {
  * Uncertainties are not propagated here (stdErr 0): they come from the fitted model instead.
  */
 export function solarFigures(data: IVData, req: DiodeRequest & { irradiance?: number } = {}): SolarReport {
-  const p = points(data, req);
+  const p = points(data, req, true);
   const { v, i } = p;
   const warnings: string[] = [];
   if (v.length < 3) throw new AnalysisError('TOO_FEW_POINTS', `${v.length} usable point${v.length === 1 ? '' : 's'}`);
@@ -767,7 +858,7 @@ export function solarFiguresWithUncertainty(
   req: DiodeRequest & { irradiance?: number } = {},
 ): SolarReport & { readonly jsc: FittedParameter | null } {
   const base = solarFigures(data, req);
-  const { v, i } = points(data, req);
+  const { v, i } = points(data, req, true);
   const k = SOLAR_LOCAL_POINTS;
   const f = base.figures;
   const warnings = [...base.warnings];

@@ -237,6 +237,8 @@ export interface DiodeFit {
   readonly rmse: number;
   /** √(mean f(V, I_measured)²), A: the implicit-residual RMSE at the same parameters. */
   readonly rmseImplicit: number;
+  /** Σ ((I_model(V) − I_measured)·w)² over the fitted points: with weights 1/σ_I, a χ² of n − p degrees of freedom when the model holds. */
+  readonly chi2: number;
   readonly iterations: number;
   readonly converged: boolean;
   readonly atBound: string[];
@@ -457,8 +459,10 @@ export function fitDiodeModel(
   const c = evaluate(best.p);
   let ss = 0;
   let sf = 0;
+  let chi2 = 0;
   for (let k = 0; k < n; k++) {
     ss += (modelI[k] - i[k]) ** 2;
+    chi2 += ((modelI[k] - i[k]) * w[k]) ** 2;
     residualAt(v[k], i[k], c, ex, fd);
     sf += fd.f ** 2;
   }
@@ -484,6 +488,7 @@ export function fitDiodeModel(
     parameters,
     rmse: Math.sqrt(ss / n),
     rmseImplicit: Math.sqrt(sf / n),
+    chi2,
     iterations: best.iterations,
     converged: best.converged,
     atBound: best.atBound.map((k) => lay.names[k]),

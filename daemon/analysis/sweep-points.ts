@@ -54,6 +54,8 @@ export interface SweepClasses {
   readonly noise: NoiseModel;
   /** Notes on the floor estimate or detected compliance, for the report. */
   readonly notes: string[];
+  /** Of those notes, the ones on a current found pinned at compliance (a fit that uses no floor reports these alone). */
+  readonly pinnedNotes: string[];
   /** Per reading: 0 (EXCLUDED.none) usable, else the code of an exclusion that holds for every mechanism (its text: EXCLUSION_REASONS[code]). */
   readonly excluded: Uint8Array;
   readonly reasons: Record<string, number>;
@@ -69,8 +71,12 @@ export interface ClassifyOptions {
   readonly accuracy?: AccuracySpec;
   /** Relative noise when known from elsewhere (otherwise estimated later per mechanism). */
   readonly relative?: number;
-  /** Look for a current pinned at compliance that no flag marks (default true: the y column is a current). */
-  readonly detectCompliance?: boolean;
+  /**
+   * Look for a current pinned at compliance that no flag marks (default true: the y column is a
+   * current), on both branches or on the one named (an illuminated cell's reverse branch is its
+   * photocurrent, flat by nature, and no sign of a limit).
+   */
+  readonly detectCompliance?: boolean | 'positive' | 'negative';
   /** The floor earlier sweeps of the same run measured (σ, A, from `readings` null readings); see FitRequest. */
   readonly knownFloor?: { readonly sigma: number; readonly readings: number };
 }
@@ -145,6 +151,7 @@ export function classifySweep(data: SweepData, options: ClassifyOptions = {}): S
   const zeroTol = 1e-4 * maxBias;
   const complianceAt = limit === undefined ? Infinity : 0.99 * limit;
   const notes: string[] = [];
+  const pinnedNotes: string[] = [];
   // Exclusions that hold for every mechanism, and branch membership by the sign of the bias: the
   // positive branch fills `members` from the front, the negative one from the back.
   const members = new Int32Array(n);
@@ -161,15 +168,17 @@ export function classifySweep(data: SweepData, options: ClassifyOptions = {}): S
     [negIdx, 'negative'],
   ] as const) {
     if (options.detectCompliance === false) break;
+    if (options.detectCompliance !== undefined && options.detectCompliance !== true && options.detectCompliance !== name) continue;
     const pinned = detectPinned(data, idx, absBias);
     if (pinned.length) {
       for (const k of pinned) excluded[k] = EXCLUDED.compliance;
       const level = Math.abs(y[pinned[0]]);
-      notes.push(
+      pinnedNotes.push(
         `${pinned.length} reading${pinned.length > 1 ? 's' : ''} at the top of the ${name} branch ${pinned.length > 1 ? 'are' : 'is'} pinned at ${level.toPrecision(4)} A (the branch's largest current, held while the bias rises or read as a round value): taken as compliance (no compliance column or --compliance given)`,
       );
     }
   }
+  notes.push(...pinnedNotes);
   // Counted by reason, the reasons in the order they first occur in the sweep. Noise floor from the
   // null readings: zero bias, and each branch from zero bias up to its last reading against the
   // bias (while at least a fifth of the readings so far are against it).
@@ -282,6 +291,7 @@ export function classifySweep(data: SweepData, options: ClassifyOptions = {}): S
   return {
     noise,
     notes,
+    pinnedNotes,
     excluded,
     reasons,
     positive: branchOf(1, posIdx, excluded, y, level),

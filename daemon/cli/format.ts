@@ -156,6 +156,7 @@ export function formatDiode(r: DiodeReport): string {
     );
   for (const n of r.notes) out.push(`note:       ${n}`);
   for (const x of r.warnings) out.push(`warning:    ${x}`);
+  if (!r.plausible) out.push(notPlausibleLine());
   return out.join('\n');
 }
 

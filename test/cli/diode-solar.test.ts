@@ -10,6 +10,8 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
 import { thermalVoltage } from '../../daemon/analysis/constants.js';
+import { diodeCurrentNewton } from '../../daemon/analysis/diode-models.js';
+import { seededNormal } from '../../daemon/analysis/random.js';
 import { runCli, tempFile } from '../helpers/cli.js';
 import { PROJECT_ROOT } from '../helpers/reference.js';
 
@@ -34,6 +36,45 @@ describe('plumbline fit with the diode models', () => {
     expect(j.parameters.seriesResistance.unit).toBe('Ω');
     expect(j.rmse).toBeCloseTo(7.7301e-4, 8);
     expect(j.temperature.value).toBeCloseTo(306.15, 10);
+    expect(j.plausible).toBe(true);
+  });
+
+  it('a dark sweep clipped at 10 mA with no compliance column: the pinned readings left out and said so, plausible in the JSON; wired backwards, NOT PLAUSIBLE', () => {
+    // A Shockley diode with series and shunt resistance (Shockley 1949; Sze & Ng 2007), n = 1.3,
+    // I₀ = 1 pA, R_s = 20 Ω, R_sh = 100 MΩ, solved by the project's forward model with 0.2 % noise
+    // and clipped at 10 mA as the instrument clips it: an invented device, truth known.
+    const c = { photocurrent: 0, diodes: [{ i0: 1e-12, n: 1.3 }], seriesResistance: 20, shuntResistance: 1e8, vt: thermalVoltage(300) };
+    const normal = seededNormal(11);
+    const rows: string[] = [];
+    for (let k = 0; k <= 150; k++) {
+      const v = Math.round((-2 + 0.02 * k) * 1e4) / 1e4;
+      const i = -diodeCurrentNewton(v, c);
+      rows.push(`${v},${Math.min(1e-2, i * (1 + 2e-3 * normal()) + 3e-14 * normal())}`);
+    }
+    const file = tempFile('clipped.csv', `V,I\n${rows.join('\n')}\n`);
+    const r = runCli(['fit', file, '--model', 'single-diode', '--temperature', '300 K', '--json']);
+    expect(r.code, r.stderr).toBe(0);
+    const j = JSON.parse(r.stdout);
+    expect(j.points.reasons['at compliance']).toBe(2);
+    expect(j.notes.join('\n')).toMatch(/pinned at 0\.01000 A/);
+    expect(j.plausible).toBe(true);
+    const rs = j.parameters.seriesResistance;
+    expect(Math.abs(rs.value - 20), `${rs.value} ± ${rs.stdErr}`).toBeLessThan(3 * rs.stdErr);
+    const back = tempFile(
+      'backwards.csv',
+      `V,I\n${rows
+        .map((l) =>
+          l
+            .split(',')
+            .map((x) => -Number(x))
+            .join(','),
+        )
+        .join('\n')}\n`,
+    );
+    const t = runCli(['fit', back, '--model', 'single-diode', '--temperature', '300 K']);
+    expect(t.code, t.stderr).toBe(0);
+    expect(t.stdout).toMatch(/larger current flows at negative bias/);
+    expect(t.stdout.trim().split('\n').at(-1)).toMatch(/^NOT PLAUSIBLE/);
   });
 
   it('the same cell read with --convention generator from a generator-convention file gives the same fit', () => {

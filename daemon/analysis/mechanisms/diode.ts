@@ -11,6 +11,19 @@ export function shockley(v: number, saturationCurrent: number, idealityFactor: n
   return saturationCurrent * Math.expm1(v / (idealityFactor * thermalVoltage(temperature)));
 }
 
+/**
+ * What an ideality factor says of a fit: below 1 no diode can have it (Sze & Ng 2007, ch. 2:
+ * diffusion current n = 1, recombination in the depletion region n = 2); far above 2 the
+ * exponential is not a junction's; between 2.2 and 4 a warning (series resistance, tunnelling, a
+ * window past the straight part) that leaves the fit plausible. 0.95 and 4 are our own margins.
+ */
+export function idealityVerdict(n: number, temperature: number, name = 'ideality factor'): { plausible: boolean; warning?: string } {
+  if (n < 0.95) return { plausible: false, warning: `${name} ${fmt(n)} is below 1, which a diode at ${fmt(temperature)} K cannot have` };
+  if (n > 4) return { plausible: false, warning: `${name} ${fmt(n)} is far above 2: not a diode's exponential (a film, leakage, or tunnelling)` };
+  if (n > 2.2) return { plausible: true, warning: `${name} ${fmt(n)} is above 2: series resistance, tunnelling or a window past the straight part` };
+  return { plausible: true };
+}
+
 export const diodeMechanism: Mechanism = {
   id: 'diode',
   title: 'Diode semilog, ln I against V',
@@ -39,18 +52,10 @@ export const diodeMechanism: Mechanism = {
     const vt = thermalVoltage(inputs.temperature);
     const n = 1 / (vt * line.slope);
     const i0 = Math.exp(line.intercept);
-    let plausible = true;
-    if (n < 0.95) {
-      warnings.push(`ideality factor ${fmt(n)} is below 1, which a diode at ${fmt(inputs.temperature)} K cannot have`);
-      plausible = false;
-    } else if (n > 4) {
-      warnings.push(`ideality factor ${fmt(n)} is far above 2: not a diode's exponential (a film, leakage, or tunnelling)`);
-      plausible = false;
-    } else if (n > 2.2) {
-      warnings.push(`ideality factor ${fmt(n)} is above 2: series resistance, tunnelling or a window past the straight part`);
-    } else {
-      notes.push(`ideality factor ${fmt(n)} at ${fmt(inputs.temperature)} K`);
-    }
+    const verdict = idealityVerdict(n, inputs.temperature);
+    const plausible = verdict.plausible;
+    if (verdict.warning) warnings.push(verdict.warning);
+    else notes.push(`ideality factor ${fmt(n)} at ${fmt(inputs.temperature)} K`);
     let minV = Infinity;
     for (let i = 0; i < used.v.length; i++) minV = Math.min(minV, used.v[i]);
     // With the series-resistance model the exact Shockley current (its "−1" included) was fitted.
