@@ -11,13 +11,13 @@ import { RICHARDSON_FREE_A_PER_M2_K2 } from './constants.js';
 import { AnalysisError } from './errors.js';
 import { decadesOf, describe, fitBranch, type BranchFit, type WindowMode } from './fit-branch.js';
 import type { AxisSpec, DataColumns, FitPoints, Inputs, InputName, Mechanism, ParameterValue, ResolvedInputs } from './mechanism.js';
-import { fmt } from './mechanism.js';
+import { fmt, fmtPm } from './mechanism.js';
 import { compileCustom, customMechanism, type CustomSpec } from './mechanisms/custom.js';
 import { getMechanism } from './mechanisms/index.js';
 import { floorLevel, type NoiseModel } from './noise-floor.js';
 import { fitLine } from './line-fit.js';
 import { REGIME_SEGMENTS, segmentLine } from './segmentation.js';
-import { chooseBranches, classifySweep, REASONS, type Branch, type SweepClasses } from './sweep-points.js';
+import { chooseBranches, classifySweep, REASONS, sweepLegs, type Branch, type SweepClasses } from './sweep-points.js';
 
 export { REASONS } from './sweep-points.js';
 
@@ -64,6 +64,11 @@ export interface FitRequest {
   readonly eachBranch?: boolean;
   /** A classification made earlier for the same data and settings (ranking reuses one). */
   readonly classes?: SweepClasses;
+  /**
+   * Split an out-and-back sweep into its first pass (fitted) and its way back (fitted apart and
+   * compared: hysteresis is warned of). Default true; the data must be in the order taken.
+   */
+  readonly legs?: boolean;
   /**
    * The noise floor earlier sweeps of the same run measured (σ, A, and how many null readings it
    * rests on): used when this sweep has no null readings of its own (zero bias, against the bias).
@@ -427,6 +432,66 @@ function betterMechanism(
 
 /** As analyze, with the points and the fit behind the report. */
 export function analyzeDetailed(data: IVData, request: FitRequest): DetailedFit {
+  if (request.legs !== false) {
+    const legs = sweepLegs(data.x);
+    if (legs) return outAndBack(data, request, legs);
+  }
+  return analyzeOnePass(data, request);
+}
+
+/** The readings `index` names, every column with them. */
+export function pick(data: IVData, index: readonly number[]): IVData {
+  const take = (a: ArrayLike<number>) => Float64Array.from(index, (k) => a[k]);
+  return {
+    x: take(data.x),
+    y: take(data.y),
+    compliance: data.compliance ? take(data.compliance) : undefined,
+    breakdown: data.breakdown ? take(data.breakdown) : undefined,
+    columns: data.columns ? Object.fromEntries(Object.entries(data.columns).map(([k, a]) => [k, take(a)])) : undefined,
+  };
+}
+
+/**
+ * An out-and-back sweep: the first pass is the result; the way back is fitted on its own and its
+ * main parameter compared (on the same branch). Legs apart by more than three combined standard
+ * errors are a hysteresis warning: the curve moved between them (charge trapped on the way out,
+ * heating), and the result is the way out's — the one a fresh film gives.
+ */
+function outAndBack(data: IVData, request: FitRequest, legs: { out: number[]; back: number[] }): DetailedFit {
+  const one = { ...request, legs: false, classes: undefined };
+  const out = analyzeOnePass(pick(data, legs.out), one);
+  let back: FitReport | undefined;
+  let backError = '';
+  try {
+    back = analyzeOnePass(pick(data, legs.back), { ...one, regimes: false }).report;
+  } catch (e) {
+    if (!(e instanceof AnalysisError)) throw e;
+    backError = e.message;
+  }
+  const r = out.report;
+  const key = Object.keys(r.parameters)[0];
+  const a = key ? r.parameters[key] : undefined;
+  const b = key && back && back.branch === r.branch ? back.parameters[key] : undefined;
+  const unit = a?.unit && a.unit !== '1' ? ` ${a.unit}` : '';
+  const notes = [
+    ...r.notes,
+    `an out-and-back sweep: the ${legs.out.length} readings of the first pass are fitted, the ${legs.back.length} on the way back apart${
+      b ? ` (way back: ${key} ${fmtPm(b.value, b.stdErr)}${unit})` : back ? '' : ` (the way back could not be fitted: ${backError})`
+    }`,
+  ];
+  const warnings = [...r.warnings];
+  if (a && b && Math.abs(a.value - b.value) > 3 * Math.hypot(a.stdErr, b.stdErr)) {
+    const apart = Math.abs(a.value - b.value) / Math.hypot(a.stdErr, b.stdErr);
+    warnings.push(
+      `hysteresis: the way back gives ${key} ${fmtPm(b.value, b.stdErr)}${unit} against ${fmtPm(a.value, a.stdErr)}${unit} on the way out (${apart.toFixed(1)} standard errors apart): the curve moved between the legs (charge trapped on the way out, or heating); this result is the first pass's`,
+    );
+  }
+  const reasons = { ...r.points.reasons, [REASONS.wayBack]: legs.back.length };
+  const report: FitReport = { ...r, notes, warnings, points: { ...r.points, excluded: r.points.excluded + legs.back.length, reasons } };
+  return { ...out, report };
+}
+
+function analyzeOnePass(data: IVData, request: FitRequest): DetailedFit {
   const mech = request.model === 'custom' ? customMechanism(request.custom ?? missingCustom()) : getMechanism(request.model);
   const inputs = resolveInputs(mech, request.inputs);
   const custom = request.model === 'custom' && request.custom ? compileCustom(request.custom) : undefined;
@@ -509,7 +574,7 @@ export function analyzeDetailed(data: IVData, request: FitRequest): DetailedFit 
     const key = Object.keys(primary.parameters)[0];
     const describeOne = (f: BranchFit) => {
       const p = key ? f.parameters[key] : undefined;
-      return `${polarity(f)}${p ? ` ${key} ${fmt(p.value)} ± ${fmt(p.stdErr)}` : ''}`;
+      return `${polarity(f)}${p ? ` ${key} ${fmtPm(p.value, p.stdErr)}${p.unit && p.unit !== '1' ? ` ${p.unit}` : ''}` : ''}`;
     };
     notes.push(
       `both polarities carry signal: each branch is analysed on its own (${fits.map((f) => describeOne(f.fit)).join('; ')}); this report is the ${polarity(primary)} branch's, the others are under "branches"`,

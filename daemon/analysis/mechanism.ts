@@ -179,6 +179,24 @@ export function inRange(warnings: string[], what: string, value: number, lo: num
   return false;
 }
 
+/**
+ * A value with its standard error for messages: the error to two significant digits and the value
+ * to the same decimal place (3.10028 ± 0.00013; (9.987 ± 0.048)e11 for large or small numbers).
+ */
+export function fmtPm(value: number, stdErr: number): string {
+  if (!Number.isFinite(value) || !Number.isFinite(stdErr) || !(stdErr > 0)) return `${fmt(value)} ± ${fmt(stdErr)}`;
+  const last = Math.floor(Math.log10(stdErr)) - 1;
+  const scale = Math.max(Math.abs(value), stdErr);
+  if (scale >= 1e6 || scale < 1e-3) {
+    const p = Math.floor(Math.log10(scale));
+    const digits = Math.max(0, p - last);
+    const m = (x: number) => (x / 10 ** p).toFixed(digits);
+    return `(${m(value)} ± ${m(stdErr)})e${p}`;
+  }
+  const d = Math.max(0, -last);
+  return `${value.toFixed(d)} ± ${stdErr.toFixed(d)}`;
+}
+
 /** Four significant digits, for messages. */
 export function fmt(v: number): string {
   if (!Number.isFinite(v)) return String(v);

@@ -12,12 +12,12 @@
  * reasons; when such a mechanism holds most of the weight, the ranking says so.
  */
 import type { AccuracySpec } from './accuracy.js';
-import { analyzeDetailed, type DetailedFit, type IVData, type WindowRequest } from './analyze.js';
+import { analyzeDetailed, pick, type DetailedFit, type IVData, type WindowRequest } from './analyze.js';
 import type { Inputs, ParameterValue } from './mechanism.js';
 import { fmt } from './mechanism.js';
 import { MECHANISMS } from './mechanisms/index.js';
 import { floorLevel, lnSigma, MIN_RELATIVE } from './noise-floor.js';
-import { chooseBranches, classifySweep, REASONS } from './sweep-points.js';
+import { chooseBranches, classifySweep, REASONS, sweepLegs } from './sweep-points.js';
 
 export interface RankEntry {
   readonly model: string;
@@ -74,7 +74,7 @@ export function rankMechanisms(input: IVData, request: RankRequest = {}): Rankin
   // more, and the cost stays near linear.
   const total = input.x.length;
   const stride = Math.max(1, Math.ceil(total / RANK_MAX_READINGS));
-  const data: IVData =
+  const strided: IVData =
     stride === 1
       ? input
       : {
@@ -82,6 +82,10 @@ export function rankMechanisms(input: IVData, request: RankRequest = {}): Rankin
           y: pickEvery(input.y, stride),
           compliance: input.compliance ? pickEvery(input.compliance, stride) : undefined,
         };
+  // An out-and-back sweep is ranked on its first pass, as it is fitted (analyze.ts): the way back
+  // may be another curve (hysteresis).
+  const legs = sweepLegs(strided.x);
+  const data = legs ? pick(strided, legs.out) : strided;
   const flatBand = request.inputs?.flatBand ?? 0;
   const classes = classifySweep(data, { flatBand, complianceLimit: request.complianceLimit, accuracy: request.accuracy });
   const branch = chooseBranches(classes, false)[0];
@@ -228,7 +232,12 @@ export function rankMechanisms(input: IVData, request: RankRequest = {}): Rankin
     skipped,
     points: { used: n, excluded, reasons },
     warnings,
-    notes: classes.notes.filter((t) => !/too large to be noise/.test(t)),
+    notes: [
+      ...classes.notes.filter((t) => !/too large to be noise/.test(t)),
+      ...(legs
+        ? [`an out-and-back sweep: ranked on the ${legs.out.length} readings of the first pass (the ${legs.back.length} on the way back left out)`]
+        : []),
+    ],
     branch: branch.sign > 0 ? 'positive' : 'negative',
     noise,
   };

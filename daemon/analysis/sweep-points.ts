@@ -24,6 +24,7 @@ export const REASONS = {
   nonPositiveTemperature: 'non-positive temperature',
   expression: 'expression not a finite number',
   outsideWindow: 'outside the fit window',
+  wayBack: 'on the way back of an out-and-back sweep (fitted apart)',
 } as const;
 
 /** Codes of the sweep-wide exclusions in SweepClasses.excluded. */
@@ -446,4 +447,73 @@ export function atOneBias(v: ArrayLike<number>, skip?: (k: number) => boolean): 
   }
   if (!(hi >= lo)) return true;
   return hi - lo <= 1e-3 * Math.max(1, Math.abs(hi), Math.abs(lo));
+}
+
+/** Fewest readings on the way back for a sweep to count as out-and-back. */
+const MIN_WAY_BACK = 5;
+
+/**
+ * An out-and-back sweep, in the order the readings were taken: the first pass (each reading that
+ * takes the bias beyond every level before it; a level read again at once, within 0.1 % of the
+ * span, counts with its pass) and the way back (readings over levels already passed). Undefined when there is no
+ * way back: fewer than MIN_WAY_BACK readings over at least a fifth of the span, a way back in more
+ * than three stretches, or one that turns to and fro (an adaptive sweep returns to levels it chose:
+ * that is one curve sampled in its own order, not two legs). A film that traps charge or heats gives two
+ * curves, one each way (hysteresis): fitted as one, they make an average whose scatter is the gap
+ * between them.
+ */
+export function sweepLegs(x: ArrayLike<number>): { out: number[]; back: number[] } | undefined {
+  let lo = Infinity;
+  let hi = -Infinity;
+  for (let k = 0; k < x.length; k++) {
+    if (!Number.isFinite(x[k])) continue;
+    lo = Math.min(lo, x[k]);
+    hi = Math.max(hi, x[k]);
+  }
+  const span = hi - lo;
+  if (!(span > 0)) return undefined;
+  const tol = 1e-3 * span;
+  const out: number[] = [];
+  const back: number[] = [];
+  let runLo = Infinity;
+  let runHi = -Infinity;
+  let stretches = 0;
+  let backLo = Infinity;
+  let backHi = -Infinity;
+  for (let k = 0; k < x.length; k++) {
+    const v = x[k];
+    if (!Number.isFinite(v)) {
+      out.push(k);
+      continue;
+    }
+    // Beyond every level before it, or a repeat of the level just read on the first pass.
+    const prevOut = out.length > 0 && out[out.length - 1] === k - 1;
+    if (v > runHi + tol || v < runLo - tol || (prevOut && (v >= runHi - tol || v <= runLo + tol))) {
+      out.push(k);
+    } else {
+      if (back.length === 0 || back[back.length - 1] !== k - 1) stretches++;
+      back.push(k);
+      backLo = Math.min(backLo, v);
+      backHi = Math.max(backHi, v);
+    }
+    runLo = Math.min(runLo, v);
+    runHi = Math.max(runHi, v);
+  }
+  if (back.length < MIN_WAY_BACK || backHi - backLo < 0.2 * span || stretches > 3) return undefined;
+  // A way back moves steadily back: an adaptive fill after the top also reads below levels passed,
+  // but goes to and fro between the levels it chose.
+  let turns = 0;
+  let dir = 0;
+  for (let j = 1; j < back.length; j++) {
+    if (back[j] !== back[j - 1] + 1) {
+      dir = 0;
+      continue;
+    }
+    const d = x[back[j]] - x[back[j - 1]];
+    if (Math.abs(d) <= tol) continue;
+    if (dir !== 0 && Math.sign(d) !== dir) turns++;
+    dir = Math.sign(d);
+  }
+  if (turns > 0.1 * back.length) return undefined;
+  return { out, back };
 }

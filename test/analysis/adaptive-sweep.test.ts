@@ -19,6 +19,7 @@
 import { inv } from 'mathjs';
 import { describe, expect, it } from 'vitest';
 import { AdaptiveSweep, Information, rangeOf, type AdaptiveSettings } from '../../daemon/analysis/adaptive-sweep.js';
+import { sweepLegs } from '../../daemon/analysis/sweep-points.js';
 
 /** var(b) = (M⁻¹)₁₁ by mathjs for rows f with weights w. */
 function slopeVariance(rows: { f: number[]; w: number }[]): number {
@@ -87,6 +88,14 @@ describe('where the fill puts its readings', () => {
     for (const v of fill) if (!clusters.some((c) => Math.abs(c - v) <= p.fine + 1e-9)) clusters.push(v);
     return { fill, clusters: clusters.sort((x, y) => x - y), fine: p.fine };
   }
+
+  it('the readings of an adaptive sweep are one curve in its own order, not an out-and-back sweep: the fit does not split them into legs', () => {
+    for (const leakage of [false, true]) {
+      const levels = drive(new AdaptiveSweep({ ...base, leakage }), current);
+      expect(levels.length).toBeGreaterThan(20);
+      expect(sweepLegs(levels)).toBeUndefined();
+    }
+  });
 
   it('a plain line: the fill keeps to two levels, the top and one below it (Elfving: a c-optimal design for one coefficient of a two-parameter line needs two support points)', () => {
     const { fill, clusters, fine } = fillOf(false);

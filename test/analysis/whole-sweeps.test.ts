@@ -6,7 +6,8 @@
  * ±0.05, mobility ±30 % (common practice).
  */
 import { describe, expect, it } from 'vitest';
-import { analyze, type FitReport } from '../../daemon/analysis/analyze.js';
+import { analyze, REASONS, type FitReport } from '../../daemon/analysis/analyze.js';
+import { sweepLegs } from '../../daemon/analysis/sweep-points.js';
 import { linearBias, normals, PHYSICAL, wholeSweep, type Device, type SweepSpec } from '../helpers/whole-sweep.js';
 
 interface Case {
@@ -521,5 +522,63 @@ describe('a sweep that never leaves its noise floor', () => {
     // The robust RMS of about ten readings scatters by a quarter or so: within 3× of the truth.
     for (const f of floors) expect(f / 2e-13).toBeGreaterThan(1 / 3);
     for (const f of floors) expect(f / 2e-13).toBeLessThan(3);
+  });
+});
+
+describe('out-and-back sweeps', () => {
+  // The 7 nm Fowler–Nordheim oxide of the first case, swept 0 → 10 V and back in 0.1 V steps. A
+  // film that traps electrons on the way out raises its effective barrier for the way back
+  // (hysteresis of the I–V curve: a shift of the Fowler–Nordheim plot, common practice); here the
+  // way back is drawn with a barrier 0.05 eV higher.
+  const inputs = { thickness: 7e-9, area: 1e-8, massRatio: 0.42 };
+  const out = linearBias(0, 10, 101);
+  const back = linearBias(9.9, 0, 100);
+  const legs = (seed: number, backBarrier: number) => {
+    const spec = { thickness: 7e-9, area: 1e-8, leakage: 1e13, relative: 0.02, floor: 1e-13, compliance: 1e-3 };
+    const a = wholeSweep({ ...spec, device: fn, bias: out, seed });
+    const b = wholeSweep({ ...spec, device: { ...fn, barrier: backBarrier }, bias: back, seed: seed + 1000 });
+    return { x: [...a.v, ...b.v], y: [...a.i, ...b.i], compliance: [...a.compliance, ...b.compliance] };
+  };
+
+  it('legs 0.05 eV apart: the first pass is the result (within 3σ of its barrier), the way back is fitted apart, and hysteresis is warned of', () => {
+    for (let seed = 1; seed <= 5; seed++) {
+      const r = analyze(legs(seed, 3.15), { model: 'fowler-nordheim', inputs });
+      const b = r.parameters.barrierHeight;
+      const what = `seed ${seed}: ${b.value} ± ${b.stdErr}; ${r.warnings.join('; ')}`;
+      expect(Math.abs(b.value - 3.1), what).toBeLessThan(3 * b.stdErr);
+      expect(r.points.reasons[REASONS.wayBack], what).toBe(100);
+      const w = r.warnings.find((x) => x.startsWith('hysteresis'));
+      expect(w, what).toMatch(/^hysteresis: the way back gives barrierHeight 3\.1[45]\d* ± [0-9.]+ eV against 3\.(09|10)\d* ± [0-9.]+ eV on the way out/);
+      // The way back's own barrier, from the note, is within 3σ of the barrier it was drawn with.
+      const m = r.notes.join(' ').match(/way back: barrierHeight ([0-9.]+) ± ([0-9.]+) eV/);
+      expect(m, what).not.toBeNull();
+      expect(Math.abs(Number(m?.[1]) - 3.15), what).toBeLessThan(3 * Number(m?.[2]));
+    }
+  });
+
+  it('one curve both ways: no hysteresis warning in at least 9 of 10 draws, and the result covers the barrier', () => {
+    let warned = 0;
+    for (let seed = 1; seed <= 10; seed++) {
+      const r = analyze(legs(seed, 3.1), { model: 'fowler-nordheim', inputs });
+      const b = r.parameters.barrierHeight;
+      expect(Math.abs(b.value - 3.1), `seed ${seed}: ${b.value} ± ${b.stdErr}`).toBeLessThan(3 * b.stdErr);
+      expect(r.notes.join(' ')).toMatch(/an out-and-back sweep: the 101 readings of the first pass are fitted, the 100 on the way back apart/);
+      if (r.warnings.some((x) => x.startsWith('hysteresis'))) warned++;
+    }
+    expect(warned).toBeLessThanOrEqual(1);
+  });
+
+  it('a sweep from one polarity to the other, or out only, is not split', () => {
+    const s = wholeSweep({ ...CASES[0].spec, bias: linearBias(-10, 10, 201), seed: 3 });
+    expect(sweepLegs(s.v)).toBeUndefined();
+    expect(sweepLegs(out)).toBeUndefined();
+    const r = analyze({ x: s.v, y: s.i, compliance: s.compliance }, { model: 'fowler-nordheim', inputs });
+    expect(r.points.reasons[REASONS.wayBack]).toBeUndefined();
+    // Out and back on both polarities (0 → 10 → 0 → −10 → 0): the first pass holds both branches.
+    const both = [...linearBias(0, 10, 101), ...linearBias(9.9, -10, 200), ...linearBias(-9.9, 0, 100)];
+    const split = sweepLegs(both);
+    const round = (v: number) => Math.round(v * 1e6) / 1e6;
+    expect(split?.out.map((k) => round(both[k]))).toEqual([...linearBias(0, 10, 101), ...linearBias(-0.1, -10, 100)].map(round));
+    expect(split?.back.length).toBe(200);
   });
 });
