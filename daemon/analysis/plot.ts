@@ -10,6 +10,8 @@ import { AnalysisError } from './errors.js';
 import type { AxisSpec } from './mechanism.js';
 import { getMechanism } from './mechanisms/index.js';
 import { resolveInputs, transformPoint } from './analyze.js';
+import { floorLevel } from './noise-floor.js';
+import { classifySweep } from './sweep-points.js';
 
 export interface PlotView {
   readonly model: string;
@@ -100,7 +102,12 @@ export function plotView(data: IVData, request: FitRequest): PlotView {
   };
 }
 
-/** Every reading the mechanism's plot can take, in bias order, when no fit could be made. */
+/**
+ * Every reading the mechanism's plot can take, in bias order, when no fit could be made — except,
+ * as on every log plot, the readings at the noise floor (and those the sweep's classification
+ * excludes: at compliance, at breakdown, at zero bias): a film ramped from 0 V spends its first
+ * volts there, and one such reading near zero bias would stretch a 1/E axis a thousandfold.
+ */
 function rawPoints(
   data: IVData,
   mech: ReturnType<typeof getMechanism>,
@@ -117,8 +124,10 @@ function rawPoints(
   const sign = neg > pos ? -1 : 1;
   const area = mech.usesArea && inputs.area !== undefined ? inputs.area : 1;
   const out = { x: 0, y: 0, bias: 0 };
+  const classes = classifySweep(data, { flatBand: inputs.flatBand, detectCompliance: !!mech.current });
+  const level = mech.current && mech.yKind === 'log' ? floorLevel(classes.noise) : 0;
   const ks: number[] = [];
-  for (let k = 0; k < data.x.length; k++) ks.push(k);
+  for (let k = 0; k < data.x.length; k++) if (classes.excluded[k] === 0 && !(Math.abs(data.y[k]) < level)) ks.push(k);
   ks.sort((a, b) => data.x[a] - data.x[b]);
   const x: number[] = [];
   const y: number[] = [];
