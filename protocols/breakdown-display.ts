@@ -45,6 +45,9 @@ export const TEST_NUMBERS: Readonly<Record<string, { readonly si: string; readon
   plannedRampRate: { si: 'V/s', label: 'ramp rate planned', group: 'pace' },
 };
 
+/** Said of a leakage reading under three times the run's noise floor. */
+export const AT_FLOOR = '(at the noise floor: under 3σ)';
+
 /** One line of a figures table: the key it came from, the trade's name, the number as text, its unit ('' if none). */
 export interface FigureRow {
   readonly key: string;
@@ -78,8 +81,15 @@ export function resultFigureRows(r: TestResultLike): FigureRow[] {
     const u = key === 'chargeToBreakdown' ? r.numbers?.chargeUncertainty : undefined;
     const d = displayUnit(f.si, key);
     const text = u !== undefined && Number.isFinite(u) ? formatParameter({ value: v, stdErr: u, unit: f.si }, key).text : formatNumber(v * d.scale, 4);
-    rows.push({ key, label: broke ? f.label : f.reached, text, unit: d.unit });
+    // A single reading at the use voltage under three times the run's noise floor is the floor, not
+    // a leakage (the limit of detection: IUPAC; Long & Winefordner 1983): said beside the number.
+    const floor = r.result.leakageFloor;
+    const atFloor = (key === 'leakageBefore' || key === 'leakageAfter') && typeof floor === 'number' && floor > 0 && Math.abs(v) < 3 * floor;
+    rows.push({ key, label: `${broke ? f.label : f.reached}${atFloor ? ` ${AT_FLOOR}` : ''}`, text, unit: d.unit });
   }
+  const floor = r.result.leakageFloor;
+  if (typeof floor === 'number' && floor > 0 && rows.some((x) => x.key === 'leakageBefore' || x.key === 'leakageAfter'))
+    rows.push({ key: 'leakageFloor', label: "noise floor σ of the run's readings", text: formatNumber(floor, 3), unit: 'A' });
   return rows;
 }
 

@@ -41,6 +41,10 @@
  *   temperature         K     device temperature during the test
  *   leakage_before      A     current at the use condition before the test
  *   leakage_after       A     the same after the test (stress-induced leakage)
+ *   leakage_floor       A     the noise floor σ of the run's null readings (at zero bias, or with
+ *                             the current against the bias): a leakage under three times it is
+ *                             at the floor, the limit of detection (IUPAC; Long & Winefordner 1983);
+ *                             empty when the run read too few null readings to tell
  *   tags                text  free tags, separated by ';'
  */
 import { INPUT_RANGE } from '../daemon/analysis/analyze.js';
@@ -102,6 +106,8 @@ export interface DeviceResult {
   readonly temperature?: number;
   readonly leakageBefore?: number;
   readonly leakageAfter?: number;
+  /** The noise floor σ of the run's null readings, A (a leakage under 3σ is at the floor). */
+  readonly leakageFloor?: number;
   readonly tags?: readonly string[];
 }
 
@@ -132,6 +138,7 @@ export const RESULT_COLUMNS: readonly Column[] = [
   { name: 'temperature', key: 'temperature', unit: 'K', kind: 'number' },
   { name: 'leakage_before', key: 'leakageBefore', unit: 'A', kind: 'number' },
   { name: 'leakage_after', key: 'leakageAfter', unit: 'A', kind: 'number' },
+  { name: 'leakage_floor', key: 'leakageFloor', unit: 'A', kind: 'number' },
   { name: 'tags', key: 'tags', unit: '', kind: 'tags' },
 ];
 

@@ -128,6 +128,11 @@ export class LiveChain {
   private readonly noiseSigns = { against: false, plus: false, minus: false };
   /** The floor those null readings give (see noteNull; a fit uses it once the currents seen dwarf it). */
   private nullFloor: { sigma: number; readings: number } | undefined;
+
+  /** The noise floor σ (A) of the run's null readings so far (zero bias, current against the bias), when they show one. */
+  get noiseFloor(): { readonly sigma: number; readonly readings: number } | undefined {
+    return this.nullFloor;
+  }
   private complianceSeen = false;
   private sweepTemperature: number | undefined;
   private hazardSeen = false;

@@ -680,6 +680,7 @@ export class StressTest {
       temperature,
       leakageBefore: this.leakageBefore,
       leakageAfter: this.leakageAfter,
+      leakageFloor: this.leakageBefore !== undefined || this.leakageAfter !== undefined ? this.ctx.chain.noiseFloor?.sigma : undefined,
       tags: this.device.tags,
     };
     if (this.afterNote) reason = `${reason}; ${this.afterNote}`;

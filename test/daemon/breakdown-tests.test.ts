@@ -19,6 +19,7 @@ import { scanJournal } from '../../daemon/journal/reader.js';
 import { SimulatedSmu } from '../../daemon/simulator/instrument.js';
 import { findScenario } from '../../daemon/simulator/scenarios.js';
 import { attachInstrument } from '../../daemon/simulator/serve.js';
+import { AT_FLOOR, resultFigureRows } from '../../protocols/breakdown-display.js';
 import { parseDeviceResults } from '../../protocols/device-results.js';
 import { FLAG, type WireEvent } from '../../protocols/wire.js';
 import { REASONS } from '../../daemon/analysis/sweep-points.js';
@@ -174,6 +175,35 @@ describe('voltage ramp to breakdown', () => {
     const row = results(JSON.parse(r.stdout).dir).rows[0];
     expect(row.outcome).toBe('initial-failure');
     expect(Math.max(...devices[0].applied)).toBeLessThanOrEqual(1 + 1e-9);
+  });
+});
+
+describe('leakage at the use voltage against the noise floor', () => {
+  it('a ramp from 0 V that the film survives: the use checks read the floor, and the result says so beside the numbers', async () => {
+    // The oxide carries no current to speak of at 1 V (Fowler–Nordheim: nothing below a few volts
+    // on 7 nm), so both checks read the instrument's floor, of either sign. The ramp's readings at
+    // low bias give the floor's σ; a reading under three times it is the floor (the limit of
+    // detection: IUPAC; Long & Winefordner 1983).
+    const { inst } = await instruments(() => new SimulatedSmu({ device: WEAROUT.device, seed: 12, realTime: false }));
+    const dir = tempDir();
+    const plan = { kind: 'voltage-ramp', start: 0, stop: 6, step: 0.1, stepTime: 0.005, compliance: 0.01, useVoltage: 1, useCurrentLimit: 1e-6 };
+    const res = await runPlan(dir, { instrument: inst, limits: LIMITS }, plan);
+    const row = results(res.dir).rows[0];
+    expect(row.outcome).toBe('survived');
+    expect(row.leakageFloor).toBeGreaterThan(0);
+    expect(row.leakageFloor).toBeLessThan(1e-11);
+    expect(Math.abs(row.leakageBefore as number)).toBeLessThan(3 * (row.leakageFloor as number));
+    expect(Math.abs(row.leakageAfter as number)).toBeLessThan(3 * (row.leakageFloor as number));
+    const tr = events(res.dir).find((e) => e.type === 'test-result');
+    const rows = resultFigureRows(tr as never);
+    for (const key of ['leakageBefore', 'leakageAfter']) expect(rows.find((x) => x.key === key)?.label).toContain(AT_FLOOR);
+    expect(rows.find((x) => x.key === 'leakageFloor')).toMatchObject({ unit: 'A' });
+    // A leakage well above the floor is not marked: a 1e9 Ω parallel path carries 1 nA at 1 V.
+    const { inst: leaky } = await instruments(() => new SimulatedSmu({ device: { ...WEAROUT.device, leakageResistance: 1e9 }, seed: 12, realTime: false }));
+    const res2 = await runPlan(tempDir(), { instrument: leaky, limits: LIMITS }, plan);
+    const tr2 = events(res2.dir).find((e) => e.type === 'test-result');
+    const rows2 = resultFigureRows(tr2 as never);
+    expect(rows2.find((x) => x.key === 'leakageBefore')?.label).not.toContain(AT_FLOOR);
   });
 });
 

@@ -55,7 +55,7 @@ describe('per-device results file', () => {
     const text = formatDeviceResults(ROWS);
     const lines = text.split('\n');
     expect(lines[0].split(',')).toContain('breakdown_field');
-    expect(lines[1]).toBe(',,,,,,,,,V,V/m,C/m^2,C/m^2,s,m^2,m,K,A,A,');
+    expect(lines[1]).toBe(',,,,,,,,,V,V/m,C/m^2,C/m^2,s,m^2,m,K,A,A,A,');
     expect(parseDeviceResults(text, 'r.csv')).toEqual(ROWS);
   });
 
@@ -84,7 +84,7 @@ describe('per-device results file', () => {
     expect(() => parseDeviceResults([base[0], base[1], base[2].replace('breakdown,', 'exploded,')].join('\n'), 'r.csv')).toThrow(
       /line 3, column 'outcome': 'exploded'/,
     );
-    expect(() => parseDeviceResults([base[0], base[1], base[2].replace('8.05', '8,05')].join('\n'), 'r.csv')).toThrow(/line 3: expected 20 fields/);
+    expect(() => parseDeviceResults([base[0], base[1], base[2].replace('8.05', '8,05')].join('\n'), 'r.csv')).toThrow(/line 3: expected 21 fields/);
     expect(() => parseDeviceResults('wafer,site\nW1,A1\n', 'r.csv')).toThrow(/no 'device' column/);
   });
 });
@@ -127,7 +127,7 @@ describe('lot reader and cache', () => {
     expect(lotResults([s2.summary])[0]).toMatchObject({ site: 'B3', x: 1, y: 3, device: 'D1' });
     // A changed results file also rebuilds.
     expect(readSummary(dir).cached).toBe(true);
-    appendFileSync(join(dir, DEVICE_RESULTS_FILE), 'D9,,,,,,,survived,,,1.3e9,,,,,,,,,\n');
+    appendFileSync(join(dir, DEVICE_RESULTS_FILE), 'D9,,,,,,,survived,,,1.3e9,,,,,,,,,,\n');
     const s3 = readSummary(dir);
     expect(s3.cached).toBe(false);
     expect(s3.summary.results).toHaveLength(2);
