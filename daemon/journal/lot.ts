@@ -41,7 +41,9 @@ export interface DeviceSummary {
   readonly model: string | null;
   /**
    * Fitted parameters of the device as found: the first complete sweep whose final fit is
-   * plausible (later sweeps may already have stressed the device).
+   * plausible (later sweeps may already have stressed the device); with none, the first plausible
+   * fit of a sweep that ended early — a ramp to breakdown is one, and its readings up to the
+   * breakdown are the film's curve (the reading that showed the breakdown is never fitted).
    */
   readonly parameters: Readonly<Record<string, ParameterFigure>>;
   readonly fitSweep: number | null;
@@ -161,13 +163,17 @@ export function summarizeEvents(
   identity = mergeIdentity(fill, identity);
   let fitSweep: number | null = null;
   let chosen: Extract<WireEvent, { type: 'fit' }>['fit'] = null;
-  for (const sweep of [...fits.keys()].sort((a, b) => a - b)) {
-    const f = fits.get(sweep)?.fit;
-    if (f?.plausible && complete.get(sweep) !== false) {
-      fitSweep = sweep;
-      chosen = f;
-      break;
+  const order = [...fits.keys()].sort((a, b) => a - b);
+  for (const wholeOnly of [true, false]) {
+    for (const sweep of order) {
+      const f = fits.get(sweep)?.fit;
+      if (f?.plausible && (!wholeOnly || complete.get(sweep) !== false)) {
+        fitSweep = sweep;
+        chosen = f;
+        break;
+      }
     }
+    if (chosen) break;
   }
   return {
     session,

@@ -90,6 +90,21 @@ describe('per-device results file', () => {
 });
 
 describe('lot reader and cache', () => {
+  it('a session whose only plausible fit is of a sweep that ended early (a ramp to breakdown) takes it', () => {
+    const data = tmp();
+    const dir = writeSession(data, {
+      label: 'ramp',
+      device: { device: 'R1', wafer: 'W07', site: 'C1' },
+      fits: [
+        { params: { barrierHeight: [0.4, 0.3, 'eV'] }, plausible: false },
+        { params: { barrierHeight: [3.08, 0.02, 'eV'] }, complete: false },
+      ],
+    });
+    const s = readSummary(dir, { cache: false }).summary;
+    expect(s.fitSweep).toBe(2);
+    expect(s.parameters.barrierHeight.value).toBe(3.08);
+  });
+
   it("summarises a session: identity (edited later by an annotation), the first plausible complete sweep's fit, cautions, results", () => {
     const data = tmp();
     const dir = writeSession(data, {
