@@ -143,6 +143,8 @@ export interface DetailedFit {
   readonly inputs: ResolvedInputs;
   readonly fit: BranchFit;
   readonly classes: SweepClasses;
+  /** The warnings of the checks that made the report implausible, the deciding one first (empty when plausible). */
+  readonly failed: readonly string[];
 }
 
 /** Applies defaults (300 K, m* / m₀ = 0.5, V_FB = 0, free-electron A*) and checks required inputs. */
@@ -543,7 +545,7 @@ function analyzeOnePass(data: IVData, request: FitRequest): DetailedFit {
     try {
       const fit = fitBranch(mech, inputs, data, classes, b, base, reasons);
       const better = mode === 'auto' ? betterMechanism(mech, fit, data, request, classes, b, base) : undefined;
-      fits.push({ fit: better ? { ...fit, plausible: false, warnings: [...fit.warnings, better] } : fit, branch: b });
+      fits.push({ fit: better ? { ...fit, plausible: false, warnings: [...fit.warnings, better], failed: [...fit.failed, better] } : fit, branch: b });
     } catch (e) {
       if (!(e instanceof AnalysisError) || (q === 0 && list.length === 1)) throw e;
       failures.push(`${b && b.sign > 0 ? 'positive' : 'negative'} branch: ${e.message}`);
@@ -631,7 +633,7 @@ function analyzeOnePass(data: IVData, request: FitRequest): DetailedFit {
     branch: polarity(primary),
     branches: summaries,
   };
-  return { report, mechanism: mech, inputs, fit: primary, classes };
+  return { report, mechanism: mech, inputs, fit: primary, classes, failed: [...odd, ...primary.failed] };
 }
 
 function missingCustom(): never {
