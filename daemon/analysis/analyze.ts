@@ -11,7 +11,7 @@ import { RICHARDSON_FREE_A_PER_M2_K2 } from './constants.js';
 import { AnalysisError } from './errors.js';
 import { decadesOf, describe, fitBranch, type BranchFit, type WindowMode } from './fit-branch.js';
 import type { AxisSpec, DataColumns, FitPoints, Inputs, InputName, Mechanism, ParameterValue, ResolvedInputs } from './mechanism.js';
-import { fmt, fmtPm } from './mechanism.js';
+import { fmt, fmtPm, setWith } from './mechanism.js';
 import { compileCustom, customMechanism, type CustomSpec } from './mechanisms/custom.js';
 import { getMechanism } from './mechanisms/index.js';
 import { floorLevel, type NoiseModel } from './noise-floor.js';
@@ -229,17 +229,17 @@ export function parameterNames(model: string, inputs: Inputs = {}): string[] | u
 }
 
 function describeInput(k: InputName): string {
-  const d: Record<InputName, string> = {
-    thickness: 'film thickness (--thickness, e.g. "8 nm")',
-    area: 'device area (--area, e.g. "1e-4 cm^2")',
-    temperature: 'temperature (--temperature, e.g. "300 K")',
-    massRatio: 'effective-mass ratio (--mass-ratio)',
-    permittivity: 'relative permittivity (--permittivity)',
-    refractiveIndex: 'refractive index (--refractive-index)',
-    flatBand: 'flat-band voltage (--flat-band)',
-    richardson: 'Richardson constant (--richardson)',
+  const d: Record<InputName, [string, string]> = {
+    thickness: ['film thickness', '--thickness, e.g. "8 nm"'],
+    area: ['device area', '--area, e.g. "1e-4 cm^2"'],
+    temperature: ['temperature', '--temperature, e.g. "300 K"'],
+    massRatio: ['effective-mass ratio', '--mass-ratio'],
+    permittivity: ['relative permittivity', '--permittivity'],
+    refractiveIndex: ['refractive index', '--refractive-index'],
+    flatBand: ['flat-band voltage', '--flat-band'],
+    richardson: ['Richardson constant', '--richardson'],
   };
-  return d[k];
+  return `${d[k][0]} (${setWith(d[k][1])})`;
 }
 
 const ASSUMED_TEXT: Partial<Record<InputName, string>> = {

@@ -627,7 +627,7 @@ export function fitBranch(
   const notes: string[] = [];
   if (noise.relativeSource === 'typical') {
     notes.push(
-      `too few readings stand far enough above the noise floor to show the instrument's relative noise: ${100 * TYPICAL_RELATIVE} % of reading assumed, a typical figure (give the instrument's own with --accuracy, or take more readings above ${fmt(noise.floor / TYPICAL_RELATIVE)} A)`,
+      `too few readings stand far enough above the noise floor to show the instrument's relative noise: ${100 * TYPICAL_RELATIVE} % of reading assumed, a typical figure (give the instrument's own, the --accuracy option of fit and rank, or take more readings above ${fmt(noise.floor / TYPICAL_RELATIVE)} A)`,
     );
   }
 

@@ -176,6 +176,14 @@ export function field(bias: number, inputs: Inputs): number {
   return bias / (inputs.thickness as number);
 }
 
+/**
+ * Where an analysis input is set, in words that fit both places a message of the analysis is read:
+ * the command line (`fit`, `rank`, `run` options) and the page (its Analysis form).
+ */
+export function setWith(option: string): string {
+  return `${option}, or the page's Analysis form`;
+}
+
 /** Range check that adds a warning (to `failed` too, when given) and returns whether the value is inside. */
 export function inRange(warnings: string[], what: string, value: number, lo: number, hi: number, unit: string, failed?: string[]): boolean {
   if (value >= lo && value <= hi && Number.isFinite(value)) return true;

@@ -231,7 +231,7 @@ export function rankMechanisms(input: IVData, request: RankRequest = {}): Rankin
   const top = scored.find((s) => s.model === entries[0]?.model);
   if (top && n > top.k && top.chi2 / (n - top.k) > 4) {
     warnings.push(
-      `no mechanism describes every common point within the noise (best χ²/dof ${fmt(top.chi2 / (n - top.k))}): the sweep may hold more than one regime; rank within one with --from/--to`,
+      `no mechanism describes every common point within the noise (best χ²/dof ${fmt(top.chi2 / (n - top.k))}): the sweep may hold more than one regime; rank within one: give a window (--from/--to, or the window on the page)`,
     );
   }
   const excluded = Object.values(reasons).reduce((a, b) => a + b, 0);

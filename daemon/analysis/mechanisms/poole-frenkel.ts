@@ -6,7 +6,7 @@
  * same data read as Schottky give an ε_r four times smaller.
  */
 import { BOLTZMANN_J_PER_K, ELEMENTARY_CHARGE_C as Q, VACUUM_PERMITTIVITY_F_PER_M as EPS0 } from '../constants.js';
-import { currentUnit, field, fmt, inRange, param, type Extraction, type Mechanism } from '../mechanism.js';
+import { currentUnit, field, fmt, inRange, param, setWith, type Extraction, type Mechanism } from '../mechanism.js';
 
 /** Coefficient of √E in the exponent for a lowering √(qE/(γ π ε₀ ε_r)): γ = 1 PF, γ = 4 Schottky. */
 export function rootFieldSlope(permittivity: number, temperature: number, gamma: 1 | 4): number {
@@ -40,7 +40,7 @@ export function checkAgainstIndex(
 ): boolean {
   if (n === undefined) {
     notes.push(
-      `ε_r = ${fmt(eps)} ± ${fmt(epsStdErr)} is not checked against n² (no refractive index given, --refractive-index): that agreement is the usual test that the current is this emission and not ${other.name} or tunnelling`,
+      `ε_r = ${fmt(eps)} ± ${fmt(epsStdErr)} is not checked against n² (no refractive index given: ${setWith('--refractive-index')}): that agreement is the usual test that the current is this emission and not ${other.name} or tunnelling`,
     );
     return true;
   }

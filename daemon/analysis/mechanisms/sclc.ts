@@ -12,7 +12,7 @@
  */
 import { VACUUM_PERMITTIVITY_F_PER_M } from '../constants.js';
 import { fitLine } from '../line-fit.js';
-import { currentUnit, fmt, param, type Extraction, type Mechanism, type ParameterValue } from '../mechanism.js';
+import { currentUnit, fmt, param, setWith, type Extraction, type Mechanism, type ParameterValue } from '../mechanism.js';
 
 /** Mott–Gurney current density, A/m², for bias V (V), mobility μ (m²/(V·s)), ε_r and d (m). */
 export function mottGurney(v: number, mobility: number, permittivity: number, thickness: number): number {
@@ -62,7 +62,7 @@ export const sclc: Mechanism = {
       const missing = [
         area === undefined ? 'area' : '',
         thickness === undefined ? 'thickness' : '',
-        permittivity === undefined ? 'permittivity (--permittivity)' : '',
+        permittivity === undefined ? `permittivity (${setWith('--permittivity')})` : '',
       ].filter(Boolean);
       warnings.push(`mobility needs the ${missing.join(', ')} as well`);
     }
