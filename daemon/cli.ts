@@ -6,7 +6,8 @@
  */
 import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
-import { Command, CommanderError } from 'commander';
+import { CommanderError } from 'commander';
+import { PlumblineCommand } from './cli/command.js';
 import { projectRoot } from '../protocols/project-root.js';
 import { analyze } from './analysis/analyze.js';
 import { AnalysisError } from './analysis/errors.js';
@@ -46,7 +47,8 @@ function packageVersion(): string {
   }
 }
 
-const program = new Command();
+// Every subcommand is a PlumblineCommand too (createCommand): a single-value option given twice is refused.
+const program = new PlumblineCommand();
 program
   .name('plumbline')
   .description('Live and offline analysis of current–voltage sweeps from source-measure units.')

@@ -10,7 +10,7 @@
 
 import type { DeviceIdentity } from './device-results.js';
 
-/** Reading flag bits. */
+/** Reading flag bits (a reading's flags are their sum); README.md's journal section lists each (test/protocols/readme-flags.test.ts). */
 export const FLAG = {
   /** The instrument was at its compliance limit: the bias was not held; never fitted. */
   compliance: 1,

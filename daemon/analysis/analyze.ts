@@ -11,7 +11,7 @@ import { RICHARDSON_FREE_A_PER_M2_K2 } from './constants.js';
 import { AnalysisError } from './errors.js';
 import { decadesOf, describe, fitBranch, type BranchFit, type WindowMode } from './fit-branch.js';
 import type { AxisSpec, DataColumns, FitPoints, Inputs, InputName, Mechanism, ParameterValue, ResolvedInputs } from './mechanism.js';
-import { fmt, fmtPm } from './mechanism.js';
+import { fmt, fmtPm, setWith } from './mechanism.js';
 import { compileCustom, customMechanism, type CustomSpec } from './mechanisms/custom.js';
 import { getMechanism } from './mechanisms/index.js';
 import { floorLevel, type NoiseModel } from './noise-floor.js';
@@ -143,6 +143,8 @@ export interface DetailedFit {
   readonly inputs: ResolvedInputs;
   readonly fit: BranchFit;
   readonly classes: SweepClasses;
+  /** The warnings of the checks that made the report implausible, the deciding one first (empty when plausible). */
+  readonly failed: readonly string[];
 }
 
 /** Applies defaults (300 K, m* / m₀ = 0.5, V_FB = 0, free-electron A*) and checks required inputs. */
@@ -227,17 +229,17 @@ export function parameterNames(model: string, inputs: Inputs = {}): string[] | u
 }
 
 function describeInput(k: InputName): string {
-  const d: Record<InputName, string> = {
-    thickness: 'film thickness (--thickness, e.g. "8 nm")',
-    area: 'device area (--area, e.g. "1e-4 cm^2")',
-    temperature: 'temperature (--temperature, e.g. "300 K")',
-    massRatio: 'effective-mass ratio (--mass-ratio)',
-    permittivity: 'relative permittivity (--permittivity)',
-    refractiveIndex: 'refractive index (--refractive-index)',
-    flatBand: 'flat-band voltage (--flat-band)',
-    richardson: 'Richardson constant (--richardson)',
+  const d: Record<InputName, [string, string]> = {
+    thickness: ['film thickness', '--thickness, e.g. "8 nm"'],
+    area: ['device area', '--area, e.g. "1e-4 cm^2"'],
+    temperature: ['temperature', '--temperature, e.g. "300 K"'],
+    massRatio: ['effective-mass ratio', '--mass-ratio'],
+    permittivity: ['relative permittivity', '--permittivity'],
+    refractiveIndex: ['refractive index', '--refractive-index'],
+    flatBand: ['flat-band voltage', '--flat-band'],
+    richardson: ['Richardson constant', '--richardson'],
   };
-  return d[k];
+  return `${d[k][0]} (${setWith(d[k][1])})`;
 }
 
 const ASSUMED_TEXT: Partial<Record<InputName, string>> = {
@@ -543,7 +545,7 @@ function analyzeOnePass(data: IVData, request: FitRequest): DetailedFit {
     try {
       const fit = fitBranch(mech, inputs, data, classes, b, base, reasons);
       const better = mode === 'auto' ? betterMechanism(mech, fit, data, request, classes, b, base) : undefined;
-      fits.push({ fit: better ? { ...fit, plausible: false, warnings: [...fit.warnings, better] } : fit, branch: b });
+      fits.push({ fit: better ? { ...fit, plausible: false, warnings: [...fit.warnings, better], failed: [...fit.failed, better] } : fit, branch: b });
     } catch (e) {
       if (!(e instanceof AnalysisError) || (q === 0 && list.length === 1)) throw e;
       failures.push(`${b && b.sign > 0 ? 'positive' : 'negative'} branch: ${e.message}`);
@@ -631,7 +633,7 @@ function analyzeOnePass(data: IVData, request: FitRequest): DetailedFit {
     branch: polarity(primary),
     branches: summaries,
   };
-  return { report, mechanism: mech, inputs, fit: primary, classes };
+  return { report, mechanism: mech, inputs, fit: primary, classes, failed: [...odd, ...primary.failed] };
 }
 
 function missingCustom(): never {

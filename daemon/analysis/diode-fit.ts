@@ -14,6 +14,7 @@ import { fitDiodeModel, diodeCurrent, modelRmse, type DiodeModel, type DiodeStar
 import { AnalysisError } from './errors.js';
 import { idealityVerdict } from './mechanisms/diode.js';
 import { fitLine } from './line-fit.js';
+import { setWith } from './mechanism.js';
 
 export type Convention = 'load' | 'generator';
 
@@ -652,7 +653,7 @@ export function cheung(data: IVData, req: DiodeRequest = {}): DiodeReport {
       warnings.push('the two Cheung functions disagree on R_s by more than 20 %: the bend-over region may hold another effect');
       plausible = false;
     }
-  } else warnings.push('barrier height needs the device area (--area) and A** (--richardson)');
+  } else warnings.push(`barrier height needs the device area and A** (${setWith('--area, --richardson')})`);
   if (f1.slope <= 0) {
     warnings.push('negative series resistance: the curve shows no series-resistance bend in the region used');
     plausible = false;
@@ -761,7 +762,7 @@ export function solarFigures(data: IVData, req: DiodeRequest & { irradiance?: nu
     area: req.area ?? null,
     points: { used: v.length, excluded: Object.values(p.reasons).reduce((a, b) => a + b, 0), reasons: p.reasons },
     convention: req.convention ?? 'load',
-    warnings: req.area === undefined ? [...warnings, 'efficiency needs the cell area (--area)'] : warnings,
+    warnings: req.area === undefined ? [...warnings, `efficiency needs the cell area (${setWith('--area')})`] : warnings,
   };
 }
 

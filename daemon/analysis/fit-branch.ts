@@ -74,6 +74,8 @@ export interface BranchFit {
   readonly warnings: string[];
   readonly notes: string[];
   readonly plausible: boolean;
+  /** The warnings of the checks that made `plausible` false, the deciding one first. */
+  readonly failed: readonly string[];
   readonly reasons: Record<string, number>;
   readonly noise: NoiseModel;
   /** The straightness test of the final residuals over the window. */
@@ -625,7 +627,7 @@ export function fitBranch(
   const notes: string[] = [];
   if (noise.relativeSource === 'typical') {
     notes.push(
-      `too few readings stand far enough above the noise floor to show the instrument's relative noise: ${100 * TYPICAL_RELATIVE} % of reading assumed, a typical figure (give the instrument's own with --accuracy, or take more readings above ${fmt(noise.floor / TYPICAL_RELATIVE)} A)`,
+      `too few readings stand far enough above the noise floor to show the instrument's relative noise: ${100 * TYPICAL_RELATIVE} % of reading assumed, a typical figure (give the instrument's own, the --accuracy option of fit and rank, or take more readings above ${fmt(noise.floor / TYPICAL_RELATIVE)} A)`,
     );
   }
 
@@ -781,20 +783,24 @@ export function fitBranch(
   // ---- checks -------------------------------------------------------------------------------
   const test = q === p ? residualTest(p, model, fs, fe) : residualTest(q, modelValues(q, { a: line.intercept, b: line.slope, joint }, diode), s, e);
   let plausible = extraction.plausible;
+  // The checks that failed, each warning once more, the deciding one first: the extraction's, then these.
+  const failed: string[] = [...(extraction.failed ?? (extraction.plausible ? [] : extraction.warnings))];
+  const fail = (text: string) => {
+    warnings.push(text);
+    failed.push(text);
+    plausible = false;
+  };
   if (request.mode === 'auto' && !searchPassed) {
-    warnings.push(
+    fail(
       `no range of this branch follows the mechanism's straight line within the noise (${searchFailure ?? 'none passes'}); the window shown is the least bad`,
     );
-    plausible = false;
   } else if (!test.passed && request.mode !== 'auto') {
-    warnings.push(`the window spans a regime change or the mechanism does not describe it: ${test.failure}`);
-    plausible = false;
+    fail(`the window spans a regime change or the mechanism does not describe it: ${test.failure}`);
   } else if (!test.passed && request.mode === 'auto') {
     // The search judged the window on its selection points; the fit made on every point of it must
     // pass the same test (on a diode, an ohmic line through 0.48–0.58 V passed the search and then
     // missed its own readings by χ²/dof 476).
-    warnings.push(`the automatic window does not follow the mechanism's line within the noise: ${test.failure}`);
-    plausible = false;
+    fail(`the automatic window does not follow the mechanism's line within the noise: ${test.failure}`);
   }
   if (mech.current && request.mode === 'manual' && classes.noise.floor > 0 && branch) {
     // Readings of this branch inside the window that sit at the floor.
@@ -805,17 +811,15 @@ export function fitBranch(
       if (data.x[k] >= lo && data.x[k] <= hi && Math.abs(data.y[k]) < floorLevel(classes.noise)) atFloor++;
     }
     if (atFloor > 0 && mech.yKind === 'log') {
-      warnings.push(
+      fail(
         `the window reaches the noise floor: ${atFloor} readings in it are within ${FLOOR_MULTIPLE} σ of zero (σ = ${fmt(classes.noise.floor)} A) and were left out`,
       );
-      plausible = false;
     }
   }
   const superOhmic = superOhmicTest(mech, inputs, p);
   const so = superOhmic && !superOhmic.ok(fs, fe, line.intercept, line.slope) ? superOhmic.why(fs, fe, line.intercept, line.slope) : undefined;
   if (so) {
-    warnings.push(`${so}: the window holds leakage or another regime, not ${mech.title.split(',')[0]}`);
-    plausible = false;
+    fail(`${so}: the window holds leakage or another regime, not ${mech.title.split(',')[0]}`);
   }
   if (!so && terms.leakage && used.raw.length > 0) {
     // A mechanism is measured where it carries the current (common practice): a fitted leakage
@@ -825,10 +829,9 @@ export function fitBranch(
     for (let k = 1; k < used.raw.length; k++) if (Math.abs(used.raw[k]) > Math.abs(used.raw[top])) top = k;
     const share = (terms.leakage.conductance * Math.abs(used.raw[top])) / Math.abs(used.current[top]);
     if (share >= 0.5) {
-      warnings.push(
+      fail(
         `the fitted leakage (${fmt(1 / terms.leakage.conductance)} Ω) carries ${Math.round(100 * Math.min(1, share))} % of the current even at the top of the window (${fmt(used.raw[top])} V): the window holds leakage, not ${mech.title.split(',')[0]}`,
       );
-      plausible = false;
     }
   }
   let zeroCurrent = false;
@@ -850,22 +853,20 @@ export function fitBranch(
     const rise = Math.abs(line.slope) * (hi - lo);
     const floorSigma = classes.noise.floor;
     if (Math.abs(line.slope) >= 2 * se && floorSigma > 0 && rise < 3 * floorSigma) {
-      warnings.push(
+      fail(
         `the current from ${fmt(lo)} to ${fmt(hi)} V changes by only ${fmt(rise)} A, under three times the noise floor (σ = ${fmt(floorSigma)} A, the limit of detection): no resistance is measured there; give a window where the current rises above the floor (--from/--to, or the window on the page), or compare mechanisms (plumbline rank)`,
       );
-      plausible = false;
       zeroCurrent = true;
     } else if (!(Math.abs(line.slope) >= 2 * se)) {
       const offset = Math.abs(line.intercept) >= 2 * line.interceptStdErr;
       const floor = classes.noise.floor > 0 ? ` (the noise floor: σ = ${fmt(classes.noise.floor)} A)` : ' (the noise floor)';
-      warnings.push(
+      fail(
         `${
           offset
             ? `the current from ${fmt(lo)} to ${fmt(hi)} V does not change with the bias distinguishably from zero: it is an offset of ${fmt(line.intercept)} A`
             : `the current from ${fmt(lo)} to ${fmt(hi)} V is indistinguishable from zero${floor}`
         }: the slope ${fmt(line.slope)} ± ${fmt(se)} A/V is less than twice its uncertainty, so no resistance is measured there; give a window where the current rises above the floor (--from/--to, or the window on the page), or compare mechanisms (plumbline rank)`,
       );
-      plausible = false;
       zeroCurrent = true;
     }
   }
@@ -874,10 +875,7 @@ export function fitBranch(
   // An estimate under twice its uncertainty is not distinguishable from zero (a 95 % test, common
   // practice); said above already when it is the current itself.
   if (main && !zeroCurrent && !(main.stdErr <= 0.5 * Math.abs(main.value))) {
-    warnings.push(
-      `${mainKey} is not determined by these data (${fmt(main.value)} ± ${fmt(main.stdErr)}${main.unit && main.unit !== '1' ? ` ${main.unit}` : ''})`,
-    );
-    plausible = false;
+    fail(`${mainKey} is not determined by these data (${fmt(main.value)} ± ${fmt(main.stdErr)}${main.unit && main.unit !== '1' ? ` ${main.unit}` : ''})`);
   }
   if (used.x.length < 5) warnings.push(`only ${used.x.length} points in the window; at least 5 are advised`);
   if (mech.yKind === 'log' && mech.current) {
@@ -887,10 +885,9 @@ export function fitBranch(
       // (on the simulated trap-assisted film, Schottky and hopping lines each found 0.77 decades).
       // Common practice asks a mechanism to hold over a decade or more; a window the user chose is
       // the user's call.
-      warnings.push(
+      fail(
         `the automatic window spans only ${inWindow.toFixed(2)} decades of current: too little to tell this mechanism from another; at least one decade is needed (give the window to fit it anyway)`,
       );
-      plausible = false;
     } else if (inWindow < 1) warnings.push(`the window spans ${inWindow.toFixed(2)} decades of current; one decade or more is advised`);
     // An automatic window that holds a short piece of a long curve: the mechanism describes a
     // decade or so where the branch shows many above its floor, so most of the curve is something
@@ -906,10 +903,9 @@ export function fitBranch(
     // wrong mechanism: the regime the window lies in counts.
     if (request.mode === 'auto' && short(wd)) wd = Math.max(wd, regimeDecades(all, fs, fe));
     if (request.mode === 'auto' && short(wd)) {
-      warnings.push(
+      fail(
         `the ${mech.title.split(',')[0]} line holds over ${wd.toFixed(2)} decades of current of the ${sd.toFixed(1)} this branch shows above its noise floor: most of the curve is something else (another mechanism, a leakage, several regimes); compare mechanisms (plumbline rank) or give the window`,
       );
-      plausible = false;
     }
   }
   return {
@@ -927,6 +923,7 @@ export function fitBranch(
     warnings: [...extraction.warnings, ...warnings],
     notes: [...extraction.notes, ...notes],
     plausible,
+    failed,
     reasons,
     noise,
     test,

@@ -77,6 +77,11 @@ export interface Extraction {
   readonly warnings: string[];
   /** False when a check says the mechanism cannot describe these data (e.g. wrong slope sign). */
   readonly plausible: boolean;
+  /**
+   * The warnings of the checks that made `plausible` false, the deciding one first (among the
+   * warnings are caveats that fail nothing: an input that is missing, a window that starts low).
+   */
+  readonly failed?: readonly string[];
   /** Positive findings worth reporting in a ranking (e.g. "ε_r close to n²"). */
   readonly notes: string[];
 }
@@ -171,11 +176,21 @@ export function field(bias: number, inputs: Inputs): number {
   return bias / (inputs.thickness as number);
 }
 
-/** Range check that adds a warning and returns whether the value is inside. */
-export function inRange(warnings: string[], what: string, value: number, lo: number, hi: number, unit: string): boolean {
+/**
+ * Where an analysis input is set, in words that fit both places a message of the analysis is read:
+ * the command line (`fit`, `rank`, `run` options) and the page (its Analysis form).
+ */
+export function setWith(option: string): string {
+  return `${option}, or the page's Analysis form`;
+}
+
+/** Range check that adds a warning (to `failed` too, when given) and returns whether the value is inside. */
+export function inRange(warnings: string[], what: string, value: number, lo: number, hi: number, unit: string, failed?: string[]): boolean {
   if (value >= lo && value <= hi && Number.isFinite(value)) return true;
   const u = unit ? ` ${unit}` : '';
-  warnings.push(`${what} = ${fmt(value)}${u} is outside the plausible range ${fmt(lo)}–${fmt(hi)}${u}`);
+  const text = `${what} = ${fmt(value)}${u} is outside the plausible range ${fmt(lo)}–${fmt(hi)}${u}`;
+  warnings.push(text);
+  failed?.push(text);
   return false;
 }
 

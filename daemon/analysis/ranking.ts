@@ -31,7 +31,11 @@ export interface RankEntry {
   /** Number of fitted parameters (2 for the line, plus leakage or series terms). */
   readonly parameterCount: number;
   readonly plausible: boolean;
+  /** The physical checks that failed (their warnings), the deciding one first; empty when plausible. */
+  readonly failed: readonly string[];
   readonly parameters: Record<string, ParameterValue>;
+  /** Why `parameters` is empty, when it is (a line whose slope has the wrong sign for the mechanism gives none). */
+  readonly noParameters?: string;
   /** The mechanism's own window (data's x). */
   readonly window: { from: number; to: number };
   readonly reasons: string[];
@@ -175,6 +179,13 @@ export function rankMechanisms(input: IVData, request: RankRequest = {}): Rankin
       `noise-weighted χ² ${fmt(s.chi2)} over the ${n} common points (${fmt(s.chi2 / Math.max(1, n - s.k))} per degree of freedom; RMS residual of ln I ${fmt(s.rms)}), ${s.k} parameters, own window ${fmt(r.window.from)} to ${fmt(r.window.to)} V`,
     ];
     if (!r.plausible) why.push('ranked after the plausible mechanisms: a physical check failed');
+    const slopeSign = s.fit.mechanism.slopeSign;
+    const noParameters =
+      Object.keys(r.parameters).length > 0
+        ? undefined
+        : slopeSign !== undefined && !(Math.sign(s.fit.fit.line.slope) === slopeSign)
+          ? 'none: the slope has the wrong sign for this mechanism, so no parameter follows from it'
+          : `none: ${s.fit.fit.extraction.failed?.[0] ?? 'the mechanism gives none from this fit'}`;
     return {
       model: s.model,
       title: s.title,
@@ -184,7 +195,9 @@ export function rankMechanisms(input: IVData, request: RankRequest = {}): Rankin
       rmsLnResidual: s.rms,
       parameterCount: s.k,
       plausible: r.plausible,
+      failed: r.plausible ? [] : [...s.fit.failed],
       parameters: r.parameters,
+      ...(noParameters ? { noParameters } : {}),
       window: { from: r.window.from, to: r.window.to },
       reasons: [...why, ...r.notes.filter((t) => !classes.notes.includes(t)), ...r.warnings.filter((t) => !classes.notes.includes(t))],
     };
@@ -212,18 +225,13 @@ export function rankMechanisms(input: IVData, request: RankRequest = {}): Rankin
   if (best && !best.plausible && best.score > 0.5) {
     const plausible = entries.find((e) => e.plausible);
     warnings.push(
-      `'${best.model}' fits best (weight ${fmt(best.score)}) but fails a physical check (${
-        best.reasons
-          .filter((x) => /far from|outside|not |wrong|below|above/.test(x))
-          .slice(0, 1)
-          .join('') || 'see its reasons'
-      })${plausible ? `; the best plausible mechanism is '${plausible.model}' (weight ${fmt(plausible.score)})` : '; no mechanism passes the physical checks'}`,
+      `'${best.model}' fits best (weight ${fmt(best.score)}) but fails a physical check (${best.failed[0] ?? 'see its reasons'})${plausible ? `; the best plausible mechanism is '${plausible.model}' (weight ${fmt(plausible.score)})` : '; no mechanism passes the physical checks'}`,
     );
   }
   const top = scored.find((s) => s.model === entries[0]?.model);
   if (top && n > top.k && top.chi2 / (n - top.k) > 4) {
     warnings.push(
-      `no mechanism describes every common point within the noise (best χ²/dof ${fmt(top.chi2 / (n - top.k))}): the sweep may hold more than one regime; rank within one with --from/--to`,
+      `no mechanism describes every common point within the noise (best χ²/dof ${fmt(top.chi2 / (n - top.k))}): the sweep may hold more than one regime; rank within one: give a window (--from/--to, or the window on the page)`,
     );
   }
   const excluded = Object.values(reasons).reduce((a, b) => a + b, 0);

@@ -175,7 +175,7 @@ export function classifySweep(data: SweepData, options: ClassifyOptions = {}): S
       for (const k of pinned) excluded[k] = EXCLUDED.compliance;
       const level = Math.abs(y[pinned[0]]);
       pinnedNotes.push(
-        `${pinned.length} reading${pinned.length > 1 ? 's' : ''} at the top of the ${name} branch ${pinned.length > 1 ? 'are' : 'is'} pinned at ${level.toPrecision(4)} A (the branch's largest current, held while the bias rises or read as a round value): taken as compliance (no compliance column or --compliance given)`,
+        `${pinned.length} reading${pinned.length > 1 ? 's' : ''} at the top of the ${name} branch ${pinned.length > 1 ? 'are' : 'is'} pinned at ${level.toPrecision(4)} A (the branch's largest current, held while the bias rises or read as a round value): taken as compliance (the readings carry no compliance flag and no compliance limit was given)`,
       );
     }
   }

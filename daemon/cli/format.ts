@@ -127,9 +127,11 @@ export function formatRanking(r: Ranking): string {
   const wm = Math.max(26, ...r.ranking.map((e) => e.model.length + 2));
   out.push(`${pad('#', 3)}${pad('model', wm)}${pad('weight', 8)}${pad('ΔAICc', wa)}${pad('plausible', 10)}parameters`);
   r.ranking.forEach((e, k) => {
-    const params = Object.entries(e.parameters)
-      .map(([n, p]) => `${n} ${formatParameterText(p, n)}`)
-      .join('; ');
+    const params =
+      e.noParameters ??
+      Object.entries(e.parameters)
+        .map(([n, p]) => `${n} ${formatParameterText(p, n)}`)
+        .join('; ');
     out.push(`${pad(String(k + 1), 3)}${pad(e.model, wm)}${pad(e.score.toFixed(3), 8)}${pad(aicc[k], wa)}${pad(e.plausible ? 'yes' : 'no', 10)}${params}`);
     for (const why of e.reasons) out.push(`     - ${why}`);
   });

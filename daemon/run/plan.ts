@@ -264,6 +264,20 @@ export const constantStressPlanSchema = z
         path: ['criteria', 'floor'],
         message: `${p.criteria.floor} A is not below the compliance ${p.compliance} A: no reading could be judged`,
       });
+    // A plan that cannot do what it says: one reading at the start and no more, or sense sweeps
+    // asked for that never come (they run at each multiple of sense.every short of the duration).
+    if (p.sampleEvery > p.duration)
+      ctx.addIssue({
+        code: 'custom',
+        path: ['sampleEvery'],
+        message: `${p.sampleEvery} s is longer than the duration ${p.duration} s: the stress would be read once, at its start; read at least every ${p.duration} s`,
+      });
+    if (p.sense && p.sense.every >= p.duration)
+      ctx.addIssue({
+        code: 'custom',
+        path: ['sense', 'every'],
+        message: `${p.sense.every} s is not shorter than the duration ${p.duration} s: no sense sweep would be taken (one runs at each multiple of sense.every before the stress ends); shorten it, or leave sense out`,
+      });
     if (p.sense && p.sense.every < p.sampleEvery)
       ctx.addIssue({
         code: 'custom',

@@ -4,6 +4,7 @@ import { fowlerNordheim } from '../../daemon/analysis/mechanisms/fowler-nordheim
 import { pooleFrenkel } from '../../daemon/analysis/mechanisms/poole-frenkel.js';
 import { schottkyEmission } from '../../daemon/analysis/mechanisms/schottky.js';
 import { rankMechanisms } from '../../daemon/analysis/ranking.js';
+import { formatRanking } from '../../daemon/cli/format.js';
 import { segmentLine } from '../../daemon/analysis/segmentation.js';
 import { searchWindow } from '../../daemon/analysis/window.js';
 import { estimateNoise } from '../../daemon/analysis/noise.js';
@@ -272,5 +273,39 @@ describe('ranking whole sweeps (test/helpers/whole-sweep.ts), no window given', 
     expect(pf?.plausible).toBe(false);
     expect(pf?.score).toBeGreaterThan(0.5);
     expect(r.warnings.join(' ')).toMatch(/'poole-frenkel' fits best .* but fails a physical check/);
+    // The check named is the one that failed (ε_r against n²), not the first warning of the row.
+    expect(pf?.failed[0]).toMatch(/far from n²/);
+    expect(r.warnings.join(' ')).toContain(`fails a physical check (${pf?.failed[0]})`);
+  });
+
+  it('the summary names the check that failed, not an assumed input; a row without parameters says why', () => {
+    // A 1 kΩ resistor (Ohm's law) clipped at 1 mA, with 0.1 % noise on every reading; no temperature
+    // given, so "300 K assumed" stands among the warnings of the temperature-dependent mechanisms.
+    const normal = seededNormal(11);
+    const v = Array.from({ length: 101 }, (_, k) => k * 0.05);
+    const i = v.map((x) => Math.min(x / 1000, 1e-3) * (1 + 0.001 * normal()));
+    const r = rankMechanisms({ x: v, y: i }, { inputs: { thickness: 5e-9, massRatio: 0.42 } });
+    const best = r.ranking.reduce((m, e) => (e.score > m.score ? e : m));
+    expect(best.plausible).toBe(false);
+    expect(best.reasons).toContain('temperature not given: 300 K assumed');
+    expect(best.failed.length).toBeGreaterThan(0);
+    for (const e of r.ranking) {
+      expect(e.failed.length > 0).toBe(!e.plausible);
+      for (const f of e.failed) expect(f).not.toMatch(/not given|assumed/);
+    }
+    const summary = r.warnings.find((w) => /fits best/.test(w));
+    expect(summary).toContain(`fails a physical check (${best.failed[0]})`);
+    // Mechanisms whose line slopes the wrong way give no parameter, and their row says so.
+    const empty = r.ranking.filter((e) => Object.keys(e.parameters).length === 0);
+    expect(empty.map((e) => e.model)).toEqual(expect.arrayContaining(['poole-frenkel', 'fowler-nordheim']));
+    for (const e of empty) {
+      expect(e.noParameters).toMatch(/wrong sign/);
+      expect(e.failed[0]).toMatch(/slope [≤≥] 0/);
+    }
+    for (const e of r.ranking.filter((x) => Object.keys(x.parameters).length > 0)) expect(e.noParameters).toBeUndefined();
+    const pfRow = formatRanking(r)
+      .split('\n')
+      .find((l) => /^\d+\s+poole-frenkel /.test(l));
+    expect(pfRow).toMatch(/none: the slope has the wrong sign/);
   });
 });

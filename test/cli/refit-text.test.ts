@@ -37,4 +37,22 @@ describe('refit text', () => {
     expect(own.stdout).toMatch(/^ {2}sweep +1: poole-frenkel fit on \d+ points, relativePermittivity = /m);
     expect(own.stdout).not.toMatch(/NOT PLAUSIBLE/);
   });
+
+  it("says which temperature it used for how many sweeps: the value, and whether assumed, given, the session's or from a note", () => {
+    // The oxide scenario's session records no temperature; Poole–Frenkel needs one.
+    const data = join(tempDir(), 'data');
+    const run = runCli(['run', '--scenario', 'oxide-fn', '--fast', '--sweeps', '2', '--data', data]);
+    expect(run.code, run.stderr).toBe(0);
+    const session = join(data, readdirSync(data)[0]);
+    const inputsLine = (args: string[]) => {
+      const r = runCli(['refit', session, '--model', 'poole-frenkel', '--out', join(tempDir(), 'r.json'), ...args]);
+      expect(r.code, r.stderr).toBe(0);
+      return r.stdout.split('\n').find((l) => l.startsWith('inputs: ')) ?? '';
+    };
+    expect(inputsLine([])).toMatch(/; temperature 300 K assumed for 2 sweeps$/);
+    expect(inputsLine(['--temperature', '350 K'])).toMatch(/; temperature 350 K given for 2 sweeps$/);
+    // A note on sweep 1 ("T = 325 K", as watch --temperature-column writes them) sets that sweep's.
+    expect(runCli(['annotate', session, '--sweep', '1', '--text', 'T = 325 K']).code).toBe(0);
+    expect(inputsLine([])).toMatch(/; temperature 325 K from the sweeps' notes for 1 sweep, 300 K assumed for 1 sweep$/);
+  });
 });

@@ -45,6 +45,19 @@ describe('plans', () => {
     expect(() => parsePlan({ ...stress, criteria: { currentLimit: 1 } })).toThrow(/field 'criteria.currentLimit'/);
   });
 
+  it('a constant-voltage stress read less often than it lasts, or sense sweeps that would never come, are refused naming the field', () => {
+    const stress = { kind: 'constant-voltage', stress: 8, duration: 100, sampleEvery: 5, compliance: 1e-3 };
+    expect(() => parsePlan({ ...stress, sampleEvery: 200 }, 'cv.json')).toThrow(/cv\.json: field 'sampleEvery': 200 s is longer than the duration 100 s/);
+    // Read once per duration: a reading at the start and one at the end, accepted.
+    expect(parsePlan({ ...stress, sampleEvery: 100 }).kind).toBe('constant-voltage');
+    // Sense sweeps run at each multiple of sense.every short of the duration (30, 60, 90 s of 100 s):
+    // at sense.every = duration there is none.
+    const sense = { start: 0, stop: 2, points: 5, every: 100 };
+    expect(() => parsePlan({ ...stress, sense })).toThrow(/field 'sense\.every': 100 s is not shorter than the duration 100 s: no sense sweep/);
+    expect(() => parsePlan({ ...stress, sense: { ...sense, every: 150 } })).toThrow(/field 'sense\.every'/);
+    expect(planShape(parsePlan({ ...stress, sense: { ...sense, every: 30 } })).sweeps).toBe(7);
+  });
+
   it('a test counts its use-condition checks and sense sweeps among its sweeps', () => {
     const ramp = { kind: 'voltage-ramp', start: 0, stop: 10, step: 0.1, stepTime: 0.1, compliance: 1e-3 };
     expect(planShape(parsePlan(ramp)).sweeps).toBe(1);

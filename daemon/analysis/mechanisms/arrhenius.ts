@@ -21,12 +21,15 @@ export const arrhenius: Mechanism = {
     const warnings: string[] = [];
     const ea = -BOLTZMANN_EV_PER_K * line.slope;
     const pre = Math.exp(line.intercept);
+    const failed: string[] = [];
     let plausible = true;
     if (line.slope >= 0) {
-      warnings.push('the rate does not rise with temperature (slope ≥ 0): no thermal activation');
+      const text = 'the rate does not rise with temperature (slope ≥ 0): no thermal activation';
+      warnings.push(text);
+      failed.push(text);
       plausible = false;
     } else {
-      plausible = inRange(warnings, 'activation energy', ea, 0.001, 5, 'eV');
+      plausible = inRange(warnings, 'activation energy', ea, 0.001, 5, 'eV', failed);
     }
     return {
       parameters: {
@@ -35,6 +38,7 @@ export const arrhenius: Mechanism = {
       },
       warnings,
       plausible,
+      failed,
       notes: [],
     };
   },

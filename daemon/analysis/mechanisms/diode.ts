@@ -47,7 +47,7 @@ export const diodeMechanism: Mechanism = {
     const notes: string[] = [];
     if (!(line.slope > 0)) {
       warnings.push('ln I does not rise with V (slope ≤ 0): not a forward-biased diode');
-      return { parameters: {}, warnings, plausible: false, notes };
+      return { parameters: {}, warnings, plausible: false, notes, failed: [...warnings] };
     }
     const vt = thermalVoltage(inputs.temperature);
     const n = 1 / (vt * line.slope);
@@ -68,6 +68,7 @@ export const diodeMechanism: Mechanism = {
       warnings,
       plausible,
       notes,
+      failed: plausible || !verdict.warning ? [] : [verdict.warning],
     };
   },
   forward: (v, p, inp) => shockley(v, p.saturationCurrent, p.idealityFactor, inp.temperature),

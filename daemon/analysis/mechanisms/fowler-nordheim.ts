@@ -56,19 +56,20 @@ export const fowlerNordheimMechanism: Mechanism = {
     const notes: string[] = [];
     if (!(line.slope < 0)) {
       warnings.push('ln(J/E²) does not fall with 1/E (slope ≥ 0): not Fowler–Nordheim tunnelling');
-      return { parameters: {}, warnings, plausible: false, notes };
+      return { parameters: {}, warnings, plausible: false, notes, failed: [...warnings] };
     }
+    const failed: string[] = [];
     const b = barrierFromTunnellingSlope(line.slope, line.slopeStdErr, inputs.massRatio);
-    let plausible = inRange(warnings, 'barrier height', b.value, 0.3, 6, 'eV');
+    let plausible = inRange(warnings, 'barrier height', b.value, 0.3, 6, 'eV', failed);
     notes.push(`barrier ${fmt(b.value)} eV for m* / m0 = ${fmt(inputs.massRatio)}`);
     if (inputs.area !== undefined && plausible) {
       // ln of the prefactor the line implies, against ln a/(m_r φ) (both A/V², J in A/m²).
       const ratio = Math.exp(line.intercept - Math.log(FN_A_A_EV_PER_V2 / (inputs.massRatio * b.value)));
       const said = `the intercept implies a prefactor ${fmt(ratio)} times the Fowler–Nordheim value a/(m* φ) for this barrier and area`;
       if (ratio > PREFACTOR_IMPLAUSIBLE || ratio < 1 / PREFACTOR_IMPLAUSIBLE) {
-        warnings.push(
-          `${said}: more than a thickness ten times off (about 21×) and an area a hundred times off (100×) explain together: the current is not Fowler–Nordheim tunnelling, or the area is far from the device's`,
-        );
+        const text = `${said}: more than a thickness ten times off (about 21×) and an area a hundred times off (100×) explain together: the current is not Fowler–Nordheim tunnelling, or the area is far from the device's`;
+        warnings.push(text);
+        failed.push(text);
         plausible = false;
       } else if (ratio > PREFACTOR_RATIO || ratio < 1 / PREFACTOR_RATIO)
         warnings.push(
@@ -76,7 +77,7 @@ export const fowlerNordheimMechanism: Mechanism = {
         );
       else notes.push(said);
     }
-    return { parameters: { barrierHeight: param(b.value, b.stdErr, 'eV') }, warnings, plausible, notes };
+    return { parameters: { barrierHeight: param(b.value, b.stdErr, 'eV') }, warnings, plausible, notes, failed };
   },
   forward: (v, p, inp) => fowlerNordheim(field(v, inp), p.barrierHeight, inp.massRatio),
 };

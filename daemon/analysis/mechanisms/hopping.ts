@@ -33,12 +33,13 @@ export const hoppingMechanism: Mechanism = {
     const warnings: string[] = [];
     if (!(line.slope > 0)) {
       warnings.push('ln J does not rise with E (slope ≤ 0): not hopping conduction');
-      return { parameters: {}, warnings, plausible: false, notes: [] };
+      return { parameters: {}, warnings, plausible: false, notes: [], failed: [...warnings] };
     }
     const k = (BOLTZMANN_J_PER_K * inputs.temperature) / Q;
     const a = k * line.slope;
-    const plausible = inRange(warnings, 'hopping distance', a * 1e9, 0.05, 20, 'nm');
-    return { parameters: { hoppingDistance: param(a, k * line.slopeStdErr, 'm') }, warnings, plausible, notes: [] };
+    const failed: string[] = [];
+    const plausible = inRange(warnings, 'hopping distance', a * 1e9, 0.05, 20, 'nm', failed);
+    return { parameters: { hoppingDistance: param(a, k * line.slopeStdErr, 'm') }, warnings, plausible, notes: [], failed };
   },
   forward: (v, p, inp) => hopping(field(v, inp), p.prefactor, p.hoppingDistance, inp.temperature),
 };

@@ -20,10 +20,10 @@ export const ohmic: Mechanism = {
   extract: ({ line, inputs }) => {
     const warnings: string[] = [];
     const parameters: Record<string, ReturnType<typeof param>> = {};
-    let plausible = true;
+    const failed: string[] = [];
     if (!(line.slope > 0)) {
       warnings.push('current does not rise with bias (slope ≤ 0): not ohmic');
-      plausible = false;
+      failed.push(...warnings);
     }
     const r = 1 / line.slope;
     parameters.resistance = param(r, line.slopeStdErr / (line.slope * line.slope), 'ohm');
@@ -33,7 +33,7 @@ export const ohmic: Mechanism = {
     } else {
       warnings.push('conductivity needs both area and thickness');
     }
-    return { parameters, warnings, plausible, notes: [] };
+    return { parameters, warnings, plausible: failed.length === 0, notes: [], failed };
   },
   forward: (v, p, inputs) =>
     p.conductivity !== undefined && inputs.thickness !== undefined

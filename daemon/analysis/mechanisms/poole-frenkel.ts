@@ -6,7 +6,7 @@
  * same data read as Schottky give an ε_r four times smaller.
  */
 import { BOLTZMANN_J_PER_K, ELEMENTARY_CHARGE_C as Q, VACUUM_PERMITTIVITY_F_PER_M as EPS0 } from '../constants.js';
-import { currentUnit, field, fmt, inRange, param, type Extraction, type Mechanism } from '../mechanism.js';
+import { currentUnit, field, fmt, inRange, param, setWith, type Extraction, type Mechanism } from '../mechanism.js';
 
 /** Coefficient of √E in the exponent for a lowering √(qE/(γ π ε₀ ε_r)): γ = 1 PF, γ = 4 Schottky. */
 export function rootFieldSlope(permittivity: number, temperature: number, gamma: 1 | 4): number {
@@ -36,10 +36,11 @@ export function checkAgainstIndex(
   warnings: string[],
   notes: string[],
   other: { name: string; factor: number },
+  failed?: string[],
 ): boolean {
   if (n === undefined) {
     notes.push(
-      `ε_r = ${fmt(eps)} ± ${fmt(epsStdErr)} is not checked against n² (no refractive index given, --refractive-index): that agreement is the usual test that the current is this emission and not ${other.name} or tunnelling`,
+      `ε_r = ${fmt(eps)} ± ${fmt(epsStdErr)} is not checked against n² (no refractive index given: ${setWith('--refractive-index')}): that agreement is the usual test that the current is this emission and not ${other.name} or tunnelling`,
     );
     return true;
   }
@@ -58,7 +59,9 @@ export function checkAgainstIndex(
   const near = Math.abs(eps * other.factor - n2) <= 0.3 * n2;
   const hint = near ? `; read as ${other.name} the same slope gives ${fmt(eps * other.factor)}, near n²` : '';
   const z = Math.abs(eps - n2) / Math.max(epsStdErr, 1e-300);
-  warnings.push(`ε_r = ${fmt(eps)} ± ${fmt(epsStdErr)} is far from n² = ${fmt(n2)} (ratio ${fmt(eps / n2)}, ${fmt(z)} standard errors)${hint}`);
+  const text = `ε_r = ${fmt(eps)} ± ${fmt(epsStdErr)} is far from n² = ${fmt(n2)} (ratio ${fmt(eps / n2)}, ${fmt(z)} standard errors)${hint}`;
+  warnings.push(text);
+  failed?.push(text);
   return false;
 }
 
@@ -91,14 +94,23 @@ export const pooleFrenkelMechanism: Mechanism = {
     const notes: string[] = [];
     if (!(line.slope > 0)) {
       warnings.push('ln(J/E) does not rise with √E (slope ≤ 0): not Poole–Frenkel emission');
-      return { parameters: {}, warnings, plausible: false, notes };
+      return { parameters: {}, warnings, plausible: false, notes, failed: [...warnings] };
     }
+    const failed: string[] = [];
     const eps = permittivityFromRootFieldSlope(line.slope, line.slopeStdErr, inputs.temperature, 1);
-    let plausible = inRange(warnings, 'dynamic permittivity', eps.value, 1, 30, '');
+    let plausible = inRange(warnings, 'dynamic permittivity', eps.value, 1, 30, '', failed);
     plausible =
-      checkAgainstIndex(eps.value, eps.stdErr, inputs.refractiveIndex, inputs.permittivity, warnings, notes, { name: 'Schottky emission', factor: 0.25 }) &&
-      plausible;
-    return { parameters: { relativePermittivity: param(eps.value, eps.stdErr, '1') }, warnings, plausible, notes };
+      checkAgainstIndex(
+        eps.value,
+        eps.stdErr,
+        inputs.refractiveIndex,
+        inputs.permittivity,
+        warnings,
+        notes,
+        { name: 'Schottky emission', factor: 0.25 },
+        failed,
+      ) && plausible;
+    return { parameters: { relativePermittivity: param(eps.value, eps.stdErr, '1') }, warnings, plausible, notes, failed };
   },
   forward: (v, p, inp) => pooleFrenkel(field(v, inp), p.prefactor, p.trapDepth, p.relativePermittivity, inp.temperature),
 };

@@ -37,24 +37,33 @@ export const schottkyMechanism: Mechanism = {
     const notes: string[] = [];
     if (!(line.slope > 0)) {
       warnings.push('ln(J/T²) does not rise with √E (slope ≤ 0): not Schottky emission');
-      return { parameters: {}, warnings, plausible: false, notes };
+      return { parameters: {}, warnings, plausible: false, notes, failed: [...warnings] };
     }
+    const failed: string[] = [];
     const parameters: Record<string, ParameterValue> = {};
     const eps = permittivityFromRootFieldSlope(line.slope, line.slopeStdErr, inputs.temperature, 4);
     parameters.relativePermittivity = param(eps.value, eps.stdErr, '1');
-    let plausible = inRange(warnings, 'dynamic permittivity', eps.value, 1, 30, '');
+    let plausible = inRange(warnings, 'dynamic permittivity', eps.value, 1, 30, '', failed);
     plausible =
-      checkAgainstIndex(eps.value, eps.stdErr, inputs.refractiveIndex, inputs.permittivity, warnings, notes, { name: 'Poole–Frenkel emission', factor: 4 }) &&
-      plausible;
+      checkAgainstIndex(
+        eps.value,
+        eps.stdErr,
+        inputs.refractiveIndex,
+        inputs.permittivity,
+        warnings,
+        notes,
+        { name: 'Poole–Frenkel emission', factor: 4 },
+        failed,
+      ) && plausible;
     if (inputs.area !== undefined) {
       const kt = (BOLTZMANN_J_PER_K * inputs.temperature) / Q;
       const phi = kt * (Math.log(inputs.richardson) - line.intercept);
       parameters.barrierHeight = param(phi, kt * line.interceptStdErr, 'eV');
-      plausible = inRange(warnings, 'barrier height', phi, 0.05, 5, 'eV') && plausible;
+      plausible = inRange(warnings, 'barrier height', phi, 0.05, 5, 'eV', failed) && plausible;
     } else {
       warnings.push('barrier height needs the area (J as a current density)');
     }
-    return { parameters, warnings, plausible, notes };
+    return { parameters, warnings, plausible, notes, failed };
   },
   forward: (v, p, inp) => schottkyEmission(field(v, inp), p.barrierHeight, p.relativePermittivity, inp.temperature, inp.richardson),
 };

@@ -12,7 +12,7 @@
  */
 import { VACUUM_PERMITTIVITY_F_PER_M } from '../constants.js';
 import { fitLine } from '../line-fit.js';
-import { currentUnit, fmt, param, type Extraction, type Mechanism, type ParameterValue } from '../mechanism.js';
+import { currentUnit, fmt, param, setWith, type Extraction, type Mechanism, type ParameterValue } from '../mechanism.js';
 
 /** Mott–Gurney current density, A/m², for bias V (V), mobility μ (m²/(V·s)), ε_r and d (m). */
 export function mottGurney(v: number, mobility: number, permittivity: number, thickness: number): number {
@@ -42,14 +42,17 @@ export const sclc: Mechanism = {
     const parameters: Record<string, ParameterValue> = {};
     const s = line.slope;
     const c = line.intercept;
-    let plausible = true;
     if (!(s > 0)) {
       warnings.push('J/V does not rise with V (slope ≤ 0): no space-charge-limited term');
-      return { parameters, warnings, plausible: false, notes };
+      return { parameters, warnings, plausible: false, notes, failed: [...warnings] };
     }
+    const failed: string[] = [];
+    const fail = (text: string) => {
+      warnings.push(text);
+      failed.push(text);
+    };
     if (s < 2 * line.slopeStdErr) {
-      warnings.push(`the V² term is not resolved (J/V slope ${fmt(s)} ± ${fmt(line.slopeStdErr)}): the current is ohmic, not space-charge-limited`);
-      plausible = false;
+      fail(`the V² term is not resolved (J/V slope ${fmt(s)} ± ${fmt(line.slopeStdErr)}): the current is ohmic, not space-charge-limited`);
     }
     const { area, thickness, permittivity } = inputs;
     if (area !== undefined && thickness !== undefined && permittivity !== undefined) {
@@ -59,7 +62,7 @@ export const sclc: Mechanism = {
       const missing = [
         area === undefined ? 'area' : '',
         thickness === undefined ? 'thickness' : '',
-        permittivity === undefined ? 'permittivity (--permittivity)' : '',
+        permittivity === undefined ? `permittivity (${setWith('--permittivity')})` : '',
       ].filter(Boolean);
       warnings.push(`mobility needs the ${missing.join(', ')} as well`);
     }
@@ -75,8 +78,7 @@ export const sclc: Mechanism = {
       parameters.transitionVoltage = param(v, Math.sqrt(Math.max(0, var_)), 'V');
       notes.push(`ohmic to space-charge-limited at V_tr = ${fmt(v)} V (where the two terms are equal)`);
     } else if (c + 2 * line.interceptStdErr < 0) {
-      warnings.push(`the ohmic term is negative (J/V intercept ${fmt(c)} ± ${fmt(line.interceptStdErr)}): not an ohmic background`);
-      plausible = false;
+      fail(`the ohmic term is negative (J/V intercept ${fmt(c)} ± ${fmt(line.interceptStdErr)}): not an ohmic background`);
     }
     // The V² law: log–log slope of the Mott–Gurney part where it carries at least 70 % of the current.
     const xs: number[] = [];
@@ -99,10 +101,9 @@ export const sclc: Mechanism = {
         const f = fitLine(xs, ys, { weights: ws });
         parameters.exponent = param(f.slope, f.slopeStdErr, '1');
         if (Math.abs(f.slope - 2) > 3 * f.slopeStdErr + 0.05) {
-          warnings.push(
+          fail(
             `the log–log slope of the space-charge-limited part is ${fmt(f.slope)} ± ${fmt(f.slopeStdErr)}, not 2: not trap-free Mott–Gurney (traps filling, a field-dependent mobility or an injection barrier)`,
           );
-          plausible = false;
         } else {
           notes.push(`log–log slope of the space-charge-limited part ${fmt(f.slope)} ± ${fmt(f.slopeStdErr)}: consistent with 2`);
         }
@@ -112,7 +113,7 @@ export const sclc: Mechanism = {
     } else {
       notes.push('too few points where the V² term dominates to test the log–log slope of 2');
     }
-    return { parameters, warnings, plausible, notes };
+    return { parameters, warnings, plausible: failed.length === 0, notes, failed };
   },
   forward: (v, p, inputs) => {
     const j = mottGurney(v, p.mobility, inputs.permittivity as number, inputs.thickness as number);

@@ -34,11 +34,12 @@ export const trapAssistedTunnelingMechanism: Mechanism = {
     const warnings: string[] = [];
     if (!(line.slope < 0)) {
       warnings.push('ln J does not fall with 1/E (slope ≥ 0): not trap-assisted tunnelling');
-      return { parameters: {}, warnings, plausible: false, notes: [] };
+      return { parameters: {}, warnings, plausible: false, notes: [], failed: [...warnings] };
     }
     const t = barrierFromTunnellingSlope(line.slope, line.slopeStdErr, inputs.massRatio);
-    const plausible = inRange(warnings, 'trap energy', t.value, 0.05, 5, 'eV');
-    return { parameters: { trapEnergy: param(t.value, t.stdErr, 'eV') }, warnings, plausible, notes: [] };
+    const failed: string[] = [];
+    const plausible = inRange(warnings, 'trap energy', t.value, 0.05, 5, 'eV', failed);
+    return { parameters: { trapEnergy: param(t.value, t.stdErr, 'eV') }, warnings, plausible, notes: [], failed };
   },
   forward: (v, p, inp) => trapAssistedTunnelling(field(v, inp), p.prefactor, p.trapEnergy, inp.massRatio),
 };

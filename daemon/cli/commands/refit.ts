@@ -56,10 +56,19 @@ export function registerRefit(program: Command): void {
     const used = Object.entries(r.inputs)
       .filter(([k]) => k !== 'temperature')
       .map(([k, v]) => `${formatInputs({ [k]: v.value })} (${words[v.source]})`);
-    const temps = new Map<string, number>();
-    for (const sw of r.sweeps) temps.set(words[sw.temperature.source], (temps.get(words[sw.temperature.source]) ?? 0) + 1);
-    if ('temperature' in r.inputs || [...temps.keys()].some((k) => k !== 'assumed')) {
-      used.push(`temperature ${[...temps.entries()].map(([src, n]) => `${src} for ${n} sweep(s)`).join(', ')}`);
+    // The temperature with its value, per source: "300 K assumed for 8 sweeps"; notes may give
+    // each sweep its own, shown as their range.
+    const said = { given: 'given', session: 'from the session', default: 'assumed', note: "from the sweeps' notes" } as const;
+    const temps = new Map<keyof typeof said, number[]>();
+    for (const sw of r.sweeps) temps.set(sw.temperature.source, [...(temps.get(sw.temperature.source) ?? []), sw.temperature.value]);
+    if ('temperature' in r.inputs || [...temps.keys()].some((k) => k !== 'default')) {
+      const kelvin = (values: number[]) => {
+        const lo = Math.min(...values);
+        const hi = Math.max(...values);
+        return lo === hi ? `${formatNumber(lo, 5)} K` : `${formatNumber(lo, 5)}–${formatNumber(hi, 5)} K`;
+      };
+      const count = (n: number) => `${n} sweep${n === 1 ? '' : 's'}`;
+      used.push(`temperature ${[...temps.entries()].map(([src, values]) => `${kelvin(values)} ${said[src]} for ${count(values.length)}`).join(', ')}`);
     }
     if (used.length) process.stdout.write(`inputs: ${used.join('; ')}\n`);
     // Each sweep as `run` prints its fits (formatSweepFit: the NOT PLAUSIBLE mark included).
