@@ -67,7 +67,7 @@ describe('refit', () => {
     const r = runCli(['refit', dir, '--model', 'schottky', '--out', join(tempDir(), 'r.json')]);
     expect(r.code, r.stderr).toBe(0);
     expect(r.stdout).toMatch(/inputs: .*thickness 20 nm \(the session's\)/);
-    expect(r.stdout).toMatch(/temperature from the sweep's note for 3 sweep\(s\)/);
+    expect(r.stdout).toMatch(/temperature 300–400 K from the sweeps' notes for 3 sweeps/);
     expect(r.stdout).toMatch(/T = 400 K from its note/);
     // Poole–Frenkel data read as Schottky emission give ε_r four times too small: the fit says so.
     expect(r.stdout).toMatch(/^warning \(sweeps? [\d, …]+\): /m);

@@ -33,12 +33,15 @@ describe('page with a late station status', () => {
     page.on('console', (m) => {
       if (m.type() === 'error') errors.push(`console error: ${m.text()}`);
     });
-    // Every status request of the first 1.5 s is answered only after that (the page asks at
-    // start and again when the snapshot names a session).
-    const t0 = Date.now();
+    // Every status request is held until the session has been drawn (the page asks at start and
+    // again when the snapshot names a session): a gate, not a delay, so a loaded machine that
+    // draws slowly cannot let the status in first.
+    let release: () => void = () => undefined;
+    const gate = new Promise<void>((res) => {
+      release = res;
+    });
     await page.route('**/api/status', async (route) => {
-      const wait = 1500 - (Date.now() - t0);
-      if (wait > 0) await new Promise((res) => setTimeout(res, wait));
+      await gate;
       await route.continue();
     });
     await page.goto(daemon.url);
@@ -48,6 +51,7 @@ describe('page with a late station status', () => {
     });
     const modelsEarly = await page.evaluate(() => (document.querySelector('#model-select') as HTMLSelectElement).options.length);
     expect(modelsEarly).toBe(0);
+    release();
     // Then the status arrives and the form is filled with the session's thickness (7 nm for this scenario's film).
     await page.waitForFunction(() => (document.querySelector('#model-select') as HTMLSelectElement).options.length > 0, undefined, { timeout: 20_000 });
     await page.waitForTimeout(300);
