@@ -192,10 +192,28 @@ export const INPUT_RANGE: Readonly<
   temperature: { lo: 1, hi: 1500, what: '1 K – 1500 K', si: 'kelvin', symbol: 'K', example: '"300 K" or "25 degC"' },
 };
 
-/** Warnings for inputs the model uses that lie far outside where such samples are (see INPUT_RANGE). */
+/**
+ * Dimensionless inputs and where real films put them. Effective-mass ratios of carriers tunnelling
+ * through dielectrics are quoted from about 0.1 (high-k oxides) to about 1 (SiO2 values run
+ * 0.3–0.5, Weinberg 1982; the rest common practice, from memory): under 0.02 or over 2 is a typing
+ * slip. Refractive indices of solids at optical frequencies lie from about 1.3 (fluorides) to about
+ * 4 (Si, Ge); 1–5 is allowed.
+ */
+const RATIO_RANGE: Readonly<Partial<Record<InputName, { lo: number; hi: number; what: string }>>> = {
+  massRatio: { lo: 0.02, hi: 2, what: 'effective-mass ratio m*/m₀' },
+  refractiveIndex: { lo: 1, hi: 5, what: 'refractive index n' },
+};
+
+/** Warnings for inputs the model uses that lie far outside where such samples are (see INPUT_RANGE, RATIO_RANGE). */
 export function oddInputs(inputs: Inputs, used: readonly InputName[]): string[] {
   const out: string[] = [];
   for (const k of new Set(used)) {
+    const q = RATIO_RANGE[k];
+    const w = inputs[k];
+    if (q && w !== undefined && !(w >= q.lo && w <= q.hi)) {
+      out.push(`${q.what} ${fmt(w)} is outside ${fmt(q.lo)}–${fmt(q.hi)}, where real films put it: check the value`);
+      continue;
+    }
     const r = (INPUT_RANGE as Partial<Record<InputName, (typeof INPUT_RANGE)['area']>>)[k];
     const v = inputs[k];
     if (!r || v === undefined || (v >= r.lo && v <= r.hi)) continue;

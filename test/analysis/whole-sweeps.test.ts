@@ -525,6 +525,22 @@ describe('a sweep that never leaves its noise floor', () => {
   });
 });
 
+describe('dimensionless inputs out of any real film', () => {
+  it('an effective-mass ratio of 5 (a slip for 0.5) or a refractive index of 20 is not plausible and says which input; real values pass', () => {
+    // m*/m₀ of SiO2 is 0.3–0.5 (Weinberg 1982); optical n of solids lies about 1.3–4 (common practice).
+    const s = wholeSweep({ ...CASES[0].spec, seed: 2 });
+    const good = analyze({ x: s.v, y: s.i, compliance: s.compliance }, { model: 'fowler-nordheim', inputs: CASES[0].inputs });
+    expect(good.warnings.join(' ')).not.toMatch(/effective-mass ratio/);
+    const bad = analyze({ x: s.v, y: s.i, compliance: s.compliance }, { model: 'fowler-nordheim', inputs: { ...CASES[0].inputs, massRatio: 5 } });
+    expect(bad.plausible).toBe(false);
+    expect(bad.warnings.join(' ')).toMatch(/effective-mass ratio m\*\/m₀ 5 is outside 0\.02–2/);
+    const pf = wholeSweep({ ...CASES[1].spec, seed: 2 });
+    const n20 = analyze({ x: pf.v, y: pf.i, compliance: pf.compliance }, { model: 'poole-frenkel', inputs: { ...CASES[1].inputs, refractiveIndex: 20 } });
+    expect(n20.plausible).toBe(false);
+    expect(n20.warnings.join(' ')).toMatch(/refractive index n 20 is outside 1–5/);
+  });
+});
+
 describe('out-and-back sweeps', () => {
   // The 7 nm Fowler–Nordheim oxide of the first case, swept 0 → 10 V and back in 0.1 V steps. A
   // film that traps electrons on the way out raises its effective barrier for the way back
