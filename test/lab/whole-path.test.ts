@@ -115,7 +115,9 @@ describe('three stations → broker → archive → PostgreSQL', () => {
       const run = await start(['serve', '--config', config, '--data', data, '--publish', lab, '--station', `st-${s}`], /demo run started/);
       stations.push({ data, run });
     }
-    const running = () => stations.filter((s) => !/run ended/.test(s.run.out())).length;
+    // The run-end notice ("run ended: <outcome>"), not the output-off line before it ("output off
+    // sent — run ended"): on a loaded machine the check could fall between the two.
+    const running = () => stations.filter((s) => !/run ended: /.test(s.run.out())).length;
 
     // kill -9 the archive once it has written some readings, while the stations run.
     await until(() => count() > 2000, 60_000, 'first readings archived');
