@@ -209,7 +209,11 @@ export class RunController {
         this.record({
           type: 'caution',
           kind: outcome === 'journal-fault' ? 'journal-fault' : 'instrument-fault',
-          message: `${outcome === 'guard-refused' ? 'The safety guard refused a command' : outcome === 'journal-fault' ? 'The journal could not be written' : 'Instrument fault'}: ${reason}. Output off was sent at once; check the instrument's front panel before touching the fixture.`,
+          message: `${outcome === 'guard-refused' ? 'The safety guard refused a command' : outcome === 'journal-fault' ? 'The journal could not be written' : 'Instrument fault'}: ${reason}. ${
+            offSent
+              ? "Output off was sent at once; check the instrument's front panel before touching the fixture."
+              : "Output off could NOT be sent (the connection is gone): the instrument keeps its output as it was. Treat the terminals as live; check the instrument's front panel and turn the output off there before touching the fixture."
+          }`,
         });
       }
     }

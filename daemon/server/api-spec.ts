@@ -68,7 +68,13 @@ const statusReply = z.looseObject({
   scenario: z.string().nullable(),
   control: z.boolean().describe('False while the station watches a passive source.'),
   lastRun: z.object({ session: z.string(), outcome: z.string(), reason: z.string(), outputOffConfirmed: z.boolean() }).nullable(),
-  recovered: z.array(z.object({ dir: z.string(), message: z.string() })),
+  recovered: z.array(
+    z.object({
+      dir: z.string(),
+      message: z.string(),
+      outputMayBeOn: z.boolean().describe('The run had the output on when its daemon stopped, and nothing turned it off: check the instrument.'),
+    }),
+  ),
   models: z.array(
     z.looseObject({
       id: z.string(),

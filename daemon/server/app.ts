@@ -209,7 +209,7 @@ export async function startServer(station: Station, options: ServerOptions): Pro
       scenario: station.scenario?.name ?? null,
       control: station.hasControl,
       lastRun: station.lastRun,
-      recovered: station.recovered.map((r) => ({ dir: r.dir, message: r.message })),
+      recovered: station.recovered.map((r) => ({ dir: r.dir, message: r.message, outputMayBeOn: r.outputMayBeOn === true })),
       hub: hub.stats,
       // With the parameters each fit gives (the station's inputs): the Run form's adaptive target
       // offers these, and startRun checks a plan's target against the same list.

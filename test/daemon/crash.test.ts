@@ -16,6 +16,8 @@ import { SimulatedSmu } from '../../daemon/simulator/instrument.js';
 import { findScenario } from '../../daemon/simulator/scenarios.js';
 import { serveTcp } from '../../daemon/simulator/serve.js';
 import type { WireEvent } from '../../protocols/wire.js';
+import type { Browser } from 'playwright-core';
+import { launch, openPage } from '../helpers/browser.js';
 import { CLI, runCli } from '../helpers/cli.js';
 import { api, startDaemon, tempDir, Viewer, writeConfig, type DaemonProcess } from '../helpers/daemon.js';
 
@@ -161,7 +163,10 @@ describe('instrument disconnect mid-sweep (loopback TCP)', () => {
     expect(off[0]).toMatchObject({ sent: false, confirmed: false });
     expect(off[1]).toMatchObject({ queried: true, confirmed: false });
     expect(events.some((e) => e.type === 'caution' && e.kind === 'output-unconfirmed')).toBe(true);
-    expect(events.some((e) => e.type === 'caution' && e.kind === 'instrument-fault')).toBe(true);
+    // The fault's caution says what happened to the output, as the output record does: not sent.
+    const fault = events.find((e) => e.type === 'caution' && e.kind === 'instrument-fault');
+    expect(fault?.type === 'caution' && fault.message).toMatch(/Output off could NOT be sent \(the connection is gone\)/);
+    expect(fault?.type === 'caution' && fault.message).not.toMatch(/Output off was sent at once/);
     const sweepEnd = events.find((e) => e.type === 'sweep-end' && !e.complete);
     expect(sweepEnd?.type === 'sweep-end' && sweepEnd.sweep).toBe(2); // 60 readings: 46 + 14
     // 60 READ? replies were sent; the 60th reading's compliance query (TRIP?) never got an answer,
@@ -177,5 +182,40 @@ describe('instrument disconnect mid-sweep (loopback TCP)', () => {
     );
     expect(end2.type === 'run-end' && end2.outcome).toBe('completed');
     viewer.close();
+  });
+});
+
+describe('the page after a daemon died with the output on', () => {
+  let browser: Browser | undefined;
+  let daemon: DaemonProcess | undefined;
+  afterAll(async () => {
+    await browser?.close();
+    await daemon?.stop();
+  });
+
+  it('the live page says first, as a danger, that the output may still be on, until a run of the new daemon starts', { timeout: 90_000 }, async () => {
+    const dir = tempDir();
+    const data = join(dir, 'data');
+    // A run killed with SIGKILL mid-sweep: nothing turned its output off.
+    await killAfter(['run', '--scenario', 'oxide-fn', '--sweeps', '100000', '--fast', '--data', data], 300);
+    daemon = await startDaemon(['--scenario', 'oxide-fn', '--fast', '--no-autostart', '--data', data]);
+    const status = (await api(daemon.url, 'GET', '/api/status')).json;
+    expect(status.recovered).toHaveLength(1);
+    expect(status.recovered[0].outputMayBeOn).toBe(true);
+    browser = await launch();
+    const { page, errors } = await openPage(browser, daemon.url);
+    const caution = page.locator('.caution[data-kind="output may be on"]');
+    await caution.waitFor({ timeout: 10_000 });
+    // The first caution on the page, a danger, naming the session and what to do.
+    expect(await page.locator('#cautions .caution').first().getAttribute('data-kind')).toBe('output may be on');
+    expect(await caution.getAttribute('class')).toMatch(/danger/);
+    const text = (await caution.textContent()) ?? '';
+    expect(text).toContain(status.recovered[0].dir.split('/').at(-1));
+    expect(text).toMatch(/terminals may still be live\. Check the instrument \(its front panel\) and turn the output off there/);
+    // A run of this daemon sets the instrument up (output off first): the caution is gone.
+    expect((await api(daemon.url, 'POST', '/api/run', { plan: { kind: 'linear', start: 0, stop: 2, points: 5, compliance: 1e-3 } })).status).toBe(201);
+    await page.waitForFunction(() => !document.querySelector('.caution[data-kind="output may be on"]'), undefined, { timeout: 10_000 });
+    expect(errors).toEqual([]);
+    await page.close();
   });
 });

@@ -21,6 +21,10 @@ export interface StationStatus {
   planDefaults?: Record<string, Record<string, unknown>>;
   /** Each model, with the parameters its fit gives with the station's inputs (the daemon's own list). */
   models: { id: string; title: string; requires: string[]; uses: string[]; parameters?: string[] }[];
+  /** Sessions this daemon recovered when it started (runs cut by a crash). */
+  recovered?: { dir: string; message: string; outputMayBeOn: boolean }[];
+  /** How the last run of this daemon ended (null before its first). */
+  lastRun?: unknown;
 }
 
 const field = (f: HTMLFormElement, name: string) => f.elements.namedItem(name) as HTMLInputElement;

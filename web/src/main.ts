@@ -180,7 +180,9 @@ function render(): void {
         : "— the station's setting for the next run";
   // Each panel is redrawn only when what it shows has changed (a frame carries new readings most
   // of the time, and nothing else).
-  if (changed('cautions', s, s.cautions.length, s.outputOn, s.lastOutput, s.readOnly, s.sessionEvent, s.running, s.drift)) renderCautions($('cautions'), s);
+  const cut = cutRuns();
+  if (changed('cautions', s, s.cautions.length, s.outputOn, s.lastOutput, s.readOnly, s.sessionEvent, s.running, s.drift, cut.length))
+    renderCautions($('cautions'), s, cut);
   if (changed('test', s, s.testResult, s.sessionEvent, s.running)) $('test-panel').hidden = !renderTestPanel($('test-title'), $('test-result'), s);
   if (changed('adaptive', s, s.adaptive.length)) $('adaptive-panel').hidden = !renderAdaptive($('adaptive'), s.adaptive);
   raw.update(s.sweeps, ($('raw-log') as HTMLInputElement).checked, s.envelope, (s.sessionEvent?.plan as { kind?: string } | undefined)?.kind === 'adaptive');
@@ -198,6 +200,16 @@ function render(): void {
   if (changed('drift', s, s.drift, s.cautions.length, s.finalFits.size)) renderDrift(s);
   renderPicker(s, cur);
   refillForms(s);
+}
+
+/**
+ * Runs the daemon found cut at start-up with the output on (its status's `recovered`), until a run
+ * of this daemon has started: a new run's set-up turns the output off, and then the instrument
+ * answers for itself.
+ */
+function cutRuns(): { dir: string; message: string }[] {
+  if (!status?.recovered || status.running || status.lastRun || liveStore.running || liveStore.runEnd) return [];
+  return status.recovered.filter((r) => r.outputMayBeOn);
 }
 
 /** Whether any of the values differ (by identity) from the last call with this name. */

@@ -28,7 +28,12 @@ export function outputAtEnd(s: Store): Extract<WireEvent, { type: 'output' }> | 
   return !s.running && s.runEnd && o && !o.on && o.queried ? o : undefined;
 }
 
-export function renderCautions(box: HTMLElement, s: Store): void {
+/**
+ * `cutRuns`: sessions the daemon recovered at start-up whose run had the output on when the daemon
+ * stopped (nothing turned it off; an instrument keeps its output state on its own). Said first, as
+ * a danger, on the live view until a run of this daemon has started.
+ */
+export function renderCautions(box: HTMLElement, s: Store, cutRuns: readonly { dir: string; message: string }[] = []): void {
   box.textContent = '';
   const add = (level: Level, tag: string, text: string) => {
     const div = document.createElement('div');
@@ -42,6 +47,15 @@ export function renderCautions(box: HTMLElement, s: Store): void {
     div.append(t, m);
     box.append(div);
   };
+  if (!s.readOnly)
+    for (const r of cutRuns) {
+      const name = r.dir.split(/[\\/]/).filter(Boolean).at(-1) ?? r.dir;
+      add(
+        'danger',
+        'output may be on',
+        `Session ${name} was cut when its daemon stopped, with the instrument's output on, and nothing turned it off: the terminals may still be live. Check the instrument (its front panel) and turn the output off there before touching the probes or the fixture; follow your lab's safety rules. (${r.message})`,
+      );
+    }
   if (s.readOnly) add('info', 'read-only', 'A past session from the journal: nothing here controls the instrument.');
   const source = s.sessionEvent?.source;
   if (source && !source.control) add('info', 'watching', `Readings come from ${source.detail}; plumbline does not control this instrument.`);
