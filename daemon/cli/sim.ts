@@ -40,7 +40,17 @@ export function registerSim(program: Command): void {
         const addr = server.address();
         const bound = typeof addr === 'object' && addr ? addr.port : port;
         process.stdout.write(`simulated SMU '${scenario.name}' on tcp://${o.host}:${bound} (SCPI, LF-terminated)\n`);
-        closers.push(() => new Promise<void>((r) => server.close(() => r())));
+        // Stopping the simulator drops its connections, as unplugging an instrument would: a
+        // listening server alone waits for its clients to hang up first.
+        const links = new Set<{ destroy(): void }>();
+        server.on('connection', (s) => {
+          links.add(s);
+          s.on('close', () => links.delete(s));
+        });
+        closers.push(() => {
+          for (const s of links) s.destroy();
+          return new Promise<void>((r) => server.close(() => r()));
+        });
       }
       if (o.pty) {
         const pair = await servePty(smu);

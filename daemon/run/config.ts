@@ -139,7 +139,7 @@ export const stationSchema = z
         code: 'custom',
         path: ['dialect'],
         message:
-          'name the dialect your instrument speaks: protection-trip or protection-status (config/dialects/, described in the README under "Dialects"), or the path of a .json dialect of your own',
+          'name the dialect your instrument speaks: protection-trip or protection-status (config/dialects/, described in the README under "Connecting a real instrument"), or the path of a .json dialect of your own',
       });
     }
   });

@@ -264,6 +264,26 @@ describe('abort during a slow ramp', () => {
   });
 });
 
+describe('an instrument that cannot be reached', () => {
+  it('run --json still prints one JSON object: the outcome, why, and no session (exit 6, nothing created)', async () => {
+    // A port nothing listens on: take a free one from the system, then close it.
+    const { createServer } = await import('node:net');
+    const probe = createServer();
+    const port: number = await new Promise((r) => probe.listen(0, '127.0.0.1', () => r((probe.address() as { port: number }).port)));
+    await new Promise((r) => probe.close(r));
+    const dir = tempDir();
+    const cfg = writeConfig(dir, { instrument: { kind: 'tcp', host: '127.0.0.1', port }, plan: { ...PLAN, repeat: 1 }, analysis: FN });
+    const r = await runCliAsync(['run', '--config', cfg, '--data', join(dir, 'data'), '--json']);
+    expect(r.code).toBe(6);
+    const lines = r.stdout.trim().split('\n');
+    expect(lines).toHaveLength(1);
+    const res = JSON.parse(lines[0]);
+    expect(res).toMatchObject({ outcome: 'instrument-fault', session: null });
+    expect(res.reason).toMatch(new RegExp(`cannot reach the instrument \\(TCP 127\\.0\\.0\\.1:${port}\\)`));
+    expect(() => statSync(join(dir, 'data'))).toThrow();
+  });
+});
+
 describe('an instrument that stops answering', () => {
   it('the run ends as an instrument fault; output off is sent but recorded as NOT confirmed, with a caution', async () => {
     const smu = simulator({ hangAfterReadings: 5 });

@@ -208,6 +208,13 @@ describe('simulated SMU over real transports', () => {
     expect(v).toBeCloseTo(8, 3);
     expect(i).toBeGreaterThan(0);
     expect(await ask(':SYST:ERR?')).toBe('0,"No error"');
+    // SIGTERM stops it while the controller is still connected, dropping the link as an unplugged
+    // instrument would (a listening server alone waits for its clients to hang up).
+    const closed = new Promise<void>((r) => sock.once('close', () => r()));
+    const exited = new Promise<number | null>((r) => child.once('exit', (c) => r(c)));
+    child.kill('SIGTERM');
+    expect(await Promise.race([exited, new Promise((r) => setTimeout(() => r('still running after 5 s'), 5000))])).toBe(0);
+    await closed;
   });
 });
 

@@ -109,6 +109,8 @@ export function registerRun(program: Command): void {
         h = await station.startRun({ plan, analysis, device });
       } catch (e) {
         if ((e as { status?: number }).status === 502) {
+          // Nothing was started: no session, and the output was never turned on.
+          if (o.json) process.stdout.write(`${JSON.stringify({ outcome: 'instrument-fault', reason: (e as Error).message, session: null, cautions })}\n`);
           process.stderr.write(`plumbline run: ${(e as Error).message}\n`);
           process.exit(EXIT_CODE['instrument-fault']);
         }
