@@ -164,6 +164,13 @@ describe('live page in headless Chromium', () => {
     expect(ranking).toEqual(ranked.map((e: any) => e.model));
     expect(ranked.reduce((a: number, e: any) => a + e.score, 0)).toBeCloseTo(1, 6);
     await snap(page, 'page-run-completed.png');
+    // An earlier sweep picked shows its own ranking, not the latest one.
+    const rankedSweeps = (detail.json.events as any[]).filter((e) => e.type === 'ranking').map((e) => e.sweep as number);
+    expect(rankedSweeps.length).toBeGreaterThan(1);
+    await page.evaluate((n) => (window as any).__plumbline.pickSweep(n), rankedSweeps[0]);
+    await page.waitForTimeout(300);
+    expect(await page.textContent('#ranking')).toMatch(new RegExp(`^Sweep ${rankedSweeps[0]}:`));
+    await page.evaluate(() => (window as any).__plumbline.pickSweep(null));
     expect(errors).toEqual([]);
     await page.close();
   });

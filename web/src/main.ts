@@ -196,7 +196,8 @@ function render(): void {
   renderLinearized(s, cur);
   if (changed('params', s, cur, s.finalFits.get(cur), s.liveFit, s.reanalysis, s.running, s.ended.get(cur), s.analysis)) renderParamsPanel(s, cur);
   renderSolarPanel(s, cur);
-  if (changed('ranking', s, s.ranking)) renderRanking($('ranking'), s.ranking);
+  const ranked = s.rankingFor(cur);
+  if (changed('ranking', s, ranked)) renderRanking($('ranking'), ranked);
   if (changed('drift', s, s.drift, s.cautions.length, s.finalFits.size)) renderDrift(s);
   renderPicker(s, cur);
   refillForms(s);

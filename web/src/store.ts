@@ -70,6 +70,8 @@ export class Store {
   ended = new Map<number, boolean>();
   drift: Ev<'drift'>[] = [];
   ranking: Ev<'ranking'> | null = null;
+  /** Each ranked sweep's ranking (the daemon ranks a finished sweep at most once a second), the last KEPT_SWEEPS. */
+  rankings = new Map<number, Ev<'ranking'>>();
   progress: Ev<'progress'> | null = null;
   outputOn = false;
   /** The last output event: after a run, the page says the output is off and whether the instrument confirmed it. */
@@ -113,6 +115,7 @@ export class Store {
     this.held = new Map();
     this.drift = [];
     this.ranking = null;
+    this.rankings = new Map();
     this.progress = null;
     this.outputOn = false;
     this.lastOutput = null;
@@ -182,6 +185,15 @@ export class Store {
     }
   }
 
+  /** The ranking to show with sweep `n`: its own, else the last one before it, else the latest. */
+  rankingFor(n: number): Ev<'ranking'> | null {
+    const own = this.rankings.get(n);
+    if (own) return own;
+    let best: Ev<'ranking'> | null = null;
+    for (const r of this.rankings.values()) if (r.sweep <= n && (!best || r.sweep > best.sweep)) best = r;
+    return best ?? this.ranking;
+  }
+
   /** The sweep's points, created (and the oldest dropped beyond KEPT_SWEEPS) when first seen. */
   sweepPoints(n: number): SweepPoints {
     let s = this.sweeps.get(n);
@@ -246,6 +258,8 @@ export class Store {
         break;
       case 'ranking':
         this.ranking = e;
+        this.rankings.set(e.sweep, e);
+        if (this.rankings.size > KEPT_SWEEPS) this.rankings.delete(this.rankings.keys().next().value as number);
         break;
       case 'progress':
         this.progress = e;
