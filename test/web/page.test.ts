@@ -359,10 +359,10 @@ describe('live page in headless Chromium', () => {
       .filter((d: any) => d.parameter === 'relativePermittivity')
       .map((d: any) => d.sweep)
       .sort((a: number, b: number) => a - b)[0];
-    expect(drawn.breaks.at(-1)).toMatchObject({ sweep: first, reason: 'now relativePermittivity' });
+    expect(drawn.breaks.at(-1)).toMatchObject({ sweep: first, reason: 'now relative permittivity ε_r' });
     // Only the new baseline's parameter is plotted (a permittivity is never charted against a barrier).
     expect(drawn.sweeps.every((s: number) => s >= first)).toBe(true);
-    expect(drawn.y).toBe('relativePermittivity');
+    expect(drawn.y).toBe('relative permittivity ε_r');
     expect(await page.textContent('#drift-state')).toMatch(/baseline restarted at sweep/);
     await snap(page, 'page-drift-new-baseline.png');
     // The run may end between the check and the click (the button then disables itself): only a
@@ -399,7 +399,7 @@ describe('drift on the page', () => {
       return { n: d.plot.data[0].length, y: d.plot.axes[1].label };
     });
     expect(chart.n).toBe(Object.keys(st.sweeps).length);
-    expect(chart.y).toBe('barrierHeight (eV)');
+    expect(chart.y).toBe('barrier height φ_B (eV)');
     await page.waitForTimeout(200);
     await snap(page, 'page-drift.png');
     await page.close();

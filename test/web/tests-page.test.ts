@@ -54,6 +54,8 @@ describe('breakdown tests and adaptive sweeps on the page', () => {
     expect(fn).toContain('barrierHeight');
     expect(await choices()).toEqual(fn);
     expect(await page.inputValue(target)).toBe('barrierHeight');
+    // Shown in the trade's words, with the key a plan file takes.
+    expect(await page.$eval(`${target} option[value="barrierHeight"]`, (o) => o.textContent)).toBe('barrier height φ_B (barrierHeight)');
     await page.selectOption('#model-select', 'poole-frenkel');
     await page.click('#analysis-apply');
     await page.waitForFunction(

@@ -5,7 +5,7 @@
  * sequential ramp, categories in Okabe–Ito; every colour cue is doubled by a marker shape or dash.
  */
 import uPlot from 'uplot';
-import { displayUnit } from '../../protocols/display-units.js';
+import { displayUnit, parameterLabel } from '../../protocols/display-units.js';
 import { OKABE_ITO, sweepColour } from '../../protocols/palette.js';
 import type { PlotViewData, SolarSummary, WireEvent } from '../../protocols/wire.js';
 import { axisText, displayView, linearRange, linearSplits, linearValues, logRange, logSplits, logValues, type DisplayView } from './axes.js';
@@ -571,7 +571,12 @@ export function driftSegments(drift: readonly Drift[], restarts: readonly number
       out.push({ points: cur, breaks: [] });
       breaks.push({
         sweep: p.sweep,
-        reason: p.parameter !== prev.parameter ? `now ${p.parameter}` : p.method !== prev.method ? `now ${p.method.toUpperCase()}` : 'analysis changed',
+        reason:
+          p.parameter !== prev.parameter
+            ? `now ${parameterLabel(p.parameter)}`
+            : p.method !== prev.method
+              ? `now ${p.method.toUpperCase()}`
+              : 'analysis changed',
       });
       cur = [];
     }
@@ -640,7 +645,7 @@ export class DriftChart {
     this.xRange = [x0, x1];
     const data = [xs, ...cols];
     const key = `${ref.parameter}:${ref.method}:${du.unit}`;
-    const yLabel = axisText(cusum ? `CUSUM of ${ref.parameter}` : ref.parameter, du.unit);
+    const yLabel = axisText(cusum ? `CUSUM of ${parameterLabel(ref.parameter)}` : parameterLabel(ref.parameter), du.unit);
     if (!this.plot || key !== this.key) {
       this.plot?.destroy();
       this.el.textContent = '';

@@ -12,7 +12,7 @@
 import type { FitSummary, PlotViewData, ServerMessage, SolarSummary, WireEvent } from '../../protocols/wire.js';
 import { formatNumber } from '../../protocols/number-format.js';
 import { DriftChart, LinearizedChart, RawChart, SolarChart } from './charts.js';
-import { displayUnit, formatInputs } from '../../protocols/display-units.js';
+import { displayUnit, formatInputs, parameterLabel } from '../../protocols/display-units.js';
 import { buildInputFields, fillAnalysis, markInputs, readAnalysis, type StationStatus } from './forms.js';
 import { describeAnalysis, driftNotWatched, renderCautions, renderFitNotes, renderParams, renderRanking, renderSolar } from './panels.js';
 import { buildPlanFields, fillKind, fillPlan, isDestructive, readPlan, setChoices, setTargetUnit, showKind } from './plan-form.js';
@@ -398,7 +398,7 @@ function baselineRestarts(s: Store): number[] {
 function renderDrift(s: Store): void {
   drift.update(s.drift, unitOf(s), baselineRestarts(s));
   const d = [...s.drift].sort((a, b) => a.sweep - b.sweep).at(-1);
-  $('drift-title').textContent = d ? `Drift of ${d.parameter} (${d.method.toUpperCase()})` : 'Drift';
+  $('drift-title').textContent = d ? `Drift of ${parameterLabel(d.parameter)} (${d.method.toUpperCase()})` : 'Drift';
   const br = drift.breaks.at(-1);
   // The drift watch has nothing to follow: the daemon's words (which setting to change) take the place of the state.
   const unwatched = driftNotWatched(s);

@@ -8,6 +8,7 @@
  * something is missing or out of range. The daemon checks every plan again: this is for the person
  * at the bench, so a typo is caught before anything is sent.
  */
+import { parameterLabel } from '../../protocols/display-units.js';
 import { formatNumber } from '../../protocols/number-format.js';
 import type { StationStatus } from './forms.js';
 
@@ -377,7 +378,9 @@ export function setChoices(f: HTMLFormElement, name: string, names: readonly str
   for (const n of names) {
     const o = document.createElement('option');
     o.value = n;
-    o.textContent = n;
+    // The trade's name, with the key the plan file takes.
+    const label = parameterLabel(n);
+    o.textContent = label === n ? n : `${label} (${n})`;
     select.append(o);
   }
   if (names.length === 0) {
