@@ -52,13 +52,21 @@ export function attachInstrument(smu: SimulatedSmu, stream: Duplex, framing: Lin
         process.stderr.write(`simulated instrument: ${(e as Error).message}\n`);
       });
   });
+  // A controller that sends its last command and then closes its side (`printf … | socat - TCP:…`)
+  // still gets every reply: the link is closed once the queued commands are answered.
+  framer.on('end', () => {
+    chain = chain.then(() => {
+      if (!stream.destroyed) stream.end();
+    });
+  });
   stream.on('error', () => stream.destroy());
 }
 
 /** Listens on host:port (0 = any free port); resolves with the server once bound. */
 export function serveTcp(smu: SimulatedSmu, port: number, host = '127.0.0.1', framing: LinkFraming = {}): Promise<Server> {
   return new Promise((resolve, reject) => {
-    const server = createServer((socket: Socket) => {
+    // Half-open: a client's end of sending is not the end of its replies.
+    const server = createServer({ allowHalfOpen: true }, (socket: Socket) => {
       socket.setNoDelay(true);
       attachInstrument(smu, socket, framing);
     });

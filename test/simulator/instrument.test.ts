@@ -208,6 +208,15 @@ describe('simulated SMU over real transports', () => {
     expect(v).toBeCloseTo(8, 3);
     expect(i).toBeGreaterThan(0);
     expect(await ask(':SYST:ERR?')).toBe('0,"No error"');
+    // A controller that sends its queries and closes its side at once (the README's
+    // `printf … | socat - TCP:…`) still gets its reply before the link closes.
+    const oneShot = connect({ host: '127.0.0.1', port });
+    let got = '';
+    oneShot.on('data', (d) => (got += String(d)));
+    const ended = new Promise<void>((r) => oneShot.once('close', () => r()));
+    oneShot.end(':SOUR:VOLT 8\n:READ?\n');
+    await ended;
+    expect(Number(got.trim().split(',')[0])).toBeCloseTo(8, 3);
     // SIGTERM stops it while the controller is still connected, dropping the link as an unplugged
     // instrument would (a listening server alone waits for its clients to hang up).
     const closed = new Promise<void>((r) => sock.once('close', () => r()));
