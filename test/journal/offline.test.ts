@@ -202,3 +202,34 @@ describe('report', () => {
     }
   });
 });
+
+describe('annotate while a run writes the session', () => {
+  it('is refused (exit 2) with advice that fits the process writing it, and nothing is written', async () => {
+    const { spawn } = await import('node:child_process');
+    const { readdirSync } = await import('node:fs');
+    const { CLI } = await import('../helpers/cli.js');
+    const data = tempDir();
+    const p = spawn(process.execPath, [CLI, 'run', '--scenario', 'oxide-fn', '--sweeps', '100000', '--data', data], { stdio: ['ignore', 'pipe', 'pipe'] });
+    try {
+      await new Promise<void>((resolve, reject) => {
+        let out = '';
+        p.stdout.on('data', (d) => {
+          out += String(d);
+          if (out.includes('session ')) setTimeout(resolve, 500);
+        });
+        setTimeout(() => reject(new Error(`run did not start: ${out}`)), 20_000);
+      });
+      const dir = join(data, readdirSync(data)[0]);
+      const before = readFileSync(join(dir, 'journal.jsonl'), 'utf8').length;
+      const a = runCli(['annotate', dir, '--text', 'probe re-landed']);
+      expect(a.code).toBe(2);
+      expect(a.stderr).toMatch(
+        /being written by a running plumbline process \(pid \d+\); if it is `plumbline serve`, add the note through its page .* if it is `plumbline run` or `watch` without a page, annotate once it has ended/,
+      );
+      expect(readFileSync(join(dir, 'journal.jsonl'), 'utf8').slice(0, before)).not.toMatch(/probe re-landed/);
+    } finally {
+      p.kill('SIGINT');
+      await new Promise((r) => p.once('exit', r));
+    }
+  }, 40_000);
+});

@@ -23,7 +23,9 @@ export function registerAnnotate(program: Command): void {
     const { liveLockHolder, annotateFolder } = await daemonModules();
     const holder = liveLockHolder(resolve(dir));
     if (holder !== undefined)
-      throw new UsageError(`${dir} is being written by the running daemon (pid ${holder}); annotate through its API: POST /api/annotations`);
+      throw new UsageError(
+        `${dir} is being written by a running plumbline process (pid ${holder}); if it is \`plumbline serve\`, add the note through its page (Note) or its API (POST /api/annotations); if it is \`plumbline run\` or \`watch\` without a page, annotate once it has ended`,
+      );
     let sweep: number | undefined;
     if (o.sweep !== undefined) {
       sweep = Number(o.sweep);
