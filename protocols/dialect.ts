@@ -8,9 +8,10 @@
  * common commands), but where an SMU keeps its compliance limit, how it reports reaching it and
  * what one reading holds differ between instrument families; each dialect file states its own.
  */
-import { readFileSync } from 'node:fs';
+import { readdirSync, readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { z } from 'zod';
+import { didYouMean } from '../daemon/analysis/did-you-mean.js';
 import { projectRoot } from './project-root.js';
 import { formatScpiNumber } from './scpi-numbers.js';
 
@@ -148,6 +149,18 @@ export class DialectError extends Error {
   readonly code = 'BAD_CONFIG';
 }
 
+/** The names of the dialects shipped in config/dialects/. */
+export function shippedDialects(): string[] {
+  try {
+    return readdirSync(DIALECT_DIR)
+      .filter((f) => f.endsWith('.json'))
+      .map((f) => f.slice(0, -5))
+      .sort();
+  } catch {
+    return [];
+  }
+}
+
 /** The dialects shipped in config/dialects/. */
 export function dialectFile(nameOrFile: string): string {
   return nameOrFile.endsWith('.json') ? nameOrFile : join(DIALECT_DIR, `${nameOrFile}.json`);
@@ -163,7 +176,9 @@ export function loadDialect(nameOrFile: string): Dialect {
     const err = e as NodeJS.ErrnoException;
     throw new DialectError(
       err.code === 'ENOENT'
-        ? `dialect '${nameOrFile}': no file ${file} (the shipped dialects are in ${DIALECT_DIR}; a dialect of your own is given by its .json path; see the README, "Connecting a real instrument")`
+        ? nameOrFile.endsWith('.json')
+          ? `dialect '${nameOrFile}': no file ${file} (a dialect of your own is given by its .json path; see the README, "Connecting a real instrument")`
+          : `dialect '${nameOrFile}': not a shipped dialect${didYouMean(nameOrFile, shippedDialects())} (shipped: ${shippedDialects().join(', ')}, in ${DIALECT_DIR}; a dialect of your own is given by its .json path; see the README, "Connecting a real instrument")`
         : `dialect ${file}: cannot read: ${err.message}`,
     );
   }

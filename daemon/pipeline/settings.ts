@@ -129,6 +129,10 @@ export function zodMessage(error: z.ZodError, where: string, raw?: unknown, sche
     if (v === undefined) return `${where}: field '${field}': missing (${i.expected === 'number' ? 'a number, in SI units' : `expected ${i.expected}`})`;
     if (typeof v === 'string' && i.expected === 'number') {
       // An adaptive target's error is in its parameter's unit, not a current's.
+      const last = String(i.path.at(-1) ?? '');
+      // Counts and link settings are plain numbers, not quantities in SI.
+      if (/^(baudRate|dataBits|stopBits|port|timeoutMs|commandDelayMs|points|repeat|maxPoints|seed|stepsPerDecade)$/.test(last))
+        return `${where}: field '${field}': '${v}' is text; write it as a JSON number${last === 'baudRate' ? ', e.g. 9600 or 115200 (the rate set on the instrument)' : ''}`;
       const example =
         field === 'target.stdErr' ? "in the parameter's SI unit, e.g. 0.0005 for 0.5 meV (eV for energies, m for lengths)" : 'e.g. 0.001 for 1 mA';
       return `${where}: field '${field}': '${v}' is text; plans and configs are JSON with numbers in SI units (V, A, s, m, m², K, eV): write the number, ${example}`;

@@ -8,6 +8,7 @@ import { readFileSync } from 'node:fs';
 import { Ajv2020 } from 'ajv/dist/2020.js';
 import { describe, expect, it } from 'vitest';
 import { parseConfig, DEFAULT_CONFIG_FILE } from '../../daemon/run/config.js';
+import { loadDialect } from '../../protocols/dialect.js';
 import { STATION_SCHEMA_FILE, stationJsonSchema } from '../../daemon/run/config-schema.js';
 
 const committed = JSON.parse(readFileSync(STATION_SCHEMA_FILE, 'utf8'));
@@ -51,5 +52,19 @@ describe('station config JSON Schema', () => {
       expect(validate(cfg), JSON.stringify(validate.errors)).toBe(true);
       expect(() => parseConfig(cfg, 'test')).not.toThrow();
     }
+  });
+});
+
+describe('config messages a person acts on', () => {
+  const base = { dialect: 'protection-trip', instrument: { kind: 'tcp', host: 'smu.lab' }, limits: { maxVoltage: 20, maxCompliance: 0.01, maxPower: 0.1 } };
+  it('a baud rate written as text is told to be a number, not a quantity in SI', () => {
+    const cfg = { ...base, instrument: { kind: 'serial', path: '/dev/ttyUSB0', baudRate: 'fast' } };
+    expect(() => parseConfig(cfg, 'station.json')).toThrow(/field 'instrument\.baudRate': 'fast' is text; write it as a JSON number, e\.g\. 9600 or 115200/);
+    expect(() => parseConfig(cfg, 'station.json')).not.toThrow(/1 mA/);
+  });
+  it('a misspelt dialect gets the shipped names and the closest one', () => {
+    expect(() => loadDialect('protection-trp')).toThrow(
+      /dialect 'protection-trp': not a shipped dialect \(did you mean 'protection-trip'\?\) \(shipped: protection-status, protection-trip/,
+    );
   });
 });
