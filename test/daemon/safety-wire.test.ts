@@ -379,7 +379,7 @@ describe('errors keep their real reason', () => {
     const cfg = writeConfig(dir, { instrument: await tcpInstrument(smu), dialect: 'no-such-family', plan: { ...PLAN, repeat: 1 } });
     const r = await runCliAsync(['run', '--config', cfg, '--data', join(dir, 'data')]);
     expect(r.code).toBe(2);
-    expect(r.stderr).toMatch(/dialect 'no-such-family': no file .*no-such-family\.json/);
+    expect(r.stderr).toMatch(/dialect 'no-such-family': not a shipped dialect \(shipped: protection-status, protection-trip, in .*config\/dialects/);
     expect(r.stderr).not.toMatch(/cable/);
     expect(smu.log).toEqual([]);
   });
