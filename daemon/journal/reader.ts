@@ -24,6 +24,8 @@ export interface ScanResult {
   readonly readings: number;
   readonly lastSeq: number;
   readonly lastT: number;
+  /** The session event's start (ISO 8601), when the journal holds one. */
+  readonly startedAt: string | null;
 }
 
 function parseLine(text: string): WireEvent | string {
@@ -92,6 +94,7 @@ export function scanJournal(dir: string, onEvent: (e: WireEvent, line: number) =
   const bad: BadLine[] = [];
   let lastSeq = 0;
   let lastT = 0;
+  let startedAt: string | null = null;
   let lastByte = -1;
   const take = (text: string) => {
     lineNo++;
@@ -125,6 +128,7 @@ export function scanJournal(dir: string, onEvent: (e: WireEvent, line: number) =
   const emit = (x: { e: WireEvent; line: number }) => {
     if (typeof x.e.seq === 'number' && x.e.seq > lastSeq) lastSeq = x.e.seq;
     if (typeof x.e.t === 'number' && x.e.t > lastT) lastT = x.e.t;
+    if (x.e.type === 'session' && typeof x.e.startedAt === 'string') startedAt = x.e.startedAt;
     onEvent(x.e, x.line);
   };
   const r =
@@ -135,7 +139,7 @@ export function scanJournal(dir: string, onEvent: (e: WireEvent, line: number) =
           emit({ e: reading, line: 0 });
         });
   while (next < events.length) emit(events[next++]);
-  return { lines: lineNo, bad, tornTail, tornReadingBytes: r.tornBytes, readings: r.count, lastSeq, lastT };
+  return { lines: lineNo, bad, tornTail, tornReadingBytes: r.tornBytes, readings: r.count, lastSeq, lastT, startedAt };
 }
 
 /** Cuts an incomplete last record off readings.f64 (recovery only; everything whole is kept). */
@@ -236,7 +240,7 @@ export function recoverSession(dir: string): RecoveryReport {
     closeSync(fd);
   }
   if (scan.tornReadingBytes > 0) truncateTornReadings(dir, scan.tornReadingBytes);
-  const w = JournalWriter.append(dir, scan.lastSeq, scan.lastT);
+  const w = JournalWriter.append(dir, scan.lastSeq, scan.lastT, scan.startedAt);
   const closedSweep: number | null = openSweep;
   // Every planned point journaled: the sweep is whole, whatever stopped the daemon after it.
   const whole = closedSweep !== null && planned > 0 && pointsInOpen >= planned;
