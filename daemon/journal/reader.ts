@@ -6,6 +6,8 @@
 import { closeSync, existsSync, ftruncateSync, openSync, readdirSync, readSync, rmSync, statSync, writeSync } from 'node:fs';
 import { join } from 'node:path';
 import type { ReadingEvent, WireEvent } from '../../protocols/wire.js';
+import { analysisSchema, type AnalysisSettings } from '../pipeline/settings.js';
+import { finalFit, NullReadings } from '../pipeline/sweep-fit.js';
 import { JOURNAL_FILE, JournalWriter, LOCK_FILE, liveLockHolder, READINGS_FILE, RECORD_BYTES, RECORD_FIELDS, requireSessionFolder } from './journal.js';
 
 export interface BadLine {
@@ -190,8 +192,10 @@ export const OUTPUT_MAY_BE_ON =
 
 /**
  * Closes a session a dead process left open: terminates a torn last line (so the next append starts
- * on a fresh line; the torn text stays in the file and readers skip it), marks an unfinished sweep
- * incomplete and ends the run as 'interrupted'. A session a live process still writes is left alone;
+ * on a fresh line; the torn text stays in the file and readers skip it), ends an unfinished sweep
+ * (incomplete, with the reason) and journals its final fit from the readings on disk — the fit the
+ * run would have made at that sweep's end (`pipeline/sweep-fit.ts`, with the settings then in force)
+ * — and ends the run as 'interrupted'. A session a live process still writes is left alone;
  * a finished session is reported unchanged.
  */
 export function recoverSession(dir: string): RecoveryReport {
@@ -207,18 +211,42 @@ export function recoverSession(dir: string): RecoveryReport {
   let maxSweep = 0;
   let control = false;
   let outputOn = false;
+  // What the run's final fit of the open sweep would have used: the settings in force, the run's
+  // compliance limit, its null readings so far, and the sweep's readings.
+  type InForce = { ok: true; analysis: AnalysisSettings } | { ok: false; problem: string };
+  let settings = { ok: false, problem: 'the journal holds no analysis settings' } as InForce;
+  let complianceLimit: number | undefined;
+  const nulls = new NullReadings();
+  let open = { v: [] as number[], i: [] as number[], flags: [] as number[] };
+  const takeSettings = (raw: unknown, where: string) => {
+    const r = analysisSchema.safeParse(raw);
+    settings = r.success
+      ? { ok: true, analysis: r.data }
+      : { ok: false, problem: `the analysis settings of the ${where} cannot be read (${r.error.issues[0]?.message ?? 'invalid'})` };
+  };
   const scan = scanJournal(dir, (e) => {
-    if (e.type === 'session') control = e.source.control;
+    if (e.type === 'session') {
+      control = e.source.control;
+      complianceLimit = (e.plan as { compliance?: number } | null)?.compliance;
+      takeSettings(e.analysis, 'session event');
+    } else if (e.type === 'settings') takeSettings(e.analysis, `settings event ${e.seq}`);
     else if (e.type === 'output') outputOn = e.on;
     else if (e.type === 'sweep-start') {
       openSweep = e.sweep;
       planned = e.planned;
       pointsInOpen = 0;
+      open = { v: [], i: [], flags: [] };
     } else if (e.type === 'sweep-end') openSweep = null;
     else if (e.type === 'reading') {
       readings++;
       maxSweep = Math.max(maxSweep, e.sweep);
-      if (openSweep !== null && e.sweep === openSweep) pointsInOpen++;
+      if (openSweep !== null && e.sweep === openSweep) {
+        pointsInOpen++;
+        open.v.push(e.v);
+        open.i.push(e.i);
+        open.flags.push(e.flags);
+      }
+      nulls.note(e.v, e.i, e.flags, settings.ok ? (settings.analysis.inputs.flatBand ?? 0) : 0);
     } else if (e.type === 'run-end') ended = true;
   });
   const tornLines = scan.bad.length;
@@ -273,6 +301,13 @@ export function recoverSession(dir: string): RecoveryReport {
           }
         : { type: 'sweep-end', sweep: closedSweep, points: pointsInOpen, complete: false, note: 'the daemon stopped mid-sweep (recovered on the next start)' },
     );
+    // The final fit the run would have journaled at this sweep's end, from the readings on disk.
+    const s = settings;
+    if (s.ok) {
+      const knownFloor = nulls.trusted();
+      const { fit, error, solar } = finalFit(open.v, open.i, open.flags, { analysis: s.analysis, complianceLimit, ...(knownFloor ? { knownFloor } : {}) });
+      w.event({ type: 'fit', sweep: closedSweep, final: true, fit, ...(error ? { error } : {}), ...(solar ? { solar } : {}) });
+    } else w.event({ type: 'fit', sweep: closedSweep, final: true, fit: null, error: `not fitted on recovery: ${s.problem}` });
   }
   if (!ended)
     w.event({

@@ -79,11 +79,12 @@ describe('journal', () => {
     const scan = scanJournal(dir, (e) => after.push(e));
     expect(scan.bad).toHaveLength(1);
     expect(scan.bad[0].problem).toMatch(/torn/);
-    const tail = after.slice(-3).map((e) => e.type);
-    expect(tail).toEqual(['recovery', 'sweep-end', 'run-end']);
+    const tail = after.slice(-4).map((e) => e.type);
+    // The cut sweep's final fit follows its end, as the run journals it.
+    expect(tail).toEqual(['recovery', 'sweep-end', 'fit', 'run-end']);
     const end = after.at(-1);
     expect(end?.type === 'run-end' && end.outcome).toBe('interrupted');
-    const sweepEnd = after.at(-2);
+    const sweepEnd = after.at(-3);
     expect(sweepEnd?.type === 'sweep-end' && sweepEnd.complete).toBe(false);
     expect(sweepEnd?.type === 'sweep-end' && sweepEnd.points).toBe(20);
     // Recovering again changes nothing.
