@@ -33,6 +33,7 @@ export function summarizeFit(r: FitReport): FitSummary {
     parameters: r.parameters,
     plausible: r.plausible,
     warnings: r.warnings,
+    failed: r.failed,
     points: r.points,
     regimes: r.regimes,
     noise: { floor: r.noise.floor, floorSource: r.noise.floorSource, relative: r.noise.relative },
