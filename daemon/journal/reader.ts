@@ -186,6 +186,17 @@ export interface RecoveryReport {
   readonly message: string;
 }
 
+/**
+ * What to say of a session whose journal has no run end: a live process still writes it, or its run
+ * was cut short (a crash, a kill, a power loss) and nothing has closed it yet.
+ */
+export function noRunEndNote(dir: string): string {
+  const pid = liveLockHolder(dir);
+  return pid !== undefined
+    ? `the session has no run end yet: it is still being written (process ${pid} holds it); what is shown is what was on disk at this moment`
+    : `the session has no run end: its run was cut short (a crash, a kill or a power loss) and nothing closed it; \`plumbline recover ${dir}\` closes it (its open sweep gets its end and final fit)`;
+}
+
 /** What to do when a daemon died with the output on (an instrument keeps its output state; common practice). */
 export const OUTPUT_MAY_BE_ON =
   'nothing turned it off when the daemon stopped, and a source-measure unit keeps its output state on its own. Check the instrument (its front panel) and turn the output off there before touching the probes or the fixture.';

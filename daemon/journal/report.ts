@@ -24,6 +24,7 @@ import { axisLabel, displayUnit, formatInputs, formatParameter, formatParameterT
 import { formatNumber } from '../../protocols/number-format.js';
 import { OKABE_ITO, sweepColour } from '../../protocols/palette.js';
 import type { FitSummary, SolarSummary, WireEvent } from '../../protocols/wire.js';
+import { noRunEndNote } from './reader.js';
 import { loadSession, type SessionData, type SweepData } from './sessions.js';
 import { svgChart, type SvgSeries } from './svg.js';
 
@@ -367,7 +368,11 @@ table.kv th{font-weight:600;color:#444;width:16rem}.settings{display:grid;grid-t
   out.push(
     `<p>Started ${esc(se?.startedAt ?? 'unknown')}; source: ${esc(se?.source.detail ?? 'unknown')}${se?.source.control === false ? ' (watched; plumbline did not control the instrument)' : ''}; instrument: ${esc(se?.instrument ?? 'unknown')}.<br>`,
   );
-  out.push(`Ended: <b>${esc(s.runEnd?.outcome ?? 'not ended')}</b>${s.runEnd ? ` — ${esc(s.runEnd.reason)}` : ''}. ${n} sweep(s).</p>`);
+  out.push(
+    s.runEnd
+      ? `Ended: <b>${esc(s.runEnd.outcome)}</b> — ${esc(s.runEnd.reason)}. ${n} sweep(s).</p>`
+      : `Ended: <b>no run end yet</b>. ${n} sweep(s).</p><p class="caution">${esc(upperFirst(noRunEndNote(s.dir)))}.</p>`,
+  );
   out.push(
     '<p class="caution">Cautions and decisions below record what the software saw. They do not replace your lab\'s safety rules, the instrument\'s manual or licensed practice.</p>',
   );
@@ -659,9 +664,15 @@ table.kv th{font-weight:600;color:#444;width:16rem}.settings{display:grid;grid-t
   return out.join('\n');
 }
 
-export function writeReport(dir: string, out?: string): { file: string; sweeps: number } {
+/**
+ * Writes the report. `unfinished` is set when the journal has no run end (still being written, or
+ * cut by a crash): the report's header says so, and so should whoever called.
+ */
+export function writeReport(dir: string, out?: string): { file: string; sweeps: number; unfinished: string | null } {
   const s = loadSession(dir);
   const file = out ?? join(s.dir, 'report.html');
   writeFileSync(file, renderReport(s, readReanalyses(s.dir)));
-  return { file, sweeps: s.sweeps.length };
+  return { file, sweeps: s.sweeps.length, unfinished: s.runEnd ? null : noRunEndNote(s.dir) };
 }
+
+const upperFirst = (t: string) => t.charAt(0).toUpperCase() + t.slice(1);
