@@ -63,6 +63,11 @@ export interface FitSummary {
   readonly parameters: Record<string, ParameterFigure>;
   readonly plausible: boolean;
   readonly warnings: readonly string[];
+  /**
+   * The warnings of the checks that made the fit implausible, the deciding one first (empty when
+   * plausible; absent in journals written before it was recorded).
+   */
+  readonly failed?: readonly string[];
   readonly points: { used: number; excluded: number; reasons: Record<string, number> };
   readonly regimes: readonly { from: number; to: number; slope: number; intercept: number; n: number }[];
   /**

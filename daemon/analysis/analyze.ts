@@ -127,6 +127,8 @@ export interface FitReport {
   readonly warnings: string[];
   readonly notes: string[];
   readonly plausible: boolean;
+  /** The warnings of the checks that made the fit implausible, the deciding one first (empty when plausible). */
+  readonly failed: string[];
   readonly inputs: Record<string, { value: number; assumed: boolean }>;
   readonly regimes: Regime[];
   readonly noise: NoiseReport;
@@ -638,6 +640,7 @@ function analyzeOnePass(data: IVData, request: FitRequest): DetailedFit {
     warnings,
     notes,
     plausible: primary.plausible && odd.length === 0,
+    failed: [...odd, ...primary.failed],
     inputs: reportedInputs,
     regimes: request.regimes === false ? [] : findRegimes(primary.all),
     noise: {

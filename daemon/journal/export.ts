@@ -6,7 +6,7 @@ import { closeSync, copyFileSync, existsSync, mkdirSync, openSync, writeFileSync
 import { basename, join, resolve } from 'node:path';
 import { FLAG, type FitSummary, type WireEvent } from '../../protocols/wire.js';
 import { DEVICE_RESULTS_FILE, mergeIdentity, type DeviceIdentity } from '../../protocols/device-results.js';
-import { scanJournal, type BadLine } from './reader.js';
+import { noRunEndNote, scanJournal, type BadLine } from './reader.js';
 import { requireSessionFolder } from './journal.js';
 
 export const POINTS_HEADER = ['session', 'sweep', 'point', 'seq', 't_ms', 'voltage_V', 'current_A', 'compliance', 'overflow', 'voltage_overflow', 'breakdown'];
@@ -86,6 +86,8 @@ export interface ExportResult {
   readonly readings: number;
   readonly sweeps: number;
   readonly badLines: BadLine[];
+  /** Set when the journal has no run end (still being written, or cut by a crash): what to say about it. */
+  readonly unfinished: string | null;
 }
 
 export function exportSession(sessionDir: string, outDir = join(sessionDir, 'export')): ExportResult {
@@ -118,6 +120,7 @@ export function exportSession(sessionDir: string, outDir = join(sessionDir, 'exp
   // The device identity as it stands: the session's, with later corrections (annotations) applied.
   let device: DeviceIdentity = {};
   const qs = csvField(session);
+  let ended = false;
   let scan: ReturnType<typeof scanJournal>;
   try {
     scan = scanJournal(dir, (e) => {
@@ -167,7 +170,10 @@ export function exportSession(sessionDir: string, outDir = join(sessionDir, 'exp
         case 'decision':
         case 'output':
         case 'recovery':
+          timeline.push(e);
+          break;
         case 'run-end':
+          ended = true;
           timeline.push(e);
           break;
         default:
@@ -322,6 +328,8 @@ export function exportSession(sessionDir: string, outDir = join(sessionDir, 'exp
   meta.tornTail = scan.tornTail;
   meta.tornReadingBytes = scan.tornReadingBytes;
   meta.device = device;
+  const unfinished = ended ? null : noRunEndNote(dir);
+  meta.unfinished = unfinished;
   writeFileSync(join(outDir, 'session.json'), `${JSON.stringify(meta, null, 2)}\n`);
   const files = ['points.csv', 'sweeps.csv', 'session.json'];
   // Breakdown tests' per-device results travel with the export unchanged (already plain CSV).
@@ -329,5 +337,5 @@ export function exportSession(sessionDir: string, outDir = join(sessionDir, 'exp
     copyFileSync(join(dir, DEVICE_RESULTS_FILE), join(outDir, DEVICE_RESULTS_FILE));
     files.push(DEVICE_RESULTS_FILE);
   }
-  return { outDir, files: files.map((f) => join(outDir, f)), readings, sweeps: rows.length, badLines: scan.bad };
+  return { outDir, files: files.map((f) => join(outDir, f)), readings, sweeps: rows.length, badLines: scan.bad, unfinished };
 }

@@ -129,11 +129,16 @@ export class JournalWriter {
 
   /**
    * Opens an existing session folder to append (annotations after the run, recovery notes).
-   * Sequence numbers continue from `lastSeq`; t continues from the session's last time.
+   * Sequence numbers continue from `lastSeq`. t is the time since the session started (its session
+   * event's `startedAt`, wall clock) at the moment of writing, never earlier than the journal's last
+   * time `lastT` (a clock set back, or a session without a readable start, continues from there).
    */
-  static append(dir: string, lastSeq: number, lastT: number): JournalWriter {
+  static append(dir: string, lastSeq: number, lastT: number, startedAt?: string | null): JournalWriter {
     requireSessionFolder(dir);
-    return new JournalWriter(dir, lastSeq, performance.now() - lastT, false);
+    const start = startedAt ? Date.parse(startedAt) : Number.NaN;
+    const since = Number.isFinite(start) ? Date.now() - start : Number.NaN;
+    const t = Number.isFinite(since) && since > lastT ? since : lastT;
+    return new JournalWriter(dir, lastSeq, performance.now() - t, false);
   }
 
   get lastSeq(): number {

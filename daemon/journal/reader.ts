@@ -6,6 +6,8 @@
 import { closeSync, existsSync, ftruncateSync, openSync, readdirSync, readSync, rmSync, statSync, writeSync } from 'node:fs';
 import { join } from 'node:path';
 import type { ReadingEvent, WireEvent } from '../../protocols/wire.js';
+import { analysisSchema, type AnalysisSettings } from '../pipeline/settings.js';
+import { finalFit, NullReadings } from '../pipeline/sweep-fit.js';
 import { JOURNAL_FILE, JournalWriter, LOCK_FILE, liveLockHolder, READINGS_FILE, RECORD_BYTES, RECORD_FIELDS, requireSessionFolder } from './journal.js';
 
 export interface BadLine {
@@ -24,6 +26,8 @@ export interface ScanResult {
   readonly readings: number;
   readonly lastSeq: number;
   readonly lastT: number;
+  /** The session event's start (ISO 8601), when the journal holds one. */
+  readonly startedAt: string | null;
 }
 
 function parseLine(text: string): WireEvent | string {
@@ -92,6 +96,7 @@ export function scanJournal(dir: string, onEvent: (e: WireEvent, line: number) =
   const bad: BadLine[] = [];
   let lastSeq = 0;
   let lastT = 0;
+  let startedAt: string | null = null;
   let lastByte = -1;
   const take = (text: string) => {
     lineNo++;
@@ -125,6 +130,7 @@ export function scanJournal(dir: string, onEvent: (e: WireEvent, line: number) =
   const emit = (x: { e: WireEvent; line: number }) => {
     if (typeof x.e.seq === 'number' && x.e.seq > lastSeq) lastSeq = x.e.seq;
     if (typeof x.e.t === 'number' && x.e.t > lastT) lastT = x.e.t;
+    if (x.e.type === 'session' && typeof x.e.startedAt === 'string') startedAt = x.e.startedAt;
     onEvent(x.e, x.line);
   };
   const r =
@@ -135,7 +141,7 @@ export function scanJournal(dir: string, onEvent: (e: WireEvent, line: number) =
           emit({ e: reading, line: 0 });
         });
   while (next < events.length) emit(events[next++]);
-  return { lines: lineNo, bad, tornTail, tornReadingBytes: r.tornBytes, readings: r.count, lastSeq, lastT };
+  return { lines: lineNo, bad, tornTail, tornReadingBytes: r.tornBytes, readings: r.count, lastSeq, lastT, startedAt };
 }
 
 /** Cuts an incomplete last record off readings.f64 (recovery only; everything whole is kept). */
@@ -180,14 +186,27 @@ export interface RecoveryReport {
   readonly message: string;
 }
 
+/**
+ * What to say of a session whose journal has no run end: a live process still writes it, or its run
+ * was cut short (a crash, a kill, a power loss) and nothing has closed it yet.
+ */
+export function noRunEndNote(dir: string): string {
+  const pid = liveLockHolder(dir);
+  return pid !== undefined
+    ? `the session has no run end yet: it is still being written (process ${pid} holds it); what is shown is what was on disk at this moment`
+    : `the session has no run end: its run was cut short (a crash, a kill or a power loss) and nothing closed it; \`plumbline recover ${dir}\` closes it (its open sweep gets its end and final fit)`;
+}
+
 /** What to do when a daemon died with the output on (an instrument keeps its output state; common practice). */
 export const OUTPUT_MAY_BE_ON =
   'nothing turned it off when the daemon stopped, and a source-measure unit keeps its output state on its own. Check the instrument (its front panel) and turn the output off there before touching the probes or the fixture.';
 
 /**
  * Closes a session a dead process left open: terminates a torn last line (so the next append starts
- * on a fresh line; the torn text stays in the file and readers skip it), marks an unfinished sweep
- * incomplete and ends the run as 'interrupted'. A session a live process still writes is left alone;
+ * on a fresh line; the torn text stays in the file and readers skip it), ends an unfinished sweep
+ * (incomplete, with the reason) and journals its final fit from the readings on disk — the fit the
+ * run would have made at that sweep's end (`pipeline/sweep-fit.ts`, with the settings then in force)
+ * — and ends the run as 'interrupted'. A session a live process still writes is left alone;
  * a finished session is reported unchanged.
  */
 export function recoverSession(dir: string): RecoveryReport {
@@ -203,18 +222,42 @@ export function recoverSession(dir: string): RecoveryReport {
   let maxSweep = 0;
   let control = false;
   let outputOn = false;
+  // What the run's final fit of the open sweep would have used: the settings in force, the run's
+  // compliance limit, its null readings so far, and the sweep's readings.
+  type InForce = { ok: true; analysis: AnalysisSettings } | { ok: false; problem: string };
+  let settings = { ok: false, problem: 'the journal holds no analysis settings' } as InForce;
+  let complianceLimit: number | undefined;
+  const nulls = new NullReadings();
+  let open = { v: [] as number[], i: [] as number[], flags: [] as number[] };
+  const takeSettings = (raw: unknown, where: string) => {
+    const r = analysisSchema.safeParse(raw);
+    settings = r.success
+      ? { ok: true, analysis: r.data }
+      : { ok: false, problem: `the analysis settings of the ${where} cannot be read (${r.error.issues[0]?.message ?? 'invalid'})` };
+  };
   const scan = scanJournal(dir, (e) => {
-    if (e.type === 'session') control = e.source.control;
+    if (e.type === 'session') {
+      control = e.source.control;
+      complianceLimit = (e.plan as { compliance?: number } | null)?.compliance;
+      takeSettings(e.analysis, 'session event');
+    } else if (e.type === 'settings') takeSettings(e.analysis, `settings event ${e.seq}`);
     else if (e.type === 'output') outputOn = e.on;
     else if (e.type === 'sweep-start') {
       openSweep = e.sweep;
       planned = e.planned;
       pointsInOpen = 0;
+      open = { v: [], i: [], flags: [] };
     } else if (e.type === 'sweep-end') openSweep = null;
     else if (e.type === 'reading') {
       readings++;
       maxSweep = Math.max(maxSweep, e.sweep);
-      if (openSweep !== null && e.sweep === openSweep) pointsInOpen++;
+      if (openSweep !== null && e.sweep === openSweep) {
+        pointsInOpen++;
+        open.v.push(e.v);
+        open.i.push(e.i);
+        open.flags.push(e.flags);
+      }
+      nulls.note(e.v, e.i, e.flags, settings.ok ? (settings.analysis.inputs.flatBand ?? 0) : 0);
     } else if (e.type === 'run-end') ended = true;
   });
   const tornLines = scan.bad.length;
@@ -236,7 +279,7 @@ export function recoverSession(dir: string): RecoveryReport {
     closeSync(fd);
   }
   if (scan.tornReadingBytes > 0) truncateTornReadings(dir, scan.tornReadingBytes);
-  const w = JournalWriter.append(dir, scan.lastSeq, scan.lastT);
+  const w = JournalWriter.append(dir, scan.lastSeq, scan.lastT, scan.startedAt);
   const closedSweep: number | null = openSweep;
   // Every planned point journaled: the sweep is whole, whatever stopped the daemon after it.
   const whole = closedSweep !== null && planned > 0 && pointsInOpen >= planned;
@@ -269,6 +312,13 @@ export function recoverSession(dir: string): RecoveryReport {
           }
         : { type: 'sweep-end', sweep: closedSweep, points: pointsInOpen, complete: false, note: 'the daemon stopped mid-sweep (recovered on the next start)' },
     );
+    // The final fit the run would have journaled at this sweep's end, from the readings on disk.
+    const s = settings;
+    if (s.ok) {
+      const knownFloor = nulls.trusted();
+      const { fit, error, solar } = finalFit(open.v, open.i, open.flags, { analysis: s.analysis, complianceLimit, ...(knownFloor ? { knownFloor } : {}) });
+      w.event({ type: 'fit', sweep: closedSweep, final: true, fit, ...(error ? { error } : {}), ...(solar ? { solar } : {}) });
+    } else w.event({ type: 'fit', sweep: closedSweep, final: true, fit: null, error: `not fitted on recovery: ${s.problem}` });
   }
   if (!ended)
     w.event({

@@ -23,7 +23,8 @@ import { deviceLine, deviceRows, type FigureRow, numberRows, OUTCOME_LABELS, res
 import { axisLabel, displayUnit, formatInputs, formatParameter, formatParameterText, formatQuantity, parameterLabel } from '../../protocols/display-units.js';
 import { formatNumber } from '../../protocols/number-format.js';
 import { OKABE_ITO, sweepColour } from '../../protocols/palette.js';
-import type { SolarSummary, WireEvent } from '../../protocols/wire.js';
+import type { FitSummary, SolarSummary, WireEvent } from '../../protocols/wire.js';
+import { noRunEndNote } from './reader.js';
 import { loadSession, type SessionData, type SweepData } from './sessions.js';
 import { svgChart, type SvgSeries } from './svg.js';
 
@@ -341,6 +342,11 @@ function readReanalyses(dir: string): KeptReanalysis[] {
   return out;
 }
 
+/** Why a fit is not plausible: the deciding check's warning (journals before it was recorded: the warnings). */
+function implausibleReason(f: FitSummary): string {
+  return f.failed?.[0] ?? (f.warnings.length ? "see the sweep's warnings" : 'no reason recorded');
+}
+
 export function renderReport(s: SessionData, reanalyses: readonly KeptReanalysis[] = []): string {
   const se = s.session;
   const plan = se?.plan as Record<string, unknown> | null | undefined;
@@ -354,7 +360,7 @@ h1{font-size:1.4rem}h2{font-size:1.15rem;margin-top:1.6rem;border-bottom:1px sol
 table{border-collapse:collapse;font-variant-numeric:tabular-nums;font-size:.85rem}td,th{border-bottom:1px solid #ddd;padding:.15rem .4rem;text-align:left;vertical-align:top}
 table.kv th{font-weight:600;color:#444;width:16rem}.settings{display:grid;grid-template-columns:1fr 1fr;gap:.3rem 1.5rem}
 .chart text{font-size:10px;fill:#333}.chart .t{font-size:12px;font-weight:600}.chart .ax{font-size:11px}
-.note{color:#555;font-size:.85rem}.caution{border:2px solid #7a1010;background:#fde3de;padding:.4rem .6rem;margin:.6rem 0}
+.note{color:#555;font-size:.85rem}tr.implausible td{color:#7a1010}.implausible{color:#7a1010;font-weight:600}.caution{border:2px solid #7a1010;background:#fde3de;padding:.4rem .6rem;margin:.6rem 0}
 .sweep{page-break-inside:avoid;break-inside:avoid;margin-bottom:1rem}.plots{display:flex;flex-wrap:wrap;gap:.5rem}
 @media print{body{margin:0}h2{page-break-after:avoid}}
 </style></head><body>`);
@@ -362,7 +368,11 @@ table.kv th{font-weight:600;color:#444;width:16rem}.settings{display:grid;grid-t
   out.push(
     `<p>Started ${esc(se?.startedAt ?? 'unknown')}; source: ${esc(se?.source.detail ?? 'unknown')}${se?.source.control === false ? ' (watched; plumbline did not control the instrument)' : ''}; instrument: ${esc(se?.instrument ?? 'unknown')}.<br>`,
   );
-  out.push(`Ended: <b>${esc(s.runEnd?.outcome ?? 'not ended')}</b>${s.runEnd ? ` — ${esc(s.runEnd.reason)}` : ''}. ${n} sweep(s).</p>`);
+  out.push(
+    s.runEnd
+      ? `Ended: <b>${esc(s.runEnd.outcome)}</b> — ${esc(s.runEnd.reason)}. ${n} sweep(s).</p>`
+      : `Ended: <b>no run end yet</b>. ${n} sweep(s).</p><p class="caution">${esc(upperFirst(noRunEndNote(s.dir)))}.</p>`,
+  );
   out.push(
     '<p class="caution">Cautions and decisions below record what the software saw. They do not replace your lab\'s safety rules, the instrument\'s manual or licensed practice.</p>',
   );
@@ -455,7 +465,10 @@ table.kv th{font-weight:600;color:#444;width:16rem}.settings{display:grid;grid-t
   if (names.size === 0) out.push('<p class="note">No fitted parameters.</p>');
   for (const [name, unit] of names) {
     const du = displayUnit(unit, name);
-    const with_ = s.sweeps.filter((sw) => sw.fit?.parameters[name]);
+    // Plausible fits as dots joined by a line with their ± 2σ band; fits marked not plausible as
+    // open rings, unjoined and without a band (their uncertainty is not to be trusted).
+    const with_ = s.sweeps.filter((sw) => sw.fit?.parameters[name] && sw.fit.plausible);
+    const odd = s.sweeps.filter((sw) => sw.fit?.parameters[name] && !sw.fit.plausible);
     const xs = with_.map((sw) => sw.sweep);
     const val = with_.map((sw) => (sw.fit?.parameters[name].value as number) * du.scale);
     const se_ = with_.map((sw) => (sw.fit?.parameters[name].stdErr ?? 0) * du.scale);
@@ -465,6 +478,15 @@ table.kv th{font-weight:600;color:#444;width:16rem}.settings{display:grid;grid-t
       { x: xs, y: val.map((v, k) => v + 2 * se_[k]), color: OKABE_ITO.sky, dash: '2 2', label: '+2σ' },
       { x: xs, y: val.map((v, k) => v - 2 * se_[k]), color: OKABE_ITO.sky, dash: '2 2', label: '−2σ' },
     ];
+    if (odd.length)
+      series.push({
+        x: odd.map((sw) => sw.sweep),
+        y: odd.map((sw) => (sw.fit?.parameters[name].value as number) * du.scale),
+        color: OKABE_ITO.vermillion,
+        marker: 'ring',
+        line: false,
+        label: `${name} (not plausible)`,
+      });
     const ewma = mine.length > 0 && mine[0].method === 'ewma';
     if (ewma) {
       // One line per baseline: no line runs across a break.
@@ -490,7 +512,7 @@ table.kv th{font-weight:600;color:#444;width:16rem}.settings{display:grid;grid-t
     out.push(
       svgChart({
         width: 900,
-        title: `${parameterLabel(name)}${du.unit ? ` (${du.unit})` : ''}: value ● ± 2σ (dotted)${ewma ? '; EWMA ● (black) and its control limits (dashed)' : ''}${breaks.length && mine.length ? '; vertical dashes: a new drift baseline' : ''}`,
+        title: `${parameterLabel(name)}${du.unit ? ` (${du.unit})` : ''}: value ● ± 2σ (dotted)${odd.length ? `; ○ (red) a fit marked not plausible (${odd.length} sweep${odd.length > 1 ? 's' : ''}), no band: see the Results table` : ''}${ewma ? '; EWMA ● (black) and its control limits (dashed)' : ''}${breaks.length && mine.length ? '; vertical dashes: a new drift baseline' : ''}`,
         xLabel: 'sweep',
         xInteger: true,
         yLabel: label,
@@ -533,8 +555,9 @@ table.kv th{font-weight:600;color:#444;width:16rem}.settings{display:grid;grid-t
   out.push('<th>R²</th><th>drift</th><th>notes</th></tr>');
   for (const sw of s.sweeps) {
     const f = sw.fit;
+    const odd = f && !f.plausible ? ` <span class="implausible">not plausible: ${esc(implausibleReason(f))}</span>` : '';
     out.push(
-      `<tr><td>${sw.sweep}${sw.label ? ` <span class="note">${esc(sw.label)}</span>` : ''}</td><td>${sw.v.length}</td><td>${sw.complete === null ? '—' : sw.complete ? 'yes' : 'no'}</td><td>${esc(f?.model ?? '—')}</td><td>${f ? `${num(f.window.from, 4)} … ${num(f.window.to, 4)}` : esc(sw.fitError ?? '—')}</td>`,
+      `<tr${odd ? ' class="implausible"' : ''}><td>${sw.sweep}${sw.label ? ` <span class="note">${esc(sw.label)}</span>` : ''}</td><td>${sw.v.length}</td><td>${sw.complete === null ? '—' : sw.complete ? 'yes' : 'no'}</td><td>${esc(f?.model ?? '—')}${odd}</td><td>${f ? `${num(f.window.from, 4)} … ${num(f.window.to, 4)}` : esc(sw.fitError ?? '—')}</td>`,
     );
     for (const [name] of names) {
       const p = f?.parameters[name];
@@ -615,6 +638,8 @@ table.kv th{font-weight:600;color:#444;width:16rem}.settings{display:grid;grid-t
     }
     if (sw.solar && Object.keys(sw.solar.figures).length) out.push(solarChart(sw, sw.solar));
     out.push('</div>');
+    if (sw.fit && !sw.fit.plausible)
+      out.push(`<p class="note"><span class="implausible">Not plausible for this mechanism:</span> ${esc(implausibleReason(sw.fit))}.</p>`);
     if (sw.fit)
       out.push(
         `<p class="note">${Object.entries(sw.fit.parameters)
@@ -639,9 +664,15 @@ table.kv th{font-weight:600;color:#444;width:16rem}.settings{display:grid;grid-t
   return out.join('\n');
 }
 
-export function writeReport(dir: string, out?: string): { file: string; sweeps: number } {
+/**
+ * Writes the report. `unfinished` is set when the journal has no run end (still being written, or
+ * cut by a crash): the report's header says so, and so should whoever called.
+ */
+export function writeReport(dir: string, out?: string): { file: string; sweeps: number; unfinished: string | null } {
   const s = loadSession(dir);
   const file = out ?? join(s.dir, 'report.html');
   writeFileSync(file, renderReport(s, readReanalyses(s.dir)));
-  return { file, sweeps: s.sweeps.length };
+  return { file, sweeps: s.sweeps.length, unfinished: s.runEnd ? null : noRunEndNote(s.dir) };
 }
+
+const upperFirst = (t: string) => t.charAt(0).toUpperCase() + t.slice(1);

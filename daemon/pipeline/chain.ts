@@ -9,15 +9,13 @@
  * that could drop or reorder readings sits between the instrument and the journal.
  */
 import { Subject } from 'rxjs';
-import { analyze, resolveInputs, transformPoint, type FitReport, type FitRequest, type IVData } from '../analysis/analyze.js';
+import { resolveInputs, transformPoint, type FitReport } from '../analysis/analyze.js';
 import { BreakdownWatch } from '../analysis/breakdown.js';
-import { robustRms } from '../analysis/noise-floor.js';
 import { atOneBias } from '../analysis/sweep-points.js';
 import { DriftChart } from '../analysis/drift.js';
-import { type Mechanism, READING_COLUMNS, type ResolvedInputs } from '../analysis/mechanism.js';
+import type { Mechanism, ResolvedInputs } from '../analysis/mechanism.js';
 import { getMechanism } from '../analysis/mechanisms/index.js';
 import { plotView, type PlotView } from '../analysis/plot.js';
-import { solarSummary } from '../analysis/solar-live.js';
 import { OUTPUT_BEING_TURNED_OFF } from '../../protocols/caution-words.js';
 import { displayUnit } from '../../protocols/display-units.js';
 import { formatNumber } from '../../protocols/number-format.js';
@@ -25,6 +23,7 @@ import { rankMechanisms } from '../analysis/ranking.js';
 import { FLAG, type FitSummary, type NewEvent, type RunOutcome, type SolarSummary, type WireEvent } from '../../protocols/wire.js';
 import type { JournalWriter } from '../journal/journal.js';
 import type { AnalysisSettings, BreakdownConfig, DriftConfig } from './settings.js';
+import { finalFit, fitReadings, NullReadings, readingData, solarOfReadings, type SweepFitContext, sweepInputs, sweepRequest, unheld } from './sweep-fit.js';
 
 export const FIT_INTERVAL_MS = 250;
 const PROGRESS_INTERVAL_MS = 250;
@@ -60,38 +59,7 @@ export interface ChainOptions {
   readonly viewsWanted?: () => boolean;
 }
 
-export function summarizeFit(r: FitReport): FitSummary {
-  return {
-    model: r.model,
-    title: r.title,
-    window: r.window,
-    line: {
-      slope: r.line.slope,
-      slopeStdErr: r.line.slopeStdErr,
-      intercept: r.line.intercept,
-      interceptStdErr: r.line.interceptStdErr,
-      r2: r.line.r2,
-      residualStdDev: r.line.residualStdDev,
-      n: r.line.n,
-    },
-    axes: {
-      x: { label: r.axes.x.label, unit: r.axes.x.unit, kind: r.axes.x.kind },
-      y: { label: r.axes.y.label, unit: r.axes.y.unit, kind: r.axes.y.kind },
-    },
-    parameters: r.parameters,
-    plausible: r.plausible,
-    warnings: r.warnings,
-    points: r.points,
-    regimes: r.regimes,
-    noise: { floor: r.noise.floor, floorSource: r.noise.floorSource, relative: r.noise.relative },
-  };
-}
-
-/** Readings whose bias the source did not hold (at compliance, or at breakdown), from the reading flags. */
-const unheld =
-  (c: readonly number[]) =>
-  (k: number): boolean =>
-    (c[k] & (FLAG.compliance | FLAG.breakdown)) !== 0;
+export { summarizeFit } from './sweep-fit.js';
 
 /** Ranking runs at a sweep's end at most this often, and on sweeps up to this many points. */
 const RANKING_INTERVAL_MS = 1000;
@@ -121,17 +89,12 @@ export class LiveChain {
   private c: number[] = [];
   /** Polarity of the breakdown watch's current trend (a change restarts it). */
   private trendSign = 0;
-  /** Recent null readings (zero bias, against the bias) and the largest |I| seen, for the floor. */
-  private readonly nulls: number[] = [];
-  private maxCurrent = 0;
-  /** Whether a null reading flowed against the bias, and the signs of the zero-bias ones. */
-  private readonly noiseSigns = { against: false, plus: false, minus: false };
-  /** The floor those null readings give (see noteNull; a fit uses it once the currents seen dwarf it). */
-  private nullFloor: { sigma: number; readings: number } | undefined;
+  /** The run's null readings (zero bias, against the bias) and the largest |I| seen, for the floor. */
+  private readonly nulls = new NullReadings();
 
   /** The noise floor σ (A) of the run's null readings so far (zero bias, current against the bias), when they show one. */
   get noiseFloor(): { readonly sigma: number; readonly readings: number } | undefined {
-    return this.nullFloor;
+    return this.nulls.floor;
   }
   private complianceSeen = false;
   private sweepTemperature: number | undefined;
@@ -332,21 +295,8 @@ export class LiveChain {
    * zero-bias current is steady and of one sign carries a current there, not noise).
    */
   private noteNull(v: number, i: number, flags: number): void {
-    if (flags !== 0 || !Number.isFinite(v) || !Number.isFinite(i)) return;
-    const b = v - this.inputs.flatBand;
-    if (Math.abs(i) > this.maxCurrent) this.maxCurrent = Math.abs(i);
-    if (!(Math.abs(b) <= 1e-4 * Math.max(1, Math.abs(v)) || i * b < 0)) return;
-    this.nulls.push(i);
-    if (this.nulls.length > 256) this.nulls.shift();
-    if (i * b < 0) this.noiseSigns.against = true;
-    else if (i > 0) this.noiseSigns.plus = true;
-    else if (i < 0) this.noiseSigns.minus = true;
-    if (this.nulls.length < 3) return;
-    const sigma = robustRms(this.nulls);
-    // Also the floor for a later sweep's fit that reads no null readings of its own.
-    const n = this.noiseSigns;
-    if (n.against || (n.plus && n.minus)) this.nullFloor = { sigma, readings: this.nulls.length };
-    if (sigma <= 0.01 * this.maxCurrent) this.breakdown?.setNoiseFloor(sigma);
+    const sigma = this.nulls.note(v, i, flags, this.inputs.flatBand);
+    if (sigma !== undefined && sigma <= 0.01 * this.nulls.maxCurrent) this.breakdown?.setNoiseFloor(sigma);
   }
 
   rejected(raw: string, reason: string): void {
@@ -367,11 +317,6 @@ export class LiveChain {
     this.emit({ type: 'progress', sweep: this.sweep, sweeps: Math.max(sweeps, this.sweep), point: this.k, points, eta });
   }
 
-  /** A sweep's readings as analysis data (compliance and breakdown from the flag bits). */
-  private data(v: number[], i: number[], c: number[]): IVData {
-    return { x: v, y: i, compliance: c.map((f) => f & FLAG.compliance), breakdown: c.map((f) => f & FLAG.breakdown) };
-  }
-
   /**
    * The temperature of the sweep under way, K, when the data carry their own (a temperature column
    * read by `watch`): its fits use it in place of the analysis setting's, which would put every sweep
@@ -382,35 +327,19 @@ export class LiveChain {
     this.sweepTemperature = t !== undefined && t > 0 && Number.isFinite(t) ? t : undefined;
   }
 
-  /** The analysis inputs for this sweep's fits: the settings', with the sweep's own temperature when it has one. */
-  private sweepInputs(): AnalysisSettings['inputs'] {
-    return this.sweepTemperature === undefined ? this.analysis.inputs : { ...this.analysis.inputs, temperature: this.sweepTemperature };
-  }
-
-  /** The run's analysis settings as a fit request. */
-  private request(regimes: boolean): FitRequest {
+  /** What this sweep's fits depend on besides its readings: the settings, the sweep's temperature, the run's floor. */
+  private context(): SweepFitContext {
+    const knownFloor = this.nulls.trusted();
     return {
-      model: this.analysis.model,
-      columns: READING_COLUMNS,
-      inputs: this.sweepInputs(),
-      window: this.analysis.window,
+      analysis: this.analysis,
       complianceLimit: this.options.complianceLimit,
-      regimes,
-      ...(this.analysis.solar ? { illuminated: true } : {}),
-      // Trusted only once the currents seen dwarf it (as for the breakdown watch).
-      ...(this.nullFloor && this.nullFloor.sigma <= 0.01 * this.maxCurrent ? { knownFloor: this.nullFloor } : {}),
+      ...(this.sweepTemperature !== undefined ? { temperature: this.sweepTemperature } : {}),
+      ...(knownFloor ? { knownFloor } : {}),
     };
   }
 
   private fitNow(v: number[], i: number[], c: number[], regimes = true, quick = false): { fit: FitSummary | null; error?: string; report?: FitReport } {
-    if (atOneBias(v, unheld(c)))
-      return { fit: null, error: 'every reading is at one bias (a constant-stress interval): there is no current–voltage curve to fit' };
-    try {
-      const report = analyze(this.data(v, i, c), { ...this.request(regimes), quick });
-      return { fit: summarizeFit(report), report };
-    } catch (e) {
-      return { fit: null, error: (e as Error).message };
-    }
+    return fitReadings(v, i, c, this.context(), regimes, quick);
   }
 
   /** The fit of the sweep so far, without publishing it (adaptive plans decide from it). */
@@ -422,30 +351,21 @@ export class LiveChain {
   private publishFit(final: boolean): { fit: FitSummary | null } {
     // The regime search is left to the linearized view (computed only while a page watches): the
     // fit events carry the line and parameters, and the chain keeps its pace without a page.
-    const r = this.fitNow(this.v, this.i, this.c, false, !final);
-    const solar = final ? this.solarNow(this.v, this.i, this.c) : undefined;
+    const r = final ? finalFit(this.v, this.i, this.c, this.context()) : this.fitNow(this.v, this.i, this.c, false, true);
+    const solar = final ? (r as ReturnType<typeof finalFit>).solar : undefined;
     this.emit({ type: 'fit', sweep: this.sweep, final, fit: r.fit, ...(r.error ? { error: r.error } : {}), ...(solar ? { solar } : {}) });
     this.publishView(this.sweep, final, this.v, this.i, this.c);
     return r;
   }
 
-  /** A finished sweep of a solar cell (analysis option `solar`): figures of merit and the diode fit. */
   private solarNow(v: number[], i: number[], c: number[]): SolarSummary | undefined {
-    const s = this.analysis.solar;
-    if (!s) return undefined;
-    const inp = this.sweepInputs();
-    return solarSummary(this.data(v, i, c), {
-      temperature: inp.temperature,
-      area: inp.area,
-      irradiance: s.irradiance,
-      complianceLimit: this.options.complianceLimit,
-    });
+    return solarOfReadings(v, i, c, this.context());
   }
 
   private publishView(sweep: number, final: boolean, v: number[], i: number[], c: number[]): void {
     if (!(this.options.viewsWanted ? this.options.viewsWanted() : this.views$.observed) || atOneBias(v, unheld(c))) return;
     try {
-      const view = plotView(this.data(v, i, c), this.request(true));
+      const view = plotView(readingData(v, i, c), sweepRequest(this.context(), true));
       this.views$.next({ sweep, final, view });
     } catch {
       /* a view the data cannot give is simply not drawn; the fit event carries the reason */
@@ -468,8 +388,8 @@ export class LiveChain {
     this.rankedSweep = data.sweep;
     this.rankingSkipped = undefined;
     try {
-      const r = rankMechanisms(this.data(data.v, data.i, data.c), {
-        inputs: this.sweepInputs(),
+      const r = rankMechanisms(readingData(data.v, data.i, data.c), {
+        inputs: sweepInputs(this.context()),
         window: this.analysis.window,
         complianceLimit: this.options.complianceLimit,
       });

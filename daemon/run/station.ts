@@ -583,7 +583,7 @@ export function annotateFolder(
     const has = list.length === 0 ? 'has no sweeps' : list.length === list[list.length - 1] ? `has sweeps 1–${list.length}` : `has sweeps ${list.join(', ')}`;
     throw new StationError(`sweep ${ev.sweep}: the session in ${dir} ${has}; nothing was added`, 400);
   }
-  const w = JournalWriter.append(dir, scan.lastSeq, scan.lastT);
+  const w = JournalWriter.append(dir, scan.lastSeq, scan.lastT, scan.startedAt);
   try {
     return w.event(ev);
   } finally {

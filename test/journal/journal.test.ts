@@ -18,12 +18,12 @@ function tmp(): string {
   return mkdtempSync(join(tmpdir(), 'plumbline-journal-'));
 }
 
-function writeSession(data: string, sweeps: number, points: number, close = true, planned = points) {
+function writeSession(data: string, sweeps: number, points: number, close = true, planned = points, startedAt = new Date()) {
   const { writer, id } = JournalWriter.create(data, 'unit');
   writer.event({
     type: 'session',
     id,
-    startedAt: new Date().toISOString(),
+    startedAt: startedAt.toISOString(),
     source: { kind: 'test', detail: '', control: false },
     instrument: 'x',
     plan: {},
@@ -79,11 +79,12 @@ describe('journal', () => {
     const scan = scanJournal(dir, (e) => after.push(e));
     expect(scan.bad).toHaveLength(1);
     expect(scan.bad[0].problem).toMatch(/torn/);
-    const tail = after.slice(-3).map((e) => e.type);
-    expect(tail).toEqual(['recovery', 'sweep-end', 'run-end']);
+    const tail = after.slice(-4).map((e) => e.type);
+    // The cut sweep's final fit follows its end, as the run journals it.
+    expect(tail).toEqual(['recovery', 'sweep-end', 'fit', 'run-end']);
     const end = after.at(-1);
     expect(end?.type === 'run-end' && end.outcome).toBe('interrupted');
-    const sweepEnd = after.at(-2);
+    const sweepEnd = after.at(-3);
     expect(sweepEnd?.type === 'sweep-end' && sweepEnd.complete).toBe(false);
     expect(sweepEnd?.type === 'sweep-end' && sweepEnd.points).toBe(20);
     // Recovering again changes nothing.
@@ -100,6 +101,31 @@ describe('journal', () => {
     expect(sweepEnd).toMatchObject({ complete: true, points: 20 });
     // This session had no control of an instrument: nothing to say about an output.
     expect(r.outputMayBeOn).toBe(false);
+  });
+
+  it('events appended after the run are stamped with the time since the session started, never before the last event', () => {
+    // A session that started 95 s ago and whose run took a few milliseconds: a note added now, and
+    // a recovery run now, happened ~95 s into the session, not right after its last reading.
+    const ago = 95_000;
+    const closed = writeSession(tmp(), 1, 10, true, 10, new Date(Date.now() - ago));
+    const before = Date.now();
+    const note = annotateFolder(closed.dir, { type: 'annotation', text: 'looked at it later', tags: [], source: 'test' });
+    const after = Date.now();
+    expect(note.t).toBeGreaterThanOrEqual(ago - 5);
+    expect(note.t).toBeLessThanOrEqual(ago + (after - before) + 1000);
+    const crashed = writeSession(tmp(), 1, 10, false, 20, new Date(Date.now() - ago));
+    recoverSession(crashed.dir);
+    const ev: WireEvent[] = [];
+    scanJournal(crashed.dir, (e) => ev.push(e));
+    const rec = ev.find((e) => e.type === 'recovery');
+    expect(rec?.t).toBeGreaterThanOrEqual(ago - 5);
+    expect(rec?.t).toBeLessThanOrEqual(ago + 5000);
+    // A start in the future (the clock set back since): the journal's own time goes on from its last event.
+    const skewed = writeSession(tmp(), 1, 10, true, 10, new Date(Date.now() + 3_600_000));
+    const lastT = scanJournal(skewed.dir, () => {}).lastT;
+    const late = annotateFolder(skewed.dir, { type: 'annotation', text: 'clock set back', tags: [], source: 'test' });
+    expect(late.t).toBeGreaterThanOrEqual(lastT);
+    expect(late.t).toBeLessThan(lastT + 1000);
   });
 
   it('a damaged line in the middle is reported with its number and the rest is read', () => {

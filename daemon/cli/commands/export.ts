@@ -23,6 +23,7 @@ export function registerExport(program: Command): void {
       throw new UsageError("--out names one folder: with several sessions each is exported into its own folder's export/");
     for (const d of dirs) {
       const r = exportSession(d, o.out !== undefined ? resolve(o.out) : undefined);
+      if (r.unfinished) process.stderr.write(`warning: ${d}: ${r.unfinished}\n`);
       if (o.json) process.stdout.write(`${JSON.stringify(r)}\n`);
       else {
         process.stdout.write(`${r.readings} readings in ${r.sweeps} sweep(s) exported to ${r.outDir}\n`);

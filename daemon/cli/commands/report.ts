@@ -17,6 +17,7 @@ export function registerReport(program: Command): void {
     const { writeReport } = await import('../../journal/report.js');
     const [d] = await sessionDirs(dir, o, true);
     const r = writeReport(d, o.out !== undefined ? resolve(o.out) : undefined);
+    if (r.unfinished) process.stderr.write(`warning: ${d}: ${r.unfinished}\n`);
     process.stdout.write(`report of ${r.sweeps} sweep(s) written to ${r.file}\n`);
   });
 }
