@@ -6,8 +6,7 @@
  * instrument.
  */
 import { fromEvent, merge, map, takeUntil, type Subscription } from 'rxjs';
-import type { ColumnMapping } from '../../protocols/csv-rows.js';
-import { CsvRowMapper } from '../../protocols/csv-rows.js';
+import { type ColumnMapping, type ColumnsInUse, CsvRowMapper, describeColumns } from '../../protocols/csv-rows.js';
 import type { LineSource } from '../../protocols/line-source.js';
 import type { LiveChain } from './chain.js';
 
@@ -99,15 +98,28 @@ export interface PassiveStats {
   sweeps: number;
 }
 
-/** Feeds a line source into the chain until the source ends or `stop()` is called. */
+/**
+ * Feeds a line source into the chain until the source ends or `stop()` is called. `onColumns` hears the columns in use when a header (or a first
+ * row) fixes them, and again if a restarted file's header changes them. A header the mapping does
+ * not fit (a named column it lacks) stops the feed: `done` rejects with the CsvError.
+ */
 export function feedPassive(
   source: LineSource,
   chain: LiveChain,
   mapping: ColumnMapping,
   where: string,
   temperatureStep = DEFAULT_TEMPERATURE_STEP,
+  onColumns: (columns: ColumnsInUse, text: string) => void = () => undefined,
 ): { stats: PassiveStats; done: Promise<void>; stop(): void } {
-  const mapper = new CsvRowMapper(mapping);
+  const mapper = new CsvRowMapper(mapping, where);
+  let told = '';
+  const tell = () => {
+    const c = mapper.columns;
+    if (!c) return;
+    const text = describeColumns(c);
+    if (text !== told) onColumns(c, text);
+    told = text;
+  };
   const seg = new ReversalSegmenter();
   const temps = new TemperatureSteps(temperatureStep);
   const stats: PassiveStats = { lines: 0, readings: 0, rejected: 0, sweeps: 0 };
@@ -132,15 +144,24 @@ export function feedPassive(
     tN = 0;
   };
   let resolveDone: () => void = () => undefined;
-  const done = new Promise<void>((r) => (resolveDone = r));
+  let rejectDone: (e: Error) => void = () => undefined;
+  const done = new Promise<void>((res, rej) => {
+    resolveDone = res;
+    rejectDone = rej;
+  });
   const end$ = fromEvent(source, 'end');
   const lines$ = fromEvent(source, 'line', (line: string, n: number) => ({ line, n }));
   const notices$ = fromEvent(source, 'notice', (text: string) => ({ notice: text }));
   let sub: Subscription | undefined;
-  const finish = () => {
+  let finished = false;
+  /** Ends the open sweep and the feed. */
+  const finish = (failure?: Error) => {
+    if (finished) return;
+    finished = true;
     endSweep();
     sub?.unsubscribe();
-    resolveDone();
+    if (failure) rejectDone(failure);
+    else resolveDone();
   };
   sub = merge(lines$, notices$)
     .pipe(
@@ -163,10 +184,15 @@ export function feedPassive(
         try {
           r = mapper.map(x.line as string);
         } catch (e) {
-          chain.rejected(x.line as string, `${where} line ${x.n}: ${(e as Error).message}`);
+          // The columns asked for are not in the header: no row can be read; the feed stops.
+          const failure = e as Error;
+          chain.rejected(x.line as string, `${where} line ${x.n}: ${failure.message}`);
           stats.rejected++;
+          finish(failure);
+          void source.stop();
           return;
         }
+        tell();
         if (r.kind === 'rejected') {
           chain.rejected(x.line as string, `${where} line ${x.n}: ${r.reason}`);
           stats.rejected++;
@@ -200,8 +226,8 @@ export function feedPassive(
     stats,
     done,
     stop: () => {
-      void source.stop();
       finish();
+      void source.stop();
     },
   };
 }

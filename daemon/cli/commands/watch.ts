@@ -15,9 +15,15 @@ export function registerWatch(program: Command): void {
       'follow readings another program produces — a CSV it is writing, standard input, a TCP or serial line stream — segment sweeps, and run the live chain, journal and page on them, with no control of the instrument',
     )
     .argument('<source>', 'the CSV being written; - for standard input; tcp://HOST:PORT; or serial:PATH (e.g. serial:/dev/ttyUSB0)')
-    .option('--voltage <col>', 'voltage column, by header name or 1-based position (default: the first)')
-    .option('--current <col>', 'current column (default: the second)')
-    .option('--compliance-column <col>', 'column flagging readings at compliance (non-zero)')
+    .option(
+      '--voltage <col>',
+      'voltage column, by header name or 1-based position (default: a column named voltage, bias or V, with or without a unit such as _V or (mV), else the first); a unit in the header is converted to V',
+    )
+    .option(
+      '--current <col>',
+      'current column (default: a column named current or I, with or without a unit such as _A or (nA), else the next one); a unit in the header is converted to A',
+    )
+    .option('--compliance-column <col>', 'column flagging readings at compliance (non-zero; default: a column named compliance, if any)')
     .option('--temperature-column <col>', 'column with the device temperature in K: each sweep gets a note "T = … K" (for plumbline tseries)')
     .option(
       '--temperature-step <kelvin>',
@@ -96,6 +102,14 @@ export function registerWatch(program: Command): void {
         const serial = src.kind === 'serial' ? serialSettings(src.path, o) : undefined;
         if (src.kind === 'file' && !existsSync(src.path))
           throw new UsageError(`${src.path}: ${notFound(src.path)} (watch follows a file that exists: create it first, even empty)`);
+        const where =
+          src.kind === 'stdin'
+            ? 'standard input'
+            : src.kind === 'tcp'
+              ? `TCP ${src.host}:${src.port}`
+              : src.kind === 'serial'
+                ? `serial ${src.path}`
+                : src.path;
         const station = new Station(config, dataDir(config, o.data));
         for (const r of station.recovered) log.notice(`journal ${r.dir}: ${r.message}`);
         // Another program's data: the fit window is found automatically unless the config fixes one.
@@ -116,20 +130,30 @@ export function registerWatch(program: Command): void {
         log.notice(
           `analysis: ${analysis.model}; inputs ${formatInputs(given) || 'none'} from the options${Object.keys(fromConfig).length ? `, ${formatInputs(fromConfig)} from the ${o.config ? 'config' : 'default station config'}` : ''} (give --thickness, --area, --temperature … for this device)`,
         );
+        const mapping = { voltage: o.voltage, current: o.current, compliance: o.complianceColumn, temperature: o.temperatureColumn };
+        // A file's header is read before the session opens: columns it lacks stop watch here (exit 2).
+        if (src.kind === 'file') {
+          const { CsvRowMapper } = await import('../../../protocols/csv-rows.js');
+          const { openSync, readSync, closeSync } = await import('node:fs');
+          const fd = openSync(src.path, 'r');
+          const head = Buffer.alloc(65536);
+          const n = readSync(fd, head, 0, head.length, 0);
+          closeSync(fd);
+          const lines = head.subarray(0, n).toString('utf8').split('\n');
+          // The last piece may be a line still being written.
+          if (n === head.length || !head.subarray(0, n).toString('utf8').endsWith('\n')) lines.pop();
+          const peek = new CsvRowMapper(mapping, where);
+          for (const line of lines) {
+            peek.map(line.replace(/\r$/, ''));
+            if (peek.columns) break;
+          }
+        }
         let srv: Awaited<ReturnType<typeof startServer>> | undefined;
         if (o.page) {
           const port = o.port !== undefined ? Number(o.port) : config.server.port;
           if (!Number.isInteger(port) || port < 0 || port > 65535) throw new UsageError(`--port '${o.port}': expected a port number`);
           srv = await startServer(station, { host: config.server.host, port, token: config.server.token, allowedHosts: config.server.allowedHosts });
         }
-        const where =
-          src.kind === 'stdin'
-            ? 'standard input'
-            : src.kind === 'tcp'
-              ? `TCP ${src.host}:${src.port}`
-              : src.kind === 'serial'
-                ? `serial ${src.path}`
-                : src.path;
         let source: import('../../../protocols/line-source.js').LineSource;
         try {
           source =
@@ -146,13 +170,7 @@ export function registerWatch(program: Command): void {
         }
         const pub = await startPublishing(config, dataDir(config, o.data), o, srv?.url ?? null);
         const passive = station.openPassive('watch', where);
-        const feed = feedPassive(
-          source,
-          passive.chain,
-          { voltage: o.voltage, current: o.current, compliance: o.complianceColumn, temperature: o.temperatureColumn },
-          where,
-          temperatureStep,
-        );
+        const feed = feedPassive(source, passive.chain, mapping, where, temperatureStep, (_c, text) => log.notice(text));
         log.notice(`watching ${where} → session ${passive.session}`);
         log.notice(`folder ${passive.dir}`);
         if (srv) log.notice(`page  ${srv.url}`);
@@ -169,20 +187,25 @@ export function registerWatch(program: Command): void {
           error: () => undefined,
         });
         let closed = false;
-        const close = async (why: string) => {
+        /** Ends the session; `failure`: the source's header does not fit the options (exit 2). */
+        const close = async (why: string, failure?: Error) => {
           if (closed) return;
           closed = true;
           feed.stop();
-          passive.close('completed', why);
+          passive.close(failure ? 'stopped' : 'completed', why);
           await srv?.close();
           await pub?.stop(3000);
           log.notice(`stopped: ${why}; ${feed.stats.readings} readings in ${feed.stats.sweeps} sweep(s), ${feed.stats.rejected} row(s) skipped`);
+          if (failure) throw failure;
           process.exit(0);
         };
         process.on('SIGINT', () => void close('interrupted (SIGINT)'));
         process.on('SIGTERM', () => void close('terminated (SIGTERM)'));
-        await feed.done;
-        await close('the source ended');
+        let failure: Error | undefined;
+        await feed.done.catch((e: Error) => {
+          failure = e;
+        });
+        await close(failure ? `the source's columns do not fit the options: ${failure.message}` : 'the source ended', failure);
       },
     );
 }
