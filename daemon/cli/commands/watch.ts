@@ -29,8 +29,11 @@ export function registerWatch(program: Command): void {
       '--temperature-step <kelvin>',
       "with --temperature-column: a reading this many kelvin from the sweep's recent temperatures starts a new sweep (default 2)",
     )
-    .option('--model <id>', "live-fit model (default: the config's)")
-    .option('--thickness <q>', 'film thickness, e.g. "8 nm" (the live fit\'s input; default: the config\'s)')
+    .option('--model <id>', "live-fit model (default: the --config's analysis model, else ohmic)")
+    .option(
+      '--thickness <q>',
+      'film thickness, e.g. "8 nm" (the live fit\'s inputs come from these options and the analysis section of a --config, nothing else)',
+    )
     .option('--area <q>', 'device area, e.g. "1e-4 cm^2"')
     .option('--temperature <q>', 'temperature, e.g. "300 K" or "25 degC"')
     .option('--mass-ratio <r>', 'tunnelling effective-mass ratio m*/m0')
@@ -112,23 +115,32 @@ export function registerWatch(program: Command): void {
                 : src.path;
         const station = new Station(config, dataDir(config, o.data));
         for (const r of station.recovered) log.notice(`journal ${r.dir}: ${r.message}`);
-        // Another program's data: the fit window is found automatically unless the config fixes one.
-        // The device's inputs from the options override the config's (named in the notice below).
+        // Another program's data, another device: the analysis and the device's inputs come from the
+        // options and from a config the user names (its analysis section), never from the demo
+        // scenario of the default station config. The fit window is found automatically unless the
+        // config fixes one.
         const { readInputs } = await import('../inputs.js');
         const given = Object.fromEntries(Object.entries(readInputs(o as never)).filter(([, v]) => v !== undefined));
+        const own = config.analysis;
         const analysis = station.setAnalysis(
           {
-            ...station.analysisSettings,
-            ...(o.model !== undefined ? { model: o.model } : {}),
-            inputs: { ...station.analysisSettings.inputs, ...given },
-            window: config.analysis?.window ?? 'auto',
+            ...(own ?? {}),
+            model: o.model ?? own?.model ?? 'ohmic',
+            inputs: { ...(own?.inputs ?? {}), ...given },
+            window: own?.window ?? 'auto',
           },
           'cli',
         );
+        // A model that needs an input nobody gave stops here, as `fit` does (exit 2).
+        const { MODEL_IDS, getMechanism } = await import('../../analysis/mechanisms/index.js');
+        if (MODEL_IDS.includes(analysis.model) && analysis.model !== 'custom') {
+          const { resolveInputs } = await import('../../analysis/analyze.js');
+          resolveInputs(getMechanism(analysis.model), analysis.inputs);
+        }
         const { formatInputs } = await import('../../../protocols/display-units.js');
         const fromConfig = Object.fromEntries(Object.entries(analysis.inputs).filter(([k]) => !(k in given)));
         log.notice(
-          `analysis: ${analysis.model}; inputs ${formatInputs(given) || 'none'} from the options${Object.keys(fromConfig).length ? `, ${formatInputs(fromConfig)} from the ${o.config ? 'config' : 'default station config'}` : ''} (give --thickness, --area, --temperature … for this device)`,
+          `analysis: ${analysis.model}${o.model === undefined ? (own?.model !== undefined ? ` (from ${o.config})` : ' (the default; choose one with --model)') : ''}; inputs ${formatInputs(given) || 'none'} from the options${Object.keys(fromConfig).length ? `, ${formatInputs(fromConfig)} from ${o.config}` : ''}${Object.keys(given).length ? '' : ' (give --thickness, --area, --temperature … for this device)'}`,
         );
         const mapping = { voltage: o.voltage, current: o.current, compliance: o.complianceColumn, temperature: o.temperatureColumn };
         // A file's header is read before the session opens: columns it lacks stop watch here (exit 2).
