@@ -99,7 +99,9 @@ export interface PassiveStats {
 }
 
 /**
- * Feeds a line source into the chain until the source ends or `stop()` is called. `onColumns` hears the columns in use when a header (or a first
+ * Feeds a line source into the chain until the source ends or `stop(reason)` is called. A sweep the
+ * source ends is complete; one cut by `stop` or by the file starting again (truncated, replaced) is
+ * not, and its sweep-end says why. `onColumns` hears the columns in use when a header (or a first
  * row) fixes them, and again if a restarted file's header changes them. A header the mapping does
  * not fit (a named column it lacks) stops the feed: `done` rejects with the CsvError.
  */
@@ -110,7 +112,7 @@ export function feedPassive(
   where: string,
   temperatureStep = DEFAULT_TEMPERATURE_STEP,
   onColumns: (columns: ColumnsInUse, text: string) => void = () => undefined,
-): { stats: PassiveStats; done: Promise<void>; stop(): void } {
+): { stats: PassiveStats; done: Promise<void>; stop(reason: string): void } {
   const mapper = new CsvRowMapper(mapping, where);
   let told = '';
   const tell = () => {
@@ -126,9 +128,9 @@ export function feedPassive(
   let open = false;
   let tSum = 0;
   let tN = 0;
-  const endSweep = (note?: string) => {
+  const endSweep = (complete: boolean, note?: string) => {
     if (open) {
-      chain.endSweep(true, note);
+      chain.endSweep(complete, note);
       // A temperature column tags the sweep (the mean over its readings) for the temperature series.
       if (tN > 0)
         chain.emit({
@@ -154,11 +156,11 @@ export function feedPassive(
   const notices$ = fromEvent(source, 'notice', (text: string) => ({ notice: text }));
   let sub: Subscription | undefined;
   let finished = false;
-  /** Ends the open sweep and the feed. */
-  const finish = (failure?: Error) => {
+  /** Ends the open sweep (complete when the source itself ended) and the feed. */
+  const finish = (complete: boolean, why?: string, failure?: Error) => {
     if (finished) return;
     finished = true;
-    endSweep();
+    endSweep(complete, why);
     sub?.unsubscribe();
     if (failure) rejectDone(failure);
     else resolveDone();
@@ -171,8 +173,9 @@ export function feedPassive(
     .subscribe({
       next: (x) => {
         if (x.notice !== undefined) {
-          // Truncation or rotation: the file starts again (with its header); the sweep in progress ends.
-          endSweep(x.notice);
+          // Truncation or rotation: the file starts again (with its header); the sweep in progress
+          // was cut short.
+          endSweep(false, `cut short: ${x.notice}`);
           mapper.reset();
           seg.reset();
           temps.reset();
@@ -188,7 +191,7 @@ export function feedPassive(
           const failure = e as Error;
           chain.rejected(x.line as string, `${where} line ${x.n}: ${failure.message}`);
           stats.rejected++;
-          finish(failure);
+          finish(false, `cut short: ${failure.message}`, failure);
           void source.stop();
           return;
         }
@@ -204,7 +207,7 @@ export function feedPassive(
         const turned = seg.next(r.reading.v);
         if (stepped && !turned) seg.restartAt(r.reading.v);
         if (stepped || turned) {
-          endSweep();
+          endSweep(true);
           stats.sweeps++;
           chain.startSweep(stats.sweeps, 0, `sweep ${stats.sweeps} (from ${where})`);
           open = true;
@@ -219,14 +222,14 @@ export function feedPassive(
         chain.reading(r.reading.v, r.reading.i, r.compliance, r.reading.overflow);
         stats.readings++;
       },
-      error: () => finish(),
-      complete: () => finish(),
+      error: (e: unknown) => finish(false, `cut short: ${(e as Error)?.message ?? String(e)}`),
+      complete: () => finish(true),
     });
   return {
     stats,
     done,
-    stop: () => {
-      finish();
+    stop: (reason: string) => {
+      finish(false, `cut short: ${reason}`);
       void source.stop();
     },
   };

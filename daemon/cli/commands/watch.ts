@@ -189,7 +189,7 @@ export function registerWatch(program: Command): void {
         log.notice('plumbline does not control this instrument; Ctrl-C stops watching.');
         station.events$.subscribe({
           next: (e) => {
-            if (e.type === 'caution' && e.kind !== 'passive-source') log.warn(`CAUTION [${e.kind}] ${e.message}`);
+            if (e.type === 'caution') log.warn(`CAUTION [${e.kind}] ${e.message}`);
             else if (e.type === 'rejected') log.warn(`skipped: ${e.reason}`);
             else if (log.threshold === 'debug') {
               const line = describe(e);
@@ -203,7 +203,7 @@ export function registerWatch(program: Command): void {
         const close = async (why: string, failure?: Error) => {
           if (closed) return;
           closed = true;
-          feed.stop();
+          feed.stop(why);
           passive.close(failure ? 'stopped' : 'completed', why);
           await srv?.close();
           await pub?.stop(3000);
