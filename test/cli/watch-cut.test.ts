@@ -67,6 +67,8 @@ describe('watch: sweeps cut short', () => {
     const data = join(tempDir(), 'data');
     const r = runCli(['watch', '-', '--no-page', '--model', 'ohmic', '--data', data], `V,I\n${rows(0, 20)}`);
     expect(r.code, r.stderr).toBe(0);
+    // The session's first caution, journaled as it opens, is on the terminal too.
+    expect(r.stdout + r.stderr).toMatch(/CAUTION \[passive-source\] Readings come from standard input\. plumbline does not control this instrument/);
     const ends = journal(data).filter((e) => e.type === 'sweep-end');
     expect(ends.map((e) => e.type === 'sweep-end' && [e.points, e.complete])).toEqual([[20, true]]);
   });

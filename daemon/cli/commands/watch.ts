@@ -181,12 +181,7 @@ export function registerWatch(program: Command): void {
           throw new UsageError(`cannot open ${where}: ${(e as Error).message}`);
         }
         const pub = await startPublishing(config, dataDir(config, o.data), o, srv?.url ?? null);
-        const passive = station.openPassive('watch', where);
-        const feed = feedPassive(source, passive.chain, mapping, where, temperatureStep, (_c, text) => log.notice(text));
-        log.notice(`watching ${where} → session ${passive.session}`);
-        log.notice(`folder ${passive.dir}`);
-        if (srv) log.notice(`page  ${srv.url}`);
-        log.notice('plumbline does not control this instrument; Ctrl-C stops watching.');
+        // Subscribed before the session opens: its first caution (no control of the instrument) is printed too.
         station.events$.subscribe({
           next: (e) => {
             if (e.type === 'caution') log.warn(`CAUTION [${e.kind}] ${e.message}`);
@@ -198,6 +193,12 @@ export function registerWatch(program: Command): void {
           },
           error: () => undefined,
         });
+        const passive = station.openPassive('watch', where);
+        const feed = feedPassive(source, passive.chain, mapping, where, temperatureStep, (_c, text) => log.notice(text));
+        log.notice(`watching ${where} → session ${passive.session}`);
+        log.notice(`folder ${passive.dir}`);
+        if (srv) log.notice(`page  ${srv.url}`);
+        log.notice('Ctrl-C stops watching.');
         let closed = false;
         /** Ends the session; `failure`: the source's header does not fit the options (exit 2). */
         const close = async (why: string, failure?: Error) => {
