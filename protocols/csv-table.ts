@@ -3,6 +3,7 @@
  * Comma, semicolon or tab separated (taken from the header line); lines starting with '#' and
  * blank lines are skipped. Every error names the file, the line and the column.
  */
+import { didYouMean } from '../daemon/analysis/did-you-mean.js';
 import { isAsciiBlank, type ScanCursor, scanInto } from './csv-scan.js';
 
 export class CsvError extends Error {
@@ -275,13 +276,21 @@ export function requireNumeric(table: CsvTable, k: number): void {
   if (t) throw new CsvError(table.file, t.line, table.headers[k], notNumberText(table, t.text, t.line));
 }
 
-/** Finds a column by header name (case-insensitive) or 1-based position. */
+/** Finds a column of a table by header name (case-insensitive) or 1-based position (`findColumn`). */
 export function columnIndex(table: CsvTable, spec: string, option: string): number {
-  const byName = table.headers.findIndex((h) => h.toLowerCase() === spec.trim().toLowerCase());
+  return findColumn(table.headers, spec, option, table.file);
+}
+
+/**
+ * A column named by the user: its header name (case-blind) or 1-based position. One that is not
+ * there is refused naming the option, the header's columns and a close name if there is one.
+ */
+export function findColumn(headers: readonly string[], spec: string, option: string, file: string): number {
+  const byName = headers.findIndex((h) => h.toLowerCase() === spec.trim().toLowerCase());
   if (byName >= 0) return byName;
   if (/^\d+$/.test(spec.trim())) {
     const k = Number(spec) - 1;
-    if (k >= 0 && k < table.headers.length) return k;
+    if (k >= 0 && k < headers.length) return k;
   }
-  throw new CsvError(table.file, undefined, spec, `${option}: no such column (columns: ${table.headers.join(', ')})`);
+  throw new CsvError(file, undefined, spec, `${option}: no such column (columns: ${headers.join(', ')})${didYouMean(spec.trim(), headers)}`);
 }

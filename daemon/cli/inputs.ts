@@ -12,7 +12,8 @@ import { fmt, type Inputs } from '../analysis/mechanism.js';
 import { getMechanism, MODEL_IDS } from '../analysis/mechanisms/index.js';
 import { columnIdentifiers, setExpressionEngine } from '../analysis/mechanisms/custom.js';
 import { readCsvTable } from '../../protocols/csv-file.js';
-import { columnIndex, CsvError, notNumberText, requireNumeric, type CsvTable } from '../../protocols/csv-table.js';
+import { chooseColumns, type ColumnOptions, columnScale } from '../../protocols/csv-columns.js';
+import { CsvError, notNumberText, requireNumeric, type CsvTable } from '../../protocols/csv-table.js';
 import { parseQuantity, QuantityError } from '../quantity.js';
 import { UsageError } from './usage.js';
 
@@ -150,27 +151,8 @@ export function readCompliance(o: AnalysisOptions): number | undefined {
   return o.compliance === undefined ? undefined : parseQuantity(o.compliance, 'current', '--compliance');
 }
 
-/** Scale to SI of the bias and current units a header may carry (common instrument-file units). */
-const PREFIXED = /^[fpnuµmk]?[AV]$/;
-
-/**
- * The scale of a bias (V) or current (A) unit with an SI prefix, by the project's quantity reader;
- * undefined for any other unit. 'µ' is read as 'u'.
- */
-function unitScale(unit: string, kind: 'voltage' | 'current'): number | undefined {
-  if (!PREFIXED.test(unit) || !unit.endsWith(kind === 'voltage' ? 'V' : 'A')) return undefined;
-  return parseQuantity(`1 ${unit.replace('µ', 'u')}`, kind, unit);
-}
-
-/** A header's name and unit: "Current (mA)", "I [mA]" and "I_mA" give name and unit; "current" gives the name alone. */
-export function headerUnit(header: string): { name: string; unit?: string } {
-  const h = header.trim();
-  const br = /^(.*?)\s*[([]\s*([^()[\]]+?)\s*[)\]]$/.exec(h);
-  if (br) return { name: br[1], unit: br[2] };
-  const us = /^(.*?)_([A-Za-zµ]+)$/.exec(h);
-  if (us && PREFIXED.test(us[2])) return { name: us[1], unit: us[2] };
-  return { name: h };
-}
+/** The options that name fit's columns, for messages. */
+const FIT_COLUMNS: ColumnOptions = { bias: '--x', current: '--y', pair: 'x and y' };
 
 /**
  * Loads the CSV and picks x, y and an optional compliance column. A file with a `sweep` column
@@ -180,15 +162,11 @@ export function headerUnit(header: string): { name: string; unit?: string } {
 export function loadData(file: string, o: AnalysisOptions): { table: CsvTable; data: IVData; notes: string[]; firstSeq?: number } {
   // Read as bytes: numbers are scanned in place, no string of the whole file is made.
   const table = readCsvTable(file);
-  // Without --x/--y: a column named as a bias (voltage_V, voltage, bias, V) and one named as a
-  // current (current_A, current, I), as our export and most instrument files name them; else the
-  // first two columns.
-  const named = (re: RegExp) => table.headers.findIndex((h) => re.test(headerUnit(h).name));
-  const xDefault = named(/^(voltage|bias|V)$/i);
-  const yDefault = named(/^(current|I)$/i);
-  const xi = o.x !== undefined ? columnIndex(table, o.x, '--x') : Math.max(xDefault, 0);
-  const yi = o.y !== undefined ? columnIndex(table, o.y, '--y') : yDefault >= 0 ? yDefault : xi === 1 && table.headers.length > 2 ? 2 : 1;
-  const ci = table.headers.findIndex((h) => /^compliance$/i.test(h));
+  // Without --x/--y: the columns named as a bias and a current (chooseColumns), else the first two.
+  const chosen = chooseColumns(table.headers, { bias: o.x, current: o.y }, FIT_COLUMNS, file);
+  const xi = chosen.bias;
+  const yi = chosen.current;
+  const ci = chosen.compliance;
   const si = table.headers.findIndex((h) => /^sweep$/i.test(h));
   // Only the columns in use must be numbers (an exported points.csv carries a text session column).
   for (const [k, option] of [
@@ -260,16 +238,10 @@ export function loadData(file: string, o: AnalysisOptions): { table: CsvTable; d
   };
   const scaled = (k: number, role: 'bias' | 'current'): Float64Array => {
     const h = table.headers[k];
-    const { unit } = headerUnit(h);
-    if (unit === undefined) return readings(k);
-    const kind = role === 'bias' ? 'voltage' : 'current';
-    const f = unitScale(unit, kind);
-    if (f === undefined && unitScale(unit, kind === 'voltage' ? 'current' : 'voltage') !== undefined) {
-      throw new CsvError(file, undefined, h, `the ${role} column is in ${unit}: are x and y swapped? name them with --x (bias) and --y (current)`);
-    }
-    if (f === undefined || f === 1) return readings(k);
+    const { scale, unit } = columnScale(h, role, FIT_COLUMNS, file);
+    if (scale === 1) return readings(k);
     notes.push(`column '${h}' read in ${unit} and converted to ${role === 'bias' ? 'V' : 'A'}`);
-    return Float64Array.from(readings(k), (v) => v * f);
+    return Float64Array.from(readings(k), (v) => v * scale);
   };
   notes.push(`columns used: x = '${table.headers[xi]}', y = '${table.headers[yi]}'`);
   const qi = table.headers.findIndex((h) => /^seq$/i.test(h));

@@ -6,8 +6,7 @@
  * instrument.
  */
 import { fromEvent, merge, map, takeUntil, type Subscription } from 'rxjs';
-import type { ColumnMapping } from '../../protocols/csv-rows.js';
-import { CsvRowMapper } from '../../protocols/csv-rows.js';
+import { type ColumnMapping, type ColumnsInUse, CsvRowMapper, describeColumns } from '../../protocols/csv-rows.js';
 import type { LineSource } from '../../protocols/line-source.js';
 import type { LiveChain } from './chain.js';
 
@@ -99,24 +98,39 @@ export interface PassiveStats {
   sweeps: number;
 }
 
-/** Feeds a line source into the chain until the source ends or `stop()` is called. */
+/**
+ * Feeds a line source into the chain until the source ends or `stop(reason)` is called. A sweep the
+ * source ends is complete; one cut by `stop` or by the file starting again (truncated, replaced) is
+ * not, and its sweep-end says why. `onColumns` hears the columns in use when a header (or a first
+ * row) fixes them, and again if a restarted file's header changes them. A header the mapping does
+ * not fit (a named column it lacks) stops the feed: `done` rejects with the CsvError.
+ */
 export function feedPassive(
   source: LineSource,
   chain: LiveChain,
   mapping: ColumnMapping,
   where: string,
   temperatureStep = DEFAULT_TEMPERATURE_STEP,
-): { stats: PassiveStats; done: Promise<void>; stop(): void } {
-  const mapper = new CsvRowMapper(mapping);
+  onColumns: (columns: ColumnsInUse, text: string) => void = () => undefined,
+): { stats: PassiveStats; done: Promise<void>; stop(reason: string): void } {
+  const mapper = new CsvRowMapper(mapping, where);
+  let told = '';
+  const tell = () => {
+    const c = mapper.columns;
+    if (!c) return;
+    const text = describeColumns(c);
+    if (text !== told) onColumns(c, text);
+    told = text;
+  };
   const seg = new ReversalSegmenter();
   const temps = new TemperatureSteps(temperatureStep);
   const stats: PassiveStats = { lines: 0, readings: 0, rejected: 0, sweeps: 0 };
   let open = false;
   let tSum = 0;
   let tN = 0;
-  const endSweep = (note?: string) => {
+  const endSweep = (complete: boolean, note?: string) => {
     if (open) {
-      chain.endSweep(true, note);
+      chain.endSweep(complete, note);
       // A temperature column tags the sweep (the mean over its readings) for the temperature series.
       if (tN > 0)
         chain.emit({
@@ -132,15 +146,24 @@ export function feedPassive(
     tN = 0;
   };
   let resolveDone: () => void = () => undefined;
-  const done = new Promise<void>((r) => (resolveDone = r));
+  let rejectDone: (e: Error) => void = () => undefined;
+  const done = new Promise<void>((res, rej) => {
+    resolveDone = res;
+    rejectDone = rej;
+  });
   const end$ = fromEvent(source, 'end');
   const lines$ = fromEvent(source, 'line', (line: string, n: number) => ({ line, n }));
   const notices$ = fromEvent(source, 'notice', (text: string) => ({ notice: text }));
   let sub: Subscription | undefined;
-  const finish = () => {
-    endSweep();
+  let finished = false;
+  /** Ends the open sweep (complete when the source itself ended) and the feed. */
+  const finish = (complete: boolean, why?: string, failure?: Error) => {
+    if (finished) return;
+    finished = true;
+    endSweep(complete, why);
     sub?.unsubscribe();
-    resolveDone();
+    if (failure) rejectDone(failure);
+    else resolveDone();
   };
   sub = merge(lines$, notices$)
     .pipe(
@@ -150,8 +173,9 @@ export function feedPassive(
     .subscribe({
       next: (x) => {
         if (x.notice !== undefined) {
-          // Truncation or rotation: the file starts again (with its header); the sweep in progress ends.
-          endSweep(x.notice);
+          // Truncation or rotation: the file starts again (with its header); the sweep in progress
+          // was cut short.
+          endSweep(false, `cut short: ${x.notice}`);
           mapper.reset();
           seg.reset();
           temps.reset();
@@ -163,10 +187,15 @@ export function feedPassive(
         try {
           r = mapper.map(x.line as string);
         } catch (e) {
-          chain.rejected(x.line as string, `${where} line ${x.n}: ${(e as Error).message}`);
+          // The columns asked for are not in the header: no row can be read; the feed stops.
+          const failure = e as Error;
+          chain.rejected(x.line as string, `${where} line ${x.n}: ${failure.message}`);
           stats.rejected++;
+          finish(false, `cut short: ${failure.message}`, failure);
+          void source.stop();
           return;
         }
+        tell();
         if (r.kind === 'rejected') {
           chain.rejected(x.line as string, `${where} line ${x.n}: ${r.reason}`);
           stats.rejected++;
@@ -178,7 +207,7 @@ export function feedPassive(
         const turned = seg.next(r.reading.v);
         if (stepped && !turned) seg.restartAt(r.reading.v);
         if (stepped || turned) {
-          endSweep();
+          endSweep(true);
           stats.sweeps++;
           chain.startSweep(stats.sweeps, 0, `sweep ${stats.sweeps} (from ${where})`);
           open = true;
@@ -193,15 +222,15 @@ export function feedPassive(
         chain.reading(r.reading.v, r.reading.i, r.compliance, r.reading.overflow);
         stats.readings++;
       },
-      error: () => finish(),
-      complete: () => finish(),
+      error: (e: unknown) => finish(false, `cut short: ${(e as Error)?.message ?? String(e)}`),
+      complete: () => finish(true),
     });
   return {
     stats,
     done,
-    stop: () => {
+    stop: (reason: string) => {
+      finish(false, `cut short: ${reason}`);
       void source.stop();
-      finish();
     },
   };
 }

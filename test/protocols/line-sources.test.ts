@@ -65,7 +65,15 @@ describe('stdin-like stream sources and column mapping', () => {
     expect(bad.kind === 'rejected' && bad.reason).toBe("column 'Id': 'oops' is not a number");
   });
   it('an unknown mapped column is an error naming the column and the header', () => {
-    const m = new CsvRowMapper({ current: 'amps' });
-    expect(() => m.map('V,I')).toThrowError(/current column 'amps' is not in the header \(V, I\)/);
+    const m = new CsvRowMapper({ current: 'amps' }, 'run.csv');
+    expect(() => m.map('V,I')).toThrowError("run.csv, column 'amps': --current: no such column (columns: V, I)");
+    expect(() => new CsvRowMapper({ current: 'Id' }, 'run.csv').map('V,I_d')).toThrowError("(did you mean 'I_d'?)");
+  });
+  it('reads units in the header as fit does: mV and nA to V and A', () => {
+    // SI prefixes m = 1e-3, n = 1e-9 (SI Brochure, 9th ed., 2019, Table 7).
+    const m = new CsvRowMapper();
+    expect(m.map('voltage (mV),current (nA)').kind).toBe('header');
+    const r = m.map('2500,4');
+    expect(r.kind === 'reading' && [r.reading.v, r.reading.i]).toEqual([2.5, 4e-9]);
   });
 });
