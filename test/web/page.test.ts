@@ -224,6 +224,15 @@ describe('live page in headless Chromium', () => {
     // ε_r is dimensionless: no unit is printed.
     expect(await page.locator('tr[data-param="relativePermittivity"] td.value .unit').count()).toBe(0);
     expect(await page.evaluate(() => (window as any).__plumbline.charts.lin.plot.axes[0].label)).toBe('√E ((MV/cm)^½)');
+    // Poole–Frenkel read on a Fowler–Nordheim oxide is not plausible: the page names the check
+    // that decided it, as the daemon recorded it.
+    const pf = await page.evaluate(() => {
+      const s = (window as any).__plumbline.store;
+      return s.reanalysis.fits.get(s.currentSweep())?.fit;
+    });
+    expect(pf.plausible).toBe(false);
+    expect(pf.failed.length).toBeGreaterThan(0);
+    expect(await page.textContent('#fit-warnings li.implausible')).toBe(`Not plausible for this mechanism: ${pf.failed[0]}.`);
     await snap(page, 'page-model-change-after-run.png');
 
     // A plain line through the readings has no physical parameter: its slope and intercept are

@@ -213,7 +213,9 @@ export function renderFitNotes(box: HTMLElement, fit: FitSummary | null | undefi
   if (!fit.plausible) {
     const li = document.createElement('li');
     li.className = 'implausible';
-    li.textContent = 'Not plausible for this mechanism: see the notes.';
+    // The check that decided it, as the daemon recorded it (older journals: the list below).
+    const why = fit.failed?.[0];
+    li.textContent = why ? `Not plausible for this mechanism: ${why}.` : 'Not plausible for this mechanism: see the notes.';
     ul.append(li);
   }
   for (const t of fit.warnings) {
