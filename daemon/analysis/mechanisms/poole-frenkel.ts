@@ -21,6 +21,24 @@ export function permittivityFromRootFieldSlope(slope: number, slopeStdErr: numbe
 }
 
 /**
+ * The dynamic permittivity a √E line gives (γ = 1 Poole–Frenkel, γ = 4 Schottky) with its checks:
+ * within 1–30, and against n² (checkAgainstIndex, `other` the reading of the same slope by the other
+ * emission). Warnings, notes and failed checks go to the lists given; returns ε_r and whether it passed.
+ */
+export function rootFieldPermittivity(
+  line: { slope: number; slopeStdErr: number },
+  inputs: { temperature: number; refractiveIndex?: number; permittivity?: number },
+  gamma: 1 | 4,
+  other: { name: string; factor: number },
+  lists: { warnings: string[]; notes: string[]; failed: string[] },
+): { eps: { value: number; stdErr: number }; plausible: boolean } {
+  const eps = permittivityFromRootFieldSlope(line.slope, line.slopeStdErr, inputs.temperature, gamma);
+  const inside = inRange(lists.warnings, 'dynamic permittivity', eps.value, 1, 30, '', lists.failed);
+  const agrees = checkAgainstIndex(eps.value, eps.stdErr, inputs.refractiveIndex, inputs.permittivity, lists.warnings, lists.notes, other, lists.failed);
+  return { eps, plausible: inside && agrees };
+}
+
+/**
  * Compares a dynamic permittivity (with its standard error) with n². The value agrees when it lies
  * within 15 % of n² or within two of its standard errors of it: the dynamic permittivity of the
  * emission is the optical one, n² (Chiu 2014; Sze & Ng 2007), and ε_r is the quantity quoted to
@@ -97,19 +115,7 @@ export const pooleFrenkelMechanism: Mechanism = {
       return { parameters: {}, warnings, plausible: false, notes, failed: [...warnings] };
     }
     const failed: string[] = [];
-    const eps = permittivityFromRootFieldSlope(line.slope, line.slopeStdErr, inputs.temperature, 1);
-    let plausible = inRange(warnings, 'dynamic permittivity', eps.value, 1, 30, '', failed);
-    plausible =
-      checkAgainstIndex(
-        eps.value,
-        eps.stdErr,
-        inputs.refractiveIndex,
-        inputs.permittivity,
-        warnings,
-        notes,
-        { name: 'Schottky emission', factor: 0.25 },
-        failed,
-      ) && plausible;
+    const { eps, plausible } = rootFieldPermittivity(line, inputs, 1, { name: 'Schottky emission', factor: 0.25 }, { warnings, notes, failed });
     return { parameters: { relativePermittivity: param(eps.value, eps.stdErr, '1') }, warnings, plausible, notes, failed };
   },
   forward: (v, p, inp) => pooleFrenkel(field(v, inp), p.prefactor, p.trapDepth, p.relativePermittivity, inp.temperature),

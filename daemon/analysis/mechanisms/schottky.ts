@@ -6,7 +6,7 @@
  */
 import { BOLTZMANN_J_PER_K, ELEMENTARY_CHARGE_C as Q } from '../constants.js';
 import { currentUnit, field, inRange, param, type Extraction, type Mechanism, type ParameterValue } from '../mechanism.js';
-import { checkAgainstIndex, permittivityFromRootFieldSlope, rootFieldSlope } from './poole-frenkel.js';
+import { rootFieldPermittivity, rootFieldSlope } from './poole-frenkel.js';
 
 export function schottkyEmission(e: number, barrierHeight: number, permittivity: number, temperature: number, richardson: number): number {
   const kt = (BOLTZMANN_J_PER_K * temperature) / Q; // eV
@@ -41,20 +41,9 @@ export const schottkyMechanism: Mechanism = {
     }
     const failed: string[] = [];
     const parameters: Record<string, ParameterValue> = {};
-    const eps = permittivityFromRootFieldSlope(line.slope, line.slopeStdErr, inputs.temperature, 4);
-    parameters.relativePermittivity = param(eps.value, eps.stdErr, '1');
-    let plausible = inRange(warnings, 'dynamic permittivity', eps.value, 1, 30, '', failed);
-    plausible =
-      checkAgainstIndex(
-        eps.value,
-        eps.stdErr,
-        inputs.refractiveIndex,
-        inputs.permittivity,
-        warnings,
-        notes,
-        { name: 'Poole–Frenkel emission', factor: 4 },
-        failed,
-      ) && plausible;
+    const checked = rootFieldPermittivity(line, inputs, 4, { name: 'Poole–Frenkel emission', factor: 4 }, { warnings, notes, failed });
+    parameters.relativePermittivity = param(checked.eps.value, checked.eps.stdErr, '1');
+    let plausible = checked.plausible;
     if (inputs.area !== undefined) {
       const kt = (BOLTZMANN_J_PER_K * inputs.temperature) / Q;
       const phi = kt * (Math.log(inputs.richardson) - line.intercept);
